@@ -1,0 +1,52 @@
+import type { Metadata } from 'next';
+import Link from 'next/link';
+import { notFound } from 'next/navigation';
+import { env } from '@/lib/env';
+import { requireActor } from '@/lib/auth/session';
+import { readMailboxMessage } from '@/lib/services/mailbox';
+import { NotFoundError } from '@/lib/services/errors';
+
+export const metadata: Metadata = { title: 'Message' };
+
+export default async function MailboxMessagePage({ params }: { params: Promise<{ id: string }> }) {
+  if (!env.localMail) notFound();
+  const { actor } = await requireActor('mailbox.read', '/dev-mailbox');
+  const { id } = await params;
+  const m = await readMailboxMessage(actor, id).catch((e) => {
+    if (e instanceof NotFoundError) notFound();
+    throw e;
+  });
+  return (
+    <div className="space-y-4">
+      <p className="text-sm">
+        <Link href="/dev-mailbox">← Dev mailbox</Link>
+      </p>
+      <h1 className="text-2xl">{m.subject || '(no subject)'}</h1>
+      <dl className="grid grid-cols-[6rem_1fr] gap-1 text-sm">
+        <dt className="text-ink-500">From</dt>
+        <dd>{m.from}</dd>
+        <dt className="text-ink-500">To</dt>
+        <dd>{Array.isArray(m.to) ? m.to.join(', ') : m.to}</dd>
+        <dt className="text-ink-500">Received</dt>
+        <dd>{new Date(m.receivedAt).toLocaleString('en-GB')}</dd>
+        {(m.attachments?.length ?? 0) > 0 && (
+          <>
+            <dt className="text-ink-500">Attached</dt>
+            <dd>{m.attachments!.map((a) => a.filename).join(', ')}</dd>
+          </>
+        )}
+      </dl>
+      <h2 className="text-lg">As the recipient sees it</h2>
+      {m.html ? (
+        // The message is shown in a sandbox: no scripts, no same-origin access.
+        <iframe title="Message as the recipient sees it" sandbox="" srcDoc={m.html} className="h-[32rem] w-full rounded-lg border border-bone-300 bg-white" />
+      ) : null}
+      <details>
+        <summary className="cursor-pointer text-sm font-medium">Plain-text part</summary>
+        <pre className="mt-2 whitespace-pre-wrap rounded-md bg-white p-3 text-sm" data-testid="mail-text">
+          {m.text}
+        </pre>
+      </details>
+    </div>
+  );
+}

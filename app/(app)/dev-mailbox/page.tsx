@@ -1,0 +1,44 @@
+import type { Metadata } from 'next';
+import Link from 'next/link';
+import { notFound } from 'next/navigation';
+import { env } from '@/lib/env';
+import { requireActor } from '@/lib/auth/session';
+import { listMailbox } from '@/lib/services/mailbox';
+import { Notice } from '@/components/ui/Notice';
+
+export const metadata: Metadata = { title: 'Dev mailbox' };
+
+export default async function DevMailboxPage() {
+  if (!env.localMail) notFound();
+  const { actor } = await requireActor('mailbox.read', '/dev-mailbox');
+  let messages;
+  try {
+    messages = await listMailbox(actor);
+  } catch (e) {
+    return <Notice tone="alert">{(e as Error).message}</Notice>;
+  }
+  return (
+    <div className="space-y-6">
+      <div>
+        <h1 className="text-3xl">Dev mailbox</h1>
+        <p className="mt-1 text-ink-700">Messages Lamina sent to the local mail fake. This page exists only while the local mail transport is configured.</p>
+      </div>
+      {messages.length === 0 ? (
+        <p className="card text-ink-700">No messages yet. Invite a colleague or ask for a sign-in link and it will appear here.</p>
+      ) : (
+        <ul className="divide-y divide-bone-200 rounded-lg border border-bone-200 bg-white">
+          {messages.map((m) => (
+            <li key={m.id} className="px-4 py-3">
+              <Link href={`/dev-mailbox/${encodeURIComponent(m.id)}`} className="font-medium">
+                {m.subject || '(no subject)'}
+              </Link>
+              <div className="text-sm text-ink-500">
+                to {Array.isArray(m.to) ? m.to.join(', ') : m.to} · {new Date(m.receivedAt).toLocaleString('en-GB')}
+              </div>
+            </li>
+          ))}
+        </ul>
+      )}
+    </div>
+  );
+}

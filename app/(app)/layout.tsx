@@ -1,0 +1,44 @@
+import Link from 'next/link';
+import { requireActor } from '@/lib/auth/session';
+import { ROLE_LABELS } from '@/lib/auth/roles';
+import { can } from '@/lib/auth/permissions';
+import { env } from '@/lib/env';
+import { navFor } from '@/components/shell/nav';
+import { AppNav } from '@/components/shell/AppNav';
+import { SignOutButton } from '@/components/shell/SignOutButton';
+import { Wordmark } from '@/components/ui/LaminaMark';
+
+export const dynamic = 'force-dynamic';
+
+export default async function AppLayout({ children }: { children: React.ReactNode }) {
+  const { actor } = await requireActor();
+  const items = navFor(actor.roles).map(({ href, label }) => ({ href, label }));
+  if (env.localMail && can(actor.roles, 'mailbox.read')) items.push({ href: '/dev-mailbox', label: 'Dev mailbox' });
+  return (
+    <div className="min-h-screen">
+      <a href="#main" className="sr-only focus:not-sr-only focus:absolute focus:left-2 focus:top-2 focus:z-10 focus:rounded focus:bg-white focus:p-2">
+        Skip to content
+      </a>
+      <header className="border-b border-bone-300 bg-bone-50">
+        <div className="mx-auto flex max-w-6xl flex-wrap items-center gap-x-6 gap-y-3 px-4 py-3">
+          <Link href="/" className="no-underline" aria-label="Lamina home">
+            <Wordmark />
+          </Link>
+          <AppNav items={items} />
+          <div className="ml-auto flex items-center gap-3">
+            <div className="text-right text-sm leading-tight" data-testid="whoami">
+              <div className="font-medium">{actor.name ?? actor.email}</div>
+              <div className="text-ink-500">
+                {actor.practiceName} · {actor.roles.map((r) => ROLE_LABELS[r]).join(', ')}
+              </div>
+            </div>
+            <SignOutButton />
+          </div>
+        </div>
+      </header>
+      <main id="main" className="mx-auto max-w-6xl px-4 py-8">
+        {children}
+      </main>
+    </div>
+  );
+}

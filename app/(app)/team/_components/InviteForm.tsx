@@ -1,0 +1,74 @@
+'use client';
+import { useState } from 'react';
+import { useRouter } from 'next/navigation';
+import { useForm } from 'react-hook-form';
+import { zodResolver } from '@hookform/resolvers/zod';
+import type { z } from 'zod';
+import { InviteInput } from '@/lib/schemas/auth';
+import { Field } from '@/components/ui/Field';
+import { Notice } from '@/components/ui/Notice';
+import { ROLE_OPTIONS } from './roles';
+
+type Values = z.input<typeof InviteInput>;
+
+export function InviteForm() {
+  const router = useRouter();
+  const [result, setResult] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
+  const form = useForm<Values>({ resolver: zodResolver(InviteInput), defaultValues: { email: '', name: '', roles: [] } });
+
+  const onSubmit = form.handleSubmit(async (values) => {
+    setResult(null);
+    const res = await fetch('/api/team/invitations', {
+      method: 'POST',
+      headers: { 'Content-Type': 'application/json' },
+      body: JSON.stringify(values),
+    });
+    const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
+    if (!res.ok) {
+      for (const [field, msgs] of Object.entries(body.fieldErrors ?? {})) {
+        if (field in values) form.setError(field as keyof Values, { message: msgs[0] });
+      }
+      setResult({ tone: 'alert', text: body.message ?? 'The invitation could not be sent.' });
+      return;
+    }
+    setResult({ tone: 'ok', text: `Invitation sent to ${values.email}.` });
+    form.reset();
+    router.refresh();
+  });
+
+  const rolesError = form.formState.errors.roles?.message;
+  return (
+    <section aria-labelledby="invite-heading" className="card max-w-2xl space-y-4">
+      <h2 id="invite-heading" className="text-xl">
+        Invite a colleague
+      </h2>
+      <p className="text-sm text-ink-700">They receive an e-mail with a link to choose a password. Their roles apply as soon as they sign in.</p>
+      {result && <Notice tone={result.tone}>{result.text}</Notice>}
+      <form onSubmit={onSubmit} noValidate className="space-y-4">
+        <div className="grid gap-4 md:grid-cols-2">
+          <Field label="Name" autoComplete="off" {...form.register('name')} error={form.formState.errors.name?.message} />
+          <Field label="E-mail" type="email" autoComplete="off" {...form.register('email')} error={form.formState.errors.email?.message} />
+        </div>
+        <fieldset aria-describedby={rolesError ? 'invite-roles-error' : undefined}>
+          <legend className="field-label">Roles</legend>
+          <div className="flex flex-wrap gap-x-5 gap-y-2">
+            {ROLE_OPTIONS.map((o) => (
+              <label key={o.value} className="flex items-center gap-2 text-sm">
+                <input type="checkbox" value={o.value} className="h-4 w-4 accent-dura-700" {...form.register('roles')} />
+                {o.label}
+              </label>
+            ))}
+          </div>
+          {rolesError && (
+            <p id="invite-roles-error" className="field-error" role="alert">
+              {rolesError}
+            </p>
+          )}
+        </fieldset>
+        <button type="submit" className="btn-primary" disabled={form.formState.isSubmitting}>
+          {form.formState.isSubmitting ? 'Sending…' : 'Send invitation'}
+        </button>
+      </form>
+    </section>
+  );
+}

@@ -1,0 +1,181 @@
+'use client';
+import { useMemo, useState } from 'react';
+import { useRouter } from 'next/navigation';
+import { createColumnHelper, flexRender, getCoreRowModel, useReactTable } from '@tanstack/react-table';
+import type { Role } from '@/lib/auth/roles';
+import { ROLE_LABELS } from '@/lib/auth/roles';
+import { Notice } from '@/components/ui/Notice';
+import { ROLE_OPTIONS } from './roles';
+
+export interface MemberRowView {
+  userId: string;
+  email: string;
+  name: string | null;
+  roles: Role[];
+  status: 'active' | 'invited' | 'no roles';
+  lastSignInAt: string | null;
+}
+
+const STATUS_TEXT = { active: '● Active', invited: '◌ Invited', 'no roles': '○ No roles' } as const;
+
+export function MembersTable({ members, currentUserId, canManage }: { members: MemberRowView[]; currentUserId: string; canManage: boolean }) {
+  const [editing, setEditing] = useState<string | null>(null);
+  const [message, setMessage] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
+  const router = useRouter();
+
+  const columns = useMemo(() => {
+    const c = createColumnHelper<MemberRowView>();
+    return [
+      c.accessor((r) => r.name ?? r.email, {
+        id: 'person',
+        header: 'Person',
+        cell: (info) => (
+          <div>
+            <div className="font-medium">{info.row.original.name ?? '—'}</div>
+            <div className="text-ink-500">{info.row.original.email}</div>
+          </div>
+        ),
+      }),
+      c.accessor('roles', {
+        header: 'Roles',
+        cell: (info) =>
+          editing === info.row.original.userId ? (
+            <RoleEditor
+              member={info.row.original}
+              onDone={(text, tone) => {
+                setEditing(null);
+                setMessage({ text, tone });
+                router.refresh();
+              }}
+              onCancel={() => setEditing(null)}
+            />
+          ) : info.getValue().length ? (
+            info.getValue().map((r) => ROLE_LABELS[r]).join(', ')
+          ) : (
+            <span className="text-ink-500">None</span>
+          ),
+      }),
+      c.accessor('status', { header: 'Status', cell: (info) => STATUS_TEXT[info.getValue()] }),
+      c.accessor('lastSignInAt', {
+        header: 'Last sign-in',
+        cell: (info) => (info.getValue() ? new Date(info.getValue()!).toLocaleString('en-GB') : 'Never'),
+      }),
+      ...(canManage
+        ? [
+            c.display({
+              id: 'actions',
+              header: () => <span className="sr-only">Actions</span>,
+              cell: (info) =>
+                editing === info.row.original.userId ? null : (
+                  <button
+                    type="button"
+                    className="btn-secondary"
+                    onClick={() => {
+                      setMessage(null);
+                      setEditing(info.row.original.userId);
+                    }}
+                    aria-label={`Change roles of ${info.row.original.name ?? info.row.original.email}`}
+                  >
+                    Change roles
+                  </button>
+                ),
+            }),
+          ]
+        : []),
+    ];
+  }, [editing, canManage, router]);
+
+  const table = useReactTable({ data: members, columns, getCoreRowModel: getCoreRowModel(), getRowId: (r) => r.userId });
+
+  return (
+    <section aria-labelledby="members-heading" className="space-y-3">
+      <h2 id="members-heading" className="text-xl">
+        Members <span className="text-base font-normal text-ink-500">({members.length})</span>
+      </h2>
+      {message && <Notice tone={message.tone}>{message.text}</Notice>}
+      {members.length === 0 ? (
+        <p className="card text-ink-700">Nobody is in this practice yet. Invite the first colleague below.</p>
+      ) : (
+        <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
+          <table className="table-dense w-full">
+            <thead>
+              {table.getHeaderGroups().map((hg) => (
+                <tr key={hg.id}>
+                  {hg.headers.map((h) => (
+                    <th key={h.id} scope="col">
+                      {flexRender(h.column.columnDef.header, h.getContext())}
+                    </th>
+                  ))}
+                </tr>
+              ))}
+            </thead>
+            <tbody>
+              {table.getRowModel().rows.map((row) => (
+                <tr key={row.id} data-testid={`member-${row.original.email}`} className={row.original.userId === currentUserId ? 'bg-dura-50/40' : undefined}>
+                  {row.getVisibleCells().map((cell) => (
+                    <td key={cell.id}>{flexRender(cell.column.columnDef.cell, cell.getContext())}</td>
+                  ))}
+                </tr>
+              ))}
+            </tbody>
+          </table>
+        </div>
+      )}
+    </section>
+  );
+}
+
+function RoleEditor({
+  member,
+  onDone,
+  onCancel,
+}: {
+  member: MemberRowView;
+  onDone: (text: string, tone: 'ok' | 'alert') => void;
+  onCancel: () => void;
+}) {
+  const [roles, setRoles] = useState<Role[]>(member.roles);
+  const [busy, setBusy] = useState(false);
+  const [error, setError] = useState<string | null>(null);
+  const save = async () => {
+    setBusy(true);
+    setError(null);
+    const res = await fetch(`/api/team/members/${member.userId}`, {
+      method: 'PATCH',
+      headers: { 'Content-Type': 'application/json' },
+      body: JSON.stringify({ roles }),
+    });
+    setBusy(false);
+    if (!res.ok) {
+      const body = (await res.json().catch(() => ({}))) as { message?: string };
+      setError(body.message ?? 'The roles could not be saved.');
+      return;
+    }
+    onDone(`Roles of ${member.name ?? member.email} saved.`, 'ok');
+  };
+  return (
+    <fieldset className="space-y-2">
+      <legend className="sr-only">Roles of {member.name ?? member.email}</legend>
+      {ROLE_OPTIONS.map((o) => (
+        <label key={o.value} className="flex items-center gap-2">
+          <input
+            type="checkbox"
+            className="h-4 w-4 accent-dura-700"
+            checked={roles.includes(o.value)}
+            onChange={(e) => setRoles((rs) => (e.target.checked ? [...rs, o.value] : rs.filter((r) => r !== o.value)))}
+          />
+          {o.label}
+        </label>
+      ))}
+      {error && <Notice tone="alert">{error}</Notice>}
+      <div className="flex gap-2 pt-1">
+        <button type="button" className="btn-primary" onClick={save} disabled={busy}>
+          {busy ? 'Saving…' : 'Save roles'}
+        </button>
+        <button type="button" className="btn-secondary" onClick={onCancel} disabled={busy}>
+          Cancel
+        </button>
+      </div>
+    </fieldset>
+  );
+}

@@ -1,0 +1,3 @@
+import { ROLES, ROLE_LABELS } from '@/lib/auth/roles';
+
+export const ROLE_OPTIONS = ROLES.map((value) => ({ value, label: ROLE_LABELS[value] }));

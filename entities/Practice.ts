@@ -1,0 +1,20 @@
+import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
+import { randomUUID } from 'node:crypto';
+
+/** A clinic. The registry holds several; every patient record belongs to exactly one. */
+export const PracticeSchema = defineEntity({
+  name: 'Practice',
+  tableName: 'practice',
+  properties: {
+    id: p.uuid().primary().onCreate(() => randomUUID()),
+    name: p.string().length(160),
+    /** Short unique handle used in URLs and logs, e.g. "harbour-endo". */
+    slug: p.string().length(60).unique(),
+    /** How teeth are shown on screens: FDI two-digit (ISO 3950) or Universal (1–32). */
+    toothNotation: p.enum(['fdi', 'universal'] as const).default('fdi'),
+    timeZone: p.string().length(60).default('Europe/London'),
+    createdAt: p.datetime().onCreate(() => new Date()),
+  },
+});
+
+export type Practice = InferEntity<typeof PracticeSchema>;

@@ -1,0 +1,50 @@
+/**
+ * The one table of who may do what. Every page, route handler and server action asks
+ * `can()` (directly or through the guards in lib/auth/guard.ts); nothing else decides access.
+ *
+ * Patient data is health data: the administrator runs the team and settings but does not
+ * read patient records; the researcher sees only anonymised cohorts.
+ */
+import type { Role } from './roles';
+
+export const PERMISSIONS = {
+  /** See the team list and the practice settings. */
+  'team.read': ['admin'],
+  /** Invite users, grant and revoke roles, change practice settings. */
+  'team.manage': ['admin'],
+  /** Read the audit trail. */
+  'audit.read': ['admin'],
+  /** Read the local dev mailbox (exists only with the local mail fake). */
+  'mailbox.read': ['admin'],
+  /** Read identifiable patient records and their cases. */
+  'patient.read': ['coordinator', 'clinician', 'auditor'],
+  /** Create and edit patients (contact details, consents). */
+  'patient.write': ['coordinator', 'clinician'],
+  /** Create and edit treatment cases (clinical record). */
+  'case.write': ['clinician'],
+  /** Import past cases from a CSV file. */
+  'case.import': ['coordinator', 'clinician'],
+  /** Work the recall desk: invitations, replies, bookings, no-shows. */
+  'recall.manage': ['coordinator'],
+  /** Score follow-up films and record reviews. */
+  'review.write': ['clinician'],
+  /** Read outcome and survival statistics. */
+  'outcomes.read': ['auditor', 'clinician'],
+  /** Export anonymised cohorts for research. */
+  'cohort.export': ['researcher'],
+} as const satisfies Record<string, readonly Role[]>;
+
+export type Permission = keyof typeof PERMISSIONS;
+
+export const ALL_PERMISSIONS = Object.keys(PERMISSIONS) as Permission[];
+
+/** True when any of the roles grants the permission. */
+export function can(roles: readonly Role[], permission: Permission): boolean {
+  const allowed: readonly Role[] = PERMISSIONS[permission];
+  return roles.some((r) => allowed.includes(r));
+}
+
+/** Every permission the roles grant, for screens that adapt to the user. */
+export function permissionsOf(roles: readonly Role[]): Permission[] {
+  return ALL_PERMISSIONS.filter((p) => can(roles, p));
+}

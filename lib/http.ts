@@ -1,0 +1,61 @@
+import 'server-only';
+import { NextResponse } from 'next/server';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { getRequestContext } from '@/lib/auth/session';
+import { can, type Permission } from '@/lib/auth/permissions';
+import type { Actor } from '@/lib/auth/actor';
+import { RateLimitedError, ServiceError } from '@/lib/services/errors';
+
+export interface HandlerContext<P> {
+  req: Request;
+  em: EntityManager;
+  actor: Actor;
+  params: P;
+}
+
+/**
+ * Wraps a route handler: 401 JSON when not signed in, 403 JSON when the permission is not
+ * granted, typed service errors mapped to their status, anything unexpected logged and a 500
+ * with a safe message.
+ */
+export function handler<P = Record<string, string>>(
+  permission: Permission,
+  fn: (ctx: HandlerContext<P>) => Promise<Response | unknown>,
+) {
+  return async (req: Request, ctx: { params: Promise<P> }): Promise<Response> => {
+    try {
+      const { em, actor } = await getRequestContext();
+      if (!actor) return json({ error: 'not_signed_in', message: 'Sign in to continue.' }, 401);
+      if (!can(actor.roles, permission)) {
+        return json({ error: 'forbidden', message: 'Your role does not allow this.' }, 403);
+      }
+      const result = await fn({ req, em, actor, params: await ctx.params });
+      return result instanceof Response ? result : json(result, 200);
+    } catch (e) {
+      return errorResponse(e);
+    }
+  };
+}
+
+export function json(body: unknown, status = 200, init?: ResponseInit) {
+  return NextResponse.json(body, { status, ...init, headers: { 'Cache-Control': 'no-store', ...init?.headers } });
+}
+
+export function errorResponse(e: unknown): Response {
+  if (e instanceof ServiceError) {
+    const headers: Record<string, string> = {};
+    if (e instanceof RateLimitedError) headers['Retry-After'] = String(e.retryAfterSeconds);
+    return json({ error: e.name, message: e.message, fieldErrors: e.fieldErrors }, e.status, { headers });
+  }
+  console.error('[api] unexpected error', e);
+  return json({ error: 'internal', message: 'Something went wrong on our side. Nothing was changed.' }, 500);
+}
+
+/** Reads a JSON body; a malformed body is a 422 like any other bad input. */
+export async function readJson(req: Request): Promise<unknown> {
+  try {
+    return await req.json();
+  } catch {
+    throw new ServiceError('The request body is not valid JSON.', 422);
+  }
+}

@@ -1,0 +1,40 @@
+import { z } from 'zod';
+import { ROLES } from '@/lib/auth/roles';
+
+export const Email = z
+  .string({ error: 'Enter an e-mail address.' })
+  .trim()
+  .toLowerCase()
+  .pipe(z.email({ error: 'Enter a valid e-mail address.' }).max(254));
+
+export const SignInInput = z.object({
+  email: Email,
+  password: z.string({ error: 'Enter your password.' }).min(1, 'Enter your password.').max(200),
+});
+
+export const LinkSignInInput = z.object({ email: Email });
+
+/** Password rule for new passwords: long rather than complicated (NIST SP 800-63B: at least 8; Lamina asks 12). */
+export const NewPassword = z
+  .string()
+  .min(12, 'Use at least 12 characters.')
+  .max(200, 'Use at most 200 characters.');
+
+export const RoleList = z.array(z.enum(ROLES)).max(ROLES.length);
+
+export const InviteInput = z.object({
+  email: Email,
+  name: z.string().trim().min(1, 'Enter the person’s name.').max(160),
+  roles: RoleList.min(1, 'Choose at least one role.'),
+});
+
+export const SetRolesInput = z.object({ roles: RoleList });
+
+export const AcceptInvitationInput = z
+  .object({
+    token: z.string().min(20).max(200),
+    name: z.string().trim().min(1, 'Enter your name.').max(160),
+    password: NewPassword,
+    confirm: z.string(),
+  })
+  .refine((v) => v.password === v.confirm, { path: ['confirm'], message: 'The two passwords differ.' });

@@ -1,0 +1,10 @@
+/**
+ * Every migration, in order. `npm run migration:create` writes a new file here; add it to
+ * this list by hand (bundlers and vitest cannot glob .ts migrations at run time).
+ */
+import type { MigrationObject } from '@mikro-orm/core';
+import { Migration20261201221639 } from './Migration20261201221639';
+
+export const migrationsList: MigrationObject[] = [
+  { name: 'Migration20261201221639', class: Migration20261201221639 },
+];
