@@ -1,0 +1,26 @@
+/**
+ * Lamina's outcome statistics: pure functions with no I/O, shared by screens,
+ * jobs, exports and the demo seed.
+ *
+ * - wilsonInterval: a proportion (e.g. success rate) with its Wilson interval
+ * - kaplanMeier, medianSurvival, restrictedMean: survival curves (R survival::survfit conventions)
+ * - logRank: comparison of survival curves across groups (survdiff)
+ * - coxPH: proportional hazards regression (coxph, Efron ties by default)
+ * - chiSquareTest, fisherExact2x2: tests on tables of counts
+ * - cohenKappa: agreement between two raters (e.g. two examiners' index scores)
+ *
+ * Every function either returns defined numbers or throws an Error with a
+ * plain message; none returns NaN. See lib/stats/README.md.
+ */
+export { wilsonInterval } from './wilson';
+export type { ProportionInterval } from './wilson';
+export { kaplanMeier, medianSurvival, restrictedMean } from './kaplan-meier';
+export type { SurvivalObservation, KaplanMeierStep, KaplanMeierOptions, ConfType, MedianSurvival } from './kaplan-meier';
+export { logRank } from './log-rank';
+export type { LogRankResult } from './log-rank';
+export { coxPH } from './cox';
+export type { CoxRow, CoxOptions, CoxResult } from './cox';
+export { chiSquareTest, fisherExact2x2 } from './contingency';
+export type { ChiSquareResult } from './contingency';
+export { cohenKappa, weightedKappaFromTable } from './kappa';
+export type { KappaResult, KappaOptions } from './kappa';

@@ -1,0 +1,106 @@
+export interface KappaResult {
+  kappa: number;
+  /** (weighted) proportion of agreement observed */
+  observedAgreement: number;
+  /** (weighted) proportion of agreement expected by chance from the two raters' margins */
+  expectedAgreement: number;
+}
+
+export interface KappaOptions {
+  /** 'none' (default): Cohen 1960; 'linear' or 'quadratic': Cohen 1968 weighted kappa */
+  weights?: 'none' | 'linear' | 'quadratic';
+  /** the ordered categories; default: the distinct values of both raters, ascending */
+  categories?: number[];
+}
+
+/**
+ * Kappa from a k x k table of counts or proportions (rows: rater 1, columns:
+ * rater 2) and a matrix of disagreement weights (0 on the diagonal), as in
+ * Cohen (1968): kappa_w = 1 - sum(w * p_observed) / sum(w * p_chance).
+ * Agreement proportions are reported as 1 - weighted disagreement, with the
+ * weights divided by their largest value so that they lie in [0, 1].
+ * Without weights, every disagreement weighs 1 (Cohen 1960).
+ */
+export function weightedKappaFromTable(table: readonly (readonly number[])[], disagreementWeights?: readonly (readonly number[])[]): KappaResult {
+  const k = table.length;
+  if (k < 1) throw new RangeError('kappa needs at least one category');
+  let total = 0;
+  for (const row of table) {
+    if (!Array.isArray(row) || row.length !== k) throw new RangeError('kappa needs a square table');
+    for (const v of row) {
+      if (typeof v !== 'number' || !Number.isFinite(v) || v < 0) throw new RangeError(`kappa: table cells must be >= 0, got ${String(v)}`);
+      total += v;
+    }
+  }
+  if (!(total > 0)) throw new RangeError('kappa needs at least one rated pair');
+  const w: number[][] = [];
+  let wMax = 0;
+  for (let i = 0; i < k; i++) {
+    w.push([]);
+    for (let j = 0; j < k; j++) {
+      const v = disagreementWeights ? disagreementWeights[i]?.[j] : i === j ? 0 : 1;
+      if (typeof v !== 'number' || !Number.isFinite(v) || v < 0) throw new RangeError(`kappa: weight [${i}][${j}] must be a number >= 0`);
+      if (i === j && v !== 0) throw new RangeError('kappa: disagreement weights must be 0 on the diagonal');
+      w[i].push(v);
+      wMax = Math.max(wMax, v);
+    }
+  }
+  const rows = table.map((row) => row.reduce((a, b) => a + b, 0) / total);
+  const cols = table[0].map((_, j) => table.reduce((a, row) => a + row[j], 0) / total);
+  let wObs = 0;
+  let wExp = 0;
+  for (let i = 0; i < k; i++) {
+    for (let j = 0; j < k; j++) {
+      const wij = wMax > 0 ? w[i][j] / wMax : 0;
+      wObs += wij * (table[i][j] / total);
+      wExp += wij * rows[i] * cols[j];
+    }
+  }
+  if (!(wExp > 0)) {
+    throw new RangeError('kappa is undefined: chance disagreement is zero (both raters used a single category)');
+  }
+  return { kappa: 1 - wObs / wExp, observedAgreement: 1 - wObs, expectedAgreement: 1 - wExp };
+}
+
+/**
+ * Cohen's kappa for two raters' paired ratings, optionally weighted (linear
+ * |i - j| or quadratic (i - j)^2 disagreement weights, where i and j are the
+ * positions of the two ratings in the ordered categories), matching
+ * scikit-learn's cohen_kappa_score.
+ */
+export function cohenKappa(pairs: readonly (readonly [number, number])[], opts: KappaOptions = {}): KappaResult {
+  const weights = opts.weights ?? 'none';
+  if (weights !== 'none' && weights !== 'linear' && weights !== 'quadratic') {
+    throw new RangeError(`weights must be 'none', 'linear' or 'quadratic', got ${String(weights)}`);
+  }
+  if (!Array.isArray(pairs) || pairs.length === 0) throw new RangeError('cohenKappa needs at least one pair of ratings');
+  let categories = opts.categories;
+  if (categories === undefined) {
+    const seen = new Set<number>();
+    for (const pair of pairs) {
+      if (!Array.isArray(pair) || pair.length !== 2) throw new TypeError('cohenKappa: each pair must be [rating1, rating2]');
+      seen.add(pair[0]);
+      seen.add(pair[1]);
+    }
+    categories = [...seen].sort((a, b) => a - b);
+  }
+  const index = new Map<number, number>();
+  categories.forEach((c, i) => {
+    if (typeof c !== 'number' || !Number.isFinite(c)) throw new RangeError(`cohenKappa: category ${String(c)} is not a finite number`);
+    if (index.has(c)) throw new RangeError(`cohenKappa: category ${c} is listed twice`);
+    index.set(c, i);
+  });
+  const k = categories.length;
+  const table = Array.from({ length: k }, () => new Array<number>(k).fill(0));
+  pairs.forEach((pair, n) => {
+    if (!Array.isArray(pair) || pair.length !== 2) throw new TypeError(`cohenKappa: pair ${n} must be [rating1, rating2]`);
+    const i = index.get(pair[0]);
+    const j = index.get(pair[1]);
+    if (i === undefined || j === undefined) throw new RangeError(`cohenKappa: pair ${n} has a rating not in the categories`);
+    table[i][j]++;
+  });
+  const w = Array.from({ length: k }, (_, i) =>
+    Array.from({ length: k }, (_, j) => (weights === 'none' ? (i === j ? 0 : 1) : weights === 'linear' ? Math.abs(i - j) : (i - j) * (i - j))),
+  );
+  return weightedKappaFromTable(table, w);
+}
