@@ -6,17 +6,66 @@
 export interface TimeGroups {
   /** distinct times, ascending */
   times: Float64Array;
-  /** start[r]..start[r+1] are the positions in `order` of the observations at times[r] */
+  /** start[r]..start[r+1] are the positions (in sorted order) of the observations at times[r] */
   start: Int32Array;
-  /** observation indices grouped by distinct time, ascending */
-  order: Int32Array;
-  /** rank of each observation (index into times) */
-  rank: Int32Array;
+  /** the payload of each observation, in ascending time order (stable) */
+  payload: Int32Array;
 }
 
-/** Sorted distinct values of a Float64Array (one native numeric sort). */
+const LITTLE_ENDIAN = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1;
+
+/**
+ * Stable LSD radix sort of non-negative doubles (their IEEE-754 bit patterns
+ * order like unsigned integers), 16 bits per pass, four passes at most; a pass
+ * whose digit is the same for every key is skipped. O(n). Optionally carries
+ * an Int32 payload along. Keys must be finite and >= 0 (checked by callers);
+ * -0 is folded to +0.
+ */
+export function radixSort(values: Float64Array, payload?: Int32Array): { keys: Float64Array; payload: Int32Array | undefined } {
+  const n = values.length;
+  let keys = new Float64Array(n);
+  for (let i = 0; i < n; i++) keys[i] = values[i] + 0;
+  let pay = payload ? payload.slice() : undefined;
+  if (n < 2) return { keys, payload: pay };
+  let keys2 = new Float64Array(n);
+  let pay2 = pay ? new Int32Array(n) : undefined;
+  const count = new Int32Array(65536);
+  for (let pass = 0; pass < 4; pass++) {
+    const word = LITTLE_ENDIAN ? pass >> 1 : 1 - (pass >> 1);
+    const shift = (pass & 1) * 16;
+    const u32 = new Uint32Array(keys.buffer);
+    count.fill(0);
+    for (let i = 0; i < n; i++) count[(u32[2 * i + word] >>> shift) & 0xffff]++;
+    const d0 = (u32[word] >>> shift) & 0xffff;
+    if (count[d0] === n) continue;
+    let sum = 0;
+    for (let d = 0; d < 65536; d++) {
+      const c = count[d];
+      count[d] = sum;
+      sum += c;
+    }
+    if (pay && pay2) {
+      for (let i = 0; i < n; i++) {
+        const pos = count[(u32[2 * i + word] >>> shift) & 0xffff]++;
+        keys2[pos] = keys[i];
+        pay2[pos] = pay[i];
+      }
+      const tp = pay;
+      pay = pay2;
+      pay2 = tp;
+    } else {
+      for (let i = 0; i < n; i++) keys2[count[(u32[2 * i + word] >>> shift) & 0xffff]++] = keys[i];
+    }
+    const tk = keys;
+    keys = keys2;
+    keys2 = tk;
+  }
+  return { keys, payload: pay };
+}
+
+/** Sorted distinct values of a Float64Array of non-negative numbers. */
 export function distinctSorted(values: Float64Array): Float64Array {
-  const sorted = values.slice().sort();
+  const sorted = radixSort(values).keys;
   let m = 0;
   for (let i = 0; i < sorted.length; i++) {
     if (i === 0 || sorted[i] !== sorted[m - 1]) sorted[m++] = sorted[i];
@@ -25,33 +74,25 @@ export function distinctSorted(values: Float64Array): Float64Array {
 }
 
 /**
- * Groups observations by distinct time: one sort of the times, a binary search
- * per observation for its rank and a counting sort by rank. O(n log n).
+ * Groups observations by distinct time with one radix sort, carrying an Int32
+ * payload per observation (an index, or a small code such as group and event).
  */
-export function groupByTime(values: Float64Array): TimeGroups {
+export function groupByTime(values: Float64Array, payload: Int32Array): TimeGroups {
   const n = values.length;
-  const times = distinctSorted(values);
-  const d = times.length;
-  const rank = new Int32Array(n);
-  const count = new Int32Array(d + 1);
+  const sorted = radixSort(values, payload);
+  const keys = sorted.keys;
+  let d = 0;
+  const times = new Float64Array(n);
+  const start = new Int32Array(n + 1);
   for (let i = 0; i < n; i++) {
-    const v = values[i];
-    let lo = 0;
-    let hi = d - 1;
-    while (lo < hi) {
-      const mid = (lo + hi) >>> 1;
-      if (times[mid] < v) lo = mid + 1;
-      else hi = mid;
+    if (i === 0 || keys[i] !== keys[i - 1]) {
+      times[d] = keys[i];
+      start[d] = i;
+      d++;
     }
-    rank[i] = lo;
-    count[lo + 1]++;
   }
-  for (let r = 0; r < d; r++) count[r + 1] += count[r];
-  const start = count.slice();
-  const fill = count; // reuse as a write cursor
-  const order = new Int32Array(n);
-  for (let i = 0; i < n; i++) order[fill[rank[i]]++] = i;
-  return { times, start, order, rank };
+  start[d] = n;
+  return { times: times.slice(0, d), start: start.slice(0, d + 1), payload: sorted.payload as Int32Array };
 }
 
 /** Checks one survival observation and throws a clear error on bad input. */

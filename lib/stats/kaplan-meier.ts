@@ -1,5 +1,5 @@
 import { zForLevel } from './distributions';
-import { checkObservation } from './internal';
+import { checkObservation, radixSort } from './internal';
 
 export interface SurvivalObservation {
   time: number;
@@ -33,21 +33,35 @@ const confTypeOf = new WeakMap<readonly KaplanMeierStep[], ConfType>();
  * R-style bounds: NaN where R's survfit gives NA (S = 0 on the log and log-log
  * scales, S = 1 on the log-log scale, S = 0 with infinite variance on the plain scale).
  */
-function rBounds(s: number, se: number, z: number, confType: ConfType): [number, number] {
+function rBounds(s: number, se: number, z: number, confType: ConfType, out: Float64Array): void {
   if (confType === 'plain') {
     const se2 = se * s * z;
-    if (Number.isNaN(se2)) return [NaN, NaN];
-    return [Math.max(s - se2, 0), Math.min(s + se2, 1)];
+    if (Number.isNaN(se2)) {
+      out[0] = NaN;
+      out[1] = NaN;
+    } else {
+      out[0] = Math.max(s - se2, 0);
+      out[1] = Math.min(s + se2, 1);
+    }
+  } else if (confType === 'log') {
+    if (s === 0) {
+      out[0] = NaN;
+      out[1] = NaN;
+    } else {
+      const se2 = z * se;
+      const ls = Math.log(s);
+      out[0] = Math.exp(ls - se2);
+      out[1] = Math.min(Math.exp(ls + se2), 1);
+    }
+  } else if (s === 0 || s === 1) {
+    out[0] = NaN;
+    out[1] = NaN;
+  } else {
+    const se2 = (z * se) / Math.log(s);
+    const ll = Math.log(-Math.log(s));
+    out[0] = Math.exp(-Math.exp(ll - se2));
+    out[1] = Math.exp(-Math.exp(ll + se2));
   }
-  if (confType === 'log') {
-    if (s === 0) return [NaN, NaN];
-    const se2 = z * se;
-    return [Math.exp(Math.log(s) - se2), Math.min(Math.exp(Math.log(s) + se2), 1)];
-  }
-  if (s === 0 || s === 1) return [NaN, NaN];
-  const se2 = (z * se) / Math.log(s);
-  const ll = Math.log(-Math.log(s));
-  return [Math.exp(-Math.exp(ll - se2)), Math.exp(-Math.exp(ll + se2))];
 }
 
 function checkConfType(confType: unknown): ConfType {
@@ -64,8 +78,8 @@ function checkConfType(confType: unknown): ConfType {
  * Where R reports NA for a bound (S = 0, or S = 1 on the log-log scale) Lamina
  * returns the estimate itself as both bounds, so no row ever holds NaN.
  *
- * O(n log n): the event times and the censoring times are sorted once each
- * (native Float64Array sorts) and merged.
+ * O(n log n) or better: the event times and the censoring times are each
+ * sorted once (a linear-time radix sort on typed arrays) and merged.
  */
 export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMeierOptions = {}): KaplanMeierStep[] {
   const level = opts.level ?? 0.95;
@@ -77,24 +91,31 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
   for (let i = 0; i < n; i++) {
     const o = obs[i];
     if (o === null || typeof o !== 'object') throw new TypeError(`observation ${i}: expected { time, event }`);
-    checkObservation(o.time, o.event, `observation ${i}`);
-    if (o.event) nev++;
+    const t = o.time;
+    const e = o.event;
+    if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
+      checkObservation(t, e, `observation ${i}`);
+    }
+    if (e) nev++;
   }
-  const ev = new Float64Array(nev);
-  const ce = new Float64Array(n - nev);
+  const evIn = new Float64Array(nev);
+  const ceIn = new Float64Array(n - nev);
   for (let i = 0, a = 0, b = 0; i < n; i++) {
     const o = obs[i];
-    if (o.event) ev[a++] = o.time;
-    else ce[b++] = o.time;
+    if (o.event) evIn[a++] = o.time;
+    else ceIn[b++] = o.time;
   }
-  ev.sort();
-  ce.sort();
+  const ev = radixSort(evIn).keys;
+  const ce = radixSort(ceIn).keys;
   const steps: KaplanMeierStep[] = [];
+  const bounds = new Float64Array(2);
   let i = 0;
   let j = 0;
   let atRisk = n;
   let s = 1;
   let greenwood = 0;
+  let lower = 1;
+  let upper = 1;
   const ne = ev.length;
   const nc = ce.length;
   while (i < ne || j < nc) {
@@ -113,9 +134,12 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
       s *= (atRisk - d) / atRisk;
       greenwood += atRisk === d ? Infinity : d / (atRisk * (atRisk - d));
     }
-    let [lower, upper] = rBounds(s, Math.sqrt(greenwood), z, confType);
-    if (Number.isNaN(lower)) lower = s;
-    if (Number.isNaN(upper)) upper = s;
+    if (d > 0) {
+      // censoring-only rows keep the previous bounds (S and its variance are unchanged)
+      rBounds(s, Math.sqrt(greenwood), z, confType, bounds);
+      lower = Number.isNaN(bounds[0]) ? s : bounds[0];
+      upper = Number.isNaN(bounds[1]) ? s : bounds[1];
+    }
     steps.push({ time: t, nRisk: atRisk, nEvent: d, nCensor: c, survival: s, lower, upper });
     atRisk -= d + c;
   }
@@ -186,14 +210,15 @@ export function medianSurvival(
   const surv = new Float64Array(m);
   const lo = new Float64Array(m);
   const hi = new Float64Array(m);
+  const pair = new Float64Array(2);
   let g = 0;
   for (let k = 0; k < m; k++) {
     const r = steps[k];
     if (r.nEvent > 0) g += r.nRisk === r.nEvent ? Infinity : r.nEvent / (r.nRisk * (r.nRisk - r.nEvent));
     surv[k] = r.survival;
-    const [a, b] = rBounds(r.survival, Math.sqrt(g), z, confType);
-    lo[k] = a;
-    hi[k] = b;
+    rBounds(r.survival, Math.sqrt(g), z, confType, pair);
+    lo[k] = pair[0];
+    hi[k] = pair[1];
   }
   return {
     median: firstAtOrBelowHalf(surv, steps),

@@ -51,7 +51,7 @@ function solveDense(v: Float64Array, b: Float64Array, m: number): Float64Array |
  * the hypergeometric variance matrix, and chi-square = (O - E)' V^- (O - E)
  * over the groups with expected > 0, dropping one (df = that count - 1).
  *
- * One sort of all times, then a single reverse sweep over distinct times
+ * One radix sort of all times, then a single reverse sweep over distinct times
  * (O(n log n + D * G^2) for D distinct event times and G groups).
  *
  * Defined results: groups with no observations are reported with 0 observed
@@ -74,22 +74,25 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
     throw new RangeError(`logRank needs at least two groups with observations, got ${nonEmpty}`);
   }
   const time = new Float64Array(n);
-  const event = new Uint8Array(n);
-  const group = new Int32Array(n);
+  // payload carried through the sort: group * 2 + event
+  const code = new Int32Array(n);
   let p = 0;
   for (let g = 0; g < G; g++) {
     const list = groups[names[g]];
     for (let i = 0; i < list.length; i++) {
       const o = list[i];
       if (o === null || typeof o !== 'object') throw new TypeError(`group "${names[g]}", observation ${i}: expected { time, event }`);
-      checkObservation(o.time, o.event, `group "${names[g]}", observation ${i}`);
-      time[p] = o.time;
-      event[p] = o.event ? 1 : 0;
-      group[p] = g;
+      const t = o.time;
+      const e = o.event;
+      if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
+        checkObservation(t, e, `group "${names[g]}", observation ${i}`);
+      }
+      time[p] = t;
+      code[p] = g * 2 + (e ? 1 : 0);
       p++;
     }
   }
-  const { times, start, order } = groupByTime(time);
+  const { times, start, payload } = groupByTime(time, code);
   const D = times.length;
   const atRisk = new Float64Array(G);
   const dead = new Float64Array(G);
@@ -102,10 +105,10 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
     let dTotal = 0;
     let nTouched = 0;
     for (let k = start[r]; k < start[r + 1]; k++) {
-      const i = order[k];
-      const g = group[i];
+      const c = payload[k];
+      const g = c >> 1;
       atRisk[g]++;
-      if (event[i] === 1) {
+      if ((c & 1) === 1) {
         if (dead[g] === 0) touched[nTouched++] = g;
         dead[g]++;
         dTotal++;
