@@ -1,5 +1,5 @@
 import Link from 'next/link';
-import { requireActor } from '@/lib/auth/session';
+import { getRequestContext } from '@/lib/auth/session';
 import { ROLE_LABELS } from '@/lib/auth/roles';
 import { can } from '@/lib/auth/permissions';
 import { env } from '@/lib/env';
@@ -11,7 +11,10 @@ import { Wordmark } from '@/components/ui/LaminaMark';
 export const dynamic = 'force-dynamic';
 
 export default async function AppLayout({ children }: { children: React.ReactNode }) {
-  const { actor } = await requireActor();
+  // Each page asks for its own permission and redirects to sign-in with its own return path;
+  // signed out, the layout draws no chrome.
+  const { actor } = await getRequestContext();
+  if (!actor) return <>{children}</>;
   const items = navFor(actor.roles).map(({ href, label }) => ({ href, label }));
   if (env.localMail && can(actor.roles, 'mailbox.read')) items.push({ href: '/dev-mailbox', label: 'Dev mailbox' });
   return (

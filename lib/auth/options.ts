@@ -81,7 +81,7 @@ export const authOptions: NextAuthOptions = {
       const known = await em.findOne(UserSchema, { email: (user.email ?? '').toLowerCase() });
       if (!known || !(await firstPracticeId(em, known.id))) {
         // Say nothing about whether the address exists: the page shows the same message either way.
-        return email?.verificationRequest ? '/sign-in/check-email' : '/sign-in?error=AccessDenied';
+        return `${env.APP_URL}${email?.verificationRequest ? '/sign-in/check-email' : '/sign-in?error=AccessDenied'}`;
       }
       return true;
     },

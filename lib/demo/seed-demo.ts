@@ -1,18 +1,9 @@
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { MembershipSchema, PracticeSchema, UserSchema } from '../../entities';
-import type { Role } from '../auth/roles';
 import { hashPassword } from '../auth/password';
+import { DEMO_PASSWORD, DEMO_PRACTICE, DEMO_USERS } from './people';
 
-/** Invented people of the invented demo practice, one per role (plus more clinicians later). */
-export const DEMO_PRACTICE = { slug: 'larkspur-endo', name: 'Larkspur Endodontics, Ellery Bay' };
-export const DEMO_PASSWORD = 'lamina-demo-2026';
-export const DEMO_USERS: { email: string; name: string; roles: Role[] }[] = [
-  { email: 'admin@lamina-demo.invalid', name: 'Ada Brightwater', roles: ['admin'] },
-  { email: 'coordinator@lamina-demo.invalid', name: 'Corin Hale', roles: ['coordinator'] },
-  { email: 'clinician@lamina-demo.invalid', name: 'Imre Solberg', roles: ['clinician'] },
-  { email: 'lead@lamina-demo.invalid', name: 'Pia Marchetti', roles: ['auditor', 'clinician'] },
-  { email: 'researcher@lamina-demo.invalid', name: 'Ravi Okonjo-Lund', roles: ['researcher'] },
-];
+export { DEMO_PASSWORD, DEMO_PRACTICE, DEMO_USERS };
 
 /** Creates what is missing of the demo practice and its users; never duplicates. */
 export async function seedDemo(em: EntityManager) {

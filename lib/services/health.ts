@@ -1,6 +1,6 @@
 import 'server-only';
 import { getOrm } from '@/lib/db';
-import { redis } from '@/lib/redis';
+import { redisReady } from '@/lib/redis';
 import { mailer } from '@/lib/mail/mailer';
 
 export type DependencyState = 'up' | 'down';
@@ -19,7 +19,7 @@ export async function checkHealth(): Promise<{ status: 'ok' | 'degraded'; checks
   };
   const [database, redisState, mail] = await Promise.all([
     probe(async () => (await getOrm()).em.getConnection().execute('select 1')),
-    probe(() => redis().ping()),
+    probe(async () => (await redisReady()).ping()),
     probe(() => mailer().verify()),
   ]);
   const checks = { database, redis: redisState, mail };

@@ -1,7 +1,7 @@
 import 'server-only';
 import { createHash, randomBytes } from 'node:crypto';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import { InvitationSchema, MembershipSchema, PracticeSchema, UserSchema } from '@/entities';
+import { InvitationSchema, MembershipSchema, PracticeSchema, UserSchema, type User } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { hashPassword } from '@/lib/auth/password';
 import { ROLE_LABELS, ROLES, type Role } from '@/lib/auth/roles';
@@ -79,7 +79,7 @@ export async function inviteMember(
     } else {
       user = tx.create(UserSchema, { email: input.email, name: input.name } as never);
     }
-    await grantRoles(tx, user.id, actor.practiceId, input.roles);
+    await grantRoles(tx, user, actor.practiceId, input.roles);
     const invitation = tx.create(InvitationSchema, {
       practice: actor.practiceId,
       user,
@@ -144,11 +144,11 @@ export async function setMemberRoles(em: EntityManager, actor: Actor, userId: st
   return roles;
 }
 
-async function grantRoles(em: EntityManager, userId: string, practiceId: string, roles: readonly Role[]) {
+async function grantRoles(em: EntityManager, user: User | string, practiceId: string, roles: readonly Role[]) {
   for (const role of roles) {
-    const m = await em.findOne(MembershipSchema, { user: userId, practice: practiceId, role });
+    const m = typeof user === 'string' || user.id ? await em.findOne(MembershipSchema, { user, practice: practiceId, role }) : null;
     if (m) m.revokedAt = null;
-    else em.create(MembershipSchema, { user: userId, practice: practiceId, role } as never);
+    else em.create(MembershipSchema, { user, practice: practiceId, role } as never);
   }
 }
 

@@ -1,0 +1,17 @@
+import type { Role } from '../auth/roles';
+
+/**
+ * The invented people of the invented demo practice, one per role. No real person or
+ * practice; the addresses are on the reserved `.invalid` domain so nothing can be delivered.
+ */
+export const DEMO_PRACTICE = { slug: 'larkspur-endo', name: 'Larkspur Endodontics, Ellery Bay' };
+export const DEMO_PASSWORD = 'lamina-demo-2026';
+export const DEMO_USERS: { email: string; name: string; roles: Role[] }[] = [
+  { email: 'admin@lamina-demo.invalid', name: 'Ada Brightwater', roles: ['admin'] },
+  { email: 'coordinator@lamina-demo.invalid', name: 'Corin Hale', roles: ['coordinator'] },
+  { email: 'clinician@lamina-demo.invalid', name: 'Imre Solberg', roles: ['clinician'] },
+  { email: 'lead@lamina-demo.invalid', name: 'Pia Marchetti', roles: ['auditor'] },
+  { email: 'researcher@lamina-demo.invalid', name: 'Ravi Okonjo-Lund', roles: ['researcher'] },
+];
+
+export const demoUser = (role: Role) => DEMO_USERS.find((u) => u.roles.includes(role))!;

@@ -1,0 +1,90 @@
+import { test, expect, type APIRequestContext, type Browser } from '@playwright/test';
+import { readdirSync, statSync } from 'node:fs';
+import path from 'node:path';
+import { randomUUID } from 'node:crypto';
+import { ROLES, type Role } from '../../lib/auth/roles';
+import { signInAs } from './support';
+
+/**
+ * Every route handler, called as an anonymous visitor and as each role, with the status each
+ * must answer. A route file without a row here fails the first test, so no route can be added
+ * without saying who may call it. Requests are chosen so that an allowed caller changes
+ * nothing (an invalid body answers 422, an unknown id 404).
+ */
+type Who = 'anonymous' | Role;
+interface Row {
+  route: string; // the route file's path under app/, e.g. 'api/team/members'
+  method: 'GET' | 'POST' | 'PATCH' | 'PUT' | 'DELETE';
+  url: () => string;
+  body?: unknown;
+  expect: Record<Who, number>;
+}
+
+const only = (allowed: Partial<Record<Role, number>>, denied = 403): Record<Who, number> => ({
+  anonymous: 401,
+  admin: allowed.admin ?? denied,
+  coordinator: allowed.coordinator ?? denied,
+  clinician: allowed.clinician ?? denied,
+  auditor: allowed.auditor ?? denied,
+  researcher: allowed.researcher ?? denied,
+});
+const everyone = (status: number): Record<Who, number> => ({
+  anonymous: status, admin: status, coordinator: status, clinician: status, auditor: status, researcher: status,
+});
+
+const MATRIX: Row[] = [
+  { route: 'api/health', method: 'GET', url: () => '/api/health', expect: everyone(200) },
+  { route: 'api/auth/[...nextauth]', method: 'GET', url: () => '/api/auth/providers', expect: everyone(200) },
+  { route: 'api/team/members', method: 'GET', url: () => '/api/team/members', expect: only({ admin: 200 }) },
+  { route: 'api/team/members/[userId]', method: 'PATCH', url: () => `/api/team/members/${randomUUID()}`, body: { roles: ['clinician'] }, expect: only({ admin: 404 }) },
+  { route: 'api/team/invitations', method: 'POST', url: () => '/api/team/invitations', body: { email: 'not-an-address' }, expect: only({ admin: 422 }) },
+  { route: 'api/audit', method: 'GET', url: () => '/api/audit?page=1', expect: only({ admin: 200 }) },
+  { route: 'api/dev-mailbox', method: 'GET', url: () => '/api/dev-mailbox', expect: only({ admin: 200 }) },
+];
+
+function routeFiles(dir: string, base = dir): string[] {
+  return readdirSync(dir).flatMap((name) => {
+    const full = path.join(dir, name);
+    if (statSync(full).isDirectory()) return routeFiles(full, base);
+    return name === 'route.ts' ? [path.relative(base, dir).split(path.sep).join('/')] : [];
+  });
+}
+
+test('every route handler has a row in the matrix', () => {
+  const app = path.resolve(import.meta.dirname, '../../app');
+  const routes = routeFiles(app).map((r) => r.replace(/\([^)]+\)\//g, ''));
+  const covered = new Set(MATRIX.map((r) => r.route));
+  expect(routes.filter((r) => !covered.has(r)), 'routes without a row').toEqual([]);
+});
+
+async function contextFor(browser: Browser, who: Who): Promise<{ request: APIRequestContext; close: () => Promise<void> }> {
+  const context = await browser.newContext();
+  if (who !== 'anonymous') await signInAs(await context.newPage(), who);
+  return { request: context.request, close: () => context.close() };
+}
+
+for (const who of ['anonymous', ...ROLES] as Who[]) {
+  test(`route statuses as ${who}`, async ({ browser }) => {
+    const { request, close } = await contextFor(browser, who);
+    try {
+      const seen: string[] = [];
+      const wanted: string[] = [];
+      for (const row of MATRIX) {
+        const res = await request.fetch(row.url(), {
+          method: row.method,
+          data: row.body,
+          headers: row.body ? { 'Content-Type': 'application/json' } : undefined,
+          maxRedirects: 0,
+        });
+        seen.push(`${row.method} ${row.route} → ${res.status()}`);
+        wanted.push(`${row.method} ${row.route} → ${row.expect[who]}`);
+        if (res.status() === 401 || res.status() === 403) {
+          expect(res.headers()['content-type']).toContain('application/json');
+        }
+      }
+      expect(seen).toEqual(wanted);
+    } finally {
+      await close();
+    }
+  });
+}

@@ -1,0 +1,52 @@
+import { expect, type Page, type APIRequestContext } from '@playwright/test';
+import { DEMO_PASSWORD, demoUser } from '../../lib/demo/people';
+import type { Role } from '../../lib/auth/roles';
+
+export { DEMO_PASSWORD, demoUser };
+
+export async function signIn(page: Page, email: string, password = DEMO_PASSWORD) {
+  await page.goto('/sign-in');
+  await page.getByLabel('E-mail', { exact: true }).fill(email);
+  await page.getByLabel('Password', { exact: true }).fill(password);
+  await page.getByRole('button', { name: 'Sign in', exact: true }).click();
+  await expect(page.getByTestId('whoami')).toBeVisible();
+}
+
+export async function signInAs(page: Page, role: Role) {
+  await signIn(page, demoUser(role).email);
+}
+
+const mailboxUrl = () => process.env.MAILBOX_URL ?? 'http://127.0.0.1:2526';
+
+export interface Mail {
+  id: string;
+  to: string | string[];
+  subject: string;
+  text: string;
+  html: string;
+  headers?: Record<string, unknown>;
+}
+
+/** Waits for the newest message to an address in the local mail fake. */
+export async function waitForMail(request: APIRequestContext, to: string, subject: RegExp, since = 0): Promise<Mail> {
+  let found: Mail | undefined;
+  await expect
+    .poll(
+      async () => {
+        const res = await request.get(`${mailboxUrl()}/messages?to=${encodeURIComponent(to)}`);
+        const body = (await res.json()) as Mail[] | { messages: Mail[] };
+        const list = Array.isArray(body) ? body : body.messages;
+        found = list.find((m) => subject.test(m.subject) && Date.parse((m as unknown as { receivedAt: string }).receivedAt) >= since);
+        return Boolean(found);
+      },
+      { timeout: 15_000 },
+    )
+    .toBe(true);
+  return found!;
+}
+
+export function firstLink(mail: Mail, pattern: RegExp): string {
+  const m = mail.text.match(pattern);
+  if (!m) throw new Error(`no link matching ${pattern} in: ${mail.text}`);
+  return m[0];
+}
