@@ -21,12 +21,25 @@ export const TOOTH_STATUS_LABELS: Record<ToothStatus, string> = {
   surgery: 'Apical surgery done',
 };
 
-/** Clinical signs and symptoms at the review (each yes/no; absent = not recorded). */
-export const REVIEW_SIGNS = ['painOnBiting', 'tenderToPercussion', 'swelling', 'sinusTract', 'mobility'] as const;
+/**
+ * Clinical signs and symptoms at the review (each yes/no; absent = not recorded). The names match
+ * the clinical signs the scoring rules read, plus percussion and mobility, which are recorded too.
+ */
+export const REVIEW_SIGNS = [
+  'painOnBiting',
+  'tenderToPercussion',
+  'tenderToPalpation',
+  'spontaneousPain',
+  'swelling',
+  'sinusTract',
+  'mobility',
+] as const;
 export type ReviewSign = (typeof REVIEW_SIGNS)[number];
 export const REVIEW_SIGN_LABELS: Record<ReviewSign, string> = {
   painOnBiting: 'Pain on biting',
   tenderToPercussion: 'Tender to percussion',
+  tenderToPalpation: 'Tender to palpation',
+  spontaneousPain: 'Spontaneous pain',
   swelling: 'Swelling',
   sinusTract: 'Sinus tract',
   mobility: 'Increased mobility',
@@ -46,6 +59,8 @@ const ReviewObject = z.object({
   lesionDiameterMm: LesionDiameterMm.optional(),
   painOnBiting: z.boolean().optional(),
   tenderToPercussion: z.boolean().optional(),
+  tenderToPalpation: z.boolean().optional(),
+  spontaneousPain: z.boolean().optional(),
   swelling: z.boolean().optional(),
   sinusTract: z.boolean().optional(),
   mobility: z.boolean().optional(),
