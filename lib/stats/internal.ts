@@ -12,12 +12,16 @@ export interface TimeGroups {
   payload: Int32Array;
 }
 
+/** Below this many keys a comparison sort is used. */
+const SMALL_SORT = 2048;
+
 const LITTLE_ENDIAN = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1;
 
 /**
  * Stable LSD radix sort of non-negative doubles (their IEEE-754 bit patterns
- * order like unsigned integers), 16 bits per pass, four passes at most; a pass
- * whose digit is the same for every key is skipped. O(n). Optionally carries
+ * order like unsigned integers), 16 bits per pass, four passes at most (the
+ * digit histograms are counted in one read); a pass whose digit is the same for
+ * every key is skipped. O(n). Optionally carries
  * an Int32 payload along. Keys must be finite and >= 0 (checked by callers);
  * -0 is folded to +0.
  */
@@ -27,17 +31,44 @@ export function radixSort(values: Float64Array, payload?: Int32Array): { keys: F
   for (let i = 0; i < n; i++) keys[i] = values[i] + 0;
   let pay = payload ? payload.slice() : undefined;
   if (n < 2) return { keys, payload: pay };
+  if (n < SMALL_SORT) {
+    // small inputs: a comparison sort is cheaper than the radix histograms
+    if (!pay) return { keys: keys.sort(), payload: undefined };
+    const idx = Array.from({ length: n }, (_, i) => i);
+    const k0 = keys;
+    idx.sort((a, b) => k0[a] - k0[b] || a - b);
+    const outKeys = new Float64Array(n);
+    const outPay = new Int32Array(n);
+    for (let i = 0; i < n; i++) {
+      outKeys[i] = k0[idx[i]];
+      outPay[i] = pay[idx[i]];
+    }
+    return { keys: outKeys, payload: outPay };
+  }
   let keys2 = new Float64Array(n);
   let pay2 = pay ? new Int32Array(n) : undefined;
-  const count = new Int32Array(65536);
+  // all four 16-bit digit histograms in one read of the keys
+  const hist = new Int32Array(4 * 65536);
+  {
+    const u32 = new Uint32Array(keys.buffer);
+    const lo = LITTLE_ENDIAN ? 0 : 1;
+    const hi = 1 - lo;
+    for (let i = 0; i < n; i++) {
+      const a = u32[2 * i + lo];
+      const b = u32[2 * i + hi];
+      hist[a & 0xffff]++;
+      hist[65536 + (a >>> 16)]++;
+      hist[131072 + (b & 0xffff)]++;
+      hist[196608 + (b >>> 16)]++;
+    }
+  }
   for (let pass = 0; pass < 4; pass++) {
     const word = LITTLE_ENDIAN ? pass >> 1 : 1 - (pass >> 1);
     const shift = (pass & 1) * 16;
     const u32 = new Uint32Array(keys.buffer);
-    count.fill(0);
-    for (let i = 0; i < n; i++) count[(u32[2 * i + word] >>> shift) & 0xffff]++;
+    const count = hist.subarray(pass * 65536, (pass + 1) * 65536);
     const d0 = (u32[word] >>> shift) & 0xffff;
-    if (count[d0] === n) continue;
+    if (count[d0] === n) continue; // every key has the same digit: nothing to do
     let sum = 0;
     for (let d = 0; d < 65536; d++) {
       const c = count[d];

@@ -87,6 +87,9 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
   const z = zForLevel(level);
   if (!Array.isArray(obs)) throw new TypeError('kaplanMeier expects an array of { time, event }');
   const n = obs.length;
+  // one pass over the input objects, then typed arrays only
+  const allTimes = new Float64Array(n);
+  const isEvent = new Uint8Array(n);
   let nev = 0;
   for (let i = 0; i < n; i++) {
     const o = obs[i];
@@ -96,14 +99,17 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
     if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
       checkObservation(t, e, `observation ${i}`);
     }
-    if (e) nev++;
+    allTimes[i] = t;
+    if (e) {
+      isEvent[i] = 1;
+      nev++;
+    }
   }
   const evIn = new Float64Array(nev);
   const ceIn = new Float64Array(n - nev);
   for (let i = 0, a = 0, b = 0; i < n; i++) {
-    const o = obs[i];
-    if (o.event) evIn[a++] = o.time;
-    else ceIn[b++] = o.time;
+    if (isEvent[i] === 1) evIn[a++] = allTimes[i];
+    else ceIn[b++] = allTimes[i];
   }
   const ev = radixSort(evIn).keys;
   const ce = radixSort(ceIn).keys;

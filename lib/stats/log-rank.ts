@@ -1,5 +1,5 @@
 import { chiSquareUpperTail } from './distributions';
-import { checkObservation, groupByTime } from './internal';
+import { checkObservation, radixSort } from './internal';
 import type { SurvivalObservation } from './kaplan-meier';
 
 export interface LogRankResult {
@@ -51,8 +51,9 @@ function solveDense(v: Float64Array, b: Float64Array, m: number): Float64Array |
  * the hypergeometric variance matrix, and chi-square = (O - E)' V^- (O - E)
  * over the groups with expected > 0, dropping one (df = that count - 1).
  *
- * One radix sort of all times, then a single reverse sweep over distinct times
- * (O(n log n + D * G^2) for D distinct event times and G groups).
+ * Each group's event and censoring times are radix-sorted (linear time), then
+ * one reverse sweep over the distinct times merges them: O(n + D * G^2) for
+ * D distinct times and G groups.
  *
  * Defined results: groups with no observations are reported with 0 observed
  * and 0 expected and do not count towards df; with no events at all the
@@ -73,13 +74,24 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
   if (nonEmpty < 2) {
     throw new RangeError(`logRank needs at least two groups with observations, got ${nonEmpty}`);
   }
-  const time = new Float64Array(n);
-  // payload carried through the sort: group * 2 + event
-  const code = new Int32Array(n);
-  let p = 0;
+  // Each group's event times and censoring times, sorted separately (keys-only
+  // radix sorts, n keys in all); the sweep then walks the 2G sorted lists
+  // backwards from the latest time, like a merge.
+  // Class c = 2g (events of group g) or 2g + 1 (censorings of group g); all
+  // classes' sorted times are laid end to end in one array.
+  const C = 2 * G;
+  const all = new Float64Array(n);
+  const lo = new Int32Array(C); // first index of class c in `all`
+  const ptr = new Int32Array(C); // current (latest unswept) index of class c
+  let offset = 0;
   for (let g = 0; g < G; g++) {
     const list = groups[names[g]];
-    for (let i = 0; i < list.length; i++) {
+    const m = list.length;
+    const evBuf = new Float64Array(m);
+    const ceBuf = new Float64Array(m);
+    let ne = 0;
+    let nc = 0;
+    for (let i = 0; i < m; i++) {
       const o = list[i];
       if (o === null || typeof o !== 'object') throw new TypeError(`group "${names[g]}", observation ${i}: expected { time, event }`);
       const t = o.time;
@@ -87,41 +99,58 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
       if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
         checkObservation(t, e, `group "${names[g]}", observation ${i}`);
       }
-      time[p] = t;
-      code[p] = g * 2 + (e ? 1 : 0);
-      p++;
+      if (e) evBuf[ne++] = t;
+      else ceBuf[nc++] = t;
     }
+    all.set(radixSort(evBuf.subarray(0, ne)).keys, offset);
+    lo[2 * g] = offset;
+    offset += ne;
+    ptr[2 * g] = offset - 1;
+    all.set(radixSort(ceBuf.subarray(0, nc)).keys, offset);
+    lo[2 * g + 1] = offset;
+    offset += nc;
+    ptr[2 * g + 1] = offset - 1;
   }
-  const { times, start, payload } = groupByTime(time, code);
-  const D = times.length;
+  // head[c]: the latest unswept time of class c, -Infinity when exhausted
+  const head = new Float64Array(C);
+  for (let c = 0; c < C; c++) head[c] = ptr[c] >= lo[c] ? all[ptr[c]] : -Infinity;
   const atRisk = new Float64Array(G);
   const dead = new Float64Array(G);
   const observed = new Float64Array(G);
   const expected = new Float64Array(G);
   const variance = new Float64Array(G * G);
   let nTotal = 0;
-  const touched = new Int32Array(G);
-  for (let r = D - 1; r >= 0; r--) {
+  let remaining = n;
+  while (remaining > 0) {
+    let t = -Infinity;
+    for (let c = 0; c < C; c++) if (head[c] > t) t = head[c];
     let dTotal = 0;
-    let nTouched = 0;
-    for (let k = start[r]; k < start[r + 1]; k++) {
-      const c = payload[k];
+    for (let c = 0; c < C; c++) {
+      if (head[c] !== t) {
+        if ((c & 1) === 0) dead[c >> 1] = 0;
+        continue;
+      }
+      let k = ptr[c];
+      const first = lo[c];
+      const k0 = k;
+      while (k >= first && all[k] === t) k--;
+      ptr[c] = k;
+      head[c] = k >= first ? all[k] : -Infinity;
+      const cnt = k0 - k;
       const g = c >> 1;
-      atRisk[g]++;
-      if ((c & 1) === 1) {
-        if (dead[g] === 0) touched[nTouched++] = g;
-        dead[g]++;
-        dTotal++;
+      atRisk[g] += cnt;
+      nTotal += cnt;
+      remaining -= cnt;
+      if ((c & 1) === 0) {
+        dead[g] = cnt;
+        dTotal += cnt;
       }
     }
-    nTotal += start[r + 1] - start[r];
     if (dTotal === 0) continue;
     const rate = dTotal / nTotal;
-    for (let g = 0; g < G; g++) expected[g] += rate * atRisk[g];
-    for (let t = 0; t < nTouched; t++) {
-      const g = touched[t];
+    for (let g = 0; g < G; g++) {
+      expected[g] += rate * atRisk[g];
       observed[g] += dead[g];
-      dead[g] = 0;
     }
     if (nTotal > 1) {
       const w = (dTotal * (nTotal - dTotal)) / (nTotal - 1);

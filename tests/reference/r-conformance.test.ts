@@ -55,6 +55,8 @@ const datasets: Record<string, Row[]> = {
   medium: generate({ n: 300, seed: 12, groups: 3, grid: 1, scale: 20, censorMax: 60 }),
   // fine grid, 4 groups, 40% or so censored
   large: generate({ n: 2000, seed: 13, groups: 4, grid: 0.1, scale: 15, censorMax: 30 }),
+  // large enough for the radix-sort paths (2,048 keys and more per sorted list)
+  big: generate({ n: 24000, seed: 17, groups: 4, grid: 0.01, scale: 300, censorMax: 900 }),
   // coarse grid: very many ties per time, for Efron vs Breslow
   coarse: generate({ n: 500, seed: 14, groups: 2, grid: 5, scale: 20, censorMax: 50 }),
   // no censoring: the curve falls to 0
@@ -81,8 +83,8 @@ for (const id of Object.keys(datasets)) {
     }
   }
 }
-const lrIds = ['tiny', 'medium', 'large', 'coarse', 'uncensored'];
-const coxRuns = ['medium', 'large', 'coarse', 'uncensored'].flatMap((id) => [
+const lrIds = ['tiny', 'medium', 'large', 'big', 'coarse', 'uncensored'];
+const coxRuns = ['medium', 'large', 'big', 'coarse', 'uncensored'].flatMap((id) => [
   { id, ties: 'efron' as const },
   { id, ties: 'breslow' as const },
 ]);
