@@ -1,5 +1,5 @@
 /**
- * Freireich et al. (1963), Blood 21:699–713: remission times in weeks of 42
+ * Freireich et al. (1963), Blood 21:699–716: remission times in weeks of 42
  * children with acute leukaemia, 21 on 6-mercaptopurine (6-MP) and 21 on
  * placebo, as printed in Kleinbaum & Klein, "Survival Analysis: A
  * Self-Learning Text" (chapter 1/2 data set; values reproduced from memory of

@@ -1,0 +1,145 @@
+/**
+ * Benchmark of Lamina's survival statistics beside R's survival package on the
+ * same data in the same run: Kaplan–Meier, log-rank (4 groups) and Cox
+ * (2 covariates, Efron ties) at 10,000, 100,000 and 1,000,000 observations.
+ *
+ *   npx tsx scripts/bench/stats.ts            (all three sizes)
+ *   npx tsx scripts/bench/stats.ts 10000      (chosen sizes)
+ *
+ * Data: times in days on a 0.01-day grid (many distinct times, some ties),
+ * exponential event times depending on group and covariates, uniform
+ * censoring (about a third censored). The data are written to a temporary
+ * CSV that scripts/bench/stats.R reads; R times each call with system.time,
+ * excluding the read. Lamina's times are wall-clock around each call (the
+ * input objects are built beforehand, as a caller would hold them).
+ * Peak RSS is the process's maxRSS (process.resourceUsage) after each size.
+ */
+import { execFileSync } from 'node:child_process';
+import { closeSync, mkdtempSync, openSync, rmSync, writeSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import path from 'node:path';
+import { performance } from 'node:perf_hooks';
+import { coxPH, kaplanMeier, logRank, type CoxRow } from '../../lib/stats';
+
+function prng(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+interface BenchRow extends CoxRow {
+  group: number;
+}
+
+function generate(n: number, seed: number): BenchRow[] {
+  const rnd = prng(seed);
+  const rows: BenchRow[] = new Array(n);
+  for (let i = 0; i < n; i++) {
+    const group = Math.floor(rnd() * 4);
+    const x1 = rnd() < 0.4 ? 1 : 0;
+    const u1 = Math.max(rnd(), 1e-12);
+    const x2 = Math.round(Math.sqrt(-2 * Math.log(u1)) * Math.cos(2 * Math.PI * rnd()) * 100) / 100;
+    const lp = 0.4 * x1 - 0.3 * x2 + 0.15 * group;
+    const tEvent = (-Math.log(Math.max(rnd(), 1e-12)) * 1500) / Math.exp(lp);
+    const tCens = rnd() * 4000;
+    const event = tEvent <= tCens;
+    const time = Math.max(1, Math.round(Math.min(tEvent, tCens) * 100)) / 100;
+    rows[i] = { time, event, x: [x1, x2], group };
+  }
+  return rows;
+}
+
+function writeCsv(file: string, rows: BenchRow[]): void {
+  const fd = openSync(file, 'w');
+  writeSync(fd, 'time,status,grp,x1,x2\n');
+  const chunk: string[] = [];
+  for (let i = 0; i < rows.length; i++) {
+    const r = rows[i];
+    chunk.push(`${r.time},${r.event ? 1 : 0},g${r.group + 1},${r.x[0]},${r.x[1]}\n`);
+    if (chunk.length === 50_000) {
+      writeSync(fd, chunk.join(''));
+      chunk.length = 0;
+    }
+  }
+  writeSync(fd, chunk.join(''));
+  closeSync(fd);
+}
+
+function time<T>(f: () => T): { s: number; v: T } {
+  const t0 = performance.now();
+  const v = f();
+  return { s: (performance.now() - t0) / 1000, v };
+}
+
+function runLamina(rows: BenchRow[]) {
+  const groups: Record<string, BenchRow[]> = { g1: [], g2: [], g3: [], g4: [] };
+  for (const r of rows) groups[`g${r.group + 1}`].push(r);
+  const km = time(() => kaplanMeier(rows));
+  const lr = time(() => logRank(groups));
+  const cx = time(() => coxPH(rows));
+  return { km, lr, cx };
+}
+
+const sizes = process.argv.slice(2).map(Number).filter((v) => v > 0);
+const ns = sizes.length ? sizes : [10_000, 100_000, 1_000_000];
+const dir = mkdtempSync(path.join(tmpdir(), 'lamina-bench-'));
+const f = (v: number) => (v < 0.1 ? v.toFixed(4) : v.toFixed(3));
+const rel = (a: number, b: number) => Math.abs(a - b) / Math.max(Math.abs(b), 1e-300);
+
+try {
+  runLamina(generate(10_000, 99)); // warm-up (JIT), untimed
+  const lines: string[] = [];
+  const checks: string[] = [];
+  let rVersion = '';
+  for (const n of ns) {
+    let rows: BenchRow[] | null = generate(n, 1000 + n);
+    const csv = path.join(dir, `bench-${n}.csv`);
+    writeCsv(csv, rows);
+    const lam = runLamina(rows);
+    const rss = process.resourceUsage().maxRSS / 1024; // kB -> MB
+    const lamKmRows = lam.km.v.length;
+    const lamKmLast = lam.km.v[lam.km.v.length - 1].survival;
+    const lamChi = lam.lr.v.chiSquare;
+    const lamCoef = lam.cx.v.coef;
+    rows = null; // free before R runs
+    const out = execFileSync('Rscript', [path.join('scripts', 'bench', 'stats.R'), csv], {
+      encoding: 'utf8',
+      maxBuffer: 1 << 20,
+    });
+    const r = JSON.parse(out.trim().split('\n').pop() as string) as {
+      version: string;
+      km: number;
+      logRank: number;
+      cox: number;
+      kmRows: number;
+      kmLast: number;
+      chiSquare: number;
+      coef: number[];
+    };
+    rVersion = r.version;
+    rmSync(csv, { force: true });
+    const row = (name: string, l: number, rs: number) =>
+      `| ${n.toLocaleString('en')} | ${name} | ${f(l)} | ${f(rs)} | ${(rs / l).toFixed(1)}x | ${rss.toFixed(0)} |`;
+    lines.push(row('Kaplan–Meier', lam.km.s, r.km));
+    lines.push(row('log-rank, 4 groups', lam.lr.s, r.logRank));
+    lines.push(row('Cox, 2 covariates (Efron)', lam.cx.s, r.cox));
+    checks.push(
+      `n=${n}: KM rows ${lamKmRows} vs ${r.kmRows}, last S rel.diff ${rel(lamKmLast, r.kmLast).toExponential(1)}; ` +
+        `log-rank chi-square rel.diff ${rel(lamChi, r.chiSquare).toExponential(1)}; ` +
+        `Cox coef rel.diff ${rel(lamCoef[0], r.coef[0]).toExponential(1)}, ${rel(lamCoef[1], r.coef[1]).toExponential(1)}`,
+    );
+  }
+  console.log(`Lamina on Node ${process.version}; ${rVersion}\n`);
+  console.log('| n | analysis | Lamina s | R s | R / Lamina | Lamina peak RSS MB |');
+  console.log('|---:|---|---:|---:|---:|---:|');
+  for (const l of lines) console.log(l);
+  console.log('\nSame data, same answers:');
+  for (const c of checks) console.log(`- ${c}`);
+} finally {
+  rmSync(dir, { recursive: true, force: true });
+}
