@@ -134,7 +134,7 @@ const EXAMPLE: Record<string, string> = {
   consent_date: '2023-05-09',
   operator_email: 'clinician@lamina-demo.invalid',
   referrer_name: 'Dr Tobin Ashgrove',
-  referrer_practice: 'Quayside Family Dental',
+  referrer_practice: 'Gullsett Dental',
   referrer_email: 'tobin.ashgrove@referrers.lamina-demo.invalid',
   tooth_fdi: '36',
   kind: 'primary_treatment',

@@ -74,7 +74,7 @@ describe('file lines and formats', () => {
       '',
       csv([row({ ...secondCase, given_name: '' })]).split('\n')[1],
       // a quoted cell spanning two lines (line 5–6), then a bad row on line 7
-      csv([row({ tooth_fdi: '46', start_date: '2024-02-01', completion_date: '2024-02-02', definitive_restoration_date: '', definitive_restoration: '', referrer_practice: 'Quayside\nFamily Dental' })]).split('\n').slice(1).join('\n'),
+      csv([row({ tooth_fdi: '46', start_date: '2024-02-01', completion_date: '2024-02-02', definitive_restoration_date: '', definitive_restoration: '', referrer_practice: 'Gullsett\nDental' })]).split('\n').slice(1).join('\n'),
       csv([row({ tooth_fdi: '19', start_date: '2024-03-01', completion_date: '2024-03-02', definitive_restoration_date: '' })]).split('\n')[1],
     ].join('\n');
     const r = parseCasesCsv(text);
@@ -104,7 +104,7 @@ describe('file lines and formats', () => {
   });
 
   it('reports a broken quote at its line', () => {
-    const text = csv([row()]) + '\n' + csv([row(secondCase)]).split('\n')[1]!.replace('Quayside', '"Quayside');
+    const text = csv([row()]) + '\n' + csv([row(secondCase)]).split('\n')[1]!.replace('Gullsett', '"Gullsett');
     const r = parseCasesCsv(text);
     expect(r.errors.some((e) => e.line === 3 && /cannot be read/.test(e.reason))).toBe(true);
   });
