@@ -1,0 +1,73 @@
+#!/usr/bin/env bash
+# npm run bench [-- NAME...]: run every benchmark under scripts/bench/ (*.ts, with tsx), or
+# only those whose file name contains one of NAME, and print their output.
+#
+# Benchmarks get throwaway services like npm test: PostgreSQL (migrated), Redis and the SMTP
+# fake in a temporary dir on free ports, with DATABASE_URL, REDIS_URL, SMTP_URL, MAILBOX_URL
+# exported, plus R and Python (for reference figures) installed. Everything is stopped and
+# removed at exit. Exits non-zero if any benchmark failed.
+set -euo pipefail
+
+cd "$(dirname "${BASH_SOURCE[0]}")/.."
+# shellcheck source=lib/services.sh
+source scripts/lib/services.sh
+
+shopt -s nullglob
+benches=()
+for file in scripts/bench/*.ts; do
+  if (($# == 0)); then benches+=("$file"); continue; fi
+  for want in "$@"; do
+    [[ "$(basename "$file")" == *"$want"* ]] && { benches+=("$file"); break; }
+  done
+done
+if ((${#benches[@]} == 0)); then
+  echo "bench: no benchmark under scripts/bench/${*:+ matching $*}" >&2
+  exit 1
+fi
+
+TMP="$(mktemp -d /tmp/lamina-bench.XXXXXX)"
+chmod 755 "$TMP"
+export LAMINA_DATA="$TMP" LAMINA_PROFILE=test LAMINA_DB_NAME=lamina_bench
+export LAMINA_PG_PORT="$(pick_free_port 55533)"
+export LAMINA_REDIS_PORT="$(pick_free_port 56480)"
+export LAMINA_SMTP_PORT="$(pick_free_port 52625)"
+export LAMINA_MAILBOX_PORT="$(pick_free_port $((LAMINA_SMTP_PORT + 1)))"
+export LAMINA_WEB_PORT="$(pick_free_port 53100)"
+lamina_defaults
+
+cleanup() {
+  services_stop 2>/dev/null || true
+  rm -rf "$TMP"
+}
+trap cleanup EXIT
+trap 'exit 130' INT
+trap 'exit 143' TERM
+
+ensure_apt_packages "${LAMINA_APT_BASE[@]}" "${LAMINA_APT_TEST[@]}"
+ensure_node_modules
+lamina_export_env
+export NODE_ENV=production CI=true
+NEXTAUTH_SECRET="$(openssl rand -hex 32)"
+export NEXTAUTH_SECRET
+services_start
+if [[ -f scripts/migrate.ts ]]; then node_modules/.bin/tsx scripts/migrate.ts; fi
+
+failed=()
+for file in "${benches[@]}"; do
+  printf '\n==> %s\n' "$file"
+  t0=$SECONDS
+  if node_modules/.bin/tsx "$file" </dev/null; then
+    echo "(${file}: $((SECONDS - t0)) s)"
+  else
+    rc=$?
+    echo "(${file}: FAILED, exit $rc, after $((SECONDS - t0)) s)"
+    failed+=("$file")
+  fi
+done
+
+echo
+if ((${#failed[@]})); then
+  echo "bench: ${#benches[@]} run, ${#failed[@]} failed: ${failed[*]}"
+  exit 1
+fi
+echo "bench: ${#benches[@]} run, 0 failed"

@@ -1,0 +1,212 @@
+#!/usr/bin/env bash
+# npm test: every test runner against throwaway services; the last line printed is exactly
+# `tests: N passed, N failed` and the exit status is non-zero on any failure.
+#
+#   1. Debian packages and node_modules, if missing
+#   2. PostgreSQL, Redis and the SMTP fake in a temporary dir (removed at exit), on free ports
+#      near 55433 / 56380 / 52525 / 52526 (web 53000); override with LAMINA_TEST_*_PORT
+#   3. migrations, then vitest (all projects: unit, reference, integration)
+#   4. a fresh database: migrations and the demo seed (the e2e tests sign in as demo users)
+#   5. `next build` into .next-test (a running `npm start` keeps its .next), `next start`,
+#      the worker if there is one, then Playwright in Debian's Chromium
+#   6. everything stopped, then scripts/summarize-tests.mjs sums every runner's JSON report
+#
+# Service logs of a failed run are copied to test-results/logs/.
+set -euo pipefail
+
+cd "$(dirname "${BASH_SOURCE[0]}")/.."
+# shellcheck source=lib/services.sh
+source scripts/lib/services.sh
+
+export CI=true
+TMP="$(mktemp -d /tmp/lamina-test.XXXXXX)"
+chmod 755 "$TMP" # the postgres user must reach $TMP/pg
+export LAMINA_DATA="$TMP" LAMINA_PROFILE=test LAMINA_DB_NAME=lamina_test
+export LAMINA_PG_PORT="${LAMINA_TEST_PG_PORT:-$(pick_free_port 55433)}"
+export LAMINA_REDIS_PORT="${LAMINA_TEST_REDIS_PORT:-$(pick_free_port 56380)}"
+export LAMINA_SMTP_PORT="${LAMINA_TEST_SMTP_PORT:-$(pick_free_port 52525)}"
+export LAMINA_MAILBOX_PORT="${LAMINA_TEST_MAILBOX_PORT:-$(pick_free_port $((LAMINA_SMTP_PORT + 1)))}"
+export LAMINA_WEB_PORT="${LAMINA_TEST_WEB_PORT:-$(pick_free_port 53000)}"
+lamina_defaults
+
+RESULTS="$TMP/results"
+MANIFEST="$RESULTS/manifest.tsv"
+mkdir -p "$RESULTS"
+FINISHED=0
+T0=$SECONDS
+
+# record KIND NAME [EXIT] [FILE]: a line of the manifest read by summarize-tests.mjs.
+record() { printf '%s\t%s\t%s\t%s\n' "$1" "$2" "${3:-}" "${4:-}" >>"$MANIFEST"; }
+
+banner() { printf '\n==> %s\n' "$*" >&2; }
+
+# step NAME CMD...: a set-up step, run with `set -e` in a subshell (so that lamina_die ends only
+# the step), timed and recorded; its status is left in STEP_RC. Call it as a plain statement,
+# never as `step ... || ...`: bash ignores `set -e` inside anything run as a condition.
+STEP_RC=0
+step() {
+  local name="$1" t0=$SECONDS
+  shift
+  banner "$name"
+  set +e
+  (set -e; "$@")
+  STEP_RC=$?
+  set -e
+  record step "$name" "$STEP_RC"
+  if ((STEP_RC == 0)); then lamina_log "$name: ok ($((SECONDS - t0)) s)"; else lamina_log "$name: FAILED (exit $STEP_RC)"; fi
+}
+ok() { ((STEP_RC == 0)); }
+
+# runner NAME JSONFILE CMD...: a test runner; its failures are counted, never fatal here.
+runner() {
+  local name="$1" file="$2" t0=$SECONDS rc
+  shift 2
+  banner "$name"
+  set +e
+  "$@" </dev/null
+  rc=$?
+  set -e
+  record runner "$name" "$rc" "$file"
+  lamina_log "$name: exit $rc ($((SECONDS - t0)) s)"
+}
+
+migrate() { node_modules/.bin/tsx scripts/migrate.ts; }
+seed() { node_modules/.bin/tsx scripts/seed.ts; }
+
+reset_database() {
+  pg_recreate_database "$LAMINA_DB_NAME"
+  migrate
+  seed
+}
+
+# http_answers URL: the server sent any HTTP response (a redirect or an error page counts).
+http_answers() {
+  node -e 'fetch(process.argv[1], { redirect: "manual", signal: AbortSignal.timeout(3000) }).then(() => {}, () => process.exit(1))' "$1"
+}
+
+# The e2e phase writes .next-test in the checkout: one `npm test` at a time may hold it.
+lock_e2e() {
+  local lock
+  lock="/tmp/lamina-e2e-$(printf '%s' "$LAMINA_REPO" | sha1sum | cut -c1-12).lock"
+  exec 9>"$lock"
+  if ! flock -n 9; then
+    lamina_log "another npm test in this checkout is in its e2e phase; waiting for it"
+    flock -w 1800 9 || lamina_die "gave up waiting for the e2e lock $lock"
+  fi
+}
+unlock_e2e() { flock -u 9 2>/dev/null || true; exec 9>&-; }
+
+build() { NEXT_DIST_DIR=.next-test node_modules/.bin/next build; }
+
+# start_web: next start (and the worker if there is one), each in a process group of its own
+# (setsid) so that stopping it stops anything it spawned. Runs inside a step's subshell, so the
+# pids go to files.
+start_web() {
+  (NEXT_DIST_DIR=.next-test exec setsid node_modules/.bin/next start -H 127.0.0.1 -p "$LAMINA_WEB_PORT" \
+    </dev/null >"$TMP/logs/web.log" 2>&1 9>&-) &
+  local web=$!
+  echo "$web" >"$TMP/run/web.pid"
+  if [[ -f jobs/worker.ts ]]; then
+    (exec setsid node --import tsx jobs/worker.ts </dev/null >"$TMP/logs/worker.log" 2>&1 9>&-) &
+    echo $! >"$TMP/run/worker.pid"
+  fi
+  local i
+  for ((i = 0; i < 240; i++)); do
+    http_answers "$APP_URL/" && { lamina_log "web server answering at $APP_URL"; return 0; }
+    pid_alive "$web" || { tail -n 30 "$TMP/logs/web.log" >&2; lamina_die "the web server exited"; }
+    sleep 0.25
+  done
+  tail -n 30 "$TMP/logs/web.log" >&2
+  lamina_die "the web server did not answer in 60 s"
+}
+
+stop_app() {
+  local name pid
+  for name in worker web; do
+    if pid="$(read_pidfile "$TMP/run/$name.pid")"; then stop_pid "$pid" "$name" 10; fi
+    rm -f "$TMP/run/$name.pid"
+  done
+}
+
+stop_everything() {
+  stop_app 2>/dev/null || true
+  services_stop 2>/dev/null || true
+}
+
+# finish: stop everything, keep the logs of a failed run, and print the summary last.
+finish() {
+  local rc
+  ((FINISHED)) && return 0
+  FINISHED=1
+  trap - INT TERM
+  stop_everything
+  lamina_log "npm test took $((SECONDS - T0)) s"
+  set +e
+  node scripts/summarize-tests.mjs "$MANIFEST" >"$RESULTS/summary.txt" 2>&1
+  rc=$?
+  set -e
+  if ((rc != 0)); then
+    rm -rf test-results/logs
+    mkdir -p test-results
+    cp -r "$TMP/logs" test-results/logs 2>/dev/null && echo "service logs of this run: test-results/logs/" >&2
+  fi
+  echo
+  cat "$RESULTS/summary.txt"
+  rm -rf "$TMP"
+  return "$rc"
+}
+
+on_exit() {
+  local rc=$?
+  trap - EXIT
+  if ((!FINISHED)); then
+    ((rc == 0)) || record step "npm test (interrupted or crashed, exit $rc)" "$rc"
+    finish || rc=$?
+  fi
+  rm -rf "$TMP"
+  exit "$rc"
+}
+
+main() {
+  trap on_exit EXIT
+  trap 'exit 130' INT
+  trap 'exit 143' TERM
+  record expect vitest
+  record expect playwright
+
+  step "Debian packages" ensure_apt_packages "${LAMINA_APT_BASE[@]}" "${LAMINA_APT_TEST[@]}"
+  ok || { finish; return; }
+  step "node modules" ensure_node_modules
+  ok || { finish; return; }
+
+  # What the app reads (lib/env.ts), for every step. vitest runs with NODE_ENV=test.
+  lamina_export_env
+  export NODE_ENV=production
+  NEXTAUTH_SECRET="$(openssl rand -hex 32 2>/dev/null || node -e 'console.log(require("crypto").randomBytes(32).toString("hex"))')"
+  export NEXTAUTH_SECRET
+  export E2E_BASE_URL="$APP_URL"
+  lamina_log "ports: web $LAMINA_WEB_PORT, PostgreSQL $LAMINA_PG_PORT, Redis $LAMINA_REDIS_PORT, SMTP $LAMINA_SMTP_PORT, mailbox $LAMINA_MAILBOX_PORT; data $TMP"
+
+  step "start services" services_start
+  ok || { finish; return; }
+  step "migrate" migrate
+  ok || { finish; return; }
+
+  runner vitest "$RESULTS/vitest.json" env NODE_ENV=test node_modules/.bin/vitest run --config tests/vitest.config.ts \
+    --reporter=default --reporter=json --outputFile.json="$RESULTS/vitest.json"
+
+  step "fresh database, migrations and demo seed" reset_database
+  ok || { finish; return; }
+  lock_e2e
+  step "next build" build
+  if ok; then step "start the web server" start_web; fi
+  if ok; then
+    runner playwright "$RESULTS/playwright.json" env PLAYWRIGHT_JSON_FILE="$RESULTS/playwright.json" \
+      node_modules/.bin/playwright test --config tests/playwright.config.ts
+  fi
+  stop_app
+  unlock_e2e
+  finish
+}
+
+main "$@"
