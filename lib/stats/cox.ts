@@ -146,15 +146,11 @@ function evaluateGeneral(s: Sorted, beta: Float64Array, efron: boolean, risk: Fl
  * The same computation as evaluate() for exactly two covariates, with the
  * risk-set sums held in locals (the common case, and the benchmarked one).
  */
-function evaluate2(s: Sorted, beta: Float64Array, efron: boolean, risk: Float64Array, eta: Float64Array): Fit {
+function evaluate2(s: Sorted, beta: Float64Array, efron: boolean, risk: Float64Array): Fit {
   const { n, x, status, start, D } = s;
   const b0 = beta[0];
   const b1 = beta[1];
-  for (let i = 0; i < n; i++) {
-    const e = b0 * x[2 * i] + b1 * x[2 * i + 1];
-    eta[i] = e;
-    risk[i] = Math.exp(e);
-  }
+  for (let i = 0; i < n; i++) risk[i] = Math.exp(b0 * x[2 * i] + b1 * x[2 * i + 1]);
   let s0 = 0;
   let s1a = 0;
   let s1b = 0;
@@ -193,7 +189,7 @@ function evaluate2(s: Sorted, beta: Float64Array, efron: boolean, risk: Float64A
       s2bb += wb * xb;
       if (status[i] === 1) {
         d++;
-        etaSum += eta[i];
+        etaSum += b0 * xa + b1 * xb;
         xsa += xa;
         xsb += xb;
         d0 += w;
@@ -239,7 +235,7 @@ function evaluate2(s: Sorted, beta: Float64Array, efron: boolean, risk: Float64A
 }
 
 function evaluate(s: Sorted, beta: Float64Array, efron: boolean, risk: Float64Array, eta: Float64Array): Fit {
-  return s.p === 2 ? evaluate2(s, beta, efron, risk, eta) : evaluateGeneral(s, beta, efron, risk, eta);
+  return s.p === 2 ? evaluate2(s, beta, efron, risk) : evaluateGeneral(s, beta, efron, risk, eta);
 }
 
 function prepare(rows: readonly CoxRow[]): Sorted {
@@ -288,7 +284,7 @@ function prepare(rows: readonly CoxRow[]): Sorted {
   if (events === 0) throw new RangeError('coxPH needs at least one event; all rows are censored');
   const index = new Int32Array(n);
   for (let i = 0; i < n; i++) index[i] = i;
-  const { times, start, payload: order } = groupByTime(time, index);
+  const { times, start, payload: order } = groupByTime(time, index, true);
   const x = new Float64Array(n * p);
   const status = new Uint8Array(n);
   for (let k = 0; k < n; k++) {
@@ -334,7 +330,7 @@ export function coxPH(rows: readonly CoxRow[], opts: CoxOptions = {}): CoxResult
   const s = prepare(rows);
   const { n, p } = s;
   const risk = new Float64Array(n);
-  const eta = new Float64Array(n);
+  const eta = new Float64Array(p === 2 ? 0 : n);
   let beta = new Float64Array(p);
   let fit = evaluate(s, beta, efron, risk, eta);
   const loglik0 = fit.loglik;

@@ -25,11 +25,16 @@ const LITTLE_ENDIAN = new Uint8Array(new Uint32Array([1]).buffer)[0] === 1;
  * an Int32 payload along. Keys must be finite and >= 0 (checked by callers);
  * -0 is folded to +0.
  */
-export function radixSort(values: Float64Array, payload?: Int32Array): { keys: Float64Array; payload: Int32Array | undefined } {
+export function radixSort(
+  values: Float64Array,
+  payload?: Int32Array,
+  inPlace = false,
+): { keys: Float64Array; payload: Int32Array | undefined } {
   const n = values.length;
-  let keys = new Float64Array(n);
+  // inPlace: the caller gives up `values` and `payload` (saves two copies)
+  let keys: Float64Array = inPlace ? values : new Float64Array(n);
   for (let i = 0; i < n; i++) keys[i] = values[i] + 0;
-  let pay = payload ? payload.slice() : undefined;
+  let pay: Int32Array | undefined = payload ? (inPlace ? payload : payload.slice()) : undefined;
   if (n < 2) return { keys, payload: pay };
   if (n < SMALL_SORT) {
     // small inputs: a comparison sort is cheaper than the radix histograms
@@ -45,12 +50,12 @@ export function radixSort(values: Float64Array, payload?: Int32Array): { keys: F
     }
     return { keys: outKeys, payload: outPay };
   }
-  let keys2 = new Float64Array(n);
-  let pay2 = pay ? new Int32Array(n) : undefined;
+  let keys2: Float64Array = new Float64Array(n);
+  let pay2: Int32Array | undefined = pay ? new Int32Array(n) : undefined;
   // all four 16-bit digit histograms in one read of the keys
   const hist = new Int32Array(4 * 65536);
   {
-    const u32 = new Uint32Array(keys.buffer);
+    const u32 = new Uint32Array(keys.buffer, keys.byteOffset, 2 * n);
     const lo = LITTLE_ENDIAN ? 0 : 1;
     const hi = 1 - lo;
     for (let i = 0; i < n; i++) {
@@ -65,7 +70,7 @@ export function radixSort(values: Float64Array, payload?: Int32Array): { keys: F
   for (let pass = 0; pass < 4; pass++) {
     const word = LITTLE_ENDIAN ? pass >> 1 : 1 - (pass >> 1);
     const shift = (pass & 1) * 16;
-    const u32 = new Uint32Array(keys.buffer);
+    const u32 = new Uint32Array(keys.buffer, keys.byteOffset, 2 * n);
     const count = hist.subarray(pass * 65536, (pass + 1) * 65536);
     const d0 = (u32[word] >>> shift) & 0xffff;
     if (count[d0] === n) continue; // every key has the same digit: nothing to do
@@ -108,9 +113,9 @@ export function distinctSorted(values: Float64Array): Float64Array {
  * Groups observations by distinct time with one radix sort, carrying an Int32
  * payload per observation (an index, or a small code such as group and event).
  */
-export function groupByTime(values: Float64Array, payload: Int32Array): TimeGroups {
+export function groupByTime(values: Float64Array, payload: Int32Array, inPlace = false): TimeGroups {
   const n = values.length;
-  const sorted = radixSort(values, payload);
+  const sorted = radixSort(values, payload, inPlace);
   const keys = sorted.keys;
   let d = 0;
   const times = new Float64Array(n);

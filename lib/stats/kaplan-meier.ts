@@ -87,10 +87,11 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
   const z = zForLevel(level);
   if (!Array.isArray(obs)) throw new TypeError('kaplanMeier expects an array of { time, event }');
   const n = obs.length;
-  // one pass over the input objects, then typed arrays only
-  const allTimes = new Float64Array(n);
-  const isEvent = new Uint8Array(n);
+  // one pass over the input objects: event times fill the buffer from the
+  // front, censoring times from the back
+  const buf = new Float64Array(n);
   let nev = 0;
+  let back = n;
   for (let i = 0; i < n; i++) {
     const o = obs[i];
     if (o === null || typeof o !== 'object') throw new TypeError(`observation ${i}: expected { time, event }`);
@@ -99,20 +100,11 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
     if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
       checkObservation(t, e, `observation ${i}`);
     }
-    allTimes[i] = t;
-    if (e) {
-      isEvent[i] = 1;
-      nev++;
-    }
+    if (e) buf[nev++] = t;
+    else buf[--back] = t;
   }
-  const evIn = new Float64Array(nev);
-  const ceIn = new Float64Array(n - nev);
-  for (let i = 0, a = 0, b = 0; i < n; i++) {
-    if (isEvent[i] === 1) evIn[a++] = allTimes[i];
-    else ceIn[b++] = allTimes[i];
-  }
-  const ev = radixSort(evIn).keys;
-  const ce = radixSort(ceIn).keys;
+  const ev = radixSort(buf.subarray(0, nev), undefined, true).keys;
+  const ce = radixSort(buf.subarray(nev), undefined, true).keys;
   const steps: KaplanMeierStep[] = [];
   const bounds = new Float64Array(2);
   let i = 0;

@@ -102,11 +102,11 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
       if (e) evBuf[ne++] = t;
       else ceBuf[nc++] = t;
     }
-    all.set(radixSort(evBuf.subarray(0, ne)).keys, offset);
+    all.set(radixSort(evBuf.subarray(0, ne), undefined, true).keys, offset);
     lo[2 * g] = offset;
     offset += ne;
     ptr[2 * g] = offset - 1;
-    all.set(radixSort(ceBuf.subarray(0, nc)).keys, offset);
+    all.set(radixSort(ceBuf.subarray(0, nc), undefined, true).keys, offset);
     lo[2 * g + 1] = offset;
     offset += nc;
     ptr[2 * g + 1] = offset - 1;
@@ -119,6 +119,7 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
   const observed = new Float64Array(G);
   const expected = new Float64Array(G);
   const variance = new Float64Array(G * G);
+  const share = new Float64Array(G);
   let nTotal = 0;
   let remaining = n;
   while (remaining > 0) {
@@ -152,20 +153,20 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
       expected[g] += rate * atRisk[g];
       observed[g] += dead[g];
     }
-    if (nTotal > 1) {
+    if (nTotal > 1 && dTotal < nTotal) {
+      // hypergeometric covariance, upper triangle (mirrored after the sweep)
       const w = (dTotal * (nTotal - dTotal)) / (nTotal - 1);
-      if (w > 0) {
-        for (let g = 0; g < G; g++) {
-          const pg = atRisk[g] / nTotal;
-          if (pg === 0) continue;
-          for (let h = 0; h < G; h++) {
-            const ph = atRisk[h] / nTotal;
-            variance[g * G + h] += w * pg * ((g === h ? 1 : 0) - ph);
-          }
-        }
+      for (let g = 0; g < G; g++) share[g] = atRisk[g] / nTotal;
+      for (let g = 0; g < G; g++) {
+        const pg = share[g];
+        if (pg === 0) continue;
+        const wp = w * pg;
+        variance[g * G + g] += wp * (1 - pg);
+        for (let h = g + 1; h < G; h++) variance[g * G + h] -= wp * share[h];
       }
     }
   }
+  for (let g = 0; g < G; g++) for (let h = g + 1; h < G; h++) variance[h * G + g] = variance[g * G + h];
   const included: number[] = [];
   for (let g = 0; g < G; g++) if (expected[g] > 0) included.push(g);
   const obsOut: Record<string, number> = {};

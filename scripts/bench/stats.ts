@@ -36,9 +36,24 @@ interface BenchRow extends CoxRow {
   group: number;
 }
 
-function generate(n: number, seed: number): BenchRow[] {
+interface Columns {
+  time: Float64Array;
+  event: Uint8Array;
+  group: Uint8Array;
+  x1: Uint8Array;
+  x2: Float64Array;
+}
+
+/** The data as columns first (so the CSV is written before any row object exists). */
+function generate(n: number, seed: number): Columns {
   const rnd = prng(seed);
-  const rows: BenchRow[] = new Array(n);
+  const c: Columns = {
+    time: new Float64Array(n),
+    event: new Uint8Array(n),
+    group: new Uint8Array(n),
+    x1: new Uint8Array(n),
+    x2: new Float64Array(n),
+  };
   for (let i = 0; i < n; i++) {
     const group = Math.floor(rnd() * 4);
     const x1 = rnd() < 0.4 ? 1 : 0;
@@ -47,20 +62,29 @@ function generate(n: number, seed: number): BenchRow[] {
     const lp = 0.4 * x1 - 0.3 * x2 + 0.15 * group;
     const tEvent = (-Math.log(Math.max(rnd(), 1e-12)) * 1500) / Math.exp(lp);
     const tCens = rnd() * 4000;
-    const event = tEvent <= tCens;
-    const time = Math.max(1, Math.round(Math.min(tEvent, tCens) * 100)) / 100;
-    rows[i] = { time, event, x: [x1, x2], group };
+    c.time[i] = Math.max(1, Math.round(Math.min(tEvent, tCens) * 100)) / 100;
+    c.event[i] = tEvent <= tCens ? 1 : 0;
+    c.group[i] = group;
+    c.x1[i] = x1;
+    c.x2[i] = x2;
   }
+  return c;
+}
+
+/** The input as a caller holds it: one object per observation. */
+function toRows(c: Columns): BenchRow[] {
+  const n = c.time.length;
+  const rows: BenchRow[] = new Array(n);
+  for (let i = 0; i < n; i++) rows[i] = { time: c.time[i], event: c.event[i] === 1, x: [c.x1[i], c.x2[i]], group: c.group[i] };
   return rows;
 }
 
-function writeCsv(file: string, rows: BenchRow[]): void {
+function writeCsv(file: string, c: Columns): void {
   const fd = openSync(file, 'w');
   writeSync(fd, 'time,status,grp,x1,x2\n');
   const chunk: string[] = [];
-  for (let i = 0; i < rows.length; i++) {
-    const r = rows[i];
-    chunk.push(`${r.time},${r.event ? 1 : 0},g${r.group + 1},${r.x[0]},${r.x[1]}\n`);
+  for (let i = 0; i < c.time.length; i++) {
+    chunk.push(`${c.time[i]},${c.event[i]},g${c.group[i] + 1},${c.x1[i]},${c.x2[i]}\n`);
     if (chunk.length === 50_000) {
       writeSync(fd, chunk.join(''));
       chunk.length = 0;
@@ -92,14 +116,16 @@ const f = (v: number) => (v < 0.1 ? v.toFixed(4) : v.toFixed(3));
 const rel = (a: number, b: number) => Math.abs(a - b) / Math.max(Math.abs(b), 1e-300);
 
 try {
-  runLamina(generate(10_000, 99)); // warm-up (JIT), untimed
+  runLamina(toRows(generate(10_000, 99))); // warm-up (JIT), untimed
   const lines: string[] = [];
   const checks: string[] = [];
   let rVersion = '';
   for (const n of ns) {
-    let rows: BenchRow[] | null = generate(n, 1000 + n);
+    let cols: Columns | null = generate(n, 1000 + n);
     const csv = path.join(dir, `bench-${n}.csv`);
-    writeCsv(csv, rows);
+    writeCsv(csv, cols);
+    let rows: BenchRow[] | null = toRows(cols);
+    cols = null;
     const lam = runLamina(rows);
     const rss = process.resourceUsage().maxRSS / 1024; // kB -> MB
     const lamKmRows = lam.km.v.length;

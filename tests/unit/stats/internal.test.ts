@@ -39,3 +39,17 @@ describe('radixSort', () => {
     expect(Array.from(g.payload)).toEqual([1, 4, 3, 0, 2]);
   });
 });
+
+describe('radixSort in place on a view', () => {
+  it('sorts a subarray in place of its buffer without touching the rest', () => {
+    const rnd = prng(9);
+    const buf = Float64Array.from({ length: 10_000 }, () => Math.round(rnd() * 1e6) / 7);
+    const before = buf.slice();
+    const view = buf.subarray(3000, 9000);
+    const expected = Float64Array.from(view).sort();
+    const { keys } = radixSort(view, undefined, true);
+    expect(Array.from(keys)).toEqual(Array.from(expected));
+    expect(Array.from(buf.subarray(0, 3000))).toEqual(Array.from(before.subarray(0, 3000)));
+    expect(Array.from(buf.subarray(9000))).toEqual(Array.from(before.subarray(9000)));
+  });
+});
