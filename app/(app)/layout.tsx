@@ -7,6 +7,7 @@ import { navFor } from '@/components/shell/nav';
 import { AppNav } from '@/components/shell/AppNav';
 import { SignOutButton } from '@/components/shell/SignOutButton';
 import { Wordmark } from '@/components/ui/LaminaMark';
+import { Providers } from '@/components/Providers';
 
 export const dynamic = 'force-dynamic';
 
@@ -40,7 +41,7 @@ export default async function AppLayout({ children }: { children: React.ReactNod
         </div>
       </header>
       <main id="main" className="mx-auto max-w-6xl px-4 py-8">
-        {children}
+        <Providers>{children}</Providers>
       </main>
     </div>
   );
