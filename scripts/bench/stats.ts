@@ -18,6 +18,7 @@ import { execFileSync } from 'node:child_process';
 import { closeSync, mkdtempSync, openSync, rmSync, writeSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
+import { fileURLToPath } from 'node:url';
 import { performance } from 'node:perf_hooks';
 import { coxPH, kaplanMeier, logRank, type CoxRow } from '../../lib/stats';
 
@@ -133,7 +134,7 @@ try {
     const lamChi = lam.lr.v.chiSquare;
     const lamCoef = lam.cx.v.coef;
     rows = null; // free before R runs
-    const out = execFileSync('Rscript', [path.join('scripts', 'bench', 'stats.R'), csv], {
+    const out = execFileSync('Rscript', [fileURLToPath(new URL('./stats.R', import.meta.url)), csv], {
       encoding: 'utf8',
       maxBuffer: 1 << 20,
     });

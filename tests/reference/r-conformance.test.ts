@@ -12,6 +12,7 @@ import { execFileSync, spawnSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
+import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import {
   chiSquareTest,
@@ -28,7 +29,7 @@ import {
 } from '@/lib/stats';
 import { generate, prng, type Row } from './datasets';
 
-const HERE = path.join(process.cwd(), 'tests', 'reference', 'scripts');
+const HERE = fileURLToPath(new URL('./scripts', import.meta.url));
 const REL = 1e-6;
 const ABS = 1e-12;
 const PYTHON = '/usr/bin/python3';
@@ -210,7 +211,14 @@ function csv(name: string, header: string[], rows: (string | number)[][]): void 
   writeFileSync(path.join(dir, name), [header.join(','), ...rows.map((r) => r.map(String).join(','))].join('\n') + '\n');
 }
 
-beforeAll(() => {
+let setupError: Error | null = null;
+
+/** Every comparison calls this first, so a missing R or scikit-learn fails each test (never skips). */
+function ready(): void {
+  if (setupError) throw setupError;
+}
+
+function runReferences(): void {
   const r = spawnSync('Rscript', ['-e', 'suppressPackageStartupMessages(library(survival)); cat("ok")'], { encoding: 'utf8' });
   if (r.error || r.status !== 0 || !r.stdout.includes('ok')) {
     throw new Error(
@@ -246,6 +254,14 @@ beforeAll(() => {
     stdio: ['ignore', 'ignore', 'pipe'],
   });
   SK = JSON.parse(readFileSync(path.join(dir, 'kappa-out.json'), 'utf8')) as typeof SK;
+}
+
+beforeAll(() => {
+  try {
+    runReferences();
+  } catch (e) {
+    setupError = e instanceof Error ? e : new Error(String(e));
+  }
 }, 120_000);
 
 afterAll(() => {
@@ -255,6 +271,7 @@ afterAll(() => {
 // ---------- comparisons ----------
 describe('kaplanMeier, medianSurvival, restrictedMean vs R survfit', () => {
   it.each(kmRuns.map((k, i) => [`${k.id} ${k.conf} ${k.level}`, i] as const))('%s', (_label, i) => {
+    ready();
     const ref = R.km[i];
     const run = kmRuns[i];
     expect(ref.id).toBe(run.id);
@@ -277,6 +294,7 @@ describe('kaplanMeier, medianSurvival, restrictedMean vs R survfit', () => {
 
 describe('logRank vs R survdiff', () => {
   it.each(lrIds.map((id, i) => [id, i] as const))('%s', (id, i) => {
+    ready();
     const ref = R.logRank[i];
     const groups: Record<string, SurvivalObservation[]> = {};
     for (const r of datasets[id]) (groups[r.group] ??= []).push({ time: r.time, event: r.event });
@@ -293,6 +311,7 @@ describe('logRank vs R survdiff', () => {
 
 describe('coxPH vs R coxph', () => {
   it.each(coxRuns.map((c, i) => [`${c.id} ${c.ties}`, i] as const))('%s', (_label, i) => {
+    ready();
     const ref = R.cox[i];
     const run = coxRuns[i];
     const res = coxPH(
@@ -312,6 +331,7 @@ describe('coxPH vs R coxph', () => {
 
 describe('wilsonInterval vs R prop.test(correct = FALSE)', () => {
   it.each(props.map((p, i) => [`${p.x}/${p.n} at ${p.level}`, i] as const))('%s', (_label, i) => {
+    ready();
     const p = props[i];
     const ref = R.wilson[i];
     const w = wilsonInterval(p.x, p.n, p.level);
@@ -323,6 +343,7 @@ describe('wilsonInterval vs R prop.test(correct = FALSE)', () => {
 
 describe('chiSquareTest vs R chisq.test(correct = FALSE)', () => {
   it.each(Object.keys(tables).map((id, i) => [id, i] as const))('%s', (id, i) => {
+    ready();
     const ref = R.chiSquare[i];
     const res = chiSquareTest(tables[id]);
     close(res.chiSquare, ref.chiSquare[0], 'chi-square');
@@ -333,6 +354,7 @@ describe('chiSquareTest vs R chisq.test(correct = FALSE)', () => {
 
 describe('fisherExact2x2 vs R fisher.test', () => {
   it.each(fisherTables.map((t, i) => [JSON.stringify(t), i] as const))('%s', (_label, i) => {
+    ready();
     close(fisherExact2x2(fisherTables[i]).pValue, R.fisher[i].pValue[0], 'p-value');
   });
 });
@@ -341,6 +363,7 @@ describe('cohenKappa vs scikit-learn cohen_kappa_score', () => {
   it.each(kappas.map((c, i) => [`n=${c.a.length} weights=${c.weights} labels=${c.labels ? 'given' : 'default'}`, i] as const))(
     '%s',
     (_label, i) => {
+      ready();
       const c = kappas[i];
       const res = cohenKappa(
         c.a.map((v, k) => [v, c.b[k]] as [number, number]),
@@ -352,7 +375,8 @@ describe('cohenKappa vs scikit-learn cohen_kappa_score', () => {
 });
 
 describe('reference tools', () => {
-  it('reports the versions used', () => {
+  it('R (survival) and scikit-learn are installed and report their versions', () => {
+    ready();
     expect(R.version).toMatch(/survival/);
     expect(SK.version).toMatch(/scikit-learn/);
   });
