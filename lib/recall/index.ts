@@ -1,6 +1,12 @@
-/** Recall: visit statuses and their moves, and recall plans from a practice's policy. Pure code. */
+/**
+ * Recall: visit statuses and their moves, recall plans from a practice's policy, reminder steps
+ * and the follow-up rate. Pure code.
+ */
 export * from './status';
 export * from './plan';
+export * from './reminders';
+export * from './follow-up-rate';
+// reply-token.ts is left out on purpose: it needs node:crypto, and this index is imported by screens.
 export {
   DEFAULT_RECALL_POLICY,
   DEFAULT_RECALL_MONTHS,
