@@ -339,7 +339,7 @@ export function coxPH(rows: readonly CoxRow[], opts: CoxOptions = {}): CoxResult
   if (step0 === null) {
     throw new RangeError('coxPH: the information matrix is singular; covariates are collinear or carry no information');
   }
-  let newBeta = new Float64Array(p);
+  const newBeta = new Float64Array(p);
   for (let k = 0; k < p; k++) newBeta[k] = beta[k] + step0[k];
   let halving = false;
   let converged = false;

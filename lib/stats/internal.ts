@@ -99,16 +99,6 @@ export function radixSort(
   return { keys, payload: pay };
 }
 
-/** Sorted distinct values of a Float64Array of non-negative numbers. */
-export function distinctSorted(values: Float64Array): Float64Array {
-  const sorted = radixSort(values).keys;
-  let m = 0;
-  for (let i = 0; i < sorted.length; i++) {
-    if (i === 0 || sorted[i] !== sorted[m - 1]) sorted[m++] = sorted[i];
-  }
-  return sorted.slice(0, m);
-}
-
 /**
  * Groups observations by distinct time with one radix sort, carrying an Int32
  * payload per observation (an index, or a small code such as group and event).
