@@ -27,7 +27,7 @@ fi
 
 TMP="$(mktemp -d /tmp/lamina-bench.XXXXXX)"
 chmod 755 "$TMP"
-export LAMINA_DATA="$TMP" LAMINA_PROFILE=test LAMINA_DB_NAME=lamina_bench
+export LAMINA_DATA="$TMP" LAMINA_PROFILE=test LAMINA_DB_NAME=lamina
 export LAMINA_PG_PORT="$(pick_free_port 55533)"
 export LAMINA_REDIS_PORT="$(pick_free_port 56480)"
 export LAMINA_SMTP_PORT="$(pick_free_port 52625)"

@@ -21,7 +21,8 @@ source scripts/lib/services.sh
 export CI=true
 TMP="$(mktemp -d /tmp/lamina-test.XXXXXX)"
 chmod 755 "$TMP" # the postgres user must reach $TMP/pg
-export LAMINA_DATA="$TMP" LAMINA_PROFILE=test LAMINA_DB_NAME=lamina_test
+# The database keeps the app's name: MikroORM writes migrations/.snapshot-<db name>.json.
+export LAMINA_DATA="$TMP" LAMINA_PROFILE=test LAMINA_DB_NAME=lamina
 export LAMINA_PG_PORT="${LAMINA_TEST_PG_PORT:-$(pick_free_port 55433)}"
 export LAMINA_REDIS_PORT="${LAMINA_TEST_REDIS_PORT:-$(pick_free_port 56380)}"
 export LAMINA_SMTP_PORT="${LAMINA_TEST_SMTP_PORT:-$(pick_free_port 52525)}"

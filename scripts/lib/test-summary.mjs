@@ -137,7 +137,7 @@ export function summarize(entries, readFile, cwd = '') {
   for (const e of entries) {
     if (e.kind === 'expect' && !seen.has(e.name)) {
       seen.add(e.name);
-      runners.push({ name: e.name, exitCode: null, passed: 0, failed: 1, skipped: 0, failures: [], notes: ['did not run'] });
+      runners.push({ name: e.name, exitCode: null, passed: 0, failed: 1, skipped: 0, failures: [], notes: ['did not run, or did not finish'] });
     }
   }
   let passed = runners.reduce((n, r) => n + r.passed, 0);

@@ -160,7 +160,7 @@ describe('summing every runner', () => {
     );
     expect(s).toMatchObject({ passed: 2, failed: 2 });
     const text = formatSummary(s);
-    expect(text).toContain('playwright: 0 passed, 1 failed\n  ! did not run');
+    expect(text).toContain('playwright: 0 passed, 1 failed\n  ! did not run, or did not finish');
     expect(text).toContain('! set-up step "next build" failed (exit 1)');
     expect(text.split('\n').at(-1)).toBe('tests: 2 passed, 2 failed');
   });
