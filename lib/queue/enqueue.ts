@@ -1,0 +1,105 @@
+/**
+ * Opening queues and adding jobs. Every add parses its payload first (the worker parses again).
+ */
+import { Queue, type Job, type JobsOptions, type QueueOptions } from 'bullmq';
+import type { Redis } from 'ioredis';
+import { reminderJobId } from '@/lib/recall/reminders';
+import { JOBS, QUEUES, RECALL_SCAN_SCHEDULER_ID, type QueueName } from './names';
+import { DEFAULT_JOB_OPTIONS, PRODUCER_QUEUE_OPTIONS, RECALL_SCAN_JOB_OPTIONS } from './options';
+import { parsePayload, type RecallScanData, type RecallScanInput, type SendReminderData, type SendReminderInput } from './payloads';
+
+export type RemindersQueue = Queue<SendReminderData, unknown, typeof JOBS.sendReminder>;
+export type RecallScanQueue = Queue<RecallScanData, unknown, typeof JOBS.recallScan>;
+
+export interface OpenQueueOptions {
+  /** Redis key prefix (BullMQ's default 'bull'); tests use their own. */
+  prefix?: string;
+  /**
+   * True for producers on connectionForProducer(): fail at once while Redis is down. Wait for the
+   * connection first (`await whenReady(connection)`), or the very first add may fail too.
+   */
+  failFast?: boolean;
+  /** Where queue errors go; console.error by default. */
+  log?: (message: string) => void;
+}
+
+function queueOptions(name: QueueName, connection: Redis, options: OpenQueueOptions): QueueOptions {
+  return {
+    connection,
+    defaultJobOptions: DEFAULT_JOB_OPTIONS[name],
+    ...(options.prefix ? { prefix: options.prefix } : {}),
+    ...(options.failFast ? PRODUCER_QUEUE_OPTIONS : {}),
+  };
+}
+
+/** The reminders queue with its default job options. Close it with `await queue.close()`. */
+export function openRemindersQueue(connection: Redis, options: OpenQueueOptions = {}): RemindersQueue {
+  const queue: RemindersQueue = new Queue(QUEUES.reminders, queueOptions(QUEUES.reminders, connection, options));
+  const log = options.log ?? console.error;
+  queue.on('error', (err) => log(`[queue ${QUEUES.reminders}] ${err.message}`));
+  return queue;
+}
+
+export function openRecallScanQueue(connection: Redis, options: OpenQueueOptions = {}): RecallScanQueue {
+  const queue: RecallScanQueue = new Queue(QUEUES.recallScan, queueOptions(QUEUES.recallScan, connection, options));
+  const log = options.log ?? console.error;
+  queue.on('error', (err) => log(`[queue ${QUEUES.recallScan}] ${err.message}`));
+  return queue;
+}
+
+export interface EnqueueOptions {
+  /** Wait this long before the job may run (e.g. quietDelayMs from lib/recall/reminders). */
+  delay?: number;
+}
+
+function jobOptions(data: SendReminderData, options: EnqueueOptions): JobsOptions {
+  return {
+    jobId: reminderJobId(data.visitId, data.step),
+    ...(options.delay && options.delay > 0 ? { delay: Math.round(options.delay) } : {}),
+  };
+}
+
+/**
+ * Queues one visit's step under its deterministic job id. Adding the same visit and step again
+ * while the first job is kept adds nothing and returns the existing job.
+ */
+export async function enqueueReminder(
+  queue: RemindersQueue,
+  payload: SendReminderInput,
+  options: EnqueueOptions = {},
+): Promise<Job<SendReminderData, unknown, typeof JOBS.sendReminder>> {
+  const data = parsePayload(JOBS.sendReminder, payload);
+  return queue.add(JOBS.sendReminder, data, jobOptions(data, options));
+}
+
+/** Queues many steps in one round trip (the scan); every payload is parsed first, so one bad payload queues none. */
+export async function enqueueReminders(
+  queue: RemindersQueue,
+  payloads: readonly SendReminderInput[],
+  options: EnqueueOptions = {},
+): Promise<Job<SendReminderData, unknown, typeof JOBS.sendReminder>[]> {
+  const jobs = payloads.map((p) => {
+    const data = parsePayload(JOBS.sendReminder, p);
+    return { name: JOBS.sendReminder, data, opts: jobOptions(data, options) };
+  });
+  return jobs.length ? queue.addBulk(jobs) : [];
+}
+
+/** Queues a scan now (e.g. after a policy change, or the desk's "scan again"). */
+export async function enqueueRecallScan(queue: RecallScanQueue, payload: RecallScanInput = {}) {
+  const data = parsePayload(JOBS.recallScan, payload);
+  return queue.add(JOBS.recallScan, data);
+}
+
+/**
+ * Installs (or updates) the scheduled scan: by default at minute 0 of every hour, so each
+ * practice's "today" is picked up soon after its own midnight whatever its time zone (the scan
+ * itself is idempotent; quiet hours hold the messages, not the scan).
+ */
+export async function upsertRecallScanScheduler(queue: RecallScanQueue, repeat: { pattern?: string; tz?: string } = {}) {
+  return queue.upsertJobScheduler(
+    RECALL_SCAN_SCHEDULER_ID as typeof JOBS.recallScan,
+    { pattern: repeat.pattern ?? '0 * * * *', ...(repeat.tz ? { tz: repeat.tz } : {}) },
+    { name: JOBS.recallScan, data: parsePayload(JOBS.recallScan, {}), opts: RECALL_SCAN_JOB_OPTIONS },
+  );
+}

@@ -1,0 +1,6 @@
+/** Queues and jobs: names, payloads, connections, options and enqueueing, defined once. */
+export * from './names';
+export * from './payloads';
+export * from './connection';
+export * from './options';
+export * from './enqueue';

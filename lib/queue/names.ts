@@ -1,0 +1,28 @@
+/**
+ * The queues and job names, defined once. The web process (producer), the worker process and
+ * the tests all import them from here; nothing else spells a queue or job name.
+ *
+ * Names contain no ':' (BullMQ uses it in its Redis keys).
+ */
+export const QUEUES = {
+  /** One job per visit and step: render, check the outbox, send. */
+  reminders: 'reminders',
+  /** The scheduled scan that finds visits entering a step and queues their reminders. */
+  recallScan: 'recall-scan',
+} as const;
+export type QueueName = (typeof QUEUES)[keyof typeof QUEUES];
+
+export const JOBS = {
+  sendReminder: 'send-reminder',
+  recallScan: 'recall-scan',
+} as const;
+export type JobName = (typeof JOBS)[keyof typeof JOBS];
+
+/** Which job runs on which queue. */
+export const JOB_QUEUE: Record<JobName, QueueName> = {
+  [JOBS.sendReminder]: QUEUES.reminders,
+  [JOBS.recallScan]: QUEUES.recallScan,
+};
+
+/** The id of the recall scan's job scheduler (one per deployment). */
+export const RECALL_SCAN_SCHEDULER_ID = 'recall-scan-hourly';
