@@ -1,5 +1,6 @@
 import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
+import { DEFAULT_RECALL_POLICY, type RecallPolicy } from '../lib/schemas/recall-policy';
 
 /** A clinic. The registry holds several; every patient record belongs to exactly one. */
 export const PracticeSchema = defineEntity({
@@ -13,6 +14,14 @@ export const PracticeSchema = defineEntity({
     /** How teeth are shown on screens: FDI two-digit (ISO 3950) or Universal (1–32). */
     toothNotation: p.enum(['fdi', 'universal'] as const).default('fdi'),
     timeZone: p.string().length(60).default('Europe/London'),
+    /**
+     * Follow-up milestones and their windows (lib/schemas/recall-policy.ts), stored as parsed
+     * (every window filled in); default 6, 12 and 24 months. Read it through RecallPolicySchema.
+     */
+    recallPolicy: p
+      .json<RecallPolicy>()
+      .onCreate(() => DEFAULT_RECALL_POLICY)
+      .defaultRaw(`'${JSON.stringify(DEFAULT_RECALL_POLICY)}'`),
     createdAt: p.datetime().onCreate(() => new Date()),
   },
 });

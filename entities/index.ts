@@ -2,7 +2,12 @@
 import { AuditEventSchema } from './AuditEvent';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
+import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
+import { RecallVisitSchema } from './RecallVisit';
+import { ReferrerSchema } from './Referrer';
+import { ReviewSchema } from './Review';
+import { TreatmentCaseSchema } from './TreatmentCase';
 import { UserSchema } from './User';
 import { VerificationTokenSchema } from './VerificationToken';
 
@@ -13,11 +18,21 @@ export const entities = [
   AuditEventSchema,
   InvitationSchema,
   VerificationTokenSchema,
+  PatientSchema,
+  ReferrerSchema,
+  TreatmentCaseSchema,
+  RecallVisitSchema,
+  ReviewSchema,
 ];
 
 export * from './AuditEvent';
 export * from './Invitation';
 export * from './Membership';
+export * from './Patient';
 export * from './Practice';
+export * from './RecallVisit';
+export * from './Referrer';
+export * from './Review';
+export * from './TreatmentCase';
 export * from './User';
 export * from './VerificationToken';

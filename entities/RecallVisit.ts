@@ -1,0 +1,47 @@
+import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
+import { randomUUID } from 'node:crypto';
+import { VISIT_STATUSES } from '../lib/recall/status';
+import { PracticeSchema } from './Practice';
+import { TreatmentCaseSchema } from './TreatmentCase';
+import { UserSchema } from './User';
+
+/**
+ * One follow-up visit of a completed case, created from the practice's recall policy
+ * (lib/recall/plan.ts): milestone in months after completion, its due date and window (dates,
+ * both ends inclusive). Status moves only through lib/recall/status.ts VISIT_TRANSITIONS.
+ * 'closed' is "closed as lost to follow-up", with `lostToFollowUp` and `closedOn` recorded.
+ */
+export const RecallVisitSchema = defineEntity({
+  name: 'RecallVisit',
+  tableName: 'recall_visit',
+  properties: {
+    id: p.uuid().primary().onCreate(() => randomUUID()),
+    practice: p.manyToOne(PracticeSchema).ref().deleteRule('cascade'),
+    case: p.manyToOne(TreatmentCaseSchema).ref().deleteRule('cascade'),
+    /** Months after the completion date. */
+    milestone: p.smallint(),
+    dueDate: p.date(),
+    windowStart: p.date(),
+    windowEnd: p.date(),
+    status: p.enum([...VISIT_STATUSES]).default('planned'),
+    /** The appointment date, once booked (confirmed). */
+    bookedDate: p.date().nullable(),
+    /** The visit moved after an invitation or booking (completion date changed): invite again. */
+    reinviteNeeded: p.boolean().default(false),
+    lostToFollowUp: p.boolean().default(false),
+    closedOn: p.date().nullable(),
+    note: p.string().length(500).nullable(),
+    statusChangedAt: p.datetime().onCreate(() => new Date()),
+    statusChangedBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
+    createdAt: p.datetime().onCreate(() => new Date()),
+    updatedAt: p.datetime().onCreate(() => new Date()).onUpdate(() => new Date()),
+  },
+  uniques: [{ name: 'recall_visit_case_milestone_unique', properties: ['case', 'milestone'] }],
+  indexes: [
+    // Case-list filter "has a visit in status S due between D1 and D2", and the recall desk.
+    { name: 'recall_visit_practice_status_due_index', properties: ['practice', 'status', 'dueDate'] },
+    { name: 'recall_visit_practice_due_index', properties: ['practice', 'dueDate'] },
+  ],
+});
+
+export type RecallVisit = InferEntity<typeof RecallVisitSchema>;

@@ -1,0 +1,116 @@
+import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
+import { randomUUID } from 'node:crypto';
+import {
+  APICAL_DIAGNOSES,
+  CAPPING_MATERIALS,
+  CASE_KINDS,
+  COMPLETION_RESTORATIONS,
+  DEFINITIVE_RESTORATIONS,
+  FILL_DENSITIES,
+  FILLING_TECHNIQUES,
+  PULP_THERAPY_TYPES,
+  PULPAL_DIAGNOSES,
+  ROOT_END_FILLINGS,
+  SEALER_CLASSES,
+  type Canal,
+} from '../lib/schemas/case';
+import { VISIT_STATUSES } from '../lib/recall/status';
+import { TOOTH_GROUPS } from '../lib/teeth';
+import { PatientSchema } from './Patient';
+import { PracticeSchema } from './Practice';
+import { ReferrerSchema } from './Referrer';
+import { UserSchema } from './User';
+
+/**
+ * One tooth treated once (lib/schemas/case.ts has the vocabulary, units and ranges).
+ *
+ * Canals are a jsonb array ({ name, workingLengthMm, apicalSize, fillToApexMm }), not a child
+ * table: a case has at most six, they are always read and written with their case, they have
+ * no identity or lifecycle of their own and nothing references one. A child table would triple
+ * the rows and the inserts of a 10,000-case import for no query that needs it. What the lists
+ * filter and sort on is derived from them and stored in columns: `canalCount` and
+ * `fillLengthClass` (lib/scoring's class of each canal, the case taking its worst: beyond if
+ * any canal is beyond the apex, else short if any is more than 2 mm short, else within; null
+ * while no canal has a measured fill length).
+ *
+ * The tooth is stored in FDI two-digit notation (ISO 3950); `toothGroup` and `toothArch` are
+ * derived from it (lib/teeth) and stored so the case list can filter on them with an index.
+ *
+ * `nextVisitDate` / `nextVisitStatus` are the due date and status of the case's earliest open
+ * recall visit (planned, invited, confirmed), kept by the services that change visits
+ * (lib/services/visits.ts `refreshNextVisit`) so the list can sort by the next recall
+ * without a per-row subquery over 100,000 cases. Anything that changes visit statuses in bulk
+ * (the nightly desk job) must call it too.
+ */
+export const TreatmentCaseSchema = defineEntity({
+  name: 'TreatmentCase',
+  tableName: 'treatment_case',
+  properties: {
+    id: p.uuid().primary().onCreate(() => randomUUID()),
+    practice: p.manyToOne(PracticeSchema).ref().deleteRule('cascade'),
+    patient: p.manyToOne(PatientSchema).ref().deleteRule('cascade'),
+    /** FDI two-digit tooth number (ISO 3950). */
+    tooth: p.smallint(),
+    toothGroup: p.enum([...TOOTH_GROUPS]),
+    toothArch: p.enum(['upper', 'lower'] as const),
+    kind: p.enum([...CASE_KINDS]),
+    /** The clinician who treated the tooth. */
+    operator: p.manyToOne(UserSchema).ref().deleteRule('restrict'),
+    referrer: p.manyToOne(ReferrerSchema).ref().nullable().deleteRule('set null'),
+    startDate: p.date(),
+    /** Canal filling (or the day the procedure was completed); null while in progress. */
+    completionDate: p.date().nullable(),
+
+    // before treatment
+    pulpalDiagnosis: p.enum([...PULPAL_DIAGNOSES]),
+    apicalDiagnosis: p.enum([...APICAL_DIAGNOSES]),
+    /** Periapical index before treatment, 1–5 (Ørstavik 1986). */
+    paiScore: p.smallint(),
+    /** Largest lesion diameter before treatment, mm (0 = none), 0.1 mm precision. */
+    lesionDiameterMm: p.decimal('number').precision(4).scale(1),
+    preopSymptoms: p.array<string>().default([]),
+    sinusTract: p.boolean().nullable(),
+    /** Deepest probing depth, whole mm. */
+    probingDepthMm: p.smallint().nullable(),
+
+    // treatment
+    canals: p.json<Canal[]>().default('[]'),
+    canalCount: p.smallint().default(0),
+    fillingTechnique: p.enum([...FILLING_TECHNIQUES]).nullable(),
+    sealerClass: p.enum([...SEALER_CLASSES]).nullable(),
+    apicalPatency: p.boolean().nullable(),
+    complications: p.array<string>().default([]),
+    rootEndFilling: p.enum([...ROOT_END_FILLINGS]).nullable(),
+    pulpTherapyType: p.enum([...PULP_THERAPY_TYPES]).nullable(),
+    cappingMaterial: p.enum([...CAPPING_MATERIALS]).nullable(),
+
+    // after treatment
+    fillDensity: p.enum([...FILL_DENSITIES]).nullable(),
+    fillLengthClass: p.enum(['within', 'short', 'beyond'] as const).nullable(),
+    coronalRestoration: p.enum([...COMPLETION_RESTORATIONS]).nullable(),
+    definitiveRestoration: p.enum([...DEFINITIVE_RESTORATIONS]).nullable(),
+    definitiveRestorationDate: p.date().nullable(),
+
+    // recall summary (see above)
+    nextVisitDate: p.date().nullable(),
+    nextVisitStatus: p.enum([...VISIT_STATUSES]).nullable(),
+
+    /** How the case came in: entered on a form or imported from a CSV file. */
+    source: p.enum(['form', 'import', 'demo'] as const).default('form'),
+    createdBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
+    archivedAt: p.datetime().nullable(),
+    createdAt: p.datetime().onCreate(() => new Date()),
+    updatedAt: p.datetime().onCreate(() => new Date()).onUpdate(() => new Date()),
+  },
+  indexes: [
+    // The list's default order (completion date, newest first) and date-range filters.
+    { name: 'treatment_case_practice_completion_index', properties: ['practice', 'completionDate', 'id'] },
+    { name: 'treatment_case_practice_operator_index', properties: ['practice', 'operator', 'completionDate'] },
+    { name: 'treatment_case_practice_kind_index', properties: ['practice', 'kind', 'completionDate'] },
+    { name: 'treatment_case_practice_tooth_group_index', properties: ['practice', 'toothGroup', 'completionDate'] },
+    { name: 'treatment_case_practice_next_visit_index', properties: ['practice', 'nextVisitDate'] },
+    { name: 'treatment_case_patient_index', properties: ['patient'] },
+  ],
+});
+
+export type TreatmentCase = InferEntity<typeof TreatmentCaseSchema>;
