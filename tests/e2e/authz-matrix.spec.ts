@@ -40,6 +40,26 @@ const MATRIX: Row[] = [
   { route: 'api/team/invitations', method: 'POST', url: () => '/api/team/invitations', body: { email: 'not-an-address' }, expect: only({ admin: 422 }) },
   { route: 'api/audit', method: 'GET', url: () => '/api/audit?page=1', expect: only({ admin: 200 }) },
   { route: 'api/dev-mailbox', method: 'GET', url: () => '/api/dev-mailbox', expect: only({ admin: 200 }) },
+  // Registry (issue 4): readers of patient data are the coordinator, the clinicians and the practice lead.
+  { route: 'api/patients', method: 'GET', url: () => '/api/patients?page=1&pageSize=5', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
+  { route: 'api/patients', method: 'POST', url: () => '/api/patients', body: { registryNumber: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
+  { route: 'api/patients/[id]', method: 'GET', url: () => `/api/patients/${randomUUID()}`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/patients/[id]', method: 'PATCH', url: () => `/api/patients/${randomUUID()}`, body: { phone: '01632 960000' }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/patients/[id]', method: 'DELETE', url: () => `/api/patients/${randomUUID()}`, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/cases', method: 'GET', url: () => '/api/cases?pageSize=5&kind=primary_treatment&sort=tooth', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
+  { route: 'api/cases', method: 'POST', url: () => '/api/cases', body: { tooth: 19 }, expect: only({ clinician: 422 }) },
+  { route: 'api/cases/[id]', method: 'GET', url: () => `/api/cases/${randomUUID()}`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/cases/[id]', method: 'PATCH', url: () => `/api/cases/${randomUUID()}`, body: { sealerClass: 'epoxy_resin' }, expect: only({ clinician: 404 }) },
+  { route: 'api/cases/[id]', method: 'DELETE', url: () => `/api/cases/${randomUUID()}`, expect: only({ clinician: 404 }) },
+  { route: 'api/cases/[id]/visits', method: 'GET', url: () => `/api/cases/${randomUUID()}/visits`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/cases/[id]/reviews', method: 'GET', url: () => `/api/cases/${randomUUID()}/reviews`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/cases/[id]/reviews', method: 'POST', url: () => `/api/cases/${randomUUID()}/reviews`, body: { toothStatus: 'present' }, expect: only({ clinician: 404 }) },
+  { route: 'api/cases/import', method: 'GET', url: () => '/api/cases/import', expect: only({ coordinator: 200, clinician: 200 }) },
+  { route: 'api/cases/import', method: 'POST', url: () => '/api/cases/import', body: { csv: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
+  { route: 'api/visits/[id]', method: 'PATCH', url: () => `/api/visits/${randomUUID()}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
+  { route: 'api/referrers', method: 'GET', url: () => '/api/referrers', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
+  { route: 'api/referrers', method: 'POST', url: () => '/api/referrers', body: { name: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
+  { route: 'api/clinicians', method: 'GET', url: () => '/api/clinicians', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
 ];
 
 function routeFiles(dir: string, base = dir): string[] {

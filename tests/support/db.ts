@@ -59,3 +59,69 @@ export async function makePractice(em: EntityManager, slug: string, people: { em
   };
   return { practice, users, actor };
 }
+
+/**
+ * A practice for the registry tests: an administrator, a coordinator, two clinicians, a
+ * practice lead and a researcher, all `@<slug>.test`.
+ */
+export async function makeRegistryPractice(em: EntityManager, slug: string) {
+  const made = await makePractice(em, slug, [
+    { email: `admin@${slug}.test`, roles: ['admin'] },
+    { email: `cora@${slug}.test`, roles: ['coordinator'] },
+    { email: `cal@${slug}.test`, roles: ['clinician'] },
+    { email: `cleo@${slug}.test`, roles: ['clinician'] },
+    { email: `lead@${slug}.test`, roles: ['auditor'] },
+    { email: `res@${slug}.test`, roles: ['researcher'] },
+  ]);
+  return {
+    ...made,
+    admin: made.actor(`admin@${slug}.test`),
+    coordinator: made.actor(`cora@${slug}.test`),
+    clinician: made.actor(`cal@${slug}.test`),
+    clinician2: made.actor(`cleo@${slug}.test`),
+    auditor: made.actor(`lead@${slug}.test`),
+    researcher: made.actor(`res@${slug}.test`),
+  };
+}
+
+/** A valid new patient (PatientCreateSchema input); invented. */
+export function patientInput(change: Record<string, unknown> = {}) {
+  return {
+    registryNumber: 'T-0001',
+    givenName: 'Wren',
+    familyName: 'Ashdown',
+    dateOfBirth: '1971-04-12',
+    sex: 'female',
+    email: 'wren.ashdown@patients.test.invalid',
+    recallContact: true,
+    recallChannel: 'email',
+    researchUse: true,
+    consentDate: '2024-01-10',
+    ...change,
+  };
+}
+
+/** A valid primary treatment of tooth 36 (CaseCreateSchema input) for the patient and operator. */
+export function caseInput(patientId: string, operatorId: string, change: Record<string, unknown> = {}) {
+  return {
+    patientId,
+    operatorId,
+    tooth: 36,
+    kind: 'primary_treatment',
+    startDate: '2024-01-10',
+    completionDate: '2024-01-24',
+    pulpalDiagnosis: 'pulp_necrosis',
+    apicalDiagnosis: 'asymptomatic_apical_periodontitis',
+    paiScore: 4,
+    lesionDiameterMm: 3.5,
+    canals: [
+      { name: 'MB', workingLengthMm: 20.5, apicalSize: 30, fillToApexMm: 0.5 },
+      { name: 'ML', workingLengthMm: 20, apicalSize: 30, fillToApexMm: 1 },
+      { name: 'D', workingLengthMm: 21, apicalSize: 40, fillToApexMm: 2.5 },
+    ],
+    fillingTechnique: 'continuous_wave',
+    sealerClass: 'epoxy_resin',
+    coronalRestoration: 'direct_composite',
+    ...change,
+  };
+}

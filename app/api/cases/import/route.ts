@@ -1,0 +1,92 @@
+import { z } from 'zod';
+import { handler } from '@/lib/http';
+import { IMPORT_MAX_BYTES, ImportInputSchema, importCases, importTemplate } from '@/lib/services/import';
+import { ServiceError, ValidationError } from '@/lib/services/errors';
+import { parseInput } from '@/lib/services/parse';
+import { searchParamsObject } from '@/lib/schemas/paging';
+
+/** GET /api/cases/import → the CSV template (attachment). */
+export const GET = handler('case.import', async () => {
+  const t = importTemplate();
+  return new Response(t.body, {
+    headers: {
+      'Content-Type': t.contentType,
+      'Content-Disposition': `attachment; filename="${t.filename}"`,
+      'Cache-Control': 'no-store',
+    },
+  });
+});
+
+const Query = z.object({
+  mode: z.enum(['dry-run', 'commit'], { error: 'Add ?mode=dry-run or ?mode=commit.' }),
+  stream: z.enum(['0', '1']).optional(),
+});
+
+/**
+ * POST /api/cases/import?mode=dry-run|commit with the CSV as the body (text/csv), as a
+ * multipart form field `file`, or as JSON { csv }. Answers the ImportResult as JSON — or, when
+ * the request sends `Accept: application/x-ndjson` (or ?stream=1), streams NDJSON lines:
+ * {type:'progress', phase, done, total} … then {type:'result', ...ImportResult}, or
+ * {type:'error', status, message, fieldErrors} if it fails after the stream began.
+ */
+export const POST = handler('case.import', async ({ req, em, actor }) => {
+  const q = parseInput(Query, searchParamsObject(req.url));
+  const input = parseInput(ImportInputSchema, { mode: q.mode, csv: await readCsv(req) });
+  const streamed = q.stream === '1' || (req.headers.get('accept') ?? '').includes('application/x-ndjson');
+  if (!streamed) return importCases(em, actor, input);
+
+  const encoder = new TextEncoder();
+  const body = new ReadableStream<Uint8Array>({
+    async start(controller) {
+      const send = (line: unknown) => controller.enqueue(encoder.encode(`${JSON.stringify(line)}\n`));
+      let last = 0;
+      try {
+        const result = await importCases(em, actor, input, {
+          onProgress: (p) => {
+            const now = Date.now();
+            if (now - last >= 100 || p.done === p.total) {
+              last = now;
+              send({ type: 'progress', ...p });
+            }
+          },
+        });
+        send({ type: 'result', ...result });
+      } catch (e) {
+        if (!(e instanceof ServiceError)) console.error('[api] import failed', e);
+        send(
+          e instanceof ServiceError
+            ? { type: 'error', status: e.status, message: e.message, fieldErrors: e.fieldErrors }
+            : { type: 'error', status: 500, message: 'Something went wrong on our side. Nothing was imported.' },
+        );
+      } finally {
+        controller.close();
+      }
+    },
+  });
+  return new Response(body, {
+    headers: { 'Content-Type': 'application/x-ndjson; charset=utf-8', 'Cache-Control': 'no-store', 'X-Accel-Buffering': 'no' },
+  });
+});
+
+async function readCsv(req: Request): Promise<unknown> {
+  const length = Number(req.headers.get('content-length') ?? 0);
+  if (length > IMPORT_MAX_BYTES + 64 * 1024) {
+    throw new ServiceError(`The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`, 413);
+  }
+  const type = req.headers.get('content-type') ?? '';
+  if (type.includes('multipart/form-data')) {
+    const form = await req.formData().catch(() => {
+      throw new ValidationError('The upload could not be read: send the file as the form field “file”.');
+    });
+    const file = form.get('file');
+    if (file === null) throw new ValidationError('Some fields need attention.', { csv: ['Choose a CSV file to upload (form field “file”).'] });
+    return typeof file === 'string' ? file : await file.text();
+  }
+  if (type.includes('application/json')) {
+    const body = (await req.json().catch(() => {
+      throw new ValidationError('The request body is not valid JSON.');
+    })) as unknown;
+    return body && typeof body === 'object' ? (body as { csv?: unknown }).csv : undefined;
+  }
+  return req.text();
+}

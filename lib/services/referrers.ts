@@ -1,0 +1,89 @@
+import 'server-only';
+import { z } from 'zod';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { ReferrerSchema, type Referrer } from '@/entities';
+import { assertCan, type Actor } from '@/lib/auth/actor';
+import { Paging } from '@/lib/schemas/paging';
+import { ReferrerCreateSchema, type ReferrerCreate } from '@/lib/schemas/referrer';
+import { audit } from './audit';
+import { ConflictError } from './errors';
+import { parseInput } from './parse';
+import { likeWord, searchWords, type Page } from './registry-common';
+
+export interface ReferrerView {
+  id: string;
+  name: string;
+  practiceName: string | null;
+  email: string | null;
+  archived: boolean;
+}
+
+export const ReferrerListQuery = Paging.extend({
+  q: z.string().trim().max(100, 'At most 100 characters in the search.').optional(),
+});
+
+/** The practice's referring dentists, by name; searched by name, practice or e-mail. Not patient data: not audited. */
+export async function listReferrers(em: EntityManager, actor: Actor, raw: unknown): Promise<Page<ReferrerView>> {
+  assertCan(actor, 'patient.read');
+  const q = parseInput(ReferrerListQuery, raw);
+  const knex = em.getKnex();
+  const base = knex('referrer as r').where('r.practice_id', actor.practiceId).whereNull('r.archived_at');
+  for (const w of searchWords(q.q)) {
+    base.where((b) =>
+      b
+        .whereRaw('lower(r.name) like ?', [likeWord(w)])
+        .orWhereRaw("lower(coalesce(r.practice_name, '')) like ?", [likeWord(w)])
+        .orWhereRaw("lower(coalesce(r.email, '')) like ?", [likeWord(w)]),
+    );
+  }
+  const [count, rows] = await Promise.all([
+    base.clone().count<{ n: string }[]>('* as n'),
+    base
+      .clone()
+      .select('r.id', 'r.name', 'r.practice_name', 'r.email', 'r.archived_at')
+      .orderBy([{ column: 'r.name' }, { column: 'r.id' }])
+      .limit(q.pageSize)
+      .offset((q.page - 1) * q.pageSize),
+  ]);
+  return {
+    rows: rows.map((r: Record<string, unknown>) => ({
+      id: r.id as string,
+      name: r.name as string,
+      practiceName: (r.practice_name as string | null) ?? null,
+      email: (r.email as string | null) ?? null,
+      archived: r.archived_at !== null,
+    })),
+    total: Number(count[0]?.n ?? 0),
+    page: q.page,
+    pageSize: q.pageSize,
+  };
+}
+
+/** Adds a referring dentist. The same e-mail twice in one practice is refused (409). */
+export async function createReferrer(em: EntityManager, actor: Actor, raw: unknown): Promise<ReferrerView> {
+  assertCan(actor, 'patient.write');
+  const input = parseInput(ReferrerCreateSchema, raw);
+  if (input.email) {
+    const existing = await em.findOne(ReferrerSchema, { practice: actor.practiceId, email: input.email, archivedAt: null });
+    if (existing) throw new ConflictError(`${existing.name} already has the e-mail ${input.email} in this practice.`);
+  }
+  const referrer = em.create(ReferrerSchema, {
+    practice: actor.practiceId,
+    name: input.name,
+    practiceName: input.practiceName ?? null,
+    email: input.email ?? null,
+  } as never) as Referrer;
+  await em.flush();
+  await audit(em, actor, { action: 'referrer.created', entityType: 'referrer', entityId: referrer.id });
+  return referrerView(referrer);
+}
+
+export function referrerView(r: Pick<Referrer, 'id' | 'name' | 'practiceName' | 'email' | 'archivedAt'>): ReferrerView {
+  return { id: r.id, name: r.name, practiceName: r.practiceName ?? null, email: r.email ?? null, archived: Boolean(r.archivedAt) };
+}
+
+/** The key the import matches referrers by: the e-mail when given, else name and practice (case-insensitive). */
+export function referrerKey(r: Pick<ReferrerCreate, 'name' | 'practiceName' | 'email'> | { name: string; practiceName: string | null; email: string | null }): string {
+  if (r.email) return `e:${r.email.toLowerCase()}`;
+  return `n:${r.name.trim().toLowerCase()}|${(r.practiceName ?? '').trim().toLowerCase()}`;
+}

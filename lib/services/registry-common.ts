@@ -1,0 +1,167 @@
+import 'server-only';
+import { z } from 'zod';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { MembershipSchema, PracticeSchema, TreatmentCaseSchema, type TreatmentCase } from '@/entities';
+import type { Actor } from '@/lib/auth/actor';
+import { DEFAULT_RECALL_POLICY, RecallPolicySchema, type RecallPolicy } from '@/lib/schemas/recall-policy';
+import type { Canal } from '@/lib/schemas/case';
+import { fillLengthClass, type FillLengthClass } from '@/lib/scoring';
+import type { ToothNotation } from '@/lib/teeth';
+import type { CalendarDate } from '@/lib/registry/calendar-date';
+import { blankAsUndefined, calendarDate } from '@/lib/registry/fields';
+import { NotFoundError, ValidationError } from './errors';
+
+/**
+ * Small pieces shared by the registry services (patients, referrers, cases, visits, reviews,
+ * import): the practice's settings, "today" on the practice's calendar, id checks that answer
+ * 404, the clinician check and the case's fill-length class.
+ */
+
+export interface Page<T> {
+  rows: T[];
+  total: number;
+  page: number;
+  pageSize: number;
+}
+
+export interface PracticeSettings {
+  id: string;
+  toothNotation: ToothNotation;
+  timeZone: string;
+  recallPolicy: RecallPolicy;
+}
+
+/** The practice's notation, time zone and recall policy (a stored policy that no longer parses falls back to the default). */
+export async function practiceSettings(em: EntityManager, practiceId: string): Promise<PracticeSettings> {
+  const practice = await em.findOneOrFail(PracticeSchema, practiceId, {
+    fields: ['id', 'toothNotation', 'timeZone', 'recallPolicy'],
+  });
+  const parsed = RecallPolicySchema.safeParse(practice.recallPolicy);
+  return {
+    id: practice.id,
+    toothNotation: practice.toothNotation as ToothNotation,
+    timeZone: practice.timeZone,
+    recallPolicy: parsed.success ? parsed.data : DEFAULT_RECALL_POLICY,
+  };
+}
+
+/** Today's calendar date in `timeZone` (the practice's), 'YYYY-MM-DD'. */
+export function todayIn(timeZone: string, now: Date = new Date()): CalendarDate {
+  let parts: Intl.DateTimeFormatPart[];
+  try {
+    parts = new Intl.DateTimeFormat('en-GB', { timeZone, year: 'numeric', month: '2-digit', day: '2-digit' }).formatToParts(now);
+  } catch {
+    parts = new Intl.DateTimeFormat('en-GB', { timeZone: 'UTC', year: 'numeric', month: '2-digit', day: '2-digit' }).formatToParts(now);
+  }
+  const get = (type: string) => parts.find((p) => p.type === type)!.value;
+  return `${get('year')}-${get('month')}-${get('day')}`;
+}
+
+const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
+
+export function isUuid(value: unknown): value is string {
+  return typeof value === 'string' && UUID.test(value);
+}
+
+/** An id that is no uuid names no record: answer 404 like an unknown one (never a database error). */
+export function assertId(id: unknown, what: string): string {
+  if (!isUuid(id)) throw new NotFoundError(`No such ${what}.`);
+  return id.toLowerCase();
+}
+
+/** A referenced id from a body (patientId, operatorId…): not a uuid is a 422 on that field. */
+export function bodyId(value: string | undefined, field: string, message: string): string | undefined {
+  if (value === undefined) return undefined;
+  if (!isUuid(value)) throw new ValidationError('Some fields need attention.', { [field]: [message] });
+  return value.toLowerCase();
+}
+
+/** The ids among `userIds` that hold an active clinician role in the practice. */
+export async function activeClinicians(em: EntityManager, practiceId: string, userIds: readonly string[]): Promise<Set<string>> {
+  if (userIds.length === 0) return new Set();
+  const rows = await em.find(
+    MembershipSchema,
+    { practice: practiceId, role: 'clinician', revokedAt: null, user: { $in: [...new Set(userIds)] } },
+    { fields: ['user'] },
+  );
+  return new Set(rows.map((m) => m.user.id));
+}
+
+/** Throws a 422 on `field` unless the user is an active clinician of the practice. */
+export async function assertClinician(em: EntityManager, practiceId: string, userId: string, field: string): Promise<void> {
+  const id = bodyId(userId, field, 'Choose a clinician of this practice.')!;
+  const found = await activeClinicians(em, practiceId, [id]);
+  if (!found.has(id)) throw new ValidationError('Some fields need attention.', { [field]: ['Choose a clinician of this practice.'] });
+}
+
+const FILL_RANK: Record<FillLengthClass, number> = { within: 0, short: 1, beyond: 2 };
+
+/**
+ * The case's fill-length class from its canals (lib/scoring per canal): the worst of them —
+ * beyond if any canal is beyond the apex, else short if any is more than 2 mm short, else
+ * within. null while no canal has a measured fill length.
+ */
+export function caseFillLengthClass(canals: readonly Pick<Canal, 'fillToApexMm'>[] | undefined): FillLengthClass | null {
+  let worst: FillLengthClass | null = null;
+  for (const c of canals ?? []) {
+    if (c.fillToApexMm === undefined || c.fillToApexMm === null) continue;
+    const cls = fillLengthClass(c.fillToApexMm);
+    if (worst === null || FILL_RANK[cls] > FILL_RANK[worst]) worst = cls;
+  }
+  return worst;
+}
+
+/** "Family, Given" for lists; sorting is by family then given name. */
+export function displayName(p: { givenName: string; familyName: string }): string {
+  return `${p.familyName}, ${p.givenName}`;
+}
+
+/** Escapes LIKE wildcards in a user's search word. */
+export function likeWord(word: string): string {
+  return `%${word.toLowerCase().replace(/[\\%_]/g, (c) => `\\${c}`)}%`;
+}
+
+/** Up to five search words from a query string (blank → none). */
+export function searchWords(q: string | undefined): string[] {
+  return (q ?? '')
+    .trim()
+    .split(/[\s,]+/)
+    .filter(Boolean)
+    .slice(0, 5);
+}
+
+/** A comma-separated list in a query string (`kind=a,b`), or repeated values, as an array. */
+export function listParam<T extends z.ZodType>(item: T) {
+  return z.preprocess((v) => {
+    if (v === undefined || v === null || v === '') return undefined;
+    const list = Array.isArray(v) ? v : String(v).split(',');
+    const cleaned = list.map((s) => String(s).trim()).filter(Boolean);
+    return cleaned.length ? cleaned : undefined;
+  }, z.array(item).max(20, 'At most 20 values.').optional());
+}
+
+/** A query-string date bound 'YYYY-MM-DD' (blank = none). */
+export const queryDate = (what: string) => blankAsUndefined(calendarDate(what));
+
+export const ArchivedFilter = z.enum(['exclude', 'include', 'only'], { error: 'archived is exclude, include or only.' }).default('exclude');
+
+/** Loads a case of the actor's practice or answers 404 (also for another practice's id). */
+export async function findCase(em: EntityManager, actor: Actor, id: string): Promise<TreatmentCase> {
+  const c = await em.findOne(TreatmentCaseSchema, { id: assertId(id, 'case'), practice: actor.practiceId });
+  if (!c) throw new NotFoundError('No such case.');
+  return c;
+}
+
+/**
+ * The fields a request carried, from its parsed patch: a key the client left out keeps its
+ * stored value; a field sent as '' (parsed to undefined) clears it.
+ */
+export function presentKeys(patch: Record<string, unknown>, raw: unknown, skip: readonly string[] = ['archived']): Record<string, unknown> {
+  const sent = raw && typeof raw === 'object' ? new Set(Object.keys(raw)) : new Set<string>();
+  const out: Record<string, unknown> = {};
+  for (const [k, v] of Object.entries(patch)) if (!skip.includes(k) && sent.has(k)) out[k] = v;
+  return out;
+}
+
+/** Route params carrying a record id; a malformed id is answered 404 by the service (assertId). */
+export const IdParams = z.object({ id: z.string({ error: 'Missing id.' }).trim().min(1, 'Missing id.').max(64, 'Unknown id.') });

@@ -1,0 +1,272 @@
+import 'server-only';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { RecallVisitSchema, ReviewSchema, UserSchema, type Review, type TreatmentCase } from '@/entities';
+import { assertCan, type Actor } from '@/lib/auth/actor';
+import { isOpenStatus, type VisitStatus } from '@/lib/recall';
+import { daysBetween } from '@/lib/registry/calendar-date';
+import { ReviewCreateSchema, TOOTH_STATUS_LABELS, type ReviewSign, type ToothStatus } from '@/lib/schemas/review';
+import {
+  OUTCOME_LABELS,
+  SCORING_CAUTION,
+  assessReview,
+  currentOutcome,
+  type ReviewAssessment,
+  type ReviewOutcome,
+  type TerminalEvent,
+} from '@/lib/scoring';
+import { audit } from './audit';
+import { ConflictError, ValidationError } from './errors';
+import { parseInput } from './parse';
+import { assertClinician, bodyId, findCase, practiceSettings, todayIn } from './registry-common';
+import { assertTransition, loadVisits, setNextVisit, setStatus, visitViews, type VisitView } from './visits';
+
+export interface ReviewView {
+  id: string;
+  caseId: string;
+  visitId: string | null;
+  /** Milestone (months) of the visit it was recorded at; null for an unplanned review. */
+  visitMilestone: number | null;
+  assessor: { id: string; name: string | null };
+  reviewDate: string;
+  daysSinceCompletion: number;
+  toothStatus: ToothStatus;
+  toothStatusLabel: string;
+  paiScore: number | null;
+  lesionDiameterMm: number | null;
+  signs: Partial<Record<ReviewSign, boolean>>;
+  otherFindings: string | null;
+  /** Computed by lib/scoring from the findings — never typed. */
+  outcome: ReviewOutcome;
+  outcomeLabel: string;
+  successStrict: boolean;
+  successLenient: boolean;
+  reasons: string[];
+  createdAt: string;
+}
+
+export interface CaseReviews {
+  reviews: ReviewView[];
+  /** The case's current outcome (lib/scoring currentOutcome); null before the first review. */
+  currentOutcome: ReviewOutcome | null;
+  currentOutcomeLabel: string | null;
+  /** Show beside any outcome: it supports the clinician's judgement, it does not replace it. */
+  caution: string;
+}
+
+const TERMINAL: Partial<Record<ToothStatus, TerminalEvent>> = {
+  extracted: 'tooth-extracted',
+  retreated: 'retreated',
+  surgery: 'apical-surgery',
+};
+
+export interface OutcomeInput {
+  /** The case's PAI before treatment. */
+  baselinePai: number;
+  completionDate: string;
+  reviewDate: string;
+  toothStatus: ToothStatus;
+  paiScore?: number | null;
+  signs?: Partial<Record<ReviewSign, boolean>>;
+}
+
+/**
+ * The outcome of a review by lib/scoring `assessReview`. The lesion is compared on the PAI
+ * scale — the case's PAI before treatment against the PAI at the review — because every case
+ * and every review of a present tooth has one (the diameters are kept for display and for CBCT
+ * later; mixing scales is refused by the scoring rules). Signs read: sinus tract, swelling,
+ * pain on biting, tender to palpation, spontaneous pain (tenderness to percussion and mobility
+ * are recorded, and the scoring rules do not read them).
+ */
+export function computeOutcome(input: OutcomeInput): ReviewAssessment {
+  const days = daysBetween(input.completionDate, input.reviewDate);
+  const terminalEvent = TERMINAL[input.toothStatus];
+  const s = input.signs ?? {};
+  return assessReview({
+    daysSinceTreatment: days,
+    baseline: { pai: input.baselinePai },
+    ...(input.paiScore !== undefined && input.paiScore !== null ? { current: { pai: input.paiScore } } : {}),
+    signs: {
+      sinusTract: s.sinusTract,
+      swelling: s.swelling,
+      painOnBiting: s.painOnBiting,
+      tenderToPalpation: s.tenderToPalpation,
+      spontaneousPain: s.spontaneousPain,
+    },
+    ...(terminalEvent ? { terminalEvent } : {}),
+  });
+}
+
+/** The reviews of a case with their computed outcomes, oldest first. Audited as a read. */
+export async function listReviews(em: EntityManager, actor: Actor, caseId: string): Promise<CaseReviews> {
+  assertCan(actor, 'patient.read');
+  const c = await findCase(em, actor, caseId);
+  const result = await caseReviews(em, c.id);
+  await audit(em, actor, { action: 'review.list', entityType: 'case', entityId: c.id });
+  return result;
+}
+
+/**
+ * Records a review of a completed case, at one of its visits (`visitId`; a visit not yet
+ * attended is moved to attended when the table allows it, else 409) or unplanned (no visitId).
+ * The assessor is the actor unless another clinician of the practice is named. The outcome is
+ * computed, never taken from the input. A review that finds the tooth extracted, retreated or
+ * operated cancels the case's open visits (planned, invited, confirmed): they are no longer needed.
+ */
+export async function createReview(
+  em: EntityManager,
+  actor: Actor,
+  caseId: string,
+  raw: unknown,
+): Promise<{ review: ReviewView; visits: VisitView[]; currentOutcome: ReviewOutcome | null; caution: string }> {
+  assertCan(actor, 'review.write');
+  const c = await findCase(em, actor, caseId);
+  const body = raw && typeof raw === 'object' && !Array.isArray(raw) ? (raw as Record<string, unknown>) : {};
+  const input = parseInput(ReviewCreateSchema, { ...body, caseId: c.id, assessorId: body.assessorId ?? actor.userId });
+  const settings = await practiceSettings(em, actor.practiceId);
+  const today = todayIn(settings.timeZone);
+  if (!c.completionDate) throw new ConflictError('The case is not completed yet: a review follows the completion of treatment.');
+  if (c.archivedAt) throw new ConflictError('The case is archived: restore it before recording a review.');
+  if (input.reviewDate < c.completionDate) {
+    throw new ValidationError('Some fields need attention.', { reviewDate: [`The review date is before the completion date (${c.completionDate}).`] });
+  }
+  if (input.reviewDate > today) throw new ValidationError('Some fields need attention.', { reviewDate: ['The review date is in the future.'] });
+  await assertClinician(em, actor.practiceId, input.assessorId, 'assessorId');
+
+  const visits = await loadVisits(em, c.id);
+  const visitId = bodyId(input.visitId, 'visitId', 'Choose one of this case’s visits.');
+  if (visitId) {
+    const visit = visits.find((v) => v.id === visitId);
+    if (!visit) throw new ValidationError('Some fields need attention.', { visitId: ['Choose one of this case’s visits.'] });
+    if (visit.status !== 'attended') {
+      assertTransition(visit.status as VisitStatus, 'attended');
+      setStatus(visit, 'attended', actor.userId);
+    }
+  }
+
+  const signs: Partial<Record<ReviewSign, boolean>> = {};
+  for (const key of ['painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain', 'swelling', 'sinusTract', 'mobility'] as const) {
+    if (input[key] !== undefined) signs[key] = input[key];
+  }
+  const assessment = computeOutcome({
+    baselinePai: c.paiScore,
+    completionDate: c.completionDate,
+    reviewDate: input.reviewDate,
+    toothStatus: input.toothStatus,
+    paiScore: input.paiScore,
+    signs,
+  });
+  const review = em.create(ReviewSchema, {
+    practice: actor.practiceId,
+    case: c.id,
+    visit: visitId ?? null,
+    assessor: input.assessorId,
+    reviewDate: input.reviewDate,
+    daysSinceCompletion: assessment.daysSinceTreatment,
+    toothStatus: input.toothStatus,
+    paiScore: input.paiScore ?? null,
+    lesionDiameterMm: input.lesionDiameterMm ?? null,
+    signs,
+    otherFindings: input.otherFindings ?? null,
+    outcome: assessment.outcome,
+    successStrict: assessment.successStrict,
+    successLenient: assessment.successLenient,
+    outcomeReasons: assessment.reasons,
+  } as never) as Review;
+
+  const cancelled: string[] = [];
+  if (TERMINAL[input.toothStatus]) {
+    for (const v of visits) {
+      if (v.id !== visitId && isOpenStatus(v.status as VisitStatus)) {
+        setStatus(v, 'cancelled', actor.userId);
+        v.note ??= `Cancelled: ${TOOTH_STATUS_LABELS[input.toothStatus].toLowerCase()} at the review of ${input.reviewDate}.`;
+        cancelled.push(v.id);
+      }
+    }
+  }
+  setNextVisit(c, visits);
+  await em.flush();
+  await audit(em, actor, {
+    action: 'review.created',
+    entityType: 'review',
+    entityId: review.id,
+    detail: { caseId: c.id, visitId: visitId ?? null, outcome: assessment.outcome, cancelledVisits: cancelled },
+  });
+  const all = await caseReviews(em, c.id);
+  return {
+    review: all.reviews.find((r) => r.id === review.id)!,
+    visits: await visitViews(em, visits, today),
+    currentOutcome: all.currentOutcome,
+    caution: SCORING_CAUTION,
+  };
+}
+
+/**
+ * Recomputes days and outcomes of a case's reviews after its completion date or baseline PAI
+ * changed (the outcome depends on both). Throws a 422 when a review would fall before completion.
+ */
+export async function reassessReviews(em: EntityManager, c: TreatmentCase): Promise<number> {
+  const reviews = await em.find(ReviewSchema, { case: c.id });
+  if (reviews.length === 0) return 0;
+  if (!c.completionDate) throw new ConflictError('The case has reviews: its completion date cannot be cleared.');
+  for (const r of reviews) {
+    if (r.reviewDate < c.completionDate) {
+      throw new ValidationError('Some fields need attention.', {
+        completionDate: [`A review on ${r.reviewDate} would come before this completion date.`],
+      });
+    }
+    const a = computeOutcome({
+      baselinePai: c.paiScore,
+      completionDate: c.completionDate,
+      reviewDate: r.reviewDate,
+      toothStatus: r.toothStatus as ToothStatus,
+      paiScore: r.paiScore,
+      signs: r.signs,
+    });
+    r.daysSinceCompletion = a.daysSinceTreatment;
+    r.outcome = a.outcome;
+    r.successStrict = a.successStrict;
+    r.successLenient = a.successLenient;
+    r.outcomeReasons = a.reasons;
+  }
+  return reviews.length;
+}
+
+/** A case's reviews as views, with the current outcome. No audit (callers audit their read). */
+export async function caseReviews(em: EntityManager, caseId: string): Promise<CaseReviews> {
+  const reviews = await em.find(ReviewSchema, { case: caseId }, { orderBy: { reviewDate: 'asc', createdAt: 'asc' } });
+  const [assessors, visits] = await Promise.all([
+    reviews.length ? em.find(UserSchema, { id: { $in: [...new Set(reviews.map((r) => r.assessor.id))] } }, { fields: ['id', 'name'] }) : [],
+    reviews.some((r) => r.visit)
+      ? em.find(RecallVisitSchema, { id: { $in: reviews.flatMap((r) => (r.visit ? [r.visit.id] : [])) } }, { fields: ['id', 'milestone'] })
+      : [],
+  ]);
+  const nameOf = new Map(assessors.map((u) => [u.id, u.name ?? null]));
+  const milestoneOf = new Map(visits.map((v) => [v.id, v.milestone]));
+  const current = currentOutcome(reviews.map((r) => ({ daysSinceTreatment: r.daysSinceCompletion, outcome: r.outcome as ReviewOutcome })));
+  return {
+    reviews: reviews.map((r) => ({
+      id: r.id,
+      caseId,
+      visitId: r.visit?.id ?? null,
+      visitMilestone: r.visit ? (milestoneOf.get(r.visit.id) ?? null) : null,
+      assessor: { id: r.assessor.id, name: nameOf.get(r.assessor.id) ?? null },
+      reviewDate: r.reviewDate,
+      daysSinceCompletion: r.daysSinceCompletion,
+      toothStatus: r.toothStatus as ToothStatus,
+      toothStatusLabel: TOOTH_STATUS_LABELS[r.toothStatus as ToothStatus],
+      paiScore: r.paiScore ?? null,
+      lesionDiameterMm: r.lesionDiameterMm === null || r.lesionDiameterMm === undefined ? null : Number(r.lesionDiameterMm),
+      signs: r.signs ?? {},
+      otherFindings: r.otherFindings ?? null,
+      outcome: r.outcome as ReviewOutcome,
+      outcomeLabel: OUTCOME_LABELS[r.outcome as ReviewOutcome],
+      successStrict: r.successStrict,
+      successLenient: r.successLenient,
+      reasons: r.outcomeReasons,
+      createdAt: r.createdAt.toISOString(),
+    })),
+    currentOutcome: current,
+    currentOutcomeLabel: current ? OUTCOME_LABELS[current] : null,
+    caution: SCORING_CAUTION,
+  };
+}
