@@ -2,6 +2,8 @@
 const nextConfig = {
   distDir: process.env.NEXT_DIST_DIR || '.next',
   poweredByHeader: false,
+  // forbidden() and app/forbidden.tsx: pages answer 403 with Lamina's own page.
+  experimental: { authInterrupts: true },
   // The registry is health data: never let a page be framed or sniffed.
   async headers() {
     return [
