@@ -172,10 +172,11 @@ ensure_apt_packages() {
   lamina_log "installing Debian packages: ${missing[*]}"
   local apt=(apt-get -o DPkg::Lock::Timeout=600 -o Acquire::Retries=3)
   if [[ -z "${LAMINA_APT_UPDATED:-}" ]]; then
-    "${sudo[@]}" "${apt[@]}" update -qq
+    "${sudo[@]}" "${apt[@]}" update -qq || lamina_die "apt-get update failed"
     LAMINA_APT_UPDATED=1
   fi
-  DEBIAN_FRONTEND=noninteractive "${sudo[@]}" "${apt[@]}" install -y -qq "${missing[@]}" >/dev/null
+  DEBIAN_FRONTEND=noninteractive "${sudo[@]}" "${apt[@]}" install -y -qq "${missing[@]}" >/dev/null ||
+    lamina_die "apt-get could not install: ${missing[*]}"
 }
 
 # ensure_node_modules: `npm ci` when node_modules is missing or older than package-lock.json.
