@@ -1,29 +1,220 @@
+import { randomUUID } from 'node:crypto';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import { MembershipSchema, PracticeSchema, UserSchema } from '../../entities';
+import {
+  MembershipSchema,
+  PatientSchema,
+  PracticeSchema,
+  RecallVisitSchema,
+  ReferrerSchema,
+  ReviewSchema,
+  TreatmentCaseSchema,
+  UserSchema,
+  type Practice,
+} from '../../entities';
 import { hashPassword } from '../auth/password';
+import type { VisitStatus } from '../recall/status';
+import type { ReviewSign } from '../schemas/review';
+import { caseColumns } from '../services/cases';
+import { todayIn } from '../services/registry-common';
+import { computeOutcome } from '../services/reviews';
+import { nextVisitOf } from '../services/visits';
+import { DEMO_EXTRA_CLINICIANS, generateDemoWorld, type DemoReview, type DemoWorld } from './cases';
 import { DEMO_PASSWORD, DEMO_PRACTICE, DEMO_USERS } from './people';
 
 export { DEMO_PASSWORD, DEMO_PRACTICE, DEMO_USERS };
 
-/** Creates what is missing of the demo practice and its users; never duplicates. */
-export async function seedDemo(em: EntityManager) {
+/** Everyone who can sign in to the demo practice: one user per role, and the three extra clinicians. */
+export const DEMO_STAFF = [...DEMO_USERS, ...DEMO_EXTRA_CLINICIANS.filter((c) => !DEMO_USERS.some((u) => u.email === c.email))];
+
+export interface SeedResult {
+  practiceName: string;
+  created: boolean;
+  practiceId: string;
+  users: { email: string; role: string }[];
+  /** The registry world: written on the first run only (a practice that has cases is left alone). */
+  registry: { seeded: boolean; patients: number; cases: number; visits: number; reviews: number; visitsByStatus: Record<string, number> };
+}
+
+/**
+ * Creates what is missing of the demo practice, its users and its invented registry
+ * (lib/demo/cases.ts: ≥600 completed cases over four years, visits in every status, reviews
+ * whose outcomes the scoring rules compute). Never duplicates: a second run adds nothing.
+ * Bulk inserts in one transaction.
+ */
+export async function seedDemo(em: EntityManager): Promise<SeedResult> {
   let created = false;
   let practice = await em.findOne(PracticeSchema, { slug: DEMO_PRACTICE.slug });
   if (!practice) {
-    practice = em.create(PracticeSchema, { ...DEMO_PRACTICE } as never);
+    practice = em.create(PracticeSchema, { ...DEMO_PRACTICE } as never) as Practice;
     created = true;
   }
-  const hash = await hashPassword(DEMO_PASSWORD);
+  const existing = await em.find(UserSchema, { email: { $in: DEMO_STAFF.map((u) => u.email) } });
+  const missing = DEMO_STAFF.filter((u) => !existing.some((e) => e.email === u.email));
+  const hash = missing.length ? await hashPassword(DEMO_PASSWORD) : '';
+  const memberships = created ? [] : await em.find(MembershipSchema, { practice: practice.id });
   const users: { email: string; role: string }[] = [];
-  for (const u of DEMO_USERS) {
-    let user = await em.findOne(UserSchema, { email: u.email });
-    user ??= em.create(UserSchema, { email: u.email, name: u.name, passwordHash: hash, emailVerified: new Date() } as never);
+  const staff = DEMO_STAFF.map((u) => {
+    const found = existing.find((e) => e.email === u.email);
+    const user = found ?? (em.create(UserSchema, { email: u.email, name: u.name, passwordHash: hash, emailVerified: new Date() } as never) as typeof existing[number]);
     for (const role of u.roles) {
-      const exists = await em.findOne(MembershipSchema, { user: user.id, practice: practice.id, role });
-      if (!exists) em.create(MembershipSchema, { user, practice, role } as never);
+      if (!found || !memberships.some((m) => m.user.id === found.id && m.role === role)) {
+        em.create(MembershipSchema, { user, practice, role } as never);
+      }
     }
     users.push({ email: u.email, role: u.roles.join('+') });
-  }
+    return { email: u.email, user };
+  });
   await em.flush();
-  return { practiceName: practice.name, created, practiceId: practice.id, users };
+  const userIds = new Map(staff.map((s) => [s.email, s.user.id]));
+
+  const registry: SeedResult['registry'] = { seeded: false, patients: 0, cases: 0, visits: 0, reviews: 0, visitsByStatus: {} };
+  if ((await em.count(TreatmentCaseSchema, { practice: practice.id })) === 0) {
+    const world = generateDemoWorld({ today: todayIn(practice.timeZone) });
+    practice.recallPolicy = world.practice.recallPolicy;
+    await em.flush();
+    Object.assign(registry, await persistWorld(em, practice.id, world, userIds), { seeded: true });
+  } else {
+    registry.patients = await em.count(PatientSchema, { practice: practice.id });
+    registry.cases = await em.count(TreatmentCaseSchema, { practice: practice.id });
+    registry.visits = await em.count(RecallVisitSchema, { practice: practice.id });
+    registry.reviews = await em.count(ReviewSchema, { practice: practice.id });
+  }
+  return { practiceName: practice.name, created, practiceId: practice.id, users, registry };
+}
+
+const SIGNS: readonly ReviewSign[] = ['painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain', 'swelling', 'sinusTract', 'mobility'];
+const noon = (date: string) => new Date(`${date}T12:00:00Z`);
+
+async function persistWorld(em: EntityManager, practiceId: string, world: DemoWorld, userIds: Map<string, string>) {
+  const referrerIds = new Map(world.referrers.map((r) => [r.key, randomUUID()]));
+  const patientIds = new Map(world.patients.map((p) => [p.key, randomUUID()]));
+  const now = new Date();
+  const clinicianId = (email: string) => {
+    const id = userIds.get(email);
+    if (!id) throw new Error(`Demo world names an unknown clinician: ${email}`);
+    return id;
+  };
+  const referrers = world.referrers.map((r) => ({
+    id: referrerIds.get(r.key)!,
+    practice: practiceId,
+    name: r.name,
+    practiceName: r.practiceName,
+    email: r.email,
+    createdAt: now,
+  }));
+  const patients = world.patients.map((p) => ({
+    id: patientIds.get(p.key)!,
+    practice: practiceId,
+    registryNumber: p.registryNumber,
+    givenName: p.givenName,
+    familyName: p.familyName,
+    dateOfBirth: p.dateOfBirth,
+    sex: p.sex,
+    email: p.email ?? null,
+    phone: p.phone ?? null,
+    postalCode: p.postalCode ?? null,
+    recallContact: p.recallContact,
+    recallChannel: p.recallChannel,
+    researchUse: p.researchUse,
+    consentDate: p.consentDate,
+    consentRecordedBy: null,
+    createdAt: noon(p.consentDate),
+    updatedAt: noon(p.consentDate),
+  }));
+  const cases: Record<string, unknown>[] = [];
+  const visits: Record<string, unknown>[] = [];
+  const reviews: Record<string, unknown>[] = [];
+  const visitsByStatus: Record<string, number> = {};
+
+  const review = (caseId: string, c: DemoWorld['cases'][number], r: DemoReview, visitId: string | null) => {
+    const signs: Partial<Record<ReviewSign, boolean>> = {};
+    if (r.toothStatus !== 'extracted') for (const s of SIGNS) if (r[s] !== undefined) signs[s] = r[s]!;
+    const a = computeOutcome({
+      baselinePai: c.data.paiScore,
+      completionDate: c.data.completionDate,
+      reviewDate: r.reviewDate,
+      toothStatus: r.toothStatus,
+      paiScore: r.toothStatus === 'extracted' ? null : (r.paiScore ?? null),
+      signs,
+    });
+    reviews.push({
+      id: randomUUID(),
+      practice: practiceId,
+      case: caseId,
+      visit: visitId,
+      assessor: clinicianId(r.assessorEmail),
+      reviewDate: r.reviewDate,
+      daysSinceCompletion: a.daysSinceTreatment,
+      toothStatus: r.toothStatus,
+      paiScore: r.toothStatus === 'extracted' ? null : (r.paiScore ?? null),
+      lesionDiameterMm: r.toothStatus === 'extracted' ? null : (r.lesionDiameterMm ?? null),
+      signs,
+      otherFindings: null,
+      outcome: a.outcome,
+      successStrict: a.successStrict,
+      successLenient: a.successLenient,
+      outcomeReasons: a.reasons,
+      createdAt: noon(r.reviewDate),
+      updatedAt: noon(r.reviewDate),
+    });
+  };
+
+  for (const c of world.cases) {
+    const id = randomUUID();
+    const next = nextVisitOf(c.visits);
+    cases.push({
+      id,
+      practice: practiceId,
+      ...caseColumns({
+        ...c.data,
+        patientId: patientIds.get(c.patientKey)!,
+        operatorId: clinicianId(c.operatorEmail),
+        referrerId: c.referrerKey ? referrerIds.get(c.referrerKey) : undefined,
+      }),
+      nextVisitDate: next?.date ?? null,
+      nextVisitStatus: next?.status ?? null,
+      source: 'demo',
+      createdAt: noon(c.data.completionDate),
+      updatedAt: noon(c.data.completionDate),
+    });
+    for (const v of c.visits) {
+      const visitId = randomUUID();
+      const last = v.history[v.history.length - 1]!;
+      const status = v.status as VisitStatus;
+      visitsByStatus[status] = (visitsByStatus[status] ?? 0) + 1;
+      const attendedOn = v.history.find((h) => h.status === 'attended')?.on ?? null;
+      visits.push({
+        id: visitId,
+        practice: practiceId,
+        case: id,
+        milestone: v.milestone,
+        dueDate: v.dueDate,
+        windowStart: v.windowStart,
+        windowEnd: v.windowEnd,
+        status,
+        bookedDate: attendedOn ?? (status === 'confirmed' ? (v.dueDate > world.today ? v.dueDate : v.windowEnd) : null),
+        reinviteNeeded: false,
+        lostToFollowUp: status === 'closed',
+        closedOn: status === 'closed' ? last.on : null,
+        note: null,
+        statusChangedAt: noon(last.on),
+        createdAt: noon(c.data.completionDate),
+        updatedAt: noon(last.on),
+      });
+      if (v.review) review(id, c, v.review, visitId);
+    }
+    for (const r of c.unplannedReviews) review(id, c, r, null);
+  }
+
+  await em.transactional(async (tx) => {
+    const insert = async (entity: unknown, rows: Record<string, unknown>[], size = 1000) => {
+      for (let i = 0; i < rows.length; i += size) await tx.insertMany(entity as never, rows.slice(i, i + size) as never);
+    };
+    await insert(ReferrerSchema, referrers);
+    await insert(PatientSchema, patients);
+    await insert(TreatmentCaseSchema, cases);
+    await insert(RecallVisitSchema, visits, 3000);
+    await insert(ReviewSchema, reviews);
+  });
+  return { patients: patients.length, cases: cases.length, visits: visits.length, reviews: reviews.length, visitsByStatus };
 }
