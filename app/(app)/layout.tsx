@@ -16,7 +16,7 @@ export default async function AppLayout({ children }: { children: React.ReactNod
   // signed out, the layout draws no chrome.
   const { actor } = await getRequestContext();
   if (!actor) return <>{children}</>;
-  const items = navFor(actor.roles).map(({ href, label }) => ({ href, label }));
+  const items = navFor(actor.roles).map(({ href, label, match }) => ({ href, label, match }));
   if (env.localMail && can(actor.roles, 'mailbox.read')) items.push({ href: '/dev-mailbox', label: 'Dev mailbox' });
   return (
     <div className="min-h-screen">

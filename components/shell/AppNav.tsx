@@ -2,12 +2,13 @@
 import Link from 'next/link';
 import { usePathname } from 'next/navigation';
 
-export function AppNav({ items }: { items: { href: string; label: string }[] }) {
+export function AppNav({ items }: { items: { href: string; label: string; match?: string[] }[] }) {
   const pathname = usePathname();
   return (
     <nav aria-label="Main" className="flex flex-wrap gap-1">
       {[{ href: '/', label: 'Home' }, ...items].map((item) => {
-        const current = item.href === '/' ? pathname === '/' : pathname.startsWith(item.href);
+        const current =
+          item.href === '/' ? pathname === '/' : [item.href, ...('match' in item ? (item.match ?? []) : [])].some((p) => pathname.startsWith(p));
         return (
           <Link
             key={item.href}

@@ -10,9 +10,12 @@ export interface NavItem {
   label: string;
   permission: Permission;
   description: string;
+  /** Other path prefixes that belong to the area (highlighted as current). */
+  match?: string[];
 }
 
 export const NAV_ITEMS: NavItem[] = [
+  { href: '/cases', label: 'Cases', permission: 'patient.read', description: 'Patients and their treated teeth, each with its recall plan and reviews.', match: ['/patients'] },
   { href: '/team', label: 'Team', permission: 'team.read', description: 'People, roles and the audit trail.' },
 ];
 

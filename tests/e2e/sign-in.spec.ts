@@ -5,9 +5,9 @@ import type { Role } from '../../lib/auth/roles';
 /** What each role's navigation shows (Home is always first). */
 const NAVIGATION: Record<Role, string[]> = {
   admin: ['Home', 'Team', 'Dev mailbox'],
-  coordinator: ['Home'],
-  clinician: ['Home'],
-  auditor: ['Home'],
+  coordinator: ['Home', 'Cases'],
+  clinician: ['Home', 'Cases'],
+  auditor: ['Home', 'Cases'],
   researcher: ['Home'],
 };
 
