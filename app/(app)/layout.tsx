@@ -17,7 +17,7 @@ export default async function AppLayout({ children }: { children: React.ReactNod
   const { actor } = await getRequestContext();
   if (!actor) return <>{children}</>;
   const items = navFor(actor.roles).map(({ href, label, match }) => ({ href, label, match }));
-  if (env.localMail && can(actor.roles, 'mailbox.read')) items.push({ href: '/dev-mailbox', label: 'Dev mailbox' });
+  if (env.localMail && can(actor.roles, 'mailbox.read')) items.push({ href: '/dev-mailbox', label: 'Dev mailbox', match: undefined });
   return (
     <div className="min-h-screen">
       <a href="#main" className="sr-only focus:not-sr-only focus:absolute focus:left-2 focus:top-2 focus:z-10 focus:rounded focus:bg-white focus:p-2">
