@@ -105,6 +105,7 @@ function time<T>(f: () => T): { s: number; v: T } {
   let best = Infinity;
   let v: T | undefined;
   for (let k = 0; k < REPEATS; k++) {
+    v = undefined; // let the previous result go before the next run
     const t0 = performance.now();
     v = f();
     best = Math.min(best, performance.now() - t0);
