@@ -1,7 +1,8 @@
 import type { ReactNode } from 'react';
+import { InfoIcon } from './InfoIcon';
 
 const STYLES = {
-  info: { box: 'border-state-info/30 bg-state-infoBg text-state-info', icon: 'ⓘ', word: 'Note' },
+  info: { box: 'border-state-info/30 bg-state-infoBg text-state-info', icon: null, word: 'Note' },
   ok: { box: 'border-state-ok/30 bg-state-okBg text-state-ok', icon: '✓', word: 'Done' },
   alert: { box: 'border-state-alert/30 bg-state-alertBg text-state-alert', icon: '!', word: 'Problem' },
 } as const;
@@ -12,7 +13,7 @@ export function Notice({ tone, children, role }: { tone: keyof typeof STYLES; ch
   return (
     <div role={role ?? (tone === 'alert' ? 'alert' : 'status')} className={`flex gap-2 rounded-md border px-3 py-2 text-sm ${s.box}`}>
       <span aria-hidden="true" className="font-bold">
-        {s.icon}
+        {s.icon ?? <InfoIcon className="mt-0.5 h-4 w-4" />}
       </span>
       <span>
         <span className="sr-only">{s.word}: </span>

@@ -80,7 +80,6 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
               </li>
             ))}
           </ol>
-          <p className="mt-4 text-xs text-ink-500">Follow-up films are attached with the film review, coming to this timeline.</p>
         </section>
 
         <div className="space-y-6 lg:col-span-2">
