@@ -38,8 +38,11 @@ export const RecallVisitSchema = defineEntity({
   },
   uniques: [{ name: 'recall_visit_case_milestone_unique', properties: ['case', 'milestone'] }],
   indexes: [
-    // Case-list filter "has a visit in status S due between D1 and D2", and the recall desk.
-    { name: 'recall_visit_practice_status_due_index', properties: ['practice', 'status', 'dueDate'] },
+    // The case-list filter "has a visit in status S due between D1 and D2" runs either way round,
+    // both index-only: from the visits (practice, status, due) to their cases, or from the cases
+    // to their visits (case, status, due). The recall desk reads by practice and due date.
+    { name: 'recall_visit_practice_status_due_index', properties: ['practice', 'status', 'dueDate', 'case'] },
+    { name: 'recall_visit_case_status_due_index', properties: ['case', 'status', 'dueDate', 'practice'] },
     { name: 'recall_visit_practice_due_index', properties: ['practice', 'dueDate'] },
   ],
 });

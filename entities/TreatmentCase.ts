@@ -36,11 +36,13 @@ import { UserSchema } from './User';
  * The tooth is stored in FDI two-digit notation (ISO 3950); `toothGroup` and `toothArch` are
  * derived from it (lib/teeth) and stored so the case list can filter on them with an index.
  *
- * `nextVisitDate` / `nextVisitStatus` are the due date and status of the case's earliest open
- * recall visit (planned, invited, confirmed), kept by the services that change visits
- * (lib/services/visits.ts `refreshNextVisit`) so the list can sort by the next recall
- * without a per-row subquery over 100,000 cases. Anything that changes visit statuses in bulk
- * (the nightly desk job) must call it too.
+ * `nextVisitDate` / `nextVisitStatus` (due date and status of the earliest open visit — planned,
+ * invited, confirmed) and `visitStatuses` (the distinct statuses of all its visits) summarise the
+ * case's recall visits, so the list can sort by the next recall and filter by visit status without
+ * a per-row subquery over 100,000 cases. A database trigger on recall_visit keeps them (migration
+ * Migration20261201230242, function lamina_case_visit_summary): whoever changes visits — services,
+ * the recall desk's jobs, SQL — cannot leave them stale. The services also set them on the entity
+ * they hold (lib/services/visits.ts setVisitSummary) so an answer built from it is current.
  */
 export const TreatmentCaseSchema = defineEntity({
   name: 'TreatmentCase',
@@ -91,9 +93,11 @@ export const TreatmentCaseSchema = defineEntity({
     definitiveRestoration: p.enum([...DEFINITIVE_RESTORATIONS]).nullable(),
     definitiveRestorationDate: p.date().nullable(),
 
-    // recall summary (see above)
+    // recall summary (see above), kept by a database trigger on recall_visit
     nextVisitDate: p.date().nullable(),
     nextVisitStatus: p.enum([...VISIT_STATUSES]).nullable(),
+    /** The distinct statuses of the case's visits, for the list's "visit status" filter. */
+    visitStatuses: p.array<string>().default([]),
 
     /** How the case came in: entered on a form or imported from a CSV file. */
     source: p.enum(['form', 'import', 'demo'] as const).default('form'),
@@ -103,14 +107,25 @@ export const TreatmentCaseSchema = defineEntity({
     updatedAt: p.datetime().onCreate(() => new Date()).onUpdate(() => new Date()),
   },
   indexes: [
-    // The list's default order (completion date, newest first) and date-range filters.
-    { name: 'treatment_case_practice_completion_index', properties: ['practice', 'completionDate', 'id'] },
-    { name: 'treatment_case_practice_operator_index', properties: ['practice', 'operator', 'completionDate'] },
-    { name: 'treatment_case_practice_kind_index', properties: ['practice', 'kind', 'completionDate'] },
-    { name: 'treatment_case_practice_tooth_group_index', properties: ['practice', 'toothGroup', 'completionDate'] },
-    { name: 'treatment_case_practice_next_visit_index', properties: ['practice', 'nextVisitDate'] },
+    // The case list (lib/services/cases.ts): partial indexes over the working list (archived cases
+    // left out), one per filter, each ending in the completion date of the default order; the
+    // count of an unfiltered list, or one filtered by visit status, is an index-only scan of the
+    // first (it includes the visit statuses). Chosen with EXPLAIN on
+    // 100,000 cases (scripts/bench/registry.ts).
+    workingListIndex('treatment_case_practice_completion_index', ['practice_id', 'completion_date', 'id'], ['visit_statuses']),
+    workingListIndex('treatment_case_practice_operator_index', ['practice_id', 'operator_id', 'completion_date']),
+    workingListIndex('treatment_case_practice_kind_index', ['practice_id', 'kind', 'completion_date']),
+    workingListIndex('treatment_case_practice_tooth_group_index', ['practice_id', 'tooth_group', 'completion_date']),
+    workingListIndex('treatment_case_practice_fill_length_index', ['practice_id', 'fill_length_class', 'completion_date']),
+    workingListIndex('treatment_case_practice_next_visit_index', ['practice_id', 'next_visit_date', 'id']),
     { name: 'treatment_case_patient_index', properties: ['patient'] },
   ],
 });
 
 export type TreatmentCase = InferEntity<typeof TreatmentCaseSchema>;
+
+function workingListIndex(name: string, columns: string[], include: string[] = []) {
+  const q = (cs: string[]) => cs.map((c) => `"${c}"`).join(', ');
+  const extra = include.length ? ` include (${q(include)})` : '';
+  return { name, expression: `create index "${name}" on "treatment_case" (${q(columns)})${extra} where "archived_at" is null` };
+}

@@ -17,7 +17,7 @@ import type { ReviewSign } from '../schemas/review';
 import { caseColumns } from '../services/cases';
 import { todayIn } from '../services/registry-common';
 import { computeOutcome } from '../services/reviews';
-import { nextVisitOf } from '../services/visits';
+import { visitSummary } from '../services/visits';
 import { DEMO_EXTRA_CLINICIANS, generateDemoWorld, type DemoReview, type DemoWorld } from './cases';
 import { DEMO_PASSWORD, DEMO_PRACTICE, DEMO_USERS } from './people';
 
@@ -161,7 +161,6 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
 
   for (const c of world.cases) {
     const id = randomUUID();
-    const next = nextVisitOf(c.visits);
     cases.push({
       id,
       practice: practiceId,
@@ -171,8 +170,7 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
         operatorId: clinicianId(c.operatorEmail),
         referrerId: c.referrerKey ? referrerIds.get(c.referrerKey) : undefined,
       }),
-      nextVisitDate: next?.date ?? null,
-      nextVisitStatus: next?.status ?? null,
+      ...visitSummary(c.visits),
       source: 'demo',
       createdAt: noon(c.data.completionDate),
       updatedAt: noon(c.data.completionDate),

@@ -54,7 +54,7 @@ import {
 } from './registry-common';
 import { referrerView, type ReferrerView } from './referrers';
 import { caseReviews, reassessReviews, type ReviewView } from './reviews';
-import { loadVisits, setNextVisit, visitViews, type VisitView } from './visits';
+import { loadVisits, setVisitSummary, visitViews, type VisitView } from './visits';
 
 // --- the list -------------------------------------------------------------------------------------
 
@@ -145,7 +145,11 @@ export function caseListQuery(knex: Knex, practiceId: string, f: CaseListFilters
   if (f.fillLength) b.whereIn('c.fill_length_class', f.fillLength);
   if (f.completedFrom) b.where('c.completion_date', '>=', f.completedFrom);
   if (f.completedTo) b.where('c.completion_date', '<=', f.completedTo);
-  if (f.visitStatus || f.dueFrom || f.dueTo) {
+  if (f.visitStatus && !f.dueFrom && !f.dueTo) {
+    // The case's own summary of its visit statuses (kept by the trigger on recall_visit): an
+    // index-only scan of the working-list index, no join.
+    b.whereRaw(`c.visit_statuses && array[${f.visitStatus.map(() => '?').join(', ')}]::text[]`, f.visitStatus);
+  } else if (f.visitStatus || f.dueFrom || f.dueTo) {
     b.whereExists(function (this: Knex.QueryBuilder) {
       this.select(knex.raw('1')).from('recall_visit as v').whereRaw('v.case_id = c.id').andWhere('v.practice_id', practiceId);
       if (f.visitStatus) this.whereIn('v.status', f.visitStatus);
@@ -195,7 +199,8 @@ export async function queryCases(em: EntityManager, practiceId: string, f: CaseL
   const needsUserJoinForSort = f.sort === 'operator';
   // Sort and page on the case table (joining only what the sort needs), then fetch the page's details.
   const pageQuery = base.clone().select('c.id');
-  if (needsPatientJoinForSort) pageQuery.join('patient as p', 'p.id', 'c.patient_id');
+  // The practice condition on the patient lets PostgreSQL walk the patient name index in order.
+  if (needsPatientJoinForSort) pageQuery.join('patient as p', (j) => j.on('p.id', 'c.patient_id').andOnVal('p.practice_id', practiceId));
   if (needsUserJoinForSort) pageQuery.join('app_user as u', 'u.id', 'c.operator_id');
   pageQuery
     .orderBy(order)
@@ -381,7 +386,7 @@ export async function createCase(em: EntityManager, actor: Actor, raw: unknown):
       ...caseColumns(input),
     } as never) as TreatmentCase;
     const visits = input.completionDate ? createPlannedVisits(tx, entity, input.completionDate, settings.recallPolicy, today) : [];
-    setNextVisit(entity, visits);
+    setVisitSummary(entity, visits);
     await tx.flush();
     return entity;
   });
@@ -469,7 +474,7 @@ export async function updateCase(em: EntityManager, actor: Actor, id: string, ra
     if (after !== before.completionDate || merged.paiScore !== before.paiScore) {
       plan.reassessedReviews = await reassessReviews(tx, entity);
     }
-    setNextVisit(entity, visits);
+    setVisitSummary(entity, visits);
     if (archived === true && !entity.archivedAt) entity.archivedAt = new Date();
     if (archived === false && entity.archivedAt) entity.archivedAt = null;
     await tx.flush();

@@ -15,7 +15,7 @@ import { parseInput } from './parse';
 import { caseColumns } from './cases';
 import { practiceSettings, todayIn } from './registry-common';
 import { referrerKey } from './referrers';
-import { nextVisitOf } from './visits';
+import { visitSummary } from './visits';
 
 /** Largest CSV accepted (a 10,000-row file is about 3 MB). */
 export const IMPORT_MAX_BYTES = 20 * 1024 * 1024;
@@ -275,7 +275,6 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
   const visitRows: Record<string, unknown>[] = [];
   for (const { row, plan } of previews) {
     const id = randomUUID();
-    const next = nextVisitOf(plan);
     caseRows.push({
       id,
       practice: actor.practiceId,
@@ -285,8 +284,7 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
         operatorId: clinicianByEmail.get(row.operatorEmail)!,
         referrerId: row.referrer ? referrerByKey.get(referrerKey(row.referrer)) : undefined,
       }),
-      nextVisitDate: next?.date ?? null,
-      nextVisitStatus: next?.status ?? null,
+      ...visitSummary(plan),
       source: 'import',
       createdBy: actor.userId,
       createdAt: now,

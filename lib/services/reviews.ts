@@ -18,7 +18,7 @@ import { audit } from './audit';
 import { ConflictError, ValidationError } from './errors';
 import { parseInput } from './parse';
 import { assertClinician, bodyId, findCase, practiceSettings, todayIn } from './registry-common';
-import { assertTransition, loadVisits, setNextVisit, setStatus, visitViews, type VisitView } from './visits';
+import { assertTransition, loadVisits, setVisitSummary, setStatus, visitViews, type VisitView } from './visits';
 
 export interface ReviewView {
   id: string;
@@ -183,7 +183,7 @@ export async function createReview(
       }
     }
   }
-  setNextVisit(c, visits);
+  setVisitSummary(c, visits);
   await em.flush();
   await audit(em, actor, {
     action: 'review.created',

@@ -5,7 +5,6 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { RecallVisitSchema, ReviewSchema, TreatmentCaseSchema, type RecallVisit, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import {
-  OPEN_VISIT_STATUSES,
   VISIT_STATUSES,
   VISIT_STATUS_LABELS,
   VISIT_TRANSITIONS,
@@ -110,7 +109,7 @@ export async function updateVisit(em: EntityManager, actor: Actor, visitId: stri
     changes.note = true;
   }
   const visits = await loadVisits(em, visit.case.id);
-  setNextVisit(await em.findOneOrFail(TreatmentCaseSchema, visit.case.id), visits);
+  setVisitSummary(await em.findOneOrFail(TreatmentCaseSchema, visit.case.id), visits);
   await em.flush();
   if (Object.keys(changes).length) {
     await audit(em, actor, { action: 'visit.updated', entityType: 'visit', entityId: visit.id, detail: { caseId: visit.case.id, ...changes } });
@@ -143,7 +142,7 @@ export async function closeVisitAsLost(em: EntityManager, actor: Actor, visitId:
     if (v.id === visit.id && input.note) v.note = input.note;
     closed.push(v.id);
   }
-  setNextVisit(await em.findOneOrFail(TreatmentCaseSchema, visit.case.id), visits);
+  setVisitSummary(await em.findOneOrFail(TreatmentCaseSchema, visit.case.id), visits);
   await em.flush();
   if (closed.length) {
     await audit(em, actor, { action: 'visit.closed_lost', entityType: 'visit', entityId: visit.id, detail: { caseId: visit.case.id, visitIds: closed } });
@@ -185,33 +184,34 @@ export function nextVisitOf(visits: readonly Pick<RecallVisit, 'dueDate' | 'stat
   return next;
 }
 
-/** Keeps the case's next-visit summary columns in step with its visits (see entities/TreatmentCase.ts). */
-export function setNextVisit(c: TreatmentCase, visits: readonly Pick<RecallVisit, 'dueDate' | 'status'>[]): void {
+/**
+ * The case's recall summary columns from its visits (see entities/TreatmentCase.ts): the next
+ * open visit and the distinct statuses, sorted. The database trigger computes the same.
+ */
+export function visitSummary(visits: readonly Pick<RecallVisit, 'dueDate' | 'status'>[]) {
   const next = nextVisitOf(visits);
-  c.nextVisitDate = next?.date ?? null;
-  c.nextVisitStatus = next?.status ?? null;
+  return {
+    nextVisitDate: next?.date ?? null,
+    nextVisitStatus: next?.status ?? null,
+    visitStatuses: [...new Set(visits.map((v) => v.status as string))].sort(),
+  };
+}
+
+/** Sets the summary on the entity the service holds, so an answer built from it is current. */
+export function setVisitSummary(c: TreatmentCase, visits: readonly Pick<RecallVisit, 'dueDate' | 'status'>[]): void {
+  Object.assign(c, visitSummary(visits));
 }
 
 /**
- * Recomputes the next-visit summary of many cases in one statement, for code that changes visit
- * statuses in bulk with SQL (the nightly past-due job, say). Flush pending entity changes first.
+ * Recomputes the recall summary of the given cases now (the trigger on recall_visit already does
+ * after every statement; this is for callers that want it explicitly). Flush entity changes first.
  */
 export async function refreshNextVisit(em: EntityManager, caseIds: readonly string[]): Promise<void> {
   if (caseIds.length === 0) return;
   const db = (em.getTransactionContext<Knex.Transaction>() ?? em.getKnex()) as Knex;
-  const open = OPEN_VISIT_STATUSES.map((s) => `'${s}'`).join(', ');
   for (let i = 0; i < caseIds.length; i += 5000) {
     const chunk = caseIds.slice(i, i + 5000);
-    await db.raw(
-      `update treatment_case c set next_visit_date = n.due_date, next_visit_status = n.status
-         from (select c2.id, v.due_date, v.status from treatment_case c2
-                 left join lateral (select due_date, status from recall_visit v
-                                     where v.case_id = c2.id and v.status in (${open})
-                                     order by due_date limit 1) v on true
-                where c2.id in (${chunk.map(() => '?').join(', ')})) n
-        where c.id = n.id`,
-      chunk,
-    );
+    await db.raw(`select lamina_case_visit_summary(array[${chunk.map(() => '?').join(', ')}]::uuid[])`, chunk);
   }
 }
 

@@ -100,6 +100,26 @@ describe('recall plans', () => {
   });
 });
 
+describe('the case’s recall summary', () => {
+  it('follows every visit change, including plain SQL from other code (database trigger), and drives the list filters', async () => {
+    const { a, patient } = await world();
+    const c = await createCase(services.em(), a.clinician, caseInput(patient.id, a.clinician.userId, { startDate: monthsAgo(2), completionDate: monthsAgo(1) }));
+    const row = async () => {
+      const r = await services.em().findOneOrFail(TreatmentCaseSchema, c.id);
+      return [r.nextVisitDate, r.nextVisitStatus, r.visitStatuses];
+    };
+    expect(await row()).toEqual([c.visits[0]!.dueDate, 'planned', ['planned']]);
+    const knex = services.em().getKnex();
+    await knex('recall_visit').where({ id: c.visits[0]!.id }).update({ status: 'declined' });
+    expect(await row()).toEqual([c.visits[1]!.dueDate, 'planned', ['declined', 'planned']]);
+    const ids = async (q: Record<string, unknown>) => (await listCases(services.em(), a.auditor, q)).rows.map((r) => r.id);
+    expect(await ids({ visitStatus: 'declined' })).toEqual([c.id]);
+    expect(await ids({ visitStatus: 'invited' })).toEqual([]);
+    await knex('recall_visit').where({ case_id: c.id }).del();
+    expect(await row()).toEqual([null, null, []]);
+  });
+});
+
 describe('visits', () => {
   it('moves only along the status table: a refused move is a 409 naming the allowed ones, a bad status a 422', async () => {
     const { a, patient } = await world();
