@@ -62,5 +62,8 @@ export function capitalise(s: string): string {
 
 /** A zod enum whose error lists the allowed values. */
 export function oneOf<const T extends readonly [string, ...string[]]>(values: T, label: string) {
-  return z.enum(values, { error: `Choose ${label}: ${values.join(', ')}.` });
+  // A form's empty select says what to choose; a wrong code (API, CSV) also lists the allowed ones.
+  return z.enum(values, {
+    error: (issue) => (issue.input === undefined || issue.input === '' ? `Choose ${label}.` : `Choose ${label}: ${values.join(', ')}.`),
+  });
 }

@@ -1,0 +1,7 @@
+import { requireActor } from '@/lib/auth/session';
+
+/** See app/(app)/cases/layout.tsx: the permission is asked before the loading boundary. */
+export default async function PatientsLayout({ children }: { children: React.ReactNode }) {
+  await requireActor('patient.read', '/patients');
+  return children;
+}
