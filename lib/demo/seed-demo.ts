@@ -15,7 +15,7 @@ import { hashPassword } from '../auth/password';
 import type { VisitStatus } from '../recall/status';
 import type { ReviewSign } from '../schemas/review';
 import { caseColumns } from '../services/cases';
-import { todayIn } from '../services/registry-common';
+import { bulkInsert, todayIn } from '../services/registry-common';
 import { computeOutcome } from '../services/reviews';
 import { visitSummary } from '../services/visits';
 import { DEMO_EXTRA_CLINICIANS, generateDemoWorld, type DemoReview, type DemoWorld } from './cases';
@@ -205,14 +205,11 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
   }
 
   await em.transactional(async (tx) => {
-    const insert = async (entity: unknown, rows: Record<string, unknown>[], size = 1000) => {
-      for (let i = 0; i < rows.length; i += size) await tx.insertMany(entity as never, rows.slice(i, i + size) as never);
-    };
-    await insert(ReferrerSchema, referrers);
-    await insert(PatientSchema, patients);
-    await insert(TreatmentCaseSchema, cases);
-    await insert(RecallVisitSchema, visits, 3000);
-    await insert(ReviewSchema, reviews);
+    await bulkInsert(tx, ReferrerSchema, referrers);
+    await bulkInsert(tx, PatientSchema, patients);
+    await bulkInsert(tx, TreatmentCaseSchema, cases);
+    await bulkInsert(tx, RecallVisitSchema, visits, 5000);
+    await bulkInsert(tx, ReviewSchema, reviews);
   });
   return { patients: patients.length, cases: cases.length, visits: visits.length, reviews: reviews.length, visitsByStatus };
 }

@@ -13,7 +13,7 @@ import { audit } from './audit';
 import { ConflictError } from './errors';
 import { parseInput } from './parse';
 import { caseColumns } from './cases';
-import { practiceSettings, todayIn } from './registry-common';
+import { bulkInsert, practiceSettings, todayIn } from './registry-common';
 import { referrerKey } from './referrers';
 import { visitSummary } from './visits';
 
@@ -310,10 +310,10 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
   }
   try {
     await em.transactional(async (tx) => {
-      const insert = async (entity: unknown, rows: Record<string, unknown>[], size: number) => {
+      const insert = async (entity: { meta: { className: string } }, rows: Record<string, unknown>[], size: number) => {
         for (let i = 0; i < rows.length; i += size) {
           const chunk = rows.slice(i, i + size);
-          await tx.insertMany(entity as never, chunk as never);
+          await bulkInsert(tx, entity, chunk, size);
           await step(chunk.length);
         }
       };
