@@ -182,12 +182,22 @@ export async function listCases(em: EntityManager, actor: Actor, raw: unknown): 
     detail: {
       page: f.page,
       pageSize: f.pageSize,
-      filters: Object.keys(raw && typeof raw === 'object' ? raw : {}).filter((k) => !['page', 'pageSize', 'q'].includes(k)),
+      filters: usedFilters(f),
       searched: Boolean(f.q),
       ids: result.rows.map((r) => r.id),
     },
   });
   return result;
+}
+
+const LIST_DEFAULTS = CaseListQuery.parse({}) as Record<string, unknown>;
+
+/** The names of the filters and sort a request used (not their values: a search may name a patient). */
+function usedFilters(f: CaseListFilters): string[] {
+  return Object.entries(f)
+    .filter(([k, v]) => v !== undefined && !['page', 'pageSize', 'q'].includes(k) && v !== LIST_DEFAULTS[k])
+    .map(([k]) => k)
+    .sort();
 }
 
 /** The list query itself, without permission check or audit (for the patient page and the benchmark). */

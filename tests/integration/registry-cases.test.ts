@@ -329,7 +329,7 @@ describe('patients, cases and the list', () => {
       ['patient.updated', a.clinician.userId],
     ]);
     const list = events.find((e) => e.action === 'case.list')!;
-    expect(list.detail).toMatchObject({ ids: [c.id] });
+    expect(list.detail).toMatchObject({ ids: [c.id], filters: [], searched: false });
     expect(events.find((e) => e.action === 'case.updated')!.detail).toMatchObject({ fields: ['sealerClass'] });
     expect(events.find((e) => e.action === 'patient.updated')!.detail).toEqual({ fields: ['phone'] });
     const text = JSON.stringify(events.map((e) => e.detail));
