@@ -3,7 +3,8 @@ import Link from 'next/link';
 import { usePathname, useRouter, useSearchParams } from 'next/navigation';
 import { useMemo } from 'react';
 import { keepPreviousData, useQuery } from '@tanstack/react-query';
-import { createColumnHelper, flexRender, getCoreRowModel, useReactTable, type SortingState } from '@tanstack/react-table';
+import { createColumnHelper, getCoreRowModel, useReactTable, type SortingState } from '@tanstack/react-table';
+import { TableView } from '@/components/ui/TableView';
 import type { CasePage, CaseRow } from '@/lib/services/cases';
 import { CASE_KINDS, CASE_KIND_LABELS } from '@/lib/schemas/case';
 import { VISIT_STATUSES, VISIT_STATUS_LABELS } from '@/lib/recall/status';
@@ -196,45 +197,24 @@ export function CasesTable({ clinicians, canImport, canWrite }: { clinicians: Op
             {data!.total.toLocaleString('en-GB')} case{data!.total === 1 ? '' : 's'}
             {isFetching ? ' · updating…' : ''}
           </p>
-          <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
-            <table className="table-dense w-full" aria-label="Cases">
-              <thead>
-                {table.getHeaderGroups().map((hg) => (
-                  <tr key={hg.id}>
-                    {hg.headers.map((h) => {
-                      const s = sortable.has(h.column.id);
-                      const active = sort === h.column.id;
-                      return (
-                        <th key={h.id} scope="col" aria-sort={active ? (dir === 'asc' ? 'ascending' : 'descending') : undefined}>
-                          {s ? (
-                            <button
-                              type="button"
-                              className="inline-flex items-center gap-1 uppercase"
-                              onClick={() => setParams({ sort: h.column.id, dir: active && dir === 'desc' ? 'asc' : 'desc' })}
-                            >
-                              {flexRender(h.column.columnDef.header, h.getContext())}
-                              <span aria-hidden="true">{active ? (dir === 'asc' ? '▲' : '▼') : '↕'}</span>
-                            </button>
-                          ) : (
-                            flexRender(h.column.columnDef.header, h.getContext())
-                          )}
-                        </th>
-                      );
-                    })}
-                  </tr>
-                ))}
-              </thead>
-              <tbody>
-                {table.getRowModel().rows.map((row) => (
-                  <tr key={row.id} className="hover:bg-bone-50">
-                    {row.getVisibleCells().map((cell) => (
-                      <td key={cell.id}>{flexRender(cell.column.columnDef.cell, cell.getContext())}</td>
-                    ))}
-                  </tr>
-                ))}
-              </tbody>
-            </table>
-          </div>
+          <TableView
+            table={table}
+            label="Cases"
+            rowProps={() => ({ className: 'hover:bg-bone-50' })}
+            header={(id, content) => {
+              if (!sortable.has(id)) return { content };
+              const active = sort === id;
+              return {
+                ariaSort: active ? (dir === 'asc' ? 'ascending' : 'descending') : undefined,
+                content: (
+                  <button type="button" className="inline-flex items-center gap-1 uppercase" onClick={() => setParams({ sort: id, dir: active && dir === 'desc' ? 'asc' : 'desc' })}>
+                    {content}
+                    <span aria-hidden="true">{active ? (dir === 'asc' ? '▲' : '▼') : '↕'}</span>
+                  </button>
+                ),
+              };
+            }}
+          />
           <nav aria-label="Pages" className="flex items-center gap-3 text-sm">
             <button type="button" className="btn-secondary" disabled={page <= 1} onClick={() => setParams({ page: String(page - 1) }, false)}>
               ← Previous

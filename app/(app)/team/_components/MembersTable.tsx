@@ -1,7 +1,8 @@
 'use client';
 import { useMemo, useState } from 'react';
 import { useRouter } from 'next/navigation';
-import { createColumnHelper, flexRender, getCoreRowModel, useReactTable } from '@tanstack/react-table';
+import { createColumnHelper, getCoreRowModel, useReactTable } from '@tanstack/react-table';
+import { TableView } from '@/components/ui/TableView';
 import type { Role } from '@/lib/auth/roles';
 import { ROLE_LABELS } from '@/lib/auth/roles';
 import { Notice } from '@/components/ui/Notice';
@@ -96,30 +97,14 @@ export function MembersTable({ members, currentUserId, canManage }: { members: M
       {members.length === 0 ? (
         <p className="card text-ink-700">Nobody is in this practice yet. Invite the first colleague below.</p>
       ) : (
-        <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
-          <table className="table-dense w-full">
-            <thead>
-              {table.getHeaderGroups().map((hg) => (
-                <tr key={hg.id}>
-                  {hg.headers.map((h) => (
-                    <th key={h.id} scope="col">
-                      {flexRender(h.column.columnDef.header, h.getContext())}
-                    </th>
-                  ))}
-                </tr>
-              ))}
-            </thead>
-            <tbody>
-              {table.getRowModel().rows.map((row) => (
-                <tr key={row.id} data-testid={`member-${row.original.email}`} className={row.original.userId === currentUserId ? 'bg-dura-50/40' : undefined}>
-                  {row.getVisibleCells().map((cell) => (
-                    <td key={cell.id}>{flexRender(cell.column.columnDef.cell, cell.getContext())}</td>
-                  ))}
-                </tr>
-              ))}
-            </tbody>
-          </table>
-        </div>
+        <TableView
+          table={table}
+          label="Members"
+          rowProps={(row) => ({
+            'data-testid': `member-${row.original.email}`,
+            className: row.original.userId === currentUserId ? 'bg-dura-50/40' : undefined,
+          })}
+        />
       )}
     </section>
   );

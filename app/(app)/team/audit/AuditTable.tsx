@@ -1,5 +1,6 @@
 'use client';
-import { createColumnHelper, flexRender, getCoreRowModel, useReactTable } from '@tanstack/react-table';
+import { createColumnHelper, getCoreRowModel, useReactTable } from '@tanstack/react-table';
+import { TableView } from '@/components/ui/TableView';
 import type { AuditPage } from '@/lib/services/audit';
 
 type Row = AuditPage['rows'][number];
@@ -21,30 +22,5 @@ const columns = [
 
 export function AuditTable({ rows }: { rows: Row[] }) {
   const table = useReactTable({ data: rows, columns, getCoreRowModel: getCoreRowModel(), getRowId: (r) => r.id });
-  return (
-    <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
-      <table className="table-dense w-full" aria-label="Audit events">
-        <thead>
-          {table.getHeaderGroups().map((hg) => (
-            <tr key={hg.id}>
-              {hg.headers.map((h) => (
-                <th key={h.id} scope="col">
-                  {flexRender(h.column.columnDef.header, h.getContext())}
-                </th>
-              ))}
-            </tr>
-          ))}
-        </thead>
-        <tbody>
-          {table.getRowModel().rows.map((row) => (
-            <tr key={row.id}>
-              {row.getVisibleCells().map((cell) => (
-                <td key={cell.id}>{flexRender(cell.column.columnDef.cell, cell.getContext())}</td>
-              ))}
-            </tr>
-          ))}
-        </tbody>
-      </table>
-    </div>
-  );
+  return <TableView table={table} label="Audit events" />;
 }

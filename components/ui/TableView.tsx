@@ -1,0 +1,50 @@
+'use client';
+import { flexRender, type Row, type Table } from '@tanstack/react-table';
+import type { HTMLAttributes, ReactNode } from 'react';
+
+/**
+ * Draws a TanStack table in Lamina's dense style. `header` may replace a header cell (e.g. a
+ * sort button); `rowProps` adds attributes to a row (test ids, highlight).
+ */
+export function TableView<T>({
+  table,
+  label,
+  header,
+  rowProps,
+}: {
+  table: Table<T>;
+  label?: string;
+  header?: (columnId: string, content: ReactNode) => { content: ReactNode; ariaSort?: 'ascending' | 'descending' };
+  rowProps?: (row: Row<T>) => HTMLAttributes<HTMLTableRowElement> & Record<`data-${string}`, string>;
+}) {
+  return (
+    <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
+      <table className="table-dense w-full" aria-label={label}>
+        <thead>
+          {table.getHeaderGroups().map((hg) => (
+            <tr key={hg.id}>
+              {hg.headers.map((h) => {
+                const content = flexRender(h.column.columnDef.header, h.getContext());
+                const custom = header?.(h.column.id, content);
+                return (
+                  <th key={h.id} scope="col" aria-sort={custom?.ariaSort}>
+                    {custom ? custom.content : content}
+                  </th>
+                );
+              })}
+            </tr>
+          ))}
+        </thead>
+        <tbody>
+          {table.getRowModel().rows.map((row) => (
+            <tr key={row.id} {...rowProps?.(row)}>
+              {row.getVisibleCells().map((cell) => (
+                <td key={cell.id}>{flexRender(cell.column.columnDef.cell, cell.getContext())}</td>
+              ))}
+            </tr>
+          ))}
+        </tbody>
+      </table>
+    </div>
+  );
+}
