@@ -19,11 +19,18 @@ export default async function TeamPage() {
           <h1 className="text-3xl">Team</h1>
           <p className="mt-1 text-ink-700">Who works in {actor.practiceName} on Lamina, and what each person may do.</p>
         </div>
-        {can(actor.roles, 'audit.read') && (
-          <Link href="/team/audit" className="btn-secondary no-underline">
-            Audit trail
-          </Link>
-        )}
+        <div className="flex gap-2">
+          {manage && (
+            <Link href="/team/settings" className="btn-secondary no-underline">
+              Practice settings
+            </Link>
+          )}
+          {can(actor.roles, 'audit.read') && (
+            <Link href="/team/audit" className="btn-secondary no-underline">
+              Audit trail
+            </Link>
+          )}
+        </div>
       </div>
       <MembersTable members={members} currentUserId={actor.userId} canManage={manage} />
       {manage && <InviteForm />}

@@ -159,7 +159,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                         <VisitStatusBadge status={x.status} />
                         {x.bookedDate && <div className="text-xs text-ink-500">booked {fmt(x.bookedDate)}</div>}
                       </td>
-                      <td>{(can(actor.roles, 'recall.manage') || can(actor.roles, 'review.write')) && x.allowedNext.length > 0 && <VisitActions visit={x} />}</td>
+                      <td>{can(actor.roles, 'recall.manage') && x.allowedNext.length > 0 && <VisitActions visit={x} />}</td>
                     </tr>
                   ))}
                 </tbody>

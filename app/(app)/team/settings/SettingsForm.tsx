@@ -1,0 +1,108 @@
+'use client';
+import { useState } from 'react';
+import { useRouter } from 'next/navigation';
+import { useFieldArray, useForm } from 'react-hook-form';
+import type { PracticeSettingsView } from '@/lib/services/practice-settings';
+import { defaultWindow } from '@/lib/schemas/recall-policy';
+import { Notice } from '@/components/ui/Notice';
+
+interface Shape {
+  toothNotation: 'fdi' | 'universal';
+  milestones: { months: number; windowBeforeDays: number; windowAfterDays: number }[];
+}
+
+const num = { valueAsNumber: true } as const;
+
+export function SettingsForm({ initial }: { initial: PracticeSettingsView }) {
+  const router = useRouter();
+  const [result, setResult] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
+  const form = useForm<Shape>({ defaultValues: { toothNotation: initial.toothNotation, milestones: initial.recallPolicy.milestones } });
+  const milestones = useFieldArray({ control: form.control, name: 'milestones' });
+
+  const onSubmit = form.handleSubmit(async (values) => {
+    setResult(null);
+    const res = await fetch('/api/practice/settings', {
+      method: 'PATCH',
+      headers: { 'Content-Type': 'application/json' },
+      body: JSON.stringify({ toothNotation: values.toothNotation, recallPolicy: { milestones: values.milestones } }),
+    });
+    const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
+    if (!res.ok) {
+      const detail = Object.values(body.fieldErrors ?? {}).flat();
+      setResult({ tone: 'alert', text: detail.length ? detail.join(' ') : (body.message ?? 'The settings could not be saved.') });
+      return;
+    }
+    setResult({ tone: 'ok', text: 'Settings saved. A changed recall policy applies to cases completed from now on.' });
+    router.refresh();
+  });
+
+  return (
+    <form onSubmit={onSubmit} noValidate className="space-y-6" aria-label="Practice settings">
+      {result && <Notice tone={result.tone}>{result.text}</Notice>}
+      <fieldset className="card space-y-2">
+        <legend className="px-1 font-serif text-xl">Tooth numbering on screens</legend>
+        <p className="text-sm text-ink-700">Teeth are always stored in FDI notation (ISO 3950); this only changes how they are shown.</p>
+        <label className="flex items-center gap-2 text-sm">
+          <input type="radio" value="fdi" className="accent-dura-700" {...form.register('toothNotation')} /> FDI two-digit (e.g. 36)
+        </label>
+        <label className="flex items-center gap-2 text-sm">
+          <input type="radio" value="universal" className="accent-dura-700" {...form.register('toothNotation')} /> Universal 1–32 (e.g. 19)
+        </label>
+      </fieldset>
+      <fieldset className="card space-y-3">
+        <legend className="px-1 font-serif text-xl">Recall policy</legend>
+        <p className="text-sm text-ink-700">
+          Completing a case plans one follow-up visit per milestone. The European Society of Endodontology’s quality guidelines (2006) ask for
+          a review at least at one year, and up to four years while healing is incomplete. Each visit has a window around its due date; a
+          visit whose window ends without attendance is marked missed.
+        </p>
+        <table className="table-dense w-full" aria-label="Recall milestones">
+          <thead>
+            <tr>
+              <th scope="col">Months after completion</th>
+              <th scope="col">Window opens (days before)</th>
+              <th scope="col">Window closes (days after)</th>
+              <th scope="col">
+                <span className="sr-only">Remove</span>
+              </th>
+            </tr>
+          </thead>
+          <tbody>
+            {milestones.fields.map((f, i) => (
+              <tr key={f.id}>
+                <td>
+                  <input aria-label={`Milestone ${i + 1}, months`} type="number" min={1} max={120} className="field-input w-28" {...form.register(`milestones.${i}.months`, num)} />
+                </td>
+                <td>
+                  <input aria-label={`Milestone ${i + 1}, days before`} type="number" min={0} max={180} className="field-input w-28" {...form.register(`milestones.${i}.windowBeforeDays`, num)} />
+                </td>
+                <td>
+                  <input aria-label={`Milestone ${i + 1}, days after`} type="number" min={0} max={365} className="field-input w-28" {...form.register(`milestones.${i}.windowAfterDays`, num)} />
+                </td>
+                <td>
+                  <button type="button" className="btn-secondary" onClick={() => milestones.remove(i)} disabled={milestones.fields.length === 1}>
+                    Remove
+                  </button>
+                </td>
+              </tr>
+            ))}
+          </tbody>
+        </table>
+        <button
+          type="button"
+          className="btn-secondary"
+          onClick={() => {
+            const last = milestones.fields.at(-1)?.months ?? 0;
+            const months = Math.min(120, last ? last * 2 : 6);
+            milestones.append({ months, ...defaultWindow(months) });
+          }}
+        >
+          Add a milestone
+        </button>
+      </fieldset>
+      <button type="submit" className="btn-primary" disabled={form.formState.isSubmitting}>
+        {form.formState.isSubmitting ? 'Saving…' : 'Save settings'}
+      </button>
+    </form>
+  );
+}

@@ -1,0 +1,48 @@
+import 'server-only';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { PracticeSchema } from '@/entities';
+import { assertCan, type Actor } from '@/lib/auth/actor';
+import { PracticeSettingsPatch } from '@/lib/schemas/practice-settings';
+import type { RecallPolicy } from '@/lib/schemas/recall-policy';
+import type { ToothNotation } from '@/lib/teeth';
+import { audit } from './audit';
+import { parseInput } from './parse';
+import { practiceSettings } from './registry-common';
+
+export interface PracticeSettingsView {
+  name: string;
+  toothNotation: ToothNotation;
+  timeZone: string;
+  recallPolicy: RecallPolicy;
+}
+
+/** The practice's settings as the administrator's settings page shows them. */
+export async function getPracticeSettings(em: EntityManager, actor: Actor): Promise<PracticeSettingsView> {
+  assertCan(actor, 'team.read');
+  const [practice, settings] = await Promise.all([em.findOneOrFail(PracticeSchema, actor.practiceId), practiceSettings(em, actor.practiceId)]);
+  return { name: practice.name, toothNotation: settings.toothNotation, timeZone: settings.timeZone, recallPolicy: settings.recallPolicy };
+}
+
+/**
+ * Changes the tooth notation and/or the recall policy. A new recall policy applies to cases
+ * completed from now on (and to visits moved by a changed completion date); existing plans stay.
+ */
+export async function updatePracticeSettings(em: EntityManager, actor: Actor, raw: unknown): Promise<PracticeSettingsView> {
+  assertCan(actor, 'team.manage');
+  const patch = parseInput(PracticeSettingsPatch, raw);
+  const practice = await em.findOneOrFail(PracticeSchema, actor.practiceId);
+  const before = { toothNotation: practice.toothNotation, recallMonths: practice.recallPolicy.milestones.map((m) => m.months) };
+  if (patch.toothNotation) practice.toothNotation = patch.toothNotation;
+  if (patch.recallPolicy) practice.recallPolicy = patch.recallPolicy;
+  await em.flush();
+  await audit(em, actor, {
+    action: 'practice.settings_changed',
+    entityType: 'practice',
+    entityId: practice.id,
+    detail: {
+      before: JSON.stringify(before),
+      after: JSON.stringify({ toothNotation: practice.toothNotation, recallMonths: practice.recallPolicy.milestones.map((m) => m.months) }),
+    },
+  });
+  return getPracticeSettings(em, actor);
+}
