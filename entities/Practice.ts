@@ -1,6 +1,7 @@
 import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
 import { DEFAULT_RECALL_POLICY, type RecallPolicy } from '../lib/schemas/recall-policy';
+import { DEFAULT_REMINDER_POLICY, type ReminderPolicy } from '../lib/schemas/reminder-policy';
 
 /** A clinic. The registry holds several; every patient record belongs to exactly one. */
 export const PracticeSchema = defineEntity({
@@ -22,6 +23,15 @@ export const PracticeSchema = defineEntity({
       .json<RecallPolicy>()
       .onCreate(() => DEFAULT_RECALL_POLICY)
       .defaultRaw(`'${JSON.stringify(DEFAULT_RECALL_POLICY)}'`),
+    /**
+     * When the recall desk's e-mails go out and when an unanswered visit closes as lost to
+     * follow-up (lib/schemas/reminder-policy.ts), stored as parsed; default 3 weeks / 10 days /
+     * 14 days / 3 attempts. Read it through ReminderPolicySchema.
+     */
+    reminderPolicy: p
+      .json<ReminderPolicy>()
+      .onCreate(() => DEFAULT_REMINDER_POLICY)
+      .defaultRaw(`'${JSON.stringify(DEFAULT_REMINDER_POLICY)}'`),
     createdAt: p.datetime().onCreate(() => new Date()),
   },
 });

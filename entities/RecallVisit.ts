@@ -31,6 +31,10 @@ export const RecallVisitSchema = defineEntity({
     lostToFollowUp: p.boolean().default(false),
     closedOn: p.date().nullable(),
     note: p.string().length(500).nullable(),
+    /** A proposed appointment time (recall desk); the next reminder carries it as a calendar file. */
+    proposedStart: p.datetime().nullable(),
+    /** A reminder could not be delivered after its last attempt: the coordinator should call. */
+    deliveryFailedAt: p.datetime().nullable(),
     statusChangedAt: p.datetime().onCreate(() => new Date()),
     statusChangedBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
     createdAt: p.datetime().onCreate(() => new Date()),

@@ -1,11 +1,14 @@
 /** Every entity, listed explicitly (no glob): the ORM config and migrations read this list. */
 import { AuditEventSchema } from './AuditEvent';
+import { ContactLogEntrySchema } from './ContactLogEntry';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
 import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
 import { ReferrerSchema } from './Referrer';
+import { ReminderSchema } from './Reminder';
+import { ReplyNonceSchema } from './ReplyNonce';
 import { ReviewSchema } from './Review';
 import { TreatmentCaseSchema } from './TreatmentCase';
 import { UserSchema } from './User';
@@ -23,15 +26,21 @@ export const entities = [
   TreatmentCaseSchema,
   RecallVisitSchema,
   ReviewSchema,
+  ReminderSchema,
+  ContactLogEntrySchema,
+  ReplyNonceSchema,
 ];
 
 export * from './AuditEvent';
+export * from './ContactLogEntry';
 export * from './Invitation';
 export * from './Membership';
 export * from './Patient';
 export * from './Practice';
 export * from './RecallVisit';
 export * from './Referrer';
+export * from './Reminder';
+export * from './ReplyNonce';
 export * from './Review';
 export * from './TreatmentCase';
 export * from './User';
