@@ -123,6 +123,9 @@ main() {
   lamina_log "set-up took $((SECONDS - t0)) s; starting the web server"
 
   trap - EXIT INT TERM
+  # The supervisor starts the worker with `node --import tsx jobs/worker.ts`; the scripts tsconfig
+  # maps `server-only` to an empty module outside Next.
+  export TSX_TSCONFIG_PATH=scripts/tsconfig.json
   exec node --import tsx scripts/supervise.ts
 }
 

@@ -108,7 +108,8 @@ start_web() {
   local web=$!
   echo "$web" >"$TMP/run/web.pid"
   if [[ -f jobs/worker.ts ]]; then
-    (exec setsid node --import tsx jobs/worker.ts </dev/null >"$TMP/logs/worker.log" 2>&1 9>&-) &
+    # The scripts tsconfig maps `server-only` to an empty module outside Next (see jobs/worker.ts).
+    (TSX_TSCONFIG_PATH=scripts/tsconfig.json exec setsid node --import tsx jobs/worker.ts </dev/null >"$TMP/logs/worker.log" 2>&1 9>&-) &
     echo $! >"$TMP/run/worker.pid"
   fi
   local i

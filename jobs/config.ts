@@ -1,0 +1,54 @@
+/**
+ * The worker's own settings, read once from the environment and validated (the app's settings —
+ * DATABASE_URL, REDIS_URL, SMTP_URL, MAIL_FROM, APP_URL, NEXTAUTH_SECRET, MAILBOX_URL — come from
+ * lib/env.ts). Every value has a default; tests and benchmarks shorten the waits.
+ */
+import { z } from 'zod';
+
+const int = (min: number, max: number) => z.coerce.number().int().min(min).max(max);
+const flag = z
+  .enum(['0', '1', 'true', 'false'])
+  .transform((v) => v === '1' || v === 'true')
+  .optional();
+
+export const WorkerConfigSchema = z
+  .object({
+    /** Reminders sent at once (also the SMTP pool size). */
+    WORKER_CONCURRENCY: int(1, 64).default(8),
+    /**
+     * BullMQ lock duration and stalled-job check interval, ms. A job whose worker stops renewing
+     * its lock for this long is handed to another worker; the outbox claim lease is the same.
+     */
+    WORKER_LOCK_MS: int(1_000, 600_000).default(30_000),
+    /** How often a job may stall (its worker died) before it fails. */
+    WORKER_MAX_STALLED: int(1, 20).default(3),
+    /** SMTP connection, greeting and socket timeout, ms (shorter than the lock). */
+    SMTP_TIMEOUT_MS: int(1_000, 300_000).default(10_000),
+    /** The scan's schedule (cron, server time): every hour at minute 0 by default. */
+    RECALL_SCAN_PATTERN: z.string().trim().min(9).max(60).default('0 * * * *'),
+    /** Scan at start and after every reconnection to Redis (default yes). */
+    RECALL_SCAN_ON_START: flag,
+  })
+  .transform((c, ctx) => {
+    if (c.SMTP_TIMEOUT_MS >= c.WORKER_LOCK_MS) {
+      ctx.addIssue({ code: 'custom', path: ['SMTP_TIMEOUT_MS'], message: 'SMTP_TIMEOUT_MS must be shorter than WORKER_LOCK_MS.' });
+    }
+    return {
+      concurrency: c.WORKER_CONCURRENCY,
+      lockMs: c.WORKER_LOCK_MS,
+      maxStalled: c.WORKER_MAX_STALLED,
+      smtpTimeoutMs: c.SMTP_TIMEOUT_MS,
+      scanPattern: c.RECALL_SCAN_PATTERN,
+      scanOnStart: c.RECALL_SCAN_ON_START ?? true,
+    };
+  });
+
+export type WorkerConfig = z.output<typeof WorkerConfigSchema>;
+
+export function readWorkerConfig(source: Record<string, string | undefined> = process.env): WorkerConfig {
+  const parsed = WorkerConfigSchema.safeParse(source);
+  if (!parsed.success) {
+    throw new Error(`The worker's configuration is invalid:\n${parsed.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`).join('\n')}`);
+  }
+  return parsed.data;
+}

@@ -1,0 +1,383 @@
+/**
+ * The `send-reminder` job: one outbox row (entities/Reminder.ts), one e-mail.
+ *
+ * What is guaranteed, and how
+ * ---------------------------
+ * SMTP cannot be part of a database transaction: the relay commits a message when it answers
+ * 250 to the end of DATA, and only afterwards can we record that. So the send is bracketed by two
+ * atomic statements on the outbox row:
+ *
+ *   1. claim    queued → sending, attempts + 1, claim_expires_at = now + lease (the worker's lock
+ *               duration: BullMQ hands a job to another worker only after that much silence) — a
+ *               compare-and-set UPDATE that also re-checks consent and the visit's status, so of
+ *               two attempts racing for one row exactly one wins
+ *   2. SMTP     the message, with a Message-ID derived from the row id — every attempt sends the
+ *               very same message (same Message-ID, same links, same calendar UID)
+ *   3. finish   sending → sent, message id, contact log, visit planned → invited, audit — one
+ *               statement (data-modifying CTEs), so it happens entirely or not at all
+ *
+ * - A row that is `sent` (or skipped, or given up) is never sent again, whatever the queue
+ *   does: duplicate jobs, a repeated scan, a job re-queued after a Redis restart, a retry.
+ * - A refusal the relay states (4xx: retried with backoff; 5xx: given up) puts the row back to
+ *   `queued`: nothing was accepted, so the next attempt sends normally.
+ * - A row found `sending` with its claim still running belongs to a live attempt: this job
+ *   waits (moved to delayed) instead of sending beside it.
+ * - A row found `sending` with its claim expired is the one uncertain case: the process died
+ *   (SIGKILL, power, OOM) or the connection broke somewhere between claim and finish — possibly
+ *   after the relay accepted. Then:
+ *     · with a delivery check (the local SMTP fake's API at MAILBOX_URL, see jobs/mail.ts), the
+ *       relay is asked whether it holds our Message-ID: yes → the row is marked sent without a
+ *       second send; no → it is sent. This gives exactly once with the local fake, and with any
+ *       relay that can be asked.
+ *     · without one (a plain SMTP relay), it is sent again with the same Message-ID: at least
+ *       once, and a duplicate can arise only from a crash inside the few milliseconds between the
+ *       relay's 250 and the finish commit. Such a duplicate is byte-for-byte the same message
+ *       under the same Message-ID, which mail programs and mailbox providers (Gmail among them)
+ *       show once.
+ * tests/integration/recall-faults.test.ts kills the worker with SIGKILL in the middle of 1,000
+ * sends and counts each Message-ID at the fake: exactly one each.
+ *
+ * Consent is checked in the claim transaction, against the patient row as it is then: no
+ * recall-contact consent by e-mail → the row is `skipped` and the job fails as unrecoverable
+ * (never retried). A visit that no longer needs contact (confirmed, attended, declined …, or its
+ * window has ended) is `skipped` and the job completes.
+ */
+import { DelayedError, UnrecoverableError, type Job } from 'bullmq';
+import { randomUUID } from 'node:crypto';
+import type { Transporter } from 'nodemailer';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { JOBS, parseJobData, type SendReminderData } from '@/lib/queue';
+import { quietDelayMs, type ReminderStep } from '@/lib/recall/reminders';
+import { issueReplyToken, issueUnsubscribeToken } from '@/lib/recall/reply-token';
+import { appointmentAttachment } from '@/lib/calendar/ics';
+import { listUnsubscribeHeaders, reminderSubject } from '@/lib/mail/templates/ReminderEmail';
+import { compareDates } from '@/lib/registry/calendar-date';
+import {
+  EMAIL_CONSENT_SQL,
+  dayIn,
+  fromAddress,
+  insertOutboxRows,
+  knexOf,
+  linkNonce,
+  reminderMessageId,
+  reminderPolicyOf,
+} from '@/lib/services/recall-outbox';
+import { refreshNextVisit } from '@/lib/services/visits';
+import { renderReminder, type DeliveryCheck } from './mail';
+
+export interface SendContext {
+  /** A fresh EntityManager fork per job. */
+  em: () => EntityManager;
+  transport: Pick<Transporter, 'sendMail'>;
+  /** Asks the relay whether it holds a Message-ID (local fake only); see the top of this file. */
+  deliveryCheck?: DeliveryCheck;
+  linkSecret: Buffer;
+  appUrl: string;
+  mailFrom: string;
+  /** How long a claim is presumed alive, ms (the worker's lock duration). */
+  leaseMs: number;
+  now?: () => Date;
+  log?: (message: string) => void;
+}
+
+export type SendOutcome =
+  | 'sent'
+  | 'resent'
+  | 'reconciled'
+  | 'already_sent'
+  | 'already_failed'
+  | 'already_skipped'
+  | 'no_longer_needed'
+  | 'no_visit';
+
+interface ClaimRow {
+  id: string;
+  practice_id: string;
+  status: 'queued' | 'sending' | 'sent' | 'failed' | 'skipped';
+  claim_expires_at: string | null;
+  queued_at: string;
+  visit_id: string;
+  case_id: string;
+  visit_status: string;
+  due_date: string;
+  window_end: string;
+  proposed_start: string | null;
+  given_name: string;
+  email: string | null;
+  consent: boolean;
+  practice_name: string;
+  time_zone: string;
+  reminder_policy: unknown;
+}
+
+type Claim =
+  | { kind: 'done'; outcome: SendOutcome; reminderId?: string }
+  | { kind: 'wait'; ms: number; reason: string }
+  | { kind: 'no_consent'; reminderId: string }
+  | { kind: 'send'; row: ClaimRow; uncertain: boolean };
+
+const CONTACT_STATUSES = ['planned', 'invited'];
+
+function selectRow(ctx: SendContext, data: SendReminderData): Promise<ClaimRow | undefined> {
+  const knex = knexOf(ctx.em());
+  return knex('reminder as r')
+    .join('recall_visit as v', 'v.id', 'r.visit_id')
+    .join('treatment_case as c', 'c.id', 'v.case_id')
+    .join('patient as p', 'p.id', 'c.patient_id')
+    .join('practice as pr', 'pr.id', 'r.practice_id')
+    .where({ 'r.visit_id': data.visitId, 'r.step': data.step, 'r.practice_id': data.practiceId })
+    .first(
+      'r.id',
+      'r.practice_id',
+      'r.status',
+      'r.claim_expires_at',
+      'r.queued_at',
+      'v.id as visit_id',
+      'v.case_id',
+      'v.status as visit_status',
+      'v.due_date',
+      'v.window_end',
+      'v.proposed_start',
+      'p.given_name',
+      'p.email',
+      knex.raw(`${EMAIL_CONSENT_SQL} as consent`),
+      'pr.name as practice_name',
+      'pr.time_zone',
+      'pr.reminder_policy',
+    ) as Promise<ClaimRow | undefined>;
+}
+
+/**
+ * Decides what to do with the row and, to send, claims it: one compare-and-set UPDATE that
+ * succeeds only if the row is still as read (status and claim) and, at that instant, the visit
+ * still needs contact and the patient still agrees to e-mail. PostgreSQL holds the row lock for
+ * the statement and re-checks the condition after waiting for a concurrent writer, so of two
+ * attempts racing for one row exactly one claims it. A row that changed meanwhile is read again.
+ */
+async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promise<Claim> {
+  const knex = knexOf(ctx.em());
+  for (let round = 0; round < 5; round++) {
+    const row = await selectRow(ctx, data);
+    if (!row) {
+      // A job without its outbox row (queued by hand or by an older release): write the row first.
+      const visit = await knex('recall_visit').where({ id: data.visitId, practice_id: data.practiceId }).first('id');
+      if (!visit) return { kind: 'done', outcome: 'no_visit' };
+      await insertOutboxRows(ctx.em(), [
+        { practiceId: data.practiceId, visitId: data.visitId, step: data.step, origin: data.origin, requestedBy: data.requestedBy, day: data.day ?? dayIn('UTC', now) },
+      ]);
+      continue;
+    }
+    if (row.status === 'sent') return { kind: 'done', outcome: 'already_sent', reminderId: row.id };
+    if (row.status === 'failed') return { kind: 'done', outcome: 'already_failed', reminderId: row.id };
+    if (row.status === 'skipped') return { kind: 'done', outcome: 'already_skipped', reminderId: row.id };
+
+    let uncertain = false;
+    if (row.status === 'sending') {
+      const expires = row.claim_expires_at ? new Date(row.claim_expires_at).getTime() : 0;
+      if (expires > now.getTime()) return { kind: 'wait', ms: expires - now.getTime() + 50, reason: 'another attempt is sending it' };
+      uncertain = true;
+    }
+    const unchanged = (q: ReturnType<typeof knex>) =>
+      q.where({ id: row.id, status: row.status }).whereRaw('claim_expires_at is not distinct from ?', [row.claim_expires_at]);
+    const skip = async (reason: string) =>
+      (await unchanged(knex('reminder')).update({ status: 'skipped', last_error: reason, claim_expires_at: null, updated_at: now })) > 0;
+
+    if (!row.consent) {
+      if (await skip('No recall-contact consent by e-mail: nothing was sent.')) return { kind: 'no_consent', reminderId: row.id };
+      continue;
+    }
+    const today = dayIn(row.time_zone, now);
+    if (!CONTACT_STATUSES.includes(row.visit_status) || compareDates(today, row.window_end) > 0) {
+      const ended = compareDates(today, row.window_end) > 0;
+      if (await skip(`The visit no longer needs contact (${row.visit_status}${ended ? ', window ended' : ''}).`)) {
+        return { kind: 'done', outcome: 'no_longer_needed', reminderId: row.id };
+      }
+      continue;
+    }
+    const quiet = quietDelayMs(reminderPolicyOf(row.reminder_policy).quietHours, now, row.time_zone);
+    if (quiet > 0 && !uncertain) return { kind: 'wait', ms: quiet, reason: 'quiet hours' };
+
+    const claimed = await knex.raw(
+      `update reminder r set status = 'sending', attempts = r.attempts + 1, claim_expires_at = ?, updated_at = ?
+         from recall_visit v, treatment_case c, patient p
+        where r.id = ? and r.status = ? and r.claim_expires_at is not distinct from ?
+          and v.id = r.visit_id and c.id = v.case_id and p.id = c.patient_id
+          and v.status in ('planned', 'invited') and ${EMAIL_CONSENT_SQL}
+        returning r.id`,
+      [new Date(now.getTime() + ctx.leaseMs), now, row.id, row.status, row.claim_expires_at],
+    );
+    if ((claimed as { rows: unknown[] }).rows.length) return { kind: 'send', row, uncertain };
+  }
+  throw new Error('The outbox row kept changing while it was being claimed; trying again later.');
+}
+
+/** The message of a claimed row: the same on every attempt. */
+async function compose(ctx: SendContext, row: ClaimRow, step: ReminderStep, now: Date) {
+  const queuedAt = new Date(row.queued_at);
+  const reply = issueReplyToken({ visitId: row.visit_id, reminderId: row.id, nonce: linkNonce('reply', row.id) }, ctx.linkSecret, queuedAt);
+  const unsubscribe = issueUnsubscribeToken({ visitId: row.visit_id, reminderId: row.id, nonce: linkNonce('unsubscribe', row.id) }, ctx.linkSecret, queuedAt);
+  const base = ctx.appUrl.replace(/\/+$/, '');
+  const replyUrl = `${base}/r/${reply.token}`;
+  const links = {
+    confirm: `${replyUrl}?answer=confirmed`,
+    reschedule: `${replyUrl}?answer=another_time`,
+    decline: `${replyUrl}?answer=declined`,
+    unsubscribe: `${base}/u/${unsubscribe.token}`,
+  };
+  const proposed = row.proposed_start ? new Date(row.proposed_start) : null;
+  const appointment = proposed && proposed.getTime() > now.getTime() ? proposed : null;
+  const { html, text } = await renderReminder({
+    step,
+    firstName: row.given_name,
+    practiceName: row.practice_name,
+    dueDate: row.due_date,
+    links,
+    contact: {},
+    ...(appointment ? { appointment: appointmentWords(appointment, row.time_zone) } : {}),
+  });
+  const from = fromAddress(ctx.mailFrom);
+  return {
+    from: { name: row.practice_name, address: from },
+    to: row.email!,
+    subject: reminderSubject(step, row.practice_name, row.due_date),
+    html,
+    text,
+    messageId: reminderMessageId(row.id, ctx.mailFrom),
+    // base64 bodies: cheaper to encode than quoted-printable, and every mail program reads them.
+    textEncoding: 'base64' as const,
+    headers: { ...listUnsubscribeHeaders(`${base}/api/unsubscribe/${unsubscribe.token}`), 'Auto-Submitted': 'auto-generated' },
+    attachments: appointment
+      ? [
+          appointmentAttachment({
+            visitId: row.visit_id,
+            proposalId: String(appointment.getTime()),
+            start: appointment,
+            practice: { name: row.practice_name, email: from },
+            stamp: queuedAt,
+          }),
+        ]
+      : [],
+  };
+}
+
+/** "Tuesday 3 March 2026 at 09:30" in the practice's time zone. */
+export function appointmentWords(start: Date, timeZone: string): string {
+  const f = (o: Intl.DateTimeFormatOptions) => new Intl.DateTimeFormat('en-GB', { timeZone, ...o }).format(start);
+  return `${f({ weekday: 'long', day: 'numeric', month: 'long', year: 'numeric' })} at ${f({ hour: '2-digit', minute: '2-digit', hourCycle: 'h23' })}`;
+}
+
+/**
+ * sending → sent, with the visit (planned → invited, delivery flag cleared), the contact log and
+ * the audit trail, in one SQL statement (atomic without a transaction round trip).
+ */
+async function finish(ctx: SendContext, row: ClaimRow, step: ReminderStep, messageId: string, now: Date, how: SendOutcome): Promise<void> {
+  const em = ctx.em();
+  const knex = knexOf(em);
+  const result = (await knex.raw(
+    `with r as (
+       update reminder set status = 'sent', message_id = ?, sent_at = ?, sent_on = ?, claim_expires_at = null, last_error = null, updated_at = ?
+        where id = ? and status = 'sending'
+        returning id, practice_id, visit_id, step),
+     b as (select v.id, v.status, v.case_id from recall_visit v join r on v.id = r.visit_id for update of v),
+     v as (
+       update recall_visit v
+          set status = case when b.status = 'planned' then 'invited' else v.status end,
+              status_changed_at = case when b.status = 'planned' then ? else v.status_changed_at end,
+              status_changed_by_id = case when b.status = 'planned' then null else v.status_changed_by_id end,
+              reinvite_needed = case when b.status = 'planned' then false else v.reinvite_needed end,
+              delivery_failed_at = null, updated_at = ?
+         from b where v.id = b.id
+       returning b.status as before, v.case_id),
+     sent_log as (
+       insert into contact_log_entry (id, practice_id, visit_id, "at", kind, "by", reminder_id, step)
+       select ?, r.practice_id, r.visit_id, ?, 'message_sent', 'system', r.id, r.step from r),
+     status_log as (
+       insert into contact_log_entry (id, practice_id, visit_id, "at", kind, "by", from_status, to_status)
+       select ?, r.practice_id, r.visit_id, ?, 'status_change', 'system', 'planned', 'invited' from r join b on b.id = r.visit_id where b.status = 'planned'),
+     trail as (
+       insert into audit_event (id, "at", practice_id, action, entity_type, entity_id, detail)
+       select ?, ?, r.practice_id, 'recall.reminder_sent', 'visit', r.visit_id::text, cast(? as jsonb) from r)
+     select (select count(*) from r)::int as updated, (select before from v) as before, (select case_id from v) as case_id`,
+    [
+      messageId, now, dayIn(row.time_zone, now), now, row.id,
+      now, now,
+      randomUUID(), now,
+      randomUUID(), new Date(now.getTime() + 1),
+      randomUUID(), now, JSON.stringify({ reminderId: row.id, step, how }),
+    ],
+  )) as { rows: { updated: number; before: string | null; case_id: string | null }[] };
+  const r = result.rows[0];
+  // The case's next-visit summary (a trigger keeps it too, where the registry's migration installed one).
+  if (r?.updated && r.before === 'planned' && r.case_id) await refreshNextVisit(em, [r.case_id]);
+}
+
+/** Puts a claim back after an attempt that did not send: `queued` when the relay said no, `sending` (expired) when unknown. */
+async function release(ctx: SendContext, reminderId: string, status: 'queued' | 'sending', error: string, now: Date) {
+  await knexOf(ctx.em())('reminder')
+    .where({ id: reminderId, status: 'sending' })
+    .update({ status, last_error: error.slice(0, 500), claim_expires_at: status === 'sending' ? now : null, updated_at: now });
+}
+
+async function delay(job: Job | undefined, token: string | undefined, ms: number, reason: string): Promise<never> {
+  if (job && token) {
+    await job.moveToDelayed(Date.now() + Math.max(ms, 100), token);
+    throw new DelayedError(`Waiting ${Math.round(ms / 1000)} s: ${reason}.`);
+  }
+  throw new Error(`Not now: ${reason}.`);
+}
+
+/**
+ * The job handler (also called directly by tests). Returns what happened; throws to let BullMQ
+ * retry (a relay's temporary refusal, a broken connection) or UnrecoverableError to stop.
+ */
+export async function processSendReminder(
+  ctx: SendContext,
+  job: Pick<Job, 'data'> & Partial<Job>,
+  token?: string,
+): Promise<{ outcome: SendOutcome; reminderId?: string }> {
+  const data = parseJobData(JOBS.sendReminder, job.data);
+  const now = ctx.now?.() ?? new Date();
+  const c = await claim(ctx, data, now);
+  if (c.kind === 'done') return { outcome: c.outcome, reminderId: c.reminderId };
+  if (c.kind === 'wait') return delay(job as Job, token, c.ms, c.reason);
+  if (c.kind === 'no_consent') throw new UnrecoverableError('The patient has not agreed to recall contact by e-mail: no message was sent.');
+
+  const { row, uncertain } = c;
+  const messageId = reminderMessageId(row.id, ctx.mailFrom);
+  if (uncertain) {
+    if (ctx.deliveryCheck) {
+      let delivered: boolean;
+      try {
+        delivered = await ctx.deliveryCheck(messageId, row.email!);
+      } catch (e) {
+        await release(ctx, row.id, 'sending', `Delivery check failed: ${(e as Error).message}`, now);
+        throw new Error(`An earlier attempt may have sent this reminder and the mailbox cannot say: ${(e as Error).message}`);
+      }
+      if (delivered) {
+        ctx.log?.(`[send-reminder] ${row.id}: an earlier attempt was accepted by the relay (Message-ID found); marked sent without sending again`);
+        await finish(ctx, row, data.step, messageId, now, 'reconciled');
+        return { outcome: 'reconciled', reminderId: row.id };
+      }
+    } else {
+      ctx.log?.(`[send-reminder] ${row.id}: an earlier attempt did not finish; sending again under the same Message-ID`);
+    }
+  }
+
+  const message = await compose(ctx, row, data.step, now);
+  try {
+    await ctx.transport.sendMail(message);
+  } catch (e) {
+    const err = e as Error & { responseCode?: number };
+    const text = `${err.message}`.slice(0, 400);
+    if (typeof err.responseCode === 'number') {
+      await release(ctx, row.id, 'queued', `The mail relay answered ${err.responseCode}: ${text}`, new Date());
+      if (err.responseCode >= 500) throw new UnrecoverableError(`The mail relay refused the message for good (${err.responseCode}): ${text}`);
+      throw new Error(`The mail relay refused the message for now (${err.responseCode}): ${text}`);
+    }
+    // No answer from the relay: it may or may not hold the message. The next attempt asks or resends.
+    await release(ctx, row.id, 'sending', `No answer from the mail relay: ${text}`, new Date());
+    throw err;
+  }
+  await finish(ctx, row, data.step, messageId, new Date(), uncertain ? 'resent' : 'sent');
+  return { outcome: uncertain ? 'resent' : 'sent', reminderId: row.id };
+}
