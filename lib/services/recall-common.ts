@@ -1,0 +1,165 @@
+import 'server-only';
+import { randomUUID } from 'node:crypto';
+import { z } from 'zod';
+import type { Knex } from '@mikro-orm/knex';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import type { ContactBy, ContactKind, ReplyAnswer } from '@/entities';
+import type { ReminderPolicy, ReminderStep } from '@/lib/recall/reminders';
+import type { VisitStatus } from '@/lib/recall/status';
+import type { ToothNotation } from '@/lib/teeth';
+import { NotFoundError } from './errors';
+import { knexOf, reminderPolicyOf } from './recall-outbox';
+import { isUuid, todayIn } from './registry-common';
+
+/** Pieces shared by the recall-desk services (desk, contact log, replies, rate, policy). */
+
+export interface RecallSettings {
+  practiceId: string;
+  practiceName: string;
+  timeZone: string;
+  toothNotation: ToothNotation;
+  reminderPolicy: ReminderPolicy;
+  today: string;
+}
+
+export async function recallSettings(em: EntityManager, practiceId: string, now: Date = new Date()): Promise<RecallSettings> {
+  const row = (await knexOf(em)('practice').where({ id: practiceId }).first('id', 'name', 'time_zone', 'tooth_notation', 'reminder_policy')) as
+    | { id: string; name: string; time_zone: string; tooth_notation: ToothNotation; reminder_policy: unknown }
+    | undefined;
+  if (!row) throw new NotFoundError('No such practice.');
+  return {
+    practiceId: row.id,
+    practiceName: row.name,
+    timeZone: row.time_zone,
+    toothNotation: row.tooth_notation,
+    reminderPolicy: reminderPolicyOf(row.reminder_policy),
+    today: todayIn(row.time_zone, now),
+  };
+}
+
+/** A list of visit ids from a body: 1 to 200 uuids, duplicates dropped. */
+export const VisitIds = z
+  .array(z.string({ error: 'A visit id is a text.' }).trim().refine(isUuid, 'Not a visit id.'), { error: 'Send visitIds: a list of visit ids.' })
+  .min(1, 'Choose at least one visit.')
+  .max(200, 'At most 200 visits at once.')
+  .transform((ids) => [...new Set(ids.map((id) => id.toLowerCase()))]);
+
+export interface DeskVisit {
+  id: string;
+  case_id: string;
+  milestone: number;
+  status: VisitStatus;
+  due_date: string;
+  window_start: string;
+  window_end: string;
+  booked_date: string | null;
+  proposed_start: string | null;
+  delivery_failed_at: string | null;
+  patient_id: string;
+  given_name: string;
+  family_name: string;
+  consent: boolean;
+}
+
+/**
+ * The visits of the actor's practice with these ids (locked for update inside a transaction
+ * when `lock`), or a 404 naming none of them when any is unknown — nothing is changed then.
+ */
+export async function visitsOfPractice(em: EntityManager, practiceId: string, ids: readonly string[], lock = false): Promise<DeskVisit[]> {
+  const knex = knexOf(em);
+  const q = knex('recall_visit as v')
+    .join('treatment_case as c', 'c.id', 'v.case_id')
+    .join('patient as p', 'p.id', 'c.patient_id')
+    .where('v.practice_id', practiceId)
+    .whereIn('v.id', ids)
+    .select(
+      'v.id',
+      'v.case_id',
+      'v.milestone',
+      'v.status',
+      'v.due_date',
+      'v.window_start',
+      'v.window_end',
+      'v.booked_date',
+      'v.proposed_start',
+      'v.delivery_failed_at',
+      'p.id as patient_id',
+      'p.given_name',
+      'p.family_name',
+      knex.raw(`(p.recall_contact and p.recall_channel = 'email' and p.email is not null and p.email <> '' and p.archived_at is null and c.archived_at is null) as consent`),
+    );
+  if (lock) q.forUpdate('v');
+  const rows = (await q) as DeskVisit[];
+  if (rows.length !== ids.length) {
+    throw new NotFoundError(ids.length === 1 ? 'No such visit.' : 'Some of these visits do not exist in this practice. Nothing was changed.');
+  }
+  const order = new Map(ids.map((id, i) => [id, i]));
+  return rows.sort((a, b) => order.get(a.id)! - order.get(b.id)!);
+}
+
+export interface LogInput {
+  practiceId: string;
+  visitId: string;
+  kind: ContactKind;
+  by: ContactBy;
+  userId?: string | null;
+  reminderId?: string | null;
+  step?: ReminderStep | null;
+  answer?: ReplyAnswer | null;
+  reached?: boolean | null;
+  fromStatus?: VisitStatus | null;
+  toStatus?: VisitStatus | null;
+  note?: string | null;
+  at?: Date;
+}
+
+/** Appends contact-log entries (in the caller's transaction). */
+export async function logContact(em: EntityManager | Knex, entries: readonly LogInput[]): Promise<void> {
+  if (!entries.length) return;
+  const knex = 'getKnex' in em ? knexOf(em as EntityManager) : (em as Knex);
+  const now = Date.now();
+  await knex('contact_log_entry').insert(
+    entries.map((e, i) => ({
+      id: randomUUID(),
+      practice_id: e.practiceId,
+      visit_id: e.visitId,
+      // Entries written together keep their order (a reply, then the status change it caused).
+      at: e.at ?? new Date(now + i),
+      kind: e.kind,
+      by: e.by,
+      user_id: e.userId ?? null,
+      reminder_id: e.reminderId ?? null,
+      step: e.step ?? null,
+      answer: e.answer ?? null,
+      reached: e.reached ?? null,
+      from_status: e.fromStatus ?? null,
+      to_status: e.toStatus ?? null,
+      note: e.note ? e.note.slice(0, 1000) : null,
+    })),
+  );
+}
+
+/** Sets a visit's status (and who/when) with raw SQL in the caller's transaction. */
+export async function setVisitStatus(em: EntityManager, visitId: string, to: VisitStatus, userId: string | null, extra: Record<string, unknown> = {}) {
+  const now = new Date();
+  await knexOf(em)('recall_visit')
+    .where({ id: visitId })
+    .update({
+      status: to,
+      status_changed_at: now,
+      status_changed_by_id: userId,
+      updated_at: now,
+      ...(to === 'invited' || to === 'confirmed' ? { reinvite_needed: false } : {}),
+      ...extra,
+    });
+}
+
+/** The calendar date of an instant in `timeZone`. */
+export function dateIn(instant: Date, timeZone: string): string {
+  return todayIn(timeZone, instant);
+}
+
+export function iso(value: string | Date | null | undefined): string | null {
+  if (value === null || value === undefined) return null;
+  return (value instanceof Date ? value : new Date(value)).toISOString();
+}
