@@ -105,18 +105,8 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
   }
   const ev = radixSort(buf.subarray(0, nev), undefined, true).keys;
   const ce = radixSort(buf.subarray(nev), undefined, true).keys;
-  const ne = ev.length;
-  const nc = ce.length;
-  // count the distinct times first, so the rows array is made at its size
-  let distinct = 0;
-  for (let a = 0, b = 0; a < ne || b < nc; distinct++) {
-    const t = a < ne && (b >= nc || ev[a] <= ce[b]) ? ev[a] : ce[b];
-    while (a < ne && ev[a] === t) a++;
-    while (b < nc && ce[b] === t) b++;
-  }
-  const steps: KaplanMeierStep[] = new Array<KaplanMeierStep>(distinct);
+  const steps: KaplanMeierStep[] = [];
   const bounds = new Float64Array(2);
-  let row = 0;
   let i = 0;
   let j = 0;
   let atRisk = n;
@@ -124,6 +114,8 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
   let greenwood = 0;
   let lower = 1;
   let upper = 1;
+  const ne = ev.length;
+  const nc = ce.length;
   while (i < ne || j < nc) {
     const t = i < ne && (j >= nc || ev[i] <= ce[j]) ? ev[i] : ce[j];
     let d = 0;
@@ -146,7 +138,7 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
       lower = Number.isNaN(bounds[0]) ? s : bounds[0];
       upper = Number.isNaN(bounds[1]) ? s : bounds[1];
     }
-    steps[row++] = { time: t, nRisk: atRisk, nEvent: d, nCensor: c, survival: s, lower, upper };
+    steps.push({ time: t, nRisk: atRisk, nEvent: d, nCensor: c, survival: s, lower, upper });
     atRisk -= d + c;
   }
   confTypeOf.set(steps, confType);
