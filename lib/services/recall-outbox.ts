@@ -97,20 +97,25 @@ export function openReminderQueue(
   return queue;
 }
 
-const g = globalThis as unknown as { __laminaReminderProducer?: { connection: Redis; queue: RemindersQueue } };
+const g = globalThis as unknown as { __laminaReminderProducer?: { connection: Redis; queue?: Promise<RemindersQueue> } };
 
 /**
  * The web process's producer for "send now": a fail-fast connection (lib/queue), so a desk
  * request answers at once while Redis is down (the outbox rows are kept and the next scan
- * queues them).
+ * queues them). The queue is opened only once the connection is ready (BullMQ's queue asks the
+ * server for its version when it is made, and a fail-fast connection would fail that for good).
  */
 export async function reminderProducer(): Promise<RemindersQueue> {
-  if (!g.__laminaReminderProducer) {
-    const connection = connectionForProducer(env.REDIS_URL, { name: 'web-reminders' });
-    g.__laminaReminderProducer = { connection, queue: openReminderQueue(connection, reminderQueueSettings(), { failFast: true }) };
+  const p = (g.__laminaReminderProducer ??= { connection: connectionForProducer(env.REDIS_URL, { name: 'web-reminders' }) });
+  p.queue ??= whenReady(p.connection, 3_000).then((c) => openReminderQueue(c, reminderQueueSettings(), { failFast: true }));
+  try {
+    const queue = await p.queue;
+    await whenReady(p.connection, 3_000);
+    return queue;
+  } catch (e) {
+    if (p.connection.status !== 'ready') p.queue = undefined;
+    throw e;
   }
-  await whenReady(g.__laminaReminderProducer.connection);
-  return g.__laminaReminderProducer.queue;
 }
 
 // --- the practice's calendar ---------------------------------------------------------------------

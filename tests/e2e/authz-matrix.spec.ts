@@ -57,9 +57,27 @@ const MATRIX: Row[] = [
   { route: 'api/cases/import', method: 'GET', url: () => '/api/cases/import', expect: only({ coordinator: 200, clinician: 200 }) },
   { route: 'api/cases/import', method: 'POST', url: () => '/api/cases/import', body: { csv: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: () => `/api/visits/${randomUUID()}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
+  { route: 'api/practice/settings', method: 'GET', url: () => '/api/practice/settings', expect: only({ admin: 200 }) },
+  { route: 'api/practice/settings', method: 'PATCH', url: () => '/api/practice/settings', body: {}, expect: only({ admin: 422 }) },
   { route: 'api/referrers', method: 'GET', url: () => '/api/referrers', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
   { route: 'api/referrers', method: 'POST', url: () => '/api/referrers', body: { name: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
   { route: 'api/clinicians', method: 'GET', url: () => '/api/clinicians', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
+  // Recall desk (issue 5): the coordinator works the desk; nobody else reads or changes it.
+  { route: 'api/recall/queues', method: 'GET', url: () => '/api/recall/queues', expect: only({ coordinator: 200 }) },
+  { route: 'api/recall/visits', method: 'GET', url: () => '/api/recall/visits?queue=due_soon&pageSize=5', expect: only({ coordinator: 200 }) },
+  { route: 'api/recall/visits/[id]/contact-log', method: 'GET', url: () => `/api/recall/visits/${randomUUID()}/contact-log`, expect: only({ coordinator: 404 }) },
+  { route: 'api/recall/visits/[id]/notes', method: 'POST', url: () => `/api/recall/visits/${randomUUID()}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },
+  { route: 'api/recall/send', method: 'POST', url: () => '/api/recall/send', body: { visitIds: [] }, expect: only({ coordinator: 422 }) },
+  { route: 'api/recall/book', method: 'POST', url: () => '/api/recall/book', body: { visitIds: [randomUUID()], start: 'next week', mode: 'phone' }, expect: only({ coordinator: 422 }) },
+  { route: 'api/recall/mark', method: 'POST', url: () => '/api/recall/mark', body: { visitIds: [randomUUID()], status: 'attended' }, expect: only({ coordinator: 404 }) },
+  { route: 'api/recall/rate', method: 'GET', url: () => '/api/recall/rate', expect: only({ coordinator: 200 }) },
+  { route: 'api/recall/policy', method: 'GET', url: () => '/api/recall/policy', expect: only({ coordinator: 200 }) },
+  { route: 'api/recall/policy', method: 'PUT', url: () => '/api/recall/policy', body: { invitationWeeksBefore: 0 }, expect: only({ coordinator: 422 }) },
+  // Patients' links (no account; the signed token is the credential): the same answer for everyone.
+  { route: 'api/unsubscribe/[token]', method: 'POST', url: () => '/api/unsubscribe/not-a-token', expect: everyone(400) },
+  { route: 'api/unsubscribe/[token]', method: 'GET', url: () => '/api/unsubscribe/not-a-token', expect: everyone(303) },
+  { route: 'r/[token]', method: 'GET', url: () => '/r/not-a-token?answer=confirmed', expect: everyone(200) },
+  { route: 'u/[token]', method: 'GET', url: () => '/u/not-a-token', expect: everyone(200) },
 ];
 
 function routeFiles(dir: string, base = dir): string[] {

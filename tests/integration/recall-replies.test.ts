@@ -37,7 +37,9 @@ const origin = { ip: '127.0.0.9', userAgent: 'vitest' };
 afterAll(async () => {
   transport.close();
   await services.close();
-  await (await getOrm()).close(true); // the route handler's ORM (lib/db)
+  // The route handler's ORM (lib/db, cached on globalThis): closed and forgotten, so a later file starts afresh.
+  await (await getOrm()).close(true);
+  delete (globalThis as { __laminaOrm?: unknown }).__laminaOrm;
 });
 beforeEach(async () => {
   await resetData(services.orm, services.redis);

@@ -1,0 +1,528 @@
+import 'server-only';
+import { z } from 'zod';
+import type { Knex } from '@mikro-orm/knex';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { assertCan, type Actor } from '@/lib/auth/actor';
+import {
+  REMINDER_STEP_LABELS,
+  VISIT_STATUS_LABELS,
+  canTransition,
+  nextStepNow,
+  quietDelayMs,
+  type ReminderStep,
+  type VisitStatus,
+} from '@/lib/recall';
+import { addDaysTo } from '@/lib/registry/calendar-date';
+import { Paging } from '@/lib/schemas/paging';
+import { formatTooth, toothNotationLabel } from '@/lib/teeth';
+import type { ReminderStatus } from '@/entities';
+import { audit } from './audit';
+import { ConflictError } from './errors';
+import { parseInput } from './parse';
+import { dateIn, iso, logContact, recallSettings, setVisitStatus, visitsOfPractice, VisitIds, type DeskVisit, type RecallSettings } from './recall-common';
+import {
+  enqueueOutbox,
+  insertOutboxRows,
+  knexOf,
+  reminderHistory,
+  reminderProducer,
+  retryFailedReminder,
+  type OutboxEntry,
+} from './recall-outbox';
+import { displayName, type Page } from './registry-common';
+import { refreshNextVisit } from './visits';
+
+/**
+ * The recall desk: the coordinator's work queues, their rows and the bulk actions.
+ *
+ * The queues (T = today on the practice's calendar; archived patients and cases are left out).
+ * A visit may sit in more than one queue; each count is the number of visits in that queue.
+ *
+ *   due_soon         still to arrange — planned or invited — and due within the next 30 days:
+ *                    T ≤ due date ≤ T + 30
+ *   overdue          open — planned, invited or confirmed — with the due date passed (due date < T)
+ *                    but the window still open; when the window ends the scan marks it missed
+ *   awaiting_reply   invited, at least one reminder sent, and no patient reply since the latest
+ *                    reminder was sent
+ *   replied          not final (not attended, cancelled or closed), and the latest contact-log entry
+ *                    is the patient's (their reply, or the status change it made): nobody at the
+ *                    practice has acted on the answer yet. A call note, a booking, a status change
+ *                    by the desk or a new message takes the visit out of this queue
+ *   delivery_failed  a reminder could not be delivered after its last attempt (the visit's
+ *                    deliveryFailedAt), and the visit is not final; a later delivered message or
+ *                    any desk action on the visit clears it
+ *   missed           missed: the window ended without an attendance on record (not yet closed as
+ *                    lost to follow-up)
+ */
+export const DESK_QUEUES = ['due_soon', 'overdue', 'awaiting_reply', 'replied', 'delivery_failed', 'missed'] as const;
+export type DeskQueue = (typeof DESK_QUEUES)[number];
+
+export const DESK_QUEUE_INFO: Record<DeskQueue, { label: string; definition: string }> = {
+  due_soon: { label: 'Due in the next 30 days', definition: 'Planned or invited, due between today and 30 days from now.' },
+  overdue: { label: 'Overdue', definition: 'Planned, invited or confirmed, due date passed, window still open.' },
+  awaiting_reply: { label: 'Awaiting reply', definition: 'Invited, a reminder sent, no reply since the latest one.' },
+  replied: { label: 'Replied', definition: 'The patient answered and nobody has acted on the answer yet.' },
+  delivery_failed: { label: 'Delivery failed', definition: 'A reminder could not be delivered after every attempt: call the patient.' },
+  missed: { label: 'Missed', definition: 'The window ended without an attendance on record.' },
+};
+
+const FINAL = `('attended', 'cancelled', 'closed')`;
+const LATEST_BY = `(select e.by from contact_log_entry e where e.visit_id = v.id order by e.at desc, e.id desc limit 1)`;
+
+/** The SQL condition of each queue on recall_visit v (bindings: today, today + 30). */
+function queueCondition(queue: DeskQueue, today: string): { sql: string; bindings: string[] } {
+  switch (queue) {
+    case 'due_soon':
+      return { sql: `v.status in ('planned', 'invited') and v.due_date between ? and ?`, bindings: [today, addDaysTo(today, 30)] };
+    case 'overdue':
+      return { sql: `v.status in ('planned', 'invited', 'confirmed') and v.due_date < ?`, bindings: [today] };
+    case 'awaiting_reply':
+      return {
+        sql: `v.status = 'invited' and exists (select 1 from reminder r where r.visit_id = v.id and r.status = 'sent'
+                and not exists (select 1 from contact_log_entry e where e.visit_id = v.id and e.kind = 'reply' and e.at >= r.sent_at))`,
+        bindings: [],
+      };
+    case 'replied':
+      return { sql: `v.status not in ${FINAL} and ${LATEST_BY} = 'patient'`, bindings: [] };
+    case 'delivery_failed':
+      return { sql: `v.delivery_failed_at is not null and v.status not in ${FINAL}`, bindings: [] };
+    case 'missed':
+      return { sql: `v.status = 'missed'`, bindings: [] };
+  }
+}
+
+function deskBase(knex: Knex, practiceId: string) {
+  return knex('recall_visit as v')
+    .join('treatment_case as c', 'c.id', 'v.case_id')
+    .join('patient as p', 'p.id', 'c.patient_id')
+    .where('v.practice_id', practiceId)
+    .whereNull('c.archived_at')
+    .whereNull('p.archived_at');
+}
+
+// --- reads ----------------------------------------------------------------------------------------
+
+export interface DeskQueueCount {
+  key: DeskQueue;
+  label: string;
+  definition: string;
+  count: number;
+}
+
+export interface DeskQueues {
+  today: string;
+  queues: DeskQueueCount[];
+}
+
+/** The six work queues with their counts. */
+export async function deskQueues(em: EntityManager, actor: Actor): Promise<DeskQueues> {
+  assertCan(actor, 'recall.manage');
+  const s = await recallSettings(em, actor.practiceId);
+  const knex = knexOf(em);
+  const parts = DESK_QUEUES.map((q) => queueCondition(q, s.today));
+  const row = (await deskBase(knex, actor.practiceId)
+    .first(parts.map((c, i) => knex.raw(`count(*) filter (where ${c.sql}) as "${DESK_QUEUES[i]}"`, c.bindings)))) as Record<DeskQueue, string>;
+  await audit(em, actor, { action: 'recall.queues_read' });
+  return {
+    today: s.today,
+    queues: DESK_QUEUES.map((key) => ({ key, ...DESK_QUEUE_INFO[key], count: Number(row?.[key] ?? 0) })),
+  };
+}
+
+export const DeskRowsQuery = Paging.extend({
+  queue: z.enum(DESK_QUEUES, { error: `queue is one of ${DESK_QUEUES.join(', ')}.` }),
+  sort: z.enum(['dueDate', 'patient', 'lastContact'], { error: 'sort is dueDate, patient or lastContact.' }).default('dueDate'),
+  dir: z.enum(['asc', 'desc'], { error: 'dir is asc or desc.' }).default('asc'),
+});
+export type DeskRowsQuery = z.input<typeof DeskRowsQuery>;
+
+export interface DeskRow {
+  visitId: string;
+  caseId: string;
+  patient: { id: string; name: string; registryNumber: string; phone: string | null; canEmail: boolean };
+  /** The tooth in the practice's notation. */
+  tooth: string;
+  toothFdi: number;
+  milestone: number;
+  dueDate: string;
+  windowStart: string;
+  windowEnd: string;
+  status: VisitStatus;
+  statusLabel: string;
+  bookedDate: string | null;
+  /** A proposed appointment time (ISO), carried by the next reminder as a calendar file. */
+  proposedStart: string | null;
+  deliveryFailed: boolean;
+  lastContact: { at: string; kind: string; by: string; answer: string | null; note: string | null } | null;
+  reminders: { step: ReminderStep; stepLabel: string; status: ReminderStatus; sentAt: string | null }[];
+  /** What "send now" would send (lib/recall nextStepNow), or null. */
+  nextStep: ReminderStep | null;
+}
+
+export interface DeskRowsPage extends Page<DeskRow> {
+  queue: DeskQueue;
+  today: string;
+  toothLabel: string;
+}
+
+const SORTS = {
+  dueDate: ['v.due_date', 'v.id'],
+  patient: ['p.family_name', 'p.given_name', 'v.due_date', 'v.id'],
+  lastContact: ['last_contact_at', 'v.id'],
+} as const;
+
+/** One queue's rows, paged. Audited as a read of the patients' records. */
+export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown): Promise<DeskRowsPage> {
+  assertCan(actor, 'recall.manage');
+  const q = parseInput(DeskRowsQuery, raw);
+  const s = await recallSettings(em, actor.practiceId);
+  const knex = knexOf(em);
+  const cond = queueCondition(q.queue, s.today);
+  const base = () => deskBase(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings);
+  const lastContact = knex.raw(
+    `(select max(e.at) from contact_log_entry e where e.visit_id = v.id and e.kind in ('message_sent', 'reply', 'call', 'appointment')) as last_contact_at`,
+  );
+  const [countRow, ids] = await Promise.all([
+    base().count<{ n: string }[]>('* as n'),
+    base()
+      .select('v.id', lastContact)
+      .orderBy(SORTS[q.sort].map((column) => ({ column, order: q.dir, nulls: q.dir === 'asc' ? 'first' : 'last' })))
+      .limit(q.pageSize)
+      .offset((q.page - 1) * q.pageSize) as Promise<{ id: string }[]>,
+  ]);
+  const rows = await deskRowsByIds(em, s, ids.map((r) => r.id));
+  await audit(em, actor, { action: 'recall.rows_read', detail: { queue: q.queue, page: q.page, visitIds: rows.map((r) => r.visitId) } });
+  return {
+    rows,
+    total: Number(countRow[0]?.n ?? 0),
+    page: q.page,
+    pageSize: q.pageSize,
+    queue: q.queue,
+    today: s.today,
+    toothLabel: toothNotationLabel(s.toothNotation),
+  };
+}
+
+/** Desk rows for visit ids, in that order (no permission check, no audit). */
+export async function deskRowsByIds(em: EntityManager, s: RecallSettings, ids: readonly string[]): Promise<DeskRow[]> {
+  if (!ids.length) return [];
+  const knex = knexOf(em);
+  const [details, history, last] = await Promise.all([
+    knex('recall_visit as v')
+      .join('treatment_case as c', 'c.id', 'v.case_id')
+      .join('patient as p', 'p.id', 'c.patient_id')
+      .whereIn('v.id', ids)
+      .select(
+        'v.id',
+        'v.case_id',
+        'v.milestone',
+        'v.due_date',
+        'v.window_start',
+        'v.window_end',
+        'v.status',
+        'v.booked_date',
+        'v.proposed_start',
+        'v.delivery_failed_at',
+        'c.tooth',
+        'p.id as patient_id',
+        'p.given_name',
+        'p.family_name',
+        'p.registry_number',
+        'p.phone',
+        knex.raw(`(p.recall_contact and p.recall_channel = 'email' and p.email is not null and p.email <> '' and p.archived_at is null and c.archived_at is null) as consent`),
+      ) as Promise<Record<string, unknown>[]>,
+    knex('reminder').whereIn('visit_id', ids).orderBy('queued_at').select('visit_id', 'step', 'status', 'sent_at', 'queued_on', 'sent_on') as Promise<
+      { visit_id: string; step: ReminderStep; status: ReminderStatus; sent_at: string | null; queued_on: string; sent_on: string | null }[]
+    >,
+    knex
+      .select('*')
+      .from(
+        knex.raw(
+          `(select distinct on (e.visit_id) e.visit_id, e.at, e.kind, e.by, e.answer, e.note from contact_log_entry e
+             where e.visit_id = any(?::uuid[]) and e.kind in ('message_sent', 'reply', 'call', 'appointment')
+             order by e.visit_id, e.at desc, e.id desc) as l`,
+          [[...ids]],
+        ),
+      ) as Promise<{ visit_id: string; at: string; kind: string; by: string; answer: string | null; note: string | null }[]>,
+  ]);
+  const byId = new Map(details.map((d) => [d.id as string, d]));
+  const lastOf = new Map(last.map((l) => [l.visit_id, l]));
+  return ids.flatMap((id) => {
+    const d = byId.get(id);
+    if (!d) return [];
+    const reminders = history.filter((h) => h.visit_id === id);
+    const status = d.status as VisitStatus;
+    const l = lastOf.get(id);
+    const fdi = Number(d.tooth);
+    return [
+      {
+        visitId: id,
+        caseId: d.case_id as string,
+        patient: {
+          id: d.patient_id as string,
+          name: displayName({ givenName: d.given_name as string, familyName: d.family_name as string }),
+          registryNumber: d.registry_number as string,
+          phone: (d.phone as string | null) ?? null,
+          canEmail: Boolean(d.consent),
+        },
+        tooth: formatTooth(fdi, s.toothNotation),
+        toothFdi: fdi,
+        milestone: Number(d.milestone),
+        dueDate: d.due_date as string,
+        windowStart: d.window_start as string,
+        windowEnd: d.window_end as string,
+        status,
+        statusLabel: VISIT_STATUS_LABELS[status],
+        bookedDate: (d.booked_date as string | null) ?? null,
+        proposedStart: iso(d.proposed_start as string | null),
+        deliveryFailed: d.delivery_failed_at !== null,
+        lastContact: l ? { at: iso(l.at)!, kind: l.kind, by: l.by, answer: l.answer, note: l.note } : null,
+        reminders: reminders.map((r) => ({ step: r.step, stepLabel: REMINDER_STEP_LABELS[r.step], status: r.status, sentAt: iso(r.sent_at) })),
+        nextStep: nextStepNow(
+          { id, status, dueDate: d.due_date as string, windowEnd: d.window_end as string, recallContactConsent: Boolean(d.consent) },
+          reminders.map((r) => ({ step: r.step, on: r.sent_on ?? r.queued_on })),
+          s.reminderPolicy,
+          s.today,
+        ),
+      } satisfies DeskRow,
+    ];
+  });
+}
+
+// --- actions --------------------------------------------------------------------------------------
+
+export interface ActionResult {
+  visitId: string;
+  ok: boolean;
+  /** queued | retrying | proposed | booked | marked | refused */
+  outcome: string;
+  step?: ReminderStep;
+  message: string;
+}
+
+export interface ActionResponse {
+  results: ActionResult[];
+  /** True when Redis did not answer: the reminders are saved and go out with the next scan. */
+  deferred?: boolean;
+}
+
+export const SendNowInput = z.object({ visitIds: VisitIds });
+
+/** "Send now" adds nothing for a visit whose last reminder went out less than this long ago. */
+const RECENT_MS = 15 * 60_000;
+
+/** Why "send now" has nothing to send for a visit. */
+function nothingToSend(v: DeskVisit, today: string): string {
+  if (!v.consent) return 'The patient has not agreed to recall contact by e-mail (or no address is on file). Call instead.';
+  if (!['planned', 'invited'].includes(v.status)) return `The visit is ${VISIT_STATUS_LABELS[v.status].toLowerCase()}: no invitation is needed.`;
+  if (v.window_end < today) return 'The visit’s window has ended.';
+  return 'Every reminder step has already been sent for this visit.';
+}
+
+/**
+ * "Send now" for one visit or a selection: each gets its next reminder step at once (lib/recall
+ * nextStepNow: the invitation, else the second invitation, else the last notice), queued the same
+ * idempotent way as the scan — outbox row first (unique per visit and step), then the job under
+ * its stable id. A visit whose last reminder failed gets that same reminder again. A visit with a
+ * reminder still on its way, or sent in the last 15 minutes, gets nothing (a double click sends
+ * one message). Unknown ids → 404 and nothing queued; visits with nothing to send are reported,
+ * not errors.
+ */
+export async function sendRemindersNow(em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> {
+  assertCan(actor, 'recall.manage');
+  const input = parseInput(SendNowInput, raw);
+  const s = await recallSettings(em, actor.practiceId);
+  const visits = await visitsOfPractice(em, actor.practiceId, input.visitIds);
+  const history = await reminderHistory(em, input.visitIds);
+  const failedRows = (await knexOf(em)('reminder')
+    .whereIn('visit_id', input.visitIds)
+    .where('status', 'failed')
+    .select('id', 'visit_id', 'step', 'queued_on')) as { id: string; visit_id: string; step: ReminderStep; queued_on: string }[];
+  // A double click must not send two steps: nothing new while one is on its way or just went out.
+  const busy = new Set(
+    ((await knexOf(em)('reminder')
+      .whereIn('visit_id', input.visitIds)
+      .where((b) => b.whereIn('status', ['queued', 'sending']).orWhere('sent_at', '>', new Date(Date.now() - RECENT_MS)))
+      .select('visit_id')) as { visit_id: string }[]).map((r) => r.visit_id),
+  );
+
+  const results: ActionResult[] = [];
+  const entries: OutboxEntry[] = [];
+  const retries: (OutboxEntry & { id: string })[] = [];
+  for (const v of visits) {
+    const canContact = v.consent && ['planned', 'invited'].includes(v.status) && v.window_end >= s.today;
+    if (busy.has(v.id)) {
+      results.push({ visitId: v.id, ok: false, outcome: 'refused', message: 'A reminder for this visit is on its way or went out a few minutes ago.' });
+      continue;
+    }
+    const failed = failedRows.find((f) => f.visit_id === v.id);
+    if (failed && canContact) {
+      retries.push({ id: failed.id, practiceId: actor.practiceId, visitId: v.id, step: failed.step, origin: 'desk', requestedBy: actor.userId, day: s.today });
+      continue;
+    }
+    const step = nextStepNow(
+      { id: v.id, status: v.status, dueDate: v.due_date, windowEnd: v.window_end, recallContactConsent: v.consent },
+      history.get(v.id) ?? [],
+      s.reminderPolicy,
+      s.today,
+    );
+    if (!step) results.push({ visitId: v.id, ok: false, outcome: 'refused', message: nothingToSend(v, s.today) });
+    else entries.push({ practiceId: actor.practiceId, visitId: v.id, step, origin: 'desk', requestedBy: actor.userId, day: s.today });
+  }
+
+  const inserted = await insertOutboxRows(em, entries);
+  for (const e of entries) {
+    const isNew = inserted.some((r) => r.visitId === e.visitId && r.step === e.step);
+    results.push({
+      visitId: e.visitId,
+      ok: isNew,
+      outcome: isNew ? 'queued' : 'refused',
+      step: e.step,
+      message: isNew ? `${REMINDER_STEP_LABELS[e.step]} queued.` : `${REMINDER_STEP_LABELS[e.step]} is already queued.`,
+    });
+  }
+  let deferred = false;
+  if (inserted.length || retries.length) {
+    try {
+      const queue = await reminderProducer();
+      await enqueueOutbox(queue, inserted, quietDelayMs(s.reminderPolicy.quietHours, new Date(), s.timeZone));
+      for (const r of retries) {
+        const ok = await retryFailedReminder(em, queue, { ...r, status: 'failed' }, actor.userId);
+        results.push({ visitId: r.visitId, ok, outcome: ok ? 'retrying' : 'refused', step: r.step, message: ok ? `${REMINDER_STEP_LABELS[r.step]} sent again.` : 'Already being retried.' });
+      }
+    } catch (e) {
+      // Redis is not answering: the new rows stay queued in the outbox and the next scan queues them.
+      console.error('[recall-desk] could not queue reminders now:', (e as Error).message);
+      deferred = true;
+      for (const r of retries) results.push({ visitId: r.visitId, ok: false, outcome: 'refused', step: r.step, message: 'The queue is not answering; try again shortly.' });
+    }
+  }
+  const order = new Map(input.visitIds.map((id, i) => [id, i]));
+  results.sort((a, b) => order.get(a.visitId)! - order.get(b.visitId)!);
+  await audit(em, actor, {
+    action: 'recall.send_now',
+    detail: { visitIds: input.visitIds, queued: results.filter((r) => r.ok).map((r) => ({ visitId: r.visitId, step: r.step })), deferred },
+  });
+  return deferred ? { results, deferred } : { results };
+}
+
+export const BookInput = z.object({
+  visitIds: VisitIds,
+  /** The appointment, an ISO 8601 date-time with offset (e.g. 2026-03-03T09:30:00Z). */
+  start: z.iso.datetime({ offset: true, error: 'Give the appointment as a date and time, e.g. 2026-03-03T09:30:00Z.' }),
+  /** propose: the next reminder carries it (with a calendar file); phone: agreed by phone, the visit is confirmed. */
+  mode: z.enum(['propose', 'phone'], { error: 'mode is propose or phone.' }),
+  /** With propose: queue the next reminder now. */
+  sendNow: z.boolean().default(false),
+  note: z.preprocess((v) => (v === '' ? undefined : v), z.string().trim().max(1000, 'At most 1000 characters.').optional()),
+});
+
+/**
+ * Books a date and time. `propose`: the visit keeps its status and the time is proposed — the next
+ * reminder (at once with `sendNow`) carries it with a calendar file; the patient confirms through
+ * the link. `phone`: agreed with the patient by phone — the visit becomes confirmed with that date
+ * (allowed from planned, invited, confirmed, missed and declined). Either way a contact-log entry
+ * is written and a delivery-failed flag is cleared.
+ */
+export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> {
+  assertCan(actor, 'recall.manage');
+  const input = parseInput(BookInput, raw);
+  const start = new Date(input.start);
+  const s = await recallSettings(em, actor.practiceId);
+  const day = dateIn(start, s.timeZone);
+  if (day < s.today) throw new ConflictError('The appointment is in the past.');
+  const words = new Intl.DateTimeFormat('en-GB', { timeZone: s.timeZone, dateStyle: 'full', timeStyle: 'short' }).format(start);
+  const results: ActionResult[] = [];
+  const toSend: string[] = [];
+  await em.transactional(async (tx) => {
+    const visits = await visitsOfPractice(tx, actor.practiceId, input.visitIds, true);
+    const changed: string[] = [];
+    for (const v of visits) {
+      const base = { practiceId: actor.practiceId, visitId: v.id, by: 'user' as const, userId: actor.userId };
+      if (input.mode === 'propose') {
+        if (!['planned', 'invited'].includes(v.status)) {
+          results.push({ visitId: v.id, ok: false, outcome: 'refused', message: `The visit is ${VISIT_STATUS_LABELS[v.status].toLowerCase()}: book it by phone instead.` });
+          continue;
+        }
+        await knexOf(tx)('recall_visit').where({ id: v.id }).update({ proposed_start: start, delivery_failed_at: null, updated_at: new Date() });
+        await logContact(tx, [{ ...base, kind: 'appointment', note: `Proposed ${words}.${input.note ? ` ${input.note}` : ''}` }]);
+        results.push({ visitId: v.id, ok: true, outcome: 'proposed', message: `Proposed ${words}.` });
+        if (input.sendNow) toSend.push(v.id);
+      } else {
+        if (v.status !== 'confirmed' && !canTransition(v.status, 'confirmed')) {
+          results.push({ visitId: v.id, ok: false, outcome: 'refused', message: `A visit that is ${VISIT_STATUS_LABELS[v.status].toLowerCase()} cannot be booked.` });
+          continue;
+        }
+        const extra = { booked_date: day, proposed_start: start, delivery_failed_at: null };
+        if (v.status === 'confirmed') await knexOf(tx)('recall_visit').where({ id: v.id }).update({ ...extra, updated_at: new Date() });
+        else await setVisitStatus(tx, v.id, 'confirmed', actor.userId, extra);
+        await logContact(tx, [
+          { ...base, kind: 'appointment', note: `Booked by phone for ${words}.${input.note ? ` ${input.note}` : ''}` },
+          ...(v.status !== 'confirmed' ? [{ ...base, kind: 'status_change' as const, fromStatus: v.status, toStatus: 'confirmed' as const }] : []),
+        ]);
+        changed.push(v.case_id);
+        results.push({ visitId: v.id, ok: true, outcome: 'booked', message: `Booked for ${words}; the visit is confirmed.` });
+      }
+    }
+    await refreshNextVisit(tx, [...new Set(changed)]);
+  });
+  await audit(em, actor, {
+    action: 'recall.booked',
+    detail: { mode: input.mode, start: start.toISOString(), visitIds: results.filter((r) => r.ok).map((r) => r.visitId) },
+  });
+  let deferred: boolean | undefined;
+  if (toSend.length) {
+    const sent = await sendRemindersNow(em, actor, { visitIds: toSend });
+    deferred = sent.deferred;
+    for (const r of sent.results) {
+      const mine = results.find((x) => x.visitId === r.visitId);
+      if (mine) mine.message += ` ${r.message}`;
+    }
+  }
+  return deferred ? { results, deferred } : { results };
+}
+
+export const MarkInput = z.object({
+  visitIds: VisitIds,
+  status: z.enum(['attended', 'missed'], { error: 'status is attended or missed.' }),
+  note: z.preprocess((v) => (v === '' ? undefined : v), z.string().trim().max(1000, 'At most 1000 characters.').optional()),
+});
+
+/**
+ * Marks visits attended or missed, each only along lib/recall VISIT_TRANSITIONS (a visit that may
+ * not make the move is reported and left as it is). A status-change entry goes to each contact
+ * log; a delivery-failed flag is cleared.
+ */
+export async function markVisits(em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> {
+  assertCan(actor, 'recall.manage');
+  const input = parseInput(MarkInput, raw);
+  const results: ActionResult[] = [];
+  await em.transactional(async (tx) => {
+    const visits = await visitsOfPractice(tx, actor.practiceId, input.visitIds, true);
+    const cases: string[] = [];
+    for (const v of visits) {
+      if (v.status === input.status) {
+        results.push({ visitId: v.id, ok: true, outcome: 'marked', message: `Already ${VISIT_STATUS_LABELS[v.status].toLowerCase()}.` });
+        continue;
+      }
+      if (!canTransition(v.status, input.status)) {
+        results.push({
+          visitId: v.id,
+          ok: false,
+          outcome: 'refused',
+          message: `A visit that is ${VISIT_STATUS_LABELS[v.status].toLowerCase()} cannot become ${VISIT_STATUS_LABELS[input.status].toLowerCase()}.`,
+        });
+        continue;
+      }
+      await setVisitStatus(tx, v.id, input.status, actor.userId, { delivery_failed_at: null });
+      await logContact(tx, [
+        { practiceId: actor.practiceId, visitId: v.id, kind: 'status_change', by: 'user', userId: actor.userId, fromStatus: v.status, toStatus: input.status, note: input.note ?? null },
+      ]);
+      cases.push(v.case_id);
+      results.push({ visitId: v.id, ok: true, outcome: 'marked', message: `Marked ${VISIT_STATUS_LABELS[input.status].toLowerCase()}.` });
+    }
+    await refreshNextVisit(tx, [...new Set(cases)]);
+  });
+  await audit(em, actor, { action: 'recall.marked', detail: { status: input.status, visitIds: results.filter((r) => r.ok).map((r) => r.visitId) } });
+  return { results };
+}

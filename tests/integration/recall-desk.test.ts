@@ -1,0 +1,246 @@
+import { randomBytes, randomUUID } from 'node:crypto';
+import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import { reminderJobId } from '@/lib/recall/reminders';
+import { addDaysTo } from '@/lib/registry/calendar-date';
+import { deskQueues, listDeskRows, sendRemindersNow, bookVisits, markVisits } from '@/lib/services/recall-desk';
+import { addCallNote, listContactLog } from '@/lib/services/recall-contact';
+import { followUpRateReport } from '@/lib/services/recall-rate';
+import { getReminderPolicy, updateReminderPolicy } from '@/lib/services/recall-policy';
+import { insertOutboxRows, reminderProducer } from '@/lib/services/recall-outbox';
+import { todayIn } from '@/lib/services/registry-common';
+import { ForbiddenError, NotFoundError, ValidationError } from '@/lib/services/errors';
+import { makeRegistryPractice, openServices, resetData } from '../support/db';
+import { seedVisits, type VisitSpec } from './recall-fixtures';
+
+/**
+ * The desk services the recall-desk screen is built on: queues and their counts, rows, send now,
+ * book, mark attended / missed, contact log and call notes, follow-up rate, reminder policy;
+ * permissions and audit events.
+ */
+process.env.QUEUE_PREFIX = `lamina-test-desk-${randomBytes(3).toString('hex')}`;
+const services = await openServices();
+const knex = () => services.em().getKnex();
+const today = todayIn('Europe/London');
+
+beforeAll(async () => {
+  await (await reminderProducer()).obliterate({ force: true });
+});
+afterAll(async () => {
+  const queue = await reminderProducer();
+  await queue.obliterate({ force: true });
+  await queue.close();
+  await services.close();
+});
+beforeEach(() => resetData(services.orm, services.redis));
+
+async function world(specs: VisitSpec[]) {
+  const p = await makeRegistryPractice(services.em(), `desk${randomBytes(3).toString('hex')}`);
+  const v = await seedVisits(services.em(), p.practice.id, p.clinician.userId, today, specs, 'd');
+  return { ...p, v, id: (i: number) => v[i]!.visitId };
+}
+
+async function sent(practiceId: string, visitId: string, step: 'invitation' | 'second_invitation', daysAgo: number) {
+  const [row] = await insertOutboxRows(services.em(), [{ practiceId, visitId, step, origin: 'scan', day: addDaysTo(today, -daysAgo) }]);
+  const at = new Date(Date.now() - daysAgo * 86_400_000);
+  await knex()('reminder').where({ id: row!.id }).update({ status: 'sent', sent_at: at, sent_on: addDaysTo(today, -daysAgo), message_id: `<reminder-${row!.id}@lamina.invalid>` });
+  await knex()('contact_log_entry').insert({ id: randomUUID(), practice_id: practiceId, visit_id: visitId, at, kind: 'message_sent', by: 'system', reminder_id: row!.id, step });
+  return row!;
+}
+
+const DESK = [
+  { dueIn: 10 }, // 0 due soon
+  { dueIn: 20, status: 'invited' }, // 1 due soon, awaiting reply
+  { dueIn: -5, status: 'invited' }, // 2 overdue, replied (asked for another time)
+  { dueIn: -3, status: 'confirmed' }, // 3 overdue
+  { dueIn: -200, status: 'missed', windowAfter: 120 }, // 4 missed
+  { dueIn: 11 }, // 5 due soon, delivery failed
+  { dueIn: -30, status: 'attended' }, // 6 nothing
+  { dueIn: 40 }, // 7 nothing yet
+  { dueIn: 10, patientArchived: true }, // 8 archived: nowhere
+] satisfies VisitSpec[];
+
+async function desk() {
+  const w = await world(DESK);
+  await sent(w.practice.id, w.id(1), 'invitation', 3);
+  await sent(w.practice.id, w.id(2), 'invitation', 12);
+  await knex()('contact_log_entry').insert({ id: randomUUID(), practice_id: w.practice.id, visit_id: w.id(2), at: new Date(Date.now() - 86_400_000), kind: 'reply', by: 'patient', answer: 'another_time', note: 'Mornings, please.' });
+  const failed = await sent(w.practice.id, w.id(5), 'invitation', 1);
+  await knex()('reminder').where({ id: failed.id }).update({ status: 'failed', message_id: null, sent_at: null, sent_on: null, last_error: '550 mailbox unavailable' });
+  await knex()('recall_visit').where({ id: w.id(5) }).update({ delivery_failed_at: new Date() });
+  return w;
+}
+
+const counts = async (actor: Parameters<typeof deskQueues>[1]) =>
+  Object.fromEntries((await deskQueues(services.em(), actor)).queues.map((q) => [q.key, q.count]));
+
+describe('desk queues', () => {
+  it('counts each queue exactly as defined', async () => {
+    const w = await desk();
+    expect(await counts(w.coordinator)).toEqual({ due_soon: 3, overdue: 2, awaiting_reply: 1, replied: 1, delivery_failed: 1, missed: 1 });
+    const q = await deskQueues(services.em(), w.coordinator);
+    expect(q.today).toBe(today);
+    expect(q.queues.every((x) => x.label && x.definition)).toBe(true);
+  });
+
+  it('pages the rows of a queue with patient, tooth, milestone, due date, status, last contact and the next step', async () => {
+    const w = await desk();
+    const page = await listDeskRows(services.em(), w.coordinator, { queue: 'due_soon', sort: 'dueDate' });
+    expect(page).toMatchObject({ total: 3, page: 1, queue: 'due_soon', toothLabel: expect.stringContaining('FDI') });
+    expect(page.rows.map((r) => r.visitId)).toEqual([w.id(0), w.id(5), w.id(1)]);
+    const [first, failed, invited] = page.rows;
+    expect(first).toMatchObject({ tooth: '36', milestone: 12, dueDate: addDaysTo(today, 10), status: 'planned', statusLabel: 'Planned', lastContact: null, nextStep: 'invitation', reminders: [] });
+    expect(first!.patient).toMatchObject({ name: 'Ashdown0, Wren0', canEmail: true });
+    expect(failed).toMatchObject({ deliveryFailed: true, reminders: [{ step: 'invitation', status: 'failed' }] });
+    expect(invited).toMatchObject({ status: 'invited', lastContact: { kind: 'message_sent', by: 'system' }, nextStep: 'second_invitation' });
+    const replied = await listDeskRows(services.em(), w.coordinator, { queue: 'replied' });
+    expect(replied.rows[0]).toMatchObject({ visitId: w.id(2), lastContact: { kind: 'reply', answer: 'another_time', note: 'Mornings, please.' } });
+    await expect(listDeskRows(services.em(), w.coordinator, { queue: 'everything' })).rejects.toBeInstanceOf(ValidationError);
+    expect(await knex()('audit_event').where({ action: 'recall.rows_read', actor_id: w.coordinator.userId }).count('* as n').first()).toMatchObject({ n: '2' });
+  });
+
+  it('only the coordinator works the desk', async () => {
+    const w = await desk();
+    for (const actor of [w.admin, w.clinician, w.auditor, w.researcher]) {
+      await expect(deskQueues(services.em(), actor)).rejects.toBeInstanceOf(ForbiddenError);
+      await expect(sendRemindersNow(services.em(), actor, { visitIds: [w.id(0)] })).rejects.toBeInstanceOf(ForbiddenError);
+      await expect(getReminderPolicy(services.em(), actor)).rejects.toBeInstanceOf(ForbiddenError);
+    }
+  });
+
+  it('another practice’s visits are unknown here', async () => {
+    const a = await desk();
+    const b = await world([{ dueIn: 10 }]);
+    await expect(sendRemindersNow(services.em(), a.coordinator, { visitIds: [b.id(0)] })).rejects.toBeInstanceOf(NotFoundError);
+    await expect(listContactLog(services.em(), a.coordinator, b.id(0))).rejects.toBeInstanceOf(NotFoundError);
+    expect(await knex()('reminder').where({ visit_id: b.id(0) }).count('* as n').first()).toMatchObject({ n: '0' });
+  });
+});
+
+describe('desk actions', () => {
+  it('send now queues each visit’s next step the idempotent way; a double click sends nothing more', async () => {
+    const w = await desk();
+    const queue = await reminderProducer();
+    const r = await sendRemindersNow(services.em(), w.coordinator, { visitIds: [w.id(0), w.id(7), w.id(4), w.id(8), w.id(1)] });
+    expect(r.results.map((x) => [x.visitId, x.outcome, x.step ?? null])).toEqual([
+      [w.id(0), 'queued', 'invitation'],
+      [w.id(7), 'queued', 'invitation'],
+      [w.id(4), 'refused', null],
+      [w.id(8), 'refused', null],
+      [w.id(1), 'queued', 'second_invitation'],
+    ]);
+    expect(r.results[2]!.message).toMatch(/missed/);
+    expect(r.results[3]!.message).toMatch(/not agreed/);
+    for (const [i, step] of [[0, 'invitation'], [7, 'invitation'], [1, 'second_invitation']] as const) {
+      expect(await queue.getJobState(reminderJobId(w.id(i), step))).not.toBe('unknown');
+      expect(await knex()('reminder').where({ visit_id: w.id(i), step }).first('status', 'origin', 'requested_by_id')).toEqual({ status: 'queued', origin: 'desk', requested_by_id: w.coordinator.userId });
+    }
+    const again = await sendRemindersNow(services.em(), w.coordinator, { visitIds: [w.id(0), w.id(7), w.id(1)] });
+    expect(again.results.every((x) => x.outcome === 'refused')).toBe(true);
+    expect(await knex()('reminder').whereIn('visit_id', [w.id(0), w.id(7), w.id(1)]).count('* as n').first()).toMatchObject({ n: '4' });
+    await expect(sendRemindersNow(services.em(), w.coordinator, { visitIds: [w.id(3), randomUUID()] })).rejects.toBeInstanceOf(NotFoundError);
+    await expect(sendRemindersNow(services.em(), w.coordinator, { visitIds: [] })).rejects.toBeInstanceOf(ValidationError);
+    expect(await knex()('audit_event').where({ action: 'recall.send_now' }).count('* as n').first()).toMatchObject({ n: '2' });
+  });
+
+  it('send now retries a failed reminder (the same step, attempts cleared)', async () => {
+    const w = await desk();
+    const r = await sendRemindersNow(services.em(), w.coordinator, { visitIds: [w.id(5)] });
+    expect(r.results).toMatchObject([{ visitId: w.id(5), ok: true, outcome: 'retrying', step: 'invitation' }]);
+    expect(await knex()('reminder').where({ visit_id: w.id(5) }).first('status', 'attempts')).toEqual({ status: 'queued', attempts: 0 });
+    expect(await (await reminderProducer()).getJobState(reminderJobId(w.id(5), 'invitation'))).toMatch(/waiting|delayed|prioritized/);
+  });
+
+  it('book: a proposed time waits for the next reminder; by phone the visit is confirmed', async () => {
+    const w = await desk();
+    const start = `${addDaysTo(today, 14)}T09:30:00Z`;
+    const proposed = await bookVisits(services.em(), w.coordinator, { visitIds: [w.id(0), w.id(3)], start, mode: 'propose' });
+    expect(proposed.results.map((x) => x.outcome)).toEqual(['proposed', 'refused']);
+    expect((await knex()('recall_visit').where({ id: w.id(0) }).first('proposed_start', 'status')).status).toBe('planned');
+    const phone = await bookVisits(services.em(), w.coordinator, { visitIds: [w.id(2), w.id(4), w.id(6)], start, mode: 'phone', note: 'Spoke to her daughter.' });
+    expect(phone.results.map((x) => x.outcome)).toEqual(['booked', 'booked', 'refused']);
+    expect(await knex()('recall_visit').where({ id: w.id(2) }).first('status', 'booked_date')).toEqual({ status: 'confirmed', booked_date: addDaysTo(today, 14) });
+    expect(await counts(w.coordinator)).toMatchObject({ replied: 0, missed: 0 });
+    await expect(bookVisits(services.em(), w.coordinator, { visitIds: [w.id(0)], start: 'soon', mode: 'phone' })).rejects.toBeInstanceOf(ValidationError);
+    const log = await listContactLog(services.em(), w.coordinator, w.id(2));
+    expect(log.entries.slice(-2).map((e) => [e.kind, e.by, e.summary])).toEqual([
+      ['appointment', 'user', 'Appointment'],
+      ['status_change', 'user', 'Status: invited → confirmed'],
+    ]);
+    expect(log.entries.at(-2)!.note).toMatch(/^Booked by phone for .*Spoke to her daughter\.$/);
+  });
+
+  it('book with sendNow: the next reminder is queued at once (and will carry the calendar file)', async () => {
+    const w = await desk();
+    const r = await bookVisits(services.em(), w.coordinator, { visitIds: [w.id(0)], start: `${addDaysTo(today, 9)}T08:00:00Z`, mode: 'propose', sendNow: true });
+    expect(r.results[0]).toMatchObject({ ok: true, outcome: 'proposed', message: expect.stringMatching(/Invitation queued/) });
+    expect(await knex()('reminder').where({ visit_id: w.id(0) }).first('step', 'status')).toEqual({ step: 'invitation', status: 'queued' });
+  });
+
+  it('mark attended or missed only along the status table', async () => {
+    const w = await desk();
+    const r = await markVisits(services.em(), w.coordinator, { visitIds: [w.id(3), w.id(6), w.id(4)], status: 'attended' });
+    expect(r.results.map((x) => x.outcome)).toEqual(['marked', 'marked', 'marked']);
+    expect(r.results[1]!.message).toBe('Already attended.');
+    const m = await markVisits(services.em(), w.coordinator, { visitIds: [w.id(6), w.id(0)], status: 'missed' });
+    expect(m.results.map((x) => [x.outcome, x.message])).toEqual([
+      ['refused', 'A visit that is attended cannot become missed.'],
+      ['marked', 'Marked missed.'],
+    ]);
+    const statuses = Object.fromEntries(((await knex()('recall_visit').select('id', 'status')) as { id: string; status: string }[]).map((x) => [x.id, x.status]));
+    expect([statuses[w.id(3)], statuses[w.id(4)], statuses[w.id(6)], statuses[w.id(0)]]).toEqual(['attended', 'attended', 'attended', 'missed']);
+    await expect(markVisits(services.em(), w.coordinator, { visitIds: [w.id(0)], status: 'closed' })).rejects.toBeInstanceOf(ValidationError);
+  });
+
+  it('a call note goes to the contact log and clears the delivery-failed flag', async () => {
+    const w = await desk();
+    await expect(addCallNote(services.em(), w.coordinator, w.id(5), { note: '' })).rejects.toBeInstanceOf(ValidationError);
+    const log = await addCallNote(services.em(), w.coordinator, w.id(5), { note: 'No answer; left a message.', reached: false });
+    expect(log.entries.at(-1)).toMatchObject({ kind: 'call', by: 'user', reached: false, note: 'No answer; left a message.', summary: 'Call — no answer', user: { id: w.coordinator.userId } });
+    expect(log.entries[0]).toMatchObject({ kind: 'message_sent', reminder: { status: 'failed', lastError: '550 mailbox unavailable' } });
+    expect(log.visit).toMatchObject({ visitId: w.id(5), deliveryFailed: false });
+    expect(await counts(w.coordinator)).toMatchObject({ delivery_failed: 0 });
+    expect(await knex()('audit_event').whereIn('action', ['recall.call_noted', 'recall.contact_log_read']).count('* as n').first()).toMatchObject({ n: '2' });
+  });
+});
+
+describe('follow-up rate and policy', () => {
+  it('attended ÷ due by milestone and month, with n and interval', async () => {
+    const month = today.slice(0, 7);
+    const w = await world([
+      { dueIn: -40, status: 'attended' },
+      { dueIn: -40, status: 'attended', milestone: 6 },
+      { dueIn: -40, status: 'missed' },
+      { dueIn: -40, status: 'cancelled' },
+      { dueIn: -2, status: 'invited' }, // pending: due, window open
+      { dueIn: 30 }, // not yet due
+    ]);
+    const r = await followUpRateReport(services.em(), w.coordinator, {});
+    expect(r.to).toBe(month);
+    expect(r.overall).toMatchObject({ due: 4, attended: 2, pending: 1 });
+    expect(r.overall.rate).toBeCloseTo(0.5);
+    expect(r.overall.interval!.lower).toBeLessThan(0.5);
+    expect(r.byMilestone.map((g) => [g.key, g.due])).toEqual([
+      [6, 1],
+      [12, 3],
+      [24, 0],
+    ]);
+    expect(r.byMonth).toHaveLength(12);
+    const excl = await followUpRateReport(services.em(), w.coordinator, { pending: 'exclude' });
+    expect(excl.overall).toMatchObject({ due: 3, attended: 2 });
+    await expect(followUpRateReport(services.em(), w.coordinator, { from: '2026-13' })).rejects.toBeInstanceOf(ValidationError);
+  });
+
+  it('the coordinator reads and changes the reminder policy; every change is audited', async () => {
+    const w = await world([]);
+    expect(await getReminderPolicy(services.em(), w.coordinator)).toMatchObject({
+      policy: { invitationWeeksBefore: 3, secondInvitationAfterDays: 10, lastNoticeDaysAfterDue: 14, lostAfterUnansweredAttempts: 3 },
+      lastNoticeOutsideWindows: [],
+    });
+    await expect(updateReminderPolicy(services.em(), w.coordinator, { invitationWeeksBefore: 0 })).rejects.toBeInstanceOf(ValidationError);
+    const changed = await updateReminderPolicy(services.em(), w.coordinator, { invitationWeeksBefore: 4, lastNoticeDaysAfterDue: 70, quietHours: { start: '20:00', end: '08:00' } });
+    expect(changed.policy).toMatchObject({ invitationWeeksBefore: 4, lastNoticeDaysAfterDue: 70, quietHours: { start: '20:00', end: '08:00' } });
+    expect(changed.lastNoticeOutsideWindows).toEqual([6]);
+    const event = await knex()('audit_event').where({ action: 'recall.policy_updated' }).first('detail', 'actor_id');
+    expect(event).toMatchObject({ actor_id: w.coordinator.userId, detail: { before: { invitationWeeksBefore: 3 }, after: { invitationWeeksBefore: 4 } } });
+  });
+});
