@@ -1,0 +1,184 @@
+/**
+ * Benchmark: 10,000 reminders end to end — visits due in PostgreSQL, the real worker process
+ * (jobs/worker.ts) scanning, queueing in Redis, rendering and sending over SMTP to the local
+ * fake — with the throughput, the worker's peak memory and the number of duplicates (must be 0).
+ *
+ * Run by scripts/bench.sh (throwaway PostgreSQL, Redis and SMTP fake; DATABASE_URL, REDIS_URL,
+ * SMTP_URL, MAILBOX_URL and LAMINA_DATA exported). BENCH_REMINDERS (default 10000) and
+ * BENCH_CONCURRENCY (default 8) change the size. Exits 1 if a reminder is missing or duplicated.
+ */
+import { spawn } from 'node:child_process';
+import { randomBytes, randomUUID } from 'node:crypto';
+import fs from 'node:fs';
+import path from 'node:path';
+import { MikroORM } from '@mikro-orm/postgresql';
+import type { Knex } from '@mikro-orm/knex';
+import config from '../../mikro-orm.config';
+import { addDaysTo, fromLocalDate } from '../../lib/registry/calendar-date';
+
+const N = Number(process.env.BENCH_REMINDERS ?? 10_000);
+const CONCURRENCY = Number(process.env.BENCH_CONCURRENCY ?? 8); // the worker's default
+const repo = path.resolve(import.meta.dirname, '../..');
+const mailboxUrl = process.env.MAILBOX_URL;
+if (!process.env.DATABASE_URL || !process.env.REDIS_URL || !process.env.SMTP_URL || !mailboxUrl) {
+  console.error('bench/reminders: run through scripts/bench.sh (needs DATABASE_URL, REDIS_URL, SMTP_URL, MAILBOX_URL)');
+  process.exit(2);
+}
+
+const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
+
+async function seed(knex: Knex, today: string): Promise<void> {
+  const now = new Date();
+  const tag = randomBytes(3).toString('hex');
+  const practiceId = randomUUID();
+  const userId = randomUUID();
+  await knex('practice').insert({ id: practiceId, name: 'Harbour Endodontics (bench)', slug: `bench-${tag}`, created_at: now });
+  await knex('app_user').insert({ id: userId, email: `clinician.${tag}@bench.invalid`, name: 'Bench Clinician', created_at: now });
+  await knex('membership').insert({ id: randomUUID(), user_id: userId, practice_id: practiceId, role: 'clinician', granted_at: now });
+  for (let start = 0; start < N; start += 1000) {
+    const patients: object[] = [];
+    const cases: object[] = [];
+    const visits: object[] = [];
+    for (let i = start; i < Math.min(N, start + 1000); i++) {
+      const patientId = randomUUID();
+      const caseId = randomUUID();
+      const due = addDaysTo(today, 1 + (i % 20));
+      patients.push({
+        id: patientId, practice_id: practiceId, registry_number: `B-${String(i).padStart(6, '0')}`, given_name: `Rowan${i}`, family_name: `Mere${i}`,
+        date_of_birth: '1968-05-17', sex: 'male', email: `rowan${i}.${tag}@patients.bench.invalid`, recall_contact: true, recall_channel: 'email',
+        research_use: false, consent_date: '2024-02-01', created_at: now, updated_at: now,
+      });
+      cases.push({
+        id: caseId, practice_id: practiceId, patient_id: patientId, tooth: 46, tooth_group: 'molar', tooth_arch: 'lower', kind: 'primary_treatment',
+        operator_id: userId, start_date: '2025-01-06', completion_date: '2025-01-20', pulpal_diagnosis: 'pulp_necrosis',
+        apical_diagnosis: 'asymptomatic_apical_periodontitis', pai_score: 3, lesion_diameter_mm: 2, source: 'demo', created_at: now, updated_at: now,
+      });
+      visits.push({
+        id: randomUUID(), practice_id: practiceId, case_id: caseId, milestone: 12, due_date: due, window_start: addDaysTo(due, -60),
+        window_end: addDaysTo(due, 120), status: 'planned', status_changed_at: now, created_at: now, updated_at: now,
+      });
+    }
+    await knex('patient').insert(patients);
+    await knex('treatment_case').insert(cases);
+    await knex('recall_visit').insert(visits);
+  }
+}
+
+function vm(pid: number): { hwm: number; rss: number } | null {
+  try {
+    const status = fs.readFileSync(`/proc/${pid}/status`, 'utf8');
+    const kb = (k: string) => Number(new RegExp(`^${k}:\\s+(\\d+) kB`, 'm').exec(status)?.[1] ?? 0);
+    return { hwm: kb('VmHWM'), rss: kb('VmRSS') };
+  } catch {
+    return null;
+  }
+}
+
+/** Message-IDs and recipients the fake stored: from its directory when known (fast), else its API. */
+async function storedMessages(): Promise<{ messageId: string | null; rcptTo: string[] }[]> {
+  const dir = process.env.LAMINA_DATA ? path.join(process.env.LAMINA_DATA, 'mail', 'messages') : null;
+  if (dir && fs.existsSync(dir)) {
+    return fs
+      .readdirSync(dir)
+      .filter((f) => f.endsWith('.json') && !f.startsWith('.'))
+      .map((f) => {
+        const m = JSON.parse(fs.readFileSync(path.join(dir, f), 'utf8')) as { messageId: string | null; envelope: { rcptTo: string[] } };
+        return { messageId: m.messageId, rcptTo: m.envelope.rcptTo };
+      });
+  }
+  const res = await fetch(new URL(`/messages?limit=10000`, mailboxUrl));
+  return ((await res.json()) as { messageId: string | null; envelope: { rcptTo: string[] } }[]).map((m) => ({ messageId: m.messageId, rcptTo: m.envelope.rcptTo }));
+}
+
+async function main() {
+  const orm = await MikroORM.init({ ...config, clientUrl: process.env.DATABASE_URL, pool: { min: 0, max: 2 } });
+  const knex = orm.em.getKnex() as Knex;
+  try {
+    const today = fromLocalDate(new Date());
+    const t0 = performance.now();
+    await seed(knex, today);
+    const seedS = (performance.now() - t0) / 1000;
+    await fetch(new URL('/messages', mailboxUrl), { method: 'DELETE' });
+
+    const child = spawn(process.execPath, ['--import', 'tsx', 'jobs/worker.ts'], {
+      cwd: repo,
+      env: {
+        ...process.env,
+        TSX_TSCONFIG_PATH: 'scripts/tsconfig.json',
+        QUEUE_PREFIX: `lamina-bench-${randomBytes(3).toString('hex')}`,
+        WORKER_CONCURRENCY: String(CONCURRENCY),
+        RECALL_SCAN_ON_START: '1',
+      },
+      stdio: ['ignore', 'pipe', 'pipe'],
+    });
+    let log = '';
+    child.stdout.on('data', (d: Buffer) => (log += d.toString()));
+    child.stderr.on('data', (d: Buffer) => (log += d.toString()));
+    const exited = new Promise<number | null>((r) => child.on('exit', (code) => r(code)));
+    const started = performance.now();
+
+    let queuedAt: number | null = null;
+    let firstSentAt: number | null = null;
+    let peak = { hwm: 0, rss: 0 };
+    const deadline = started + 30 * 60_000;
+    for (;;) {
+      const rows = (await knex('reminder').groupBy('status').select('status').count('* as n')) as { status: string; n: string }[];
+      const by = Object.fromEntries(rows.map((r) => [r.status, Number(r.n)]));
+      const total = Object.values(by).reduce((a, b) => a + b, 0);
+      if (queuedAt === null && total >= N) queuedAt = performance.now();
+      if (firstSentAt === null && (by.sent ?? 0) > 0) firstSentAt = performance.now();
+      const v = vm(child.pid!);
+      if (v) peak = { hwm: Math.max(peak.hwm, v.hwm), rss: Math.max(peak.rss, v.rss) };
+      if ((by.sent ?? 0) >= N) break;
+      if ((by.failed ?? 0) + (by.skipped ?? 0) > 0 || child.exitCode !== null || performance.now() > deadline) {
+        console.error(`bench/reminders: stopped early: ${JSON.stringify(by)}, worker exit ${child.exitCode}\n${log.slice(-3000)}`);
+        child.kill('SIGKILL');
+        process.exitCode = 1;
+        return;
+      }
+      await sleep(100);
+    }
+    const done = performance.now();
+    const final = vm(child.pid!);
+    if (final) peak = { hwm: Math.max(peak.hwm, final.hwm), rss: Math.max(peak.rss, final.rss) };
+    child.kill('SIGTERM');
+    const code = await exited;
+
+    const stored = await storedMessages();
+    const counts = new Map<string, number>();
+    for (const m of stored) counts.set(m.messageId ?? '(none)', (counts.get(m.messageId ?? '(none)') ?? 0) + 1);
+    const duplicates = [...counts.values()].reduce((n, c) => n + (c > 1 ? c - 1 : 0), 0);
+    const recipients = new Set(stored.flatMap((m) => m.rcptTo));
+    const rowsSent = Number(((await knex('reminder').where({ status: 'sent' }).count('* as n').first()) as { n: string }).n);
+    const missing = N - recipients.size;
+
+    const s = (ms: number) => `${(ms / 1000).toFixed(1)} s`;
+    const sendMs = done - (firstSentAt ?? started);
+    const table: [string, string][] = [
+      ['reminders (visits due, one practice)', N.toLocaleString('en-GB')],
+      ['worker concurrency (SMTP pool)', String(CONCURRENCY)],
+      ['seed (patients, cases, visits)', `${seedS.toFixed(1)} s`],
+      ['worker start → all 10,000 rows queued (scan)'.replace('10,000', N.toLocaleString('en-GB')), queuedAt ? s(queuedAt - started) : '—'],
+      ['first message → last message', s(sendMs)],
+      ['end to end (worker start → last message)', s(done - started)],
+      ['throughput, sending', `${(N / (sendMs / 1000)).toFixed(1)} messages/s`],
+      ['throughput, end to end', `${(N / ((done - started) / 1000)).toFixed(1)} messages/s`],
+      ['worker peak RSS (VmHWM)', `${(peak.hwm / 1024).toFixed(0)} MB`],
+      ['messages stored by the SMTP fake', stored.length.toLocaleString('en-GB')],
+      ['outbox rows sent', rowsSent.toLocaleString('en-GB')],
+      ['duplicates (same Message-ID twice)', String(duplicates)],
+      ['missing (patients without a message)', String(missing)],
+      ['worker exit after SIGTERM', String(code)],
+    ];
+    const w = Math.max(...table.map(([k]) => k.length));
+    console.log(`\nreminders end to end — real worker, PostgreSQL, Redis, SMTP fake\n`);
+    console.log(`| ${'measure'.padEnd(w)} | value |`);
+    console.log(`| ${'-'.repeat(w)} | ----- |`);
+    for (const [k, v] of table) console.log(`| ${k.padEnd(w)} | ${v} |`);
+    if (duplicates !== 0 || missing !== 0 || rowsSent !== N || stored.length !== N) process.exitCode = 1;
+  } finally {
+    await orm.close(true);
+  }
+}
+
+await main();
