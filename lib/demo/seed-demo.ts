@@ -15,6 +15,7 @@ import { hashPassword } from '../auth/password';
 import type { VisitStatus } from '../recall/status';
 import type { ReviewSign } from '../schemas/review';
 import { caseColumns } from '../services/cases';
+import { patientColumns } from '../services/patients';
 import { bulkInsert, todayIn } from '../services/registry-common';
 import { computeOutcome } from '../services/reviews';
 import { visitSummary } from '../services/visits';
@@ -105,18 +106,7 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
   const patients = world.patients.map((p) => ({
     id: patientIds.get(p.key)!,
     practice: practiceId,
-    registryNumber: p.registryNumber,
-    givenName: p.givenName,
-    familyName: p.familyName,
-    dateOfBirth: p.dateOfBirth,
-    sex: p.sex,
-    email: p.email ?? null,
-    phone: p.phone ?? null,
-    postalCode: p.postalCode ?? null,
-    recallContact: p.recallContact,
-    recallChannel: p.recallChannel,
-    researchUse: p.researchUse,
-    consentDate: p.consentDate,
+    ...patientColumns(p),
     consentRecordedBy: null,
     createdAt: noon(p.consentDate),
     updatedAt: noon(p.consentDate),

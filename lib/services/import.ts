@@ -13,6 +13,7 @@ import { audit } from './audit';
 import { ConflictError } from './errors';
 import { parseInput } from './parse';
 import { caseColumns } from './cases';
+import { patientColumns } from './patients';
 import { bulkInsert, practiceSettings, todayIn } from './registry-common';
 import { referrerKey } from './referrers';
 import { visitSummary } from './visits';
@@ -252,18 +253,7 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
     patientRows.push({
       id,
       practice: actor.practiceId,
-      registryNumber: row.registryNumber,
-      givenName: p.givenName,
-      familyName: p.familyName,
-      dateOfBirth: p.dateOfBirth,
-      sex: p.sex,
-      email: p.email ?? null,
-      phone: p.phone ?? null,
-      postalCode: p.postalCode ?? null,
-      recallContact: p.recallContact,
-      recallChannel: p.recallChannel,
-      researchUse: p.researchUse,
-      consentDate: p.consentDate,
+      ...patientColumns({ ...p, registryNumber: row.registryNumber }),
       consentRecordedBy: actor.userId,
       createdAt: now,
       updatedAt: now,

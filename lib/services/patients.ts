@@ -5,7 +5,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { patientSearchSql, PatientSchema, UserSchema, type Patient } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { Paging } from '@/lib/schemas/paging';
-import { PatientCreateSchema, PatientUpdateSchema, type RecallChannel, type Sex } from '@/lib/schemas/patient';
+import { PatientCreateSchema, PatientUpdateSchema, type PatientCreate, type RecallChannel, type Sex } from '@/lib/schemas/patient';
 import { audit } from './audit';
 import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
@@ -164,6 +164,30 @@ export async function getPatient(em: EntityManager, actor: Actor, id: string): P
 
 // --- changes --------------------------------------------------------------------------------------
 
+type PatientFields = Pick<PatientCreate, 'registryNumber' | 'givenName' | 'familyName' | 'dateOfBirth' | 'sex' | 'recallContact' | 'recallChannel' | 'researchUse' | 'consentDate'> & {
+  email?: string | null;
+  phone?: string | null;
+  postalCode?: string | null;
+};
+
+/** A patient's identity, contact and consent columns (absent contact details as null): one mapping for the form, the import and the seed. */
+export function patientColumns(p: PatientFields) {
+  return {
+    registryNumber: p.registryNumber,
+    givenName: p.givenName,
+    familyName: p.familyName,
+    dateOfBirth: p.dateOfBirth,
+    sex: p.sex,
+    email: p.email ?? null,
+    phone: p.phone ?? null,
+    postalCode: p.postalCode ?? null,
+    recallContact: p.recallContact,
+    recallChannel: p.recallChannel,
+    researchUse: p.researchUse,
+    consentDate: p.consentDate,
+  };
+}
+
 /** Creates a patient; the consents are recorded as given by the actor. */
 export async function createPatient(em: EntityManager, actor: Actor, raw: unknown): Promise<PatientView> {
   assertCan(actor, 'patient.write');
@@ -171,18 +195,7 @@ export async function createPatient(em: EntityManager, actor: Actor, raw: unknow
   await assertRegistryNumberFree(em, actor.practiceId, input.registryNumber);
   const patient = em.create(PatientSchema, {
     practice: actor.practiceId,
-    registryNumber: input.registryNumber,
-    givenName: input.givenName,
-    familyName: input.familyName,
-    dateOfBirth: input.dateOfBirth,
-    sex: input.sex,
-    email: input.email ?? null,
-    phone: input.phone ?? null,
-    postalCode: input.postalCode ?? null,
-    recallContact: input.recallContact,
-    recallChannel: input.recallChannel,
-    researchUse: input.researchUse,
-    consentDate: input.consentDate,
+    ...patientColumns(input),
     consentRecordedBy: actor.userId,
     archivedAt: input.archived ? new Date() : null,
   } as never) as Patient;
@@ -214,18 +227,10 @@ export async function updatePatient(em: EntityManager, actor: Actor, id: string,
   const patient = await findPatient(em, actor, id);
   const patch = parseInput(PatientUpdateSchema, raw);
   const current = {
-    registryNumber: patient.registryNumber,
-    givenName: patient.givenName,
-    familyName: patient.familyName,
-    dateOfBirth: patient.dateOfBirth,
-    sex: patient.sex,
+    ...patientColumns(patient),
     email: patient.email ?? undefined,
     phone: patient.phone ?? undefined,
     postalCode: patient.postalCode ?? undefined,
-    recallContact: patient.recallContact,
-    recallChannel: patient.recallChannel,
-    researchUse: patient.researchUse,
-    consentDate: patient.consentDate,
   };
   const merged = parseInput(PatientCreateSchema, { ...current, ...presentKeys(patch, raw) });
   const changed = EDITABLE_FIELDS.filter((f) => (merged[f] ?? null) !== (current[f] ?? null));
