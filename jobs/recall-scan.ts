@@ -173,6 +173,9 @@ async function closeUnanswered(em: EntityManager, practiceId: string, timeZone: 
 /** Closes one missed visit and the case's later visits that are not final (the rule of lib/services/visits.ts closeVisitAsLost). */
 async function closeAsLost(em: EntityManager, practiceId: string, visitId: string, caseId: string, today: CalendarDate, unanswered: number): Promise<number> {
   return em.transactional(async (tx) => {
+    // Locked and re-checked: two scans at once (two workers) close it once.
+    const still = await knexOf(tx)('recall_visit').where({ id: visitId, status: 'missed' }).forUpdate().first('id');
+    if (!still) return 0;
     const visits = await loadVisits(tx, caseId);
     const visit = visits.find((v) => v.id === visitId);
     if (!visit || visit.status !== 'missed') return 0;

@@ -195,7 +195,7 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
       continue;
     }
     const quiet = quietDelayMs(reminderPolicyOf(row.reminder_policy).quietHours, now, row.time_zone);
-    if (quiet > 0 && !uncertain) return { kind: 'wait', ms: quiet, reason: 'quiet hours' };
+    if (quiet > 0) return { kind: 'wait', ms: quiet, reason: 'quiet hours' };
 
     const claimed = await knex.raw(
       `update reminder r set status = 'sending', attempts = r.attempts + 1, claim_expires_at = ?, updated_at = ?
@@ -367,8 +367,13 @@ export async function processSendReminder(
   try {
     await ctx.transport.sendMail(message);
   } catch (e) {
-    const err = e as Error & { responseCode?: number };
+    const err = e as Error & { responseCode?: number; code?: string };
     const text = `${err.message}`.slice(0, 400);
+    if (err.code === 'ECONNECTION' || err.code === 'EDNS') {
+      // No connection to the relay at all: nothing can have been accepted.
+      await release(ctx, row.id, 'queued', `Could not reach the mail relay: ${text}`, new Date());
+      throw err;
+    }
     if (typeof err.responseCode === 'number') {
       await release(ctx, row.id, 'queued', `The mail relay answered ${err.responseCode}: ${text}`, new Date());
       if (err.responseCode >= 500) throw new UnrecoverableError(`The mail relay refused the message for good (${err.responseCode}): ${text}`);

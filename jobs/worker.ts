@@ -49,7 +49,7 @@ import { processSendReminder, type SendContext } from './send-reminder';
 export interface WorkerHandle {
   remindersQueue: RemindersQueue;
   scanQueue: RecallScanQueue;
-  /** Resolves when a scan has run (the first one starts at once unless scanOnStart is off). */
+  /** How many scans this process has run (the first starts at once unless scanOnStart is off). */
   scans: () => number;
   close: () => Promise<void>;
 }

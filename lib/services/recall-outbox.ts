@@ -321,7 +321,8 @@ export async function markReminderFailed(em: EntityManager, reminderId: string, 
       .update({ status: 'failed', failed_at: now, claim_expires_at: null, last_error: reason.slice(0, 500), updated_at: now })
       .returning(['id', 'practice_id', 'visit_id', 'step'])) as { id: string; practice_id: string; visit_id: string; step: ReminderStep }[];
     if (!row) return false;
-    await knex('recall_visit').where({ id: row.visit_id }).update({ delivery_failed_at: now, updated_at: now });
+    // Flag the visit only while it still needs contact (not if it was booked by phone meanwhile).
+    await knex('recall_visit').where({ id: row.visit_id }).whereIn('status', ['planned', 'invited']).update({ delivery_failed_at: now, updated_at: now });
     await knex('contact_log_entry').insert({
       id: randomUUID(),
       practice_id: row.practice_id,

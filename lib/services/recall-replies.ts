@@ -169,7 +169,8 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
     ];
     const changed: string[] = [];
     if (input.answer === 'confirmed') {
-      const booked = visit.proposed_start ? dateIn(new Date(visit.proposed_start), visit.time_zone) : null;
+      const proposed = visit.proposed_start ? new Date(visit.proposed_start) : null;
+      const booked = proposed && proposed.getTime() > now.getTime() ? dateIn(proposed, visit.time_zone) : null;
       if (visit.status !== 'confirmed' && canTransition(visit.status, 'confirmed')) {
         await setVisitStatus(tx, visit.id, 'confirmed', null, { ...(booked ? { booked_date: booked } : {}), delivery_failed_at: null });
         entries.push({ ...base, kind: 'status_change', fromStatus: visit.status, toStatus: 'confirmed' });

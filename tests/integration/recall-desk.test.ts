@@ -95,7 +95,12 @@ describe('desk queues', () => {
     const replied = await listDeskRows(services.em(), w.coordinator, { queue: 'replied' });
     expect(replied.rows[0]).toMatchObject({ visitId: w.id(2), lastContact: { kind: 'reply', answer: 'another_time', note: 'Mornings, please.' } });
     await expect(listDeskRows(services.em(), w.coordinator, { queue: 'everything' })).rejects.toBeInstanceOf(ValidationError);
-    expect(await knex()('audit_event').where({ action: 'recall.rows_read', actor_id: w.coordinator.userId }).count('* as n').first()).toMatchObject({ n: '2' });
+    const byName = await listDeskRows(services.em(), w.coordinator, { queue: 'due_soon', sort: 'patient', dir: 'desc' });
+    expect(byName.rows.map((r) => r.patient.name)).toEqual(['Ashdown5, Wren5', 'Ashdown1, Wren1', 'Ashdown0, Wren0']);
+    const byContact = await listDeskRows(services.em(), w.coordinator, { queue: 'due_soon', sort: 'lastContact', dir: 'desc', pageSize: 2, page: 1 });
+    expect(byContact).toMatchObject({ total: 3, pageSize: 2 });
+    expect(byContact.rows.map((r) => r.visitId)).toEqual([w.id(5), w.id(1)]);
+    expect(await knex()('audit_event').where({ action: 'recall.rows_read', actor_id: w.coordinator.userId }).count('* as n').first()).toMatchObject({ n: '4' });
   });
 
   it('only the coordinator works the desk', async () => {
