@@ -24,7 +24,7 @@ export default async function DevMailboxPage() {
         <p className="mt-1 text-ink-700">Messages Lamina sent to the local mail fake. This page exists only while the local mail transport is configured.</p>
       </div>
       {messages.length === 0 ? (
-        <p className="card text-ink-700">No messages yet. Invite a colleague or ask for a sign-in link and it will appear here.</p>
+        <p className="card text-ink-700">No messages yet. Invite a colleague, ask for a sign-in link or send a recall reminder and it will appear here.</p>
       ) : (
         <ul className="divide-y divide-bone-200 rounded-lg border border-bone-200 bg-white">
           {messages.map((m) => (
