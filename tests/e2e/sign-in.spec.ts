@@ -5,7 +5,7 @@ import type { Role } from '../../lib/auth/roles';
 /** What each role's navigation shows (Home is always first). */
 const NAVIGATION: Record<Role, string[]> = {
   admin: ['Home', 'Team', 'Dev mailbox'],
-  coordinator: ['Home', 'Cases'],
+  coordinator: ['Home', 'Cases', 'Recall desk'],
   clinician: ['Home', 'Cases'],
   auditor: ['Home', 'Cases'],
   researcher: ['Home'],

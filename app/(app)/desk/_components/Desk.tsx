@@ -1,0 +1,308 @@
+'use client';
+import Link from 'next/link';
+import { usePathname, useRouter, useSearchParams } from 'next/navigation';
+import { useMemo, useState } from 'react';
+import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
+import { createColumnHelper, getCoreRowModel, useReactTable, type RowSelectionState } from '@tanstack/react-table';
+import type { DeskQueue, DeskQueues, DeskRow, DeskRowsPage, ActionResponse } from '@/lib/services/recall-desk';
+import { REMINDER_STEP_LABELS } from '@/lib/recall/reminders';
+import { TableView } from '@/components/ui/TableView';
+import { TableSkeleton } from '@/components/ui/Skeleton';
+import { VisitStatusBadge, StateBadge } from '@/components/ui/StateBadge';
+import { Notice } from '@/components/ui/Notice';
+import { EmptyState } from '@/components/ui/EmptyState';
+import { ContactLog } from './ContactLog';
+import { fmtDate, fmtDateTime, getJson, postJson } from './api';
+
+const EMPTY_TEXT: Record<DeskQueue, string> = {
+  due_soon: 'No visit falls due in the next 30 days. Completed cases get their visits from the recall policy.',
+  overdue: 'No visit is past its due date with its window still open.',
+  awaiting_reply: 'Nobody is waiting to answer an invitation.',
+  replied: 'No reply waits for you. Patients answer through the link in their invitation.',
+  delivery_failed: 'Every reminder was delivered.',
+  missed: 'No visit has been missed.',
+};
+
+export function Desk() {
+  const router = useRouter();
+  const pathname = usePathname();
+  const params = useSearchParams();
+  const queue = (params.get('queue') ?? 'due_soon') as DeskQueue;
+  const page = Number(params.get('page') ?? '1') || 1;
+  const qc = useQueryClient();
+  const [selection, setSelection] = useState<RowSelectionState>({});
+  const [openLog, setOpenLog] = useState<string | null>(null);
+  const [outcome, setOutcome] = useState<{ tone: 'ok' | 'alert' | 'info'; lines: string[] } | null>(null);
+
+  const queues = useQuery({ queryKey: ['desk-queues'], queryFn: () => getJson<DeskQueues>('/api/recall/queues') });
+  const rows = useQuery({
+    queryKey: ['desk-rows', queue, page],
+    queryFn: () => getJson<DeskRowsPage>(`/api/recall/visits?queue=${queue}&page=${page}&pageSize=25`),
+    placeholderData: keepPreviousData,
+  });
+
+  const go = (q: DeskQueue, p = 1) => {
+    setSelection({});
+    setOutcome(null);
+    const next = new URLSearchParams(params.toString());
+    next.set('queue', q);
+    if (p > 1) next.set('page', String(p));
+    else next.delete('page');
+    router.replace(`${pathname}?${next.toString()}`, { scroll: false });
+  };
+
+  const act = useMutation({
+    mutationFn: ({ url, body }: { url: string; body: unknown }) => postJson<ActionResponse>(url, body),
+    onSuccess: (res) => {
+      const failed = res.results.filter((r) => !r.ok);
+      setOutcome({
+        tone: failed.length ? (failed.length === res.results.length ? 'alert' : 'info') : 'ok',
+        lines: [
+          ...res.results.map((r) => r.message),
+          ...(res.deferred ? ['The queue did not answer: the reminders are saved and go out with the next scan.'] : []),
+        ],
+      });
+      setSelection({});
+      qc.invalidateQueries({ queryKey: ['desk-queues'] });
+      qc.invalidateQueries({ queryKey: ['desk-rows'] });
+      qc.invalidateQueries({ queryKey: ['desk-log'] });
+    },
+    onError: (e) => setOutcome({ tone: 'alert', lines: [(e as Error).message] }),
+  });
+
+  const columns = useMemo(() => {
+    const c = createColumnHelper<DeskRow>();
+    return [
+      c.display({
+        id: 'select',
+        header: ({ table }) => (
+          <input
+            type="checkbox"
+            aria-label="Select every visit on this page"
+            className="h-4 w-4 accent-dura-700"
+            checked={table.getIsAllRowsSelected()}
+            onChange={table.getToggleAllRowsSelectedHandler()}
+          />
+        ),
+        cell: ({ row }) => (
+          <input
+            type="checkbox"
+            aria-label={`Select ${row.original.patient.name}, tooth ${row.original.tooth}, ${row.original.milestone} months`}
+            className="h-4 w-4 accent-dura-700"
+            checked={row.getIsSelected()}
+            onChange={row.getToggleSelectedHandler()}
+          />
+        ),
+      }),
+      c.accessor((r) => r.patient.name, {
+        id: 'patient',
+        header: 'Patient',
+        cell: (i) => (
+          <div>
+            <Link href={`/patients/${i.row.original.patient.id}`} className="font-medium">
+              {i.getValue()}
+            </Link>
+            <div className="text-xs text-ink-500">
+              {i.row.original.patient.registryNumber}
+              {i.row.original.patient.phone ? ` · ${i.row.original.patient.phone}` : ''}
+              {!i.row.original.patient.canEmail ? ' · no e-mail consent' : ''}
+            </div>
+          </div>
+        ),
+      }),
+      c.accessor('tooth', {
+        header: () => rows.data?.toothLabel ?? 'Tooth',
+        cell: (i) => <Link href={`/cases/${i.row.original.caseId}`}>{i.getValue()}</Link>,
+      }),
+      c.accessor('milestone', { header: 'Visit', cell: (i) => `${i.getValue()} months` }),
+      c.accessor('dueDate', {
+        header: 'Due',
+        cell: (i) => (
+          <div>
+            {fmtDate(i.getValue())}
+            {i.row.original.bookedDate && <div className="text-xs text-ink-500">booked {fmtDate(i.row.original.bookedDate)}</div>}
+            {!i.row.original.bookedDate && i.row.original.proposedStart && (
+              <div className="text-xs text-ink-500">proposed {fmtDateTime(i.row.original.proposedStart)}</div>
+            )}
+          </div>
+        ),
+      }),
+      c.accessor('status', {
+        header: 'Status',
+        cell: (i) => (
+          <div className="space-y-1">
+            <VisitStatusBadge status={i.getValue()} />
+            {i.row.original.deliveryFailed && <StateBadge tone="alert" icon="!" label="Delivery failed" />}
+          </div>
+        ),
+      }),
+      c.accessor('reminders', {
+        header: 'Messages',
+        cell: (i) =>
+          i.getValue().length ? (
+            <ul className="text-xs">
+              {i.getValue().map((m) => (
+                <li key={m.step}>
+                  {m.stepLabel}: {m.status}
+                  {m.sentAt ? ` ${fmtDate(m.sentAt)}` : ''}
+                </li>
+              ))}
+            </ul>
+          ) : (
+            <span className="text-xs text-ink-500">None yet</span>
+          ),
+      }),
+      c.accessor('lastContact', {
+        header: 'Last contact',
+        cell: (i) => {
+          const l = i.getValue();
+          return (
+            <div className="text-xs">
+              {l ? (
+                <>
+                  <div>{fmtDateTime(l.at)}</div>
+                  <div className="text-ink-500">{l.answer ? `reply: ${l.answer.replace('_', ' ')}` : l.kind.replace('_', ' ')}</div>
+                </>
+              ) : (
+                '—'
+              )}
+              <button type="button" className="mt-1 text-dura-700 underline" onClick={() => setOpenLog(i.row.original.visitId)}>
+                Contact log
+              </button>
+            </div>
+          );
+        },
+      }),
+    ];
+  }, [rows.data?.toothLabel]);
+
+  const table = useReactTable({
+    data: rows.data?.rows ?? [],
+    columns,
+    getCoreRowModel: getCoreRowModel(),
+    getRowId: (r) => r.visitId,
+    enableRowSelection: true,
+    state: { rowSelection: selection },
+    onRowSelectionChange: setSelection,
+  });
+  const selected = Object.keys(selection).filter((k) => selection[k]);
+  const pages = rows.data ? Math.max(1, Math.ceil(rows.data.total / rows.data.pageSize)) : 1;
+
+  return (
+    <div className="space-y-4">
+      {queues.error && <Notice tone="alert">{(queues.error as Error).message}</Notice>}
+      <nav aria-label="Work queues" className="grid grid-cols-2 gap-2 md:grid-cols-3 xl:grid-cols-6">
+        {(queues.data?.queues ?? []).map((q) => (
+          <button
+            key={q.key}
+            type="button"
+            onClick={() => go(q.key)}
+            aria-current={q.key === queue ? 'true' : undefined}
+            title={q.definition}
+            className={`rounded-lg border p-3 text-left ${q.key === queue ? 'border-dura-700 bg-dura-50' : 'border-bone-300 bg-white hover:border-dura-300'}`}
+          >
+            <span className="block text-2xl font-semibold tabular-nums">{q.count}</span>
+            <span className="block text-sm">{q.label}</span>
+          </button>
+        ))}
+        {queues.isPending && <span className="text-sm text-ink-500">Counting…</span>}
+      </nav>
+      <p className="text-sm text-ink-700">{queues.data?.queues.find((q) => q.key === queue)?.definition}</p>
+
+      <BulkActions
+        count={selected.length}
+        busy={act.isPending}
+        onSend={() => act.mutate({ url: '/api/recall/send', body: { visitIds: selected } })}
+        onMark={(status) => act.mutate({ url: '/api/recall/mark', body: { visitIds: selected, status } })}
+        onBook={(start, mode, sendNow) => act.mutate({ url: '/api/recall/book', body: { visitIds: selected, start, mode, sendNow } })}
+      />
+      {outcome && (
+        <Notice tone={outcome.tone}>
+          <ul>
+            {outcome.lines.map((l, i) => (
+              <li key={i}>{l}</li>
+            ))}
+          </ul>
+        </Notice>
+      )}
+
+      {rows.error ? (
+        <Notice tone="alert">{(rows.error as Error).message}</Notice>
+      ) : rows.isPending ? (
+        <TableSkeleton label="Loading visits" columns={7} />
+      ) : rows.data && rows.data.total === 0 ? (
+        <EmptyState title="Nothing in this queue">{EMPTY_TEXT[queue]}</EmptyState>
+      ) : (
+        <>
+          <TableView table={table} label="Visits in this queue" rowProps={(row) => ({ 'data-testid': `desk-row-${row.original.patient.registryNumber}-${row.original.milestone}` })} />
+          <nav aria-label="Pages" className="flex items-center gap-3 text-sm">
+            <button type="button" className="btn-secondary" disabled={page <= 1} onClick={() => go(queue, page - 1)}>
+              ← Previous
+            </button>
+            <span>
+              Page {page} of {pages} · {rows.data?.total} visits
+            </span>
+            <button type="button" className="btn-secondary" disabled={page >= pages} onClick={() => go(queue, page + 1)}>
+              Next →
+            </button>
+          </nav>
+        </>
+      )}
+      {openLog && <ContactLog visitId={openLog} onClose={() => setOpenLog(null)} />}
+      <p className="text-xs text-ink-500">Reminders go only to patients who agreed to recall contact; each carries an unsubscribe link. Steps: {Object.values(REMINDER_STEP_LABELS).join(', ')}.</p>
+    </div>
+  );
+}
+
+function BulkActions(props: {
+  count: number;
+  busy: boolean;
+  onSend: () => void;
+  onMark: (status: 'attended' | 'missed') => void;
+  onBook: (startIso: string, mode: 'propose' | 'phone', sendNow: boolean) => void;
+}) {
+  const [when, setWhen] = useState('');
+  const [mode, setMode] = useState<'propose' | 'phone'>('propose');
+  const none = props.count === 0 || props.busy;
+  return (
+    <section aria-label="Act on the selected visits" className="flex flex-wrap items-end gap-3 rounded-lg border border-bone-200 bg-white p-3">
+      <p className="w-full text-sm text-ink-700 md:w-auto" aria-live="polite">
+        {props.count === 0 ? 'Select visits to act on them.' : `${props.count} selected`}
+      </p>
+      <button type="button" className="btn-primary" disabled={none} onClick={props.onSend}>
+        Send invitations now
+      </button>
+      <button type="button" className="btn-secondary" disabled={none} onClick={() => props.onMark('attended')}>
+        Mark attended
+      </button>
+      <button type="button" className="btn-secondary" disabled={none} onClick={() => props.onMark('missed')}>
+        Mark missed
+      </button>
+      <div className="flex flex-wrap items-end gap-2 border-l border-bone-300 pl-3">
+        <div>
+          <label htmlFor="book-when" className="field-label">
+            Appointment
+          </label>
+          <input id="book-when" type="datetime-local" className="field-input" value={when} onChange={(e) => setWhen(e.target.value)} />
+        </div>
+        <div>
+          <label htmlFor="book-mode" className="field-label">
+            How
+          </label>
+          <select id="book-mode" className="field-input" value={mode} onChange={(e) => setMode(e.target.value as 'propose' | 'phone')}>
+            <option value="propose">Propose by e-mail (with a calendar file)</option>
+            <option value="phone">Agreed by phone (confirmed)</option>
+          </select>
+        </div>
+        <button
+          type="button"
+          className="btn-secondary"
+          disabled={none || !when}
+          onClick={() => props.onBook(new Date(when).toISOString(), mode, mode === 'propose')}
+        >
+          Book this date
+        </button>
+      </div>
+    </section>
+  );
+}

@@ -1,0 +1,103 @@
+'use client';
+import { useState } from 'react';
+import { useRouter } from 'next/navigation';
+import { useForm, type Resolver } from 'react-hook-form';
+import { zodResolver } from '@hookform/resolvers/zod';
+import { ReminderPolicySchema } from '@/lib/schemas/reminder-policy';
+import type { ReminderPolicyView } from '@/lib/services/recall-policy';
+import { Field } from '@/components/ui/Field';
+import { Notice } from '@/components/ui/Notice';
+
+interface Shape {
+  invitationWeeksBefore: number;
+  secondInvitationAfterDays: number;
+  lastNoticeDaysAfterDue: number;
+  lostAfterUnansweredAttempts: number;
+}
+
+const num = { valueAsNumber: true } as const;
+
+export function PolicyForm({ initial }: { initial: ReminderPolicyView }) {
+  const router = useRouter();
+  const [result, setResult] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
+  const b = initial.bounds;
+  const form = useForm<Shape>({
+    resolver: zodResolver(ReminderPolicySchema as never) as unknown as Resolver<Shape>,
+    defaultValues: {
+      invitationWeeksBefore: initial.policy.invitationWeeksBefore,
+      secondInvitationAfterDays: initial.policy.secondInvitationAfterDays,
+      lastNoticeDaysAfterDue: initial.policy.lastNoticeDaysAfterDue,
+      lostAfterUnansweredAttempts: initial.policy.lostAfterUnansweredAttempts,
+    },
+  });
+  const e = form.formState.errors;
+  const onSubmit = form.handleSubmit(async (values) => {
+    setResult(null);
+    const res = await fetch('/api/recall/policy', {
+      method: 'PUT',
+      headers: { 'Content-Type': 'application/json' },
+      body: JSON.stringify({ ...values, quietHours: initial.policy.quietHours }),
+    });
+    const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
+    if (!res.ok) {
+      for (const [f, m] of Object.entries(body.fieldErrors ?? {})) form.setError(f as keyof Shape, { message: m[0] });
+      setResult({ tone: 'alert', text: body.message ?? 'The policy could not be saved.' });
+      return;
+    }
+    setResult({ tone: 'ok', text: 'Policy saved. The next scan uses it.' });
+    router.refresh();
+  });
+  return (
+    <form onSubmit={onSubmit} noValidate className="card max-w-2xl space-y-4" aria-label="Reminder policy">
+      {result && <Notice tone={result.tone}>{result.text}</Notice>}
+      {initial.lastNoticeOutsideWindows.length > 0 && (
+        <Notice tone="info">
+          For the {initial.lastNoticeOutsideWindows.join(', ')}-month visits the window closes before the last notice is due: those visits are
+          marked missed first.
+        </Notice>
+      )}
+      <div className="grid gap-4 md:grid-cols-2">
+        <Field
+          label="First invitation (weeks before the due date)"
+          type="number"
+          min={b.invitationWeeksBefore.min}
+          max={b.invitationWeeksBefore.max}
+          {...form.register('invitationWeeksBefore', num)}
+          error={e.invitationWeeksBefore?.message}
+        />
+        <Field
+          label="Second invitation when no reply (days after the first)"
+          type="number"
+          min={b.secondInvitationAfterDays.min}
+          max={b.secondInvitationAfterDays.max}
+          {...form.register('secondInvitationAfterDays', num)}
+          error={e.secondInvitationAfterDays?.message}
+        />
+        <Field
+          label="Last notice (days after the due date)"
+          type="number"
+          min={b.lastNoticeDaysAfterDue.min}
+          max={b.lastNoticeDaysAfterDue.max}
+          {...form.register('lastNoticeDaysAfterDue', num)}
+          error={e.lastNoticeDaysAfterDue?.message}
+        />
+        <Field
+          label="Close as lost to follow-up after (unanswered attempts)"
+          type="number"
+          min={b.lostAfterUnansweredAttempts.min}
+          max={b.lostAfterUnansweredAttempts.max}
+          {...form.register('lostAfterUnansweredAttempts', num)}
+          error={e.lostAfterUnansweredAttempts?.message}
+        />
+      </div>
+      <div className="flex gap-3">
+        <button type="submit" className="btn-primary" disabled={form.formState.isSubmitting}>
+          {form.formState.isSubmitting ? 'Saving…' : 'Save policy'}
+        </button>
+        <button type="button" className="btn-secondary" onClick={() => form.reset(initial.defaults)}>
+          Use Lamina’s defaults
+        </button>
+      </div>
+    </form>
+  );
+}
