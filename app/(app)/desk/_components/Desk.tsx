@@ -164,9 +164,9 @@ export function Desk() {
                   <div className="text-ink-500">{l.answer ? `reply: ${l.answer.replace('_', ' ')}` : l.kind.replace('_', ' ')}</div>
                 </>
               ) : (
-                '—'
+                <div className="text-ink-500">No contact yet</div>
               )}
-              <button type="button" className="mt-1 text-dura-700 underline" onClick={() => setOpenLog(i.row.original.visitId)}>
+              <button type="button" className="mt-1 block text-dura-700 underline" onClick={() => setOpenLog(i.row.original.visitId)}>
                 Contact log
               </button>
             </div>
