@@ -5,6 +5,7 @@ import { useMemo } from 'react';
 import { keepPreviousData, useQuery } from '@tanstack/react-query';
 import { createColumnHelper, getCoreRowModel, useReactTable, type SortingState } from '@tanstack/react-table';
 import { TableView } from '@/components/ui/TableView';
+import { PatientCell } from '@/components/ui/PatientCell';
 import type { CasePage, CaseRow } from '@/lib/services/cases';
 import { CASE_KINDS, CASE_KIND_LABELS } from '@/lib/schemas/case';
 import { VISIT_STATUSES, VISIT_STATUS_LABELS } from '@/lib/recall/status';
@@ -65,14 +66,7 @@ export function CasesTable({ clinicians, canImport, canWrite }: { clinicians: Op
       c.accessor((r) => r.patient.name, {
         id: 'patient',
         header: 'Patient',
-        cell: (i) => (
-          <div>
-            <Link href={`/patients/${i.row.original.patient.id}`} className="font-medium">
-              {i.getValue()}
-            </Link>
-            <div className="text-xs text-ink-500">{i.row.original.patient.registryNumber}</div>
-          </div>
-        ),
+        cell: (i) => <PatientCell id={i.row.original.patient.id} name={i.getValue()} registryNumber={i.row.original.patient.registryNumber} />,
       }),
       c.accessor('tooth', {
         id: 'tooth',

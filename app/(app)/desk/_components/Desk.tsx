@@ -7,6 +7,7 @@ import { createColumnHelper, getCoreRowModel, useReactTable, type RowSelectionSt
 import type { DeskQueue, DeskQueues, DeskRow, DeskRowsPage, ActionResponse } from '@/lib/services/recall-desk';
 import { REMINDER_STEP_LABELS } from '@/lib/recall/reminders';
 import { TableView } from '@/components/ui/TableView';
+import { PatientCell } from '@/components/ui/PatientCell';
 import { TableSkeleton } from '@/components/ui/Skeleton';
 import { VisitStatusBadge, StateBadge } from '@/components/ui/StateBadge';
 import { Notice } from '@/components/ui/Notice';
@@ -98,16 +99,12 @@ export function Desk() {
         id: 'patient',
         header: 'Patient',
         cell: (i) => (
-          <div>
-            <Link href={`/patients/${i.row.original.patient.id}`} className="font-medium">
-              {i.getValue()}
-            </Link>
-            <div className="text-xs text-ink-500">
-              {i.row.original.patient.registryNumber}
-              {i.row.original.patient.phone ? ` · ${i.row.original.patient.phone}` : ''}
-              {!i.row.original.patient.canEmail ? ' · no e-mail consent' : ''}
-            </div>
-          </div>
+          <PatientCell
+            id={i.row.original.patient.id}
+            name={i.getValue()}
+            registryNumber={i.row.original.patient.registryNumber}
+            extra={`${i.row.original.patient.phone ? ` · ${i.row.original.patient.phone}` : ''}${i.row.original.patient.canEmail ? '' : ' · no e-mail consent'}`}
+          />
         ),
       }),
       c.accessor('tooth', {

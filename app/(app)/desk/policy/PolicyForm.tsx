@@ -17,6 +17,13 @@ interface Shape {
 
 const num = { valueAsNumber: true } as const;
 
+const FIELDS: { name: keyof Shape; label: string }[] = [
+  { name: 'invitationWeeksBefore', label: 'First invitation (weeks before the due date)' },
+  { name: 'secondInvitationAfterDays', label: 'Second invitation when no reply (days after the first)' },
+  { name: 'lastNoticeDaysAfterDue', label: 'Last notice (days after the due date)' },
+  { name: 'lostAfterUnansweredAttempts', label: 'Close as lost to follow-up after (unanswered attempts)' },
+];
+
 export function PolicyForm({ initial }: { initial: ReminderPolicyView }) {
   const router = useRouter();
   const [result, setResult] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
@@ -57,38 +64,17 @@ export function PolicyForm({ initial }: { initial: ReminderPolicyView }) {
         </Notice>
       )}
       <div className="grid gap-4 md:grid-cols-2">
-        <Field
-          label="First invitation (weeks before the due date)"
-          type="number"
-          min={b.invitationWeeksBefore.min}
-          max={b.invitationWeeksBefore.max}
-          {...form.register('invitationWeeksBefore', num)}
-          error={e.invitationWeeksBefore?.message}
-        />
-        <Field
-          label="Second invitation when no reply (days after the first)"
-          type="number"
-          min={b.secondInvitationAfterDays.min}
-          max={b.secondInvitationAfterDays.max}
-          {...form.register('secondInvitationAfterDays', num)}
-          error={e.secondInvitationAfterDays?.message}
-        />
-        <Field
-          label="Last notice (days after the due date)"
-          type="number"
-          min={b.lastNoticeDaysAfterDue.min}
-          max={b.lastNoticeDaysAfterDue.max}
-          {...form.register('lastNoticeDaysAfterDue', num)}
-          error={e.lastNoticeDaysAfterDue?.message}
-        />
-        <Field
-          label="Close as lost to follow-up after (unanswered attempts)"
-          type="number"
-          min={b.lostAfterUnansweredAttempts.min}
-          max={b.lostAfterUnansweredAttempts.max}
-          {...form.register('lostAfterUnansweredAttempts', num)}
-          error={e.lostAfterUnansweredAttempts?.message}
-        />
+        {FIELDS.map((f) => (
+          <Field
+            key={f.name}
+            label={f.label}
+            type="number"
+            min={b[f.name].min}
+            max={b[f.name].max}
+            {...form.register(f.name, num)}
+            error={e[f.name]?.message}
+          />
+        ))}
       </div>
       <div className="flex gap-3">
         <button type="submit" className="btn-primary" disabled={form.formState.isSubmitting}>
