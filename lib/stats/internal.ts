@@ -100,6 +100,56 @@ export function radixSort(
 }
 
 /**
+ * Keys-only variant of {@link radixSort} that sorts `keys` in place, with the
+ * caller's scratch buffer (length >= keys.length) and digit histograms
+ * (length 4 * 65536; zeroed here), so that several sorts in one call share
+ * them. The keys must be finite, >= 0 and free of -0 (the callers fold -0 to
+ * +0 as they read the input, `t + 0`). Same order as radixSort.
+ */
+export function radixSortInPlace(keys: Float64Array, scratch: Float64Array, hist: Int32Array): void {
+  const n = keys.length;
+  if (n < 2) return;
+  if (n < SMALL_SORT) {
+    keys.sort();
+    return;
+  }
+  hist.fill(0);
+  let src: Float64Array = keys;
+  let dst: Float64Array = scratch.subarray(0, n);
+  {
+    const u32 = new Uint32Array(keys.buffer, keys.byteOffset, 2 * n);
+    const lo = LITTLE_ENDIAN ? 0 : 1;
+    const hi = 1 - lo;
+    for (let i = 0; i < n; i++) {
+      const a = u32[2 * i + lo];
+      const b = u32[2 * i + hi];
+      hist[a & 0xffff]++;
+      hist[65536 + (a >>> 16)]++;
+      hist[131072 + (b & 0xffff)]++;
+      hist[196608 + (b >>> 16)]++;
+    }
+  }
+  for (let pass = 0; pass < 4; pass++) {
+    const word = LITTLE_ENDIAN ? pass >> 1 : 1 - (pass >> 1);
+    const shift = (pass & 1) * 16;
+    const u32 = new Uint32Array(src.buffer, src.byteOffset, 2 * n);
+    const base = pass * 65536;
+    if (hist[base + ((u32[word] >>> shift) & 0xffff)] === n) continue; // one digit for every key
+    let sum = 0;
+    for (let d = base; d < base + 65536; d++) {
+      const c = hist[d];
+      hist[d] = sum;
+      sum += c;
+    }
+    for (let i = 0; i < n; i++) dst[hist[base + ((u32[2 * i + word] >>> shift) & 0xffff)]++] = src[i];
+    const t = src;
+    src = dst;
+    dst = t;
+  }
+  if (src !== keys) keys.set(src);
+}
+
+/**
  * Groups observations by distinct time with one radix sort, carrying an Int32
  * payload per observation (an index, or a small code such as group and event).
  */

@@ -1,5 +1,5 @@
 import { zForLevel } from './distributions';
-import { checkObservation, radixSort } from './internal';
+import { checkObservation, radixSortInPlace } from './internal';
 
 export interface SurvivalObservation {
   time: number;
@@ -79,7 +79,8 @@ function checkConfType(confType: unknown): ConfType {
  * returns the estimate itself as both bounds, so no row ever holds NaN.
  *
  * O(n log n) or better: the event times and the censoring times are each
- * sorted once (a linear-time radix sort on typed arrays) and merged.
+ * sorted once (a linear-time radix sort on typed arrays, in place in one
+ * buffer) and merged.
  */
 export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMeierOptions = {}): KaplanMeierStep[] {
   const level = opts.level ?? 0.95;
@@ -100,11 +101,17 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
     if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
       checkObservation(t, e, `observation ${i}`);
     }
-    if (e) buf[nev++] = t;
-    else buf[--back] = t;
+    // + 0 folds -0 to +0 (the radix sort orders bit patterns)
+    if (e) buf[nev++] = t + 0;
+    else buf[--back] = t + 0;
   }
-  const ev = radixSort(buf.subarray(0, nev), undefined, true).keys;
-  const ce = radixSort(buf.subarray(nev), undefined, true).keys;
+  // both halves sorted in place, sharing one scratch buffer and one histogram
+  const ev = buf.subarray(0, nev);
+  const ce = buf.subarray(nev);
+  const scratch = new Float64Array(Math.max(nev, n - nev));
+  const hist = new Int32Array(4 * 65536);
+  radixSortInPlace(ev, scratch, hist);
+  radixSortInPlace(ce, scratch, hist);
   const steps: KaplanMeierStep[] = [];
   const bounds = new Float64Array(2);
   let i = 0;

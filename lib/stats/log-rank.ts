@@ -1,5 +1,5 @@
 import { chiSquareUpperTail } from './distributions';
-import { checkObservation, radixSort } from './internal';
+import { checkObservation, radixSortInPlace } from './internal';
 import type { SurvivalObservation } from './kaplan-meier';
 
 export interface LogRankResult {
@@ -52,8 +52,8 @@ function solveDense(v: Float64Array, b: Float64Array, m: number): Float64Array |
  * over the groups with expected > 0, dropping one (df = that count - 1).
  *
  * Each group's event and censoring times are radix-sorted (linear time), then
- * one reverse sweep over the distinct times merges them: O(n + D * G^2) for
- * D distinct times and G groups.
+ * one reverse sweep over the distinct event times merges them: O(n + D * G^2)
+ * for D distinct event times and G groups.
  *
  * Defined results: groups with no observations are reported with 0 observed
  * and 0 expected and do not count towards df; with no events at all the
@@ -83,14 +83,18 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
   const all = new Float64Array(n);
   const lo = new Int32Array(C); // first index of class c in `all`
   const ptr = new Int32Array(C); // current (latest unswept) index of class c
+  let largest = 0;
+  for (let g = 0; g < G; g++) largest = Math.max(largest, groups[names[g]].length);
+  // one scratch buffer and one histogram for all 2G in-place sorts
+  const scratch = new Float64Array(largest);
+  const hist = new Int32Array(4 * 65536);
   let offset = 0;
   for (let g = 0; g < G; g++) {
     const list = groups[names[g]];
     const m = list.length;
-    const evBuf = new Float64Array(m);
-    const ceBuf = new Float64Array(m);
-    let ne = 0;
-    let nc = 0;
+    // group g's slice of `all`: event times from the front, censoring times from the back
+    let ne = offset;
+    let back = offset + m;
     for (let i = 0; i < m; i++) {
       const o = list[i];
       if (o === null || typeof o !== 'object') throw new TypeError(`group "${names[g]}", observation ${i}: expected { time, event }`);
@@ -99,21 +103,25 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
       if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
         checkObservation(t, e, `group "${names[g]}", observation ${i}`);
       }
-      if (e) evBuf[ne++] = t;
-      else ceBuf[nc++] = t;
+      // + 0 folds -0 to +0 (the radix sort orders bit patterns)
+      if (e) all[ne++] = t + 0;
+      else all[--back] = t + 0;
     }
-    all.set(radixSort(evBuf.subarray(0, ne), undefined, true).keys, offset);
+    radixSortInPlace(all.subarray(offset, ne), scratch, hist);
+    radixSortInPlace(all.subarray(ne, offset + m), scratch, hist);
     lo[2 * g] = offset;
-    offset += ne;
-    ptr[2 * g] = offset - 1;
-    all.set(radixSort(ceBuf.subarray(0, nc), undefined, true).keys, offset);
-    lo[2 * g + 1] = offset;
-    offset += nc;
-    ptr[2 * g + 1] = offset - 1;
+    ptr[2 * g] = ne - 1;
+    lo[2 * g + 1] = ne;
+    ptr[2 * g + 1] = offset + m - 1;
+    offset += m;
   }
-  // head[c]: the latest unswept time of class c, -Infinity when exhausted
-  const head = new Float64Array(C);
-  for (let c = 0; c < C; c++) head[c] = ptr[c] >= lo[c] ? all[ptr[c]] : -Infinity;
+  // The sweep visits the distinct event times only, latest first (a G-way
+  // merge of the event lists); at each one every group's censoring pointer is
+  // moved past the censorings at or after it (censored at an event time: at
+  // risk then), so atRisk[g] counts group g's observations with time >= t.
+  // head[g]: the latest unswept event time of group g, -Infinity when exhausted
+  const head = new Float64Array(G);
+  for (let g = 0; g < G; g++) head[g] = ptr[2 * g] >= lo[2 * g] ? all[ptr[2 * g]] : -Infinity;
   const atRisk = new Float64Array(G);
   const dead = new Float64Array(G);
   const observed = new Float64Array(G);
@@ -121,33 +129,38 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
   const variance = new Float64Array(G * G);
   const share = new Float64Array(G);
   let nTotal = 0;
-  let remaining = n;
-  while (remaining > 0) {
+  for (;;) {
     let t = -Infinity;
-    for (let c = 0; c < C; c++) if (head[c] > t) t = head[c];
+    for (let g = 0; g < G; g++) if (head[g] > t) t = head[g];
+    if (t === -Infinity) break;
     let dTotal = 0;
-    for (let c = 0; c < C; c++) {
-      if (head[c] !== t) {
-        if ((c & 1) === 0) dead[c >> 1] = 0;
-        continue;
+    for (let g = 0; g < G; g++) {
+      // censorings of group g at or after t
+      const cc = 2 * g + 1;
+      let kc = ptr[cc];
+      const k0c = kc;
+      const firstC = lo[cc];
+      while (kc >= firstC && all[kc] >= t) kc--;
+      ptr[cc] = kc;
+      let cnt = k0c - kc;
+      if (head[g] === t) {
+        const ce = 2 * g;
+        let k = ptr[ce];
+        const k0 = k;
+        const first = lo[ce];
+        while (k >= first && all[k] === t) k--;
+        ptr[ce] = k;
+        head[g] = k >= first ? all[k] : -Infinity;
+        const d = k0 - k;
+        dead[g] = d;
+        dTotal += d;
+        cnt += d;
+      } else {
+        dead[g] = 0;
       }
-      let k = ptr[c];
-      const first = lo[c];
-      const k0 = k;
-      while (k >= first && all[k] === t) k--;
-      ptr[c] = k;
-      head[c] = k >= first ? all[k] : -Infinity;
-      const cnt = k0 - k;
-      const g = c >> 1;
       atRisk[g] += cnt;
       nTotal += cnt;
-      remaining -= cnt;
-      if ((c & 1) === 0) {
-        dead[g] = cnt;
-        dTotal += cnt;
-      }
     }
-    if (dTotal === 0) continue;
     const rate = dTotal / nTotal;
     for (let g = 0; g < G; g++) {
       expected[g] += rate * atRisk[g];

@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { groupByTime, radixSort } from '@/lib/stats/internal';
+import { groupByTime, radixSort, radixSortInPlace } from '@/lib/stats/internal';
 import { prng } from '@/tests/reference/datasets';
 
 // The radix sort must order like the native numeric sort and be stable (common practice).
@@ -51,5 +51,39 @@ describe('radixSort in place on a view', () => {
     expect(Array.from(keys)).toEqual(Array.from(expected));
     expect(Array.from(buf.subarray(0, 3000))).toEqual(Array.from(before.subarray(0, 3000)));
     expect(Array.from(buf.subarray(9000))).toEqual(Array.from(before.subarray(9000)));
+  });
+});
+
+describe('radixSortInPlace', () => {
+  it('sorts views of one buffer in place with shared scratch and histograms, like the native sort', () => {
+    const rnd = prng(11);
+    const n = 30_000;
+    const buf = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const u = rnd();
+      // ties, tiny and huge values, and a block whose high digits are all the same (skipped passes)
+      buf[i] = u < 0.1 ? Math.floor(rnd() * 50) : u < 0.2 ? rnd() * 1e-300 : u < 0.3 ? rnd() * 1e300 : i < 10_000 ? 1 + i / 2 ** 40 : Math.round(rnd() * 1e5) / 100;
+    }
+    const before = buf.slice();
+    const scratch = new Float64Array(20_000);
+    const hist = new Int32Array(4 * 65536);
+    for (const [a, b] of [
+      [0, 10_000],
+      [10_000, 27_000],
+      [27_000, 27_500],
+    ]) {
+      const expected = Float64Array.from(before.subarray(a, b)).sort();
+      radixSortInPlace(buf.subarray(a, b), scratch, hist);
+      expect(Array.from(buf.subarray(a, b))).toEqual(Array.from(expected));
+    }
+    expect(Array.from(buf.subarray(27_500))).toEqual(Array.from(before.subarray(27_500)));
+    const same = new Float64Array(5000).fill(3.5);
+    radixSortInPlace(same, scratch, hist);
+    expect(same.every((x) => x === 3.5)).toBe(true);
+    // powers of two differ only in the top digit: one pass, the result copied back from scratch
+    const pow = Float64Array.from({ length: 5000 }, () => 2 ** Math.floor(rnd() * 8));
+    const powSorted = pow.slice().sort();
+    radixSortInPlace(pow, scratch, hist);
+    expect(Array.from(pow)).toEqual(Array.from(powSorted));
   });
 });
