@@ -54,19 +54,7 @@ export function radixSort(
   let pay2: Int32Array | undefined = pay ? new Int32Array(n) : undefined;
   // all four 16-bit digit histograms in one read of the keys
   const hist = new Int32Array(4 * 65536);
-  {
-    const u32 = new Uint32Array(keys.buffer, keys.byteOffset, 2 * n);
-    const lo = LITTLE_ENDIAN ? 0 : 1;
-    const hi = 1 - lo;
-    for (let i = 0; i < n; i++) {
-      const a = u32[2 * i + lo];
-      const b = u32[2 * i + hi];
-      hist[a & 0xffff]++;
-      hist[65536 + (a >>> 16)]++;
-      hist[131072 + (b & 0xffff)]++;
-      hist[196608 + (b >>> 16)]++;
-    }
-  }
+  countDigits(keys, hist);
   for (let pass = 0; pass < 4; pass++) {
     const word = LITTLE_ENDIAN ? pass >> 1 : 1 - (pass >> 1);
     const shift = (pass & 1) * 16;
@@ -99,6 +87,22 @@ export function radixSort(
   return { keys, payload: pay };
 }
 
+/** All four 16-bit digit histograms of the keys' bit patterns, counted in one read (hist: 4 × 65536, zeroed). */
+function countDigits(keys: Float64Array, hist: Int32Array): void {
+  const n = keys.length;
+  const u32 = new Uint32Array(keys.buffer, keys.byteOffset, 2 * n);
+  const lo = LITTLE_ENDIAN ? 0 : 1;
+  const hi = 1 - lo;
+  for (let i = 0; i < n; i++) {
+    const a = u32[2 * i + lo];
+    const b = u32[2 * i + hi];
+    hist[a & 0xffff]++;
+    hist[65536 + (a >>> 16)]++;
+    hist[131072 + (b & 0xffff)]++;
+    hist[196608 + (b >>> 16)]++;
+  }
+}
+
 /**
  * Keys-only variant of {@link radixSort} that sorts `keys` in place, with the
  * caller's scratch buffer (length >= keys.length) and digit histograms
@@ -116,19 +120,7 @@ export function radixSortInPlace(keys: Float64Array, scratch: Float64Array, hist
   hist.fill(0);
   let src: Float64Array = keys;
   let dst: Float64Array = scratch.subarray(0, n);
-  {
-    const u32 = new Uint32Array(keys.buffer, keys.byteOffset, 2 * n);
-    const lo = LITTLE_ENDIAN ? 0 : 1;
-    const hi = 1 - lo;
-    for (let i = 0; i < n; i++) {
-      const a = u32[2 * i + lo];
-      const b = u32[2 * i + hi];
-      hist[a & 0xffff]++;
-      hist[65536 + (a >>> 16)]++;
-      hist[131072 + (b & 0xffff)]++;
-      hist[196608 + (b >>> 16)]++;
-    }
-  }
+  countDigits(keys, hist);
   for (let pass = 0; pass < 4; pass++) {
     const word = LITTLE_ENDIAN ? pass >> 1 : 1 - (pass >> 1);
     const shift = (pass & 1) * 16;
