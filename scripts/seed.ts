@@ -6,28 +6,9 @@
  * modules: run under scripts/tsconfig.json (`npm run seed`), where that guard is an empty
  * module. Started any other way (`tsx scripts/seed.ts`), it runs itself again that way.
  */
-import { spawnSync } from 'node:child_process';
-import path from 'node:path';
+import { runUnderScriptsTsconfig } from './lib/scripts-tsconfig';
 
-const root = path.resolve(import.meta.dirname, '..');
-
-async function underScriptsTsconfig(): Promise<boolean> {
-  try {
-    await import('server-only');
-    return true;
-  } catch {
-    return false;
-  }
-}
-
-if (!(await underScriptsTsconfig())) {
-  const tsx = path.join(root, 'node_modules/tsx/dist/cli.mjs');
-  const r = spawnSync(process.execPath, [tsx, '--tsconfig', path.join(root, 'scripts/tsconfig.json'), path.join(root, 'scripts/seed.ts')], {
-    stdio: 'inherit',
-    env: process.env,
-  });
-  process.exit(r.status ?? 1);
-}
+await runUnderScriptsTsconfig(import.meta.url);
 
 const { MikroORM } = await import('@mikro-orm/postgresql');
 const { default: config } = await import('../mikro-orm.config');

@@ -17,29 +17,10 @@
  * The registry services are `server-only` modules: this script runs itself again under
  * scripts/tsconfig.json (where that guard is empty) when started with plain tsx.
  */
-import { spawnSync } from 'node:child_process';
-import path from 'node:path';
+import { runUnderScriptsTsconfig } from '../lib/scripts-tsconfig';
 import { performance } from 'node:perf_hooks';
 
-const root = path.resolve(import.meta.dirname, '../..');
-
-async function underScriptsTsconfig(): Promise<boolean> {
-  try {
-    await import('server-only');
-    return true;
-  } catch {
-    return false;
-  }
-}
-
-if (!(await underScriptsTsconfig())) {
-  const tsx = path.join(root, 'node_modules/tsx/dist/cli.mjs');
-  const r = spawnSync(process.execPath, [tsx, '--tsconfig', path.join(root, 'scripts/tsconfig.json'), path.join(root, 'scripts/bench/registry.ts'), ...process.argv.slice(2)], {
-    stdio: 'inherit',
-    env: process.env,
-  });
-  process.exit(r.status ?? 1);
-}
+await runUnderScriptsTsconfig(import.meta.url);
 
 const { randomUUID } = await import('node:crypto');
 const { MikroORM } = await import('@mikro-orm/postgresql');
