@@ -38,6 +38,12 @@ export default async function HomePage() {
           </div>
         ))}
       </section>
+      {areas.length === 0 && (
+        <p className="card text-ink-700">
+          None of your roles opens a working area in this version of Lamina. If you need to work with cases or the recall desk, ask your
+          practice administrator for the matching role.
+        </p>
+      )}
       {areas.length > 0 && (
         <section aria-labelledby="areas">
           <h2 id="areas" className="text-xl">
