@@ -103,12 +103,23 @@ function countDigits(keys: Float64Array, hist: Int32Array): void {
   }
 }
 
+/** Length of the digit-histogram buffer {@link radixSortInPlace} needs (two 16-bit digits). */
+export const IN_PLACE_HIST_LENGTH = 2 * 65536;
+
 /**
- * Keys-only variant of {@link radixSort} that sorts `keys` in place, with the
- * caller's scratch buffer (length >= keys.length) and digit histograms
- * (length 4 * 65536; zeroed here), so that several sorts in one call share
+ * Keys-only sort of `keys` in place, in ascending order, with the caller's
+ * scratch buffer (length >= keys.length) and digit histograms (length
+ * IN_PLACE_HIST_LENGTH; zeroed here), so that several sorts in one call share
  * them. The keys must be finite, >= 0 and free of -0 (the callers fold -0 to
- * +0 as they read the input, `t + 0`). Same order as radixSort.
+ * +0 as they read the input, `t + 0`).
+ *
+ * Two LSD radix passes order the keys by the high 32 bits of their bit
+ * patterns (sign, exponent and the top 20 mantissa bits). Keys that differ
+ * only in the low 32 bits lie within a relative 2^-20 of each other, so they
+ * are rare in survival times (days, or hundredths of a day, over decades
+ * differ in the high word); one linear check then finds any run of equal high
+ * words left out of order and sorts just that run with the built-in typed-array
+ * sort. O(n) for such data, O(n log n) at worst.
  */
 export function radixSortInPlace(keys: Float64Array, scratch: Float64Array, hist: Int32Array): void {
   const n = keys.length;
@@ -117,28 +128,48 @@ export function radixSortInPlace(keys: Float64Array, scratch: Float64Array, hist
     keys.sort();
     return;
   }
-  hist.fill(0);
+  const hiWord = LITTLE_ENDIAN ? 1 : 0;
+  hist.fill(0, 0, IN_PLACE_HIST_LENGTH);
+  {
+    const u32 = new Uint32Array(keys.buffer, keys.byteOffset, 2 * n);
+    for (let i = 0; i < n; i++) {
+      const h = u32[2 * i + hiWord];
+      hist[h & 0xffff]++;
+      hist[65536 + (h >>> 16)]++;
+    }
+  }
   let src: Float64Array = keys;
   let dst: Float64Array = scratch.subarray(0, n);
-  countDigits(keys, hist);
-  for (let pass = 0; pass < 4; pass++) {
-    const word = LITTLE_ENDIAN ? pass >> 1 : 1 - (pass >> 1);
-    const shift = (pass & 1) * 16;
+  for (let pass = 0; pass < 2; pass++) {
+    const shift = pass * 16;
     const u32 = new Uint32Array(src.buffer, src.byteOffset, 2 * n);
     const base = pass * 65536;
-    if (hist[base + ((u32[word] >>> shift) & 0xffff)] === n) continue; // one digit for every key
+    if (hist[base + ((u32[hiWord] >>> shift) & 0xffff)] === n) continue; // one digit for every key
     let sum = 0;
     for (let d = base; d < base + 65536; d++) {
       const c = hist[d];
       hist[d] = sum;
       sum += c;
     }
-    for (let i = 0; i < n; i++) dst[hist[base + ((u32[2 * i + word] >>> shift) & 0xffff)]++] = src[i];
+    for (let i = 0; i < n; i++) dst[hist[base + ((u32[2 * i + hiWord] >>> shift) & 0xffff)]++] = src[i];
     const t = src;
     src = dst;
     dst = t;
   }
   if (src !== keys) keys.set(src);
+  // keys are now ordered by their high words; put any run of equal high words in order
+  const u32 = new Uint32Array(keys.buffer, keys.byteOffset, 2 * n);
+  for (let i = 1; i < n; i++) {
+    if (keys[i] < keys[i - 1]) {
+      const h = u32[2 * i + hiWord];
+      let a = i - 1;
+      while (a > 0 && u32[2 * (a - 1) + hiWord] === h) a--;
+      let b = i + 1;
+      while (b < n && u32[2 * b + hiWord] === h) b++;
+      keys.subarray(a, b).sort();
+      i = b - 1;
+    }
+  }
 }
 
 /**

@@ -1,5 +1,5 @@
 import { zForLevel } from './distributions';
-import { checkObservation, radixSortInPlace } from './internal';
+import { IN_PLACE_HIST_LENGTH, checkObservation, radixSortInPlace } from './internal';
 
 export interface SurvivalObservation {
   time: number;
@@ -48,10 +48,10 @@ function rBounds(s: number, se: number, z: number, confType: ConfType, out: Floa
       out[0] = NaN;
       out[1] = NaN;
     } else {
-      const se2 = z * se;
-      const ls = Math.log(s);
-      out[0] = Math.exp(ls - se2);
-      out[1] = Math.min(Math.exp(ls + se2), 1);
+      // exp(log(s) -/+ z se) as R writes it, with one exp: s / e and s * e
+      const e = Math.exp(z * se);
+      out[0] = s / e;
+      out[1] = Math.min(s * e, 1);
     }
   } else if (s === 0 || s === 1) {
     out[0] = NaN;
@@ -109,7 +109,7 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
   const ev = buf.subarray(0, nev);
   const ce = buf.subarray(nev);
   const scratch = new Float64Array(Math.max(nev, n - nev));
-  const hist = new Int32Array(4 * 65536);
+  const hist = new Int32Array(IN_PLACE_HIST_LENGTH);
   radixSortInPlace(ev, scratch, hist);
   radixSortInPlace(ce, scratch, hist);
   const steps: KaplanMeierStep[] = [];

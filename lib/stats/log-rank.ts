@@ -1,5 +1,5 @@
 import { chiSquareUpperTail } from './distributions';
-import { checkObservation, radixSortInPlace } from './internal';
+import { IN_PLACE_HIST_LENGTH, checkObservation, radixSortInPlace } from './internal';
 import type { SurvivalObservation } from './kaplan-meier';
 
 export interface LogRankResult {
@@ -87,7 +87,7 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
   for (let g = 0; g < G; g++) largest = Math.max(largest, groups[names[g]].length);
   // one scratch buffer and one histogram for all 2G in-place sorts
   const scratch = new Float64Array(largest);
-  const hist = new Int32Array(4 * 65536);
+  const hist = new Int32Array(IN_PLACE_HIST_LENGTH);
   let offset = 0;
   for (let g = 0; g < G; g++) {
     const list = groups[names[g]];

@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { groupByTime, radixSort, radixSortInPlace } from '@/lib/stats/internal';
+import { IN_PLACE_HIST_LENGTH, groupByTime, radixSort, radixSortInPlace } from '@/lib/stats/internal';
 import { prng } from '@/tests/reference/datasets';
 
 // The radix sort must order like the native numeric sort and be stable (common practice).
@@ -66,7 +66,7 @@ describe('radixSortInPlace', () => {
     }
     const before = buf.slice();
     const scratch = new Float64Array(20_000);
-    const hist = new Int32Array(4 * 65536);
+    const hist = new Int32Array(IN_PLACE_HIST_LENGTH);
     for (const [a, b] of [
       [0, 10_000],
       [10_000, 27_000],
@@ -85,5 +85,25 @@ describe('radixSortInPlace', () => {
     const powSorted = pow.slice().sort();
     radixSortInPlace(pow, scratch, hist);
     expect(Array.from(pow)).toEqual(Array.from(powSorted));
+  });
+
+  it('puts in order keys that differ only in their low 32 bits, wherever the runs lie', () => {
+    const rnd = prng(12);
+    const scratch = new Float64Array(10_000);
+    const hist = new Int32Array(IN_PLACE_HIST_LENGTH);
+    // 1 + k * 2^-40 share one high word: a single run, given in reverse order
+    const oneRun = Float64Array.from({ length: 5000 }, (_, i) => 1 + (5000 - i) / 2 ** 40);
+    const oneRunSorted = oneRun.slice().sort();
+    radixSortInPlace(oneRun, scratch, hist);
+    expect(Array.from(oneRun)).toEqual(Array.from(oneRunSorted));
+    // many short runs (at the start, the middle and the end of the order) among ordinary keys
+    const mixed = Float64Array.from({ length: 8000 }, () => {
+      const u = rnd();
+      const base = [0.5, 7, 4000][Math.floor(rnd() * 3)];
+      return u < 0.5 ? base + Math.floor(rnd() * 16) * base * 2 ** -45 : Math.round(rnd() * 4e5) / 100;
+    });
+    const mixedSorted = mixed.slice().sort();
+    radixSortInPlace(mixed, scratch, hist);
+    expect(Array.from(mixed)).toEqual(Array.from(mixedSorted));
   });
 });
