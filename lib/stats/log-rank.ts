@@ -46,79 +46,46 @@ function solveDense(v: Float64Array, b: Float64Array, m: number): Float64Array |
 }
 
 /**
- * Log-rank (Mantel–Haenszel) test of equal survival across groups, as R's
- * survival::survdiff with rho = 0: observed and expected events per group,
- * the hypergeometric variance matrix, and chi-square = (O - E)' V^- (O - E)
- * over the groups with expected > 0, dropping one (df = that count - 1).
- *
- * Each group's event and censoring times are radix-sorted (linear time), then
- * one reverse sweep over the distinct event times merges them: O(n + D * G^2)
- * for D distinct event times and G groups.
- *
- * Defined results: groups with no observations are reported with 0 observed
- * and 0 expected and do not count towards df; with no events at all the
- * statistic is 0 with p = 1. Fewer than two groups with observations is an error.
+ * Reads one group's observations into its slice of `all`, which starts at
+ * `offset`: event times from the front, censoring times from the back.
+ * Returns the end of the event times. Throws a clear error on bad input.
  */
-export function logRank(groups: Readonly<Record<string, readonly SurvivalObservation[]>>): LogRankResult {
-  if (groups === null || typeof groups !== 'object') throw new TypeError('logRank expects { groupName: observations[] }');
-  const names = Object.keys(groups);
-  const G = names.length;
-  let n = 0;
-  let nonEmpty = 0;
-  for (const name of names) {
-    const list = groups[name];
-    if (!Array.isArray(list)) throw new TypeError(`group "${name}": expected an array of { time, event }`);
-    n += list.length;
-    if (list.length > 0) nonEmpty++;
-  }
-  if (nonEmpty < 2) {
-    throw new RangeError(`logRank needs at least two groups with observations, got ${nonEmpty}`);
-  }
-  // Each group's event times and censoring times, sorted separately (keys-only
-  // radix sorts, n keys in all); the sweep then walks the 2G sorted lists
-  // backwards from the latest time, like a merge.
-  // Class c = 2g (events of group g) or 2g + 1 (censorings of group g); all
-  // classes' sorted times are laid end to end in one array.
-  const C = 2 * G;
-  const all = new Float64Array(n);
-  const lo = new Int32Array(C); // first index of class c in `all`
-  const ptr = new Int32Array(C); // current (latest unswept) index of class c
-  let largest = 0;
-  for (let g = 0; g < G; g++) largest = Math.max(largest, groups[names[g]].length);
-  // one scratch buffer and one histogram for all 2G in-place sorts
-  const scratch = new Float64Array(largest);
-  const hist = new Int32Array(IN_PLACE_HIST_LENGTH);
-  let offset = 0;
-  for (let g = 0; g < G; g++) {
-    const list = groups[names[g]];
-    const m = list.length;
-    // group g's slice of `all`: event times from the front, censoring times from the back
-    let ne = offset;
-    let back = offset + m;
-    for (let i = 0; i < m; i++) {
-      const o = list[i];
-      if (o === null || typeof o !== 'object') throw new TypeError(`group "${names[g]}", observation ${i}: expected { time, event }`);
-      const t = o.time;
-      const e = o.event;
-      if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
-        checkObservation(t, e, `group "${names[g]}", observation ${i}`);
-      }
-      // + 0 folds -0 to +0 (the radix sort orders bit patterns)
-      if (e) all[ne++] = t + 0;
-      else all[--back] = t + 0;
+function readGroup(list: readonly SurvivalObservation[], name: string, all: Float64Array, offset: number): number {
+  let ne = offset;
+  let back = offset + list.length;
+  for (let i = 0; i < list.length; i++) {
+    const o = list[i];
+    if (o === null || typeof o !== 'object') throw new TypeError(`group "${name}", observation ${i}: expected { time, event }`);
+    const t = o.time;
+    const e = o.event;
+    if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
+      checkObservation(t, e, `group "${name}", observation ${i}`);
     }
-    radixSortInPlace(all.subarray(offset, ne), scratch, hist);
-    radixSortInPlace(all.subarray(ne, offset + m), scratch, hist);
-    lo[2 * g] = offset;
-    ptr[2 * g] = ne - 1;
-    lo[2 * g + 1] = ne;
-    ptr[2 * g + 1] = offset + m - 1;
-    offset += m;
+    // + 0 folds -0 to +0 (the radix sort orders bit patterns)
+    if (e) all[ne++] = t + 0;
+    else all[--back] = t + 0;
   }
-  // The sweep visits the distinct event times only, latest first (a G-way
-  // merge of the event lists); at each one every group's censoring pointer is
-  // moved past the censorings at or after it (censored at an event time: at
-  // risk then), so atRisk[g] counts group g's observations with time >= t.
+  return ne;
+}
+
+interface Sweep {
+  observed: Float64Array;
+  expected: Float64Array;
+  /** G x G hypergeometric covariance, full (mirrored) */
+  variance: Float64Array;
+}
+
+/**
+ * The sweep over the distinct event times, latest first (a G-way merge of the
+ * event lists); at each one every group's censoring pointer is moved past the
+ * censorings at or after it (censored at an event time: at risk then), so
+ * atRisk[g] counts group g's observations with time >= t. `all` holds each
+ * class's sorted times end to end (class 2g: group g's events, 2g + 1: its
+ * censorings), `lo[c]` the first index of class c and `ptr[c]` its last; `ptr`
+ * is used up. A function of its own so that the JIT optimises this loop on its
+ * own feedback, apart from the set-up and the result.
+ */
+function sweep(all: Float64Array, lo: Int32Array, ptr: Int32Array, G: number): Sweep {
   // head[g]: the latest unswept event time of group g, -Infinity when exhausted
   const head = new Float64Array(G);
   for (let g = 0; g < G; g++) head[g] = ptr[2 * g] >= lo[2 * g] ? all[ptr[2 * g]] : -Infinity;
@@ -180,6 +147,66 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
     }
   }
   for (let g = 0; g < G; g++) for (let h = g + 1; h < G; h++) variance[h * G + g] = variance[g * G + h];
+  return { observed, expected, variance };
+}
+
+/**
+ * Log-rank (Mantel–Haenszel) test of equal survival across groups, as R's
+ * survival::survdiff with rho = 0: observed and expected events per group,
+ * the hypergeometric variance matrix, and chi-square = (O - E)' V^- (O - E)
+ * over the groups with expected > 0, dropping one (df = that count - 1).
+ *
+ * Each group's event and censoring times are radix-sorted (linear time), then
+ * one reverse sweep over the distinct event times merges them: O(n + D * G^2)
+ * for D distinct event times and G groups.
+ *
+ * Defined results: groups with no observations are reported with 0 observed
+ * and 0 expected and do not count towards df; with no events at all the
+ * statistic is 0 with p = 1. Fewer than two groups with observations is an error.
+ */
+export function logRank(groups: Readonly<Record<string, readonly SurvivalObservation[]>>): LogRankResult {
+  if (groups === null || typeof groups !== 'object') throw new TypeError('logRank expects { groupName: observations[] }');
+  const names = Object.keys(groups);
+  const G = names.length;
+  let n = 0;
+  let nonEmpty = 0;
+  for (const name of names) {
+    const list = groups[name];
+    if (!Array.isArray(list)) throw new TypeError(`group "${name}": expected an array of { time, event }`);
+    n += list.length;
+    if (list.length > 0) nonEmpty++;
+  }
+  if (nonEmpty < 2) {
+    throw new RangeError(`logRank needs at least two groups with observations, got ${nonEmpty}`);
+  }
+  // Each group's event times and censoring times, sorted separately (keys-only
+  // radix sorts, n keys in all); the sweep then walks the 2G sorted lists
+  // backwards from the latest time, like a merge.
+  // Class c = 2g (events of group g) or 2g + 1 (censorings of group g); all
+  // classes' sorted times are laid end to end in one array.
+  const C = 2 * G;
+  const all = new Float64Array(n);
+  const lo = new Int32Array(C); // first index of class c in `all`
+  const ptr = new Int32Array(C); // current (latest unswept) index of class c
+  let largest = 0;
+  for (let g = 0; g < G; g++) largest = Math.max(largest, groups[names[g]].length);
+  // one scratch buffer and one histogram for all 2G in-place sorts
+  const scratch = new Float64Array(largest);
+  const hist = new Int32Array(IN_PLACE_HIST_LENGTH);
+  let offset = 0;
+  for (let g = 0; g < G; g++) {
+    const list = groups[names[g]];
+    const m = list.length;
+    const ne = readGroup(list, names[g], all, offset);
+    radixSortInPlace(all.subarray(offset, ne), scratch, hist);
+    radixSortInPlace(all.subarray(ne, offset + m), scratch, hist);
+    lo[2 * g] = offset;
+    ptr[2 * g] = ne - 1;
+    lo[2 * g + 1] = ne;
+    ptr[2 * g + 1] = offset + m - 1;
+    offset += m;
+  }
+  const { observed, expected, variance } = sweep(all, lo, ptr, G);
   const included: number[] = [];
   for (let g = 0; g < G; g++) if (expected[g] > 0) included.push(g);
   const obsOut: Record<string, number> = {};

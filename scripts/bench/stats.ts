@@ -3,19 +3,30 @@
  * same data in the same run: Kaplan–Meier, log-rank (4 groups) and Cox
  * (2 covariates, Efron ties) at 10,000, 100,000 and 1,000,000 observations.
  *
- *   npx tsx scripts/bench/stats.ts            (all three sizes)
+ *   npm run bench -- stats                    (as the product runs Node: NODE_OPTIONS from scripts/lib/services.sh)
+ *   npx tsx scripts/bench/stats.ts            (all three sizes, this shell's NODE_OPTIONS)
  *   npx tsx scripts/bench/stats.ts 10000      (chosen sizes)
  *
- * Data: times in days on a 0.01-day grid (many distinct times, some ties),
- * exponential event times depending on group and covariates, uniform
- * censoring (about a third censored). The data are written to a temporary
- * CSV that scripts/bench/stats.R reads; R times each call with system.time,
- * excluding the read. Lamina's times are wall-clock around each call (the
- * input objects are built beforehand, as a caller would hold them). Each side
- * reports the least time of REPEATS runs (Lamina warmed up on other data first).
- * Each size runs in its own Node process; its peak RSS is that process's
- * maxRSS (process.resourceUsage), which includes the input objects (a few hundred
- * bytes per observation) and the Node/tsx baseline (about 90 MB).
+ * Data: times in days on a 0.01-day grid (many distinct times — about 245,000
+ * at 1,000,000 observations, a harder case than the registry's whole days —
+ * and some ties), exponential event times depending on group and covariates,
+ * uniform censoring (about a third censored). The data are written to a
+ * temporary CSV that scripts/bench/stats.R reads; R times each call with
+ * system.time, excluding the read.
+ *
+ * Lamina's input is built beforehand, untimed, as Lamina's own callers hold it:
+ * one { time, event } object per case (the shape lib/scoring's timeToFailure
+ * returns) for Kaplan–Meier, the same objects pushed into their group's list in
+ * case order for log-rank, and one { time, event, x } row per case for Cox
+ * (built after the first two are dropped). Lamina's times are wall-clock around
+ * each call. Each side reports the least time of REPEATS runs (Lamina warmed up
+ * on other data first).
+ *
+ * Each size runs in its own Node process with this process's NODE_OPTIONS (the
+ * product's, under npm run bench) and once more with Node's defaults, so both
+ * figures are in the table. Peak RSS is the first process's maxRSS
+ * (process.resourceUsage), which includes the input objects and the Node/tsx
+ * baseline (about 90 MB).
  */
 import { execFileSync } from 'node:child_process';
 import { closeSync, mkdtempSync, openSync, rmSync, writeSync } from 'node:fs';
@@ -23,7 +34,7 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { performance } from 'node:perf_hooks';
-import { coxPH, kaplanMeier, logRank, type CoxRow } from '../../lib/stats';
+import { coxPH, kaplanMeier, logRank, type CoxRow, type SurvivalObservation } from '../../lib/stats';
 
 function prng(seed: number): () => number {
   let a = seed >>> 0;
@@ -34,10 +45,6 @@ function prng(seed: number): () => number {
     t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
     return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
   };
-}
-
-interface BenchRow extends CoxRow {
-  group: number;
 }
 
 interface Columns {
@@ -75,11 +82,24 @@ function generate(n: number, seed: number): Columns {
   return c;
 }
 
-/** The input as a caller holds it: one object per observation. */
-function toRows(c: Columns): BenchRow[] {
+/** One { time, event } per case, as lib/scoring's timeToFailure returns it, and the same objects by group. */
+function toObservations(c: Columns): { obs: SurvivalObservation[]; groups: Record<string, SurvivalObservation[]> } {
   const n = c.time.length;
-  const rows: BenchRow[] = new Array(n);
-  for (let i = 0; i < n; i++) rows[i] = { time: c.time[i], event: c.event[i] === 1, x: [c.x1[i], c.x2[i]], group: c.group[i] };
+  const obs: SurvivalObservation[] = new Array(n);
+  const groups: Record<string, SurvivalObservation[]> = { g1: [], g2: [], g3: [], g4: [] };
+  for (let i = 0; i < n; i++) {
+    const o = { time: c.time[i], event: c.event[i] === 1 };
+    obs[i] = o;
+    groups[`g${c.group[i] + 1}`].push(o);
+  }
+  return { obs, groups };
+}
+
+/** One Cox row per case. */
+function toCoxRows(c: Columns): CoxRow[] {
+  const n = c.time.length;
+  const rows: CoxRow[] = new Array(n);
+  for (let i = 0; i < n; i++) rows[i] = { time: c.time[i], event: c.event[i] === 1, x: [c.x1[i], c.x2[i]] };
   return rows;
 }
 
@@ -109,7 +129,7 @@ const HEAP_MB = Number(process.env.LAMINA_BENCH_HEAP_MB ?? 0);
 const HEAP_FLAG = ['--expose-gc', ...(HEAP_MB > 0 ? [`--max-old-space-size=${HEAP_MB}`] : [])];
 
 /** Runs per measurement on each side; the least wall-clock time is reported (the machine is shared). */
-const REPEATS = 3;
+const REPEATS = 5;
 
 function time<T>(f: () => T): { s: number; cpu: number; v: T } {
   let best = Infinity;
@@ -128,12 +148,15 @@ function time<T>(f: () => T): { s: number; cpu: number; v: T } {
   return { s: best / 1000, cpu: cpu / 1000, v: v as T };
 }
 
-function runLamina(rows: BenchRow[]) {
-  const groups: Record<string, BenchRow[]> = { g1: [], g2: [], g3: [], g4: [] };
-  for (const r of rows) groups[`g${r.group + 1}`].push(r);
-  const km = time(() => kaplanMeier(rows));
-  const lr = time(() => logRank(groups));
-  const cx = time(() => coxPH(rows));
+/** Times the three analyses, Cox first, each on its own input (built untimed, then dropped). */
+function runLamina(c: Columns) {
+  let rows: CoxRow[] | null = toCoxRows(c);
+  const cx = time(() => coxPH(rows as CoxRow[]));
+  rows = null; // the Cox rows go before the observations are built
+  (globalThis as { gc?: () => void }).gc?.();
+  const input = toObservations(c);
+  const km = time(() => kaplanMeier(input.obs));
+  const lr = time(() => logRank(input.groups));
   return { km, lr, cx };
 }
 
@@ -151,17 +174,15 @@ interface LaminaSide {
 }
 
 /**
- * One size in a fresh process: generate the data, write the CSV for R, build
- * the row objects, warm up on other data, time the three analyses, and report
- * the process's peak RSS (so each size's figure is its own, not the largest so far).
+ * One size in a fresh process: generate the data (and write the CSV for R when
+ * asked), warm up on other data, time the three analyses, and report the
+ * process's peak RSS (so each size's figure is its own, not the largest so far).
  */
-function child(n: number, csv: string): void {
-  let cols: Columns | null = generate(n, 1000 + n);
-  writeCsv(csv, cols);
-  const rows = toRows(cols);
-  cols = null;
-  runLamina(toRows(generate(10_000, 99))); // warm-up (JIT), untimed
-  const lam = runLamina(rows);
+function child(n: number, csv: string | null): void {
+  const cols = generate(n, 1000 + n);
+  if (csv) writeCsv(csv, cols);
+  for (let k = 0; k < 3; k++) runLamina(generate(10_000, 99 + k)); // warm-up (JIT), untimed
+  const lam = runLamina(cols);
   const out: LaminaSide = {
     n,
     km: lam.km.s,
@@ -190,12 +211,13 @@ function main(): void {
     let rVersion = '';
     for (const n of ns) {
       const csv = path.join(dir, `bench-${n}.csv`);
-      const lamOut = execFileSync(process.execPath, [...HEAP_FLAG, ...process.execArgv, self, '--child', String(n), csv], {
-        encoding: 'utf8',
-        maxBuffer: 1 << 20,
-        stdio: ['ignore', 'pipe', 'inherit'],
-      });
-      const lam = JSON.parse(lamOut.trim().split('\n').pop() as string) as LaminaSide;
+      const runChild = (env: NodeJS.ProcessEnv, withCsv: boolean): LaminaSide => {
+        const args = [...HEAP_FLAG, ...process.execArgv, self, '--child', String(n), ...(withCsv ? [csv] : [])];
+        const text = execFileSync(process.execPath, args, { encoding: 'utf8', maxBuffer: 1 << 20, env, stdio: ['ignore', 'pipe', 'inherit'] });
+        return JSON.parse(text.trim().split('\n').pop() as string) as LaminaSide;
+      };
+      const lam = runChild(process.env, true);
+      const lamDefault = runChild({ ...process.env, NODE_OPTIONS: nodeDefaults(process.env.NODE_OPTIONS) }, false);
       const out = execFileSync('Rscript', [fileURLToPath(new URL('./stats.R', import.meta.url)), csv, String(REPEATS)], {
         encoding: 'utf8',
         maxBuffer: 1 << 20,
@@ -213,23 +235,24 @@ function main(): void {
       };
       rVersion = r.version;
       rmSync(csv, { force: true });
-      const row = (name: string, l: number, rs: number, k: number) =>
-        `| ${n.toLocaleString('en')} | ${name} | ${f(l)} | ${f(rs)} | ${(rs / l).toFixed(1)}x | ${(r.cpu[k] / Math.max(lam.cpu[k], 1e-6)).toFixed(1)}x | ${lam.rssMb.toFixed(0)} |`;
-      lines.push(row('Kaplan–Meier', lam.km, r.km, 0));
-      lines.push(row('log-rank, 4 groups', lam.logRank, r.logRank, 1));
-      lines.push(row('Cox, 2 covariates (Efron)', lam.cox, r.cox, 2));
+      const row = (name: string, l: number, rs: number, k: number, ld: number) =>
+        `| ${n.toLocaleString('en')} | ${name} | ${f(l)} | ${f(rs)} | ${(rs / l).toFixed(1)}x | ${(r.cpu[k] / Math.max(lam.cpu[k], 1e-6)).toFixed(1)}x | ${lam.rssMb.toFixed(0)} | ${f(ld)} | ${(rs / ld).toFixed(1)}x |`;
+      lines.push(row('Kaplan–Meier', lam.km, r.km, 0, lamDefault.km));
+      lines.push(row('log-rank, 4 groups', lam.logRank, r.logRank, 1, lamDefault.logRank));
+      lines.push(row('Cox, 2 covariates (Efron)', lam.cox, r.cox, 2, lamDefault.cox));
       checks.push(
         `n=${n}: KM rows ${lam.kmRows} vs ${r.kmRows}, last S rel.diff ${rel(lam.kmLast, r.kmLast).toExponential(1)}; ` +
           `log-rank chi-square rel.diff ${rel(lam.chiSquare, r.chiSquare).toExponential(1)}; ` +
           `Cox coef rel.diff ${rel(lam.coef[0], r.coef[0]).toExponential(1)}, ${rel(lam.coef[1], r.coef[1]).toExponential(1)}`,
       );
     }
+    const opts = process.env.NODE_OPTIONS?.trim();
     console.log(
-      `Lamina on Node ${process.version} (--expose-gc, heap collected before each timed run${HEAP_MB > 0 ? `, --max-old-space-size=${HEAP_MB}` : ''}); ${rVersion}; ` +
-        `least of ${REPEATS} runs each side; wall-clock seconds, and the ratio of CPU seconds as well\n`,
+      `Lamina on Node ${process.version} with NODE_OPTIONS ${opts ? `"${opts}"` : '(none)'} (--expose-gc, heap collected before each timed run${HEAP_MB > 0 ? `, --max-old-space-size=${HEAP_MB}` : ''}), ` +
+        `and again with Node's defaults; ${rVersion}; least of ${REPEATS} runs each side; wall-clock seconds, and the ratio of CPU seconds as well\n`,
     );
-    console.log('| n | analysis | Lamina s | R s | R / Lamina | R / Lamina, CPU time | Lamina peak RSS MB |');
-    console.log('|---:|---|---:|---:|---:|---:|---:|');
+    console.log('| n | analysis | Lamina s | R s | R / Lamina | R / Lamina, CPU time | Lamina peak RSS MB | Lamina s, Node defaults | R / Lamina, Node defaults |');
+    console.log('|---:|---|---:|---:|---:|---:|---:|---:|---:|');
     for (const l of lines) console.log(l);
     console.log('\nSame data, same answers:');
     for (const c of checks) console.log(`- ${c}`);
@@ -238,6 +261,14 @@ function main(): void {
   }
 }
 
+/** NODE_OPTIONS without the V8 heap-sizing flags the product adds (scripts/lib/services.sh). */
+function nodeDefaults(options: string | undefined): string {
+  return (options ?? '')
+    .split(/\s+/)
+    .filter((o) => o && !/^--(max|min)-semi-space-size/.test(o))
+    .join(' ');
+}
+
 const at = process.argv.indexOf('--child');
-if (at >= 0) child(Number(process.argv[at + 1]), process.argv[at + 2]);
+if (at >= 0) child(Number(process.argv[at + 1]), process.argv[at + 2] ?? null);
 else main();
