@@ -48,6 +48,8 @@ interface ChildSpec {
   name: string;
   command: string;
   args: string[];
+  /** NODE_OPTIONS added to the inherited ones */
+  nodeOptions?: string;
 }
 
 class Child {
@@ -66,10 +68,11 @@ class Child {
 
   start() {
     if (stopping) return;
-    const { name, command, args } = this.spec;
+    const { name, command, args, nodeOptions } = this.spec;
+    const env = nodeOptions ? { ...process.env, NODE_OPTIONS: [process.env.NODE_OPTIONS, nodeOptions].filter(Boolean).join(' ') } : process.env;
     // detached: a process group of its own, so Ctrl-C reaches only the supervisor, which then
     // stops children in order; and killing the group also ends any grandchildren.
-    const proc = spawn(command, args, { cwd: repo, env: process.env, detached: true, stdio: ['ignore', 'pipe', 'pipe'] });
+    const proc = spawn(command, args, { cwd: repo, env, detached: true, stdio: ['ignore', 'pipe', 'pipe'] });
     this.proc = proc;
     this.startedAt = Date.now();
     if (proc.pid) fs.writeFileSync(this.pidFile, `${proc.pid}\n`);
@@ -252,7 +255,12 @@ async function announce() {
 // Main
 
 const children: Child[] = [
-  new Child({ name: 'web', command: path.join(repo, 'node_modules/.bin/next'), args: ['start', '-H', '127.0.0.1', '-p', String(webPort)] }),
+  new Child({
+    name: 'web',
+    command: path.join(repo, 'node_modules/.bin/next'),
+    args: ['start', '-H', '127.0.0.1', '-p', String(webPort)],
+    nodeOptions: process.env.LAMINA_WEB_NODE_OPTIONS, // scripts/lib/services.sh
+  }),
 ];
 if (fs.existsSync(path.join(repo, 'jobs/worker.ts'))) {
   children.push(new Child({ name: 'worker', command: process.execPath, args: ['--import', 'tsx', 'jobs/worker.ts'] }));

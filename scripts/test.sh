@@ -103,7 +103,8 @@ build() { NEXT_DIST_DIR=.next-test node_modules/.bin/next build; }
 # (setsid) so that stopping it stops anything it spawned. Runs inside a step's subshell, so the
 # pids go to files.
 start_web() {
-  (NEXT_DIST_DIR=.next-test exec setsid node_modules/.bin/next start -H 127.0.0.1 -p "$LAMINA_WEB_PORT" \
+  (NODE_OPTIONS="${NODE_OPTIONS:+$NODE_OPTIONS }${LAMINA_WEB_NODE_OPTIONS:-}" NEXT_DIST_DIR=.next-test \
+    exec setsid node_modules/.bin/next start -H 127.0.0.1 -p "$LAMINA_WEB_PORT" \
     </dev/null >"$TMP/logs/web.log" 2>&1 9>&-) &
   local web=$!
   echo "$web" >"$TMP/run/web.pid"

@@ -3,8 +3,8 @@
  * same data in the same run: Kaplan–Meier, log-rank (4 groups) and Cox
  * (2 covariates, Efron ties) at 10,000, 100,000 and 1,000,000 observations.
  *
- *   npm run bench -- stats                    (as the product runs Node: NODE_OPTIONS from scripts/lib/services.sh)
- *   npx tsx scripts/bench/stats.ts            (all three sizes, this shell's NODE_OPTIONS)
+ *   npm run bench -- stats                    (all three sizes, with the web server's Node options)
+ *   npx tsx scripts/bench/stats.ts            (the same; set LAMINA_WEB_NODE_OPTIONS for the web server's options)
  *   npx tsx scripts/bench/stats.ts 10000      (chosen sizes)
  *
  * Data: times in days on a 0.01-day grid (many distinct times — about 245,000
@@ -22,9 +22,9 @@
  * each call. Each side reports the least time of REPEATS runs (Lamina warmed up
  * on other data first).
  *
- * Each size runs in its own Node process with this process's NODE_OPTIONS (the
- * product's, under npm run bench) and once more with Node's defaults, so both
- * figures are in the table. Peak RSS is the first process's maxRSS
+ * Each size runs in its own Node process with the web server's Node options
+ * (LAMINA_WEB_NODE_OPTIONS from scripts/lib/services.sh, exported by npm run
+ * bench) and once more with Node's defaults, so both figures are in the table. Peak RSS is the first process's maxRSS
  * (process.resourceUsage), which includes the input objects and the Node/tsx
  * baseline (about 90 MB).
  */
@@ -126,6 +126,8 @@ function writeCsv(file: string, c: Columns): void {
  * about 180 MB — makes V8 collect during the timed runs).
  */
 const HEAP_MB = Number(process.env.LAMINA_BENCH_HEAP_MB ?? 0);
+/** The web server's Node options (scripts/lib/services.sh, exported by npm run bench) added to this shell's. */
+const WEB_NODE_OPTIONS = [process.env.NODE_OPTIONS, process.env.LAMINA_WEB_NODE_OPTIONS].filter(Boolean).join(' ');
 const HEAP_FLAG = ['--expose-gc', ...(HEAP_MB > 0 ? [`--max-old-space-size=${HEAP_MB}`] : [])];
 
 /** Runs per measurement on each side; the least wall-clock time is reported (the machine is shared). */
@@ -216,8 +218,8 @@ function main(): void {
         const text = execFileSync(process.execPath, args, { encoding: 'utf8', maxBuffer: 1 << 20, env, stdio: ['ignore', 'pipe', 'inherit'] });
         return JSON.parse(text.trim().split('\n').pop() as string) as LaminaSide;
       };
-      const lam = runChild(process.env, true);
-      const lamDefault = runChild({ ...process.env, NODE_OPTIONS: nodeDefaults(process.env.NODE_OPTIONS) }, false);
+      const lam = runChild({ ...process.env, NODE_OPTIONS: WEB_NODE_OPTIONS }, true);
+      const lamDefault = runChild(process.env, false);
       const out = execFileSync('Rscript', [fileURLToPath(new URL('./stats.R', import.meta.url)), csv, String(REPEATS)], {
         encoding: 'utf8',
         maxBuffer: 1 << 20,
@@ -246,10 +248,12 @@ function main(): void {
           `Cox coef rel.diff ${rel(lam.coef[0], r.coef[0]).toExponential(1)}, ${rel(lam.coef[1], r.coef[1]).toExponential(1)}`,
       );
     }
-    const opts = process.env.NODE_OPTIONS?.trim();
+    const shown = (o: string | undefined) => (o?.trim() ? `"${o.trim()}"` : '(none)');
     console.log(
-      `Lamina on Node ${process.version} with NODE_OPTIONS ${opts ? `"${opts}"` : '(none)'} (--expose-gc, heap collected before each timed run${HEAP_MB > 0 ? `, --max-old-space-size=${HEAP_MB}` : ''}), ` +
-        `and again with Node's defaults; ${rVersion}; least of ${REPEATS} runs each side; wall-clock seconds, and the ratio of CPU seconds as well\n`,
+      `Lamina on Node ${process.version} as the web server runs it, NODE_OPTIONS ${shown(WEB_NODE_OPTIONS)}` +
+        `${process.env.LAMINA_WEB_NODE_OPTIONS ? '' : ' (LAMINA_WEB_NODE_OPTIONS unset: run it with npm run bench -- stats)'}, ` +
+        `and again with NODE_OPTIONS ${shown(process.env.NODE_OPTIONS)} (Node's defaults); --expose-gc, heap collected before each timed run` +
+        `${HEAP_MB > 0 ? `, --max-old-space-size=${HEAP_MB}` : ''}; ${rVersion}; least of ${REPEATS} runs each side; wall-clock seconds, and the ratio of CPU seconds as well\n`,
     );
     console.log('| n | analysis | Lamina s | R s | R / Lamina | R / Lamina, CPU time | Lamina peak RSS MB | Lamina s, Node defaults | R / Lamina, Node defaults |');
     console.log('|---:|---|---:|---:|---:|---:|---:|---:|---:|');
@@ -259,14 +263,6 @@ function main(): void {
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }
-}
-
-/** NODE_OPTIONS without the V8 heap-sizing flags the product adds (scripts/lib/services.sh). */
-function nodeDefaults(options: string | undefined): string {
-  return (options ?? '')
-    .split(/\s+/)
-    .filter((o) => o && !/^--(max|min)-semi-space-size/.test(o))
-    .join(' ');
 }
 
 const at = process.argv.indexOf('--child');

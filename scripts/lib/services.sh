@@ -213,14 +213,12 @@ lamina_export_env() {
   export APP_URL="http://127.0.0.1:$LAMINA_WEB_PORT"
   export NEXTAUTH_URL="$APP_URL"
   export NEXT_TELEMETRY_DISABLED=1
-  # Node for Lamina's processes: a 64 MB young generation (semi-space) instead of V8's 16 MB, so
-  # an analysis that returns many small objects (a Kaplan–Meier curve of 245,000 rows) is not
-  # copied by the scavenger several times over; about 2x faster there, up to ~100 MB more memory
-  # when busy. scripts/bench/stats.ts measures it both ways.
-  case " ${NODE_OPTIONS:-} " in
-    *" --max-semi-space-size="*) ;;
-    *) export NODE_OPTIONS="${NODE_OPTIONS:+$NODE_OPTIONS }--max-semi-space-size=64" ;;
-  esac
+  # Node options for the web server, where the analyses run: a 64 MB young generation (semi-space)
+  # instead of V8's 16 MB, so that an analysis returning many small objects (a Kaplan–Meier curve
+  # of 245,000 rows) is not copied by the scavenger several times over: about 2x faster there, for
+  # up to ~100 MB more memory when busy. The worker keeps Node's defaults. scripts/bench/stats.ts
+  # measures both ways.
+  export LAMINA_WEB_NODE_OPTIONS="--max-semi-space-size=64"
 }
 
 # ----------------------------------------------------------------------------------------------
