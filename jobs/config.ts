@@ -4,6 +4,7 @@
  * lib/env.ts). Every value has a default; tests and benchmarks shorten the waits.
  */
 import { z } from 'zod';
+import { RECALL_SCAN_DEFAULT_PATTERN } from '@/lib/queue/names';
 
 const int = (min: number, max: number) => z.coerce.number().int().min(min).max(max);
 const flag = z
@@ -25,7 +26,7 @@ export const WorkerConfigSchema = z
     /** SMTP connection, greeting and socket timeout, ms (shorter than the lock). */
     SMTP_TIMEOUT_MS: int(1_000, 300_000).default(10_000),
     /** The scan's schedule (cron, server time): every hour at minute 0 by default. */
-    RECALL_SCAN_PATTERN: z.string().trim().min(9).max(60).default('0 * * * *'),
+    RECALL_SCAN_PATTERN: z.string().trim().min(9).max(60).default(RECALL_SCAN_DEFAULT_PATTERN),
     /** Scan at start and after every reconnection to Redis (default yes). */
     RECALL_SCAN_ON_START: flag,
   })

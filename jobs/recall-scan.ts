@@ -20,6 +20,8 @@ import { ContactLogEntrySchema, type RecallVisit } from '@/entities';
 import type { RecallScanData, RemindersQueue } from '@/lib/queue';
 import { addDaysTo, type CalendarDate } from '@/lib/registry/calendar-date';
 import {
+  CONTACT_STATUSES,
+  OPEN_VISIT_STATUSES,
   isFinalStatus,
   quietDelayMs,
   shouldCloseAsLost,
@@ -100,7 +102,7 @@ async function markPastDueMissed(em: EntityManager, practiceId: string, today: C
     const now = new Date();
     const rows = (await knex('recall_visit')
       .where('practice_id', practiceId)
-      .whereIn('status', ['planned', 'invited', 'confirmed'])
+      .whereIn('status', OPEN_VISIT_STATUSES)
       .where('window_end', '<', today)
       .forUpdate()
       .select('id', 'status', 'case_id')) as { id: string; status: VisitStatus; case_id: string }[];
@@ -218,7 +220,7 @@ async function queueSteps(ctx: ScanContext, practiceId: string, timeZone: string
     .join('treatment_case as c', 'c.id', 'v.case_id')
     .join('patient as p', 'p.id', 'c.patient_id')
     .where('v.practice_id', practiceId)
-    .whereIn('v.status', ['planned', 'invited'])
+    .whereIn('v.status', CONTACT_STATUSES)
     .where('v.window_end', '>=', today)
     .where((b) => b.where('v.status', 'invited').orWhere('v.due_date', '<=', horizon))
     .select('v.id', 'v.status', 'v.due_date', 'v.window_end', knex.raw(`${EMAIL_CONSENT_SQL} as consent`))) as {

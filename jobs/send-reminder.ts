@@ -47,11 +47,12 @@ import { randomUUID } from 'node:crypto';
 import type { Transporter } from 'nodemailer';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { JOBS, parseJobData, type SendReminderData } from '@/lib/queue';
-import { quietDelayMs, type ReminderStep } from '@/lib/recall/reminders';
+import { CONTACT_STATUSES, needsContact, quietDelayMs, type ReminderStep } from '@/lib/recall/reminders';
+import { isPastDue } from '@/lib/recall/plan';
+import type { VisitStatus } from '@/lib/recall/status';
 import { issueReplyToken, issueUnsubscribeToken } from '@/lib/recall/reply-token';
 import { appointmentAttachment } from '@/lib/calendar/ics';
 import { listUnsubscribeHeaders, reminderSubject } from '@/lib/mail/templates/ReminderEmail';
-import { compareDates } from '@/lib/registry/calendar-date';
 import {
   EMAIL_CONSENT_SQL,
   dayIn,
@@ -98,7 +99,7 @@ interface ClaimRow {
   queued_at: string;
   visit_id: string;
   case_id: string;
-  visit_status: string;
+  visit_status: VisitStatus;
   due_date: string;
   window_end: string;
   proposed_start: string | null;
@@ -116,7 +117,8 @@ type Claim =
   | { kind: 'no_consent'; reminderId: string }
   | { kind: 'send'; row: ClaimRow; uncertain: boolean };
 
-const CONTACT_STATUSES = ['planned', 'invited'];
+/** The visit statuses that still need contact (lib/recall/reminders), as an SQL list. */
+const CONTACT_STATUSES_SQL = CONTACT_STATUSES.map((s) => `'${s}'`).join(', ');
 
 function selectRow(ctx: SendContext, data: SendReminderData): Promise<ClaimRow | undefined> {
   const knex = knexOf(ctx.em());
@@ -186,9 +188,8 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
       if (await skip('No recall-contact consent by e-mail: nothing was sent.')) return { kind: 'no_consent', reminderId: row.id };
       continue;
     }
-    const today = dayIn(row.time_zone, now);
-    if (!CONTACT_STATUSES.includes(row.visit_status) || compareDates(today, row.window_end) > 0) {
-      const ended = compareDates(today, row.window_end) > 0;
+    const ended = isPastDue({ windowEnd: row.window_end }, dayIn(row.time_zone, now));
+    if (!needsContact(row.visit_status) || ended) {
       if (await skip(`The visit no longer needs contact (${row.visit_status}${ended ? ', window ended' : ''}).`)) {
         return { kind: 'done', outcome: 'no_longer_needed', reminderId: row.id };
       }
@@ -202,7 +203,7 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
          from recall_visit v, treatment_case c, patient p
         where r.id = ? and r.status = ? and r.claim_expires_at is not distinct from ?
           and v.id = r.visit_id and c.id = v.case_id and p.id = c.patient_id
-          and v.status in ('planned', 'invited') and ${EMAIL_CONSENT_SQL}
+          and v.status in (${CONTACT_STATUSES_SQL}) and ${EMAIL_CONSENT_SQL}
         returning r.id`,
       [new Date(now.getTime() + ctx.leaseMs), now, row.id, row.status, row.claim_expires_at],
     );
@@ -212,7 +213,7 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
 }
 
 /** The message of a claimed row: the same on every attempt. */
-async function compose(ctx: SendContext, row: ClaimRow, step: ReminderStep, now: Date) {
+async function compose(ctx: SendContext, row: ClaimRow, step: ReminderStep, messageId: string, now: Date) {
   const queuedAt = new Date(row.queued_at);
   const reply = issueReplyToken({ visitId: row.visit_id, reminderId: row.id, nonce: linkNonce('reply', row.id) }, ctx.linkSecret, queuedAt);
   const unsubscribe = issueUnsubscribeToken({ visitId: row.visit_id, reminderId: row.id, nonce: linkNonce('unsubscribe', row.id) }, ctx.linkSecret, queuedAt);
@@ -242,7 +243,7 @@ async function compose(ctx: SendContext, row: ClaimRow, step: ReminderStep, now:
     subject: reminderSubject(step, row.practice_name, row.due_date),
     html,
     text,
-    messageId: reminderMessageId(row.id, ctx.mailFrom),
+    messageId,
     // base64 bodies: cheaper to encode than quoted-printable, and every mail program reads them.
     textEncoding: 'base64' as const,
     headers: { ...listUnsubscribeHeaders(`${base}/api/unsubscribe/${unsubscribe.token}`), 'Auto-Submitted': 'auto-generated' },
@@ -363,7 +364,7 @@ export async function processSendReminder(
     }
   }
 
-  const message = await compose(ctx, row, data.step, now);
+  const message = await compose(ctx, row, data.step, messageId, now);
   try {
     await ctx.transport.sendMail(message);
   } catch (e) {

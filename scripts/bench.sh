@@ -25,19 +25,11 @@ if ((${#benches[@]} == 0)); then
   exit 1
 fi
 
-TMP="$(mktemp -d /tmp/lamina-bench.XXXXXX)"
-chmod 755 "$TMP"
-export LAMINA_DATA="$TMP" LAMINA_PROFILE=test LAMINA_DB_NAME=lamina
-export LAMINA_PG_PORT="$(pick_free_port 55533)"
-export LAMINA_REDIS_PORT="$(pick_free_port 56480)"
-export LAMINA_SMTP_PORT="$(pick_free_port 52625)"
-export LAMINA_MAILBOX_PORT="$(pick_free_port $((LAMINA_SMTP_PORT + 1)))"
-export LAMINA_WEB_PORT="$(pick_free_port 53100)"
-lamina_defaults
+lamina_throwaway_env bench 55533 56480 52625 53100
 
 cleanup() {
   services_stop 2>/dev/null || true
-  rm -rf "$TMP"
+  rm -rf "$LAMINA_DATA"
 }
 trap cleanup EXIT
 trap 'exit 130' INT
@@ -47,10 +39,10 @@ ensure_apt_packages "${LAMINA_APT_BASE[@]}" "${LAMINA_APT_TEST[@]}"
 ensure_node_modules
 lamina_export_env
 export NODE_ENV=production CI=true
-NEXTAUTH_SECRET="$(openssl rand -hex 32)"
+NEXTAUTH_SECRET="$(random_secret)"
 export NEXTAUTH_SECRET
 services_start
-if [[ -f scripts/migrate.ts ]]; then node_modules/.bin/tsx scripts/migrate.ts; fi
+lamina_migrate
 
 failed=()
 for file in "${benches[@]}"; do

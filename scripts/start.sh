@@ -49,16 +49,8 @@ stop_leftover_children() {
   done
 }
 
-run_migrations() {
-  [[ -f scripts/migrate.ts ]] || lamina_die "scripts/migrate.ts is missing"
-  node_modules/.bin/tsx scripts/migrate.ts
-}
-
 # The seed prints the demo sign-ins; keep its output for the banner.
-run_seed() {
-  [[ -f scripts/seed.ts ]] || lamina_die "scripts/seed.ts is missing"
-  node_modules/.bin/tsx scripts/seed.ts >"$LAMINA_SEED_OUTPUT"
-}
+run_seed() { lamina_seed >"$LAMINA_SEED_OUTPUT"; }
 
 # build_fingerprint: a hash of every file git sees (tracked and untracked, not ignored), the
 # Node version and the environment a build may bake in. Empty when this is not a git checkout.
@@ -117,7 +109,7 @@ main() {
   lamina_export_env
 
   timed "services" services_start
-  timed "migrations" run_migrations
+  timed "migrations" lamina_migrate
   timed "demo seed" run_seed
   timed "build" build_if_needed
   lamina_log "set-up took $((SECONDS - t0)) s; starting the web server"

@@ -1,8 +1,8 @@
 /**
  * The supervisor of `npm start` (scripts/start.sh sets up, then execs this).
  *
- * - Runs the web server (`next start`) and, when jobs/worker.ts exists, the queue worker as
- *   children, each in a process group of its own; a child that exits is restarted with a
+ * - Runs the web server (`next start`) and the queue worker (jobs/worker.ts) as children,
+ *   each in a process group of its own; a child that exits is restarted with a
  *   growing delay (1 s, 2 s, 4 s … 30 s; back to 1 s after a minute of good health).
  * - Watches PostgreSQL, Redis and the mail fake (daemons started by scripts/lib/services.sh)
  *   and restarts one that stops answering, through the same script.
@@ -178,11 +178,10 @@ interface Service {
   delay: number;
 }
 
-const services: Service[] = [
-  { name: 'PostgreSQL', alive: pgAlive, start: 'pg-start', failures: 0, nextTry: 0, delay: 2000 },
-  { name: 'Redis', alive: redisAlive, start: 'redis-start', failures: 0, nextTry: 0, delay: 2000 },
-  { name: 'mail fake', alive: mailAlive, start: 'mail-start', failures: 0, nextTry: 0, delay: 2000 },
-];
+/** The first wait after a failed restart; doubled after each further failure, up to a minute. */
+const SERVICE_RETRY_MS = 2000;
+const service = (name: string, alive: () => Promise<boolean>, start: string): Service => ({ name, alive, start, failures: 0, nextTry: 0, delay: SERVICE_RETRY_MS });
+const services: Service[] = [service('PostgreSQL', pgAlive, 'pg-start'), service('Redis', redisAlive, 'redis-start'), service('mail fake', mailAlive, 'mail-start')];
 
 let watching: Promise<void> = Promise.resolve();
 let watchTimer: NodeJS.Timeout | null = null;
@@ -192,7 +191,7 @@ async function watchServices() {
     if (stopping) return;
     if (await s.alive()) {
       s.failures = 0;
-      s.delay = 2000;
+      s.delay = SERVICE_RETRY_MS;
       continue;
     }
     s.failures += 1;
@@ -203,7 +202,7 @@ async function watchServices() {
     if (code === 0) {
       say(`${s.name} is back`);
       s.failures = 0;
-      s.delay = 2000;
+      s.delay = SERVICE_RETRY_MS;
     } else {
       s.nextTry = Date.now() + s.delay;
       say(`${s.name} did not restart (exit ${code}); trying again in ${s.delay / 1000}s`);
@@ -233,12 +232,13 @@ async function webAnswers(): Promise<boolean> {
 
 async function announce() {
   const deadline = Date.now() + 90_000;
-  while (!stopping && Date.now() < deadline) {
-    if (await webAnswers()) break;
-    await sleep(250);
+  let up = false;
+  while (!stopping && !up && Date.now() < deadline) {
+    up = await webAnswers();
+    if (!up) await sleep(250);
   }
   if (stopping) return;
-  if (!(await webAnswers())) {
+  if (!up) {
     say(`the web server is not answering yet; see ${path.join(logDir, 'web.log')}`);
     return;
   }
@@ -261,10 +261,9 @@ const children: Child[] = [
     args: ['start', '-H', '127.0.0.1', '-p', String(webPort)],
     nodeOptions: process.env.LAMINA_WEB_NODE_OPTIONS, // scripts/lib/services.sh
   }),
+  // TSX_TSCONFIG_PATH (exported by start.sh) maps `server-only` to an empty module outside Next.
+  new Child({ name: 'worker', command: process.execPath, args: ['--import', 'tsx', 'jobs/worker.ts'] }),
 ];
-if (fs.existsSync(path.join(repo, 'jobs/worker.ts'))) {
-  children.push(new Child({ name: 'worker', command: process.execPath, args: ['--import', 'tsx', 'jobs/worker.ts'] }));
-}
 
 const supervisorPid = path.join(runDir, 'supervisor.pid');
 

@@ -8,7 +8,7 @@
 #   3. migrations, then vitest (all projects: unit, reference, integration)
 #   4. a fresh database: migrations and the demo seed (the e2e tests sign in as demo users)
 #   5. `next build` into .next-test (a running `npm start` keeps its .next), `next start`,
-#      the worker if there is one, then Playwright in Debian's Chromium
+#      the worker, then Playwright in Debian's Chromium
 #   6. everything stopped, then scripts/summarize-tests.mjs sums every runner's JSON report
 #
 # Service logs of a failed run are copied to test-results/logs/.
@@ -19,16 +19,8 @@ cd "$(dirname "${BASH_SOURCE[0]}")/.."
 source scripts/lib/services.sh
 
 export CI=true
-TMP="$(mktemp -d /tmp/lamina-test.XXXXXX)"
-chmod 755 "$TMP" # the postgres user must reach $TMP/pg
-# The database keeps the app's name: MikroORM writes migrations/.snapshot-<db name>.json.
-export LAMINA_DATA="$TMP" LAMINA_PROFILE=test LAMINA_DB_NAME=lamina
-export LAMINA_PG_PORT="${LAMINA_TEST_PG_PORT:-$(pick_free_port 55433)}"
-export LAMINA_REDIS_PORT="${LAMINA_TEST_REDIS_PORT:-$(pick_free_port 56380)}"
-export LAMINA_SMTP_PORT="${LAMINA_TEST_SMTP_PORT:-$(pick_free_port 52525)}"
-export LAMINA_MAILBOX_PORT="${LAMINA_TEST_MAILBOX_PORT:-$(pick_free_port $((LAMINA_SMTP_PORT + 1)))}"
-export LAMINA_WEB_PORT="${LAMINA_TEST_WEB_PORT:-$(pick_free_port 53000)}"
-lamina_defaults
+lamina_throwaway_env test 55433 56380 52525 53000 LAMINA_TEST
+TMP="$LAMINA_DATA"
 
 RESULTS="$TMP/results"
 MANIFEST="$RESULTS/manifest.tsv"
@@ -71,13 +63,10 @@ runner() {
   lamina_log "$name: exit $rc ($((SECONDS - t0)) s)"
 }
 
-migrate() { node_modules/.bin/tsx scripts/migrate.ts; }
-seed() { node_modules/.bin/tsx scripts/seed.ts; }
-
 reset_database() {
   pg_recreate_database "$LAMINA_DB_NAME"
-  migrate
-  seed
+  lamina_migrate
+  lamina_seed
 }
 
 # http_answers URL: the server sent any HTTP response (a redirect or an error page counts).
@@ -99,7 +88,7 @@ unlock_e2e() { flock -u 9 2>/dev/null || true; exec 9>&-; }
 
 build() { NEXT_DIST_DIR=.next-test node_modules/.bin/next build; }
 
-# start_web: next start (and the worker if there is one), each in a process group of its own
+# start_web: next start and the worker, each in a process group of its own
 # (setsid) so that stopping it stops anything it spawned. Runs inside a step's subshell, so the
 # pids go to files.
 start_web() {
@@ -108,27 +97,16 @@ start_web() {
     </dev/null >"$TMP/logs/web.log" 2>&1 9>&-) &
   local web=$!
   echo "$web" >"$TMP/run/web.pid"
-  if [[ -f jobs/worker.ts ]]; then
-    # The scripts tsconfig maps `server-only` to an empty module outside Next (see jobs/worker.ts).
-    (TSX_TSCONFIG_PATH=scripts/tsconfig.json exec setsid node --import tsx jobs/worker.ts </dev/null >"$TMP/logs/worker.log" 2>&1 9>&-) &
-    echo $! >"$TMP/run/worker.pid"
-  fi
-  local i
-  for ((i = 0; i < 240; i++)); do
-    http_answers "$APP_URL/" && { lamina_log "web server answering at $APP_URL"; return 0; }
-    pid_alive "$web" || { tail -n 30 "$TMP/logs/web.log" >&2; lamina_die "the web server exited"; }
-    sleep 0.25
-  done
-  tail -n 30 "$TMP/logs/web.log" >&2
-  lamina_die "the web server did not answer in 60 s"
+  # The scripts tsconfig maps `server-only` to an empty module outside Next (see jobs/worker.ts).
+  (TSX_TSCONFIG_PATH=scripts/tsconfig.json exec setsid node --import tsx jobs/worker.ts </dev/null >"$TMP/logs/worker.log" 2>&1 9>&-) &
+  echo $! >"$TMP/run/worker.pid"
+  wait_for_launch 60 "$web" "the web server" "$TMP/logs/web.log" http_answers "$APP_URL/"
+  lamina_log "web server answering at $APP_URL"
 }
 
 stop_app() {
-  local name pid
-  for name in worker web; do
-    if pid="$(read_pidfile "$TMP/run/$name.pid")"; then stop_pid "$pid" "$name" 10; fi
-    rm -f "$TMP/run/$name.pid"
-  done
+  local name
+  for name in worker web; do stop_pidfile "$TMP/run/$name.pid" "$name" 10 || true; done
 }
 
 stop_everything() {
@@ -185,14 +163,14 @@ main() {
   # What the app reads (lib/env.ts), for every step. vitest runs with NODE_ENV=test.
   lamina_export_env
   export NODE_ENV=production
-  NEXTAUTH_SECRET="$(openssl rand -hex 32 2>/dev/null || node -e 'console.log(require("crypto").randomBytes(32).toString("hex"))')"
+  NEXTAUTH_SECRET="$(random_secret)"
   export NEXTAUTH_SECRET
   export E2E_BASE_URL="$APP_URL"
   lamina_log "ports: web $LAMINA_WEB_PORT, PostgreSQL $LAMINA_PG_PORT, Redis $LAMINA_REDIS_PORT, SMTP $LAMINA_SMTP_PORT, mailbox $LAMINA_MAILBOX_PORT; data $TMP"
 
   step "start services" services_start
   ok || { finish; return; }
-  step "migrate" migrate
+  step "migrate" lamina_migrate
   ok || { finish; return; }
 
   runner vitest "$RESULTS/vitest.json" env NODE_ENV=test node_modules/.bin/vitest run --config tests/vitest.config.ts \

@@ -14,7 +14,7 @@ export interface NavItem {
   match?: string[];
 }
 
-export const NAV_ITEMS: NavItem[] = [
+const NAV_ITEMS: NavItem[] = [
   { href: '/cases', label: 'Cases', permission: 'patient.read', description: 'Patients and their treated teeth, each with its recall plan and reviews.', match: ['/patients'] },
   { href: '/desk', label: 'Recall desk', permission: 'recall.manage', description: 'Who is due, who was invited, who replied, who is slipping away.' },
   { href: '/team', label: 'Team', permission: 'team.read', description: 'People, roles and the audit trail.' },

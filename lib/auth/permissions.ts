@@ -1,6 +1,7 @@
 /**
  * The one table of who may do what. Every page, route handler and server action asks
- * `can()` (directly or through the guards in lib/auth/guard.ts); nothing else decides access.
+ * `can()` (directly or through requireActor in lib/auth/session.ts, handler in lib/http.ts and
+ * assertCan in lib/auth/actor.ts); nothing else decides access.
  *
  * Patient data is health data: the administrator runs the team and settings but does not
  * read patient records; the researcher sees only anonymised cohorts.

@@ -13,6 +13,8 @@ export interface RateLimitPolicy {
 
 const accountKey = (email: string) => `lamina:signin:acct:${email.toLowerCase()}`;
 const addressKey = (ip: string) => `lamina:signin:addr:${ip}`;
+/** The account's key, then the address's when there is one. */
+const keysOf = (email: string, ip: string | null) => [accountKey(email), ...(ip ? [addressKey(ip)] : [])];
 
 export interface LimitState {
   limited: boolean;
@@ -27,7 +29,7 @@ export async function checkSignInLimit(
   email: string,
   ip: string | null,
 ): Promise<LimitState> {
-  const keys = [accountKey(email), ...(ip ? [addressKey(ip)] : [])];
+  const keys = keysOf(email, ip);
   const counts = await r.mget(...keys);
   const acct = Number(counts[0] ?? 0);
   const addr = ip ? Number(counts[1] ?? 0) : 0;
@@ -42,7 +44,7 @@ export async function checkSignInLimit(
 
 export async function recordSignInFailure(r: Redis, policy: RateLimitPolicy, email: string, ip: string | null) {
   const m = r.multi();
-  for (const key of [accountKey(email), ...(ip ? [addressKey(ip)] : [])]) {
+  for (const key of keysOf(email, ip)) {
     m.incr(key);
     m.expire(key, policy.windowSeconds, 'NX');
   }

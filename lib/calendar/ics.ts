@@ -83,14 +83,12 @@ function foldLine(line: string): string {
   const out: string[] = [];
   let current = '';
   let octets = 0;
-  let limit = ICS_MAX_LINE_OCTETS;
   for (const ch of line) {
     const n = Buffer.byteLength(ch, 'utf8');
-    if (octets + n > limit) {
+    if (octets + n > ICS_MAX_LINE_OCTETS) {
       out.push(current);
       current = ' ';
       octets = 1;
-      limit = ICS_MAX_LINE_OCTETS;
     }
     current += ch;
     octets += n;

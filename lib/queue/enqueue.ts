@@ -4,7 +4,7 @@
 import { Queue, type Job, type JobsOptions, type QueueOptions } from 'bullmq';
 import type { Redis } from 'ioredis';
 import { reminderJobId } from '@/lib/recall/reminders';
-import { JOBS, QUEUES, RECALL_SCAN_SCHEDULER_ID, type QueueName } from './names';
+import { JOBS, QUEUES, RECALL_SCAN_DEFAULT_PATTERN, RECALL_SCAN_SCHEDULER_ID, type QueueName } from './names';
 import { DEFAULT_JOB_OPTIONS, PRODUCER_QUEUE_OPTIONS, RECALL_SCAN_JOB_OPTIONS } from './options';
 import { parsePayload, type RecallScanData, type RecallScanInput, type SendReminderData, type SendReminderInput } from './payloads';
 
@@ -32,19 +32,20 @@ function queueOptions(name: QueueName, connection: Redis, options: OpenQueueOpti
   };
 }
 
-/** The reminders queue with its default job options. Close it with `await queue.close()`. */
-export function openRemindersQueue(connection: Redis, options: OpenQueueOptions = {}): RemindersQueue {
-  const queue: RemindersQueue = new Queue(QUEUES.reminders, queueOptions(QUEUES.reminders, connection, options));
+/** A queue with its default job options, its errors logged. Close it with `await queue.close()`. */
+function openQueue(name: QueueName, connection: Redis, options: OpenQueueOptions): Queue {
+  const queue = new Queue(name, queueOptions(name, connection, options));
   const log = options.log ?? console.error;
-  queue.on('error', (err) => log(`[queue ${QUEUES.reminders}] ${err.message}`));
+  queue.on('error', (err) => log(`[queue ${name}] ${err.message}`));
   return queue;
 }
 
+export function openRemindersQueue(connection: Redis, options: OpenQueueOptions = {}): RemindersQueue {
+  return openQueue(QUEUES.reminders, connection, options) as RemindersQueue;
+}
+
 export function openRecallScanQueue(connection: Redis, options: OpenQueueOptions = {}): RecallScanQueue {
-  const queue: RecallScanQueue = new Queue(QUEUES.recallScan, queueOptions(QUEUES.recallScan, connection, options));
-  const log = options.log ?? console.error;
-  queue.on('error', (err) => log(`[queue ${QUEUES.recallScan}] ${err.message}`));
-  return queue;
+  return openQueue(QUEUES.recallScan, connection, options) as RecallScanQueue;
 }
 
 export interface EnqueueOptions {
@@ -92,14 +93,15 @@ export async function enqueueRecallScan(queue: RecallScanQueue, payload: RecallS
 }
 
 /**
- * Installs (or updates) the scheduled scan: by default at minute 0 of every hour, so each
- * practice's "today" is picked up soon after its own midnight whatever its time zone (the scan
- * itself is idempotent; quiet hours hold the messages, not the scan).
+ * Installs (or updates) the scheduled scan: by default at minute 0 of every hour
+ * (RECALL_SCAN_DEFAULT_PATTERN), so each practice's "today" is picked up soon after its own
+ * midnight whatever its time zone (the scan itself is idempotent; quiet hours hold the messages,
+ * not the scan).
  */
 export async function upsertRecallScanScheduler(queue: RecallScanQueue, repeat: { pattern?: string; tz?: string } = {}) {
   return queue.upsertJobScheduler(
     RECALL_SCAN_SCHEDULER_ID as typeof JOBS.recallScan,
-    { pattern: repeat.pattern ?? '0 * * * *', ...(repeat.tz ? { tz: repeat.tz } : {}) },
+    { pattern: repeat.pattern ?? RECALL_SCAN_DEFAULT_PATTERN, ...(repeat.tz ? { tz: repeat.tz } : {}) },
     { name: JOBS.recallScan, data: parsePayload(JOBS.recallScan, {}), opts: RECALL_SCAN_JOB_OPTIONS },
   );
 }

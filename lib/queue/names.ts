@@ -26,3 +26,6 @@ export const JOB_QUEUE: Record<JobName, QueueName> = {
 
 /** The id of the recall scan's job scheduler (one per deployment). */
 export const RECALL_SCAN_SCHEDULER_ID = 'recall-scan-hourly';
+
+/** The scan's default schedule (cron, server time): every hour at minute 0 (RECALL_SCAN_PATTERN overrides it). */
+export const RECALL_SCAN_DEFAULT_PATTERN = '0 * * * *';

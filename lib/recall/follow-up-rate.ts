@@ -69,7 +69,7 @@ interface Tally {
 }
 
 /** The group of a tally, with its rate and Wilson interval. */
-export function rateGroup<K>(key: K, t: Tally): RateGroup<K> {
+function rateGroup<K>(key: K, t: Tally): RateGroup<K> {
   if (t.due === 0) return { key, due: 0, attended: 0, pending: t.pending, rate: null, interval: null };
   const w = wilsonInterval(t.attended, t.due, 0.95);
   return { key, due: t.due, attended: t.attended, pending: t.pending, rate: w.estimate, interval: { lower: w.lower, upper: w.upper } };

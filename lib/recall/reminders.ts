@@ -32,6 +32,7 @@
 import { addDaysTo, compareDates, type CalendarDate } from '@/lib/registry/calendar-date';
 import type { RecallPolicy } from '@/lib/schemas/recall-policy';
 import type { QuietHours, ReminderPolicy } from '@/lib/schemas/reminder-policy';
+import { isPastDue } from './plan';
 import type { VisitStatus } from './status';
 
 export {
@@ -113,7 +114,7 @@ function firstOn(steps: readonly SentStep[], step: ReminderStep): CalendarDate |
 
 /** Consent, status and window allow contact on `today`. */
 function contactAllowed(visit: ReminderVisit<unknown>, today: CalendarDate): boolean {
-  return visit.recallContactConsent && needsContact(visit.status) && compareDates(today, visit.windowEnd) <= 0;
+  return visit.recallContactConsent && needsContact(visit.status) && !isPastDue(visit, today);
 }
 
 /** The step `visit` enters on `today`, or null. See the rules at the top of this file. */
@@ -249,7 +250,7 @@ const minutesOf = (hhmm: string) => {
 };
 
 /** Seconds since local midnight of `now` in `timeZone` (an IANA name such as 'Europe/London'). */
-export function localSecondsOfDay(now: Date, timeZone: string): number {
+function localSecondsOfDay(now: Date, timeZone: string): number {
   const parts = new Intl.DateTimeFormat('en-GB', {
     timeZone,
     hour: '2-digit',

@@ -25,8 +25,6 @@ import { PatientCreateSchema, type PatientCreate } from '@/lib/schemas/patient';
 import { ReferrerCreateSchema, type ReferrerCreate } from '@/lib/schemas/referrer';
 import { Email } from './fields';
 
-export const CSV_MAX_CANALS = MAX_CANALS;
-
 type ValueKind = 'text' | 'date' | 'number' | 'bool' | 'code' | 'codes';
 type Group = 'patient' | 'operator' | 'referrer' | 'case' | 'canal';
 
@@ -97,7 +95,7 @@ export const CSV_COLUMNS: readonly CsvColumn[] = [
   col('coronal_restoration', 'case', 'code', 'coronalRestoration', false, 'At completion, e.g. temporary, direct_composite.'),
   col('definitive_restoration', 'case', 'code', 'definitiveRestoration', false, 'e.g. crown, onlay, direct_composite.'),
   col('definitive_restoration_date', 'case', 'date', 'definitiveRestorationDate', false, 'YYYY-MM-DD.'),
-  ...Array.from({ length: CSV_MAX_CANALS }, (_, i) =>
+  ...Array.from({ length: MAX_CANALS }, (_, i) =>
     CANAL_PARTS.map((p) =>
       col(`canal${i + 1}_${p.suffix}`, 'canal', p.kind, `canals.${p.field}`, false, `Canal ${i + 1}: ${p.description}`),
     ),
@@ -112,7 +110,7 @@ const PATIENT_FIELD_COLUMN = new Map(CSV_COLUMNS.filter((c) => c.group === 'pati
 const REFERRER_FIELD_COLUMN = new Map(REFERRER_COLUMNS.map((c) => [c.field, c.name]));
 const CASE_FIELD_COLUMN = new Map(CASE_COLUMNS.map((c) => [c.field, c.name]));
 const CANAL_FIELD_SUFFIX = new Map<string, string>(CANAL_PARTS.map((p) => [p.field, p.suffix]));
-const CANAL_COLUMNS: readonly CsvColumn[][] = Array.from({ length: CSV_MAX_CANALS }, (_, i) =>
+const CANAL_COLUMNS: readonly CsvColumn[][] = Array.from({ length: MAX_CANALS }, (_, i) =>
   CANAL_PARTS.map((p) => COLUMN_BY_NAME.get(`canal${i + 1}_${p.suffix}`)!),
 );
 
@@ -369,7 +367,7 @@ function readCase(schema: typeof DEFAULT_SCHEMAS.CaseImportSchema, cell: Cell, r
   const converted = convertGroup(CASE_COLUMNS, cell, report);
   const groups: number[] = [];
   const canals: Record<string, unknown>[] = [];
-  for (let n = 1; n <= CSV_MAX_CANALS; n++) {
+  for (let n = 1; n <= MAX_CANALS; n++) {
     const columns = CANAL_COLUMNS[n - 1]!;
     if (columns.every((c) => cell(c.name) === '')) continue;
     const canal = convertGroup(columns, cell, report, (field) => field.slice('canals.'.length));

@@ -212,11 +212,7 @@ export interface TimeObservation {
  * the date of the visit. null when there is no review.
  */
 export function timeToFailure(reviews: readonly ReviewedOutcome[]): TimeObservation | null {
-  const s = sortedReviews(reviews);
-  if (s.length === 0) return null;
-  const failed = s.find((r) => r.outcome === 'disease' || isTerminal(r.outcome));
-  if (failed) return { time: failed.daysSinceTreatment, event: true };
-  return { time: s[s.length - 1].daysSinceTreatment, event: false };
+  return firstEventOrCensored(reviews, (o) => o === 'disease' || isTerminal(o));
 }
 
 /**
@@ -225,9 +221,14 @@ export function timeToFailure(reviews: readonly ReviewedOutcome[]): TimeObservat
  * the tooth and are not events here. null when there is no review.
  */
 export function toothSurvival(reviews: readonly ReviewedOutcome[]): TimeObservation | null {
+  return firstEventOrCensored(reviews, (o) => o === 'tooth-extracted');
+}
+
+/** Days to the first review whose outcome is an event (event = true), else censored at the last review; null without reviews. */
+function firstEventOrCensored(reviews: readonly ReviewedOutcome[], isEvent: (o: ReviewOutcome) => boolean): TimeObservation | null {
   const s = sortedReviews(reviews);
   if (s.length === 0) return null;
-  const lost = s.find((r) => r.outcome === 'tooth-extracted');
-  if (lost) return { time: lost.daysSinceTreatment, event: true };
+  const first = s.find((r) => isEvent(r.outcome));
+  if (first) return { time: first.daysSinceTreatment, event: true };
   return { time: s[s.length - 1].daysSinceTreatment, event: false };
 }

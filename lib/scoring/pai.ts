@@ -15,16 +15,23 @@ export interface PaiLevel {
   apicalPeriodontitis: boolean;
 }
 
-export const PAI_LEVELS: readonly PaiLevel[] = [
-  { score: 1, description: 'Bone around the apex looks normal.', apicalPeriodontitis: false },
-  { score: 2, description: 'Small changes in the bone pattern, not a sign of disease on their own.', apicalPeriodontitis: false },
-  { score: 3, description: 'Changed bone pattern with some loss of mineral at the apex.', apicalPeriodontitis: true },
-  { score: 4, description: 'A clearly outlined dark (radiolucent) area at the apex.', apicalPeriodontitis: true },
-  { score: 5, description: 'A dark area at the apex with signs of spreading into the surrounding bone.', apicalPeriodontitis: true },
-];
-
 /** Lamina's cut-off: scores above this are apical periodontitis. */
 export const PAI_HEALTHY_MAX = 2;
+
+const PAI_DESCRIPTIONS: Readonly<Record<PaiScore, string>> = {
+  1: 'Bone around the apex looks normal.',
+  2: 'Small changes in the bone pattern, not a sign of disease on their own.',
+  3: 'Changed bone pattern with some loss of mineral at the apex.',
+  4: 'A clearly outlined dark (radiolucent) area at the apex.',
+  5: 'A dark area at the apex with signs of spreading into the surrounding bone.',
+};
+
+/** The five levels in score order; `apicalPeriodontitis` follows PAI_HEALTHY_MAX. */
+export const PAI_LEVELS: readonly PaiLevel[] = ([1, 2, 3, 4, 5] as const).map((score) => ({
+  score,
+  description: PAI_DESCRIPTIONS[score],
+  apicalPeriodontitis: score > PAI_HEALTHY_MAX,
+}));
 
 /** Checks that a value is a PAI score (a whole number 1–5) and returns it typed. */
 export function checkPai(score: unknown): PaiScore {

@@ -3,6 +3,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Redis } from 'ioredis';
 import { MembershipSchema, UserSchema, PracticeSchema } from '@/entities';
 import type { Actor } from '@/lib/auth/actor';
+import type { Origin } from '@/lib/auth/origin';
 import { isRole, type Role } from '@/lib/auth/roles';
 import { verifyPassword } from '@/lib/auth/password';
 import {
@@ -15,11 +16,6 @@ import {
 import { audit } from './audit';
 import { RateLimitedError, ServiceError } from './errors';
 
-export interface RequestOrigin {
-  ip: string | null;
-  userAgent: string | null;
-}
-
 export const WRONG_CREDENTIALS = 'Wrong e-mail or password.';
 
 /**
@@ -31,7 +27,7 @@ export async function verifyCredentials(
   r: Redis,
   policy: RateLimitPolicy,
   input: { email: string; password: string },
-  origin: RequestOrigin,
+  origin: Origin,
 ): Promise<{ userId: string }> {
   const email = input.email.trim().toLowerCase();
   const limit = await checkSignInLimit(r, policy, email, origin.ip);
@@ -73,7 +69,7 @@ export async function firstPracticeId(em: EntityManager, userId: string): Promis
 export async function loadActor(
   em: EntityManager,
   userId: string,
-  origin: RequestOrigin,
+  origin: Origin,
   preferredPracticeId?: string | null,
 ): Promise<Actor | null> {
   const user = await em.findOne(UserSchema, { id: userId });

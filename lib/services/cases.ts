@@ -36,6 +36,8 @@ import { ConflictError, ValidationError } from './errors';
 import { parseInput } from './parse';
 import {
   ArchivedFilter,
+  SearchText,
+  SortDir,
   assertClinician,
   assertId,
   bodyId,
@@ -44,11 +46,13 @@ import {
   findCase,
   likeWord,
   listParam,
+  pageOffset,
   practiceSettings,
   presentKeys,
   queryDate,
   searchWords,
   todayIn,
+  whereArchived,
   type Page,
   type PracticeSettings,
 } from './registry-common';
@@ -67,7 +71,7 @@ export type CaseSort = (typeof CASE_SORTS)[number];
  * statuses, due in this range".
  */
 export const CaseListQuery = Paging.extend({
-  q: z.string().trim().max(100, 'At most 100 characters in the search.').optional(),
+  q: SearchText,
   operator: listParam(z.uuid({ error: 'Unknown clinician.' })),
   kind: listParam(z.enum(CASE_KINDS, { error: `kind is one of ${CASE_KINDS.join(', ')}.` })),
   toothGroup: listParam(z.enum(TOOTH_GROUPS as [ToothGroup, ...ToothGroup[]], { error: `toothGroup is one of ${TOOTH_GROUPS.join(', ')}.` })),
@@ -82,7 +86,7 @@ export const CaseListQuery = Paging.extend({
   patient: z.uuid({ error: 'Unknown patient.' }).optional(),
   archived: ArchivedFilter,
   sort: z.enum(CASE_SORTS, { error: `sort is one of ${CASE_SORTS.join(', ')}.` }).default('completionDate'),
-  dir: z.enum(['asc', 'desc'], { error: 'dir is asc or desc.' }).default('desc'),
+  dir: SortDir('desc'),
 });
 export type CaseListQueryInput = z.input<typeof CaseListQuery>;
 export type CaseListFilters = z.output<typeof CaseListQuery>;
@@ -132,9 +136,7 @@ const SORT_COLUMNS: Record<CaseSort, string[]> = {
 
 /** Builds the filtered (unsorted, unpaged) case query; shared by the list and the count. */
 export function caseListQuery(knex: Knex, practiceId: string, f: CaseListFilters): Knex.QueryBuilder {
-  const b = knex('treatment_case as c').where('c.practice_id', practiceId);
-  if (f.archived === 'exclude') b.whereNull('c.archived_at');
-  if (f.archived === 'only') b.whereNotNull('c.archived_at');
+  const b = whereArchived(knex('treatment_case as c').where('c.practice_id', practiceId), 'c.archived_at', f.archived);
   if (f.stage === 'completed') b.whereNotNull('c.completion_date');
   if (f.stage === 'in_progress') b.whereNull('c.completion_date');
   if (f.patient) b.where('c.patient_id', f.patient);
@@ -215,7 +217,7 @@ export async function queryCases(em: EntityManager, practiceId: string, f: CaseL
   pageQuery
     .orderBy(order)
     .limit(f.pageSize)
-    .offset((f.page - 1) * f.pageSize);
+    .offset(pageOffset(f));
   const [countRows, idRows] = await Promise.all([base.clone().count<{ n: string }[]>('* as n'), pageQuery]);
   const ids = idRows.map((r: { id: string }) => r.id);
   const rows = ids.length ? await caseRowsByIds(em, ids, notation) : [];

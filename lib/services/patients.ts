@@ -9,11 +9,12 @@ import { PatientCreateSchema, PatientUpdateSchema, type PatientCreate, type Reca
 import { audit } from './audit';
 import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
-import { ArchivedFilter, assertId, displayName, likeWord, presentKeys, searchWords, type Page } from './registry-common';
+import { ArchivedFilter, SearchText, SortDir, assertId, displayName, likeWord, pageOffset, presentKeys, searchWords, whereArchived, type Page } from './registry-common';
 
 // --- shapes the screens get -----------------------------------------------------------------------
 
-export interface PatientRow {
+/** What the list row and the record share. */
+interface PatientSummary {
   id: string;
   registryNumber: string;
   givenName: string;
@@ -26,38 +27,30 @@ export interface PatientRow {
   recallChannel: RecallChannel;
   researchUse: boolean;
   archived: boolean;
+}
+
+export interface PatientRow extends PatientSummary {
   caseCount: number;
   /** Completion date of the patient's latest completed case. */
   lastCompletionDate: string | null;
 }
 
-export interface PatientView {
-  id: string;
-  registryNumber: string;
-  givenName: string;
-  familyName: string;
-  name: string;
-  dateOfBirth: string;
-  sex: Sex;
+export interface PatientView extends PatientSummary {
   email: string | null;
   phone: string | null;
   postalCode: string | null;
-  recallContact: boolean;
-  recallChannel: RecallChannel;
-  researchUse: boolean;
   consentDate: string;
   consentRecordedBy: { id: string; name: string | null } | null;
-  archived: boolean;
   archivedAt: string | null;
   createdAt: string;
   updatedAt: string;
 }
 
 export const PatientListQuery = Paging.extend({
-  q: z.string().trim().max(100, 'At most 100 characters in the search.').optional(),
+  q: SearchText,
   archived: ArchivedFilter,
   sort: z.enum(['name', 'registryNumber', 'createdAt'], { error: 'sort is name, registryNumber or createdAt.' }).default('name'),
-  dir: z.enum(['asc', 'desc'], { error: 'dir is asc or desc.' }).default('asc'),
+  dir: SortDir('asc'),
 });
 export type PatientListQueryInput = z.input<typeof PatientListQuery>;
 
@@ -71,9 +64,7 @@ export async function listPatients(em: EntityManager, actor: Actor, raw: unknown
   assertCan(actor, 'patient.read');
   const q = parseInput(PatientListQuery, raw);
   const knex = em.getKnex();
-  const base = knex('patient as p').where('p.practice_id', actor.practiceId);
-  if (q.archived === 'exclude') base.whereNull('p.archived_at');
-  if (q.archived === 'only') base.whereNotNull('p.archived_at');
+  const base = whereArchived(knex('patient as p').where('p.practice_id', actor.practiceId), 'p.archived_at', q.archived);
   for (const word of searchWords(q.q)) base.whereRaw(`${patientSearchSql('p')} like ?`, [likeWord(word)]);
 
   const order: [string, 'asc' | 'desc'][] =
@@ -103,7 +94,7 @@ export async function listPatients(em: EntityManager, actor: Actor, raw: unknown
       )
       .orderBy([...order.map(([column, order]) => ({ column, order })), { column: 'p.id', order: q.dir }])
       .limit(q.pageSize)
-      .offset((q.page - 1) * q.pageSize),
+      .offset(pageOffset(q)),
   ]);
   const ids = rows.map((r: { id: string }) => r.id);
   const stats = ids.length

@@ -7,7 +7,7 @@ import type { RecallPolicy } from '@/lib/schemas/recall-policy';
 import type { ToothNotation } from '@/lib/teeth';
 import { audit } from './audit';
 import { parseInput } from './parse';
-import { practiceSettings } from './registry-common';
+import { recallPolicyOf } from './registry-common';
 
 export interface PracticeSettingsView {
   name: string;
@@ -19,8 +19,13 @@ export interface PracticeSettingsView {
 /** The practice's settings as the administrator's settings page shows them. */
 export async function getPracticeSettings(em: EntityManager, actor: Actor): Promise<PracticeSettingsView> {
   assertCan(actor, 'team.read');
-  const [practice, settings] = await Promise.all([em.findOneOrFail(PracticeSchema, actor.practiceId), practiceSettings(em, actor.practiceId)]);
-  return { name: practice.name, toothNotation: settings.toothNotation, timeZone: settings.timeZone, recallPolicy: settings.recallPolicy };
+  const practice = await em.findOneOrFail(PracticeSchema, actor.practiceId);
+  return {
+    name: practice.name,
+    toothNotation: practice.toothNotation as ToothNotation,
+    timeZone: practice.timeZone,
+    recallPolicy: recallPolicyOf(practice.recallPolicy),
+  };
 }
 
 /**

@@ -8,8 +8,8 @@ import type { ReminderPolicy, ReminderStep } from '@/lib/recall/reminders';
 import type { VisitStatus } from '@/lib/recall/status';
 import type { ToothNotation } from '@/lib/teeth';
 import { NotFoundError } from './errors';
-import { knexOf, reminderPolicyOf } from './recall-outbox';
-import { isUuid, todayIn } from './registry-common';
+import { EMAIL_CONSENT_SQL, reminderPolicyOf } from './recall-outbox';
+import { isUuid, knexOf, todayIn } from './registry-common';
 
 /** Pieces shared by the recall-desk services (desk, contact log, replies, rate, policy). */
 
@@ -35,6 +35,16 @@ export async function recallSettings(em: EntityManager, practiceId: string, now:
     reminderPolicy: reminderPolicyOf(row.reminder_policy),
     today: todayIn(row.time_zone, now),
   };
+}
+
+/** The practice's visits joined to their case (c) and patient (p), archived patients and cases left out. */
+export function activeVisits(knex: Knex, practiceId: string): Knex.QueryBuilder {
+  return knex('recall_visit as v')
+    .join('treatment_case as c', 'c.id', 'v.case_id')
+    .join('patient as p', 'p.id', 'c.patient_id')
+    .where('v.practice_id', practiceId)
+    .whereNull('c.archived_at')
+    .whereNull('p.archived_at');
 }
 
 /** A list of visit ids from a body: 1 to 200 uuids, duplicates dropped. */
@@ -86,7 +96,7 @@ export async function visitsOfPractice(em: EntityManager, practiceId: string, id
       'p.id as patient_id',
       'p.given_name',
       'p.family_name',
-      knex.raw(`(p.recall_contact and p.recall_channel = 'email' and p.email is not null and p.email <> '' and p.archived_at is null and c.archived_at is null) as consent`),
+      knex.raw(`${EMAIL_CONSENT_SQL} as consent`),
     );
   if (lock) q.forUpdate('v');
   const rows = (await q) as DeskVisit[];

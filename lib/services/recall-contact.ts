@@ -8,8 +8,7 @@ import { audit } from './audit';
 import { parseInput } from './parse';
 import { iso, logContact, recallSettings, visitsOfPractice } from './recall-common';
 import { deskRowsByIds, type DeskRow } from './recall-desk';
-import { knexOf } from './recall-outbox';
-import { assertId } from './registry-common';
+import { assertId, knexOf } from './registry-common';
 
 /** The contact log of one recall visit, and the call notes the desk adds to it. */
 

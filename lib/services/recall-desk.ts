@@ -1,6 +1,5 @@
 import 'server-only';
 import { z } from 'zod';
-import type { Knex } from '@mikro-orm/knex';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import {
@@ -10,6 +9,7 @@ import {
   nextStepNow,
   quietDelayMs,
   type ReminderStep,
+  type SentStep,
   type VisitStatus,
 } from '@/lib/recall';
 import { addDaysTo } from '@/lib/registry/calendar-date';
@@ -19,17 +19,9 @@ import type { ReminderStatus } from '@/entities';
 import { audit } from './audit';
 import { ConflictError } from './errors';
 import { parseInput } from './parse';
-import { dateIn, iso, logContact, recallSettings, setVisitStatus, visitsOfPractice, VisitIds, type DeskVisit, type RecallSettings } from './recall-common';
-import {
-  enqueueOutbox,
-  insertOutboxRows,
-  knexOf,
-  reminderHistory,
-  reminderProducer,
-  retryFailedReminder,
-  type OutboxEntry,
-} from './recall-outbox';
-import { displayName, type Page } from './registry-common';
+import { activeVisits, dateIn, iso, logContact, recallSettings, setVisitStatus, visitsOfPractice, VisitIds, type DeskVisit, type RecallSettings } from './recall-common';
+import { EMAIL_CONSENT_SQL, enqueueOutbox, insertOutboxRows, reminderProducer, retryFailedReminder, type OutboxEntry } from './recall-outbox';
+import { SortDir, displayName, knexOf, pageOffset, type Page } from './registry-common';
 import { refreshNextVisit } from './visits';
 
 /**
@@ -91,15 +83,6 @@ function queueCondition(queue: DeskQueue, today: string): { sql: string; binding
   }
 }
 
-function deskBase(knex: Knex, practiceId: string) {
-  return knex('recall_visit as v')
-    .join('treatment_case as c', 'c.id', 'v.case_id')
-    .join('patient as p', 'p.id', 'c.patient_id')
-    .where('v.practice_id', practiceId)
-    .whereNull('c.archived_at')
-    .whereNull('p.archived_at');
-}
-
 // --- reads ----------------------------------------------------------------------------------------
 
 export interface DeskQueueCount {
@@ -120,7 +103,7 @@ export async function deskQueues(em: EntityManager, actor: Actor): Promise<DeskQ
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
   const parts = DESK_QUEUES.map((q) => queueCondition(q, s.today));
-  const row = (await deskBase(knex, actor.practiceId)
+  const row = (await activeVisits(knex, actor.practiceId)
     .first(parts.map((c, i) => knex.raw(`count(*) filter (where ${c.sql}) as "${DESK_QUEUES[i]}"`, c.bindings)))) as Record<DeskQueue, string>;
   await audit(em, actor, { action: 'recall.queues_read' });
   return {
@@ -132,7 +115,7 @@ export async function deskQueues(em: EntityManager, actor: Actor): Promise<DeskQ
 export const DeskRowsQuery = Paging.extend({
   queue: z.enum(DESK_QUEUES, { error: `queue is one of ${DESK_QUEUES.join(', ')}.` }),
   sort: z.enum(['dueDate', 'patient', 'lastContact'], { error: 'sort is dueDate, patient or lastContact.' }).default('dueDate'),
-  dir: z.enum(['asc', 'desc'], { error: 'dir is asc or desc.' }).default('asc'),
+  dir: SortDir('asc'),
 });
 export type DeskRowsQuery = z.input<typeof DeskRowsQuery>;
 
@@ -178,7 +161,7 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
   const cond = queueCondition(q.queue, s.today);
-  const base = () => deskBase(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings);
+  const base = () => activeVisits(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings);
   const lastContact = knex.raw(
     `(select max(e.at) from contact_log_entry e where e.visit_id = v.id and e.kind in ('message_sent', 'reply', 'call', 'appointment')) as last_contact_at`,
   );
@@ -188,7 +171,7 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
       .select('v.id', lastContact)
       .orderBy(SORTS[q.sort].map((column) => ({ column, order: q.dir, nulls: q.dir === 'asc' ? 'first' : 'last' })))
       .limit(q.pageSize)
-      .offset((q.page - 1) * q.pageSize) as Promise<{ id: string }[]>,
+      .offset(pageOffset(q)) as Promise<{ id: string }[]>,
   ]);
   const rows = await deskRowsByIds(em, s, ids.map((r) => r.id));
   await audit(em, actor, { action: 'recall.rows_read', detail: { queue: q.queue, page: q.page, visitIds: rows.map((r) => r.visitId) } });
@@ -229,7 +212,7 @@ export async function deskRowsByIds(em: EntityManager, s: RecallSettings, ids: r
         'p.family_name',
         'p.registry_number',
         'p.phone',
-        knex.raw(`(p.recall_contact and p.recall_channel = 'email' and p.email is not null and p.email <> '' and p.archived_at is null and c.archived_at is null) as consent`),
+        knex.raw(`${EMAIL_CONSENT_SQL} as consent`),
       ) as Promise<Record<string, unknown>[]>,
     knex('reminder').whereIn('visit_id', ids).orderBy('queued_at').select('visit_id', 'step', 'status', 'sent_at', 'queued_on', 'sent_on') as Promise<
       { visit_id: string; step: ReminderStep; status: ReminderStatus; sent_at: string | null; queued_on: string; sent_on: string | null }[]
@@ -333,18 +316,28 @@ export async function sendRemindersNow(em: EntityManager, actor: Actor, raw: unk
   const input = parseInput(SendNowInput, raw);
   const s = await recallSettings(em, actor.practiceId);
   const visits = await visitsOfPractice(em, actor.practiceId, input.visitIds);
-  const history = await reminderHistory(em, input.visitIds);
-  const failedRows = (await knexOf(em)('reminder')
+  // One read of the visits' outbox rows: their history (for nextStepNow), the failed ones and the busy ones.
+  const knex = knexOf(em);
+  const reminders = (await knex('reminder')
     .whereIn('visit_id', input.visitIds)
-    .where('status', 'failed')
-    .select('id', 'visit_id', 'step', 'queued_on')) as { id: string; visit_id: string; step: ReminderStep; queued_on: string }[];
+    .select(
+      'id',
+      'visit_id',
+      'step',
+      'status',
+      'queued_on',
+      'sent_on',
+      knex.raw(`(status in ('queued', 'sending') or sent_at > ?) as busy`, [new Date(Date.now() - RECENT_MS)]),
+    )) as { id: string; visit_id: string; step: ReminderStep; status: ReminderStatus; queued_on: string; sent_on: string | null; busy: boolean | null }[];
+  const history = new Map<string, SentStep[]>();
+  for (const r of reminders) {
+    const list = history.get(r.visit_id) ?? [];
+    list.push({ step: r.step, on: r.sent_on ?? r.queued_on });
+    history.set(r.visit_id, list);
+  }
+  const failedRows = reminders.filter((r) => r.status === 'failed');
   // A double click must not send two steps: nothing new while one is on its way or just went out.
-  const busy = new Set(
-    ((await knexOf(em)('reminder')
-      .whereIn('visit_id', input.visitIds)
-      .where((b) => b.whereIn('status', ['queued', 'sending']).orWhere('sent_at', '>', new Date(Date.now() - RECENT_MS)))
-      .select('visit_id')) as { visit_id: string }[]).map((r) => r.visit_id),
-  );
+  const busy = new Set(reminders.filter((r) => r.busy).map((r) => r.visit_id));
 
   const results: ActionResult[] = [];
   const entries: OutboxEntry[] = [];

@@ -3,7 +3,6 @@ import { createHash, randomUUID } from 'node:crypto';
 import { Queue, type DefaultJobOptions } from 'bullmq';
 import type { Redis } from 'ioredis';
 import { z } from 'zod';
-import type { Knex } from '@mikro-orm/knex';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import {
   PRODUCER_QUEUE_OPTIONS,
@@ -27,6 +26,7 @@ import {
 import type { CalendarDate } from '@/lib/registry/calendar-date';
 import type { ReminderStatus } from '@/entities';
 import { env } from '@/lib/env';
+import { knexOf, todayIn } from './registry-common';
 
 /**
  * The reminder outbox (entities/Reminder.ts) and the queue it feeds, shared by the recall scan
@@ -120,25 +120,9 @@ export async function reminderProducer(): Promise<RemindersQueue> {
 
 // --- the practice's calendar ---------------------------------------------------------------------
 
-const dayFormats = new Map<string, Intl.DateTimeFormat>();
-
-/**
- * The calendar date of `instant` in `timeZone` ('YYYY-MM-DD'), as lib/services/registry-common
- * todayIn, with the formatter kept per zone (building one costs more than a send's SQL).
- */
+/** The calendar date of `instant` in `timeZone` ('YYYY-MM-DD'): lib/services/registry-common todayIn. */
 export function dayIn(timeZone: string, instant: Date = new Date()): string {
-  let f = dayFormats.get(timeZone);
-  if (!f) {
-    try {
-      f = new Intl.DateTimeFormat('en-CA', { timeZone, year: 'numeric', month: '2-digit', day: '2-digit' });
-    } catch {
-      f = new Intl.DateTimeFormat('en-CA', { timeZone: 'UTC', year: 'numeric', month: '2-digit', day: '2-digit' });
-    }
-    dayFormats.set(timeZone, f);
-  }
-  const parts = f.formatToParts(instant);
-  const get = (type: string) => parts.find((p) => p.type === type)!.value;
-  return `${get('year')}-${get('month')}-${get('day')}`;
+  return todayIn(timeZone, instant);
 }
 
 // --- policy ---------------------------------------------------------------------------------------
@@ -189,9 +173,7 @@ export interface OutboxRow extends OutboxEntry {
   status: ReminderStatus;
 }
 
-export function knexOf(em: EntityManager): Knex {
-  return (em.getTransactionContext<Knex.Transaction>() ?? em.getKnex()) as Knex;
-}
+export { knexOf };
 
 /**
  * Inserts one outbox row per entry; an entry whose visit already has a row for that step is

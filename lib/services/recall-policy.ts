@@ -3,10 +3,10 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { DEFAULT_REMINDER_POLICY, ReminderPolicySchema, lastNoticeOutsideWindows, type ReminderPolicy } from '@/lib/recall/reminders';
 import { REMINDER_POLICY_BOUNDS } from '@/lib/schemas/reminder-policy';
-import { DEFAULT_RECALL_POLICY, RecallPolicySchema } from '@/lib/schemas/recall-policy';
 import { audit } from './audit';
 import { parseInput } from './parse';
-import { knexOf, reminderPolicyOf } from './recall-outbox';
+import { reminderPolicyOf } from './recall-outbox';
+import { knexOf, recallPolicyOf } from './registry-common';
 
 /**
  * The practice's reminder policy (lib/schemas/reminder-policy.ts): when invitations, the second
@@ -31,12 +31,11 @@ export interface ReminderPolicyView {
 async function view(em: EntityManager, practiceId: string): Promise<ReminderPolicyView> {
   const row = (await knexOf(em)('practice').where({ id: practiceId }).first('reminder_policy', 'recall_policy')) as { reminder_policy: unknown; recall_policy: unknown };
   const policy = reminderPolicyOf(row?.reminder_policy);
-  const recall = RecallPolicySchema.safeParse(row?.recall_policy);
   return {
     policy,
     defaults: DEFAULT_REMINDER_POLICY,
     bounds: REMINDER_POLICY_BOUNDS,
-    lastNoticeOutsideWindows: lastNoticeOutsideWindows(policy, recall.success ? recall.data : DEFAULT_RECALL_POLICY),
+    lastNoticeOutsideWindows: lastNoticeOutsideWindows(policy, recallPolicyOf(row?.recall_policy)),
   };
 }
 

@@ -3,13 +3,12 @@ import { z } from 'zod';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { followUpRate, type FollowUpRate, type RateVisit, type VisitStatus } from '@/lib/recall';
-import { RecallPolicySchema, DEFAULT_RECALL_POLICY } from '@/lib/schemas/recall-policy';
 import { daysInMonth } from '@/lib/registry/calendar-date';
 import { audit } from './audit';
 import { ValidationError } from './errors';
 import { parseInput } from './parse';
-import { recallSettings } from './recall-common';
-import { knexOf } from './recall-outbox';
+import { activeVisits, recallSettings } from './recall-common';
+import { knexOf, recallPolicyOf } from './registry-common';
 
 /**
  * The practice's follow-up rate — attended ÷ due, by milestone and by month of the due date, each
@@ -52,21 +51,15 @@ export async function followUpRateReport(em: EntityManager, actor: Actor, raw: u
   const [ty, tm] = to.split('-').map(Number) as [number, number];
   const knex = knexOf(em);
   const [rows, practice] = await Promise.all([
-    knex('recall_visit as v')
-      .join('treatment_case as c', 'c.id', 'v.case_id')
-      .join('patient as p', 'p.id', 'c.patient_id')
-      .where('v.practice_id', actor.practiceId)
-      .whereNull('c.archived_at')
-      .whereNull('p.archived_at')
+    activeVisits(knex, actor.practiceId)
       .whereBetween('v.due_date', [`${from}-01`, `${to}-${String(daysInMonth(ty, tm)).padStart(2, '0')}`])
       .select('v.status', 'v.due_date', 'v.milestone') as Promise<{ status: VisitStatus; due_date: string; milestone: number }[]>,
     knex('practice').where({ id: actor.practiceId }).first('recall_policy') as Promise<{ recall_policy: unknown }>,
   ]);
-  const policy = RecallPolicySchema.safeParse(practice?.recall_policy);
   const visits: RateVisit[] = rows.map((r) => ({ status: r.status, dueDate: r.due_date, milestone: Number(r.milestone) }));
   const rate = followUpRate(visits, s.today, {
     pending: q.pending,
-    milestones: (policy.success ? policy.data : DEFAULT_RECALL_POLICY).milestones.map((m) => m.months),
+    milestones: recallPolicyOf(practice?.recall_policy).milestones.map((m) => m.months),
     months: { from, to },
   });
   await audit(em, actor, { action: 'recall.rate_read', detail: { from, to, pending: q.pending } });

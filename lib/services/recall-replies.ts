@@ -3,6 +3,7 @@ import { z } from 'zod';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { REPLY_ANSWERS, type ReplyAnswer } from '@/entities';
 import { env } from '@/lib/env';
+import type { Origin } from '@/lib/auth/origin';
 import { canTransition, isFinalStatus, isOpenStatus, type VisitStatus } from '@/lib/recall';
 import {
   LINK_REFUSAL_MESSAGES,
@@ -16,8 +17,7 @@ import { dueMonth } from '@/lib/mail/templates/ReminderEmail';
 import { audit } from './audit';
 import { parseInput } from './parse';
 import { dateIn, logContact, setVisitStatus } from './recall-common';
-import { knexOf } from './recall-outbox';
-import { todayIn } from './registry-common';
+import { knexOf, todayIn } from './registry-common';
 import { refreshNextVisit } from './visits';
 
 /**
@@ -132,11 +132,6 @@ export const REPLY_THANKS: Record<ReplyAnswer, string> = {
   another_time: 'Thank you — the practice will be in touch to offer you another time.',
   declined: 'Thank you for letting us know. The practice will not send you further follow-up invitations for this treatment.',
 };
-
-export interface Origin {
-  ip: string | null;
-  userAgent: string | null;
-}
 
 /**
  * Records a patient's answer. Confirm: the visit becomes confirmed (booked for the proposed

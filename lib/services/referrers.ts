@@ -1,5 +1,4 @@
 import 'server-only';
-import { z } from 'zod';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { ReferrerSchema, type Referrer } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
@@ -8,7 +7,7 @@ import { ReferrerCreateSchema, type ReferrerCreate } from '@/lib/schemas/referre
 import { audit } from './audit';
 import { ConflictError } from './errors';
 import { parseInput } from './parse';
-import { likeWord, searchWords, type Page } from './registry-common';
+import { SearchText, likeWord, pageOffset, searchWords, type Page } from './registry-common';
 
 export interface ReferrerView {
   id: string;
@@ -19,7 +18,7 @@ export interface ReferrerView {
 }
 
 export const ReferrerListQuery = Paging.extend({
-  q: z.string().trim().max(100, 'At most 100 characters in the search.').optional(),
+  q: SearchText,
 });
 
 /** The practice's referring dentists, by name; searched by name, practice or e-mail. Not patient data: not audited. */
@@ -43,7 +42,7 @@ export async function listReferrers(em: EntityManager, actor: Actor, raw: unknow
       .select('r.id', 'r.name', 'r.practice_name', 'r.email', 'r.archived_at')
       .orderBy([{ column: 'r.name' }, { column: 'r.id' }])
       .limit(q.pageSize)
-      .offset((q.page - 1) * q.pageSize),
+      .offset(pageOffset(q)),
   ]);
   return {
     rows: rows.map((r: Record<string, unknown>) => ({

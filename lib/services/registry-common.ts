@@ -37,23 +37,42 @@ export async function practiceSettings(em: EntityManager, practiceId: string): P
   const practice = await em.findOneOrFail(PracticeSchema, practiceId, {
     fields: ['id', 'toothNotation', 'timeZone', 'recallPolicy'],
   });
-  const parsed = RecallPolicySchema.safeParse(practice.recallPolicy);
   return {
     id: practice.id,
     toothNotation: practice.toothNotation as ToothNotation,
     timeZone: practice.timeZone,
-    recallPolicy: parsed.success ? parsed.data : DEFAULT_RECALL_POLICY,
+    recallPolicy: recallPolicyOf(practice.recallPolicy),
   };
 }
 
-/** Today's calendar date in `timeZone` (the practice's), 'YYYY-MM-DD'. */
+/** A practice's stored recall policy, parsed; one that no longer parses falls back to the default. */
+export function recallPolicyOf(stored: unknown): RecallPolicy {
+  const parsed = RecallPolicySchema.safeParse(stored);
+  return parsed.success ? parsed.data : DEFAULT_RECALL_POLICY;
+}
+
+/** The knex of the caller's transaction when there is one, else of the EntityManager. */
+export function knexOf(em: EntityManager): Knex {
+  return (em.getTransactionContext<Knex.Transaction>() ?? em.getKnex()) as Knex;
+}
+
+const dayFormats = new Map<string, Intl.DateTimeFormat>();
+
+/**
+ * The calendar date of `now` in `timeZone` (the practice's), 'YYYY-MM-DD'; an unknown zone
+ * counts as UTC. The formatter is kept per zone (building one costs more than a send's SQL).
+ */
 export function todayIn(timeZone: string, now: Date = new Date()): CalendarDate {
-  let parts: Intl.DateTimeFormatPart[];
-  try {
-    parts = new Intl.DateTimeFormat('en-GB', { timeZone, year: 'numeric', month: '2-digit', day: '2-digit' }).formatToParts(now);
-  } catch {
-    parts = new Intl.DateTimeFormat('en-GB', { timeZone: 'UTC', year: 'numeric', month: '2-digit', day: '2-digit' }).formatToParts(now);
+  let f = dayFormats.get(timeZone);
+  if (!f) {
+    try {
+      f = new Intl.DateTimeFormat('en-GB', { timeZone, year: 'numeric', month: '2-digit', day: '2-digit' });
+    } catch {
+      f = new Intl.DateTimeFormat('en-GB', { timeZone: 'UTC', year: 'numeric', month: '2-digit', day: '2-digit' });
+    }
+    dayFormats.set(timeZone, f);
   }
+  const parts = f.formatToParts(now);
   const get = (type: string) => parts.find((p) => p.type === type)!.value;
   return `${get('year')}-${get('month')}-${get('day')}`;
 }
@@ -146,6 +165,24 @@ export const queryDate = (what: string) => blankAsUndefined(calendarDate(what));
 
 export const ArchivedFilter = z.enum(['exclude', 'include', 'only'], { error: 'archived is exclude, include or only.' }).default('exclude');
 
+/** Applies a list's archived filter to `column` (the row's archived_at). */
+export function whereArchived(b: Knex.QueryBuilder, column: string, filter: z.output<typeof ArchivedFilter>): Knex.QueryBuilder {
+  if (filter === 'exclude') b.whereNull(column);
+  if (filter === 'only') b.whereNotNull(column);
+  return b;
+}
+
+/** A list's free-text search (`q`). */
+export const SearchText = z.string().trim().max(100, 'At most 100 characters in the search.').optional();
+
+/** A list's sort direction (`dir`). */
+export const SortDir = (byDefault: 'asc' | 'desc') => z.enum(['asc', 'desc'], { error: 'dir is asc or desc.' }).default(byDefault);
+
+/** The rows a page skips. */
+export function pageOffset(q: { page: number; pageSize: number }): number {
+  return (q.page - 1) * q.pageSize;
+}
+
 /** Loads a case of the actor's practice or answers 404 (also for another practice's id). */
 export async function findCase(em: EntityManager, actor: Actor, id: string): Promise<TreatmentCase> {
   const c = await em.findOne(TreatmentCaseSchema, { id: assertId(id, 'case'), practice: actor.practiceId });
@@ -184,7 +221,7 @@ export async function bulkInsert(em: EntityManager, entity: { meta: { className:
     return prop.fieldNames[0]!;
   });
   const list = columns.map((c) => `"${c}"`).join(', ');
-  const db = (em.getTransactionContext<Knex.Transaction>() ?? em.getKnex()) as Knex;
+  const db = knexOf(em);
   for (let i = 0; i < rows.length; i += chunk) {
     const json = JSON.stringify(
       rows.slice(i, i + chunk).map((r) => Object.fromEntries(props.map((p, k) => [columns[k], r[p] instanceof Date ? (r[p] as Date).toISOString() : (r[p] ?? null)]))),

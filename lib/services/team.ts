@@ -3,6 +3,7 @@ import { createHash, randomBytes } from 'node:crypto';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { InvitationSchema, MembershipSchema, PracticeSchema, UserSchema, type User } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
+import type { Origin } from '@/lib/auth/origin';
 import { hashPassword } from '@/lib/auth/password';
 import { ROLE_LABELS, ROLES, type Role } from '@/lib/auth/roles';
 import { InviteInput, SetRolesInput, AcceptInvitationInput } from '@/lib/schemas/auth';
@@ -158,15 +159,23 @@ export interface InvitationView {
   needsPassword: boolean;
 }
 
+/** The invitation a link names (with its user and practice), or why the link no longer works. */
+async function usableInvitation(em: EntityManager, token: string) {
+  const inv = await em.findOne(InvitationSchema, { tokenHash: hashToken(token) }, { populate: ['user', 'practice'] });
+  if (!inv) return { ok: false as const, reason: 'This invitation link is not valid. Ask your practice administrator for a new one.' };
+  if (inv.acceptedAt) return { ok: false as const, reason: 'This invitation has already been accepted. Sign in instead.' };
+  if (inv.expiresAt < new Date()) return { ok: false as const, reason: 'This invitation has expired. Ask your practice administrator for a new one.' };
+  return { ok: true as const, inv };
+}
+
 /** What the invitation page shows, or why the link no longer works. */
 export async function lookupInvitation(
   em: EntityManager,
   token: string,
 ): Promise<{ ok: true; view: InvitationView } | { ok: false; reason: string }> {
-  const inv = await em.findOne(InvitationSchema, { tokenHash: hashToken(token) }, { populate: ['user', 'practice'] });
-  if (!inv) return { ok: false, reason: 'This invitation link is not valid. Ask your practice administrator for a new one.' };
-  if (inv.acceptedAt) return { ok: false, reason: 'This invitation has already been accepted. Sign in instead.' };
-  if (inv.expiresAt < new Date()) return { ok: false, reason: 'This invitation has expired. Ask your practice administrator for a new one.' };
+  const found = await usableInvitation(em, token);
+  if (!found.ok) return found;
+  const { inv } = found;
   return {
     ok: true,
     view: { email: inv.user.$.email, practiceName: inv.practice.$.name, needsPassword: !inv.user.$.passwordHash },
@@ -177,12 +186,12 @@ export async function lookupInvitation(
 export async function acceptInvitation(
   em: EntityManager,
   raw: unknown,
-  origin: { ip: string | null; userAgent: string | null },
+  origin: Origin,
 ): Promise<{ email: string }> {
   const input = parse(AcceptInvitationInput, raw);
-  const found = await lookupInvitation(em, input.token);
+  const found = await usableInvitation(em, input.token);
   if (!found.ok) throw new ValidationError(found.reason);
-  const inv = await em.findOneOrFail(InvitationSchema, { tokenHash: hashToken(input.token) }, { populate: ['user'] });
+  const { inv } = found;
   const user = inv.user.$;
   user.name = input.name;
   if (!user.passwordHash) user.passwordHash = await hashPassword(input.password);

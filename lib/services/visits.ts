@@ -1,6 +1,5 @@
 import 'server-only';
 import { z } from 'zod';
-import type { Knex } from '@mikro-orm/knex';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { RecallVisitSchema, ReviewSchema, TreatmentCaseSchema, type RecallVisit, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
@@ -19,7 +18,7 @@ import { calendarDate } from '@/lib/registry/fields';
 import { audit } from './audit';
 import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
-import { assertId, findCase, practiceSettings, todayIn } from './registry-common';
+import { assertId, findCase, knexOf, practiceSettings, todayIn } from './registry-common';
 
 export interface VisitView {
   id: string;
@@ -208,7 +207,7 @@ export function setVisitSummary(c: TreatmentCase, visits: readonly Pick<RecallVi
  */
 export async function refreshNextVisit(em: EntityManager, caseIds: readonly string[]): Promise<void> {
   if (caseIds.length === 0) return;
-  const db = (em.getTransactionContext<Knex.Transaction>() ?? em.getKnex()) as Knex;
+  const db = knexOf(em);
   for (let i = 0; i < caseIds.length; i += 5000) {
     const chunk = caseIds.slice(i, i + 5000);
     await db.raw(`select lamina_case_visit_summary(array[${chunk.map(() => '?').join(', ')}]::uuid[])`, chunk);

@@ -64,6 +64,14 @@ function rBounds(s: number, se: number, z: number, confType: ConfType, out: Floa
   }
 }
 
+/**
+ * One distinct event time's term of Greenwood's sum for var(log S): d / (n (n - d)) for d events
+ * among n at risk (d > 0); infinite when every one at risk has the event (S falls to 0).
+ */
+function greenwoodTerm(nRisk: number, nEvent: number): number {
+  return nRisk === nEvent ? Infinity : nEvent / (nRisk * (nRisk - nEvent));
+}
+
 function checkConfType(confType: unknown): ConfType {
   if (confType !== 'log' && confType !== 'log-log' && confType !== 'plain') {
     throw new RangeError(`confType must be 'log', 'log-log' or 'plain', got ${String(confType)}`);
@@ -135,12 +143,10 @@ export function kaplanMeier(obs: readonly SurvivalObservation[], opts: KaplanMei
       c++;
       j++;
     }
+    // censoring-only rows keep the previous S and bounds (S and its variance are unchanged)
     if (d > 0) {
       s *= (atRisk - d) / atRisk;
-      greenwood += atRisk === d ? Infinity : d / (atRisk * (atRisk - d));
-    }
-    if (d > 0) {
-      // censoring-only rows keep the previous bounds (S and its variance are unchanged)
+      greenwood += greenwoodTerm(atRisk, d);
       rBounds(s, Math.sqrt(greenwood), z, confType, bounds);
       lower = Number.isNaN(bounds[0]) ? s : bounds[0];
       upper = Number.isNaN(bounds[1]) ? s : bounds[1];
@@ -219,7 +225,7 @@ export function medianSurvival(
   let g = 0;
   for (let k = 0; k < m; k++) {
     const r = steps[k];
-    if (r.nEvent > 0) g += r.nRisk === r.nEvent ? Infinity : r.nEvent / (r.nRisk * (r.nRisk - r.nEvent));
+    if (r.nEvent > 0) g += greenwoodTerm(r.nRisk, r.nEvent);
     surv[k] = r.survival;
     rBounds(r.survival, Math.sqrt(g), z, confType, pair);
     lo[k] = pair[0];

@@ -20,8 +20,9 @@ export interface FormatToothOptions {
  * formatTooth(36, 'universal') → "19", formatTooth(55, 'universal') → "A".
  */
 export function formatTooth(fdi: number, notation: ToothNotation, options: FormatToothOptions = {}): string {
-  const shown = notation === 'universal' ? String(fdiToUniversal(fdi)) : String(toothInfo(fdi).fdi);
-  return options.withName ? `${shown} (${toothInfo(fdi).name})` : shown;
+  const info = toothInfo(fdi);
+  const shown = notation === 'universal' ? String(fdiToUniversal(fdi)) : String(info.fdi);
+  return options.withName ? `${shown} (${info.name})` : shown;
 }
 
 /** Reads a tooth typed in the practice's notation and gives back the FDI tooth to store. */

@@ -180,10 +180,6 @@ export function toothArch(fdi: number): Arch {
   return toothInfo(fdi).arch;
 }
 
-export function toothSide(fdi: number): Side {
-  return toothInfo(fdi).side;
-}
-
 /** Incisors and canines are anterior teeth; premolars and molars posterior. */
 export function isAnterior(fdi: number): boolean {
   const g = toothGroup(fdi);

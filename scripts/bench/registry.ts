@@ -36,6 +36,7 @@ const { planImportedVisits, DEFAULT_RECALL_POLICY } = await import('../../lib/re
 const { addDaysTo, addMonthsClamped } = await import('../../lib/registry/calendar-date');
 const { CSV_COLUMNS, templateCsv } = await import('../../lib/registry/csv');
 const { toothInfo } = await import('../../lib/teeth');
+const { createRandom } = await import('../../lib/demo/random');
 type Actor = import('../../lib/auth/actor').Actor;
 
 const N_CASES = Number(process.env.BENCH_CASES ?? 100_000);
@@ -43,26 +44,8 @@ const N_REQUESTS = Number(process.env.BENCH_REQUESTS ?? 200);
 const N_IMPORT = Number(process.env.BENCH_IMPORT_ROWS ?? 10_000);
 const EXPLAIN = process.env.BENCH_EXPLAIN === '1';
 
-// --- a seeded generator ------------------------------------------------------------------------------
-function mulberry(seed: number) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-const rnd = mulberry(4_2026);
-const int = (lo: number, hi: number) => lo + Math.floor(rnd() * (hi - lo + 1));
-const pick = <T>(xs: readonly T[]): T => xs[Math.floor(rnd() * xs.length)]!;
-function weighted<T>(entries: readonly (readonly [T, number])[]): T {
-  const total = entries.reduce((s, [, w]) => s + w, 0);
-  let x = rnd() * total;
-  for (const [v, w] of entries) if ((x -= w) < 0) return v;
-  return entries[entries.length - 1]![0];
-}
+// --- a seeded generator (the demo world's Mulberry32: same figures on every run) -----------------------
+const { next: rnd, int, pick, weighted } = createRandom(4_2026);
 
 const SYL = ['al', 'bre', 'cor', 'dun', 'el', 'fen', 'gar', 'hol', 'is', 'jor', 'kel', 'lan', 'mor', 'nes', 'or', 'pel', 'quin', 'ros', 'sel', 'tor', 'ul', 'ven', 'wyn', 'yar', 'zel'];
 const word = (n: number) => {
@@ -244,20 +227,19 @@ const seedMs = performance.now() - seedStart;
 
 // --- 2. the case list --------------------------------------------------------------------------------
 type Query = Record<string, string | number>;
-const some = <T>(xs: readonly T[]) => pick(xs);
 const month = () => addMonthsClamped(today, -int(1, 46));
 const SCENARIOS: { name: string; query: () => Query }[] = [
   { name: 'default (newest first)', query: () => ({}) },
-  { name: 'clinician', query: () => ({ operator: some(clinicians).id }) },
-  { name: 'kind + tooth group', query: () => ({ kind: 'nonsurgical_retreatment', toothGroup: some(['molar', 'premolar', 'incisor']) }) },
+  { name: 'clinician', query: () => ({ operator: pick(clinicians).id }) },
+  { name: 'kind + tooth group', query: () => ({ kind: 'nonsurgical_retreatment', toothGroup: pick(['molar', 'premolar', 'incisor']) }) },
   { name: 'visit status + due range, by next visit', query: () => ({ visitStatus: 'invited,confirmed', dueFrom: addDaysTo(today, -60), dueTo: addDaysTo(today, 60), sort: 'nextVisit', dir: 'asc' }) },
   { name: 'missed visits', query: () => ({ visitStatus: 'missed' }) },
   { name: 'completed in a quarter', query: () => { const from = month(); return { completedFrom: from, completedTo: addMonthsClamped(from, 3) }; } },
   { name: 'search registry number', query: () => ({ q: `BR-${String(int(1, nPatients)).padStart(6, '0')}` }) },
   { name: 'search name fragment', query: () => ({ q: pick(patients).familyName.slice(0, 6).toLowerCase() }) },
-  { name: 'sort by patient', query: () => ({ sort: 'patient', dir: some(['asc', 'desc']) }) },
+  { name: 'sort by patient', query: () => ({ sort: 'patient', dir: pick(['asc', 'desc']) }) },
   { name: 'beyond apex, by tooth', query: () => ({ fillLength: 'beyond', sort: 'tooth', dir: 'asc' }) },
-  { name: 'clinician + kind, page 20', query: () => ({ operator: some(clinicians).id, kind: 'primary_treatment', page: 20 }) },
+  { name: 'clinician + kind, page 20', query: () => ({ operator: pick(clinicians).id, kind: 'primary_treatment', page: 20 }) },
   { name: 'deep page (page 100)', query: () => ({ page: 100 }) },
 ];
 const baseQuery = { pageSize: 50 };

@@ -88,6 +88,15 @@ stop_pid() {
   kill -KILL -- "-$pid" 2>/dev/null || kill -KILL "$pid" 2>/dev/null || true
 }
 
+# stop_pidfile FILE NAME [SECONDS]: stop the process whose pid is in FILE and remove FILE;
+# non-zero when no such process was running.
+stop_pidfile() {
+  local pid
+  pid="$(read_pidfile "$1")" || return 1
+  stop_pid "$pid" "$2" "${3:-15}"
+  rm -f "$1"
+}
+
 # port_in_use PORT: something listens on PORT (any address).
 port_in_use() {
   if command -v ss >/dev/null; then
@@ -126,6 +135,33 @@ pick_free_port() {
   lamina_die "no free port found from $1 upwards"
 }
 
+# lamina_throwaway_env KIND PG REDIS SMTP WEB [OVERRIDES]: the set-up of npm test and npm run bench.
+# A new data dir /tmp/lamina-KIND.XXXXXX (LAMINA_DATA; the caller removes it), the test profile,
+# and for each service the first free port from its base (the mailbox's from the SMTP port + 1).
+# With OVERRIDES (npm test: LAMINA_TEST), OVERRIDES_PG_PORT … OVERRIDES_WEB_PORT are used as
+# given when set. The database keeps the app's name: MikroORM writes
+# migrations/.snapshot-<db name>.json.
+lamina_throwaway_env() {
+  local kind="$1" overrides="${6:-}" name base fixed port
+  LAMINA_DATA="$(mktemp -d "/tmp/lamina-$kind.XXXXXX")"
+  chmod 755 "$LAMINA_DATA" # the postgres user must reach DATA/pg
+  export LAMINA_DATA LAMINA_PROFILE=test LAMINA_DB_NAME=lamina
+  for name in PG REDIS SMTP MAILBOX WEB; do
+    case "$name" in
+      PG) base="$2" ;;
+      REDIS) base="$3" ;;
+      SMTP) base="$4" ;;
+      MAILBOX) base=$((LAMINA_SMTP_PORT + 1)) ;;
+      WEB) base="$5" ;;
+    esac
+    fixed=""
+    if [[ -n "$overrides" ]]; then fixed="${overrides}_${name}_PORT"; fixed="${!fixed:-}"; fi
+    if [[ -n "$fixed" ]]; then port="$fixed"; else port="$(pick_free_port "$base")" || exit 1; fi
+    export "LAMINA_${name}_PORT=$port"
+  done
+  lamina_defaults
+}
+
 # http_get URL: print the body of a 2xx response; non-zero on anything else. Node is always
 # here (curl may not be on a fresh machine).
 http_get() {
@@ -148,6 +184,20 @@ wait_until() {
   done
   lamina_log "timed out after ${seconds}s waiting for $what"
   return 1
+}
+
+# wait_for_launch SECONDS PID NAME LOG COMMAND...: poll COMMAND every 0.25 s until it succeeds;
+# stop the run, with the end of LOG, if PID (the process launched) exits first or time runs out.
+wait_for_launch() {
+  local seconds="$1" pid="$2" name="$3" log="$4" i
+  shift 4
+  for ((i = 0; i < seconds * 4; i++)); do
+    "$@" >/dev/null 2>&1 && return 0
+    pid_alive "$pid" || { tail -n 30 "$log" >&2; lamina_die "$name exited (log: $log)"; }
+    sleep 0.25
+  done
+  tail -n 30 "$log" >&2
+  lamina_die "$name did not answer in ${seconds}s (log: $log)"
 }
 
 # run_as_postgres CMD...: run a command as the postgres user, from / (so it never tries to
@@ -192,15 +242,22 @@ ensure_node_modules() {
   (cd "$LAMINA_REPO" && npm ci --include=dev --no-audit --no-fund --loglevel=error)
 }
 
+# random_secret: 32 random bytes in hex (openssl, or Node where openssl is missing).
+random_secret() {
+  openssl rand -hex 32 2>/dev/null || node -e 'process.stdout.write(require("crypto").randomBytes(32).toString("hex")+"\n")'
+}
+
 # ensure_secret FILE: a random NEXTAUTH_SECRET kept in FILE (created once, mode 600).
 ensure_secret() {
   local file="$1"
-  if [[ ! -s "$file" ]]; then
-    (umask 077 && openssl rand -hex 32 >"$file" 2>/dev/null) ||
-      (umask 077 && node -e 'process.stdout.write(require("crypto").randomBytes(32).toString("hex")+"\n")' >"$file")
-  fi
+  [[ -s "$file" ]] || (umask 077 && random_secret >"$file")
   tr -d '\n' <"$file"
 }
+
+# lamina_migrate: apply the committed migrations. lamina_seed: the demo practice (idempotent); it
+# runs under scripts/tsconfig.json, where `server-only` is an empty module (as `npm run seed`).
+lamina_migrate() { (cd "$LAMINA_REPO" && node_modules/.bin/tsx scripts/migrate.ts); }
+lamina_seed() { (cd "$LAMINA_REPO" && node_modules/.bin/tsx --tsconfig scripts/tsconfig.json scripts/seed.ts); }
 
 # ----------------------------------------------------------------------------------------------
 # Environment for the app (read by lib/env.ts)
@@ -454,23 +511,13 @@ mail_start() {
     --dir "$dir/messages" --pid-file "$pidfile" </dev/null >>"$log" 2>&1) &
   local launcher=$!
   disown "$launcher" 2>/dev/null || true
-  local i
-  for ((i = 0; i < 120; i++)); do
-    mail_ready && break
-    pid_alive "$launcher" || { tail -n 20 "$log" >&2; lamina_die "the mail fake exited (log: $log)"; }
-    sleep 0.25
-  done
-  mail_ready || { tail -n 20 "$log" >&2; lamina_die "the mail fake did not answer in 30s (log: $log)"; }
+  wait_for_launch 30 "$launcher" "the mail fake" "$log" mail_ready
   lamina_log "mail fake: SMTP 127.0.0.1:$LAMINA_SMTP_PORT, mailbox http://127.0.0.1:$LAMINA_MAILBOX_PORT"
 }
 
 mail_stop() {
   lamina_defaults
-  local pidfile pid
-  pidfile="$(mail_dir)/mail-fake.pid"
-  pid="$(read_pidfile "$pidfile")" || return 0
-  stop_pid "$pid" "mail fake" 10
-  rm -f "$pidfile"
+  stop_pidfile "$(mail_dir)/mail-fake.pid" "mail fake" 10 || return 0
   lamina_log "mail fake stopped"
 }
 

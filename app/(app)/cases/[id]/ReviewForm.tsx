@@ -5,10 +5,11 @@ import { useForm, useWatch, type Resolver } from 'react-hook-form';
 import { zodResolver } from '@hookform/resolvers/zod';
 import { z } from 'zod';
 import { REVIEW_SIGNS, REVIEW_SIGN_LABELS, ReviewCreateSchema, TOOTH_STATUSES, TOOTH_STATUS_LABELS } from '@/lib/schemas/review';
-import { PAI_LEVELS } from '@/lib/scoring';
 import { Field } from '@/components/ui/Field';
-import { Select } from '@/components/ui/Select';
+import { Select, optionsOf } from '@/components/ui/Select';
 import { Notice } from '@/components/ui/Notice';
+import { Check, CheckGroup } from '@/components/ui/Check';
+import { PAI_OPTIONS } from '../_components/options';
 
 type Shape = Record<string, unknown> & { visitId?: string; reviewDate: string; toothStatus: string; paiScore?: number; lesionDiameterMm?: number; otherFindings?: string };
 
@@ -57,13 +58,13 @@ export function ReviewForm({ caseId, visits, completionDate }: { caseId: string;
       <div className="grid gap-4 md:grid-cols-2">
         <Select label="At visit" placeholder="Unplanned review" options={visits} {...register('visitId')} error={e.visitId?.message} />
         <Field label="Review date" type="date" min={completionDate} {...register('reviewDate')} error={e.reviewDate?.message} />
-        <Select label="Tooth status" options={TOOTH_STATUSES.map((s) => ({ value: s, label: TOOTH_STATUS_LABELS[s] }))} {...register('toothStatus')} error={e.toothStatus?.message} />
+        <Select label="Tooth status" options={optionsOf(TOOTH_STATUSES, TOOTH_STATUS_LABELS)} {...register('toothStatus')} error={e.toothStatus?.message} />
         {status !== 'extracted' && (
           <>
             <Select
               label="Periapical index (PAI) now"
               placeholder="Choose 1–5"
-              options={PAI_LEVELS.map((l) => ({ value: String(l.score), label: `${l.score} — ${l.description}` }))}
+              options={PAI_OPTIONS}
               {...register('paiScore', num)}
               error={e.paiScore?.message}
             />
@@ -72,17 +73,11 @@ export function ReviewForm({ caseId, visits, completionDate }: { caseId: string;
         )}
       </div>
       {status !== 'extracted' && (
-        <fieldset>
-          <legend className="field-label">Clinical signs and symptoms</legend>
-          <div className="flex flex-wrap gap-x-5 gap-y-2">
-            {REVIEW_SIGNS.map((s) => (
-              <label key={s} className="flex items-center gap-2 text-sm">
-                <input type="checkbox" className="h-4 w-4 accent-dura-700" {...register(s)} />
-                {REVIEW_SIGN_LABELS[s]}
-              </label>
-            ))}
-          </div>
-        </fieldset>
+        <CheckGroup legend="Clinical signs and symptoms">
+          {REVIEW_SIGNS.map((s) => (
+            <Check key={s} label={REVIEW_SIGN_LABELS[s]} {...register(s)} />
+          ))}
+        </CheckGroup>
       )}
       <Field label="Other findings" {...register('otherFindings')} error={e.otherFindings?.message} />
       <p className="text-xs text-ink-500">The outcome is computed from these findings by the published rules; it supports your judgement and does not replace it.</p>

@@ -16,12 +16,12 @@ import {
 import { FILL_LENGTH_LABELS } from '@/lib/scoring';
 import { OutcomeBadge, VisitStatusBadge } from '@/components/ui/StateBadge';
 import { Caution } from '@/components/ui/Caution';
+import { fmtDate } from '@/components/ui/format';
 import { ReviewForm } from './ReviewForm';
 import { VisitActions } from './VisitActions';
+import { isoSize } from '../_components/options';
 
 export const metadata: Metadata = { title: 'Case' };
-
-const fmt = (d: string | null | undefined) => (d ? new Date(`${d}T12:00:00`).toLocaleDateString('en-GB', { day: 'numeric', month: 'short', year: 'numeric' }) : '—');
 
 const TIMELINE_ICON = { 'treatment-started': '▸', 'treatment-completed': '■', 'definitive-restoration': '◆', visit: '○', review: '◉' } as const;
 
@@ -34,6 +34,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
   });
   const v = c.values;
   const attended = c.visits.filter((x) => x.status === 'attended');
+  const canMoveVisits = can(actor.roles, 'recall.manage');
   return (
     <div className="space-y-6">
       <p className="text-sm">
@@ -73,7 +74,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                 <span aria-hidden="true" className="absolute -left-[1.45rem] top-0.5 bg-white text-dura-700">
                   {TIMELINE_ICON[t.type]}
                 </span>
-                <div className="text-xs text-ink-500">{fmt(t.date)}</div>
+                <div className="text-xs text-ink-500">{fmtDate(t.date)}</div>
                 <div className="text-sm font-medium">{t.title}</div>
                 {t.visitStatus && <VisitStatusBadge status={t.visitStatus} />}
                 {t.outcome && <OutcomeBadge outcome={t.outcome} />}
@@ -88,8 +89,8 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
               Treatment
             </h2>
             <dl className="mt-3 grid gap-x-6 gap-y-2 text-sm sm:grid-cols-2">
-              <Item term="Started">{fmt(c.startDate)}</Item>
-              <Item term="Completed (canal filling)">{c.completionDate ? fmt(c.completionDate) : 'In progress'}</Item>
+              <Item term="Started">{fmtDate(c.startDate)}</Item>
+              <Item term="Completed (canal filling)">{c.completionDate ? fmtDate(c.completionDate) : 'In progress'}</Item>
               <Item term="Pulpal diagnosis">{PULPAL_DIAGNOSIS_LABELS[v.pulpalDiagnosis]}</Item>
               <Item term="Apical diagnosis">{APICAL_DIAGNOSIS_LABELS[v.apicalDiagnosis]}</Item>
               <Item term="PAI before treatment">{v.paiScore ?? '—'}</Item>
@@ -118,7 +119,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                     <tr key={k.name}>
                       <td>{k.name}</td>
                       <td>{k.workingLengthMm !== undefined ? `${k.workingLengthMm} mm` : '—'}</td>
-                      <td>{k.apicalSize !== undefined ? String(k.apicalSize).padStart(2, '0') : '—'}</td>
+                      <td>{k.apicalSize !== undefined ? isoSize(k.apicalSize) : '—'}</td>
                       <td>{k.fillToApexMm !== undefined ? `${k.fillToApexMm} mm` : '—'}</td>
                       <td>{k.fillLengthClass ? FILL_LENGTH_LABELS[k.fillLengthClass] : '—'}</td>
                     </tr>
@@ -151,15 +152,15 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                   {c.visits.map((x) => (
                     <tr key={x.id} data-testid={`visit-${x.milestone}`}>
                       <td>{x.milestone} months</td>
-                      <td>{fmt(x.dueDate)}</td>
+                      <td>{fmtDate(x.dueDate)}</td>
                       <td className="text-xs text-ink-500">
-                        {fmt(x.windowStart)} – {fmt(x.windowEnd)}
+                        {fmtDate(x.windowStart)} – {fmtDate(x.windowEnd)}
                       </td>
                       <td>
                         <VisitStatusBadge status={x.status} />
-                        {x.bookedDate && <div className="text-xs text-ink-500">booked {fmt(x.bookedDate)}</div>}
+                        {x.bookedDate && <div className="text-xs text-ink-500">booked {fmtDate(x.bookedDate)}</div>}
                       </td>
-                      <td>{can(actor.roles, 'recall.manage') && x.allowedNext.length > 0 && <VisitActions visit={x} />}</td>
+                      <td>{canMoveVisits && x.allowedNext.length > 0 && <VisitActions visit={x} />}</td>
                     </tr>
                   ))}
                 </tbody>
@@ -189,7 +190,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                 <tbody>
                   {c.reviews.map((r) => (
                     <tr key={r.id}>
-                      <td>{fmt(r.reviewDate)}</td>
+                      <td>{fmtDate(r.reviewDate)}</td>
                       <td>{r.visitMilestone ? `${r.visitMilestone} months` : 'Unplanned'}</td>
                       <td>{r.toothStatusLabel}</td>
                       <td>{r.paiScore ?? '—'}</td>
@@ -208,7 +209,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
             )}
             <Caution text={c.caution} />
             {can(actor.roles, 'review.write') && c.completionDate && !c.archived && (
-              <ReviewForm caseId={c.id} visits={attended.map((x) => ({ value: x.id, label: `${x.milestone} months (${fmt(x.dueDate)})` }))} completionDate={c.completionDate} />
+              <ReviewForm caseId={c.id} visits={attended.map((x) => ({ value: x.id, label: `${x.milestone} months (${fmtDate(x.dueDate)})` }))} completionDate={c.completionDate} />
             )}
           </section>
         </div>

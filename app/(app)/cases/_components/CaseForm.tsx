@@ -1,5 +1,5 @@
 'use client';
-import { forwardRef, useState, type InputHTMLAttributes } from 'react';
+import { useState } from 'react';
 import { useRouter } from 'next/navigation';
 import { useFieldArray, useForm, useWatch, type FieldErrors, type Resolver, type UseFormRegister } from 'react-hook-form';
 import { zodResolver } from '@hookform/resolvers/zod';
@@ -31,19 +31,17 @@ import {
   ROOT_END_FILLINGS,
   SEALER_CLASSES,
   SEALER_CLASS_LABELS,
-  codeLabel,
   fieldsFor,
   type CaseKind,
   type CaseSection,
 } from '@/lib/schemas/case';
-import { PAI_LEVELS, fillLengthClass, FILL_LENGTH_LABELS, SCORING_CAUTION } from '@/lib/scoring';
+import { fillLengthClass, FILL_LENGTH_LABELS, SCORING_CAUTION } from '@/lib/scoring';
 import { formatTooth, parseFdi } from '@/lib/teeth';
 import { Field } from '@/components/ui/Field';
 import { Select, optionsOf } from '@/components/ui/Select';
 import { Notice } from '@/components/ui/Notice';
-
-type Option = { value: string; label: string };
-const codes = (values: readonly string[]): Option[] => values.map((v) => ({ value: v, label: codeLabel(v) }));
+import { Check, CheckGroup } from '@/components/ui/Check';
+import { PAI_OPTIONS, codeOptions, isoSize, type Option } from './options';
 
 /** What the form holds: strings from inputs, numbers through setValueAs. */
 export interface CaseFormShape {
@@ -169,7 +167,7 @@ export function CaseForm(props: {
         <Select
           label="Periapical index (PAI) before treatment"
           placeholder="Choose 1–5"
-          options={PAI_LEVELS.map((l) => ({ value: String(l.score), label: `${l.score} — ${l.description}` }))}
+          options={PAI_OPTIONS}
           {...register('paiScore', num)}
           error={err('paiScore')}
         />
@@ -214,7 +212,7 @@ export function CaseForm(props: {
                   <Select
                     label="Apical size (ISO)"
                     placeholder="—"
-                    options={ISO_APICAL_SIZES.map((s) => ({ value: String(s), label: String(s).padStart(2, '0') }))}
+                    options={ISO_APICAL_SIZES.map((s) => ({ value: String(s), label: isoSize(s) }))}
                     {...register(`canals.${i}.apicalSize`, num)}
                     error={e('apicalSize')}
                   />
@@ -257,22 +255,22 @@ export function CaseForm(props: {
 
       {has('surgery') && (
         <Section title={CASE_SECTION_LABELS.surgery}>
-          <Select label="Root-end filling" placeholder="Choose" options={codes(ROOT_END_FILLINGS)} {...register('rootEndFilling', opt)} error={err('rootEndFilling')} />
+          <Select label="Root-end filling" placeholder="Choose" options={codeOptions(ROOT_END_FILLINGS)} {...register('rootEndFilling', opt)} error={err('rootEndFilling')} />
         </Section>
       )}
 
       {has('pulpTherapy') && (
         <Section title={CASE_SECTION_LABELS.pulpTherapy}>
           {shown.fields.includes('pulpTherapyType') && (
-            <Select label="Pulp therapy" placeholder="Choose" options={codes(PULP_THERAPY_TYPES)} {...register('pulpTherapyType', opt)} error={err('pulpTherapyType')} />
+            <Select label="Pulp therapy" placeholder="Choose" options={codeOptions(PULP_THERAPY_TYPES)} {...register('pulpTherapyType', opt)} error={err('pulpTherapyType')} />
           )}
-          <Select label="Capping material" placeholder="Choose" options={codes(CAPPING_MATERIALS)} {...register('cappingMaterial', opt)} error={err('cappingMaterial')} />
+          <Select label="Capping material" placeholder="Choose" options={codeOptions(CAPPING_MATERIALS)} {...register('cappingMaterial', opt)} error={err('cappingMaterial')} />
         </Section>
       )}
 
       {has('afterTreatment') && (
         <Section title={CASE_SECTION_LABELS.afterTreatment}>
-          <Select label="Density of the filling" placeholder="Choose" options={codes(FILL_DENSITIES)} {...register('fillDensity', opt)} error={err('fillDensity')} />
+          <Select label="Density of the filling" placeholder="Choose" options={codeOptions(FILL_DENSITIES)} {...register('fillDensity', opt)} error={err('fillDensity')} />
           <p className="text-sm text-ink-700">The distance of each canal’s filling to the apex is entered with the canal above; Lamina classes it by the published cut-offs.</p>
         </Section>
       )}
@@ -325,15 +323,6 @@ function Section({ title, children, wide }: { title: string; children: React.Rea
   );
 }
 
-const Check = forwardRef<HTMLInputElement, InputHTMLAttributes<HTMLInputElement> & { label: string }>(function Check({ label, ...rest }, ref) {
-  return (
-    <label className="flex items-center gap-2 text-sm">
-      <input ref={ref} type="checkbox" className="h-4 w-4 accent-dura-700" {...rest} />
-      {label}
-    </label>
-  );
-});
-
 function Checks({
   label,
   name,
@@ -348,21 +337,10 @@ function Checks({
   error?: string;
 }) {
   return (
-    <fieldset>
-      <legend className="field-label">{label}</legend>
-      <div className="flex flex-wrap gap-x-5 gap-y-2">
-        {options.map((o) => (
-          <label key={o.value} className="flex items-center gap-2 text-sm">
-            <input type="checkbox" value={o.value} className="h-4 w-4 accent-dura-700" {...register(name)} />
-            {o.label}
-          </label>
-        ))}
-      </div>
-      {error && (
-        <p className="field-error" role="alert">
-          {error}
-        </p>
-      )}
-    </fieldset>
+    <CheckGroup legend={label} error={error}>
+      {options.map((o) => (
+        <Check key={o.value} label={o.label} value={o.value} {...register(name)} />
+      ))}
+    </CheckGroup>
   );
 }

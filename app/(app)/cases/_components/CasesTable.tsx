@@ -5,29 +5,25 @@ import { useMemo } from 'react';
 import { keepPreviousData, useQuery } from '@tanstack/react-query';
 import { createColumnHelper, getCoreRowModel, useReactTable, type SortingState } from '@tanstack/react-table';
 import { TableView } from '@/components/ui/TableView';
+import { optionsOf } from '@/components/ui/Select';
 import { PatientCell } from '@/components/ui/PatientCell';
 import type { CasePage, CaseRow } from '@/lib/services/cases';
 import { CASE_KINDS, CASE_KIND_LABELS } from '@/lib/schemas/case';
 import { VISIT_STATUSES, VISIT_STATUS_LABELS } from '@/lib/recall/status';
 import { FILL_LENGTH_LABELS } from '@/lib/scoring';
+import { TOOTH_GROUPS } from '@/lib/teeth';
 import { OutcomeBadge, VisitStatusBadge } from '@/components/ui/StateBadge';
 import { TableSkeleton } from '@/components/ui/Skeleton';
 import { Notice } from '@/components/ui/Notice';
 import { EmptyState } from '@/components/ui/EmptyState';
+import { fmtDate } from '@/components/ui/format';
+import { PagerButtons, pageCount } from '@/components/ui/Pager';
+import type { Option } from './options';
 
-type Option = { value: string; label: string };
-
-const TOOTH_GROUP_OPTIONS: Option[] = [
-  { value: 'incisor', label: 'Incisors' },
-  { value: 'canine', label: 'Canines' },
-  { value: 'premolar', label: 'Premolars' },
-  { value: 'molar', label: 'Molars' },
-];
+const TOOTH_GROUP_OPTIONS = optionsOf(TOOTH_GROUPS, { incisor: 'Incisors', canine: 'Canines', premolar: 'Premolars', molar: 'Molars' });
 
 /** Filters live in the URL: a filtered list can be bookmarked, shared and reloaded. */
 const FILTER_KEYS = ['q', 'operator', 'kind', 'toothGroup', 'visitStatus', 'fillLength', 'completedFrom', 'completedTo', 'dueFrom', 'dueTo', 'stage'] as const;
-
-const fmtDate = (d: string | null) => (d ? new Date(`${d}T12:00:00`).toLocaleDateString('en-GB', { day: 'numeric', month: 'short', year: 'numeric' }) : '—');
 
 export function CasesTable({ clinicians, canImport, canWrite }: { clinicians: Option[]; canImport: boolean; canWrite: boolean }) {
   const router = useRouter();
@@ -123,8 +119,6 @@ export function CasesTable({ clinicians, canImport, canWrite }: { clinicians: Op
   });
   const sortable = new Set(['patient', 'tooth', 'kind', 'operator', 'completionDate', 'nextVisit']);
 
-  const pages = data ? Math.max(1, Math.ceil(data.total / data.pageSize)) : 1;
-
   return (
     <div className="space-y-4">
       <form
@@ -149,12 +143,12 @@ export function CasesTable({ clinicians, canImport, canWrite }: { clinicians: Op
           </div>
         </div>
         <FilterSelect label="Operator" value={params.get('operator')} options={clinicians} onChange={(v) => setParams({ operator: v })} />
-        <FilterSelect label="Treatment" value={params.get('kind')} options={CASE_KINDS.map((k) => ({ value: k, label: CASE_KIND_LABELS[k] }))} onChange={(v) => setParams({ kind: v })} />
+        <FilterSelect label="Treatment" value={params.get('kind')} options={optionsOf(CASE_KINDS, CASE_KIND_LABELS)} onChange={(v) => setParams({ kind: v })} />
         <FilterSelect label="Tooth group" value={params.get('toothGroup')} options={TOOTH_GROUP_OPTIONS} onChange={(v) => setParams({ toothGroup: v })} />
         <FilterSelect
           label="Visit status"
           value={params.get('visitStatus')}
-          options={VISIT_STATUSES.map((s) => ({ value: s, label: VISIT_STATUS_LABELS[s] }))}
+          options={optionsOf(VISIT_STATUSES, VISIT_STATUS_LABELS)}
           onChange={(v) => setParams({ visitStatus: v })}
         />
         <FilterDate label="Completed from" value={params.get('completedFrom')} onChange={(v) => setParams({ completedFrom: v })} />
@@ -209,25 +203,18 @@ export function CasesTable({ clinicians, canImport, canWrite }: { clinicians: Op
               };
             }}
           />
-          <nav aria-label="Pages" className="flex items-center gap-3 text-sm">
-            <button type="button" className="btn-secondary" disabled={page <= 1} onClick={() => setParams({ page: String(page - 1) }, false)}>
-              ← Previous
-            </button>
-            <span>
-              Page {page} of {pages}
-            </span>
-            <button type="button" className="btn-secondary" disabled={page >= pages} onClick={() => setParams({ page: String(page + 1) }, false)}>
-              Next →
-            </button>
-          </nav>
+          <PagerButtons page={page} pages={data ? pageCount(data.total, data.pageSize) : 1} onPage={(p) => setParams({ page: String(p) }, false)} />
         </>
       )}
     </div>
   );
 }
 
+/** A filter control's id, from its label ("Visit due from" → filter-visit-due-from). */
+const filterId = (label: string) => `filter-${label.toLowerCase().replace(/\s+/g, '-')}`;
+
 function FilterSelect({ label, value, options, onChange }: { label: string; value: string | null; options: Option[]; onChange: (v: string | null) => void }) {
-  const id = `filter-${label.toLowerCase().replace(/\s+/g, '-')}`;
+  const id = filterId(label);
   return (
     <div>
       <label htmlFor={id} className="field-label">
@@ -246,7 +233,7 @@ function FilterSelect({ label, value, options, onChange }: { label: string; valu
 }
 
 function FilterDate({ label, value, onChange }: { label: string; value: string | null; onChange: (v: string | null) => void }) {
-  const id = `filter-${label.toLowerCase().replace(/\s+/g, '-')}`;
+  const id = filterId(label);
   return (
     <div>
       <label htmlFor={id} className="field-label">

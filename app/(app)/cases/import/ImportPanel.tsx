@@ -1,5 +1,5 @@
 'use client';
-import { useRef, useState } from 'react';
+import { useState } from 'react';
 import Link from 'next/link';
 import type { ImportProgress, ImportResult } from '@/lib/services/import';
 import { Notice } from '@/components/ui/Notice';
@@ -33,7 +33,6 @@ async function runImport(file: File, mode: 'dry-run' | 'commit', onProgress: (p:
 }
 
 export function ImportPanel() {
-  const fileRef = useRef<HTMLInputElement>(null);
   const [file, setFile] = useState<File | null>(null);
   const [phase, setPhase] = useState<Phase>({ kind: 'idle' });
 
@@ -50,6 +49,7 @@ export function ImportPanel() {
 
   const result = phase.kind === 'done' ? phase.result : null;
   const clean = result && result.errors.length === 0;
+  const badRows = result ? new Set(result.errors.map((e) => e.line)).size : 0;
   return (
     <section aria-label="Import a file" className="card space-y-4">
       <ol className="list-decimal space-y-1 pl-5 text-sm text-ink-700">
@@ -68,7 +68,6 @@ export function ImportPanel() {
             CSV file
           </label>
           <input
-            ref={fileRef}
             id="import-file"
             type="file"
             accept=".csv,text/csv"
@@ -112,8 +111,8 @@ export function ImportPanel() {
       {result && result.errors.length > 0 && (
         <div className="space-y-3">
           <Notice tone="alert">
-            {result.errors.length} problem{result.errors.length === 1 ? '' : 's'} in {new Set(result.errors.map((e) => e.line)).size} row
-            {new Set(result.errors.map((e) => e.line)).size === 1 ? '' : 's'}: nothing was imported. Fix the file and check it again.
+            {result.errors.length} problem{result.errors.length === 1 ? '' : 's'} in {badRows} row
+            {badRows === 1 ? '' : 's'}: nothing was imported. Fix the file and check it again.
           </Notice>
           <div className="max-h-96 overflow-auto rounded-md border border-bone-200">
             <table className="table-dense w-full" aria-label="Problems in the file">

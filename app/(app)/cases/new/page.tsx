@@ -8,6 +8,7 @@ import { listClinicians } from '@/lib/services/cases';
 import { listReferrers } from '@/lib/services/referrers';
 import { practiceSettings } from '@/lib/services/registry-common';
 import { CaseForm } from '../_components/CaseForm';
+import { clinicianOptions, referrerOptions } from '../_components/options';
 
 export const metadata: Metadata = { title: 'New case' };
 
@@ -32,8 +33,8 @@ export default async function NewCasePage({ searchParams }: { searchParams: Prom
       <h1 className="text-3xl">New case</h1>
       <CaseForm
         patient={{ id: patient.id, label: `${patient.name} (${patient.registryNumber}), born ${patient.dateOfBirth}` }}
-        clinicians={clinicians.map((c) => ({ value: c.id, label: c.name ?? c.email }))}
-        referrers={referrers.rows.map((r) => ({ value: r.id, label: r.practiceName ? `${r.name}, ${r.practiceName}` : r.name }))}
+        clinicians={clinicianOptions(clinicians)}
+        referrers={referrerOptions(referrers.rows)}
         notation={settings.toothNotation}
         defaultOperatorId={clinicians.some((c) => c.id === actor.userId) ? actor.userId : undefined}
       />

@@ -4,7 +4,9 @@ import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import type { ContactLogView } from '@/lib/services/recall-contact';
 import { Notice } from '@/components/ui/Notice';
 import { VisitStatusBadge } from '@/components/ui/StateBadge';
-import { fmtDate, fmtDateTime, getJson, postJson } from './api';
+import { Check } from '@/components/ui/Check';
+import { fmtDate, fmtDateTime } from '@/components/ui/format';
+import { getJson, postJson } from './api';
 
 /** A visit's contact log beside the desk: messages, replies, calls; and a call note to add. */
 export function ContactLog({ visitId, onClose }: { visitId: string; onClose: () => void }) {
@@ -74,9 +76,7 @@ export function ContactLog({ visitId, onClose }: { visitId: string; onClose: () 
           </label>
           <textarea id="call-note" className="field-input" rows={3} value={note} onChange={(e) => setNote(e.target.value)} />
         </div>
-        <label className="flex items-center gap-2 text-sm">
-          <input type="checkbox" className="h-4 w-4 accent-dura-700" checked={reached} onChange={(e) => setReached(e.target.checked)} />I spoke to the patient
-        </label>
+        <Check label="I spoke to the patient" checked={reached} onChange={(e) => setReached(e.target.checked)} />
         <button type="submit" className="btn-primary" disabled={add.isPending}>
           {add.isPending ? 'Saving…' : 'Add to the log'}
         </button>

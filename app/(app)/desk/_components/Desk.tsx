@@ -12,8 +12,10 @@ import { TableSkeleton } from '@/components/ui/Skeleton';
 import { VisitStatusBadge, StateBadge } from '@/components/ui/StateBadge';
 import { Notice } from '@/components/ui/Notice';
 import { EmptyState } from '@/components/ui/EmptyState';
+import { PagerButtons, pageCount } from '@/components/ui/Pager';
 import { ContactLog } from './ContactLog';
-import { fmtDate, fmtDateTime, getJson, postJson } from './api';
+import { fmtDate, fmtDateTime } from '@/components/ui/format';
+import { getJson, postJson } from './api';
 
 const EMPTY_TEXT: Record<DeskQueue, string> = {
   due_soon: 'No visit falls due in the next 30 days. Completed cases get their visits from the recall policy.',
@@ -183,7 +185,6 @@ export function Desk() {
     onRowSelectionChange: setSelection,
   });
   const selected = Object.keys(selection).filter((k) => selection[k]);
-  const pages = rows.data ? Math.max(1, Math.ceil(rows.data.total / rows.data.pageSize)) : 1;
 
   return (
     <div className="space-y-4">
@@ -232,17 +233,12 @@ export function Desk() {
       ) : (
         <>
           <TableView table={table} label="Visits in this queue" rowProps={(row) => ({ 'data-testid': `desk-row-${row.original.patient.registryNumber}-${row.original.milestone}` })} />
-          <nav aria-label="Pages" className="flex items-center gap-3 text-sm">
-            <button type="button" className="btn-secondary" disabled={page <= 1} onClick={() => go(queue, page - 1)}>
-              ← Previous
-            </button>
-            <span>
-              Page {page} of {pages} · {rows.data?.total} visits
-            </span>
-            <button type="button" className="btn-secondary" disabled={page >= pages} onClick={() => go(queue, page + 1)}>
-              Next →
-            </button>
-          </nav>
+          <PagerButtons
+            page={page}
+            pages={rows.data ? pageCount(rows.data.total, rows.data.pageSize) : 1}
+            onPage={(p) => go(queue, p)}
+            summary={` · ${rows.data?.total ?? ''} visits`}
+          />
         </>
       )}
       {openLog && <ContactLog visitId={openLog} onClose={() => setOpenLog(null)} />}

@@ -15,7 +15,3 @@ export async function postJson<T>(url: string, data: unknown): Promise<T> {
   }
   return body as T;
 }
-
-export const fmtDate = (d: string | null | undefined) =>
-  d ? new Date(d.length === 10 ? `${d}T12:00:00` : d).toLocaleDateString('en-GB', { day: 'numeric', month: 'short', year: 'numeric' }) : '—';
-export const fmtDateTime = (d: string) => new Date(d).toLocaleString('en-GB', { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit' });

@@ -4,10 +4,11 @@ import { useRouter } from 'next/navigation';
 import { useForm, useWatch, type Resolver } from 'react-hook-form';
 import { zodResolver } from '@hookform/resolvers/zod';
 import { PatientCreateSchema, RECALL_CHANNELS, SEXES } from '@/lib/schemas/patient';
-import { codeLabel } from '@/lib/schemas/case';
 import { Field } from '@/components/ui/Field';
 import { Select } from '@/components/ui/Select';
 import { Notice } from '@/components/ui/Notice';
+import { Check } from '@/components/ui/Check';
+import { codeOptions } from '../../cases/_components/options';
 
 interface PatientShape {
   registryNumber: string;
@@ -68,7 +69,7 @@ export function PatientForm({ patientId, initial, then }: { patientId?: string; 
         <Field label="Date of birth" type="date" {...register('dateOfBirth')} error={e.dateOfBirth?.message} />
         <Field label="Given name" autoComplete="off" {...register('givenName')} error={e.givenName?.message} />
         <Field label="Family name" autoComplete="off" {...register('familyName')} error={e.familyName?.message} />
-        <Select label="Sex" options={SEXES.map((s) => ({ value: s, label: codeLabel(s) }))} {...register('sex')} error={e.sex?.message} />
+        <Select label="Sex" options={codeOptions(SEXES)} {...register('sex')} error={e.sex?.message} />
       </section>
       <section aria-label="Contact" className="card grid gap-4 md:grid-cols-3">
         <h2 className="text-xl md:col-span-3">Contact</h2>
@@ -78,20 +79,14 @@ export function PatientForm({ patientId, initial, then }: { patientId?: string; 
       </section>
       <section aria-label="Consents" className="card grid gap-4 md:grid-cols-2">
         <h2 className="text-xl md:col-span-2">Consents</h2>
-        <label className="flex items-center gap-2 text-sm">
-          <input type="checkbox" className="h-4 w-4 accent-dura-700" {...register('recallContact')} />
-          The patient agrees to be contacted for follow-up recalls
-        </label>
+        <Check label="The patient agrees to be contacted for follow-up recalls" {...register('recallContact')} />
         <Select
           label="Recall contact by"
-          options={RECALL_CHANNELS.filter((c) => (recall ? c !== 'none' : true)).map((c) => ({ value: c, label: codeLabel(c) }))}
+          options={codeOptions(recall ? RECALL_CHANNELS.filter((c) => c !== 'none') : RECALL_CHANNELS)}
           {...register('recallChannel')}
           error={e.recallChannel?.message}
         />
-        <label className="flex items-center gap-2 text-sm">
-          <input type="checkbox" className="h-4 w-4 accent-dura-700" {...register('researchUse')} />
-          The patient agrees to research use of their anonymised data
-        </label>
+        <Check label="The patient agrees to research use of their anonymised data" {...register('researchUse')} />
         <Field label="Consents recorded on" type="date" {...register('consentDate')} error={e.consentDate?.message} />
       </section>
       <div className="flex gap-3">

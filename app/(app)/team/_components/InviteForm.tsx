@@ -7,6 +7,7 @@ import type { z } from 'zod';
 import { InviteInput } from '@/lib/schemas/auth';
 import { Field } from '@/components/ui/Field';
 import { Notice } from '@/components/ui/Notice';
+import { Check, CheckGroup } from '@/components/ui/Check';
 import { ROLE_OPTIONS } from './roles';
 
 type Values = z.input<typeof InviteInput>;
@@ -36,7 +37,6 @@ export function InviteForm() {
     router.refresh();
   });
 
-  const rolesError = form.formState.errors.roles?.message;
   return (
     <section aria-labelledby="invite-heading" className="card max-w-2xl space-y-4">
       <h2 id="invite-heading" className="text-xl">
@@ -49,22 +49,11 @@ export function InviteForm() {
           <Field label="Name" autoComplete="off" {...form.register('name')} error={form.formState.errors.name?.message} />
           <Field label="E-mail" type="email" autoComplete="off" {...form.register('email')} error={form.formState.errors.email?.message} />
         </div>
-        <fieldset aria-describedby={rolesError ? 'invite-roles-error' : undefined}>
-          <legend className="field-label">Roles</legend>
-          <div className="flex flex-wrap gap-x-5 gap-y-2">
-            {ROLE_OPTIONS.map((o) => (
-              <label key={o.value} className="flex items-center gap-2 text-sm">
-                <input type="checkbox" value={o.value} className="h-4 w-4 accent-dura-700" {...form.register('roles')} />
-                {o.label}
-              </label>
-            ))}
-          </div>
-          {rolesError && (
-            <p id="invite-roles-error" className="field-error" role="alert">
-              {rolesError}
-            </p>
-          )}
-        </fieldset>
+        <CheckGroup legend="Roles" error={form.formState.errors.roles?.message} errorId="invite-roles-error">
+          {ROLE_OPTIONS.map((o) => (
+            <Check key={o.value} label={o.label} value={o.value} {...form.register('roles')} />
+          ))}
+        </CheckGroup>
         <button type="submit" className="btn-primary" disabled={form.formState.isSubmitting}>
           {form.formState.isSubmitting ? 'Sending…' : 'Send invitation'}
         </button>

@@ -4,28 +4,21 @@ import { useRouter } from 'next/navigation';
 import { createColumnHelper, getCoreRowModel, useReactTable } from '@tanstack/react-table';
 import { TableView } from '@/components/ui/TableView';
 import type { Role } from '@/lib/auth/roles';
+import type { MemberRow } from '@/lib/services/team';
 import { ROLE_LABELS } from '@/lib/auth/roles';
 import { Notice } from '@/components/ui/Notice';
+import { fmtTimestamp } from '@/components/ui/format';
 import { ROLE_OPTIONS } from './roles';
-
-export interface MemberRowView {
-  userId: string;
-  email: string;
-  name: string | null;
-  roles: Role[];
-  status: 'active' | 'invited' | 'no roles';
-  lastSignInAt: string | null;
-}
 
 const STATUS_TEXT = { active: '● Active', invited: '◌ Invited', 'no roles': '○ No roles' } as const;
 
-export function MembersTable({ members, currentUserId, canManage }: { members: MemberRowView[]; currentUserId: string; canManage: boolean }) {
+export function MembersTable({ members, currentUserId, canManage }: { members: MemberRow[]; currentUserId: string; canManage: boolean }) {
   const [editing, setEditing] = useState<string | null>(null);
   const [message, setMessage] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
   const router = useRouter();
 
   const columns = useMemo(() => {
-    const c = createColumnHelper<MemberRowView>();
+    const c = createColumnHelper<MemberRow>();
     return [
       c.accessor((r) => r.name ?? r.email, {
         id: 'person',
@@ -59,7 +52,7 @@ export function MembersTable({ members, currentUserId, canManage }: { members: M
       c.accessor('status', { header: 'Status', cell: (info) => STATUS_TEXT[info.getValue()] }),
       c.accessor('lastSignInAt', {
         header: 'Last sign-in',
-        cell: (info) => (info.getValue() ? new Date(info.getValue()!).toLocaleString('en-GB') : 'Never'),
+        cell: (info) => (info.getValue() ? fmtTimestamp(info.getValue()!) : 'Never'),
       }),
       ...(canManage
         ? [
@@ -115,7 +108,7 @@ function RoleEditor({
   onDone,
   onCancel,
 }: {
-  member: MemberRowView;
+  member: MemberRow;
   onDone: (text: string, tone: 'ok' | 'alert') => void;
   onCancel: () => void;
 }) {

@@ -6,6 +6,7 @@ import { getCase, listClinicians } from '@/lib/services/cases';
 import { listReferrers } from '@/lib/services/referrers';
 import { NotFoundError } from '@/lib/services/errors';
 import { CaseForm, type CaseFormShape } from '../../_components/CaseForm';
+import { clinicianOptions, referrerOptions } from '../../_components/options';
 
 export const metadata: Metadata = { title: 'Edit case' };
 
@@ -27,8 +28,8 @@ export default async function EditCasePage({ params }: { params: Promise<{ id: s
       <CaseForm
         caseId={c.id}
         patient={{ id: c.patient.id, label: `${c.patient.name} (${c.patient.registryNumber})` }}
-        clinicians={clinicians.map((x) => ({ value: x.id, label: x.name ?? x.email }))}
-        referrers={referrers.rows.map((r) => ({ value: r.id, label: r.practiceName ? `${r.name}, ${r.practiceName}` : r.name }))}
+        clinicians={clinicianOptions(clinicians)}
+        referrers={referrerOptions(referrers.rows)}
         notation={c.notation}
         initial={{ ...(c.values as unknown as Partial<CaseFormShape>), tooth: String(c.values.tooth) }}
       />

@@ -1,0 +1,11 @@
+/** How dates and times read on every screen (en-GB). */
+
+/** A calendar date ("2024-03-05", read at midday so no time zone moves it) or an instant, as "5 Mar 2024"; "—" when there is none. */
+export const fmtDate = (d: string | null | undefined) =>
+  d ? new Date(d.length === 10 ? `${d}T12:00:00` : d).toLocaleDateString('en-GB', { day: 'numeric', month: 'short', year: 'numeric' }) : '—';
+
+/** An instant as "5 Mar 2024, 14:30". */
+export const fmtDateTime = (d: string) => new Date(d).toLocaleString('en-GB', { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit' });
+
+/** An instant in full, to the second ("05/03/2024, 14:30:12"), for logs and records. */
+export const fmtTimestamp = (d: string | number | Date) => new Date(d).toLocaleString('en-GB');
