@@ -17,6 +17,7 @@ export default async function PatientsPage({ searchParams }: { searchParams: Pro
   const q = Query.parse(await searchParams);
   const data = await listPatients(em, actor, { q: q.q, page: q.page, pageSize: 25 });
   const write = can(actor.roles, 'patient.write');
+  const canImport = can(actor.roles, 'case.import');
   return (
     <div className="space-y-5">
       <div className="flex flex-wrap items-end justify-between gap-4">
@@ -30,7 +31,7 @@ export default async function PatientsPage({ searchParams }: { searchParams: Pro
           </Link>
         )}
       </div>
-      <CasesSubnav current="patients" canImport={can(actor.roles, 'case.import')} />
+      <CasesSubnav current="patients" canImport={canImport} />
       <form role="search" aria-label="Find a patient" className="flex max-w-xl gap-2" action="/patients">
         <label htmlFor="patient-search" className="sr-only">
           Name or registry number
@@ -46,7 +47,7 @@ export default async function PatientsPage({ searchParams }: { searchParams: Pro
             Check the spelling or the registry number, or add the patient.
           </EmptyState>
         ) : (
-          <EmptyState title="No patients yet" action={write ? { href: '/patients/new', label: 'Add the first patient' } : { href: '/cases/import', label: 'Import past cases' }}>
+          <EmptyState title="No patients yet" action={write ? { href: '/patients/new', label: 'Add the first patient' } : canImport ? { href: '/cases/import', label: 'Import past cases' } : undefined}>
             Patients hold the contact details and consents that recalls depend on. Add one, then record their treated tooth.
           </EmptyState>
         )
