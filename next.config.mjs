@@ -4,7 +4,9 @@ const nextConfig = {
   poweredByHeader: false,
   // forbidden() and app/forbidden.tsx: pages answer 403 with Lamina's own page.
   experimental: { authInterrupts: true },
-  // The registry is health data: never let a page be framed or sniffed.
+  // The registry is health data: never let a page be framed or sniffed. These are
+  // lib/security/headers.ts's STATIC_HEADERS (a unit test holds them equal); the CSP with its
+  // nonce and HSTS are set per response by proxy.ts.
   async headers() {
     return [
       {
@@ -13,6 +15,11 @@ const nextConfig = {
           { key: 'X-Frame-Options', value: 'DENY' },
           { key: 'X-Content-Type-Options', value: 'nosniff' },
           { key: 'Referrer-Policy', value: 'same-origin' },
+          {
+            key: 'Permissions-Policy',
+            value:
+              'accelerometer=(), autoplay=(), bluetooth=(), browsing-topics=(), camera=(), display-capture=(), geolocation=(), gyroscope=(), hid=(), magnetometer=(), microphone=(), midi=(), payment=(), serial=(), usb=()',
+          },
         ],
       },
     ];

@@ -1,5 +1,8 @@
 import type { Metadata, Viewport } from 'next';
 import localFont from 'next/font/local';
+import { headers } from 'next/headers';
+import { env } from '@/lib/env';
+import { DemoBand } from '@/components/shell/DemoBand';
 import './globals.css';
 
 // Fonts ship inside the app (OFL-licensed Inter and Source Serif 4, from @fontsource-variable).
@@ -14,10 +17,18 @@ export const metadata: Metadata = {
 
 export const viewport: Viewport = { width: 'device-width', initialScale: 1, themeColor: '#3a3470' };
 
-export default function RootLayout({ children }: { children: React.ReactNode }) {
+/**
+ * Every page renders per request: proxy.ts gives each response a fresh CSP nonce, which Next
+ * puts on its scripts while rendering (reading the headers opts the whole tree into that).
+ */
+export default async function RootLayout({ children }: { children: React.ReactNode }) {
+  await headers();
   return (
     <html lang="en" className={`${sans.variable} ${serif.variable}`}>
-      <body className="min-h-screen">{children}</body>
+      <body className="min-h-screen">
+        {env.localMail && <DemoBand />}
+        {children}
+      </body>
     </html>
   );
 }

@@ -5,6 +5,7 @@
 import nodemailer, { type Transporter } from 'nodemailer';
 import { z } from 'zod';
 import { renderTemplate } from '@/lib/mail/mailer';
+import { mailboxHeaders } from '@/lib/mail/mailbox-secret';
 import { ReminderEmail, type ReminderEmailProps } from '@/lib/mail/templates/ReminderEmail';
 
 export interface TransportOptions {
@@ -87,15 +88,15 @@ const StoredMessages = z.array(z.object({ messageId: z.string().nullish() }).loo
 
 /**
  * Did the relay store a message with this Message-ID for this recipient? Only the local SMTP
- * fake can say (its HTTP API at MAILBOX_URL); a production relay would need its own lookup
+ * fake can say (its HTTP API at MAILBOX_URL, with the run's MAILBOX_SECRET; demo mode only); a production relay would need its own lookup
  * (most offer a message search by Message-ID) wired in here. Throws when the fake does not
  * answer: the caller must then not guess.
  */
-export function mailboxDeliveryCheck(mailboxUrl: string) {
+export function mailboxDeliveryCheck(mailboxUrl: string, secret: string | undefined) {
   return async (messageId: string, to: string): Promise<boolean> => {
     const url = new URL('/messages', mailboxUrl);
     url.searchParams.set('to', to);
-    const res = await fetch(url, { signal: AbortSignal.timeout(10_000) });
+    const res = await fetch(url, { headers: mailboxHeaders(secret), signal: AbortSignal.timeout(10_000) });
     if (!res.ok) throw new Error(`the mailbox answered ${res.status}`);
     const parsed = StoredMessages.safeParse(await res.json());
     if (!parsed.success) throw new Error('the mailbox answered in an unexpected form');

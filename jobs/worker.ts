@@ -75,7 +75,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
   const sendContext: SendContext = {
     em: () => db.em.fork(),
     transport,
-    deliveryCheck: env.MAILBOX_URL ? mailboxDeliveryCheck(env.MAILBOX_URL) : undefined,
+    deliveryCheck: env.localMail && env.MAILBOX_URL ? mailboxDeliveryCheck(env.MAILBOX_URL, env.MAILBOX_SECRET) : undefined,
     linkSecret: deriveLinkSecret(env.NEXTAUTH_SECRET),
     appUrl: env.APP_URL,
     mailFrom: env.MAIL_FROM,

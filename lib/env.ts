@@ -1,5 +1,17 @@
 import 'server-only';
 import { z } from 'zod';
+import { parseTrustedProxies, type TrustedProxies } from '@/lib/security/trusted-proxies';
+
+const flag = z
+  .enum(['', '0', '1', 'true', 'false'])
+  .default('')
+  .transform((v) => v === '1' || v === 'true');
+
+/** Loopback hosts: where the demo's caught mail may go. */
+export function isLoopbackHost(hostname: string): boolean {
+  const h = hostname.replace(/^\[|\]$/g, '').toLowerCase();
+  return h === 'localhost' || h === '::1' || /^127(\.\d{1,3}){3}$/.test(h);
+}
 
 /**
  * Lamina's configuration, read once from the process environment and validated.
@@ -13,10 +25,18 @@ export const EnvSchema = z
     REDIS_URL: z.url().default('redis://127.0.0.1:63790'),
     SMTP_URL: z.url().default('smtp://127.0.0.1:2525'),
     MAIL_FROM: z.string().min(3).default('Lamina <no-reply@lamina.invalid>'),
-    /** Set only with the local SMTP fake: where its stored messages can be read. */
+    /**
+     * Demo mode (`npm start` and `npm test` set it): mail goes to the local SMTP fake, which
+     * administrators can read on the Dev mailbox page. Never on a real installation.
+     */
+    LAMINA_DEMO: flag,
+    /** Demo mode only: the local fake's HTTP API, and the per-run secret it asks for. */
     MAILBOX_URL: z.url().optional(),
+    MAILBOX_SECRET: z.string().min(16).optional(),
     APP_URL: z.url().default('http://127.0.0.1:3000'),
     NEXTAUTH_SECRET: z.string().min(32).optional(),
+    /** Proxies in front of Lamina: a count, or their addresses (lib/security/trusted-proxies.ts). */
+    TRUSTED_PROXIES: z.string().max(2000).optional(),
     SIGNIN_MAX_PER_ACCOUNT: z.coerce.number().int().positive().default(5),
     SIGNIN_MAX_PER_ADDRESS: z.coerce.number().int().positive().default(20),
     SIGNIN_WINDOW_SECONDS: z.coerce.number().int().positive().default(900),
@@ -27,11 +47,32 @@ export const EnvSchema = z
     if (e.NODE_ENV === 'production' && !e.NEXTAUTH_SECRET && !building) {
       ctx.addIssue({ code: 'custom', message: 'NEXTAUTH_SECRET is required in production', path: ['NEXTAUTH_SECRET'] });
     }
+    if (e.LAMINA_DEMO) {
+      // The demo catches every message locally; it must never hand one to a real relay.
+      if (!isLoopbackHost(new URL(e.SMTP_URL).hostname)) {
+        ctx.addIssue({
+          code: 'custom',
+          path: ['SMTP_URL'],
+          message: 'demo mode (LAMINA_DEMO=1) catches mail locally: SMTP_URL must point at loopback (127.0.0.1), not a real relay',
+        });
+      }
+      if (!e.MAILBOX_URL || !isLoopbackHost(new URL(e.MAILBOX_URL).hostname)) {
+        ctx.addIssue({ code: 'custom', path: ['MAILBOX_URL'], message: 'demo mode needs MAILBOX_URL, the local mail fake on loopback' });
+      }
+      if (!e.MAILBOX_SECRET) {
+        ctx.addIssue({ code: 'custom', path: ['MAILBOX_SECRET'], message: 'demo mode needs MAILBOX_SECRET, the mail fake’s per-run secret' });
+      }
+    }
+    const trusted = parseTrustedProxies(e.TRUSTED_PROXIES);
+    if ('error' in trusted) ctx.addIssue({ code: 'custom', path: ['TRUSTED_PROXIES'], message: trusted.error });
     return {
       ...e,
       NEXTAUTH_SECRET: e.NEXTAUTH_SECRET ?? 'lamina-local-development-secret-not-for-production',
-      /** The dev mailbox exists only while mail goes to the local fake. */
-      localMail: Boolean(e.MAILBOX_URL),
+      /** The dev mailbox and the band saying mail is caught locally: demo mode only. */
+      localMail: e.LAMINA_DEMO && Boolean(e.MAILBOX_URL && e.MAILBOX_SECRET),
+      trustedProxies: ('error' in trusted ? { count: 0 } : trusted) as TrustedProxies,
+      /** The public URL is https: HSTS and Secure cookies. */
+      https: new URL(e.APP_URL).protocol === 'https:',
     };
   });
 

@@ -5,6 +5,8 @@ import { getRequestContext } from '@/lib/auth/session';
 import { can, type Permission } from '@/lib/auth/permissions';
 import type { Actor } from '@/lib/auth/actor';
 import { RateLimitedError, ServiceError } from '@/lib/services/errors';
+import { env } from '@/lib/env';
+import { bodyTypeRefusal, crossSiteRefusal, originOf, type BodyType } from '@/lib/security/request-guard';
 
 export interface HandlerContext<P> {
   req: Request;
@@ -13,17 +15,31 @@ export interface HandlerContext<P> {
   params: P;
 }
 
+export interface HandlerOptions {
+  /** Body types a write may send (default JSON only; the CSV import also takes multipart and CSV). */
+  accept?: readonly BodyType[];
+}
+
+const JSON_ONLY: readonly BodyType[] = ['application/json'];
+
 /**
- * Wraps a route handler: 401 JSON when not signed in, 403 JSON when the permission is not
+ * Wraps a route handler: a write (POST, PUT, PATCH, DELETE) from anywhere but Lamina's own
+ * pages is refused 403, and one with a body of another type than JSON (or `accept`) 415, before
+ * the session is read; then 401 JSON when not signed in, 403 JSON when the permission is not
  * granted, typed service errors mapped to their status, anything unexpected logged and a 500
- * with a safe message.
+ * with a safe message. Every body's `error` is a stable code (lib/services/errors.ts).
  */
 export function handler<P = Record<string, string>>(
   permission: Permission,
   fn: (ctx: HandlerContext<P>) => Promise<Response | unknown>,
+  options: HandlerOptions = {},
 ) {
   return async (req: Request, ctx: { params: Promise<P> }): Promise<Response> => {
     try {
+      const refusal =
+        crossSiteRefusal(req.method, req.headers, originOf(env.APP_URL)) ??
+        bodyTypeRefusal(req.method, req.headers, options.accept ?? JSON_ONLY);
+      if (refusal) return json({ error: refusal.error, message: refusal.message }, refusal.status);
       const { em, actor } = await getRequestContext();
       if (!actor) return json({ error: 'not_signed_in', message: 'Sign in to continue.' }, 401);
       if (!can(actor.roles, permission)) {
@@ -45,7 +61,7 @@ export function errorResponse(e: unknown): Response {
   if (e instanceof ServiceError) {
     const headers: Record<string, string> = {};
     if (e instanceof RateLimitedError) headers['Retry-After'] = String(e.retryAfterSeconds);
-    return json({ error: e.name, message: e.message, fieldErrors: e.fieldErrors }, e.status, { headers });
+    return json({ error: e.code, message: e.message, fieldErrors: e.fieldErrors }, e.status, { headers });
   }
   console.error('[api] unexpected error', e);
   return json({ error: 'internal', message: 'Something went wrong on our side. Nothing was changed.' }, 500);
@@ -56,6 +72,6 @@ export async function readJson(req: Request): Promise<unknown> {
   try {
     return await req.json();
   } catch {
-    throw new ServiceError('The request body is not valid JSON.', 422);
+    throw new ServiceError('The request body is not valid JSON.', 422, undefined, 'validation');
   }
 }

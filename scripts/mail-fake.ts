@@ -2,9 +2,12 @@
  * Lamina's local SMTP fake.
  *
  * An SMTP server (no auth, no TLS, loopback only) that parses every message it accepts and
- * stores it as one JSON file in a directory, plus a small loopback HTTP API to read them:
+ * stores it as one JSON file in a directory, plus a small loopback HTTP API to read them. Every
+ * route but /health answers only a request carrying the per-run secret (MAILBOX_SECRET, which the
+ * scripts generate and hand to the app, the worker and the tests) in the `x-mailbox-secret`
+ * header; without it, 401. A part of Lamina's demo mode only (LAMINA_DEMO=1).
  *
- *   GET    /health            {ok, pid, smtpPort, httpPort, dir, messages, refusing}
+ *   GET    /health            {ok, pid, smtpPort, httpPort, dir, messages, refusing} (no secret)
  *   GET    /messages          stored messages, newest first; ?to=address filters on any
  *                             recipient (To, Cc or SMTP envelope); ?limit=N
  *   GET    /messages/:id      one message, 404 if unknown
@@ -13,8 +16,9 @@
  *   POST   /control           {"refuse": N}: the next N SMTP transactions fail with a 451
  *                             temporary error (fault tests); {"refuse": 0} stops refusing
  *
- * Run: node --import tsx scripts/mail-fake.ts --smtp-port 2525 --http-port 2526 --dir .data/mail/messages
+ * Run: MAILBOX_SECRET=… node --import tsx scripts/mail-fake.ts --smtp-port 2525 --http-port 2526 --dir .data/mail/messages
  * (or MAIL_FAKE_SMTP_PORT, MAIL_FAKE_HTTP_PORT, MAIL_FAKE_DIR). scripts/lib/services.sh starts it.
+ * The secret comes from the environment only (a command line is readable by every local user).
  */
 import { SMTPServer, type SMTPServerAddress, type SMTPServerDataStream, type SMTPServerSession } from 'smtp-server';
 import { simpleParser, type AddressObject, type ParsedMail } from 'mailparser';
@@ -24,6 +28,7 @@ import path from 'node:path';
 import crypto from 'node:crypto';
 import { parseArgs } from 'node:util';
 import { z } from 'zod';
+import { MAILBOX_SECRET_HEADER } from '../lib/mail/mailbox-secret';
 
 const HOST = '127.0.0.1';
 
@@ -37,6 +42,7 @@ const ConfigSchema = z.object({
   dir: z.string().min(1).default('.data/mail/messages'),
   pidFile: z.string().min(1).optional(),
   maxMessageBytes: z.coerce.number().int().positive().default(25 * 1024 * 1024),
+  secret: z.string({ error: 'MAILBOX_SECRET is required (at least 16 characters)' }).min(16, 'MAILBOX_SECRET must have at least 16 characters'),
 });
 type Config = z.infer<typeof ConfigSchema>;
 
@@ -58,6 +64,7 @@ function readConfig(argv: string[], env: NodeJS.ProcessEnv): Config {
     dir: values.dir ?? env.MAIL_FAKE_DIR,
     pidFile: values['pid-file'] ?? env.MAIL_FAKE_PID_FILE,
     maxMessageBytes: values['max-message-bytes'] ?? env.MAIL_FAKE_MAX_MESSAGE_BYTES,
+    secret: env.MAILBOX_SECRET,
   });
   if (!parsed.success) {
     const lines = parsed.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`);
@@ -332,11 +339,23 @@ async function readJson(req: http.IncomingMessage): Promise<unknown> {
   }
 }
 
+/** The request carries the run's secret (compared in constant time). */
+function authorised(req: http.IncomingMessage, secret: string): boolean {
+  const given = req.headers[MAILBOX_SECRET_HEADER];
+  if (typeof given !== 'string') return false;
+  const a = crypto.createHash('sha256').update(given).digest();
+  const b = crypto.createHash('sha256').update(secret).digest();
+  return crypto.timingSafeEqual(a, b);
+}
+
 function createHttpServer(config: Config, store: Store, faults: Faults): http.Server {
   async function route(req: http.IncomingMessage, res: http.ServerResponse) {
     const url = new URL(req.url ?? '/', `http://${HOST}`);
     const method = req.method ?? 'GET';
     const parts = url.pathname.split('/').filter(Boolean);
+    if (url.pathname !== '/health' && !authorised(req, config.secret)) {
+      throw new HttpError(401, `send the run's secret (MAILBOX_SECRET) in the ${MAILBOX_SECRET_HEADER} header`);
+    }
 
     if (url.pathname === '/health' && method === 'GET') {
       return send(res, 200, {

@@ -40,7 +40,7 @@ stop_leftover_children() {
   local name pid
   for name in web worker; do
     if pid="$(read_pidfile "$LAMINA_DATA/run/$name.pid")"; then
-      if [[ "$(pid_cmdline "$pid")" == *next* || "$(pid_cmdline "$pid")" == *worker* ]]; then
+      if [[ "$(pid_cmdline "$pid")" == *web-server* || "$(pid_cmdline "$pid")" == *worker* ]]; then
         lamina_log "stopping the $name left over from an earlier run (pid $pid)"
         stop_pid "$pid" "$name"
       fi
@@ -58,7 +58,7 @@ build_fingerprint() {
   git rev-parse --is-inside-work-tree >/dev/null 2>&1 || return 0
   {
     node --version
-    env | grep -E '^(NEXT_PUBLIC_[A-Z0-9_]*|NODE_ENV|DATABASE_URL|REDIS_URL|SMTP_URL|MAILBOX_URL|APP_URL|NEXTAUTH_URL|MAIL_FROM)=' | sort
+    env | grep -E '^(NEXT_PUBLIC_[A-Z0-9_]*|NODE_ENV|DATABASE_URL|REDIS_URL|SMTP_URL|MAILBOX_URL|APP_URL|NEXTAUTH_URL|MAIL_FROM|LAMINA_DEMO)=' | sort
     git ls-files -z -c -o --exclude-standard --deduplicate | (xargs -0 sha1sum 2>/dev/null || true)
   } | sha1sum | cut -c1-40
 }

@@ -1,7 +1,7 @@
 /**
  * The supervisor of `npm start` (scripts/start.sh sets up, then execs this).
  *
- * - Runs the web server (`next start`) and the queue worker (jobs/worker.ts) as children,
+ * - Runs the web server (scripts/web-server.mjs: Next behind a plain HTTP server) and the queue worker (jobs/worker.ts) as children,
  *   each in a process group of its own; a child that exits is restarted with a
  *   growing delay (1 s, 2 s, 4 s … 30 s; back to 1 s after a minute of good health).
  * - Watches PostgreSQL, Redis and the mail fake (daemons started by scripts/lib/services.sh)
@@ -257,8 +257,9 @@ async function announce() {
 const children: Child[] = [
   new Child({
     name: 'web',
-    command: path.join(repo, 'node_modules/.bin/next'),
-    args: ['start', '-H', '127.0.0.1', '-p', String(webPort)],
+    // Next's request handler behind Lamina's own HTTP server (the client's socket address).
+    command: process.execPath,
+    args: ['scripts/web-server.mjs', '-H', '127.0.0.1', '-p', String(webPort)],
     nodeOptions: process.env.LAMINA_WEB_NODE_OPTIONS, // scripts/lib/services.sh
   }),
   // TSX_TSCONFIG_PATH (exported by start.sh) maps `server-only` to an empty module outside Next.

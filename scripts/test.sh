@@ -88,12 +88,12 @@ unlock_e2e() { flock -u 9 2>/dev/null || true; exec 9>&-; }
 
 build() { NEXT_DIST_DIR=.next-test node_modules/.bin/next build; }
 
-# start_web: next start and the worker, each in a process group of its own
+# start_web: the web server (scripts/web-server.mjs: Next behind Lamina's HTTP server) and the worker, each in a process group of its own
 # (setsid) so that stopping it stops anything it spawned. Runs inside a step's subshell, so the
 # pids go to files.
 start_web() {
   (NODE_OPTIONS="${NODE_OPTIONS:+$NODE_OPTIONS }${LAMINA_WEB_NODE_OPTIONS:-}" NEXT_DIST_DIR=.next-test \
-    exec setsid node_modules/.bin/next start -H 127.0.0.1 -p "$LAMINA_WEB_PORT" \
+    exec setsid node scripts/web-server.mjs -H 127.0.0.1 -p "$LAMINA_WEB_PORT" \
     </dev/null >"$TMP/logs/web.log" 2>&1 9>&-) &
   local web=$!
   echo "$web" >"$TMP/run/web.pid"

@@ -14,6 +14,7 @@ import { ServiceError } from '@/lib/services/errors';
 import { UserSchema } from '@/entities';
 import { laminaAdapter } from './adapter';
 import { originFrom } from './origin';
+import { safeReturnPath } from '@/lib/security/return-path';
 
 /**
  * next-auth configuration: e-mail + password, and an e-mailed sign-in link through the same
@@ -23,6 +24,8 @@ import { originFrom } from './origin';
 export const authOptions: NextAuthOptions = {
   secret: env.NEXTAUTH_SECRET,
   session: { strategy: 'jwt', maxAge: 12 * 60 * 60 },
+  // Secure (and __Secure-/__Host- prefixed) session cookies whenever the public URL is https.
+  useSecureCookies: env.https,
   pages: { signIn: '/sign-in', verifyRequest: '/sign-in/check-email', error: '/sign-in' },
   adapter: laminaAdapter(),
   providers: [
@@ -84,6 +87,11 @@ export const authOptions: NextAuthOptions = {
         return `${env.APP_URL}${email?.verificationRequest ? '/sign-in/check-email' : '/sign-in?error=AccessDenied'}`;
       }
       return true;
+    },
+    /** After sign-in or sign-out, only a path on Lamina itself (lib/security/return-path.ts). */
+    redirect({ url, baseUrl }) {
+      if (url.startsWith(`${baseUrl}/`)) return `${baseUrl}${safeReturnPath(url.slice(baseUrl.length))}`;
+      return `${baseUrl}${safeReturnPath(url)}`;
     },
     async jwt({ token, user }) {
       if (user) token.sub = user.id;

@@ -15,6 +15,7 @@ import { MikroORM } from '@mikro-orm/postgresql';
 import type { Knex } from '@mikro-orm/knex';
 import config from '../../mikro-orm.config';
 import { addDaysTo, fromLocalDate } from '../../lib/registry/calendar-date';
+import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 
 const N = Number(process.env.BENCH_REMINDERS ?? 10_000);
 const CONCURRENCY = Number(process.env.BENCH_CONCURRENCY ?? 8); // the worker's default
@@ -86,7 +87,7 @@ async function storedMessages(): Promise<{ messageId: string | null; rcptTo: str
         return { messageId: m.messageId, rcptTo: m.envelope.rcptTo };
       });
   }
-  const res = await fetch(new URL(`/messages?limit=10000`, mailboxUrl));
+  const res = await fetch(new URL(`/messages?limit=10000`, mailboxUrl), { headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
   return ((await res.json()) as { messageId: string | null; envelope: { rcptTo: string[] } }[]).map((m) => ({ messageId: m.messageId, rcptTo: m.envelope.rcptTo }));
 }
 
@@ -98,7 +99,7 @@ async function main() {
     const t0 = performance.now();
     await seed(knex, today);
     const seedS = (performance.now() - t0) / 1000;
-    await fetch(new URL('/messages', mailboxUrl), { method: 'DELETE' });
+    await fetch(new URL('/messages', mailboxUrl), { method: 'DELETE', headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
 
     const child = spawn(process.execPath, ['--import', 'tsx', 'jobs/worker.ts'], {
       cwd: repo,

@@ -267,6 +267,11 @@ lamina_export_env() {
   export REDIS_URL="redis://127.0.0.1:$LAMINA_REDIS_PORT"
   export SMTP_URL="smtp://127.0.0.1:$LAMINA_SMTP_PORT"
   export MAILBOX_URL="http://127.0.0.1:$LAMINA_MAILBOX_PORT"
+  # Demo mode: mail is caught by the local fake and readable on the Dev mailbox page. The fake's
+  # HTTP API answers only this run's secret (the app, the worker and the tests get it too).
+  export LAMINA_DEMO=1
+  : "${MAILBOX_SECRET:=$(random_secret)}"
+  export MAILBOX_SECRET
   export APP_URL="http://127.0.0.1:$LAMINA_WEB_PORT"
   export NEXTAUTH_URL="$APP_URL"
   export NEXT_TELEMETRY_DISABLED=1
@@ -479,10 +484,15 @@ mail_dir() { echo "$LAMINA_DATA/mail"; }
 # mail_health: print the fake's /health JSON if it answers.
 mail_health() { http_get "http://127.0.0.1:$LAMINA_MAILBOX_PORT/health"; }
 
+# mail_ready: the fake of this data dir answers, and takes this run's secret (a fake left from an
+# earlier run with another secret is restarted).
 mail_ready() {
   local health
   health="$(mail_health)" || return 1
-  [[ "$health" == *"\"dir\":\"$(mail_dir)/messages\""* && "$health" == *"\"smtpPort\":$LAMINA_SMTP_PORT,"* ]]
+  [[ "$health" == *"\"dir\":\"$(mail_dir)/messages\""* && "$health" == *"\"smtpPort\":$LAMINA_SMTP_PORT,"* ]] || return 1
+  node -e '
+    fetch(process.argv[1], { headers: { "x-mailbox-secret": process.env.MAILBOX_SECRET ?? "" }, signal: AbortSignal.timeout(3000) })
+      .then((r) => process.exit(r.ok ? 0 : 1), () => process.exit(1));' "http://127.0.0.1:$LAMINA_MAILBOX_PORT/messages?limit=1"
 }
 
 mail_start() {

@@ -1,6 +1,7 @@
 import { test, expect } from '@playwright/test';
 import { DEMO_PASSWORD, demoUser, firstLink, signIn, signInAs, waitForMail } from './support';
 import type { Role } from '../../lib/auth/roles';
+import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 
 /** What each role's navigation shows (Home is always first). */
 const NAVIGATION: Record<Role, string[]> = {
@@ -80,7 +81,7 @@ test.describe('signing in', () => {
     await page.getByLabel('E-mail', { exact: true }).fill('nobody@lamina-demo.invalid');
     await page.getByRole('button', { name: 'E-mail me a sign-in link' }).click();
     await expect(page.getByText('a sign-in link is on its way')).toBeVisible();
-    const res = await request.get(`${process.env.MAILBOX_URL ?? 'http://127.0.0.1:2526'}/messages?to=nobody%40lamina-demo.invalid`);
+    const res = await request.get(`${process.env.MAILBOX_URL ?? 'http://127.0.0.1:2526'}/messages?to=nobody%40lamina-demo.invalid`, { headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
     const body = await res.json();
     const list = (Array.isArray(body) ? body : body.messages) as { receivedAt: string }[];
     expect(list.filter((m) => Date.parse(m.receivedAt) >= since)).toHaveLength(0);

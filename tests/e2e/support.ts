@@ -1,6 +1,7 @@
 import { expect, type Page, type APIRequestContext } from '@playwright/test';
 import { DEMO_PASSWORD, demoUser } from '../../lib/demo/people';
 import type { Role } from '../../lib/auth/roles';
+import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 
 export { DEMO_PASSWORD, demoUser };
 
@@ -33,7 +34,7 @@ export async function waitForMail(request: APIRequestContext, to: string, subjec
   await expect
     .poll(
       async () => {
-        const res = await request.get(`${mailboxUrl()}/messages?to=${encodeURIComponent(to)}`);
+        const res = await request.get(`${mailboxUrl()}/messages?to=${encodeURIComponent(to)}`, { headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
         const body = (await res.json()) as Mail[] | { messages: Mail[] };
         const list = Array.isArray(body) ? body : body.messages;
         found = list.find((m) => subject.test(m.subject) && Date.parse((m as unknown as { receivedAt: string }).receivedAt) >= since);

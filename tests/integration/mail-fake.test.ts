@@ -1,13 +1,16 @@
 import { afterEach, beforeAll, describe, expect, test } from 'vitest';
 import crypto from 'node:crypto';
 import nodemailer from 'nodemailer';
+import { mailboxHeaders } from '@/lib/mail/mailbox-secret';
 
 /**
  * The local SMTP fake (scripts/mail-fake.ts) that scripts/test.sh runs: real SMTP in, JSON out
- * over its HTTP API. SMTP_URL and MAILBOX_URL come from the environment test.sh exports.
+ * over its HTTP API. SMTP_URL, MAILBOX_URL and the run's MAILBOX_SECRET come from the
+ * environment test.sh exports.
  */
 const smtpUrl = process.env.SMTP_URL;
 const mailboxUrl = process.env.MAILBOX_URL;
+const secret = process.env.MAILBOX_SECRET;
 
 interface Stored {
   id: string;
@@ -25,8 +28,8 @@ interface Stored {
   attachments: { filename: string | null; contentType: string; size: number; content: string }[];
 }
 
-const api = async (path: string, init?: RequestInit) => {
-  const res = await fetch(new URL(path, mailboxUrl), init);
+const api = async (path: string, init?: RequestInit, key = secret) => {
+  const res = await fetch(new URL(path, mailboxUrl), { ...init, headers: { ...(init?.headers as Record<string, string>), ...mailboxHeaders(key) } });
   return { status: res.status, body: (await res.json()) as unknown };
 };
 const control = (body: unknown) => api('/control', { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body) });
@@ -35,11 +38,25 @@ const transport = () => nodemailer.createTransport(smtpUrl!);
 
 describe('the local SMTP fake', () => {
   beforeAll(() => {
-    if (!smtpUrl || !mailboxUrl) throw new Error('SMTP_URL and MAILBOX_URL must point at the mail fake (npm test sets them)');
+    if (!smtpUrl || !mailboxUrl || !secret) throw new Error('SMTP_URL, MAILBOX_URL and MAILBOX_SECRET must point at the mail fake (npm test sets them)');
   });
 
   afterEach(async () => {
     await control({ refuse: 0 });
+  });
+
+  test('answers nothing but its health check without the run’s secret', async () => {
+    const to = unique('secret');
+    await transport().sendMail({ from: 'Lamina <no-reply@lamina.invalid>', to, subject: 'A sign-in link', text: 'https://lamina.invalid/x' });
+    for (const key of [undefined, 'not-the-secret-of-this-run', `${secret}x`]) {
+      expect((await api(`/messages?to=${encodeURIComponent(to)}`, undefined, key)).status).toBe(401);
+      expect((await api('/messages', { method: 'DELETE' }, key)).status).toBe(401);
+      expect((await api('/control', { method: 'POST', headers: { 'content-type': 'application/json' }, body: '{"refuse":1}' }, key)).status).toBe(401);
+    }
+    const { status, body } = await api(`/messages?to=${encodeURIComponent(to)}`);
+    expect(status).toBe(200);
+    expect((body as Stored[]).map((m) => m.subject)).toEqual(['A sign-in link']);
+    expect((await api('/health', undefined, undefined)).status).toBe(200);
   });
 
   test('answers its health check', async () => {

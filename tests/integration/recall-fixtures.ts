@@ -9,6 +9,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Knex } from '@mikro-orm/knex';
 import { addDaysTo } from '@/lib/registry/calendar-date';
 import type { VisitStatus } from '@/lib/recall/status';
+import { mailboxHeaders } from '@/lib/mail/mailbox-secret';
 
 export const repo = path.resolve(import.meta.dirname, '../..');
 export const mailboxUrl = () => process.env.MAILBOX_URL!;
@@ -135,18 +136,18 @@ export interface FakeMessage {
 }
 
 export async function clearMailbox(): Promise<void> {
-  await fetch(new URL('/messages', mailboxUrl()), { method: 'DELETE' });
+  await fetch(new URL('/messages', mailboxUrl()), { method: 'DELETE', headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
 }
 
 export async function mailbox(to?: string): Promise<FakeMessage[]> {
   const url = new URL('/messages', mailboxUrl());
   if (to) url.searchParams.set('to', to);
   url.searchParams.set('limit', '10000');
-  return (await (await fetch(url)).json()) as FakeMessage[];
+  return (await (await fetch(url, { headers: mailboxHeaders(process.env.MAILBOX_SECRET) })).json()) as FakeMessage[];
 }
 
 export async function refuseSmtp(n: number): Promise<void> {
-  const res = await fetch(new URL('/control', mailboxUrl()), { method: 'POST', headers: { 'Content-Type': 'application/json' }, body: JSON.stringify({ refuse: n }) });
+  const res = await fetch(new URL('/control', mailboxUrl()), { method: 'POST', headers: { 'Content-Type': 'application/json', ...mailboxHeaders(process.env.MAILBOX_SECRET) }, body: JSON.stringify({ refuse: n }) });
   if (!res.ok) throw new Error(`mail fake control answered ${res.status}`);
 }
 

@@ -24,7 +24,7 @@ const secret = deriveLinkSecret(env.NEXTAUTH_SECRET);
 const ctx: SendContext = {
   em: () => services.em(),
   transport,
-  deliveryCheck: mailboxDeliveryCheck(process.env.MAILBOX_URL!),
+  deliveryCheck: mailboxDeliveryCheck(process.env.MAILBOX_URL!, process.env.MAILBOX_SECRET),
   linkSecret: secret,
   appUrl: env.APP_URL,
   mailFrom: env.MAIL_FROM,

@@ -31,7 +31,7 @@ const logs: string[] = [];
 const ctx = (over: Partial<SendContext> = {}): SendContext => ({
   em: () => services.em(),
   transport,
-  deliveryCheck: mailboxDeliveryCheck(process.env.MAILBOX_URL!),
+  deliveryCheck: mailboxDeliveryCheck(process.env.MAILBOX_URL!, process.env.MAILBOX_SECRET),
   linkSecret: deriveLinkSecret(env.NEXTAUTH_SECRET),
   appUrl: env.APP_URL,
   mailFrom: env.MAIL_FROM,

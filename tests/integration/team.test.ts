@@ -6,6 +6,7 @@ import { loadActor } from '@/lib/services/auth';
 import { verifyPassword } from '@/lib/auth/password';
 import { ConflictError, ForbiddenError, NotFoundError, ValidationError } from '@/lib/services/errors';
 import { makePractice, openServices, resetData } from '../support/db';
+import { mailboxHeaders } from '@/lib/mail/mailbox-secret';
 
 const services = await openServices();
 afterAll(() => services.close());
@@ -29,7 +30,7 @@ async function twoPractices() {
 
 async function invitationLink(to: string): Promise<string> {
   for (let i = 0; i < 50; i++) {
-    const list = (await (await fetch(`${mailbox}/messages?to=${encodeURIComponent(to)}`)).json()) as { text: string }[] | { messages: { text: string }[] };
+    const list = (await (await fetch(`${mailbox}/messages?to=${encodeURIComponent(to)}`, { headers: mailboxHeaders(process.env.MAILBOX_SECRET) })).json()) as { text: string }[] | { messages: { text: string }[] };
     const messages = Array.isArray(list) ? list : list.messages;
     const m = messages[0]?.text.match(/\/invite\/([A-Za-z0-9_-]+)/);
     if (m) return m[1]!;

@@ -22,8 +22,39 @@ describe('configuration', () => {
     expect(env.localMail).toBe(false);
   });
 
-  it('turns the dev mailbox on only with the local fake', () => {
-    expect(parseEnv({ MAILBOX_URL: 'http://127.0.0.1:2526' }).localMail).toBe(true);
+  const demo = { LAMINA_DEMO: '1', MAILBOX_URL: 'http://127.0.0.1:2526', MAILBOX_SECRET: 'a'.repeat(64) };
+
+  it('turns the dev mailbox on only in demo mode, never by MAILBOX_URL alone', () => {
+    expect(parseEnv({ MAILBOX_URL: 'http://127.0.0.1:2526' }).localMail).toBe(false);
+    expect(parseEnv({ NODE_ENV: 'production', NEXTAUTH_SECRET: 'x'.repeat(40), MAILBOX_URL: 'http://127.0.0.1:2526', MAILBOX_SECRET: 'a'.repeat(64) }).localMail).toBe(false);
+    expect(parseEnv(demo).localMail).toBe(true);
+    expect(parseEnv({ ...demo, LAMINA_DEMO: '0' }).localMail).toBe(false);
+  });
+
+  it('refuses demo mode when mail could leave the machine', () => {
+    expect(() => parseEnv({ ...demo, SMTP_URL: 'smtps://relay.example.test:465' })).toThrow(/SMTP_URL: demo mode .* loopback/);
+    expect(() => parseEnv({ ...demo, SMTP_URL: 'smtp://10.0.0.5:25' })).toThrow(/SMTP_URL/);
+    expect(parseEnv({ ...demo, SMTP_URL: 'smtp://localhost:2525' }).localMail).toBe(true);
+    expect(parseEnv({ ...demo, SMTP_URL: 'smtp://[::1]:2525' }).localMail).toBe(true);
+  });
+
+  it('refuses demo mode without the mail fake and its per-run secret', () => {
+    expect(() => parseEnv({ ...demo, MAILBOX_SECRET: undefined })).toThrow(/MAILBOX_SECRET/);
+    expect(() => parseEnv({ ...demo, MAILBOX_SECRET: 'short' })).toThrow(/MAILBOX_SECRET/);
+    expect(() => parseEnv({ ...demo, MAILBOX_URL: undefined })).toThrow(/MAILBOX_URL/);
+    expect(() => parseEnv({ ...demo, MAILBOX_URL: 'http://mail.example.test:2526' })).toThrow(/MAILBOX_URL/);
+  });
+
+  it('reads forwarded addresses only when TRUSTED_PROXIES says so', () => {
+    expect(parseEnv({}).trustedProxies).toEqual({ count: 0 });
+    expect(parseEnv({ TRUSTED_PROXIES: '1' }).trustedProxies).toEqual({ count: 1 });
+    expect(parseEnv({ TRUSTED_PROXIES: '10.0.0.1, 10.0.0.2' }).trustedProxies).toEqual({ addresses: ['10.0.0.1', '10.0.0.2'] });
+    expect(() => parseEnv({ TRUSTED_PROXIES: 'everyone' })).toThrow(/TRUSTED_PROXIES/);
+  });
+
+  it('knows when the public URL is https (HSTS, Secure cookies)', () => {
+    expect(parseEnv({}).https).toBe(false);
+    expect(parseEnv({ APP_URL: 'https://lamina.example.test' }).https).toBe(true);
   });
 
   it('says which setting is wrong', () => {

@@ -11,10 +11,10 @@ export const metadata: Metadata = { title: 'Dev mailbox' };
 
 export default async function DevMailboxPage() {
   if (!env.localMail) notFound();
-  const { actor } = await requireActor('mailbox.read', '/dev-mailbox');
+  const { em, actor } = await requireActor('mailbox.read', '/dev-mailbox');
   let messages;
   try {
-    messages = await listMailbox(actor);
+    messages = await listMailbox(em, actor);
   } catch (e) {
     return <Notice tone="alert">{(e as Error).message}</Notice>;
   }
@@ -22,7 +22,7 @@ export default async function DevMailboxPage() {
     <div className="space-y-6">
       <div>
         <h1 className="text-3xl">Dev mailbox</h1>
-        <p className="mt-1 text-ink-700">Messages Lamina sent to the local mail fake. This page exists only while the local mail transport is configured.</p>
+        <p className="mt-1 text-ink-700">Messages Lamina sent to the local mail fake. This page exists only in demo mode, where mail is caught locally and never delivered; every read is recorded in the audit trail.</p>
       </div>
       {messages.length === 0 ? (
         <p className="card text-ink-700">No messages yet. Invite a colleague, ask for a sign-in link or send a recall reminder and it will appear here.</p>

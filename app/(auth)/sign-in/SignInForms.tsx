@@ -8,6 +8,7 @@ import type { z } from 'zod';
 import { LinkSignInInput, SignInInput } from '@/lib/schemas/auth';
 import { Field } from '@/components/ui/Field';
 import { Notice } from '@/components/ui/Notice';
+import { safeReturnPath } from '@/lib/security/return-path';
 
 type PasswordValues = z.input<typeof SignInInput>;
 type LinkValues = z.input<typeof LinkSignInInput>;
@@ -28,7 +29,7 @@ export function SignInForms(props: { callbackUrl: string; initialEmail: string; 
       setServerError(res?.error && res.error !== 'CredentialsSignin' ? res.error : 'Wrong e-mail or password.');
       return;
     }
-    router.replace(props.callbackUrl);
+    router.replace(safeReturnPath(props.callbackUrl));
     router.refresh();
   });
 

@@ -1,6 +1,7 @@
 import type { Metadata } from 'next';
 import { redirect } from 'next/navigation';
 import { getRequestContext } from '@/lib/auth/session';
+import { safeReturnPath } from '@/lib/security/return-path';
 import { SignInForms } from './SignInForms';
 
 export const metadata: Metadata = { title: 'Sign in' };
@@ -15,7 +16,7 @@ const ERRORS: Record<string, string> = {
 
 export default async function SignInPage({ searchParams }: { searchParams: Promise<Record<string, string | undefined>> }) {
   const sp = await searchParams;
-  const callbackUrl = sp.callbackUrl?.startsWith('/') ? sp.callbackUrl : '/';
+  const callbackUrl = safeReturnPath(sp.callbackUrl);
   const { actor } = await getRequestContext();
   if (actor) redirect(callbackUrl);
   return (

@@ -12,9 +12,9 @@ export const metadata: Metadata = { title: 'Message' };
 
 export default async function MailboxMessagePage({ params }: { params: Promise<{ id: string }> }) {
   if (!env.localMail) notFound();
-  const { actor } = await requireActor('mailbox.read', '/dev-mailbox');
+  const { em, actor } = await requireActor('mailbox.read', '/dev-mailbox');
   const { id } = await params;
-  const m = await readMailboxMessage(actor, id).catch((e) => {
+  const m = await readMailboxMessage(em, actor, id).catch((e) => {
     if (e instanceof NotFoundError) notFound();
     throw e;
   });

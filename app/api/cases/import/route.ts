@@ -23,7 +23,8 @@ const Query = z.object({
 });
 
 /**
- * POST /api/cases/import?mode=dry-run|commit with the CSV as the body (text/csv), as a
+ * POST /api/cases/import?mode=dry-run|commit with the CSV as the body (text/csv; nothing else
+ * untyped), as a
  * multipart form field `file`, or as JSON { csv }. Answers the ImportResult as JSON — or, when
  * the request sends `Accept: application/x-ndjson` (or ?stream=1), streams NDJSON lines:
  * {type:'progress', phase, done, total} … then {type:'result', ...ImportResult}, or
@@ -66,7 +67,7 @@ export const POST = handler('case.import', async ({ req, em, actor }) => {
   return new Response(body, {
     headers: { 'Content-Type': 'application/x-ndjson; charset=utf-8', 'Cache-Control': 'no-store', 'X-Accel-Buffering': 'no' },
   });
-});
+}, { accept: ['application/json', 'multipart/form-data', 'text/csv'] });
 
 async function readCsv(req: Request): Promise<unknown> {
   const length = Number(req.headers.get('content-length') ?? 0);
@@ -82,11 +83,12 @@ async function readCsv(req: Request): Promise<unknown> {
     if (file === null) throw new ValidationError('Some fields need attention.', { csv: ['Choose a CSV file to upload (form field “file”).'] });
     return typeof file === 'string' ? file : await file.text();
   }
+  if (type.includes('text/csv')) return req.text();
   if (type.includes('application/json')) {
     const body = (await req.json().catch(() => {
       throw new ValidationError('The request body is not valid JSON.');
     })) as unknown;
     return body && typeof body === 'object' ? (body as { csv?: unknown }).csv : undefined;
   }
-  return req.text();
+  return undefined; // an empty body: handler() refused any other type
 }

@@ -6,7 +6,7 @@ import { can } from '@/lib/auth/permissions';
 import { listPatients } from '@/lib/services/patients';
 import { Pager } from '@/components/ui/Pager';
 import { EmptyState } from '@/components/ui/EmptyState';
-import { CasesSubnav } from '../cases/_components/CasesSubnav';
+import { CasesSubnav } from '../../cases/_components/CasesSubnav';
 
 export const metadata: Metadata = { title: 'Patients' };
 

@@ -5,9 +5,9 @@ import { requireActor } from '@/lib/auth/session';
 import { can } from '@/lib/auth/permissions';
 import { listClinicians } from '@/lib/services/cases';
 import { TableSkeleton } from '@/components/ui/Skeleton';
-import { CasesSubnav } from './_components/CasesSubnav';
-import { CasesTable } from './_components/CasesTable';
-import { clinicianOptions } from './_components/options';
+import { CasesSubnav } from '../_components/CasesSubnav';
+import { CasesTable } from '../_components/CasesTable';
+import { clinicianOptions } from '../_components/options';
 
 export const metadata: Metadata = { title: 'Cases' };
 
