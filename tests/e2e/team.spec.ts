@@ -1,7 +1,7 @@
 import { test, expect } from '@playwright/test';
 import { demoUser, signInAs } from './support';
 
-test('a revoked role stops working on the next request, not when the session expires', async ({ browser }) => {
+test('a revoked role stops working on the next request, not when the session expires', async ({ browser, baseURL }) => {
   const adminCtx = await browser.newContext();
   const admin = await adminCtx.newPage();
   await signInAs(admin, 'admin');
@@ -12,7 +12,7 @@ test('a revoked role stops working on the next request, not when the session exp
   await signInAs(coord, 'coordinator');
   const members = await (await admin.request.get('/api/team/members')).json();
   const target = members.members.find((m: { email: string }) => m.email === demoUser('coordinator').email);
-  expect((await admin.request.patch(`/api/team/members/${target.userId}`, { data: { roles: ['coordinator', 'admin'] } })).status()).toBe(200);
+  expect((await admin.request.patch(`/api/team/members/${target.userId}`, { data: { roles: ['coordinator', 'admin'] }, headers: { Origin: new URL(baseURL!).origin } })).status()).toBe(200);
   expect((await coord.request.get('/api/team/members')).status()).toBe(200);
 
   await admin.goto('/team');

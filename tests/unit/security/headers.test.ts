@@ -1,6 +1,10 @@
 import { describe, expect, it } from 'vitest';
-import nextConfig from '../../../next.config.mjs';
+// @ts-expect-error -- next.config.mjs is plain JavaScript without a declaration file
+import nextConfigModule from '../../../next.config.mjs';
+import type { NextConfig } from 'next';
 import { dynamicHeaders, HSTS, newNonce, pagePolicy, STATIC_HEADERS } from '@/lib/security/headers';
+
+const nextConfig = nextConfigModule as NextConfig;
 
 const directives = (policy: string) => Object.fromEntries(policy.split('; ').map((d) => [d.split(' ')[0], d.split(' ').slice(1)]));
 
