@@ -28,8 +28,9 @@ interface Stored {
   attachments: { filename: string | null; contentType: string; size: number; content: string }[];
 }
 
-const api = async (path: string, init?: RequestInit, key = secret) => {
-  const res = await fetch(new URL(path, mailboxUrl), { ...init, headers: { ...(init?.headers as Record<string, string>), ...mailboxHeaders(key) } });
+/** `key`: the secret to send (null: none). */
+const api = async (path: string, init?: RequestInit, key: string | null | undefined = secret) => {
+  const res = await fetch(new URL(path, mailboxUrl), { ...init, headers: { ...(init?.headers as Record<string, string>), ...mailboxHeaders(key ?? undefined) } });
   return { status: res.status, body: (await res.json()) as unknown };
 };
 const control = (body: unknown) => api('/control', { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body) });
@@ -48,7 +49,7 @@ describe('the local SMTP fake', () => {
   test('answers nothing but its health check without the run’s secret', async () => {
     const to = unique('secret');
     await transport().sendMail({ from: 'Lamina <no-reply@lamina.invalid>', to, subject: 'A sign-in link', text: 'https://lamina.invalid/x' });
-    for (const key of [undefined, 'not-the-secret-of-this-run', `${secret}x`]) {
+    for (const key of [null, 'not-the-secret-of-this-run', `${secret}x`]) {
       expect((await api(`/messages?to=${encodeURIComponent(to)}`, undefined, key)).status).toBe(401);
       expect((await api('/messages', { method: 'DELETE' }, key)).status).toBe(401);
       expect((await api('/control', { method: 'POST', headers: { 'content-type': 'application/json' }, body: '{"refuse":1}' }, key)).status).toBe(401);
@@ -56,7 +57,7 @@ describe('the local SMTP fake', () => {
     const { status, body } = await api(`/messages?to=${encodeURIComponent(to)}`);
     expect(status).toBe(200);
     expect((body as Stored[]).map((m) => m.subject)).toEqual(['A sign-in link']);
-    expect((await api('/health', undefined, undefined)).status).toBe(200);
+    expect((await api('/health', undefined, null)).status).toBe(200);
   });
 
   test('answers its health check', async () => {
