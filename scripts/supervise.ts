@@ -247,7 +247,7 @@ async function announce() {
   const rule = '─'.repeat(64);
   console.log(`\n${rule}\n  Lamina is running at ${appUrl}\n${rule}`);
   if (seed) console.log(`${seed}\n${rule}`);
-  if (process.env.MAILBOX_URL) console.log(`  Local mail fake: ${process.env.MAILBOX_URL}/messages`);
+  if (process.env.LAMINA_DEMO === '1') console.log(`  Demo mode: mail is caught locally; admins read it on the Dev mailbox page (the fake's API at ${process.env.MAILBOX_URL} asks for this run's MAILBOX_SECRET)`);
   console.log(`  Logs: ${logDir}\n  Press Ctrl-C to stop Lamina and its services.\n${rule}\n`);
 }
 

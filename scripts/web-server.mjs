@@ -36,6 +36,11 @@ const server = http.createServer((req, res) => {
     res.end('Something went wrong on our side.');
   });
 });
+server.on('error', (e) => {
+  // A taken port ends the process: a launcher waiting for the port must not find someone else's server.
+  console.error(`lamina: web server: ${e.message}`);
+  process.exit(1);
+});
 server.listen(port, hostname, () => console.log(`lamina: web server on http://${hostname}:${port}`));
 
 let stopping = false;
