@@ -92,6 +92,8 @@ build() { NEXT_DIST_DIR=.next-test node_modules/.bin/next build; }
 # (setsid) so that stopping it stops anything it spawned. Runs inside a step's subshell, so the
 # pids go to files.
 start_web() {
+  # The port was free when the run began, minutes ago: another run may have taken it since.
+  require_free_port "$LAMINA_WEB_PORT" "the web server" LAMINA_TEST_WEB_PORT
   (NODE_OPTIONS="${NODE_OPTIONS:+$NODE_OPTIONS }${LAMINA_WEB_NODE_OPTIONS:-}" NEXT_DIST_DIR=.next-test \
     exec setsid node scripts/web-server.mjs -H 127.0.0.1 -p "$LAMINA_WEB_PORT" \
     </dev/null >"$TMP/logs/web.log" 2>&1 9>&-) &
