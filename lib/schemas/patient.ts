@@ -73,6 +73,16 @@ const PatientObject = z.object({
 type PatientShape = Partial<z.output<typeof PatientObject>>;
 
 /**
+ * The one rule joining the two recall fields: without recall-contact consent the channel is
+ * none. Whatever withdraws the consent outside the form (the patient's unsubscribe link) writes
+ * what this returns, and a record stored before the rule held is read through it, so a later
+ * edit of the patient is not refused for a channel nobody chose.
+ */
+export function recallConsent(recallContact: boolean, recallChannel: RecallChannel): { recallContact: boolean; recallChannel: RecallChannel } {
+  return { recallContact, recallChannel: recallContact ? recallChannel : 'none' };
+}
+
+/**
  * Rules across fields. On a whole record a missing contact field counts as empty; on a patch
  * (`partial`) only the fields the patch carries are checked.
  */
@@ -81,7 +91,7 @@ const patientRules = (partial: boolean) => (p: PatientShape, ctx: z.RefinementCt
   if (p.recallContact === true && p.recallChannel === 'none') {
     ctx.addIssue({ code: 'custom', path: ['recallChannel'], message: 'Choose how to contact the patient (e-mail, phone or post).' });
   }
-  if (p.recallContact === false && p.recallChannel !== undefined && p.recallChannel !== 'none') {
+  if (p.recallContact === false && p.recallChannel !== undefined && p.recallChannel !== recallConsent(false, p.recallChannel).recallChannel) {
     ctx.addIssue({ code: 'custom', path: ['recallChannel'], message: 'The patient does not agree to recall contact: the channel must be none.' });
   }
   if (p.recallContact) {

@@ -14,6 +14,7 @@ import {
   type VerifyFailure,
 } from '@/lib/recall/reply-token';
 import { dueMonth } from '@/lib/mail/templates/ReminderEmail';
+import { recallConsent } from '@/lib/schemas/patient';
 import { audit } from './audit';
 import { parseInput } from './parse';
 import { dateIn, logContact, setVisitStatus } from './recall-common';
@@ -230,7 +231,8 @@ export const UNSUBSCRIBED_MESSAGE =
 
 /**
  * Withdraws the patient's recall-contact consent (from the page's button or the RFC 8058
- * one-click POST): patient updated, contact-log entry, audit event. Idempotent.
+ * one-click POST): patient updated (consent off and channel none, `recallConsent`), contact-log
+ * entry, audit event. Idempotent.
  */
 export async function unsubscribe(
   em: EntityManager,
@@ -245,7 +247,10 @@ export async function unsubscribe(
     const visit = await linkedVisit(tx, verified.payload.visitId, true);
     if (!visit) return null;
     if (!visit.recall_contact) return { visit, changed: false };
-    await knexOf(tx)('patient').where({ id: visit.patient_id }).update({ recall_contact: false, updated_at: now });
+    const withdrawn = recallConsent(false, 'none');
+    await knexOf(tx)('patient')
+      .where({ id: visit.patient_id })
+      .update({ recall_contact: withdrawn.recallContact, recall_channel: withdrawn.recallChannel, updated_at: now });
     await logContact(tx, [
       { practiceId: visit.practice_id, visitId: visit.id, kind: 'consent_withdrawn', by: 'patient', reminderId: null, note: via === 'one_click' ? 'Through the mail program’s unsubscribe button.' : 'Through the unsubscribe page.' },
     ]);
