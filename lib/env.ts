@@ -17,9 +17,15 @@ export const EnvSchema = z
     MAILBOX_URL: z.url().optional(),
     APP_URL: z.url().default('http://127.0.0.1:3000'),
     NEXTAUTH_SECRET: z.string().min(32).optional(),
-    SIGNIN_MAX_PER_ACCOUNT: z.coerce.number().int().positive().default(5),
-    SIGNIN_MAX_PER_ADDRESS: z.coerce.number().int().positive().default(20),
-    SIGNIN_WINDOW_SECONDS: z.coerce.number().int().positive().default(900),
+    /** Sign-in throttling (lib/auth/rate-limit.ts): free wrong passwords per account-and-address, then growing waits. */
+    SIGNIN_FREE_PER_ACCOUNT_ADDRESS: z.coerce.number().int().positive().default(5),
+    SIGNIN_FREE_PER_ADDRESS: z.coerce.number().int().positive().default(20),
+    SIGNIN_BASE_DELAY_SECONDS: z.coerce.number().int().positive().default(30),
+    SIGNIN_MAX_DELAY_SECONDS: z.coerce.number().int().positive().default(900),
+    SIGNIN_WINDOW_SECONDS: z.coerce.number().int().positive().default(3600),
+    SIGNIN_LINKS_PER_ACCOUNT: z.coerce.number().int().positive().default(5),
+    SIGNIN_LINKS_PER_ADDRESS: z.coerce.number().int().positive().default(20),
+    SIGNIN_LINK_WINDOW_SECONDS: z.coerce.number().int().positive().default(3600),
   })
   .transform((e, ctx) => {
     // `next build` evaluates modules without the runtime secret; the running server must have one.
@@ -29,6 +35,17 @@ export const EnvSchema = z
     }
     return {
       ...e,
+      /** The sign-in throttle's policy, from the SIGNIN_* settings. */
+      signInThrottle: {
+        freePerAccountAddress: e.SIGNIN_FREE_PER_ACCOUNT_ADDRESS,
+        freePerAddress: e.SIGNIN_FREE_PER_ADDRESS,
+        baseDelaySeconds: e.SIGNIN_BASE_DELAY_SECONDS,
+        maxDelaySeconds: e.SIGNIN_MAX_DELAY_SECONDS,
+        windowSeconds: e.SIGNIN_WINDOW_SECONDS,
+        linksPerAccount: e.SIGNIN_LINKS_PER_ACCOUNT,
+        linksPerAddress: e.SIGNIN_LINKS_PER_ADDRESS,
+        linkWindowSeconds: e.SIGNIN_LINK_WINDOW_SECONDS,
+      },
       NEXTAUTH_SECRET: e.NEXTAUTH_SECRET ?? 'lamina-local-development-secret-not-for-production',
       /** The dev mailbox exists only while mail goes to the local fake. */
       localMail: Boolean(e.MAILBOX_URL),
