@@ -11,7 +11,7 @@
  * a service that patches a record re-checks the merged result with `PatientCreateSchema`.
  */
 import { z } from 'zod';
-import { Email, Id, blankAsUndefined, calendarDate, oneOf } from '@/lib/registry/fields';
+import { Email, Id, blankAsUndefined, calendarDate, oneOf, text } from '@/lib/registry/fields';
 
 export const SEXES = ['female', 'male', 'other', 'not_stated'] as const;
 export type Sex = (typeof SEXES)[number];
@@ -27,12 +27,7 @@ export const RegistryNumber = z
   .max(32, 'A registry number has at most 32 characters.')
   .regex(/^[A-Za-z0-9][A-Za-z0-9._/-]*$/, 'Use letters, digits and . _ / - in the registry number (start with a letter or digit).');
 
-const personName = (what: string) =>
-  z
-    .string({ error: `Enter the ${what}.` })
-    .trim()
-    .min(1, `Enter the ${what}.`)
-    .max(100, `The ${what} has at most 100 characters.`);
+const personName = (what: string) => text({ max: 100, required: `Enter the ${what}.`, tooLong: `The ${what} has at most 100 characters.` });
 
 /** Digits with the usual separators; 6–15 digits (ITU-T E.164 allows at most 15). */
 export const Phone = z

@@ -4,6 +4,7 @@ import { originFrom } from '@/lib/auth/origin';
 import { requestEm } from '@/lib/db';
 import { env } from '@/lib/env';
 import { redisReady } from '@/lib/redis';
+import { LinkSignInInput } from '@/lib/schemas/auth';
 import { takeSignInLinkRequest } from '@/lib/services/auth';
 
 const nextAuth = NextAuth(authOptions);
@@ -11,7 +12,8 @@ const nextAuth = NextAuth(authOptions);
 /**
  * next-auth's routes. A request for an e-mailed sign-in link (POST /api/auth/signin/email) is
  * counted first (lib/auth/rate-limit.ts); over the limit it is answered 429 with next-auth's
- * JSON shape, the plain message as its `error`, so the sign-in form can show it.
+ * JSON shape, the plain message as its `error`, so the sign-in form can show it; an address
+ * that is no e-mail address (a NUL, say) is answered 422 the same way.
  */
 async function POST(req: Request, ctx: { params: Promise<{ nextauth: string[] }> }) {
   const { nextauth } = await ctx.params;
@@ -20,11 +22,10 @@ async function POST(req: Request, ctx: { params: Promise<{ nextauth: string[] }>
       .clone()
       .formData()
       .catch(() => null);
-    const email = form?.get('email');
-    if (typeof email === 'string' && email.trim() !== '') {
-      const refused = await linkRefusal(req, email);
-      if (refused) return refused;
-    }
+    const parsed = LinkSignInInput.safeParse({ email: form?.get('email') });
+    if (!parsed.success) return refusal(parsed.error.issues[0]?.message ?? 'Enter a valid e-mail address.', 422, 0);
+    const refused = await linkRefusal(req, parsed.data.email);
+    if (refused) return refused;
   }
   return nextAuth(req, ctx);
 }
@@ -41,7 +42,9 @@ async function linkRefusal(req: Request, email: string): Promise<Response | null
 
 function refusal(message: string, status: number, retryAfterSeconds: number): Response {
   const url = `${env.APP_URL}/sign-in?error=${encodeURIComponent(message)}`;
-  return Response.json({ url, error: message }, { status, headers: { 'Retry-After': String(retryAfterSeconds), 'Cache-Control': 'no-store' } });
+  const headers: Record<string, string> = { 'Cache-Control': 'no-store' };
+  if (retryAfterSeconds > 0) headers['Retry-After'] = String(retryAfterSeconds);
+  return Response.json({ url, error: message }, { status, headers });
 }
 
 export { nextAuth as GET, POST };
