@@ -236,7 +236,9 @@ export function parseCasesCsv(text: string, options: ParseCasesOptions = {}): Pa
     const cell = (name: string) => {
       const i = index.get(name);
       // A file Lamina wrote escapes formula-like cells ('=…); read them back as typed.
-      return i === undefined ? '' : readCsvCell((record.cells[i] ?? '').trim()).trim();
+      if (i === undefined) return '';
+      const v = (record.cells[i] ?? '').trim();
+      return v.charCodeAt(0) === 39 ? readCsvCell(v).trim() : v;
     };
     if (record.cells.slice(header.length).some((c) => c.trim() !== '')) {
       report(undefined, `The row has ${record.cells.length} cells but the header has ${header.length}: check for an unquoted comma.`);

@@ -7,10 +7,8 @@ import { isCalendarDate } from './calendar-date';
 
 // --- text ---------------------------------------------------------------------------------------
 
-/** C0 control characters other than tab, line feed and carriage return; DEL; the C1 controls. */
+/** C0 control characters other than tab, line feed and carriage return (notes have lines); DEL; the C1 controls. */
 const CONTROL = /[\u0000-\u0008\u000B\u000C\u000E-\u001F\u007F-\u009F]/;
-/** Tab, line feed, carriage return: fine in a note, not in a name. */
-const LINE_BREAK_OR_TAB = /[\t\n\r]/;
 /** Half of a UTF-16 surrogate pair with no other half: not a character at all. */
 const LONE_SURROGATE = /[\uD800-\uDBFF](?![\uDC00-\uDFFF])|(?<![\uD800-\uDBFF])[\uDC00-\uDFFF]/;
 
@@ -20,15 +18,13 @@ const codePoint = (ch: string) => `U+${ch.codePointAt(0)!.toString(16).toUpperCa
  * Why a text cannot be stored, or null. Control characters are invisible, break exports and
  * PostgreSQL refuses NUL (U+0000) outright; a lone surrogate is a broken character.
  */
-export function textProblem(value: string, multiline = false): string | null {
+export function textProblem(value: string): string | null {
   const control = CONTROL.exec(value);
   if (control) {
     return `Remove the invisible control character ${codePoint(control[0])} (character ${control.index + 1}): it cannot be stored. Nothing else you typed was lost.`;
   }
   const broken = LONE_SURROGATE.exec(value);
-  if (broken) return `Remove the broken character at position ${broken.index + 1} (half of a character pair): it cannot be stored.`;
-  if (!multiline && LINE_BREAK_OR_TAB.test(value)) return 'Write this on one line, without line breaks or tabs.';
-  return null;
+  return broken ? `Remove the broken character at position ${broken.index + 1} (half of a character pair): it cannot be stored.` : null;
 }
 
 export interface TextOptions {
@@ -38,8 +34,6 @@ export interface TextOptions {
   required?: string;
   /** Said when it is longer than `max`. */
   tooLong?: string;
-  /** Line breaks and tabs allowed (notes, findings). */
-  multiline?: boolean;
 }
 
 /**
@@ -51,7 +45,7 @@ export function text(options: TextOptions) {
   const base = z.string({ error: options.required ?? 'Enter text.' }).trim();
   const sized = (options.required ? base.min(1, options.required) : base).max(options.max, options.tooLong ?? `At most ${options.max} characters.`);
   return sized.superRefine((value, ctx) => {
-    const problem = textProblem(value, options.multiline);
+    const problem = textProblem(value);
     if (problem) ctx.addIssue({ code: 'custom', message: problem });
   });
 }

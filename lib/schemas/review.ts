@@ -64,7 +64,7 @@ const ReviewObject = z.object({
   swelling: z.boolean().optional(),
   sinusTract: z.boolean().optional(),
   mobility: z.boolean().optional(),
-  otherFindings: blankAsUndefined(text({ max: 500, multiline: true })),
+  otherFindings: blankAsUndefined(text({ max: 500 })),
 });
 
 type ReviewShape = Partial<z.output<typeof ReviewObject>>;

@@ -143,7 +143,7 @@ export async function listContactLog(em: EntityManager, actor: Actor, visitId: s
 }
 
 export const CallNoteInput = z.object({
-  note: text({ max: 1000, required: 'Write what was said (or that nobody answered).', multiline: true }),
+  note: text({ max: 1000, required: 'Write what was said (or that nobody answered).' }),
   /** Did the desk speak to the patient? A call not answered counts as an unanswered attempt (lost to follow-up). */
   reached: z.boolean({ error: 'Say whether you spoke to the patient.' }),
 });

@@ -408,7 +408,7 @@ export const BookInput = z.object({
   mode: z.enum(['propose', 'phone'], { error: 'mode is propose or phone.' }),
   /** With propose: queue the next reminder now. */
   sendNow: z.boolean().default(false),
-  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000, multiline: true }).optional()),
+  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000 }).optional()),
 });
 
 /**
@@ -479,7 +479,7 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
 export const MarkInput = z.object({
   visitIds: VisitIds,
   status: z.enum(['attended', 'missed'], { error: 'status is attended or missed.' }),
-  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000, multiline: true }).optional()),
+  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000 }).optional()),
 });
 
 /**

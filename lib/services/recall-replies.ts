@@ -126,7 +126,7 @@ export async function lookupReply(em: EntityManager, token: string, now: Date = 
 export const ReplyInput = z.object({
   token: z.string({ error: 'The link is missing.' }).min(1, 'The link is missing.').max(1024, 'This link is not valid.'),
   answer: z.enum(REPLY_ANSWERS, { error: 'Choose one of the three answers.' }),
-  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000, tooLong: 'At most 1000 characters, please.', multiline: true }).optional()),
+  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000, tooLong: 'At most 1000 characters, please.' }).optional()),
 });
 
 export const REPLY_THANKS: Record<ReplyAnswer, string> = {

@@ -50,7 +50,7 @@ export const VisitUpdateSchema = z
     status: z.enum(VISIT_STATUSES, { error: `Choose the status: ${VISIT_STATUSES.join(', ')}.` }).optional(),
     /** The appointment date; null or '' clears it. */
     bookedDate: z.preprocess((v) => (v === '' ? null : v), calendarDate('the appointment date').nullable()).optional(),
-    note: z.preprocess((v) => (v === '' ? null : v), text({ max: 500, multiline: true }).nullable()).optional(),
+    note: z.preprocess((v) => (v === '' ? null : v), text({ max: 500 }).nullable()).optional(),
   })
   .refine((v) => v.status !== undefined || v.bookedDate !== undefined || v.note !== undefined, {
     message: 'Send a status, an appointment date or a note.',
@@ -59,7 +59,7 @@ export const VisitUpdateSchema = z
 export type VisitUpdate = z.input<typeof VisitUpdateSchema>;
 
 export const CloseAsLostSchema = z.object({
-  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 500, multiline: true }).optional()),
+  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 500 }).optional()),
 });
 
 // --- reads ----------------------------------------------------------------------------------------
