@@ -147,5 +147,5 @@ export function passwordWaitMessage(state: ThrottleState): string {
 
 /** What a throttled link request is told. */
 export function linkWaitMessage(state: ThrottleState): string {
-  return `Too many sign-in links were asked for in the last while. Use the link already sent (it works for 24 hours), or ask again in ${waitText(state.retryAfterSeconds)}.`;
+  return `Too many sign-in links were asked for. Use the link already sent (it works for 24 hours), or ask again in ${waitText(state.retryAfterSeconds)}.`;
 }
