@@ -37,9 +37,15 @@ export const EnvSchema = z
     NEXTAUTH_SECRET: z.string().min(32).optional(),
     /** Proxies in front of Lamina: a count, or their addresses (lib/security/trusted-proxies.ts). */
     TRUSTED_PROXIES: z.string().max(2000).optional(),
-    SIGNIN_MAX_PER_ACCOUNT: z.coerce.number().int().positive().default(5),
-    SIGNIN_MAX_PER_ADDRESS: z.coerce.number().int().positive().default(20),
-    SIGNIN_WINDOW_SECONDS: z.coerce.number().int().positive().default(900),
+    /** Sign-in throttling (lib/auth/rate-limit.ts): free wrong passwords per account-and-address, then growing waits. */
+    SIGNIN_FREE_PER_ACCOUNT_ADDRESS: z.coerce.number().int().positive().default(5),
+    SIGNIN_FREE_PER_ADDRESS: z.coerce.number().int().positive().default(20),
+    SIGNIN_BASE_DELAY_SECONDS: z.coerce.number().int().positive().default(30),
+    SIGNIN_MAX_DELAY_SECONDS: z.coerce.number().int().positive().default(900),
+    SIGNIN_WINDOW_SECONDS: z.coerce.number().int().positive().default(3600),
+    SIGNIN_LINKS_PER_ACCOUNT: z.coerce.number().int().positive().default(5),
+    SIGNIN_LINKS_PER_ADDRESS: z.coerce.number().int().positive().default(20),
+    SIGNIN_LINK_WINDOW_SECONDS: z.coerce.number().int().positive().default(3600),
   })
   .transform((e, ctx) => {
     // `next build` evaluates modules without the runtime secret; the running server must have one.
@@ -67,6 +73,17 @@ export const EnvSchema = z
     if ('error' in trusted) ctx.addIssue({ code: 'custom', path: ['TRUSTED_PROXIES'], message: trusted.error });
     return {
       ...e,
+      /** The sign-in throttle's policy, from the SIGNIN_* settings. */
+      signInThrottle: {
+        freePerAccountAddress: e.SIGNIN_FREE_PER_ACCOUNT_ADDRESS,
+        freePerAddress: e.SIGNIN_FREE_PER_ADDRESS,
+        baseDelaySeconds: e.SIGNIN_BASE_DELAY_SECONDS,
+        maxDelaySeconds: e.SIGNIN_MAX_DELAY_SECONDS,
+        windowSeconds: e.SIGNIN_WINDOW_SECONDS,
+        linksPerAccount: e.SIGNIN_LINKS_PER_ACCOUNT,
+        linksPerAddress: e.SIGNIN_LINKS_PER_ADDRESS,
+        linkWindowSeconds: e.SIGNIN_LINK_WINDOW_SECONDS,
+      },
       NEXTAUTH_SECRET: e.NEXTAUTH_SECRET ?? 'lamina-local-development-secret-not-for-production',
       /** The dev mailbox and the band saying mail is caught locally: demo mode only. */
       localMail: e.LAMINA_DEMO && Boolean(e.MAILBOX_URL && e.MAILBOX_SECRET),

@@ -47,11 +47,7 @@ export const authOptions: NextAuthOptions = {
           const { userId } = await verifyCredentials(
             em,
             r,
-            {
-              maxPerAccount: env.SIGNIN_MAX_PER_ACCOUNT,
-              maxPerAddress: env.SIGNIN_MAX_PER_ADDRESS,
-              windowSeconds: env.SIGNIN_WINDOW_SECONDS,
-            },
+            env.signInThrottle,
             parsed.data,
             originFrom(req?.headers ?? {}),
           );

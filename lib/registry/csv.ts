@@ -17,12 +17,15 @@
  * is reported at the line it starts on. Parsing is one pass over the text plus one over the rows:
  * linear in the file size. Nothing here touches the database: operator e-mails, referrers and
  * registry numbers are resolved by the import service, which reports by `ValidRow.line`.
+ * Cells escaped against spreadsheet formulas by Lamina's CSV writer (lib/csv/write.ts) read
+ * back as typed.
  */
 import Papa from 'papaparse';
 import type { z } from 'zod';
 import { buildCaseSchemas, MAX_CANALS, type CaseImport } from '@/lib/schemas/case';
 import { PatientCreateSchema, type PatientCreate } from '@/lib/schemas/patient';
 import { ReferrerCreateSchema, type ReferrerCreate } from '@/lib/schemas/referrer';
+import { readCsvCell, writeCsv } from '@/lib/csv/write';
 import { Email } from './fields';
 
 type ValueKind = 'text' | 'date' | 'number' | 'bool' | 'code' | 'codes';
@@ -170,7 +173,7 @@ const EXAMPLE: Record<string, string> = {
 /** The downloadable template: the header and one invented example row, CRLF line ends. */
 export function templateCsv(): string {
   const header = CSV_COLUMNS.map((c) => c.name);
-  return Papa.unparse({ fields: header, data: [header.map((h) => EXAMPLE[h] ?? '')] }, { newline: '\r\n' }) + '\r\n';
+  return writeCsv(header, [header.map((h) => EXAMPLE[h] ?? '')]);
 }
 
 // --- parsing ------------------------------------------------------------------------------------
@@ -232,7 +235,10 @@ export function parseCasesCsv(text: string, options: ParseCasesOptions = {}): Pa
     const report = (column: string | undefined, reason: string) => errors.push({ line: record.line, ...(column ? { column } : {}), reason });
     const cell = (name: string) => {
       const i = index.get(name);
-      return i === undefined ? '' : (record.cells[i] ?? '').trim();
+      // A file Lamina wrote escapes formula-like cells ('=…); read them back as typed.
+      if (i === undefined) return '';
+      const v = (record.cells[i] ?? '').trim();
+      return v.charCodeAt(0) === 39 ? readCsvCell(v).trim() : v;
     };
     if (record.cells.slice(header.length).some((c) => c.trim() !== '')) {
       report(undefined, `The row has ${record.cells.length} cells but the header has ${header.length}: check for an unquoted comma.`);

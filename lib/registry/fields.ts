@@ -5,6 +5,51 @@
 import { z } from 'zod';
 import { isCalendarDate } from './calendar-date';
 
+// --- text ---------------------------------------------------------------------------------------
+
+/** C0 control characters other than tab, line feed and carriage return (notes have lines); DEL; the C1 controls. */
+const CONTROL = /[\u0000-\u0008\u000B\u000C\u000E-\u001F\u007F-\u009F]/;
+/** Half of a UTF-16 surrogate pair with no other half: not a character at all. */
+const LONE_SURROGATE = /[\uD800-\uDBFF](?![\uDC00-\uDFFF])|(?<![\uD800-\uDBFF])[\uDC00-\uDFFF]/;
+
+const codePoint = (ch: string) => `U+${ch.codePointAt(0)!.toString(16).toUpperCase().padStart(4, '0')}`;
+
+/**
+ * Why a text cannot be stored, or null. Control characters are invisible, break exports and
+ * PostgreSQL refuses NUL (U+0000) outright; a lone surrogate is a broken character.
+ */
+export function textProblem(value: string): string | null {
+  const control = CONTROL.exec(value);
+  if (control) {
+    return `Remove the invisible control character ${codePoint(control[0])} (character ${control.index + 1}): it cannot be stored. Nothing else you typed was lost.`;
+  }
+  const broken = LONE_SURROGATE.exec(value);
+  return broken ? `Remove the broken character at position ${broken.index + 1} (half of a character pair): it cannot be stored.` : null;
+}
+
+export interface TextOptions {
+  /** Most characters after trimming. */
+  max: number;
+  /** Said when the value is missing or blank; makes the text required (at least one character). */
+  required?: string;
+  /** Said when it is longer than `max`. */
+  tooLong?: string;
+}
+
+/**
+ * THE free-text type of every schema (names, notes, findings, search): trimmed, limited,
+ * refusing control characters (NUL included) and broken characters with a message that says
+ * which and where — a clear 422, never a database error.
+ */
+export function text(options: TextOptions) {
+  const base = z.string({ error: options.required ?? 'Enter text.' }).trim();
+  const sized = (options.required ? base.min(1, options.required) : base).max(options.max, options.tooLong ?? `At most ${options.max} characters.`);
+  return sized.superRefine((value, ctx) => {
+    const problem = textProblem(value);
+    if (problem) ctx.addIssue({ code: 'custom', message: problem });
+  });
+}
+
 /** A record id (UUID in the database; any non-empty token here so tests and imports can use keys). */
 export const Id = z.string({ error: 'Missing id.' }).trim().min(1, 'Missing id.').max(64, 'Id too long.');
 

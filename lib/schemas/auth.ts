@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { ROLES } from '@/lib/auth/roles';
+import { text } from '@/lib/registry/fields';
 
 export const Email = z
   .string({ error: 'Enter an e-mail address.' })
@@ -24,7 +25,7 @@ export const RoleList = z.array(z.enum(ROLES)).max(ROLES.length);
 
 export const InviteInput = z.object({
   email: Email,
-  name: z.string().trim().min(1, 'Enter the person’s name.').max(160),
+  name: text({ max: 160, required: 'Enter the person’s name.' }),
   roles: RoleList.min(1, 'Choose at least one role.'),
 });
 
@@ -33,7 +34,7 @@ export const SetRolesInput = z.object({ roles: RoleList });
 export const AcceptInvitationInput = z
   .object({
     token: z.string().min(20).max(200),
-    name: z.string().trim().min(1, 'Enter your name.').max(160),
+    name: text({ max: 160, required: 'Enter your name.' }),
     password: NewPassword,
     confirm: z.string(),
   })

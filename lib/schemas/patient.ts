@@ -11,7 +11,7 @@
  * a service that patches a record re-checks the merged result with `PatientCreateSchema`.
  */
 import { z } from 'zod';
-import { Email, Id, blankAsUndefined, calendarDate, oneOf } from '@/lib/registry/fields';
+import { Email, Id, blankAsUndefined, calendarDate, oneOf, text } from '@/lib/registry/fields';
 
 export const SEXES = ['female', 'male', 'other', 'not_stated'] as const;
 export type Sex = (typeof SEXES)[number];
@@ -27,12 +27,7 @@ export const RegistryNumber = z
   .max(32, 'A registry number has at most 32 characters.')
   .regex(/^[A-Za-z0-9][A-Za-z0-9._/-]*$/, 'Use letters, digits and . _ / - in the registry number (start with a letter or digit).');
 
-const personName = (what: string) =>
-  z
-    .string({ error: `Enter the ${what}.` })
-    .trim()
-    .min(1, `Enter the ${what}.`)
-    .max(100, `The ${what} has at most 100 characters.`);
+const personName = (what: string) => text({ max: 100, required: `Enter the ${what}.`, tooLong: `The ${what} has at most 100 characters.` });
 
 /** Digits with the usual separators; 6–15 digits (ITU-T E.164 allows at most 15). */
 export const Phone = z
@@ -73,6 +68,16 @@ const PatientObject = z.object({
 type PatientShape = Partial<z.output<typeof PatientObject>>;
 
 /**
+ * The one rule joining the two recall fields: without recall-contact consent the channel is
+ * none. Whatever withdraws the consent outside the form (the patient's unsubscribe link) writes
+ * what this returns, and a record stored before the rule held is read through it, so a later
+ * edit of the patient is not refused for a channel nobody chose.
+ */
+export function recallConsent(recallContact: boolean, recallChannel: RecallChannel): { recallContact: boolean; recallChannel: RecallChannel } {
+  return { recallContact, recallChannel: recallContact ? recallChannel : 'none' };
+}
+
+/**
  * Rules across fields. On a whole record a missing contact field counts as empty; on a patch
  * (`partial`) only the fields the patch carries are checked.
  */
@@ -81,7 +86,7 @@ const patientRules = (partial: boolean) => (p: PatientShape, ctx: z.RefinementCt
   if (p.recallContact === true && p.recallChannel === 'none') {
     ctx.addIssue({ code: 'custom', path: ['recallChannel'], message: 'Choose how to contact the patient (e-mail, phone or post).' });
   }
-  if (p.recallContact === false && p.recallChannel !== undefined && p.recallChannel !== 'none') {
+  if (p.recallContact === false && p.recallChannel !== undefined && p.recallChannel !== recallConsent(false, p.recallChannel).recallChannel) {
     ctx.addIssue({ code: 'custom', path: ['recallChannel'], message: 'The patient does not agree to recall contact: the channel must be none.' });
   }
   if (p.recallContact) {

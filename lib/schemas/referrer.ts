@@ -3,16 +3,12 @@
  * The e-mail is optional (some referrers are written to), but reports by e-mail need it.
  */
 import { z } from 'zod';
-import { Email, Id, blankAsUndefined } from '@/lib/registry/fields';
+import { Email, Id, blankAsUndefined, text } from '@/lib/registry/fields';
 
 const ReferrerObject = z.object({
   id: Id,
-  name: z
-    .string({ error: 'Enter the referring dentist’s name.' })
-    .trim()
-    .min(1, 'Enter the referring dentist’s name.')
-    .max(160, 'At most 160 characters.'),
-  practiceName: blankAsUndefined(z.string().trim().max(160, 'At most 160 characters.')),
+  name: text({ max: 160, required: 'Enter the referring dentist’s name.' }),
+  practiceName: blankAsUndefined(text({ max: 160 })),
   email: blankAsUndefined(Email),
   archived: z.boolean().optional(),
 });

@@ -9,7 +9,7 @@
  * it; a present tooth needs its PAI (Ørstavik 1986) and lesion diameter (0 = none).
  */
 import { z } from 'zod';
-import { Id, blankAsUndefined, calendarDate } from '@/lib/registry/fields';
+import { Id, blankAsUndefined, calendarDate, text } from '@/lib/registry/fields';
 import { LesionDiameterMm, PaiScore, paiLesionMismatch } from './case';
 
 export const TOOTH_STATUSES = ['present', 'extracted', 'retreated', 'surgery'] as const;
@@ -64,7 +64,7 @@ const ReviewObject = z.object({
   swelling: z.boolean().optional(),
   sinusTract: z.boolean().optional(),
   mobility: z.boolean().optional(),
-  otherFindings: blankAsUndefined(z.string().trim().max(500, 'At most 500 characters.')),
+  otherFindings: blankAsUndefined(text({ max: 500 })),
 });
 
 type ReviewShape = Partial<z.output<typeof ReviewObject>>;

@@ -6,47 +6,44 @@ import type { Actor } from '@/lib/auth/actor';
 import type { Origin } from '@/lib/auth/origin';
 import { isRole, type Role } from '@/lib/auth/roles';
 import { verifyPassword } from '@/lib/auth/password';
-import {
-  checkSignInLimit,
-  clearAccountFailures,
-  recordSignInFailure,
-  retryMessage,
-  type RateLimitPolicy,
-} from '@/lib/auth/rate-limit';
+import { linkWaitMessage, passwordWaitMessage, signInThrottle, type ThrottlePolicy } from '@/lib/auth/rate-limit';
 import { audit } from './audit';
 import { RateLimitedError, ServiceError } from './errors';
 
 export const WRONG_CREDENTIALS = 'Wrong e-mail or password.';
 
 /**
- * Checks an e-mail and password. Rate-limited per account and per address; every success
- * and failure is audited. Returns the user id, or throws a ServiceError with a user-safe message.
+ * Checks an e-mail and password. Throttled per account-and-address and per address with growing
+ * waits (lib/auth/rate-limit.ts: never a lockout of the account itself); every success, failure
+ * and throttled try is audited. Returns the user id, or throws a ServiceError with a user-safe
+ * message.
  */
 export async function verifyCredentials(
   em: EntityManager,
   r: Redis,
-  policy: RateLimitPolicy,
+  policy: ThrottlePolicy,
   input: { email: string; password: string },
   origin: Origin,
 ): Promise<{ userId: string }> {
   const email = input.email.trim().toLowerCase();
-  const limit = await checkSignInLimit(r, policy, email, origin.ip);
+  const throttle = signInThrottle(r, policy);
+  const limit = await throttle.checkPassword(email, origin.ip);
   const user = await em.findOne(UserSchema, { email });
   const practiceId = user ? await firstPracticeId(em, user.id) : null;
   const trail = { actorId: user?.id ?? null, actorEmail: email, practiceId, ip: origin.ip, userAgent: origin.userAgent };
 
   if (limit.limited) {
     await audit(em, null, { action: 'auth.sign_in_limited', detail: { scope: limit.scope } }, trail);
-    throw new RateLimitedError(retryMessage(limit.retryAfterSeconds), limit.retryAfterSeconds);
+    throw new RateLimitedError(passwordWaitMessage(limit), limit.retryAfterSeconds);
   }
   const ok = await verifyPassword(input.password, user?.passwordHash);
   if (!user || !ok || !practiceId) {
-    await recordSignInFailure(r, policy, email, origin.ip);
+    const waitSeconds = await throttle.recordPasswordFailure(email, origin.ip);
     const reason = !user ? 'unknown_account' : !ok ? 'wrong_password' : 'no_active_role';
-    await audit(em, null, { action: 'auth.sign_in_failed', detail: { method: 'password', reason } }, trail);
-    throw new ServiceError(WRONG_CREDENTIALS, 401);
+    await audit(em, null, { action: 'auth.sign_in_failed', detail: { method: 'password', reason, ...(waitSeconds ? { waitSeconds } : {}) } }, trail);
+    throw new ServiceError(waitSeconds ? `${WRONG_CREDENTIALS} ${passwordWaitMessage({ limited: true, retryAfterSeconds: waitSeconds })}` : WRONG_CREDENTIALS, 401);
   }
-  await clearAccountFailures(r, email);
+  await throttle.clearPasswordFailures(email, origin.ip);
   user.lastSignInAt = new Date();
   await audit(em, null, { action: 'auth.sign_in', entityType: 'user', entityId: user.id, detail: { method: 'password' } }, trail);
   return { userId: user.id };
@@ -95,4 +92,29 @@ export async function loadActor(
     ip: origin.ip,
     userAgent: origin.userAgent,
   };
+}
+
+/**
+ * Takes one request for an e-mailed sign-in link (per account and per address, lib/auth/rate-limit.ts).
+ * Counted whether or not the address has an account, so the answer says nothing about that. A
+ * refused request is audited and answered with a plain message; a link already sent keeps working.
+ */
+export async function takeSignInLinkRequest(
+  em: EntityManager,
+  r: Redis,
+  policy: ThrottlePolicy,
+  rawEmail: string,
+  origin: Origin,
+): Promise<{ ok: true } | { ok: false; message: string; retryAfterSeconds: number }> {
+  const email = rawEmail.trim().toLowerCase().slice(0, 254);
+  const state = await signInThrottle(r, policy).takeLinkRequest(email, origin.ip);
+  if (!state.limited) return { ok: true };
+  const user = await em.findOne(UserSchema, { email });
+  await audit(
+    em,
+    null,
+    { action: 'auth.link_limited', detail: { scope: state.scope } },
+    { actorId: user?.id ?? null, actorEmail: email, ip: origin.ip, userAgent: origin.userAgent },
+  );
+  return { ok: false, message: linkWaitMessage(state), retryAfterSeconds: state.retryAfterSeconds };
 }

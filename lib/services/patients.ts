@@ -5,7 +5,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { patientSearchSql, PatientSchema, UserSchema, type Patient } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { Paging } from '@/lib/schemas/paging';
-import { PatientCreateSchema, PatientUpdateSchema, type PatientCreate, type RecallChannel, type Sex } from '@/lib/schemas/patient';
+import { PatientCreateSchema, PatientUpdateSchema, recallConsent, type PatientCreate, type RecallChannel, type Sex } from '@/lib/schemas/patient';
 import { audit } from './audit';
 import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
@@ -219,6 +219,8 @@ export async function updatePatient(em: EntityManager, actor: Actor, id: string,
   const patch = parseInput(PatientUpdateSchema, raw);
   const current = {
     ...patientColumns(patient),
+    // A record whose consent was withdrawn before the rule was kept everywhere still says e-mail.
+    ...recallConsent(patient.recallContact, patient.recallChannel as RecallChannel),
     email: patient.email ?? undefined,
     phone: patient.phone ?? undefined,
     postalCode: patient.postalCode ?? undefined,
@@ -227,6 +229,8 @@ export async function updatePatient(em: EntityManager, actor: Actor, id: string,
   const changed = EDITABLE_FIELDS.filter((f) => (merged[f] ?? null) !== (current[f] ?? null));
   if (merged.registryNumber !== patient.registryNumber) await assertRegistryNumberFree(em, actor.practiceId, merged.registryNumber);
   for (const f of changed) (patient as Record<string, unknown>)[f] = merged[f] ?? null;
+  // Such a record is repaired with the edit (not counted as a consent change: nobody changed it).
+  patient.recallChannel = merged.recallChannel;
   if (changed.some((f) => (CONSENT_FIELDS as readonly string[]).includes(f))) {
     patient.consentRecordedBy = em.getReference(UserSchema, actor.userId) as never;
   }

@@ -1,5 +1,6 @@
 import 'server-only';
 import { z } from 'zod';
+import { text } from '@/lib/registry/fields';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { ContactBy, ContactKind, ReminderStatus, ReplyAnswer } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
@@ -142,7 +143,7 @@ export async function listContactLog(em: EntityManager, actor: Actor, visitId: s
 }
 
 export const CallNoteInput = z.object({
-  note: z.string({ error: 'Write what was said (or that nobody answered).' }).trim().min(1, 'Write what was said (or that nobody answered).').max(1000, 'At most 1000 characters.'),
+  note: text({ max: 1000, required: 'Write what was said (or that nobody answered).' }),
   /** Did the desk speak to the patient? A call not answered counts as an unanswered attempt (lost to follow-up). */
   reached: z.boolean({ error: 'Say whether you spoke to the patient.' }),
 });

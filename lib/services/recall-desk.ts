@@ -1,5 +1,6 @@
 import 'server-only';
 import { z } from 'zod';
+import { text } from '@/lib/registry/fields';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import {
@@ -407,7 +408,7 @@ export const BookInput = z.object({
   mode: z.enum(['propose', 'phone'], { error: 'mode is propose or phone.' }),
   /** With propose: queue the next reminder now. */
   sendNow: z.boolean().default(false),
-  note: z.preprocess((v) => (v === '' ? undefined : v), z.string().trim().max(1000, 'At most 1000 characters.').optional()),
+  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000 }).optional()),
 });
 
 /**
@@ -478,7 +479,7 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
 export const MarkInput = z.object({
   visitIds: VisitIds,
   status: z.enum(['attended', 'missed'], { error: 'status is attended or missed.' }),
-  note: z.preprocess((v) => (v === '' ? undefined : v), z.string().trim().max(1000, 'At most 1000 characters.').optional()),
+  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000 }).optional()),
 });
 
 /**

@@ -1,5 +1,6 @@
 import 'server-only';
 import { z } from 'zod';
+import { text } from '@/lib/registry/fields';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { REPLY_ANSWERS, type ReplyAnswer } from '@/entities';
 import { env } from '@/lib/env';
@@ -14,6 +15,7 @@ import {
   type VerifyFailure,
 } from '@/lib/recall/reply-token';
 import { dueMonth } from '@/lib/mail/templates/ReminderEmail';
+import { recallConsent } from '@/lib/schemas/patient';
 import { audit } from './audit';
 import { parseInput } from './parse';
 import { dateIn, logContact, setVisitStatus } from './recall-common';
@@ -124,7 +126,7 @@ export async function lookupReply(em: EntityManager, token: string, now: Date = 
 export const ReplyInput = z.object({
   token: z.string({ error: 'The link is missing.' }).min(1, 'The link is missing.').max(1024, 'This link is not valid.'),
   answer: z.enum(REPLY_ANSWERS, { error: 'Choose one of the three answers.' }),
-  note: z.preprocess((v) => (v === '' ? undefined : v), z.string().trim().max(1000, 'At most 1000 characters, please.').optional()),
+  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000, tooLong: 'At most 1000 characters, please.' }).optional()),
 });
 
 export const REPLY_THANKS: Record<ReplyAnswer, string> = {
@@ -230,7 +232,8 @@ export const UNSUBSCRIBED_MESSAGE =
 
 /**
  * Withdraws the patient's recall-contact consent (from the page's button or the RFC 8058
- * one-click POST): patient updated, contact-log entry, audit event. Idempotent.
+ * one-click POST): patient updated (consent off and channel none, `recallConsent`), contact-log
+ * entry, audit event. Idempotent.
  */
 export async function unsubscribe(
   em: EntityManager,
@@ -245,7 +248,10 @@ export async function unsubscribe(
     const visit = await linkedVisit(tx, verified.payload.visitId, true);
     if (!visit) return null;
     if (!visit.recall_contact) return { visit, changed: false };
-    await knexOf(tx)('patient').where({ id: visit.patient_id }).update({ recall_contact: false, updated_at: now });
+    const withdrawn = recallConsent(false, 'none');
+    await knexOf(tx)('patient')
+      .where({ id: visit.patient_id })
+      .update({ recall_contact: withdrawn.recallContact, recall_channel: withdrawn.recallChannel, updated_at: now });
     await logContact(tx, [
       { practiceId: visit.practice_id, visitId: visit.id, kind: 'consent_withdrawn', by: 'patient', reminderId: null, note: via === 'one_click' ? 'Through the mail program’s unsubscribe button.' : 'Through the unsubscribe page.' },
     ]);

@@ -9,7 +9,7 @@ import type { Canal } from '@/lib/schemas/case';
 import { fillLengthClass, type FillLengthClass } from '@/lib/scoring';
 import type { ToothNotation } from '@/lib/teeth';
 import type { CalendarDate } from '@/lib/registry/calendar-date';
-import { blankAsUndefined, calendarDate } from '@/lib/registry/fields';
+import { blankAsUndefined, calendarDate, text } from '@/lib/registry/fields';
 import { NotFoundError, ValidationError } from './errors';
 
 /**
@@ -173,7 +173,7 @@ export function whereArchived(b: Knex.QueryBuilder, column: string, filter: z.ou
 }
 
 /** A list's free-text search (`q`). */
-export const SearchText = z.string().trim().max(100, 'At most 100 characters in the search.').optional();
+export const SearchText = text({ max: 100, tooLong: 'At most 100 characters in the search.' }).optional();
 
 /** A list's sort direction (`dir`). */
 export const SortDir = (byDefault: 'asc' | 'desc') => z.enum(['asc', 'desc'], { error: 'dir is asc or desc.' }).default(byDefault);

@@ -14,7 +14,7 @@ import {
   isPastDue,
   type VisitStatus,
 } from '@/lib/recall';
-import { calendarDate } from '@/lib/registry/fields';
+import { calendarDate, text } from '@/lib/registry/fields';
 import { audit } from './audit';
 import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
@@ -50,7 +50,7 @@ export const VisitUpdateSchema = z
     status: z.enum(VISIT_STATUSES, { error: `Choose the status: ${VISIT_STATUSES.join(', ')}.` }).optional(),
     /** The appointment date; null or '' clears it. */
     bookedDate: z.preprocess((v) => (v === '' ? null : v), calendarDate('the appointment date').nullable()).optional(),
-    note: z.preprocess((v) => (v === '' ? null : v), z.string().trim().max(500, 'At most 500 characters.').nullable()).optional(),
+    note: z.preprocess((v) => (v === '' ? null : v), text({ max: 500 }).nullable()).optional(),
   })
   .refine((v) => v.status !== undefined || v.bookedDate !== undefined || v.note !== undefined, {
     message: 'Send a status, an appointment date or a note.',
@@ -59,7 +59,7 @@ export const VisitUpdateSchema = z
 export type VisitUpdate = z.input<typeof VisitUpdateSchema>;
 
 export const CloseAsLostSchema = z.object({
-  note: z.preprocess((v) => (v === '' ? undefined : v), z.string().trim().max(500, 'At most 500 characters.').optional()),
+  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 500 }).optional()),
 });
 
 // --- reads ----------------------------------------------------------------------------------------

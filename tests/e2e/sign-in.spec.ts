@@ -88,6 +88,46 @@ test.describe('signing in', () => {
   });
 });
 
+test.describe('throttling, not lockout (issue 9 item 8)', () => {
+  test('repeated wrong passwords slow further tries and say so plainly; the e-mailed link still works', async ({ page }) => {
+    test.setTimeout(60_000);
+    // An address with no account: the answers are the same as for a real one, and no colleague's sign-in is slowed.
+    const email = 'throttled.e2e@lamina-demo.invalid';
+    await page.goto('/sign-in');
+    await page.getByLabel('E-mail', { exact: true }).fill(email);
+    for (let i = 0; i < 5; i++) {
+      await page.getByLabel('Password', { exact: true }).fill(`wrong-${i}`);
+      await page.getByRole('button', { name: 'Sign in', exact: true }).click();
+      await expect(page.getByText('Wrong e-mail or password.', { exact: true })).toBeVisible();
+    }
+    await page.getByLabel('Password', { exact: true }).fill('wrong-again');
+    await page.getByRole('button', { name: 'Sign in', exact: true }).click();
+    await expect(page.getByText(/Too many wrong passwords for this account from your network.*Wait 30 seconds.*e-mailed link, which still works\. The account is not locked\./)).toBeVisible();
+    await page.screenshot({ path: test.info().outputPath('throttled.png') });
+    // The e-mailed link is not held back.
+    await page.getByRole('tab', { name: 'E-mailed link' }).click();
+    await page.getByRole('button', { name: 'E-mail me a sign-in link' }).click();
+    await expect(page.getByText('a sign-in link is on its way')).toBeVisible();
+  });
+
+  test('link requests are limited per account, with a plain message', async ({ page }) => {
+    test.setTimeout(60_000);
+    const email = 'many.links.e2e@lamina-demo.invalid';
+    const ask = async () => {
+      await page.goto('/sign-in');
+      await page.getByRole('tab', { name: 'E-mailed link' }).click();
+      await page.getByLabel('E-mail', { exact: true }).fill(email);
+      await page.getByRole('button', { name: 'E-mail me a sign-in link' }).click();
+    };
+    for (let i = 0; i < 5; i++) {
+      await ask();
+      await expect(page.getByText('a sign-in link is on its way')).toBeVisible();
+    }
+    await ask();
+    await expect(page.getByText(/Too many sign-in links were asked for.*Use the link already sent \(it works for 24 hours\), or ask again in \d+ minutes?\./)).toBeVisible();
+  });
+});
+
 test('an invited colleague accepts the e-mailed link, sets a password and signs in', async ({ page, request }) => {
   const email = `new.colleague.${Date.now()}@lamina-demo.invalid`;
   await signInAs(page, 'admin');

@@ -7,6 +7,7 @@ import { insertOutboxRows } from '@/lib/services/recall-outbox';
 import { answerReply, lookupReply, lookupUnsubscribe, unsubscribe } from '@/lib/services/recall-replies';
 import { todayIn } from '@/lib/services/registry-common';
 import { ValidationError } from '@/lib/services/errors';
+import { updatePatient } from '@/lib/services/patients';
 import { processSendReminder, type SendContext } from '@/jobs/send-reminder';
 import { createReminderTransport, mailboxDeliveryCheck } from '@/jobs/mail';
 import { POST as oneClick, GET as unsubscribeGet } from '@/app/api/unsubscribe/[token]/route';
@@ -167,6 +168,23 @@ describe('unsubscribe', () => {
       processSendReminder(ctx, { data: { practiceId: p.practice.id, visitId: v.visitId, step: 'second_invitation', origin: 'scan', day: today } }),
     ).rejects.toMatchObject({ name: 'UnrecoverableError' });
     expect((await mailbox(v.email!)).length).toBe(1);
+  });
+
+  it('leaves a consistent record: consent off and channel none, and the patient can still be edited (issue 9 item 13)', async () => {
+    const { p, v, unsub } = await invited();
+    expect(await unsubscribe(services.em(), unsub, origin, 'page')).toMatchObject({ ok: true });
+    expect(await knex()('patient').where({ id: v.patientId }).first('recall_contact', 'recall_channel')).toEqual({ recall_contact: false, recall_channel: 'none' });
+    // Any edit afterwards is accepted (it was refused with 422 "the channel must be none").
+    const edited = await updatePatient(services.em(), p.coordinator, v.patientId, { familyName: 'Ashdown-Vale' });
+    expect(edited).toMatchObject({ familyName: 'Ashdown-Vale', recallContact: false, recallChannel: 'none' });
+  });
+
+  it('a record unsubscribed before the fix (consent off, channel still e-mail) can be edited and is repaired', async () => {
+    const { p, v } = await invited();
+    await knex()('patient').where({ id: v.patientId }).update({ recall_contact: false, recall_channel: 'email' });
+    const edited = await updatePatient(services.em(), p.coordinator, v.patientId, { givenName: 'Wrenna' });
+    expect(edited).toMatchObject({ givenName: 'Wrenna', recallContact: false, recallChannel: 'none' });
+    expect(await knex()('patient').where({ id: v.patientId }).first('recall_channel')).toEqual({ recall_channel: 'none' });
   });
 
   it('the RFC 8058 one-click POST unsubscribes; a GET only redirects to the page; a bad token is refused', async () => {

@@ -59,7 +59,21 @@ describe('configuration', () => {
 
   it('says which setting is wrong', () => {
     expect(() => parseEnv({ DATABASE_URL: 'not a url' })).toThrow(/DATABASE_URL/);
-    expect(() => parseEnv({ SIGNIN_MAX_PER_ACCOUNT: '-1' })).toThrow(/SIGNIN_MAX_PER_ACCOUNT/);
+    expect(() => parseEnv({ SIGNIN_FREE_PER_ACCOUNT_ADDRESS: '-1' })).toThrow(/SIGNIN_FREE_PER_ACCOUNT_ADDRESS/);
+  });
+
+  it('gathers the sign-in throttle from SIGNIN_*, with the documented defaults', () => {
+    expect(parseEnv({}).signInThrottle).toEqual({
+      freePerAccountAddress: 5,
+      freePerAddress: 20,
+      baseDelaySeconds: 30,
+      maxDelaySeconds: 900,
+      windowSeconds: 3600,
+      linksPerAccount: 5,
+      linksPerAddress: 20,
+      linkWindowSeconds: 3600,
+    });
+    expect(parseEnv({ SIGNIN_BASE_DELAY_SECONDS: '2', SIGNIN_LINKS_PER_ADDRESS: '3' }).signInThrottle).toMatchObject({ baseDelaySeconds: 2, linksPerAddress: 3 });
   });
 
   it('requires a session secret in production', () => {

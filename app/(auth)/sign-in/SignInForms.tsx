@@ -36,6 +36,11 @@ export function SignInForms(props: { callbackUrl: string; initialEmail: string; 
   const onLink = link.handleSubmit(async (values) => {
     setServerError(undefined);
     const res = await signIn('email', { email: values.email, redirect: false, callbackUrl: props.callbackUrl });
+    if (res && (res.status === 422 || res.status === 429 || res.status === 503) && res.error) {
+      // Too many link requests (or Redis away): the server's plain message says what to do.
+      setServerError(res.error);
+      return;
+    }
     if (res?.error && res.error !== 'AccessDenied') {
       setServerError('The link could not be sent just now. Try again in a moment.');
       return;

@@ -4,17 +4,22 @@ import { z } from 'zod';
 import { requireActor } from '@/lib/auth/session';
 import { can } from '@/lib/auth/permissions';
 import { listPatients } from '@/lib/services/patients';
+import { SearchText } from '@/lib/services/registry-common';
+import { Notice } from '@/components/ui/Notice';
 import { Pager } from '@/components/ui/Pager';
 import { EmptyState } from '@/components/ui/EmptyState';
 import { CasesSubnav } from '../../cases/_components/CasesSubnav';
 
 export const metadata: Metadata = { title: 'Patients' };
 
-const Query = z.object({ q: z.string().max(100).optional().catch(undefined), page: z.coerce.number().int().min(1).catch(1).default(1) });
+const Query = z.object({ q: z.string().optional().catch(undefined), page: z.coerce.number().int().min(1).catch(1).default(1) });
 
 export default async function PatientsPage({ searchParams }: { searchParams: Promise<Record<string, string>> }) {
   const { em, actor } = await requireActor('patient.read', '/patients');
-  const q = Query.parse(await searchParams);
+  const raw = Query.parse(await searchParams);
+  // The list's own search rule (control characters, length): a bad search is said, not run.
+  const search = SearchText.safeParse(raw.q);
+  const q = { q: search.success ? search.data : undefined, page: raw.page };
   const data = await listPatients(em, actor, { q: q.q, page: q.page, pageSize: 25 });
   const write = can(actor.roles, 'patient.write');
   const canImport = can(actor.roles, 'case.import');
@@ -41,6 +46,7 @@ export default async function PatientsPage({ searchParams }: { searchParams: Pro
           Search
         </button>
       </form>
+      {!search.success && <Notice tone="alert">The search was not run: {search.error.issues[0]?.message}</Notice>}
       {data.total === 0 ? (
         q.q ? (
           <EmptyState title={`No patient matches “${q.q}”`} action={write ? { href: '/patients/new', label: 'Add this patient' } : undefined}>
