@@ -97,9 +97,12 @@ export const authOptions: NextAuthOptions = {
         const practices = await activePracticeIds(em, user.id);
         token.practiceId = practices.length === 1 ? practices[0] : null;
       } else if (trigger === 'update' && token.sub) {
-        // The practice switcher (components/shell/practice.ts): only a practice the user belongs to.
+        // The practice switcher (components/shell/practice.ts): only a practice the user belongs to,
+        // and only for a session that has not ended.
+        const em = await requestEm();
+        if ((await currentSessionVersion(em, token.sub)) !== token.sv) return token;
         const chosen = await choosePractice(
-          await requestEm(),
+          em,
           token.sub,
           (session as { practiceId?: unknown } | undefined)?.practiceId,
           originFrom(await headers()),
