@@ -30,7 +30,7 @@ export default async function AppLayout({ children }: { children: React.ReactNod
             <Wordmark />
           </Link>
           <AppNav items={items} />
-          <div className="ml-auto flex items-center gap-3">
+          <div className="ml-auto flex flex-wrap items-center justify-end gap-3">
             {practices.length > 1 && <PracticeSwitcher current={actor.practiceId} practices={practices} />}
             <div className="text-right text-sm leading-tight" data-testid="whoami">
               <Link href="/account" className="font-medium">

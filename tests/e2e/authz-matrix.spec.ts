@@ -191,59 +191,65 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
 }
 
 const ids: Partial<Record<PracticeKey, Ids>> = {};
-test.beforeAll(async ({ browser }) => {
-  ids.A = await idsOf(browser, 'A');
-  ids.B = await idsOf(browser, 'B');
-  expect(ids.A.patientId).not.toBe(ids.B.patientId);
-});
 
-const callers: [Who, PracticeKey][] = [['anonymous', 'A'], ...ROLES.map((r) => [r, 'A'] as [Who, PracticeKey]), ...ROLES.map((r) => [r, 'B'] as [Who, PracticeKey])];
+test.describe('route × role × practice', () => {
+  // Eleven sign-ins and about 65 requests each: more than the default 30 s on a busy machine.
+  test.describe.configure({ timeout: 120_000 });
+  test.beforeAll(async ({ browser }) => {
+    test.setTimeout(120_000);
+    ids.A = await idsOf(browser, 'A');
+    ids.B = await idsOf(browser, 'B');
+    expect(ids.A.patientId).not.toBe(ids.B.patientId);
+  });
 
-for (const [who, practice] of callers) {
-  test(`route statuses as ${who === 'anonymous' ? who : `${who} of practice ${practice}`}`, async ({ browser }) => {
-    const { request, close } = await contextFor(browser, who, practice);
-    const own = ids[practice]!;
-    const other = ids[practice === 'A' ? 'B' : 'A']!;
-    try {
-      const seen: string[] = [];
-      const wanted: string[] = [];
-      for (const [kind, rows] of [['', MATRIX], ['cross-practice ', CROSS]] as const) {
-        for (const row of rows) {
-          const res = await request.fetch(row.url(own, other), {
-            method: row.method,
-            data: row.body,
-            headers: row.body ? { 'Content-Type': 'application/json' } : undefined,
-            maxRedirects: 0,
-          });
-          seen.push(`${kind}${row.method} ${row.url(own, other)} → ${res.status()}`);
-          wanted.push(`${kind}${row.method} ${row.url(own, other)} → ${row.expect[who]}`);
-          if (res.status() === 401 || res.status() === 403) {
-            expect(res.headers()['content-type']).toContain('application/json');
+  const callers: [Who, PracticeKey][] = [['anonymous', 'A'], ...ROLES.map((r) => [r, 'A'] as [Who, PracticeKey]), ...ROLES.map((r) => [r, 'B'] as [Who, PracticeKey])];
+
+  for (const [who, practice] of callers) {
+    test(`route statuses as ${who === 'anonymous' ? who : `${who} of practice ${practice}`}`, async ({ browser }) => {
+      const { request, close } = await contextFor(browser, who, practice);
+      const own = ids[practice]!;
+      const other = ids[practice === 'A' ? 'B' : 'A']!;
+      try {
+        const seen: string[] = [];
+        const wanted: string[] = [];
+        for (const [kind, rows] of [['', MATRIX], ['cross-practice ', CROSS]] as const) {
+          for (const row of rows) {
+            const res = await request.fetch(row.url(own, other), {
+              method: row.method,
+              data: row.body,
+              headers: row.body ? { 'Content-Type': 'application/json' } : undefined,
+              maxRedirects: 0,
+            });
+            seen.push(`${kind}${row.method} ${row.url(own, other)} → ${res.status()}`);
+            wanted.push(`${kind}${row.method} ${row.url(own, other)} → ${row.expect[who]}`);
+            if (res.status() === 401 || res.status() === 403) {
+              expect(res.headers()['content-type']).toContain('application/json');
+            }
           }
         }
+        expect(seen).toEqual(wanted);
+      } finally {
+        await close();
       }
-      expect(seen).toEqual(wanted);
-    } finally {
-      await close();
+    });
+  }
+
+  test('an administrator changing or deactivating themselves gets 403 with a reason, in either practice (issue 9, item 2)', async ({ browser }) => {
+    for (const practice of ['A', 'B'] as const) {
+      const { request, close } = await contextFor(browser, 'admin', practice);
+      try {
+        const self = ids[practice]!.adminId;
+        const patch = await request.patch(`/api/team/members/${self}`, { data: { roles: ['admin', 'clinician'] } });
+        expect(patch.status()).toBe(403);
+        expect((await patch.json()).message).toMatch(/cannot change the roles of yourself.*another administrator/i);
+        const del = await request.delete(`/api/team/members/${self}`);
+        expect(del.status()).toBe(403);
+        expect((await del.json()).message).toMatch(/cannot deactivate yourself/i);
+        const members = (await (await request.get('/api/team/members')).json()).members as { userId: string; roles: string[] }[];
+        expect(members.find((m) => m.userId === self)?.roles).toEqual(['admin']);
+      } finally {
+        await close();
+      }
     }
   });
-}
-
-test('an administrator changing or deactivating themselves gets 403 with a reason, in either practice (issue 9, item 2)', async ({ browser }) => {
-  for (const practice of ['A', 'B'] as const) {
-    const { request, close } = await contextFor(browser, 'admin', practice);
-    try {
-      const self = ids[practice]!.adminId;
-      const patch = await request.patch(`/api/team/members/${self}`, { data: { roles: ['admin', 'clinician'] } });
-      expect(patch.status()).toBe(403);
-      expect((await patch.json()).message).toMatch(/cannot change the roles of yourself.*another administrator/i);
-      const del = await request.delete(`/api/team/members/${self}`);
-      expect(del.status()).toBe(403);
-      expect((await del.json()).message).toMatch(/cannot deactivate yourself/i);
-      const members = (await (await request.get('/api/team/members')).json()).members as { userId: string; roles: string[] }[];
-      expect(members.find((m) => m.userId === self)?.roles).toEqual(['admin']);
-    } finally {
-      await close();
-    }
-  }
 });

@@ -8,6 +8,9 @@ import { DEMO_PRACTICE, DEMO_PRACTICE_B } from '../../lib/demo/people';
  * name), signing out ends the session, deactivated members lose their session.
  */
 
+// Each test signs several people in and waits for e-mails: more than the default 30 s on a busy machine.
+test.describe.configure({ timeout: 90_000 });
+
 async function signInTo(page: Page, email: string, password = DEMO_PASSWORD) {
   await page.goto('/sign-in');
   await page.getByLabel('E-mail', { exact: true }).fill(email);
