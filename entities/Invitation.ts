@@ -3,7 +3,10 @@ import { randomUUID } from 'node:crypto';
 import { PracticeSchema } from './Practice';
 import { UserSchema } from './User';
 
-/** An e-mailed invitation to join a practice. Only a hash of its token is stored. */
+/**
+ * An e-mailed invitation to join a practice with the given roles. Only a hash of its token is
+ * stored. The roles become memberships only when the person accepts.
+ */
 export const InvitationSchema = defineEntity({
   name: 'Invitation',
   tableName: 'invitation',
@@ -17,6 +20,8 @@ export const InvitationSchema = defineEntity({
     createdAt: p.datetime().onCreate(() => new Date()),
     expiresAt: p.datetime(),
     acceptedAt: p.datetime().nullable(),
+    /** Withdrawn by an administrator before it was accepted. */
+    revokedAt: p.datetime().nullable(),
   },
 });
 

@@ -6,7 +6,8 @@ import { UserSchema } from './User';
 
 /**
  * One role held by one user in one practice. A user may hold several roles.
- * Revoking sets `revokedAt`; the row stays so the audit trail can name it.
+ * Created when the person accepts an invitation. Revoking sets `revokedAt`; the row stays so the
+ * audit trail can name it.
  */
 export const MembershipSchema = defineEntity({
   name: 'Membership',
@@ -18,6 +19,8 @@ export const MembershipSchema = defineEntity({
     role: p.enum([...ROLES]),
     grantedAt: p.datetime().onCreate(() => new Date()),
     revokedAt: p.datetime().nullable(),
+    /** Set when the member was deactivated (every role revoked at once); cleared when they rejoin. */
+    deactivatedAt: p.datetime().nullable(),
   },
   uniques: [{ properties: ['user', 'practice', 'role'] }],
 });

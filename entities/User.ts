@@ -15,6 +15,8 @@ export const UserSchema = defineEntity({
     emailVerified: p.datetime().nullable(),
     createdAt: p.datetime().onCreate(() => new Date()),
     lastSignInAt: p.datetime().nullable(),
+    /** Carried in the session token and compared on every request; raising it ends every session. */
+    sessionVersion: p.integer().default(0),
   },
 });
 

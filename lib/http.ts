@@ -40,7 +40,10 @@ export function handler<P = Record<string, string>>(
         crossSiteRefusal(req.method, req.headers, originOf(env.APP_URL)) ??
         bodyTypeRefusal(req.method, req.headers, options.accept ?? JSON_ONLY);
       if (refusal) return json({ error: refusal.error, message: refusal.message }, refusal.status);
-      const { em, actor } = await getRequestContext();
+      const { em, actor, mustChoosePractice } = await getRequestContext();
+      if (!actor && mustChoosePractice) {
+        return json({ error: 'practice_not_chosen', message: 'Choose the practice you are working in first.' }, 409);
+      }
       if (!actor) return json({ error: 'not_signed_in', message: 'Sign in to continue.' }, 401);
       if (!can(actor.roles, permission)) {
         return json({ error: 'forbidden', message: 'Your role does not allow this.' }, 403);

@@ -30,6 +30,8 @@ try {
   );
   console.log('demo sign-ins (password for all: ' + DEMO_PASSWORD + '):');
   for (const u of result.users) console.log(`  ${u.role.padEnd(12)} ${u.email}`);
+  console.log(`second practice: ${result.second.practiceName} (${result.second.cases} cases); its sign-ins:`);
+  for (const u of result.second.users) console.log(`  ${u.role.padEnd(12)} ${u.email}`);
 } finally {
   await orm.close(true);
 }

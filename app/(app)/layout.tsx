@@ -6,6 +6,7 @@ import { env } from '@/lib/env';
 import { navFor } from '@/components/shell/nav';
 import { AppNav } from '@/components/shell/AppNav';
 import { SignOutButton } from '@/components/shell/SignOutButton';
+import { PracticeSwitcher } from '@/components/shell/PracticeSwitcher';
 import { Wordmark } from '@/components/ui/LaminaMark';
 import { Providers } from '@/components/Providers';
 
@@ -14,7 +15,7 @@ export const dynamic = 'force-dynamic';
 export default async function AppLayout({ children }: { children: React.ReactNode }) {
   // Each page asks for its own permission and redirects to sign-in with its own return path;
   // signed out, the layout draws no chrome.
-  const { actor } = await getRequestContext();
+  const { actor, practices } = await getRequestContext();
   if (!actor) return <>{children}</>;
   const items = navFor(actor.roles).map(({ href, label, match }) => ({ href, label, match }));
   if (env.localMail && can(actor.roles, 'mailbox.read')) items.push({ href: '/dev-mailbox', label: 'Dev mailbox', match: undefined });
@@ -29,9 +30,12 @@ export default async function AppLayout({ children }: { children: React.ReactNod
             <Wordmark />
           </Link>
           <AppNav items={items} />
-          <div className="ml-auto flex items-center gap-3">
+          <div className="ml-auto flex flex-wrap items-center justify-end gap-3">
+            {practices.length > 1 && <PracticeSwitcher current={actor.practiceId} practices={practices} />}
             <div className="text-right text-sm leading-tight" data-testid="whoami">
-              <div className="font-medium">{actor.name ?? actor.email}</div>
+              <Link href="/account" className="font-medium">
+                {actor.name ?? actor.email}
+              </Link>
               <div className="text-ink-500">
                 {actor.practiceName} · {actor.roles.map((r) => ROLE_LABELS[r]).join(', ')}
               </div>

@@ -8,18 +8,20 @@ import { redisReady } from '@/lib/redis';
 import { sendMail } from '@/lib/mail/mailer';
 import { SignInLinkEmail } from '@/lib/mail/templates/SignInLinkEmail';
 import { SignInInput } from '@/lib/schemas/auth';
-import { firstPracticeId, verifyCredentials } from '@/lib/services/auth';
-import { audit } from '@/lib/services/audit';
+import { activePracticeIds, auditInPractices, choosePractice, currentSessionVersion, endSessions, verifyCredentials } from '@/lib/services/auth';
 import { ServiceError } from '@/lib/services/errors';
 import { UserSchema } from '@/entities';
 import { laminaAdapter } from './adapter';
 import { originFrom } from './origin';
 import { safeReturnPath } from '@/lib/security/return-path';
+import { headers } from 'next/headers';
 
 /**
  * next-auth configuration: e-mail + password, and an e-mailed sign-in link through the same
- * mailer. Sessions are JWTs carrying only the user id; roles are read from the database on
- * every request (lib/auth/session.ts), so a revoked role stops working at once.
+ * mailer. Sessions are JWTs carrying the user id, the user's session version and the practice
+ * chosen for the session; roles are read from the database on every request and the version is
+ * compared there (lib/services/auth.ts resolveSession), so a revoked role or an ended session
+ * stops working at once.
  */
 export const authOptions: NextAuthOptions = {
   secret: env.NEXTAUTH_SECRET,
@@ -78,7 +80,7 @@ export const authOptions: NextAuthOptions = {
       if (account?.provider !== 'email') return true;
       const em = await requestEm();
       const known = await em.findOne(UserSchema, { email: (user.email ?? '').toLowerCase() });
-      if (!known || !(await firstPracticeId(em, known.id))) {
+      if (!known || (await activePracticeIds(em, known.id)).length === 0) {
         // Say nothing about whether the address exists: the page shows the same message either way.
         return `${env.APP_URL}${email?.verificationRequest ? '/sign-in/check-email' : '/sign-in?error=AccessDenied'}`;
       }
@@ -89,12 +91,32 @@ export const authOptions: NextAuthOptions = {
       if (url.startsWith(`${baseUrl}/`)) return `${baseUrl}${safeReturnPath(url.slice(baseUrl.length))}`;
       return `${baseUrl}${safeReturnPath(url)}`;
     },
-    async jwt({ token, user }) {
-      if (user) token.sub = user.id;
+    async jwt({ token, user, trigger, session }) {
+      if (user) {
+        // A new session: it carries the user's current version; with exactly one practice that
+        // practice is the session's, with several the person chooses (nothing picks by name).
+        const em = await requestEm();
+        token.sub = user.id;
+        token.sv = await currentSessionVersion(em, user.id);
+        const practices = await activePracticeIds(em, user.id);
+        token.practiceId = practices.length === 1 ? practices[0] : null;
+      } else if (trigger === 'update' && token.sub) {
+        // The practice switcher (components/shell/practice.ts): only a practice the user belongs to,
+        // and only for a session that has not ended.
+        const em = await requestEm();
+        if ((await currentSessionVersion(em, token.sub)) !== token.sv) return token;
+        const chosen = await choosePractice(
+          em,
+          token.sub,
+          (session as { practiceId?: unknown } | undefined)?.practiceId,
+          originFrom(await headers()),
+        );
+        if (chosen) token.practiceId = chosen;
+      }
       return token;
     },
     async session({ session, token }) {
-      return { ...session, userId: token.sub };
+      return { ...session, userId: token.sub, sv: token.sv, practiceId: token.practiceId ?? null };
     },
   },
   events: {
@@ -104,12 +126,20 @@ export const authOptions: NextAuthOptions = {
       const u = await em.findOne(UserSchema, { id: user.id });
       if (!u) return;
       u.lastSignInAt = new Date();
-      await audit(
+      await auditInPractices(
         em,
-        null,
+        await activePracticeIds(em, u.id),
         { action: 'auth.sign_in', entityType: 'user', entityId: u.id, detail: { method: 'link' } },
-        { actorId: u.id, actorEmail: u.email, practiceId: await firstPracticeId(em, u.id) },
+        { actorId: u.id, actorEmail: u.email },
       );
+    },
+    /** Signing out ends the session for good: the version the old cookie carries no longer matches. */
+    async signOut({ token }) {
+      if (!token?.sub) return;
+      const em = await requestEm();
+      // Already ended (password changed, "sign out everywhere"): nothing more to end.
+      if ((await currentSessionVersion(em, token.sub)) !== token.sv) return;
+      await endSessions(em, token.sub, 'sign_out', { origin: originFrom(await headers()) });
     },
   },
 };

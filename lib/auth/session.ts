@@ -1,38 +1,53 @@
 import 'server-only';
 import { cache } from 'react';
 import { getServerSession } from 'next-auth';
-import { cookies, headers } from 'next/headers';
+import { headers } from 'next/headers';
 import { forbidden, redirect } from 'next/navigation';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { requestEm } from '@/lib/db';
-import { loadActor } from '@/lib/services/auth';
+import { resolveSession, type PracticeChoice } from '@/lib/services/auth';
 import { authOptions } from './options';
 import { can, type Permission } from './permissions';
 import type { Actor } from './actor';
 import { originFrom } from './origin';
 
-export const PRACTICE_COOKIE = 'lamina-practice';
+export interface RequestContext {
+  em: EntityManager;
+  actor: Actor | null;
+  /** The signed-in user (with a current session), also before they chose a practice. */
+  userId: string | null;
+  /** The practices the signed-in user may act in (for the switcher); empty when signed out. */
+  practices: PracticeChoice[];
+  /** Signed in, in several practices, and none chosen for this session yet. */
+  mustChoosePractice: boolean;
+}
 
 /**
  * The request's EntityManager fork and acting user, loaded once per request (React cache)
- * and shared by the layout, the page and its components.
+ * and shared by the layout, the page and its components. The session's version and chosen
+ * practice are checked against the database here, on every request.
  */
-export const getRequestContext = cache(async (): Promise<{ em: EntityManager; actor: Actor | null }> => {
+export const getRequestContext = cache(async (): Promise<RequestContext> => {
   const em = await requestEm();
-  const session = await getServerSession(authOptions);
-  const userId = (session as { userId?: string } | null)?.userId;
-  if (!userId) return { em, actor: null };
-  const [h, c] = await Promise.all([headers(), cookies()]);
-  const actor = await loadActor(em, userId, originFrom(h), c.get(PRACTICE_COOKIE)?.value ?? null);
-  return { em, actor };
+  const session = (await getServerSession(authOptions)) as { userId?: string; sv?: number; practiceId?: string | null } | null;
+  if (!session?.userId) return { em, actor: null, userId: null, practices: [], mustChoosePractice: false };
+  const s = await resolveSession(em, session.userId, originFrom(await headers()), {
+    sessionVersion: session.sv,
+    practiceId: session.practiceId,
+  });
+  if (s.kind === 'actor') return { em, actor: s.actor, userId: s.actor.userId, practices: s.practices, mustChoosePractice: false };
+  if (s.kind === 'choose_practice') return { em, actor: null, userId: s.userId, practices: s.practices, mustChoosePractice: true };
+  return { em, actor: null, userId: null, practices: [], mustChoosePractice: false };
 });
 
 /**
- * For pages and server actions: a signed-in actor, or a redirect to sign-in; with a
+ * For pages and server actions: a signed-in actor, or a redirect to sign-in (or to the practice
+ * choice when the person belongs to several and has not chosen); with a
  * permission, Next's 403 page when the actor's roles do not grant it.
  */
 export async function requireActor(permission?: Permission, returnTo = '/'): Promise<{ em: EntityManager; actor: Actor }> {
-  const { em, actor } = await getRequestContext();
+  const { em, actor, mustChoosePractice } = await getRequestContext();
+  if (!actor && mustChoosePractice) redirect(`/choose-practice?callbackUrl=${encodeURIComponent(returnTo)}`);
   if (!actor) redirect(`/sign-in?callbackUrl=${encodeURIComponent(returnTo)}`);
   if (permission && !can(actor.roles, permission)) forbidden();
   return { em, actor };

@@ -15,3 +15,20 @@ export const DEMO_USERS: { email: string; name: string; roles: Role[] }[] = [
 ];
 
 export const demoUser = (role: Role) => DEMO_USERS.find((u) => u.roles.includes(role))!;
+
+/**
+ * A second invented practice, with its own administrator and one person per role, so that
+ * isolation between practices can be tried (and is tested: tests/e2e/authz-matrix.spec.ts).
+ */
+export const DEMO_PRACTICE_B = { slug: 'fernhollow-endo', name: 'Fernhollow Root Canal Clinic, Marrow Point' };
+export const DEMO_USERS_B: { email: string; name: string; roles: Role[] }[] = [
+  { email: 'admin@fernhollow-demo.invalid', name: 'Bertil Amsward', roles: ['admin'] },
+  { email: 'coordinator@fernhollow-demo.invalid', name: 'Noor Vasselby', roles: ['coordinator'] },
+  { email: 'clinician@fernhollow-demo.invalid', name: 'Odile Kerrowan', roles: ['clinician'] },
+  { email: 'lead@fernhollow-demo.invalid', name: 'Tobin Quarles', roles: ['auditor'] },
+  { email: 'researcher@fernhollow-demo.invalid', name: 'Ilse Marchbank', roles: ['researcher'] },
+];
+export const demoUserB = (role: Role) => DEMO_USERS_B.find((u) => u.roles.includes(role))!;
+
+/** A clinician who works in both demo practices and chooses one per session (the practice switcher). */
+export const DEMO_LOCUM = { email: 'locum@lamina-demo.invalid', name: 'Esko Harrowgate', roles: ['clinician'] as Role[] };

@@ -20,9 +20,9 @@ import { bulkInsert, todayIn } from '../services/registry-common';
 import { computeOutcome } from '../services/reviews';
 import { visitSummary } from '../services/visits';
 import { DEMO_EXTRA_CLINICIANS, generateDemoWorld, type DemoReview, type DemoWorld } from './cases';
-import { DEMO_PASSWORD, DEMO_PRACTICE, DEMO_USERS } from './people';
+import { DEMO_LOCUM, DEMO_PASSWORD, DEMO_PRACTICE, DEMO_PRACTICE_B, DEMO_USERS, DEMO_USERS_B } from './people';
 
-export { DEMO_PASSWORD, DEMO_PRACTICE, DEMO_USERS };
+export { DEMO_LOCUM, DEMO_PASSWORD, DEMO_PRACTICE, DEMO_PRACTICE_B, DEMO_USERS, DEMO_USERS_B };
 
 /** Everyone who can sign in to the demo practice: one user per role, and the three extra clinicians. */
 export const DEMO_STAFF = [...DEMO_USERS, ...DEMO_EXTRA_CLINICIANS.filter((c) => !DEMO_USERS.some((u) => u.email === c.email))];
@@ -34,27 +34,71 @@ export interface SeedResult {
   users: { email: string; role: string }[];
   /** The registry world: written on the first run only (a practice that has cases is left alone). */
   registry: { seeded: boolean; patients: number; cases: number; visits: number; reviews: number; visitsByStatus: Record<string, number> };
+  /** The second practice (its own people and a small registry), and the locum who works in both. */
+  second: { practiceName: string; users: { email: string; role: string }[]; cases: number };
 }
+
+type Staff = { email: string; name: string; roles: readonly string[] };
 
 /**
  * Creates what is missing of the demo practice, its users and its invented registry
  * (lib/demo/cases.ts: ≥600 completed cases over four years, visits in every status, reviews
- * whose outcomes the scoring rules compute). Never duplicates: a second run adds nothing.
- * Bulk inserts in one transaction.
+ * whose outcomes the scoring rules compute), then the same for a small second practice; the
+ * locum clinician belongs to both. Never duplicates: a second run adds nothing. Bulk inserts
+ * in one transaction.
  */
 export async function seedDemo(em: EntityManager): Promise<SeedResult> {
+  const hash = await hashPassword(DEMO_PASSWORD);
+  const a = await seedPractice(em, DEMO_PRACTICE, [...DEMO_STAFF, DEMO_LOCUM], hash);
+  const registry: SeedResult['registry'] = { seeded: false, patients: 0, cases: 0, visits: 0, reviews: 0, visitsByStatus: {} };
+  const practice = a.practice;
+  if ((await em.count(TreatmentCaseSchema, { practice: practice.id })) === 0) {
+    const world = generateDemoWorld({ today: todayIn(practice.timeZone) });
+    practice.recallPolicy = world.practice.recallPolicy;
+    await em.flush();
+    Object.assign(registry, await persistWorld(em, practice.id, world, a.userIds), { seeded: true });
+  } else {
+    registry.patients = await em.count(PatientSchema, { practice: practice.id });
+    registry.cases = await em.count(TreatmentCaseSchema, { practice: practice.id });
+    registry.visits = await em.count(RecallVisitSchema, { practice: practice.id });
+    registry.reviews = await em.count(ReviewSchema, { practice: practice.id });
+  }
+
+  const b = await seedPractice(em, DEMO_PRACTICE_B, [...DEMO_USERS_B, DEMO_LOCUM], hash);
+  if ((await em.count(TreatmentCaseSchema, { practice: b.practice.id })) === 0) {
+    const world = generateDemoWorld({ today: todayIn(b.practice.timeZone), seed: 20261202, patients: 12, cases: 16 });
+    b.practice.recallPolicy = world.practice.recallPolicy;
+    await em.flush();
+    // The generated world names the first practice's clinicians: the second practice's clinician
+    // and the locum treat its cases instead.
+    const clinicians = [b.userIds.get(demoClinicianB())!, b.userIds.get(DEMO_LOCUM.email)!];
+    const ids = new Map(world.staff.map((s, i) => [s.email, clinicians[i % clinicians.length]!]));
+    await persistWorld(em, b.practice.id, world, ids);
+  }
+  return {
+    practiceName: practice.name,
+    created: a.created,
+    practiceId: practice.id,
+    users: a.users,
+    registry,
+    second: { practiceName: b.practice.name, users: b.users, cases: await em.count(TreatmentCaseSchema, { practice: b.practice.id }) },
+  };
+}
+
+const demoClinicianB = () => DEMO_USERS_B.find((u) => u.roles.includes('clinician'))!.email;
+
+/** The practice and its people (accepted members), created when missing. */
+async function seedPractice(em: EntityManager, def: { slug: string; name: string }, people: readonly Staff[], hash: string) {
   let created = false;
-  let practice = await em.findOne(PracticeSchema, { slug: DEMO_PRACTICE.slug });
+  let practice = await em.findOne(PracticeSchema, { slug: def.slug });
   if (!practice) {
-    practice = em.create(PracticeSchema, { ...DEMO_PRACTICE } as never) as Practice;
+    practice = em.create(PracticeSchema, { ...def } as never) as Practice;
     created = true;
   }
-  const existing = await em.find(UserSchema, { email: { $in: DEMO_STAFF.map((u) => u.email) } });
-  const missing = DEMO_STAFF.filter((u) => !existing.some((e) => e.email === u.email));
-  const hash = missing.length ? await hashPassword(DEMO_PASSWORD) : '';
+  const existing = await em.find(UserSchema, { email: { $in: people.map((u) => u.email) } });
   const memberships = created ? [] : await em.find(MembershipSchema, { practice: practice.id });
   const users: { email: string; role: string }[] = [];
-  const staff = DEMO_STAFF.map((u) => {
+  const staff = people.map((u) => {
     const found = existing.find((e) => e.email === u.email);
     const user = found ?? (em.create(UserSchema, { email: u.email, name: u.name, passwordHash: hash, emailVerified: new Date() } as never) as typeof existing[number]);
     for (const role of u.roles) {
@@ -66,21 +110,7 @@ export async function seedDemo(em: EntityManager): Promise<SeedResult> {
     return { email: u.email, user };
   });
   await em.flush();
-  const userIds = new Map(staff.map((s) => [s.email, s.user.id]));
-
-  const registry: SeedResult['registry'] = { seeded: false, patients: 0, cases: 0, visits: 0, reviews: 0, visitsByStatus: {} };
-  if ((await em.count(TreatmentCaseSchema, { practice: practice.id })) === 0) {
-    const world = generateDemoWorld({ today: todayIn(practice.timeZone) });
-    practice.recallPolicy = world.practice.recallPolicy;
-    await em.flush();
-    Object.assign(registry, await persistWorld(em, practice.id, world, userIds), { seeded: true });
-  } else {
-    registry.patients = await em.count(PatientSchema, { practice: practice.id });
-    registry.cases = await em.count(TreatmentCaseSchema, { practice: practice.id });
-    registry.visits = await em.count(RecallVisitSchema, { practice: practice.id });
-    registry.reviews = await em.count(ReviewSchema, { practice: practice.id });
-  }
-  return { practiceName: practice.name, created, practiceId: practice.id, users, registry };
+  return { practice, created, users, userIds: new Map(staff.map((s) => [s.email, s.user.id])) };
 }
 
 const SIGNS: readonly ReviewSign[] = ['painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain', 'swelling', 'sinusTract', 'mobility'];

@@ -29,7 +29,9 @@ export const InviteInput = z.object({
   roles: RoleList.min(1, 'Choose at least one role.'),
 });
 
-export const SetRolesInput = z.object({ roles: RoleList });
+export const SetRolesInput = z.object({
+  roles: RoleList.min(1, 'Choose at least one role. To remove someone from the practice, deactivate them.'),
+});
 
 export const AcceptInvitationInput = z
   .object({
@@ -39,3 +41,12 @@ export const AcceptInvitationInput = z
     confirm: z.string(),
   })
   .refine((v) => v.password === v.confirm, { path: ['confirm'], message: 'The two passwords differ.' });
+
+export const ChangePasswordInput = z
+  .object({
+    current: z.string().min(1, 'Enter your current password.').max(200),
+    password: NewPassword,
+    confirm: z.string(),
+  })
+  .refine((v) => v.password === v.confirm, { path: ['confirm'], message: 'The two passwords differ.' })
+  .refine((v) => v.password !== v.current, { path: ['password'], message: 'Choose a password different from the current one.' });

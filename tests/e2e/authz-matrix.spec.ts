@@ -3,19 +3,33 @@ import { readdirSync, statSync } from 'node:fs';
 import path from 'node:path';
 import { randomUUID } from 'node:crypto';
 import { ROLES, type Role } from '../../lib/auth/roles';
-import { signInAs } from './support';
+import { demoUser, demoUserB, signInAs } from './support';
 
 /**
- * Every route handler, called as an anonymous visitor and as each role, with the status each
- * must answer. A route file without a row here fails the first test, so no route can be added
- * without saying who may call it. Requests are chosen so that an allowed caller changes
- * nothing (an invalid body answers 422, an unknown id 404).
+ * Every route handler, called as an anonymous visitor and as each role of two practices (the
+ * demo practice A and the second demo practice B, each with its own administrator and people),
+ * with the status each must answer. A route file without a row here fails the first test, and
+ * a route that takes an id without a cross-practice row (CROSS) fails the second, so no route
+ * can be added without saying who may call it and proving another practice's ids get nothing.
+ * Requests are chosen so that an allowed caller changes nothing (an invalid body answers 422,
+ * an unknown id 404, another practice's id 404).
  */
 type Who = 'anonymous' | Role;
+type PracticeKey = 'A' | 'B';
+/** Real ids of one practice, read through the API by its own people before the matrix runs. */
+interface Ids {
+  adminId: string;
+  coordinatorId: string;
+  patientId: string;
+  caseId: string;
+  visitId: string;
+  invitationId: string;
+}
 interface Row {
   route: string; // the route file's path under app/, e.g. 'api/team/members'
   method: 'GET' | 'POST' | 'PATCH' | 'PUT' | 'DELETE';
-  url: () => string;
+  /** own: ids of the caller's practice; other: ids of the other practice. */
+  url: (own: Ids, other: Ids) => string;
   body?: unknown;
   expect: Record<Who, number>;
 }
@@ -37,7 +51,15 @@ const MATRIX: Row[] = [
   { route: 'api/auth/[...nextauth]', method: 'GET', url: () => '/api/auth/providers', expect: everyone(200) },
   { route: 'api/team/members', method: 'GET', url: () => '/api/team/members', expect: only({ admin: 200 }) },
   { route: 'api/team/members/[userId]', method: 'PATCH', url: () => `/api/team/members/${randomUUID()}`, body: { roles: ['clinician'] }, expect: only({ admin: 404 }) },
+  { route: 'api/team/members/[userId]', method: 'DELETE', url: () => `/api/team/members/${randomUUID()}`, expect: only({ admin: 404 }) },
+  // Nobody grants roles to themselves or deactivates themselves (issue 9, item 2): the practice's
+  // administrator calling with their own id gets 403 with a reason (see the test below).
+  { route: 'api/team/members/[userId]', method: 'PATCH', url: (own) => `/api/team/members/${own.adminId}`, body: { roles: ['admin', 'clinician', 'coordinator'] }, expect: only({}) },
+  { route: 'api/team/members/[userId]', method: 'DELETE', url: (own) => `/api/team/members/${own.adminId}`, expect: only({}) },
+  { route: 'api/team/invitations', method: 'GET', url: () => '/api/team/invitations', expect: only({ admin: 200 }) },
   { route: 'api/team/invitations', method: 'POST', url: () => '/api/team/invitations', body: { email: 'not-an-address' }, expect: only({ admin: 422 }) },
+  { route: 'api/team/invitations/[id]', method: 'DELETE', url: () => `/api/team/invitations/${randomUUID()}`, expect: only({ admin: 404 }) },
+  { route: 'api/team/invitations/[id]/resend', method: 'POST', url: () => `/api/team/invitations/${randomUUID()}/resend`, expect: only({ admin: 404 }) },
   { route: 'api/audit', method: 'GET', url: () => '/api/audit?page=1', expect: only({ admin: 200 }) },
   { route: 'api/dev-mailbox', method: 'GET', url: () => '/api/dev-mailbox', expect: only({ admin: 200 }) },
   // Registry (issue 4): readers of patient data are the coordinator, the clinicians and the practice lead.
@@ -80,6 +102,32 @@ const MATRIX: Row[] = [
   { route: 'u/[token]', method: 'GET', url: () => '/u/not-a-token', expect: everyone(200) },
 ];
 
+/**
+ * The other practice's real ids on every route that takes an id: whoever may call the route
+ * gets 404 (as for an id that does not exist), everyone else 403, and nothing is read or changed.
+ */
+const CROSS: Row[] = [
+  { route: 'api/team/members/[userId]', method: 'PATCH', url: (_, o) => `/api/team/members/${o.coordinatorId}`, body: { roles: ['admin'] }, expect: only({ admin: 404 }) },
+  { route: 'api/team/members/[userId]', method: 'DELETE', url: (_, o) => `/api/team/members/${o.coordinatorId}`, expect: only({ admin: 404 }) },
+  { route: 'api/team/invitations/[id]', method: 'DELETE', url: (_, o) => `/api/team/invitations/${o.invitationId}`, expect: only({ admin: 404 }) },
+  { route: 'api/team/invitations/[id]/resend', method: 'POST', url: (_, o) => `/api/team/invitations/${o.invitationId}/resend`, expect: only({ admin: 404 }) },
+  { route: 'api/patients/[id]', method: 'GET', url: (_, o) => `/api/patients/${o.patientId}`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/patients/[id]', method: 'PATCH', url: (_, o) => `/api/patients/${o.patientId}`, body: { phone: '01632 960001' }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/patients/[id]', method: 'DELETE', url: (_, o) => `/api/patients/${o.patientId}`, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/cases/[id]', method: 'GET', url: (_, o) => `/api/cases/${o.caseId}`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/cases/[id]', method: 'PATCH', url: (_, o) => `/api/cases/${o.caseId}`, body: { sealerClass: 'epoxy_resin' }, expect: only({ clinician: 404 }) },
+  { route: 'api/cases/[id]', method: 'DELETE', url: (_, o) => `/api/cases/${o.caseId}`, expect: only({ clinician: 404 }) },
+  { route: 'api/cases/[id]/visits', method: 'GET', url: (_, o) => `/api/cases/${o.caseId}/visits`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/cases/[id]/reviews', method: 'GET', url: (_, o) => `/api/cases/${o.caseId}/reviews`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/cases/[id]/reviews', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/reviews`, body: { toothStatus: 'present' }, expect: only({ clinician: 404 }) },
+  { route: 'api/visits/[id]', method: 'PATCH', url: (_, o) => `/api/visits/${o.visitId}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
+  { route: 'api/recall/visits/[id]/contact-log', method: 'GET', url: (_, o) => `/api/recall/visits/${o.visitId}/contact-log`, expect: only({ coordinator: 404 }) },
+  { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },
+];
+
+/** Routes whose id is a signed token (the credential itself), not a record of a practice. */
+const NOT_PRACTICE_IDS = new Set(['api/auth/[...nextauth]', 'api/unsubscribe/[token]', 'r/[token]', 'u/[token]']);
+
 function routeFiles(dir: string, base = dir): string[] {
   return readdirSync(dir).flatMap((name) => {
     const full = path.join(dir, name);
@@ -88,45 +136,125 @@ function routeFiles(dir: string, base = dir): string[] {
   });
 }
 
+const appRoutes = () => routeFiles(path.resolve(import.meta.dirname, '../../app')).map((r) => r.replace(/\([^)]+\)\//g, ''));
+
 test('every route handler has a row in the matrix', () => {
-  const app = path.resolve(import.meta.dirname, '../../app');
-  const routes = routeFiles(app).map((r) => r.replace(/\([^)]+\)\//g, ''));
   const covered = new Set(MATRIX.map((r) => r.route));
-  expect(routes.filter((r) => !covered.has(r)), 'routes without a row').toEqual([]);
+  expect(appRoutes().filter((r) => !covered.has(r)), 'routes without a row').toEqual([]);
 });
 
-async function contextFor(browser: Browser, who: Who): Promise<{ request: APIRequestContext; close: () => Promise<void> }> {
-  const context = await browser.newContext();
-  if (who !== 'anonymous') await signInAs(await context.newPage(), who);
+test('every route that takes an id has a cross-practice row', () => {
+  const covered = new Set(CROSS.map((r) => r.route));
+  const idRoutes = appRoutes().filter((r) => r.includes('[') && !NOT_PRACTICE_IDS.has(r));
+  expect(idRoutes.filter((r) => !covered.has(r)), 'id-taking routes without a cross-practice row').toEqual([]);
+});
+
+async function contextFor(browser: Browser, who: Who, practice: PracticeKey): Promise<{ request: APIRequestContext; close: () => Promise<void> }> {
+  // Writes carry the Origin a browser sends from Lamina's own pages (lib/http.ts refuses others).
+  const context = await browser.newContext({ extraHTTPHeaders: { Origin: new URL(process.env.E2E_BASE_URL ?? 'http://127.0.0.1:3000').origin } });
+  if (who !== 'anonymous') await signInAs(await context.newPage(), who, practice);
   return { request: context.request, close: () => context.close() };
 }
 
-for (const who of ['anonymous', ...ROLES] as Who[]) {
-  test(`route statuses as ${who}`, async ({ browser, baseURL }) => {
-    const { request, close } = await contextFor(browser, who);
-    try {
-      const seen: string[] = [];
-      const wanted: string[] = [];
-      for (const row of MATRIX) {
-        const res = await request.fetch(row.url(), {
-          method: row.method,
-          data: row.body,
-          // A write carries the Origin a browser sends from Lamina's own pages (lib/http.ts refuses others).
-          headers: { ...(row.body ? { 'Content-Type': 'application/json' } : {}), ...(row.method !== 'GET' ? { Origin: new URL(baseURL!).origin } : {}) },
-          maxRedirects: 0,
-        });
-        seen.push(`${row.method} ${row.route} → ${res.status()}`);
-        wanted.push(`${row.method} ${row.route} → ${row.expect[who]}`);
-        if (res.status() === 401 || res.status() === 403) {
-          expect(res.headers()['content-type']).toContain('application/json');
+/** Reads real ids of a practice through the API, as its own people, and leaves one pending invitation. */
+async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
+  const admin = await contextFor(browser, 'admin', practice);
+  const coord = await contextFor(browser, 'coordinator', practice);
+  try {
+    const members = (await (await admin.request.get('/api/team/members')).json()).members as { userId: string; email: string }[];
+    const byEmail = (email: string) => members.find((m) => m.email === email)!.userId;
+    const people = practice === 'A' ? demoUser : demoUserB;
+    const invited = await admin.request.post('/api/team/invitations', {
+      data: { email: `matrix.${practice.toLowerCase()}.${Date.now()}@lamina-demo.invalid`, name: 'Matrix Invitee', roles: ['researcher'] },
+    });
+    expect(invited.status()).toBe(201);
+    const patients = await (await coord.request.get('/api/patients?page=1&pageSize=1')).json();
+    const cases = (await (await coord.request.get('/api/cases?pageSize=10')).json()).rows as { id: string }[];
+    let caseId = '';
+    let visits: { visits: { id: string }[] } = { visits: [] };
+    for (const c of cases) {
+      caseId = c.id;
+      visits = await (await coord.request.get(`/api/cases/${caseId}/visits`)).json();
+      if (visits.visits.length > 0) break;
+    }
+    return {
+      adminId: byEmail(people('admin').email),
+      coordinatorId: byEmail(people('coordinator').email),
+      patientId: patients.rows[0].id,
+      caseId,
+      visitId: visits.visits[0].id,
+      invitationId: (await invited.json()).invitationId,
+    };
+  } finally {
+    await admin.close();
+    await coord.close();
+  }
+}
+
+const ids: Partial<Record<PracticeKey, Ids>> = {};
+
+test.describe('route × role × practice', () => {
+  // Eleven sign-ins and about 65 requests each: more than the default 30 s on a busy machine.
+  test.describe.configure({ timeout: 120_000 });
+  test.beforeAll(async ({ browser }) => {
+    test.setTimeout(120_000);
+    ids.A = await idsOf(browser, 'A');
+    ids.B = await idsOf(browser, 'B');
+    expect(ids.A.patientId).not.toBe(ids.B.patientId);
+  });
+
+  const callers: [Who, PracticeKey][] = [['anonymous', 'A'], ...ROLES.map((r) => [r, 'A'] as [Who, PracticeKey]), ...ROLES.map((r) => [r, 'B'] as [Who, PracticeKey])];
+
+  for (const [who, practice] of callers) {
+    test(`route statuses as ${who === 'anonymous' ? who : `${who} of practice ${practice}`}`, async ({ browser }) => {
+      const { request, close } = await contextFor(browser, who, practice);
+      const own = ids[practice]!;
+      const other = ids[practice === 'A' ? 'B' : 'A']!;
+      try {
+        const seen: string[] = [];
+        const wanted: string[] = [];
+        for (const [kind, rows] of [['', MATRIX], ['cross-practice ', CROSS]] as const) {
+          for (const row of rows) {
+            const url = row.url(own, other); // once: rows with unknown ids draw a new one per call
+            const res = await request.fetch(url, {
+              method: row.method,
+              data: row.body,
+              headers: row.body ? { 'Content-Type': 'application/json' } : undefined,
+              maxRedirects: 0,
+            });
+            seen.push(`${kind}${row.method} ${url} → ${res.status()}`);
+            wanted.push(`${kind}${row.method} ${url} → ${row.expect[who]}`);
+            if (res.status() === 401 || res.status() === 403) {
+              expect(res.headers()['content-type']).toContain('application/json');
+            }
+          }
         }
+        expect(seen).toEqual(wanted);
+      } finally {
+        await close();
       }
-      expect(seen).toEqual(wanted);
-    } finally {
-      await close();
+    });
+  }
+
+  test('an administrator changing or deactivating themselves gets 403 with a reason, in either practice (issue 9, item 2)', async ({ browser }) => {
+    for (const practice of ['A', 'B'] as const) {
+      const { request, close } = await contextFor(browser, 'admin', practice);
+      try {
+        const self = ids[practice]!.adminId;
+        const patch = await request.patch(`/api/team/members/${self}`, { data: { roles: ['admin', 'clinician'] } });
+        expect(patch.status()).toBe(403);
+        expect((await patch.json()).message).toMatch(/cannot change the roles of yourself.*another administrator/i);
+        const del = await request.delete(`/api/team/members/${self}`);
+        expect(del.status()).toBe(403);
+        expect((await del.json()).message).toMatch(/cannot deactivate yourself/i);
+        const members = (await (await request.get('/api/team/members')).json()).members as { userId: string; roles: string[] }[];
+        expect(members.find((m) => m.userId === self)?.roles).toEqual(['admin']);
+      } finally {
+        await close();
+      }
     }
   });
-}
+});
 
 /**
  * Every page of the signed-in area, with the HTTP status each role gets from the first byte
@@ -175,7 +303,7 @@ test('every signed-in page has a row in the page matrix', () => {
 
 for (const who of ['anonymous', ...ROLES] as Who[]) {
   test(`page statuses as ${who}`, async ({ browser }) => {
-    const { request, close } = await contextFor(browser, who);
+    const { request, close } = await contextFor(browser, who, 'A');
     try {
       const seen: string[] = [];
       const wanted: string[] = [];

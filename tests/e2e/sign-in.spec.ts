@@ -138,7 +138,9 @@ test('an invited colleague accepts the e-mailed link, sets a password and signs 
   await form.getByLabel('Clinician').check();
   await form.getByRole('button', { name: 'Send invitation' }).click();
   await expect(page.getByText(`Invitation sent to ${email}.`)).toBeVisible();
-  await expect(page.getByTestId(`member-${email}`)).toContainText('Invited');
+  // Pending until accepted: listed among the invitations, not among the members.
+  await expect(page.getByTestId(`invitation-${email}`)).toBeVisible();
+  await expect(page.getByTestId(`member-${email}`)).toHaveCount(0);
 
   const mail = await waitForMail(request, email, /Invitation/);
   const link = firstLink(mail, /http:\/\/\S+\/invite\/[A-Za-z0-9_-]+/);

@@ -1,9 +1,9 @@
 import { expect, type Page, type APIRequestContext } from '@playwright/test';
-import { DEMO_PASSWORD, demoUser } from '../../lib/demo/people';
+import { DEMO_LOCUM, DEMO_PASSWORD, demoUser, demoUserB } from '../../lib/demo/people';
 import type { Role } from '../../lib/auth/roles';
 import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 
-export { DEMO_PASSWORD, demoUser };
+export { DEMO_LOCUM, DEMO_PASSWORD, demoUser, demoUserB };
 
 export async function signIn(page: Page, email: string, password = DEMO_PASSWORD) {
   await page.goto('/sign-in');
@@ -13,8 +13,9 @@ export async function signIn(page: Page, email: string, password = DEMO_PASSWORD
   await expect(page.getByTestId('whoami')).toBeVisible();
 }
 
-export async function signInAs(page: Page, role: Role) {
-  await signIn(page, demoUser(role).email);
+/** Signs in as the demo person with that role, in the demo practice (A) or the second one (B). */
+export async function signInAs(page: Page, role: Role, practice: 'A' | 'B' = 'A') {
+  await signIn(page, (practice === 'A' ? demoUser : demoUserB)(role).email);
 }
 
 const mailboxUrl = () => process.env.MAILBOX_URL ?? 'http://127.0.0.1:2526';

@@ -2,15 +2,16 @@ import type { Metadata } from 'next';
 import Link from 'next/link';
 import { requireActor } from '@/lib/auth/session';
 import { can } from '@/lib/auth/permissions';
-import { listMembers } from '@/lib/services/team';
+import { listInvitations, listMembers } from '@/lib/services/team';
 import { MembersTable } from './_components/MembersTable';
 import { InviteForm } from './_components/InviteForm';
+import { InvitationsTable } from './_components/InvitationsTable';
 
 export const metadata: Metadata = { title: 'Team' };
 
 export default async function TeamPage() {
   const { em, actor } = await requireActor('team.read', '/team');
-  const members = await listMembers(em, actor);
+  const [members, invitations] = await Promise.all([listMembers(em, actor), listInvitations(em, actor)]);
   const manage = can(actor.roles, 'team.manage');
   return (
     <div className="space-y-8">
@@ -33,6 +34,7 @@ export default async function TeamPage() {
         </div>
       </div>
       <MembersTable members={members} currentUserId={actor.userId} canManage={manage} />
+      <InvitationsTable invitations={invitations} canManage={manage} />
       {manage && <InviteForm />}
     </div>
   );

@@ -17,13 +17,22 @@ const ERRORS: Record<string, string> = {
 export default async function SignInPage({ searchParams }: { searchParams: Promise<Record<string, string | undefined>> }) {
   const sp = await searchParams;
   const callbackUrl = safeReturnPath(sp.callbackUrl);
-  const { actor } = await getRequestContext();
+  const { actor, mustChoosePractice } = await getRequestContext();
   if (actor) redirect(callbackUrl);
+  if (mustChoosePractice) redirect(`/choose-practice?callbackUrl=${encodeURIComponent(callbackUrl)}`);
   return (
     <SignInForms
       callbackUrl={callbackUrl}
       initialEmail={sp.email ?? ''}
-      notice={sp.accepted ? 'Your password is set. Sign in to start.' : undefined}
+      notice={
+        sp.accepted
+          ? 'Your password is set. Sign in to start.'
+          : sp.ended === 'password'
+            ? 'Your password is changed and every session has ended. Sign in with the new password.'
+            : sp.ended === 'everywhere'
+              ? 'You are signed out on every device.'
+              : undefined
+      }
       error={sp.error ? (ERRORS[sp.error] ?? 'Sign-in did not work. Try again.') : undefined}
     />
   );

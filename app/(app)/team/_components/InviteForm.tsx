@@ -42,7 +42,7 @@ export function InviteForm() {
       <h2 id="invite-heading" className="text-xl">
         Invite a colleague
       </h2>
-      <p className="text-sm text-ink-700">They receive an e-mail with a link to choose a password. Their roles apply as soon as they sign in.</p>
+      <p className="text-sm text-ink-700">They receive an e-mail with a link. They join, with these roles, only when they accept: a new person by choosing a password, someone who already uses Lamina while signed in.</p>
       {result && <Notice tone={result.tone}>{result.text}</Notice>}
       <form onSubmit={onSubmit} noValidate className="space-y-4">
         <div className="grid gap-4 md:grid-cols-2">

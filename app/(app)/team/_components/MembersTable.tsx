@@ -10,7 +10,7 @@ import { Notice } from '@/components/ui/Notice';
 import { fmtTimestamp } from '@/components/ui/format';
 import { ROLE_OPTIONS } from './roles';
 
-const STATUS_TEXT = { active: '● Active', invited: '◌ Invited', 'no roles': '○ No roles' } as const;
+const STATUS_TEXT = { active: '● Active', deactivated: '○ Deactivated' } as const;
 
 export function MembersTable({ members, currentUserId, canManage }: { members: MemberRow[]; currentUserId: string; canManage: boolean }) {
   const [editing, setEditing] = useState<string | null>(null);
@@ -59,25 +59,49 @@ export function MembersTable({ members, currentUserId, canManage }: { members: M
             c.display({
               id: 'actions',
               header: () => <span className="sr-only">Actions</span>,
-              cell: (info) =>
-                editing === info.row.original.userId ? null : (
-                  <button
-                    type="button"
-                    className="btn-secondary"
-                    onClick={() => {
-                      setMessage(null);
-                      setEditing(info.row.original.userId);
-                    }}
-                    aria-label={`Change roles of ${info.row.original.name ?? info.row.original.email}`}
-                  >
-                    Change roles
-                  </button>
-                ),
+              cell: (info) => {
+                const m = info.row.original;
+                if (editing === m.userId) return null;
+                if (m.userId === currentUserId) return <span className="text-sm text-ink-500">Another administrator changes your roles.</span>;
+                const who = m.name ?? m.email;
+                return (
+                  <div className="flex flex-wrap gap-2">
+                    <button
+                      type="button"
+                      className="btn-secondary"
+                      onClick={() => {
+                        setMessage(null);
+                        setEditing(m.userId);
+                      }}
+                      aria-label={`${m.status === 'deactivated' ? 'Reactivate' : 'Change roles of'} ${who}`}
+                    >
+                      {m.status === 'deactivated' ? 'Reactivate' : 'Change roles'}
+                    </button>
+                    {m.status === 'active' && (
+                      <button
+                        type="button"
+                        className="btn-danger"
+                        aria-label={`Deactivate ${who}`}
+                        onClick={async () => {
+                          if (!window.confirm(`Deactivate ${who}? Every role of theirs in this practice is revoked and their sessions end at once.`)) return;
+                          setMessage(null);
+                          const res = await fetch(`/api/team/members/${m.userId}`, { method: 'DELETE' });
+                          const body = (await res.json().catch(() => ({}))) as { message?: string };
+                          setMessage(res.ok ? { tone: 'ok', text: `${who} is deactivated.` } : { tone: 'alert', text: body.message ?? 'The member could not be deactivated.' });
+                          router.refresh();
+                        }}
+                      >
+                        Deactivate
+                      </button>
+                    )}
+                  </div>
+                );
+              },
             }),
           ]
         : []),
     ];
-  }, [editing, canManage, router]);
+  }, [editing, canManage, router, currentUserId]);
 
   const table = useReactTable({ data: members, columns, getCoreRowModel: getCoreRowModel(), getRowId: (r) => r.userId });
 
