@@ -99,12 +99,14 @@ export function logisticRegression(rows: readonly LogisticRow[]): LogisticResult
   let devOld = deviance();
   let converged = false;
   let xtwx = new Float64Array(k * k);
+  const wLast = new Float64Array(n); // the working weights of the last IRLS step (R's fit$weights)
   for (let iter = 1; iter <= MAX_ITER; iter++) {
     // weighted least squares of the working response z on X, weights w = mu (1 - mu)
     xtwx = new Float64Array(k * k);
     const xtwz = new Float64Array(k);
     for (let i = 0; i < n; i++) {
       const w = mu[i] * (1 - mu[i]);
+      wLast[i] = w;
       const z = eta[i] + (y[i] - mu[i]) / w;
       const o = i * k;
       for (let a = 0; a < k; a++) {
@@ -151,7 +153,9 @@ export function logisticRegression(rows: readonly LogisticRow[]): LogisticResult
     const bread = inv;
     const score = new Float64Array(G * k);
     for (let i = 0; i < n; i++) {
-      const r = y[i] - mu[i];
+      // sandwich's estfun.glm: working residual (y - mu) / (mu (1 - mu)) at the estimate times the
+      // working weight glm.fit stores, which is the last IRLS step's (they agree at convergence)
+      const r = ((y[i] - mu[i]) / (mu[i] * (1 - mu[i]))) * wLast[i];
       const o = i * k;
       const g = clusterIndex[i] * k;
       for (let a = 0; a < k; a++) score[g + a] += r * X[o + a];
