@@ -44,7 +44,8 @@ const OPEN = 2;
  * self-consistency (EM) algorithm, accelerated by SQUAREM (Varadhan & Roland
  * 2008, Scand J Stat 35:335–353), and iterated until the Kuhn–Tucker
  * conditions hold: with N observations, d_j = (1/N) sum_i [j in i] / P_i equals
- * 1 where p_j > 0 and is at most 1 elsewhere, to `tolerance`. Each step costs
+ * 1 where p_j > 0 and is at most 1 elsewhere, to `tolerance` (the equality weighed
+ * by min(1, m p_j), so that masses still shrinking towards 0 do not hold it up). Each step costs
  * O(K + m) for K distinct observed intervals and m innermost intervals
  * (prefix sums), not O(K m).
  *
