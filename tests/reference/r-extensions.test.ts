@@ -402,12 +402,15 @@ describe('cumulativeIncidence vs R survfit(Surv(time, factor(status)) ~ 1) and c
       rows.forEach((r, k) => {
         const est = c.cumincEst[k];
         if (est !== null) close('cumulativeIncidence incidence (cmprsk::cuminc est)', r.incidence, est, `${c.cause} cuminc est at ${r.time}`);
-        // cuminc's variance is Gray's (an Aalen-type estimator), not the jackknife survfit reports: recorded, not compared
         const v = c.cumincVar[k];
-        if (v !== null && v > 0) {
-          const d = (largest['cumulativeIncidence se^2 vs cmprsk::cuminc var (different estimators, not asserted)'] ??= { abs: 0, rel: 0 });
-          d.abs = Math.max(d.abs, Math.abs(r.se * r.se - v));
-          d.rel = Math.max(d.rel, Math.abs(r.se * r.se - v) / v);
+        if (v !== null) {
+          close('cumulativeIncidence grayVariance (cmprsk::cuminc var)', r.grayVariance, v, `${c.cause} cuminc var at ${r.time}`);
+          // survfit's jackknife variance (se^2) is another estimator: how far apart the two are is recorded, not compared
+          if (v > 0) {
+            const d = (largest['cumulativeIncidence se^2 vs cmprsk::cuminc var (different estimators, not asserted)'] ??= { abs: 0, rel: 0 });
+            d.abs = Math.max(d.abs, Math.abs(r.se * r.se - v));
+            d.rel = Math.max(d.rel, Math.abs(r.se * r.se - v) / v);
+          }
         }
       });
     }

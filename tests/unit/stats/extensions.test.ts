@@ -139,7 +139,7 @@ describe('cumulativeIncidence: worked by hand and identities', () => {
     expect(Object.keys(res)).toEqual(['A', 'B']);
     expect(res.A.map((r) => r.incidence)).toEqual([0.25, 0.25, 0.25, 0.75]);
     expect(res.B.map((r) => r.incidence)).toEqual([0, 0.25, 0.25, 0.25]);
-    expect(res.B[0]).toMatchObject({ lower: 0, upper: 0, se: 0 });
+    expect(res.B[0]).toMatchObject({ lower: 0, upper: 0, se: 0, grayVariance: 0 });
   });
   it('one cause: 1 - Kaplan–Meier', () => {
     const data = generate({ n: 300, seed: 3, groups: 1, grid: 1, scale: 10, censorMax: 25 });
