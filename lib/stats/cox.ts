@@ -6,6 +6,11 @@ export interface CoxRow {
   event: boolean;
   /** covariates, the same number for every row */
   x: number[];
+  /**
+   * cluster (e.g. patient id, for several teeth of one patient): when any row
+   * has one, every row must, and the result adds robustSe (R's coxph(..., cluster = id))
+   */
+  cluster?: string | number;
 }
 
 export interface CoxOptions {
@@ -16,6 +21,11 @@ export interface CoxOptions {
 export interface CoxResult {
   coef: number[];
   se: number[];
+  /**
+   * with clusters: the robust (sandwich) standard errors of R's coxph(..., cluster = id), from the
+   * dfbeta residuals summed by cluster, no small-sample factor; the intervals and p-values then use them
+   */
+  robustSe?: number[];
   hazardRatio: number[];
   /** 95% Wald interval of the hazard ratio */
   lower: number[];
@@ -43,6 +53,9 @@ interface Sorted {
   start: Int32Array;
   D: number;
   scale: Float64Array;
+  /** cluster index (0..G-1) of each row in time order, or null when the rows have no clusters */
+  cluster: Int32Array | null;
+  G: number;
 }
 
 interface Fit {
@@ -254,6 +267,8 @@ function prepare(rows: readonly CoxRow[]): Sorted {
   const xIn = new Float64Array(n * p);
   const mean = new Float64Array(p);
   let events = 0;
+  let clusterIn: Int32Array | null = null;
+  const clusterIds = new Map<string | number, number>();
   for (let i = 0; i < n; i++) {
     const r = rows[i];
     if (r === null || typeof r !== 'object') throw new TypeError(`row ${i}: expected { time, event, x }`);
@@ -266,6 +281,19 @@ function prepare(rows: readonly CoxRow[]): Sorted {
     const xi = r.x;
     if (!Array.isArray(xi) || xi.length !== p) {
       throw new RangeError(`row ${i}: expected ${p} covariates like the first row, got ${Array.isArray(xi) ? xi.length : 'none'}`);
+    }
+    const cl = r.cluster;
+    if (cl !== undefined && cl !== null) {
+      if (clusterIn === null) {
+        if (i > 0) throw new RangeError(`row ${i}: has a cluster but row 0 has none; give every row a cluster or none`);
+        clusterIn = new Int32Array(n);
+      }
+      if (typeof cl !== 'string' && !(typeof cl === 'number' && Number.isFinite(cl))) throw new TypeError(`row ${i}: cluster must be a string or a finite number`);
+      let g = clusterIds.get(cl);
+      if (g === undefined) clusterIds.set(cl, (g = clusterIds.size));
+      clusterIn[i] = g;
+    } else if (clusterIn !== null) {
+      throw new RangeError(`row ${i}: has no cluster but row 0 has one; give every row a cluster or none`);
     }
     time[i] = t;
     if (e) {
@@ -287,9 +315,11 @@ function prepare(rows: readonly CoxRow[]): Sorted {
   const { times, start, payload: order } = groupByTime(time, index, true);
   const x = new Float64Array(n * p);
   const status = new Uint8Array(n);
+  const cluster = clusterIn === null ? null : new Int32Array(n);
   for (let k = 0; k < n; k++) {
     const i = order[k];
     status[k] = ev[i];
+    if (cluster !== null) cluster[k] = (clusterIn as Int32Array)[i];
     for (let c = 0; c < p; c++) x[k * p + c] = xIn[i * p + c];
   }
   for (let c = 0; c < p; c++) mean[c] /= n;
@@ -308,7 +338,119 @@ function prepare(rows: readonly CoxRow[]): Sorted {
     scale[c] = 1 / mad;
     for (let k = 0; k < n; k++) x[k * p + c] *= scale[c];
   }
-  return { n, p, x, status, start, D: times.length, scale };
+  return { n, p, x, status, start, D: times.length, scale, cluster, G: clusterIds.size };
+}
+
+/**
+ * Score residuals (one row of p per observation, in time order, on the centred and scaled
+ * covariates) at beta, as R's residuals(coxph, type = "score"): observation i's share of the
+ * score, delta_i (x_i - xbar(t_i)) - sum over event times t <= t_i of r_i (x_i - xbar(t)) dLambda(t),
+ * with Efron's weights at tied event times (a death among d tied ones takes part in the k-th of the
+ * d steps with weight 1 - k/d, and takes 1/d of each step's mean). Risk-set sums are accumulated
+ * backwards, the cumulative hazard terms forwards: O(n p).
+ */
+function scoreResiduals(s: Sorted, beta: Float64Array, efron: boolean): Float64Array {
+  const { n, p, x, status, start, D } = s;
+  const risk = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    let e = 0;
+    for (let k = 0; k < p; k++) e += beta[k] * x[i * p + k];
+    risk[i] = Math.exp(e);
+  }
+  // per distinct time: hazard increment for those at risk (h, xh) and for the deaths there (hd, xhd), the deaths' mean (md)
+  const h = new Float64Array(D);
+  const xh = new Float64Array(D * p);
+  const hd = new Float64Array(D);
+  const xhd = new Float64Array(D * p);
+  const md = new Float64Array(D * p);
+  const s1 = new Float64Array(p);
+  const d1 = new Float64Array(p);
+  let s0 = 0;
+  for (let r = D - 1; r >= 0; r--) {
+    let d = 0;
+    let d0 = 0;
+    d1.fill(0);
+    for (let i = start[r]; i < start[r + 1]; i++) {
+      const w = risk[i];
+      s0 += w;
+      for (let k = 0; k < p; k++) s1[k] += w * x[i * p + k];
+      if (status[i] === 1) {
+        d++;
+        d0 += w;
+        for (let k = 0; k < p; k++) d1[k] += w * x[i * p + k];
+      }
+    }
+    if (d === 0) continue;
+    if (!efron || d === 1) {
+      h[r] = d / s0;
+      hd[r] = d / s0;
+      for (let k = 0; k < p; k++) {
+        const m = s1[k] / s0;
+        xh[r * p + k] = m * h[r];
+        xhd[r * p + k] = m * h[r];
+        md[r * p + k] = m;
+      }
+    } else {
+      for (let j = 0; j < d; j++) {
+        const f = j / d;
+        const den = s0 - f * d0;
+        h[r] += 1 / den;
+        hd[r] += (1 - f) / den;
+        for (let k = 0; k < p; k++) {
+          const m = (s1[k] - f * d1[k]) / den;
+          xh[r * p + k] += m / den;
+          xhd[r * p + k] += ((1 - f) * m) / den;
+          md[r * p + k] += m / d;
+        }
+      }
+    }
+  }
+  const out = new Float64Array(n * p);
+  let H = 0;
+  const XH = new Float64Array(p);
+  for (let r = 0; r < D; r++) {
+    for (let i = start[r]; i < start[r + 1]; i++) {
+      const w = risk[i];
+      const dead = status[i] === 1;
+      const hOwn = dead ? hd[r] : h[r];
+      for (let k = 0; k < p; k++) {
+        const xi = x[i * p + k];
+        const xhOwn = dead ? xhd[r * p + k] : xh[r * p + k];
+        let v = -w * (xi * (H + hOwn) - (XH[k] + xhOwn));
+        if (dead) v += xi - md[r * p + k];
+        out[i * p + k] = v;
+      }
+    }
+    H += h[r];
+    for (let k = 0; k < p; k++) XH[k] += xh[r * p + k];
+  }
+  return out;
+}
+
+/**
+ * Robust variance of R's coxph(..., cluster = id) on the scaled covariates: D'D with D the dfbeta
+ * residuals (score residuals times the inverse information) summed within each cluster.
+ */
+function robustVariance(s: Sorted, beta: Float64Array, efron: boolean, inv: Float64Array): Float64Array {
+  const { n, p, G } = s;
+  const cluster = s.cluster as Int32Array;
+  const resid = scoreResiduals(s, beta, efron);
+  const sum = new Float64Array(G * p);
+  for (let i = 0; i < n; i++) {
+    const g = cluster[i] * p;
+    for (let k = 0; k < p; k++) sum[g + k] += resid[i * p + k];
+  }
+  const dfb = new Float64Array(p);
+  const v = new Float64Array(p * p);
+  for (let g = 0; g < G; g++) {
+    for (let k = 0; k < p; k++) {
+      let t = 0;
+      for (let l = 0; l < p; l++) t += sum[g * p + l] * inv[l * p + k];
+      dfb[k] = t;
+    }
+    for (let k = 0; k < p; k++) for (let l = 0; l < p; l++) v[k * p + l] += dfb[k] * dfb[l];
+  }
+  return v;
 }
 
 /**
@@ -380,9 +522,11 @@ export function coxPH(rows: readonly CoxRow[], opts: CoxOptions = {}): CoxResult
       throw new Error(`coxPH did not converge: the coefficient of covariate ${k} appears to be infinite (monotone likelihood, e.g. no events in one level of a binary covariate)`);
     }
   }
+  const robust = s.cluster === null ? null : robustVariance(s, newBeta, efron, inv);
   const z = zForLevel(0.95);
   const coef: number[] = [];
   const se: number[] = [];
+  const robustSe: number[] = [];
   const hazardRatio: number[] = [];
   const lower: number[] = [];
   const upper: number[] = [];
@@ -392,11 +536,24 @@ export function coxPH(rows: readonly CoxRow[], opts: CoxOptions = {}): CoxResult
     const e = Math.sqrt(inv[k * p + k]) * s.scale[k];
     coef.push(b);
     se.push(e);
+    // with clusters the Wald interval and p-value use the robust standard error (as R's summary.coxph)
+    const used = robust === null ? e : Math.sqrt(robust[k * p + k]) * s.scale[k];
+    if (robust !== null) robustSe.push(used);
     hazardRatio.push(Math.exp(b));
-    lower.push(Math.exp(b - z * e));
-    upper.push(Math.exp(b + z * e));
-    pValue.push(twoSidedNormalP(b / e));
+    lower.push(Math.exp(b - z * used));
+    upper.push(Math.exp(b + z * used));
+    pValue.push(twoSidedNormalP(b / used));
   }
   const lr = 2 * (fit.loglik - loglik0);
-  return { coef, se, hazardRatio, lower, upper, pValue, logLik: fit.loglik, lrChiSquare: lr < 0 ? 0 : lr };
+  return {
+    coef,
+    se,
+    ...(robust === null ? {} : { robustSe }),
+    hazardRatio,
+    lower,
+    upper,
+    pValue,
+    logLik: fit.loglik,
+    lrChiSquare: lr < 0 ? 0 : lr,
+  };
 }

@@ -8,6 +8,10 @@
  * - coxPH: proportional hazards regression (coxph, Efron ties by default)
  * - chiSquareTest, fisherExact2x2: tests on tables of counts
  * - cohenKappa: agreement between two raters (e.g. two examiners' index scores)
+ * - turnbull: survival from interval-censored event times (events found at reviews)
+ * - cumulativeIncidence: Aalen–Johansen incidence of competing causes
+ * - logisticRegression: binary outcome regression, optionally with cluster-robust errors
+ * - funnelLimits: exact binomial funnel-plot limits for a proportion
  *
  * Every function either returns defined numbers or throws an Error with a
  * plain message; none returns NaN. See lib/stats/README.md.
@@ -17,10 +21,18 @@ export type { ProportionInterval } from './wilson';
 export { kaplanMeier, medianSurvival, restrictedMean } from './kaplan-meier';
 export type { SurvivalObservation, KaplanMeierStep, KaplanMeierOptions, ConfType, MedianSurvival } from './kaplan-meier';
 export { logRank } from './log-rank';
-export type { LogRankResult } from './log-rank';
+export type { LogRankResult, LogRankObservation } from './log-rank';
 export { coxPH } from './cox';
 export type { CoxRow, CoxOptions, CoxResult } from './cox';
 export { chiSquareTest, fisherExact2x2 } from './contingency';
 export type { ChiSquareResult } from './contingency';
 export { cohenKappa, weightedKappaFromTable } from './kappa';
 export type { KappaResult, KappaOptions } from './kappa';
+export { turnbull } from './turnbull';
+export type { CensoredInterval, TurnbullStep, TurnbullOptions } from './turnbull';
+export { cumulativeIncidence } from './competing-risks';
+export type { CompetingRiskRow, CumulativeIncidenceStep, CumulativeIncidenceOptions } from './competing-risks';
+export { logisticRegression } from './logistic';
+export type { LogisticRow, LogisticResult } from './logistic';
+export { funnelLimits } from './funnel';
+export type { FunnelLimits } from './funnel';

@@ -9,8 +9,14 @@ export interface KappaResult {
 export interface KappaOptions {
   /** 'none' (default): Cohen 1960; 'linear' or 'quadratic': Cohen 1968 weighted kappa */
   weights?: 'none' | 'linear' | 'quadratic';
-  /** the ordered categories; default: the distinct values of both raters, ascending */
+  /** the ordered categories; default: `scale` when given, else the distinct values of both raters, ascending */
   categories?: number[];
+  /**
+   * the full rating scale the scores come from (e.g. PAI 1–5: [1, 2, 3, 4, 5]). When given and
+   * `categories` is not, the categories are the whole scale, so a score no rater used still
+   * counts in the positions that weighted kappa's weights are computed from.
+   */
+  scale?: readonly number[];
 }
 
 /**
@@ -66,7 +72,9 @@ export function weightedKappaFromTable(table: readonly (readonly number[])[], di
  * Cohen's kappa for two raters' paired ratings, optionally weighted (linear
  * |i - j| or quadratic (i - j)^2 disagreement weights, where i and j are the
  * positions of the two ratings in the ordered categories), matching
- * scikit-learn's cohen_kappa_score.
+ * scikit-learn's cohen_kappa_score (its `labels` are Lamina's `categories`).
+ * Pass the rating `scale` so that the positions come from the whole scale,
+ * not only from the scores the two raters happened to use.
  */
 export function cohenKappa(pairs: readonly (readonly [number, number])[], opts: KappaOptions = {}): KappaResult {
   const weights = opts.weights ?? 'none';
@@ -75,6 +83,10 @@ export function cohenKappa(pairs: readonly (readonly [number, number])[], opts: 
   }
   if (!Array.isArray(pairs) || pairs.length === 0) throw new RangeError('cohenKappa needs at least one pair of ratings');
   let categories = opts.categories;
+  if (categories === undefined && opts.scale !== undefined) {
+    if (!Array.isArray(opts.scale) || opts.scale.length === 0) throw new RangeError('cohenKappa: scale must be a non-empty array of scores');
+    categories = [...opts.scale].sort((a, b) => a - b);
+  }
   if (categories === undefined) {
     const seen = new Set<number>();
     for (const pair of pairs) {

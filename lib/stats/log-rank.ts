@@ -2,6 +2,11 @@ import { chiSquareUpperTail } from './distributions';
 import { IN_PLACE_HIST_LENGTH, checkObservation, radixSortInPlace } from './internal';
 import type { SurvivalObservation } from './kaplan-meier';
 
+/** An observation for logRank; with `stratum` on every observation the test is stratified (survdiff's strata()). */
+export interface LogRankObservation extends SurvivalObservation {
+  stratum?: string | number;
+}
+
 export interface LogRankResult {
   chiSquare: number;
   df: number;
@@ -50,12 +55,13 @@ function solveDense(v: Float64Array, b: Float64Array, m: number): Float64Array |
  * `offset`: event times from the front, censoring times from the back.
  * Returns the end of the event times. Throws a clear error on bad input.
  */
-function readGroup(list: readonly SurvivalObservation[], name: string, all: Float64Array, offset: number): number {
+function readGroup(list: readonly LogRankObservation[], name: string, all: Float64Array, offset: number, withinStratum: boolean): number {
   let ne = offset;
   let back = offset + list.length;
   for (let i = 0; i < list.length; i++) {
     const o = list[i];
     if (o === null || typeof o !== 'object') throw new TypeError(`group "${name}", observation ${i}: expected { time, event }`);
+    if (!withinStratum && o.stratum !== undefined) throw STRATIFIED;
     const t = o.time;
     const e = o.event;
     if (typeof t !== 'number' || !(t >= 0) || t === Infinity || (e !== true && e !== false)) {
@@ -150,6 +156,82 @@ function sweep(all: Float64Array, lo: Int32Array, ptr: Int32Array, G: number): S
   return { observed, expected, variance };
 }
 
+/** Thrown by readGroup when an observation carries a stratum, to switch to the stratified test. */
+const STRATIFIED = new Error('stratified');
+
+/**
+ * Observed, expected and the variance matrix over the lists (one per group, n observations in
+ * all), by the sorts and the sweep below. `withinStratum`: the lists are one stratum's, whose
+ * observations carry their stratum.
+ */
+function sums(lists: readonly (readonly LogRankObservation[])[], names: readonly string[], n: number, withinStratum: boolean): Sweep {
+  const G = lists.length;
+  // Each group's event times and censoring times, sorted separately (keys-only
+  // radix sorts, n keys in all); the sweep then walks the 2G sorted lists
+  // backwards from the latest time, like a merge.
+  // Class c = 2g (events of group g) or 2g + 1 (censorings of group g); all
+  // classes' sorted times are laid end to end in one array.
+  const C = 2 * G;
+  const all = new Float64Array(n);
+  const lo = new Int32Array(C); // first index of class c in `all`
+  const ptr = new Int32Array(C); // current (latest unswept) index of class c
+  let largest = 0;
+  for (let g = 0; g < G; g++) largest = Math.max(largest, lists[g].length);
+  // one scratch buffer and one histogram for all 2G in-place sorts
+  const scratch = new Float64Array(largest);
+  const hist = new Int32Array(IN_PLACE_HIST_LENGTH);
+  let offset = 0;
+  for (let g = 0; g < G; g++) {
+    const list = lists[g];
+    const m = list.length;
+    const ne = readGroup(list, names[g], all, offset, withinStratum);
+    radixSortInPlace(all.subarray(offset, ne), scratch, hist);
+    radixSortInPlace(all.subarray(ne, offset + m), scratch, hist);
+    lo[2 * g] = offset;
+    ptr[2 * g] = ne - 1;
+    lo[2 * g + 1] = ne;
+    ptr[2 * g + 1] = offset + m - 1;
+    offset += m;
+  }
+  return sweep(all, lo, ptr, G);
+}
+
+/**
+ * The stratified test (survdiff(Surv(time, status) ~ group + strata(s))): observed, expected
+ * and variance summed over the strata, each stratum with its own risk sets.
+ */
+function stratifiedSums(groups: Readonly<Record<string, readonly LogRankObservation[]>>, names: readonly string[]): Sweep {
+  const G = names.length;
+  const strata = new Map<string | number, LogRankObservation[][]>();
+  for (let g = 0; g < G; g++) {
+    const list = groups[names[g]];
+    for (let i = 0; i < list.length; i++) {
+      const o = list[i];
+      const st = o?.stratum;
+      if (typeof st !== 'string' && !(typeof st === 'number' && Number.isFinite(st))) {
+        throw new TypeError(`group "${names[g]}", observation ${i}: stratum must be a string or a finite number on every observation when any has one, got ${String(st)}`);
+      }
+      let lists = strata.get(st);
+      if (lists === undefined) strata.set(st, (lists = Array.from({ length: G }, () => [])));
+      lists[g].push(o);
+    }
+  }
+  const observed = new Float64Array(G);
+  const expected = new Float64Array(G);
+  const variance = new Float64Array(G * G);
+  for (const lists of strata.values()) {
+    let m = 0;
+    for (const l of lists) m += l.length;
+    const part = sums(lists, names, m, true);
+    for (let g = 0; g < G; g++) {
+      observed[g] += part.observed[g];
+      expected[g] += part.expected[g];
+    }
+    for (let k = 0; k < G * G; k++) variance[k] += part.variance[k];
+  }
+  return { observed, expected, variance };
+}
+
 /**
  * Log-rank (Mantel–Haenszel) test of equal survival across groups, as R's
  * survival::survdiff with rho = 0: observed and expected events per group,
@@ -160,11 +242,17 @@ function sweep(all: Float64Array, lo: Int32Array, ptr: Int32Array, G: number): S
  * one reverse sweep over the distinct event times merges them: O(n + D * G^2)
  * for D distinct event times and G groups.
  *
+ * When the observations carry `stratum` (all of them), the test is stratified as
+ * survdiff(... + strata(s)): each stratum has its own risk sets, and observed,
+ * expected and the variance matrix are summed over the strata before the
+ * chi-square. (The unstratified path notices a stratum while it reads the
+ * observations, so it costs it one property read per observation.)
+ *
  * Defined results: groups with no observations are reported with 0 observed
  * and 0 expected and do not count towards df; with no events at all the
  * statistic is 0 with p = 1. Fewer than two groups with observations is an error.
  */
-export function logRank(groups: Readonly<Record<string, readonly SurvivalObservation[]>>): LogRankResult {
+export function logRank(groups: Readonly<Record<string, readonly LogRankObservation[]>>): LogRankResult {
   if (groups === null || typeof groups !== 'object') throw new TypeError('logRank expects { groupName: observations[] }');
   const names = Object.keys(groups);
   const G = names.length;
@@ -179,34 +267,14 @@ export function logRank(groups: Readonly<Record<string, readonly SurvivalObserva
   if (nonEmpty < 2) {
     throw new RangeError(`logRank needs at least two groups with observations, got ${nonEmpty}`);
   }
-  // Each group's event times and censoring times, sorted separately (keys-only
-  // radix sorts, n keys in all); the sweep then walks the 2G sorted lists
-  // backwards from the latest time, like a merge.
-  // Class c = 2g (events of group g) or 2g + 1 (censorings of group g); all
-  // classes' sorted times are laid end to end in one array.
-  const C = 2 * G;
-  const all = new Float64Array(n);
-  const lo = new Int32Array(C); // first index of class c in `all`
-  const ptr = new Int32Array(C); // current (latest unswept) index of class c
-  let largest = 0;
-  for (let g = 0; g < G; g++) largest = Math.max(largest, groups[names[g]].length);
-  // one scratch buffer and one histogram for all 2G in-place sorts
-  const scratch = new Float64Array(largest);
-  const hist = new Int32Array(IN_PLACE_HIST_LENGTH);
-  let offset = 0;
-  for (let g = 0; g < G; g++) {
-    const list = groups[names[g]];
-    const m = list.length;
-    const ne = readGroup(list, names[g], all, offset);
-    radixSortInPlace(all.subarray(offset, ne), scratch, hist);
-    radixSortInPlace(all.subarray(ne, offset + m), scratch, hist);
-    lo[2 * g] = offset;
-    ptr[2 * g] = ne - 1;
-    lo[2 * g + 1] = ne;
-    ptr[2 * g + 1] = offset + m - 1;
-    offset += m;
+  let result: Sweep;
+  try {
+    result = sums(names.map((name) => groups[name]), names, n, false);
+  } catch (e) {
+    if (e !== STRATIFIED) throw e;
+    result = stratifiedSums(groups, names);
   }
-  const { observed, expected, variance } = sweep(all, lo, ptr, G);
+  const { observed, expected, variance } = result;
   const included: number[] = [];
   for (let g = 0; g < G; g++) if (expected[g] > 0) included.push(g);
   const obsOut: Record<string, number> = {};

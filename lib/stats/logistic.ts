@@ -1,0 +1,196 @@
+import { twoSidedNormalP, zForLevel } from './distributions';
+import { choleskyInverse, choleskySolve } from './internal';
+
+export interface LogisticRow {
+  y: boolean;
+  /** covariates, the same number for every row (the intercept is added) */
+  x: number[];
+  /** cluster (e.g. patient id); when any row has one, every row must, and robustSe is reported */
+  cluster?: string | number;
+}
+
+export interface LogisticResult {
+  /** intercept first, then one per covariate */
+  coef: number[];
+  /** model-based standard errors (R glm's summary) */
+  se: number[];
+  /** cluster-robust standard errors, as sandwich::vcovCL(fit, cluster = ~id, type = "HC1"); only with clusters */
+  robustSe?: number[];
+  oddsRatio: number[];
+  /** 95% Wald interval of the odds ratio (with the robust standard error when there are clusters) */
+  lower: number[];
+  upper: number[];
+  /** two-sided Wald p-value (with the robust standard error when there are clusters) */
+  pValue: number[];
+  /** log-likelihood at the estimate */
+  logLik: number;
+}
+
+/** R's glm.control defaults. */
+const EPS = 1e-8;
+const MAX_ITER = 25;
+/** glm.fit's warning threshold for fitted probabilities numerically 0 or 1. */
+const FIT_EPS = 10 * 2.220446049250313e-16;
+
+/**
+ * Logistic regression by iteratively reweighted least squares, as R's
+ * glm(y ~ x, family = binomial): start from mu = (y + 0.5) / 2, converged when
+ * |deviance - previous| / (|deviance| + 0.1) < 1e-8, at most 25 iterations.
+ * Model-based standard errors from (X'WX)^-1; with clusters also the
+ * cluster-robust sandwich with the HC1 and G/(G-1) factors of
+ * sandwich::vcovCL (statsmodels' cov_type="cluster" default), and the
+ * intervals and p-values then use it.
+ *
+ * Throws instead of returning a doubtful fit: no variation in y, constant
+ * or collinear covariates, complete or quasi-complete separation (fitted
+ * probabilities 0 or 1; R only warns), or no convergence.
+ */
+export function logisticRegression(rows: readonly LogisticRow[]): LogisticResult {
+  if (!Array.isArray(rows)) throw new TypeError('logisticRegression expects an array of { y, x }');
+  const n = rows.length;
+  const first = rows[0];
+  if (!first || !Array.isArray(first.x)) throw new RangeError('logisticRegression needs rows of { y, x: number[] }');
+  const k = first.x.length + 1;
+  if (n <= k) throw new RangeError(`logisticRegression needs more rows (${n}) than coefficients (${k})`);
+  const X = new Float64Array(n * k);
+  const y = new Float64Array(n);
+  let clustered: boolean | null = null;
+  const clusterIndex = new Int32Array(n);
+  const clusterIds = new Map<string | number, number>();
+  let ones = 0;
+  for (let i = 0; i < n; i++) {
+    const r = rows[i];
+    if (r === null || typeof r !== 'object') throw new TypeError(`row ${i}: expected { y, x }`);
+    if (r.y !== true && r.y !== false) throw new TypeError(`row ${i}: y must be true or false`);
+    if (!Array.isArray(r.x) || r.x.length !== k - 1) throw new RangeError(`row ${i}: expected ${k - 1} covariates like the first row`);
+    y[i] = r.y ? 1 : 0;
+    ones += y[i];
+    X[i * k] = 1;
+    for (let c = 1; c < k; c++) {
+      const v = r.x[c - 1];
+      if (typeof v !== 'number' || !Number.isFinite(v)) throw new RangeError(`row ${i}: covariate ${c - 1} must be a finite number, got ${String(v)}`);
+      X[i * k + c] = v;
+    }
+    const has = r.cluster !== undefined && r.cluster !== null;
+    if (clustered === null) clustered = has;
+    else if (clustered !== has) throw new RangeError(`row ${i}: either every row has a cluster or none does`);
+    if (has) {
+      const id = r.cluster as string | number;
+      if (typeof id !== 'string' && !(typeof id === 'number' && Number.isFinite(id))) throw new TypeError(`row ${i}: cluster must be a string or a finite number`);
+      let g = clusterIds.get(id);
+      if (g === undefined) clusterIds.set(id, (g = clusterIds.size));
+      clusterIndex[i] = g;
+    }
+  }
+  if (ones === 0 || ones === n) throw new RangeError('logisticRegression needs both outcomes in the data (every y is the same)');
+
+  const beta = new Float64Array(k);
+  const mu = new Float64Array(n);
+  const eta = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    mu[i] = (y[i] + 0.5) / 2;
+    eta[i] = Math.log(mu[i] / (1 - mu[i]));
+  }
+  const deviance = () => {
+    let d = 0;
+    for (let i = 0; i < n; i++) d -= 2 * (y[i] === 1 ? Math.log(mu[i]) : Math.log1p(-mu[i]));
+    return d;
+  };
+  let devOld = deviance();
+  let converged = false;
+  let xtwx = new Float64Array(k * k);
+  const wLast = new Float64Array(n); // the working weights of the last IRLS step (R's fit$weights)
+  for (let iter = 1; iter <= MAX_ITER; iter++) {
+    // weighted least squares of the working response z on X, weights w = mu (1 - mu)
+    xtwx = new Float64Array(k * k);
+    const xtwz = new Float64Array(k);
+    for (let i = 0; i < n; i++) {
+      const w = mu[i] * (1 - mu[i]);
+      wLast[i] = w;
+      const z = eta[i] + (y[i] - mu[i]) / w;
+      const o = i * k;
+      for (let a = 0; a < k; a++) {
+        const wa = w * X[o + a];
+        xtwz[a] += wa * z;
+        for (let b = 0; b <= a; b++) xtwx[a * k + b] += wa * X[o + b];
+      }
+    }
+    for (let a = 0; a < k; a++) for (let b = 0; b < a; b++) xtwx[b * k + a] = xtwx[a * k + b];
+    const next = choleskySolve(xtwx, xtwz, k);
+    if (next === null) throw new RangeError('logisticRegression: covariates are constant or collinear (X\'WX is singular)');
+    beta.set(next);
+    for (let i = 0; i < n; i++) {
+      let e = 0;
+      const o = i * k;
+      for (let a = 0; a < k; a++) e += X[o + a] * beta[a];
+      eta[i] = e;
+      mu[i] = 1 / (1 + Math.exp(-e));
+    }
+    const dev = deviance();
+    if (!Number.isFinite(dev)) break;
+    if (Math.abs(dev - devOld) / (Math.abs(dev) + 0.1) < EPS) {
+      converged = true;
+      break;
+    }
+    devOld = dev;
+  }
+  for (let i = 0; i < n; i++) {
+    if (mu[i] < FIT_EPS || mu[i] > 1 - FIT_EPS) {
+      throw new RangeError('logisticRegression: fitted probabilities of 0 or 1 (complete or quasi-complete separation); a coefficient is infinite');
+    }
+  }
+  if (!converged) throw new Error(`logisticRegression did not converge in ${MAX_ITER} iterations; the data may be separated`);
+  // as glm's summary: (X'WX)^-1 with the weights the last IRLS step used (they agree with the final ones at convergence)
+  const inv = choleskyInverse(xtwx, k);
+  if (inv === null) throw new RangeError('logisticRegression: the information matrix is singular');
+  const se = Array.from({ length: k }, (_, a) => Math.sqrt(inv[a * k + a]));
+
+  let robustSe: number[] | undefined;
+  if (clustered) {
+    const G = clusterIds.size;
+    if (G < 2) throw new RangeError('logisticRegression: cluster-robust errors need at least two clusters');
+    // bread = (X'WX)^-1 (as sandwich's bread.glm), meat = sum over clusters of (sum of scores)(sum of scores)'
+    const bread = inv;
+    const score = new Float64Array(G * k);
+    for (let i = 0; i < n; i++) {
+      // sandwich's estfun.glm: working residual (y - mu) / (mu (1 - mu)) at the estimate times the
+      // working weight glm.fit stores, which is the last IRLS step's (they agree at convergence)
+      const r = ((y[i] - mu[i]) / (mu[i] * (1 - mu[i]))) * wLast[i];
+      const o = i * k;
+      const g = clusterIndex[i] * k;
+      for (let a = 0; a < k; a++) score[g + a] += r * X[o + a];
+    }
+    const meat = new Float64Array(k * k);
+    for (let g = 0; g < G; g++) {
+      for (let a = 0; a < k; a++) for (let b = 0; b < k; b++) meat[a * k + b] += score[g * k + a] * score[g * k + b];
+    }
+    const adj = (G / (G - 1)) * ((n - 1) / (n - k));
+    const bm = new Float64Array(k * k);
+    for (let a = 0; a < k; a++) for (let b = 0; b < k; b++) {
+      let s = 0;
+      for (let c = 0; c < k; c++) s += bread[a * k + c] * meat[c * k + b];
+      bm[a * k + b] = s;
+    }
+    robustSe = [];
+    for (let a = 0; a < k; a++) {
+      let s = 0;
+      for (let c = 0; c < k; c++) s += bm[a * k + c] * bread[c * k + a];
+      robustSe.push(Math.sqrt(adj * s));
+    }
+  }
+  const useSe = robustSe ?? se;
+  const z = zForLevel(0.95);
+  const coef = Array.from(beta);
+  let logLik = 0;
+  for (let i = 0; i < n; i++) logLik += y[i] === 1 ? Math.log(mu[i]) : Math.log1p(-mu[i]);
+  return {
+    coef,
+    se,
+    ...(robustSe ? { robustSe } : {}),
+    oddsRatio: coef.map((b) => Math.exp(b)),
+    lower: coef.map((b, a) => Math.exp(b - z * useSe[a])),
+    upper: coef.map((b, a) => Math.exp(b + z * useSe[a])),
+    pValue: coef.map((b, a) => twoSidedNormalP(b / useSe[a])),
+    logLik,
+  };
+}
