@@ -99,6 +99,12 @@ export const TreatmentCaseSchema = defineEntity({
     /** The distinct statuses of the case's visits, for the list's "visit status" filter. */
     visitStatuses: p.array<string>().default([]),
 
+    /**
+     * The same tooth's earlier case, when this one retreats or operates on it: the tooth stays
+     * followed for tooth loss across the chain (lib/scoring caseObservations).
+     */
+    previousCase: p.manyToOne(() => TreatmentCaseSchema).ref().nullable().deleteRule('set null'),
+
     /** How the case came in: entered on a form or imported from a CSV file. */
     source: p.enum(['form', 'import', 'demo'] as const).default('form'),
     createdBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
@@ -119,6 +125,7 @@ export const TreatmentCaseSchema = defineEntity({
     workingListIndex('treatment_case_practice_fill_length_index', ['practice_id', 'fill_length_class', 'completion_date']),
     workingListIndex('treatment_case_practice_next_visit_index', ['practice_id', 'next_visit_date', 'id']),
     { name: 'treatment_case_patient_index', properties: ['patient'] },
+    { name: 'treatment_case_previous_case_index', properties: ['previousCase'] },
   ],
 });
 
