@@ -18,6 +18,7 @@ import { caseColumns } from '../services/cases';
 import { patientColumns } from '../services/patients';
 import { bulkInsert, todayIn } from '../services/registry-common';
 import { computeOutcome } from '../services/reviews';
+import { DEFAULT_MIN_OBSERVATION_DAYS } from '../scoring';
 import { visitSummary } from '../services/visits';
 import { DEMO_EXTRA_CLINICIANS, generateDemoWorld, type DemoReview, type DemoWorld } from './cases';
 import { DEMO_PASSWORD, DEMO_PRACTICE, DEMO_USERS } from './people';
@@ -73,7 +74,7 @@ export async function seedDemo(em: EntityManager): Promise<SeedResult> {
     const world = generateDemoWorld({ today: todayIn(practice.timeZone) });
     practice.recallPolicy = world.practice.recallPolicy;
     await em.flush();
-    Object.assign(registry, await persistWorld(em, practice.id, world, userIds), { seeded: true });
+    Object.assign(registry, await persistWorld(em, practice.id, world, userIds, practice.minObservationDays ?? DEFAULT_MIN_OBSERVATION_DAYS), { seeded: true });
   } else {
     registry.patients = await em.count(PatientSchema, { practice: practice.id });
     registry.cases = await em.count(TreatmentCaseSchema, { practice: practice.id });
@@ -86,8 +87,9 @@ export async function seedDemo(em: EntityManager): Promise<SeedResult> {
 const SIGNS: readonly ReviewSign[] = ['painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain', 'swelling', 'sinusTract', 'mobility'];
 const noon = (date: string) => new Date(`${date}T12:00:00Z`);
 
-async function persistWorld(em: EntityManager, practiceId: string, world: DemoWorld, userIds: Map<string, string>) {
+async function persistWorld(em: EntityManager, practiceId: string, world: DemoWorld, userIds: Map<string, string>, minObservationDays: number) {
   const referrerIds = new Map(world.referrers.map((r) => [r.key, randomUUID()]));
+  const caseIds = new Map(world.cases.map((c) => [c.key, randomUUID()]));
   const patientIds = new Map(world.patients.map((p) => [p.key, randomUUID()]));
   const now = new Date();
   const clinicianId = (email: string) => {
@@ -126,6 +128,7 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
       toothStatus: r.toothStatus,
       paiScore: r.toothStatus === 'extracted' ? null : (r.paiScore ?? null),
       signs,
+      minObservationDays,
     });
     reviews.push({
       id: randomUUID(),
@@ -140,6 +143,8 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
       lesionDiameterMm: r.toothStatus === 'extracted' ? null : (r.lesionDiameterMm ?? null),
       signs,
       otherFindings: null,
+      eventDate: r.eventDate ?? null,
+      extractionReason: r.extractionReason ?? null,
       outcome: a.outcome,
       successStrict: a.successStrict,
       successLenient: a.successLenient,
@@ -150,7 +155,7 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
   };
 
   for (const c of world.cases) {
-    const id = randomUUID();
+    const id = caseIds.get(c.key)!;
     cases.push({
       id,
       practice: practiceId,
@@ -161,6 +166,7 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
         referrerId: c.referrerKey ? referrerIds.get(c.referrerKey) : undefined,
       }),
       ...visitSummary(c.visits),
+      previousCase: c.previousCaseKey ? caseIds.get(c.previousCaseKey)! : null,
       source: 'demo',
       createdAt: noon(c.data.completionDate),
       updatedAt: noon(c.data.completionDate),
