@@ -8,6 +8,10 @@
  * "uncertain" is neither and is left out of n, shown beside it).
  * Literature figures are from memory (Ng et al. 2007, 2008, 2010) — see tests/unit/demo/rates.test.ts.
  */
+import { execFileSync } from 'node:child_process';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import { DEMO_SEED, generateDemoWorld, type DemoCase } from '../lib/demo/cases';
 import { hasLesion, lostBy, successAtMilestone, survivalAt, teethPerPatient, toothChains, toothLoss } from '../lib/demo/figures';
 
@@ -27,11 +31,12 @@ console.log(`Events found at a review with their own date (elsewhere): ${dated};
 console.log('\nTooth survival (Kaplan–Meier, 95% CI), all teeth from their first case:');
 const intervals = worlds.flatMap((w) => toothChains(w).map(toothLoss));
 const lit: Record<number, string> = { 1: '—', 2: '86% at 2–3 y (Ng 2010, pooled)', 4: '93% at 4–5 y (Ng 2010, pooled); 95% at 4 y (Ng 2011)' };
-console.log('| years | survival | 95% CI | teeth | literature (from memory) |\n| --- | --- | --- | --- | --- |');
-for (const years of [1, 2, 4]) {
+const turnbull = turnbullInR(intervals, [1, 2, 4].map((y) => Math.round(y * 365.25)));
+console.log('| years | Kaplan–Meier (event at the review that found it) | 95% CI | Turnbull (R survfit, interval2) | teeth | literature (from memory) |\n| --- | --- | --- | --- | --- | --- |');
+[1, 2, 4].forEach((years, i) => {
   const s = survivalAt(intervals, Math.round(years * 365.25));
-  console.log(`| ${years} | ${pct(s.survival)} | ${pct(s.lower)}–${pct(s.upper)} | ${s.n} | ${lit[years]} |`);
-}
+  console.log(`| ${years} | ${pct(s.survival)} | ${pct(s.lower)}–${pct(s.upper)} | ${turnbull ? pct(turnbull[i]!) : 'R not found'} | ${s.n} | ${lit[years]} |`);
+});
 
 console.log('\nSuccess at the 12- and 24-month reviews (strict = healed, lenient = healed or healing):');
 const groups: [string, (c: DemoCase) => boolean, string][] = [
@@ -47,5 +52,21 @@ for (const [name, pred, litText] of groups) {
   for (const months of [12, 24]) {
     const r = successAtMilestone(cases.filter(pred), months);
     console.log(`| ${name} | ${months} mo | ${r.n} | ${pct(r.strict)} | ${pct(r.lenient)} | ${r.uncertain} | ${months === 12 ? litText : ''} |`);
+  }
+}
+
+/** S(t) of R's Turnbull estimate (survival::survfit on Surv(left, right, type = "interval2")); null without Rscript. */
+function turnbullInR(rows: { left: number; right: number | null }[], times: number[]): number[] | null {
+  const dir = mkdtempSync(join(tmpdir(), 'lamina-figures-'));
+  try {
+    const csv = join(dir, 'intervals.csv');
+    writeFileSync(csv, 'left,right\n' + rows.map((r) => `${r.left},${r.right === null ? 'NA' : r.right}`).join('\n') + '\n');
+    const script = `suppressMessages(library(survival)); d <- read.csv("${csv}"); f <- survfit(Surv(left, right, type = "interval2") ~ 1, data = d); cat(summary(f, times = c(${times.join(',')}), extend = TRUE)$surv, sep = "\\n")`;
+    const out = execFileSync('Rscript', ['-e', script], { encoding: 'utf8' });
+    return out.trim().split(/\s+/).map(Number);
+  } catch {
+    return null;
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
   }
 }
