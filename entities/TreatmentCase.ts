@@ -1,4 +1,4 @@
-import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
+import { defineEntity, p, type EntityClass, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
 import {
   APICAL_DIAGNOSES,
@@ -20,6 +20,12 @@ import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
 import { ReferrerSchema } from './Referrer';
 import { UserSchema } from './User';
+
+/**
+ * The entity's own name, for its link to the tooth's earlier case: a schema cannot name itself
+ * while it is being defined, and MikroORM resolves a target given by name.
+ */
+const SELF = 'TreatmentCase' as unknown as EntityClass<{ id: string }>;
 
 /**
  * One tooth treated once (lib/schemas/case.ts has the vocabulary, units and ranges).
@@ -103,7 +109,7 @@ export const TreatmentCaseSchema = defineEntity({
      * The same tooth's earlier case, when this one retreats or operates on it: the tooth stays
      * followed for tooth loss across the chain (lib/scoring caseObservations).
      */
-    previousCase: p.manyToOne(() => TreatmentCaseSchema).ref().nullable().deleteRule('set null'),
+    previousCase: p.manyToOne(SELF).ref().nullable().deleteRule('set null'),
 
     /** How the case came in: entered on a form or imported from a CSV file. */
     source: p.enum(['form', 'import', 'demo'] as const).default('form'),
