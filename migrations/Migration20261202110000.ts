@@ -24,8 +24,11 @@ export class Migration20261202110000 extends Migration {
     await this.recomputeOutcomes();
   }
 
-  /** Recomputes every review's outcome, success flags and reasons; writes only those that changed. */
-  private async recomputeOutcomes(): Promise<void> {
+  /**
+   * Recomputes every review's outcome, success flags and reasons; writes only those that changed.
+   * Returns how many changed (tests/integration/review-outcomes.test.ts runs it on stale rows).
+   */
+  async recomputeOutcomes(): Promise<number> {
     const rows = (await this.execute(`
       select r.id, to_char(r.review_date, 'YYYY-MM-DD') as review_date, r.tooth_status, r.pai_score, r.signs,
              r.outcome, r.success_strict, r.success_lenient, r.outcome_reasons,
@@ -70,6 +73,7 @@ export class Migration20261202110000 extends Migration {
         [JSON.stringify(changed.slice(i, i + 1000))],
       );
     }
+    return changed.length;
   }
 
   override async down(): Promise<void> {

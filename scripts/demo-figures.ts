@@ -24,7 +24,7 @@ const pct = (x: number) => (Number.isFinite(x) ? `${(100 * x).toFixed(1)}%` : '�
 console.log(`Demo world seen on ${today}, seed(s) ${seeds.join(', ')}: ${cases.length} cases, ${worlds.reduce((n, w) => n + w.patients.length, 0)} patients`);
 const tpp = worlds.map(teethPerPatient);
 console.log(`Treated teeth per patient: ${tpp.map((t) => t.mean.toFixed(2)).join(', ')} (max ${Math.max(...tpp.map((t) => t.max))}); literature 1.1–1.3 (issue 11)`);
-console.log(`Lost to follow-up by 4 years (KM of closure as lost): ${worlds.map((w) => pct(lostBy(w, 1461))).join(', ')}; realistic 20–40% (issue 11)`);
+console.log(`Lost to follow-up by 4 years (KM of dropping out: no attended review after a missed or closed visit): ${worlds.map((w) => pct(lostBy(w, 1461))).join(', ')}; realistic 20–40% (issue 11)`);
 const dated = cases.flatMap((c) => [...c.visits.flatMap((v) => (v.review ? [v.review] : [])), ...c.unplannedReviews]).filter((r) => r.eventDate).length;
 console.log(`Events found at a review with their own date (elsewhere): ${dated}; linked follow-on cases: ${cases.filter((c) => c.previousCaseKey).length}`);
 
@@ -39,7 +39,7 @@ console.log('| years | Kaplan–Meier (event at the review that found it) | 95% 
   const seen = intervals.filter((x) => (x.right ?? x.left) >= days).length;
   console.log(`| ${years} | ${pct(s.survival)} | ${pct(s.lower)}–${pct(s.upper)} | ${turnbull ? pct(turnbull[i]!) : 'R not found'} | ${seen} of ${s.n} | ${lit[years]} |`);
 });
-console.log('(The world holds four years of cases, so few teeth are seen at four years: read the 4-year row with its interval.)');
+console.log('(The world holds five years of cases, so fewer teeth are seen at four years: read the 4-year row with its interval.)');
 
 console.log('\nSuccess at the 12- and 24-month reviews (strict = healed, lenient = healed or healing):');
 const groups: [string, (c: DemoCase) => boolean, string][] = [

@@ -1,6 +1,7 @@
 /**
  * The invented demo world for the seed: a specialist practice in an invented town, its staff,
- * referring dentists, ~250 patients and 600+ completed cases over the four years before `today`,
+ * referring dentists, ~630 patients and 760 completed cases over the five years before `today` (five,
+ * so that some teeth are seen at their four-year review and tooth survival at four years can be read),
  * each with its recall visits (in every status) and, at attended visits, the raw review findings.
  *
  * Everything is invented: names are made up (family names are built from syllables), e-mails are
@@ -165,9 +166,9 @@ export interface DemoWorldOptions {
   /** The day the world is seen from, 'YYYY-MM-DD' (the seed passes the practice's today). */
   today: CalendarDate;
   seed?: number;
-  /** Default 530 (640 cases: about 1.2 treated teeth per patient). */
+  /** Default 630 (760 cases: about 1.2 treated teeth per patient). */
   patients?: number;
-  /** Completed cases; default 640, at least 600 for the issue. */
+  /** Completed cases; default 760 (at least 600 over the last four years). */
   cases?: number;
 }
 
@@ -176,8 +177,8 @@ export interface DemoWorldOptions {
 export function generateDemoWorld(options: DemoWorldOptions): DemoWorld {
   const { today } = options;
   const seed = options.seed ?? DEMO_SEED;
-  const nPatients = options.patients ?? 530;
-  const nCases = options.cases ?? 640;
+  const nPatients = options.patients ?? 630;
+  const nCases = options.cases ?? 760;
   if (nCases < nPatients) throw new RangeError('Every demo patient has at least one case: cases must be >= patients.');
   const rng = createRandom(seed);
 
@@ -197,7 +198,7 @@ export function generateDemoWorld(options: DemoWorldOptions): DemoWorld {
   });
 
   const people = Array.from({ length: nPatients }, (_, i) => makePerson(rng, i, today));
-  const earliest = addMonthsClamped(today, -48);
+  const earliest = addMonthsClamped(today, -60);
   const span = daysBetween(earliest, addDaysTo(today, -7));
 
   // Which patient each case belongs to: everyone once, then a second (rarely a third) tooth for some,
@@ -778,16 +779,16 @@ function makeCase(
               ['extracted', 20],
             ]
           : [
-              ['extracted', 35],
-              ['retreated', 40],
+              ['extracted', 30],
+              ['retreated', 45],
               ['surgery', 25],
             ],
     );
     const shows = lesion ? rng.between(6, 14) : onsetMonths;
     const atPractice = rng.chance(type === 'extracted' ? 0.35 : 0.8);
     event = { type, on: months(shows + rng.between(1, 18)), atPractice, reason: type === 'extracted' ? (rng.chance(0.85) ? 'endodontic' : 'fracture') : undefined };
-  } else if (heals && rng.chance(0.028)) {
-    // extracted for another reason, about 0.7% a year
+  } else if (heals && rng.chance(0.02)) {
+    // extracted for another reason, about 0.5% a year
     const reason = rng.weighted<ExtractionReason>([
       ['fracture', 55],
       ['periodontal', 30],

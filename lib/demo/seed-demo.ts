@@ -39,7 +39,7 @@ export interface SeedResult {
 
 /**
  * Creates what is missing of the demo practice, its users and its invented registry
- * (lib/demo/cases.ts: ≥600 completed cases over four years, visits in every status, reviews
+ * (lib/demo/cases.ts: 760 completed cases over five years, visits in every status, reviews
  * whose outcomes the scoring rules compute). Never duplicates: a second run adds nothing.
  * Bulk inserts in one transaction.
  */

@@ -1,5 +1,6 @@
 import { afterAll, beforeEach, describe, expect, it } from 'vitest';
 import { ReviewSchema } from '@/entities';
+import { Migration20261202110000 } from '@/migrations/Migration20261202110000';
 import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
 import { createCase } from '@/lib/services/cases';
 import { createPatient } from '@/lib/services/patients';
@@ -62,5 +63,22 @@ describe('review outcomes (issue 11)', () => {
     expect(r.review).toMatchObject({ outcome: 'tooth-extracted', eventDate, extractionReason: 'fracture', extractionReasonLabel: 'Fracture' });
     const row = await services.em().findOneOrFail(ReviewSchema, r.review.id);
     expect([row.eventDate, row.extractionReason]).toEqual([eventDate, 'fracture']);
+  });
+
+  it('the migration recomputes stored outcomes written under the old rules (percussion not scored, unchanged lesion always disease)', async () => {
+    const { a, c, completion } = await caseDone(13);
+    const tender = await createReview(services.em(), a.clinician, c.id, { reviewDate: today, toothStatus: 'present', paiScore: 2, lesionDiameterMm: 0, tenderToPercussion: true });
+    const early = await createReview(services.em(), a.clinician, c.id, { reviewDate: addDaysTo(completion, 200), toothStatus: 'present', paiScore: 4, lesionDiameterMm: 4 });
+    // what the old rules stored
+    const knex = services.orm.em.getKnex();
+    await knex('review').where({ id: tender.review.id }).update({ outcome: 'healed', success_strict: true, success_lenient: true, outcome_reasons: ['clinically normal', 'no lesion'] });
+    await knex('review').where({ id: early.review.id }).update({ outcome: 'disease', success_strict: false, success_lenient: false, outcome_reasons: ['lesion unchanged'] });
+    const migration = new Migration20261202110000(services.orm.em.getDriver(), services.orm.config);
+    expect(await migration.recomputeOutcomes()).toBe(2);
+    const rows = await knex('review').select('id', 'outcome', 'success_strict', 'outcome_reasons').whereIn('id', [tender.review.id, early.review.id]);
+    const byId = new Map(rows.map((r: { id: string }) => [r.id, r]));
+    expect(byId.get(tender.review.id)).toMatchObject({ outcome: 'disease', success_strict: false, outcome_reasons: ['tender to percussion'] });
+    expect(byId.get(early.review.id)).toMatchObject({ outcome: 'uncertain', success_strict: false });
+    expect(await migration.recomputeOutcomes()).toBe(0); // nothing left to change
   });
 });

@@ -88,16 +88,18 @@ describe('the invented practice', () => {
 });
 
 describe('sizes and validity', () => {
-  it('has ~530 patients and at least 600 completed cases over the four years before today', () => {
-    // 530 since issue 11 (was 250): about 1.2 treated teeth per patient, as cohorts report.
-    expect(world.patients).toHaveLength(530);
-    expect(world.cases.length).toBeGreaterThanOrEqual(600);
-    const from = addMonthsClamped(TODAY, -48);
+  it('has ~630 patients and 760 completed cases over the five years before today, at least 600 in the last four', () => {
+    // Since issue 11 (was 250 patients, 640 cases over four years): about 1.2 treated teeth per
+    // patient, as cohorts report, and a fifth year so that teeth reach their four-year review.
+    expect(world.patients).toHaveLength(630);
+    expect(world.cases.filter((c) => c.previousCaseKey === null)).toHaveLength(760);
+    expect(world.cases.filter((c) => compareDates(c.data.completionDate, addMonthsClamped(TODAY, -48)) >= 0).length).toBeGreaterThanOrEqual(600);
+    const from = addMonthsClamped(TODAY, -60);
     for (const c of world.cases) {
       expect(compareDates(c.data.completionDate, from)).toBeGreaterThanOrEqual(0);
       expect(compareDates(c.data.completionDate, TODAY)).toBeLessThan(0);
     }
-    expect(new Set(world.cases.map((c) => c.patientKey)).size).toBe(530);
+    expect(new Set(world.cases.map((c) => c.patientKey)).size).toBe(630);
   });
 
   it('every patient passes the patient schema', () => {
