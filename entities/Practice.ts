@@ -32,6 +32,11 @@ export const PracticeSchema = defineEntity({
       .json<ReminderPolicy>()
       .onCreate(() => DEFAULT_REMINDER_POLICY)
       .defaultRaw(`'${JSON.stringify(DEFAULT_REMINDER_POLICY)}'`),
+    /**
+     * Minimum observation time in days (default 365, ESE 2006): before it a lesion unchanged from
+     * baseline is "uncertain", from it on "disease" (lib/scoring assessReview).
+     */
+    minObservationDays: p.smallint().default(365),
     createdAt: p.datetime().onCreate(() => new Date()),
   },
 });

@@ -1,18 +1,23 @@
 import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
-import { TOOTH_STATUSES, type ReviewSign } from '../lib/schemas/review';
+import { EXTRACTION_REASONS, TOOTH_STATUSES, type ReviewSign } from '../lib/schemas/review';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
 import { TreatmentCaseSchema } from './TreatmentCase';
 import { UserSchema } from './User';
 
-export const REVIEW_OUTCOMES = ['healed', 'healing', 'disease', 'tooth-extracted', 'retreated', 'apical-surgery'] as const;
+export const REVIEW_OUTCOMES = ['healed', 'healing', 'uncertain', 'disease', 'tooth-extracted', 'retreated', 'apical-surgery'] as const;
 
 /**
  * One follow-up assessment of a case: at an attended recall visit, or unplanned (no visit).
  * The findings are as entered; `outcome`, `successStrict`, `successLenient` and
  * `outcomeReasons` are computed by lib/scoring `assessReview` from the findings, the case's
- * baseline (its PAI before treatment) and `daysSinceCompletion` — never typed by hand.
+ * baseline (its PAI before treatment), `daysSinceCompletion` and the practice's minimum observation
+ * time — never typed by hand (lib/scoring `assessRecordedReview`).
+ *
+ * `eventDate`: the day the tooth was extracted, retreated or operated, when that is known and is not
+ * the review date (an event elsewhere, reported at a later review); null otherwise. `extractionReason`:
+ * why an extracted tooth was extracted (null for other statuses).
  */
 export const ReviewSchema = defineEntity({
   name: 'Review',
@@ -33,6 +38,8 @@ export const ReviewSchema = defineEntity({
     /** Clinical signs and symptoms recorded yes/no; an absent key was not recorded. */
     signs: p.json<Partial<Record<ReviewSign, boolean>>>().default('{}'),
     otherFindings: p.string().length(500).nullable(),
+    eventDate: p.date().nullable(),
+    extractionReason: p.enum([...EXTRACTION_REASONS]).nullable(),
     outcome: p.enum([...REVIEW_OUTCOMES]),
     successStrict: p.boolean(),
     successLenient: p.boolean(),

@@ -1,4 +1,4 @@
-import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
+import { defineEntity, p, type EntityClass, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
 import {
   APICAL_DIAGNOSES,
@@ -20,6 +20,12 @@ import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
 import { ReferrerSchema } from './Referrer';
 import { UserSchema } from './User';
+
+/**
+ * The entity's own name, for its link to the tooth's earlier case: a schema cannot name itself
+ * while it is being defined, and MikroORM resolves a target given by name.
+ */
+const SELF = 'TreatmentCase' as unknown as EntityClass<{ id: string }>;
 
 /**
  * One tooth treated once (lib/schemas/case.ts has the vocabulary, units and ranges).
@@ -99,6 +105,12 @@ export const TreatmentCaseSchema = defineEntity({
     /** The distinct statuses of the case's visits, for the list's "visit status" filter. */
     visitStatuses: p.array<string>().default([]),
 
+    /**
+     * The same tooth's earlier case, when this one retreats or operates on it: the tooth stays
+     * followed for tooth loss across the chain (lib/scoring caseObservations).
+     */
+    previousCase: p.manyToOne(SELF).ref().nullable().deleteRule('set null'),
+
     /** How the case came in: entered on a form or imported from a CSV file. */
     source: p.enum(['form', 'import', 'demo'] as const).default('form'),
     createdBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
@@ -119,6 +131,7 @@ export const TreatmentCaseSchema = defineEntity({
     workingListIndex('treatment_case_practice_fill_length_index', ['practice_id', 'fill_length_class', 'completion_date']),
     workingListIndex('treatment_case_practice_next_visit_index', ['practice_id', 'next_visit_date', 'id']),
     { name: 'treatment_case_patient_index', properties: ['patient'] },
+    { name: 'treatment_case_previous_case_index', properties: ['previousCase'] },
   ],
 });
 

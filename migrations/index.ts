@@ -8,6 +8,7 @@ import { Migration20261201223805 } from './Migration20261201223805';
 import { Migration20261201230524 } from './Migration20261201230524';
 import { Migration20261201232637 } from './Migration20261201232637';
 import { Migration20261202100000 } from './Migration20261202100000';
+import { Migration20261202110000 } from './Migration20261202110000';
 
 export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261201221639', class: Migration20261201221639 },
@@ -15,4 +16,5 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261201230524', class: Migration20261201230524 },
   { name: 'Migration20261201232637', class: Migration20261201232637 },
   { name: 'Migration20261202100000', class: Migration20261202100000 },
+  { name: 'Migration20261202110000', class: Migration20261202110000 },
 ];

@@ -24,6 +24,7 @@ export function StateBadge({ tone, icon, label }: { tone: Tone; icon: string; la
 const OUTCOME_LOOK: Record<ReviewOutcome, { tone: Tone; icon: string }> = {
   healed: { tone: 'ok', icon: '✓' },
   healing: { tone: 'watch', icon: '◐' },
+  uncertain: { tone: 'neutral', icon: '?' },
   disease: { tone: 'alert', icon: '✕' },
   'tooth-extracted': { tone: 'alert', icon: '⊘' },
   retreated: { tone: 'info', icon: '↻' },

@@ -1,6 +1,7 @@
 /**
  * The invented demo world for the seed: a specialist practice in an invented town, its staff,
- * referring dentists, ~250 patients and 600+ completed cases over the four years before `today`,
+ * referring dentists, ~630 patients and 760 completed cases over the five years before `today` (five,
+ * so that some teeth are seen at their four-year review and tooth survival at four years can be read),
  * each with its recall visits (in every status) and, at attended visits, the raw review findings.
  *
  * Everything is invented: names are made up (family names are built from syllables), e-mails are
@@ -14,11 +15,17 @@
  * (for young patients) regenerative procedures. Fills are mostly 0–2 mm short of the apex, some more
  * than 2 mm short, some beyond.
  *
- * Healing follows the direction of the literature — better when the fill ends within 2 mm of the
- * apex and when there is no or only a small lesion before treatment, worse for retreatment of a
- * tooth with a lesion, worse with voids, perforation or a very short fill (Ng et al. 2007 and 2008
- * systematic reviews of primary and secondary root canal treatment outcome; Ng et al. 2011 for the
- * prognostic factors). The odds themselves are invented for the demo and are no estimate of anything.
+ * Healing is set so that the world's rates sit inside the ranges the literature reports, by
+ * factor: primary treatment without / with a lesion, retreatment, lesion size, fill length class
+ * (Ng et al. 2007, 2008 systematic reviews of primary and secondary root canal treatment outcome;
+ * Sjögren et al. 1990 for fill length; tooth survival after Ng et al. 2010 — figures from memory,
+ * the ranges and their sources are in tests/unit/demo/rates.test.ts). The probabilities are set
+ * for the demo and are no estimate of anything. Patients have 1.1–1.3 treated teeth on average;
+ * about a third stop coming to reviews within four years; a failing tooth may be extracted,
+ * re-treated or operated on, at the practice (a retreatment or surgery is a new case linked to
+ * the tooth's earlier one) or elsewhere (found at the next review, often with its date). Events
+ * are recorded only while the patient is followed, the same as for teeth without an event, so
+ * censoring and events follow one rule.
  *
  * Plain objects only: the seed persists them and computes outcomes with the scoring rules.
  */
@@ -40,7 +47,7 @@ import type {
 } from '@/lib/schemas/case';
 import type { PatientCreate, RecallChannel, Sex } from '@/lib/schemas/patient';
 import { RecallPolicySchema, type RecallPolicy } from '@/lib/schemas/recall-policy';
-import type { ToothStatus } from '@/lib/schemas/review';
+import type { ExtractionReason, ToothStatus } from '@/lib/schemas/review';
 import { toothInfo } from '@/lib/teeth';
 import { DEMO_PRACTICE, DEMO_USERS } from './people';
 import { clamp, createRandom, roundTo, type Random } from './random';
@@ -111,6 +118,9 @@ export interface DemoReview {
   swelling?: boolean;
   sinusTract?: boolean;
   mobility?: boolean;
+  /** The day of an extraction, retreatment or surgery found at this review, when known and not the review date. */
+  eventDate?: CalendarDate;
+  extractionReason?: ExtractionReason;
 }
 
 export interface DemoStatusStep {
@@ -129,12 +139,14 @@ export interface DemoVisit extends PlannedVisit {
 export interface DemoCase {
   key: string;
   patientKey: string;
+  /** The same tooth's earlier case, when this one re-treats or operates on it. */
+  previousCaseKey: string | null;
   operatorEmail: string;
   referrerKey: string | null;
   /** The case fields (ids left out: the seed links patient, operator and referrer by key). */
   data: CaseImport;
   visits: DemoVisit[];
-  /** Reviews outside the recall plan: a tooth extracted or re-treated at the practice between visits. */
+  /** Reviews outside the recall plan: a tooth extracted, re-treated or operated on at the practice between visits. */
   unplannedReviews: DemoReview[];
 }
 
@@ -154,9 +166,9 @@ export interface DemoWorldOptions {
   /** The day the world is seen from, 'YYYY-MM-DD' (the seed passes the practice's today). */
   today: CalendarDate;
   seed?: number;
-  /** Default 250. */
+  /** Default 630 (760 cases: about 1.2 treated teeth per patient). */
   patients?: number;
-  /** Completed cases; default 640, at least 600 for the issue. */
+  /** Completed cases; default 760 (at least 600 over the last four years). */
   cases?: number;
 }
 
@@ -165,8 +177,8 @@ export interface DemoWorldOptions {
 export function generateDemoWorld(options: DemoWorldOptions): DemoWorld {
   const { today } = options;
   const seed = options.seed ?? DEMO_SEED;
-  const nPatients = options.patients ?? 250;
-  const nCases = options.cases ?? 640;
+  const nPatients = options.patients ?? 630;
+  const nCases = options.cases ?? 760;
   if (nCases < nPatients) throw new RangeError('Every demo patient has at least one case: cases must be >= patients.');
   const rng = createRandom(seed);
 
@@ -186,25 +198,31 @@ export function generateDemoWorld(options: DemoWorldOptions): DemoWorld {
   });
 
   const people = Array.from({ length: nPatients }, (_, i) => makePerson(rng, i, today));
-  const earliest = addMonthsClamped(today, -48);
+  const earliest = addMonthsClamped(today, -60);
   const span = daysBetween(earliest, addDaysTo(today, -7));
 
-  // Which patient each case belongs to: everyone once, then more for some (a few have many teeth treated).
+  // Which patient each case belongs to: everyone once, then a second (rarely a third) tooth for some,
+  // so a patient has about 1.2 treated teeth (cohorts report about 1.1–1.3).
   const owners = people.map((_, i) => i);
-  const propensity = people.map(() => 0.2 + -Math.log(1 - rng.next()));
-  const totalPropensity = propensity.reduce((a, b) => a + b, 0);
+  const count = people.map(() => 1);
   for (let i = nPatients; i < nCases; i++) {
-    let x = rng.next() * totalPropensity;
-    let owner = 0;
-    while (owner < nPatients - 1 && x >= propensity[owner]!) x -= propensity[owner++]!;
+    let owner = rng.int(0, nPatients - 1);
+    while (count[owner]! >= 3) owner = (owner + 1) % nPatients;
+    count[owner]!++;
     owners.push(owner);
   }
+  const completions = owners.map(() => addDaysTo(earliest, rng.int(0, span)));
+  // Each patient may stop coming to reviews some time after the first completed case: about 30% within four years.
+  people.forEach((person, i) => {
+    const first = completions.filter((_, k) => owners[k] === i).sort()[0]!;
+    const years = -Math.log(1 - rng.next()) / LOSS_PER_YEAR;
+    person.lostFrom = years < 10 ? addDaysTo(first, Math.round(years * 365.25)) : null;
+  });
 
   const cases: DemoCase[] = [];
   owners.forEach((owner, i) => {
     const person = people[owner]!;
-    const completionDate = addDaysTo(earliest, rng.int(0, span));
-    cases.push(makeCase(rng, `case-${String(i + 1).padStart(4, '0')}`, person, completionDate, today, clinicians, referrers));
+    cases.push(...makeCase(rng, `case-${String(i + 1).padStart(4, '0')}`, person, completions[i]!, today, clinicians, referrers));
   });
   cases.sort((a, b) => compareDates(a.data.completionDate, b.data.completionDate) || a.key.localeCompare(b.key));
 
@@ -227,6 +245,9 @@ export function generateDemoWorld(options: DemoWorldOptions): DemoWorld {
 }
 
 // --- people -------------------------------------------------------------------------------------
+
+/** Hazard of a patient leaving follow-up, per year: 1 − e^(−4λ) ≈ 0.3 within four years. */
+const LOSS_PER_YEAR = -Math.log(0.7) / 4;
 
 interface Person extends Omit<PatientCreate, 'consentDate'> {
   consentDate: CalendarDate;
@@ -282,8 +303,8 @@ function makePerson(rng: Random, i: number, today: CalendarDate): Person {
     archived: false,
     ageToday,
     usedTeeth: new Set<number>(),
-    adherence: clamp(rng.normal(1, 0.12), 0.7, 1.15),
-    lostFrom: rng.chance(0.12) ? addDaysTo(today, -rng.int(30, 4 * 365)) : null,
+    adherence: clamp(rng.normal(1, 0.08), 0.8, 1.1),
+    lostFrom: null,
   };
 }
 
@@ -549,18 +570,23 @@ function apicalSizeFor(rng: Random, tooth: number, canal: string, retreatment: b
 
 type FillClass = 'within' | 'short' | 'beyond';
 
-function logistic(x: number): number {
-  return 1 / (1 + Math.exp(-x));
-}
-
 interface Course {
   heals: boolean;
   /** Months to full healing (healers with a lesion). */
   healMonths: number;
+  /** A healer whose lesion still looks unchanged at an early review (uncertain, not disease). */
+  earlyUnchanged: boolean;
+  /** A healer tender to percussion at an early review that later settles. */
+  transientSign: boolean;
   /** Months until a new lesion shows (non-healers without a lesion before treatment). */
   onsetMonths: number;
   symptomatic: boolean;
-  event: { type: Exclude<ToothStatus, 'present'>; on: CalendarDate; atPractice: boolean } | null;
+  /**
+   * `on`: when the tooth is lost, re-treated or operated (elsewhere), or from when the practice
+   * would act (at the practice: it acts after a recall visit that finds the failure, `doneOn`, so
+   * events at the practice are seen through the same visits as the teeth without one).
+   */
+  event: { type: Exclude<ToothStatus, 'present'>; on: CalendarDate; atPractice: boolean; reason?: ExtractionReason; doneOn?: CalendarDate } | null;
 }
 
 function makeCase(
@@ -571,10 +597,11 @@ function makeCase(
   today: CalendarDate,
   clinicians: string[],
   referrers: DemoReferrer[],
-): DemoCase {
+  follows?: FollowOn,
+): DemoCase[] {
   const ageAtStart = person.ageToday - daysBetween(completionDate, today) / 365.25;
-  const kind = pickKind(rng, ageAtStart);
-  const tooth = pickTooth(rng, kind, person.usedTeeth);
+  const kind = follows?.kind ?? pickKind(rng, ageAtStart);
+  const tooth = follows?.tooth ?? pickTooth(rng, kind, person.usedTeeth);
   person.usedTeeth.add(tooth);
   const group = toothInfo(tooth).group;
   const posterior = group === 'molar' || group === 'premolar';
@@ -591,7 +618,7 @@ function makeCase(
         ]);
   const operatorEmail = clinicians[operatorIndex % clinicians.length]!;
 
-  const singleVisit = kind === 'apical_surgery' || kind === 'vital_pulp_therapy' || rng.chance(0.4);
+  const singleVisit = follows !== undefined || kind === 'apical_surgery' || kind === 'vital_pulp_therapy' || rng.chance(0.4);
   const startDate = singleVisit ? completionDate : addDaysTo(completionDate, -(kind === 'regenerative_endodontics' ? rng.int(21, 42) : rng.int(5, 35)));
   const { pulpal, apical } = pickDiagnosis(rng, kind);
   const pre = preop(rng, pulpal, apical);
@@ -729,31 +756,22 @@ function makeCase(
     }
   }
 
-  // The tooth's course. Invented odds in the direction of Ng et al. 2007/2008/2011 (see the top of the file).
+  // The tooth's course (see the top of the file and tests/unit/demo/rates.test.ts).
   const lesion = data.paiScore >= 3;
-  let logit = kind === 'vital_pulp_therapy' ? 1.8 : kind === 'regenerative_endodontics' ? 1.5 : 2.2;
-  if (lesion) logit -= 0.9;
-  logit -= 0.1 * data.lesionDiameterMm;
-  if (retreatment) logit -= lesion ? 0.7 : 0.2;
-  if (kind === 'apical_surgery') logit -= 0.3;
-  if (fillClass === 'short') logit -= 1.2;
-  if (fillClass === 'beyond') logit -= 0.9;
-  if (voids) logit -= 0.4;
-  if (complications.includes('perforation')) logit -= 0.9;
-  if (complications.includes('ledge')) logit -= 0.3;
-  if (complications.includes('separated_instrument')) logit -= 0.2;
-  if (withCanals && !patency) logit -= 0.2;
-  if (data.sinusTract) logit -= 0.3;
-  if (data.definitiveRestoration === 'crown' || data.definitiveRestoration === 'onlay' || data.definitiveRestoration === 'post_and_crown') logit += 0.2;
-  const heals = rng.chance(logistic(logit));
+  const heals = rng.chance(
+    successProbability({ kind, lesion, diameterMm: data.lesionDiameterMm, fillClass, voids, complications, patency: !withCanals || patency, sinusTract: data.sinusTract === true }),
+  );
+  const months = (m: number) => addDaysTo(completionDate, Math.round(m * 30.44));
+  const onsetMonths = rng.between(3, 24);
   let event: Course['event'] = null;
-  if (!heals && rng.chance(0.55)) {
+  if (!heals && rng.chance(0.6)) {
+    // A failing tooth is extracted, re-treated or operated on some months after the disease shows.
     const type = rng.weighted<Exclude<ToothStatus, 'present'>>(
       kind === 'apical_surgery'
         ? [
-            ['extracted', 60],
-            ['retreated', 20],
-            ['surgery', 20],
+            ['extracted', 70],
+            ['retreated', 15],
+            ['surgery', 15],
           ]
         : kind === 'vital_pulp_therapy' || kind === 'regenerative_endodontics'
           ? [
@@ -761,40 +779,110 @@ function makeCase(
               ['extracted', 20],
             ]
           : [
-              ['extracted', 45],
-              ['retreated', 30],
+              ['extracted', 30],
+              ['retreated', 45],
               ['surgery', 25],
             ],
     );
-    event = { type, on: addDaysTo(completionDate, rng.int(150, 1200)), atPractice: rng.chance(0.5) };
-  } else if (heals && rng.chance(0.025)) {
-    // extracted for another reason (fracture, periodontal disease)
-    event = { type: 'extracted', on: addDaysTo(completionDate, rng.int(90, 1400)), atPractice: rng.chance(0.5) };
+    const shows = lesion ? rng.between(6, 14) : onsetMonths;
+    const atPractice = rng.chance(type === 'extracted' ? 0.35 : 0.8);
+    event = { type, on: months(shows + rng.between(1, 18)), atPractice, reason: type === 'extracted' ? (rng.chance(0.85) ? 'endodontic' : 'fracture') : undefined };
+  } else if (heals && rng.chance(0.02)) {
+    // extracted for another reason, about 0.5% a year
+    const reason = rng.weighted<ExtractionReason>([
+      ['fracture', 55],
+      ['periodontal', 30],
+      ['other', 15],
+    ]);
+    event = { type: 'extracted', on: months(rng.between(2, 48)), atPractice: rng.chance(0.35), reason };
   }
-  if (event && compareDates(event.on, today) > 0) event = null;
+  if (event && compareDates(event.on, addDaysTo(today, -1)) > 0) event = null;
   const course: Course = {
     heals,
-    healMonths: clamp(4 + data.lesionDiameterMm * 1.2 + rng.between(0, 10), 3, 60),
-    onsetMonths: rng.between(4, 30),
+    healMonths: 2 + 0.6 * data.lesionDiameterMm + -Math.log(1 - rng.next()) * 3,
+    earlyUnchanged: heals && lesion && rng.chance(0.15),
+    transientSign: heals && rng.chance(0.03),
+    onsetMonths,
     symptomatic: !heals && rng.chance(0.4),
     event,
   };
 
-  const referrer = rng.chance(0.88) ? rng.pick(referrers) : null;
+  const referrer = follows ? null : rng.chance(0.88) ? rng.pick(referrers) : null;
   const assessor = () => (rng.chance(0.8) ? operatorEmail : rng.pick(clinicians));
   const unplannedReviews: DemoReview[] = [];
-  let knownEventOn: CalendarDate | null = null;
-  if (event?.atPractice) {
-    knownEventOn = event.on;
-    unplannedReviews.push({ reviewDate: event.on, assessorEmail: assessor(), toothStatus: event.type });
+  const visits = simulateVisits(rng, data, person, course, today, assessor, unplannedReviews);
+  const own: DemoCase = { key, patientKey: person.registryNumber, previousCaseKey: follows?.previousKey ?? null, operatorEmail, referrerKey: referrer?.key ?? null, data, visits, unplannedReviews };
+  // A retreatment or surgery done here is the tooth's next case, linked to this one (at most two in a row).
+  if (event?.atPractice && event.doneOn && event.type !== 'extracted' && (follows?.depth ?? 0) < 2) {
+    const doneOn = event.doneOn;
+    const completion = addDaysTo(doneOn, rng.int(0, 21));
+    if (compareDates(completion, addDaysTo(today, -7)) <= 0) {
+      const next = makeCase(rng, `${key}-${event.type === 'retreated' ? 'r' : 's'}`, person, completion, today, clinicians, referrers, {
+        previousKey: key,
+        kind: event.type === 'retreated' ? 'nonsurgical_retreatment' : 'apical_surgery',
+        tooth,
+        depth: (follows?.depth ?? 0) + 1,
+      });
+      next[0]!.data.startDate = doneOn;
+      return [own, ...next];
+    }
   }
-  const visits = simulateVisits(rng, data, person, course, today, assessor, knownEventOn);
-  return { key, patientKey: person.registryNumber, operatorEmail, referrerKey: referrer?.key ?? null, data, visits, unplannedReviews };
+  return [own];
+}
+
+interface FollowOn {
+  previousKey: string;
+  kind: CaseKind;
+  tooth: number;
+  depth: number;
+}
+
+/**
+ * The chance that a case heals, by factor: set so the world's rates sit inside the literature's
+ * ranges (tests/unit/demo/rates.test.ts names them). Not an estimate of anything.
+ */
+function successProbability(f: {
+  kind: CaseKind;
+  lesion: boolean;
+  diameterMm: number;
+  fillClass: FillClass;
+  voids: boolean;
+  complications: Complication[];
+  patency: boolean;
+  sinusTract: boolean;
+}): number {
+  let p: number;
+  switch (f.kind) {
+    case 'primary_treatment':
+      p = f.lesion ? 0.95 - 0.012 * f.diameterMm : 0.95;
+      break;
+    case 'nonsurgical_retreatment':
+      p = f.lesion ? 0.84 - 0.012 * f.diameterMm : 0.9;
+      break;
+    case 'apical_surgery':
+      p = 0.86;
+      break;
+    case 'vital_pulp_therapy':
+      p = 0.9;
+      break;
+    case 'regenerative_endodontics':
+      p = 0.88;
+      break;
+  }
+  if (f.fillClass === 'short') p *= 0.78;
+  if (f.fillClass === 'beyond') p *= 0.88;
+  if (f.voids) p *= 0.95;
+  if (f.complications.includes('perforation')) p *= 0.75;
+  if (f.complications.includes('ledge')) p *= 0.95;
+  if (!f.patency) p *= 0.97;
+  if (f.sinusTract) p *= 0.97;
+  return clamp(p, 0.05, 0.98);
 }
 
 // --- the follow-up history ----------------------------------------------------------------------
 
-const ATTEND_RATE: Record<number, number> = { 6: 0.82, 12: 0.78, 24: 0.66, 48: 0.56 };
+/** Chance of attending a visit for a patient still in follow-up (leaving follow-up is `lostFrom`). */
+const ATTEND_RATE: Record<number, number> = { 6: 0.88, 12: 0.86, 24: 0.8, 48: 0.76 };
 
 function latest(...dates: CalendarDate[]): CalendarDate {
   return dates.reduce((a, b) => (compareDates(a, b) >= 0 ? a : b));
@@ -810,10 +898,32 @@ function simulateVisits(
   course: Course,
   today: CalendarDate,
   assessor: () => string,
-  knownEventAtStart: CalendarDate | null,
+  unplanned: DemoReview[],
 ): DemoVisit[] {
   const completion = data.completionDate;
-  let knownEventOn = knownEventAtStart;
+  let knownEventOn: CalendarDate | null = null;
+  const event = course.event;
+  /** The review at an attended visit; a failure found there may be extracted, re-treated or operated here that day. */
+  const attend = (attendedOn: CalendarDate): DemoReview => {
+    const review = reviewAt(rng, data, course, attendedOn, assessor());
+    if (review.toothStatus !== 'present') knownEventOn ??= attendedOn;
+    else if (event?.atPractice && !event.doneOn && compareDates(event.on, attendedOn) <= 0) {
+      // Done at the practice the day the visit finds it (a later date would leave the teeth
+      // censored at their own visit out of the comparison: the bias of issue 11).
+      const on = attendedOn;
+      {
+        event.doneOn = on;
+        knownEventOn ??= on;
+        unplanned.push({
+          reviewDate: on,
+          assessorEmail: assessor(),
+          toothStatus: event.type,
+          ...(event.type === 'extracted' && event.reason ? { extractionReason: event.reason } : {}),
+        });
+      }
+    }
+    return review;
+  };
   let closedOn: CalendarDate | null = null;
   const out: DemoVisit[] = [];
 
@@ -853,9 +963,7 @@ function simulateVisits(
           if (rng.chance(0.85)) step('confirmed', clampDate(addDaysTo(invited, rng.int(1, 14)), invited, attendedOn));
         }
         step('attended', attendedOn);
-        const review = reviewAt(rng, data, course, attendedOn, assessor());
-        if (review.toothStatus !== 'present') knownEventOn = knownEventOn ?? attendedOn;
-        out.push(finish('attended', review));
+        out.push(finish('attended', attend(attendedOn)));
         continue;
       }
       if (invitable && !lost && rng.chance(0.3)) {
@@ -881,7 +989,7 @@ function simulateVisits(
         if (!lost && rng.chance(0.2)) {
           const attendedOn = clampDate(addDaysTo(planned.windowStart, rng.int(0, 60)), planned.windowStart, today);
           step('attended', attendedOn);
-          out.push(finish('attended', reviewAt(rng, data, course, attendedOn, assessor())));
+          out.push(finish('attended', attend(attendedOn)));
         } else out.push(finish('planned'));
         continue;
       }
@@ -919,9 +1027,7 @@ function simulateVisits(
       }
       const attendedOn = clampDate(addDaysTo(confirmedOn, rng.int(3, 30)), latest(confirmedOn, planned.windowStart), today);
       step('attended', attendedOn);
-      const review = reviewAt(rng, data, course, attendedOn, assessor());
-      if (review.toothStatus !== 'present') knownEventOn = knownEventOn ?? attendedOn;
-      out.push(finish('attended', review));
+      out.push(finish('attended', attend(attendedOn)));
       continue;
     }
 
@@ -953,8 +1059,17 @@ function assertHistory(v: DemoVisit): void {
 
 /** What the assessor finds at `date` for a case on `course`. */
 function reviewAt(rng: Random, data: CaseImport, course: Course, date: CalendarDate, assessorEmail: string): DemoReview {
-  if (course.event && compareDates(course.event.on, date) <= 0) {
-    return { reviewDate: date, assessorEmail, toothStatus: course.event.type };
+  const event = course.event;
+  if (event && !event.atPractice && compareDates(event.on, date) <= 0) {
+    // Found at this review. An event elsewhere often comes with its date (the patient or their dentist knows it).
+    const dated = event.on !== date && rng.chance(0.6);
+    return {
+      reviewDate: date,
+      assessorEmail,
+      toothStatus: event.type,
+      ...(dated ? { eventDate: event.on } : {}),
+      ...(event.type === 'extracted' && event.reason ? { extractionReason: event.reason } : {}),
+    };
   }
   const months = daysBetween(data.completionDate, date) / 30.44;
   const pai0 = data.paiScore;
@@ -963,14 +1078,15 @@ function reviewAt(rng: Random, data: CaseImport, course: Course, date: CalendarD
   let found: Pick<DemoReview, 'paiScore' | 'lesionDiameterMm'>;
   const signs: Partial<DemoReview> = {};
   if (course.heals) {
-    if (lesion0 === 0 || months >= course.healMonths) found = healthy();
+    if (pai0 <= 2 || lesion0 === 0 || months >= course.healMonths) found = healthy();
+    else if (course.earlyUnchanged && months < 8) found = { lesionDiameterMm: lesion0, paiScore: pai0 };
     else {
       const mm = Math.max(0.5, roundTo(lesion0 * Math.pow(1 - months / course.healMonths, 0.8), 0.5));
       found = { lesionDiameterMm: mm, paiScore: clamp(paiForLesion(mm), 3, Math.max(3, pai0 - 1)) };
     }
-    if (months < 8 && rng.chance(0.04)) signs.tenderToPercussion = true;
+    if (course.transientSign && months < 8) signs.tenderToPercussion = true;
   } else {
-    if (lesion0 === 0) {
+    if (pai0 <= 2 || lesion0 === 0) {
       if (months < course.onsetMonths) found = healthy();
       else {
         const mm = roundTo(rng.between(1.5, 5), 0.5);

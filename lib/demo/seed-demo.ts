@@ -18,6 +18,7 @@ import { caseColumns } from '../services/cases';
 import { patientColumns } from '../services/patients';
 import { bulkInsert, todayIn } from '../services/registry-common';
 import { computeOutcome } from '../services/reviews';
+import { DEFAULT_MIN_OBSERVATION_DAYS } from '../scoring';
 import { visitSummary } from '../services/visits';
 import { DEMO_EXTRA_CLINICIANS, generateDemoWorld, type DemoReview, type DemoWorld } from './cases';
 import { DEMO_LOCUM, DEMO_PASSWORD, DEMO_PRACTICE, DEMO_PRACTICE_B, DEMO_USERS, DEMO_USERS_B } from './people';
@@ -42,7 +43,7 @@ type Staff = { email: string; name: string; roles: readonly string[] };
 
 /**
  * Creates what is missing of the demo practice, its users and its invented registry
- * (lib/demo/cases.ts: ≥600 completed cases over four years, visits in every status, reviews
+ * (lib/demo/cases.ts: 760 completed cases over five years, visits in every status, reviews
  * whose outcomes the scoring rules compute), then the same for a small second practice; the
  * locum clinician belongs to both. Never duplicates: a second run adds nothing. Bulk inserts
  * in one transaction.
@@ -56,7 +57,7 @@ export async function seedDemo(em: EntityManager): Promise<SeedResult> {
     const world = generateDemoWorld({ today: todayIn(practice.timeZone) });
     practice.recallPolicy = world.practice.recallPolicy;
     await em.flush();
-    Object.assign(registry, await persistWorld(em, practice.id, world, a.userIds), { seeded: true });
+    Object.assign(registry, await persistWorld(em, practice.id, world, a.userIds, practice.minObservationDays ?? DEFAULT_MIN_OBSERVATION_DAYS), { seeded: true });
   } else {
     registry.patients = await em.count(PatientSchema, { practice: practice.id });
     registry.cases = await em.count(TreatmentCaseSchema, { practice: practice.id });
@@ -73,7 +74,7 @@ export async function seedDemo(em: EntityManager): Promise<SeedResult> {
     // and the locum treat its cases instead.
     const clinicians = [b.userIds.get(demoClinicianB())!, b.userIds.get(DEMO_LOCUM.email)!];
     const ids = new Map(world.staff.map((s, i) => [s.email, clinicians[i % clinicians.length]!]));
-    await persistWorld(em, b.practice.id, world, ids);
+    await persistWorld(em, b.practice.id, world, ids, b.practice.minObservationDays ?? DEFAULT_MIN_OBSERVATION_DAYS);
   }
   return {
     practiceName: practice.name,
@@ -116,8 +117,9 @@ async function seedPractice(em: EntityManager, def: { slug: string; name: string
 const SIGNS: readonly ReviewSign[] = ['painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain', 'swelling', 'sinusTract', 'mobility'];
 const noon = (date: string) => new Date(`${date}T12:00:00Z`);
 
-async function persistWorld(em: EntityManager, practiceId: string, world: DemoWorld, userIds: Map<string, string>) {
+async function persistWorld(em: EntityManager, practiceId: string, world: DemoWorld, userIds: Map<string, string>, minObservationDays: number) {
   const referrerIds = new Map(world.referrers.map((r) => [r.key, randomUUID()]));
+  const caseIds = new Map(world.cases.map((c) => [c.key, randomUUID()]));
   const patientIds = new Map(world.patients.map((p) => [p.key, randomUUID()]));
   const now = new Date();
   const clinicianId = (email: string) => {
@@ -156,6 +158,7 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
       toothStatus: r.toothStatus,
       paiScore: r.toothStatus === 'extracted' ? null : (r.paiScore ?? null),
       signs,
+      minObservationDays,
     });
     reviews.push({
       id: randomUUID(),
@@ -170,6 +173,8 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
       lesionDiameterMm: r.toothStatus === 'extracted' ? null : (r.lesionDiameterMm ?? null),
       signs,
       otherFindings: null,
+      eventDate: r.eventDate ?? null,
+      extractionReason: r.extractionReason ?? null,
       outcome: a.outcome,
       successStrict: a.successStrict,
       successLenient: a.successLenient,
@@ -180,7 +185,7 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
   };
 
   for (const c of world.cases) {
-    const id = randomUUID();
+    const id = caseIds.get(c.key)!;
     cases.push({
       id,
       practice: practiceId,
@@ -191,6 +196,7 @@ async function persistWorld(em: EntityManager, practiceId: string, world: DemoWo
         referrerId: c.referrerKey ? referrerIds.get(c.referrerKey) : undefined,
       }),
       ...visitSummary(c.visits),
+      previousCase: c.previousCaseKey ? caseIds.get(c.previousCaseKey)! : null,
       source: 'demo',
       createdAt: noon(c.data.completionDate),
       updatedAt: noon(c.data.completionDate),

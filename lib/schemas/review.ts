@@ -7,6 +7,9 @@
  * Tooth status: present, or found extracted / retreated / operated (apical surgery) since the
  * last review. An extracted tooth has nothing to score, so PAI, lesion and signs are dropped for
  * it; a present tooth needs its PAI (Ørstavik 1986) and lesion diameter (0 = none).
+ *
+ * An extraction, retreatment or apical surgery that happened on another day (elsewhere, reported
+ * at this review) may carry its own `eventDate`; an extraction records its reason.
  */
 import { z } from 'zod';
 import { Id, blankAsUndefined, calendarDate, text } from '@/lib/registry/fields';
@@ -21,9 +24,23 @@ export const TOOTH_STATUS_LABELS: Record<ToothStatus, string> = {
   surgery: 'Apical surgery done',
 };
 
+/** Why an extracted tooth was extracted. */
+export const EXTRACTION_REASONS = ['endodontic', 'fracture', 'periodontal', 'other'] as const;
+export type ExtractionReason = (typeof EXTRACTION_REASONS)[number];
+export const EXTRACTION_REASON_LABELS: Record<ExtractionReason, string> = {
+  endodontic: 'Endodontic (persistent disease)',
+  fracture: 'Fracture',
+  periodontal: 'Periodontal disease',
+  other: 'Other reason',
+};
+
+/** The statuses that record an event: the tooth extracted, retreated or operated. */
+export const EVENT_STATUSES: readonly ToothStatus[] = ['extracted', 'retreated', 'surgery'];
+
 /**
- * Clinical signs and symptoms at the review (each yes/no; absent = not recorded). The names match
- * the clinical signs the scoring rules read, plus percussion and mobility, which are recorded too.
+ * Clinical signs and symptoms at the review (each yes/no; absent = not recorded). The scoring rules
+ * read every one as a sign of disease except increased mobility, which is recorded and not scored
+ * (a periodontal finding, not one of Friedman & Mor's 2004 signs; lib/scoring/README.md).
  */
 export const REVIEW_SIGNS = [
   'painOnBiting',
@@ -35,6 +52,8 @@ export const REVIEW_SIGNS = [
   'mobility',
 ] as const;
 export type ReviewSign = (typeof REVIEW_SIGNS)[number];
+/** The signs the outcome rules read (all but mobility). */
+export const SCORED_REVIEW_SIGNS: readonly ReviewSign[] = REVIEW_SIGNS.filter((s) => s !== 'mobility');
 export const REVIEW_SIGN_LABELS: Record<ReviewSign, string> = {
   painOnBiting: 'Pain on biting',
   tenderToPercussion: 'Tender to percussion',
@@ -65,6 +84,11 @@ const ReviewObject = z.object({
   sinusTract: z.boolean().optional(),
   mobility: z.boolean().optional(),
   otherFindings: blankAsUndefined(text({ max: 500 })),
+  /** The day of the extraction, retreatment or surgery, when not the review date. */
+  eventDate: blankAsUndefined(calendarDate('the date of the event')),
+  extractionReason: blankAsUndefined(
+    z.enum(EXTRACTION_REASONS, { error: `Choose the reason for the extraction: ${EXTRACTION_REASONS.join(', ')}.` }),
+  ),
 });
 
 type ReviewShape = Partial<z.output<typeof ReviewObject>>;
@@ -90,6 +114,15 @@ const reviewRules =
     }
     const mismatch = paiLesionMismatch(r.paiScore, r.lesionDiameterMm);
     if (mismatch) ctx.addIssue({ code: 'custom', path: ['lesionDiameterMm'], message: mismatch });
+    if (r.toothStatus !== undefined && r.eventDate !== undefined && !EVENT_STATUSES.includes(r.toothStatus)) {
+      ctx.addIssue({ code: 'custom', path: ['eventDate'], message: 'An event date goes with an extraction, retreatment or apical surgery; leave it empty for a present tooth.' });
+    }
+    if (r.eventDate !== undefined && r.reviewDate !== undefined && r.eventDate > r.reviewDate) {
+      ctx.addIssue({ code: 'custom', path: ['eventDate'], message: 'The event cannot come after the review that records it.' });
+    }
+    if (r.toothStatus !== undefined && r.extractionReason !== undefined && r.toothStatus !== 'extracted') {
+      ctx.addIssue({ code: 'custom', path: ['extractionReason'], message: 'A reason goes with an extraction only.' });
+    }
   };
 
 const wrap = <T extends z.ZodType>(schema: T) => z.preprocess(dropForExtracted, schema);

@@ -4,10 +4,12 @@
  *
  * - periapical index (PAI 1–5) and the CBCT periapical index (0–5 with E/D)
  * - fill-length class of a root filling
- * - outcome of one review (healed, healing, disease; tooth extracted,
- *   retreated, apical surgery) with success strict / lenient
+ * - outcome of one review (healed, healing, uncertain, disease; tooth
+ *   extracted, retreated, apical surgery) with success strict / lenient
  * - the case's current outcome, time to failure and tooth survival, as
  *   { time, event } observations for lib/stats
+ * - a case's healing and tooth-loss endpoints as interval-censored
+ *   observations (caseObservations)
  *
  * Scores support clinical judgement and do not diagnose: show
  * SCORING_CAUTION beside them. Rules and boundaries: lib/scoring/README.md.
@@ -25,10 +27,17 @@ export {
   currentOutcome,
   timeToFailure,
   toothSurvival,
+  isFailure,
+  isTerminal,
+  DEFAULT_MIN_OBSERVATION_DAYS,
   HEALING_WINDOW_DAYS,
   OUTCOME_LABELS,
   TERMINAL_EVENTS,
 } from './outcome';
+export { caseObservations } from './observations';
+export type { CaseHistory, CaseObservations, Interval, ObservedReview, ObservationOptions } from './observations';
+export { assessRecordedReview, recordedHistory, TERMINAL_EVENT_OF_STATUS } from './recorded';
+export type { RecordedCase, RecordedReview, RecordedToothStatus } from './recorded';
 export type {
   ReviewOutcome,
   TerminalEvent,

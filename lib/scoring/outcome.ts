@@ -7,15 +7,24 @@
  *  1. A terminal event recorded at the review — tooth extracted, retreated,
  *     apical surgery — is the outcome.
  *  2. disease: any clinical sign or symptom (sinus tract, swelling, pain on
- *     biting, tenderness to palpation, spontaneous pain); or a lesion that is
- *     new (none at baseline), unchanged or larger than at baseline; or a
- *     lesion still only smaller than at baseline more than four years
- *     (1461 days) after treatment (common practice, following the European
- *     Society of Endodontology's 2006 quality guidelines).
- *  3. healed: clinically normal and no lesion (PAI 1–2; CBCT-PAI 0 by diameter).
- *  4. healing: clinically normal, lesion smaller than at baseline, review at
+ *     biting, tenderness to percussion, tenderness to palpation, spontaneous
+ *     pain — Friedman & Mor 2004 count tenderness to percussion and to
+ *     palpation as signs of disease); or a lesion that is new (none at
+ *     baseline) or larger than at baseline, at any time; or a lesion
+ *     unchanged from baseline at a review on or after the practice's minimum
+ *     observation time (default 365 days); or a lesion still only smaller
+ *     than at baseline more than four years (1461 days) after treatment
+ *     (the European Society of Endodontology's 2006 quality guidelines:
+ *     judge at one year, follow an unchanged or smaller lesion up to four).
+ *  3. uncertain: clinically normal and a lesion unchanged from baseline at a
+ *     review before the minimum observation time — too early to judge
+ *     (ESE 2006). Neither success nor failure.
+ *  4. healed: clinically normal and no lesion (PAI 1–2; CBCT-PAI 0 by diameter).
+ *  5. healing: clinically normal, lesion smaller than at baseline, review at
  *     most 1461 days after treatment (day 1461 is still within the window).
- * Success strict = healed; success lenient = healed or healing.
+ * Success strict = healed; success lenient = healed or healing. Increased
+ * mobility is recorded but is not read: it is a periodontal finding, not
+ * one of Friedman & Mor's signs of apical disease.
  *
  * The lesion is compared on one scale: both PAI scores, or both diameters in
  * mm (CBCT). Mixing the two is an error, as a PAI score and a diameter cannot
@@ -26,13 +35,14 @@ import { roundMm } from './measure';
 import { checkPai, PAI_HEALTHY_MAX } from './pai';
 
 export type TerminalEvent = 'tooth-extracted' | 'retreated' | 'apical-surgery';
-export type ReviewOutcome = 'healed' | 'healing' | 'disease' | TerminalEvent;
+export type ReviewOutcome = 'healed' | 'healing' | 'uncertain' | 'disease' | TerminalEvent;
 
 export const TERMINAL_EVENTS: readonly TerminalEvent[] = ['tooth-extracted', 'retreated', 'apical-surgery'];
 
 export const OUTCOME_LABELS: Readonly<Record<ReviewOutcome, string>> = {
   healed: 'Healed',
   healing: 'Healing',
+  uncertain: 'Uncertain',
   disease: 'Disease',
   'tooth-extracted': 'Tooth extracted',
   retreated: 'Retreated',
@@ -42,6 +52,12 @@ export const OUTCOME_LABELS: Readonly<Record<ReviewOutcome, string>> = {
 /** The observation window for "healing": four years, in days (4 x 365.25). */
 export const HEALING_WINDOW_DAYS = 1461;
 
+/**
+ * The default minimum observation time, in days: before it an unchanged lesion is
+ * "uncertain", from it on "disease" (ESE 2006: judge at one year). A practice may set its own.
+ */
+export const DEFAULT_MIN_OBSERVATION_DAYS = 365;
+
 /** A lesion measured on one of the two scales. */
 export type LesionMeasure = { pai: number } | { diameterMm: number };
 
@@ -49,14 +65,20 @@ export interface ClinicalSigns {
   sinusTract?: boolean;
   swelling?: boolean;
   painOnBiting?: boolean;
+  tenderToPercussion?: boolean;
   tenderToPalpation?: boolean;
   spontaneousPain?: boolean;
+  /** Recorded, not read by the rules (a periodontal finding, not a sign of apical disease). */
+  mobility?: boolean;
 }
 
-const SIGN_WORDS: Readonly<Record<keyof ClinicalSigns, string>> = {
+type ScoredSign = Exclude<keyof ClinicalSigns, 'mobility'>;
+
+const SIGN_WORDS: Readonly<Record<ScoredSign, string>> = {
   sinusTract: 'sinus tract',
   swelling: 'swelling',
   painOnBiting: 'pain on biting',
+  tenderToPercussion: 'tender to percussion',
   tenderToPalpation: 'tender to palpation',
   spontaneousPain: 'spontaneous pain',
 };
@@ -70,6 +92,11 @@ export interface ReviewFindings {
   current?: LesionMeasure;
   signs?: ClinicalSigns;
   terminalEvent?: TerminalEvent;
+  /**
+   * The practice's minimum observation time in days (default 365): an unchanged lesion
+   * before it is uncertain, from it on disease.
+   */
+  minObservationDays?: number;
 }
 
 export interface ReviewAssessment {
@@ -112,6 +139,14 @@ function result(days: number, outcome: ReviewOutcome, reasons: string[]): Review
   };
 }
 
+function checkMinObservation(days: unknown): number {
+  if (days === undefined) return DEFAULT_MIN_OBSERVATION_DAYS;
+  if (typeof days !== 'number' || !Number.isInteger(days) || days < 0 || days > HEALING_WINDOW_DAYS) {
+    throw new RangeError(`minObservationDays must be whole days from 0 to ${HEALING_WINDOW_DAYS}, got ${String(days)}`);
+  }
+  return days;
+}
+
 function checkDays(days: unknown): number {
   if (typeof days !== 'number' || !Number.isFinite(days) || days < 0) {
     throw new RangeError(`daysSinceTreatment must be a number of days >= 0, got ${String(days)}`);
@@ -123,6 +158,7 @@ function checkDays(days: unknown): number {
 export function assessReview(f: ReviewFindings): ReviewAssessment {
   if (f === null || typeof f !== 'object') throw new TypeError('assessReview expects the review findings');
   const days = checkDays(f.daysSinceTreatment);
+  const minObservation = checkMinObservation(f.minObservationDays);
   if (f.terminalEvent !== undefined) {
     if (!TERMINAL_EVENTS.includes(f.terminalEvent)) {
       throw new RangeError(`terminalEvent must be one of ${TERMINAL_EVENTS.join(', ')}, got ${String(f.terminalEvent)}`);
@@ -137,16 +173,21 @@ export function assessReview(f: ReviewFindings): ReviewAssessment {
   }
   const reasons: string[] = [];
   const signs = f.signs ?? {};
-  for (const key of Object.keys(SIGN_WORDS) as (keyof ClinicalSigns)[]) {
+  for (const key of Object.keys(SIGN_WORDS) as ScoredSign[]) {
     if (signs[key] === true) reasons.push(SIGN_WORDS[key]);
   }
+  const unchanged = now.lesion && base.lesion && now.size === base.size;
+  const early = days < minObservation;
   if (now.lesion) {
     if (!base.lesion) reasons.push('new lesion');
-    else if (now.size === base.size) reasons.push('lesion unchanged');
+    else if (unchanged && !early) reasons.push('lesion unchanged');
     else if (now.size > base.size) reasons.push('lesion larger');
-    else if (days > HEALING_WINDOW_DAYS) reasons.push('lesion smaller but still present after four years');
+    else if (now.size < base.size && days > HEALING_WINDOW_DAYS) reasons.push('lesion smaller but still present after four years');
   }
   if (reasons.length > 0) return result(days, 'disease', reasons);
+  if (unchanged) {
+    return result(days, 'uncertain', ['clinically normal', `lesion unchanged before the minimum observation time (${minObservation} days): too early to judge`]);
+  }
   if (!now.lesion) return result(days, 'healed', ['clinically normal', 'no lesion']);
   return result(days, 'healing', ['clinically normal', 'lesion smaller than at baseline']);
 }
@@ -160,10 +201,11 @@ export interface ReviewedOutcome {
 const SEVERITY: Readonly<Record<ReviewOutcome, number>> = {
   healed: 0,
   healing: 1,
-  disease: 2,
-  retreated: 3,
-  'apical-surgery': 4,
-  'tooth-extracted': 5,
+  uncertain: 2,
+  disease: 3,
+  retreated: 4,
+  'apical-surgery': 5,
+  'tooth-extracted': 6,
 };
 
 function sortedReviews(reviews: readonly ReviewedOutcome[]): ReviewedOutcome[] {
@@ -179,7 +221,9 @@ function sortedReviews(reviews: readonly ReviewedOutcome[]): ReviewedOutcome[] {
   return [...reviews].sort((a: ReviewedOutcome, b: ReviewedOutcome) => a.daysSinceTreatment - b.daysSinceTreatment || SEVERITY[a.outcome] - SEVERITY[b.outcome]);
 }
 
-const isTerminal = (o: ReviewOutcome): o is TerminalEvent => (TERMINAL_EVENTS as readonly string[]).includes(o);
+export const isTerminal = (o: ReviewOutcome): o is TerminalEvent => (TERMINAL_EVENTS as readonly string[]).includes(o);
+/** A failure of the healing endpoint: disease or a terminal event. Uncertain is not one. */
+export const isFailure = (o: ReviewOutcome): boolean => o === 'disease' || isTerminal(o);
 
 /**
  * The case's current outcome: that of its latest review, except that a
@@ -205,14 +249,25 @@ export interface TimeObservation {
 }
 
 /**
- * Time to failure: days from completion to the first review showing disease
- * or a terminal event (event = true); otherwise censored at the last review.
- * The failure is only seen at a visit, so true failure times are
- * interval-censored between two reviews; Lamina, like the literature, takes
- * the date of the visit. null when there is no review.
+ * Time to failure, as a { time, event } observation on review dates: the failure that
+ * stands — disease or a terminal event at the latest review, as `currentOutcome` — dated
+ * at the first review of its unbroken run of failing reviews (event = true); otherwise
+ * censored at the last review. An early disease that a later review finds resolved
+ * (healed, healing or uncertain) is not a failure: the two functions always agree.
+ * The failure is only seen at a visit; `caseObservations` gives the honest interval.
+ * null when there is no review.
  */
 export function timeToFailure(reviews: readonly ReviewedOutcome[]): TimeObservation | null {
-  return firstEventOrCensored(reviews, (o) => o === 'disease' || isTerminal(o));
+  const s = sortedReviews(reviews);
+  if (s.length === 0) return null;
+  let runStart: number | null = null;
+  for (const r of s) {
+    if (isTerminal(r.outcome)) return { time: runStart ?? r.daysSinceTreatment, event: true };
+    if (r.outcome === 'disease') runStart ??= r.daysSinceTreatment;
+    else runStart = null; // on one day the more severe outcome sorts last, so a same-day healed cannot undo a disease
+  }
+  if (runStart !== null) return { time: runStart, event: true };
+  return { time: s[s.length - 1].daysSinceTreatment, event: false };
 }
 
 /**
@@ -221,14 +276,9 @@ export function timeToFailure(reviews: readonly ReviewedOutcome[]): TimeObservat
  * the tooth and are not events here. null when there is no review.
  */
 export function toothSurvival(reviews: readonly ReviewedOutcome[]): TimeObservation | null {
-  return firstEventOrCensored(reviews, (o) => o === 'tooth-extracted');
-}
-
-/** Days to the first review whose outcome is an event (event = true), else censored at the last review; null without reviews. */
-function firstEventOrCensored(reviews: readonly ReviewedOutcome[], isEvent: (o: ReviewOutcome) => boolean): TimeObservation | null {
   const s = sortedReviews(reviews);
   if (s.length === 0) return null;
-  const first = s.find((r) => isEvent(r.outcome));
+  const first = s.find((r) => r.outcome === 'tooth-extracted');
   if (first) return { time: first.daysSinceTreatment, event: true };
   return { time: s[s.length - 1].daysSinceTreatment, event: false };
 }

@@ -14,6 +14,8 @@ export interface PracticeSettingsView {
   toothNotation: ToothNotation;
   timeZone: string;
   recallPolicy: RecallPolicy;
+  /** Days before which an unchanged lesion is "uncertain" (lib/scoring assessReview). */
+  minObservationDays: number;
 }
 
 /** The practice's settings as the administrator's settings page shows them. */
@@ -25,20 +27,28 @@ export async function getPracticeSettings(em: EntityManager, actor: Actor): Prom
     toothNotation: practice.toothNotation as ToothNotation,
     timeZone: practice.timeZone,
     recallPolicy: recallPolicyOf(practice.recallPolicy),
+    minObservationDays: practice.minObservationDays,
   };
 }
 
 /**
- * Changes the tooth notation and/or the recall policy. A new recall policy applies to cases
- * completed from now on (and to visits moved by a changed completion date); existing plans stay.
+ * Changes the tooth notation, the recall policy and/or the minimum observation time. A new recall
+ * policy applies to cases completed from now on (and to visits moved by a changed completion date);
+ * existing plans stay. A new minimum observation time applies to reviews recorded or reassessed
+ * from now on; stored outcomes stay as they were scored.
  */
 export async function updatePracticeSettings(em: EntityManager, actor: Actor, raw: unknown): Promise<PracticeSettingsView> {
   assertCan(actor, 'team.manage');
   const patch = parseInput(PracticeSettingsPatch, raw);
   const practice = await em.findOneOrFail(PracticeSchema, actor.practiceId);
-  const before = { toothNotation: practice.toothNotation, recallMonths: practice.recallPolicy.milestones.map((m) => m.months) };
+  const before = {
+    toothNotation: practice.toothNotation,
+    recallMonths: practice.recallPolicy.milestones.map((m) => m.months),
+    minObservationDays: practice.minObservationDays,
+  };
   if (patch.toothNotation) practice.toothNotation = patch.toothNotation;
   if (patch.recallPolicy) practice.recallPolicy = patch.recallPolicy;
+  if (patch.minObservationDays !== undefined) practice.minObservationDays = patch.minObservationDays;
   await em.flush();
   await audit(em, actor, {
     action: 'practice.settings_changed',
@@ -46,7 +56,11 @@ export async function updatePracticeSettings(em: EntityManager, actor: Actor, ra
     entityId: practice.id,
     detail: {
       before: JSON.stringify(before),
-      after: JSON.stringify({ toothNotation: practice.toothNotation, recallMonths: practice.recallPolicy.milestones.map((m) => m.months) }),
+      after: JSON.stringify({
+        toothNotation: practice.toothNotation,
+        recallMonths: practice.recallPolicy.milestones.map((m) => m.months),
+        minObservationDays: practice.minObservationDays,
+      }),
     },
   });
   return getPracticeSettings(em, actor);

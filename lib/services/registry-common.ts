@@ -30,18 +30,21 @@ export interface PracticeSettings {
   toothNotation: ToothNotation;
   timeZone: string;
   recallPolicy: RecallPolicy;
+  /** Days before which an unchanged lesion is "uncertain" (lib/scoring assessReview). */
+  minObservationDays: number;
 }
 
 /** The practice's notation, time zone and recall policy (a stored policy that no longer parses falls back to the default). */
 export async function practiceSettings(em: EntityManager, practiceId: string): Promise<PracticeSettings> {
   const practice = await em.findOneOrFail(PracticeSchema, practiceId, {
-    fields: ['id', 'toothNotation', 'timeZone', 'recallPolicy'],
+    fields: ['id', 'toothNotation', 'timeZone', 'recallPolicy', 'minObservationDays'],
   });
   return {
     id: practice.id,
     toothNotation: practice.toothNotation as ToothNotation,
     timeZone: practice.timeZone,
     recallPolicy: recallPolicyOf(practice.recallPolicy),
+    minObservationDays: practice.minObservationDays,
   };
 }
 

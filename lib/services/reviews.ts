@@ -3,16 +3,23 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { RecallVisitSchema, ReviewSchema, UserSchema, type Review, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { isOpenStatus, type VisitStatus } from '@/lib/recall';
-import { daysBetween } from '@/lib/registry/calendar-date';
-import { ReviewCreateSchema, TOOTH_STATUS_LABELS, type ReviewSign, type ToothStatus } from '@/lib/schemas/review';
+import {
+  EXTRACTION_REASON_LABELS,
+  REVIEW_SIGNS,
+  ReviewCreateSchema,
+  TOOTH_STATUS_LABELS,
+  type ExtractionReason,
+  type ReviewSign,
+  type ToothStatus,
+} from '@/lib/schemas/review';
 import {
   OUTCOME_LABELS,
   SCORING_CAUTION,
-  assessReview,
+  TERMINAL_EVENT_OF_STATUS,
+  assessRecordedReview,
   currentOutcome,
   type ReviewAssessment,
   type ReviewOutcome,
-  type TerminalEvent,
 } from '@/lib/scoring';
 import { audit } from './audit';
 import { ConflictError, ValidationError } from './errors';
@@ -35,6 +42,10 @@ export interface ReviewView {
   lesionDiameterMm: number | null;
   signs: Partial<Record<ReviewSign, boolean>>;
   otherFindings: string | null;
+  /** The day of the extraction, retreatment or surgery when it is not the review date. */
+  eventDate: string | null;
+  extractionReason: ExtractionReason | null;
+  extractionReasonLabel: string | null;
   /** Computed by lib/scoring from the findings — never typed. */
   outcome: ReviewOutcome;
   outcomeLabel: string;
@@ -53,12 +64,6 @@ export interface CaseReviews {
   caution: string;
 }
 
-const TERMINAL: Partial<Record<ToothStatus, TerminalEvent>> = {
-  extracted: 'tooth-extracted',
-  retreated: 'retreated',
-  surgery: 'apical-surgery',
-};
-
 export interface OutcomeInput {
   /** The case's PAI before treatment. */
   baselinePai: number;
@@ -67,33 +72,21 @@ export interface OutcomeInput {
   toothStatus: ToothStatus;
   paiScore?: number | null;
   signs?: Partial<Record<ReviewSign, boolean>>;
+  /** The practice's minimum observation time (days); the rules' default (365) when left out. */
+  minObservationDays?: number;
 }
 
 /**
- * The outcome of a review by lib/scoring `assessReview`. The lesion is compared on the PAI
- * scale — the case's PAI before treatment against the PAI at the review — because every case
- * and every review of a present tooth has one (the diameters are kept for display and for CBCT
- * later; mixing scales is refused by the scoring rules). Signs read: sinus tract, swelling,
- * pain on biting, tender to palpation, spontaneous pain (tenderness to percussion and mobility
- * are recorded, and the scoring rules do not read them).
+ * The outcome of a review by lib/scoring (`assessRecordedReview`: the case's PAI before treatment
+ * against the PAI at the review). Every recorded sign is read as a sign of disease — tenderness to
+ * percussion included (Friedman & Mor 2004) — except increased mobility, which is recorded only.
  */
 export function computeOutcome(input: OutcomeInput): ReviewAssessment {
-  const days = daysBetween(input.completionDate, input.reviewDate);
-  const terminalEvent = TERMINAL[input.toothStatus];
-  const s = input.signs ?? {};
-  return assessReview({
-    daysSinceTreatment: days,
-    baseline: { pai: input.baselinePai },
-    ...(input.paiScore !== undefined && input.paiScore !== null ? { current: { pai: input.paiScore } } : {}),
-    signs: {
-      sinusTract: s.sinusTract,
-      swelling: s.swelling,
-      painOnBiting: s.painOnBiting,
-      tenderToPalpation: s.tenderToPalpation,
-      spontaneousPain: s.spontaneousPain,
-    },
-    ...(terminalEvent ? { terminalEvent } : {}),
-  });
+  return assessRecordedReview(
+    { completionDate: input.completionDate, baselinePai: input.baselinePai },
+    { reviewDate: input.reviewDate, toothStatus: input.toothStatus, paiScore: input.paiScore, signs: input.signs ?? {} },
+    input.minObservationDays,
+  );
 }
 
 /** The reviews of a case with their computed outcomes, oldest first. Audited as a read. */
@@ -143,8 +136,10 @@ export async function createReview(
     }
   }
 
+  if (input.eventDate !== undefined) await assertEventDate(em, c.id, c.completionDate, input.eventDate, input.reviewDate);
+
   const signs: Partial<Record<ReviewSign, boolean>> = {};
-  for (const key of ['painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain', 'swelling', 'sinusTract', 'mobility'] as const) {
+  for (const key of REVIEW_SIGNS) {
     if (input[key] !== undefined) signs[key] = input[key];
   }
   const assessment = computeOutcome({
@@ -154,6 +149,7 @@ export async function createReview(
     toothStatus: input.toothStatus,
     paiScore: input.paiScore,
     signs,
+    minObservationDays: settings.minObservationDays,
   });
   const review = em.create(ReviewSchema, {
     practice: actor.practiceId,
@@ -167,6 +163,8 @@ export async function createReview(
     lesionDiameterMm: input.lesionDiameterMm ?? null,
     signs,
     otherFindings: input.otherFindings ?? null,
+    eventDate: input.eventDate ?? null,
+    extractionReason: input.extractionReason ?? null,
     outcome: assessment.outcome,
     successStrict: assessment.successStrict,
     successLenient: assessment.successLenient,
@@ -174,7 +172,7 @@ export async function createReview(
   } as never) as Review;
 
   const cancelled: string[] = [];
-  if (TERMINAL[input.toothStatus]) {
+  if (TERMINAL_EVENT_OF_STATUS[input.toothStatus]) {
     for (const v of visits) {
       if (v.id !== visitId && isOpenStatus(v.status as VisitStatus)) {
         setStatus(v, 'cancelled', actor.userId);
@@ -201,6 +199,17 @@ export async function createReview(
 }
 
 /**
+ * An event date lies between completion and the review that records it, and not before an
+ * earlier review of the case (that review saw the tooth as it was then).
+ */
+async function assertEventDate(em: EntityManager, caseId: string, completionDate: string, eventDate: string, reviewDate: string): Promise<void> {
+  const problem = (message: string) => new ValidationError('Some fields need attention.', { eventDate: [message] });
+  if (eventDate < completionDate) throw problem(`The event date is before the completion date (${completionDate}).`);
+  const earlier = await em.findOne(ReviewSchema, { case: caseId, reviewDate: { $lte: reviewDate, $gt: eventDate } }, { fields: ['id', 'reviewDate'], orderBy: { reviewDate: 'desc' } });
+  if (earlier) throw problem(`The review of ${earlier.reviewDate} comes after this date and found no such event: check the date, or correct that review.`);
+}
+
+/**
  * Recomputes days and outcomes of a case's reviews after its completion date or baseline PAI
  * changed (the outcome depends on both). Throws a 422 when a review would fall before completion.
  */
@@ -208,6 +217,7 @@ export async function reassessReviews(em: EntityManager, c: TreatmentCase): Prom
   const reviews = await em.find(ReviewSchema, { case: c.id });
   if (reviews.length === 0) return 0;
   if (!c.completionDate) throw new ConflictError('The case has reviews: its completion date cannot be cleared.');
+  const { minObservationDays } = await practiceSettings(em, c.practice.id);
   for (const r of reviews) {
     if (r.reviewDate < c.completionDate) {
       throw new ValidationError('Some fields need attention.', {
@@ -221,6 +231,7 @@ export async function reassessReviews(em: EntityManager, c: TreatmentCase): Prom
       toothStatus: r.toothStatus as ToothStatus,
       paiScore: r.paiScore,
       signs: r.signs,
+      minObservationDays,
     });
     r.daysSinceCompletion = a.daysSinceTreatment;
     r.outcome = a.outcome;
@@ -258,6 +269,9 @@ export async function caseReviews(em: EntityManager, caseId: string): Promise<Ca
       lesionDiameterMm: r.lesionDiameterMm === null || r.lesionDiameterMm === undefined ? null : Number(r.lesionDiameterMm),
       signs: r.signs ?? {},
       otherFindings: r.otherFindings ?? null,
+      eventDate: r.eventDate ?? null,
+      extractionReason: (r.extractionReason as ExtractionReason | null | undefined) ?? null,
+      extractionReasonLabel: r.extractionReason ? EXTRACTION_REASON_LABELS[r.extractionReason as ExtractionReason] : null,
       outcome: r.outcome as ReviewOutcome,
       outcomeLabel: OUTCOME_LABELS[r.outcome as ReviewOutcome],
       successStrict: r.successStrict,

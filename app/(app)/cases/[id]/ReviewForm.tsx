@@ -4,14 +4,33 @@ import { useRouter } from 'next/navigation';
 import { useForm, useWatch, type Resolver } from 'react-hook-form';
 import { zodResolver } from '@hookform/resolvers/zod';
 import { z } from 'zod';
-import { REVIEW_SIGNS, REVIEW_SIGN_LABELS, ReviewCreateSchema, TOOTH_STATUSES, TOOTH_STATUS_LABELS } from '@/lib/schemas/review';
+import {
+  EVENT_STATUSES,
+  EXTRACTION_REASONS,
+  EXTRACTION_REASON_LABELS,
+  REVIEW_SIGNS,
+  REVIEW_SIGN_LABELS,
+  ReviewCreateSchema,
+  TOOTH_STATUSES,
+  TOOTH_STATUS_LABELS,
+  type ToothStatus,
+} from '@/lib/schemas/review';
 import { Field } from '@/components/ui/Field';
 import { Select, optionsOf } from '@/components/ui/Select';
 import { Notice } from '@/components/ui/Notice';
 import { Check, CheckGroup } from '@/components/ui/Check';
 import { PAI_OPTIONS } from '../_components/options';
 
-type Shape = Record<string, unknown> & { visitId?: string; reviewDate: string; toothStatus: string; paiScore?: number; lesionDiameterMm?: number; otherFindings?: string };
+type Shape = Record<string, unknown> & {
+  visitId?: string;
+  reviewDate: string;
+  toothStatus: string;
+  paiScore?: number;
+  lesionDiameterMm?: number;
+  otherFindings?: string;
+  eventDate?: string;
+  extractionReason?: string;
+};
 
 const num = { setValueAs: (v: unknown) => (v === '' || v === undefined ? undefined : Number(v)) };
 // caseId and assessorId come from the page and the session; the form checks the rest with the API's schema.
@@ -71,6 +90,25 @@ export function ReviewForm({ caseId, visits, completionDate }: { caseId: string;
             <Field label="Largest lesion diameter now (mm)" type="number" step={0.1} min={0} hint="0 when there is none." {...register('lesionDiameterMm', num)} error={e.lesionDiameterMm?.message} />
           </>
         )}
+        {EVENT_STATUSES.includes(status as ToothStatus) && (
+          <Field
+            label="Date of the event, if not today’s review"
+            type="date"
+            min={completionDate}
+            hint="When it was done elsewhere or earlier; leave empty when it is the review date."
+            {...register('eventDate', { shouldUnregister: true })}
+            error={e.eventDate?.message}
+          />
+        )}
+        {status === 'extracted' && (
+          <Select
+            label="Reason for the extraction"
+            placeholder="Choose a reason"
+            options={optionsOf(EXTRACTION_REASONS, EXTRACTION_REASON_LABELS)}
+            {...register('extractionReason', { shouldUnregister: true })}
+            error={e.extractionReason?.message}
+          />
+        )}
       </div>
       {status !== 'extracted' && (
         <CheckGroup legend="Clinical signs and symptoms">
@@ -79,6 +117,7 @@ export function ReviewForm({ caseId, visits, completionDate }: { caseId: string;
           ))}
         </CheckGroup>
       )}
+      {status !== 'extracted' && <p className="text-xs text-ink-500">Any of these signs makes the outcome “disease”, except increased mobility, which is recorded only.</p>}
       <Field label="Other findings" {...register('otherFindings')} error={e.otherFindings?.message} />
       <p className="text-xs text-ink-500">The outcome is computed from these findings by the published rules; it supports your judgement and does not replace it.</p>
       <div className="flex gap-3">

@@ -192,7 +192,12 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                     <tr key={r.id}>
                       <td>{fmtDate(r.reviewDate)}</td>
                       <td>{r.visitMilestone ? `${r.visitMilestone} months` : 'Unplanned'}</td>
-                      <td>{r.toothStatusLabel}</td>
+                      <td>
+                        {r.toothStatusLabel}
+                        {(r.eventDate || r.extractionReasonLabel) && (
+                          <div className="text-xs text-ink-500">{[r.eventDate ? `on ${fmtDate(r.eventDate)}` : null, r.extractionReasonLabel].filter(Boolean).join(' · ')}</div>
+                        )}
+                      </td>
                       <td>{r.paiScore ?? '—'}</td>
                       <td>{r.lesionDiameterMm !== null ? `${r.lesionDiameterMm} mm` : '—'}</td>
                       <td>

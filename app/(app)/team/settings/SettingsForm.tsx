@@ -9,6 +9,7 @@ import { Notice } from '@/components/ui/Notice';
 interface Shape {
   toothNotation: 'fdi' | 'universal';
   milestones: { months: number; windowBeforeDays: number; windowAfterDays: number }[];
+  minObservationDays: number;
 }
 
 const num = { valueAsNumber: true } as const;
@@ -16,7 +17,8 @@ const num = { valueAsNumber: true } as const;
 export function SettingsForm({ initial }: { initial: PracticeSettingsView }) {
   const router = useRouter();
   const [result, setResult] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
-  const form = useForm<Shape>({ defaultValues: { toothNotation: initial.toothNotation, milestones: initial.recallPolicy.milestones } });
+  const form = useForm<Shape>({ defaultValues: { toothNotation: initial.toothNotation, milestones: initial.recallPolicy.milestones, minObservationDays: initial.minObservationDays },
+  });
   const milestones = useFieldArray({ control: form.control, name: 'milestones' });
 
   const onSubmit = form.handleSubmit(async (values) => {
@@ -24,7 +26,7 @@ export function SettingsForm({ initial }: { initial: PracticeSettingsView }) {
     const res = await fetch('/api/practice/settings', {
       method: 'PATCH',
       headers: { 'Content-Type': 'application/json' },
-      body: JSON.stringify({ toothNotation: values.toothNotation, recallPolicy: { milestones: values.milestones } }),
+      body: JSON.stringify({ toothNotation: values.toothNotation, recallPolicy: { milestones: values.milestones }, minObservationDays: values.minObservationDays }),
     });
     const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
     if (!res.ok) {
@@ -99,6 +101,17 @@ export function SettingsForm({ initial }: { initial: PracticeSettingsView }) {
         >
           Add a milestone
         </button>
+      </fieldset>
+      <fieldset className="card space-y-2">
+        <legend className="px-1 font-serif text-xl">Minimum observation time</legend>
+        <p className="text-sm text-ink-700">
+          A lesion unchanged since treatment is scored “uncertain” at a review before this many days, and “disease” from then on (the ESE
+          quality guidelines, 2006, judge at one year). A new or larger lesion, or a clinical sign, is disease at any time. Applies to reviews
+          recorded from now on.
+        </p>
+        <label className="flex items-center gap-2 text-sm">
+          <input type="number" min={0} max={1461} className="field-input w-28" {...form.register('minObservationDays', num)} /> days after completion
+        </label>
       </fieldset>
       <button type="submit" className="btn-primary" disabled={form.formState.isSubmitting}>
         {form.formState.isSubmitting ? 'Saving…' : 'Save settings'}
