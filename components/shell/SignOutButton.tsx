@@ -26,7 +26,7 @@ export function SignOutButton() {
       onClick={() => {
         setBusy(true);
         signOut('/sign-in').catch(() => {
-          window.location.href = '/api/auth/signout';
+          window.location.assign('/api/auth/signout'); // next-auth's own sign-out page
         });
       }}
     >
