@@ -3,6 +3,7 @@ import { readFileSync } from 'node:fs';
 import { demoUser, signInAs } from './support';
 
 test('the administrator filters the audit trail by person and downloads it as CSV', async ({ browser, page }, testInfo) => {
+  test.setTimeout(60_000);
   // The coordinator signs in and opens the desk: both are in the trail under her name.
   const coordCtx = await browser.newContext();
   const coord = await coordCtx.newPage();

@@ -17,7 +17,7 @@ import { FILL_LENGTH_LABELS } from '@/lib/scoring';
 import { OutcomeBadge, VisitStatusBadge } from '@/components/ui/StateBadge';
 import { Caution } from '@/components/ui/Caution';
 import { fmtDate } from '@/components/ui/format';
-import { ReviewForm } from './ReviewForm';
+import { ReviewForm } from './ReviewFormLazy';
 import { VisitActions } from './VisitActions';
 import { isoSize } from '../_components/options';
 

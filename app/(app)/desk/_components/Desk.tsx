@@ -5,7 +5,7 @@ import { useMemo, useState } from 'react';
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { createColumnHelper, getCoreRowModel, useReactTable, type RowSelectionState } from '@tanstack/react-table';
 import type { DeskQueue, DeskQueues, DeskRow, DeskRowsPage, ActionResponse } from '@/lib/services/recall-desk';
-import { REMINDER_STEP_LABELS } from '@/lib/recall/reminders';
+import { REMINDER_STEP_LABELS } from '@/lib/recall/steps';
 import { TableView } from '@/components/ui/TableView';
 import { PatientCell } from '@/components/ui/PatientCell';
 import { TableSkeleton } from '@/components/ui/Skeleton';
