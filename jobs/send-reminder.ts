@@ -55,7 +55,6 @@ import { appointmentAttachment } from '@/lib/calendar/ics';
 import { listUnsubscribeHeaders, reminderSubject } from '@/lib/mail/templates/ReminderEmail';
 import {
   EMAIL_CONSENT_SQL,
-  dayIn,
   fromAddress,
   insertOutboxRows,
   knexOf,
@@ -64,6 +63,7 @@ import {
   reminderPolicyOf,
 } from '@/lib/services/recall-outbox';
 import { refreshNextVisit } from '@/lib/services/visits';
+import { todayIn } from '@/lib/services/registry-common';
 import { renderReminder, type DeliveryCheck } from './mail';
 
 export interface SendContext {
@@ -165,7 +165,7 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
       const visit = await knex('recall_visit').where({ id: data.visitId, practice_id: data.practiceId }).first('id');
       if (!visit) return { kind: 'done', outcome: 'no_visit' };
       await insertOutboxRows(ctx.em(), [
-        { practiceId: data.practiceId, visitId: data.visitId, step: data.step, origin: data.origin, requestedBy: data.requestedBy, day: data.day ?? dayIn('UTC', now) },
+        { practiceId: data.practiceId, visitId: data.visitId, step: data.step, origin: data.origin, requestedBy: data.requestedBy, day: data.day ?? todayIn('UTC', now) },
       ]);
       continue;
     }
@@ -188,7 +188,7 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
       if (await skip('No recall-contact consent by e-mail: nothing was sent.')) return { kind: 'no_consent', reminderId: row.id };
       continue;
     }
-    const ended = isPastDue({ windowEnd: row.window_end }, dayIn(row.time_zone, now));
+    const ended = isPastDue({ windowEnd: row.window_end }, todayIn(row.time_zone, now));
     if (!needsContact(row.visit_status) || ended) {
       if (await skip(`The visit no longer needs contact (${row.visit_status}${ended ? ', window ended' : ''}).`)) {
         return { kind: 'done', outcome: 'no_longer_needed', reminderId: row.id };
@@ -300,7 +300,7 @@ async function finish(ctx: SendContext, row: ClaimRow, step: ReminderStep, messa
        select ?, ?, r.practice_id, 'recall.reminder_sent', 'visit', r.visit_id::text, cast(? as jsonb) from r)
      select (select count(*) from r)::int as updated, (select before from v) as before, (select case_id from v) as case_id`,
     [
-      messageId, now, dayIn(row.time_zone, now), now, row.id,
+      messageId, now, todayIn(row.time_zone, now), now, row.id,
       now, now,
       randomUUID(), now,
       randomUUID(), new Date(now.getTime() + 1),

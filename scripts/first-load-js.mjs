@@ -6,6 +6,10 @@
  *
  *   node scripts/first-load-js.mjs http://127.0.0.1:3000 /sign-in /
  * (for a signed-in route, pass a session cookie in LAMINA_COOKIE)
+ *
+ * Scripts marked `nomodule` (Next's legacy polyfills) are listed apart and left out of the sum:
+ * every browser that runs ES modules skips them without downloading them. "with nomodule" is the
+ * sum as this script reported it before.
  */
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
@@ -22,14 +26,24 @@ const kb = (n) => `${(n / 1024).toFixed(1)} kB`;
 for (const route of routes) {
   const res = await fetch(new URL(route, base), { headers: process.env.LAMINA_COOKIE ? { cookie: process.env.LAMINA_COOKIE } : {}, redirect: 'manual' });
   const html = await res.text();
-  const srcs = [...new Set([...html.matchAll(/<script[^>]+src="([^"]+)"/g)].map((m) => m[1]))];
+  const tags = [...new Map([...html.matchAll(/<script[^>]+src="([^"]+)"[^>]*>/g)].map((m) => [m[1], /\bnomodule\b/i.test(m[0])])).entries()];
   let raw = 0;
   let gz = 0;
-  for (const src of srcs) {
+  let legacy = 0;
+  for (const [src, noModule] of tags) {
     const rel = decodeURIComponent(new URL(src, base).pathname).replace(/^\/_next\//, '');
     const file = readFileSync(path.join(distDir, rel));
+    const size = gzipSync(file).length;
+    if (noModule) {
+      legacy += size;
+      continue;
+    }
     raw += file.length;
-    gz += gzipSync(file).length;
+    gz += size;
   }
-  console.log(`${route.padEnd(12)} status ${res.status}  ${srcs.length} scripts  First Load JS ${kb(gz)} gzip (${kb(raw)} raw)`);
+  const modern = tags.filter(([, noModule]) => !noModule).length;
+  console.log(
+    `${route.padEnd(12)} status ${res.status}  ${modern} scripts  First Load JS ${kb(gz)} gzip (${kb(raw)} raw)` +
+      (legacy ? `  [+ nomodule ${kb(legacy)}; with nomodule ${kb(gz + legacy)}]` : ''),
+  );
 }

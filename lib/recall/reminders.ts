@@ -34,6 +34,10 @@ import type { RecallPolicy } from '@/lib/schemas/recall-policy';
 import type { QuietHours, ReminderPolicy } from '@/lib/schemas/reminder-policy';
 import { isPastDue } from './plan';
 import type { VisitStatus } from './status';
+import { isReminderStep, type ReminderStep } from './steps';
+
+// The step vocabulary has a zod-free home of its own, so screens can import it without the schemas.
+export { REMINDER_STEPS, REMINDER_STEP_LABELS, isReminderStep, type ReminderStep } from './steps';
 
 export {
   DEFAULT_REMINDER_POLICY,
@@ -42,19 +46,6 @@ export {
   type ReminderPolicyInput,
   type QuietHours,
 } from '@/lib/schemas/reminder-policy';
-
-export const REMINDER_STEPS = ['invitation', 'second_invitation', 'last_notice'] as const;
-export type ReminderStep = (typeof REMINDER_STEPS)[number];
-
-export const REMINDER_STEP_LABELS: Record<ReminderStep, string> = {
-  invitation: 'Invitation',
-  second_invitation: 'Second invitation',
-  last_notice: 'Last notice',
-};
-
-export function isReminderStep(value: unknown): value is ReminderStep {
-  return typeof value === 'string' && (REMINDER_STEPS as readonly string[]).includes(value);
-}
 
 /** Statuses that still need contact: not yet invited, or invited without an answer. */
 export const CONTACT_STATUSES: readonly VisitStatus[] = ['planned', 'invited'];

@@ -27,25 +27,13 @@
  */
 import { z } from 'zod';
 import { parseFdi } from '@/lib/teeth';
+import { CASE_KINDS, type CaseKind } from '@/lib/registry/case-kinds';
 import { Id, blankAsUndefined, calendarDate, capitalise, measure, oneOf, wholeNumber } from '@/lib/registry/fields';
 
 // --- vocabularies -------------------------------------------------------------------------------
 
-export const CASE_KINDS = [
-  'primary_treatment',
-  'nonsurgical_retreatment',
-  'apical_surgery',
-  'vital_pulp_therapy',
-  'regenerative_endodontics',
-] as const;
-export type CaseKind = (typeof CASE_KINDS)[number];
-export const CASE_KIND_LABELS: Record<CaseKind, string> = {
-  primary_treatment: 'Primary root canal treatment',
-  nonsurgical_retreatment: 'Non-surgical retreatment',
-  apical_surgery: 'Apical surgery',
-  vital_pulp_therapy: 'Vital pulp therapy (capping, pulpotomy)',
-  regenerative_endodontics: 'Regenerative endodontic procedure',
-};
+// The kinds of case live in lib/registry/case-kinds.ts (no zod), so lists can show them cheaply.
+export { CASE_KINDS, CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
 
 /** AAE consensus pulpal diagnoses (2009). */
 export const PULPAL_DIAGNOSES = [

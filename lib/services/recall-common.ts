@@ -164,11 +164,6 @@ export async function setVisitStatus(em: EntityManager, visitId: string, to: Vis
     });
 }
 
-/** The calendar date of an instant in `timeZone`. */
-export function dateIn(instant: Date, timeZone: string): string {
-  return todayIn(timeZone, instant);
-}
-
 export function iso(value: string | Date | null | undefined): string | null {
   if (value === null || value === undefined) return null;
   return (value instanceof Date ? value : new Date(value)).toISOString();

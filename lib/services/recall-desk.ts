@@ -20,9 +20,9 @@ import type { ReminderStatus } from '@/entities';
 import { audit } from './audit';
 import { ConflictError } from './errors';
 import { parseInput } from './parse';
-import { activeVisits, dateIn, iso, logContact, recallSettings, setVisitStatus, visitsOfPractice, VisitIds, type DeskVisit, type RecallSettings } from './recall-common';
+import { activeVisits, iso, logContact, recallSettings, setVisitStatus, visitsOfPractice, VisitIds, type DeskVisit, type RecallSettings } from './recall-common';
 import { EMAIL_CONSENT_SQL, enqueueOutbox, insertOutboxRows, reminderProducer, retryFailedReminder, type OutboxEntry } from './recall-outbox';
-import { SortDir, displayName, knexOf, pageOffset, type Page } from './registry-common';
+import { SortDir, displayName, knexOf, pageOffset, todayIn, type Page } from './registry-common';
 import { refreshNextVisit } from './visits';
 
 /**
@@ -423,7 +423,7 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
   const input = parseInput(BookInput, raw);
   const start = new Date(input.start);
   const s = await recallSettings(em, actor.practiceId);
-  const day = dateIn(start, s.timeZone);
+  const day = todayIn(s.timeZone, start);
   if (day < s.today) throw new ConflictError('The appointment is in the past.');
   const words = new Intl.DateTimeFormat('en-GB', { timeZone: s.timeZone, dateStyle: 'full', timeStyle: 'short' }).format(start);
   const results: ActionResult[] = [];

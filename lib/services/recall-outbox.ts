@@ -26,7 +26,7 @@ import {
 import type { CalendarDate } from '@/lib/registry/calendar-date';
 import type { ReminderStatus } from '@/entities';
 import { env } from '@/lib/env';
-import { knexOf, todayIn } from './registry-common';
+import { knexOf } from './registry-common';
 
 /**
  * The reminder outbox (entities/Reminder.ts) and the queue it feeds, shared by the recall scan
@@ -120,10 +120,6 @@ export async function reminderProducer(): Promise<RemindersQueue> {
 
 // --- the practice's calendar ---------------------------------------------------------------------
 
-/** The calendar date of `instant` in `timeZone` ('YYYY-MM-DD'): lib/services/registry-common todayIn. */
-export function dayIn(timeZone: string, instant: Date = new Date()): string {
-  return todayIn(timeZone, instant);
-}
 
 // --- policy ---------------------------------------------------------------------------------------
 

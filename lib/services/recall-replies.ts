@@ -18,7 +18,7 @@ import { dueMonth } from '@/lib/mail/templates/ReminderEmail';
 import { recallConsent } from '@/lib/schemas/patient';
 import { audit } from './audit';
 import { parseInput } from './parse';
-import { dateIn, logContact, setVisitStatus } from './recall-common';
+import { logContact, setVisitStatus } from './recall-common';
 import { knexOf, todayIn } from './registry-common';
 import { refreshNextVisit } from './visits';
 
@@ -167,7 +167,7 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
     const changed: string[] = [];
     if (input.answer === 'confirmed') {
       const proposed = visit.proposed_start ? new Date(visit.proposed_start) : null;
-      const booked = proposed && proposed.getTime() > now.getTime() ? dateIn(proposed, visit.time_zone) : null;
+      const booked = proposed && proposed.getTime() > now.getTime() ? todayIn(visit.time_zone, proposed) : null;
       if (visit.status !== 'confirmed' && canTransition(visit.status, 'confirmed')) {
         await setVisitStatus(tx, visit.id, 'confirmed', null, { ...(booked ? { booked_date: booked } : {}), delivery_failed_at: null });
         entries.push({ ...base, kind: 'status_change', fromStatus: visit.status, toStatus: 'confirmed' });

@@ -55,17 +55,10 @@ import {
   type LogRankObservation,
   type SurvivalObservation,
 } from '../../lib/stats';
+import { createRandom } from '../../lib/demo/random';
 
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** Uniform [0, 1) numbers from a seed: Lamina's one seeded generator (lib/demo/random.ts). */
+const prng = (seed: number): (() => number) => createRandom(seed).next;
 
 interface Columns {
   time: Float64Array;

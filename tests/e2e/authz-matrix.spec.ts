@@ -61,6 +61,7 @@ const MATRIX: Row[] = [
   { route: 'api/team/invitations/[id]', method: 'DELETE', url: () => `/api/team/invitations/${randomUUID()}`, expect: only({ admin: 404 }) },
   { route: 'api/team/invitations/[id]/resend', method: 'POST', url: () => `/api/team/invitations/${randomUUID()}/resend`, expect: only({ admin: 404 }) },
   { route: 'api/audit', method: 'GET', url: () => '/api/audit?page=1', expect: only({ admin: 200 }) },
+  { route: 'api/audit/export', method: 'GET', url: () => '/api/audit/export?action=nothing.matches', expect: only({ admin: 200 }) },
   { route: 'api/dev-mailbox', method: 'GET', url: () => '/api/dev-mailbox', expect: only({ admin: 200 }) },
   // Registry (issue 4): readers of patient data are the coordinator, the clinicians and the practice lead.
   { route: 'api/patients', method: 'GET', url: () => '/api/patients?page=1&pageSize=5', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },

@@ -4,16 +4,11 @@
  * a group label and two covariates (x1 binary, x2 continuous).
  */
 
-/** mulberry32: a small, well-known seeded PRNG (common practice for reproducible test data). */
+import { createRandom } from '../../lib/demo/random';
+
+/** Uniform [0, 1) numbers from a seed: Lamina's one seeded generator (Mulberry32, lib/demo/random.ts). */
 export function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  return createRandom(seed).next;
 }
 
 export interface Row {

@@ -5,7 +5,7 @@ import { env } from '@/lib/env';
 import { requireActor } from '@/lib/auth/session';
 import { listMailbox } from '@/lib/services/mailbox';
 import { Notice } from '@/components/ui/Notice';
-import { fmtTimestamp } from '@/components/ui/format';
+import { fmtDateTime } from '@/components/ui/format';
 
 export const metadata: Metadata = { title: 'Dev mailbox' };
 
@@ -34,7 +34,7 @@ export default async function DevMailboxPage() {
                 {m.subject || '(no subject)'}
               </Link>
               <div className="text-sm text-ink-500">
-                to {Array.isArray(m.to) ? m.to.join(', ') : m.to} · {fmtTimestamp(m.receivedAt)}
+                to {Array.isArray(m.to) ? m.to.join(', ') : m.to} · {fmtDateTime(m.receivedAt)}
               </div>
             </li>
           ))}

@@ -4,7 +4,7 @@ import { requireActor } from '@/lib/auth/session';
 import { can } from '@/lib/auth/permissions';
 import { listInvitations, listMembers } from '@/lib/services/team';
 import { MembersTable } from './_components/MembersTable';
-import { InviteForm } from './_components/InviteForm';
+import { InviteForm } from './_components/InviteFormLazy';
 import { InvitationsTable } from './_components/InvitationsTable';
 
 export const metadata: Metadata = { title: 'Team' };

@@ -1,6 +1,7 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { coxPH, kaplanMeier, logRank, medianSurvival, restrictedMean, wilsonInterval } from '@/lib/stats';
+import { createRandom } from '@/lib/demo/random';
 
 // Property tests (fast-check); the properties are facts of the methods (common practice).
 const obsArb = fc.array(
@@ -11,10 +12,9 @@ const confArb = fc.constantFrom('log' as const, 'log-log' as const, 'plain' as c
 
 function shuffle<T>(xs: readonly T[], seed: number): T[] {
   const out = [...xs];
-  let s = seed >>> 0 || 1;
+  const random = createRandom(seed); // Lamina's one seeded generator
   for (let i = out.length - 1; i > 0; i--) {
-    s = (Math.imul(s, 1103515245) + 12345) >>> 0;
-    const j = s % (i + 1);
+    const j = random.int(0, i);
     [out[i], out[j]] = [out[j], out[i]];
   }
   return out;

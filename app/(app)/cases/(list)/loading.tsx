@@ -1,5 +1,5 @@
 import { TableSkeleton } from '@/components/ui/Skeleton';
 
 export default function Loading() {
-  return <TableSkeleton label="Loading cases" />;
+  return <TableSkeleton label="Loading the case list" />;
 }

@@ -17,7 +17,7 @@ import { FILL_LENGTH_LABELS } from '@/lib/scoring';
 import { OutcomeBadge, VisitStatusBadge } from '@/components/ui/StateBadge';
 import { Caution } from '@/components/ui/Caution';
 import { fmtDate } from '@/components/ui/format';
-import { ReviewForm } from './ReviewForm';
+import { ReviewForm } from './ReviewFormLazy';
 import { VisitActions } from './VisitActions';
 import { isoSize } from '../_components/options';
 
@@ -104,7 +104,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
               <Item term="Fill length (case)">{c.fillLengthLabel ?? '—'}</Item>
             </dl>
             {c.canals.length > 0 && (
-              <table className="table-dense mt-4 w-full" aria-label="Canals">
+              <table className="table-dense table-stack mt-4 w-full" aria-label="Canals">
                 <thead>
                   <tr>
                     <th scope="col">Canal</th>
@@ -117,11 +117,11 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                 <tbody>
                   {c.canals.map((k) => (
                     <tr key={k.name}>
-                      <td>{k.name}</td>
-                      <td>{k.workingLengthMm !== undefined ? `${k.workingLengthMm} mm` : '—'}</td>
-                      <td>{k.apicalSize !== undefined ? isoSize(k.apicalSize) : '—'}</td>
-                      <td>{k.fillToApexMm !== undefined ? `${k.fillToApexMm} mm` : '—'}</td>
-                      <td>{k.fillLengthClass ? FILL_LENGTH_LABELS[k.fillLengthClass] : '—'}</td>
+                      <td data-label="Canal">{k.name}</td>
+                      <td data-label="Working length">{k.workingLengthMm !== undefined ? `${k.workingLengthMm} mm` : '—'}</td>
+                      <td data-label="Apical size">{k.apicalSize !== undefined ? isoSize(k.apicalSize) : '—'}</td>
+                      <td data-label="Filling end to apex">{k.fillToApexMm !== undefined ? `${k.fillToApexMm} mm` : '—'}</td>
+                      <td data-label="Class">{k.fillLengthClass ? FILL_LENGTH_LABELS[k.fillLengthClass] : '—'}</td>
                     </tr>
                   ))}
                 </tbody>
@@ -136,7 +136,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
             {c.visits.length === 0 ? (
               <p className="mt-2 text-sm text-ink-700">No visits yet: the recall plan is made when the case is completed.</p>
             ) : (
-              <table className="table-dense mt-3 w-full" aria-label="Recall visits">
+              <table className="table-dense table-stack mt-3 w-full" aria-label="Recall visits">
                 <thead>
                   <tr>
                     <th scope="col">Milestone</th>
@@ -151,12 +151,12 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                 <tbody>
                   {c.visits.map((x) => (
                     <tr key={x.id} data-testid={`visit-${x.milestone}`}>
-                      <td>{x.milestone} months</td>
-                      <td>{fmtDate(x.dueDate)}</td>
-                      <td className="text-xs text-ink-500">
+                      <td data-label="Milestone">{x.milestone} months</td>
+                      <td data-label="Due">{fmtDate(x.dueDate)}</td>
+                      <td data-label="Window" className="text-xs text-ink-500">
                         {fmtDate(x.windowStart)} – {fmtDate(x.windowEnd)}
                       </td>
-                      <td>
+                      <td data-label="Status">
                         <VisitStatusBadge status={x.status} />
                         {x.bookedDate && <div className="text-xs text-ink-500">booked {fmtDate(x.bookedDate)}</div>}
                       </td>
@@ -175,7 +175,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
             {c.reviews.length === 0 ? (
               <p className="text-sm text-ink-700">No follow-up review yet.</p>
             ) : (
-              <table className="table-dense w-full" aria-label="Reviews">
+              <table className="table-dense table-stack w-full" aria-label="Reviews">
                 <thead>
                   <tr>
                     <th scope="col">Date</th>
@@ -190,23 +190,23 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                 <tbody>
                   {c.reviews.map((r) => (
                     <tr key={r.id}>
-                      <td>{fmtDate(r.reviewDate)}</td>
-                      <td>{r.visitMilestone ? `${r.visitMilestone} months` : 'Unplanned'}</td>
-                      <td>
+                      <td data-label="Date">{fmtDate(r.reviewDate)}</td>
+                      <td data-label="Visit">{r.visitMilestone ? `${r.visitMilestone} months` : 'Unplanned'}</td>
+                      <td data-label="Tooth">
                         {r.toothStatusLabel}
                         {(r.eventDate || r.extractionReasonLabel) && (
                           <div className="text-xs text-ink-500">{[r.eventDate ? `on ${fmtDate(r.eventDate)}` : null, r.extractionReasonLabel].filter(Boolean).join(' · ')}</div>
                         )}
                       </td>
-                      <td>{r.paiScore ?? '—'}</td>
-                      <td>{r.lesionDiameterMm !== null ? `${r.lesionDiameterMm} mm` : '—'}</td>
-                      <td>
+                      <td data-label="PAI">{r.paiScore ?? '—'}</td>
+                      <td data-label="Lesion">{r.lesionDiameterMm !== null ? `${r.lesionDiameterMm} mm` : '—'}</td>
+                      <td data-label="Outcome">
                         <OutcomeBadge outcome={r.outcome} />
                         <div className="text-xs text-ink-500">
                           strict {r.successStrict ? '✓' : '✕'} · lenient {r.successLenient ? '✓' : '✕'}
                         </div>
                       </td>
-                      <td className="text-xs">{r.reasons.join('; ')}</td>
+                      <td data-label="Why" className="text-xs">{r.reasons.join('; ')}</td>
                     </tr>
                   ))}
                 </tbody>

@@ -8,7 +8,7 @@ import { TableView } from '@/components/ui/TableView';
 import { optionsOf } from '@/components/ui/Select';
 import { PatientCell } from '@/components/ui/PatientCell';
 import type { CasePage, CaseRow } from '@/lib/services/cases';
-import { CASE_KINDS, CASE_KIND_LABELS } from '@/lib/schemas/case';
+import { CASE_KINDS, CASE_KIND_LABELS } from '@/lib/registry/case-kinds';
 import { VISIT_STATUSES, VISIT_STATUS_LABELS } from '@/lib/recall/status';
 import { FILL_LENGTH_LABELS } from '@/lib/scoring';
 import { TOOTH_GROUPS } from '@/lib/teeth';

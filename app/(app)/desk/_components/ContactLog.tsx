@@ -25,6 +25,15 @@ export function ContactLog({ visitId, onClose }: { visitId: string; onClose: () 
       setReached(false);
     },
   });
+  // Focus goes back to what opened the drawer (the row's "Contact log" button) when it closes,
+  // by Escape or by its Close button. Declared before the heading's focus, so it sees the opener.
+  const opener = useRef<HTMLElement | null>(null);
+  useEffect(() => {
+    opener.current = document.activeElement instanceof HTMLElement ? document.activeElement : null;
+    return () => {
+      if (opener.current?.isConnected) opener.current.focus();
+    };
+  }, []);
   useEffect(() => heading.current?.focus(), [visitId]);
   useEffect(() => {
     const onKey = (e: KeyboardEvent) => e.key === 'Escape' && onClose();

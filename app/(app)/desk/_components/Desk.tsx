@@ -5,7 +5,7 @@ import { useMemo, useState } from 'react';
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { createColumnHelper, getCoreRowModel, useReactTable, type RowSelectionState } from '@tanstack/react-table';
 import type { DeskQueue, DeskQueues, DeskRow, DeskRowsPage, ActionResponse } from '@/lib/services/recall-desk';
-import { REMINDER_STEP_LABELS } from '@/lib/recall/reminders';
+import { REMINDER_STEP_LABELS } from '@/lib/recall/steps';
 import { TableView } from '@/components/ui/TableView';
 import { PatientCell } from '@/components/ui/PatientCell';
 import { TableSkeleton } from '@/components/ui/Skeleton';
@@ -111,6 +111,7 @@ export function Desk() {
       }),
       c.accessor('tooth', {
         header: () => rows.data?.toothLabel ?? 'Tooth',
+        meta: { label: rows.data?.toothLabel ?? 'Tooth' },
         cell: (i) => <Link href={`/cases/${i.row.original.caseId}`}>{i.getValue()}</Link>,
       }),
       c.accessor('milestone', { header: 'Visit', cell: (i) => `${i.getValue()} months` }),
@@ -232,7 +233,7 @@ export function Desk() {
         <EmptyState title="Nothing in this queue">{EMPTY_TEXT[queue]}</EmptyState>
       ) : (
         <>
-          <TableView table={table} label="Visits in this queue" rowProps={(row) => ({ 'data-testid': `desk-row-${row.original.patient.registryNumber}-${row.original.milestone}` })} />
+          <TableView stack table={table} label="Visits in this queue" rowProps={(row) => ({ 'data-testid': `desk-row-${row.original.patient.registryNumber}-${row.original.milestone}` })} />
           <PagerButtons
             page={page}
             pages={rows.data ? pageCount(rows.data.total, rows.data.pageSize) : 1}

@@ -1,10 +1,17 @@
 'use client';
 import { useQuery } from '@tanstack/react-query';
-import { Bar, BarChart, CartesianGrid, ErrorBar, ResponsiveContainer, Tooltip, XAxis, YAxis } from 'recharts';
+import dynamic from 'next/dynamic';
 import type { FollowUpRateReport } from '@/lib/services/recall-rate';
 import { BlockSkeleton } from '@/components/ui/Skeleton';
 import { Notice } from '@/components/ui/Notice';
+import { fmtDate } from '@/components/ui/format';
 import { getJson } from './api';
+
+// The chart library is loaded only when the chart is drawn, not with the desk (First Load JS).
+const RateChart = dynamic(() => import('./RateChart').then((m) => m.RateChart), {
+  ssr: false,
+  loading: () => <p className="text-sm text-ink-500">Drawing the chart…</p>,
+});
 
 const pct = (x: number | null) => (x === null ? '—' : `${(x * 100).toFixed(0)}%`);
 
@@ -27,7 +34,7 @@ export function FollowUpRate() {
           Follow-up rate
         </h2>
         <p className="text-sm text-ink-700">
-          Attended ÷ due, for visits due {r.from} to {r.to}: <strong>{pct(r.overall.rate)}</strong> of {r.overall.due}
+          Attended ÷ due, for visits due {fmtDate(r.from)} to {fmtDate(r.to)}: <strong>{pct(r.overall.rate)}</strong> of {r.overall.due}
           {r.overall.interval ? ` (95% interval ${pct(r.overall.interval.lower)}–${pct(r.overall.interval.upper)}, Wilson)` : ''}. Open visits past
           their due date count as due.
         </p>
@@ -58,17 +65,7 @@ export function FollowUpRate() {
         </table>
         <figure className="lg:col-span-2" aria-label="Follow-up rate by month of the due date, with 95% intervals">
           <div className="h-56">
-            <ResponsiveContainer width="100%" height="100%">
-              <BarChart data={months} margin={{ top: 8, right: 8, bottom: 0, left: -16 }}>
-                <CartesianGrid strokeDasharray="3 3" stroke="#e4ded3" />
-                <XAxis dataKey="month" tick={{ fontSize: 11 }} />
-                <YAxis domain={[0, 100]} unit="%" tick={{ fontSize: 11 }} />
-                <Tooltip formatter={(v, _n, item) => [`${Number(v).toFixed(0)}% of ${(item.payload as { n: number }).n}`, 'Attended']} />
-                <Bar dataKey="rate" fill="#5a51a8" isAnimationActive={false}>
-                  <ErrorBar dataKey="err" stroke="#1d2225" width={4} />
-                </Bar>
-              </BarChart>
-            </ResponsiveContainer>
+            <RateChart months={months} />
           </div>
           <figcaption className="text-xs text-ink-500">Bars: attended ÷ due per month of the due date; whiskers: Wilson 95% interval. n per month in the tooltip.</figcaption>
         </figure>

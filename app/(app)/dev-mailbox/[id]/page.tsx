@@ -6,7 +6,7 @@ import { env } from '@/lib/env';
 import { requireActor } from '@/lib/auth/session';
 import { readMailboxMessage } from '@/lib/services/mailbox';
 import { NotFoundError } from '@/lib/services/errors';
-import { fmtTimestamp } from '@/components/ui/format';
+import { fmtDateTime } from '@/components/ui/format';
 
 export const metadata: Metadata = { title: 'Message' };
 
@@ -38,7 +38,7 @@ export default async function MailboxMessagePage({ params }: { params: Promise<{
         <dt className="text-ink-500">To</dt>
         <dd>{Array.isArray(m.to) ? m.to.join(', ') : m.to}</dd>
         <dt className="text-ink-500">Received</dt>
-        <dd>{fmtTimestamp(m.receivedAt)}</dd>
+        <dd>{fmtDateTime(m.receivedAt)}</dd>
         {(m.attachments?.length ?? 0) > 0 && (
           <>
             <dt className="text-ink-500">Attached</dt>

@@ -1,5 +1,5 @@
 import { TableSkeleton } from '@/components/ui/Skeleton';
 
 export default function Loading() {
-  return <TableSkeleton label="Loading patients" columns={6} />;
+  return <TableSkeleton label="Loading the patient list" columns={6} />;
 }

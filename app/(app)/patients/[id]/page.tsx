@@ -9,6 +9,7 @@ import { NotFoundError } from '@/lib/services/errors';
 import { codeLabel } from '@/lib/schemas/case';
 import { OutcomeBadge, VisitStatusBadge } from '@/components/ui/StateBadge';
 import { EmptyState } from '@/components/ui/EmptyState';
+import { fmtDate } from '@/components/ui/format';
 
 export const metadata: Metadata = { title: 'Patient' };
 
@@ -66,7 +67,7 @@ export default async function PatientPage({ params }: { params: Promise<{ id: st
         <div>
           <div className="text-ink-500">Recorded</div>
           <div>
-            {patient.consentDate}
+            {fmtDate(patient.consentDate)}
             {patient.consentRecordedBy ? ` by ${patient.consentRecordedBy.name}` : ''}
           </div>
         </div>
@@ -103,8 +104,8 @@ export default async function PatientPage({ params }: { params: Promise<{ id: st
                     </td>
                     <td>{c.kindLabel}</td>
                     <td>{c.operator.name ?? '—'}</td>
-                    <td>{c.completionDate ?? 'In progress'}</td>
-                    <td>{c.nextVisit ? <><div>{c.nextVisit.date}</div><VisitStatusBadge status={c.nextVisit.status} /></> : '—'}</td>
+                    <td>{c.completionDate ? fmtDate(c.completionDate) : 'In progress'}</td>
+                    <td>{c.nextVisit ? <><div>{fmtDate(c.nextVisit.date)}</div><VisitStatusBadge status={c.nextVisit.status} /></> : '—'}</td>
                     <td>
                       <OutcomeBadge outcome={c.currentOutcome} />
                     </td>

@@ -7,7 +7,7 @@ import type { Role } from '@/lib/auth/roles';
 import type { MemberRow } from '@/lib/services/team';
 import { ROLE_LABELS } from '@/lib/auth/roles';
 import { Notice } from '@/components/ui/Notice';
-import { fmtTimestamp } from '@/components/ui/format';
+import { fmtDateTime } from '@/components/ui/format';
 import { ROLE_OPTIONS } from './roles';
 
 const STATUS_TEXT = { active: '● Active', deactivated: '○ Deactivated' } as const;
@@ -52,7 +52,7 @@ export function MembersTable({ members, currentUserId, canManage }: { members: M
       c.accessor('status', { header: 'Status', cell: (info) => STATUS_TEXT[info.getValue()] }),
       c.accessor('lastSignInAt', {
         header: 'Last sign-in',
-        cell: (info) => (info.getValue() ? fmtTimestamp(info.getValue()!) : 'Never'),
+        cell: (info) => (info.getValue() ? fmtDateTime(info.getValue()!) : 'Never'),
       }),
       ...(canManage
         ? [

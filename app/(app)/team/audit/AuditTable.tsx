@@ -1,27 +1,51 @@
 'use client';
+import Link from 'next/link';
 import { createColumnHelper, getCoreRowModel, useReactTable } from '@tanstack/react-table';
 import { TableView } from '@/components/ui/TableView';
-import { fmtTimestamp } from '@/components/ui/format';
-import type { AuditPage } from '@/lib/services/audit';
+import { fmtDateTime } from '@/components/ui/format';
+import type { AuditRow } from '@/lib/services/audit';
 
-type Row = AuditPage['rows'][number];
-const c = createColumnHelper<Row>();
+const c = createColumnHelper<AuditRow>();
 const columns = [
-  c.accessor('at', { header: 'When', cell: (i) => fmtTimestamp(i.getValue()) }),
-  c.accessor('actorEmail', { header: 'Who', cell: (i) => i.getValue() ?? 'Lamina' }),
-  c.accessor('action', { header: 'What', cell: (i) => <code className="text-xs">{i.getValue()}</code> }),
-  c.accessor((r) => (r.entityType ? `${r.entityType} ${r.entityId?.slice(0, 8) ?? ''}` : '—'), { id: 'record', header: 'Record' }),
-  c.accessor('ip', { header: 'From', cell: (i) => i.getValue() ?? '—' }),
-  c.accessor('detail', {
-    header: 'Detail',
+  c.accessor('at', { header: 'When', cell: (i) => <time dateTime={i.getValue()} className="whitespace-nowrap">{fmtDateTime(i.getValue())}</time> }),
+  c.accessor('who', {
+    header: 'Who',
     cell: (i) => {
-      const d = i.getValue();
-      return d ? Object.entries(d).map(([k, v]) => `${k}: ${Array.isArray(v) ? v.join(', ') : String(v)}`).join(' · ') : '';
+      const r = i.row.original;
+      if (!r.who) return <span className="text-ink-600">Lamina</span>;
+      return r.whoEmail && r.whoEmail !== r.who ? <span title={r.whoEmail}>{r.who}</span> : <span className="break-all">{r.who}</span>;
     },
   }),
+  c.accessor('what', {
+    header: 'What',
+    cell: (i) => {
+      const r = i.row.original;
+      return (
+        <>
+          <span>{r.what}</span>
+          {r.detail && <span className="block max-w-md text-xs text-ink-600">{r.detail}</span>}
+        </>
+      );
+    },
+  }),
+  c.accessor('record', {
+    header: 'Record',
+    cell: (i) => {
+      const rec = i.getValue();
+      if (!rec) return <span className="text-ink-400">—</span>;
+      const label = (
+        <>
+          {rec.kindWords} <span className="font-mono text-xs">{rec.ref}</span>
+          {rec.name && <span className="block">{rec.name}</span>}
+        </>
+      );
+      return rec.href ? <Link href={rec.href}>{label}</Link> : <span>{label}</span>;
+    },
+  }),
+  c.accessor('ip', { header: 'From', cell: (i) => <span className="font-mono text-xs">{i.getValue() ?? '—'}</span> }),
 ];
 
-export function AuditTable({ rows }: { rows: Row[] }) {
+export function AuditTable({ rows }: { rows: AuditRow[] }) {
   const table = useReactTable({ data: rows, columns, getCoreRowModel: getCoreRowModel(), getRowId: (r) => r.id });
   return <TableView table={table} label="Audit events" />;
 }

@@ -1,27 +1,47 @@
 import type { Metadata } from 'next';
 import Link from 'next/link';
-import { z } from 'zod';
 import { requireActor } from '@/lib/auth/session';
-import { listAuditEvents } from '@/lib/services/audit';
-import { Paging } from '@/lib/schemas/paging';
+import { auditPeople, listAuditEvents, type AuditPage as AuditPageData } from '@/lib/services/audit';
+import { ValidationError } from '@/lib/services/errors';
+import { ACTION_GROUPS, RECORD_KINDS } from '@/lib/audit/words';
 import { Pager } from '@/components/ui/Pager';
+import { Notice } from '@/components/ui/Notice';
 import { AuditTable } from './AuditTable';
 
 export const metadata: Metadata = { title: 'Audit trail' };
 
-const FILTERS = [
-  { value: '', label: 'Everything' },
-  { value: 'auth.', label: 'Sign-ins' },
-  { value: 'team.', label: 'Team and roles' },
-  { value: 'audit.', label: 'Audit trail reads' },
-];
+const FILTER_KEYS = ['person', 'action', 'record', 'ref', 'from', 'to'] as const;
 
-const Query = Paging.extend({ action: z.string().max(80).regex(/^[a-z_.]*$/).optional().catch(undefined) }).catch({ page: 1, pageSize: 50 });
-
-export default async function AuditPage({ searchParams }: { searchParams: Promise<Record<string, string>> }) {
+export default async function AuditPage({ searchParams }: { searchParams: Promise<Record<string, string | string[]>> }) {
   const { em, actor } = await requireActor('audit.read', '/team/audit');
-  const q = Query.parse(await searchParams);
-  const data = await listAuditEvents(em, actor, q);
+  const params = await searchParams;
+  const one = (k: string) => (typeof params[k] === 'string' ? (params[k] as string) : '');
+  const filters = Object.fromEntries(FILTER_KEYS.map((k) => [k, one(k)])) as Record<(typeof FILTER_KEYS)[number], string>;
+  const people = await auditPeople(em, actor);
+  let data: AuditPageData | null = null;
+  let problems: Record<string, string[]> = {};
+  try {
+    data = await listAuditEvents(em, actor, { ...filters, page: one('page') || undefined, pageSize: one('pageSize') || undefined });
+  } catch (e) {
+    if (!(e instanceof ValidationError)) throw e;
+    problems = e.fieldErrors ?? {};
+  }
+  const query = Object.fromEntries(Object.entries(filters).filter(([, v]) => v)) as Record<string, string>;
+  const exportHref = `/api/audit/export?${new URLSearchParams(query).toString()}`;
+  const problem = (k: string) => problems[k]?.[0];
+  const field = (k: string) => ({
+    id: `audit-${k}`,
+    name: k,
+    className: 'field-input',
+    'aria-invalid': problem(k) ? true : undefined,
+    'aria-describedby': problem(k) ? `audit-${k}-error` : undefined,
+  });
+  const error = (k: string) =>
+    problem(k) && (
+      <p id={`audit-${k}-error`} className="field-error">
+        {problem(k)}
+      </p>
+    );
   return (
     <div className="space-y-6">
       <div>
@@ -29,29 +49,112 @@ export default async function AuditPage({ searchParams }: { searchParams: Promis
           <Link href="/team">← Team</Link>
         </p>
         <h1 className="text-3xl">Audit trail</h1>
-        <p className="mt-1 text-ink-700">Every sign-in, failed sign-in, invitation, role change and read of patient data in {actor.practiceName}, newest first.</p>
+        <p className="mt-1 text-ink-700">
+          Every sign-in, failed sign-in, invitation, role change and read or change of patient data in {actor.practiceName}, newest first. Records are named by
+          their kind and a short reference (the start of their id); patients’ names are shown only to readers who may see patient data.
+        </p>
       </div>
-      <nav aria-label="Filter" className="flex flex-wrap gap-2">
-        {FILTERS.map((f) => {
-          const active = (q.action ?? '') === f.value;
-          return (
-            <Link
-              key={f.value}
-              href={f.value ? `/team/audit?action=${f.value}` : '/team/audit'}
-              aria-current={active ? 'true' : undefined}
-              className={`rounded-full border px-3 py-1 text-sm no-underline ${active ? 'border-dura-700 bg-dura-700 text-white' : 'border-bone-400 bg-white text-ink-700'}`}
-            >
-              {f.label}
-            </Link>
-          );
-        })}
-      </nav>
-      {data.rows.length === 0 ? (
-        <p className="card text-ink-700">Nothing recorded for this filter yet. Events appear here as people sign in and work.</p>
+      <form method="get" action="/team/audit" aria-label="Filter the audit trail" className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-3">
+        <div>
+          <label htmlFor="audit-person" className="field-label">
+            Person
+          </label>
+          <select {...field('person')} defaultValue={filters.person}>
+            <option value="">Everyone</option>
+            {people.map((p) => (
+              <option key={p.value} value={p.value}>
+                {p.label}
+              </option>
+            ))}
+          </select>
+          {error('person')}
+        </div>
+        <div>
+          <label htmlFor="audit-action" className="field-label">
+            Action
+          </label>
+          <select {...field('action')} defaultValue={filters.action}>
+            <option value="">Everything</option>
+            {ACTION_GROUPS.map((g) => (
+              <optgroup key={g.prefix} label={g.label}>
+                <option value={g.prefix}>{g.label}: all</option>
+                {Object.entries(g.actions).map(([code, words]) => (
+                  <option key={code} value={code}>
+                    {words}
+                  </option>
+                ))}
+              </optgroup>
+            ))}
+          </select>
+          {error('action')}
+        </div>
+        <div className="grid grid-cols-2 gap-2">
+          <div>
+            <label htmlFor="audit-record" className="field-label">
+              Record
+            </label>
+            <select {...field('record')} defaultValue={filters.record}>
+              <option value="">Any kind</option>
+              {Object.entries(RECORD_KINDS).map(([kind, words]) => (
+                <option key={kind} value={kind}>
+                  {words}
+                </option>
+              ))}
+            </select>
+            {error('record')}
+          </div>
+          <div>
+            <label htmlFor="audit-ref" className="field-label">
+              Reference
+            </label>
+            <input {...field('ref')} defaultValue={filters.ref} placeholder="e.g. 3f2a9c1b" autoComplete="off" spellCheck={false} />
+            {error('ref')}
+          </div>
+        </div>
+        <div>
+          <label htmlFor="audit-from" className="field-label">
+            From (day)
+          </label>
+          <input {...field('from')} type="date" defaultValue={filters.from} />
+          {error('from')}
+        </div>
+        <div>
+          <label htmlFor="audit-to" className="field-label">
+            To (day, included)
+          </label>
+          <input {...field('to')} type="date" defaultValue={filters.to} />
+          {error('to')}
+        </div>
+        <div className="flex flex-wrap items-end gap-3">
+          <button type="submit" className="btn-primary">
+            Show events
+          </button>
+          <Link href="/team/audit">Clear filters</Link>
+        </div>
+      </form>
+      {data === null ? (
+        <Notice tone="alert">Some filters need attention (see beside each). Nothing is listed until they are corrected.</Notice>
       ) : (
-        <AuditTable rows={data.rows} />
+        <>
+          <div className="flex flex-wrap items-center justify-between gap-3">
+            <p className="text-sm text-ink-700" role="status">
+              {data.total === 1 ? '1 event' : `${data.total} events`}
+              {Object.keys(query).length ? ' match these filters.' : ' recorded.'}
+            </p>
+            {data.total > 0 && (
+              <a href={exportHref} className="btn-secondary no-underline" download>
+                Download CSV
+              </a>
+            )}
+          </div>
+          {data.rows.length === 0 ? (
+            <p className="card text-ink-700">Nothing recorded for these filters. Events appear here as people sign in and work; widen the days or clear a filter.</p>
+          ) : (
+            <AuditTable rows={data.rows} />
+          )}
+          <Pager page={data.page} pageSize={data.pageSize} total={data.total} basePath="/team/audit" query={query} />
+        </>
       )}
-      <Pager page={data.page} pageSize={data.pageSize} total={data.total} basePath="/team/audit" query={{ action: q.action }} />
     </div>
   );
 }

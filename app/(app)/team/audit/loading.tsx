@@ -1,0 +1,5 @@
+import { TableSkeleton } from '@/components/ui/Skeleton';
+
+export default function Loading() {
+  return <TableSkeleton label="Loading the audit trail" columns={5} />;
+}
