@@ -6,7 +6,7 @@ import { signInAs } from './support';
 test('a clinician records a review with tenderness to percussion and sees disease, with the reason', async ({ page }) => {
   await signInAs(page, 'clinician');
   await page.goto('/cases');
-  await page.getByRole('table').getByRole('link').first().click();
+  await page.locator('table a[href^="/cases/"]').first().click();
   await page.getByRole('button', { name: 'Record a review' }).click();
   const form = page.getByRole('form', { name: 'Record a review' });
   await form.getByLabel('At visit').selectOption({ label: 'Unplanned review' });
