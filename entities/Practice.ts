@@ -32,6 +32,11 @@ export const PracticeSchema = defineEntity({
       .json<ReminderPolicy>()
       .onCreate(() => DEFAULT_REMINDER_POLICY)
       .defaultRaw(`'${JSON.stringify(DEFAULT_REMINDER_POLICY)}'`),
+    /** Shown in every patient message and calendar file (practice settings); optional. */
+    address: p.string().length(300).nullable(),
+    phone: p.string().length(40).nullable(),
+    /** The practice's e-mail for patients (not the sending address, MAIL_FROM). */
+    contactEmail: p.string().length(254).nullable(),
     createdAt: p.datetime().onCreate(() => new Date()),
   },
 });

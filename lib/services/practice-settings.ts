@@ -14,6 +14,14 @@ export interface PracticeSettingsView {
   toothNotation: ToothNotation;
   timeZone: string;
   recallPolicy: RecallPolicy;
+  /** Shown in every patient message and calendar file; null when not given. */
+  contact: PracticeContact;
+}
+
+export interface PracticeContact {
+  address: string | null;
+  phone: string | null;
+  contactEmail: string | null;
 }
 
 /** The practice's settings as the administrator's settings page shows them. */
@@ -25,20 +33,36 @@ export async function getPracticeSettings(em: EntityManager, actor: Actor): Prom
     toothNotation: practice.toothNotation as ToothNotation,
     timeZone: practice.timeZone,
     recallPolicy: recallPolicyOf(practice.recallPolicy),
+    contact: { address: practice.address ?? null, phone: practice.phone ?? null, contactEmail: practice.contactEmail ?? null },
   };
 }
 
 /**
- * Changes the tooth notation and/or the recall policy. A new recall policy applies to cases
- * completed from now on (and to visits moved by a changed completion date); existing plans stay.
+ * Changes the tooth notation, the recall policy and/or the practice's contact details. A new
+ * recall policy applies to cases completed from now on (and to visits moved by a changed
+ * completion date); existing plans stay. New contact details go into every message queued or
+ * sent from now on. Audited with the values before and after.
  */
 export async function updatePracticeSettings(em: EntityManager, actor: Actor, raw: unknown): Promise<PracticeSettingsView> {
   assertCan(actor, 'team.manage');
   const patch = parseInput(PracticeSettingsPatch, raw);
   const practice = await em.findOneOrFail(PracticeSchema, actor.practiceId);
-  const before = { toothNotation: practice.toothNotation, recallMonths: practice.recallPolicy.milestones.map((m) => m.months) };
+  const snapshot = () => ({
+    toothNotation: practice.toothNotation,
+    recallMonths: practice.recallPolicy.milestones.map((m) => m.months),
+    address: practice.address ?? null,
+    phone: practice.phone ?? null,
+    contactEmail: practice.contactEmail ?? null,
+  });
+  const before = snapshot();
   if (patch.toothNotation) practice.toothNotation = patch.toothNotation;
   if (patch.recallPolicy) practice.recallPolicy = patch.recallPolicy;
+  if (patch.contact) {
+    const c = patch.contact;
+    if (c.address !== undefined) practice.address = c.address;
+    if (c.phone !== undefined) practice.phone = c.phone;
+    if (c.contactEmail !== undefined) practice.contactEmail = c.contactEmail;
+  }
   await em.flush();
   await audit(em, actor, {
     action: 'practice.settings_changed',
@@ -46,7 +70,7 @@ export async function updatePracticeSettings(em: EntityManager, actor: Actor, ra
     entityId: practice.id,
     detail: {
       before: JSON.stringify(before),
-      after: JSON.stringify({ toothNotation: practice.toothNotation, recallMonths: practice.recallPolicy.milestones.map((m) => m.months) }),
+      after: JSON.stringify(snapshot()),
     },
   });
   return getPracticeSettings(em, actor);
