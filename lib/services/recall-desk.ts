@@ -641,3 +641,44 @@ export async function markVisits(em: EntityManager, actor: Actor, raw: unknown):
   await audit(em, actor, { action: 'recall.marked', detail: { status: input.status, visitIds: results.filter((r) => r.ok).map((r) => r.visitId) } });
   return { results };
 }
+
+// --- the printable call list ------------------------------------------------------------------------
+
+export interface CallList {
+  today: string;
+  practiceName: string;
+  clinician: string | null;
+  toothLabel: string;
+  rows: DeskRow[];
+  /** More visits than the list shows (CALL_LIST_MAX): narrow by clinician. */
+  truncated: boolean;
+}
+
+/** The printed list holds at most this many visits. */
+export const CALL_LIST_MAX = 500;
+
+/**
+ * The "To call" queue as one printable list (the coordinator phones the patients who cannot be
+ * e-mailed): every visit in it, most overdue first, optionally one clinician's. Audited as a
+ * read of the patients' records.
+ */
+export async function callList(em: EntityManager, actor: Actor, raw: unknown = {}): Promise<CallList> {
+  assertCan(actor, 'recall.manage');
+  const q = parseInput(DeskQueuesQuery, raw);
+  const s = await recallSettings(em, actor.practiceId);
+  const knex = knexOf(em);
+  const cond = queueCondition('call', s);
+  const base = activeVisits(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
+  if (q.clinician) base.where('c.operator_id', q.clinician);
+  const ids = (await base.select('v.id').orderBy([{ column: 'v.due_date' }, { column: 'p.family_name' }, { column: 'v.id' }]).limit(CALL_LIST_MAX + 1)) as { id: string }[];
+  const rows = await deskRowsByIds(em, s, ids.slice(0, CALL_LIST_MAX).map((r) => r.id));
+  await audit(em, actor, { action: 'recall.call_list_read', detail: { ...(q.clinician ? { clinician: q.clinician } : {}), visitIds: rows.map((r) => r.visitId) } });
+  return {
+    today: s.today,
+    practiceName: s.practiceName,
+    clinician: q.clinician ?? null,
+    toothLabel: toothNotationLabel(s.toothNotation),
+    rows,
+    truncated: ids.length > CALL_LIST_MAX,
+  };
+}
