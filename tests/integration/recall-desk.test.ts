@@ -151,9 +151,9 @@ describe('queues of issue 10', () => {
       { dueIn: 10 }, // 6 e-mail: not in the call queue
     ]);
     await knex()('patient').whereIn('id', [w.v[0]!.patientId, w.v[1]!.patientId]).update({ phone: '020 7946 0999' });
-    const page = await listDeskRows(services.em(), w.coordinator, { queue: 'call', sort: 'dueDate' });
-    expect(page.rows.map((r) => r.visitId)).toEqual([w.id(1), w.id(0), w.id(4)]);
-    expect(page.rows[0]!.patient).toMatchObject({ phone: '020 7946 0999', canEmail: false, recallContact: true, channel: 'email' });
+    const page = await listDeskRows(services.em(), w.coordinator, { queue: 'call', sort: 'patient' });
+    expect(page.rows.map((r) => r.visitId)).toEqual([w.id(0), w.id(1), w.id(4)]);
+    expect(page.rows[1]!.patient).toMatchObject({ phone: '020 7946 0999', canEmail: false, recallContact: true, channel: 'email' });
     expect(page.rows[2]!.patient).toMatchObject({ canEmail: false, channel: 'post' });
     // "Invited" only when a message went out: send now refuses them and points to the call queue.
     const r = await sendRemindersNow(services.em(), w.coordinator, { visitIds: [w.id(0), w.id(6)] });
@@ -275,11 +275,11 @@ describe('desk actions', () => {
     expect(log.entries.at(-2)!.note).toMatch(/^Booked by phone for .*Spoke to her daughter\.$/);
   });
 
-  it('book with sendNow: the next reminder is queued at once (and will carry the calendar file)', async () => {
+  it('book with sendNow: the proposal is queued at once as its own message (it carries the calendar file)', async () => {
     const w = await desk();
     const r = await bookVisits(services.em(), w.coordinator, { visitIds: [w.id(0)], start: `${addDaysTo(today, 9)}T08:00:00Z`, mode: 'propose', sendNow: true });
-    expect(r.results[0]).toMatchObject({ ok: true, outcome: 'proposed', message: expect.stringMatching(/Invitation queued/) });
-    expect(await knex()('reminder').where({ visit_id: w.id(0) }).first('step', 'status')).toEqual({ step: 'invitation', status: 'queued' });
+    expect(r.results[0]).toMatchObject({ ok: true, outcome: 'proposed', step: 'proposal', message: expect.stringMatching(/Proposal queued/) });
+    expect(await knex()('reminder').where({ visit_id: w.id(0) }).first('step', 'round', 'status')).toEqual({ step: 'proposal', round: 1, status: 'queued' });
   });
 
   it('mark attended or missed only along the status table', async () => {
