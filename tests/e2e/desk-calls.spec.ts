@@ -15,6 +15,7 @@ interface Row {
  * at 1366 and 375 px and of the call list go to the test artefacts.
  */
 test('a patient without e-mail consent is in the call queue with their phone number, and on the printable list', async ({ page }) => {
+  test.setTimeout(90_000); // several pages and three screenshots on a shared, busy machine
   await page.setViewportSize({ width: 1366, height: 900 });
   await signInAs(page, 'coordinator');
 
