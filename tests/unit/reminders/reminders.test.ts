@@ -208,7 +208,7 @@ describe('a daily scan over a whole visit', () => {
         sent(['invitation', addDaysTo(due, -21)], ['second_invitation', addDaysTo(due, -11)], ['last_notice', addDaysTo(due, 14)]),
       );
     }
-  });
+  }, 30_000); // about 150,000 scan days: 3 s alone, more on a shared machine under load
 
   it('keeps ten days between messages when the visit was planned late', () => {
     const due = '2024-02-29';
