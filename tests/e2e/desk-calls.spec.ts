@@ -27,12 +27,17 @@ test('a patient without e-mail consent is in the call queue with their phone num
   // "Invited" only when a message went out: nobody in the call queue was sent one.
   for (const r of list.rows) if (r.status === 'invited') expect(r.reminders.length).toBeGreaterThan(0);
 
+  // The queues and rows load in the browser after the page: allow for a busy machine.
+  const slow = { timeout: 30_000 };
   await page.goto('/desk');
-  await page.getByRole('navigation', { name: 'Work queues' }).getByRole('button', { name: /To call/ }).click();
+  const tab = page.getByRole('navigation', { name: 'Work queues' }).getByRole('button', { name: /To call/ });
+  await expect(tab).toBeVisible(slow);
+  await tab.click();
   await expect(page).toHaveURL(/queue=call/);
+  await expect(tab).toHaveAttribute('aria-current', 'true');
   await expect(page.getByText(/cannot be e-mailed/).first()).toBeVisible();
   const desk = page.getByTestId(`desk-row-${row.patient.registryNumber}-${row.milestone}`);
-  await expect(desk).toBeVisible();
+  await expect(desk).toBeVisible(slow);
   await expect(desk).toContainText(row.patient.phone!);
   await expect(desk).toContainText('no e-mail');
   await page.screenshot({ path: test.info().outputPath('desk-call-queue-1366.png'), fullPage: true });
@@ -40,7 +45,7 @@ test('a patient without e-mail consent is in the call queue with their phone num
   // Sending an invitation is refused and says to call, naming the patient.
   await desk.getByRole('checkbox').check();
   await page.getByRole('button', { name: 'Send invitations now' }).click();
-  await expect(page.getByText(new RegExp(`${row.patient.name.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')} — ${row.milestone}-month visit: The patient has not agreed`))).toBeVisible();
+  await expect(page.getByText(new RegExp(`${row.patient.name.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')} — ${row.milestone}-month visit: The patient has not agreed`))).toBeVisible(slow);
 
   await page.setViewportSize({ width: 375, height: 800 });
   await page.screenshot({ path: test.info().outputPath('desk-call-queue-375.png'), fullPage: true });
@@ -48,7 +53,7 @@ test('a patient without e-mail consent is in the call queue with their phone num
 
   // The printable call list: the same patient with the phone number, without the app's header in print.
   await page.goto('/desk/calls');
-  await expect(page.getByRole('heading', { name: 'Call list' })).toBeVisible();
+  await expect(page.getByRole('heading', { name: 'Call list' })).toBeVisible(slow);
   const printed = page.getByTestId(`call-row-${row.patient.registryNumber}-${row.milestone}`);
   await expect(printed).toContainText(row.patient.phone!);
   await expect(printed).toContainText(row.patient.name);
@@ -59,6 +64,7 @@ test('a patient without e-mail consent is in the call queue with their phone num
 });
 
 test('the desk narrows to one clinician and has a "due this month" view', async ({ page }) => {
+  test.setTimeout(90_000);
   await signInAs(page, 'coordinator');
   const { clinicians } = (await (await page.request.get('/api/clinicians')).json()) as { clinicians: { id: string; name: string | null; email: string }[] };
   const one = clinicians[0]!;
@@ -69,6 +75,7 @@ test('the desk narrows to one clinician and has a "due this month" view', async 
   expect(count(all, 'this_month')).toBeGreaterThan(0);
 
   await page.goto('/desk');
+  await expect(page.getByRole('navigation', { name: 'Work queues' }).getByRole('button', { name: /Due this month/ })).toBeVisible({ timeout: 30_000 });
   await page.getByLabel('Clinician').selectOption(one.id);
   await expect(page).toHaveURL(new RegExp(`clinician=${one.id}`));
   await page.getByRole('navigation', { name: 'Work queues' }).getByRole('button', { name: /Due this month/ }).click();
