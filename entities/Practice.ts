@@ -37,6 +37,11 @@ export const PracticeSchema = defineEntity({
      * baseline is "uncertain", from it on "disease" (lib/scoring assessReview).
      */
     minObservationDays: p.smallint().default(365),
+    /** Shown in every patient message and calendar file (practice settings); optional. */
+    address: p.string().length(300).nullable(),
+    phone: p.string().length(40).nullable(),
+    /** The practice's e-mail for patients (not the sending address, MAIL_FROM). */
+    contactEmail: p.string().length(254).nullable(),
     createdAt: p.datetime().onCreate(() => new Date()),
   },
 });

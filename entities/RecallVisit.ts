@@ -33,6 +33,8 @@ export const RecallVisitSchema = defineEntity({
     note: p.string().length(500).nullable(),
     /** A proposed appointment time (recall desk); the next reminder carries it as a calendar file. */
     proposedStart: p.datetime().nullable(),
+    /** The current round of reminder steps: raised by each time proposed by e-mail (lib/recall/reminders.ts). */
+    reminderRound: p.smallint().default(0),
     /** A reminder could not be delivered after its last attempt: the coordinator should call. */
     deliveryFailedAt: p.datetime().nullable(),
     statusChangedAt: p.datetime().onCreate(() => new Date()),

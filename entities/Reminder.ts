@@ -6,7 +6,7 @@ import { RecallVisitSchema } from './RecallVisit';
 import { UserSchema } from './User';
 
 /**
- * The outbox: one row per recall visit and reminder step (unique), written before the job is
+ * The outbox: one row per recall visit, round and reminder step (unique), written before the job is
  * queued, so the database — not Redis — is the record of what must be, is being and was sent.
  *
  *   queued   waiting for the worker (a job exists in Redis, or the next scan re-queues it)
@@ -31,6 +31,8 @@ export const ReminderSchema = defineEntity({
     practice: p.manyToOne(PracticeSchema).ref().deleteRule('cascade'),
     visit: p.manyToOne(RecallVisitSchema).ref().deleteRule('cascade'),
     step: p.enum([...REMINDER_STEPS]),
+    /** The visit's reminder round when queued (a proposal starts a new one: lib/recall/reminders.ts). */
+    round: p.smallint().default(0),
     /** Who asked: the scheduled scan, or a coordinator's "send now". */
     origin: p.enum(['scan', 'desk'] as const).default('scan'),
     requestedBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
@@ -51,7 +53,7 @@ export const ReminderSchema = defineEntity({
     failedAt: p.datetime().nullable(),
     updatedAt: p.datetime().onCreate(() => new Date()).onUpdate(() => new Date()),
   },
-  uniques: [{ name: 'reminder_visit_step_unique', properties: ['visit', 'step'] }],
+  uniques: [{ name: 'reminder_visit_round_step_unique', properties: ['visit', 'round', 'step'] }],
   indexes: [
     // The scan's reconciliation reads the open rows (queued or sending) of every practice each hour.
     {

@@ -67,7 +67,7 @@ export async function renderReminder(props: ReminderEmailProps): Promise<{ html:
     firstName: PLACEHOLDER.firstName,
     links: { confirm: PLACEHOLDER.confirm, reschedule: PLACEHOLDER.reschedule, decline: PLACEHOLDER.decline, unsubscribe: PLACEHOLDER.unsubscribe },
   };
-  const key = JSON.stringify([shape.step, shape.practiceName, shape.dueDate, shape.contact, shape.appointment ?? null]);
+  const key = JSON.stringify([shape.wording, shape.practiceName, shape.dueDate, shape.contact, shape.appointment ?? null]);
   let rendered = cache.get(key);
   if (!rendered) {
     rendered = await renderTemplate(ReminderEmail(shape));

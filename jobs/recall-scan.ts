@@ -39,6 +39,7 @@ import {
   insertOutboxRows,
   knexOf,
   lastReplies,
+  ofRound,
   reconcileOutbox,
   reminderHistory,
   reminderPolicyOf,
@@ -223,9 +224,10 @@ async function queueSteps(ctx: ScanContext, practiceId: string, timeZone: string
     .whereIn('v.status', CONTACT_STATUSES)
     .where('v.window_end', '>=', today)
     .where((b) => b.where('v.status', 'invited').orWhere('v.due_date', '<=', horizon))
-    .select('v.id', 'v.status', 'v.due_date', 'v.window_end', knex.raw(`${EMAIL_CONSENT_SQL} as consent`))) as {
+    .select('v.id', 'v.status', 'v.due_date', 'v.window_end', 'v.reminder_round', knex.raw(`${EMAIL_CONSENT_SQL} as consent`))) as {
     id: string;
     status: VisitStatus;
+    reminder_round: number;
     due_date: string;
     window_end: string;
     consent: boolean;
@@ -241,13 +243,15 @@ async function queueSteps(ctx: ScanContext, practiceId: string, timeZone: string
     recallContactConsent: r.consent,
     lastReplyOn: replies.get(r.id) ?? null,
   }));
+  // Only the current round counts (a time proposed by e-mail starts a new one).
+  const round = new Map(rows.map((r) => [r.id, r.reminder_round]));
   const flat: ReminderHistoryEntry[] = [];
-  for (const [visitId, steps] of history) for (const s of steps) flat.push({ visitId, step: s.step, on: s.on });
+  for (const [visitId, steps] of history) for (const s of ofRound(steps, round.get(visitId)!)) flat.push({ visitId, step: s.step, on: s.on });
   const entries = stepsEntering(visits, flat, policy, today);
   if (!entries.length) return 0;
   const inserted = await insertOutboxRows(
     em,
-    entries.map((e) => ({ practiceId, visitId: e.visitId, step: e.step, origin: 'scan' as const, day: today })),
+    entries.map((e) => ({ practiceId, visitId: e.visitId, step: e.step, round: round.get(e.visitId)!, origin: 'scan' as const, day: today })),
   );
   await enqueueOutbox(ctx.queue, inserted, quietDelayMs(policy.quietHours, now, timeZone));
   return inserted.length;

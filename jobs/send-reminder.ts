@@ -40,7 +40,12 @@
  * Consent is checked in the claim transaction, against the patient row as it is then: no
  * recall-contact consent by e-mail → the row is `skipped` and the job fails as unrecoverable
  * (never retried). A visit that no longer needs contact (confirmed, attended, declined …, or its
- * window has ended) is `skipped` and the job completes.
+ * window has ended), a row of an earlier round (a time was proposed since: lib/recall/reminders.ts)
+ * and a proposal whose time has passed are `skipped` and the job completes.
+ *
+ * The words come from lib/recall/wording.ts for the day the row was queued (so every attempt
+ * renders the same message), and every message and calendar file carries the practice's
+ * address, phone and e-mail when the practice has given them.
  */
 import { DelayedError, UnrecoverableError, type Job } from 'bullmq';
 import { randomUUID } from 'node:crypto';
@@ -48,6 +53,7 @@ import type { Transporter } from 'nodemailer';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { JOBS, parseJobData, type SendReminderData } from '@/lib/queue';
 import { CONTACT_STATUSES, needsContact, quietDelayMs, type ReminderStep } from '@/lib/recall/reminders';
+import { messageWording } from '@/lib/recall/wording';
 import { isPastDue } from '@/lib/recall/plan';
 import type { VisitStatus } from '@/lib/recall/status';
 import { issueReplyToken, issueUnsubscribeToken } from '@/lib/recall/reply-token';
@@ -97,6 +103,9 @@ interface ClaimRow {
   status: 'queued' | 'sending' | 'sent' | 'failed' | 'skipped';
   claim_expires_at: string | null;
   queued_at: string;
+  queued_on: string;
+  round: number;
+  visit_round: number;
   visit_id: string;
   case_id: string;
   visit_status: VisitStatus;
@@ -107,6 +116,9 @@ interface ClaimRow {
   email: string | null;
   consent: boolean;
   practice_name: string;
+  practice_address: string | null;
+  practice_phone: string | null;
+  practice_email: string | null;
   time_zone: string;
   reminder_policy: unknown;
 }
@@ -127,13 +139,16 @@ function selectRow(ctx: SendContext, data: SendReminderData): Promise<ClaimRow |
     .join('treatment_case as c', 'c.id', 'v.case_id')
     .join('patient as p', 'p.id', 'c.patient_id')
     .join('practice as pr', 'pr.id', 'r.practice_id')
-    .where({ 'r.visit_id': data.visitId, 'r.step': data.step, 'r.practice_id': data.practiceId })
+    .where({ 'r.visit_id': data.visitId, 'r.step': data.step, 'r.round': data.round ?? 0, 'r.practice_id': data.practiceId })
     .first(
       'r.id',
       'r.practice_id',
       'r.status',
       'r.claim_expires_at',
       'r.queued_at',
+      knex.raw(`to_char(r.queued_on, 'YYYY-MM-DD') as queued_on`),
+      'r.round',
+      'v.reminder_round as visit_round',
       'v.id as visit_id',
       'v.case_id',
       'v.status as visit_status',
@@ -144,6 +159,9 @@ function selectRow(ctx: SendContext, data: SendReminderData): Promise<ClaimRow |
       'p.email',
       knex.raw(`${EMAIL_CONSENT_SQL} as consent`),
       'pr.name as practice_name',
+      'pr.address as practice_address',
+      'pr.phone as practice_phone',
+      'pr.contact_email as practice_email',
       'pr.time_zone',
       'pr.reminder_policy',
     ) as Promise<ClaimRow | undefined>;
@@ -165,7 +183,7 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
       const visit = await knex('recall_visit').where({ id: data.visitId, practice_id: data.practiceId }).first('id');
       if (!visit) return { kind: 'done', outcome: 'no_visit' };
       await insertOutboxRows(ctx.em(), [
-        { practiceId: data.practiceId, visitId: data.visitId, step: data.step, origin: data.origin, requestedBy: data.requestedBy, day: data.day ?? todayIn('UTC', now) },
+        { practiceId: data.practiceId, visitId: data.visitId, step: data.step, round: data.round ?? 0, origin: data.origin, requestedBy: data.requestedBy, day: data.day ?? todayIn('UTC', now) },
       ]);
       continue;
     }
@@ -189,8 +207,15 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
       continue;
     }
     const ended = isPastDue({ windowEnd: row.window_end }, todayIn(row.time_zone, now));
-    if (!needsContact(row.visit_status) || ended) {
-      if (await skip(`The visit no longer needs contact (${row.visit_status}${ended ? ', window ended' : ''}).`)) {
+    const superseded = row.round !== row.visit_round;
+    const proposalPast = data.step === 'proposal' && !(row.proposed_start && new Date(row.proposed_start).getTime() > now.getTime());
+    if (!needsContact(row.visit_status) || ended || superseded || proposalPast) {
+      const why = superseded
+        ? 'a time was proposed since'
+        : proposalPast
+          ? 'the proposed time has passed'
+          : `${row.visit_status}${ended ? ', window ended' : ''}`;
+      if (await skip(`The visit no longer needs this message (${why}).`)) {
         return { kind: 'done', outcome: 'no_longer_needed', reminderId: row.id };
       }
       continue;
@@ -203,7 +228,7 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
          from recall_visit v, treatment_case c, patient p
         where r.id = ? and r.status = ? and r.claim_expires_at is not distinct from ?
           and v.id = r.visit_id and c.id = v.case_id and p.id = c.patient_id
-          and v.status in (${CONTACT_STATUSES_SQL}) and ${EMAIL_CONSENT_SQL}
+          and v.status in (${CONTACT_STATUSES_SQL}) and r.round = v.reminder_round and ${EMAIL_CONSENT_SQL}
         returning r.id`,
       [new Date(now.getTime() + ctx.leaseMs), now, row.id, row.status, row.claim_expires_at],
     );
@@ -227,20 +252,22 @@ async function compose(ctx: SendContext, row: ClaimRow, step: ReminderStep, mess
   };
   const proposed = row.proposed_start ? new Date(row.proposed_start) : null;
   const appointment = proposed && proposed.getTime() > now.getTime() ? proposed : null;
+  const contact = practiceContact(row);
+  const wording = messageWording(step, row.due_date, row.queued_on, reminderPolicyOf(row.reminder_policy));
   const { html, text } = await renderReminder({
-    step,
+    wording,
     firstName: row.given_name,
     practiceName: row.practice_name,
     dueDate: row.due_date,
     links,
-    contact: {},
+    contact,
     ...(appointment ? { appointment: appointmentWords(appointment, row.time_zone) } : {}),
   });
   const from = fromAddress(ctx.mailFrom);
   return {
     from: { name: row.practice_name, address: from },
     to: row.email!,
-    subject: reminderSubject(step, row.practice_name, row.due_date),
+    subject: reminderSubject(wording, row.practice_name, row.due_date),
     html,
     text,
     messageId,
@@ -253,11 +280,20 @@ async function compose(ctx: SendContext, row: ClaimRow, step: ReminderStep, mess
             visitId: row.visit_id,
             proposalId: String(appointment.getTime()),
             start: appointment,
-            practice: { name: row.practice_name, email: from },
+            practice: { name: row.practice_name, email: contact.email ?? from, ...(contact.address ? { address: contact.address } : {}), ...(contact.phone ? { phone: contact.phone } : {}) },
             stamp: queuedAt,
           }),
         ]
       : [],
+  };
+}
+
+/** The practice's address, phone and e-mail as the practice settings give them (absent ones left out). */
+function practiceContact(row: Pick<ClaimRow, 'practice_address' | 'practice_phone' | 'practice_email'>): { address?: string; phone?: string; email?: string } {
+  return {
+    ...(row.practice_address ? { address: row.practice_address } : {}),
+    ...(row.practice_phone ? { phone: row.practice_phone } : {}),
+    ...(row.practice_email ? { email: row.practice_email } : {}),
   };
 }
 

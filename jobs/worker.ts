@@ -115,7 +115,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
       }
       const data = SendReminderPayload.safeParse(job.data);
       if (!data.success) return;
-      const row = (await knexOf(db.em.fork())('reminder').where({ visit_id: data.data.visitId, step: data.data.step }).first('id')) as { id: string } | undefined;
+      const row = (await knexOf(db.em.fork())('reminder').where({ visit_id: data.data.visitId, step: data.data.step, round: data.data.round ?? 0 }).first('id')) as { id: string } | undefined;
       if (row && (await markReminderFailed(db.em.fork(), row.id, err.message))) {
         log(`[send-reminder] ${job.id}: given up after ${job.attemptsMade} attempt(s); the visit is flagged for the coordinator: ${err.message}`);
       }

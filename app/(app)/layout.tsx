@@ -24,7 +24,7 @@ export default async function AppLayout({ children }: { children: React.ReactNod
       <a href="#main" className="sr-only focus:not-sr-only focus:absolute focus:left-2 focus:top-2 focus:z-10 focus:rounded focus:bg-white focus:p-2">
         Skip to content
       </a>
-      <header className="border-b border-bone-300 bg-bone-50">
+      <header className="border-b border-bone-300 bg-bone-50 print:hidden">
         <div className="mx-auto flex max-w-6xl flex-wrap items-center gap-x-6 gap-y-3 px-4 py-3">
           <Link href="/" className="no-underline" aria-label="Lamina home">
             <Wordmark />
@@ -44,7 +44,7 @@ export default async function AppLayout({ children }: { children: React.ReactNod
           </div>
         </div>
       </header>
-      <main id="main" className="mx-auto max-w-6xl px-4 py-8">
+      <main id="main" className="mx-auto max-w-6xl px-4 py-8 print:max-w-none print:p-0">
         <Providers>{children}</Providers>
       </main>
     </div>

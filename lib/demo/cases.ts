@@ -931,7 +931,9 @@ function simulateVisits(
     const history: DemoStatusStep[] = [{ status: 'planned', on: completion }];
     const step = (status: VisitStatus, on: CalendarDate) => history.push({ status, on });
     const finish = (status: VisitStatus, review?: DemoReview): DemoVisit => ({ ...planned, status, history, ...(review ? { review } : {}) });
-    const invitable = person.recallContact;
+    // "Invited" means a message went out: only patients who agreed to e-mail are invited; the others
+    // are phoned (the desk's call queue) and appear planned until booked.
+    const invitable = person.recallContact && person.recallChannel === 'email';
     const inviteOn = (upTo: CalendarDate) =>
       earliestOf(upTo, today, latest(completion, addDaysTo(planned.windowStart, -rng.int(7, 30))));
 
@@ -952,7 +954,7 @@ function simulateVisits(
     const windowOpen = !windowEnded && compareDates(planned.windowStart, today) <= 0;
 
     if (windowEnded) {
-      const attendP = lost ? 0 : invitable ? clamp(ATTEND_RATE[planned.milestone]! * person.adherence, 0, 0.95) : 0.35;
+      const attendP = lost ? 0 : person.recallContact ? clamp(ATTEND_RATE[planned.milestone]! * person.adherence, 0, 0.95) : 0.35;
       const missedOn = addDaysTo(planned.windowEnd, 1);
       if (rng.chance(attendP)) {
         const upper = earliestOf(planned.windowEnd, today);

@@ -55,7 +55,7 @@ export interface EnqueueOptions {
 
 function jobOptions(data: SendReminderData, options: EnqueueOptions): JobsOptions {
   return {
-    jobId: reminderJobId(data.visitId, data.step),
+    jobId: reminderJobId(data.visitId, data.step, data.round ?? 0),
     ...(options.delay && options.delay > 0 ? { delay: Math.round(options.delay) } : {}),
   };
 }

@@ -7,7 +7,7 @@
 import { UnrecoverableError } from 'bullmq';
 import { z } from 'zod';
 import { isCalendarDate } from '@/lib/registry/calendar-date';
-import { REMINDER_STEPS } from '@/lib/recall/reminders';
+import { MAX_REMINDER_ROUND, REMINDER_STEPS } from '@/lib/recall/reminders';
 import { JOBS, type JobName } from './names';
 
 /** Ids that can go into a BullMQ job id: letters, digits, - and _ (UUIDs pass). */
@@ -20,7 +20,9 @@ const Day = z.string().refine(isCalendarDate, 'A day is written YYYY-MM-DD.');
 export const SendReminderPayload = z.strictObject({
   practiceId: JobSafeId,
   visitId: JobSafeId,
-  step: z.enum(REMINDER_STEPS, { error: 'The step is invitation, second_invitation or last_notice.' }),
+  step: z.enum(REMINDER_STEPS, { error: 'The step is invitation, second_invitation, last_notice or proposal.' }),
+  /** The visit's reminder round (a proposal starts a new one); 0, and left out, for the first. */
+  round: z.number().int().min(0).max(MAX_REMINDER_ROUND).optional(),
   /** Who asked: the scheduled scan, or a coordinator's "send now". */
   origin: z.enum(['scan', 'desk']).default('scan'),
   /** The coordinator, for "send now" (audit). */

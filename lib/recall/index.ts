@@ -6,6 +6,7 @@ export * from './status';
 export * from './plan';
 export * from './reminders';
 export * from './follow-up-rate';
+export * from './wording';
 // reply-token.ts is left out on purpose: it needs node:crypto, and this index is imported by screens.
 export {
   DEFAULT_RECALL_POLICY,

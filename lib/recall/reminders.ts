@@ -9,6 +9,11 @@
  *   second_invitation  on or after the invitation + secondInvitationAfterDays  (D − 11)
  *   last_notice        on or after D + lastNoticeDaysAfterDue                  (D + 14)
  *
+ * and `proposal`, never entered by the scan: the desk proposing a time by e-mail. It starts a new
+ * round of the steps (the visit's `reminderRound`): the steps before it no longer count, the
+ * proposal takes the invitation's place, and the second invitation and last notice follow it
+ * by the same rules. Callers pass only the current round's history.
+ *
  * Rules, the same for the nightly scan and for each visit:
  * - Only visits that still need contact get a step: `planned` (not yet invited) and `invited`
  *   (no answer yet). Confirmed, attended, missed, declined, cancelled and closed visits get none.
@@ -22,9 +27,9 @@
  *   a patient is given to reply, so a late first invitation pushes the last notice back.
  * - A patient who has replied since the last message (`lastReplyOn`) gets nothing more
  *   automatically: the desk takes it from there. A new message sent by the desk restarts it.
- * - The first message is always the invitation. A visit marked `invited` with no invitation in
- *   its history (invited by phone or letter) gets no automatic second invitation (there is no
- *   date to count from), only the last notice.
+ * - The first message is always the invitation (worded for an overdue visit when its due date
+ *   has passed: lib/recall/wording.ts), whatever the visit's status: a visit marked `invited`
+ *   with no message on record gets the invitation, never a last notice as its first message.
  *
  * The history of a visit is every outbox row for it — queued, sent or failed — with the day it
  * was queued or sent; a step the desk did by hand may be passed in as well.
@@ -122,10 +127,9 @@ export function stepDue(
   if (visit.lastReplyOn && (lastSentOn === undefined || compareDates(visit.lastReplyOn, lastSentOn) >= 0)) return null;
 
   const { invitation, lastNotice } = stepDates(visit.dueDate, policy);
-  const invitedOn = firstOn(sentSteps, 'invitation');
-  if (invitedOn === undefined && visit.status === 'planned') {
-    return onOrAfter(today, invitation) ? 'invitation' : null;
-  }
+  // The first message of a round: the invitation, or the proposal that started the round.
+  const invitedOn = firstOn(sentSteps, 'invitation') ?? firstOn(sentSteps, 'proposal');
+  if (invitedOn === undefined) return onOrAfter(today, invitation) ? 'invitation' : null;
   if (lastSentOn !== undefined && !onOrAfter(today, addDaysTo(lastSentOn, policy.secondInvitationAfterDays))) return null;
   if (onOrAfter(today, lastNotice)) return 'last_notice';
   if (
@@ -173,23 +177,28 @@ export function nextStepNow(
   if (!contactAllowed(visit, today)) return null;
   const taken = new Set(sentSteps.map((s) => s.step));
   if (taken.has('last_notice')) return null;
-  if (!taken.has('invitation')) return 'invitation';
+  if (!taken.has('invitation') && !taken.has('proposal')) return 'invitation';
   if (!taken.has('second_invitation') && !onOrAfter(today, stepDates(visit.dueDate, policy).lastNotice)) return 'second_invitation';
   return 'last_notice';
 }
 
 const JOB_ID_PART = /^[A-Za-z0-9_-]{1,64}$/;
 
+/** The highest reminder round (a smallint column; one round per proposal sent). */
+export const MAX_REMINDER_ROUND = 32_767;
+
 /**
- * The BullMQ job id of one visit's step: 'reminder-<visitId>-<step>'. Deterministic, so a
- * repeated scan or a double click adds nothing while the first job is kept; never contains ':'
- * and never parses as an integer (BullMQ refuses both for custom ids). The outbox row per visit
- * and step is what guards once the job has been removed.
+ * The BullMQ job id of one visit's step: 'reminder-<visitId>-<step>', and for the rounds a
+ * proposal starts 'reminder-<visitId>-<step>-r<round>'. Deterministic, so a repeated scan or a
+ * double click adds nothing while the first job is kept; never contains ':' and never parses as
+ * an integer (BullMQ refuses both for custom ids). The outbox row per visit, round and step is
+ * what guards once the job has been removed.
  */
-export function reminderJobId(visitId: string, step: ReminderStep): string {
+export function reminderJobId(visitId: string, step: ReminderStep, round = 0): string {
   if (!JOB_ID_PART.test(visitId)) throw new RangeError(`A visit id for a job id uses letters, digits, - and _ only (got ${JSON.stringify(visitId)}).`);
   if (!isReminderStep(step)) throw new RangeError(`Not a reminder step: ${JSON.stringify(step)}`);
-  return `reminder-${visitId}-${step}`;
+  if (!Number.isInteger(round) || round < 0 || round > MAX_REMINDER_ROUND) throw new RangeError(`Not a reminder round: ${JSON.stringify(round)}`);
+  return round === 0 ? `reminder-${visitId}-${step}` : `reminder-${visitId}-${step}-r${round}`;
 }
 
 /**

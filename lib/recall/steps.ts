@@ -4,13 +4,14 @@
  * (First Load JS); lib/recall/reminders.ts re-exports them.
  */
 
-export const REMINDER_STEPS = ['invitation', 'second_invitation', 'last_notice'] as const;
+export const REMINDER_STEPS = ['invitation', 'second_invitation', 'last_notice', 'proposal'] as const;
 export type ReminderStep = (typeof REMINDER_STEPS)[number];
 
 export const REMINDER_STEP_LABELS: Record<ReminderStep, string> = {
   invitation: 'Invitation',
   second_invitation: 'Second invitation',
   last_notice: 'Last notice',
+  proposal: 'Proposed time',
 };
 
 export function isReminderStep(value: unknown): value is ReminderStep {

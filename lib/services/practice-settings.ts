@@ -16,6 +16,14 @@ export interface PracticeSettingsView {
   recallPolicy: RecallPolicy;
   /** Days before which an unchanged lesion is "uncertain" (lib/scoring assessReview). */
   minObservationDays: number;
+  /** Shown in every patient message and calendar file; null when not given. */
+  contact: PracticeContact;
+}
+
+export interface PracticeContact {
+  address: string | null;
+  phone: string | null;
+  contactEmail: string | null;
 }
 
 /** The practice's settings as the administrator's settings page shows them. */
@@ -28,27 +36,39 @@ export async function getPracticeSettings(em: EntityManager, actor: Actor): Prom
     timeZone: practice.timeZone,
     recallPolicy: recallPolicyOf(practice.recallPolicy),
     minObservationDays: practice.minObservationDays,
+    contact: { address: practice.address ?? null, phone: practice.phone ?? null, contactEmail: practice.contactEmail ?? null },
   };
 }
 
 /**
- * Changes the tooth notation, the recall policy and/or the minimum observation time. A new recall
- * policy applies to cases completed from now on (and to visits moved by a changed completion date);
- * existing plans stay. A new minimum observation time applies to reviews recorded or reassessed
- * from now on; stored outcomes stay as they were scored.
+ * Changes the tooth notation, the recall policy, the minimum observation time and/or the
+ * practice's contact details. A new recall policy applies to cases completed from now on (and to
+ * visits moved by a changed completion date); existing plans stay. A new minimum observation time
+ * applies to reviews recorded or reassessed from now on; stored outcomes stay as they were scored.
+ * New contact details go into every message queued or sent from now on. Audited before and after.
  */
 export async function updatePracticeSettings(em: EntityManager, actor: Actor, raw: unknown): Promise<PracticeSettingsView> {
   assertCan(actor, 'team.manage');
   const patch = parseInput(PracticeSettingsPatch, raw);
   const practice = await em.findOneOrFail(PracticeSchema, actor.practiceId);
-  const before = {
+  const snapshot = () => ({
     toothNotation: practice.toothNotation,
     recallMonths: practice.recallPolicy.milestones.map((m) => m.months),
+    address: practice.address ?? null,
+    phone: practice.phone ?? null,
+    contactEmail: practice.contactEmail ?? null,
     minObservationDays: practice.minObservationDays,
-  };
+  });
+  const before = snapshot();
   if (patch.toothNotation) practice.toothNotation = patch.toothNotation;
   if (patch.recallPolicy) practice.recallPolicy = patch.recallPolicy;
   if (patch.minObservationDays !== undefined) practice.minObservationDays = patch.minObservationDays;
+  if (patch.contact) {
+    const c = patch.contact;
+    if (c.address !== undefined) practice.address = c.address;
+    if (c.phone !== undefined) practice.phone = c.phone;
+    if (c.contactEmail !== undefined) practice.contactEmail = c.contactEmail;
+  }
   await em.flush();
   await audit(em, actor, {
     action: 'practice.settings_changed',
@@ -56,11 +76,7 @@ export async function updatePracticeSettings(em: EntityManager, actor: Actor, ra
     entityId: practice.id,
     detail: {
       before: JSON.stringify(before),
-      after: JSON.stringify({
-        toothNotation: practice.toothNotation,
-        recallMonths: practice.recallPolicy.milestones.map((m) => m.months),
-        minObservationDays: practice.minObservationDays,
-      }),
+      after: JSON.stringify(snapshot()),
     },
   });
   return getPracticeSettings(em, actor);

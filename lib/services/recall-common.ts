@@ -65,6 +65,7 @@ export interface DeskVisit {
   booked_date: string | null;
   proposed_start: string | null;
   delivery_failed_at: string | null;
+  reminder_round: number;
   patient_id: string;
   given_name: string;
   family_name: string;
@@ -93,6 +94,7 @@ export async function visitsOfPractice(em: EntityManager, practiceId: string, id
       'v.booked_date',
       'v.proposed_start',
       'v.delivery_failed_at',
+      'v.reminder_round',
       'p.id as patient_id',
       'p.given_name',
       'p.family_name',
@@ -105,6 +107,11 @@ export async function visitsOfPractice(em: EntityManager, practiceId: string, id
   }
   const order = new Map(ids.map((id, i) => [id, i]));
   return rows.sort((a, b) => order.get(a.id)! - order.get(b.id)!);
+}
+
+/** How a bulk action's result names its visit: "Ashdown, Wren — 12-month visit". */
+export function visitLabel(v: Pick<DeskVisit, 'given_name' | 'family_name' | 'milestone'>): string {
+  return `${v.family_name}, ${v.given_name} — ${v.milestone}-month visit`;
 }
 
 export interface LogInput {

@@ -2,27 +2,42 @@ import 'server-only';
 import { z } from 'zod';
 import { text } from '@/lib/registry/fields';
 import type { EntityManager } from '@mikro-orm/postgresql';
+import type { Knex } from '@mikro-orm/knex';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import {
+  CONTACT_STATUSES,
+  MAX_REMINDER_ROUND,
   REMINDER_STEP_LABELS,
   VISIT_STATUS_LABELS,
   canTransition,
+  needsContact,
   nextStepNow,
   quietDelayMs,
   type ReminderStep,
   type SentStep,
   type VisitStatus,
 } from '@/lib/recall';
-import { addDaysTo } from '@/lib/registry/calendar-date';
+import { addDaysTo, daysInMonth } from '@/lib/registry/calendar-date';
 import { Paging } from '@/lib/schemas/paging';
 import { formatTooth, toothNotationLabel } from '@/lib/teeth';
 import type { ReminderStatus } from '@/entities';
 import { audit } from './audit';
 import { ConflictError } from './errors';
 import { parseInput } from './parse';
-import { activeVisits, iso, logContact, recallSettings, setVisitStatus, visitsOfPractice, VisitIds, type DeskVisit, type RecallSettings } from './recall-common';
+import {
+  activeVisits,
+  iso,
+  logContact,
+  recallSettings,
+  setVisitStatus,
+  visitLabel,
+  visitsOfPractice,
+  VisitIds,
+  type DeskVisit,
+  type RecallSettings,
+} from './recall-common';
 import { EMAIL_CONSENT_SQL, enqueueOutbox, insertOutboxRows, reminderProducer, retryFailedReminder, type OutboxEntry } from './recall-outbox';
-import { SortDir, displayName, knexOf, pageOffset, todayIn, type Page } from './registry-common';
+import { SortDir, displayName, isUuid, knexOf, pageOffset, todayIn, type Page } from './registry-common';
 import { refreshNextVisit } from './visits';
 
 /**
@@ -33,8 +48,14 @@ import { refreshNextVisit } from './visits';
  *
  *   due_soon         still to arrange — planned or invited — and due within the next 30 days:
  *                    T ≤ due date ≤ T + 30
- *   overdue          open — planned, invited or confirmed — with the due date passed (due date < T)
- *                    but the window still open; when the window ends the scan marks it missed
+ *   overdue          nobody has a time for it: still to arrange (planned or invited), no booked
+ *                    date and no proposed time still ahead, with the due date passed (due date < T)
+ *                    but the window still open; when the window ends the scan marks it missed.
+ *                    Confirmed (booked) visits are not overdue
+ *   call             to phone: still to arrange (planned or invited), due for an invitation (due
+ *                    date ≤ T + the policy's invitation weeks), window open, and the patient agreed
+ *                    to recall contact but cannot be e-mailed (another channel, or no address):
+ *                    no reminder goes to them, so the coordinator calls (printable at /desk/calls)
  *   awaiting_reply   invited, at least one reminder sent, and no patient reply since the latest
  *                    reminder was sent
  *   replied          not final (not attended, cancelled or closed), and the latest contact-log entry
@@ -46,29 +67,50 @@ import { refreshNextVisit } from './visits';
  *                    any desk action on the visit clears it
  *   missed           missed: the window ended without an attendance on record (not yet closed as
  *                    lost to follow-up)
+ *   this_month       a view, not a work queue: every visit due this calendar month, whatever its status
+ *
+ * Every queue and its count can be narrowed to one clinician's cases (the case's operator).
  */
-export const DESK_QUEUES = ['due_soon', 'overdue', 'awaiting_reply', 'replied', 'delivery_failed', 'missed'] as const;
+export const DESK_QUEUES = ['due_soon', 'overdue', 'call', 'awaiting_reply', 'replied', 'delivery_failed', 'missed', 'this_month'] as const;
 export type DeskQueue = (typeof DESK_QUEUES)[number];
 
 export const DESK_QUEUE_INFO: Record<DeskQueue, { label: string; definition: string }> = {
   due_soon: { label: 'Due in the next 30 days', definition: 'Planned or invited, due between today and 30 days from now.' },
-  overdue: { label: 'Overdue', definition: 'Planned, invited or confirmed, due date passed, window still open.' },
+  overdue: { label: 'Overdue', definition: 'Due date passed, window still open, and nobody has a time for it (not booked, no proposed time ahead).' },
+  call: {
+    label: 'To call',
+    definition: 'Due for an invitation, agreed to recall contact but cannot be e-mailed (phone or post, or no address): no reminder goes out, so phone them.',
+  },
   awaiting_reply: { label: 'Awaiting reply', definition: 'Invited, a reminder sent, no reply since the latest one.' },
   replied: { label: 'Replied', definition: 'The patient answered and nobody has acted on the answer yet.' },
   delivery_failed: { label: 'Delivery failed', definition: 'A reminder could not be delivered after every attempt: call the patient.' },
   missed: { label: 'Missed', definition: 'The window ended without an attendance on record.' },
+  this_month: { label: 'Due this month', definition: 'Every visit due this calendar month, whatever its status.' },
 };
 
 const FINAL = `('attended', 'cancelled', 'closed')`;
 const LATEST_BY = `(select e.by from contact_log_entry e where e.visit_id = v.id order by e.at desc, e.id desc limit 1)`;
 
-/** The SQL condition of each queue on recall_visit v (bindings: today, today + 30). */
-function queueCondition(queue: DeskQueue, today: string): { sql: string; bindings: string[] } {
+/** The SQL condition of each queue on recall_visit v, c its case and p its patient. */
+function queueCondition(queue: DeskQueue, s: Pick<RecallSettings, 'today' | 'reminderPolicy'>, now: Date = new Date()): { sql: string; bindings: unknown[] } {
+  const today = s.today;
   switch (queue) {
     case 'due_soon':
-      return { sql: `v.status in ('planned', 'invited') and v.due_date between ? and ?`, bindings: [today, addDaysTo(today, 30)] };
+      return { sql: `v.status = any(?) and v.due_date between ? and ?`, bindings: [CONTACT_STATUSES, today, addDaysTo(today, 30)] };
     case 'overdue':
-      return { sql: `v.status in ('planned', 'invited', 'confirmed') and v.due_date < ?`, bindings: [today] };
+      return {
+        sql: `v.status = any(?) and v.due_date < ? and v.booked_date is null and (v.proposed_start is null or v.proposed_start <= ?)`,
+        bindings: [CONTACT_STATUSES, today, now],
+      };
+    case 'call':
+      return {
+        sql: `v.status = any(?) and p.recall_contact and not ${EMAIL_CONSENT_SQL} and v.due_date <= ? and v.window_end >= ?`,
+        bindings: [CONTACT_STATUSES, addDaysTo(today, 7 * s.reminderPolicy.invitationWeeksBefore), today],
+      };
+    case 'this_month': {
+      const [y, m] = today.split('-').map(Number) as [number, number];
+      return { sql: `v.due_date between ? and ?`, bindings: [`${today.slice(0, 7)}-01`, `${today.slice(0, 7)}-${String(daysInMonth(y, m)).padStart(2, '0')}`] };
+    }
     case 'awaiting_reply':
       return {
         sql: `v.status = 'invited' and exists (select 1 from reminder r where r.visit_id = v.id and r.status = 'sent'
@@ -95,26 +137,41 @@ export interface DeskQueueCount {
 
 export interface DeskQueues {
   today: string;
+  /** The clinician the counts are narrowed to, if any. */
+  clinician: string | null;
   queues: DeskQueueCount[];
 }
 
-/** The six work queues with their counts. */
-export async function deskQueues(em: EntityManager, actor: Actor): Promise<DeskQueues> {
+/** One clinician's cases only (the case's operator); left out or empty, everyone's. */
+const ClinicianFilter = z.preprocess(
+  (v) => (v === '' ? undefined : v),
+  z.string().trim().refine(isUuid, 'clinician is a clinician’s id.').optional(),
+);
+export const DeskQueuesQuery = z.object({ clinician: ClinicianFilter });
+
+/** The desk's queues and views with their counts, optionally for one clinician's cases. */
+export async function deskQueues(em: EntityManager, actor: Actor, raw: unknown = {}): Promise<DeskQueues> {
   assertCan(actor, 'recall.manage');
+  const q = parseInput(DeskQueuesQuery, raw);
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
-  const parts = DESK_QUEUES.map((q) => queueCondition(q, s.today));
-  const row = (await activeVisits(knex, actor.practiceId)
-    .first(parts.map((c, i) => knex.raw(`count(*) filter (where ${c.sql}) as "${DESK_QUEUES[i]}"`, c.bindings)))) as Record<DeskQueue, string>;
-  await audit(em, actor, { action: 'recall.queues_read' });
+  const parts = DESK_QUEUES.map((queue) => queueCondition(queue, s));
+  const base = activeVisits(knex, actor.practiceId);
+  if (q.clinician) base.where('c.operator_id', q.clinician);
+  const row = (await base.first(
+    parts.map((c, i) => knex.raw(`count(*) filter (where ${c.sql}) as "${DESK_QUEUES[i]}"`, c.bindings as Knex.RawBinding[])),
+  )) as Record<DeskQueue, string>;
+  await audit(em, actor, { action: 'recall.queues_read', ...(q.clinician ? { detail: { clinician: q.clinician } } : {}) });
   return {
     today: s.today,
+    clinician: q.clinician ?? null,
     queues: DESK_QUEUES.map((key) => ({ key, ...DESK_QUEUE_INFO[key], count: Number(row?.[key] ?? 0) })),
   };
 }
 
 export const DeskRowsQuery = Paging.extend({
   queue: z.enum(DESK_QUEUES, { error: `queue is one of ${DESK_QUEUES.join(', ')}.` }),
+  clinician: ClinicianFilter,
   sort: z.enum(['dueDate', 'patient', 'lastContact'], { error: 'sort is dueDate, patient or lastContact.' }).default('dueDate'),
   dir: SortDir('asc'),
 });
@@ -123,7 +180,9 @@ export type DeskRowsQuery = z.input<typeof DeskRowsQuery>;
 export interface DeskRow {
   visitId: string;
   caseId: string;
-  patient: { id: string; name: string; registryNumber: string; phone: string | null; canEmail: boolean };
+  patient: { id: string; name: string; registryNumber: string; phone: string | null; canEmail: boolean; channel: string; recallContact: boolean };
+  /** The case's clinician (operator). */
+  clinician: string | null;
   /** The tooth in the practice's notation. */
   tooth: string;
   toothFdi: number;
@@ -161,8 +220,11 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
   const q = parseInput(DeskRowsQuery, raw);
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
-  const cond = queueCondition(q.queue, s.today);
-  const base = () => activeVisits(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings);
+  const cond = queueCondition(q.queue, s);
+  const base = () => {
+    const b = activeVisits(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
+    return q.clinician ? b.where('c.operator_id', q.clinician) : b;
+  };
   const lastContact = knex.raw(
     `(select max(e.at) from contact_log_entry e where e.visit_id = v.id and e.kind in ('message_sent', 'reply', 'call', 'appointment')) as last_contact_at`,
   );
@@ -175,7 +237,10 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
       .offset(pageOffset(q)) as Promise<{ id: string }[]>,
   ]);
   const rows = await deskRowsByIds(em, s, ids.map((r) => r.id));
-  await audit(em, actor, { action: 'recall.rows_read', detail: { queue: q.queue, page: q.page, visitIds: rows.map((r) => r.visitId) } });
+  await audit(em, actor, {
+    action: 'recall.rows_read',
+    detail: { queue: q.queue, page: q.page, ...(q.clinician ? { clinician: q.clinician } : {}), visitIds: rows.map((r) => r.visitId) },
+  });
   return {
     rows,
     total: Number(countRow[0]?.n ?? 0),
@@ -195,6 +260,7 @@ export async function deskRowsByIds(em: EntityManager, s: RecallSettings, ids: r
     knex('recall_visit as v')
       .join('treatment_case as c', 'c.id', 'v.case_id')
       .join('patient as p', 'p.id', 'c.patient_id')
+      .leftJoin('app_user as u', 'u.id', 'c.operator_id')
       .whereIn('v.id', ids)
       .select(
         'v.id',
@@ -207,16 +273,21 @@ export async function deskRowsByIds(em: EntityManager, s: RecallSettings, ids: r
         'v.booked_date',
         'v.proposed_start',
         'v.delivery_failed_at',
+        'v.reminder_round',
         'c.tooth',
+        'u.name as clinician_name',
+        'u.email as clinician_email',
         'p.id as patient_id',
         'p.given_name',
         'p.family_name',
         'p.registry_number',
         'p.phone',
+        'p.recall_contact',
+        'p.recall_channel',
         knex.raw(`${EMAIL_CONSENT_SQL} as consent`),
       ) as Promise<Record<string, unknown>[]>,
-    knex('reminder').whereIn('visit_id', ids).orderBy('queued_at').select('visit_id', 'step', 'status', 'sent_at', 'queued_on', 'sent_on') as Promise<
-      { visit_id: string; step: ReminderStep; status: ReminderStatus; sent_at: string | null; queued_on: string; sent_on: string | null }[]
+    knex('reminder').whereIn('visit_id', ids).orderBy('queued_at').select('visit_id', 'step', 'round', 'status', 'sent_at', 'queued_on', 'sent_on') as Promise<
+      { visit_id: string; step: ReminderStep; round: number; status: ReminderStatus; sent_at: string | null; queued_on: string; sent_on: string | null }[]
     >,
     knex
       .select('*')
@@ -248,7 +319,10 @@ export async function deskRowsByIds(em: EntityManager, s: RecallSettings, ids: r
           registryNumber: d.registry_number as string,
           phone: (d.phone as string | null) ?? null,
           canEmail: Boolean(d.consent),
+          channel: d.recall_channel as string,
+          recallContact: Boolean(d.recall_contact),
         },
+        clinician: (d.clinician_name as string | null) ?? (d.clinician_email as string | null) ?? null,
         tooth: formatTooth(fdi, s.toothNotation),
         toothFdi: fdi,
         milestone: Number(d.milestone),
@@ -264,7 +338,7 @@ export async function deskRowsByIds(em: EntityManager, s: RecallSettings, ids: r
         reminders: reminders.map((r) => ({ step: r.step, stepLabel: REMINDER_STEP_LABELS[r.step], status: r.status, sentAt: iso(r.sent_at) })),
         nextStep: nextStepNow(
           { id, status, dueDate: d.due_date as string, windowEnd: d.window_end as string, recallContactConsent: Boolean(d.consent) },
-          reminders.map((r) => ({ step: r.step, on: r.sent_on ?? r.queued_on })),
+          reminders.filter((r) => r.round === Number(d.reminder_round)).map((r) => ({ step: r.step, on: r.sent_on ?? r.queued_on })),
           s.reminderPolicy,
           s.today,
         ),
@@ -277,6 +351,8 @@ export async function deskRowsByIds(em: EntityManager, s: RecallSettings, ids: r
 
 export interface ActionResult {
   visitId: string;
+  /** Who and which visit, for each line of the result ("Ashdown, Wren — 12-month visit"). */
+  visit: string;
   ok: boolean;
   /** queued | retrying | proposed | booked | marked | refused */
   outcome: string;
@@ -297,8 +373,8 @@ const RECENT_MS = 15 * 60_000;
 
 /** Why "send now" has nothing to send for a visit. */
 function nothingToSend(v: DeskVisit, today: string): string {
-  if (!v.consent) return 'The patient has not agreed to recall contact by e-mail (or no address is on file). Call instead.';
-  if (!['planned', 'invited'].includes(v.status)) return `The visit is ${VISIT_STATUS_LABELS[v.status].toLowerCase()}: no invitation is needed.`;
+  if (!v.consent) return 'The patient has not agreed to recall contact by e-mail (or no address is on file). Call instead: the visit is in the “To call” queue.';
+  if (!needsContact(v.status)) return `The visit is ${VISIT_STATUS_LABELS[v.status].toLowerCase()}: no invitation is needed.`;
   if (v.window_end < today) return 'The visit’s window has ended.';
   return 'Every reminder step has already been sent for this visit.';
 }
@@ -325,18 +401,22 @@ export async function sendRemindersNow(em: EntityManager, actor: Actor, raw: unk
       'id',
       'visit_id',
       'step',
+      'round',
       'status',
       'queued_on',
       'sent_on',
       knex.raw(`(status in ('queued', 'sending') or sent_at > ?) as busy`, [new Date(Date.now() - RECENT_MS)]),
-    )) as { id: string; visit_id: string; step: ReminderStep; status: ReminderStatus; queued_on: string; sent_on: string | null; busy: boolean | null }[];
+    )) as { id: string; visit_id: string; step: ReminderStep; round: number; status: ReminderStatus; queued_on: string; sent_on: string | null; busy: boolean | null }[];
+  // The rules count only each visit's current round (a time proposed by e-mail starts a new one).
+  const roundOf = new Map(visits.map((v) => [v.id, Number(v.reminder_round)]));
   const history = new Map<string, SentStep[]>();
   for (const r of reminders) {
+    if (r.round !== roundOf.get(r.visit_id)) continue;
     const list = history.get(r.visit_id) ?? [];
     list.push({ step: r.step, on: r.sent_on ?? r.queued_on });
     history.set(r.visit_id, list);
   }
-  const failedRows = reminders.filter((r) => r.status === 'failed');
+  const failedRows = reminders.filter((r) => r.status === 'failed' && r.round === roundOf.get(r.visit_id));
   // A double click must not send two steps: nothing new while one is on its way or just went out.
   const busy = new Set(reminders.filter((r) => r.busy).map((r) => r.visit_id));
 
@@ -344,14 +424,14 @@ export async function sendRemindersNow(em: EntityManager, actor: Actor, raw: unk
   const entries: OutboxEntry[] = [];
   const retries: (OutboxEntry & { id: string })[] = [];
   for (const v of visits) {
-    const canContact = v.consent && ['planned', 'invited'].includes(v.status) && v.window_end >= s.today;
+    const canContact = v.consent && needsContact(v.status) && v.window_end >= s.today;
     if (busy.has(v.id)) {
-      results.push({ visitId: v.id, ok: false, outcome: 'refused', message: 'A reminder for this visit is on its way or went out a few minutes ago.' });
+      results.push({ visitId: v.id, visit: visitLabel(v), ok: false, outcome: 'refused', message: 'A reminder for this visit is on its way or went out a few minutes ago.' });
       continue;
     }
     const failed = failedRows.find((f) => f.visit_id === v.id);
     if (failed && canContact) {
-      retries.push({ id: failed.id, practiceId: actor.practiceId, visitId: v.id, step: failed.step, origin: 'desk', requestedBy: actor.userId, day: s.today });
+      retries.push({ id: failed.id, practiceId: actor.practiceId, visitId: v.id, step: failed.step, round: failed.round, origin: 'desk', requestedBy: actor.userId, day: s.today });
       continue;
     }
     const step = nextStepNow(
@@ -360,15 +440,17 @@ export async function sendRemindersNow(em: EntityManager, actor: Actor, raw: unk
       s.reminderPolicy,
       s.today,
     );
-    if (!step) results.push({ visitId: v.id, ok: false, outcome: 'refused', message: nothingToSend(v, s.today) });
-    else entries.push({ practiceId: actor.practiceId, visitId: v.id, step, origin: 'desk', requestedBy: actor.userId, day: s.today });
+    if (!step) results.push({ visitId: v.id, visit: visitLabel(v), ok: false, outcome: 'refused', message: nothingToSend(v, s.today) });
+    else entries.push({ practiceId: actor.practiceId, visitId: v.id, step, round: roundOf.get(v.id)!, origin: 'desk', requestedBy: actor.userId, day: s.today });
   }
+  const labelOf = new Map(visits.map((v) => [v.id, visitLabel(v)]));
 
   const inserted = await insertOutboxRows(em, entries);
   for (const e of entries) {
     const isNew = inserted.some((r) => r.visitId === e.visitId && r.step === e.step);
     results.push({
       visitId: e.visitId,
+      visit: labelOf.get(e.visitId)!,
       ok: isNew,
       outcome: isNew ? 'queued' : 'refused',
       step: e.step,
@@ -382,13 +464,22 @@ export async function sendRemindersNow(em: EntityManager, actor: Actor, raw: unk
       await enqueueOutbox(queue, inserted, quietDelayMs(s.reminderPolicy.quietHours, new Date(), s.timeZone));
       for (const r of retries) {
         const ok = await retryFailedReminder(em, queue, { ...r, status: 'failed' }, actor.userId);
-        results.push({ visitId: r.visitId, ok, outcome: ok ? 'retrying' : 'refused', step: r.step, message: ok ? `${REMINDER_STEP_LABELS[r.step]} sent again.` : 'Already being retried.' });
+        results.push({
+          visitId: r.visitId,
+          visit: labelOf.get(r.visitId)!,
+          ok,
+          outcome: ok ? 'retrying' : 'refused',
+          step: r.step,
+          message: ok ? `${REMINDER_STEP_LABELS[r.step]} sent again.` : 'Already being retried.',
+        });
       }
     } catch (e) {
       // Redis is not answering: the new rows stay queued in the outbox and the next scan queues them.
       console.error('[recall-desk] could not queue reminders now:', (e as Error).message);
       deferred = true;
-      for (const r of retries) results.push({ visitId: r.visitId, ok: false, outcome: 'refused', step: r.step, message: 'The queue is not answering; try again shortly.' });
+      for (const r of retries) {
+        results.push({ visitId: r.visitId, visit: labelOf.get(r.visitId)!, ok: false, outcome: 'refused', step: r.step, message: 'The queue is not answering; try again shortly.' });
+      }
     }
   }
   const order = new Map(input.visitIds.map((id, i) => [id, i]));
@@ -404,17 +495,22 @@ export const BookInput = z.object({
   visitIds: VisitIds,
   /** The appointment, an ISO 8601 date-time with offset (e.g. 2026-03-03T09:30:00Z). */
   start: z.iso.datetime({ offset: true, error: 'Give the appointment as a date and time, e.g. 2026-03-03T09:30:00Z.' }),
-  /** propose: the next reminder carries it (with a calendar file); phone: agreed by phone, the visit is confirmed. */
+  /** propose: offered to the patient by e-mail (with a calendar file); phone: agreed by phone, the visit is confirmed. */
   mode: z.enum(['propose', 'phone'], { error: 'mode is propose or phone.' }),
-  /** With propose: queue the next reminder now. */
+  /** With propose: send the proposal now (its own message); without, the next reminder carries it. */
   sendNow: z.boolean().default(false),
   note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000 }).optional()),
 });
 
 /**
- * Books a date and time. `propose`: the visit keeps its status and the time is proposed — the next
- * reminder (at once with `sendNow`) carries it with a calendar file; the patient confirms through
- * the link. `phone`: agreed with the patient by phone — the visit becomes confirmed with that date
+ * Books a date and time. `propose`: the visit keeps its status and the time is proposed; the
+ * patient confirms through the link. With `sendNow` the proposal goes out at once as its own
+ * message (step `proposal`, its own wording, with a calendar file) and starts a new round of the
+ * reminder steps (lib/recall/reminders.ts): what was sent before no longer counts, a reminder of
+ * the old round still waiting is skipped, and the second invitation follows the proposal after the
+ * usual reply wait — never "we have not heard from you" minutes after the invitation. Without
+ * `sendNow` the next reminder carries the time. Only patients who can be e-mailed get a proposal.
+ * `phone`: agreed with the patient by phone — the visit becomes confirmed with that date
  * (allowed from planned, invited, confirmed, missed and declined). Either way a contact-log entry
  * is written and a delivery-failed flag is cleared.
  */
@@ -427,24 +523,36 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
   if (day < s.today) throw new ConflictError('The appointment is in the past.');
   const words = new Intl.DateTimeFormat('en-GB', { timeZone: s.timeZone, dateStyle: 'full', timeStyle: 'short' }).format(start);
   const results: ActionResult[] = [];
-  const toSend: string[] = [];
+  const proposals: OutboxEntry[] = [];
   await em.transactional(async (tx) => {
     const visits = await visitsOfPractice(tx, actor.practiceId, input.visitIds, true);
     const changed: string[] = [];
     for (const v of visits) {
       const base = { practiceId: actor.practiceId, visitId: v.id, by: 'user' as const, userId: actor.userId };
+      const visit = visitLabel(v);
       if (input.mode === 'propose') {
-        if (!['planned', 'invited'].includes(v.status)) {
-          results.push({ visitId: v.id, ok: false, outcome: 'refused', message: `The visit is ${VISIT_STATUS_LABELS[v.status].toLowerCase()}: book it by phone instead.` });
+        if (!needsContact(v.status)) {
+          results.push({ visitId: v.id, visit, ok: false, outcome: 'refused', message: `The visit is ${VISIT_STATUS_LABELS[v.status].toLowerCase()}: book it by phone instead.` });
           continue;
         }
-        await knexOf(tx)('recall_visit').where({ id: v.id }).update({ proposed_start: start, delivery_failed_at: null, updated_at: new Date() });
+        if (input.sendNow && !v.consent) {
+          results.push({ visitId: v.id, visit, ok: false, outcome: 'refused', message: 'The patient cannot be e-mailed: agree a time by phone instead.' });
+          continue;
+        }
+        if (input.sendNow && v.window_end < s.today) {
+          results.push({ visitId: v.id, visit, ok: false, outcome: 'refused', message: 'The visit’s window has ended.' });
+          continue;
+        }
+        const round = Math.min(Number(v.reminder_round) + (input.sendNow ? 1 : 0), MAX_REMINDER_ROUND);
+        await knexOf(tx)('recall_visit').where({ id: v.id }).update({ proposed_start: start, reminder_round: round, delivery_failed_at: null, updated_at: new Date() });
         await logContact(tx, [{ ...base, kind: 'appointment', note: `Proposed ${words}.${input.note ? ` ${input.note}` : ''}` }]);
-        results.push({ visitId: v.id, ok: true, outcome: 'proposed', message: `Proposed ${words}.` });
-        if (input.sendNow) toSend.push(v.id);
+        if (input.sendNow) {
+          proposals.push({ practiceId: actor.practiceId, visitId: v.id, step: 'proposal', round, origin: 'desk', requestedBy: actor.userId, day: s.today });
+        }
+        results.push({ visitId: v.id, visit, ok: true, outcome: 'proposed', message: `Proposed ${words}.${input.sendNow ? '' : ' The next reminder will carry it.'}` });
       } else {
         if (v.status !== 'confirmed' && !canTransition(v.status, 'confirmed')) {
-          results.push({ visitId: v.id, ok: false, outcome: 'refused', message: `A visit that is ${VISIT_STATUS_LABELS[v.status].toLowerCase()} cannot be booked.` });
+          results.push({ visitId: v.id, visit, ok: false, outcome: 'refused', message: `A visit that is ${VISIT_STATUS_LABELS[v.status].toLowerCase()} cannot be booked.` });
           continue;
         }
         const extra = { booked_date: day, proposed_start: start, delivery_failed_at: null };
@@ -455,22 +563,33 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
           ...(v.status !== 'confirmed' ? [{ ...base, kind: 'status_change' as const, fromStatus: v.status, toStatus: 'confirmed' as const }] : []),
         ]);
         changed.push(v.case_id);
-        results.push({ visitId: v.id, ok: true, outcome: 'booked', message: `Booked for ${words}; the visit is confirmed.` });
+        results.push({ visitId: v.id, visit, ok: true, outcome: 'booked', message: `Booked for ${words}; the visit is confirmed.` });
       }
     }
+    // The proposals' outbox rows commit with the new round; their jobs are queued below.
+    const inserted = await insertOutboxRows(tx, proposals);
+    if (inserted.length !== proposals.length) throw new ConflictError('This time is already being proposed. Nothing was changed.');
     await refreshNextVisit(tx, [...new Set(changed)]);
   });
   await audit(em, actor, {
     action: 'recall.booked',
     detail: { mode: input.mode, start: start.toISOString(), visitIds: results.filter((r) => r.ok).map((r) => r.visitId) },
   });
-  let deferred: boolean | undefined;
-  if (toSend.length) {
-    const sent = await sendRemindersNow(em, actor, { visitIds: toSend });
-    deferred = sent.deferred;
-    for (const r of sent.results) {
-      const mine = results.find((x) => x.visitId === r.visitId);
-      if (mine) mine.message += ` ${r.message}`;
+  let deferred = false;
+  if (proposals.length) {
+    try {
+      await enqueueOutbox(await reminderProducer(), proposals, quietDelayMs(s.reminderPolicy.quietHours, new Date(), s.timeZone));
+    } catch (e) {
+      // Redis is not answering: the rows stay queued in the outbox and the next scan queues them.
+      console.error('[recall-desk] could not queue proposals now:', (e as Error).message);
+      deferred = true;
+    }
+    for (const p of proposals) {
+      const mine = results.find((x) => x.visitId === p.visitId);
+      if (mine) {
+        mine.step = 'proposal';
+        mine.message += ' Proposal queued.';
+      }
     }
   }
   return deferred ? { results, deferred } : { results };
@@ -495,13 +614,15 @@ export async function markVisits(em: EntityManager, actor: Actor, raw: unknown):
     const visits = await visitsOfPractice(tx, actor.practiceId, input.visitIds, true);
     const cases: string[] = [];
     for (const v of visits) {
+      const visit = visitLabel(v);
       if (v.status === input.status) {
-        results.push({ visitId: v.id, ok: true, outcome: 'marked', message: `Already ${VISIT_STATUS_LABELS[v.status].toLowerCase()}.` });
+        results.push({ visitId: v.id, visit, ok: true, outcome: 'marked', message: `Already ${VISIT_STATUS_LABELS[v.status].toLowerCase()}.` });
         continue;
       }
       if (!canTransition(v.status, input.status)) {
         results.push({
           visitId: v.id,
+          visit,
           ok: false,
           outcome: 'refused',
           message: `A visit that is ${VISIT_STATUS_LABELS[v.status].toLowerCase()} cannot become ${VISIT_STATUS_LABELS[input.status].toLowerCase()}.`,
@@ -513,10 +634,51 @@ export async function markVisits(em: EntityManager, actor: Actor, raw: unknown):
         { practiceId: actor.practiceId, visitId: v.id, kind: 'status_change', by: 'user', userId: actor.userId, fromStatus: v.status, toStatus: input.status, note: input.note ?? null },
       ]);
       cases.push(v.case_id);
-      results.push({ visitId: v.id, ok: true, outcome: 'marked', message: `Marked ${VISIT_STATUS_LABELS[input.status].toLowerCase()}.` });
+      results.push({ visitId: v.id, visit, ok: true, outcome: 'marked', message: `Marked ${VISIT_STATUS_LABELS[input.status].toLowerCase()}.` });
     }
     await refreshNextVisit(tx, [...new Set(cases)]);
   });
   await audit(em, actor, { action: 'recall.marked', detail: { status: input.status, visitIds: results.filter((r) => r.ok).map((r) => r.visitId) } });
   return { results };
+}
+
+// --- the printable call list ------------------------------------------------------------------------
+
+export interface CallList {
+  today: string;
+  practiceName: string;
+  clinician: string | null;
+  toothLabel: string;
+  rows: DeskRow[];
+  /** More visits than the list shows (CALL_LIST_MAX): narrow by clinician. */
+  truncated: boolean;
+}
+
+/** The printed list holds at most this many visits. */
+export const CALL_LIST_MAX = 500;
+
+/**
+ * The "To call" queue as one printable list (the coordinator phones the patients who cannot be
+ * e-mailed): every visit in it, most overdue first, optionally one clinician's. Audited as a
+ * read of the patients' records.
+ */
+export async function callList(em: EntityManager, actor: Actor, raw: unknown = {}): Promise<CallList> {
+  assertCan(actor, 'recall.manage');
+  const q = parseInput(DeskQueuesQuery, raw);
+  const s = await recallSettings(em, actor.practiceId);
+  const knex = knexOf(em);
+  const cond = queueCondition('call', s);
+  const base = activeVisits(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
+  if (q.clinician) base.where('c.operator_id', q.clinician);
+  const ids = (await base.select('v.id').orderBy([{ column: 'v.due_date' }, { column: 'p.family_name' }, { column: 'v.id' }]).limit(CALL_LIST_MAX + 1)) as { id: string }[];
+  const rows = await deskRowsByIds(em, s, ids.slice(0, CALL_LIST_MAX).map((r) => r.id));
+  await audit(em, actor, { action: 'recall.call_list_read', detail: { ...(q.clinician ? { clinician: q.clinician } : {}), visitIds: rows.map((r) => r.visitId) } });
+  return {
+    today: s.today,
+    practiceName: s.practiceName,
+    clinician: q.clinician ?? null,
+    toothLabel: toothNotationLabel(s.toothNotation),
+    rows,
+    truncated: ids.length > CALL_LIST_MAX,
+  };
 }

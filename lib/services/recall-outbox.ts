@@ -33,8 +33,8 @@ import { knexOf } from './registry-common';
  * (jobs/recall-scan.ts), the worker (jobs/send-reminder.ts) and the desk's "send now"
  * (lib/services/recall-desk.ts).
  *
- * The rule every producer follows: first the outbox row (unique per visit and step — a second
- * insert for the same step is a no-op), committed; then the job under `reminderJobId`. A crash
+ * The rule every producer follows: first the outbox row (unique per visit, round and step — a
+ * second insert for the same step is a no-op), committed; then the job under `reminderJobId`. A crash
  * or a Redis outage between the two leaves a `queued` row without a job, which
  * `reconcileOutbox` (run by every scan) queues again. So a step is queued at most once in the
  * database and never lost in Redis.
@@ -158,6 +158,8 @@ export interface OutboxEntry {
   practiceId: string;
   visitId: string;
   step: ReminderStep;
+  /** The visit's reminder round (lib/recall/reminders.ts); 0 when left out. */
+  round?: number;
   origin: 'scan' | 'desk';
   requestedBy?: string | null;
   /** The practice's day on which the step was entered. */
@@ -172,8 +174,8 @@ export interface OutboxRow extends OutboxEntry {
 export { knexOf };
 
 /**
- * Inserts one outbox row per entry; an entry whose visit already has a row for that step is
- * left as it is (unique visit + step). Returns only the rows that are new.
+ * Inserts one outbox row per entry; an entry whose visit already has a row for that round and
+ * step is left as it is (unique visit + round + step). Returns only the rows that are new.
  */
 export async function insertOutboxRows(em: EntityManager, entries: readonly OutboxEntry[]): Promise<OutboxRow[]> {
   const knex = knexOf(em);
@@ -188,6 +190,7 @@ export async function insertOutboxRows(em: EntityManager, entries: readonly Outb
           practice_id: e.practiceId,
           visit_id: e.visitId,
           step: e.step,
+          round: e.round ?? 0,
           origin: e.origin,
           requested_by_id: e.requestedBy ?? null,
           status: 'queued',
@@ -197,12 +200,12 @@ export async function insertOutboxRows(em: EntityManager, entries: readonly Outb
           updated_at: now,
         })),
       )
-      .onConflict(['visit_id', 'step'])
+      .onConflict(['visit_id', 'round', 'step'])
       .ignore()
-      .returning(['id', 'visit_id', 'step'])) as { id: string; visit_id: string; step: ReminderStep }[];
-    const byKey = new Map(chunk.map((e) => [`${e.visitId}/${e.step}`, e]));
+      .returning(['id', 'visit_id', 'round', 'step'])) as { id: string; visit_id: string; round: number; step: ReminderStep }[];
+    const byKey = new Map(chunk.map((e) => [`${e.visitId}/${e.round ?? 0}/${e.step}`, e]));
     for (const r of inserted) {
-      const e = byKey.get(`${r.visit_id}/${r.step}`)!;
+      const e = byKey.get(`${r.visit_id}/${r.round}/${r.step}`)!;
       out.push({ ...e, id: r.id, status: 'queued' });
     }
   }
@@ -214,6 +217,7 @@ function payloadOf(e: OutboxEntry): SendReminderInput {
     practiceId: e.practiceId,
     visitId: e.visitId,
     step: e.step,
+    ...(e.round ? { round: e.round } : {}),
     origin: e.origin,
     ...(e.requestedBy ? { requestedBy: e.requestedBy } : {}),
     day: e.day,
@@ -232,28 +236,37 @@ export async function enqueueOutbox(queue: RemindersQueue, rows: readonly Outbox
 
 /**
  * The reminder history of visits for lib/recall/reminders: every outbox row (queued, sending,
- * sent, failed or skipped), `on` the day it was sent, or queued when not sent.
+ * sent, failed or skipped), `on` the day it was sent, or queued when not sent, with its round
+ * (the rules take only the visit's current round: `ofRound`).
  */
-export async function reminderHistory(em: EntityManager, visitIds: readonly string[]): Promise<Map<string, (SentStep & { status: ReminderStatus })[]>> {
-  const out = new Map<string, (SentStep & { status: ReminderStatus })[]>();
+export async function reminderHistory(em: EntityManager, visitIds: readonly string[]): Promise<Map<string, HistoryStep[]>> {
+  const out = new Map<string, HistoryStep[]>();
   const knex = knexOf(em);
   for (let i = 0; i < visitIds.length; i += 5000) {
     const rows = (await knex('reminder')
       .whereIn('visit_id', visitIds.slice(i, i + 5000))
-      .select('visit_id', 'step', 'status', 'queued_on', 'sent_on')) as {
+      .select('visit_id', 'step', 'round', 'status', 'queued_on', 'sent_on')) as {
       visit_id: string;
       step: ReminderStep;
+      round: number;
       status: ReminderStatus;
       queued_on: string;
       sent_on: string | null;
     }[];
     for (const r of rows) {
       const list = out.get(r.visit_id) ?? [];
-      list.push({ step: r.step, on: r.sent_on ?? r.queued_on, status: r.status });
+      list.push({ step: r.step, on: r.sent_on ?? r.queued_on, status: r.status, round: r.round });
       out.set(r.visit_id, list);
     }
   }
   return out;
+}
+
+export type HistoryStep = SentStep & { status: ReminderStatus; round: number };
+
+/** The steps of one round (a visit's current `reminder_round`): what lib/recall's rules count. */
+export function ofRound<T extends { round: number }>(steps: readonly T[] | undefined, round: number): T[] {
+  return (steps ?? []).filter((s) => s.round === round);
 }
 
 /** The day (in `timeZone`) of each visit's latest patient reply. */
@@ -343,13 +356,14 @@ export interface ReconcileResult {
  */
 export async function reconcileOutbox(em: EntityManager, queue: RemindersQueue, practiceId?: string): Promise<ReconcileResult> {
   const knex = knexOf(em);
-  const q = knex('reminder').whereIn('status', ['queued', 'sending']).select('id', 'practice_id', 'visit_id', 'step', 'origin', 'requested_by_id', 'queued_on');
+  const q = knex('reminder').whereIn('status', ['queued', 'sending']).select('id', 'practice_id', 'visit_id', 'step', 'round', 'origin', 'requested_by_id', 'queued_on');
   if (practiceId) q.where('practice_id', practiceId);
   const rows = (await q) as {
     id: string;
     practice_id: string;
     visit_id: string;
     step: ReminderStep;
+    round: number;
     origin: 'scan' | 'desk';
     requested_by_id: string | null;
     queued_on: string;
@@ -358,7 +372,7 @@ export async function reconcileOutbox(em: EntityManager, queue: RemindersQueue, 
   const requeue: OutboxEntry[] = [];
   for (let i = 0; i < rows.length; i += 500) {
     const chunk = rows.slice(i, i + 500);
-    const states = await Promise.all(chunk.map((r) => queue.getJobState(reminderJobId(r.visit_id, r.step))));
+    const states = await Promise.all(chunk.map((r) => queue.getJobState(reminderJobId(r.visit_id, r.step, r.round))));
     for (let k = 0; k < chunk.length; k++) {
       const r = chunk[k]!;
       const state = states[k];
@@ -366,16 +380,17 @@ export async function reconcileOutbox(em: EntityManager, queue: RemindersQueue, 
         practiceId: r.practice_id,
         visitId: r.visit_id,
         step: r.step,
+        round: r.round,
         origin: r.origin,
         requestedBy: r.requested_by_id,
         day: r.queued_on,
       };
       if (state === 'unknown') requeue.push(entry);
       else if (state === 'completed') {
-        await queue.remove(reminderJobId(r.visit_id, r.step));
+        await queue.remove(reminderJobId(r.visit_id, r.step, r.round));
         requeue.push(entry);
       } else if (state === 'failed') {
-        const job = await queue.getJob(reminderJobId(r.visit_id, r.step));
+        const job = await queue.getJob(reminderJobId(r.visit_id, r.step, r.round));
         if (await markReminderFailed(em, r.id, job?.failedReason || 'The last attempt failed.')) result.finalized += 1;
       }
     }
@@ -391,7 +406,7 @@ export async function reconcileOutbox(em: EntityManager, queue: RemindersQueue, 
  * Returns false when the row is not failed.
  */
 export async function retryFailedReminder(em: EntityManager, queue: RemindersQueue, row: OutboxRow, requestedBy: string | null): Promise<boolean> {
-  await queue.remove(reminderJobId(row.visitId, row.step));
+  await queue.remove(reminderJobId(row.visitId, row.step, row.round ?? 0));
   const knex = knexOf(em);
   const updated = await knex('reminder')
     .where({ id: row.id, status: 'failed' })

@@ -11,6 +11,7 @@ interface Row {
 }
 
 test('the coordinator sends an invitation, the patient confirms through its link, and the desk shows it confirmed', async ({ page, browser }) => {
+  test.setTimeout(90_000); // three browser contexts and a real send through the worker; 30 s was too short on a loaded machine
   await signInAs(page, 'coordinator');
   await page.getByRole('navigation', { name: 'Main' }).getByRole('link', { name: 'Recall desk' }).click();
   await expect(page.getByRole('heading', { name: 'Recall desk' })).toBeVisible();

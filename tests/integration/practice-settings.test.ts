@@ -46,6 +46,25 @@ describe('practice settings', () => {
     expect(page.rows[0]).toMatchObject({ tooth: '19', toothFdi: 36 });
   });
 
+  it('the practice’s address, phone and e-mail: set, cleared, checked and audited', async () => {
+    const a = await makeRegistryPractice(services.em(), 'dunes');
+    expect((await getPracticeSettings(services.em(), a.admin)).contact).toEqual({ address: null, phone: null, contactEmail: null });
+    const set = await updatePracticeSettings(services.em(), a.admin, {
+      contact: { address: ' 3 Saltmarsh Lane, Ellery Bay ', phone: '020 7946 0101', contactEmail: 'desk@dunes.invalid' },
+    });
+    expect(set.contact).toEqual({ address: '3 Saltmarsh Lane, Ellery Bay', phone: '020 7946 0101', contactEmail: 'desk@dunes.invalid' });
+    const event = await services.em().findOneOrFail(AuditEventSchema, { action: 'practice.settings_changed' });
+    expect(event.actorId).toBe(a.admin.userId);
+    expect(JSON.parse(String(event.detail!.before))).toMatchObject({ phone: null });
+    expect(JSON.parse(String(event.detail!.after))).toMatchObject({ address: '3 Saltmarsh Lane, Ellery Bay', phone: '020 7946 0101', contactEmail: 'desk@dunes.invalid' });
+    // Empty clears one field; the others stay.
+    const cleared = await updatePracticeSettings(services.em(), a.admin, { contact: { phone: '' } });
+    expect(cleared.contact).toEqual({ address: '3 Saltmarsh Lane, Ellery Bay', phone: null, contactEmail: 'desk@dunes.invalid' });
+    await expect(updatePracticeSettings(services.em(), a.admin, { contact: { phone: 'call me' } })).rejects.toBeInstanceOf(ValidationError);
+    await expect(updatePracticeSettings(services.em(), a.admin, { contact: { contactEmail: 'desk at dunes' } })).rejects.toBeInstanceOf(ValidationError);
+    await expect(updatePracticeSettings(services.em(), a.coordinator, { contact: { phone: '020 7946 0101' } })).rejects.toBeInstanceOf(ForbiddenError);
+  });
+
   it('refuses overlapping windows, an empty patch and other roles', async () => {
     const a = await makeRegistryPractice(services.em(), 'cedar');
     await expect(

@@ -2,7 +2,7 @@ import { randomBytes, randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
 import { reminderJobId } from '@/lib/recall/reminders';
 import { addDaysTo } from '@/lib/registry/calendar-date';
-import { deskQueues, listDeskRows, sendRemindersNow, bookVisits, markVisits } from '@/lib/services/recall-desk';
+import { callList, deskQueues, listDeskRows, sendRemindersNow, bookVisits, markVisits } from '@/lib/services/recall-desk';
 import { addCallNote, listContactLog } from '@/lib/services/recall-contact';
 import { followUpRateReport } from '@/lib/services/recall-rate';
 import { getReminderPolicy, updateReminderPolicy } from '@/lib/services/recall-policy';
@@ -51,7 +51,7 @@ const DESK = [
   { dueIn: 10 }, // 0 due soon
   { dueIn: 20, status: 'invited' }, // 1 due soon, awaiting reply
   { dueIn: -5, status: 'invited' }, // 2 overdue, replied (asked for another time)
-  { dueIn: -3, status: 'confirmed' }, // 3 overdue
+  { dueIn: -3, status: 'confirmed' }, // 3 due date passed but booked: not overdue
   { dueIn: -200, status: 'missed', windowAfter: 120 }, // 4 missed
   { dueIn: 11 }, // 5 due soon, delivery failed
   { dueIn: -30, status: 'attended' }, // 6 nothing
@@ -76,7 +76,8 @@ const counts = async (actor: Parameters<typeof deskQueues>[1]) =>
 describe('desk queues', () => {
   it('counts each queue exactly as defined', async () => {
     const w = await desk();
-    expect(await counts(w.coordinator)).toEqual({ due_soon: 3, overdue: 2, awaiting_reply: 1, replied: 1, delivery_failed: 1, missed: 1 });
+    const thisMonth = w.v.slice(0, 8).filter((x) => x.dueDate.slice(0, 7) === today.slice(0, 7)).length;
+    expect(await counts(w.coordinator)).toEqual({ due_soon: 3, overdue: 1, call: 0, awaiting_reply: 1, replied: 1, delivery_failed: 1, missed: 1, this_month: thisMonth });
     const q = await deskQueues(services.em(), w.coordinator);
     expect(q.today).toBe(today);
     expect(q.queues.every((x) => x.label && x.definition)).toBe(true);
@@ -118,6 +119,106 @@ describe('desk queues', () => {
     await expect(sendRemindersNow(services.em(), a.coordinator, { visitIds: [b.id(0)] })).rejects.toBeInstanceOf(NotFoundError);
     await expect(listContactLog(services.em(), a.coordinator, b.id(0))).rejects.toBeInstanceOf(NotFoundError);
     expect(await knex()('reminder').where({ visit_id: b.id(0) }).count('* as n').first()).toMatchObject({ n: '0' });
+  });
+});
+
+describe('queues of issue 10', () => {
+  it('overdue means nobody has a time for it: confirmed, booked and proposed-ahead visits are not overdue', async () => {
+    const w = await world([
+      { dueIn: -5 }, // 0 overdue
+      { dueIn: -5, status: 'invited' }, // 1 overdue
+      { dueIn: -5, status: 'confirmed' }, // 2 booked: no
+      { dueIn: -5, status: 'invited' }, // 3 a time proposed for next week: no
+      { dueIn: -5, status: 'invited' }, // 4 a proposed time that has passed: overdue again
+    ]);
+    await knex()('recall_visit').where({ id: w.id(3) }).update({ proposed_start: new Date(Date.now() + 7 * 86_400_000) });
+    await knex()('recall_visit').where({ id: w.id(4) }).update({ proposed_start: new Date(Date.now() - 86_400_000) });
+    const page = await listDeskRows(services.em(), w.coordinator, { queue: 'overdue' });
+    expect(page.rows.map((r) => r.visitId).sort()).toEqual([w.id(0), w.id(1), w.id(4)].sort());
+    // Booked by phone: it leaves the queue.
+    await bookVisits(services.em(), w.coordinator, { visitIds: [w.id(0)], start: `${addDaysTo(today, 3)}T10:00:00Z`, mode: 'phone' });
+    expect((await counts(w.coordinator)).overdue).toBe(2);
+  });
+
+  it('patients who cannot be e-mailed are in the call queue with their phone number, and get no message', async () => {
+    const w = await world([
+      { dueIn: 10, channel: 'phone', email: null }, // 0 call
+      { dueIn: -5, channel: 'email', email: null }, // 1 call: e-mail chosen but no address, overdue
+      { dueIn: 40, channel: 'phone', email: null }, // 2 not yet due for an invitation (> 3 weeks)
+      { dueIn: 10, recallContact: false, channel: 'none' }, // 3 no recall contact at all: not called
+      { dueIn: 10, channel: 'post' }, // 4 call (post chosen: not e-mailed)
+      { dueIn: 10, channel: 'phone', status: 'confirmed' }, // 5 has a time
+      { dueIn: 10 }, // 6 e-mail: not in the call queue
+    ]);
+    await knex()('patient').whereIn('id', [w.v[0]!.patientId, w.v[1]!.patientId]).update({ phone: '020 7946 0999' });
+    const page = await listDeskRows(services.em(), w.coordinator, { queue: 'call', sort: 'patient' });
+    expect(page.rows.map((r) => r.visitId)).toEqual([w.id(0), w.id(1), w.id(4)]);
+    expect(page.rows[1]!.patient).toMatchObject({ phone: '020 7946 0999', canEmail: false, recallContact: true, channel: 'email' });
+    expect(page.rows[2]!.patient).toMatchObject({ canEmail: false, channel: 'post' });
+    // "Invited" only when a message went out: send now refuses them and points to the call queue.
+    const r = await sendRemindersNow(services.em(), w.coordinator, { visitIds: [w.id(0), w.id(6)] });
+    expect(r.results.map((x) => [x.visit, x.outcome])).toEqual([
+      ['Ashdown0, Wren0 — 12-month visit', 'refused'],
+      ['Ashdown6, Wren6 — 12-month visit', 'queued'],
+    ]);
+    expect(r.results[0]!.message).toMatch(/To call/);
+    expect(await knex()('recall_visit').where({ id: w.id(0) }).first('status')).toEqual({ status: 'planned' });
+    expect(await knex()('reminder').where({ visit_id: w.id(0) }).count('* as n').first()).toMatchObject({ n: '0' });
+    // The printable list holds the same visits, and its read is audited.
+    const list = await callList(services.em(), w.coordinator, {});
+    expect(list.rows.map((x) => x.visitId)).toEqual([w.id(1), w.id(0), w.id(4)]);
+    expect(list.truncated).toBe(false);
+    expect(await knex()('audit_event').where({ action: 'recall.call_list_read', actor_id: w.coordinator.userId }).count('* as n').first()).toMatchObject({ n: '1' });
+    await expect(callList(services.em(), w.clinician, {})).rejects.toBeInstanceOf(ForbiddenError);
+    // Booked by phone: off the list.
+    await bookVisits(services.em(), w.coordinator, { visitIds: [w.id(0)], start: `${addDaysTo(today, 5)}T09:00:00Z`, mode: 'phone' });
+    expect((await counts(w.coordinator)).call).toBe(2);
+  });
+
+  it('every queue can be narrowed to one clinician’s cases', async () => {
+    const w = await world([{ dueIn: 10 }, { dueIn: 12 }, { dueIn: 14, channel: 'phone', email: null }]);
+    await knex()('treatment_case').where({ id: w.v[1]!.caseId }).update({ operator_id: w.clinician2.userId });
+    const mine = Object.fromEntries((await deskQueues(services.em(), w.coordinator, { clinician: w.clinician2.userId })).queues.map((q) => [q.key, q.count]));
+    expect(mine).toMatchObject({ due_soon: 1, call: 0 });
+    const rows = await listDeskRows(services.em(), w.coordinator, { queue: 'due_soon', clinician: w.clinician.userId });
+    expect(rows.rows.map((r) => r.visitId)).toEqual([w.id(0), w.id(2)]);
+    expect(rows.rows[0]!.clinician).toBeTruthy();
+    expect((await callList(services.em(), w.coordinator, { clinician: w.clinician2.userId })).rows).toEqual([]);
+    await expect(listDeskRows(services.em(), w.coordinator, { queue: 'due_soon', clinician: 'someone' })).rejects.toBeInstanceOf(ValidationError);
+  });
+
+  it('bulk-action results name the patient and the visit on each line', async () => {
+    const w = await desk();
+    const r = await markVisits(services.em(), w.coordinator, { visitIds: [w.id(0), w.id(6)], status: 'missed' });
+    expect(r.results.map((x) => `${x.visit}: ${x.message}`)).toEqual([
+      'Ashdown0, Wren0 — 12-month visit: Marked missed.',
+      'Ashdown6, Wren6 — 12-month visit: A visit that is attended cannot become missed.',
+    ]);
+  });
+
+  it('a time proposed by e-mail minutes after the invitation is its own message and starts the steps again', async () => {
+    const w = await world([{ dueIn: 10, status: 'invited' }, { dueIn: 10, status: 'invited', channel: 'phone', email: null }]);
+    const invitation = await sent(w.practice.id, w.id(0), 'invitation', 0);
+    const start = `${addDaysTo(today, 6)}T09:30:00Z`;
+    const r = await bookVisits(services.em(), w.coordinator, { visitIds: [w.id(0), w.id(1)], start, mode: 'propose', sendNow: true });
+    expect(r.results.map((x) => [x.outcome, x.step ?? null])).toEqual([
+      ['proposed', 'proposal'],
+      ['refused', null],
+    ]);
+    expect(r.results[1]!.message).toMatch(/by phone/);
+    const rows = (await knex()('reminder').where({ visit_id: w.id(0) }).orderBy('queued_at').select('step', 'round', 'status')) as object[];
+    expect(rows).toEqual([
+      { step: 'invitation', round: 0, status: 'sent' },
+      { step: 'proposal', round: 1, status: 'queued' },
+    ]);
+    expect(await knex()('recall_visit').where({ id: w.id(0) }).first('reminder_round')).toEqual({ reminder_round: 1 });
+    expect(await (await reminderProducer()).getJobState(reminderJobId(w.id(0), 'proposal', 1))).not.toBe('unknown');
+    // Not "second invitation" minutes later: the proposal counts as this round's first message.
+    const desk = await listDeskRows(services.em(), w.coordinator, { queue: 'due_soon' });
+    expect(desk.rows.find((x) => x.visitId === w.id(0))).toMatchObject({ nextStep: 'second_invitation' });
+    const again = await sendRemindersNow(services.em(), w.coordinator, { visitIds: [w.id(0)] });
+    expect(again.results[0]).toMatchObject({ outcome: 'refused' }); // the proposal is on its way
+    expect(invitation.id).toBeTruthy();
   });
 });
 
@@ -174,11 +275,11 @@ describe('desk actions', () => {
     expect(log.entries.at(-2)!.note).toMatch(/^Booked by phone for .*Spoke to her daughter\.$/);
   });
 
-  it('book with sendNow: the next reminder is queued at once (and will carry the calendar file)', async () => {
+  it('book with sendNow: the proposal is queued at once as its own message (it carries the calendar file)', async () => {
     const w = await desk();
     const r = await bookVisits(services.em(), w.coordinator, { visitIds: [w.id(0)], start: `${addDaysTo(today, 9)}T08:00:00Z`, mode: 'propose', sendNow: true });
-    expect(r.results[0]).toMatchObject({ ok: true, outcome: 'proposed', message: expect.stringMatching(/Invitation queued/) });
-    expect(await knex()('reminder').where({ visit_id: w.id(0) }).first('step', 'status')).toEqual({ step: 'invitation', status: 'queued' });
+    expect(r.results[0]).toMatchObject({ ok: true, outcome: 'proposed', step: 'proposal', message: expect.stringMatching(/Proposal queued/) });
+    expect(await knex()('reminder').where({ visit_id: w.id(0) }).first('step', 'round', 'status')).toEqual({ step: 'proposal', round: 1, status: 'queued' });
   });
 
   it('mark attended or missed only along the status table', async () => {

@@ -227,6 +227,48 @@ describe('send-reminder', () => {
     expect(m!.text).toContain('We have set aside a time for you');
   });
 
+  it('an overdue visit invited with nothing sent gets the invitation worded for overdue visits, with the practice’s address, phone and e-mail', async () => {
+    const w = await world();
+    await knex()('practice').where({ id: w.practiceId }).update({ address: '3 Saltmarsh Lane, Ellery Bay', phone: '020 7946 0101', contact_email: 'desk@saltmarsh.invalid' });
+    const [visit] = await seedVisits(services.em(), w.practiceId, w.operatorId, today, [{ dueIn: -20, status: 'invited' }]);
+    await runRecallScan({ em: () => services.em(), queue }, { practiceId: w.practiceId });
+    expect(await knex()('reminder').where({ visit_id: visit!.visitId }).select('step', 'round')).toEqual([{ step: 'invitation', round: 0 }]);
+    await processSendReminder(ctx(), { data: { practiceId: w.practiceId, visitId: visit!.visitId, step: 'invitation', origin: 'scan', day: today } });
+    const [m] = await mailbox(visit!.email!);
+    expect(m!.subject).toMatch(/^Time to arrange your follow-up review at /);
+    expect(m!.text).toMatch(/was due in \w+ \d{4}, and we would like to arrange it with you/);
+    expect(m!.text).not.toMatch(/nearly time|last reminder/i);
+    expect(m!.text).toContain('Questions? Please call 020 7946 0101 or write to desk@saltmarsh.invalid.');
+    expect(m!.text).toContain('3 Saltmarsh Lane, Ellery Bay.');
+  });
+
+  it('a proposal: its own words and calendar file with the practice’s details; a reminder of the earlier round is skipped', async () => {
+    const w = await world();
+    await knex()('practice').where({ id: w.practiceId }).update({ address: '3 Saltmarsh Lane, Ellery Bay', phone: '020 7946 0101', contact_email: 'desk@saltmarsh.invalid' });
+    const [visit] = await seedVisits(services.em(), w.practiceId, w.operatorId, today, [{ dueIn: 10, status: 'invited' }]);
+    // A second invitation of round 0 is still waiting when the desk proposes a time (round 1).
+    const [old] = await insertOutboxRows(services.em(), [{ practiceId: w.practiceId, visitId: visit!.visitId, step: 'second_invitation', origin: 'scan', day: today }]);
+    const start = new Date(`${addDaysTo(today, 8)}T10:15:00Z`);
+    await knex()('recall_visit').where({ id: visit!.visitId }).update({ proposed_start: start, reminder_round: 1 });
+    const [proposal] = await insertOutboxRows(services.em(), [{ practiceId: w.practiceId, visitId: visit!.visitId, step: 'proposal', round: 1, origin: 'desk', day: today }]);
+    expect(proposal).toBeTruthy();
+    const stale = await processSendReminder(ctx(), { data: { practiceId: w.practiceId, visitId: visit!.visitId, step: 'second_invitation', origin: 'scan', day: today } });
+    expect(stale).toEqual({ outcome: 'no_longer_needed', reminderId: old!.id });
+    const sentNow = await processSendReminder(ctx(), { data: { practiceId: w.practiceId, visitId: visit!.visitId, step: 'proposal', round: 1, origin: 'desk', day: today } });
+    expect(sentNow).toEqual({ outcome: 'sent', reminderId: proposal!.id });
+    const messages = await mailbox(visit!.email!);
+    expect(messages).toHaveLength(1);
+    const m = messages[0]!;
+    expect(m.subject).toMatch(/^A time for your follow-up review at /);
+    expect(m.text).toContain('We would like to offer you a time');
+    expect(m.text).not.toMatch(/not heard from you/);
+    const ics = Buffer.from(m.attachments[0]!.content, 'base64').toString('utf8').replace(/\r\n[ \t]/g, '');
+    expect(ics).toContain('LOCATION:3 Saltmarsh Lane\\, Ellery Bay');
+    expect(ics).toContain('020 7946 0101');
+    expect(ics).toMatch(/ORGANIZER;CN=[^:]*:mailto:desk@saltmarsh\.invalid/i);
+    expect(await knex()('reminder').where({ id: old!.id }).first('status')).toEqual({ status: 'skipped' });
+  });
+
   it('an interrupted claim: asks the mailbox first; resends under the same Message-ID only when it was not accepted', async () => {
     const a = await queuedReminder({ dueIn: 10 });
     const b = await queuedReminder({ dueIn: 11 });
@@ -283,7 +325,7 @@ describe('send-reminder', () => {
 describe('rendering', () => {
   it('the memoised renderer gives exactly what a direct render gives, awkward names included', async () => {
     const base: ReminderEmailProps = {
-      step: 'second_invitation',
+      wording: 'second_invitation',
       firstName: 'x',
       practiceName: 'Harbour & Quay <Endo> "Care"',
       dueDate: '2026-03-02',

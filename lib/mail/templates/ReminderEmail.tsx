@@ -1,12 +1,14 @@
 import { Button, Link, Section, Text } from '@react-email/components';
 import { format } from 'date-fns';
 import { toLocalNoon, type CalendarDate } from '@/lib/registry/calendar-date';
-import type { ReminderStep } from '@/lib/recall/reminders';
+import type { MessageWording } from '@/lib/recall/wording';
 import { Frame, buttonStyle } from './Frame';
 
 /**
- * The recall reminder: one template for the three steps (invitation, second invitation, last
- * notice), rendered to HTML and plain text by lib/mail/mailer.ts `renderTemplate`.
+ * The recall reminder: one template for every step (invitation, proposal, second invitation, last
+ * notice) in the wording lib/recall/wording.ts `messageWording` chose, rendered to HTML and plain
+ * text by lib/mail/mailer.ts `renderTemplate`. Every message names the practice's address, phone
+ * and e-mail when the practice has given them (practice settings).
  *
  * Privacy: patient data is health data, and e-mail is read on shared screens and lock screens.
  * The message says only that a follow-up review is due at the practice, in which month, and why
@@ -35,7 +37,8 @@ export interface PracticeContactLine {
 }
 
 export interface ReminderEmailProps {
-  step: ReminderStep;
+  /** lib/recall/wording.ts messageWording: the step, and for the invitation whether early, due or overdue. */
+  wording: MessageWording;
   firstName: string;
   practiceName: string;
   /** The visit's due date; only its month and year are shown. */
@@ -51,25 +54,48 @@ export function dueMonth(dueDate: CalendarDate): string {
   return format(toLocalNoon(dueDate), 'MMMM yyyy');
 }
 
-/** The subject line for each step: the practice and the review, nothing clinical. */
-export function reminderSubject(step: ReminderStep, practiceName: string, dueDate: CalendarDate): string {
-  switch (step) {
+/** The subject line for each wording: the practice and the review, nothing clinical. */
+export function reminderSubject(wording: MessageWording, practiceName: string, dueDate: CalendarDate): string {
+  switch (wording) {
     case 'invitation':
+    case 'invitation_early':
       return `Your follow-up review at ${practiceName} is due in ${dueMonth(dueDate)}`;
+    case 'invitation_overdue':
+      return `Time to arrange your follow-up review at ${practiceName}`;
+    case 'proposal':
+      return `A time for your follow-up review at ${practiceName}`;
     case 'second_invitation':
+    case 'second_invitation_overdue':
       return `Reminder: your follow-up review at ${practiceName}`;
     case 'last_notice':
       return `Last reminder: your follow-up review at ${practiceName}`;
   }
 }
 
-function opening(step: ReminderStep, practiceName: string, month: string): string[] {
-  switch (step) {
+function opening(wording: MessageWording, practiceName: string, month: string): string[] {
+  switch (wording) {
+    case 'invitation_early':
+      return [
+        `Your next follow-up review at ${practiceName} is due in ${month}.`,
+        'We are writing early so that you can plan it in good time.',
+      ];
     case 'invitation':
       return [`It is nearly time for your follow-up review at ${practiceName}: it is due in ${month}.`];
+    case 'invitation_overdue':
+      return [
+        `Your follow-up review at ${practiceName} was due in ${month}, and we would like to arrange it with you.`,
+        'It is not too late to come.',
+      ];
+    case 'proposal':
+      return [`We would like to offer you a time for your follow-up review at ${practiceName}.`];
     case 'second_invitation':
       return [
         `We wrote to you recently about your follow-up review at ${practiceName}, due in ${month}.`,
+        'We have not heard from you yet, so here is a short reminder.',
+      ];
+    case 'second_invitation_overdue':
+      return [
+        `We wrote to you recently about your follow-up review at ${practiceName}, which was due in ${month}.`,
         'We have not heard from you yet, so here is a short reminder.',
       ];
     case 'last_notice':
@@ -98,7 +124,7 @@ export function ReminderEmail(props: ReminderEmailProps) {
 
   return (
     <Frame
-      preview={reminderSubject(props.step, props.practiceName, props.dueDate)}
+      preview={reminderSubject(props.wording, props.practiceName, props.dueDate)}
       footer={
         <>
           You receive this message because you agreed that {props.practiceName} may contact you about follow-up
@@ -107,7 +133,7 @@ export function ReminderEmail(props: ReminderEmailProps) {
       }
     >
       <Text>Dear {props.firstName},</Text>
-      {opening(props.step, props.practiceName, month).map((line) => (
+      {opening(props.wording, props.practiceName, month).map((line) => (
         <Text key={line}>{line}</Text>
       ))}
       {props.appointment ? (

@@ -2,11 +2,11 @@ import { createElement } from 'react';
 import { describe, expect, it } from 'vitest';
 import { renderTemplate } from '@/lib/mail/mailer';
 import { ReminderEmail, dueMonth, listUnsubscribeHeaders, reminderSubject, type ReminderEmailProps } from '@/lib/mail/templates/ReminderEmail';
-import { REMINDER_STEPS } from '@/lib/recall/reminders';
+import { MESSAGE_WORDINGS } from '@/lib/recall/wording';
 
 const token = 'eyJ2IjoxfQ.c2lnbmF0dXJlLW9mLTQzLWNoYXJhY3RlcnMtZm9yLXRoZS10ZXN0';
 const props = (over: Partial<ReminderEmailProps> = {}): ReminderEmailProps => ({
-  step: 'invitation',
+  wording: 'invitation',
   firstName: 'Anna',
   practiceName: 'Harbour Endodontics',
   dueDate: '2026-03-15',
@@ -24,9 +24,9 @@ const render = (p: ReminderEmailProps) => renderTemplate(createElement(ReminderE
 /** The hrefs of the HTML part, entity-decoded. */
 const hrefs = (html: string) => [...html.matchAll(/href="([^"]*)"/g)].map((m) => m[1]!.replace(/&amp;/g, '&'));
 
-describe.each(REMINDER_STEPS)('ReminderEmail, step %s', (step) => {
+describe.each(MESSAGE_WORDINGS)('ReminderEmail, wording %s', (wording) => {
   it('has the links in the HTML and in the plain text', async () => {
-    const p = props({ step });
+    const p = props({ wording });
     const { html, text } = await render(p);
     for (const url of Object.values(p.links)) {
       expect(hrefs(html)).toContain(url);
@@ -35,12 +35,13 @@ describe.each(REMINDER_STEPS)('ReminderEmail, step %s', (step) => {
   });
 
   it('greets by first name, names the practice and the due month, and says why the review matters', async () => {
-    const { html, text } = await render(props({ step }));
+    const { html, text } = await render(props({ wording }));
     // React separates adjacent text nodes with empty comments in the HTML.
     for (const part of [text, html.replace(/<!-- -->/g, '')]) {
       expect(part).toContain('Dear Anna,');
       expect(part).toContain('Harbour Endodontics');
-      expect(part).toContain('March 2026');
+      // A proposal names the proposed time instead of the month.
+      if (wording !== 'proposal') expect(part).toContain('March 2026');
       expect(part).toMatch(/bone around the tip of the root has healed/);
     }
     expect(text).toMatch(/Questions\? Please call \+44 20 7946 0000 or write to desk@harbour\.example\.org\. Harbour Endodontics, 1 Quay Street, Harbourtown\./);
@@ -48,8 +49,8 @@ describe.each(REMINDER_STEPS)('ReminderEmail, step %s', (step) => {
   });
 
   it('carries no clinical detail', async () => {
-    const { html, text } = await render(props({ step }));
-    const all = `${text}\n${html}\n${reminderSubject(step, 'Harbour Endodontics', '2026-03-15')}`.toLowerCase();
+    const { html, text } = await render(props({ wording }));
+    const all = `${text}\n${html}\n${reminderSubject(wording, 'Harbour Endodontics', '2026-03-15')}`.toLowerCase();
     for (const word of ['diagnos', 'lesion', 'abscess', 'periapical', 'periodontitis', 'infection', 'pain', 'canal', 'fdi', 'tooth 3', 'retreat', 'fail']) {
       expect(all).not.toContain(word);
     }
@@ -61,12 +62,24 @@ describe('ReminderEmail wording per step', () => {
     ['invitation', /It is nearly time for your follow-up review at Harbour Endodontics: it is due in March 2026\./],
     ['second_invitation', /We have not heard from you yet/],
     ['last_notice', /was due in March 2026[\s\S]*This is the last reminder we will send about this review\./],
-  ] as const)('%s', async (step, pattern) => {
-    expect((await render(props({ step }))).text).toMatch(pattern);
+    ['invitation_early', /Your next follow-up review at Harbour Endodontics is due in March 2026\.[\s\S]*We are writing early/],
+    ['invitation_overdue', /was due in March 2026, and we would like to arrange it with you\.[\s\S]*It is not too late to come\./],
+    ['second_invitation_overdue', /which was due in March 2026\.[\s\S]*We have not heard from you yet/],
+    ['proposal', /We would like to offer you a time for your follow-up review at Harbour Endodontics\./],
+  ] as const)('%s', async (wording, pattern) => {
+    expect((await render(props({ wording }))).text).toMatch(pattern);
+  });
+
+  it('only the invitation due soon says "nearly time"; no wording but the second invitation says "not heard from you"', async () => {
+    for (const wording of MESSAGE_WORDINGS) {
+      const { text } = await render(props({ wording }));
+      expect(text.includes('nearly time'), wording).toBe(wording === 'invitation');
+      expect(text.includes('not heard from you'), wording).toBe(wording.startsWith('second_invitation'));
+    }
   });
 
   it('offers a proposed time with the calendar file, and says "Confirm this time"', async () => {
-    const { text } = await render(props({ appointment: 'Tuesday 3 March 2026 at 09:30' }));
+    const { text } = await render(props({ wording: 'proposal', appointment: 'Tuesday 3 March 2026 at 09:30' }));
     expect(text).toContain('We have set aside a time for you: Tuesday 3 March 2026 at 09:30');
     expect(text).toContain('A calendar file is attached');
     expect(text).toContain(`Confirm this time ${props().links.confirm}`);
@@ -99,8 +112,11 @@ describe('subjects and months', () => {
     ['invitation', 'Your follow-up review at Harbour Endodontics is due in March 2026'],
     ['second_invitation', 'Reminder: your follow-up review at Harbour Endodontics'],
     ['last_notice', 'Last reminder: your follow-up review at Harbour Endodontics'],
-  ] as const)('%s: %s', (step, subject) => {
-    expect(reminderSubject(step, 'Harbour Endodontics', '2026-03-15')).toBe(subject);
+    ['invitation_early', 'Your follow-up review at Harbour Endodontics is due in March 2026'],
+    ['invitation_overdue', 'Time to arrange your follow-up review at Harbour Endodontics'],
+    ['proposal', 'A time for your follow-up review at Harbour Endodontics'],
+  ] as const)('%s: %s', (wording, subject) => {
+    expect(reminderSubject(wording, 'Harbour Endodontics', '2026-03-15')).toBe(subject);
   });
 
   it.each([

@@ -44,10 +44,18 @@ describe('send-reminder payload', () => {
     ['a day that does not exist', { ...good, day: '2023-02-29' }, 'day'],
     ['an unknown field (patient data must not ride along)', { ...good, email: 'anna@example.org' }, ''],
     ['a number for an id', { ...good, practiceId: 7 }, 'practiceId'],
+    ['a negative round', { ...good, round: -1 }, 'round'],
+    ['a round that is not whole', { ...good, round: 1.5 }, 'round'],
   ])('refuses %s', (_label, input, path) => {
     const r = SendReminderPayload.safeParse(input);
     expect(r.success).toBe(false);
     if (!r.success) expect(r.error.issues[0]!.path.join('.')).toBe(path);
+  });
+
+  it('carries a proposal and its round (a payload without one is round 0, as older jobs are)', () => {
+    expect(SendReminderPayload.parse({ ...good, step: 'proposal', round: 2 })).toEqual({ ...good, step: 'proposal', round: 2, origin: 'scan' });
+    expect(SendReminderPayload.parse(good)).not.toHaveProperty('round');
+    expect(reminderJobId(good.visitId, 'proposal', 2)).toBe(`reminder-${good.visitId}-proposal-r2`);
   });
 
   it('says what is wrong when enqueuing (TypeError) and in the worker (UnrecoverableError: never retried)', () => {

@@ -164,11 +164,24 @@ describe('stepDue: who gets nothing', () => {
     expect(stepDue(v, again, P, addDaysTo(due, 14))).toBe('last_notice');
   });
 
-  it('an invited visit with no invitation on record gets no second invitation, only the last notice', () => {
+  it('an invited visit with no message on record gets the invitation first, never a last notice as its first message', () => {
     const v = visit(due, { status: 'invited' });
-    expect(stepDue(v, [], P, addDaysTo(due, -21))).toBeNull();
-    expect(stepDue(v, [], P, addDaysTo(due, 13))).toBeNull();
-    expect(stepDue(v, [], P, addDaysTo(due, 14))).toBe('last_notice');
+    expect(stepDue(v, [], P, addDaysTo(due, -22))).toBeNull();
+    expect(stepDue(v, [], P, addDaysTo(due, -21))).toBe('invitation');
+    expect(stepDue(v, [], P, addDaysTo(due, 14))).toBe('invitation');
+    expect(stepDue(v, [], P, addDaysTo(due, 40))).toBe('invitation');
+    // … and the last notice only after the reply wait.
+    expect(stepDue(v, sent(['invitation', addDaysTo(due, 14)]), P, addDaysTo(due, 23))).toBeNull();
+    expect(stepDue(v, sent(['invitation', addDaysTo(due, 14)]), P, addDaysTo(due, 24))).toBe('last_notice');
+  });
+
+  it('a proposal starts a round: it takes the invitation’s place, and the next step waits the reply time', () => {
+    const v = visit(due, { status: 'invited' });
+    const round = sent(['proposal', addDaysTo(due, -20)]);
+    expect(stepDue(v, round, P, addDaysTo(due, -20))).toBeNull();
+    expect(stepDue(v, round, P, addDaysTo(due, -11))).toBeNull();
+    expect(stepDue(v, round, P, addDaysTo(due, -10))).toBe('second_invitation');
+    expect(nextStepNow(v, round, P, addDaysTo(due, -19))).toBe('second_invitation');
   });
 });
 
@@ -195,7 +208,7 @@ describe('a daily scan over a whole visit', () => {
         sent(['invitation', addDaysTo(due, -21)], ['second_invitation', addDaysTo(due, -11)], ['last_notice', addDaysTo(due, 14)]),
       );
     }
-  });
+  }, 30_000); // about 150,000 scan days: 3 s alone, more on a shared machine under load
 
   it('keeps ten days between messages when the visit was planned late', () => {
     const due = '2024-02-29';
@@ -252,6 +265,7 @@ describe('nextStepNow (the desk’s "send now")', () => {
   it.each([
     ['planned, nothing sent, months early', 'planned', [], '2025-12-01', 'invitation'],
     ['invited by phone, nothing sent', 'invited', [], '2026-03-01', 'invitation'],
+    ['a proposal sent: counts as the invitation', 'invited', [['proposal', '2026-02-28']], '2026-03-01', 'second_invitation'],
     ['invitation sent yesterday', 'invited', [['invitation', '2026-02-28']], '2026-03-01', 'second_invitation'],
     ['second sent', 'invited', [['invitation', '2026-02-22'], ['second_invitation', '2026-03-04']], '2026-03-05', 'last_notice'],
     ['last notice already due: skips the second', 'invited', [['invitation', '2026-02-22']], '2026-03-29', 'last_notice'],
@@ -277,9 +291,12 @@ describe('reminderJobId', () => {
     expect(`${parseInt(id, 10)}`).not.toBe(id); // BullMQ's own test for integer ids
   });
 
-  it('differs by visit and by step', () => {
-    const ids = new Set(['a', 'b'].flatMap((v) => REMINDER_STEPS.map((s) => reminderJobId(v, s))));
-    expect(ids.size).toBe(6);
+  it('differs by visit, by step and by round; round 0 keeps the first form', () => {
+    const ids = new Set(['a', 'b'].flatMap((v) => REMINDER_STEPS.flatMap((s) => [0, 1, 2].map((r) => reminderJobId(v, s, r)))));
+    expect(ids.size).toBe(2 * REMINDER_STEPS.length * 3);
+    expect(reminderJobId(uuid, 'invitation', 0)).toBe(`reminder-${uuid}-invitation`);
+    expect(reminderJobId(uuid, 'proposal', 3)).toBe(`reminder-${uuid}-proposal-r3`);
+    for (const bad of [-1, 1.5, 40_000]) expect(() => reminderJobId(uuid, 'invitation', bad)).toThrow(RangeError);
   });
 
   it('is not an integer even for numeric visit ids', () => {

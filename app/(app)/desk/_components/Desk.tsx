@@ -19,11 +19,13 @@ import { getJson, postJson } from './api';
 
 const EMPTY_TEXT: Record<DeskQueue, string> = {
   due_soon: 'No visit falls due in the next 30 days. Completed cases get their visits from the recall policy.',
-  overdue: 'No visit is past its due date with its window still open.',
+  overdue: 'No visit is past its due date without a time booked or proposed.',
+  call: 'Nobody to phone: every patient due for an invitation can be e-mailed, or has a time.',
   awaiting_reply: 'Nobody is waiting to answer an invitation.',
   replied: 'No reply waits for you. Patients answer through the link in their invitation.',
   delivery_failed: 'Every reminder was delivered.',
   missed: 'No visit has been missed.',
+  this_month: 'No visit is due this month.',
 };
 
 export function Desk() {
@@ -32,25 +34,33 @@ export function Desk() {
   const params = useSearchParams();
   const queue = (params.get('queue') ?? 'due_soon') as DeskQueue;
   const page = Number(params.get('page') ?? '1') || 1;
+  const clinician = params.get('clinician') ?? '';
+  const forClinician = clinician ? `&clinician=${encodeURIComponent(clinician)}` : '';
   const qc = useQueryClient();
   const [selection, setSelection] = useState<RowSelectionState>({});
   const [openLog, setOpenLog] = useState<string | null>(null);
   const [outcome, setOutcome] = useState<{ tone: 'ok' | 'alert' | 'info'; lines: string[] } | null>(null);
 
-  const queues = useQuery({ queryKey: ['desk-queues'], queryFn: () => getJson<DeskQueues>('/api/recall/queues') });
+  const queues = useQuery({
+    queryKey: ['desk-queues', clinician],
+    queryFn: () => getJson<DeskQueues>(`/api/recall/queues${clinician ? `?clinician=${encodeURIComponent(clinician)}` : ''}`),
+  });
+  const clinicians = useQuery({ queryKey: ['clinicians'], queryFn: () => getJson<{ clinicians: { id: string; name: string | null; email: string }[] }>('/api/clinicians') });
   const rows = useQuery({
-    queryKey: ['desk-rows', queue, page],
-    queryFn: () => getJson<DeskRowsPage>(`/api/recall/visits?queue=${queue}&page=${page}&pageSize=25`),
+    queryKey: ['desk-rows', queue, page, clinician],
+    queryFn: () => getJson<DeskRowsPage>(`/api/recall/visits?queue=${queue}&page=${page}&pageSize=25${forClinician}`),
     placeholderData: keepPreviousData,
   });
 
-  const go = (q: DeskQueue, p = 1) => {
+  const go = (q: DeskQueue, p = 1, who = clinician) => {
     setSelection({});
     setOutcome(null);
     const next = new URLSearchParams(params.toString());
     next.set('queue', q);
     if (p > 1) next.set('page', String(p));
     else next.delete('page');
+    if (who) next.set('clinician', who);
+    else next.delete('clinician');
     router.replace(`${pathname}?${next.toString()}`, { scroll: false });
   };
 
@@ -61,7 +71,7 @@ export function Desk() {
       setOutcome({
         tone: failed.length ? (failed.length === res.results.length ? 'alert' : 'info') : 'ok',
         lines: [
-          ...res.results.map((r) => r.message),
+          ...res.results.map((r) => `${r.visit}: ${r.message}`),
           ...(res.deferred ? ['The queue did not answer: the reminders are saved and go out with the next scan.'] : []),
         ],
       });
@@ -105,7 +115,12 @@ export function Desk() {
             id={i.row.original.patient.id}
             name={i.getValue()}
             registryNumber={i.row.original.patient.registryNumber}
-            extra={`${i.row.original.patient.phone ? ` · ${i.row.original.patient.phone}` : ''}${i.row.original.patient.canEmail ? '' : ' · no e-mail consent'}`}
+            extra={
+              <>
+                {i.row.original.patient.phone ? ` · ${i.row.original.patient.phone}` : ''}
+                {i.row.original.patient.canEmail ? '' : ` · ${i.row.original.patient.recallContact ? `by ${i.row.original.patient.channel}, no e-mail` : 'no recall-contact consent'}`}
+              </>
+            }
           />
         ),
       }),
@@ -190,7 +205,25 @@ export function Desk() {
   return (
     <div className="space-y-4">
       {queues.error && <Notice tone="alert">{(queues.error as Error).message}</Notice>}
-      <nav aria-label="Work queues" className="grid grid-cols-2 gap-2 md:grid-cols-3 xl:grid-cols-6">
+      <div className="flex flex-wrap items-end gap-3">
+        <div>
+          <label htmlFor="desk-clinician" className="field-label">
+            Clinician
+          </label>
+          <select id="desk-clinician" className="field-input" value={clinician} onChange={(e) => go(queue, 1, e.target.value)}>
+            <option value="">Every clinician</option>
+            {(clinicians.data?.clinicians ?? []).map((c) => (
+              <option key={c.id} value={c.id}>
+                {c.name ?? c.email}
+              </option>
+            ))}
+          </select>
+        </div>
+        <Link href={`/desk/calls${clinician ? `?clinician=${encodeURIComponent(clinician)}` : ''}`} className="btn-secondary no-underline" target="_blank">
+          Print the call list
+        </Link>
+      </div>
+      <nav aria-label="Work queues" className="grid grid-cols-2 gap-2 md:grid-cols-4 xl:grid-cols-8">
         {(queues.data?.queues ?? []).map((q) => (
           <button
             key={q.key}

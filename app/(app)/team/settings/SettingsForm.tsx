@@ -8,6 +8,9 @@ import { Notice } from '@/components/ui/Notice';
 
 interface Shape {
   toothNotation: 'fdi' | 'universal';
+  address: string;
+  phone: string;
+  contactEmail: string;
   milestones: { months: number; windowBeforeDays: number; windowAfterDays: number }[];
   minObservationDays: number;
 }
@@ -17,7 +20,15 @@ const num = { valueAsNumber: true } as const;
 export function SettingsForm({ initial }: { initial: PracticeSettingsView }) {
   const router = useRouter();
   const [result, setResult] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
-  const form = useForm<Shape>({ defaultValues: { toothNotation: initial.toothNotation, milestones: initial.recallPolicy.milestones, minObservationDays: initial.minObservationDays },
+  const form = useForm<Shape>({
+    defaultValues: {
+      toothNotation: initial.toothNotation,
+      address: initial.contact.address ?? '',
+      phone: initial.contact.phone ?? '',
+      contactEmail: initial.contact.contactEmail ?? '',
+      milestones: initial.recallPolicy.milestones,
+      minObservationDays: initial.minObservationDays,
+    },
   });
   const milestones = useFieldArray({ control: form.control, name: 'milestones' });
 
@@ -26,7 +37,12 @@ export function SettingsForm({ initial }: { initial: PracticeSettingsView }) {
     const res = await fetch('/api/practice/settings', {
       method: 'PATCH',
       headers: { 'Content-Type': 'application/json' },
-      body: JSON.stringify({ toothNotation: values.toothNotation, recallPolicy: { milestones: values.milestones }, minObservationDays: values.minObservationDays }),
+      body: JSON.stringify({
+        toothNotation: values.toothNotation,
+        recallPolicy: { milestones: values.milestones },
+        minObservationDays: values.minObservationDays,
+        contact: { address: values.address, phone: values.phone, contactEmail: values.contactEmail },
+      }),
     });
     const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
     if (!res.ok) {
@@ -41,6 +57,32 @@ export function SettingsForm({ initial }: { initial: PracticeSettingsView }) {
   return (
     <form onSubmit={onSubmit} noValidate className="space-y-6" aria-label="Practice settings">
       {result && <Notice tone={result.tone}>{result.text}</Notice>}
+      <fieldset className="card space-y-3">
+        <legend className="px-1 font-serif text-xl">How patients reach the practice</legend>
+        <p className="text-sm text-ink-700">
+          Shown in every reminder e-mail and calendar file, so patients can call or write. Left empty, messages say “contact the practice”.
+        </p>
+        <div>
+          <label htmlFor="practice-address" className="field-label">
+            Address
+          </label>
+          <input id="practice-address" className="field-input w-full" maxLength={300} autoComplete="street-address" {...form.register('address')} />
+        </div>
+        <div className="grid gap-3 sm:grid-cols-2">
+          <div>
+            <label htmlFor="practice-phone" className="field-label">
+              Phone
+            </label>
+            <input id="practice-phone" type="tel" className="field-input w-full" maxLength={40} {...form.register('phone')} />
+          </div>
+          <div>
+            <label htmlFor="practice-email" className="field-label">
+              E-mail for patients
+            </label>
+            <input id="practice-email" type="email" className="field-input w-full" maxLength={254} {...form.register('contactEmail')} />
+          </div>
+        </div>
+      </fieldset>
       <fieldset className="card space-y-2">
         <legend className="px-1 font-serif text-xl">Tooth numbering on screens</legend>
         <p className="text-sm text-ink-700">Teeth are always stored in FDI notation (ISO 3950); this only changes how they are shown.</p>

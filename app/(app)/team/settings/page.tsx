@@ -16,7 +16,7 @@ export default async function SettingsPage() {
       </p>
       <div>
         <h1 className="text-3xl">Practice settings</h1>
-        <p className="mt-1 text-ink-700">How {settings.name} shows teeth, and when completed cases are recalled.</p>
+        <p className="mt-1 text-ink-700">How patients reach {settings.name}, how it shows teeth, and when completed cases are recalled.</p>
       </div>
       <SettingsForm initial={settings} />
     </div>
