@@ -334,10 +334,11 @@ describe('turnbull vs R survfit(Surv(left, right, type = "interval2") ~ 1)', () 
     d.abs = Math.max(d.abs, worst);
     d.rel = NaN;
     expect(worst, 'S(upper) against R run to convergence').toBeLessThan(1e-6);
-    // Lamina's estimate is at least as likely as R's (the NPMLE maximises the likelihood)
+    // Lamina's estimate is at least as likely as survfit's, and as likely as R's algorithm run
+    // to convergence up to Lamina's own stopping tolerance (Kuhn–Tucker conditions to 1e-7)
     const lam = turnbullLogLik(turnbullSets[id], rows);
-    expect(lam).toBeGreaterThanOrEqual(ref.logLik[0] - 1e-9);
-    expect(lam).toBeGreaterThanOrEqual(ref.tightLogLik[0] - 1e-9);
+    expect(lam).toBeGreaterThanOrEqual(ref.logLik[0]);
+    expect(lam).toBeGreaterThanOrEqual(ref.tightLogLik[0] - 1e-6);
   });
 
   it('exact times and right-censoring only: equals R\'s Kaplan–Meier curve (survfit(Surv(time, status))) to 1e-6', () => {
