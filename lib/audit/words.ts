@@ -22,7 +22,11 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     actions: {
       'auth.sign_in': 'Signed in',
       'auth.sign_in_failed': 'Sign-in failed',
-      'auth.sign_in_limited': 'Sign-in refused after too many attempts',
+      'auth.sign_in_limited': 'Sign-in held back after repeated wrong passwords',
+      'auth.link_limited': 'Sign-in link request held back (too many requests)',
+      'auth.password_changed': 'Changed their password',
+      'auth.practice_chosen': 'Chose the practice to work in',
+      'auth.sessions_ended': 'Signed out (sessions ended)',
     },
   },
   {
@@ -33,6 +37,10 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'team.invitation_accepted': 'Accepted an invitation',
       'team.role_granted': 'Granted a role',
       'team.role_revoked': 'Revoked a role',
+      'team.invitation_resent': 'Sent an invitation again',
+      'team.invitation_revoked': 'Withdrew an invitation',
+      'team.member_deactivated': 'Deactivated a team member',
+      'team.member_reactivated': 'Reactivated a team member',
     },
   },
   {
@@ -88,6 +96,7 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'recall.rows_read': 'Viewed a recall desk queue',
       'recall.rate_read': 'Viewed the follow-up rate',
       'recall.contact_log_read': 'Read a contact log',
+      'recall.call_list_read': 'Opened the call list',
       'recall.call_noted': 'Noted a phone call',
       'recall.send_now': 'Sent reminders now',
       'recall.booked': 'Booked recall visits',
@@ -117,6 +126,14 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     actions: {
       'audit.read': 'Viewed the audit trail',
       'audit.exported': 'Exported the audit trail',
+    },
+  },
+  {
+    prefix: 'mailbox.',
+    label: 'Demo mailbox',
+    actions: {
+      'mailbox.list': 'Opened the demo mailbox',
+      'mailbox.read': 'Read a message in the demo mailbox',
     },
   },
 ];
