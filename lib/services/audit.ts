@@ -6,7 +6,7 @@ import type { Actor } from '@/lib/auth/actor';
 import { assertCan } from '@/lib/auth/actor';
 import { can } from '@/lib/auth/permissions';
 import { actionWords, detailWords, recordKindWords, shortRef } from '@/lib/audit/words';
-import { csvSafeTable } from '@/lib/audit/csv';
+import { writeCsv } from '@/lib/csv/write';
 import { AuditFilter, AuditQuery } from '@/lib/schemas/audit';
 import { parseInput } from './parse';
 import { displayName, knexOf, practiceSettings } from './registry-common';
@@ -212,7 +212,7 @@ export async function exportAuditCsv(em: EntityManager, actor: Actor, raw: unkno
   assertCan(actor, 'audit.read');
   const f = parseInput(AuditFilter, raw);
   const { rows, total, namedPatients } = await readEvents(em, actor, f, AUDIT_EXPORT_LIMIT, 0);
-  const csv = csvSafeTable(
+  const csv = writeCsv(
     AUDIT_CSV_HEADER,
     rows.map((r) => [
       r.at,

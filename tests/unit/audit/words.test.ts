@@ -2,7 +2,6 @@ import { describe, expect, it } from 'vitest';
 import { readdirSync, readFileSync, statSync } from 'node:fs';
 import path from 'node:path';
 import { ACTION_GROUPS, actionWords, detailWords, isKnownAction, shortRef } from '@/lib/audit/words';
-import { csvSafeCell, csvSafeTable } from '@/lib/audit/csv';
 
 function sourceFiles(dir: string): string[] {
   return readdirSync(dir).flatMap((name) => {
@@ -43,27 +42,5 @@ describe('audit actions in plain words', () => {
     expect(detailWords({ patientId: '7a714c12-617d-4f00-99b0-7bf93b434ca0', completed: true })).toBe('patient: 7a714c12 · completed: yes');
     expect(detailWords(null)).toBe('');
     expect(shortRef('7a714c12-617d-4f00-99b0-7bf93b434ca0')).toBe('7a714c12');
-  });
-});
-
-// OWASP, "CSV Injection": cells beginning with = + - @ tab (0x09) or carriage return (0x0D) are
-// prefixed with a single quote, and every cell is quoted with inner quotes doubled.
-describe('formula-safe CSV', () => {
-  it.each([
-    ['=HYPERLINK("http://x.invalid","y")', `"'=HYPERLINK(""http://x.invalid"",""y"")"`],
-    ['+1+1', `"'+1+1"`],
-    ['-2+3', `"'-2+3"`],
-    ['@SUM(A1)', `"'@SUM(A1)"`],
-    ['\tcmd', `"'\tcmd"`],
-    ['\rcmd', `"'\rcmd"`],
-    ['plain, with "quotes"', `"plain, with ""quotes"""`],
-    ['a=1', '"a=1"'],
-  ])('%j → %s', (input, out) => {
-    expect(csvSafeCell(input)).toBe(out);
-  });
-
-  it('writes empty cells for null, and CRLF lines', () => {
-    expect(csvSafeCell(null)).toBe('""');
-    expect(csvSafeTable(['a', 'b'], [[1, null]])).toBe('"a","b"\r\n"1",""\r\n');
   });
 });
