@@ -37,6 +37,12 @@ export const ReviewSchema = defineEntity({
     successStrict: p.boolean(),
     successLenient: p.boolean(),
     outcomeReasons: p.array<string>().default([]),
+    /** A correction replaced this version (kept, shown as superseded; outcomes read only current versions). */
+    supersededBy: p.manyToOne(() => ReviewSchema).ref().nullable().unique().deleteRule('set null'),
+    supersededAt: p.datetime().nullable(),
+    /** On a correction: why the earlier version was corrected, and who corrected it. */
+    correctionReason: p.string().length(500).nullable(),
+    correctedBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
     createdAt: p.datetime().onCreate(() => new Date()),
     updatedAt: p.datetime().onCreate(() => new Date()).onUpdate(() => new Date()),
   },

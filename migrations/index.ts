@@ -7,10 +7,12 @@ import { Migration20261201221639 } from './Migration20261201221639';
 import { Migration20261201223805 } from './Migration20261201223805';
 import { Migration20261201230524 } from './Migration20261201230524';
 import { Migration20261201232637 } from './Migration20261201232637';
+import { Migration20261202120000 } from './Migration20261202120000';
 
 export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261201221639', class: Migration20261201221639 },
   { name: 'Migration20261201223805', class: Migration20261201223805 },
   { name: 'Migration20261201230524', class: Migration20261201230524 },
   { name: 'Migration20261201232637', class: Migration20261201232637 },
+  { name: 'Migration20261202120000', class: Migration20261202120000 },
 ];

@@ -33,7 +33,7 @@ import { addDaysTo, compareDates, type CalendarDate } from '@/lib/registry/calen
 import type { RecallPolicy } from '@/lib/schemas/recall-policy';
 import type { QuietHours, ReminderPolicy } from '@/lib/schemas/reminder-policy';
 import { isPastDue } from './plan';
-import type { VisitStatus } from './status';
+import { needsContact, type VisitStatus } from './status';
 
 export {
   DEFAULT_REMINDER_POLICY,
@@ -56,12 +56,8 @@ export function isReminderStep(value: unknown): value is ReminderStep {
   return typeof value === 'string' && (REMINDER_STEPS as readonly string[]).includes(value);
 }
 
-/** Statuses that still need contact: not yet invited, or invited without an answer. */
-export const CONTACT_STATUSES: readonly VisitStatus[] = ['planned', 'invited'];
-
-export function needsContact(status: VisitStatus): boolean {
-  return CONTACT_STATUSES.includes(status);
-}
+// The statuses that still need contact live with the other status lists (status.ts).
+export { CONTACT_STATUSES, needsContact } from './status';
 
 /** What the reminder rules need to know about a visit. */
 export interface ReminderVisit<Id = string> {

@@ -3,10 +3,18 @@ import { z } from 'zod';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import {
+  AWAITING_REPLY_STATUSES,
+  CONTACT_STATUSES,
+  FINAL_VISIT_STATUSES,
+  MISSED_REASONS,
+  MISSED_REASON_LABELS,
+  MISSED_STATUSES,
+  OPEN_VISIT_STATUSES,
   REMINDER_STEP_LABELS,
   VISIT_STATUS_LABELS,
-  canTransition,
+  needsContact,
   nextStepNow,
+  statusSql,
   quietDelayMs,
   type ReminderStep,
   type SentStep,
@@ -58,19 +66,19 @@ export const DESK_QUEUE_INFO: Record<DeskQueue, { label: string; definition: str
   missed: { label: 'Missed', definition: 'The window ended without an attendance on record.' },
 };
 
-const FINAL = `('attended', 'cancelled', 'closed')`;
+const FINAL = statusSql(FINAL_VISIT_STATUSES);
 const LATEST_BY = `(select e.by from contact_log_entry e where e.visit_id = v.id order by e.at desc, e.id desc limit 1)`;
 
 /** The SQL condition of each queue on recall_visit v (bindings: today, today + 30). */
 function queueCondition(queue: DeskQueue, today: string): { sql: string; bindings: string[] } {
   switch (queue) {
     case 'due_soon':
-      return { sql: `v.status in ('planned', 'invited') and v.due_date between ? and ?`, bindings: [today, addDaysTo(today, 30)] };
+      return { sql: `v.status in ${statusSql(CONTACT_STATUSES)} and v.due_date between ? and ?`, bindings: [today, addDaysTo(today, 30)] };
     case 'overdue':
-      return { sql: `v.status in ('planned', 'invited', 'confirmed') and v.due_date < ?`, bindings: [today] };
+      return { sql: `v.status in ${statusSql(OPEN_VISIT_STATUSES)} and v.due_date < ?`, bindings: [today] };
     case 'awaiting_reply':
       return {
-        sql: `v.status = 'invited' and exists (select 1 from reminder r where r.visit_id = v.id and r.status = 'sent'
+        sql: `v.status in ${statusSql(AWAITING_REPLY_STATUSES)} and exists (select 1 from reminder r where r.visit_id = v.id and r.status = 'sent'
                 and not exists (select 1 from contact_log_entry e where e.visit_id = v.id and e.kind = 'reply' and e.at >= r.sent_at))`,
         bindings: [],
       };
@@ -79,7 +87,7 @@ function queueCondition(queue: DeskQueue, today: string): { sql: string; binding
     case 'delivery_failed':
       return { sql: `v.delivery_failed_at is not null and v.status not in ${FINAL}`, bindings: [] };
     case 'missed':
-      return { sql: `v.status = 'missed'`, bindings: [] };
+      return { sql: `v.status in ${statusSql(MISSED_STATUSES)}`, bindings: [] };
   }
 }
 
@@ -297,7 +305,7 @@ const RECENT_MS = 15 * 60_000;
 /** Why "send now" has nothing to send for a visit. */
 function nothingToSend(v: DeskVisit, today: string): string {
   if (!v.consent) return 'The patient has not agreed to recall contact by e-mail (or no address is on file). Call instead.';
-  if (!['planned', 'invited'].includes(v.status)) return `The visit is ${VISIT_STATUS_LABELS[v.status].toLowerCase()}: no invitation is needed.`;
+  if (!needsContact(v.status)) return `The visit is ${VISIT_STATUS_LABELS[v.status].toLowerCase()}: no invitation is needed.`;
   if (v.window_end < today) return 'The visit’s window has ended.';
   return 'Every reminder step has already been sent for this visit.';
 }
@@ -343,7 +351,7 @@ export async function sendRemindersNow(em: EntityManager, actor: Actor, raw: unk
   const entries: OutboxEntry[] = [];
   const retries: (OutboxEntry & { id: string })[] = [];
   for (const v of visits) {
-    const canContact = v.consent && ['planned', 'invited'].includes(v.status) && v.window_end >= s.today;
+    const canContact = v.consent && needsContact(v.status) && v.window_end >= s.today;
     if (busy.has(v.id)) {
       results.push({ visitId: v.id, ok: false, outcome: 'refused', message: 'A reminder for this visit is on its way or went out a few minutes ago.' });
       continue;
@@ -433,7 +441,7 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
     for (const v of visits) {
       const base = { practiceId: actor.practiceId, visitId: v.id, by: 'user' as const, userId: actor.userId };
       if (input.mode === 'propose') {
-        if (!['planned', 'invited'].includes(v.status)) {
+        if (!needsContact(v.status)) {
           results.push({ visitId: v.id, ok: false, outcome: 'refused', message: `The visit is ${VISIT_STATUS_LABELS[v.status].toLowerCase()}: book it by phone instead.` });
           continue;
         }
@@ -442,13 +450,12 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
         results.push({ visitId: v.id, ok: true, outcome: 'proposed', message: `Proposed ${words}.` });
         if (input.sendNow) toSend.push(v.id);
       } else {
-        if (v.status !== 'confirmed' && !canTransition(v.status, 'confirmed')) {
+        const extra = { booked_date: day, proposed_start: start, delivery_failed_at: null };
+        if (v.status === 'confirmed') await knexOf(tx)('recall_visit').where({ id: v.id }).update({ ...extra, updated_at: new Date() });
+        else if (!(await setVisitStatus(tx, v, { to: 'confirmed', on: s.today, by: 'user' }, actor.userId, extra)).ok) {
           results.push({ visitId: v.id, ok: false, outcome: 'refused', message: `A visit that is ${VISIT_STATUS_LABELS[v.status].toLowerCase()} cannot be booked.` });
           continue;
         }
-        const extra = { booked_date: day, proposed_start: start, delivery_failed_at: null };
-        if (v.status === 'confirmed') await knexOf(tx)('recall_visit').where({ id: v.id }).update({ ...extra, updated_at: new Date() });
-        else await setVisitStatus(tx, v.id, 'confirmed', actor.userId, extra);
         await logContact(tx, [
           { ...base, kind: 'appointment', note: `Booked by phone for ${words}.${input.note ? ` ${input.note}` : ''}` },
           ...(v.status !== 'confirmed' ? [{ ...base, kind: 'status_change' as const, fromStatus: v.status, toStatus: 'confirmed' as const }] : []),
@@ -475,20 +482,29 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
   return deferred ? { results, deferred } : { results };
 }
 
-export const MarkInput = z.object({
-  visitIds: VisitIds,
-  status: z.enum(['attended', 'missed'], { error: 'status is attended or missed.' }),
-  note: z.preprocess((v) => (v === '' ? undefined : v), z.string().trim().max(1000, 'At most 1000 characters.').optional()),
-});
+export const MarkInput = z
+  .object({
+    visitIds: VisitIds,
+    status: z.enum(['attended', 'missed'], { error: 'status is attended or missed.' }),
+    /** With missed: why (no-show, cancelled late, unreachable). */
+    reason: z.enum(MISSED_REASONS, { error: `reason is one of ${MISSED_REASONS.join(', ')}.` }).optional(),
+    note: z.preprocess((v) => (v === '' ? undefined : v), z.string().trim().max(1000, 'At most 1000 characters.').optional()),
+  })
+  .refine((v) => v.status !== 'missed' || v.reason !== undefined, {
+    path: ['reason'],
+    message: 'Say why the visits were missed: no-show, cancelled late or unreachable.',
+  });
 
 /**
- * Marks visits attended or missed, each only along lib/recall VISIT_TRANSITIONS (a visit that may
- * not make the move is reported and left as it is). A status-change entry goes to each contact
- * log; a delivery-failed flag is cleared.
+ * Marks visits attended or missed (missed with a reason), each through lib/recall
+ * transitionVisit: along the status table and only once the appointment or window has begun (a
+ * visit that may not make the move is reported with the rule's message and left as it is). A
+ * status-change entry goes to each contact log; a delivery-failed flag is cleared.
  */
 export async function markVisits(em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> {
   assertCan(actor, 'recall.manage');
   const input = parseInput(MarkInput, raw);
+  const s = await recallSettings(em, actor.practiceId);
   const results: ActionResult[] = [];
   await em.transactional(async (tx) => {
     const visits = await visitsOfPractice(tx, actor.practiceId, input.visitIds, true);
@@ -498,24 +514,29 @@ export async function markVisits(em: EntityManager, actor: Actor, raw: unknown):
         results.push({ visitId: v.id, ok: true, outcome: 'marked', message: `Already ${VISIT_STATUS_LABELS[v.status].toLowerCase()}.` });
         continue;
       }
-      if (!canTransition(v.status, input.status)) {
-        results.push({
-          visitId: v.id,
-          ok: false,
-          outcome: 'refused',
-          message: `A visit that is ${VISIT_STATUS_LABELS[v.status].toLowerCase()} cannot become ${VISIT_STATUS_LABELS[input.status].toLowerCase()}.`,
-        });
+      const moved = await setVisitStatus(tx, v, { to: input.status, on: s.today, by: 'user', missedReason: input.reason ?? null }, actor.userId, { delivery_failed_at: null });
+      if (!moved.ok) {
+        results.push({ visitId: v.id, ok: false, outcome: 'refused', message: moved.message });
         continue;
       }
-      await setVisitStatus(tx, v.id, input.status, actor.userId, { delivery_failed_at: null });
+      const why = input.status === 'missed' && input.reason ? MISSED_REASON_LABELS[input.reason] : null;
       await logContact(tx, [
-        { practiceId: actor.practiceId, visitId: v.id, kind: 'status_change', by: 'user', userId: actor.userId, fromStatus: v.status, toStatus: input.status, note: input.note ?? null },
+        {
+          practiceId: actor.practiceId,
+          visitId: v.id,
+          kind: 'status_change',
+          by: 'user',
+          userId: actor.userId,
+          fromStatus: v.status,
+          toStatus: input.status,
+          note: [why, input.note].filter(Boolean).join('. ') || null,
+        },
       ]);
       cases.push(v.case_id);
       results.push({ visitId: v.id, ok: true, outcome: 'marked', message: `Marked ${VISIT_STATUS_LABELS[input.status].toLowerCase()}.` });
     }
     await refreshNextVisit(tx, [...new Set(cases)]);
   });
-  await audit(em, actor, { action: 'recall.marked', detail: { status: input.status, visitIds: results.filter((r) => r.ok).map((r) => r.visitId) } });
+  await audit(em, actor, { action: 'recall.marked', detail: { status: input.status, ...(input.reason ? { reason: input.reason } : {}), visitIds: results.filter((r) => r.ok).map((r) => r.visitId) } });
   return { results };
 }

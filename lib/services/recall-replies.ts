@@ -4,7 +4,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { REPLY_ANSWERS, type ReplyAnswer } from '@/entities';
 import { env } from '@/lib/env';
 import type { Origin } from '@/lib/auth/origin';
-import { canTransition, isFinalStatus, isOpenStatus, type VisitStatus } from '@/lib/recall';
+import { isFinalStatus, isOpenStatus, type VisitStatus } from '@/lib/recall';
 import {
   LINK_REFUSAL_MESSAGES,
   deriveLinkSecret,
@@ -16,7 +16,7 @@ import {
 import { dueMonth } from '@/lib/mail/templates/ReminderEmail';
 import { audit } from './audit';
 import { parseInput } from './parse';
-import { dateIn, logContact, setVisitStatus } from './recall-common';
+import { dateIn, logContact, setVisitStatus, type VisitStatusRow } from './recall-common';
 import { knexOf, todayIn } from './registry-common';
 import { refreshNextVisit } from './visits';
 
@@ -57,6 +57,9 @@ interface LinkedVisit {
   milestone: number;
   status: VisitStatus;
   due_date: string;
+  window_start: string;
+  window_end: string;
+  booked_date: string | null;
   proposed_start: string | null;
   practice_name: string;
   time_zone: string;
@@ -77,6 +80,9 @@ async function linkedVisit(em: EntityManager, visitId: string, lock = false): Pr
       'v.milestone',
       'v.status',
       'v.due_date',
+      'v.window_start',
+      'v.window_end',
+      'v.booked_date',
       'v.proposed_start',
       'pr.name as practice_name',
       'pr.time_zone',
@@ -166,8 +172,10 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
     if (input.answer === 'confirmed') {
       const proposed = visit.proposed_start ? new Date(visit.proposed_start) : null;
       const booked = proposed && proposed.getTime() > now.getTime() ? dateIn(proposed, visit.time_zone) : null;
-      if (visit.status !== 'confirmed' && canTransition(visit.status, 'confirmed')) {
-        await setVisitStatus(tx, visit.id, 'confirmed', null, { ...(booked ? { booked_date: booked } : {}), delivery_failed_at: null });
+      const confirmed =
+        visit.status !== 'confirmed' &&
+        (await setVisitStatus(tx, visit, { to: 'confirmed', on: dateIn(now, visit.time_zone), by: 'patient' }, null, { ...(booked ? { booked_date: booked } : {}), delivery_failed_at: null })).ok;
+      if (confirmed) {
         entries.push({ ...base, kind: 'status_change', fromStatus: visit.status, toStatus: 'confirmed' });
         changed.push(visit.id);
       } else if (booked) {
@@ -175,7 +183,7 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
       }
     } else if (input.answer === 'another_time') {
       if (visit.status === 'confirmed') {
-        await setVisitStatus(tx, visit.id, 'invited', null, { booked_date: null, proposed_start: null });
+        await setVisitStatus(tx, visit, { to: 'invited', on: dateIn(now, visit.time_zone), by: 'patient' }, null, { booked_date: null, proposed_start: null });
         entries.push({ ...base, kind: 'status_change', fromStatus: 'confirmed', toStatus: 'invited' });
         changed.push(visit.id);
       } else {
@@ -186,11 +194,11 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
         .where('case_id', visit.case_id)
         .where((b) => b.where('id', visit.id).orWhere('milestone', '>', visit.milestone))
         .forUpdate()
-        .select('id', 'status')) as { id: string; status: VisitStatus }[];
+        .select('id', 'status', 'milestone', 'window_start', 'window_end', 'booked_date')) as VisitStatusRow[];
       for (const v of visits) {
-        const applies = v.id === visit.id ? canTransition(v.status, 'declined') : isOpenStatus(v.status);
-        if (!applies) continue;
-        await setVisitStatus(tx, v.id, 'declined', null, { proposed_start: null });
+        if (v.id !== visit.id && !isOpenStatus(v.status)) continue;
+        const declined = await setVisitStatus(tx, v, { to: 'declined', on: dateIn(now, visit.time_zone), by: 'patient' }, null, { proposed_start: null });
+        if (!declined.ok) continue;
         entries.push({ ...base, visitId: v.id, kind: 'status_change', fromStatus: v.status, toStatus: 'declined', note: v.id === visit.id ? null : 'Declined with an earlier visit.' });
         changed.push(v.id);
       }
