@@ -1,10 +1,10 @@
 import 'server-only';
-import { z } from 'zod';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { RecallVisitSchema, ReviewSchema, UserSchema, type Review, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { isOpenStatus, type VisitStatus } from '@/lib/recall';
 import { daysBetween } from '@/lib/registry/calendar-date';
+import { ReviewCorrectionReason } from '@/lib/schemas/review-correction';
 import { REVIEW_SIGNS, REVIEW_SIGN_LABELS, ReviewCreateSchema, TOOTH_STATUS_LABELS, type ReviewSign, type ToothStatus } from '@/lib/schemas/review';
 import {
   OUTCOME_LABELS,
@@ -238,14 +238,6 @@ export async function createReview(
     caution: SCORING_CAUTION,
   };
 }
-
-export const ReviewCorrectionReason = z.object({
-  reason: z
-    .string({ error: 'Say why the review is corrected.' })
-    .trim()
-    .min(3, 'Say why the review is corrected (a few words).')
-    .max(500, 'At most 500 characters.'),
-});
 
 /**
  * Corrects a saved review (the assessor or another clinician of the practice): the findings are

@@ -58,6 +58,8 @@ export interface VisitView {
   canUndoMissed: boolean;
   /** Its appointment (or, unbooked, its window) has begun: attended and missed are possible. */
   started: boolean;
+  /** Confirmed with its appointment today: the visit of the day. */
+  ofTheDay: boolean;
 }
 
 export const VisitUpdateSchema = z
@@ -343,6 +345,7 @@ export function visitView(v: RecallVisit, today: string, reviewIds: string[] = [
     missedReasonLabel: status === 'missed' && v.missedReason ? MISSED_REASON_LABELS[v.missedReason as MissedReasonValue] : null,
     canUndoMissed: undoMissed(transitionView(v), today).ok,
     started: hasStarted(transitionView(v), today),
+    ofTheDay: status === 'confirmed' && v.bookedDate === today,
   };
 }
 
