@@ -1,4 +1,4 @@
-import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
+import { defineEntity, p, type EntitySchema, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
 import { TOOTH_STATUSES, type ReviewSign } from '../lib/schemas/review';
 import { PracticeSchema } from './Practice';
@@ -38,7 +38,8 @@ export const ReviewSchema = defineEntity({
     successLenient: p.boolean(),
     outcomeReasons: p.array<string>().default([]),
     /** A correction replaced this version (kept, shown as superseded; outcomes read only current versions). */
-    supersededBy: p.manyToOne(() => ReviewSchema).ref().nullable().unique().deleteRule('set null'),
+    // By name: a schema cannot name itself while it is being defined.
+    supersededBy: p.manyToOne('Review' as unknown as EntitySchema<{ id: string }>).ref().nullable().unique().deleteRule('set null'),
     supersededAt: p.datetime().nullable(),
     /** On a correction: why the earlier version was corrected, and who corrected it. */
     correctionReason: p.string().length(500).nullable(),

@@ -1,4 +1,5 @@
 import 'server-only';
+import { ref } from '@mikro-orm/core';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { RecallVisitSchema, ReviewSchema, UserSchema, type Review, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
@@ -195,7 +196,7 @@ export async function createReview(
     correctedBy: correction ? actor.userId : null,
   } as never) as Review;
   if (correction) {
-    correction.supersedes.supersededBy = em.getReference(ReviewSchema, review.id, { wrapped: true });
+    correction.supersedes.supersededBy = ref(review);
     correction.supersedes.supersededAt = new Date();
   }
 
@@ -309,7 +310,7 @@ export async function caseReviews(em: EntityManager, caseId: string): Promise<Ca
   // Outcomes read only current versions: a superseded one is kept for the record, not counted.
   const live = reviews.filter((r) => !r.supersededBy);
   const current = currentOutcome(live.map((r) => ({ daysSinceTreatment: r.daysSinceCompletion, outcome: r.outcome as ReviewOutcome })));
-  const supersedes = new Map(reviews.flatMap((r) => (r.supersededBy ? [[supersededId(r)!, r.id] as const] : [])));
+  const supersedes = new Map(reviews.flatMap((r) => (r.supersededBy ? [[r.supersededBy.id, r.id] as const] : [])));
   return {
     reviews: reviews.map((r) => ({
       id: r.id,
@@ -334,7 +335,7 @@ export async function caseReviews(em: EntityManager, caseId: string): Promise<Ca
       reasons: r.outcomeReasons,
       createdAt: r.createdAt.toISOString(),
       current: !r.supersededBy,
-      supersededBy: supersededId(r),
+      supersededBy: r.supersededBy?.id ?? null,
       supersededAt: r.supersededAt ? r.supersededAt.toISOString() : null,
       supersedes: supersedes.get(r.id) ?? null,
       correctionReason: r.correctionReason ?? null,
@@ -347,10 +348,6 @@ export async function caseReviews(em: EntityManager, caseId: string): Promise<Ca
   };
 }
 
-/** The id of the version that replaced a review (the self-reference is typed loosely by defineEntity). */
-function supersededId(r: Review): string | null {
-  return (r.supersededBy as { id: string } | null | undefined)?.id ?? null;
-}
 
 function signsPresent(signs: Partial<Record<ReviewSign, boolean>>): string[] {
   return REVIEW_SIGNS.filter((k) => signs[k] === true).map((k) => REVIEW_SIGN_LABELS[k]);
