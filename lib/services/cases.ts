@@ -629,6 +629,8 @@ function createVisits(
         windowStart: p.windowStart,
         windowEnd: p.windowEnd,
         status: p.status,
+        // A visit created past its window (a case entered late, an import) is missed because its window ended.
+        ...(p.status === 'missed' ? { missedReason: 'window_ended' } : {}),
       } as never) as RecallVisit,
   );
 }
