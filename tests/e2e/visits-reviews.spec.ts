@@ -17,6 +17,9 @@ function monthsBefore(day: string, months: number): string {
 }
 const today = new Date().toISOString().slice(0, 10);
 
+// Each test enters its own patient and case through the API first: more than the default 30 s on a busy machine.
+test.describe.configure({ timeout: 120_000 });
+
 interface Visit {
   id: string;
   milestone: number;

@@ -262,7 +262,8 @@ export default async function CasePage({ params, searchParams }: { params: Promi
             )}
             {canReview && c.completionDate && !correcting && (
               <ReviewForm
-                key={initialVisitId ?? 'unplanned'}
+                // A new "Record the review" link (another ?review=) opens a fresh form on that visit.
+                key={`${wanted ?? ''}/${initialVisitId ?? ''}`}
                 caseId={c.id}
                 visits={reviewVisits}
                 completionDate={c.completionDate}
