@@ -715,7 +715,8 @@ async function caseDetail(em: EntityManager, c: TreatmentCase, settings: Practic
       ...(r.current ? {} : { superseded: true }),
     });
   }
-  const ORDER = ['treatment-started', 'treatment-completed', 'definitive-restoration', 'review', 'visit'];
+  // On one day the visit (attended) comes before the review recorded at it.
+  const ORDER = ['treatment-started', 'treatment-completed', 'definitive-restoration', 'visit', 'review'];
   timeline.sort((a, b) => (a.date < b.date ? -1 : a.date > b.date ? 1 : ORDER.indexOf(a.type) - ORDER.indexOf(b.type)));
   return {
     id: c.id,

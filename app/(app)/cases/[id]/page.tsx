@@ -226,9 +226,11 @@ export default async function CasePage({ params, searchParams }: { params: Promi
                           </div>
                         )}
                         {canReview && r.current && (
-                          <Link href={`/cases/${c.id}?correct=${r.id}#correct-review`} className="text-xs" aria-label={`Correct the review of ${fmtDate(r.reviewDate)}`}>
-                            Correct
-                          </Link>
+                          <div>
+                            <Link href={`/cases/${c.id}?correct=${r.id}#correct-review`} className="text-xs" aria-label={`Correct the review of ${fmtDate(r.reviewDate)}`}>
+                              Correct
+                            </Link>
+                          </div>
                         )}
                       </td>
                       <td>{r.visitMilestone ? `${r.visitMilestone} months` : 'Unplanned'}</td>
