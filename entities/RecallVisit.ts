@@ -1,6 +1,6 @@
 import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
-import { VISIT_STATUSES } from '../lib/recall/status';
+import { MISSED_REASON_VALUES, VISIT_STATUSES } from '../lib/recall/status';
 import { PracticeSchema } from './Practice';
 import { TreatmentCaseSchema } from './TreatmentCase';
 import { UserSchema } from './User';
@@ -37,6 +37,12 @@ export const RecallVisitSchema = defineEntity({
     reminderRound: p.smallint().default(0),
     /** A reminder could not be delivered after its last attempt: the coordinator should call. */
     deliveryFailedAt: p.datetime().nullable(),
+    /** Why it was missed (lib/recall MISSED_REASONS, or the scan's window_ended); cleared when it leaves missed. */
+    missedReason: p.enum([...MISSED_REASON_VALUES]).nullable(),
+    /** The practice's day it was marked missed. */
+    missedOn: p.date().nullable(),
+    /** The status before a person marked it missed: "undo" the same day restores it (lib/recall undoMissed). */
+    missedFrom: p.enum([...VISIT_STATUSES]).nullable(),
     statusChangedAt: p.datetime().onCreate(() => new Date()),
     statusChangedBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
     createdAt: p.datetime().onCreate(() => new Date()),

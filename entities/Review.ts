@@ -1,4 +1,4 @@
-import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
+import { defineEntity, p, type EntitySchema, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
 import { EXTRACTION_REASONS, TOOTH_STATUSES, type ReviewSign } from '../lib/schemas/review';
 import { PracticeSchema } from './Practice';
@@ -44,6 +44,13 @@ export const ReviewSchema = defineEntity({
     successStrict: p.boolean(),
     successLenient: p.boolean(),
     outcomeReasons: p.array<string>().default([]),
+    /** A correction replaced this version (kept, shown as superseded; outcomes read only current versions). */
+    // By name: a schema cannot name itself while it is being defined.
+    supersededBy: p.manyToOne('Review' as unknown as EntitySchema<{ id: string }>).ref().nullable().unique().deleteRule('set null'),
+    supersededAt: p.datetime().nullable(),
+    /** On a correction: why the earlier version was corrected, and who corrected it. */
+    correctionReason: p.string().length(500).nullable(),
+    correctedBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
     createdAt: p.datetime().onCreate(() => new Date()),
     updatedAt: p.datetime().onCreate(() => new Date()).onUpdate(() => new Date()),
   },

@@ -16,15 +16,16 @@
  */
 import { randomUUID } from 'node:crypto';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import { ContactLogEntrySchema, type RecallVisit } from '@/entities';
 import type { RecallScanData, RemindersQueue } from '@/lib/queue';
 import { addDaysTo, type CalendarDate } from '@/lib/registry/calendar-date';
 import {
+  AWAITING_REPLY_STATUSES,
   CONTACT_STATUSES,
+  MISSED_STATUSES,
   OPEN_VISIT_STATUSES,
-  isFinalStatus,
   quietDelayMs,
   shouldCloseAsLost,
+  transitionVisit,
   stepsEntering,
   unansweredAttempts,
   type ReminderHistoryEntry,
@@ -32,7 +33,7 @@ import {
   type ReminderVisit,
   type VisitStatus,
 } from '@/lib/recall';
-import { audit } from '@/lib/services/audit';
+import { visitStatusColumns, type VisitStatusRow } from '@/lib/services/recall-common';
 import {
   EMAIL_CONSENT_SQL,
   enqueueOutbox,
@@ -46,7 +47,7 @@ import {
   type ReconcileResult,
 } from '@/lib/services/recall-outbox';
 import { todayIn } from '@/lib/services/registry-common';
-import { loadVisits, refreshNextVisit, setStatus } from '@/lib/services/visits';
+import { closeAsLost, loadVisits, refreshNextVisit } from '@/lib/services/visits';
 
 export interface ScanContext {
   em: () => EntityManager;
@@ -96,25 +97,35 @@ export async function runRecallScan(ctx: ScanContext, data: RecallScanData): Pro
   return summary;
 }
 
-/** Step 2: open visits whose window ended before today become missed. */
+/** Step 2: open visits whose window ended before today become missed (lib/recall transitionVisit, reason window_ended). */
 async function markPastDueMissed(em: EntityManager, practiceId: string, today: CalendarDate): Promise<number> {
   return em.transactional(async (tx) => {
     const knex = knexOf(tx);
     const now = new Date();
-    const rows = (await knex('recall_visit')
+    const candidates = (await knex('recall_visit')
       .where('practice_id', practiceId)
       .whereIn('status', OPEN_VISIT_STATUSES)
       .where('window_end', '<', today)
       .forUpdate()
-      .select('id', 'status', 'case_id')) as { id: string; status: VisitStatus; case_id: string }[];
+      .select('id', 'status', 'milestone', 'window_start', 'window_end', 'booked_date', 'case_id')) as (VisitStatusRow & { case_id: string })[];
+    // The rule decides each (a visit booked beyond its window stays open until its appointment).
+    const rows: (VisitStatusRow & { case_id: string; columns: Record<string, unknown> })[] = [];
+    for (const r of candidates) {
+      const t = transitionVisit(
+        { status: r.status, windowStart: r.window_start, windowEnd: r.window_end, bookedDate: r.booked_date ?? null },
+        { to: 'missed', on: today, by: 'system', missedReason: 'window_ended' },
+      );
+      if (t.ok) rows.push({ ...r, columns: visitStatusColumns(t.changes, null, now) });
+    }
     if (!rows.length) return 0;
     for (let i = 0; i < rows.length; i += 5000) {
       const chunk = rows.slice(i, i + 5000);
+      // Every change the rule gives here is the same (missed, window_ended, today): one statement.
       await knex('recall_visit')
         .whereIn('id', chunk.map((r) => r.id))
-        .update({ status: 'missed', status_changed_at: now, status_changed_by_id: null, updated_at: now });
+        .update(chunk[0]!.columns);
       await knex('contact_log_entry').insert(
-        chunk.map((r) => ({ id: randomUUID(), practice_id: practiceId, visit_id: r.id, at: now, kind: 'status_change', by: 'system', from_status: r.status, to_status: 'missed' })),
+        chunk.map((r) => ({ id: randomUUID(), practice_id: practiceId, visit_id: r.id, at: now, kind: 'status_change', by: 'system', from_status: r.status, to_status: r.columns.status as VisitStatus })),
       );
       await knex('audit_event').insert(
         chunk.map((r) => ({
@@ -138,7 +149,8 @@ async function closeUnanswered(em: EntityManager, practiceId: string, timeZone: 
   const knex = knexOf(em);
   // Candidates: enough sent messages and unanswered calls in total; the exact rule is applied below.
   const candidates = (await knex('recall_visit as v')
-    .where({ 'v.practice_id': practiceId, 'v.status': 'missed' })
+    .where('v.practice_id', practiceId)
+    .whereIn('v.status', MISSED_STATUSES)
     .whereRaw(
       `((select count(*) from reminder r where r.visit_id = v.id and r.status = 'sent') +
         (select count(*) from contact_log_entry e where e.visit_id = v.id and e.kind = 'call' and e.reached = false)) >= ?`,
@@ -168,46 +180,28 @@ async function closeUnanswered(em: EntityManager, practiceId: string, timeZone: 
   for (const c of candidates) {
     const unanswered = unansweredAttempts(byVisit.get(c.id) ?? [], policy, today, replies.get(c.id) ?? null);
     if (!shouldCloseAsLost({ status: 'missed' }, unanswered, policy)) continue;
-    closed += await closeAsLost(em.fork(), practiceId, c.id, c.case_id, today, unanswered);
+    closed += await closeLost(em.fork(), practiceId, c.id, c.case_id, today, unanswered);
   }
   return closed;
 }
 
-/** Closes one missed visit and the case's later visits that are not final (the rule of lib/services/visits.ts closeVisitAsLost). */
-async function closeAsLost(em: EntityManager, practiceId: string, visitId: string, caseId: string, today: CalendarDate, unanswered: number): Promise<number> {
+/** Closes one missed visit and the case's later visits that are not final: lib/services/visits.ts closeAsLost, the desk's routine. */
+async function closeLost(em: EntityManager, practiceId: string, visitId: string, caseId: string, today: CalendarDate, unanswered: number): Promise<number> {
   return em.transactional(async (tx) => {
     // Locked and re-checked: two scans at once (two workers) close it once.
-    const still = await knexOf(tx)('recall_visit').where({ id: visitId, status: 'missed' }).forUpdate().first('id');
+    const still = await knexOf(tx)('recall_visit').where({ id: visitId }).whereIn('status', MISSED_STATUSES).forUpdate().first('id');
     if (!still) return 0;
     const visits = await loadVisits(tx, caseId);
     const visit = visits.find((v) => v.id === visitId);
-    if (!visit || visit.status !== 'missed') return 0;
-    const closed: RecallVisit[] = [];
-    for (const v of visits) {
-      if (v.id !== visit.id && (v.milestone <= visit.milestone || isFinalStatus(v.status as VisitStatus))) continue;
-      if (v.status === 'closed') continue;
-      tx.create(ContactLogEntrySchema, {
-        practice: practiceId,
-        visit: v.id,
-        kind: 'status_change',
-        by: 'system',
-        fromStatus: v.status,
-        toStatus: 'closed',
-        note: v.id === visit.id ? `Closed as lost to follow-up after ${unanswered} unanswered attempts.` : 'Closed with an earlier visit lost to follow-up.',
-      } as never);
-      setStatus(v, 'closed', null);
-      v.lostToFollowUp = true;
-      v.closedOn = today;
-      closed.push(v);
-    }
-    await tx.flush();
-    await refreshNextVisit(tx, [caseId]);
-    await audit(
-      tx,
-      null,
-      { action: 'visit.closed_lost', entityType: 'visit', entityId: visit.id, detail: { by: 'recall-scan', caseId, visitIds: closed.map((v) => v.id), unanswered } },
-      { practiceId },
-    );
+    if (!visit || !MISSED_STATUSES.includes(visit.status as VisitStatus)) return 0;
+    await closeAsLost(tx, null, {
+      practiceId,
+      visitId,
+      visits,
+      today,
+      note: `Closed as lost to follow-up after ${unanswered} unanswered attempts.`,
+      detail: { unanswered },
+    });
     return 1;
   });
 }
@@ -223,7 +217,7 @@ async function queueSteps(ctx: ScanContext, practiceId: string, timeZone: string
     .where('v.practice_id', practiceId)
     .whereIn('v.status', CONTACT_STATUSES)
     .where('v.window_end', '>=', today)
-    .where((b) => b.where('v.status', 'invited').orWhere('v.due_date', '<=', horizon))
+    .where((b) => b.whereIn('v.status', AWAITING_REPLY_STATUSES).orWhere('v.due_date', '<=', horizon))
     .select('v.id', 'v.status', 'v.due_date', 'v.window_end', 'v.reminder_round', knex.raw(`${EMAIL_CONSENT_SQL} as consent`))) as {
     id: string;
     status: VisitStatus;

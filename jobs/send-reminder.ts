@@ -55,7 +55,7 @@ import { JOBS, parseJobData, type SendReminderData } from '@/lib/queue';
 import { CONTACT_STATUSES, needsContact, quietDelayMs, type ReminderStep } from '@/lib/recall/reminders';
 import { messageWording } from '@/lib/recall/wording';
 import { isPastDue } from '@/lib/recall/plan';
-import type { VisitStatus } from '@/lib/recall/status';
+import { INVITED_BY_MESSAGE_STATUSES, statusSql, transitionVisit, type VisitStatus } from '@/lib/recall/status';
 import { issueReplyToken, issueUnsubscribeToken } from '@/lib/recall/reply-token';
 import { appointmentAttachment } from '@/lib/calendar/ics';
 import { listUnsubscribeHeaders, reminderSubject } from '@/lib/mail/templates/ReminderEmail';
@@ -130,7 +130,7 @@ type Claim =
   | { kind: 'send'; row: ClaimRow; uncertain: boolean };
 
 /** The visit statuses that still need contact (lib/recall/reminders), as an SQL list. */
-const CONTACT_STATUSES_SQL = CONTACT_STATUSES.map((s) => `'${s}'`).join(', ');
+const CONTACT_STATUSES_SQL = statusSql(CONTACT_STATUSES);
 
 function selectRow(ctx: SendContext, data: SendReminderData): Promise<ClaimRow | undefined> {
   const knex = knexOf(ctx.em());
@@ -228,7 +228,7 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
          from recall_visit v, treatment_case c, patient p
         where r.id = ? and r.status = ? and r.claim_expires_at is not distinct from ?
           and v.id = r.visit_id and c.id = v.case_id and p.id = c.patient_id
-          and v.status in (${CONTACT_STATUSES_SQL}) and r.round = v.reminder_round and ${EMAIL_CONSENT_SQL}
+          and v.status in ${CONTACT_STATUSES_SQL} and r.round = v.reminder_round and ${EMAIL_CONSENT_SQL}
         returning r.id`,
       [new Date(now.getTime() + ctx.leaseMs), now, row.id, row.status, row.claim_expires_at],
     );
@@ -304,6 +304,17 @@ export function appointmentWords(start: Date, timeZone: string): string {
 }
 
 /**
+ * A sent reminder moves a visit in INVITED_BY_MESSAGE_STATUSES (planned) to what lib/recall
+ * transitionVisit gives for 'invited' — checked once here, so the SQL below writes the rule's columns.
+ */
+const INVITE_FROM_SQL = statusSql(INVITED_BY_MESSAGE_STATUSES);
+const SENT = (() => {
+  const t = transitionVisit({ status: INVITED_BY_MESSAGE_STATUSES[0]!, windowStart: '0000-01-01', windowEnd: '9999-12-31' }, { to: 'invited', on: '0000-01-01', by: 'system' });
+  if (!t.ok) throw new Error(`A sent reminder cannot invite: ${t.message}`);
+  return t.changes;
+})();
+
+/**
  * sending → sent, with the visit (planned → invited, delivery flag cleared), the contact log and
  * the audit trail, in one SQL statement (atomic without a transaction round trip).
  */
@@ -318,10 +329,10 @@ async function finish(ctx: SendContext, row: ClaimRow, step: ReminderStep, messa
      b as (select v.id, v.status, v.case_id from recall_visit v join r on v.id = r.visit_id for update of v),
      v as (
        update recall_visit v
-          set status = case when b.status = 'planned' then 'invited' else v.status end,
-              status_changed_at = case when b.status = 'planned' then ? else v.status_changed_at end,
-              status_changed_by_id = case when b.status = 'planned' then null else v.status_changed_by_id end,
-              reinvite_needed = case when b.status = 'planned' then false else v.reinvite_needed end,
+          set status = case when b.status in ${INVITE_FROM_SQL} then ? else v.status end,
+              status_changed_at = case when b.status in ${INVITE_FROM_SQL} then ? else v.status_changed_at end,
+              status_changed_by_id = case when b.status in ${INVITE_FROM_SQL} then null else v.status_changed_by_id end,
+              reinvite_needed = case when b.status in ${INVITE_FROM_SQL} then ? else v.reinvite_needed end,
               delivery_failed_at = null, updated_at = ?
          from b where v.id = b.id
        returning b.status as before, v.case_id),
@@ -330,22 +341,22 @@ async function finish(ctx: SendContext, row: ClaimRow, step: ReminderStep, messa
        select ?, r.practice_id, r.visit_id, ?, 'message_sent', 'system', r.id, r.step from r),
      status_log as (
        insert into contact_log_entry (id, practice_id, visit_id, "at", kind, "by", from_status, to_status)
-       select ?, r.practice_id, r.visit_id, ?, 'status_change', 'system', 'planned', 'invited' from r join b on b.id = r.visit_id where b.status = 'planned'),
+       select ?, r.practice_id, r.visit_id, ?, 'status_change', 'system', b.status, ? from r join b on b.id = r.visit_id where b.status in ${INVITE_FROM_SQL}),
      trail as (
        insert into audit_event (id, "at", practice_id, action, entity_type, entity_id, detail)
        select ?, ?, r.practice_id, 'recall.reminder_sent', 'visit', r.visit_id::text, cast(? as jsonb) from r)
      select (select count(*) from r)::int as updated, (select before from v) as before, (select case_id from v) as case_id`,
     [
       messageId, now, todayIn(row.time_zone, now), now, row.id,
-      now, now,
+      SENT.status, now, SENT.reinviteNeeded ?? false, now,
       randomUUID(), now,
-      randomUUID(), new Date(now.getTime() + 1),
+      randomUUID(), new Date(now.getTime() + 1), SENT.status,
       randomUUID(), now, JSON.stringify({ reminderId: row.id, step, how }),
     ],
   )) as { rows: { updated: number; before: string | null; case_id: string | null }[] };
   const r = result.rows[0];
   // The case's next-visit summary (a trigger keeps it too, where the registry's migration installed one).
-  if (r?.updated && r.before === 'planned' && r.case_id) await refreshNextVisit(em, [r.case_id]);
+  if (r?.updated && r.before && INVITED_BY_MESSAGE_STATUSES.includes(r.before as VisitStatus) && r.case_id) await refreshNextVisit(em, [r.case_id]);
 }
 
 /** Puts a claim back after an attempt that did not send: `queued` when the relay said no, `sending` (expired) when unknown. */

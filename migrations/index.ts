@@ -9,6 +9,7 @@ import { Migration20261201230524 } from './Migration20261201230524';
 import { Migration20261201232637 } from './Migration20261201232637';
 import { Migration20261202100000 } from './Migration20261202100000';
 import { Migration20261202110000 } from './Migration20261202110000';
+import { Migration20261202120000 } from './Migration20261202120000';
 import { Migration20261202130000 } from './Migration20261202130000';
 
 export const migrationsList: MigrationObject[] = [
@@ -18,5 +19,6 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261201232637', class: Migration20261201232637 },
   { name: 'Migration20261202100000', class: Migration20261202100000 },
   { name: 'Migration20261202110000', class: Migration20261202110000 },
+  { name: 'Migration20261202120000', class: Migration20261202120000 },
   { name: 'Migration20261202130000', class: Migration20261202130000 },
 ];

@@ -38,7 +38,7 @@ import { addDaysTo, compareDates, type CalendarDate } from '@/lib/registry/calen
 import type { RecallPolicy } from '@/lib/schemas/recall-policy';
 import type { QuietHours, ReminderPolicy } from '@/lib/schemas/reminder-policy';
 import { isPastDue } from './plan';
-import type { VisitStatus } from './status';
+import { needsContact, type VisitStatus } from './status';
 import { isReminderStep, type ReminderStep } from './steps';
 
 // The step vocabulary has a zod-free home of its own, so screens can import it without the schemas.
@@ -52,12 +52,8 @@ export {
   type QuietHours,
 } from '@/lib/schemas/reminder-policy';
 
-/** Statuses that still need contact: not yet invited, or invited without an answer. */
-export const CONTACT_STATUSES: readonly VisitStatus[] = ['planned', 'invited'];
-
-export function needsContact(status: VisitStatus): boolean {
-  return CONTACT_STATUSES.includes(status);
-}
+// The statuses that still need contact live with the other status lists (status.ts).
+export { CONTACT_STATUSES, needsContact } from './status';
 
 /** What the reminder rules need to know about a visit. */
 export interface ReminderVisit<Id = string> {

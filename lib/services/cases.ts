@@ -261,7 +261,7 @@ async function caseRowsByIds(em: EntityManager, ids: string[], notation: ToothNo
         'p.family_name',
         'p.archived_at as patient_archived_at',
       ),
-    knex('review').whereIn('case_id', ids).select('case_id', 'days_since_completion', 'outcome'),
+    knex('review').whereIn('case_id', ids).whereNull('superseded_by_id').select('case_id', 'days_since_completion', 'outcome'),
   ]);
   const reviewsOf = new Map<string, { daysSinceTreatment: number; outcome: ReviewOutcome }[]>();
   for (const r of reviews as { case_id: string; days_since_completion: number; outcome: ReviewOutcome }[]) {
@@ -315,6 +315,10 @@ export interface TimelineEntry {
   refId?: string;
   visitStatus?: VisitStatus;
   outcome?: ReviewOutcome;
+  /** A review's findings (signs, other findings), or why it is superseded. */
+  detail?: string;
+  /** An earlier version of a review, replaced by a correction. */
+  superseded?: boolean;
 }
 
 export interface CaseDetail {
@@ -344,6 +348,8 @@ export interface CaseDetail {
   reviews: ReviewView[];
   currentOutcome: ReviewOutcome | null;
   currentOutcomeLabel: string | null;
+  /** The outcome of the latest current review: with "disease" the case page says no next step is recorded. */
+  latestOutcome: ReviewOutcome | null;
   /** Show beside computed outcomes and classes. */
   caution: string;
   timeline: TimelineEntry[];
@@ -623,6 +629,8 @@ function createVisits(
         windowStart: p.windowStart,
         windowEnd: p.windowEnd,
         status: p.status,
+        // A visit created past its window (a case entered late, an import) is missed because its window ended.
+        ...(p.status === 'missed' ? { missedReason: 'window_ended' } : {}),
       } as never) as RecallVisit,
   );
 }
@@ -665,6 +673,10 @@ async function checkReferences(em: EntityManager, actor: Actor, input: CaseCreat
   if (Object.keys(fieldErrors).length) throw new ValidationError('Some fields need attention.', fieldErrors);
 }
 
+function reasonOf(reviews: readonly ReviewView[], id: string | null): string {
+  return reviews.find((x) => x.id === id)?.correctionReason ?? '—';
+}
+
 async function caseDetail(em: EntityManager, c: TreatmentCase, settings: PracticeSettings): Promise<CaseDetail> {
   const [patient, operator, referrer, visits, reviews] = await Promise.all([
     em.findOneOrFail(PatientSchema, c.patient.id),
@@ -693,9 +705,18 @@ async function caseDetail(em: EntityManager, c: TreatmentCase, settings: Practic
     });
   }
   for (const r of reviews.reviews) {
-    timeline.push({ date: r.reviewDate, type: 'review', title: `Review: ${r.outcomeLabel.toLowerCase()}`, refId: r.id, outcome: r.outcome });
+    timeline.push({
+      date: r.reviewDate,
+      type: 'review',
+      title: `Review: ${r.outcomeLabel.toLowerCase()}${r.current ? (r.supersedes ? ' (corrected)' : '') : ' (superseded)'}`,
+      refId: r.id,
+      outcome: r.outcome,
+      detail: r.current ? r.findings : `Superseded by a correction: ${reasonOf(reviews.reviews, r.supersededBy)}`,
+      ...(r.current ? {} : { superseded: true }),
+    });
   }
-  const ORDER = ['treatment-started', 'treatment-completed', 'definitive-restoration', 'review', 'visit'];
+  // On one day the visit (attended) comes before the review recorded at it.
+  const ORDER = ['treatment-started', 'treatment-completed', 'definitive-restoration', 'visit', 'review'];
   timeline.sort((a, b) => (a.date < b.date ? -1 : a.date > b.date ? 1 : ORDER.indexOf(a.type) - ORDER.indexOf(b.type)));
   return {
     id: c.id,
@@ -733,6 +754,7 @@ async function caseDetail(em: EntityManager, c: TreatmentCase, settings: Practic
     reviews: reviews.reviews,
     currentOutcome: reviews.currentOutcome,
     currentOutcomeLabel: reviews.currentOutcome ? OUTCOME_LABELS[reviews.currentOutcome] : null,
+    latestOutcome: reviews.latestOutcome,
     caution: SCORING_CAUTION,
     timeline,
     source: c.source as 'form' | 'import' | 'demo',

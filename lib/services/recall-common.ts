@@ -5,7 +5,7 @@ import type { Knex } from '@mikro-orm/knex';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { ContactBy, ContactKind, ReplyAnswer } from '@/entities';
 import type { ReminderPolicy, ReminderStep } from '@/lib/recall/reminders';
-import type { VisitStatus } from '@/lib/recall/status';
+import { transitionVisit, type MissedReasonValue, type TransitionRequest, type TransitionResult, type VisitStatus, type VisitStatusChanges } from '@/lib/recall/status';
 import type { ToothNotation } from '@/lib/teeth';
 import { NotFoundError } from './errors';
 import { EMAIL_CONSENT_SQL, reminderPolicyOf } from './recall-outbox';
@@ -66,6 +66,9 @@ export interface DeskVisit {
   proposed_start: string | null;
   delivery_failed_at: string | null;
   reminder_round: number;
+  missed_reason: MissedReasonValue | null;
+  missed_on: string | null;
+  missed_from: VisitStatus | null;
   patient_id: string;
   given_name: string;
   family_name: string;
@@ -95,6 +98,9 @@ export async function visitsOfPractice(em: EntityManager, practiceId: string, id
       'v.proposed_start',
       'v.delivery_failed_at',
       'v.reminder_round',
+      'v.missed_reason',
+      'v.missed_on',
+      'v.missed_from',
       'p.id as patient_id',
       'p.given_name',
       'p.family_name',
@@ -156,19 +162,65 @@ export async function logContact(em: EntityManager | Knex, entries: readonly Log
   );
 }
 
-/** Sets a visit's status (and who/when) with raw SQL in the caller's transaction. */
-export async function setVisitStatus(em: EntityManager, visitId: string, to: VisitStatus, userId: string | null, extra: Record<string, unknown> = {}) {
-  const now = new Date();
-  await knexOf(em)('recall_visit')
-    .where({ id: visitId })
-    .update({
-      status: to,
-      status_changed_at: now,
-      status_changed_by_id: userId,
-      updated_at: now,
-      ...(to === 'invited' || to === 'confirmed' ? { reinvite_needed: false } : {}),
-      ...extra,
-    });
+/** The recall_visit columns of a status change from lib/recall transitionVisit. */
+export function visitStatusColumns(changes: VisitStatusChanges, userId: string | null, now: Date = new Date()): Record<string, unknown> {
+  return {
+    status: changes.status,
+    status_changed_at: now,
+    status_changed_by_id: userId,
+    updated_at: now,
+    missed_reason: changes.missedReason,
+    missed_on: changes.missedOn,
+    missed_from: changes.missedFrom,
+    ...(changes.reinviteNeeded === false ? { reinvite_needed: false } : {}),
+  };
+}
+
+/** The fields of a desk row (or any raw visit row) that lib/recall transitionVisit reads. */
+export interface VisitStatusRow {
+  id: string;
+  status: VisitStatus;
+  milestone?: number;
+  window_start: string;
+  window_end: string;
+  booked_date?: string | null;
+  missed_reason?: MissedReasonValue | null;
+  missed_on?: string | null;
+  missed_from?: VisitStatus | null;
+}
+
+/**
+ * Moves a visit row through lib/recall transitionVisit with SQL, in the caller's transaction (the
+ * row-locked side of the one rule; lib/services/visits.ts changeVisitStatus is the ORM side).
+ * A refusal changes nothing and is returned for the caller to report; `extra` columns are written
+ * with the change. The caller writes the contact-log entry.
+ */
+export async function setVisitStatus(
+  em: EntityManager,
+  visit: VisitStatusRow,
+  req: TransitionRequest,
+  userId: string | null,
+  extra: Record<string, unknown> = {},
+): Promise<TransitionResult> {
+  const result = transitionVisit(
+    {
+      status: visit.status,
+      milestone: visit.milestone,
+      windowStart: visit.window_start,
+      windowEnd: visit.window_end,
+      bookedDate: visit.booked_date ?? null,
+      missedReason: visit.missed_reason ?? null,
+      missedOn: visit.missed_on ?? null,
+      missedFrom: visit.missed_from ?? null,
+    },
+    req,
+  );
+  if (result.ok) {
+    await knexOf(em)('recall_visit')
+      .where({ id: visit.id })
+      .update({ ...visitStatusColumns(result.changes, userId), ...extra });
+  }
+  return result;
 }
 
 export function iso(value: string | Date | null | undefined): string | null {

@@ -5,13 +5,18 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Knex } from '@mikro-orm/knex';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import {
+  AWAITING_REPLY_STATUSES,
   CONTACT_STATUSES,
+  FINAL_VISIT_STATUSES,
   MAX_REMINDER_ROUND,
+  MISSED_REASONS,
+  MISSED_REASON_LABELS,
+  MISSED_STATUSES,
   REMINDER_STEP_LABELS,
   VISIT_STATUS_LABELS,
-  canTransition,
   needsContact,
   nextStepNow,
+  statusSql,
   quietDelayMs,
   type ReminderStep,
   type SentStep,
@@ -88,7 +93,7 @@ export const DESK_QUEUE_INFO: Record<DeskQueue, { label: string; definition: str
   this_month: { label: 'Due this month', definition: 'Every visit due this calendar month, whatever its status.' },
 };
 
-const FINAL = `('attended', 'cancelled', 'closed')`;
+const FINAL = statusSql(FINAL_VISIT_STATUSES);
 const LATEST_BY = `(select e.by from contact_log_entry e where e.visit_id = v.id order by e.at desc, e.id desc limit 1)`;
 
 /** The SQL condition of each queue on recall_visit v, c its case and p its patient. */
@@ -113,7 +118,7 @@ function queueCondition(queue: DeskQueue, s: Pick<RecallSettings, 'today' | 'rem
     }
     case 'awaiting_reply':
       return {
-        sql: `v.status = 'invited' and exists (select 1 from reminder r where r.visit_id = v.id and r.status = 'sent'
+        sql: `v.status in ${statusSql(AWAITING_REPLY_STATUSES)} and exists (select 1 from reminder r where r.visit_id = v.id and r.status = 'sent'
                 and not exists (select 1 from contact_log_entry e where e.visit_id = v.id and e.kind = 'reply' and e.at >= r.sent_at))`,
         bindings: [],
       };
@@ -122,7 +127,7 @@ function queueCondition(queue: DeskQueue, s: Pick<RecallSettings, 'today' | 'rem
     case 'delivery_failed':
       return { sql: `v.delivery_failed_at is not null and v.status not in ${FINAL}`, bindings: [] };
     case 'missed':
-      return { sql: `v.status = 'missed'`, bindings: [] };
+      return { sql: `v.status in ${statusSql(MISSED_STATUSES)}`, bindings: [] };
   }
 }
 
@@ -551,13 +556,12 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
         }
         results.push({ visitId: v.id, visit, ok: true, outcome: 'proposed', message: `Proposed ${words}.${input.sendNow ? '' : ' The next reminder will carry it.'}` });
       } else {
-        if (v.status !== 'confirmed' && !canTransition(v.status, 'confirmed')) {
+        const extra = { booked_date: day, proposed_start: start, delivery_failed_at: null };
+        if (v.status === 'confirmed') await knexOf(tx)('recall_visit').where({ id: v.id }).update({ ...extra, updated_at: new Date() });
+        else if (!(await setVisitStatus(tx, v, { to: 'confirmed', on: s.today, by: 'user' }, actor.userId, extra)).ok) {
           results.push({ visitId: v.id, visit, ok: false, outcome: 'refused', message: `A visit that is ${VISIT_STATUS_LABELS[v.status].toLowerCase()} cannot be booked.` });
           continue;
         }
-        const extra = { booked_date: day, proposed_start: start, delivery_failed_at: null };
-        if (v.status === 'confirmed') await knexOf(tx)('recall_visit').where({ id: v.id }).update({ ...extra, updated_at: new Date() });
-        else await setVisitStatus(tx, v.id, 'confirmed', actor.userId, extra);
         await logContact(tx, [
           { ...base, kind: 'appointment', note: `Booked by phone for ${words}.${input.note ? ` ${input.note}` : ''}` },
           ...(v.status !== 'confirmed' ? [{ ...base, kind: 'status_change' as const, fromStatus: v.status, toStatus: 'confirmed' as const }] : []),
@@ -595,20 +599,29 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
   return deferred ? { results, deferred } : { results };
 }
 
-export const MarkInput = z.object({
-  visitIds: VisitIds,
-  status: z.enum(['attended', 'missed'], { error: 'status is attended or missed.' }),
-  note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000 }).optional()),
-});
+export const MarkInput = z
+  .object({
+    visitIds: VisitIds,
+    status: z.enum(['attended', 'missed'], { error: 'status is attended or missed.' }),
+    /** With missed: why (no-show, cancelled late, unreachable). */
+    reason: z.enum(MISSED_REASONS, { error: `reason is one of ${MISSED_REASONS.join(', ')}.` }).optional(),
+    note: z.preprocess((v) => (v === '' ? undefined : v), text({ max: 1000 }).optional()),
+  })
+  .refine((v) => v.status !== 'missed' || v.reason !== undefined, {
+    path: ['reason'],
+    message: 'Say why the visits were missed: no-show, cancelled late or unreachable.',
+  });
 
 /**
- * Marks visits attended or missed, each only along lib/recall VISIT_TRANSITIONS (a visit that may
- * not make the move is reported and left as it is). A status-change entry goes to each contact
- * log; a delivery-failed flag is cleared.
+ * Marks visits attended or missed (missed with a reason), each through lib/recall
+ * transitionVisit: along the status table and only once the appointment or window has begun (a
+ * visit that may not make the move is reported with the rule's message and left as it is). A
+ * status-change entry goes to each contact log; a delivery-failed flag is cleared.
  */
 export async function markVisits(em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> {
   assertCan(actor, 'recall.manage');
   const input = parseInput(MarkInput, raw);
+  const s = await recallSettings(em, actor.practiceId);
   const results: ActionResult[] = [];
   await em.transactional(async (tx) => {
     const visits = await visitsOfPractice(tx, actor.practiceId, input.visitIds, true);
@@ -619,26 +632,30 @@ export async function markVisits(em: EntityManager, actor: Actor, raw: unknown):
         results.push({ visitId: v.id, visit, ok: true, outcome: 'marked', message: `Already ${VISIT_STATUS_LABELS[v.status].toLowerCase()}.` });
         continue;
       }
-      if (!canTransition(v.status, input.status)) {
-        results.push({
-          visitId: v.id,
-          visit,
-          ok: false,
-          outcome: 'refused',
-          message: `A visit that is ${VISIT_STATUS_LABELS[v.status].toLowerCase()} cannot become ${VISIT_STATUS_LABELS[input.status].toLowerCase()}.`,
-        });
+      const moved = await setVisitStatus(tx, v, { to: input.status, on: s.today, by: 'user', missedReason: input.reason ?? null }, actor.userId, { delivery_failed_at: null });
+      if (!moved.ok) {
+        results.push({ visitId: v.id, visit, ok: false, outcome: 'refused', message: moved.message });
         continue;
       }
-      await setVisitStatus(tx, v.id, input.status, actor.userId, { delivery_failed_at: null });
+      const why = input.status === 'missed' && input.reason ? MISSED_REASON_LABELS[input.reason] : null;
       await logContact(tx, [
-        { practiceId: actor.practiceId, visitId: v.id, kind: 'status_change', by: 'user', userId: actor.userId, fromStatus: v.status, toStatus: input.status, note: input.note ?? null },
+        {
+          practiceId: actor.practiceId,
+          visitId: v.id,
+          kind: 'status_change',
+          by: 'user',
+          userId: actor.userId,
+          fromStatus: v.status,
+          toStatus: input.status,
+          note: [why, input.note].filter(Boolean).join('. ') || null,
+        },
       ]);
       cases.push(v.case_id);
       results.push({ visitId: v.id, visit, ok: true, outcome: 'marked', message: `Marked ${VISIT_STATUS_LABELS[input.status].toLowerCase()}.` });
     }
     await refreshNextVisit(tx, [...new Set(cases)]);
   });
-  await audit(em, actor, { action: 'recall.marked', detail: { status: input.status, visitIds: results.filter((r) => r.ok).map((r) => r.visitId) } });
+  await audit(em, actor, { action: 'recall.marked', detail: { status: input.status, ...(input.reason ? { reason: input.reason } : {}), visitIds: results.filter((r) => r.ok).map((r) => r.visitId) } });
   return { results };
 }
 

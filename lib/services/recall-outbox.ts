@@ -23,6 +23,7 @@ import {
   type ReminderStep,
   type SentStep,
 } from '@/lib/recall/reminders';
+import { CONTACT_STATUSES } from '@/lib/recall/status';
 import type { CalendarDate } from '@/lib/registry/calendar-date';
 import type { ReminderStatus } from '@/entities';
 import { env } from '@/lib/env';
@@ -313,7 +314,7 @@ export async function markReminderFailed(em: EntityManager, reminderId: string, 
       .returning(['id', 'practice_id', 'visit_id', 'step'])) as { id: string; practice_id: string; visit_id: string; step: ReminderStep }[];
     if (!row) return false;
     // Flag the visit only while it still needs contact (not if it was booked by phone meanwhile).
-    await knex('recall_visit').where({ id: row.visit_id }).whereIn('status', ['planned', 'invited']).update({ delivery_failed_at: now, updated_at: now });
+    await knex('recall_visit').where({ id: row.visit_id }).whereIn('status', CONTACT_STATUSES).update({ delivery_failed_at: now, updated_at: now });
     await knex('contact_log_entry').insert({
       id: randomUUID(),
       practice_id: row.practice_id,

@@ -5,7 +5,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { REPLY_ANSWERS, type ReplyAnswer } from '@/entities';
 import { env } from '@/lib/env';
 import type { Origin } from '@/lib/auth/origin';
-import { canTransition, isFinalStatus, isOpenStatus, type VisitStatus } from '@/lib/recall';
+import { isFinalStatus, isOpenStatus, type VisitStatus } from '@/lib/recall';
 import {
   LINK_REFUSAL_MESSAGES,
   deriveLinkSecret,
@@ -18,7 +18,7 @@ import { dueMonth } from '@/lib/mail/templates/ReminderEmail';
 import { recallConsent } from '@/lib/schemas/patient';
 import { audit } from './audit';
 import { parseInput } from './parse';
-import { logContact, setVisitStatus } from './recall-common';
+import { logContact, setVisitStatus, type VisitStatusRow } from './recall-common';
 import { knexOf, todayIn } from './registry-common';
 import { refreshNextVisit } from './visits';
 
@@ -59,6 +59,9 @@ interface LinkedVisit {
   milestone: number;
   status: VisitStatus;
   due_date: string;
+  window_start: string;
+  window_end: string;
+  booked_date: string | null;
   proposed_start: string | null;
   practice_name: string;
   time_zone: string;
@@ -79,6 +82,9 @@ async function linkedVisit(em: EntityManager, visitId: string, lock = false): Pr
       'v.milestone',
       'v.status',
       'v.due_date',
+      'v.window_start',
+      'v.window_end',
+      'v.booked_date',
       'v.proposed_start',
       'pr.name as practice_name',
       'pr.time_zone',
@@ -168,8 +174,10 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
     if (input.answer === 'confirmed') {
       const proposed = visit.proposed_start ? new Date(visit.proposed_start) : null;
       const booked = proposed && proposed.getTime() > now.getTime() ? todayIn(visit.time_zone, proposed) : null;
-      if (visit.status !== 'confirmed' && canTransition(visit.status, 'confirmed')) {
-        await setVisitStatus(tx, visit.id, 'confirmed', null, { ...(booked ? { booked_date: booked } : {}), delivery_failed_at: null });
+      const confirmed =
+        visit.status !== 'confirmed' &&
+        (await setVisitStatus(tx, visit, { to: 'confirmed', on: todayIn(visit.time_zone, now), by: 'patient' }, null, { ...(booked ? { booked_date: booked } : {}), delivery_failed_at: null })).ok;
+      if (confirmed) {
         entries.push({ ...base, kind: 'status_change', fromStatus: visit.status, toStatus: 'confirmed' });
         changed.push(visit.id);
       } else if (booked) {
@@ -177,7 +185,7 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
       }
     } else if (input.answer === 'another_time') {
       if (visit.status === 'confirmed') {
-        await setVisitStatus(tx, visit.id, 'invited', null, { booked_date: null, proposed_start: null });
+        await setVisitStatus(tx, visit, { to: 'invited', on: dateIn(now, visit.time_zone), by: 'patient' }, null, { booked_date: null, proposed_start: null });
         entries.push({ ...base, kind: 'status_change', fromStatus: 'confirmed', toStatus: 'invited' });
         changed.push(visit.id);
       } else {
@@ -188,11 +196,11 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
         .where('case_id', visit.case_id)
         .where((b) => b.where('id', visit.id).orWhere('milestone', '>', visit.milestone))
         .forUpdate()
-        .select('id', 'status')) as { id: string; status: VisitStatus }[];
+        .select('id', 'status', 'milestone', 'window_start', 'window_end', 'booked_date')) as VisitStatusRow[];
       for (const v of visits) {
-        const applies = v.id === visit.id ? canTransition(v.status, 'declined') : isOpenStatus(v.status);
-        if (!applies) continue;
-        await setVisitStatus(tx, v.id, 'declined', null, { proposed_start: null });
+        if (v.id !== visit.id && !isOpenStatus(v.status)) continue;
+        const declined = await setVisitStatus(tx, v, { to: 'declined', on: dateIn(now, visit.time_zone), by: 'patient' }, null, { proposed_start: null });
+        if (!declined.ok) continue;
         entries.push({ ...base, visitId: v.id, kind: 'status_change', fromStatus: v.status, toStatus: 'declined', note: v.id === visit.id ? null : 'Declined with an earlier visit.' });
         changed.push(v.id);
       }

@@ -1,11 +1,15 @@
 import 'server-only';
+import { ref } from '@mikro-orm/core';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { RecallVisitSchema, ReviewSchema, UserSchema, type Review, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { isOpenStatus, type VisitStatus } from '@/lib/recall';
+import { daysBetween } from '@/lib/registry/calendar-date';
+import { ReviewCorrectionReason } from '@/lib/schemas/review-correction';
 import {
   EXTRACTION_REASON_LABELS,
   REVIEW_SIGNS,
+  REVIEW_SIGN_LABELS,
   ReviewCreateSchema,
   TOOTH_STATUS_LABELS,
   type ExtractionReason,
@@ -22,10 +26,10 @@ import {
   type ReviewOutcome,
 } from '@/lib/scoring';
 import { audit } from './audit';
-import { ConflictError, ValidationError } from './errors';
+import { ConflictError, NotFoundError, ValidationError } from './errors';
 import { parseInput } from './parse';
-import { assertClinician, bodyId, findCase, practiceSettings, todayIn } from './registry-common';
-import { assertTransition, loadVisits, setVisitSummary, setStatus, visitViews, type VisitView } from './visits';
+import { assertClinician, assertId, bodyId, findCase, practiceSettings, todayIn } from './registry-common';
+import { changeVisitStatus, loadVisits, setVisitSummary, visitViews, type VisitView } from './visits';
 
 export interface ReviewView {
   id: string;
@@ -41,6 +45,10 @@ export interface ReviewView {
   paiScore: number | null;
   lesionDiameterMm: number | null;
   signs: Partial<Record<ReviewSign, boolean>>;
+  /** Labels of the signs recorded as present, in the form's order. */
+  signsPresent: string[];
+  /** One line of the findings for tables and the timeline: signs present (or none), other findings. */
+  findings: string;
   otherFindings: string | null;
   /** The day of the extraction, retreatment or surgery when it is not the review date. */
   eventDate: string | null;
@@ -53,10 +61,22 @@ export interface ReviewView {
   successLenient: boolean;
   reasons: string[];
   createdAt: string;
+  /** False for an earlier version a correction replaced (kept and shown as superseded; outcomes ignore it). */
+  current: boolean;
+  /** On a superseded version: the correction that replaced it, and when. */
+  supersededBy: string | null;
+  supersededAt: string | null;
+  /** On a correction: the version it replaced, why, and who corrected it. */
+  supersedes: string | null;
+  correctionReason: string | null;
+  correctedBy: { id: string; name: string | null } | null;
 }
 
 export interface CaseReviews {
+  /** Every version, oldest first; superseded versions have current false. */
   reviews: ReviewView[];
+  /** The outcome of the latest current review (by date), or null: "disease" with no next step recorded is shown as such. */
+  latestOutcome: ReviewOutcome | null;
   /** The case's current outcome (lib/scoring currentOutcome); null before the first review. */
   currentOutcome: ReviewOutcome | null;
   currentOutcomeLabel: string | null;
@@ -110,6 +130,7 @@ export async function createReview(
   actor: Actor,
   caseId: string,
   raw: unknown,
+  correction?: { supersedes: Review; reason: string },
 ): Promise<{ review: ReviewView; visits: VisitView[]; currentOutcome: ReviewOutcome | null; caution: string }> {
   assertCan(actor, 'review.write');
   const c = await findCase(em, actor, caseId);
@@ -126,13 +147,15 @@ export async function createReview(
   await assertClinician(em, actor.practiceId, input.assessorId, 'assessorId');
 
   const visits = await loadVisits(em, c.id);
+  const who = { practiceId: actor.practiceId, userId: actor.userId };
   const visitId = bodyId(input.visitId, 'visitId', 'Choose one of this case’s visits.');
   if (visitId) {
     const visit = visits.find((v) => v.id === visitId);
     if (!visit) throw new ValidationError('Some fields need attention.', { visitId: ['Choose one of this case’s visits.'] });
+    // Recording the review at a visit marks it attended in the same step (the patient is in the chair),
+    // by the one rule: refused for a visit whose appointment or window begins after the review date.
     if (visit.status !== 'attended') {
-      assertTransition(visit.status as VisitStatus, 'attended');
-      setStatus(visit, 'attended', actor.userId);
+      changeVisitStatus(em, visit, { to: 'attended', on: input.reviewDate, by: 'user' }, who, 'Attended: review recorded.');
     }
   }
 
@@ -169,26 +192,45 @@ export async function createReview(
     successStrict: assessment.successStrict,
     successLenient: assessment.successLenient,
     outcomeReasons: assessment.reasons,
+    correctionReason: correction?.reason ?? null,
+    correctedBy: correction ? actor.userId : null,
   } as never) as Review;
+  if (correction) {
+    correction.supersedes.supersededBy = ref(review);
+    correction.supersedes.supersededAt = new Date();
+  }
 
   const cancelled: string[] = [];
   if (TERMINAL_EVENT_OF_STATUS[input.toothStatus]) {
     for (const v of visits) {
       if (v.id !== visitId && isOpenStatus(v.status as VisitStatus)) {
-        setStatus(v, 'cancelled', actor.userId);
-        v.note ??= `Cancelled: ${TOOTH_STATUS_LABELS[input.toothStatus].toLowerCase()} at the review of ${input.reviewDate}.`;
+        const why = `Cancelled: ${TOOTH_STATUS_LABELS[input.toothStatus].toLowerCase()} at the review of ${input.reviewDate}.`;
+        changeVisitStatus(em, v, { to: 'cancelled', on: today, by: 'user' }, who, why);
+        v.note ??= why;
         cancelled.push(v.id);
       }
     }
   }
   setVisitSummary(c, visits);
   await em.flush();
-  await audit(em, actor, {
-    action: 'review.created',
-    entityType: 'review',
-    entityId: review.id,
-    detail: { caseId: c.id, visitId: visitId ?? null, outcome: assessment.outcome, cancelledVisits: cancelled },
-  });
+  if (correction) {
+    const old = correction.supersedes;
+    // The trail names both versions: the correction (with the one it replaced) and the superseded one.
+    await audit(em, actor, {
+      action: 'review.corrected',
+      entityType: 'review',
+      entityId: review.id,
+      detail: { caseId: c.id, supersedes: old.id, reason: correction.reason, outcome: { from: old.outcome, to: assessment.outcome }, cancelledVisits: cancelled },
+    });
+    await audit(em, actor, { action: 'review.superseded', entityType: 'review', entityId: old.id, detail: { caseId: c.id, supersededBy: review.id } });
+  } else {
+    await audit(em, actor, {
+      action: 'review.created',
+      entityType: 'review',
+      entityId: review.id,
+      detail: { caseId: c.id, visitId: visitId ?? null, outcome: assessment.outcome, cancelledVisits: cancelled },
+    });
+  }
   const all = await caseReviews(em, c.id);
   return {
     review: all.reviews.find((r) => r.id === review.id)!,
@@ -205,8 +247,32 @@ export async function createReview(
 async function assertEventDate(em: EntityManager, caseId: string, completionDate: string, eventDate: string, reviewDate: string): Promise<void> {
   const problem = (message: string) => new ValidationError('Some fields need attention.', { eventDate: [message] });
   if (eventDate < completionDate) throw problem(`The event date is before the completion date (${completionDate}).`);
-  const earlier = await em.findOne(ReviewSchema, { case: caseId, reviewDate: { $lte: reviewDate, $gt: eventDate } }, { fields: ['id', 'reviewDate'], orderBy: { reviewDate: 'desc' } });
+  const earlier = await em.findOne(ReviewSchema, { case: caseId, supersededBy: null, reviewDate: { $lte: reviewDate, $gt: eventDate } }, { fields: ['id', 'reviewDate'], orderBy: { reviewDate: 'desc' } });
   if (earlier) throw problem(`The review of ${earlier.reviewDate} comes after this date and found no such event: check the date, or correct that review.`);
+}
+
+/**
+ * Corrects a saved review (the assessor or another clinician of the practice): the findings are
+ * sent again in full (ReviewCreateSchema) with a `reason`. A new version is recorded at the same
+ * visit, its outcome computed again; the earlier version is kept, marked superseded by the new one,
+ * and left out of outcomes. The audit trail names both versions. Only the current version can be
+ * corrected (409 otherwise). The assessor stays the original one unless another is named.
+ */
+export async function correctReview(em: EntityManager, actor: Actor, caseId: string, reviewId: string, raw: unknown) {
+  assertCan(actor, 'review.write');
+  const c = await findCase(em, actor, caseId);
+  const old = await em.findOne(ReviewSchema, { id: assertId(reviewId, 'review'), case: c.id, practice: actor.practiceId });
+  if (!old) throw new NotFoundError('No such review.');
+  if (old.supersededBy) throw new ConflictError('This version was already corrected: correct the current version instead.');
+  const body = raw && typeof raw === 'object' && !Array.isArray(raw) ? (raw as Record<string, unknown>) : {};
+  const { reason } = parseInput(ReviewCorrectionReason, { reason: body.reason });
+  return createReview(
+    em,
+    actor,
+    c.id,
+    { ...body, visitId: old.visit?.id ?? undefined, assessorId: body.assessorId ?? old.assessor.id },
+    { supersedes: old, reason },
+  );
 }
 
 /**
@@ -245,15 +311,19 @@ export async function reassessReviews(em: EntityManager, c: TreatmentCase): Prom
 /** A case's reviews as views, with the current outcome. No audit (callers audit their read). */
 export async function caseReviews(em: EntityManager, caseId: string): Promise<CaseReviews> {
   const reviews = await em.find(ReviewSchema, { case: caseId }, { orderBy: { reviewDate: 'asc', createdAt: 'asc' } });
+  const people = [...new Set(reviews.flatMap((r) => [r.assessor.id, ...(r.correctedBy ? [r.correctedBy.id] : [])]))];
   const [assessors, visits] = await Promise.all([
-    reviews.length ? em.find(UserSchema, { id: { $in: [...new Set(reviews.map((r) => r.assessor.id))] } }, { fields: ['id', 'name'] }) : [],
+    reviews.length ? em.find(UserSchema, { id: { $in: people } }, { fields: ['id', 'name'] }) : [],
     reviews.some((r) => r.visit)
       ? em.find(RecallVisitSchema, { id: { $in: reviews.flatMap((r) => (r.visit ? [r.visit.id] : [])) } }, { fields: ['id', 'milestone'] })
       : [],
   ]);
   const nameOf = new Map(assessors.map((u) => [u.id, u.name ?? null]));
   const milestoneOf = new Map(visits.map((v) => [v.id, v.milestone]));
-  const current = currentOutcome(reviews.map((r) => ({ daysSinceTreatment: r.daysSinceCompletion, outcome: r.outcome as ReviewOutcome })));
+  // Outcomes read only current versions: a superseded one is kept for the record, not counted.
+  const live = reviews.filter((r) => !r.supersededBy);
+  const current = currentOutcome(live.map((r) => ({ daysSinceTreatment: r.daysSinceCompletion, outcome: r.outcome as ReviewOutcome })));
+  const supersedes = new Map(reviews.flatMap((r) => (r.supersededBy ? [[r.supersededBy.id, r.id] as const] : [])));
   return {
     reviews: reviews.map((r) => ({
       id: r.id,
@@ -268,6 +338,8 @@ export async function caseReviews(em: EntityManager, caseId: string): Promise<Ca
       paiScore: r.paiScore ?? null,
       lesionDiameterMm: r.lesionDiameterMm === null || r.lesionDiameterMm === undefined ? null : Number(r.lesionDiameterMm),
       signs: r.signs ?? {},
+      signsPresent: signsPresent(r.signs ?? {}),
+      findings: findingsLine(r.signs ?? {}, r.otherFindings ?? null),
       otherFindings: r.otherFindings ?? null,
       eventDate: r.eventDate ?? null,
       extractionReason: (r.extractionReason as ExtractionReason | null | undefined) ?? null,
@@ -278,9 +350,29 @@ export async function caseReviews(em: EntityManager, caseId: string): Promise<Ca
       successLenient: r.successLenient,
       reasons: r.outcomeReasons,
       createdAt: r.createdAt.toISOString(),
+      current: !r.supersededBy,
+      supersededBy: r.supersededBy?.id ?? null,
+      supersededAt: r.supersededAt ? r.supersededAt.toISOString() : null,
+      supersedes: supersedes.get(r.id) ?? null,
+      correctionReason: r.correctionReason ?? null,
+      correctedBy: r.correctedBy ? { id: r.correctedBy.id, name: nameOf.get(r.correctedBy.id) ?? null } : null,
     })),
+    latestOutcome: (live.at(-1)?.outcome as ReviewOutcome | undefined) ?? null,
     currentOutcome: current,
     currentOutcomeLabel: current ? OUTCOME_LABELS[current] : null,
     caution: SCORING_CAUTION,
   };
+}
+
+
+function signsPresent(signs: Partial<Record<ReviewSign, boolean>>): string[] {
+  return REVIEW_SIGNS.filter((k) => signs[k] === true).map((k) => REVIEW_SIGN_LABELS[k]);
+}
+
+/** "Signs: swelling, sinus tract. Other findings: …" — or "No signs recorded" / "No signs present". */
+export function findingsLine(signs: Partial<Record<ReviewSign, boolean>>, other: string | null): string {
+  const present = signsPresent(signs);
+  const recorded = REVIEW_SIGNS.some((k) => signs[k] !== undefined);
+  const first = present.length ? `Signs: ${present.join(', ').toLowerCase()}.` : recorded ? 'No signs present.' : 'No signs recorded.';
+  return other ? `${first} Other findings: ${other}` : first;
 }

@@ -1,18 +1,26 @@
 import 'server-only';
 import { z } from 'zod';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import { RecallVisitSchema, ReviewSchema, TreatmentCaseSchema, type RecallVisit, type TreatmentCase } from '@/entities';
+import { ContactLogEntrySchema, RecallVisitSchema, ReviewSchema, TreatmentCaseSchema, UserSchema, type RecallVisit, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import {
+  MISSED_REASONS,
+  MISSED_REASON_LABELS,
   VISIT_STATUSES,
   VISIT_STATUS_LABELS,
-  VISIT_TRANSITIONS,
-  canTransition,
+  allowedMoves,
+  hasStarted,
   isFinalStatus,
   isInWindow,
   isOpenStatus,
   isPastDue,
+  transitionVisit,
+  undoMissed,
+  type MissedReasonValue,
+  type TransitionRequest,
+  type TransitionVisit,
   type VisitStatus,
+  type VisitStatusChanges,
 } from '@/lib/recall';
 import { calendarDate, text } from '@/lib/registry/fields';
 import { audit } from './audit';
@@ -30,7 +38,7 @@ export interface VisitView {
   windowEnd: string;
   status: VisitStatus;
   statusLabel: string;
-  /** Statuses this visit may move to now (lib/recall VISIT_TRANSITIONS). */
+  /** Statuses this visit may move to now (lib/recall allowedMoves: the table, less attended/missed before it begins). */
   allowedNext: VisitStatus[];
   open: boolean;
   /** The window has ended (by the practice's today). */
@@ -43,6 +51,15 @@ export interface VisitView {
   note: string | null;
   statusChangedAt: string;
   reviewIds: string[];
+  /** Why it was missed (lib/recall MISSED_REASONS or window_ended), while it is missed. */
+  missedReason: MissedReasonValue | null;
+  missedReasonLabel: string | null;
+  /** A person marked it missed today: "undo" restores the status it had. */
+  canUndoMissed: boolean;
+  /** Its appointment (or, unbooked, its window) has begun: attended and missed are possible. */
+  started: boolean;
+  /** Confirmed with its appointment today: the visit of the day. */
+  ofTheDay: boolean;
 }
 
 export const VisitUpdateSchema = z
@@ -51,9 +68,13 @@ export const VisitUpdateSchema = z
     /** The appointment date; null or '' clears it. */
     bookedDate: z.preprocess((v) => (v === '' ? null : v), calendarDate('the appointment date').nullable()).optional(),
     note: z.preprocess((v) => (v === '' ? null : v), text({ max: 500 }).nullable()).optional(),
+    /** With status 'missed': why (no-show, cancelled late, unreachable). */
+    missedReason: z.enum(MISSED_REASONS, { error: `Say why the visit was missed: ${MISSED_REASONS.join(', ')}.` }).optional(),
+    /** Undo a "mark missed" made today: the visit returns to the status it had. */
+    undoMissed: z.literal(true, { error: 'undoMissed is true or absent.' }).optional(),
   })
-  .refine((v) => v.status !== undefined || v.bookedDate !== undefined || v.note !== undefined, {
-    message: 'Send a status, an appointment date or a note.',
+  .refine((v) => v.status !== undefined || v.bookedDate !== undefined || v.note !== undefined || v.undoMissed, {
+    message: 'Send a status, an appointment date, a note or undoMissed.',
     path: ['status'],
   });
 export type VisitUpdate = z.input<typeof VisitUpdateSchema>;
@@ -76,9 +97,11 @@ export async function listVisits(em: EntityManager, actor: Actor, caseId: string
 // --- changes --------------------------------------------------------------------------------------
 
 /**
- * Changes a visit's status (only along lib/recall VISIT_TRANSITIONS: anything else is a 409
- * naming the allowed moves), its appointment date or its note. Status 'closed' closes it as
- * lost to follow-up (see closeVisitAsLost). Returns the case's visits after the change.
+ * Changes a visit's status (through lib/recall transitionVisit: along VISIT_TRANSITIONS, attended
+ * or missed only once the appointment or window has begun, missed with a reason — a refusal is a
+ * 409 saying why), undoes a "mark missed" made today (`undoMissed`), or changes its appointment
+ * date or note. Status 'closed' closes it as lost to follow-up (see closeVisitAsLost). Every status
+ * change goes to the visit's contact log. Returns the case's visits after the change.
  */
 export async function updateVisit(em: EntityManager, actor: Actor, visitId: string, raw: unknown): Promise<VisitView[]> {
   assertCan(actor, 'recall.manage');
@@ -90,18 +113,23 @@ export async function updateVisit(em: EntityManager, actor: Actor, visitId: stri
   }
   const settings = await practiceSettings(em, actor.practiceId);
   const today = todayIn(settings.timeZone);
+  const who = { practiceId: actor.practiceId, userId: actor.userId };
   const changes: Record<string, unknown> = {};
-  if (input.status !== undefined && input.status !== from) {
-    assertTransition(from, input.status);
-    setStatus(visit, input.status, actor.userId);
-    changes.status = { from, to: input.status };
-  }
   if (input.bookedDate !== undefined && input.bookedDate !== (visit.bookedDate ?? null)) {
-    if (isFinalStatus(visit.status as VisitStatus)) {
-      throw new ConflictError(`The visit is ${VISIT_STATUS_LABELS[visit.status as VisitStatus].toLowerCase()}: its appointment can no longer change.`);
+    if (isFinalStatus(from)) {
+      throw new ConflictError(`The visit is ${VISIT_STATUS_LABELS[from].toLowerCase()}: its appointment can no longer change.`);
     }
     visit.bookedDate = input.bookedDate;
     changes.bookedDate = true;
+  }
+  if (input.undoMissed) {
+    const result = undoMissed(transitionView(visit), today);
+    if (!result.ok) throw new ConflictError(result.message);
+    writeStatus(em, visit, result.changes, who, 'user', 'Undone: “missed” was recorded by mistake.');
+    changes.status = { from, to: result.changes.status, undo: 'missed' };
+  } else if (input.status !== undefined && input.status !== from) {
+    changeVisitStatus(em, visit, { to: input.status, on: today, by: 'user', missedReason: input.missedReason ?? null }, who, input.note ?? null);
+    changes.status = { from, to: input.status, ...(input.missedReason ? { missedReason: input.missedReason } : {}) };
   }
   if (input.note !== undefined && input.note !== (visit.note ?? null)) {
     visit.note = input.note;
@@ -118,54 +146,124 @@ export async function updateVisit(em: EntityManager, actor: Actor, visitId: stri
 
 /**
  * Closes a visit as lost to follow-up — the practice stops trying — together with the case's
- * later visits that are not final yet (open, missed or declined): a patient lost at 12 months is
- * not invited at 24. Attended, cancelled and already closed visits are left as they are.
- * Returns the case's visits after the change.
+ * later visits that are not final yet (see closeAsLost). Returns the case's visits after the change.
  */
 export async function closeVisitAsLost(em: EntityManager, actor: Actor, visitId: string, raw: unknown): Promise<VisitView[]> {
   assertCan(actor, 'recall.manage');
   const visit = await findVisit(em, actor, visitId);
   const input = parseInput(CloseAsLostSchema, raw ?? {});
-  const from = visit.status as VisitStatus;
-  if (from !== 'closed') assertTransition(from, 'closed');
   const settings = await practiceSettings(em, actor.practiceId);
   const today = todayIn(settings.timeZone);
   const visits = await loadVisits(em, visit.case.id);
+  await closeAsLost(em, actor, { practiceId: actor.practiceId, visitId: visit.id, visits, today, note: input.note ?? null });
+  return visitViews(em, visits, today);
+}
+
+export interface CloseAsLostInput {
+  practiceId: string;
+  visitId: string;
+  /** The case's visits (loadVisits), locked by the caller when it runs beside other writers. */
+  visits: RecallVisit[];
+  today: string;
+  /** Why: the person's note, or the scan's account of the unanswered attempts. */
+  note: string | null;
+  /** Added to the audit detail (e.g. the scan's count of unanswered attempts). */
+  detail?: Record<string, unknown>;
+}
+
+/**
+ * The one close-as-lost routine, for the desk, the case page and the recall scan: the visit and
+ * the case's later visits that are not final (open, missed or declined) become closed — a
+ * patient lost at 12 months is not invited at 24 — each through lib/recall transitionVisit, with
+ * its contact-log entry, `lostToFollowUp` and `closedOn`. Attended, cancelled and already closed
+ * visits are left as they are. One audit event names every visit closed. `actor` null is the scan.
+ * Flushes; returns the ids closed.
+ */
+export async function closeAsLost(em: EntityManager, actor: Actor | null, input: CloseAsLostInput): Promise<string[]> {
+  const visit = input.visits.find((v) => v.id === input.visitId);
+  if (!visit) throw new NotFoundError('No such visit.');
+  const by = actor ? ('user' as const) : ('system' as const);
+  const who = { practiceId: input.practiceId, userId: actor?.userId ?? null };
   const closed: string[] = [];
-  for (const v of visits) {
+  for (const v of input.visits) {
     if (v.id !== visit.id && (v.milestone <= visit.milestone || isFinalStatus(v.status as VisitStatus))) continue;
     if (v.status === 'closed') continue;
-    setStatus(v, 'closed', actor.userId);
+    const note = v.id === visit.id ? input.note : 'Closed with an earlier visit lost to follow-up.';
+    changeVisitStatus(em, v, { to: 'closed', on: input.today, by }, who, note);
     v.lostToFollowUp = true;
-    v.closedOn = today;
-    if (v.id === visit.id && input.note) v.note = input.note;
+    v.closedOn = input.today;
+    if (v.id === visit.id && input.note && actor) v.note = input.note.slice(0, 500);
     closed.push(v.id);
   }
-  setVisitSummary(await em.findOneOrFail(TreatmentCaseSchema, visit.case.id), visits);
+  setVisitSummary(await em.findOneOrFail(TreatmentCaseSchema, visit.case.id), input.visits);
   await em.flush();
   if (closed.length) {
-    await audit(em, actor, { action: 'visit.closed_lost', entityType: 'visit', entityId: visit.id, detail: { caseId: visit.case.id, visitIds: closed } });
+    await audit(
+      em,
+      actor,
+      { action: 'visit.closed_lost', entityType: 'visit', entityId: visit.id, detail: { ...(actor ? {} : { by: 'recall-scan' }), caseId: visit.case.id, visitIds: closed, ...input.detail } },
+      actor ? undefined : { practiceId: input.practiceId },
+    );
   }
-  return visitViews(em, visits, today);
+  return closed;
 }
 
 // --- shared with the case, review and import services ----------------------------------------------
 
-export function assertTransition(from: VisitStatus, to: VisitStatus): void {
-  if (canTransition(from, to)) return;
-  const allowed = VISIT_TRANSITIONS[from];
-  const label = (s: VisitStatus) => VISIT_STATUS_LABELS[s].toLowerCase();
-  throw new ConflictError(
-    `A visit that is ${label(from)} cannot become ${label(to)}. ` +
-      (allowed.length ? `From ${label(from)} it can become: ${allowed.map(label).join(', ')}.` : `${VISIT_STATUS_LABELS[from]} is final.`),
-  );
+/** What lib/recall transitionVisit reads of a stored visit. */
+export function transitionView(v: RecallVisit): TransitionVisit {
+  return {
+    status: v.status as VisitStatus,
+    milestone: v.milestone,
+    windowStart: v.windowStart,
+    windowEnd: v.windowEnd,
+    bookedDate: v.bookedDate ?? null,
+    missedReason: (v.missedReason as MissedReasonValue | null) ?? null,
+    missedOn: v.missedOn ?? null,
+    missedFrom: (v.missedFrom as VisitStatus | null) ?? null,
+  };
 }
 
-export function setStatus(visit: RecallVisit, to: VisitStatus, userId: string | null): void {
-  visit.status = to;
+/**
+ * Moves a loaded visit through lib/recall transitionVisit — the ORM side of the one rule (the
+ * desk's row-locked SQL side is recall-common setVisitStatus) — and appends the status change to
+ * its contact log. A refusal is a 409 with the rule's message. The caller flushes.
+ */
+export function changeVisitStatus(
+  em: EntityManager,
+  visit: RecallVisit,
+  req: TransitionRequest,
+  who: { practiceId: string; userId: string | null },
+  note: string | null = null,
+): void {
+  const result = transitionVisit(transitionView(visit), req);
+  if (!result.ok) throw new ConflictError(result.message);
+  writeStatus(em, visit, result.changes, who, req.by, note);
+}
+
+function writeStatus(
+  em: EntityManager,
+  visit: RecallVisit,
+  changes: VisitStatusChanges,
+  who: { practiceId: string; userId: string | null },
+  by: TransitionRequest['by'],
+  note: string | null,
+): void {
+  const from = visit.status as VisitStatus;
+  Object.assign(visit, changes);
   visit.statusChangedAt = new Date();
-  visit.statusChangedBy = (userId ? { id: userId } : null) as never;
-  if (to === 'invited' || to === 'confirmed') visit.reinviteNeeded = false;
+  visit.statusChangedBy = who.userId ? em.getReference(UserSchema, who.userId, { wrapped: true }) : null;
+  const reason = changes.missedReason && by === 'user' ? MISSED_REASON_LABELS[changes.missedReason] : null;
+  em.create(ContactLogEntrySchema, {
+    practice: who.practiceId,
+    visit: visit.id,
+    kind: 'status_change',
+    by,
+    user: who.userId,
+    fromStatus: from,
+    toStatus: changes.status,
+    note: [reason, note].filter(Boolean).join('. ').slice(0, 1000) || null,
+  });
 }
 
 /** The case's visits, in milestone order. */
@@ -216,7 +314,7 @@ export async function refreshNextVisit(em: EntityManager, caseIds: readonly stri
 
 export async function visitViews(em: EntityManager, visits: readonly RecallVisit[], today: string): Promise<VisitView[]> {
   const reviews = visits.length
-    ? await em.find(ReviewSchema, { visit: { $in: visits.map((v) => v.id) } }, { fields: ['id', 'visit'], orderBy: { reviewDate: 'asc' } })
+    ? await em.find(ReviewSchema, { visit: { $in: visits.map((v) => v.id) }, supersededBy: null }, { fields: ['id', 'visit'], orderBy: { reviewDate: 'asc' } })
     : [];
   return visits.map((v) => visitView(v, today, reviews.filter((r) => r.visit?.id === v.id).map((r) => r.id)));
 }
@@ -232,7 +330,7 @@ export function visitView(v: RecallVisit, today: string, reviewIds: string[] = [
     windowEnd: v.windowEnd,
     status,
     statusLabel: VISIT_STATUS_LABELS[status],
-    allowedNext: [...VISIT_TRANSITIONS[status]],
+    allowedNext: allowedMoves(transitionView(v), today),
     open: isOpenStatus(status),
     pastDue: isPastDue(v, today),
     inWindow: isInWindow(v, today),
@@ -243,6 +341,11 @@ export function visitView(v: RecallVisit, today: string, reviewIds: string[] = [
     note: v.note ?? null,
     statusChangedAt: v.statusChangedAt.toISOString(),
     reviewIds,
+    missedReason: status === 'missed' ? ((v.missedReason as MissedReasonValue | null) ?? null) : null,
+    missedReasonLabel: status === 'missed' && v.missedReason ? MISSED_REASON_LABELS[v.missedReason as MissedReasonValue] : null,
+    canUndoMissed: undoMissed(transitionView(v), today).ok,
+    started: hasStarted(transitionView(v), today),
+    ofTheDay: status === 'confirmed' && v.bookedDate === today,
   };
 }
 

@@ -77,6 +77,7 @@ const MATRIX: Row[] = [
   { route: 'api/cases/[id]/visits', method: 'GET', url: () => `/api/cases/${randomUUID()}/visits`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
   { route: 'api/cases/[id]/reviews', method: 'GET', url: () => `/api/cases/${randomUUID()}/reviews`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
   { route: 'api/cases/[id]/reviews', method: 'POST', url: () => `/api/cases/${randomUUID()}/reviews`, body: { toothStatus: 'present' }, expect: only({ clinician: 404 }) },
+  { route: 'api/cases/[id]/reviews/[reviewId]/correction', method: 'POST', url: () => `/api/cases/${randomUUID()}/reviews/${randomUUID()}/correction`, body: { reason: 'Typo in the PAI.' }, expect: only({ clinician: 404 }) },
   { route: 'api/cases/import', method: 'GET', url: () => '/api/cases/import', expect: only({ coordinator: 200, clinician: 200 }) },
   { route: 'api/cases/import', method: 'POST', url: () => '/api/cases/import', body: { csv: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: () => `/api/visits/${randomUUID()}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },

@@ -287,9 +287,9 @@ describe('desk actions', () => {
     const r = await markVisits(services.em(), w.coordinator, { visitIds: [w.id(3), w.id(6), w.id(4)], status: 'attended' });
     expect(r.results.map((x) => x.outcome)).toEqual(['marked', 'marked', 'marked']);
     expect(r.results[1]!.message).toBe('Already attended.');
-    const m = await markVisits(services.em(), w.coordinator, { visitIds: [w.id(6), w.id(0)], status: 'missed' });
+    const m = await markVisits(services.em(), w.coordinator, { visitIds: [w.id(6), w.id(0)], status: 'missed', reason: 'no_show' });
     expect(m.results.map((x) => [x.outcome, x.message])).toEqual([
-      ['refused', 'A visit that is attended cannot become missed.'],
+      ['refused', 'A visit that is attended cannot become missed. Attended is final.'],
       ['marked', 'Marked missed.'],
     ]);
     const statuses = Object.fromEntries(((await knex()('recall_visit').select('id', 'status')) as { id: string; status: string }[]).map((x) => [x.id, x.status]));

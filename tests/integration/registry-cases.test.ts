@@ -123,11 +123,14 @@ describe('the case’s recall summary', () => {
 describe('visits', () => {
   it('moves only along the status table: a refused move is a 409 naming the allowed ones, a bad status a 422', async () => {
     const { a, patient } = await world();
-    const c = await createCase(services.em(), a.clinician, caseInput(patient.id, a.clinician.userId, { startDate: monthsAgo(2), completionDate: monthsAgo(1) }));
-    const v = c.visits[0]!;
+    const c = await createCase(services.em(), a.clinician, caseInput(patient.id, a.clinician.userId, { startDate: monthsAgo(7), completionDate: monthsAgo(6) }));
+    const v = c.visits[0]!; // due today, its window begun
     let visits = await updateVisit(services.em(), a.coordinator, v.id, { status: 'invited' });
     visits = await updateVisit(services.em(), a.coordinator, v.id, { status: 'confirmed', bookedDate: addDaysTo(v.dueDate, 3) });
     expect(visits[0]).toMatchObject({ status: 'confirmed', bookedDate: addDaysTo(v.dueDate, 3) });
+    // Not attended before the appointment (lib/recall transitionVisit); on the day it is.
+    await expect(updateVisit(services.em(), a.coordinator, v.id, { status: 'attended' })).rejects.toMatchObject({ status: 409, message: expect.stringMatching(/cannot be marked attended before then/) });
+    await updateVisit(services.em(), a.coordinator, v.id, { bookedDate: today });
     visits = await updateVisit(services.em(), a.coordinator, v.id, { status: 'attended' });
     expect(visits[0]!.allowedNext).toEqual([]);
     const refused = updateVisit(services.em(), a.coordinator, v.id, { status: 'invited' });

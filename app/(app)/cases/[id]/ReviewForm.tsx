@@ -15,6 +15,7 @@ import {
   TOOTH_STATUS_LABELS,
   type ToothStatus,
 } from '@/lib/schemas/review';
+import { ReviewCorrectionReason } from '@/lib/schemas/review-correction';
 import { Field } from '@/components/ui/Field';
 import { Select, optionsOf } from '@/components/ui/Select';
 import { Notice } from '@/components/ui/Notice';
@@ -30,28 +31,69 @@ type Shape = Record<string, unknown> & {
   otherFindings?: string;
   eventDate?: string;
   extractionReason?: string;
+  reason?: string;
 };
+
+/** A visit the review can be recorded at; `marksAttended`: saving marks it attended (it is not yet). */
+export interface ReviewVisitOption {
+  value: string;
+  label: string;
+  marksAttended: boolean;
+}
+
+/** A saved review being corrected: its id, how it is named, and its findings as the form edits them. */
+export interface ReviewCorrection {
+  reviewId: string;
+  label: string;
+  visitLabel: string;
+  values: Partial<Shape>;
+}
 
 const num = { setValueAs: (v: unknown) => (v === '' || v === undefined ? undefined : Number(v)) };
 // caseId and assessorId come from the page and the session; the form checks the rest with the API's schema.
 const FormSchema = z.preprocess((v) => ({ ...(v as object), caseId: 'this-case', assessorId: 'me' }), ReviewCreateSchema);
+const CorrectionFormSchema = FormSchema.and(ReviewCorrectionReason);
 
-/** The plain review entry form: findings in, outcome computed by the scoring rules on the server. */
-export function ReviewForm({ caseId, visits, completionDate }: { caseId: string; visits: { value: string; label: string }[]; completionDate: string }) {
+/**
+ * The plain review entry form: findings in, outcome computed by the scoring rules on the server.
+ * At a visit not yet attended, saving marks it attended in the same step. With `correcting`, it
+ * corrects a saved review instead (same visit, a reason required; the earlier version is kept).
+ */
+export function ReviewForm({
+  caseId,
+  visits,
+  completionDate,
+  initialVisitId,
+  startOpen = false,
+  correcting,
+}: {
+  caseId: string;
+  visits: ReviewVisitOption[];
+  completionDate: string;
+  initialVisitId?: string;
+  startOpen?: boolean;
+  correcting?: ReviewCorrection;
+}) {
   const router = useRouter();
-  const [open, setOpen] = useState(false);
+  const [open, setOpen] = useState(startOpen);
   const [serverError, setServerError] = useState<string | null>(null);
   const form = useForm<Shape>({
-    resolver: zodResolver(FormSchema as never, undefined, { raw: true }) as unknown as Resolver<Shape>,
-    defaultValues: { toothStatus: 'present', reviewDate: new Date().toISOString().slice(0, 10), visitId: visits.at(-1)?.value ?? '' },
+    resolver: zodResolver((correcting ? CorrectionFormSchema : FormSchema) as never, undefined, { raw: true }) as unknown as Resolver<Shape>,
+    defaultValues: correcting
+      ? { ...correcting.values, reason: '' }
+      : { toothStatus: 'present', reviewDate: new Date().toISOString().slice(0, 10), visitId: initialVisitId ?? '' },
   });
   const { register, formState, control } = form;
   const e = formState.errors as Record<string, { message?: string } | undefined>;
   const status = useWatch({ control, name: 'toothStatus' });
+  const visitId = useWatch({ control, name: 'visitId' });
+  const marks = !correcting && visits.find((v) => v.value === visitId)?.marksAttended;
+  const title = correcting ? `Correct the review of ${correcting.label}` : 'Record a review';
 
   const onSubmit = form.handleSubmit(async (values) => {
     setServerError(null);
-    const res = await fetch(`/api/cases/${caseId}/reviews`, { method: 'POST', headers: { 'Content-Type': 'application/json' }, body: JSON.stringify(values) });
+    const url = correcting ? `/api/cases/${caseId}/reviews/${correcting.reviewId}/correction` : `/api/cases/${caseId}/reviews`;
+    const res = await fetch(url, { method: 'POST', headers: { 'Content-Type': 'application/json' }, body: JSON.stringify(values) });
     const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
     if (!res.ok) {
       for (const [field, msgs] of Object.entries(body.fieldErrors ?? {})) form.setError(field, { message: msgs[0] });
@@ -64,18 +106,32 @@ export function ReviewForm({ caseId, visits, completionDate }: { caseId: string;
   });
 
   if (!open) {
-    return (
+    return correcting ? (
+      <button type="button" className="btn-secondary min-h-0 py-1 text-xs" onClick={() => setOpen(true)} aria-label={title}>
+        Correct
+      </button>
+    ) : (
       <button type="button" className="btn-primary" onClick={() => setOpen(true)}>
         Record a review
       </button>
     );
   }
   return (
-    <form onSubmit={onSubmit} noValidate aria-label="Record a review" className="space-y-4 rounded-md border border-bone-300 p-4">
-      <h3 className="text-lg">Record a review</h3>
+    <form id={correcting ? undefined : 'record-review'} onSubmit={onSubmit} noValidate aria-label={title} className="space-y-4 rounded-md border border-bone-300 bg-white p-4 text-left">
+      <h3 className="text-lg">{title}</h3>
       {serverError && <Notice tone="alert">{serverError}</Notice>}
+      {correcting && (
+        <p className="text-sm text-ink-700">
+          The earlier version is kept and shown as superseded; the outcome is computed again from what you save here. At visit: {correcting.visitLabel}.
+        </p>
+      )}
       <div className="grid gap-4 md:grid-cols-2">
-        <Select label="At visit" placeholder="Unplanned review" options={visits} {...register('visitId')} error={e.visitId?.message} />
+        {!correcting && (
+          <div>
+            <Select label="At visit" placeholder="Unplanned review" options={visits} {...register('visitId')} error={e.visitId?.message} />
+            {marks && <p className="mt-1 text-xs text-ink-700">Saving marks this visit attended.</p>}
+          </div>
+        )}
         <Field label="Review date" type="date" min={completionDate} {...register('reviewDate')} error={e.reviewDate?.message} />
         <Select label="Tooth status" options={optionsOf(TOOTH_STATUSES, TOOTH_STATUS_LABELS)} {...register('toothStatus')} error={e.toothStatus?.message} />
         {status !== 'extracted' && (
@@ -119,10 +175,11 @@ export function ReviewForm({ caseId, visits, completionDate }: { caseId: string;
       )}
       {status !== 'extracted' && <p className="text-xs text-ink-500">Any of these signs makes the outcome “disease”, except increased mobility, which is recorded only.</p>}
       <Field label="Other findings" {...register('otherFindings')} error={e.otherFindings?.message} />
+      {correcting && <Field label="Why is it corrected?" {...register('reason')} error={e.reason?.message} />}
       <p className="text-xs text-ink-500">The outcome is computed from these findings by the published rules; it supports your judgement and does not replace it.</p>
       <div className="flex gap-3">
         <button type="submit" className="btn-primary" disabled={formState.isSubmitting}>
-          {formState.isSubmitting ? 'Saving…' : 'Save review'}
+          {formState.isSubmitting ? 'Saving…' : correcting ? 'Save correction' : marks ? 'Save review and mark attended' : 'Save review'}
         </button>
         <button type="button" className="btn-secondary" onClick={() => setOpen(false)}>
           Cancel

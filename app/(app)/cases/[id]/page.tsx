@@ -14,10 +14,13 @@ import {
   codeLabel,
 } from '@/lib/schemas/case';
 import { FILL_LENGTH_LABELS } from '@/lib/scoring';
+import { REVIEW_SIGNS } from '@/lib/schemas/review';
+import type { ReviewView } from '@/lib/services/reviews';
 import { OutcomeBadge, VisitStatusBadge } from '@/components/ui/StateBadge';
 import { Caution } from '@/components/ui/Caution';
 import { fmtDate } from '@/components/ui/format';
 import { ReviewForm } from './ReviewFormLazy';
+import type { ReviewCorrection, ReviewVisitOption } from './ReviewForm';
 import { VisitActions } from './VisitActions';
 import { isoSize } from '../_components/options';
 
@@ -25,16 +28,30 @@ export const metadata: Metadata = { title: 'Case' };
 
 const TIMELINE_ICON = { 'treatment-started': '▸', 'treatment-completed': '■', 'definitive-restoration': '◆', visit: '○', review: '◉' } as const;
 
-export default async function CasePage({ params }: { params: Promise<{ id: string }> }) {
+export default async function CasePage({ params, searchParams }: { params: Promise<{ id: string }>; searchParams: Promise<Record<string, string | string[] | undefined>> }) {
   const { id } = await params;
+  const query = await searchParams;
   const { em, actor } = await requireActor('patient.read', `/cases/${id}`);
   const c = await getCase(em, actor, id).catch((e) => {
     if (e instanceof NotFoundError) notFound();
     throw e;
   });
   const v = c.values;
-  const attended = c.visits.filter((x) => x.status === 'attended');
   const canMoveVisits = can(actor.roles, 'recall.manage');
+  const canReview = can(actor.roles, 'review.write') && Boolean(c.completionDate) && !c.archived;
+  // A review can be recorded at an attended visit, or at one that has begun and may become attended:
+  // saving the review marks it attended in the same step (the clinician sees the patient in the chair).
+  const reviewVisits: ReviewVisitOption[] = c.visits
+    .filter((x) => x.status === 'attended' || x.allowedNext.includes('attended'))
+    .map((x) => ({
+      value: x.id,
+      label: `${x.milestone} months — ${x.ofTheDay ? 'confirmed for today' : x.statusLabel.toLowerCase()}${x.bookedDate && !x.ofTheDay ? `, booked ${fmtDate(x.bookedDate)}` : ''}`,
+      marksAttended: x.status !== 'attended',
+    }));
+  const wanted = typeof query.review === 'string' ? query.review : undefined;
+  const initialVisitId = reviewVisits.find((x) => x.value === wanted)?.value ?? c.visits.find((x) => x.ofTheDay)?.id;
+  const correctingId = typeof query.correct === 'string' ? query.correct : undefined;
+  const correcting = canReview ? c.reviews.find((r) => r.id === correctingId && r.current) : undefined;
   return (
     <div className="space-y-6">
       <p className="text-sm">
@@ -75,9 +92,10 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                   {TIMELINE_ICON[t.type]}
                 </span>
                 <div className="text-xs text-ink-500">{fmtDate(t.date)}</div>
-                <div className="text-sm font-medium">{t.title}</div>
+                <div className={`text-sm font-medium ${t.superseded ? 'text-ink-500 line-through' : ''}`}>{t.title}</div>
                 {t.visitStatus && <VisitStatusBadge status={t.visitStatus} />}
-                {t.outcome && <OutcomeBadge outcome={t.outcome} />}
+                {t.outcome && !t.superseded && <OutcomeBadge outcome={t.outcome} />}
+                {t.detail && <div className="text-xs text-ink-700">{t.detail}</div>}
               </li>
             ))}
           </ol>
@@ -158,9 +176,18 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                       </td>
                       <td data-label="Status">
                         <VisitStatusBadge status={x.status} />
+                        {x.ofTheDay && <div className="text-xs font-medium text-dura-700">Visit of the day</div>}
                         {x.bookedDate && <div className="text-xs text-ink-500">booked {fmtDate(x.bookedDate)}</div>}
+                        {x.missedReasonLabel && <div className="text-xs text-ink-500">{x.missedReasonLabel}</div>}
                       </td>
-                      <td>{canMoveVisits && x.allowedNext.length > 0 && <VisitActions visit={x} />}</td>
+                      <td data-label="Action">
+                        {canMoveVisits && (x.allowedNext.length > 0 || x.canUndoMissed) && <VisitActions visit={x} />}
+                        {canReview && x.allowedNext.includes('attended') && (
+                          <Link href={`/cases/${c.id}?review=${x.id}#record-review`} className="btn-secondary min-h-0 py-1 text-sm no-underline">
+                            Record the review
+                          </Link>
+                        )}
+                      </td>
                     </tr>
                   ))}
                 </tbody>
@@ -183,14 +210,30 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                     <th scope="col">Tooth</th>
                     <th scope="col">PAI</th>
                     <th scope="col">Lesion</th>
+                    <th scope="col">Findings</th>
                     <th scope="col">Outcome</th>
                     <th scope="col">Why</th>
                   </tr>
                 </thead>
                 <tbody>
                   {c.reviews.map((r) => (
-                    <tr key={r.id}>
-                      <td data-label="Date">{fmtDate(r.reviewDate)}</td>
+                    <tr key={r.id} data-testid={`review-${r.id}`} className={r.current ? undefined : 'text-ink-500'}>
+                      <td data-label="Date">
+                        {fmtDate(r.reviewDate)}
+                        {!r.current && <div className="text-xs font-medium">Superseded</div>}
+                        {r.supersedes && (
+                          <div className="text-xs text-ink-500">
+                            Corrected by {r.correctedBy?.name ?? 'a clinician'}: {r.correctionReason}
+                          </div>
+                        )}
+                        {canReview && r.current && (
+                          <div>
+                            <Link href={`/cases/${c.id}?correct=${r.id}#correct-review`} className="text-xs" aria-label={`Correct the review of ${fmtDate(r.reviewDate)}`}>
+                              Correct
+                            </Link>
+                          </div>
+                        )}
+                      </td>
                       <td data-label="Visit">{r.visitMilestone ? `${r.visitMilestone} months` : 'Unplanned'}</td>
                       <td data-label="Tooth">
                         {r.toothStatusLabel}
@@ -200,6 +243,7 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                       </td>
                       <td data-label="PAI">{r.paiScore ?? '—'}</td>
                       <td data-label="Lesion">{r.lesionDiameterMm !== null ? `${r.lesionDiameterMm} mm` : '—'}</td>
+                      <td data-label="Findings" className="text-xs">{r.findings}</td>
                       <td data-label="Outcome">
                         <OutcomeBadge outcome={r.outcome} />
                         <div className="text-xs text-ink-500">
@@ -212,15 +256,52 @@ export default async function CasePage({ params }: { params: Promise<{ id: strin
                 </tbody>
               </table>
             )}
+            {c.latestOutcome === 'disease' && (
+              <p className="rounded-md border border-bone-300 bg-bone-100 px-3 py-2 text-sm" data-testid="next-step">
+                <span aria-hidden="true">⚠ </span>The latest review found disease: <strong>no next step recorded</strong>. Retreatment, surgery or watchful waiting is the
+                clinician’s decision with the patient.
+              </p>
+            )}
             <Caution text={c.caution} />
-            {can(actor.roles, 'review.write') && c.completionDate && !c.archived && (
-              <ReviewForm caseId={c.id} visits={attended.map((x) => ({ value: x.id, label: `${x.milestone} months (${fmtDate(x.dueDate)})` }))} completionDate={c.completionDate} />
+            {correcting && c.completionDate && (
+              <div id="correct-review">
+                <ReviewForm key={correcting.id} caseId={c.id} visits={[]} completionDate={c.completionDate} startOpen correcting={correctionOf(correcting)} />
+              </div>
+            )}
+            {canReview && c.completionDate && !correcting && (
+              <ReviewForm
+                // A new "Record the review" link (another ?review=) opens a fresh form on that visit.
+                key={`${wanted ?? ''}/${initialVisitId ?? ''}`}
+                caseId={c.id}
+                visits={reviewVisits}
+                completionDate={c.completionDate}
+                initialVisitId={initialVisitId}
+                startOpen={Boolean(wanted)}
+              />
             )}
           </section>
         </div>
       </div>
     </div>
   );
+}
+
+/** A saved review as the correction form edits it. */
+function correctionOf(r: ReviewView): ReviewCorrection {
+  const signs = Object.fromEntries(REVIEW_SIGNS.map((k) => [k, r.signs[k] === true]));
+  return {
+    reviewId: r.id,
+    label: fmtDate(r.reviewDate),
+    visitLabel: r.visitMilestone ? `${r.visitMilestone} months` : 'unplanned',
+    values: {
+      reviewDate: r.reviewDate,
+      toothStatus: r.toothStatus,
+      ...(r.paiScore !== null ? { paiScore: r.paiScore } : {}),
+      ...(r.lesionDiameterMm !== null ? { lesionDiameterMm: r.lesionDiameterMm } : {}),
+      ...signs,
+      otherFindings: r.otherFindings ?? '',
+    },
+  };
 }
 
 function Item({ term, children }: { term: string; children: React.ReactNode }) {

@@ -6,6 +6,7 @@ import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tansta
 import { createColumnHelper, getCoreRowModel, useReactTable, type RowSelectionState } from '@tanstack/react-table';
 import type { DeskQueue, DeskQueues, DeskRow, DeskRowsPage, ActionResponse } from '@/lib/services/recall-desk';
 import { REMINDER_STEP_LABELS } from '@/lib/recall/steps';
+import { MISSED_REASONS, MISSED_REASON_LABELS, type MissedReason } from '@/lib/recall/status';
 import { TableView } from '@/components/ui/TableView';
 import { PatientCell } from '@/components/ui/PatientCell';
 import { TableSkeleton } from '@/components/ui/Skeleton';
@@ -245,7 +246,7 @@ export function Desk() {
         count={selected.length}
         busy={act.isPending}
         onSend={() => act.mutate({ url: '/api/recall/send', body: { visitIds: selected } })}
-        onMark={(status) => act.mutate({ url: '/api/recall/mark', body: { visitIds: selected, status } })}
+        onMark={(status, reason) => act.mutate({ url: '/api/recall/mark', body: { visitIds: selected, status, ...(reason ? { reason } : {}) } })}
         onBook={(start, mode, sendNow) => act.mutate({ url: '/api/recall/book', body: { visitIds: selected, start, mode, sendNow } })}
       />
       {outcome && (
@@ -285,11 +286,12 @@ function BulkActions(props: {
   count: number;
   busy: boolean;
   onSend: () => void;
-  onMark: (status: 'attended' | 'missed') => void;
+  onMark: (status: 'attended' | 'missed', reason?: MissedReason) => void;
   onBook: (startIso: string, mode: 'propose' | 'phone', sendNow: boolean) => void;
 }) {
   const [when, setWhen] = useState('');
   const [mode, setMode] = useState<'propose' | 'phone'>('propose');
+  const [missedReason, setMissedReason] = useState<MissedReason | ''>('');
   const none = props.count === 0 || props.busy;
   return (
     <section aria-label="Act on the selected visits" className="flex flex-wrap items-end gap-3 rounded-lg border border-bone-200 bg-white p-3">
@@ -302,9 +304,24 @@ function BulkActions(props: {
       <button type="button" className="btn-secondary" disabled={none} onClick={() => props.onMark('attended')}>
         Mark attended
       </button>
-      <button type="button" className="btn-secondary" disabled={none} onClick={() => props.onMark('missed')}>
-        Mark missed
-      </button>
+      <div className="flex flex-wrap items-end gap-2">
+        <div>
+          <label htmlFor="missed-reason" className="field-label">
+            Missed because
+          </label>
+          <select id="missed-reason" className="field-input" value={missedReason} onChange={(e) => setMissedReason(e.target.value as MissedReason)}>
+            <option value="">Choose…</option>
+            {MISSED_REASONS.map((r) => (
+              <option key={r} value={r}>
+                {MISSED_REASON_LABELS[r]}
+              </option>
+            ))}
+          </select>
+        </div>
+        <button type="button" className="btn-secondary" disabled={none || !missedReason} onClick={() => missedReason && props.onMark('missed', missedReason)}>
+          Mark missed
+        </button>
+      </div>
       <div className="flex flex-wrap items-end gap-2 border-l border-bone-300 pl-3">
         <div>
           <label htmlFor="book-when" className="field-label">
