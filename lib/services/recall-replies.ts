@@ -185,7 +185,7 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
       }
     } else if (input.answer === 'another_time') {
       if (visit.status === 'confirmed') {
-        await setVisitStatus(tx, visit, { to: 'invited', on: dateIn(now, visit.time_zone), by: 'patient' }, null, { booked_date: null, proposed_start: null });
+        await setVisitStatus(tx, visit, { to: 'invited', on: todayIn(visit.time_zone, now), by: 'patient' }, null, { booked_date: null, proposed_start: null });
         entries.push({ ...base, kind: 'status_change', fromStatus: 'confirmed', toStatus: 'invited' });
         changed.push(visit.id);
       } else {
@@ -199,7 +199,7 @@ export async function answerReply(em: EntityManager, raw: unknown, origin: Origi
         .select('id', 'status', 'milestone', 'window_start', 'window_end', 'booked_date')) as VisitStatusRow[];
       for (const v of visits) {
         if (v.id !== visit.id && !isOpenStatus(v.status)) continue;
-        const declined = await setVisitStatus(tx, v, { to: 'declined', on: dateIn(now, visit.time_zone), by: 'patient' }, null, { proposed_start: null });
+        const declined = await setVisitStatus(tx, v, { to: 'declined', on: todayIn(visit.time_zone, now), by: 'patient' }, null, { proposed_start: null });
         if (!declined.ok) continue;
         entries.push({ ...base, visitId: v.id, kind: 'status_change', fromStatus: v.status, toStatus: 'declined', note: v.id === visit.id ? null : 'Declined with an earlier visit.' });
         changed.push(v.id);
