@@ -17,9 +17,9 @@ import { FILL_LENGTH_LABELS } from '@/lib/scoring';
 import { OutcomeBadge, VisitStatusBadge } from '@/components/ui/StateBadge';
 import { Caution } from '@/components/ui/Caution';
 import { fmtDate } from '@/components/ui/format';
-import { ReviewForm } from './ReviewForm';
-import { VisitActions } from './VisitActions';
-import { isoSize } from '../_components/options';
+import { ReviewForm } from '../ReviewForm';
+import { VisitActions } from '../VisitActions';
+import { isoSize } from '../../_components/options';
 
 export const metadata: Metadata = { title: 'Case' };
 
