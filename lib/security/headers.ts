@@ -18,7 +18,6 @@ export interface HeaderOptions {
 export const PERMISSIONS_POLICY = [
   'accelerometer=()',
   'autoplay=()',
-  'bluetooth=()',
   'browsing-topics=()',
   'camera=()',
   'display-capture=()',

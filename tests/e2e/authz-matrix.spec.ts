@@ -274,11 +274,13 @@ const PAGES: PageRow[] = [
   { page: 'cases', url: () => '/cases', expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },
   { page: 'cases/new', url: () => '/cases/new', expect: signInFirst(only({ clinician: 307 })) }, // without a patient: choose one first
   { page: 'cases/import', url: () => '/cases/import', expect: signInFirst(only({ coordinator: 200, clinician: 200 })) },
-  { page: 'cases/[id]', url: () => `/cases/${randomUUID()}`, expect: signInFirst(only({ coordinator: 404, clinician: 404, auditor: 404 })) },
+  // An unknown id under the detail page's skeleton: the not-found page streams after the skeleton (200, as
+  // before); a role without the area still gets 403 from the area's layout, before anything streams.
+  { page: 'cases/[id]', url: () => `/cases/${randomUUID()}`, expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },
   { page: 'cases/[id]/edit', url: () => `/cases/${randomUUID()}/edit`, expect: signInFirst(only({ clinician: 404 })) },
   { page: 'patients', url: () => '/patients', expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },
   { page: 'patients/new', url: () => '/patients/new', expect: signInFirst(only({ coordinator: 200, clinician: 200 })) },
-  { page: 'patients/[id]', url: () => `/patients/${randomUUID()}`, expect: signInFirst(only({ coordinator: 404, clinician: 404, auditor: 404 })) },
+  { page: 'patients/[id]', url: () => `/patients/${randomUUID()}`, expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },
   { page: 'desk', url: () => '/desk', expect: signInFirst(only({ coordinator: 200 })) },
   { page: 'desk/calls', url: () => '/desk/calls', expect: signInFirst(only({ coordinator: 200 })) },
   { page: 'desk/policy', url: () => '/desk/policy', expect: signInFirst(only({ coordinator: 200 })) },

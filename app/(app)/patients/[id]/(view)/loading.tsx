@@ -1,3 +1,4 @@
+// See app/(app)/cases/[id]/(view)/loading.tsx: prefetches stop here; nothing else sits under it.
 import { BlockSkeleton } from '@/components/ui/Skeleton';
 
 export default function Loading() {

@@ -19,10 +19,10 @@ import type { ReviewView } from '@/lib/services/reviews';
 import { OutcomeBadge, VisitStatusBadge } from '@/components/ui/StateBadge';
 import { Caution } from '@/components/ui/Caution';
 import { fmtDate } from '@/components/ui/format';
-import { ReviewForm } from './ReviewFormLazy';
-import type { ReviewCorrection, ReviewVisitOption } from './ReviewForm';
-import { VisitActions } from './VisitActions';
-import { isoSize } from '../_components/options';
+import { ReviewForm } from '../ReviewFormLazy';
+import type { ReviewCorrection, ReviewVisitOption } from '../ReviewForm';
+import { VisitActions } from '../VisitActions';
+import { isoSize } from '../../_components/options';
 
 export const metadata: Metadata = { title: 'Case' };
 

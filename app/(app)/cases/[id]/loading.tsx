@@ -1,5 +1,0 @@
-import { BlockSkeleton } from '@/components/ui/Skeleton';
-
-export default function Loading() {
-  return <BlockSkeleton label="Loading the case" lines={8} />;
-}
