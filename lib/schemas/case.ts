@@ -254,6 +254,7 @@ export const CASE_FIELDS = {
   kind: { section: 'case', kinds: ALL },
   operatorId: { section: 'case', kinds: ALL },
   referrerId: { section: 'case', kinds: ALL },
+  previousCaseId: { section: 'case', kinds: ALL },
   startDate: { section: 'case', kinds: ALL },
   completionDate: { section: 'case', kinds: ALL },
   pulpalDiagnosis: { section: 'diagnosis', kinds: ALL },

@@ -8,6 +8,7 @@ test('a clinician records a retreatment of a treated tooth: the earlier case is 
   await page.goto('/cases?stage=completed&sort=completionDate&dir=desc');
   // The practice's most recently completed case (its tooth link; the row's first link is the patient).
   await page.locator('table a[href^="/cases/"]').first().click();
+  await expect(page).toHaveURL(/\/cases\/[0-9a-f-]{36}$/);
   const earlierUrl = page.url();
   await page.getByRole('link', { name: 'Record a later treatment of this tooth' }).click();
 
