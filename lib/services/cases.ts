@@ -402,7 +402,9 @@ export async function createCase(em: EntityManager, actor: Actor, raw: unknown):
       createdBy: actor.userId,
       source: 'form',
       ...caseColumns(input),
-    } as never) as TreatmentCase;
+      patient: input.patientId,
+      operator: input.operatorId,
+    });
     const visits = input.completionDate ? createPlannedVisits(tx, entity, input.completionDate, settings.recallPolicy, today) : [];
     setVisitSummary(entity, visits);
     await tx.flush();
@@ -450,7 +452,7 @@ export async function updateCase(em: EntityManager, actor: Actor, id: string, ra
   const changedFields = changedKeys(caseValues(c), merged);
   await em.transactional(async (tx) => {
     const entity = await tx.findOneOrFail(TreatmentCaseSchema, c.id);
-    tx.assign(entity, caseColumns(merged) as never);
+    tx.assign(entity, caseColumns(merged));
     const visits = await loadVisits(tx, entity.id);
     const after = merged.completionDate ?? null;
     if (after !== before.completionDate) {
@@ -631,7 +633,7 @@ function createVisits(
         status: p.status,
         // A visit created past its window (a case entered late, an import) is missed because its window ended.
         ...(p.status === 'missed' ? { missedReason: 'window_ended' } : {}),
-      } as never) as RecallVisit,
+      }),
   );
 }
 

@@ -4,7 +4,6 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { RecallVisitSchema, ReviewSchema, UserSchema, type Review, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { isOpenStatus, type VisitStatus } from '@/lib/recall';
-import { daysBetween } from '@/lib/registry/calendar-date';
 import { ReviewCorrectionReason } from '@/lib/schemas/review-correction';
 import {
   EXTRACTION_REASON_LABELS,
@@ -194,7 +193,7 @@ export async function createReview(
     outcomeReasons: assessment.reasons,
     correctionReason: correction?.reason ?? null,
     correctedBy: correction ? actor.userId : null,
-  } as never) as Review;
+  });
   if (correction) {
     correction.supersedes.supersededBy = ref(review);
     correction.supersedes.supersededAt = new Date();
