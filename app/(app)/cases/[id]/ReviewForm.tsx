@@ -1,8 +1,8 @@
 'use client';
 import { useState } from 'react';
 import { useRouter } from 'next/navigation';
-import { useForm, useWatch, type Resolver } from 'react-hook-form';
-import { zodResolver } from '@hookform/resolvers/zod';
+import { useForm, useWatch } from 'react-hook-form';
+import { schemaResolver } from '@/components/forms/schemaResolver';
 import { z } from 'zod';
 import {
   EVENT_STATUSES,
@@ -78,7 +78,7 @@ export function ReviewForm({
   const [open, setOpen] = useState(startOpen);
   const [serverError, setServerError] = useState<string | null>(null);
   const form = useForm<Shape>({
-    resolver: zodResolver((correcting ? CorrectionFormSchema : FormSchema) as never, undefined, { raw: true }) as unknown as Resolver<Shape>,
+    resolver: schemaResolver(correcting ? CorrectionFormSchema : FormSchema, { raw: true }),
     defaultValues: correcting
       ? { ...correcting.values, reason: '' }
       : { toothStatus: 'present', reviewDate: new Date().toISOString().slice(0, 10), visitId: initialVisitId ?? '' },

@@ -1,8 +1,8 @@
 'use client';
 import { useState } from 'react';
 import { useRouter } from 'next/navigation';
-import { useFieldArray, useForm, useWatch, type FieldErrors, type Resolver, type UseFormRegister } from 'react-hook-form';
-import { zodResolver } from '@hookform/resolvers/zod';
+import { useFieldArray, useForm, useWatch, type FieldErrors, type UseFormRegister } from 'react-hook-form';
+import { schemaResolver } from '@/components/forms/schemaResolver';
 import {
   APICAL_DIAGNOSES,
   APICAL_DIAGNOSIS_LABELS,
@@ -15,6 +15,7 @@ import {
   COMPLICATIONS,
   COMPLICATION_LABELS,
   CaseCreateSchema,
+  type CaseCreate,
   DEFINITIVE_RESTORATIONS,
   DEFINITIVE_RESTORATION_LABELS,
   FILLING_TECHNIQUES,
@@ -88,9 +89,9 @@ export function CaseForm(props: {
 }) {
   const router = useRouter();
   const [serverError, setServerError] = useState<string | null>(null);
-  const form = useForm<CaseFormShape>({
+  const form = useForm<CaseFormShape, unknown, CaseCreate>({
     // The same zod schema the API applies; fields that do not apply to the kind are dropped first.
-    resolver: zodResolver(CaseCreateSchema as never) as unknown as Resolver<CaseFormShape>,
+    resolver: schemaResolver(CaseCreateSchema),
     mode: 'onBlur',
     defaultValues: {
       patientId: props.patient.id,

@@ -1,9 +1,9 @@
 'use client';
 import { useState } from 'react';
 import { useRouter } from 'next/navigation';
-import { useForm, type Resolver } from 'react-hook-form';
-import { zodResolver } from '@hookform/resolvers/zod';
-import { ReminderPolicySchema } from '@/lib/schemas/reminder-policy';
+import { useForm } from 'react-hook-form';
+import { ReminderPolicySchema, type ReminderPolicy } from '@/lib/schemas/reminder-policy';
+import { schemaResolver } from '@/components/forms/schemaResolver';
 import type { ReminderPolicyView } from '@/lib/services/recall-policy';
 import { Field } from '@/components/ui/Field';
 import { Notice } from '@/components/ui/Notice';
@@ -28,8 +28,8 @@ export function PolicyForm({ initial }: { initial: ReminderPolicyView }) {
   const router = useRouter();
   const [result, setResult] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
   const b = initial.bounds;
-  const form = useForm<Shape>({
-    resolver: zodResolver(ReminderPolicySchema as never) as unknown as Resolver<Shape>,
+  const form = useForm<Shape, unknown, ReminderPolicy>({
+    resolver: schemaResolver(ReminderPolicySchema),
     defaultValues: {
       invitationWeeksBefore: initial.policy.invitationWeeksBefore,
       secondInvitationAfterDays: initial.policy.secondInvitationAfterDays,
