@@ -43,6 +43,7 @@ import { Select, optionsOf } from '@/components/ui/Select';
 import { Notice } from '@/components/ui/Notice';
 import { Check, CheckGroup } from '@/components/ui/Check';
 import { PAI_OPTIONS, codeOptions, isoSize, type Option } from './options';
+import { submitJson } from '@/components/forms/submitJson';
 
 /** What the form holds: strings from inputs, numbers through setValueAs. */
 export interface CaseFormShape {
@@ -122,18 +123,17 @@ export function CaseForm(props: {
 
   const onSubmit = form.handleSubmit(async (values) => {
     setServerError(null);
-    const res = await fetch(props.caseId ? `/api/cases/${props.caseId}` : '/api/cases', {
-      method: props.caseId ? 'PATCH' : 'POST',
-      headers: { 'Content-Type': 'application/json' },
-      body: JSON.stringify(values),
-    });
-    const body = (await res.json().catch(() => ({}))) as { id?: string; case?: { id: string }; message?: string; fieldErrors?: Record<string, string[]> };
-    if (!res.ok) {
-      for (const [field, msgs] of Object.entries(body.fieldErrors ?? {})) form.setError(field as keyof CaseFormShape, { message: msgs[0] });
-      setServerError(body.message ?? 'The case could not be saved. Nothing was lost: check the fields marked below.');
+    const sent = await submitJson<{ id?: string; case?: { id: string } }, CaseFormShape>(
+      props.caseId ? `/api/cases/${props.caseId}` : '/api/cases',
+      props.caseId ? 'PATCH' : 'POST',
+      values,
+      { setError: form.setError },
+    );
+    if (!sent.ok) {
+      setServerError(sent.message ?? 'The case could not be saved. Nothing was lost: check the fields marked below.');
       return;
     }
-    const id = props.caseId ?? body.id ?? body.case?.id;
+    const id = props.caseId ?? sent.data.id ?? sent.data.case?.id;
     router.push(`/cases/${id}`);
     router.refresh();
   }, () => setServerError('Some fields need attention. Nothing you typed was lost.'));

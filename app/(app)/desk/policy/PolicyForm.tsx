@@ -7,6 +7,7 @@ import { schemaResolver } from '@/components/forms/schemaResolver';
 import type { ReminderPolicyView } from '@/lib/services/recall-policy';
 import { Field } from '@/components/ui/Field';
 import { Notice } from '@/components/ui/Notice';
+import { submitJson } from '@/components/forms/submitJson';
 
 interface Shape {
   invitationWeeksBefore: number;
@@ -40,15 +41,9 @@ export function PolicyForm({ initial }: { initial: ReminderPolicyView }) {
   const e = form.formState.errors;
   const onSubmit = form.handleSubmit(async (values) => {
     setResult(null);
-    const res = await fetch('/api/recall/policy', {
-      method: 'PUT',
-      headers: { 'Content-Type': 'application/json' },
-      body: JSON.stringify({ ...values, quietHours: initial.policy.quietHours }),
-    });
-    const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
-    if (!res.ok) {
-      for (const [f, m] of Object.entries(body.fieldErrors ?? {})) form.setError(f as keyof Shape, { message: m[0] });
-      setResult({ tone: 'alert', text: body.message ?? 'The policy could not be saved.' });
+    const sent = await submitJson('/api/recall/policy', 'PUT', { ...values, quietHours: initial.policy.quietHours }, { setError: form.setError });
+    if (!sent.ok) {
+      setResult({ tone: 'alert', text: sent.message ?? 'The policy could not be saved.' });
       return;
     }
     setResult({ tone: 'ok', text: 'Policy saved. The next scan uses it.' });
