@@ -242,6 +242,7 @@ export const CASE_FIELDS = {
   kind: { section: 'case', kinds: ALL },
   operatorId: { section: 'case', kinds: ALL },
   referrerId: { section: 'case', kinds: ALL },
+  previousCaseId: { section: 'case', kinds: ALL },
   startDate: { section: 'case', kinds: ALL },
   completionDate: { section: 'case', kinds: ALL },
   pulpalDiagnosis: { section: 'diagnosis', kinds: ALL },
@@ -380,6 +381,11 @@ function caseObject(options: CaseSchemaOptions) {
     coronalRestoration: oneOf(COMPLETION_RESTORATIONS, 'the coronal restoration at completion').optional(),
     definitiveRestoration: oneOf(DEFINITIVE_RESTORATIONS, 'the definitive restoration').optional(),
     definitiveRestorationDate: blankAsUndefined(calendarDate('the date of the definitive restoration')),
+    /**
+     * The same tooth's earlier case when this one retreats or operates on it (the tooth stays
+     * followed for tooth loss across the chain). The service checks practice, patient, tooth and dates.
+     */
+    previousCaseId: blankAsUndefined(Id),
   });
 }
 
@@ -490,11 +496,12 @@ export function buildCaseSchemas(options: CaseSchemaOptions = {}) {
     CaseUpdateSchema: wrap(createObject.partial().superRefine(caseRules(true))),
     /**
      * A past, completed case from the CSV import: patient, operator and referrer are given by
-     * registry number, e-mail and name instead of ids, and the completion date is required.
+     * registry number, e-mail and name instead of ids, and the completion date is required. A file
+     * cannot name an earlier case (it has no case ids): link retreatments on the case's form.
      */
     CaseImportSchema: wrap(
       createObject
-        .omit({ patientId: true, operatorId: true, referrerId: true })
+        .omit({ patientId: true, operatorId: true, referrerId: true, previousCaseId: true })
         .extend({ completionDate: calendarDate('the completion date') })
         .superRefine(caseRules(false)),
     ),

@@ -354,9 +354,21 @@ export interface CaseDetail {
   caution: string;
   timeline: TimelineEntry[];
   source: 'form' | 'import' | 'demo';
+  /** The tooth's earlier case this one retreats or operates on, and the cases that follow this one. */
+  previousCase: LinkedCase | null;
+  laterCases: LinkedCase[];
   archived: boolean;
   createdAt: string;
   updatedAt: string;
+}
+
+/** Another case of the same tooth, for the links on the case page. */
+export interface LinkedCase {
+  id: string;
+  kindLabel: string;
+  startDate: string;
+  completionDate: string | null;
+  archived: boolean;
 }
 
 /** One case with its timeline: treatment, visits, reviews. Audited as a read. */
@@ -394,6 +406,7 @@ export async function createCase(em: EntityManager, actor: Actor, raw: unknown):
   const settings = await practiceSettings(em, actor.practiceId);
   const today = todayIn(settings.timeZone);
   await checkReferences(em, actor, input, today);
+  await checkPreviousCase(em, actor, input);
   const id = randomUUID();
   const c = await em.transactional(async (tx) => {
     const entity = tx.create(TreatmentCaseSchema, {
@@ -414,7 +427,7 @@ export async function createCase(em: EntityManager, actor: Actor, raw: unknown):
     action: 'case.created',
     entityType: 'case',
     entityId: c.id,
-    detail: { patientId: input.patientId, completed: Boolean(input.completionDate) },
+    detail: { patientId: input.patientId, completed: Boolean(input.completionDate), previousCaseId: input.previousCaseId ?? null },
   });
   return caseDetail(em, c, settings);
 }
@@ -445,6 +458,7 @@ export async function updateCase(em: EntityManager, actor: Actor, id: string, ra
   const settings = await practiceSettings(em, actor.practiceId);
   const today = todayIn(settings.timeZone);
   await checkReferences(em, actor, merged, today, c);
+  await checkPreviousCase(em, actor, merged, c);
 
   const plan = { created: 0, moved: 0, kept: 0, removed: 0, reassessedReviews: 0 };
   const wasArchived = Boolean(c.archivedAt);
@@ -574,6 +588,7 @@ export function caseColumns(input: Omit<CaseCreate, 'patientId' | 'operatorId' |
     coronalRestoration: input.coronalRestoration ?? null,
     definitiveRestoration: input.definitiveRestoration ?? null,
     definitiveRestorationDate: input.definitiveRestorationDate ?? null,
+    previousCase: input.previousCaseId ?? null,
   };
 }
 
@@ -606,6 +621,7 @@ export function caseValues(c: TreatmentCase): CaseCreate {
     coronalRestoration: c.coronalRestoration,
     definitiveRestoration: c.definitiveRestoration,
     definitiveRestorationDate: c.definitiveRestorationDate,
+    previousCaseId: c.previousCase?.id,
   };
   for (const k of Object.keys(v)) if (v[k] === null || v[k] === undefined) delete v[k];
   return v as CaseCreate;
@@ -675,17 +691,87 @@ async function checkReferences(em: EntityManager, actor: Actor, input: CaseCreat
   if (Object.keys(fieldErrors).length) throw new ValidationError('Some fields need attention.', fieldErrors);
 }
 
+const PREVIOUS_CASE_UNKNOWN = 'Choose an earlier case of this patient’s tooth.';
+
+/**
+ * The link to the tooth's earlier case (`previousCaseId`): a case of this practice (another
+ * practice's id is answered as an unknown one), of the same patient and tooth, completed on or
+ * before this case's start, not this case nor a case that follows it, and not already followed by
+ * another case (a tooth's cases form one chain). On an edit, the cases that follow this one must
+ * still agree with its patient, tooth and completion date.
+ */
+async function checkPreviousCase(em: EntityManager, actor: Actor, input: CaseCreate, existing?: TreatmentCase) {
+  const fail = (message: string, field = 'previousCaseId'): never => {
+    throw new ValidationError('Some fields need attention.', { [field]: [message] });
+  };
+  if (existing) {
+    const later = await em.find(TreatmentCaseSchema, { previousCase: existing.id, practice: actor.practiceId }, { fields: ['id', 'patient', 'tooth', 'startDate'] });
+    for (const l of later) {
+      if (l.patient.id !== input.patientId) fail('A later treatment of this tooth is linked to this case: the patient cannot change.', 'patientId');
+      if (l.tooth !== input.tooth) fail('A later treatment of this tooth is linked to this case: the tooth cannot change.', 'tooth');
+      if (!input.completionDate) fail('A later treatment of this tooth is linked to this case: it stays completed.', 'completionDate');
+      if (input.completionDate! > l.startDate) fail(`A later treatment of this tooth started on ${l.startDate}: this case is completed by then.`, 'completionDate');
+    }
+  }
+  if (!input.previousCaseId) return;
+  const id = bodyId(input.previousCaseId, 'previousCaseId', PREVIOUS_CASE_UNKNOWN)!;
+  if (existing && id === existing.id) fail('A case cannot follow itself: choose an earlier case of the tooth.');
+  const previous = await em.findOne(TreatmentCaseSchema, { id, practice: actor.practiceId }, { fields: ['id', 'patient', 'tooth', 'completionDate', 'previousCase'] });
+  if (!previous) fail(PREVIOUS_CASE_UNKNOWN);
+  const p = previous!;
+  if (p.patient.id !== input.patientId) fail('The earlier case is of another patient: choose a case of this patient.');
+  if (p.tooth !== input.tooth) fail(`The earlier case treated tooth ${formatTooth(p.tooth, 'fdi')} (FDI), not tooth ${formatTooth(input.tooth, 'fdi')}.`);
+  if (!p.completionDate) fail('The earlier case is not completed yet: complete it before linking a later treatment to it.');
+  if (p.completionDate! > input.startDate) fail(`The earlier case was completed on ${p.completionDate}, after this case started (${input.startDate}).`);
+  // No loop: walk back from the earlier case (a tooth has few cases).
+  let back = p.previousCase?.id;
+  for (let step = 0; back && step < 50; step++) {
+    if (existing && back === existing.id) fail('The earlier case already follows this one: choose a case that came before it.');
+    const prior = await em.findOne(TreatmentCaseSchema, { id: back, practice: actor.practiceId }, { fields: ['id', 'previousCase'] });
+    back = prior?.previousCase?.id;
+  }
+  const followedBy = await em.findOne(
+    TreatmentCaseSchema,
+    { previousCase: p.id, practice: actor.practiceId, ...(existing ? { id: { $ne: existing.id } } : {}) },
+    { fields: ['id', 'startDate'] },
+  );
+  if (followedBy) fail(`The earlier case is already followed by a treatment started on ${followedBy.startDate}: link to the latest treatment of the tooth.`);
+}
+
+async function linkedCases(em: EntityManager, c: TreatmentCase): Promise<{ previousCase: LinkedCase | null; laterCases: LinkedCase[] }> {
+  const previousId = c.previousCase?.id ?? null;
+  const rows = (await em
+    .getKnex()('treatment_case')
+    .where('practice_id', c.practice.id)
+    .andWhere((w) => {
+      w.where('previous_case_id', c.id);
+      if (previousId) w.orWhere('id', previousId);
+    })
+    .select('id', 'kind', 'start_date', 'completion_date', 'archived_at')
+    .orderBy([{ column: 'start_date' }, { column: 'id' }])) as { id: string; kind: CaseKind; start_date: string; completion_date: string | null; archived_at: Date | null }[];
+  const view = (r: (typeof rows)[number]): LinkedCase => ({
+    id: r.id,
+    kindLabel: CASE_KIND_LABELS[r.kind],
+    startDate: r.start_date,
+    completionDate: r.completion_date ?? null,
+    archived: r.archived_at !== null,
+  });
+  const previous = rows.find((r) => r.id === previousId);
+  return { previousCase: previous ? view(previous) : null, laterCases: rows.filter((r) => r.id !== previousId).map(view) };
+}
+
 function reasonOf(reviews: readonly ReviewView[], id: string | null): string {
   return reviews.find((x) => x.id === id)?.correctionReason ?? '—';
 }
 
 async function caseDetail(em: EntityManager, c: TreatmentCase, settings: PracticeSettings): Promise<CaseDetail> {
-  const [patient, operator, referrer, visits, reviews] = await Promise.all([
+  const [patient, operator, referrer, visits, reviews, linked] = await Promise.all([
     em.findOneOrFail(PatientSchema, c.patient.id),
     em.findOneOrFail(UserSchema, c.operator.id, { fields: ['id', 'name', 'email'] }),
     c.referrer ? em.findOne(ReferrerSchema, c.referrer.id) : Promise.resolve(null),
     loadVisits(em, c.id),
     caseReviews(em, c.id),
+    linkedCases(em, c),
   ]);
   const today = todayIn(settings.timeZone);
   const visitList = await visitViews(em, visits, today);
@@ -760,6 +846,7 @@ async function caseDetail(em: EntityManager, c: TreatmentCase, settings: Practic
     caution: SCORING_CAUTION,
     timeline,
     source: c.source as 'form' | 'import' | 'demo',
+    ...linked,
     archived: Boolean(c.archivedAt),
     createdAt: c.createdAt.toISOString(),
     updatedAt: c.updatedAt.toISOString(),

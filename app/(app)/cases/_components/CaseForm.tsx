@@ -1,5 +1,5 @@
 'use client';
-import { useState } from 'react';
+import { useEffect, useState } from 'react';
 import { useRouter } from 'next/navigation';
 import { useFieldArray, useForm, useWatch, type FieldErrors, type UseFormRegister } from 'react-hook-form';
 import { schemaResolver } from '@/components/forms/schemaResolver';
@@ -73,7 +73,18 @@ export interface CaseFormShape {
   coronalRestoration?: string;
   definitiveRestoration?: string;
   definitiveRestorationDate?: string;
+  previousCaseId?: string;
 }
+
+/** A completed case of the same patient that a new case of its tooth may follow. */
+export interface ToothCaseOption {
+  id: string;
+  toothFdi: number;
+  label: string;
+}
+
+/** Kinds that treat a tooth treated before: a new one pre-selects the tooth's latest case. */
+const FOLLOWING_KINDS: readonly CaseKind[] = ['nonsurgical_retreatment', 'apical_surgery'];
 
 const num = { setValueAs: (v: unknown) => (v === '' || v === null || v === undefined ? undefined : Number(v)) };
 const opt = { setValueAs: (v: unknown) => (v === '' ? undefined : v) };
@@ -87,6 +98,8 @@ export function CaseForm(props: {
   caseId?: string;
   initial?: Partial<CaseFormShape>;
   defaultOperatorId?: string;
+  /** The patient's completed cases (newest first, this one left out), for the earlier-case link. */
+  toothCases?: ToothCaseOption[];
 }) {
   const router = useRouter();
   const [serverError, setServerError] = useState<string | null>(null);
@@ -110,6 +123,20 @@ export function CaseForm(props: {
   const tooth = useWatch({ control, name: 'tooth' });
   const canalValues = useWatch({ control, name: 'canals' }) ?? [];
   const canals = useFieldArray({ control, name: 'canals' });
+  const previousCaseId = useWatch({ control, name: 'previousCaseId' });
+  const parsedTooth = tooth ? parseFdi(tooth) : null;
+  const toothFdi = parsedTooth?.ok ? parsedTooth.tooth.fdi : null;
+  const earlierCases = (props.toothCases ?? []).filter((c) => c.toothFdi === toothFdi);
+  const earlierIds = earlierCases.map((c) => c.id).join(',');
+  useEffect(() => {
+    const ids = earlierIds ? earlierIds.split(',') : [];
+    // The link names a case of this tooth; a new retreatment or surgery of a tooth with an
+    // earlier case links to its latest one until the clinician chooses otherwise.
+    if (previousCaseId && !ids.includes(previousCaseId)) form.setValue('previousCaseId', '');
+    else if (!props.caseId && !previousCaseId && ids.length && FOLLOWING_KINDS.includes(kind) && !form.getFieldState('previousCaseId').isDirty) {
+      form.setValue('previousCaseId', ids[0]);
+    }
+  }, [earlierIds, kind, previousCaseId, props.caseId, form]);
   const shown = fieldsFor(kind);
   const has = (s: CaseSection) => shown.sections.includes(s);
 
@@ -126,7 +153,8 @@ export function CaseForm(props: {
     const sent = await submitJson<{ id?: string; case?: { id: string } }, CaseFormShape>(
       props.caseId ? `/api/cases/${props.caseId}` : '/api/cases',
       props.caseId ? 'PATCH' : 'POST',
-      values,
+      // '' clears the earlier-case link on an edit (the resolver turns an empty choice into undefined).
+      { ...values, previousCaseId: values.previousCaseId ?? '' },
       { setError: form.setError },
     );
     if (!sent.ok) {
@@ -150,6 +178,20 @@ export function CaseForm(props: {
         </p>
         <Field label="Tooth (FDI)" inputMode="numeric" {...register('tooth')} hint={toothHint} error={err('tooth')} />
         <Select label="Kind of treatment" options={optionsOf(CASE_KINDS, CASE_KIND_LABELS)} {...register('kind')} error={err('kind')} />
+        {earlierCases.length > 0 ? (
+          <div className="md:col-span-2">
+            <Select
+              label="This treats the tooth of an earlier case (retreatment / surgery after …)"
+              placeholder="No: not linked to an earlier case"
+              options={earlierCases.map((c) => ({ value: c.id, label: c.label }))}
+              {...register('previousCaseId')}
+              error={err('previousCaseId')}
+            />
+            <p className="mt-1 text-xs text-ink-500">Linked, the tooth is followed for tooth loss across both treatments.</p>
+          </div>
+        ) : (
+          err('previousCaseId') && <p className="field-error md:col-span-2">{err('previousCaseId')}</p>
+        )}
         <Select label="Operator" placeholder="Choose the clinician" options={props.clinicians} {...register('operatorId')} error={err('operatorId')} />
         <Select label="Referred by" placeholder="Not referred" options={props.referrers} {...register('referrerId', opt)} error={err('referrerId')} />
         <Field label="Start date" type="date" {...register('startDate')} error={err('startDate')} />

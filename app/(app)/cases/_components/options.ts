@@ -1,4 +1,5 @@
-import type { ClinicianView } from '@/lib/services/cases';
+import type { CaseRow, ClinicianView } from '@/lib/services/cases';
+import { fmtDate } from '@/components/ui/format';
 import type { ReferrerView } from '@/lib/services/referrers';
 import { codeLabel } from '@/lib/schemas/case';
 import { PAI_LEVELS } from '@/lib/scoring';
@@ -19,3 +20,10 @@ export const isoSize = (size: number) => String(size).padStart(2, '0');
 
 /** Coded values (sex, recall channel, materials…) with their words from `codeLabel`. */
 export const codeOptions = (values: readonly string[]): Option[] => values.map((v) => ({ value: v, label: codeLabel(v) }));
+
+/** A patient's completed cases a new case of the same tooth may follow, newest first (`except`: the case edited). */
+export const toothCaseOptions = (rows: readonly CaseRow[], except?: string) =>
+  rows
+    .filter((r) => r.completionDate && r.id !== except)
+    .sort((a, b) => (a.completionDate! < b.completionDate! ? 1 : a.completionDate! > b.completionDate! ? -1 : 0))
+    .map((r) => ({ id: r.id, toothFdi: r.toothFdi, label: `${r.kindLabel}, completed ${fmtDate(r.completionDate)}${r.archived ? ' (archived)' : ''}` }));

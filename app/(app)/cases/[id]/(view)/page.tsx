@@ -3,7 +3,7 @@ import Link from 'next/link';
 import { notFound } from 'next/navigation';
 import { requireActor } from '@/lib/auth/session';
 import { can } from '@/lib/auth/permissions';
-import { getCase } from '@/lib/services/cases';
+import { getCase, type LinkedCase } from '@/lib/services/cases';
 import { NotFoundError } from '@/lib/services/errors';
 import {
   APICAL_DIAGNOSIS_LABELS,
@@ -52,6 +52,7 @@ export default async function CasePage({ params, searchParams }: { params: Promi
   const initialVisitId = reviewVisits.find((x) => x.value === wanted)?.value ?? c.visits.find((x) => x.ofTheDay)?.id;
   const correctingId = typeof query.correct === 'string' ? query.correct : undefined;
   const correcting = canReview ? c.reviews.find((r) => r.id === correctingId && r.current) : undefined;
+  const canWrite = can(actor.roles, 'case.write');
   return (
     <div className="space-y-6">
       <p className="text-sm">
@@ -79,6 +80,25 @@ export default async function CasePage({ params, searchParams }: { params: Promi
         </div>
       </div>
       {c.archived && <p className="rounded-md bg-bone-200 px-3 py-2 text-sm">This case is archived: it stays in the record but leaves the working lists.</p>}
+      {(c.previousCase || c.laterCases.length > 0 || (c.completionDate && canWrite && !c.archived)) && (
+        <ul aria-label="Other treatments of this tooth" className="space-y-1 text-sm">
+          {c.previousCase && (
+            <li>
+              Earlier treatment of this tooth: <LinkedCaseLink linked={c.previousCase} />
+            </li>
+          )}
+          {c.laterCases.map((l) => (
+            <li key={l.id}>
+              Later treatment: <LinkedCaseLink linked={l} />
+            </li>
+          ))}
+          {c.laterCases.length === 0 && c.completionDate && canWrite && !c.archived && !c.patient.archived && (
+            <li>
+              <Link href={`/cases/new?patient=${c.patient.id}&tooth=${c.toothFdi}`}>Record a later treatment of this tooth</Link>
+            </li>
+          )}
+        </ul>
+      )}
 
       <div className="grid gap-6 lg:grid-cols-3">
         <section aria-labelledby="timeline" className="card lg:col-span-1">
@@ -310,5 +330,14 @@ function Item({ term, children }: { term: string; children: React.ReactNode }) {
       <dt className="text-ink-500">{term}</dt>
       <dd className="font-medium">{children}</dd>
     </div>
+  );
+}
+
+function LinkedCaseLink({ linked }: { linked: LinkedCase }) {
+  return (
+    <>
+      <Link href={`/cases/${linked.id}`}>{linked.kindLabel}</Link>, {linked.completionDate ? `completed ${fmtDate(linked.completionDate)}` : `started ${fmtDate(linked.startDate)}, in progress`}
+      {linked.archived ? ' (archived)' : ''}
+    </>
   );
 }

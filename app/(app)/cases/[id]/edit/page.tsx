@@ -2,11 +2,11 @@ import type { Metadata } from 'next';
 import Link from 'next/link';
 import { notFound } from 'next/navigation';
 import { requireActor } from '@/lib/auth/session';
-import { getCase, listClinicians } from '@/lib/services/cases';
+import { getCase, listClinicians, listPatientCases } from '@/lib/services/cases';
 import { listReferrers } from '@/lib/services/referrers';
 import { NotFoundError } from '@/lib/services/errors';
 import { CaseForm, type CaseFormShape } from '../../_components/CaseForm';
-import { clinicianOptions, referrerOptions } from '../../_components/options';
+import { clinicianOptions, referrerOptions, toothCaseOptions } from '../../_components/options';
 
 export const metadata: Metadata = { title: 'Edit case' };
 
@@ -17,7 +17,11 @@ export default async function EditCasePage({ params }: { params: Promise<{ id: s
     if (e instanceof NotFoundError) notFound();
     throw e;
   });
-  const [clinicians, referrers] = await Promise.all([listClinicians(em, actor), listReferrers(em, actor, { page: 1, pageSize: 200 })]);
+  const [clinicians, referrers, patientCases] = await Promise.all([
+    listClinicians(em, actor),
+    listReferrers(em, actor, { page: 1, pageSize: 200 }),
+    listPatientCases(em, actor, c.patient.id),
+  ]);
   return (
     <div className="space-y-5">
       <p className="text-sm">
@@ -31,6 +35,7 @@ export default async function EditCasePage({ params }: { params: Promise<{ id: s
         clinicians={clinicianOptions(clinicians)}
         referrers={referrerOptions(referrers.rows)}
         notation={c.notation}
+        toothCases={toothCaseOptions(patientCases, c.id)}
         initial={{ ...(c.values as unknown as Partial<CaseFormShape>), tooth: String(c.values.tooth) }}
       />
     </div>
