@@ -11,7 +11,7 @@ export const UserSchema = defineEntity({
     email: p.string().length(254).unique(),
     name: p.string().length(160).nullable(),
     /** bcrypt hash; null until an invited user sets a password. */
-    passwordHash: p.string().length(100).nullable().hidden(),
+    passwordHash: p.string().length(100).nullable().hidden().default(null),
     emailVerified: p.datetime().nullable(),
     createdAt: p.datetime().onCreate(() => new Date()),
     lastSignInAt: p.datetime().nullable(),

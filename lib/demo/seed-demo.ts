@@ -9,9 +9,9 @@ import {
   ReviewSchema,
   TreatmentCaseSchema,
   UserSchema,
-  type Practice,
 } from '../../entities';
 import { hashPassword } from '../auth/password';
+import type { Role } from '../auth/roles';
 import type { VisitStatus } from '../recall/status';
 import type { ReviewSign } from '../schemas/review';
 import { caseColumns } from '../services/cases';
@@ -39,7 +39,7 @@ export interface SeedResult {
   second: { practiceName: string; users: { email: string; role: string }[]; cases: number };
 }
 
-type Staff = { email: string; name: string; roles: readonly string[] };
+type Staff = { email: string; name: string; roles: readonly Role[] };
 
 /**
  * Creates what is missing of the demo practice, its users and its invented registry
@@ -93,7 +93,7 @@ async function seedPractice(em: EntityManager, def: { slug: string; name: string
   let created = false;
   let practice = await em.findOne(PracticeSchema, { slug: def.slug });
   if (!practice) {
-    practice = em.create(PracticeSchema, { ...def } as never) as Practice;
+    practice = em.create(PracticeSchema, { ...def });
     created = true;
   }
   const existing = await em.find(UserSchema, { email: { $in: people.map((u) => u.email) } });
@@ -101,10 +101,10 @@ async function seedPractice(em: EntityManager, def: { slug: string; name: string
   const users: { email: string; role: string }[] = [];
   const staff = people.map((u) => {
     const found = existing.find((e) => e.email === u.email);
-    const user = found ?? (em.create(UserSchema, { email: u.email, name: u.name, passwordHash: hash, emailVerified: new Date() } as never) as typeof existing[number]);
+    const user = found ?? (em.create(UserSchema, { email: u.email, name: u.name, passwordHash: hash, emailVerified: new Date() }));
     for (const role of u.roles) {
       if (!found || !memberships.some((m) => m.user.id === found.id && m.role === role)) {
-        em.create(MembershipSchema, { user, practice, role } as never);
+        em.create(MembershipSchema, { user, practice, role });
       }
     }
     users.push({ email: u.email, role: u.roles.join('+') });

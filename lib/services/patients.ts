@@ -189,7 +189,7 @@ export async function createPatient(em: EntityManager, actor: Actor, raw: unknow
     ...patientColumns(input),
     consentRecordedBy: actor.userId,
     archivedAt: input.archived ? new Date() : null,
-  } as never) as Patient;
+  });
   await flushUnique(em);
   await audit(em, actor, { action: 'patient.created', entityType: 'patient', entityId: patient.id });
   return patientView(em, patient);
@@ -232,7 +232,7 @@ export async function updatePatient(em: EntityManager, actor: Actor, id: string,
   // Such a record is repaired with the edit (not counted as a consent change: nobody changed it).
   patient.recallChannel = merged.recallChannel;
   if (changed.some((f) => (CONSENT_FIELDS as readonly string[]).includes(f))) {
-    patient.consentRecordedBy = em.getReference(UserSchema, actor.userId) as never;
+    patient.consentRecordedBy = em.getReference(UserSchema, actor.userId, { wrapped: true });
   }
   let archiveChange: 'archived' | 'restored' | null = null;
   if (patch.archived === true && !patient.archivedAt) {

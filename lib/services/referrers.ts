@@ -71,7 +71,7 @@ export async function createReferrer(em: EntityManager, actor: Actor, raw: unkno
     name: input.name,
     practiceName: input.practiceName ?? null,
     email: input.email ?? null,
-  } as never) as Referrer;
+  }) as Referrer;
   await em.flush();
   await audit(em, actor, { action: 'referrer.created', entityType: 'referrer', entityId: referrer.id });
   return referrerView(referrer);

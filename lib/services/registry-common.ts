@@ -219,7 +219,7 @@ export async function bulkInsert(em: EntityManager, entity: { meta: { className:
   const meta = em.getMetadata().get(typeof entity === 'string' ? entity : entity.meta.className);
   const props = Object.keys(rows[0]!);
   const columns = props.map((p) => {
-    const prop = meta.properties[p as never] as { fieldNames?: string[] } | undefined;
+    const prop = meta.props.find((x) => x.name === p);
     if (!prop?.fieldNames?.length) throw new Error(`bulkInsert: ${meta.className} has no column for ${p}`);
     return prop.fieldNames[0]!;
   });

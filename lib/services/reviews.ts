@@ -193,7 +193,7 @@ export async function createReview(
     outcomeReasons: assessment.reasons,
     correctionReason: correction?.reason ?? null,
     correctedBy: correction ? actor.userId : null,
-  } as never) as Review;
+  });
   if (correction) {
     correction.supersedes.supersededBy = ref(review);
     correction.supersedes.supersededAt = new Date();

@@ -19,6 +19,7 @@
  */
 import { runUnderScriptsTsconfig } from '../lib/scripts-tsconfig';
 import { performance } from 'node:perf_hooks';
+import type { VisitStatus } from '../../lib/recall/status';
 
 await runUnderScriptsTsconfig(import.meta.url);
 
@@ -65,14 +66,14 @@ const orm = await MikroORM.init({ ...config, pool: { min: 0, max: 6 } });
 const today = todayIn('Europe/London');
 const slug = `bench-registry-${Date.now()}`;
 const em0 = orm.em.fork();
-const practice = em0.create(entities.PracticeSchema, { name: 'Bench Endodontics (invented)', slug } as never) as { id: string; name: string };
+const practice = em0.create(entities.PracticeSchema, { name: 'Bench Endodontics (invented)', slug });
 const clinicians = Array.from({ length: 4 }, (_, i) =>
-  em0.create(entities.UserSchema, { email: `clinician${i + 1}.${slug}@bench.invalid`, name: `Bench Clinician ${i + 1}` } as never) as { id: string; email: string },
+  em0.create(entities.UserSchema, { email: `clinician${i + 1}.${slug}@bench.invalid`, name: `Bench Clinician ${i + 1}` }),
 );
-const lead = em0.create(entities.UserSchema, { email: `lead.${slug}@bench.invalid`, name: 'Bench Lead' } as never) as { id: string; email: string };
-for (const c of clinicians) em0.create(entities.MembershipSchema, { user: c, practice, role: 'clinician' } as never);
-em0.create(entities.MembershipSchema, { user: lead, practice, role: 'auditor' } as never);
-em0.create(entities.MembershipSchema, { user: lead, practice, role: 'coordinator' } as never);
+const lead = em0.create(entities.UserSchema, { email: `lead.${slug}@bench.invalid`, name: 'Bench Lead' });
+for (const c of clinicians) em0.create(entities.MembershipSchema, { user: c, practice, role: 'clinician' });
+em0.create(entities.MembershipSchema, { user: lead, practice, role: 'auditor' });
+em0.create(entities.MembershipSchema, { user: lead, practice, role: 'coordinator' });
 await em0.flush();
 const actor: Actor = {
   userId: lead.id,
@@ -142,7 +143,7 @@ for (let i = 0; i < N_CASES; i++) {
   const id = randomUUID();
   const operatorId = clinicians[i % 4]!.id;
   const plan = planImportedVisits(completion, DEFAULT_RECALL_POLICY, today).map((v) => {
-    let status: string = v.status;
+    let status: VisitStatus = v.status;
     if (status === 'missed') status = weighted([['attended', 55], ['missed', 28], ['declined', 6], ['cancelled', 5], ['closed', 6]] as const);
     else if (v.windowStart <= today) status = weighted([['planned', 25], ['invited', 40], ['confirmed', 25], ['attended', 10]] as const);
     else if (v.windowStart <= addDaysTo(today, 30)) status = weighted([['planned', 60], ['invited', 40]] as const);
@@ -163,8 +164,8 @@ for (let i = 0; i < N_CASES; i++) {
       paiScore: pai,
       lesionDiameterMm: lesion,
       canals,
-    } as never),
-    ...visitSummary(plan as never),
+    }),
+    ...visitSummary(plan),
     source: 'demo',
     createdAt: now,
     updatedAt: now,

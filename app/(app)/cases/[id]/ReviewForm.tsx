@@ -1,8 +1,8 @@
 'use client';
 import { useState } from 'react';
 import { useRouter } from 'next/navigation';
-import { useForm, useWatch, type Resolver } from 'react-hook-form';
-import { zodResolver } from '@hookform/resolvers/zod';
+import { useForm, useWatch } from 'react-hook-form';
+import { schemaResolver } from '@/components/forms/schemaResolver';
 import { z } from 'zod';
 import {
   EVENT_STATUSES,
@@ -21,6 +21,7 @@ import { Select, optionsOf } from '@/components/ui/Select';
 import { Notice } from '@/components/ui/Notice';
 import { Check, CheckGroup } from '@/components/ui/Check';
 import { PAI_OPTIONS } from '../_components/options';
+import { submitJson } from '@/components/forms/submitJson';
 
 type Shape = Record<string, unknown> & {
   visitId?: string;
@@ -78,7 +79,7 @@ export function ReviewForm({
   const [open, setOpen] = useState(startOpen);
   const [serverError, setServerError] = useState<string | null>(null);
   const form = useForm<Shape>({
-    resolver: zodResolver((correcting ? CorrectionFormSchema : FormSchema) as never, undefined, { raw: true }) as unknown as Resolver<Shape>,
+    resolver: schemaResolver(correcting ? CorrectionFormSchema : FormSchema, { raw: true }),
     defaultValues: correcting
       ? { ...correcting.values, reason: '' }
       : { toothStatus: 'present', reviewDate: new Date().toISOString().slice(0, 10), visitId: initialVisitId ?? '' },
@@ -93,11 +94,9 @@ export function ReviewForm({
   const onSubmit = form.handleSubmit(async (values) => {
     setServerError(null);
     const url = correcting ? `/api/cases/${caseId}/reviews/${correcting.reviewId}/correction` : `/api/cases/${caseId}/reviews`;
-    const res = await fetch(url, { method: 'POST', headers: { 'Content-Type': 'application/json' }, body: JSON.stringify(values) });
-    const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
-    if (!res.ok) {
-      for (const [field, msgs] of Object.entries(body.fieldErrors ?? {})) form.setError(field, { message: msgs[0] });
-      setServerError(body.message ?? 'The review could not be saved.');
+    const sent = await submitJson(url, 'POST', values, { setError: form.setError });
+    if (!sent.ok) {
+      setServerError(sent.message ?? 'The review could not be saved.');
       return;
     }
     form.reset();

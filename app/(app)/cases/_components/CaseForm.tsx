@@ -1,8 +1,8 @@
 'use client';
 import { useEffect, useState } from 'react';
 import { useRouter } from 'next/navigation';
-import { useFieldArray, useForm, useWatch, type FieldErrors, type Resolver, type UseFormRegister } from 'react-hook-form';
-import { zodResolver } from '@hookform/resolvers/zod';
+import { useFieldArray, useForm, useWatch, type FieldErrors, type UseFormRegister } from 'react-hook-form';
+import { schemaResolver } from '@/components/forms/schemaResolver';
 import {
   APICAL_DIAGNOSES,
   APICAL_DIAGNOSIS_LABELS,
@@ -15,6 +15,7 @@ import {
   COMPLICATIONS,
   COMPLICATION_LABELS,
   CaseCreateSchema,
+  type CaseCreate,
   DEFINITIVE_RESTORATIONS,
   DEFINITIVE_RESTORATION_LABELS,
   FILLING_TECHNIQUES,
@@ -42,6 +43,7 @@ import { Select, optionsOf } from '@/components/ui/Select';
 import { Notice } from '@/components/ui/Notice';
 import { Check, CheckGroup } from '@/components/ui/Check';
 import { PAI_OPTIONS, codeOptions, isoSize, type Option } from './options';
+import { submitJson } from '@/components/forms/submitJson';
 
 /** What the form holds: strings from inputs, numbers through setValueAs. */
 export interface CaseFormShape {
@@ -101,9 +103,9 @@ export function CaseForm(props: {
 }) {
   const router = useRouter();
   const [serverError, setServerError] = useState<string | null>(null);
-  const form = useForm<CaseFormShape>({
+  const form = useForm<CaseFormShape, unknown, CaseCreate>({
     // The same zod schema the API applies; fields that do not apply to the kind are dropped first.
-    resolver: zodResolver(CaseCreateSchema as never) as unknown as Resolver<CaseFormShape>,
+    resolver: schemaResolver(CaseCreateSchema),
     mode: 'onBlur',
     defaultValues: {
       patientId: props.patient.id,
@@ -148,19 +150,18 @@ export function CaseForm(props: {
 
   const onSubmit = form.handleSubmit(async (values) => {
     setServerError(null);
-    const res = await fetch(props.caseId ? `/api/cases/${props.caseId}` : '/api/cases', {
-      method: props.caseId ? 'PATCH' : 'POST',
-      headers: { 'Content-Type': 'application/json' },
+    const sent = await submitJson<{ id?: string; case?: { id: string } }, CaseFormShape>(
+      props.caseId ? `/api/cases/${props.caseId}` : '/api/cases',
+      props.caseId ? 'PATCH' : 'POST',
       // '' clears the earlier-case link on an edit (the resolver turns an empty choice into undefined).
-      body: JSON.stringify({ ...values, previousCaseId: values.previousCaseId ?? '' }),
-    });
-    const body = (await res.json().catch(() => ({}))) as { id?: string; case?: { id: string }; message?: string; fieldErrors?: Record<string, string[]> };
-    if (!res.ok) {
-      for (const [field, msgs] of Object.entries(body.fieldErrors ?? {})) form.setError(field as keyof CaseFormShape, { message: msgs[0] });
-      setServerError(body.message ?? 'The case could not be saved. Nothing was lost: check the fields marked below.');
+      { ...values, previousCaseId: values.previousCaseId ?? '' },
+      { setError: form.setError },
+    );
+    if (!sent.ok) {
+      setServerError(sent.message ?? 'The case could not be saved. Nothing was lost: check the fields marked below.');
       return;
     }
-    const id = props.caseId ?? body.id ?? body.case?.id;
+    const id = props.caseId ?? sent.data.id ?? sent.data.case?.id;
     router.push(`/cases/${id}`);
     router.refresh();
   }, () => setServerError('Some fields need attention. Nothing you typed was lost.'));

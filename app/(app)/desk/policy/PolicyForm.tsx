@@ -1,12 +1,13 @@
 'use client';
 import { useState } from 'react';
 import { useRouter } from 'next/navigation';
-import { useForm, type Resolver } from 'react-hook-form';
-import { zodResolver } from '@hookform/resolvers/zod';
-import { ReminderPolicySchema } from '@/lib/schemas/reminder-policy';
+import { useForm } from 'react-hook-form';
+import { ReminderPolicySchema, type ReminderPolicy } from '@/lib/schemas/reminder-policy';
+import { schemaResolver } from '@/components/forms/schemaResolver';
 import type { ReminderPolicyView } from '@/lib/services/recall-policy';
 import { Field } from '@/components/ui/Field';
 import { Notice } from '@/components/ui/Notice';
+import { submitJson } from '@/components/forms/submitJson';
 
 interface Shape {
   invitationWeeksBefore: number;
@@ -28,8 +29,8 @@ export function PolicyForm({ initial }: { initial: ReminderPolicyView }) {
   const router = useRouter();
   const [result, setResult] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
   const b = initial.bounds;
-  const form = useForm<Shape>({
-    resolver: zodResolver(ReminderPolicySchema as never) as unknown as Resolver<Shape>,
+  const form = useForm<Shape, unknown, ReminderPolicy>({
+    resolver: schemaResolver(ReminderPolicySchema),
     defaultValues: {
       invitationWeeksBefore: initial.policy.invitationWeeksBefore,
       secondInvitationAfterDays: initial.policy.secondInvitationAfterDays,
@@ -40,15 +41,9 @@ export function PolicyForm({ initial }: { initial: ReminderPolicyView }) {
   const e = form.formState.errors;
   const onSubmit = form.handleSubmit(async (values) => {
     setResult(null);
-    const res = await fetch('/api/recall/policy', {
-      method: 'PUT',
-      headers: { 'Content-Type': 'application/json' },
-      body: JSON.stringify({ ...values, quietHours: initial.policy.quietHours }),
-    });
-    const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
-    if (!res.ok) {
-      for (const [f, m] of Object.entries(body.fieldErrors ?? {})) form.setError(f as keyof Shape, { message: m[0] });
-      setResult({ tone: 'alert', text: body.message ?? 'The policy could not be saved.' });
+    const sent = await submitJson('/api/recall/policy', 'PUT', { ...values, quietHours: initial.policy.quietHours }, { setError: form.setError });
+    if (!sent.ok) {
+      setResult({ tone: 'alert', text: sent.message ?? 'The policy could not be saved.' });
       return;
     }
     setResult({ tone: 'ok', text: 'Policy saved. The next scan uses it.' });

@@ -9,6 +9,7 @@ import { Select } from '@/components/ui/Select';
 import { Notice } from '@/components/ui/Notice';
 import { Check } from '@/components/ui/Check';
 import { codeOptions } from '../../cases/_components/options';
+import { submitJson } from '@/components/forms/submitJson';
 
 interface PatientShape {
   registryNumber: string;
@@ -42,18 +43,17 @@ export function PatientForm({ patientId, initial, then }: { patientId?: string; 
   const onSubmit = form.handleSubmit(
     async (values) => {
       setServerError(null);
-      const res = await fetch(patientId ? `/api/patients/${patientId}` : '/api/patients', {
-        method: patientId ? 'PATCH' : 'POST',
-        headers: { 'Content-Type': 'application/json' },
-        body: JSON.stringify(values),
-      });
-      const body = (await res.json().catch(() => ({}))) as { patient?: { id: string }; id?: string; message?: string; fieldErrors?: Record<string, string[]> };
-      if (!res.ok) {
-        for (const [field, msgs] of Object.entries(body.fieldErrors ?? {})) form.setError(field as keyof PatientShape, { message: msgs[0] });
-        setServerError(body.message ?? 'The patient could not be saved.');
+      const sent = await submitJson<{ patient?: { id: string }; id?: string }, PatientShape>(
+        patientId ? `/api/patients/${patientId}` : '/api/patients',
+        patientId ? 'PATCH' : 'POST',
+        values,
+        { setError: form.setError },
+      );
+      if (!sent.ok) {
+        setServerError(sent.message ?? 'The patient could not be saved.');
         return;
       }
-      const id = patientId ?? body.patient?.id ?? body.id;
+      const id = patientId ?? sent.data.patient?.id ?? sent.data.id;
       router.push(then === 'case' ? `/cases/new?patient=${id}` : `/patients/${id}`);
       router.refresh();
     },

@@ -9,6 +9,7 @@ import { Field } from '@/components/ui/Field';
 import { Notice } from '@/components/ui/Notice';
 import { Check, CheckGroup } from '@/components/ui/Check';
 import { ROLE_OPTIONS } from './roles';
+import { submitJson } from '@/components/forms/submitJson';
 
 type Values = z.input<typeof InviteInput>;
 
@@ -19,17 +20,9 @@ export function InviteForm() {
 
   const onSubmit = form.handleSubmit(async (values) => {
     setResult(null);
-    const res = await fetch('/api/team/invitations', {
-      method: 'POST',
-      headers: { 'Content-Type': 'application/json' },
-      body: JSON.stringify(values),
-    });
-    const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
-    if (!res.ok) {
-      for (const [field, msgs] of Object.entries(body.fieldErrors ?? {})) {
-        if (field in values) form.setError(field as keyof Values, { message: msgs[0] });
-      }
-      setResult({ tone: 'alert', text: body.message ?? 'The invitation could not be sent.' });
+    const sent = await submitJson('/api/team/invitations', 'POST', values, { setError: form.setError, fields: (field) => field in values });
+    if (!sent.ok) {
+      setResult({ tone: 'alert', text: sent.message ?? 'The invitation could not be sent.' });
       return;
     }
     setResult({ tone: 'ok', text: `Invitation sent to ${values.email}.` });

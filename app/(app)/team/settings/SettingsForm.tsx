@@ -5,6 +5,7 @@ import { useFieldArray, useForm } from 'react-hook-form';
 import type { PracticeSettingsView } from '@/lib/services/practice-settings';
 import { defaultWindow } from '@/lib/schemas/recall-policy';
 import { Notice } from '@/components/ui/Notice';
+import { submitJson } from '@/components/forms/submitJson';
 
 interface Shape {
   toothNotation: 'fdi' | 'universal';
@@ -34,20 +35,15 @@ export function SettingsForm({ initial }: { initial: PracticeSettingsView }) {
 
   const onSubmit = form.handleSubmit(async (values) => {
     setResult(null);
-    const res = await fetch('/api/practice/settings', {
-      method: 'PATCH',
-      headers: { 'Content-Type': 'application/json' },
-      body: JSON.stringify({
-        toothNotation: values.toothNotation,
-        recallPolicy: { milestones: values.milestones },
-        minObservationDays: values.minObservationDays,
-        contact: { address: values.address, phone: values.phone, contactEmail: values.contactEmail },
-      }),
+    const sent = await submitJson('/api/practice/settings', 'PATCH', {
+      toothNotation: values.toothNotation,
+      recallPolicy: { milestones: values.milestones },
+      minObservationDays: values.minObservationDays,
+      contact: { address: values.address, phone: values.phone, contactEmail: values.contactEmail },
     });
-    const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
-    if (!res.ok) {
-      const detail = Object.values(body.fieldErrors ?? {}).flat();
-      setResult({ tone: 'alert', text: detail.length ? detail.join(' ') : (body.message ?? 'The settings could not be saved.') });
+    if (!sent.ok) {
+      const detail = Object.values(sent.fieldErrors).flat();
+      setResult({ tone: 'alert', text: detail.length ? detail.join(' ') : (sent.message ?? 'The settings could not be saved.') });
       return;
     }
     setResult({ tone: 'ok', text: 'Settings saved. A changed recall policy applies to cases completed from now on.' });
