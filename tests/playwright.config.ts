@@ -29,6 +29,9 @@ export default defineConfig({
   ],
   use: {
     baseURL,
+    // Writes carry the Origin a browser sends from Lamina's own pages (lib/http.ts refuses others);
+    // tests/e2e/security.spec.ts turns this off to send foreign and missing Origins itself.
+    extraHTTPHeaders: { Origin: new URL(baseURL).origin },
     screenshot: 'only-on-failure',
     trace: 'retain-on-failure',
     actionTimeout: 10_000,

@@ -76,6 +76,8 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     actions: {
       'review.list': 'Viewed a case’s reviews',
       'review.created': 'Recorded a review',
+      'review.corrected': 'Corrected a review (new version)',
+      'review.superseded': 'A review version was replaced by a correction',
     },
   },
   {

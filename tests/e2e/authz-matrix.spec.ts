@@ -122,6 +122,7 @@ const CROSS: Row[] = [
   { route: 'api/cases/[id]/visits', method: 'GET', url: (_, o) => `/api/cases/${o.caseId}/visits`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
   { route: 'api/cases/[id]/reviews', method: 'GET', url: (_, o) => `/api/cases/${o.caseId}/reviews`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
   { route: 'api/cases/[id]/reviews', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/reviews`, body: { toothStatus: 'present' }, expect: only({ clinician: 404 }) },
+  { route: 'api/cases/[id]/reviews/[reviewId]/correction', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/reviews/${randomUUID()}/correction`, body: { reason: 'Typo in the PAI.' }, expect: only({ clinician: 404 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: (_, o) => `/api/visits/${o.visitId}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
   { route: 'api/recall/visits/[id]/contact-log', method: 'GET', url: (_, o) => `/api/recall/visits/${o.visitId}/contact-log`, expect: only({ coordinator: 404 }) },
   { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },

@@ -153,7 +153,7 @@ const SPECS: Record<string, RouteSpec> = {
     fields: ['recallPolicy', 'recallPolicy.milestones', 'recallPolicy.milestones.0.months', 'recallPolicy.timeZone'],
   },
   'recall/book/route.ts#POST': { body: () => ({ visitIds: [ids.visit!], start: `${today}T09:30:00Z`, mode: 'propose', sendNow: false, note: 'Tuesday suits.' }), fields: ['visitIds.0'] },
-  'recall/mark/route.ts#POST': { body: () => ({ visitIds: [ids.visitMark!], status: 'missed', note: 'Did not come.' }), fields: ['visitIds.0'] },
+  'recall/mark/route.ts#POST': { body: () => ({ visitIds: [ids.visitMark!], status: 'missed', reason: 'no_show', note: 'Did not come.' }), fields: ['visitIds.0'] },
   'recall/policy/route.ts#GET': {},
   'recall/policy/route.ts#PUT': {
     body: () => ({ steps: [{ step: 'invitation', offsetDays: -14 }] }),
