@@ -112,6 +112,7 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     actions: {
       'outcomes.overview_read': 'Viewed the outcomes overview',
       'outcomes.factor_read': 'Viewed outcomes by factor',
+      'outcomes.curves_read': 'Viewed survival curves',
       'outcomes.exported': 'Downloaded outcome figures (CSV)',
     },
   },

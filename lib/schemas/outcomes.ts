@@ -18,3 +18,12 @@ export const OutcomeFactorQuery = z.intersection(
   OutcomeFilterQuery,
   z.object({ factor: z.enum(FACTOR_KEYS as [string, ...string[]], { error: `The factor is one of ${FACTOR_KEYS.join(', ')}.` }).default('kind') }),
 );
+
+export const OutcomeCurvesQuery = z.intersection(
+  OutcomeFilterQuery,
+  z.object({
+    endpoint: z.enum(['healing', 'tooth'], { error: 'The endpoint is healing or tooth.' }).default('healing'),
+    method: z.enum(['turnbull', 'km'], { error: 'The method is turnbull or km.' }).default('turnbull'),
+    factor: blankAsUndefined(z.enum(FACTOR_KEYS as [string, ...string[]], { error: `The factor is one of ${FACTOR_KEYS.join(', ')}.` })),
+  }),
+);

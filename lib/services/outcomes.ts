@@ -2,9 +2,9 @@ import 'server-only';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { writeCsv } from '@/lib/csv/write';
-import { applyFilter, byFactor, FACTORS, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
+import { applyFilter, byFactor, curves, type Curves, FACTORS, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
 import type { RecordedReview } from '@/lib/scoring';
-import { OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
+import { OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
 import { parseInput } from './parse';
 import { knexOf, practiceSettings, todayIn } from './registry-common';
@@ -154,6 +154,29 @@ export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unk
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, factor, table };
 }
 
+export interface CurvesReport {
+  filter: OutcomeFilter;
+  own: boolean;
+  clinicians: { id: string; name: string }[];
+  curves: Curves;
+}
+
+export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport> {
+  const q = parseInput(OutcomeCurvesQuery, raw ?? {});
+  const s = await scope(em, actor, q);
+  const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
+  const factor = (q.factor ?? null) as FactorKey | null;
+  const result = curves(applyFilter(s.all, s.filter), s.all, {
+    endpoint: q.endpoint,
+    method: q.method,
+    factor,
+    minObs: s.minObs,
+    levelName: factor === 'clinician' ? (id) => names.get(id) ?? 'Former clinician' : undefined,
+  });
+  await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}) } });
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, curves: result };
+}
+
 function filterDetail(f: OutcomeFilter): Record<string, string> {
   return Object.fromEntries(Object.entries(f).filter(([, v]) => v !== undefined)) as Record<string, string>;
 }
@@ -163,7 +186,7 @@ const rateCells = (r: Rate) => [r.x, r.n, pct(r.estimate), pct(r.lower), pct(r.u
 const RATE_HEAD = (what: string) => [`${what}: successes`, `${what}: n`, `${what} %`, `${what}: 95% lower %`, `${what}: 95% upper %`, `${what}: note`];
 
 /** A view's table as CSV through the one CSV writer (lib/csv/write.ts); the download is audited. */
-export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overview' | 'factor', raw: unknown): Promise<string> {
+export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overview' | 'factor' | 'curves', raw: unknown): Promise<string> {
   if (view === 'overview') {
     const { overview: o } = await outcomesOverview(em, actor, raw);
     const header = ['Figure', 'At', 'Value %', '95% lower %', '95% upper %', 'n', 'Detail'];
@@ -180,6 +203,14 @@ export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overvi
       }),
       ...o.survival.map((sv) => ['Tooth survival (Kaplan–Meier)', `${sv.years} years`, pct(sv.km.survival), pct(sv.km.lower), pct(sv.km.upper), sv.km.nRisk, sv.turnbull === null ? 'Turnbull not computed' : `Turnbull ${pct(sv.turnbull)}%`]),
     ];
+    await audit(em, actor, { action: 'outcomes.exported', detail: { view } });
+    return writeCsv(header, rows);
+  }
+  if (view === 'curves') {
+    const { curves: c } = await outcomesCurves(em, actor, raw);
+    const header = ['Level', 'Method', 'Day', 'Survival', '95% lower', '95% upper'];
+    const rows = c.curves.flatMap((cv) => cv.points.map((p) => [cv.level, c.method === 'km' ? 'Kaplan–Meier' : 'Turnbull', p.time, p.survival, p.lower ?? null, p.upper ?? null]));
+    for (const cp of c.competing) rows.push(...cp.points.map((p) => [`Cumulative incidence: ${cp.cause}`, 'Aalen–Johansen', p.time, p.incidence, p.lower, p.upper]));
     await audit(em, actor, { action: 'outcomes.exported', detail: { view } });
     return writeCsv(header, rows);
   }

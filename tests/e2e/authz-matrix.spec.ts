@@ -65,6 +65,7 @@ const MATRIX: Row[] = [
   // Outcomes (issue 12): the practice lead and the clinicians (a clinician sees their own cases).
   { route: 'api/outcomes/overview', method: 'GET', url: () => '/api/outcomes/overview', expect: only({ clinician: 200, auditor: 200 }) },
   { route: 'api/outcomes/factor', method: 'GET', url: () => '/api/outcomes/factor?factor=kind', expect: only({ clinician: 200, auditor: 200 }) },
+  { route: 'api/outcomes/curves', method: 'GET', url: () => '/api/outcomes/curves?endpoint=tooth', expect: only({ clinician: 200, auditor: 200 }) },
   { route: 'api/outcomes/export', method: 'GET', url: () => '/api/outcomes/export?view=overview', expect: only({ clinician: 200, auditor: 200 }) },
   { route: 'api/dev-mailbox', method: 'GET', url: () => '/api/dev-mailbox', expect: only({ admin: 200 }) },
   // Registry (issue 4): readers of patient data are the coordinator, the clinicians and the practice lead.
@@ -285,6 +286,7 @@ const PAGES: PageRow[] = [
   { page: 'desk', url: () => '/desk', expect: signInFirst(only({ coordinator: 200 })) },
   { page: 'desk/policy', url: () => '/desk/policy', expect: signInFirst(only({ coordinator: 200 })) },
   { page: 'outcomes', url: () => '/outcomes', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
+  { page: 'outcomes/curves', url: () => '/outcomes/curves', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'outcomes/factor', url: () => '/outcomes/factor', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'team', url: () => '/team', expect: signInFirst(only({ admin: 200 })) },
   { page: 'team/audit', url: () => '/team/audit', expect: signInFirst(only({ admin: 200 })) },

@@ -9,7 +9,7 @@ export const FILTER_KEYS = ['from', 'to', 'clinician', 'kind'] as const;
 /** The filters of the URL (strings as typed; the service validates them). */
 export function filtersOf(params: Record<string, string | string[] | undefined>): Record<string, string> {
   const out: Record<string, string> = {};
-  for (const k of [...FILTER_KEYS, 'factor']) {
+  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method']) {
     const v = params[k];
     if (typeof v === 'string' && v !== '') out[k] = v;
   }
@@ -52,6 +52,7 @@ export function Method({ children }: { children: ReactNode }) {
 const VIEWS = [
   { href: '/outcomes', label: 'Overview' },
   { href: '/outcomes/factor', label: 'By factor' },
+  { href: '/outcomes/curves', label: 'Survival curves' },
 ] as const;
 
 export function OutcomesHeader({
@@ -67,7 +68,7 @@ export function OutcomesHeader({
   clinicians: { id: string; name: string }[];
   own: boolean;
   problems: Record<string, string[]>;
-  csvView: 'overview' | 'factor';
+  csvView: 'overview' | 'factor' | 'curves';
 }) {
   const keep = Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]]));
   const problem = (k: string) => problems[k]?.[0];
@@ -112,7 +113,7 @@ export function OutcomesHeader({
         ))}
       </nav>
       <form method="get" action={current} aria-label="Filter the outcomes" className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-5">
-        {filters.factor && <input type="hidden" name="factor" value={filters.factor} />}
+        {(['factor', 'endpoint', 'method'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
         <div>
           <label htmlFor="outcomes-from" className="field-label">
             Completed from

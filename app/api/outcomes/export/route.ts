@@ -4,9 +4,9 @@ import { searchParamsObject } from '@/lib/schemas/paging';
 import { outcomesCsv } from '@/lib/services/outcomes';
 import { parseInput } from '@/lib/services/parse';
 
-const View = z.object({ view: z.enum(['overview', 'factor'], { error: 'view is overview or factor.' }) });
+const View = z.object({ view: z.enum(['overview', 'factor', 'curves'], { error: 'view is overview, factor or curves.' }) });
 
-/** GET /api/outcomes/export?view=overview|factor&… → the view's table as CSV (the one CSV writer). */
+/** GET /api/outcomes/export?view=overview|factor|curves&… → the view's table as CSV (the one CSV writer). */
 export const GET = handler('outcomes.read', async ({ req, em, actor }) => {
   const { view, ...rest } = searchParamsObject(req.url);
   const v = parseInput(View, { view }).view;
