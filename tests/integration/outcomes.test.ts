@@ -1,9 +1,9 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
 import { assessRecordedReview, caseObservations, recordedHistory, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
-import { fisherExact2x2, kaplanMeier, turnbull, wilsonInterval } from '@/lib/stats';
+import { cumulativeIncidence, fisherExact2x2, kaplanMeier, logRank, turnbull, wilsonInterval } from '@/lib/stats';
 import { createCase } from '@/lib/services/cases';
-import { outcomesByFactor, outcomesCsv, outcomesOverview } from '@/lib/services/outcomes';
+import { outcomesByFactor, outcomesCsv, outcomesCurves, outcomesOverview } from '@/lib/services/outcomes';
 import { createPatient } from '@/lib/services/patients';
 import { todayIn } from '@/lib/services/registry-common';
 import { createReview } from '@/lib/services/reviews';
@@ -242,5 +242,42 @@ describe('outcomes by factor (issue 12, item 2)', () => {
     const knex = services.orm.em.getKnex();
     const actions = (await knex('audit_event').where({ practice_id: world.practice.id }).select('action')).map((a: { action: string }) => a.action);
     expect(actions).toEqual(expect.arrayContaining(['outcomes.overview_read', 'outcomes.factor_read', 'outcomes.exported']));
+  });
+});
+
+describe('survival curves (issue 12, item 3)', () => {
+  const km = (ints: { left: number; right: number | null }[]) => kaplanMeier(ints.map((i) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true })));
+  const healing = (f: FixtureCase) =>
+    caseObservations(recordedHistory({ completionDate: completion.get(f.key)!, baselinePai: f.pai }, f.reviews.map((_, i) => recorded(f, i))), { minObservationDays: 365 }).healing;
+
+  it('Turnbull by default, Kaplan–Meier on request: each equals lib/stats on the fixture intervals, with numbers at risk', async () => {
+    const t = await outcomesCurves(services.em(), world.auditor, { endpoint: 'tooth' });
+    expect(t.curves.method).toBe('turnbull');
+    const ints = toothIntervals(CASES);
+    const tb = turnbull(ints);
+    expect(t.curves.curves[0]!.points.slice(1).map((p) => [p.time, p.survival])).toEqual(tb.map((r) => [r.upper, r.survival]));
+    // still followed at 0/6/12/24/36/48 months (days 0, 183, 365, 731, 1096, 1461): (right ?? left) ≥ t
+    expect(t.curves.curves[0]!.atRisk).toEqual([0, 183, 365, 731, 1096, 1461].map((d) => ints.filter((i) => (i.right ?? i.left) >= d).length));
+    const k = await outcomesCurves(services.em(), world.auditor, { endpoint: 'tooth', method: 'km' });
+    const expected = km(ints);
+    expect(k.curves.curves[0]!.points.slice(1).map((p) => [p.time, p.survival, p.lower, p.upper])).toEqual(expected.map((r) => [r.time, r.survival, r.lower, r.upper]));
+  });
+
+  it('per level: the log-rank test equals lib/stats logRank on the fixture’s healing intervals; competing events equal cumulativeIncidence', async () => {
+    const r = await outcomesCurves(services.em(), world.auditor, { endpoint: 'healing', method: 'km', factor: 'kind' });
+    const groups = Object.fromEntries(
+      (['primary_treatment', 'nonsurgical_retreatment'] as const).map((kind) => [
+        kind,
+        CASES.filter((f) => f.kind === kind).map(healing).map((i) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true })),
+      ]),
+    );
+    const lr = logRank(groups);
+    expect(r.curves.logRank?.pValue).toBeCloseTo(lr.pValue, 12);
+    expect(r.curves.curves.map((c) => [c.level, c.n])).toEqual([['Non-surgical retreatment', 1], ['Primary root canal treatment', 5]]);
+    // competing events: B extracted at 740 days; the others censored at their last review (0 without one)
+    const rows = CASES.map((f) => (f.key === 'B' ? { time: 740, cause: 'extraction' } : { time: f.reviews.length ? f.reviews[f.reviews.length - 1]!.day : 0, cause: null }));
+    const ci = cumulativeIncidence(rows);
+    expect(r.curves.competing.map((c) => c.cause)).toEqual(['extraction']);
+    expect(r.curves.competing[0]!.points.map((p) => p.incidence)).toEqual(ci.extraction!.map((s) => s.incidence));
   });
 });
