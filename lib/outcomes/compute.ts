@@ -205,6 +205,13 @@ export const FACTORS = {
 } as const satisfies Record<string, { label: string; level: (c: OutcomeCase) => string }>;
 
 export type FactorKey = keyof typeof FACTORS;
+
+/** Levels with a natural order (size bands, fill length) come in that order; others alphabetically. */
+const ORDERED_LEVELS = ['No lesion', 'Under 5 mm', '5 to under 10 mm', '10 mm or more', 'Within 0–2 mm', 'Short (over 2 mm)', 'Beyond the apex', 'Not measured'];
+export function levelOrder(level: string): number {
+  const i = ORDERED_LEVELS.indexOf(level);
+  return i === -1 ? ORDERED_LEVELS.length : i;
+}
 export const FACTOR_KEYS = Object.keys(FACTORS) as FactorKey[];
 
 export interface FactorLevel {
@@ -240,7 +247,7 @@ export function byFactor(selection: readonly OutcomeCase[], factor: FactorKey, m
     groups.set(key, g);
   }
   const levels = [...groups.entries()]
-    .sort(([a], [b]) => a.localeCompare(b, 'en', { numeric: true }))
+    .sort(([a], [b]) => levelOrder(a) - levelOrder(b) || a.localeCompare(b, 'en', { numeric: true }))
     .map(([lvl, g]) => ({ level: lvl, cases: g.cases, strict: rate(g.strict, g.n), lenient: rate(g.lenient, g.n), uncertain: g.uncertain }));
   const judged = levels.filter((l) => l.strict.n > 0);
   const table = judged.map((l) => [l.strict.x, l.strict.n - l.strict.x] as [number, number]);

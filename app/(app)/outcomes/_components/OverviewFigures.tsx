@@ -65,10 +65,10 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
               {o.success.map((f) => (
                 <tr key={String(f.at)} data-testid={`${idPrefix}-success-${f.at}`}>
                   <td data-label="When">{atLabel(f)}</td>
-                  <td data-label="Strict (healed)">
+                  <td data-label="Strict">
                     <RateText r={f.strict} />
                   </td>
-                  <td data-label="Best / worst case">
+                  <td data-label="Best / worst">
                     {f.missing === 0 ? (
                       <span className="text-sm text-ink-500">none missing</span>
                     ) : (
@@ -80,10 +80,10 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
                       </span>
                     )}
                   </td>
-                  <td data-label="Lenient (healed or healing)">
+                  <td data-label="Lenient">
                     <RateText r={f.lenient} />
                   </td>
-                  <td data-label="Uncertain, not seen" className="text-sm">
+                  <td data-label="Not counted" className="text-sm">
                     {f.uncertain} uncertain, {f.missing} not seen
                   </td>
                 </tr>
@@ -124,7 +124,7 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
                     {s.km.nRisk < 20 && <span className="ml-1 rounded border border-bone-300 px-1 text-xs">few cases</span>}
                   </td>
                   <td data-label="Turnbull">{s.turnbull === null ? <span className="text-sm text-ink-500">not computed</span> : pct(s.turnbull, 1)}</td>
-                  <td data-label="Teeth still followed">
+                  <td data-label="Followed">
                     {s.km.nRisk} of {o.teeth}
                   </td>
                 </tr>

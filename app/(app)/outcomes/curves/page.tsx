@@ -106,7 +106,7 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
                           {n}
                         </td>
                       ))}
-                      <td data-label="Estimate at 12 / 24 / 48 months">{[12, 24, 48].map((m) => pct(valueAt(cv, milestoneDays(m)), 1)).join(' / ')}</td>
+                      <td data-label="At 12/24/48 mo">{[12, 24, 48].map((m) => pct(valueAt(cv, milestoneDays(m)), 1)).join(' / ')}</td>
                     </tr>
                   ))}
                 </tbody>
@@ -114,7 +114,7 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
             </div>
             <p data-testid="log-rank">
               {c.logRank
-                ? `Log-rank test across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): p = ${c.logRank.pValue < 0.001 ? '< 0.001' : c.logRank.pValue.toFixed(3)}.`
+                ? `Log-rank test across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): p ${c.logRank.pValue < 0.001 ? '< 0.001' : `= ${c.logRank.pValue.toFixed(3)}`}.`
                 : 'No log-rank test: choose a factor with at least two levels and some events.'}
             </p>
             <Method>

@@ -70,14 +70,14 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
                 )}
                 {data.table.levels.map((l) => (
                   <tr key={l.level} data-testid="factor-level">
-                    <td data-label={FACTORS[factor].label} className="font-semibold">
+                    <td data-label="Level" className="font-semibold">
                       {l.level}
                     </td>
                     <td data-label="Cases">{l.cases}</td>
-                    <td data-label="Strict (healed)">
+                    <td data-label="Strict">
                       <RateText r={l.strict} />
                     </td>
-                    <td data-label="Lenient (healed or healing)">
+                    <td data-label="Lenient">
                       <RateText r={l.lenient} />
                     </td>
                     <td data-label="Uncertain">{l.uncertain}</td>
@@ -89,7 +89,7 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
           <p data-testid="factor-test">
             {test === null
               ? 'No test: fewer than two levels with judged cases, or every judged case had the same result.'
-              : `${test.method === 'fisher' ? 'Fisher’s exact test' : `Pearson’s χ² test (χ² = ${test.chiSquare!.toFixed(2)}, ${test.df} df)`}: p = ${test.pValue < 0.001 ? '< 0.001' : test.pValue.toFixed(3)}${test.sparse ? ' — some expected counts are below 5, read it with care' : ''}.`}
+              : `${test.method === 'fisher' ? 'Fisher’s exact test' : `Pearson’s χ² test (χ² = ${test.chiSquare!.toFixed(2)}, ${test.df} df)`}: p ${test.pValue < 0.001 ? '< 0.001' : `= ${test.pValue.toFixed(3)}`}${test.sparse ? ' — some expected counts are below 5, read it with care' : ''}.`}
           </p>
           <Method>
             outcome at the latest review a year or more after completion by Lamina’s scoring rules (a retreatment, surgery or extraction at any time counts as failure;
