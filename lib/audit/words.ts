@@ -109,6 +109,16 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     },
   },
   {
+    prefix: 'outcomes.',
+    label: 'Outcomes',
+    actions: {
+      'outcomes.overview_read': 'Viewed the outcomes overview',
+      'outcomes.factor_read': 'Viewed outcomes by factor',
+      'outcomes.curves_read': 'Viewed survival curves',
+      'outcomes.exported': 'Downloaded outcome figures (CSV)',
+    },
+  },
+  {
     prefix: 'practice.',
     label: 'Practice settings',
     actions: {

@@ -62,6 +62,11 @@ const MATRIX: Row[] = [
   { route: 'api/team/invitations/[id]/resend', method: 'POST', url: () => `/api/team/invitations/${randomUUID()}/resend`, expect: only({ admin: 404 }) },
   { route: 'api/audit', method: 'GET', url: () => '/api/audit?page=1', expect: only({ admin: 200 }) },
   { route: 'api/audit/export', method: 'GET', url: () => '/api/audit/export?action=nothing.matches', expect: only({ admin: 200 }) },
+  // Outcomes (issue 12): the practice lead and the clinicians (a clinician sees their own cases).
+  { route: 'api/outcomes/overview', method: 'GET', url: () => '/api/outcomes/overview', expect: only({ clinician: 200, auditor: 200 }) },
+  { route: 'api/outcomes/factor', method: 'GET', url: () => '/api/outcomes/factor?factor=kind', expect: only({ clinician: 200, auditor: 200 }) },
+  { route: 'api/outcomes/curves', method: 'GET', url: () => '/api/outcomes/curves?endpoint=tooth', expect: only({ clinician: 200, auditor: 200 }) },
+  { route: 'api/outcomes/export', method: 'GET', url: () => '/api/outcomes/export?view=overview', expect: only({ clinician: 200, auditor: 200 }) },
   { route: 'api/dev-mailbox', method: 'GET', url: () => '/api/dev-mailbox', expect: only({ admin: 200 }) },
   // Registry (issue 4): readers of patient data are the coordinator, the clinicians and the practice lead.
   { route: 'api/patients', method: 'GET', url: () => '/api/patients?page=1&pageSize=5', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
@@ -286,6 +291,9 @@ const PAGES: PageRow[] = [
   { page: 'desk/calls', url: () => '/desk/calls', expect: signInFirst(only({ coordinator: 200 })) },
   { page: 'desk/policy', url: () => '/desk/policy', expect: signInFirst(only({ coordinator: 200 })) },
   { page: 'account', url: () => '/account', expect: signInFirst(everyone(200)) },
+  { page: 'outcomes', url: () => '/outcomes', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
+  { page: 'outcomes/curves', url: () => '/outcomes/curves', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
+  { page: 'outcomes/factor', url: () => '/outcomes/factor', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'team', url: () => '/team', expect: signInFirst(only({ admin: 200 })) },
   { page: 'team/audit', url: () => '/team/audit', expect: signInFirst(only({ admin: 200 })) },
   { page: 'team/settings', url: () => '/team/settings', expect: signInFirst(only({ admin: 200 })) },

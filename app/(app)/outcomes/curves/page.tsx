@@ -1,0 +1,164 @@
+import type { Metadata } from 'next';
+import { requireActor } from '@/lib/auth/session';
+import { AT_RISK_MONTHS, FACTOR_KEYS, FACTORS, milestoneDays, TURNBULL_MAX, type Curve } from '@/lib/outcomes';
+import { outcomesCurves, type CurvesReport } from '@/lib/services/outcomes';
+import { ValidationError } from '@/lib/services/errors';
+import { Notice } from '@/components/ui/Notice';
+import { filtersOf, FILTER_KEYS, Method, OutcomesHeader, pct } from '../_components/parts';
+import { SurvivalChart } from '../_components/SurvivalChartLazy';
+import type { ChartSeries } from '../_components/SurvivalChart';
+
+export const metadata: Metadata = { title: 'Survival curves' };
+
+const valueAt = (c: Curve, t: number) => {
+  let v = 1;
+  for (const p of c.points) if (p.time <= t) v = p.survival;
+  return v;
+};
+
+export default async function OutcomesCurvesPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
+  const { em, actor } = await requireActor('outcomes.read', '/outcomes/curves');
+  const filters = filtersOf(await searchParams);
+  let data: CurvesReport | null = null;
+  let problems: Record<string, string[]> = {};
+  try {
+    data = await outcomesCurves(em, actor, filters);
+  } catch (e) {
+    if (!(e instanceof ValidationError)) throw e;
+    problems = e.fieldErrors ?? {};
+  }
+  const c = data?.curves;
+  const endpointWords = c?.endpoint === 'tooth' ? 'Tooth survival (event: extraction)' : 'Healing (failure: disease, retreatment, surgery or extraction)';
+  const series: ChartSeries[] = (c?.curves ?? []).map((cv) => ({
+    name: `${cv.level} (n = ${cv.n})`,
+    points: cv.points.map((p) => ({ time: p.time, value: p.survival, lower: p.lower, upper: p.upper })),
+    censored: c?.method === 'km' ? cv.censored.map((t) => ({ time: t, value: valueAt(cv, t) })) : undefined,
+  }));
+  const competing: ChartSeries[] = (c?.competing ?? []).map((cp) => ({
+    name: cp.cause,
+    points: [{ time: 0, value: 0, lower: 0, upper: 0 }, ...cp.points.map((p) => ({ time: p.time, value: p.incidence, lower: p.lower, upper: p.upper }))],
+  }));
+  const select = (name: string, value: string, options: [string, string][], label: string) => (
+    <div>
+      <label htmlFor={`curves-${name}`} className="field-label">
+        {label}
+      </label>
+      <select id={`curves-${name}`} name={name} defaultValue={value} className="field-input" aria-invalid={problems[name] ? true : undefined}>
+        {options.map(([v, l]) => (
+          <option key={v} value={v}>
+            {l}
+          </option>
+        ))}
+      </select>
+      {problems[name] && <p className="field-error">{problems[name][0]}</p>}
+    </div>
+  );
+  return (
+    <div className="space-y-8">
+      <OutcomesHeader current="/outcomes/curves" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="curves" />
+      <form method="get" action="/outcomes/curves" aria-label="Choose the curves" className="flex flex-wrap items-end gap-3">
+        {FILTER_KEYS.map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
+        {select('endpoint', c?.endpoint ?? filters.endpoint ?? 'healing', [['healing', 'Healing'], ['tooth', 'Tooth survival']], 'Endpoint')}
+        {select('method', c?.asked ?? filters.method ?? 'turnbull', [['turnbull', 'Turnbull (failures found at visits)'], ['km', 'Kaplan–Meier (on visit dates)']], 'Method')}
+        {select('factor', c?.factor ?? filters.factor ?? '', [['', 'No split'], ...FACTOR_KEYS.map((k): [string, string] => [k, FACTORS[k].label])], 'Split by')}
+        <button type="submit" className="btn-primary">
+          Show
+        </button>
+      </form>
+      {!data && <Notice tone="alert">Some choices need attention; nothing is shown until they are corrected.</Notice>}
+      {c && (
+        <>
+          <section aria-labelledby="curves-title" className="space-y-3">
+            <h2 id="curves-title" className="text-2xl">
+              {endpointWords}
+            </h2>
+            <Notice tone="info">
+              {c.method === 'turnbull'
+                ? 'Turnbull is the default: a failure is found at a recall visit, so it happened at some time since the last visit that found none. Kaplan–Meier would date it at the visit and overstate survival before it; switch to Kaplan–Meier to see its 95% band and censoring marks.'
+                : c.asked === 'turnbull'
+                  ? `Kaplan–Meier shown: the Turnbull estimate is not computed above ${TURNBULL_MAX.toLocaleString('en-GB')} cases (it takes too long). It dates each failure at the visit that found it.`
+                  : 'Kaplan–Meier dates each failure at the visit that found it (survival slightly overstated between visits); Turnbull, the default, does not.'}
+            </Notice>
+            <div className="h-80 rounded-lg border border-bone-200 bg-white p-2" data-testid="survival-chart">
+              <SurvivalChart series={series} yLabel={c.endpoint === 'tooth' ? 'Teeth kept' : 'Free of failure'} band={c.method === 'km'} />
+            </div>
+            <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
+              <table className="table-dense table-stack w-full" aria-label="Numbers at risk" data-testid="at-risk">
+                <thead>
+                  <tr>
+                    <th scope="col">Numbers at risk</th>
+                    {AT_RISK_MONTHS.map((m) => (
+                      <th key={m} scope="col">
+                        {m} mo
+                      </th>
+                    ))}
+                    <th scope="col">Estimate at 12 / 24 / 48 mo</th>
+                  </tr>
+                </thead>
+                <tbody>
+                  {c.curves.map((cv) => (
+                    <tr key={cv.level} className={cv.n < 20 ? 'text-ink-500' : undefined}>
+                      <td data-label="Level" className="font-semibold">
+                        {cv.level} {cv.n < 20 && <span className="ml-1 rounded border border-bone-300 px-1 text-xs font-normal">few cases</span>}
+                      </td>
+                      {cv.atRisk.map((n, i) => (
+                        <td key={AT_RISK_MONTHS[i]} data-label={`${AT_RISK_MONTHS[i]} months`}>
+                          {n}
+                        </td>
+                      ))}
+                      <td data-label="At 12/24/48 mo">{[12, 24, 48].map((m) => pct(valueAt(cv, milestoneDays(m)), 1)).join(' / ')}</td>
+                    </tr>
+                  ))}
+                </tbody>
+              </table>
+            </div>
+            <p data-testid="log-rank">
+              {c.logRank
+                ? `Log-rank test across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): p ${c.logRank.pValue < 0.001 ? '< 0.001' : `= ${c.logRank.pValue.toFixed(3)}`}.`
+                : 'No log-rank test: choose a factor with at least two levels and some events.'}
+            </p>
+            <Method>
+              {c.method === 'turnbull' ? 'Turnbull (NPMLE) for interval-censored times, survival at the end of each interval' : 'Kaplan–Meier with each event at the review that found it, log-scale 95% band (dotted); + marks a censored case'}
+              ; days since completion, each {c.endpoint === 'tooth' ? 'tooth from its earliest case, followed through retreatment or surgery' : 'case censored at its last review'}; at risk = still
+              followed at that time; the log-rank test (Mantel–Haenszel, as R survdiff) uses the visit dates, since Lamina has no interval-censored test.
+            </Method>
+          </section>
+          <section aria-labelledby="competing-title" className="space-y-3">
+            <h2 id="competing-title" className="text-2xl">
+              Retreatment, apical surgery and extraction
+            </h2>
+            {competing.length === 0 ? (
+              <p className="text-ink-700">None of these cases was retreated, operated on or extracted.</p>
+            ) : (
+              <>
+                <div className="h-64 rounded-lg border border-bone-200 bg-white p-2">
+                  <SurvivalChart series={competing} yLabel="Cumulative incidence" band={false} />
+                </div>
+                <ul className="text-sm" data-testid="competing">
+                  {c.competing.map((cp) => {
+                    const at = (m: number) => [...cp.points].reverse().find((p) => p.time <= milestoneDays(m));
+                    return (
+                      <li key={cp.cause}>
+                        <strong>{cp.cause}</strong>:{' '}
+                        {[12, 24, 48]
+                          .map((m) => {
+                            const p = at(m);
+                            return `${m} mo ${p ? `${pct(p.incidence, 1)} (${pct(p.lower, 1)}–${pct(p.upper, 1)})` : '0%'}`;
+                          })
+                          .join('; ')}
+                      </li>
+                    );
+                  })}
+                </ul>
+              </>
+            )}
+            <Method>
+              Aalen–Johansen cumulative incidence of each case’s first retreatment, apical surgery or extraction as competing events (its own date when recorded,
+              else the review that found it), censored at the last review; log-scale 95% intervals.
+            </Method>
+          </section>
+        </>
+      )}
+    </div>
+  );
+}

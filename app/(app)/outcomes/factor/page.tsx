@@ -1,0 +1,103 @@
+import type { Metadata } from 'next';
+import { requireActor } from '@/lib/auth/session';
+import { FACTOR_KEYS, FACTORS } from '@/lib/outcomes';
+import { outcomesByFactor, type FactorReport } from '@/lib/services/outcomes';
+import { ValidationError } from '@/lib/services/errors';
+import { Notice } from '@/components/ui/Notice';
+import { filtersOf, Method, OutcomesHeader, RateText, FILTER_KEYS } from '../_components/parts';
+
+export const metadata: Metadata = { title: 'Outcomes by factor' };
+
+export default async function OutcomesFactorPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
+  const { em, actor } = await requireActor('outcomes.read', '/outcomes/factor');
+  const filters = filtersOf(await searchParams);
+  let data: FactorReport | null = null;
+  let problems: Record<string, string[]> = {};
+  try {
+    data = await outcomesByFactor(em, actor, filters);
+  } catch (e) {
+    if (!(e instanceof ValidationError)) throw e;
+    problems = e.fieldErrors ?? {};
+  }
+  const factor = data?.factor ?? 'kind';
+  const test = data?.table.test ?? null;
+  return (
+    <div className="space-y-8">
+      <OutcomesHeader current="/outcomes/factor" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="factor" />
+      <form method="get" action="/outcomes/factor" aria-label="Choose a factor" className="flex flex-wrap items-end gap-3">
+        {FILTER_KEYS.map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
+        <div>
+          <label htmlFor="outcomes-factor" className="field-label">
+            How do we do by…
+          </label>
+          <select id="outcomes-factor" name="factor" defaultValue={factor} className="field-input" aria-invalid={problems.factor ? true : undefined}>
+            {FACTOR_KEYS.map((k) => (
+              <option key={k} value={k}>
+                {FACTORS[k].label}
+              </option>
+            ))}
+          </select>
+          {problems.factor && <p className="field-error">{problems.factor[0]}</p>}
+        </div>
+        <button type="submit" className="btn-primary">
+          Show
+        </button>
+      </form>
+      {!data && <Notice tone="alert">Some choices need attention; nothing is shown until they are corrected.</Notice>}
+      {data && (
+        <section aria-labelledby="factor-title" className="space-y-2">
+          <h2 id="factor-title" className="text-2xl">
+            Success by {FACTORS[factor].label.toLowerCase()}
+          </h2>
+          <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
+            <table className="table-dense table-stack w-full" aria-label={`Success by ${FACTORS[factor].label.toLowerCase()}`}>
+              <thead>
+                <tr>
+                  <th scope="col">{FACTORS[factor].label}</th>
+                  <th scope="col">Cases</th>
+                  <th scope="col">Strict (healed)</th>
+                  <th scope="col">Lenient (healed or healing)</th>
+                  <th scope="col">Uncertain</th>
+                </tr>
+              </thead>
+              <tbody>
+                {data.table.levels.length === 0 && (
+                  <tr>
+                    <td colSpan={5} className="text-ink-500">
+                      No completed cases in this filter.
+                    </td>
+                  </tr>
+                )}
+                {data.table.levels.map((l) => (
+                  <tr key={l.level} data-testid="factor-level">
+                    <td data-label="Level" className="font-semibold">
+                      {l.level}
+                    </td>
+                    <td data-label="Cases">{l.cases}</td>
+                    <td data-label="Strict">
+                      <RateText r={l.strict} />
+                    </td>
+                    <td data-label="Lenient">
+                      <RateText r={l.lenient} />
+                    </td>
+                    <td data-label="Uncertain">{l.uncertain}</td>
+                  </tr>
+                ))}
+              </tbody>
+            </table>
+          </div>
+          <p data-testid="factor-test">
+            {test === null
+              ? 'No test: fewer than two levels with judged cases, or every judged case had the same result.'
+              : `${test.method === 'fisher' ? 'Fisher’s exact test' : `Pearson’s χ² test (χ² = ${test.chiSquare!.toFixed(2)}, ${test.df} df)`}: p ${test.pValue < 0.001 ? '< 0.001' : `= ${test.pValue.toFixed(3)}`}${test.sparse ? ' — some expected counts are below 5, read it with care' : ''}.`}
+          </p>
+          <Method>
+            outcome at the latest review a year or more after completion by Lamina’s scoring rules (a retreatment, surgery or extraction at any time counts as failure;
+            “uncertain” left out of n); Wilson 95% intervals; the test compares strict success across the levels with judged cases (Fisher’s exact for two, Pearson’s χ² for
+            more).
+          </Method>
+        </section>
+      )}
+    </div>
+  );
+}

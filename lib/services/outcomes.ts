@@ -1,0 +1,227 @@
+import 'server-only';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { assertCan, type Actor } from '@/lib/auth/actor';
+import { writeCsv } from '@/lib/csv/write';
+import { applyFilter, byFactor, curves, type Curves, FACTORS, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
+import type { RecordedReview } from '@/lib/scoring';
+import { OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
+import { audit } from './audit';
+import { parseInput } from './parse';
+import { knexOf, practiceSettings, todayIn } from './registry-common';
+
+/**
+ * The practice lead's outcomes area (issue 12): one lean SQL read of the practice's completed
+ * cases with their reviews (no entities), then lib/outcomes computes. The lead (auditor) sees
+ * every clinician; a clinician sees their own cases, plus the practice's overall figures.
+ */
+
+interface CaseRow {
+  id: string;
+  patient_id: string;
+  operator_id: string;
+  kind: string;
+  completion_date: string;
+  pai_score: number;
+  lesion_diameter_mm: string | number;
+  fill_length_class: OutcomeCase['fillLengthClass'];
+  tooth_group: string;
+  tooth_arch: 'upper' | 'lower';
+  previous_case_id: string | null;
+  lost: boolean;
+  reviews: { d: string; s: RecordedReview['toothStatus']; p: number | null; g: RecordedReview['signs']; e: string | null }[];
+}
+
+/** Every completed case of the practice (archived cases and patients left out), with its reviews in date order. */
+export async function readOutcomeCases(em: EntityManager, practiceId: string): Promise<OutcomeCase[]> {
+  const knex = knexOf(em);
+  const rows = (await knex
+    .select(
+      'c.id',
+      'c.patient_id',
+      'c.operator_id',
+      'c.kind',
+      knex.raw('c.completion_date::text as completion_date'),
+      'c.pai_score',
+      'c.lesion_diameter_mm',
+      'c.fill_length_class',
+      'c.tooth_group',
+      'c.tooth_arch',
+      'c.previous_case_id',
+      knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status = 'closed') as lost`),
+      knex.raw(
+        `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id), '[]'::json) as reviews`,
+      ),
+    )
+    .from('treatment_case as c')
+    .join('patient as p', 'p.id', 'c.patient_id')
+    .where('c.practice_id', practiceId)
+    .whereNull('c.archived_at')
+    .whereNull('p.archived_at')
+    .whereNotNull('c.completion_date')
+    .orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }])) as CaseRow[];
+  return rows.map((r) => ({
+    id: r.id,
+    patientId: r.patient_id,
+    operatorId: r.operator_id,
+    kind: r.kind,
+    completionDate: r.completion_date,
+    baselinePai: Number(r.pai_score),
+    lesionDiameterMm: Number(r.lesion_diameter_mm),
+    fillLengthClass: r.fill_length_class,
+    toothGroup: r.tooth_group,
+    toothArch: r.tooth_arch,
+    previousCaseId: r.previous_case_id,
+    lost: r.lost,
+    reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
+  }));
+}
+
+/** Whether the actor sees every clinician's cases (the lead) or only their own (a clinician). */
+export function seesWholePractice(actor: Actor): boolean {
+  return actor.roles.includes('auditor');
+}
+
+interface Scope {
+  filter: OutcomeFilter;
+  /** The filter the actor asked for, limited to their own cases when they are a clinician. */
+  own: boolean;
+  today: string;
+  minObs: number;
+  all: OutcomeCase[];
+  clinicians: { id: string; name: string }[];
+}
+
+async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQuery): Promise<Scope> {
+  assertCan(actor, 'outcomes.read');
+  const whole = seesWholePractice(actor);
+  const [settings, all] = await Promise.all([practiceSettings(em, actor.practiceId), readOutcomeCases(em, actor.practiceId)]);
+  const clinicians = whole ? await practiceClinicians(em, actor) : [{ id: actor.userId, name: actor.name ?? actor.email }];
+  const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId };
+  return { filter, own: !whole, today: todayIn(settings.timeZone), minObs: settings.minObservationDays, all, clinicians };
+}
+
+async function practiceClinicians(em: EntityManager, actor: Actor): Promise<{ id: string; name: string }[]> {
+  const knex = knexOf(em);
+  // Clinicians of the practice, and anyone else who treated one of its cases (a past clinician).
+  const rows = (await knex
+    .distinct('u.id', 'u.name', 'u.email')
+    .from('app_user as u')
+    .where((b) =>
+      b
+        .whereIn('u.id', knex('membership').select('user_id').where({ practice_id: actor.practiceId, role: 'clinician' }))
+        .orWhereIn('u.id', knex('treatment_case').select('operator_id').where({ practice_id: actor.practiceId })),
+    )
+    .orderBy('u.name')) as { id: string; name: string | null; email: string }[];
+  return rows.map((r) => ({ id: r.id, name: r.name ?? r.email }));
+}
+
+export interface OverviewReport {
+  filter: OutcomeFilter;
+  own: boolean;
+  clinicians: { id: string; name: string }[];
+  overview: Overview;
+  /** For a clinician: the practice's overall figures (same period and kind, every clinician). */
+  practice: Overview | null;
+}
+
+export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
+  const q = parseInput(OutcomeFilterQuery, raw ?? {});
+  const s = await scope(em, actor, q);
+  const result = overview(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
+  const practice = s.own ? overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs) : null;
+  await audit(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(s.filter), cases: result.cases } });
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, overview: result, practice };
+}
+
+export interface FactorReport {
+  filter: OutcomeFilter;
+  own: boolean;
+  clinicians: { id: string; name: string }[];
+  factor: FactorKey;
+  table: FactorTable;
+}
+
+export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unknown): Promise<FactorReport> {
+  const q = parseInput(OutcomeFactorQuery, raw ?? {});
+  const s = await scope(em, actor, q);
+  const factor = q.factor as FactorKey;
+  const table = byFactor(applyFilter(s.all, s.filter), factor, s.minObs);
+  if (factor === 'clinician') {
+    const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
+    for (const l of table.levels) l.level = names.get(l.level) ?? 'Former clinician';
+  }
+  await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(s.filter), factor } });
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, factor, table };
+}
+
+export interface CurvesReport {
+  filter: OutcomeFilter;
+  own: boolean;
+  clinicians: { id: string; name: string }[];
+  curves: Curves;
+}
+
+export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport> {
+  const q = parseInput(OutcomeCurvesQuery, raw ?? {});
+  const s = await scope(em, actor, q);
+  const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
+  const factor = (q.factor ?? null) as FactorKey | null;
+  const result = curves(applyFilter(s.all, s.filter), s.all, {
+    endpoint: q.endpoint,
+    method: q.method,
+    factor,
+    minObs: s.minObs,
+    levelName: factor === 'clinician' ? (id) => names.get(id) ?? 'Former clinician' : undefined,
+  });
+  await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}) } });
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, curves: result };
+}
+
+function filterDetail(f: OutcomeFilter): Record<string, string> {
+  return Object.fromEntries(Object.entries(f).filter(([, v]) => v !== undefined)) as Record<string, string>;
+}
+
+const pct = (x: number | null) => (x === null ? null : Math.round(x * 10000) / 100);
+const rateCells = (r: Rate) => [r.x, r.n, pct(r.estimate), pct(r.lower), pct(r.upper), r.few ? 'few cases' : ''];
+const RATE_HEAD = (what: string) => [`${what}: successes`, `${what}: n`, `${what} %`, `${what}: 95% lower %`, `${what}: 95% upper %`, `${what}: note`];
+
+/** A view's table as CSV through the one CSV writer (lib/csv/write.ts); the download is audited. */
+export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overview' | 'factor' | 'curves', raw: unknown): Promise<string> {
+  if (view === 'overview') {
+    const { overview: o } = await outcomesOverview(em, actor, raw);
+    const header = ['Figure', 'At', 'Value %', '95% lower %', '95% upper %', 'n', 'Detail'];
+    const rows: (string | number | null)[][] = [
+      ['Cases followed', '', null, null, null, o.cases, `${o.reviewed} with a review`],
+      ['Lost to follow-up', '', pct(o.lost.estimate), pct(o.lost.lower), pct(o.lost.upper), o.lost.n, `${o.lost.x} cases`],
+      ...o.completeness.map((c) => ['Follow-up completeness', `${c.months} months`, pct(c.rate.estimate), pct(c.rate.lower), pct(c.rate.upper), c.rate.n, `${c.rate.x} seen`]),
+      ...o.success.flatMap((f) => {
+        const at = f.at === 'latest' ? 'latest review ≥ 12 months' : `${f.at} months`;
+        return [
+          ['Success, strict (healed)', at, pct(f.strict.estimate), pct(f.strict.lower), pct(f.strict.upper), f.strict.n, `best ${pct(f.strictBounds.best) ?? ''}% / worst ${pct(f.strictBounds.worst) ?? ''}%; ${f.missing} not seen, ${f.uncertain} uncertain`],
+          ['Success, lenient (healed or healing)', at, pct(f.lenient.estimate), pct(f.lenient.lower), pct(f.lenient.upper), f.lenient.n, `best ${pct(f.lenientBounds.best) ?? ''}% / worst ${pct(f.lenientBounds.worst) ?? ''}%`],
+        ];
+      }),
+      ...o.survival.map((sv) => ['Tooth survival (Kaplan–Meier)', `${sv.years} years`, pct(sv.km.survival), pct(sv.km.lower), pct(sv.km.upper), sv.km.nRisk, sv.turnbull === null ? 'Turnbull not computed' : `Turnbull ${pct(sv.turnbull)}%`]),
+    ];
+    await audit(em, actor, { action: 'outcomes.exported', detail: { view } });
+    return writeCsv(header, rows);
+  }
+  if (view === 'curves') {
+    const { curves: c } = await outcomesCurves(em, actor, raw);
+    const header = ['Level', 'Method', 'Day', 'Survival', '95% lower', '95% upper'];
+    const rows = c.curves.flatMap((cv) => cv.points.map((p) => [cv.level, c.method === 'km' ? 'Kaplan–Meier' : 'Turnbull', p.time, p.survival, p.lower ?? null, p.upper ?? null]));
+    for (const cp of c.competing) rows.push(...cp.points.map((p) => [`Cumulative incidence: ${cp.cause}`, 'Aalen–Johansen', p.time, p.incidence, p.lower, p.upper]));
+    await audit(em, actor, { action: 'outcomes.exported', detail: { view } });
+    return writeCsv(header, rows);
+  }
+  const r = await outcomesByFactor(em, actor, raw);
+  const header = [FACTORS[r.factor].label, 'Cases', ...RATE_HEAD('Strict'), ...RATE_HEAD('Lenient'), 'Uncertain'];
+  const rows: (string | number | null)[][] = [
+    ...r.table.levels.map((l) => [l.level, l.cases, ...rateCells(l.strict), ...rateCells(l.lenient), l.uncertain]),
+  ];
+  if (r.table.test) rows.push([`${r.table.test.method === 'fisher' ? 'Fisher exact test' : 'Pearson chi-square test'} p`, r.table.test.pValue]);
+  await audit(em, actor, { action: 'outcomes.exported', detail: { view, factor: r.factor } });
+  return writeCsv(header, rows);
+}
+
+

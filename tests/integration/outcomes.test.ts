@@ -1,0 +1,283 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
+import { assessRecordedReview, caseObservations, recordedHistory, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
+import { cumulativeIncidence, fisherExact2x2, kaplanMeier, logRank, turnbull, wilsonInterval } from '@/lib/stats';
+import { createCase } from '@/lib/services/cases';
+import { outcomesByFactor, outcomesCsv, outcomesCurves, outcomesOverview } from '@/lib/services/outcomes';
+import { createPatient } from '@/lib/services/patients';
+import { todayIn } from '@/lib/services/registry-common';
+import { createReview } from '@/lib/services/reviews';
+import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
+
+/**
+ * Issue 12: every figure the outcomes API returns equals a direct engine call (lib/scoring,
+ * lib/stats) on the rows THIS TEST defines — not on the service's query. The fixture world:
+ * six cases with known reviews; for each, the test says which review is the 12- and 24-month
+ * one and what the latest review a year or more after completion is.
+ */
+const services = await openServices();
+afterAll(() => services.close());
+
+const today = todayIn('Europe/London');
+
+interface FixtureCase {
+  key: string;
+  who: 'cal' | 'cleo';
+  kind: 'primary_treatment' | 'nonsurgical_retreatment';
+  monthsBack: number;
+  pai: number;
+  lesion: number;
+  reviews: { day: number; status: RecordedReview['toothStatus']; pai?: number }[];
+  /** index of the review that counts at 12 / 24 months, and at the latest review ≥ 1 year (null: not seen) */
+  at12: number | null;
+  at24: number | null;
+  latest: number | null;
+  /** due at 12 / 24 months (the window ended before today) */
+  due12: boolean;
+  due24: boolean;
+  lost?: boolean;
+}
+
+const CASES: FixtureCase[] = [
+  { key: 'A', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 4, reviews: [{ day: 365, status: 'present', pai: 1 }, { day: 730, status: 'present', pai: 1 }], at12: 0, at24: 1, latest: 1, due12: true, due24: true },
+  { key: 'B', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 4, reviews: [{ day: 370, status: 'present', pai: 3 }, { day: 740, status: 'extracted' }], at12: 0, at24: 1, latest: 1, due12: true, due24: true },
+  { key: 'C', who: 'cleo', kind: 'nonsurgical_retreatment', monthsBack: 32, pai: 3, lesion: 3, reviews: [{ day: 360, status: 'present', pai: 3 }, { day: 720, status: 'present', pai: 3 }], at12: 0, at24: 1, latest: 1, due12: true, due24: true },
+  { key: 'D', who: 'cleo', kind: 'primary_treatment', monthsBack: 16, pai: 1, lesion: 0, reviews: [{ day: 365, status: 'present', pai: 1 }], at12: 0, at24: null, latest: 0, due12: true, due24: false },
+  { key: 'E', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 6, reviews: [], at12: null, at24: null, latest: null, due12: true, due24: true, lost: true },
+  { key: 'F', who: 'cleo', kind: 'primary_treatment', monthsBack: 5, pai: 2, lesion: 0, reviews: [], at12: null, at24: null, latest: null, due12: false, due24: false },
+];
+
+let world: Awaited<ReturnType<typeof makeRegistryPractice>>;
+const completion = new Map<string, string>();
+
+beforeAll(async () => {
+  await resetData(services.orm, services.redis);
+  world = await makeRegistryPractice(services.em(), 'outcomes');
+  const knex = services.orm.em.getKnex();
+  let n = 0;
+  for (const f of CASES) {
+    const operator = f.who === 'cal' ? world.clinician : world.clinician2;
+    const patient = await createPatient(services.em(), world.clinician, patientInput({ registryNumber: `T-${++n}`, email: `p${n}@patients.test.invalid` }));
+    const done = addMonthsClamped(today, -f.monthsBack);
+    completion.set(f.key, done);
+    const c = await createCase(
+      services.em(),
+      world.clinician,
+      caseInput(patient.id, operator.userId, {
+        kind: f.kind,
+        pulpalDiagnosis: f.kind === 'nonsurgical_retreatment' ? 'previously_treated' : 'pulp_necrosis',
+        startDate: addDaysTo(done, -7),
+        completionDate: done,
+        paiScore: f.pai,
+        lesionDiameterMm: f.lesion,
+      }),
+    );
+    for (const r of f.reviews) {
+      await createReview(services.em(), operator, c.id, {
+        reviewDate: addDaysTo(done, r.day),
+        toothStatus: r.status,
+        ...(r.status === 'present' ? { paiScore: r.pai, lesionDiameterMm: r.pai! >= 3 ? 2 : 0 } : { extractionReason: 'fracture' }),
+      });
+    }
+    if (f.lost) await knex('recall_visit').where({ case_id: c.id }).update({ status: 'closed' });
+  }
+});
+
+// --- the expected figures, from lib/scoring and lib/stats on the fixture's own rows -------------
+
+const recorded = (f: FixtureCase, i: number): RecordedReview => {
+  const r = f.reviews[i]!;
+  return { reviewDate: addDaysTo(completion.get(f.key)!, r.day), toothStatus: r.status, paiScore: r.pai ?? null, signs: {} };
+};
+const outcome = (f: FixtureCase, i: number | null): ReviewOutcome | null =>
+  i === null ? null : assessRecordedReview({ completionDate: completion.get(f.key)!, baselinePai: f.pai }, recorded(f, i), 365).outcome;
+
+function expectedSuccess(cases: FixtureCase[], pick: (f: FixtureCase) => number | null, due: (f: FixtureCase) => boolean) {
+  const outs = cases.map((f) => ({ f, o: outcome(f, pick(f)) }));
+  const judged = outs.filter((x) => x.o !== null && x.o !== 'uncertain');
+  const strict = judged.filter((x) => x.o === 'healed').length;
+  const lenient = judged.filter((x) => x.o === 'healed' || x.o === 'healing').length;
+  const missing = outs.filter((x) => x.o === null && due(x.f)).length;
+  return { n: judged.length, strict, lenient, missing, uncertain: outs.filter((x) => x.o === 'uncertain').length };
+}
+
+function expectRate(got: { x: number; n: number; estimate: number | null; lower: number | null; upper: number | null }, x: number, n: number) {
+  expect([got.x, got.n]).toEqual([x, n]);
+  if (n === 0) return expect(got.estimate).toBeNull();
+  const w = wilsonInterval(x, n);
+  expect(got.estimate).toBeCloseTo(w.estimate, 12);
+  expect(got.lower).toBeCloseTo(w.lower, 12);
+  expect(got.upper).toBeCloseTo(w.upper, 12);
+}
+
+function toothIntervals(cases: FixtureCase[]) {
+  return cases.map((f) => caseObservations(recordedHistory({ completionDate: completion.get(f.key)!, baselinePai: f.pai }, f.reviews.map((_, i) => recorded(f, i))), { minObservationDays: 365 }).toothLoss);
+}
+
+describe('outcomes overview (issue 12, items 1 and 6)', () => {
+  it('the lead sees every case; each figure equals lib/scoring and lib/stats on the fixture rows', async () => {
+    const { overview: o, own, practice } = await outcomesOverview(services.em(), world.auditor, {});
+    expect(own).toBe(false);
+    expect(practice).toBeNull();
+    expect(o.cases).toBe(6);
+    expect(o.reviewed).toBe(4);
+    expectRate(o.lost, 1, 6);
+    // completeness: seen at the milestone ÷ due
+    const seen12 = CASES.filter((f) => f.due12 && f.at12 !== null).length;
+    const seen24 = CASES.filter((f) => f.due24 && f.at24 !== null).length;
+    expectRate(o.completeness.find((c) => c.months === 12)!.rate, seen12, CASES.filter((f) => f.due12).length);
+    expectRate(o.completeness.find((c) => c.months === 24)!.rate, seen24, CASES.filter((f) => f.due24).length);
+    expect([seen12, seen24]).toEqual([4, 3]); // the fixture's own arithmetic
+    expect(o.warning).toBe(false); // 80% and 75%
+    // success at 12 and 24 months and at the latest review ≥ 1 year, with best / worst case
+    for (const [at, pick, due] of [
+      [12, (f: FixtureCase) => f.at12, (f: FixtureCase) => f.due12],
+      [24, (f: FixtureCase) => f.at24, (f: FixtureCase) => f.due24],
+      ['latest', (f: FixtureCase) => f.latest, (f: FixtureCase) => f.due12],
+    ] as const) {
+      const e = expectedSuccess(CASES, pick, due);
+      const got = o.success.find((s) => s.at === at)!;
+      expectRate(got.strict, e.strict, e.n);
+      expectRate(got.lenient, e.lenient, e.n);
+      expect([got.missing, got.uncertain]).toEqual([e.missing, e.uncertain]);
+      expect(got.strictBounds.best).toBeCloseTo((e.strict + e.missing) / (e.n + e.missing), 12);
+      expect(got.strictBounds.worst).toBeCloseTo(e.strict / (e.n + e.missing), 12);
+    }
+    // hand check of the scoring: at 12 months A healed, B healing (smaller lesion), C uncertain (unchanged before 365 days), D healed
+    expect(expectedSuccess(CASES, (f) => f.at12, (f) => f.due12)).toEqual({ n: 3, strict: 2, lenient: 3, missing: 1, uncertain: 1 });
+    // at 48 months no case is due; only B's extraction (found at 740 days, before the window ends) is known: a failure
+    const at48 = o.success.find((s) => s.at === 48)!;
+    expectRate(at48.strict, 0, 1);
+    expect(at48.missing).toBe(0);
+    // tooth survival: Kaplan–Meier (event at the review that found it) and Turnbull, lib/stats on the fixture's intervals
+    const intervals = toothIntervals(CASES);
+    expect(intervals.find((_, i) => CASES[i]!.key === 'B')).toEqual({ left: 370, right: 740 });
+    const km = kaplanMeier(intervals.map((i) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true })));
+    const tb = turnbull(intervals);
+    for (const s of o.survival) {
+      const k = [...km].reverse().find((r) => r.time <= s.days);
+      expect(s.km.survival).toBeCloseTo(k?.survival ?? 1, 12);
+      expect(s.km.lower).toBeCloseTo(k?.lower ?? 1, 12);
+      const t = [...tb].reverse().find((r) => r.upper <= s.days);
+      expect(s.turnbull).toBeCloseTo(t?.survival ?? 1, 12);
+    }
+    expect(o.survival.find((s) => s.years === 1)!.km.survival).toBe(1);
+    expect(o.survival.find((s) => s.years === 4)!.km.survival).toBeLessThan(1);
+    expect(o.toothLossEvents).toBe(1);
+  });
+
+  it('filters change the rows as stated: period, clinician, kind', async () => {
+    const byCleo = await outcomesOverview(services.em(), world.auditor, { clinician: world.clinician2.userId });
+    expect(byCleo.overview.cases).toBe(CASES.filter((f) => f.who === 'cleo').length);
+    const cleoCases = CASES.filter((f) => f.who === 'cleo');
+    const e = expectedSuccess(cleoCases, (f) => f.latest, (f) => f.due12);
+    expectRate(byCleo.overview.success.find((s) => s.at === 'latest')!.strict, e.strict, e.n);
+
+    const retreat = await outcomesOverview(services.em(), world.auditor, { kind: 'nonsurgical_retreatment' });
+    expect(retreat.overview.cases).toBe(1);
+    const recent = await outcomesOverview(services.em(), world.auditor, { from: addMonthsClamped(today, -20) });
+    expect(recent.overview.cases).toBe(CASES.filter((f) => f.monthsBack <= 20).length);
+    const old = await outcomesOverview(services.em(), world.auditor, { to: addMonthsClamped(today, -20) });
+    expect(old.overview.cases).toBe(CASES.filter((f) => f.monthsBack > 20).length);
+    await expect(outcomesOverview(services.em(), world.auditor, { from: today, to: addDaysTo(today, -1) })).rejects.toMatchObject({ status: 422 });
+    await expect(outcomesOverview(services.em(), world.auditor, { kind: 'haircut' })).rejects.toMatchObject({ status: 422 });
+  });
+
+  it('a clinician sees only their own cases (whatever clinician they ask for), plus the practice overall', async () => {
+    const r = await outcomesOverview(services.em(), world.clinician, { clinician: world.clinician2.userId });
+    expect(r.own).toBe(true);
+    expect(r.filter.clinician).toBe(world.clinician.userId);
+    expect(r.overview.cases).toBe(CASES.filter((f) => f.who === 'cal').length);
+    expect(r.practice?.cases).toBe(CASES.length);
+    expect(r.clinicians.map((c) => c.id)).toEqual([world.clinician.userId]);
+    const mine = CASES.filter((f) => f.who === 'cal');
+    const e = expectedSuccess(mine, (f) => f.at12, (f) => f.due12);
+    expectRate(r.overview.success.find((s) => s.at === 12)!.strict, e.strict, e.n);
+  });
+
+  it('other roles are refused', async () => {
+    await expect(outcomesOverview(services.em(), world.coordinator, {})).rejects.toMatchObject({ status: 403 });
+    await expect(outcomesOverview(services.em(), world.admin, {})).rejects.toMatchObject({ status: 403 });
+  });
+});
+
+describe('outcomes by factor (issue 12, item 2)', () => {
+  it('strict success per kind with Wilson intervals and Fisher’s exact test equal lib/stats on the fixture rows', async () => {
+    const r = await outcomesByFactor(services.em(), world.auditor, { factor: 'kind' });
+    const levels = new Map(r.table.levels.map((l) => [l.level, l]));
+    const table: [number, number][] = [];
+    for (const [kind, label] of [
+      ['primary_treatment', 'Primary root canal treatment'],
+      ['nonsurgical_retreatment', 'Non-surgical retreatment'],
+    ] as const) {
+      const group = CASES.filter((f) => f.kind === kind);
+      const e = expectedSuccess(group, (f) => f.latest, (f) => f.due12);
+      const got = levels.get(label)!;
+      expect(got.cases).toBe(group.length);
+      expectRate(got.strict, e.strict, e.n);
+      expectRate(got.lenient, e.lenient, e.n);
+      table.push([e.strict, e.n - e.strict]);
+    }
+    expect(table).toEqual([
+      [2, 1],
+      [0, 1],
+    ]);
+    expect(r.table.test?.method).toBe('fisher');
+    expect(r.table.test?.pValue).toBeCloseTo(fisherExact2x2([table[0]!, table[1]!]).pValue, 12);
+  });
+
+  it('the clinician factor names the clinicians; a bad factor is a 422', async () => {
+    const r = await outcomesByFactor(services.em(), world.auditor, { factor: 'clinician' });
+    expect(r.table.levels.map((l) => l.cases).sort()).toEqual([3, 3]);
+    expect(r.table.levels.some((l) => /^[0-9a-f-]{36}$/.test(l.level))).toBe(false);
+    await expect(outcomesByFactor(services.em(), world.auditor, { factor: 'horoscope' })).rejects.toMatchObject({ status: 422 });
+  });
+
+  it('downloads each table through the one CSV writer, audited', async () => {
+    const csv = await outcomesCsv(services.em(), world.auditor, 'factor', { factor: 'kind' });
+    expect(csv.split('\r\n')[0]).toMatch(/^Treatment kind,Cases,Strict: successes/);
+    expect(csv).toContain('Primary root canal treatment,5,2,3,');
+    const overview = await outcomesCsv(services.em(), world.clinician, 'overview', {});
+    expect(overview).toContain('Cases followed,,,,,3,');
+    const knex = services.orm.em.getKnex();
+    const actions = (await knex('audit_event').where({ practice_id: world.practice.id }).select('action')).map((a: { action: string }) => a.action);
+    expect(actions).toEqual(expect.arrayContaining(['outcomes.overview_read', 'outcomes.factor_read', 'outcomes.exported']));
+  });
+});
+
+describe('survival curves (issue 12, item 3)', () => {
+  const km = (ints: { left: number; right: number | null }[]) => kaplanMeier(ints.map((i) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true })));
+  const healing = (f: FixtureCase) =>
+    caseObservations(recordedHistory({ completionDate: completion.get(f.key)!, baselinePai: f.pai }, f.reviews.map((_, i) => recorded(f, i))), { minObservationDays: 365 }).healing;
+
+  it('Turnbull by default, Kaplan–Meier on request: each equals lib/stats on the fixture intervals, with numbers at risk', async () => {
+    const t = await outcomesCurves(services.em(), world.auditor, { endpoint: 'tooth' });
+    expect(t.curves.method).toBe('turnbull');
+    const ints = toothIntervals(CASES);
+    const tb = turnbull(ints);
+    expect(t.curves.curves[0]!.points.slice(1).map((p) => [p.time, p.survival])).toEqual(tb.map((r) => [r.upper, r.survival]));
+    // still followed at 0/6/12/24/36/48 months (days 0, 183, 365, 731, 1096, 1461): (right ?? left) ≥ t
+    expect(t.curves.curves[0]!.atRisk).toEqual([0, 183, 365, 731, 1096, 1461].map((d) => ints.filter((i) => (i.right ?? i.left) >= d).length));
+    const k = await outcomesCurves(services.em(), world.auditor, { endpoint: 'tooth', method: 'km' });
+    const expected = km(ints);
+    expect(k.curves.curves[0]!.points.slice(1).map((p) => [p.time, p.survival, p.lower, p.upper])).toEqual(expected.map((r) => [r.time, r.survival, r.lower, r.upper]));
+  });
+
+  it('per level: the log-rank test equals lib/stats logRank on the fixture’s healing intervals; competing events equal cumulativeIncidence', async () => {
+    const r = await outcomesCurves(services.em(), world.auditor, { endpoint: 'healing', method: 'km', factor: 'kind' });
+    const groups = Object.fromEntries(
+      (['primary_treatment', 'nonsurgical_retreatment'] as const).map((kind) => [
+        kind,
+        CASES.filter((f) => f.kind === kind).map(healing).map((i) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true })),
+      ]),
+    );
+    const lr = logRank(groups);
+    expect(r.curves.logRank?.pValue).toBeCloseTo(lr.pValue, 12);
+    expect(r.curves.curves.map((c) => [c.level, c.n])).toEqual([['Non-surgical retreatment', 1], ['Primary root canal treatment', 5]]);
+    // competing events: B extracted at 740 days; the others censored at their last review (0 without one)
+    const rows = CASES.map((f) => (f.key === 'B' ? { time: 740, cause: 'extraction' } : { time: f.reviews.length ? f.reviews[f.reviews.length - 1]!.day : 0, cause: null }));
+    const ci = cumulativeIncidence(rows);
+    expect(r.curves.competing.map((c) => c.cause)).toEqual(['extraction']);
+    expect(r.curves.competing[0]!.points.map((p) => p.incidence)).toEqual(ci.extraction!.map((s) => s.incidence));
+  });
+});

@@ -1,0 +1,98 @@
+import { describe, expect, it } from 'vitest';
+import { applyFilter, byFactor, isDue, milestoneDays, outcomeAfterAYear, outcomeAtMilestone, rate, toothLossObservations, type OutcomeCase } from '@/lib/outcomes';
+import { addDaysTo } from '@/lib/registry/calendar-date';
+import { chiSquareTest } from '@/lib/stats';
+
+// The outcomes area's definitions (lib/outcomes/cases.ts), checked by hand on small cases.
+// Outcomes of single reviews come from lib/scoring (its own tests name the sources); here only
+// which review counts, and when, is checked.
+const DONE = '2020-01-01';
+const at = (days: number) => addDaysTo(DONE, days);
+function kase(change: Partial<OutcomeCase> = {}): OutcomeCase {
+  return {
+    id: 'a',
+    patientId: 'p',
+    operatorId: 'u1',
+    kind: 'primary_treatment',
+    completionDate: DONE,
+    baselinePai: 4,
+    lesionDiameterMm: 4,
+    fillLengthClass: 'within',
+    toothGroup: 'molar',
+    toothArch: 'lower',
+    previousCaseId: null,
+    lost: false,
+    reviews: [],
+    ...change,
+  };
+}
+const present = (day: number, pai: number) => ({ reviewDate: at(day), toothStatus: 'present' as const, paiScore: pai, signs: {} });
+
+describe('milestones', () => {
+  it('12 months is 365 days, 24 is 731, 48 is 1461 (months × 365.25 / 12)', () => {
+    expect([12, 24, 48].map(milestoneDays)).toEqual([365, 731, 1461]);
+  });
+
+  it('takes the review nearest the milestone inside its window (± 3 months at 12 months)', () => {
+    const c = kase({ reviews: [present(200, 4), present(300, 2), present(400, 1), present(480, 4)] });
+    expect(outcomeAtMilestone(c, 12, 365)).toBe('healed'); // day 400 (35 days off) beats day 300 (65 days off); 480 is outside
+    expect(outcomeAtMilestone(kase({ reviews: [present(200, 1)] }), 12, 365)).toBeNull(); // outside the window
+  });
+
+  it('a terminal event found before the window ends is the outcome; after it, not', () => {
+    const extracted = { reviewDate: at(300), toothStatus: 'extracted' as const, signs: {} };
+    expect(outcomeAtMilestone(kase({ reviews: [extracted, present(365, 1)] }), 12, 365)).toBe('tooth-extracted');
+    const late = { reviewDate: at(500), toothStatus: 'retreated' as const, signs: {} };
+    expect(outcomeAtMilestone(kase({ reviews: [present(365, 1), late] }), 12, 365)).toBe('healed');
+    expect(outcomeAfterAYear(kase({ reviews: [present(365, 1), late] }), 365)).toBe('retreated');
+  });
+
+  it('the latest review a year or more after completion; none before a year', () => {
+    expect(outcomeAfterAYear(kase({ reviews: [present(400, 1), present(800, 3)] }), 365)).toBe('healing');
+    expect(outcomeAfterAYear(kase({ reviews: [present(200, 1)] }), 365)).toBeNull();
+  });
+
+  it('a case is due once the window has ended', () => {
+    expect(isDue(kase(), 12, at(365 + 91))).toBe(true);
+    expect(isDue(kase(), 12, at(365 + 90))).toBe(false);
+  });
+});
+
+describe('filters and tooth loss', () => {
+  it('keeps the period (inclusive), clinician and kind', () => {
+    const rows = [kase({ id: 'a' }), kase({ id: 'b', completionDate: '2021-06-01', operatorId: 'u2' }), kase({ id: 'c', kind: 'nonsurgical_retreatment' })];
+    expect(applyFilter(rows, { from: '2021-06-01' }).map((c) => c.id)).toEqual(['b']);
+    expect(applyFilter(rows, { to: '2020-01-01' }).map((c) => c.id)).toEqual(['a', 'c']);
+    expect(applyFilter(rows, { clinician: 'u2' }).map((c) => c.id)).toEqual(['b']);
+    expect(applyFilter(rows, { kind: 'nonsurgical_retreatment' }).map((c) => c.id)).toEqual(['c']);
+  });
+
+  it('follows a tooth through its retreatment, counting the tooth once', () => {
+    const first = kase({ id: 'a', reviews: [present(365, 4), { reviewDate: at(400), toothStatus: 'retreated', signs: {} }] });
+    const second = kase({ id: 'b', previousCaseId: 'a', completionDate: at(420), kind: 'nonsurgical_retreatment', reviews: [{ reviewDate: at(900), toothStatus: 'extracted', signs: {} }] });
+    // the tooth was present at the retreatment (day 400) and found extracted at day 900
+    expect(toothLossObservations([first, second], [first, second], 365)).toEqual([{ left: 400, right: 900 }]);
+    // the retreatment alone: from its own completion
+    expect(toothLossObservations([second], [first, second], 365)).toEqual([{ left: 0, right: 480 }]);
+  });
+});
+
+describe('rates and factors', () => {
+  it('greys fewer than 20 cases; an empty rate has no estimate', () => {
+    expect(rate(5, 19).few).toBe(true);
+    expect(rate(5, 20).few).toBe(false);
+    expect(rate(0, 0)).toMatchObject({ estimate: null, few: true });
+  });
+
+  it('three levels use Pearson’s χ² on strict success (lib/stats chiSquareTest), flagging expected counts below 5', () => {
+    const mk = (id: string, group: string, pai: number) => kase({ id, toothGroup: group, reviews: [present(400, pai)] });
+    const rows = [mk('1', 'molar', 1), mk('2', 'molar', 4), mk('3', 'incisor', 1), mk('4', 'incisor', 1), mk('5', 'canine', 4)];
+    const t = byFactor(rows, 'group', 365);
+    expect(t.levels.map((l) => [l.level, l.strict.x, l.strict.n])).toEqual([
+      ['Canine', 0, 1],
+      ['Incisor', 2, 2],
+      ['Molar', 1, 2],
+    ]);
+    expect(t.test).toMatchObject({ method: 'chi-square', sparse: true, pValue: chiSquareTest([[0, 1], [2, 0], [1, 1]]).pValue });
+  });
+});
