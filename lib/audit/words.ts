@@ -3,8 +3,8 @@
  * and a short summary of its detail. Pure: no database, no React.
  *
  * Action codes stay as they are stored ("case.read"); screens and the CSV export show these words.
- * A code without an entry here (written by newer code) still reads as words: "review.corrected"
- * becomes "Review corrected". tests/unit/audit/words.test.ts checks that every code written in
+ * A code without an entry here (written by newer code) still reads as words: "review.archived"
+ * becomes "Review archived". tests/unit/audit/words.test.ts checks that every code written in
  * lib/ and jobs/ has an entry.
  */
 
@@ -152,7 +152,7 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
 
 const ACTION_WORDS: Record<string, string> = Object.assign({}, ...ACTION_GROUPS.map((g) => g.actions));
 
-/** The action in plain words; an unknown code reads as its own words ("review.corrected" → "Review corrected"). */
+/** The action in plain words; an unknown code reads as its own words ("review.archived" → "Review archived"). */
 export function actionWords(code: string): string {
   const known = ACTION_WORDS[code];
   if (known) return known;

@@ -31,7 +31,7 @@ describe('audit actions in plain words', () => {
 
   it('names known codes, and reads an unknown one as words', () => {
     expect(actionWords('case.read')).toBe('Opened a case');
-    expect(actionWords('review.corrected')).toBe('Review corrected');
+    expect(actionWords('review.archived_by_robot')).toBe('Review archived by robot');
   });
 
   it('summarises detail without lists of ids', () => {
