@@ -278,12 +278,12 @@ const signInFirst = (e: Record<Who, number>): Record<Who, number> => ({ ...e, an
 const PAGES: PageRow[] = [
   { page: '', url: () => '/', expect: signInFirst(everyone(200)) },
   { page: 'cases', url: () => '/cases', expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },
-  { page: 'cases/new', url: () => '/cases/new', expect: signInFirst(only({ clinician: 307 })) }, // without a patient: choose one first
+  { page: 'cases/new', url: () => '/cases/new', expect: signInFirst(only({ clinician: 200 })) }, // without a patient: sent to choose one, after the page's loading state
   { page: 'cases/import', url: () => '/cases/import', expect: signInFirst(only({ coordinator: 200, clinician: 200 })) },
   // An unknown id under the detail page's skeleton: the not-found page streams after the skeleton (200, as
   // before); a role without the area still gets 403 from the area's layout, before anything streams.
   { page: 'cases/[id]', url: () => `/cases/${randomUUID()}`, expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },
-  { page: 'cases/[id]/edit', url: () => `/cases/${randomUUID()}/edit`, expect: signInFirst(only({ clinician: 404 })) },
+  { page: 'cases/[id]/edit', url: () => `/cases/${randomUUID()}/edit`, expect: signInFirst(only({ clinician: 200 })) }, // not found, shown after the loading state (as for cases/[id])
   { page: 'patients', url: () => '/patients', expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },
   { page: 'patients/new', url: () => '/patients/new', expect: signInFirst(only({ coordinator: 200, clinician: 200 })) },
   { page: 'patients/[id]', url: () => `/patients/${randomUUID()}`, expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },

@@ -7,6 +7,7 @@ test('a clinician records a review with tenderness to percussion and sees diseas
   await signInAs(page, 'clinician');
   await page.goto('/cases');
   // A completed case (other tests may add a case not completed yet at the top of the list).
+  await page.locator('table a[href^="/cases/"]').first().waitFor();
   const hrefs = await page.locator('table a[href^="/cases/"]').evaluateAll((as) => as.map((a) => a.getAttribute('href')!));
   const record = page.getByRole('button', { name: 'Record a review' });
   for (const href of hrefs.slice(0, 10)) {

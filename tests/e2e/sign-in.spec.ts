@@ -7,8 +7,8 @@ import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 const NAVIGATION: Record<Role, string[]> = {
   admin: ['Home', 'Team', 'Dev mailbox'],
   coordinator: ['Home', 'Cases', 'Recall desk'],
-  clinician: ['Home', 'Cases'],
-  auditor: ['Home', 'Cases'],
+  clinician: ['Home', 'Cases', 'Outcomes'],
+  auditor: ['Home', 'Cases', 'Outcomes'],
   researcher: ['Home'],
 };
 
