@@ -7,7 +7,7 @@ import { getPatient } from '@/lib/services/patients';
 import { listClinicians, listPatientCases } from '@/lib/services/cases';
 import { listReferrers } from '@/lib/services/referrers';
 import { practiceSettings } from '@/lib/services/registry-common';
-import { CaseForm } from '../_components/CaseForm';
+import { CaseForm } from '../_components/CaseFormLazy';
 import { clinicianOptions, referrerOptions, toothCaseOptions } from '../_components/options';
 
 export const metadata: Metadata = { title: 'New case' };

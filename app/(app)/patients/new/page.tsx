@@ -2,7 +2,7 @@ import type { Metadata } from 'next';
 import Link from 'next/link';
 import { requireActor } from '@/lib/auth/session';
 import { can } from '@/lib/auth/permissions';
-import { PatientForm } from '../_components/PatientForm';
+import { PatientForm } from '../_components/PatientFormLazy';
 
 export const metadata: Metadata = { title: 'New patient' };
 

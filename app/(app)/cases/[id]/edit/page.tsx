@@ -5,7 +5,8 @@ import { requireActor } from '@/lib/auth/session';
 import { getCase, listClinicians, listPatientCases } from '@/lib/services/cases';
 import { listReferrers } from '@/lib/services/referrers';
 import { NotFoundError } from '@/lib/services/errors';
-import { CaseForm, type CaseFormShape } from '../../_components/CaseForm';
+import { CaseForm } from '../../_components/CaseFormLazy';
+import type { CaseFormShape } from '../../_components/CaseForm';
 import { clinicianOptions, referrerOptions, toothCaseOptions } from '../../_components/options';
 
 export const metadata: Metadata = { title: 'Edit case' };
