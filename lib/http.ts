@@ -78,3 +78,16 @@ export async function readJson(req: Request): Promise<unknown> {
     throw new ServiceError('The request body is not valid JSON.', 422, undefined, 'validation');
   }
 }
+
+/** A CSV file as a download (the body comes from lib/csv/write.ts, formulas already neutralised). */
+export function csvDownload(body: string, filename: string, headers: Record<string, string> = {}): Response {
+  return new Response(body, {
+    headers: {
+      'Content-Type': 'text/csv; charset=utf-8',
+      'Content-Disposition': `attachment; filename="${filename}"`,
+      'Cache-Control': 'no-store',
+      'X-Content-Type-Options': 'nosniff',
+      ...headers,
+    },
+  });
+}

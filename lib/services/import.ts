@@ -82,8 +82,8 @@ export interface ImportOptions {
 const CHUNK = 1000;
 
 /** The downloadable template: header and one invented example row. */
-export function importTemplate(): { filename: string; contentType: string; body: string } {
-  return { filename: 'lamina-cases-template.csv', contentType: 'text/csv; charset=utf-8', body: templateCsv() };
+export function importTemplate(): { filename: string; body: string } {
+  return { filename: 'lamina-cases-template.csv', body: templateCsv() };
 }
 
 /**

@@ -1,4 +1,4 @@
-import { handler } from '@/lib/http';
+import { csvDownload, handler } from '@/lib/http';
 import { exportAuditCsv } from '@/lib/services/audit';
 import { searchParamsObject } from '@/lib/schemas/paging';
 
@@ -6,13 +6,5 @@ import { searchParamsObject } from '@/lib/schemas/paging';
 export const GET = handler('audit.read', async ({ req, em, actor }) => {
   const { csv, truncated } = await exportAuditCsv(em, actor, searchParamsObject(req.url));
   const day = new Date().toISOString().slice(0, 10);
-  return new Response(csv, {
-    headers: {
-      'Content-Type': 'text/csv; charset=utf-8',
-      'Content-Disposition': `attachment; filename="lamina-audit-${day}.csv"`,
-      'Cache-Control': 'no-store',
-      'X-Content-Type-Options': 'nosniff',
-      ...(truncated ? { 'X-Lamina-Truncated': 'true' } : {}),
-    },
-  });
+  return csvDownload(csv, `lamina-audit-${day}.csv`, truncated ? { 'X-Lamina-Truncated': 'true' } : {});
 });

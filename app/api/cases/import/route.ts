@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { handler } from '@/lib/http';
+import { csvDownload, handler } from '@/lib/http';
 import { IMPORT_MAX_BYTES, ImportInputSchema, importCases, importTemplate } from '@/lib/services/import';
 import { ServiceError, ValidationError } from '@/lib/services/errors';
 import { parseInput } from '@/lib/services/parse';
@@ -8,13 +8,7 @@ import { searchParamsObject } from '@/lib/schemas/paging';
 /** GET /api/cases/import → the CSV template (attachment). */
 export const GET = handler('case.import', async () => {
   const t = importTemplate();
-  return new Response(t.body, {
-    headers: {
-      'Content-Type': t.contentType,
-      'Content-Disposition': `attachment; filename="${t.filename}"`,
-      'Cache-Control': 'no-store',
-    },
-  });
+  return csvDownload(t.body, t.filename);
 });
 
 const Query = z.object({

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { handler } from '@/lib/http';
+import { csvDownload, handler } from '@/lib/http';
 import { searchParamsObject } from '@/lib/schemas/paging';
 import { outcomesCsv } from '@/lib/services/outcomes';
 import { parseInput } from '@/lib/services/parse';
@@ -12,12 +12,5 @@ export const GET = handler('outcomes.read', async ({ req, em, actor }) => {
   const v = parseInput(View, { view }).view;
   const csv = await outcomesCsv(em, actor, v, rest);
   const day = new Date().toISOString().slice(0, 10);
-  return new Response(csv, {
-    headers: {
-      'Content-Type': 'text/csv; charset=utf-8',
-      'Content-Disposition': `attachment; filename="lamina-outcomes-${v}-${day}.csv"`,
-      'Cache-Control': 'no-store',
-      'X-Content-Type-Options': 'nosniff',
-    },
-  });
+  return csvDownload(csv, `lamina-outcomes-${v}-${day}.csv`);
 });
