@@ -81,7 +81,8 @@ export function seesWholePractice(actor: Actor): boolean {
   return actor.roles.includes('auditor');
 }
 
-interface Scope {
+/** What every outcomes view starts from: the actor's filter, the practice's rows, today and the minimum observation time. Views in their own files (outcomes-*.ts) build on it. */
+export interface Scope {
   filter: OutcomeFilter;
   /** The filter the actor asked for, limited to their own cases when they are a clinician. */
   own: boolean;
@@ -91,7 +92,7 @@ interface Scope {
   clinicians: { id: string; name: string }[];
 }
 
-async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQuery): Promise<Scope> {
+export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQuery): Promise<Scope> {
   assertCan(actor, 'outcomes.read');
   const whole = seesWholePractice(actor);
   const [settings, all] = await Promise.all([practiceSettings(em, actor.practiceId), readOutcomeCases(em, actor.practiceId)]);
@@ -177,7 +178,7 @@ export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unkno
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, curves: result };
 }
 
-function filterDetail(f: OutcomeFilter): Record<string, string> {
+export function filterDetail(f: OutcomeFilter): Record<string, string> {
   return Object.fromEntries(Object.entries(f).filter(([, v]) => v !== undefined)) as Record<string, string>;
 }
 
