@@ -35,6 +35,17 @@ export interface OutcomeCase {
   toothGroup: string;
   toothArch: 'upper' | 'lower';
   previousCaseId: string | null;
+  /**
+   * Treatment and restoration as recorded (codes of lib/schemas/case.ts; null or absent when not
+   * recorded). Optional so rows built by hand (tests, other views) need not name them.
+   */
+  fillDensity?: string | null;
+  sealerClass?: string | null;
+  fillingTechnique?: string | null;
+  complications?: readonly string[];
+  coronalRestoration?: string | null;
+  definitiveRestoration?: string | null;
+  referrerId?: string | null;
   /** A recall visit of the case was closed as lost to follow-up. */
   lost: boolean;
   /** Reviews in date order. */

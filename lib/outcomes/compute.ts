@@ -2,7 +2,17 @@
  * The figures of the outcomes area, from the rows of lib/outcomes/cases.ts. Pure: the service
  * reads, this computes, and tests call it (and lib/stats / lib/scoring directly) on rows they define.
  */
-import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
+import { CASE_KIND_LABELS, CASE_KINDS, type CaseKind } from '@/lib/registry/case-kinds';
+import {
+  COMPLETION_RESTORATION_LABELS,
+  COMPLICATION_LABELS,
+  DEFINITIVE_RESTORATION_LABELS,
+  fieldApplies,
+  FILL_DENSITY_LABELS,
+  FILLING_TECHNIQUE_LABELS,
+  SEALER_CLASS_LABELS,
+  type CaseField,
+} from '@/lib/schemas/case';
 import { type CalendarDate } from '@/lib/registry/calendar-date';
 import type { Interval, ReviewOutcome } from '@/lib/scoring';
 import { chiSquareTest, fisherExact2x2, kaplanMeier, turnbull, wilsonInterval } from '@/lib/stats';
@@ -36,16 +46,24 @@ export interface OutcomeFilter {
   to?: CalendarDate;
   clinician?: string;
   kind?: CaseKind;
+  /** Levels of factors (URL `f.<factor>=<code>,<code>`): a case is kept when, for every factor named, its level is one of those listed. */
+  levels?: LevelFilters;
 }
 
-/** The cases a filter keeps (completion date within the period, the clinician who treated, the kind). */
+export type LevelFilters = Partial<Record<FactorKey, readonly string[]>>;
+
+/** The cases a filter keeps (completion date within the period, the clinician who treated, the kind, the levels of factors). */
 export function applyFilter(rows: readonly OutcomeCase[], f: OutcomeFilter): OutcomeCase[] {
+  const levels = Object.entries(f.levels ?? {})
+    .filter(([, codes]) => codes && codes.length > 0)
+    .map(([k, codes]) => ({ code: FACTORS[k as FactorKey].code, codes: new Set(codes) }));
   return rows.filter(
     (c) =>
       (!f.from || c.completionDate >= f.from) &&
       (!f.to || c.completionDate <= f.to) &&
       (!f.clinician || c.operatorId === f.clinician) &&
-      (!f.kind || c.kind === f.kind),
+      (!f.kind || c.kind === f.kind) &&
+      levels.every((l) => l.codes.has(l.code(c))),
   );
 }
 
@@ -186,35 +204,120 @@ export function overview(selection: readonly OutcomeCase[], all: readonly Outcom
 // ---------------------------------------------------------------------------------------------
 // By factor
 
+/**
+ * A factor: its words, the code of a case's level (stable, for the URL's level filters
+ * `f.<factor>=<code>`), and either its closed vocabulary (every code with its words, in their
+ * natural order) or, for open ones (clinician, referrer, year), what a code looks like. A field
+ * that does not apply to the case's kind (no root filling after apical surgery, say) is its own
+ * level, "Not applicable", apart from "Not recorded".
+ */
+export interface Factor {
+  label: string;
+  code: (c: OutcomeCase) => string;
+  /** the level's words for the case (clinician and referrer: an id, named by the service) */
+  level: (c: OutcomeCase) => string;
+  levels?: Readonly<Record<string, string>>;
+  pattern?: RegExp;
+}
+
+export const NOT_RECORDED = 'not_recorded';
+export const NOT_APPLICABLE = 'not_applicable';
+const MISSING = { [NOT_RECORDED]: 'Not recorded', [NOT_APPLICABLE]: 'Not applicable (no root filling)' } as const;
+
+function closed(label: string, levels: Record<string, string>, code: (c: OutcomeCase) => string): Factor {
+  return { label, code, levels, level: (c) => levels[code(c)] ?? code(c) };
+}
+function open(label: string, pattern: RegExp, code: (c: OutcomeCase) => string): Factor {
+  return { label, code, pattern, level: code };
+}
+/** A recorded code of a field: "Not applicable" when the field does not apply to the case's kind, "Not recorded" when empty. */
+const recorded = (field: CaseField, value: (c: OutcomeCase) => string | null | undefined) => (c: OutcomeCase) =>
+  (CASE_KINDS as readonly string[]).includes(c.kind) && !fieldApplies(c.kind as CaseKind, field) ? NOT_APPLICABLE : (value(c) ?? NOT_RECORDED);
+
+/** Complications: none, one of them, or several (levels must not overlap for the test across levels). */
+const complicationCode = (c: OutcomeCase) => {
+  const list = c.complications ?? [];
+  return list.length === 0 ? 'none' : list.length === 1 ? list[0]! : 'several';
+};
+
+const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
+export const NO_REFERRER = 'none';
+
 export const FACTORS = {
-  kind: { label: 'Treatment kind', level: (c: OutcomeCase) => CASE_KIND_LABELS[c.kind as CaseKind] ?? c.kind },
-  lesion: {
-    label: 'Lesion size before treatment',
-    level: (c: OutcomeCase) => (c.lesionDiameterMm <= 0 ? 'No lesion' : c.lesionDiameterMm < 5 ? 'Under 5 mm' : c.lesionDiameterMm < 10 ? '5 to under 10 mm' : '10 mm or more'),
-  },
-  pai: { label: 'PAI before treatment', level: (c: OutcomeCase) => `PAI ${c.baselinePai}` },
-  fill: {
-    label: 'Fill length',
-    level: (c: OutcomeCase) =>
-      c.fillLengthClass === null ? 'Not measured' : c.fillLengthClass === 'within' ? 'Within 0–2 mm' : c.fillLengthClass === 'short' ? 'Short (over 2 mm)' : 'Beyond the apex',
-  },
-  group: { label: 'Tooth group', level: (c: OutcomeCase) => c.toothGroup.charAt(0).toUpperCase() + c.toothGroup.slice(1) },
-  arch: { label: 'Arch', level: (c: OutcomeCase) => (c.toothArch === 'upper' ? 'Upper' : 'Lower') },
-  clinician: { label: 'Clinician', level: (c: OutcomeCase) => c.operatorId },
-  year: { label: 'Year of treatment', level: (c: OutcomeCase) => c.completionDate.slice(0, 4) },
-} as const satisfies Record<string, { label: string; level: (c: OutcomeCase) => string }>;
+  kind: closed('Treatment kind', CASE_KIND_LABELS, (c) => c.kind),
+  lesion: closed(
+    'Lesion size before treatment',
+    { none: 'No lesion', lt5: 'Under 5 mm', '5to10': '5 to under 10 mm', ge10: '10 mm or more' },
+    (c) => (c.lesionDiameterMm <= 0 ? 'none' : c.lesionDiameterMm < 5 ? 'lt5' : c.lesionDiameterMm < 10 ? '5to10' : 'ge10'),
+  ),
+  pai: closed('PAI before treatment', { 1: 'PAI 1', 2: 'PAI 2', 3: 'PAI 3', 4: 'PAI 4', 5: 'PAI 5' }, (c) => String(c.baselinePai)),
+  fill: closed(
+    'Fill length',
+    { within: 'Within 0–2 mm', short: 'Short (over 2 mm)', beyond: 'Beyond the apex', [NOT_RECORDED]: 'Not measured', [NOT_APPLICABLE]: MISSING[NOT_APPLICABLE] },
+    recorded('canals.fillToApexMm', (c) => c.fillLengthClass),
+  ),
+  density: closed('Voids in the filling (density)', { ...FILL_DENSITY_LABELS, ...MISSING }, recorded('fillDensity', (c) => c.fillDensity)),
+  group: closed('Tooth group', { incisor: 'Incisor', canine: 'Canine', premolar: 'Premolar', molar: 'Molar' }, (c) => c.toothGroup),
+  arch: closed('Arch', { upper: 'Upper', lower: 'Lower' }, (c) => c.toothArch),
+  sealer: closed('Sealer', { ...SEALER_CLASS_LABELS, ...MISSING }, recorded('sealerClass', (c) => c.sealerClass)),
+  technique: closed('Filling technique', { ...FILLING_TECHNIQUE_LABELS, ...MISSING }, recorded('fillingTechnique', (c) => c.fillingTechnique)),
+  complications: closed(
+    'Complications',
+    { none: 'None recorded', ...COMPLICATION_LABELS, several: 'Two or more', [NOT_APPLICABLE]: 'Not applicable (no canals treated)' },
+    recorded('complications', complicationCode),
+  ),
+  coronal: closed('Restoration at completion', { ...COMPLETION_RESTORATION_LABELS, [NOT_RECORDED]: 'Not recorded' }, recorded('coronalRestoration', (c) => c.coronalRestoration)),
+  definitive: closed(
+    'Definitive restoration',
+    { ...DEFINITIVE_RESTORATION_LABELS, [NOT_RECORDED]: 'None recorded' },
+    recorded('definitiveRestoration', (c) => c.definitiveRestoration),
+  ),
+  clinician: open('Clinician', UUID, (c) => c.operatorId),
+  referrer: open('Referrer', new RegExp(`^(?:${UUID.source.slice(1, -1)}|${NO_REFERRER})$`, 'i'), (c) => c.referrerId ?? NO_REFERRER),
+  year: open('Year of treatment', /^\d{4}$/, (c) => c.completionDate.slice(0, 4)),
+} as const satisfies Record<string, Factor>;
 
 export type FactorKey = keyof typeof FACTORS;
+export const FACTOR_KEYS = Object.keys(FACTORS) as FactorKey[];
+
+/** The words of a level's code (open factors: the code itself; the service names clinicians and referrers). */
+export function levelLabel(factor: FactorKey, code: string): string {
+  const f: Factor = FACTORS[factor];
+  return f.levels?.[code] ?? code;
+}
+
+/** Whether a code can be a level of the factor (its vocabulary, or its pattern). */
+export function isLevelCode(factor: FactorKey, code: string): boolean {
+  const f: Factor = FACTORS[factor];
+  return f.levels ? Object.hasOwn(f.levels, code) : f.pattern!.test(code);
+}
 
 /** Levels with a natural order (size bands, fill length) come in that order; others alphabetically. */
 const ORDERED_LEVELS = ['No lesion', 'Under 5 mm', '5 to under 10 mm', '10 mm or more', 'Within 0–2 mm', 'Short (over 2 mm)', 'Beyond the apex', 'Not measured'];
+const LAST_LEVELS = ['Not recorded', 'None recorded', 'Not measured', MISSING[NOT_APPLICABLE], 'Not applicable (no canals treated)', 'No referrer recorded', 'Former clinician'];
 export function levelOrder(level: string): number {
+  const last = LAST_LEVELS.indexOf(level);
+  if (last !== -1) return ORDERED_LEVELS.length + 1 + last;
   const i = ORDERED_LEVELS.indexOf(level);
   return i === -1 ? ORDERED_LEVELS.length : i;
 }
-export const FACTOR_KEYS = Object.keys(FACTORS) as FactorKey[];
+
+/**
+ * The order of a factor's levels by their words: a closed vocabulary in its own order; open
+ * factors (and named levels) alphabetically, numbers by value, missing ones last.
+ */
+export function compareLevels(factor: FactorKey | null): (a: string, b: string) => number {
+  const words = factor ? Object.values((FACTORS[factor] as Factor).levels ?? {}) : [];
+  const rank = (l: string) => {
+    const i = words.indexOf(l);
+    return i === -1 ? words.length + levelOrder(l) : i;
+  };
+  return (a, b) => rank(a) - rank(b) || a.localeCompare(b, 'en', { numeric: true });
+}
 
 export interface FactorLevel {
+  /** the level's code (URL filter `f.<factor>=<code>`) and its words */
+  code: string;
   level: string;
   cases: number;
   strict: Rate;
@@ -229,12 +332,13 @@ export interface FactorTable {
   test: { method: 'fisher' | 'chi-square'; pValue: number; chiSquare?: number; df?: number; sparse: boolean } | null;
 }
 
-/** Strict and lenient success at the latest review a year or more after completion, per level of a factor. */
-export function byFactor(selection: readonly OutcomeCase[], factor: FactorKey, minObs: number): FactorTable {
-  const level = FACTORS[factor].level;
+/** Strict and lenient success at the latest review a year or more after completion, per level of a factor (`levelName` names open levels: clinicians, referrers). */
+export function byFactor(selection: readonly OutcomeCase[], factor: FactorKey, minObs: number, levelName?: (code: string) => string): FactorTable {
+  const codeOf = FACTORS[factor].code;
+  const name = levelName ?? ((code: string) => levelLabel(factor, code));
   const groups = new Map<string, { cases: number; n: number; strict: number; lenient: number; uncertain: number }>();
   for (const c of selection) {
-    const key = level(c);
+    const key = codeOf(c);
     const g = groups.get(key) ?? { cases: 0, n: 0, strict: 0, lenient: 0, uncertain: 0 };
     g.cases += 1;
     const o = outcomeAfterAYear(c, minObs);
@@ -246,9 +350,10 @@ export function byFactor(selection: readonly OutcomeCase[], factor: FactorKey, m
     }
     groups.set(key, g);
   }
+  const order = compareLevels(factor);
   const levels = [...groups.entries()]
-    .sort(([a], [b]) => levelOrder(a) - levelOrder(b) || a.localeCompare(b, 'en', { numeric: true }))
-    .map(([lvl, g]) => ({ level: lvl, cases: g.cases, strict: rate(g.strict, g.n), lenient: rate(g.lenient, g.n), uncertain: g.uncertain }));
+    .map(([code, g]) => ({ code, level: name(code), cases: g.cases, strict: rate(g.strict, g.n), lenient: rate(g.lenient, g.n), uncertain: g.uncertain }))
+    .sort((a, b) => order(a.level, b.level));
   const judged = levels.filter((l) => l.strict.n > 0);
   const table = judged.map((l) => [l.strict.x, l.strict.n - l.strict.x] as [number, number]);
   const colTotals = [0, 1].map((j) => table.reduce((s, r) => s + r[j]!, 0));

@@ -13,7 +13,7 @@ import { daysBetween } from '@/lib/registry/calendar-date';
 import type { Interval } from '@/lib/scoring';
 import { cumulativeIncidence, logRank, turnbull } from '@/lib/stats';
 import { healingObservations, milestoneDays, toothLossObservations, type OutcomeCase } from './cases';
-import { FACTORS, kmOf, levelOrder, TURNBULL_MAX, type FactorKey } from './compute';
+import { compareLevels, FACTORS, kmOf, TURNBULL_MAX, type FactorKey } from './compute';
 
 export const AT_RISK_MONTHS = [0, 6, 12, 24, 36, 48] as const;
 export type Endpoint = 'healing' | 'tooth';
@@ -89,7 +89,8 @@ export function curves(
     const k = levelOf(c);
     groups.set(k, [...(groups.get(k) ?? []), c]);
   }
-  const sorted = [...groups.entries()].sort(([a], [b]) => levelOrder(a) - levelOrder(b) || a.localeCompare(b, 'en', { numeric: true }));
+  const order = compareLevels(opts.factor);
+  const sorted = [...groups.entries()].sort(([a], [b]) => order(a, b));
   const intervalsOf = (cases: OutcomeCase[]) => (opts.endpoint === 'tooth' ? toothLossObservations(cases, all, opts.minObs) : healingObservations(cases, opts.minObs));
   const byLevel = sorted.map(([level, cases]) => ({ level, intervals: intervalsOf(cases) }));
   const total = byLevel.reduce((s, g) => s + g.intervals.length, 0);

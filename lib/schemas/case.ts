@@ -157,6 +157,10 @@ export const SEALER_CLASS_LABELS: Record<SealerClass, string> = {
 
 export const FILL_DENSITIES = ['homogeneous', 'voids'] as const;
 export type FillDensity = (typeof FILL_DENSITIES)[number];
+export const FILL_DENSITY_LABELS: Record<FillDensity, string> = {
+  homogeneous: 'Homogeneous (no voids)',
+  voids: 'Voids seen',
+};
 
 /** The coronal restoration placed at completion. */
 export const COMPLETION_RESTORATIONS = ['none', 'temporary', 'direct_composite', 'direct_amalgam', 'glass_ionomer', 'existing_indirect'] as const;

@@ -1,10 +1,11 @@
 import 'server-only';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
+import { can } from '@/lib/auth/permissions';
 import { writeCsv } from '@/lib/csv/write';
-import { applyFilter, byFactor, curves, type Curves, FACTORS, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
+import { applyFilter, byFactor, curves, type Curves, FACTORS, NO_REFERRER, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
 import type { RecordedReview } from '@/lib/scoring';
-import { OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
+import { levelParams, OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
 import { parseInput } from './parse';
 import { knexOf, practiceSettings, todayIn } from './registry-common';
@@ -27,6 +28,13 @@ interface CaseRow {
   tooth_group: string;
   tooth_arch: 'upper' | 'lower';
   previous_case_id: string | null;
+  fill_density: string | null;
+  sealer_class: string | null;
+  filling_technique: string | null;
+  complications: string[] | null;
+  coronal_restoration: string | null;
+  definitive_restoration: string | null;
+  referrer_id: string | null;
   lost: boolean;
   reviews: { d: string; s: RecordedReview['toothStatus']; p: number | null; g: RecordedReview['signs']; e: string | null }[];
 }
@@ -47,6 +55,13 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
       'c.tooth_group',
       'c.tooth_arch',
       'c.previous_case_id',
+      'c.fill_density',
+      'c.sealer_class',
+      'c.filling_technique',
+      'c.complications',
+      'c.coronal_restoration',
+      'c.definitive_restoration',
+      'c.referrer_id',
       knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status = 'closed') as lost`),
       knex.raw(
         `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id), '[]'::json) as reviews`,
@@ -71,6 +86,13 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
     toothGroup: r.tooth_group,
     toothArch: r.tooth_arch,
     previousCaseId: r.previous_case_id,
+    fillDensity: r.fill_density,
+    sealerClass: r.sealer_class,
+    fillingTechnique: r.filling_technique,
+    complications: r.complications ?? [],
+    coronalRestoration: r.coronal_restoration,
+    definitiveRestoration: r.definitive_restoration,
+    referrerId: r.referrer_id,
     lost: r.lost,
     reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
   }));
@@ -90,15 +112,41 @@ export interface Scope {
   minObs: number;
   all: OutcomeCase[];
   clinicians: { id: string; name: string }[];
+  /** The practice's referrers, named for a reader who may read patient records (`patient.read`), else empty. */
+  referrers: { id: string; name: string }[];
 }
 
 export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQuery): Promise<Scope> {
   assertCan(actor, 'outcomes.read');
   const whole = seesWholePractice(actor);
-  const [settings, all] = await Promise.all([practiceSettings(em, actor.practiceId), readOutcomeCases(em, actor.practiceId)]);
+  const [settings, all, referrers] = await Promise.all([practiceSettings(em, actor.practiceId), readOutcomeCases(em, actor.practiceId), practiceReferrers(em, actor)]);
   const clinicians = whole ? await practiceClinicians(em, actor) : [{ id: actor.userId, name: actor.name ?? actor.email }];
-  const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId };
-  return { filter, own: !whole, today: todayIn(settings.timeZone), minObs: settings.minObservationDays, all, clinicians };
+  const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId, levels: q.levels };
+  return { filter, own: !whole, today: todayIn(settings.timeZone), minObs: settings.minObservationDays, all, clinicians, referrers };
+}
+
+/**
+ * Referrers are named to whoever may read patient records (`patient.read`: the lead and the
+ * clinicians, who see the referrer on every case), as on the case pages; anyone else would see
+ * "Referrer 1, 2…" — no such reader has `outcomes.read` today.
+ */
+async function practiceReferrers(em: EntityManager, actor: Actor): Promise<{ id: string; name: string }[]> {
+  if (!can(actor.roles, 'patient.read')) return [];
+  const rows = (await knexOf(em).select('id', 'name').from('referrer').where({ practice_id: actor.practiceId }).orderBy('name')) as { id: string; name: string }[];
+  return rows;
+}
+
+/** The words of an open factor's levels: clinicians and referrers by name (closed vocabularies name themselves). */
+export function levelNamer(s: Pick<Scope, 'clinicians' | 'referrers'>, factor: FactorKey | null): ((code: string) => string) | undefined {
+  if (factor === 'clinician') {
+    const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
+    return (id) => names.get(id) ?? 'Former clinician';
+  }
+  if (factor === 'referrer') {
+    const names = new Map(s.referrers.map((r) => [r.id, r.name]));
+    return (id) => (id === NO_REFERRER ? 'No referrer recorded' : (names.get(id) ?? 'Referrer'));
+  }
+  return undefined;
 }
 
 async function practiceClinicians(em: EntityManager, actor: Actor): Promise<{ id: string; name: string }[]> {
@@ -120,6 +168,7 @@ export interface OverviewReport {
   filter: OutcomeFilter;
   own: boolean;
   clinicians: { id: string; name: string }[];
+  referrers: { id: string; name: string }[];
   overview: Overview;
   /** For a clinician: the practice's overall figures (same period and kind, every clinician). */
   practice: Overview | null;
@@ -131,55 +180,59 @@ export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unk
   const result = overview(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
   const practice = s.own ? overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs) : null;
   await audit(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(s.filter), cases: result.cases } });
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, overview: result, practice };
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, overview: result, practice };
 }
 
 export interface FactorReport {
   filter: OutcomeFilter;
   own: boolean;
   clinicians: { id: string; name: string }[];
+  referrers: { id: string; name: string }[];
   factor: FactorKey;
   table: FactorTable;
+  /** Survival per level of the factor (same cases; the endpoint and method asked, healing and Turnbull by default). */
+  curves: Curves;
 }
 
 export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unknown): Promise<FactorReport> {
   const q = parseInput(OutcomeFactorQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
-  const table = byFactor(applyFilter(s.all, s.filter), factor, s.minObs);
-  if (factor === 'clinician') {
-    const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
-    for (const l of table.levels) l.level = names.get(l.level) ?? 'Former clinician';
-  }
+  const selection = applyFilter(s.all, s.filter);
+  const levelName = levelNamer(s, factor);
+  const table = byFactor(selection, factor, s.minObs, levelName);
+  const perLevel = curves(selection, s.all, { endpoint: q.endpoint, method: q.method, factor, minObs: s.minObs, levelName });
   await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(s.filter), factor } });
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, factor, table };
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, factor, table, curves: perLevel };
 }
 
 export interface CurvesReport {
   filter: OutcomeFilter;
   own: boolean;
   clinicians: { id: string; name: string }[];
+  referrers: { id: string; name: string }[];
   curves: Curves;
 }
 
 export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport> {
   const q = parseInput(OutcomeCurvesQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
   const factor = (q.factor ?? null) as FactorKey | null;
   const result = curves(applyFilter(s.all, s.filter), s.all, {
     endpoint: q.endpoint,
     method: q.method,
     factor,
     minObs: s.minObs,
-    levelName: factor === 'clinician' ? (id) => names.get(id) ?? 'Former clinician' : undefined,
+    levelName: levelNamer(s, factor),
   });
   await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}) } });
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, curves: result };
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, curves: result };
 }
 
+/** A filter for the audit trail: its set fields, level filters as in the URL (`f.group: 'molar'`). */
 export function filterDetail(f: OutcomeFilter): Record<string, string> {
-  return Object.fromEntries(Object.entries(f).filter(([, v]) => v !== undefined)) as Record<string, string>;
+  const { levels, ...rest } = f;
+  return { ...(Object.fromEntries(Object.entries(rest).filter(([, v]) => v !== undefined)) as Record<string, string>), ...levelParams(levels) };
 }
 
 const pct = (x: number | null) => (x === null ? null : Math.round(x * 10000) / 100);

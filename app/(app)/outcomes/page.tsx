@@ -22,7 +22,7 @@ export default async function OutcomesOverviewPage({ searchParams }: { searchPar
   }
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="overview" />
+      <OutcomesHeader current="/outcomes" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="overview" referrers={data?.referrers} />
       {!data && <Notice tone="alert">Some filters need attention; nothing is shown until they are corrected.</Notice>}
       {data && <OverviewFigures o={data.overview} idPrefix="selection" title={data.own ? 'Your cases' : 'The cases chosen'} />}
       {data?.practice && <OverviewFigures o={data.practice} idPrefix="practice" title="The practice overall" />}

@@ -1,19 +1,115 @@
 import Link from 'next/link';
 import type { ReactNode } from 'react';
-import { CASE_KINDS, CASE_KIND_LABELS } from '@/lib/registry/case-kinds';
-import type { OutcomeFilter, Rate } from '@/lib/outcomes';
+import { CASE_KINDS, CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
+import { FACTOR_KEYS, FACTORS, levelLabel, NO_REFERRER, type FactorKey, type OutcomeFilter, type Rate } from '@/lib/outcomes';
 import { Caution } from '@/components/ui/Caution';
+import { fmtDate } from '@/components/ui/format';
 
 export const FILTER_KEYS = ['from', 'to', 'clinician', 'kind'] as const;
+/** Level filters in the URL: `f.<factor>=<code>[,<code>…]` (lib/schemas/outcomes.ts validates them). */
+const LEVEL_PREFIX = 'f.';
+const isLevelKey = (k: string) => k.startsWith(LEVEL_PREFIX);
 
-/** The filters of the URL (strings as typed; the service validates them). */
+/** The filters of the URL (strings as typed; the service validates them), level filters included. */
 export function filtersOf(params: Record<string, string | string[] | undefined>): Record<string, string> {
   const out: Record<string, string> = {};
-  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method']) {
+  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method', ...Object.keys(params).filter(isLevelKey)]) {
     const v = params[k];
     if (typeof v === 'string' && v !== '') out[k] = v;
   }
   return out;
+}
+
+/** The filters every view shares (period, clinician, kind, level filters): what tab links, forms and CSV links carry. */
+export function sharedFilters(filters: Record<string, string>): Record<string, string> {
+  return Object.fromEntries(Object.entries(filters).filter(([k]) => (FILTER_KEYS as readonly string[]).includes(k) || isLevelKey(k)));
+}
+
+/** Hidden inputs carrying the shared filters in a view's own form. */
+export function HiddenFilters({ filters }: { filters: Record<string, string> }) {
+  return Object.entries(sharedFilters(filters)).map(([k, v]) => <input key={k} type="hidden" name={k} value={v} />);
+}
+
+/** The URL keeping the filters and adding (or narrowing to) one level of a factor. */
+export function withLevel(path: string, filters: Record<string, string>, factor: FactorKey, code: string): string {
+  if (factor === 'clinician') return `${path}${queryOf({ ...filters, clinician: code })}`;
+  return `${path}${queryOf({ ...filters, [`${LEVEL_PREFIX}${factor}`]: code })}`;
+}
+
+interface Chip {
+  key: string;
+  text: string;
+  /** the URL without this filter (or without this one level) */
+  href: string;
+}
+
+/** One removable chip per filter in the URL; a level filter with several levels has one chip per level. */
+export function filterChips(
+  current: string,
+  filters: Record<string, string>,
+  names: { clinicians: { id: string; name: string }[]; referrers?: { id: string; name: string }[]; own: boolean },
+): Chip[] {
+  const without = (key: string, value?: string) => {
+    const next = { ...filters };
+    if (value === undefined) delete next[key];
+    else {
+      const rest = (next[key] ?? '').split(',').filter((c) => c.trim() !== value);
+      if (rest.length) next[key] = rest.join(',');
+      else delete next[key];
+    }
+    return `${current}${queryOf(next)}`;
+  };
+  const chips: Chip[] = [];
+  if (filters.from) chips.push({ key: 'from', text: `Completed from ${fmtDate(filters.from)}`, href: without('from') });
+  if (filters.to) chips.push({ key: 'to', text: `Completed to ${fmtDate(filters.to)}`, href: without('to') });
+  if (filters.clinician && !names.own)
+    chips.push({ key: 'clinician', text: `Clinician: ${names.clinicians.find((c) => c.id === filters.clinician)?.name ?? 'unknown'}`, href: without('clinician') });
+  if (filters.kind) chips.push({ key: 'kind', text: `Kind: ${CASE_KIND_LABELS[filters.kind as CaseKind] ?? filters.kind}`, href: without('kind') });
+  for (const [key, value] of Object.entries(filters)) {
+    if (!isLevelKey(key)) continue;
+    const factor = key.slice(LEVEL_PREFIX.length) as FactorKey;
+    const known = (FACTOR_KEYS as string[]).includes(factor);
+    for (const code of new Set(value.split(',').map((c) => c.trim()).filter(Boolean))) {
+      const name = !known
+        ? code
+        : factor === 'referrer'
+          ? code === NO_REFERRER
+            ? 'No referrer recorded'
+            : (names.referrers?.find((r) => r.id === code)?.name ?? 'Referrer')
+          : levelLabel(factor, code);
+      chips.push({ key: `${key}=${code}`, text: `${known ? FACTORS[factor].label : key}: ${name}`, href: without(key, code) });
+    }
+  }
+  return chips;
+}
+
+/** The active filters as removable chips (links: no script needed). */
+export function FilterChips({ chips, clear }: { chips: Chip[]; clear: string }) {
+  if (chips.length === 0) return null;
+  return (
+    <div className="flex flex-wrap items-center gap-2" aria-label="Active filters" role="group" data-testid="filter-chips">
+      <span className="text-sm text-ink-700">Showing only:</span>
+      {chips.map((c) => (
+        <Link
+          key={c.key}
+          href={c.href}
+          data-testid="filter-chip"
+          aria-label={`Remove the filter ${c.text}`}
+          className="inline-flex items-center gap-1 rounded-full border border-dura-700 bg-white px-3 py-0.5 text-sm text-ink-900 no-underline hover:bg-bone-100"
+        >
+          {c.text}
+          <span aria-hidden="true" className="font-semibold text-dura-700">
+            ×
+          </span>
+        </Link>
+      ))}
+      {chips.length > 1 && (
+        <Link href={clear} className="text-sm">
+          Remove all
+        </Link>
+      )}
+    </div>
+  );
 }
 
 export function queryOf(f: Record<string, string | undefined>, extra: Record<string, string> = {}): string {
@@ -62,6 +158,7 @@ export function OutcomesHeader({
   own,
   problems,
   csvView,
+  referrers,
 }: {
   current: (typeof VIEWS)[number]['href'];
   filters: Record<string, string>;
@@ -69,8 +166,12 @@ export function OutcomesHeader({
   own: boolean;
   problems: Record<string, string[]>;
   csvView: 'overview' | 'factor' | 'curves';
+  /** to name referrer level filters on the chips (the reports carry them) */
+  referrers?: { id: string; name: string }[];
 }) {
-  const keep = Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]]));
+  const keep = sharedFilters(filters);
+  const chips = filterChips(current, filters, { clinicians, referrers, own });
+  const levelProblems = Object.entries(problems).filter(([k]) => isLevelKey(k));
   const problem = (k: string) => problems[k]?.[0];
   const field = (k: string) => ({
     id: `outcomes-${k}`,
@@ -114,6 +215,7 @@ export function OutcomesHeader({
       </nav>
       <form method="get" action={current} aria-label="Filter the outcomes" className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-5">
         {(['factor', 'endpoint', 'method'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
+        {Object.entries(filters).map(([k, v]) => isLevelKey(k) && <input key={k} type="hidden" name={k} value={v} />)}
         <div>
           <label htmlFor="outcomes-from" className="field-label">
             Completed from
@@ -169,6 +271,12 @@ export function OutcomesHeader({
           </Link>
         </div>
       </form>
+      <FilterChips chips={chips} clear={`${current}${queryOf(Object.fromEntries((['factor', 'endpoint', 'method'] as const).filter((k) => filters[k]).map((k) => [k, filters[k]!])))}`} />
+      {levelProblems.map(([k, messages]) => (
+        <p key={k} className="field-error" role="status">
+          Filter {k}: {messages[0]}
+        </p>
+      ))}
       <Caution text="Figures from the findings as entered, for the practice’s audit. They support clinical judgement and do not replace it; small groups vary by chance." />
     </div>
   );

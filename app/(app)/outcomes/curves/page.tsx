@@ -4,7 +4,8 @@ import { AT_RISK_MONTHS, FACTOR_KEYS, FACTORS, milestoneDays, TURNBULL_MAX, type
 import { outcomesCurves, type CurvesReport } from '@/lib/services/outcomes';
 import { ValidationError } from '@/lib/services/errors';
 import { Notice } from '@/components/ui/Notice';
-import { filtersOf, FILTER_KEYS, Method, OutcomesHeader, pct } from '../_components/parts';
+import { ChartDownloads } from '@/components/charts/ChartDownloads';
+import { filtersOf, HiddenFilters, Method, OutcomesHeader, pct } from '../_components/parts';
 import { SurvivalChart } from '../_components/SurvivalChartLazy';
 import type { ChartSeries } from '../_components/SurvivalChart';
 
@@ -55,9 +56,9 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
   );
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/curves" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="curves" />
+      <OutcomesHeader current="/outcomes/curves" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="curves" referrers={data?.referrers} />
       <form method="get" action="/outcomes/curves" aria-label="Choose the curves" className="flex flex-wrap items-end gap-3">
-        {FILTER_KEYS.map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
+        <HiddenFilters filters={filters} />
         {select('endpoint', c?.endpoint ?? filters.endpoint ?? 'healing', [['healing', 'Healing'], ['tooth', 'Tooth survival']], 'Endpoint')}
         {select('method', c?.asked ?? filters.method ?? 'turnbull', [['turnbull', 'Turnbull (failures found at visits)'], ['km', 'Kaplan–Meier (on visit dates)']], 'Method')}
         {select('factor', c?.factor ?? filters.factor ?? '', [['', 'No split'], ...FACTOR_KEYS.map((k): [string, string] => [k, FACTORS[k].label])], 'Split by')}
@@ -79,9 +80,11 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
                   ? `Kaplan–Meier shown: the Turnbull estimate is not computed above ${TURNBULL_MAX.toLocaleString('en-GB')} cases (it takes too long). It dates each failure at the visit that found it.`
                   : 'Kaplan–Meier dates each failure at the visit that found it (survival slightly overstated between visits); Turnbull, the default, does not.'}
             </Notice>
-            <div className="h-80 rounded-lg border border-bone-200 bg-white p-2" data-testid="survival-chart">
-              <SurvivalChart series={series} yLabel={c.endpoint === 'tooth' ? 'Teeth kept' : 'Free of failure'} band={c.method === 'km'} />
-            </div>
+            <ChartDownloads filename={`lamina-${c.endpoint === 'tooth' ? 'tooth-survival' : 'healing'}${c.factor ? `-by-${c.factor}` : ''}`} title={`${endpointWords}${c.factor ? ` by ${FACTORS[c.factor].label.toLowerCase()}` : ''}`}>
+              <div className="h-80 rounded-lg border border-bone-200 bg-white p-2" data-testid="survival-chart">
+                <SurvivalChart series={series} yLabel={c.endpoint === 'tooth' ? 'Teeth kept' : 'Free of failure'} band={c.method === 'km'} />
+              </div>
+            </ChartDownloads>
             <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
               <table className="table-dense table-stack w-full" aria-label="Numbers at risk" data-testid="at-risk">
                 <thead>
@@ -131,9 +134,11 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
               <p className="text-ink-700">None of these cases was retreated, operated on or extracted.</p>
             ) : (
               <>
-                <div className="h-64 rounded-lg border border-bone-200 bg-white p-2">
-                  <SurvivalChart series={competing} yLabel="Cumulative incidence" band={false} />
-                </div>
+                <ChartDownloads filename="lamina-retreatment-surgery-extraction" title="Cumulative incidence of retreatment, apical surgery and extraction">
+                  <div className="h-64 rounded-lg border border-bone-200 bg-white p-2">
+                    <SurvivalChart series={competing} yLabel="Cumulative incidence" band={false} />
+                  </div>
+                </ChartDownloads>
                 <ul className="text-sm" data-testid="competing">
                   {c.competing.map((cp) => {
                     const at = (m: number) => [...cp.points].reverse().find((p) => p.time <= milestoneDays(m));

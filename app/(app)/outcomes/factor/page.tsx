@@ -4,7 +4,8 @@ import { FACTOR_KEYS, FACTORS } from '@/lib/outcomes';
 import { outcomesByFactor, type FactorReport } from '@/lib/services/outcomes';
 import { ValidationError } from '@/lib/services/errors';
 import { Notice } from '@/components/ui/Notice';
-import { filtersOf, Method, OutcomesHeader, RateText, FILTER_KEYS } from '../_components/parts';
+import { filtersOf, HiddenFilters, Method, OutcomesHeader, RateText, withLevel } from '../_components/parts';
+import { LevelCurves } from '../_components/LevelCurves';
 
 export const metadata: Metadata = { title: 'Outcomes by factor' };
 
@@ -21,11 +22,27 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
   }
   const factor = data?.factor ?? 'kind';
   const test = data?.table.test ?? null;
+  const canFilter = factor !== 'clinician' || !(data?.own ?? true);
+  const select = (name: string, value: string, options: [string, string][], label: string) => (
+    <div>
+      <label htmlFor={`factor-${name}`} className="field-label">
+        {label}
+      </label>
+      <select id={`factor-${name}`} name={name} defaultValue={value} className="field-input" aria-invalid={problems[name] ? true : undefined}>
+        {options.map(([v, l]) => (
+          <option key={v} value={v}>
+            {l}
+          </option>
+        ))}
+      </select>
+      {problems[name] && <p className="field-error">{problems[name][0]}</p>}
+    </div>
+  );
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/factor" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="factor" />
+      <OutcomesHeader current="/outcomes/factor" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="factor" referrers={data?.referrers} />
       <form method="get" action="/outcomes/factor" aria-label="Choose a factor" className="flex flex-wrap items-end gap-3">
-        {FILTER_KEYS.map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
+        <HiddenFilters filters={filters} />
         <div>
           <label htmlFor="outcomes-factor" className="field-label">
             How do we do by…
@@ -39,6 +56,8 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
           </select>
           {problems.factor && <p className="field-error">{problems.factor[0]}</p>}
         </div>
+        {select('endpoint', data?.curves.endpoint ?? filters.endpoint ?? 'healing', [['healing', 'Healing'], ['tooth', 'Tooth survival']], 'Curves of')}
+        {select('method', data?.curves.asked ?? filters.method ?? 'turnbull', [['turnbull', 'Turnbull (failures found at visits)'], ['km', 'Kaplan–Meier (on visit dates)']], 'Method')}
         <button type="submit" className="btn-primary">
           Show
         </button>
@@ -58,12 +77,17 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
                   <th scope="col">Strict (healed)</th>
                   <th scope="col">Lenient (healed or healing)</th>
                   <th scope="col">Uncertain</th>
+                  {canFilter && (
+                    <th scope="col">
+                      <span className="sr-only">Filter</span>
+                    </th>
+                  )}
                 </tr>
               </thead>
               <tbody>
                 {data.table.levels.length === 0 && (
                   <tr>
-                    <td colSpan={5} className="text-ink-500">
+                    <td colSpan={canFilter ? 6 : 5} className="text-ink-500">
                       No completed cases in this filter.
                     </td>
                   </tr>
@@ -81,6 +105,13 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
                       <RateText r={l.lenient} />
                     </td>
                     <td data-label="Uncertain">{l.uncertain}</td>
+                    {canFilter && (
+                      <td data-label="Filter">
+                        <a href={withLevel('/outcomes/factor', filters, factor, l.code)} className="text-sm" aria-label={`Only ${l.level}`}>
+                          Only this level
+                        </a>
+                      </td>
+                    )}
                   </tr>
                 ))}
               </tbody>
@@ -94,8 +125,20 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
           <Method>
             outcome at the latest review a year or more after completion by Lamina’s scoring rules (a retreatment, surgery or extraction at any time counts as failure;
             “uncertain” left out of n); Wilson 95% intervals; the test compares strict success across the levels with judged cases (Fisher’s exact for two, Pearson’s χ² for
-            more).
+            more). “Only this level” keeps the filter for every view (the chips above remove it).
           </Method>
+        </section>
+      )}
+      {data && (
+        <section aria-labelledby="factor-curves-title" className="space-y-2">
+          <h2 id="factor-curves-title" className="text-2xl">
+            {data.curves.endpoint === 'tooth' ? 'Tooth survival' : 'Healing over time'} by {FACTORS[factor].label.toLowerCase()}
+          </h2>
+          <LevelCurves
+            c={data.curves}
+            title={`${data.curves.endpoint === 'tooth' ? 'Tooth survival' : 'Free of healing failure'} by ${FACTORS[factor].label.toLowerCase()}`}
+            filename={`lamina-${data.curves.endpoint === 'tooth' ? 'tooth-survival' : 'healing'}-by-${factor}`}
+          />
         </section>
       )}
     </div>
