@@ -90,7 +90,8 @@ export function curves(
     groups.set(k, [...(groups.get(k) ?? []), c]);
   }
   const order = compareLevels(opts.factor);
-  const sorted = [...groups.entries()].sort(([a], [b]) => order(a, b));
+  const named = (level: string) => (opts.levelName ? opts.levelName(level) : level);
+  const sorted = [...groups.entries()].sort(([a], [b]) => order(named(a), named(b)));
   const intervalsOf = (cases: OutcomeCase[]) => (opts.endpoint === 'tooth' ? toothLossObservations(cases, all, opts.minObs) : healingObservations(cases, opts.minObs));
   const byLevel = sorted.map(([level, cases]) => ({ level, intervals: intervalsOf(cases) }));
   const total = byLevel.reduce((s, g) => s + g.intervals.length, 0);

@@ -5,6 +5,7 @@ import { cumulativeIncidence, fisherExact2x2, kaplanMeier, logRank, turnbull, wi
 import { createCase } from '@/lib/services/cases';
 import { outcomesByFactor, outcomesCsv, outcomesCurves, outcomesOverview } from '@/lib/services/outcomes';
 import { createPatient } from '@/lib/services/patients';
+import { createReferrer } from '@/lib/services/referrers';
 import { todayIn } from '@/lib/services/registry-common';
 import { createReview } from '@/lib/services/reviews';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
@@ -36,24 +37,35 @@ interface FixtureCase {
   due12: boolean;
   due24: boolean;
   lost?: boolean;
+  /** treatment and restoration (item 2's factors); undefined = not recorded */
+  tooth: number;
+  sealer?: 'epoxy_resin' | 'calcium_silicate';
+  density?: 'homogeneous' | 'voids';
+  complications?: string[];
+  referrer?: 'r1' | 'r2';
+  definitive?: 'crown';
 }
 
 const CASES: FixtureCase[] = [
-  { key: 'A', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 4, reviews: [{ day: 365, status: 'present', pai: 1 }, { day: 730, status: 'present', pai: 1 }], at12: 0, at24: 1, latest: 1, due12: true, due24: true },
-  { key: 'B', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 4, reviews: [{ day: 370, status: 'present', pai: 3 }, { day: 740, status: 'extracted' }], at12: 0, at24: 1, latest: 1, due12: true, due24: true },
-  { key: 'C', who: 'cleo', kind: 'nonsurgical_retreatment', monthsBack: 32, pai: 3, lesion: 3, reviews: [{ day: 360, status: 'present', pai: 3 }, { day: 720, status: 'present', pai: 3 }], at12: 0, at24: 1, latest: 1, due12: true, due24: true },
-  { key: 'D', who: 'cleo', kind: 'primary_treatment', monthsBack: 16, pai: 1, lesion: 0, reviews: [{ day: 365, status: 'present', pai: 1 }], at12: 0, at24: null, latest: 0, due12: true, due24: false },
-  { key: 'E', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 6, reviews: [], at12: null, at24: null, latest: null, due12: true, due24: true, lost: true },
-  { key: 'F', who: 'cleo', kind: 'primary_treatment', monthsBack: 5, pai: 2, lesion: 0, reviews: [], at12: null, at24: null, latest: null, due12: false, due24: false },
+  { key: 'A', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 4, reviews: [{ day: 365, status: 'present', pai: 1 }, { day: 730, status: 'present', pai: 1 }], at12: 0, at24: 1, latest: 1, due12: true, due24: true, tooth: 36, sealer: 'epoxy_resin', density: 'homogeneous', referrer: 'r1', definitive: 'crown' },
+  { key: 'B', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 4, reviews: [{ day: 370, status: 'present', pai: 3 }, { day: 740, status: 'extracted' }], at12: 0, at24: 1, latest: 1, due12: true, due24: true, tooth: 46, sealer: 'calcium_silicate', density: 'voids', complications: ['separated_instrument'], referrer: 'r1' },
+  { key: 'C', who: 'cleo', kind: 'nonsurgical_retreatment', monthsBack: 32, pai: 3, lesion: 3, reviews: [{ day: 360, status: 'present', pai: 3 }, { day: 720, status: 'present', pai: 3 }], at12: 0, at24: 1, latest: 1, due12: true, due24: true, tooth: 24, sealer: 'epoxy_resin', density: 'voids', referrer: 'r2' },
+  { key: 'D', who: 'cleo', kind: 'primary_treatment', monthsBack: 16, pai: 1, lesion: 0, reviews: [{ day: 365, status: 'present', pai: 1 }], at12: 0, at24: null, latest: 0, due12: true, due24: false, tooth: 11 },
+  { key: 'E', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 6, reviews: [], at12: null, at24: null, latest: null, due12: true, due24: true, lost: true, tooth: 37, sealer: 'epoxy_resin', density: 'homogeneous', referrer: 'r2' },
+  { key: 'F', who: 'cleo', kind: 'primary_treatment', monthsBack: 5, pai: 2, lesion: 0, reviews: [], at12: null, at24: null, latest: null, due12: false, due24: false, tooth: 15, sealer: 'calcium_silicate', density: 'homogeneous' },
 ];
 
 let world: Awaited<ReturnType<typeof makeRegistryPractice>>;
 const completion = new Map<string, string>();
+const referrerIds = new Map<string, string>();
 
 beforeAll(async () => {
   await resetData(services.orm, services.redis);
   world = await makeRegistryPractice(services.em(), 'outcomes');
   const knex = services.orm.em.getKnex();
+  for (const [key, name] of [['r1', 'Hazel Dental Studio'], ['r2', 'Quarry Lane Dentistry']] as const) {
+    referrerIds.set(key, (await createReferrer(services.em(), world.clinician, { name })).id);
+  }
   let n = 0;
   for (const f of CASES) {
     const operator = f.who === 'cal' ? world.clinician : world.clinician2;
@@ -70,6 +82,12 @@ beforeAll(async () => {
         completionDate: done,
         paiScore: f.pai,
         lesionDiameterMm: f.lesion,
+        tooth: f.tooth,
+        sealerClass: f.sealer,
+        fillDensity: f.density,
+        complications: f.complications ?? [],
+        referrerId: f.referrer ? referrerIds.get(f.referrer) : undefined,
+        ...(f.definitive ? { definitiveRestoration: f.definitive, definitiveRestorationDate: addDaysTo(done, 30) } : {}),
       }),
     );
     for (const r of f.reviews) {
@@ -273,11 +291,126 @@ describe('survival curves (issue 12, item 3)', () => {
     );
     const lr = logRank(groups);
     expect(r.curves.logRank?.pValue).toBeCloseTo(lr.pValue, 12);
-    expect(r.curves.curves.map((c) => [c.level, c.n])).toEqual([['Non-surgical retreatment', 1], ['Primary root canal treatment', 5]]);
+    expect(r.curves.curves.map((c) => [c.level, c.n])).toEqual([['Primary root canal treatment', 5], ['Non-surgical retreatment', 1]]); // the kinds' own order
     // competing events: B extracted at 740 days; the others censored at their last review (0 without one)
     const rows = CASES.map((f) => (f.key === 'B' ? { time: 740, cause: 'extraction' } : { time: f.reviews.length ? f.reviews[f.reviews.length - 1]!.day : 0, cause: null }));
     const ci = cumulativeIncidence(rows);
     expect(r.curves.competing.map((c) => c.cause)).toEqual(['extraction']);
     expect(r.curves.competing[0]!.points.map((p) => p.incidence)).toEqual(ci.extraction!.map((s) => s.incidence));
+  });
+});
+
+describe('the new factors and level filters (issue 12, items 2 and 8)', () => {
+  const latestOutcome = (f: FixtureCase) => outcome(f, f.latest);
+  const healingObs = (f: FixtureCase) => {
+    const i = caseObservations(recordedHistory({ completionDate: completion.get(f.key)!, baselinePai: f.pai }, f.reviews.map((_, j) => recorded(f, j))), { minObservationDays: 365 }).healing;
+    return i.right === null ? { time: i.left, event: false } : { time: i.right, event: true };
+  };
+
+  it('by density (voids): levels with Wilson intervals and Fisher’s exact test equal lib/stats on the fixture rows; not recorded is its own level', async () => {
+    const r = await outcomesByFactor(services.em(), world.auditor, { factor: 'density' });
+    const groups = [
+      ['homogeneous', 'Homogeneous (no voids)', CASES.filter((f) => f.density === 'homogeneous')],
+      ['voids', 'Voids seen', CASES.filter((f) => f.density === 'voids')],
+      ['not_recorded', 'Not recorded', CASES.filter((f) => f.density === undefined)],
+    ] as const;
+    expect(r.table.levels.map((l) => [l.code, l.level, l.cases])).toEqual(groups.map(([code, label, g]) => [code, label, g.length]));
+    const table: [number, number][] = [];
+    for (const [code, , g] of groups) {
+      const e = expectedSuccess(g, (f) => f.latest, (f) => f.due12);
+      const got = r.table.levels.find((l) => l.code === code)!;
+      expectRate(got.strict, e.strict, e.n);
+      expectRate(got.lenient, e.lenient, e.n);
+      if (e.n > 0) table.push([e.strict, e.n - e.strict]);
+    }
+    // the fixture's own arithmetic: A healed (homogeneous; E and F have no review); B extracted and C unchanged at two years (voids); D healed (not recorded)
+    expect(table).toEqual([[1, 0], [0, 2], [1, 0]]);
+    expect(r.table.test?.method).toBe('chi-square');
+    // the survival curves per level: log-rank equals lib/stats logRank on the fixture's own healing observations
+    expect(r.curves.curves.map((c) => [c.level, c.n])).toEqual(groups.map(([, label, g]) => [label, g.length]));
+    const lr = logRank(Object.fromEntries(groups.map(([code, , g]) => [code, g.map(healingObs)])));
+    expect(r.curves.logRank?.pValue).toBeCloseTo(lr.pValue, 12);
+    expect(r.curves.logRank?.df).toBe(lr.df);
+    for (const [i, [, , g]] of groups.entries()) {
+      const ints = g.map((f) => caseObservations(recordedHistory({ completionDate: completion.get(f.key)!, baselinePai: f.pai }, f.reviews.map((_, j) => recorded(f, j))), { minObservationDays: 365 }).healing);
+      expect(r.curves.curves[i]!.atRisk).toEqual([0, 183, 365, 731, 1096, 1461].map((d) => ints.filter((x) => (x.right ?? x.left) >= d).length));
+      expect(r.curves.curves[i]!.points.slice(1).map((p) => [p.time, p.survival])).toEqual(turnbull(ints).map((t) => [t.upper, t.survival]));
+    }
+  });
+
+  it('sealer, complications, definitive restoration and referrer: the levels the fixture defines; referrers named for the lead and a clinician', async () => {
+    const sealer = await outcomesByFactor(services.em(), world.auditor, { factor: 'sealer' });
+    expect(sealer.table.levels.map((l) => [l.level, l.cases])).toEqual([
+      ['Epoxy resin', 3],
+      ['Calcium silicate (bioceramic)', 2],
+      ['Not recorded', 1],
+    ]);
+    const comp = await outcomesByFactor(services.em(), world.auditor, { factor: 'complications' });
+    expect(comp.table.levels.map((l) => [l.level, l.cases])).toEqual([
+      ['None recorded', 5],
+      ['Separated instrument', 1],
+    ]);
+    const e = expectedSuccess(CASES.filter((f) => !f.complications?.length), (f) => f.latest, (f) => f.due12);
+    expectRate(comp.table.levels[0]!.strict, e.strict, e.n);
+    const def = await outcomesByFactor(services.em(), world.auditor, { factor: 'definitive' });
+    expect(def.table.levels.map((l) => [l.level, l.cases])).toEqual([
+      ['Crown', 1],
+      ['None recorded', 5],
+    ]);
+    const ref = await outcomesByFactor(services.em(), world.auditor, { factor: 'referrer' });
+    expect(ref.table.levels.map((l) => [l.level, l.cases])).toEqual([
+      ['Hazel Dental Studio', 2],
+      ['Quarry Lane Dentistry', 2],
+      ['No referrer recorded', 2],
+    ]);
+    expect(ref.curves.curves.map((c) => c.level)).toEqual(['Hazel Dental Studio', 'Quarry Lane Dentistry', 'No referrer recorded']);
+    // a clinician (patient.read: sees the referrer on each case) sees the names too, for their own cases only
+    const mine = await outcomesByFactor(services.em(), world.clinician, { factor: 'referrer' });
+    expect(mine.table.levels.map((l) => [l.level, l.cases])).toEqual([
+      ['Hazel Dental Studio', 2],
+      ['Quarry Lane Dentistry', 1],
+    ]);
+    expect(latestOutcome(CASES[0]!)).toBe('healed');
+  });
+
+  it('level filters change the rows as stated, in every view, and the figures equal the engine on those rows', async () => {
+    const voids = CASES.filter((f) => f.density === 'voids');
+    const o = await outcomesOverview(services.em(), world.auditor, { 'f.density': 'voids' });
+    expect(o.filter.levels).toEqual({ density: ['voids'] });
+    expect(o.overview.cases).toBe(voids.length);
+    const e = expectedSuccess(voids, (f) => f.latest, (f) => f.due12);
+    expectRate(o.overview.success.find((s) => s.at === 'latest')!.strict, e.strict, e.n);
+    const km = kaplanMeier(toothIntervals(voids).map((i) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true })));
+    for (const sv of o.overview.survival) expect(sv.km.survival).toBeCloseTo([...km].reverse().find((k) => k.time <= sv.days)?.survival ?? 1, 12);
+
+    // any of the levels within a factor, every factor named; with the kind filter too
+    const molarsOrPremolars = await outcomesOverview(services.em(), world.auditor, { 'f.group': 'molar,premolar', 'f.sealer': 'epoxy_resin' });
+    expect(molarsOrPremolars.overview.cases).toBe(CASES.filter((f) => [36, 46, 37, 24, 15].includes(f.tooth) && f.sealer === 'epoxy_resin').length); // A, C, E
+    expect(molarsOrPremolars.overview.cases).toBe(3);
+    const primaryVoids = await outcomesByFactor(services.em(), world.auditor, { factor: 'kind', kind: 'primary_treatment', 'f.density': 'voids' });
+    expect(primaryVoids.table.levels.map((l) => [l.level, l.cases])).toEqual([['Primary root canal treatment', 1]]); // B
+    const notRecorded = await outcomesCurves(services.em(), world.auditor, { endpoint: 'tooth', 'f.sealer': 'not_recorded' });
+    expect(notRecorded.curves.curves[0]!.n).toBe(1); // D
+    // a clinician's level filter still sees only their own cases
+    const mine = await outcomesOverview(services.em(), world.clinician, { 'f.referrer': referrerIds.get('r2')! });
+    expect(mine.overview.cases).toBe(CASES.filter((f) => f.who === 'cal' && f.referrer === 'r2').length); // E
+    expect(mine.practice?.cases).toBe(CASES.filter((f) => f.referrer === 'r2').length); // C and E
+    const none = await outcomesOverview(services.em(), world.auditor, { 'f.referrer': 'none' });
+    expect(none.overview.cases).toBe(CASES.filter((f) => !f.referrer).length);
+
+    // the CSV carries the filter; the audit trail names it
+    const csv = await outcomesCsv(services.em(), world.auditor, 'factor', { factor: 'sealer', 'f.density': 'voids' });
+    expect(csv).toContain('Epoxy resin,1,');
+    expect(csv).toContain('Calcium silicate (bioceramic),1,');
+    expect(csv).not.toContain('Not recorded');
+    const knex = services.orm.em.getKnex();
+    const details = (await knex('audit_event').where({ practice_id: world.practice.id, action: 'outcomes.overview_read' }).select('detail')).map((a: { detail: Record<string, unknown> }) => a.detail);
+    expect(details).toEqual(expect.arrayContaining([expect.objectContaining({ 'f.density': 'voids' })]));
+  });
+
+  it('a bad level filter is a 422 naming the URL key', async () => {
+    await expect(outcomesOverview(services.em(), world.auditor, { 'f.group': 'wisdom' })).rejects.toMatchObject({ status: 422, fieldErrors: { 'f.group': [expect.stringContaining('not a level of tooth group')] } });
+    await expect(outcomesByFactor(services.em(), world.auditor, { factor: 'kind', 'f.shoe': 'size' })).rejects.toMatchObject({ status: 422 });
+    await expect(outcomesCurves(services.em(), world.auditor, { 'f.clinician': world.clinician.userId })).rejects.toMatchObject({ status: 422 });
   });
 });
