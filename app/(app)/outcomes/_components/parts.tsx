@@ -53,6 +53,7 @@ const VIEWS = [
   { href: '/outcomes', label: 'Overview' },
   { href: '/outcomes/factor', label: 'By factor' },
   { href: '/outcomes/curves', label: 'Survival curves' },
+  { href: '/outcomes/model', label: 'Multivariable' },
 ] as const;
 
 export function OutcomesHeader({
@@ -68,7 +69,7 @@ export function OutcomesHeader({
   clinicians: { id: string; name: string }[];
   own: boolean;
   problems: Record<string, string[]>;
-  csvView: 'overview' | 'factor' | 'curves';
+  csvView: 'overview' | 'factor' | 'curves' | 'model';
 }) {
   const keep = Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]]));
   const problem = (k: string) => problems[k]?.[0];
@@ -113,7 +114,7 @@ export function OutcomesHeader({
         ))}
       </nav>
       <form method="get" action={current} aria-label="Filter the outcomes" className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-5">
-        {(['factor', 'endpoint', 'method'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
+        {(['factor', 'endpoint', 'method', 'covariates', 'lesionAs', 'paiAs'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
         <div>
           <label htmlFor="outcomes-from" className="field-label">
             Completed from
