@@ -94,10 +94,11 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
   interface Plan {
     choice: CovariateChoice;
     label: string;
-    /** per row: the merged level, or null when the row is left out */
-    level?: (string | null)[];
+    /** per row: the index of its merged level, or null when the row is left out */
+    level?: (number | null)[];
+    /** shown names of the merged levels (made unique) */
     levels?: string[];
-    reference?: string;
+    reference?: number;
   }
   const plans: Plan[] = [];
   const seen = new Set<FactorKey>();
@@ -158,33 +159,43 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
       continue;
     }
     if (leftNote) notes.push(leftNote);
-    const levelOf = new Map<string, string>();
-    for (const g of groups) for (const l of g) levelOf.set(l, show(g));
+    const levelOf = new Map<string, number>();
+    groups.forEach((g, k) => g.forEach((l) => levelOf.set(l, k)));
     const level = raw.map((l) => (left.has(l) ? null : levelOf.get(l)!));
     level.forEach((l, i) => {
       if (l === null) keep[i] = false;
     });
-    const groupSizes = groups.map((g) => ({ name: show(g), n: size(g) }));
-    const reference = groupSizes.reduce((best, g) => (g.n > best.n ? g : best)).name;
-    plans.push({ choice, label, level, levels: groupSizes.map((g) => g.name), reference });
+    // shown names, unique even when two levels share a name (e.g. two former clinicians)
+    const names: string[] = [];
+    for (const g of groups) {
+      const base = show(g);
+      let n = base;
+      for (let k = 2; names.includes(n); k++) n = `${base} (${k})`;
+      names.push(n);
+    }
+    let reference = 0;
+    groups.forEach((g, k) => {
+      if (size(g) > size(groups[reference]!)) reference = k;
+    });
+    plans.push({ choice, label, level, levels: names, reference });
   }
   const rows = cases.map((_, i) => i).filter((i) => keep[i]);
   const columns: DesignColumn[] = [];
   for (const p of plans) {
     if (p.choice.numeric) columns.push({ covariate: p.choice.key, label: p.label, term: NUMERIC_COVARIATES[p.choice.key as NumericKey].per, numeric: true, reference: null });
-    else for (const l of p.levels!) if (l !== p.reference) columns.push({ covariate: p.choice.key, label: p.label, term: l, numeric: false, reference: p.reference! });
+    else p.levels!.forEach((l, k) => k !== p.reference && columns.push({ covariate: p.choice.key, label: p.label, term: l, numeric: false, reference: p.levels![p.reference!]! }));
   }
   const x = rows.map((i) => {
     const out: number[] = [];
     for (const p of plans) {
       if (p.choice.numeric) out.push(NUMERIC_COVARIATES[p.choice.key as NumericKey].value(cases[i]!));
-      else for (const l of p.levels!) if (l !== p.reference) out.push(p.level![i] === l ? 1 : 0);
+      else p.levels!.forEach((_, k) => k !== p.reference && out.push(p.level![i] === k ? 1 : 0));
     }
     return out;
   });
   const references = plans
     .filter((p) => !p.choice.numeric)
-    .map((p) => ({ covariate: p.choice.key, label: p.label, level: p.reference!, rows: rows.filter((i) => p.level![i] === p.reference).length }));
+    .map((p) => ({ covariate: p.choice.key, label: p.label, level: p.levels![p.reference!]!, rows: rows.filter((i) => p.level![i] === p.reference).length }));
   return { columns, x, rows, references, notes };
 }
 

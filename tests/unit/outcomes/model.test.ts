@@ -183,3 +183,14 @@ describe('coxModel and logisticModel', () => {
     expect(fitProblem(new Error('something new'), cols)).toBe('The model could not be fitted on these cases.');
   });
 });
+
+describe('designMatrix: levels that share a shown name', () => {
+  it('two former clinicians stay two levels, named apart', () => {
+    const rows = [...many(12, { operatorId: 'u1' }), ...many(11, { operatorId: 'u2' }), ...many(10, { operatorId: 'u3' })];
+    const d = designMatrix(rows, [{ key: 'clinician' }], { levelName: (_k, l) => (l === 'u1' ? 'Dr One' : 'Former clinician') });
+    expect(d.references[0]!.level).toBe('Dr One');
+    expect(d.columns.map((c) => c.term)).toEqual(['Former clinician', 'Former clinician (2)']);
+    expect(d.x[12]).toEqual([1, 0]);
+    expect(d.x[23]).toEqual([0, 1]);
+  });
+});
