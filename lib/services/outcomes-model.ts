@@ -3,7 +3,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
 import { writeCsv } from '@/lib/csv/write';
 import { applyFilter, type FactorKey, type OutcomeFilter } from '@/lib/outcomes';
-import { DEFAULT_COVARIATES, multivariable, type CovariateChoice, type ModelFit, type Multivariable } from '@/lib/outcomes/model';
+import { DEFAULT_COVARIATES, EPV_MIN, multivariable, type CovariateChoice, type ModelFit, type Multivariable } from '@/lib/outcomes/model';
 import { OutcomeModelQuery } from '@/lib/schemas/outcomes-model';
 import { audit } from './audit';
 import { filterDetail, scope } from './outcomes';
@@ -56,16 +56,17 @@ const MODEL_WORDS = { cox: 'Cox', logistic: 'Logistic' } as const;
 
 function tableRows(fit: ModelFit, outcome: string): (string | number | null)[][] {
   const ratio = fit.model === 'cox' ? 'hazard ratio' : 'odds ratio';
-  const head: (string | number | null)[] = [MODEL_WORDS[fit.model], outcome, '', '', null, null, null, null, null, null];
+  // a summary line: the figure's name in the Factor column, its value in the Level column
+  const line = (what: string, value: string | number) => [MODEL_WORDS[fit.model], outcome, what, String(value)];
   const summary = [
-    [...head.slice(0, 2), 'Cases', String(fit.cases), null, null, null, null, null, null],
-    [...head.slice(0, 2), 'Patients', String(fit.patients), null, null, null, null, null, null],
-    [...head.slice(0, 2), fit.model === 'cox' ? 'Events' : 'Events (the rarer outcome)', String(fit.events), null, null, null, null, null, null],
-    [...head.slice(0, 2), 'Events per variable', fit.epv === null ? '' : fit.epv.toFixed(1), null, null, null, null, null, null],
-    ...(fit.lowEpv ? [[...head.slice(0, 2), 'Warning', 'Fewer than 10 events per variable (Peduzzi et al. 1995, 1996): the estimates may be unstable', null, null, null, null, null, null]] : []),
-    ...(fit.error ? [[...head.slice(0, 2), 'Not fitted', fit.error, null, null, null, null, null, null]] : []),
-    ...fit.references.map((r) => [...head.slice(0, 2), `Reference: ${r.label}`, r.level, null, null, null, null, null, null]),
-    ...fit.notes.map((n) => [...head.slice(0, 2), 'Note', n, null, null, null, null, null, null]),
+    line('Cases', fit.cases),
+    line('Patients', fit.patients),
+    line(fit.model === 'cox' ? 'Events' : 'Events (the rarer outcome)', fit.events),
+    line('Events per variable', fit.epv === null ? '' : fit.epv.toFixed(1)),
+    ...(fit.lowEpv ? [line('Warning', `Fewer than ${EPV_MIN} events per variable (Peduzzi et al. 1995, 1996): the estimates may be unstable`)] : []),
+    ...(fit.error ? [line('Not fitted', fit.error)] : []),
+    ...fit.references.map((r) => line(`Reference: ${r.label}`, r.level)),
+    ...fit.notes.map((n) => line('Note', n)),
   ];
   const terms = fit.terms.map((t) => [MODEL_WORDS[fit.model], outcome, t.label, t.numeric ? t.term : `${t.term} vs ${t.reference}`, ratio, t.ratio, t.lower, t.upper, t.pValue, t.robustSe]);
   return [...summary, ...terms];
