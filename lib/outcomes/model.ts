@@ -33,6 +33,12 @@ import { FACTORS, levelOrder, type FactorKey } from './compute';
 export const MIN_LEVEL_ROWS = 10;
 /** Events per variable below this: the warning (Peduzzi et al. 1995, 1996). */
 export const EPV_MIN = 10;
+/**
+ * A fitted log ratio beyond this (a ratio above e^10 ≈ 22,000 or below 1/22,000) is taken as
+ * quasi-separation that the fit did not stop on (common practice: such a coefficient is a symptom
+ * of separation, not an effect), and the model is reported as not estimable.
+ */
+export const MAX_ABS_COEF = 10;
 
 /** Factors that may enter as a number instead of levels, with their unit. */
 export const NUMERIC_COVARIATES = {
@@ -339,7 +345,9 @@ export function coxModel(
   if (sep) return { ...fit, error: sep };
   try {
     const r = coxPH(design.rows.map((i, k) => ({ ...obs[i]!, x: design.x[k]!, cluster: rows[i]!.patientId })));
-    return { ...fit, terms: termsOf(design.columns, r.coef, r.se, r.robustSe ?? null, r.hazardRatio, r.lower, r.upper, r.pValue) };
+    const terms = termsOf(design.columns, r.coef, r.se, r.robustSe ?? null, r.hazardRatio, r.lower, r.upper, r.pValue);
+    const far = runaway(terms);
+    return far ? { ...fit, error: far } : { ...fit, terms };
   } catch (e) {
     return { ...fit, error: fitProblem(e, design.columns) };
   }
@@ -378,10 +386,19 @@ export function logisticModel(
     const r = logisticRegression(design.rows.map((i, k) => ({ y: outcomes[i]!, x: design.x[k]!, cluster: judged[i]!.patientId })));
     // drop the intercept
     const s = <T>(a: readonly T[]) => a.slice(1);
-    return { ...fit, terms: termsOf(design.columns, s(r.coef), s(r.se), r.robustSe ? s(r.robustSe) : null, s(r.oddsRatio), s(r.lower), s(r.upper), s(r.pValue)) };
+    const terms = termsOf(design.columns, s(r.coef), s(r.se), r.robustSe ? s(r.robustSe) : null, s(r.oddsRatio), s(r.lower), s(r.upper), s(r.pValue));
+    const far = runaway(terms);
+    return far ? { ...fit, error: far } : { ...fit, terms };
   } catch (e) {
     return { ...fit, error: fitProblem(e, design.columns) };
   }
+}
+
+/** The message for terms whose ratio runs towards 0 or infinity (see MAX_ABS_COEF), or null. */
+export function runaway(terms: readonly ModelTerm[]): string | null {
+  const bad = terms.filter((t) => !(Math.abs(t.coef) <= MAX_ABS_COEF));
+  if (bad.length === 0) return null;
+  return `The model cannot be estimated reliably: the ratio of ${bad.map((t) => `${t.label}: ${t.term}`).join('; ')} runs towards ${bad[0]!.coef > 0 ? 'infinity' : '0'} (quasi-separation: almost all its cases have one outcome). Leave that factor out or choose a wider selection.`;
 }
 
 function termsOf(

@@ -17,6 +17,8 @@ interface Fit {
   terms: { label: string; term: string; ratio: number }[];
 }
 type Api = { result: { cox: Fit; logistic: Fit } };
+/** The page's number format (app/(app)/outcomes/model/page.tsx). */
+const fmt = (v: number) => (v >= 100 || v < 0.01 ? v.toExponential(1) : v.toFixed(2));
 
 async function shots(page: Page, name: string, testInfo: { outputPath: (name: string) => string }) {
   for (const width of [1366, 375]) {
@@ -34,7 +36,7 @@ async function checkAgainstApi(page: Page, query: string) {
     await expect(page.getByTestId(`model-${model}-counts`)).toContainText(`of ${fit.patients} patients`);
     if (fit.terms.length) {
       await expect(page.getByTestId(`model-${model}-term`)).toHaveCount(fit.terms.length);
-      await expect(page.getByTestId(`model-${model}-term`).first().locator('td').nth(2)).toHaveText(fit.terms[0]!.ratio.toFixed(2));
+      await expect(page.getByTestId(`model-${model}-term`).first().locator('td').nth(2)).toHaveText(fmt(fit.terms[0]!.ratio));
     } else {
       await expect(page.getByTestId(`model-${model}-error`)).toBeVisible();
     }

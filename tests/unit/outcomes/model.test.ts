@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { healingObservations, outcomeAtMilestone, type OutcomeCase } from '@/lib/outcomes';
-import { coxModel, coxTime, designMatrix, EPV_MIN, fitProblem, logisticModel, MIN_LEVEL_ROWS, multivariable } from '@/lib/outcomes/model';
+import { coxModel, coxTime, designMatrix, EPV_MIN, fitProblem, logisticModel, MAX_ABS_COEF, MIN_LEVEL_ROWS, multivariable, runaway, type ModelTerm } from '@/lib/outcomes/model';
 import { addDaysTo } from '@/lib/registry/calendar-date';
 import { coxPH, logisticRegression } from '@/lib/stats';
 
@@ -192,5 +192,15 @@ describe('designMatrix: levels that share a shown name', () => {
     expect(d.columns.map((c) => c.term)).toEqual(['Former clinician', 'Former clinician (2)']);
     expect(d.x[12]).toEqual([1, 0]);
     expect(d.x[23]).toEqual([0, 1]);
+  });
+});
+
+describe('runaway ratios (quasi-separation the fit did not stop on)', () => {
+  const term = (coef: number): ModelTerm => ({ covariate: 'year', label: 'Year of treatment', term: '2022', numeric: false, reference: '2021', coef, se: 1, robustSe: 1, ratio: Math.exp(coef), lower: 0, upper: 0, pValue: 1 });
+  it(`a log ratio beyond ±${MAX_ABS_COEF} (a ratio of 2.9e7, as once seen on a small selection) is reported, naming the term; within it, nothing`, () => {
+    expect(runaway([term(Math.log(2.9e7))])).toMatch(/Year of treatment: 2022 runs towards infinity \(quasi-separation/);
+    expect(runaway([term(-12)])).toMatch(/runs towards 0/);
+    expect(runaway([term(NaN)])).not.toBeNull();
+    expect(runaway([term(2.3), term(-9.9)])).toBeNull();
   });
 });

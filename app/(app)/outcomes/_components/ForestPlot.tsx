@@ -39,7 +39,7 @@ export function ForestPlot({ rows, ratioLabel }: { rows: ForestRow[]; ratioLabel
           allowDataOverflow
           tick={{ fontSize: 11 }}
           tickFormatter={(v: number) => String(v)}
-          label={{ value: `${ratioLabel} (log scale, 95% interval)`, position: 'insideBottom', offset: -8, fontSize: 11 }}
+          label={{ value: `${ratioLabel}, log scale`, position: 'insideBottom', offset: -8, fontSize: 11 }}
         />
         <YAxis type="number" dataKey="y" domain={[0.5, rows.length + 0.5]} ticks={data.map((d) => d.y)} tickFormatter={(v: number) => names.get(v) ?? ''} width={190} tick={{ fontSize: 11 }} interval={0} />
         <ReferenceLine x={1} stroke="#1d2225" strokeDasharray="4 3" />

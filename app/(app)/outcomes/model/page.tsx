@@ -67,7 +67,7 @@ function ModelSection({ fit, title, id, endpoint, method, above }: { fit: ModelF
       )}
       {fit.terms.length > 0 && (
         <>
-          <div className="h-72 w-full sm:h-80" data-testid={`model-${fit.model}-forest`} aria-label={`Forest plot: ${t.ratio.toLowerCase()}s with 95% intervals`} role="img">
+          <div className="w-full" style={{ height: 70 + 34 * fit.terms.length }} data-testid={`model-${fit.model}-forest`} aria-label={`Forest plot: ${t.ratio.toLowerCase()}s with 95% intervals`} role="img">
             <ForestPlot ratioLabel={t.ratio} rows={fit.terms.map((x) => ({ name: `${x.label.replace(' before treatment', '')}: ${x.term}`, ratio: x.ratio, lower: x.lower, upper: x.upper }))} />
           </div>
           <p className="text-xs text-ink-500">{above}</p>
