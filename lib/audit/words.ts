@@ -115,6 +115,7 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'outcomes.overview_read': 'Viewed the outcomes overview',
       'outcomes.factor_read': 'Viewed outcomes by factor',
       'outcomes.curves_read': 'Viewed survival curves',
+      'outcomes.model_read': 'Viewed the multivariable models of outcomes',
       'outcomes.exported': 'Downloaded outcome figures (CSV)',
     },
   },

@@ -144,6 +144,7 @@ const SPECS: Record<string, RouteSpec> = {
   'outcomes/factor/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor', 'endpoint', 'method', 'f.sealer', 'f.year'], baseQuery: { factor: 'sealer', 'f.pai': '4,5' } },
   'outcomes/curves/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor', 'endpoint', 'method', 'f.density'], baseQuery: { endpoint: 'tooth' } },
   'outcomes/export/route.ts#GET': { query: ['view', 'from', 'to', 'clinician', 'kind', 'factor', 'f.complications'], baseQuery: { view: 'overview' } },
+  'outcomes/model/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'covariates', 'lesionAs', 'paiAs', 'endpoint'], baseQuery: { covariates: 'kind,lesion,pai' } },
   'dev-mailbox/route.ts#GET': { query: ['id', 'to', 'limit'] },
   'health/route.ts#GET': {},
   'patients/[id]/route.ts#GET': { params: () => ({ id: ids.patient! }) },

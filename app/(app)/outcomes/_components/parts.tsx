@@ -149,6 +149,7 @@ const VIEWS = [
   { href: '/outcomes', label: 'Overview' },
   { href: '/outcomes/factor', label: 'By factor' },
   { href: '/outcomes/curves', label: 'Survival curves' },
+  { href: '/outcomes/model', label: 'Multivariable' },
 ] as const;
 
 export function OutcomesHeader({
@@ -165,7 +166,7 @@ export function OutcomesHeader({
   clinicians: { id: string; name: string }[];
   own: boolean;
   problems: Record<string, string[]>;
-  csvView: 'overview' | 'factor' | 'curves';
+  csvView: 'overview' | 'factor' | 'curves' | 'model';
   /** to name referrer level filters on the chips (the reports carry them) */
   referrers?: { id: string; name: string }[];
 }) {
@@ -214,7 +215,7 @@ export function OutcomesHeader({
         ))}
       </nav>
       <form method="get" action={current} aria-label="Filter the outcomes" className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-5">
-        {(['factor', 'endpoint', 'method'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
+        {(['factor', 'endpoint', 'method', 'covariates', 'lesionAs', 'paiAs'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
         {Object.entries(filters).map(([k, v]) => isLevelKey(k) && <input key={k} type="hidden" name={k} value={v} />)}
         <div>
           <label htmlFor="outcomes-from" className="field-label">

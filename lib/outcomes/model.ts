@@ -1,0 +1,437 @@
+/**
+ * Multivariable models of the outcomes area (issue 12, item 4), from the rows of cases.ts. Pure.
+ *
+ * - The design matrix (`designMatrix`): each chosen factor of FACTORS becomes indicator columns
+ *   against a reference level, the most frequent level (the first in the factor's order on a tie).
+ *   A level with fewer than MIN_LEVEL_ROWS rows is merged: into its smaller neighbour for an
+ *   ordered factor (lesion bands, PAI, year), else into one pooled "Other" level; a pooled level
+ *   still too small is left out with its rows. A factor left with one level is dropped. Lesion
+ *   diameter and baseline PAI may instead enter as numbers (one coefficient per mm / per PAI point,
+ *   assuming a log-linear effect). Every merge, drop and left-out row is said in `notes`.
+ * - The Cox model (`coxModel`): time to failure to heal (disease, retreatment, surgery or extraction)
+ *   or to tooth loss. A failure found at a recall visit lies between the last clear review and the
+ *   review that found it; the model takes the MIDPOINT of that interval (Law & Brookmeyer 1992: less
+ *   biased than the date of the review that found it when visit intervals differ between teeth);
+ *   no-failure cases are right-censored at their last review; cases with no review are left out.
+ *   Efron ties; robust standard errors clustered by patient (several teeth per patient), as R
+ *   coxph(..., cluster = patient) (Lin & Wei 1989).
+ * - The logistic model (`logisticModel`): strict success (healed) at the 12-month milestone
+ *   (`outcomeAtMilestone`; a retreatment, surgery or extraction found by then is a failure; uncertain
+ *   and not seen left out), with HC1 cluster-robust standard errors by patient as
+ *   sandwich::vcovCL(type = "HC1").
+ * - Events per variable below EPV_MIN (10; Peduzzi et al. 1995 for Cox, 1996 for logistic
+ *   regression) set `lowEpv`. For the logistic model the "events" are the rarer outcome.
+ * - Separation (a level with no events, or only successes or only failures) is found before the fit
+ *   and named; any other failure of the fit (no convergence, collinearity) is reported in `error`:
+ *   a model that cannot be fitted is a message, never an exception.
+ */
+import { coxPH, logisticRegression } from '@/lib/stats';
+import { healingObservations, isStrictSuccess, outcomeAtMilestone, toothLossObservations, type OutcomeCase } from './cases';
+import { FACTORS, levelOrder, type FactorKey } from './compute';
+
+/** A level with fewer rows than this is merged (or left out). */
+export const MIN_LEVEL_ROWS = 10;
+/** Events per variable below this: the warning (Peduzzi et al. 1995, 1996). */
+export const EPV_MIN = 10;
+/**
+ * A fitted log ratio beyond this (a ratio above e^10 ≈ 22,000 or below 1/22,000) is taken as
+ * quasi-separation that the fit did not stop on (common practice: such a coefficient is a symptom
+ * of separation, not an effect), and the model is reported as not estimable.
+ */
+export const MAX_ABS_COEF = 10;
+
+/** Factors that may enter as a number instead of levels, with their unit. */
+export const NUMERIC_COVARIATES = {
+  lesion: { label: 'Lesion diameter before treatment', per: 'per mm', value: (c: OutcomeCase) => c.lesionDiameterMm },
+  pai: { label: 'PAI before treatment', per: 'per PAI point', value: (c: OutcomeCase) => c.baselinePai },
+} as const satisfies Partial<Record<FactorKey, { label: string; per: string; value: (c: OutcomeCase) => number }>>;
+export type NumericKey = keyof typeof NUMERIC_COVARIATES;
+export const isNumericKey = (k: string): k is NumericKey => k in NUMERIC_COVARIATES;
+
+/** Factors whose levels have an order: a small level merges with a neighbour, not into "Other". */
+export const ORDERED_FACTORS: readonly FactorKey[] = ['lesion', 'pai', 'year'];
+
+/** Factors offered as covariates (every factor of FACTORS: a categorical factor enters as levels). */
+export const COVARIATE_KEYS = Object.keys(FACTORS) as FactorKey[];
+/** The choice when none is made: treatment kind, lesion size (bands) and baseline PAI (per point). */
+export const DEFAULT_COVARIATES: CovariateChoice[] = [{ key: 'kind' }, { key: 'lesion' }, { key: 'pai', numeric: true }];
+
+export interface CovariateChoice {
+  key: FactorKey;
+  /** lesion and pai only: enter as a number (one coefficient) rather than as levels */
+  numeric?: boolean;
+}
+
+export interface DesignColumn {
+  covariate: FactorKey;
+  /** the factor's label, e.g. "Tooth group" */
+  label: string;
+  /** the level this column indicates, or the unit of a numeric covariate ("per mm") */
+  term: string;
+  numeric: boolean;
+  /** the reference level of a categorical covariate */
+  reference: string | null;
+}
+
+export interface Design {
+  columns: DesignColumn[];
+  /** one row per kept input row */
+  x: number[][];
+  /** indices (into the input) of the rows kept */
+  rows: number[];
+  /** reference level of each categorical covariate kept, with its number of rows */
+  references: { covariate: FactorKey; label: string; level: string; rows: number }[];
+  /** merges, drops and left-out rows, in plain words */
+  notes: string[];
+}
+
+type LevelName = (key: FactorKey, level: string) => string;
+const sortLevels = (a: string, b: string) => levelOrder(a) - levelOrder(b) || a.localeCompare(b, 'en', { numeric: true });
+
+/**
+ * The design matrix of the chosen covariates on the given rows (see the top of this file for the
+ * rules). `levelName` turns a level into its shown name (clinician ids into names).
+ */
+export function designMatrix(cases: readonly OutcomeCase[], choices: readonly CovariateChoice[], opts: { minLevel?: number; levelName?: LevelName } = {}): Design {
+  const minLevel = opts.minLevel ?? MIN_LEVEL_ROWS;
+  const name: LevelName = opts.levelName ?? ((_k, l) => l);
+  const notes: string[] = [];
+  const keep = new Array<boolean>(cases.length).fill(true);
+  interface Plan {
+    choice: CovariateChoice;
+    label: string;
+    /** per row: the index of its merged level, or null when the row is left out */
+    level?: (number | null)[];
+    /** shown names of the merged levels (made unique) */
+    levels?: string[];
+    reference?: number;
+  }
+  const plans: Plan[] = [];
+  const seen = new Set<FactorKey>();
+  for (const choice of choices) {
+    if (seen.has(choice.key)) continue;
+    seen.add(choice.key);
+    const numeric = choice.numeric === true && isNumericKey(choice.key);
+    if (numeric) {
+      const spec = NUMERIC_COVARIATES[choice.key as NumericKey];
+      const values = cases.map(spec.value);
+      if (values.length === 0 || values.every((v) => v === values[0])) {
+        notes.push(`${spec.label} is left out: it is the same in every case of this selection.`);
+        continue;
+      }
+      plans.push({ choice: { key: choice.key, numeric: true }, label: spec.label });
+      continue;
+    }
+    const label = FACTORS[choice.key].label;
+    const raw = cases.map((c) => FACTORS[choice.key].level(c));
+    const counts = new Map<string, number>();
+    for (const l of raw) counts.set(l, (counts.get(l) ?? 0) + 1);
+    // groups: each merged level is a list of original levels
+    let groups = [...counts.keys()].sort(sortLevels).map((l) => [l]);
+    const size = (g: string[]) => g.reduce((s, l) => s + counts.get(l)!, 0);
+    const show = (g: string[]) => g.map((l) => name(choice.key, l)).join(' + ');
+    const left = new Set<string>();
+    let leftNote: string | null = null;
+    if (ORDERED_FACTORS.includes(choice.key)) {
+      for (;;) {
+        if (groups.length < 2) break;
+        let small = -1;
+        for (let i = 0; i < groups.length; i++) if (size(groups[i]!) < minLevel && (small === -1 || size(groups[i]!) < size(groups[small]!))) small = i;
+        if (small === -1) break;
+        const prev = small > 0 ? small - 1 : -1;
+        const next = small < groups.length - 1 ? small + 1 : -1;
+        const into = prev === -1 ? next : next === -1 ? prev : size(groups[prev]!) <= size(groups[next]!) ? prev : next;
+        const merged = into < small ? [...groups[into]!, ...groups[small]!] : [...groups[small]!, ...groups[into]!];
+        notes.push(`${label}: ${show(groups[small]!)} (${size(groups[small]!)} cases) merged with ${show(groups[into]!)}, fewer than ${minLevel} cases.`);
+        groups = groups.map((g, i) => (i === Math.min(small, into) ? merged : g)).filter((_, i) => i !== Math.max(small, into));
+      }
+    } else {
+      const rare = groups.filter((g) => size(g) < minLevel);
+      if (rare.length > 0 && groups.length > 1) {
+        const pooled = rare.flat();
+        groups = groups.filter((g) => size(g) >= minLevel);
+        if (rare.length > 1 && size(pooled) >= minLevel) {
+          groups.push(pooled);
+          notes.push(`${label}: ${show(pooled)} pooled into one level (each had fewer than ${minLevel} cases).`);
+        } else {
+          for (const l of pooled) left.add(l);
+          leftNote = `${label}: ${size(pooled)} cases of ${show(pooled)} left out of the model, fewer than ${minLevel} cases.`;
+        }
+      }
+    }
+    if (groups.length < 2) {
+      // the factor is not in the model, so its rare levels' rows stay in
+      notes.push(`${label} is left out: ${groups.length === 1 && left.size === 0 ? 'one level only in this selection' : `fewer than two levels with ${minLevel} cases or more`}.`);
+      continue;
+    }
+    if (leftNote) notes.push(leftNote);
+    const levelOf = new Map<string, number>();
+    groups.forEach((g, k) => g.forEach((l) => levelOf.set(l, k)));
+    const level = raw.map((l) => (left.has(l) ? null : levelOf.get(l)!));
+    level.forEach((l, i) => {
+      if (l === null) keep[i] = false;
+    });
+    // shown names, unique even when two levels share a name (e.g. two former clinicians)
+    const names: string[] = [];
+    for (const g of groups) {
+      const base = show(g);
+      let n = base;
+      for (let k = 2; names.includes(n); k++) n = `${base} (${k})`;
+      names.push(n);
+    }
+    let reference = 0;
+    groups.forEach((g, k) => {
+      if (size(g) > size(groups[reference]!)) reference = k;
+    });
+    plans.push({ choice, label, level, levels: names, reference });
+  }
+  const rows = cases.map((_, i) => i).filter((i) => keep[i]);
+  const columns: DesignColumn[] = [];
+  for (const p of plans) {
+    if (p.choice.numeric) columns.push({ covariate: p.choice.key, label: p.label, term: NUMERIC_COVARIATES[p.choice.key as NumericKey].per, numeric: true, reference: null });
+    else p.levels!.forEach((l, k) => k !== p.reference && columns.push({ covariate: p.choice.key, label: p.label, term: l, numeric: false, reference: p.levels![p.reference!]! }));
+  }
+  const x = rows.map((i) => {
+    const out: number[] = [];
+    for (const p of plans) {
+      if (p.choice.numeric) out.push(NUMERIC_COVARIATES[p.choice.key as NumericKey].value(cases[i]!));
+      else p.levels!.forEach((_, k) => k !== p.reference && out.push(p.level![i] === k ? 1 : 0));
+    }
+    return out;
+  });
+  const references = plans
+    .filter((p) => !p.choice.numeric)
+    .map((p) => ({ covariate: p.choice.key, label: p.label, level: p.levels![p.reference!]!, rows: rows.filter((i) => p.level![i] === p.reference).length }));
+  return { columns, x, rows, references, notes };
+}
+
+export interface ModelTerm extends DesignColumn {
+  coef: number;
+  se: number;
+  robustSe: number | null;
+  /** hazard ratio (Cox) or odds ratio (logistic) */
+  ratio: number;
+  lower: number;
+  upper: number;
+  pValue: number;
+}
+
+export interface ModelFit {
+  model: 'cox' | 'logistic';
+  /** rows in the model (teeth or cases) and distinct patients among them */
+  cases: number;
+  patients: number;
+  /** Cox: failures; logistic: the rarer outcome (successes or failures) */
+  events: number;
+  /** logistic: cases healed / not healed at 12 months */
+  successes: number | null;
+  failures: number | null;
+  parameters: number;
+  /** events per variable (null without parameters) */
+  epv: number | null;
+  lowEpv: boolean;
+  references: Design['references'];
+  notes: string[];
+  terms: ModelTerm[];
+  /** why the model could not be fitted (no events, separation, no convergence, collinearity), or null */
+  error: string | null;
+}
+
+export type ModelEndpoint = 'healing' | 'tooth';
+
+interface Prepared {
+  rows: OutcomeCase[];
+  design: Design;
+  notes: string[];
+}
+
+function baseFit(model: ModelFit['model'], p: Prepared, events: number, extra: Partial<ModelFit>): ModelFit {
+  const kept = p.design.rows.map((i) => p.rows[i]!);
+  const parameters = p.design.columns.length;
+  const epv = parameters > 0 ? events / parameters : null;
+  return {
+    model,
+    cases: kept.length,
+    patients: new Set(kept.map((c) => c.patientId)).size,
+    events,
+    successes: null,
+    failures: null,
+    parameters,
+    epv,
+    lowEpv: epv !== null && epv < EPV_MIN,
+    references: p.design.references,
+    notes: [...p.notes, ...p.design.notes],
+    terms: [],
+    error: null,
+    ...extra,
+  };
+}
+
+/** The plain reason a fit failed, from lib/stats' message. */
+export function fitProblem(e: unknown, columns: readonly DesignColumn[]): string {
+  const m = e instanceof Error ? e.message : String(e);
+  const col = /covariate (\d+)/.exec(m);
+  const which = col && columns[Number(col[1])] ? ` (${columns[Number(col[1])]!.label}: ${columns[Number(col[1])]!.term})` : '';
+  if (/infinite|separation|monotone/i.test(m)) return `The model cannot be estimated: a ratio runs to infinity${which} (separation: a level with no events, or only one outcome). Leave that factor out or choose a wider selection.`;
+  if (/converge/i.test(m)) return `The model did not converge${which}. Choose fewer factors or a wider selection.`;
+  if (/collinear|singular|constant/i.test(m)) return `The factors chosen carry the same information (collinear)${which}, so their effects cannot be told apart. Leave one of them out.`;
+  if (/event|both outcomes|same/i.test(m)) return 'The model needs both outcomes among the cases: there are none of one of them in this selection.';
+  if (/more rows|at least two/i.test(m)) return 'Too few cases for this many factors.';
+  return 'The model could not be fitted on these cases.';
+}
+
+/** A level (indicator column) whose rows all have the same outcome, or the reference level so: named before the fit. */
+function separated(design: Design, y: readonly boolean[], what: 'cox' | 'logistic'): string | null {
+  const check = (label: string, idx: number[]) => {
+    if (idx.length === 0) return null;
+    const pos = idx.filter((i) => y[i]).length;
+    if (what === 'cox' && pos === 0) return `${label} has no events`;
+    if (what === 'logistic' && (pos === 0 || pos === idx.length)) return `${label} has ${pos === 0 ? 'no successes' : 'only successes'}`;
+    return null;
+  };
+  const found: string[] = [];
+  design.columns.forEach((c, k) => {
+    if (c.numeric) return;
+    const r = check(`${c.label}: ${c.term}`, design.x.map((_, i) => i).filter((i) => design.x[i]![k] === 1));
+    if (r) found.push(r);
+  });
+  for (const ref of design.references) {
+    const cols = design.columns.map((c, k) => (c.covariate === ref.covariate && !c.numeric ? k : -1)).filter((k) => k >= 0);
+    const r = check(`${ref.label}: ${ref.level} (reference)`, design.x.map((_, i) => i).filter((i) => cols.every((k) => design.x[i]![k] === 0)));
+    if (r) found.push(r);
+  }
+  return found.length === 0 ? null : `The model cannot be estimated: ${found.join('; ')} (separation: its ratio would be infinite). Leave that factor out or choose a wider selection.`;
+}
+
+/** The time of a Cox row from an interval: midpoint of (left, right] for a failure, left when censored. */
+export function coxTime(i: { left: number; right: number | null }): { time: number; event: boolean } {
+  if (i.right === null) return { time: i.left, event: false };
+  return { time: (i.left + i.right) / 2, event: true };
+}
+
+/**
+ * Cox model of failure to heal (`healing`, one row per case) or tooth loss (`tooth`, one row per
+ * tooth from its earliest case in the selection, followed across later cases from `all`).
+ */
+export function coxModel(
+  selection: readonly OutcomeCase[],
+  all: readonly OutcomeCase[],
+  choices: readonly CovariateChoice[],
+  opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName; minLevel?: number },
+): ModelFit {
+  let cases: OutcomeCase[];
+  let intervals: { left: number; right: number | null }[];
+  if (opts.endpoint === 'tooth') {
+    const ids = new Set(selection.map((c) => c.id));
+    cases = selection.filter((c) => !(c.previousCaseId && ids.has(c.previousCaseId)));
+    intervals = toothLossObservations(cases, all, opts.minObs);
+  } else {
+    cases = [...selection];
+    intervals = healingObservations(cases, opts.minObs);
+  }
+  const followed = cases.map((_, i) => i).filter((i) => !(intervals[i]!.left === 0 && intervals[i]!.right === null));
+  const notes: string[] = [];
+  if (followed.length < cases.length) notes.push(`${cases.length - followed.length} ${opts.endpoint === 'tooth' ? 'teeth' : 'cases'} with no review yet left out.`);
+  const rows = followed.map((i) => cases[i]!);
+  const obs = followed.map((i) => coxTime(intervals[i]!));
+  const design = designMatrix(rows, choices, { levelName: opts.levelName, minLevel: opts.minLevel });
+  const p: Prepared = { rows, design, notes };
+  const y = design.rows.map((i) => obs[i]!.event);
+  const events = y.filter(Boolean).length;
+  const fit = baseFit('cox', p, events, {});
+  if (design.columns.length === 0) return { ...fit, error: 'No factor is left in the model: choose at least one factor with two or more levels in this selection.' };
+  if (events === 0) return { ...fit, error: 'No failures among these cases: a Cox model needs events.' };
+  const sep = separated(design, y, 'cox');
+  if (sep) return { ...fit, error: sep };
+  try {
+    const r = coxPH(design.rows.map((i, k) => ({ ...obs[i]!, x: design.x[k]!, cluster: rows[i]!.patientId })));
+    const terms = termsOf(design.columns, r.coef, r.se, r.robustSe ?? null, r.hazardRatio, r.lower, r.upper, r.pValue);
+    const far = runaway(terms);
+    return far ? { ...fit, error: far } : { ...fit, terms };
+  } catch (e) {
+    return { ...fit, error: fitProblem(e, design.columns) };
+  }
+}
+
+/** Logistic model of strict success (healed) at the 12-month milestone, one row per judged case. */
+export function logisticModel(
+  selection: readonly OutcomeCase[],
+  choices: readonly CovariateChoice[],
+  opts: { minObs: number; levelName?: LevelName; minLevel?: number },
+): ModelFit {
+  const judged: OutcomeCase[] = [];
+  const outcomes: boolean[] = [];
+  let uncertain = 0;
+  for (const c of selection) {
+    const o = outcomeAtMilestone(c, 12, opts.minObs);
+    if (o === null) continue;
+    if (o === 'uncertain') {
+      uncertain += 1;
+      continue;
+    }
+    judged.push(c);
+    outcomes.push(isStrictSuccess(o));
+  }
+  const notes = uncertain > 0 ? [`${uncertain} cases scored uncertain at 12 months left out.`] : [];
+  const design = designMatrix(judged, choices, { levelName: opts.levelName, minLevel: opts.minLevel });
+  const y = design.rows.map((i) => outcomes[i]!);
+  const successes = y.filter(Boolean).length;
+  const failures = y.length - successes;
+  const fit = baseFit('logistic', { rows: judged, design, notes }, Math.min(successes, failures), { successes, failures });
+  if (design.columns.length === 0) return { ...fit, error: 'No factor is left in the model: choose at least one factor with two or more levels in this selection.' };
+  if (successes === 0 || failures === 0) return { ...fit, error: 'The model needs both outcomes among the cases: there are none of one of them in this selection.' };
+  const sep = separated(design, y, 'logistic');
+  if (sep) return { ...fit, error: sep };
+  try {
+    const r = logisticRegression(design.rows.map((i, k) => ({ y: outcomes[i]!, x: design.x[k]!, cluster: judged[i]!.patientId })));
+    // drop the intercept
+    const s = <T>(a: readonly T[]) => a.slice(1);
+    const terms = termsOf(design.columns, s(r.coef), s(r.se), r.robustSe ? s(r.robustSe) : null, s(r.oddsRatio), s(r.lower), s(r.upper), s(r.pValue));
+    const far = runaway(terms);
+    return far ? { ...fit, error: far } : { ...fit, terms };
+  } catch (e) {
+    return { ...fit, error: fitProblem(e, design.columns) };
+  }
+}
+
+/** The message for terms whose ratio runs towards 0 or infinity (see MAX_ABS_COEF), or null. */
+export function runaway(terms: readonly ModelTerm[]): string | null {
+  const bad = terms.filter((t) => !(Math.abs(t.coef) <= MAX_ABS_COEF));
+  if (bad.length === 0) return null;
+  return `The model cannot be estimated reliably: the ratio of ${bad.map((t) => `${t.label}: ${t.term}`).join('; ')} runs towards ${bad[0]!.coef > 0 ? 'infinity' : '0'} (quasi-separation: almost all its cases have one outcome). Leave that factor out or choose a wider selection.`;
+}
+
+function termsOf(
+  columns: readonly DesignColumn[],
+  coef: readonly number[],
+  se: readonly number[],
+  robustSe: readonly number[] | null,
+  ratio: readonly number[],
+  lower: readonly number[],
+  upper: readonly number[],
+  pValue: readonly number[],
+): ModelTerm[] {
+  return columns.map((c, k) => ({ ...c, coef: coef[k]!, se: se[k]!, robustSe: robustSe ? robustSe[k]! : null, ratio: ratio[k]!, lower: lower[k]!, upper: upper[k]!, pValue: pValue[k]! }));
+}
+
+export interface Multivariable {
+  endpoint: ModelEndpoint;
+  covariates: CovariateChoice[];
+  cox: ModelFit;
+  logistic: ModelFit;
+}
+
+/** Both models on one selection. */
+export function multivariable(
+  selection: readonly OutcomeCase[],
+  all: readonly OutcomeCase[],
+  covariates: readonly CovariateChoice[],
+  opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName },
+): Multivariable {
+  return {
+    endpoint: opts.endpoint,
+    covariates: [...covariates],
+    cox: coxModel(selection, all, covariates, opts),
+    logistic: logisticModel(selection, covariates, opts),
+  };
+}
