@@ -116,6 +116,8 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'outcomes.factor_read': 'Viewed outcomes by factor',
       'outcomes.curves_read': 'Viewed survival curves',
       'outcomes.exported': 'Downloaded outcome figures (CSV)',
+      'outcomes.funnel_read': 'Viewed the clinician audit (funnel plot)',
+      'outcomes.report_downloaded': 'Downloaded the outcomes audit report (PDF)',
     },
   },
   {

@@ -144,6 +144,8 @@ const SPECS: Record<string, RouteSpec> = {
   'outcomes/factor/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor'], baseQuery: { factor: 'kind' } },
   'outcomes/curves/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor', 'endpoint', 'method'], baseQuery: { endpoint: 'tooth' } },
   'outcomes/export/route.ts#GET': { query: ['view', 'from', 'to', 'clinician', 'kind', 'factor'], baseQuery: { view: 'overview' } },
+  'outcomes/funnel/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'measure', 'adjust', 'format'], baseQuery: { measure: 'm12', adjust: 'adjusted' } },
+  'outcomes/report/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor', 'measure', 'adjust'], baseQuery: { factor: 'kind', measure: 'latest' } },
   'dev-mailbox/route.ts#GET': { query: ['id', 'to', 'limit'] },
   'health/route.ts#GET': {},
   'patients/[id]/route.ts#GET': { params: () => ({ id: ids.patient! }) },

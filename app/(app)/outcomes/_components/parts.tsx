@@ -3,13 +3,14 @@ import type { ReactNode } from 'react';
 import { CASE_KINDS, CASE_KIND_LABELS } from '@/lib/registry/case-kinds';
 import type { OutcomeFilter, Rate } from '@/lib/outcomes';
 import { Caution } from '@/components/ui/Caution';
+import { ReportButton } from './ReportButton';
 
 export const FILTER_KEYS = ['from', 'to', 'clinician', 'kind'] as const;
 
 /** The filters of the URL (strings as typed; the service validates them). */
 export function filtersOf(params: Record<string, string | string[] | undefined>): Record<string, string> {
   const out: Record<string, string> = {};
-  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method']) {
+  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method', 'measure', 'adjust']) {
     const v = params[k];
     if (typeof v === 'string' && v !== '') out[k] = v;
   }
@@ -53,6 +54,7 @@ const VIEWS = [
   { href: '/outcomes', label: 'Overview' },
   { href: '/outcomes/factor', label: 'By factor' },
   { href: '/outcomes/curves', label: 'Survival curves' },
+  { href: '/outcomes/clinicians', label: 'Clinician audit' },
 ] as const;
 
 export function OutcomesHeader({
@@ -68,7 +70,7 @@ export function OutcomesHeader({
   clinicians: { id: string; name: string }[];
   own: boolean;
   problems: Record<string, string[]>;
-  csvView: 'overview' | 'factor' | 'curves';
+  csvView: 'overview' | 'factor' | 'curves' | 'funnel';
 }) {
   const keep = Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]]));
   const problem = (k: string) => problems[k]?.[0];
@@ -96,9 +98,12 @@ export function OutcomesHeader({
               : 'Healing and tooth survival of the practice’s treatments, for the period, clinician and kind chosen.'}
           </p>
         </div>
-        <a className="btn-secondary no-underline" href={`/api/outcomes/export${queryOf(filters, { view: csvView })}`} download>
-          Download this table (CSV)
-        </a>
+        <div className="flex flex-wrap gap-2">
+          <a className="btn-secondary no-underline" href={csvView === 'funnel' ? `/api/outcomes/funnel${queryOf(filters, { format: 'csv' })}` : `/api/outcomes/export${queryOf(filters, { view: csvView })}`} download>
+            Download this table (CSV)
+          </a>
+          <ReportButton filters={filters} />
+        </div>
       </div>
       <nav aria-label="Outcome views" className="flex flex-wrap gap-2">
         {VIEWS.map((v) => (
@@ -113,7 +118,7 @@ export function OutcomesHeader({
         ))}
       </nav>
       <form method="get" action={current} aria-label="Filter the outcomes" className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-5">
-        {(['factor', 'endpoint', 'method'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
+        {(['factor', 'endpoint', 'method', 'measure', 'adjust'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
         <div>
           <label htmlFor="outcomes-from" className="field-label">
             Completed from
