@@ -172,7 +172,8 @@ function FunnelSvg({ f, numbers }: { f: FunnelReport; numbers: Map<string, numbe
         <Line key={l.label} x1={L} y1={y(l.rate)} x2={W - R} y2={y(l.rate)} stroke="#a0522d" strokeWidth={0.8} strokeDasharray="8 3 2 3" />
       ))}
       {f.literature.map((l, i) => (
-        <Text key={`t${l.label}`} x={L + 4 + i * 200} y={y(l.rate) - 2} style={{ fontSize: 6.5 }} fill="#7a3f22">
+        // the first label under its line, the next above its own: close rates do not overlap
+        <Text key={`t${l.label}`} x={L + 4} y={i % 2 === 0 ? y(l.rate) + 7.5 : y(l.rate) - 2.5} style={{ fontSize: 6.5 }} fill="#7a3f22">
           {pdfText(l.label)}
         </Text>
       ))}

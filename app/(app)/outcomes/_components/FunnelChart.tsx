@@ -42,9 +42,10 @@ export function FunnelChart({ points, curve, centre, references, yLabel }: Funne
         <Line data={curve} dataKey="lower95" name="95% lower" legendType="none" type="monotone" dot={false} stroke="#5a51a8" strokeDasharray="6 3" strokeWidth={1.5} isAnimationActive={false} />
         <Line data={curve} dataKey="upper998" name="99.8% limits" type="monotone" dot={false} stroke="#1d2225" strokeDasharray="2 2" strokeWidth={1.5} isAnimationActive={false} />
         <Line data={curve} dataKey="lower998" name="99.8% lower" legendType="none" type="monotone" dot={false} stroke="#1d2225" strokeDasharray="2 2" strokeWidth={1.5} isAnimationActive={false} />
-        {centre !== null && <ReferenceLine y={centre} stroke="#1d2225" strokeWidth={1.5} label={{ value: `Practice ${(centre * 100).toFixed(1)}%`, position: 'insideTopRight', fontSize: 11 }} />}
-        {references.map((r) => (
-          <ReferenceLine key={r.label} y={r.rate} stroke="#a0522d" strokeDasharray="10 4 2 4" label={{ value: r.label, position: 'insideBottomLeft', fontSize: 10, fill: '#7a3f22' }} />
+        {centre !== null && <ReferenceLine y={centre} stroke="#1d2225" strokeWidth={1.5} label={{ value: `Practice ${(centre * 100).toFixed(1)}%`, position: 'insideBottomRight', fontSize: 11 }} />}
+        {references.map((r, i) => (
+          // the first label under its line, the next above its own, so close rates do not overlap
+          <ReferenceLine key={r.label} y={r.rate} stroke="#a0522d" strokeDasharray="10 4 2 4" label={{ value: r.label, position: i % 2 === 0 ? 'insideBottomLeft' : 'insideTopLeft', fontSize: 10, fill: '#7a3f22' }} />
         ))}
         <Scatter data={plain} dataKey="value" name="Clinicians" fill="#6b6b6b" isAnimationActive={false}>
           <LabelList dataKey="label" position="right" style={{ fontSize: 10, fill: '#3d4448' }} />
