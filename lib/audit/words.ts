@@ -117,6 +117,8 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'outcomes.curves_read': 'Viewed survival curves',
       'outcomes.model_read': 'Viewed the multivariable models of outcomes',
       'outcomes.exported': 'Downloaded outcome figures (CSV)',
+      'outcomes.funnel_read': 'Viewed the clinician audit (funnel plot)',
+      'outcomes.report_downloaded': 'Downloaded the outcomes audit report (PDF)',
     },
   },
   {

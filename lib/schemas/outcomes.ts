@@ -2,6 +2,7 @@ import { z } from 'zod';
 import { blankAsUndefined, calendarDate } from '@/lib/registry/fields';
 import { CASE_KINDS } from '@/lib/registry/case-kinds';
 import { FACTOR_KEYS, FACTORS, isLevelCode, type FactorKey, type LevelFilters } from '@/lib/outcomes/compute';
+import { FUNNEL_MEASURES } from '@/lib/outcomes/funnel';
 
 /** The prefix of a level filter in the URL: `f.<factor>=<code>[,<code>…]`, e.g. `?f.group=molar&f.pai=4,5`. */
 export const LEVEL_PREFIX = 'f.';
@@ -81,4 +82,17 @@ export const OutcomeCurvesQuery = z.intersection(
     method: CurveMethod,
     factor: blankAsUndefined(z.enum(FACTOR_KEYS as [string, ...string[]], { error: `The factor is one of ${FACTOR_KEYS.join(', ')}.` })),
   }),
+);
+
+/** The clinician audit (funnel plot): which strict-success measure, crude or risk-adjusted. */
+const FunnelChoice = z.object({
+  measure: z.enum(FUNNEL_MEASURES, { error: 'The measure is m12 (strict success at 12 months) or latest (at the latest review a year or more after completion).' }).default('m12'),
+  adjust: z.enum(['crude', 'adjusted'], { error: 'adjust is crude or adjusted.' }).default('adjusted'),
+});
+export const OutcomeFunnelQuery = z.intersection(OutcomeFilterQuery, FunnelChoice);
+
+/** The printable audit report: the filters, the factor of its table and the funnel's choices. */
+export const OutcomeReportQuery = z.intersection(
+  OutcomeFilterQuery,
+  FunnelChoice.extend({ factor: z.enum(FACTOR_KEYS as [string, ...string[]], { error: `The factor is one of ${FACTOR_KEYS.join(', ')}.` }).default('kind') }),
 );

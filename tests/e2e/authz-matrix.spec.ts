@@ -68,6 +68,8 @@ const MATRIX: Row[] = [
   { route: 'api/outcomes/curves', method: 'GET', url: () => '/api/outcomes/curves?endpoint=tooth', expect: only({ clinician: 200, auditor: 200 }) },
   { route: 'api/outcomes/export', method: 'GET', url: () => '/api/outcomes/export?view=overview', expect: only({ clinician: 200, auditor: 200 }) },
   { route: 'api/outcomes/model', method: 'GET', url: () => '/api/outcomes/model?covariates=kind,lesion', expect: only({ clinician: 200, auditor: 200 }) },
+  { route: 'api/outcomes/funnel', method: 'GET', url: () => '/api/outcomes/funnel?measure=latest', expect: only({ clinician: 200, auditor: 200 }) },
+  { route: 'api/outcomes/report', method: 'GET', url: () => '/api/outcomes/report?factor=kind', expect: only({ clinician: 200, auditor: 200 }) },
   { route: 'api/dev-mailbox', method: 'GET', url: () => '/api/dev-mailbox', expect: only({ admin: 200 }) },
   // Registry (issue 4): readers of patient data are the coordinator, the clinicians and the practice lead.
   { route: 'api/patients', method: 'GET', url: () => '/api/patients?page=1&pageSize=5', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
@@ -296,6 +298,7 @@ const PAGES: PageRow[] = [
   { page: 'outcomes/curves', url: () => '/outcomes/curves', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'outcomes/factor', url: () => '/outcomes/factor', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'outcomes/model', url: () => '/outcomes/model', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
+  { page: 'outcomes/clinicians', url: () => '/outcomes/clinicians', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'team', url: () => '/team', expect: signInFirst(only({ admin: 200 })) },
   { page: 'team/audit', url: () => '/team/audit', expect: signInFirst(only({ admin: 200 })) },
   { page: 'team/settings', url: () => '/team/settings', expect: signInFirst(only({ admin: 200 })) },

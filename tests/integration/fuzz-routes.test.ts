@@ -145,6 +145,8 @@ const SPECS: Record<string, RouteSpec> = {
   'outcomes/curves/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor', 'endpoint', 'method', 'f.density'], baseQuery: { endpoint: 'tooth' } },
   'outcomes/export/route.ts#GET': { query: ['view', 'from', 'to', 'clinician', 'kind', 'factor', 'f.complications'], baseQuery: { view: 'overview' } },
   'outcomes/model/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'covariates', 'lesionAs', 'paiAs', 'endpoint'], baseQuery: { covariates: 'kind,lesion,pai' } },
+  'outcomes/funnel/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'measure', 'adjust', 'format'], baseQuery: { measure: 'm12', adjust: 'adjusted' } },
+  'outcomes/report/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor', 'measure', 'adjust'], baseQuery: { factor: 'kind', measure: 'latest' } },
   'dev-mailbox/route.ts#GET': { query: ['id', 'to', 'limit'] },
   'health/route.ts#GET': {},
   'patients/[id]/route.ts#GET': { params: () => ({ id: ids.patient! }) },

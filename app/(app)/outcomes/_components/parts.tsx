@@ -4,6 +4,7 @@ import { CASE_KINDS, CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case
 import { FACTOR_KEYS, FACTORS, levelLabel, NO_REFERRER, type FactorKey, type OutcomeFilter, type Rate } from '@/lib/outcomes';
 import { Caution } from '@/components/ui/Caution';
 import { fmtDate } from '@/components/ui/format';
+import { ReportButton } from './ReportButton';
 
 export const FILTER_KEYS = ['from', 'to', 'clinician', 'kind'] as const;
 /** Level filters in the URL: `f.<factor>=<code>[,<code>…]` (lib/schemas/outcomes.ts validates them). */
@@ -13,7 +14,7 @@ const isLevelKey = (k: string) => k.startsWith(LEVEL_PREFIX);
 /** The filters of the URL (strings as typed; the service validates them), level filters included. */
 export function filtersOf(params: Record<string, string | string[] | undefined>): Record<string, string> {
   const out: Record<string, string> = {};
-  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method', ...Object.keys(params).filter(isLevelKey)]) {
+  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method', 'measure', 'adjust', ...Object.keys(params).filter(isLevelKey)]) {
     const v = params[k];
     if (typeof v === 'string' && v !== '') out[k] = v;
   }
@@ -150,6 +151,7 @@ const VIEWS = [
   { href: '/outcomes/factor', label: 'By factor' },
   { href: '/outcomes/curves', label: 'Survival curves' },
   { href: '/outcomes/model', label: 'Multivariable' },
+  { href: '/outcomes/clinicians', label: 'Clinician audit' },
 ] as const;
 
 export function OutcomesHeader({
@@ -166,7 +168,7 @@ export function OutcomesHeader({
   clinicians: { id: string; name: string }[];
   own: boolean;
   problems: Record<string, string[]>;
-  csvView: 'overview' | 'factor' | 'curves' | 'model';
+  csvView: 'overview' | 'factor' | 'curves' | 'model' | 'funnel';
   /** to name referrer level filters on the chips (the reports carry them) */
   referrers?: { id: string; name: string }[];
 }) {
@@ -198,9 +200,12 @@ export function OutcomesHeader({
               : 'Healing and tooth survival of the practice’s treatments, for the period, clinician and kind chosen.'}
           </p>
         </div>
-        <a className="btn-secondary no-underline" href={`/api/outcomes/export${queryOf(filters, { view: csvView })}`} download>
-          Download this table (CSV)
-        </a>
+        <div className="flex flex-wrap gap-2">
+          <a className="btn-secondary no-underline" href={csvView === 'funnel' ? `/api/outcomes/funnel${queryOf(filters, { format: 'csv' })}` : `/api/outcomes/export${queryOf(filters, { view: csvView })}`} download>
+            Download this table (CSV)
+          </a>
+          <ReportButton filters={filters} />
+        </div>
       </div>
       <nav aria-label="Outcome views" className="flex flex-wrap gap-2">
         {VIEWS.map((v) => (
@@ -215,7 +220,7 @@ export function OutcomesHeader({
         ))}
       </nav>
       <form method="get" action={current} aria-label="Filter the outcomes" className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-5">
-        {(['factor', 'endpoint', 'method', 'covariates', 'lesionAs', 'paiAs'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
+        {(['factor', 'endpoint', 'method', 'covariates', 'lesionAs', 'paiAs', 'measure', 'adjust'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
         {Object.entries(filters).map(([k, v]) => isLevelKey(k) && <input key={k} type="hidden" name={k} value={v} />)}
         <div>
           <label htmlFor="outcomes-from" className="field-label">

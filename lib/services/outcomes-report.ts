@@ -1,0 +1,71 @@
+import 'server-only';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import type { Actor } from '@/lib/auth/actor';
+import { applyFilter, byFactor, FACTORS, overview, type FactorKey } from '@/lib/outcomes';
+import { methodsParagraphs } from '@/lib/outcomes/methods';
+import { renderOutcomesReport, type ReportData } from '@/lib/pdf/outcomes-report';
+import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
+import { OutcomeReportQuery } from '@/lib/schemas/outcomes';
+import { audit } from './audit';
+import { filterDetail, scope } from './outcomes';
+import { funnelOfScope } from './outcomes-funnel';
+import { parseInput } from './parse';
+import { knexOf, practiceSettings } from './registry-common';
+
+/** A calendar date as the screens show it ("5 Mar 2024"; components/ui/format.ts). */
+const fmtDay = (d: string) => new Date(`${d}T12:00:00Z`).toLocaleDateString('en-GB', { day: 'numeric', month: 'short', year: 'numeric', timeZone: 'UTC' });
+
+/**
+ * The printable audit report (issue 12, item 8): the overview (and the practice overall for a
+ * clinician), the chosen factor's table, the clinician funnel and the methods, dated and naming its
+ * filters and the practice. The same figures as the screens, from the same engine calls on one read.
+ */
+export async function outcomesReportData(em: EntityManager, actor: Actor, raw: unknown, now = new Date()): Promise<ReportData> {
+  const q = parseInput(OutcomeReportQuery, raw ?? {});
+  const s = await scope(em, actor, q);
+  const factor = q.factor as FactorKey;
+  const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
+  const selection = applyFilter(s.all, s.filter);
+  const table = byFactor(selection, factor, s.minObs);
+  if (factor === 'clinician') for (const l of table.levels) l.level = names.get(l.level) ?? 'Former clinician';
+  const [practiceRow, settings] = await Promise.all([
+    knexOf(em)('practice').where({ id: actor.practiceId }).first('name') as Promise<{ name: string } | undefined>,
+    practiceSettings(em, actor.practiceId),
+  ]);
+  const generated = now.toLocaleString('en-GB', { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit', timeZone: settings.timeZone });
+  const f = s.filter;
+  return {
+    practiceName: practiceRow?.name ?? 'The practice',
+    generated,
+    preparedBy: actor.name ?? actor.email,
+    filters: [
+      { label: 'Completed', value: f.from && f.to ? `${fmtDay(f.from)} to ${fmtDay(f.to)}` : f.from ? `from ${fmtDay(f.from)}` : f.to ? `up to ${fmtDay(f.to)}` : 'any date' },
+      { label: 'Clinician', value: s.own ? `your own cases (${names.get(actor.userId) ?? actor.email})` : f.clinician ? (names.get(f.clinician) ?? 'Former clinician') : 'every clinician' },
+      { label: 'Kind of treatment', value: f.kind ? CASE_KIND_LABELS[f.kind as CaseKind] : 'every kind' },
+      { label: 'Factor', value: FACTORS[factor].label },
+      { label: 'Clinician audit', value: `${q.measure === 'm12' ? 'strict success at 12 months' : 'strict success at the latest review a year or more after completion'}, ${q.adjust === 'adjusted' ? 'risk-adjusted' : 'crude'}` },
+      { label: 'Figures as of', value: fmtDay(s.today) },
+    ],
+    own: s.own,
+    overview: overview(selection, s.all, s.today, s.minObs),
+    practice: s.own ? overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs) : null,
+    factorLabel: FACTORS[factor].label,
+    factorTable: table,
+    funnel: funnelOfScope(s, q.measure, q.adjust, actor.userId),
+    methods: methodsParagraphs(s.minObs),
+  };
+}
+
+/** The report as PDF bytes; the download is audited with its filters. */
+export async function outcomesReportPdf(em: EntityManager, actor: Actor, raw: unknown): Promise<{ pdf: Buffer; filename: string }> {
+  const d = await outcomesReportData(em, actor, raw);
+  const pdf = await renderOutcomesReport(d);
+  const q = parseInput(OutcomeReportQuery, raw ?? {});
+  await audit(em, actor, { action: 'outcomes.report_downloaded', detail: { ...filterDetail(d.funnel.filter), factor: q.factor, measure: q.measure, adjust: d.funnel.adjustShown, pages: pageCount(pdf) } });
+  return { pdf, filename: `lamina-outcomes-report-${new Date().toISOString().slice(0, 10)}.pdf` };
+}
+
+/** The number of pages of a PDF written by react-pdf (its page objects). */
+export function pageCount(pdf: Buffer): number {
+  return (pdf.toString('latin1').match(/\/Type\s*\/Page\b/g) ?? []).length;
+}
