@@ -116,6 +116,10 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'outcomes.factor_read': 'Viewed outcomes by factor',
       'outcomes.curves_read': 'Viewed survival curves',
       'outcomes.exported': 'Downloaded outcome figures (CSV)',
+      'outcomes.worklist_read': 'Viewed the non-healing worklist',
+      'outcomes.worklist_exported': 'Downloaded the non-healing worklist (CSV)',
+      'outcomes.decision_recorded': 'Recorded the next step for a case',
+      'outcomes.decisions_read': 'Read the next steps recorded for a case',
     },
   },
   {
