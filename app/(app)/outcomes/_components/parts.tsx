@@ -53,6 +53,7 @@ const VIEWS = [
   { href: '/outcomes', label: 'Overview' },
   { href: '/outcomes/factor', label: 'By factor' },
   { href: '/outcomes/curves', label: 'Survival curves' },
+  { href: '/outcomes/worklist', label: 'Non-healing worklist' },
 ] as const;
 
 export function OutcomesHeader({
@@ -62,6 +63,7 @@ export function OutcomesHeader({
   own,
   problems,
   csvView,
+  csvHref,
 }: {
   current: (typeof VIEWS)[number]['href'];
   filters: Record<string, string>;
@@ -69,6 +71,8 @@ export function OutcomesHeader({
   own: boolean;
   problems: Record<string, string[]>;
   csvView: 'overview' | 'factor' | 'curves';
+  /** A view whose CSV has a route of its own (the worklist). */
+  csvHref?: string;
 }) {
   const keep = Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]]));
   const problem = (k: string) => problems[k]?.[0];
@@ -96,7 +100,7 @@ export function OutcomesHeader({
               : 'Healing and tooth survival of the practice’s treatments, for the period, clinician and kind chosen.'}
           </p>
         </div>
-        <a className="btn-secondary no-underline" href={`/api/outcomes/export${queryOf(filters, { view: csvView })}`} download>
+        <a className="btn-secondary no-underline" href={csvHref ?? `/api/outcomes/export${queryOf(filters, { view: csvView })}`} download>
           Download this table (CSV)
         </a>
       </div>
