@@ -1,5 +1,6 @@
 /** Every entity, listed explicitly (no glob): the ORM config and migrations read this list. */
 import { AuditEventSchema } from './AuditEvent';
+import { CaseDecisionSchema } from './CaseDecision';
 import { ContactLogEntrySchema } from './ContactLogEntry';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
@@ -29,9 +30,11 @@ export const entities = [
   ReminderSchema,
   ContactLogEntrySchema,
   ReplyNonceSchema,
+  CaseDecisionSchema,
 ];
 
 export * from './AuditEvent';
+export * from './CaseDecision';
 export * from './ContactLogEntry';
 export * from './Invitation';
 export * from './Membership';

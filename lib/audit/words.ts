@@ -119,6 +119,10 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'outcomes.exported': 'Downloaded outcome figures (CSV)',
       'outcomes.funnel_read': 'Viewed the clinician audit (funnel plot)',
       'outcomes.report_downloaded': 'Downloaded the outcomes audit report (PDF)',
+      'outcomes.worklist_read': 'Viewed the non-healing worklist',
+      'outcomes.worklist_exported': 'Downloaded the non-healing worklist (CSV)',
+      'outcomes.decision_recorded': 'Recorded the next step for a case',
+      'outcomes.decisions_read': 'Read the next steps recorded for a case',
     },
   },
   {

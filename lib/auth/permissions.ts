@@ -31,6 +31,12 @@ export const PERMISSIONS = {
   'review.write': ['clinician'],
   /** Read outcome and survival statistics. */
   'outcomes.read': ['auditor', 'clinician'],
+  /**
+   * Record the next step for a case on the non-healing worklist (watch, retreat, surgery, extract,
+   * refer): a clinical decision, so the clinicians' alone, like the case and review records; the
+   * lead (auditor) reads the worklist. The service also limits it to the clinician who treated the case.
+   */
+  'outcomes.decide': ['clinician'],
   /** Export anonymised cohorts for research. */
   'cohort.export': ['researcher'],
 } as const satisfies Record<string, readonly Role[]>;

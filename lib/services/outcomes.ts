@@ -64,7 +64,7 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
       'c.referrer_id',
       knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status = 'closed') as lost`),
       knex.raw(
-        `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id), '[]'::json) as reviews`,
+        `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews`,
       ),
     )
     .from('treatment_case as c')

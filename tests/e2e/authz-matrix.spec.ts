@@ -70,6 +70,11 @@ const MATRIX: Row[] = [
   { route: 'api/outcomes/model', method: 'GET', url: () => '/api/outcomes/model?covariates=kind,lesion', expect: only({ clinician: 200, auditor: 200 }) },
   { route: 'api/outcomes/funnel', method: 'GET', url: () => '/api/outcomes/funnel?measure=latest', expect: only({ clinician: 200, auditor: 200 }) },
   { route: 'api/outcomes/report', method: 'GET', url: () => '/api/outcomes/report?factor=kind', expect: only({ clinician: 200, auditor: 200 }) },
+  // The non-healing worklist: both read it; only a clinician records a next step (outcomes.decide).
+  { route: 'api/outcomes/worklist', method: 'GET', url: () => '/api/outcomes/worklist', expect: only({ clinician: 200, auditor: 200 }) },
+  { route: 'api/outcomes/worklist/export', method: 'GET', url: () => '/api/outcomes/worklist/export', expect: only({ clinician: 200, auditor: 200 }) },
+  { route: 'api/outcomes/worklist/[id]/decisions', method: 'GET', url: () => `/api/outcomes/worklist/${randomUUID()}/decisions`, expect: only({ clinician: 404, auditor: 404 }) },
+  { route: 'api/outcomes/worklist/[id]/decisions', method: 'POST', url: () => `/api/outcomes/worklist/${randomUUID()}/decisions`, body: { step: 'watch' }, expect: only({ clinician: 404 }) },
   { route: 'api/dev-mailbox', method: 'GET', url: () => '/api/dev-mailbox', expect: only({ admin: 200 }) },
   // Registry (issue 4): readers of patient data are the coordinator, the clinicians and the practice lead.
   { route: 'api/patients', method: 'GET', url: () => '/api/patients?page=1&pageSize=5', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
@@ -133,7 +138,8 @@ const CROSS: Row[] = [
   { route: 'api/cases/[id]/reviews/[reviewId]/correction', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/reviews/${randomUUID()}/correction`, body: { reason: 'Typo in the PAI.' }, expect: only({ clinician: 404 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: (_, o) => `/api/visits/${o.visitId}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
   { route: 'api/recall/visits/[id]/contact-log', method: 'GET', url: (_, o) => `/api/recall/visits/${o.visitId}/contact-log`, expect: only({ coordinator: 404 }) },
-  { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },
+  { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },  { route: 'api/outcomes/worklist/[id]/decisions', method: 'GET', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, expect: only({ clinician: 404, auditor: 404 }) },
+  { route: 'api/outcomes/worklist/[id]/decisions', method: 'POST', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, body: { step: 'watch' }, expect: only({ clinician: 404 }) },
 ];
 
 /** Routes whose id is a signed token (the credential itself), not a record of a practice. */
@@ -299,6 +305,7 @@ const PAGES: PageRow[] = [
   { page: 'outcomes/factor', url: () => '/outcomes/factor', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'outcomes/model', url: () => '/outcomes/model', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'outcomes/clinicians', url: () => '/outcomes/clinicians', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
+  { page: 'outcomes/worklist', url: () => '/outcomes/worklist', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'team', url: () => '/team', expect: signInFirst(only({ admin: 200 })) },
   { page: 'team/audit', url: () => '/team/audit', expect: signInFirst(only({ admin: 200 })) },
   { page: 'team/settings', url: () => '/team/settings', expect: signInFirst(only({ admin: 200 })) },

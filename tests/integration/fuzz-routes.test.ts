@@ -10,6 +10,7 @@ import { deriveLinkSecret, issueReplyToken } from '@/lib/recall/reply-token';
 import { templateCsv } from '@/lib/registry/csv';
 import { createCase } from '@/lib/services/cases';
 import { createPatient } from '@/lib/services/patients';
+import { createReview } from '@/lib/services/reviews';
 import { answerReply } from '@/lib/services/recall-replies';
 import { acceptInvitation, inviteMember } from '@/lib/services/team';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
@@ -147,6 +148,13 @@ const SPECS: Record<string, RouteSpec> = {
   'outcomes/model/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'covariates', 'lesionAs', 'paiAs', 'endpoint'], baseQuery: { covariates: 'kind,lesion,pai' } },
   'outcomes/funnel/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'measure', 'adjust', 'format'], baseQuery: { measure: 'm12', adjust: 'adjusted' } },
   'outcomes/report/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor', 'measure', 'adjust'], baseQuery: { factor: 'kind', measure: 'latest' } },
+  'outcomes/worklist/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind'] },
+  'outcomes/worklist/export/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind'] },
+  'outcomes/worklist/[id]/decisions/route.ts#GET': { params: () => ({ id: ids.worklistCase! }) },
+  'outcomes/worklist/[id]/decisions/route.ts#POST': {
+    params: () => ({ id: ids.worklistCase! }),
+    body: () => ({ step: 'retreat', date: today, note: 'Discussed with the patient.', apicalDiagnosis: 'asymptomatic_apical_periodontitis' }),
+  },
   'dev-mailbox/route.ts#GET': { query: ['id', 'to', 'limit'] },
   'health/route.ts#GET': {},
   'patients/[id]/route.ts#GET': { params: () => ({ id: ids.patient! }) },
@@ -326,6 +334,11 @@ beforeAll(async () => {
   const replyCase = await createCase(services.em(), p.clinician, caseInput(patient.id, p.clinician.userId, { tooth: 37, startDate: '2024-02-01', completionDate: '2024-02-15' }));
   const replyVisit = (await services.em().getKnex()('recall_visit').where({ case_id: replyCase.id }).orderBy('milestone').first('id')) as { id: string };
   ids.replyVisit = replyVisit.id;
+  // A case on the non-healing worklist (disease at its latest review), so a next step can be recorded.
+  const patient3 = await createPatient(services.em(), p.coordinator, patientInput({ registryNumber: 'T-0003' }));
+  const worklistCase = await createCase(services.em(), p.clinician, caseInput(patient3.id, p.clinician.userId, { tooth: 47, startDate: '2023-01-10', completionDate: '2023-01-24' }));
+  await createReview(services.em(), p.clinician, worklistCase.id, { reviewDate: '2024-02-01', toothStatus: 'present', paiScore: 5, lesionDiameterMm: 5 });
+  ids.worklistCase = worklistCase.id;
   // A real invitation, so the invitation form's fuzz reaches the database with a usable token.
   const invitee = `invitee.${Date.now()}@fuzz.test`;
   await inviteMember(services.em(), p.admin, { name: 'Invitee', email: invitee, roles: ['clinician'] });

@@ -11,7 +11,7 @@ import { navFor } from '@/components/shell/nav';
 const EXPECTED: Record<Role, string[]> = {
   admin: ['team.read', 'team.manage', 'audit.read', 'mailbox.read'],
   coordinator: ['patient.read', 'patient.write', 'case.import', 'recall.manage'],
-  clinician: ['patient.read', 'patient.write', 'case.write', 'case.import', 'review.write', 'outcomes.read'],
+  clinician: ['patient.read', 'patient.write', 'case.write', 'case.import', 'review.write', 'outcomes.read', 'outcomes.decide'],
   auditor: ['patient.read', 'outcomes.read'],
   researcher: ['cohort.export'],
 };

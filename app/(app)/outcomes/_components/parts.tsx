@@ -152,6 +152,7 @@ const VIEWS = [
   { href: '/outcomes/curves', label: 'Survival curves' },
   { href: '/outcomes/model', label: 'Multivariable' },
   { href: '/outcomes/clinicians', label: 'Clinician audit' },
+  { href: '/outcomes/worklist', label: 'Non-healing worklist' },
 ] as const;
 
 export function OutcomesHeader({
@@ -162,15 +163,18 @@ export function OutcomesHeader({
   problems,
   csvView,
   referrers,
+  csvHref,
 }: {
   current: (typeof VIEWS)[number]['href'];
   filters: Record<string, string>;
   clinicians: { id: string; name: string }[];
   own: boolean;
   problems: Record<string, string[]>;
-  csvView: 'overview' | 'factor' | 'curves' | 'model' | 'funnel';
+  csvView: 'overview' | 'factor' | 'curves' | 'model' | 'funnel' | 'worklist';
   /** to name referrer level filters on the chips (the reports carry them) */
   referrers?: { id: string; name: string }[];
+  /** A view whose CSV has a route of its own (the worklist). */
+  csvHref?: string;
 }) {
   const keep = sharedFilters(filters);
   const chips = filterChips(current, filters, { clinicians, referrers, own });
@@ -201,7 +205,7 @@ export function OutcomesHeader({
           </p>
         </div>
         <div className="flex flex-wrap gap-2">
-          <a className="btn-secondary no-underline" href={csvView === 'funnel' ? `/api/outcomes/funnel${queryOf(filters, { format: 'csv' })}` : `/api/outcomes/export${queryOf(filters, { view: csvView })}`} download>
+          <a className="btn-secondary no-underline" href={csvHref ?? (csvView === 'funnel' ? `/api/outcomes/funnel${queryOf(filters, { format: 'csv' })}` : `/api/outcomes/export${queryOf(filters, { view: csvView })}`)} download>
             Download this table (CSV)
           </a>
           <ReportButton filters={filters} />

@@ -1,0 +1,174 @@
+import type { Metadata } from 'next';
+import Link from 'next/link';
+import { requireActor } from '@/lib/auth/session';
+import { URGENCY_LABELS, WORKLIST_CAUTION, type Urgency } from '@/lib/outcomes/worklist';
+import { outcomesWorklist, type WorklistReport, type WorklistRow } from '@/lib/services/outcomes-worklist';
+import { ValidationError } from '@/lib/services/errors';
+import { Caution } from '@/components/ui/Caution';
+import { EmptyState } from '@/components/ui/EmptyState';
+import { Notice } from '@/components/ui/Notice';
+import { OutcomeBadge, StateBadge } from '@/components/ui/StateBadge';
+import { fmtDate } from '@/components/ui/format';
+import { FILTER_KEYS, filtersOf, Method, OutcomesHeader, queryOf } from '../_components/parts';
+import { DecisionForm } from './DecisionFormLazy';
+
+export const metadata: Metadata = { title: 'Non-healing worklist' };
+
+const URGENCY_LOOK: Record<Urgency, { tone: 'alert' | 'watch' | 'info'; icon: string }> = {
+  decide: { tone: 'alert', icon: '!' },
+  overdue: { tone: 'watch', icon: '⏰' },
+  in_hand: { tone: 'info', icon: '✓' },
+};
+
+export default async function OutcomesWorklistPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
+  const { em, actor } = await requireActor('outcomes.read', '/outcomes/worklist');
+  const filters = filtersOf(await searchParams);
+  for (const k of ['factor', 'endpoint', 'method']) delete filters[k];
+  let data: WorklistReport | null = null;
+  let problems: Record<string, string[]> = {};
+  try {
+    data = await outcomesWorklist(em, actor, filters);
+  } catch (e) {
+    if (!(e instanceof ValidationError)) throw e;
+    problems = e.fieldErrors ?? {};
+  }
+  const keep = Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]]));
+  const count = (u: Urgency) => data?.rows.filter((r) => r.urgency === u).length ?? 0;
+  return (
+    <div className="space-y-8">
+      <OutcomesHeader
+        current="/outcomes/worklist"
+        filters={filters}
+        clinicians={data?.clinicians ?? []}
+        own={data?.own ?? !actor.roles.includes('auditor')}
+        problems={problems}
+        csvView="overview"
+        csvHref={`/api/outcomes/worklist/export${queryOf(keep)}`}
+      />
+      {!data && <Notice tone="alert">Some filters need attention; nothing is shown until they are corrected.</Notice>}
+      {data && (
+        <section aria-labelledby="worklist-title" className="space-y-3">
+          <h2 id="worklist-title" className="text-2xl">
+            Non-healing worklist
+          </h2>
+          <p className="max-w-3xl text-ink-700">
+            {data.own ? 'The teeth you treated' : 'The practice’s treated teeth'} whose latest review found disease, or found the lesion still healing or
+            too early to judge and has not been seen since, more than four years after treatment.{' '}
+            {data.own ? 'Record the next step for each.' : 'The clinician who treated the tooth records the next step.'}
+          </p>
+          <Caution text={WORKLIST_CAUTION} />
+          {data.rows.length > 0 && (
+            <p data-testid="worklist-counts" className="text-sm">
+              {data.rows.length} {data.rows.length === 1 ? 'case' : 'cases'}: {count('decide')} to decide, {count('overdue')} overdue, {count('in_hand')} in hand.
+            </p>
+          )}
+          {data.rows.length === 0 ? (
+            <EmptyState title="No case needs a decision">
+              No completed case in this filter has disease at its latest review, and none is still healing or uncertain more than four years after
+              treatment. Cases appear here as reviews are recorded.
+            </EmptyState>
+          ) : (
+            <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
+              <table className="table-dense table-stack w-full" aria-label="Non-healing worklist">
+                <thead>
+                  <tr>
+                    <th scope="col">Urgency</th>
+                    <th scope="col">Tooth</th>
+                    {data.rows[0]!.patient && <th scope="col">Patient</th>}
+                    <th scope="col">Clinician</th>
+                    <th scope="col">Latest review</th>
+                    <th scope="col">Since completion</th>
+                    <th scope="col">Next step</th>
+                  </tr>
+                </thead>
+                <tbody>
+                  {data.rows.map((r) => (
+                    <Row key={r.caseId} r={r} />
+                  ))}
+                </tbody>
+              </table>
+            </div>
+          )}
+          <Method>
+            listed when the current outcome (Lamina’s scoring rules on the latest review, the practice’s minimum observation time; a retreatment,
+            surgery or extraction found at a review ends the case) is disease, or is healing or uncertain more than 1461 days (four years) after
+            completion — the European Society of Endodontology’s quality guidelines (2006) follow a lesion that is unchanged or smaller for up to
+            four years. A tooth whose later case is completed is left out. Order: to decide (symptomatic disease, disease, past four years; oldest
+            review first), overdue (a re-review or extraction whose date has passed), in hand (by date). A step recorded before the latest review
+            needs deciding again.
+          </Method>
+        </section>
+      )}
+    </div>
+  );
+}
+
+function Row({ r }: { r: WorklistRow }) {
+  const d = r.decision;
+  return (
+    <tr data-testid="worklist-row" data-case={r.caseId} data-urgency={r.urgency}>
+      <td data-label="Urgency">
+        <StateBadge {...URGENCY_LOOK[r.urgency]} label={URGENCY_LABELS[r.urgency]} />
+      </td>
+      <td data-label="Tooth">
+        <Link href={`/cases/${r.caseId}`} className="font-semibold">
+          Tooth {r.tooth}
+        </Link>
+        <div className="text-xs text-ink-500">{r.kindLabel}</div>
+      </td>
+      {r.patient && (
+        <td data-label="Patient">
+          <Link href={`/patients/${r.patient.id}`}>{r.patient.name}</Link>
+          <div className="text-xs text-ink-500">{r.patient.registryNumber}</div>
+        </td>
+      )}
+      <td data-label="Clinician">{r.clinician.name}</td>
+      <td data-label="Latest review">
+        <div className="flex flex-wrap items-center gap-2">
+          <OutcomeBadge outcome={r.outcome} />
+          <span>{fmtDate(r.latestReviewDate)}</span>
+        </div>
+        <div className="text-xs text-ink-500">
+          {r.reasonLabel}
+          {r.symptomatic ? '; signs or symptoms recorded' : ''}
+          {r.lost ? '; closed as lost to follow-up' : ''}
+        </div>
+      </td>
+      <td data-label="Since completion">
+        {r.yearsSinceCompletion.toFixed(1)} years
+        <div className="text-xs text-ink-500">completed {fmtDate(r.completionDate)}</div>
+      </td>
+      <td data-label="Next step" className="min-w-64">
+        {d ? (
+          <div data-testid="worklist-decision">
+            <strong>{d.stepLabel}</strong> — {d.step === 'watch' ? 're-review' : d.step === 'refer' ? 'referred' : 'planned'} {fmtDate(d.date)}
+            {d.note && <div className="text-sm">“{d.note}”</div>}
+            <div className="text-xs text-ink-500">
+              Recorded by {d.decidedBy} on {fmtDate(d.decidedOn)}
+              {r.decisions > 1 ? ` (${r.decisions - 1} earlier ${r.decisions === 2 ? 'step' : 'steps'} kept)` : ''}
+            </div>
+            {!d.stands && <div className="text-xs font-semibold text-state-alert">Recorded before the latest review: decide again.</div>}
+          </div>
+        ) : (
+          <span className="text-ink-500">None recorded</span>
+        )}
+        {r.laterCase && (
+          <div className="mt-1 text-sm" data-testid="worklist-later-case">
+            <Link href={`/cases/${r.laterCase.id}`}>
+              {r.laterCase.kindLabel}, started {fmtDate(r.laterCase.startDate)}
+            </Link>{' '}
+            <span className="text-xs text-ink-500">{r.laterCase.completionDate ? `completed ${fmtDate(r.laterCase.completionDate)}` : 'in progress'}</span>
+          </div>
+        )}
+        {r.canDecide && (
+          <details className="mt-2">
+            <summary className="cursor-pointer text-sm font-semibold text-dura-700">{d ? 'Change the next step' : 'Record the next step'}</summary>
+            <div className="mt-2">
+              <DecisionForm caseId={r.caseId} tooth={r.tooth} current={d && d.stands ? { step: d.step, date: d.date, note: d.note } : null} />
+            </div>
+          </details>
+        )}
+      </td>
+    </tr>
+  );
+}

@@ -1,0 +1,494 @@
+import 'server-only';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { CaseDecisionSchema, RecallVisitSchema, TreatmentCaseSchema, type CaseDecision } from '@/entities';
+import { assertCan, type Actor } from '@/lib/auth/actor';
+import { can } from '@/lib/auth/permissions';
+import { writeCsv } from '@/lib/csv/write';
+import { applyFilter, type OutcomeCase, type OutcomeFilter } from '@/lib/outcomes';
+import {
+  CASE_KIND_OF_STEP,
+  decisionStands,
+  NEXT_STEP_LABELS,
+  orderWorklist,
+  planReReviewVisit,
+  URGENCY_LABELS,
+  WORKLIST_REASON_LABELS,
+  worklistEntries,
+  worklistEntry,
+  yearsOf,
+  type CurrentDecision,
+  type NextStep,
+  type Urgency,
+  type WorklistEntry,
+  type WorklistReason,
+} from '@/lib/outcomes/worklist';
+import { addDaysTo, type CalendarDate } from '@/lib/registry/calendar-date';
+import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
+import { OUTCOME_LABELS, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
+import { OutcomeFilterQuery } from '@/lib/schemas/outcomes';
+import { DecisionInput } from '@/lib/schemas/outcomes-worklist';
+import { defaultWindow } from '@/lib/schemas/recall-policy';
+import { formatTooth } from '@/lib/teeth';
+import { audit } from './audit';
+import { createCase } from './cases-commands';
+import { ConflictError, ForbiddenError, ValidationError } from './errors';
+import { filterDetail, scope, seesWholePractice } from './outcomes';
+import { parseInput } from './parse';
+import { displayName, findCase, knexOf, practiceSettings, todayIn } from './registry-common';
+import { loadVisits } from './visits';
+
+/**
+ * The non-healing worklist (issue 12, item 7). The rule and the order are lib/outcomes/worklist.ts;
+ * this file reads the rows (the outcomes area's one lean read, `scope`), adds what the list shows
+ * for the cases on it (one more query: tooth, patient, clinician, current step, later case), and
+ * records next steps.
+ *
+ * Who: the lead (auditor) sees the practice's worklist, filterable by clinician; a clinician sees
+ * their own cases. Recording a step is `outcomes.decide` (clinicians only: a clinical decision, as
+ * the case and review records are clinicians' — the lead audits, does not treat), and only on a case
+ * the clinician treated: the decision is the treating clinician's. A clinician taking over a tooth
+ * makes themselves its clinician on the case form first (any clinician may edit a case).
+ */
+
+export interface WorklistDecisionView {
+  id: string;
+  step: NextStep;
+  stepLabel: string;
+  date: CalendarDate;
+  note: string | null;
+  decidedBy: string;
+  decidedAt: string;
+  decidedOn: CalendarDate;
+  /** Recorded on or after the day of the latest review (else it needs looking at again). */
+  stands: boolean;
+  linkedCaseId: string | null;
+  visitId: string | null;
+}
+
+export interface WorklistRow {
+  caseId: string;
+  tooth: string;
+  kind: CaseKind;
+  kindLabel: string;
+  /** Null for a reader without `patient.read`. */
+  patient: { id: string; name: string; registryNumber: string } | null;
+  clinician: { id: string; name: string };
+  completionDate: CalendarDate;
+  yearsSinceCompletion: number;
+  reason: WorklistReason;
+  reasonLabel: string;
+  outcome: ReviewOutcome;
+  outcomeLabel: string;
+  latestReviewDate: CalendarDate;
+  symptomatic: boolean;
+  lost: boolean;
+  urgency: Urgency;
+  urgencyLabel: string;
+  decision: WorklistDecisionView | null;
+  /** How many steps were recorded for the case (the history). */
+  decisions: number;
+  /** The tooth's later case (retreatment, surgery), e.g. the one a decision created. */
+  laterCase: { id: string; kind: CaseKind; kindLabel: string; startDate: CalendarDate; completionDate: CalendarDate | null } | null;
+  /** The actor may record the next step here (a clinician, on their own case). */
+  canDecide: boolean;
+}
+
+export interface WorklistReport {
+  filter: OutcomeFilter;
+  own: boolean;
+  clinicians: { id: string; name: string }[];
+  today: CalendarDate;
+  rows: WorklistRow[];
+}
+
+interface DetailRow {
+  id: string;
+  tooth: number;
+  kind: CaseKind;
+  patient_id: string;
+  given_name: string;
+  family_name: string;
+  registry_number: string;
+  operator_name: string;
+  later_case: { id: string; kind: CaseKind; startDate: string; completionDate: string | null } | null;
+  decision: { id: string; step: NextStep; date: string; note: string | null; createdAt: string; linkedCaseId: string | null; visitId: string | null; by: string } | null;
+  decisions: number;
+}
+
+/** What the list shows of the cases on it, in one query (the current step is the row no later row replaces). */
+async function readDetails(em: EntityManager, practiceId: string, ids: readonly string[]): Promise<Map<string, DetailRow>> {
+  if (ids.length === 0) return new Map();
+  const knex = knexOf(em);
+  const rows = (
+    await knex.raw(
+      `select c.id, c.tooth, c.kind, c.patient_id, p.given_name, p.family_name, p.registry_number, coalesce(u.name, u.email) as operator_name,
+         (select json_build_object('id', f.id, 'kind', f.kind, 'startDate', f.start_date::text, 'completionDate', f.completion_date::text)
+            from treatment_case f where f.previous_case_id = c.id and f.practice_id = c.practice_id and f.archived_at is null
+            order by f.start_date desc limit 1) as later_case,
+         (select json_build_object('id', d.id, 'step', d.step, 'date', d.date::text, 'note', d.note, 'createdAt', d.created_at,
+                 'linkedCaseId', d.linked_case_id, 'visitId', d.visit_id, 'by', coalesce(du.name, du.email))
+            from case_decision d join app_user du on du.id = d.decided_by_id
+            where d.case_id = c.id and not exists (select 1 from case_decision n where n.replaces_id = d.id)
+            order by d.created_at desc limit 1) as decision,
+         (select count(*) from case_decision d where d.case_id = c.id)::int as decisions
+       from treatment_case c
+       join patient p on p.id = c.patient_id
+       join app_user u on u.id = c.operator_id
+       where c.practice_id = ? and c.id = any(?::uuid[])`,
+      [practiceId, [...ids]],
+    )
+  ).rows as DetailRow[];
+  return new Map(rows.map((r) => [r.id, r]));
+}
+
+function decisionView(d: NonNullable<DetailRow['decision']>, latestReviewDate: CalendarDate, timeZone: string): WorklistDecisionView {
+  const decidedAt = new Date(d.createdAt);
+  const decidedOn = todayIn(timeZone, decidedAt);
+  return {
+    id: d.id,
+    step: d.step,
+    stepLabel: NEXT_STEP_LABELS[d.step],
+    date: d.date,
+    note: d.note,
+    decidedBy: d.by,
+    decidedAt: decidedAt.toISOString(),
+    decidedOn,
+    stands: decisionStands({ step: d.step, date: d.date, decidedOn }, latestReviewDate),
+    linkedCaseId: d.linkedCaseId,
+    visitId: d.visitId,
+  };
+}
+
+async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
+  const q = parseInput(OutcomeFilterQuery, raw ?? {});
+  const s = await scope(em, actor, q);
+  const entries = worklistEntries(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
+  const settings = await practiceSettings(em, actor.practiceId);
+  const details = await readDetails(em, actor.practiceId, entries.map((e) => e.caseId));
+  const decisionOf = new Map<string, WorklistDecisionView | null>();
+  for (const e of entries) {
+    const d = details.get(e.caseId)?.decision;
+    decisionOf.set(e.caseId, d ? decisionView(d, e.latestReviewDate, settings.timeZone) : null);
+  }
+  const current = (id: string): CurrentDecision | null => decisionOf.get(id) ?? null;
+  const seesPatients = can(actor.roles, 'patient.read');
+  const decides = can(actor.roles, 'outcomes.decide');
+  const completion = new Map(s.all.map((c) => [c.id, c.completionDate]));
+  const rows = orderWorklist(entries, current, s.today).map((e): WorklistRow => {
+    const d = details.get(e.caseId)!;
+    return {
+      caseId: e.caseId,
+      tooth: formatTooth(d.tooth, 'fdi'),
+      kind: d.kind,
+      kindLabel: CASE_KIND_LABELS[d.kind],
+      patient: seesPatients ? { id: d.patient_id, name: displayName({ givenName: d.given_name, familyName: d.family_name }), registryNumber: d.registry_number } : null,
+      clinician: { id: e.operatorId, name: d.operator_name },
+      completionDate: completion.get(e.caseId)!,
+      yearsSinceCompletion: yearsOf(e.daysSinceCompletion),
+      reason: e.reason,
+      reasonLabel: WORKLIST_REASON_LABELS[e.reason],
+      outcome: e.outcome,
+      outcomeLabel: OUTCOME_LABELS[e.outcome],
+      latestReviewDate: e.latestReviewDate,
+      symptomatic: e.symptomatic,
+      lost: e.lost,
+      urgency: e.urgency,
+      urgencyLabel: URGENCY_LABELS[e.urgency],
+      decision: decisionOf.get(e.caseId) ?? null,
+      decisions: d.decisions,
+      laterCase: d.later_case ? { ...d.later_case, kindLabel: CASE_KIND_LABELS[d.later_case.kind] } : null,
+      canDecide: decides && e.operatorId === actor.userId,
+    };
+  });
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, today: s.today, rows };
+}
+
+/** The worklist for the actor's filter (a clinician: their own cases), in urgency order. Audited. */
+export async function outcomesWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
+  const report = await buildWorklist(em, actor, raw);
+  await audit(em, actor, { action: 'outcomes.worklist_read', detail: { ...filterDetail(report.filter), cases: report.rows.length } });
+  return report;
+}
+
+export const WORKLIST_CSV_HEADER = [
+  'Urgency',
+  'Case',
+  'Tooth (FDI)',
+  'Kind',
+  'Patient',
+  'Registry number',
+  'Clinician',
+  'Completed',
+  'Years since completion',
+  'Why listed',
+  'Latest review',
+  'Outcome at the latest review',
+  'Signs at the latest review',
+  'Next step',
+  'Step date',
+  'Note',
+  'Recorded by',
+  'Recorded on',
+  'Later case',
+] as const;
+
+/** The worklist as CSV through the one CSV writer (lib/csv/write.ts); the download is audited. */
+export async function worklistCsv(em: EntityManager, actor: Actor, raw: unknown): Promise<string> {
+  const r = await buildWorklist(em, actor, raw);
+  const rows = r.rows.map((w) => [
+    w.urgencyLabel,
+    w.caseId,
+    w.tooth,
+    w.kindLabel,
+    w.patient?.name ?? '',
+    w.patient?.registryNumber ?? '',
+    w.clinician.name,
+    w.completionDate,
+    w.yearsSinceCompletion,
+    w.reasonLabel,
+    w.latestReviewDate,
+    w.outcomeLabel,
+    w.symptomatic ? 'yes' : 'no',
+    w.decision ? `${w.decision.stepLabel}${w.decision.stands ? '' : ' (recorded before the latest review)'}` : '',
+    w.decision?.date ?? '',
+    w.decision?.note ?? '',
+    w.decision?.decidedBy ?? '',
+    w.decision?.decidedOn ?? '',
+    w.laterCase ? `${w.laterCase.kindLabel} started ${w.laterCase.startDate}${w.laterCase.completionDate ? `, completed ${w.laterCase.completionDate}` : ', in progress'} (${w.laterCase.id})` : '',
+  ]);
+  await audit(em, actor, { action: 'outcomes.worklist_exported', detail: { ...filterDetail(r.filter), cases: r.rows.length } });
+  return writeCsv([...WORKLIST_CSV_HEADER], rows);
+}
+
+// --- recording a next step ---------------------------------------------------------------------------
+
+/** How far ahead a step may be planned. */
+export const MAX_DAYS_AHEAD = 1096;
+
+interface RuleRow {
+  id: string;
+  patient_id: string;
+  operator_id: string;
+  kind: string;
+  completion_date: string | null;
+  pai_score: number;
+  lesion_diameter_mm: string | number;
+  previous_case_id: string | null;
+  archived: boolean;
+  reviews: { d: string; s: RecordedReview['toothStatus']; p: number | null; l: string | number | null; g: RecordedReview['signs']; e: string | null }[];
+}
+
+/** One case and its later, completed cases, as the worklist rule reads them (current review versions only). */
+async function readForRule(em: EntityManager, practiceId: string, caseId: string) {
+  const rows = (
+    await knexOf(em).raw(
+      `select c.id, c.patient_id, c.operator_id, c.kind, c.completion_date::text as completion_date, c.pai_score, c.lesion_diameter_mm,
+         c.previous_case_id, (c.archived_at is not null or p.archived_at is not null) as archived,
+         coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'l', r.lesion_diameter_mm, 'g', r.signs, 'e', r.event_date::text)
+                   order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews
+       from treatment_case c join patient p on p.id = c.patient_id
+       where c.practice_id = ? and (c.id = ? or (c.previous_case_id = ? and c.completion_date is not null and c.archived_at is null))`,
+      [practiceId, caseId, caseId],
+    )
+  ).rows as RuleRow[];
+  const self = rows.find((r) => r.id === caseId)!;
+  const completedFollowers = new Set(rows.filter((r) => r.id !== caseId && !r.archived).map((r) => r.previous_case_id!));
+  return { self, completedFollowers };
+}
+
+function asOutcomeCase(r: RuleRow): OutcomeCase {
+  return {
+    id: r.id,
+    patientId: r.patient_id,
+    operatorId: r.operator_id,
+    kind: r.kind,
+    completionDate: r.completion_date!,
+    baselinePai: Number(r.pai_score),
+    lesionDiameterMm: Number(r.lesion_diameter_mm),
+    fillLengthClass: null,
+    toothGroup: '',
+    toothArch: 'upper',
+    previousCaseId: r.previous_case_id,
+    lost: false,
+    reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
+  };
+}
+
+export interface DecisionResult {
+  decision: WorklistDecisionView;
+  /** False when the same step was already the current one (nothing new written). */
+  created: boolean;
+  /** The later case of the tooth (retreatment, surgery), and whether this request created it. */
+  linkedCase: { id: string; created: boolean } | null;
+  /** For a watch: the recall visit added, or why none was. */
+  visit: { created: true; id: string; dueDate: CalendarDate; milestone: number } | { created: false; message: string } | null;
+}
+
+const fieldError = (field: string, message: string): never => {
+  throw new ValidationError('Some fields need attention.', { [field]: [message] });
+};
+
+/**
+ * Records the next step for a case on the worklist (see the top of this file for who may). The
+ * date: not before the latest review, at most three years ahead; a re-review after today. A new
+ * row replaces the current one (history kept); the same step, date and note again writes nothing.
+ * Retreat and apical surgery: the tooth's later case — created here, in progress (start date the
+ * planned date, or today when that is ahead: a case cannot start in the future), linked by
+ * previousCase, with the clinician's apical diagnosis and the latest review's PAI and lesion; when
+ * the tooth already has a later case, that one is linked and none is created. Watch: a planned
+ * recall visit at the date when the visit rules allow (lib/outcomes/worklist planReReviewVisit).
+ */
+export async function recordDecision(em: EntityManager, actor: Actor, caseId: string, raw: unknown): Promise<DecisionResult> {
+  assertCan(actor, 'outcomes.decide');
+  const c = await findCase(em, actor, caseId);
+  const input = parseInput(DecisionInput, raw ?? {});
+  if (c.operator.id !== actor.userId) {
+    throw new ForbiddenError('The next step is recorded by the clinician who treated the tooth. To take the case over, make yourself its clinician on the case form first.');
+  }
+  const settings = await practiceSettings(em, actor.practiceId);
+  const today = todayIn(settings.timeZone);
+  return em.transactional(async (tx) => {
+    // One decision at a time per case: the case row is the lock (a double click, two tabs).
+    await knexOf(tx).raw('select id from treatment_case where id = ? for update', [c.id]);
+    const { self, completedFollowers } = await readForRule(tx, actor.practiceId, c.id);
+    const entry: WorklistEntry | null =
+      self.completion_date && !self.archived ? worklistEntry(asOutcomeCase(self), today, settings.minObservationDays, completedFollowers) : null;
+    if (!entry) throw new ConflictError('This case is not on the non-healing worklist (no disease at its latest review, nor healing or uncertain past four years): nothing was recorded.');
+    if (input.date < entry.latestReviewDate) fieldError('date', `The date is before the latest review (${entry.latestReviewDate}).`);
+    if (input.date > addDaysTo(today, MAX_DAYS_AHEAD)) fieldError('date', 'The date is more than three years ahead.');
+    if (input.step === 'watch' && input.date <= today) fieldError('date', 'A re-review is planned ahead: choose a date after today.');
+
+    const current = await tx.findOne(CaseDecisionSchema, { case: c.id }, { orderBy: { createdAt: 'desc' } });
+    const note = input.note ?? null;
+    if (current && current.step === input.step && current.date === input.date && current.note === note && current.decidedBy.id === actor.userId && current.reviewDate === entry.latestReviewDate) {
+      return { decision: await viewOf(tx, current, entry.latestReviewDate, settings.timeZone), created: false, linkedCase: current.linkedCase ? { id: current.linkedCase.id, created: false } : null, visit: null };
+    }
+
+    let linkedCase: DecisionResult['linkedCase'] = null;
+    const kind = CASE_KIND_OF_STEP[input.step];
+    if (kind) {
+      const later = await tx.findOne(TreatmentCaseSchema, { previousCase: c.id, practice: actor.practiceId }, { fields: ['id', 'archivedAt'] });
+      if (later?.archivedAt) throw new ConflictError('The tooth’s later case is archived: restore it on its page, or record another step.');
+      if (later) linkedCase = { id: later.id, created: false };
+      else {
+        const latest = self.reviews.filter((r) => r.d === entry.latestReviewDate && r.s === 'present').at(-1);
+        const measured = latest && latest.p !== null && latest.l !== null;
+        try {
+          const created = await createCase(tx, actor, {
+            patientId: self.patient_id,
+            tooth: c.tooth,
+            kind,
+            operatorId: actor.userId,
+            referrerId: c.referrer?.id ?? '',
+            previousCaseId: c.id,
+            startDate: input.date < today ? input.date : today,
+            pulpalDiagnosis: 'previously_treated',
+            apicalDiagnosis: input.apicalDiagnosis,
+            // PAI and lesion as a pair from one record: the latest review when it has both, else the case's own.
+            paiScore: measured ? latest.p : Number(self.pai_score),
+            lesionDiameterMm: measured ? Number(latest.l) : Number(self.lesion_diameter_mm),
+          });
+          linkedCase = { id: created.id, created: true };
+        } catch (e) {
+          if (!(e instanceof ValidationError)) throw e;
+          const why = Object.values(e.fieldErrors ?? {}).flat()[0] ?? e.message;
+          throw new ConflictError(`The new case of the tooth could not be created: ${why} Nothing was recorded.`);
+        }
+      }
+    }
+
+    let visit: DecisionResult['visit'] = null;
+    let visitId: string | null = null;
+    if (input.step === 'watch') {
+      const visits = await loadVisits(tx, c.id);
+      const plan = planReReviewVisit(visits, self.completion_date!, input.date, (m) => settings.recallPolicy.milestones.find((x) => x.months === m) ?? defaultWindow(m));
+      if (plan.create) {
+        const v = tx.create(RecallVisitSchema, { practice: actor.practiceId, case: c.id, milestone: plan.milestone, dueDate: plan.dueDate, windowStart: plan.windowStart, windowEnd: plan.windowEnd, status: 'planned' });
+        visitId = v.id;
+        visit = { created: true, id: v.id, dueDate: plan.dueDate, milestone: plan.milestone };
+      } else visit = { created: false, message: plan.message };
+    }
+
+    const d = tx.create(CaseDecisionSchema, {
+      practice: actor.practiceId,
+      case: c.id,
+      step: input.step,
+      date: input.date,
+      note,
+      reviewDate: entry.latestReviewDate,
+      linkedCase: linkedCase?.id ?? null,
+      visit: visitId,
+      replaces: current?.id ?? null,
+      decidedBy: actor.userId,
+    });
+    await tx.flush();
+    await audit(tx, actor, {
+      action: 'outcomes.decision_recorded',
+      entityType: 'case',
+      entityId: c.id,
+      detail: { step: input.step, date: input.date, decisionId: d.id, ...(current ? { replaces: current.id } : {}), ...(linkedCase ? { linkedCaseId: linkedCase.id, linkedCaseCreated: linkedCase.created } : {}), ...(visitId ? { visitId } : {}) },
+    });
+    return { decision: await viewOf(tx, d, entry.latestReviewDate, settings.timeZone), created: true, linkedCase, visit };
+  });
+}
+
+async function viewOf(em: EntityManager, d: CaseDecision, latestReviewDate: CalendarDate, timeZone: string): Promise<WorklistDecisionView> {
+  const by = (await knexOf(em)('app_user').where('id', d.decidedBy.id).first('name', 'email')) as { name: string | null; email: string };
+  return decisionView(
+    { id: d.id, step: d.step, date: d.date, note: d.note ?? null, createdAt: d.createdAt.toISOString(), linkedCaseId: d.linkedCase?.id ?? null, visitId: d.visit?.id ?? null, by: by.name ?? by.email },
+    latestReviewDate,
+    timeZone,
+  );
+}
+
+export interface DecisionHistoryItem {
+  id: string;
+  step: NextStep;
+  stepLabel: string;
+  date: CalendarDate;
+  note: string | null;
+  decidedBy: string;
+  decidedAt: string;
+  reviewDate: CalendarDate;
+  linkedCaseId: string | null;
+  visitId: string | null;
+  /** The step a later row replaced (false for the current one). */
+  replaced: boolean;
+}
+
+/** Every step recorded for a case, newest first. The lead: any case of the practice; a clinician: their own. Audited. */
+export async function caseDecisions(em: EntityManager, actor: Actor, caseId: string): Promise<DecisionHistoryItem[]> {
+  assertCan(actor, 'outcomes.read');
+  const c = await findCase(em, actor, caseId);
+  if (!seesWholePractice(actor) && c.operator.id !== actor.userId) throw new ForbiddenError('A clinician sees the worklist of the cases they treated.');
+  const rows = (await knexOf(em)('case_decision as d')
+    .join('app_user as u', 'u.id', 'd.decided_by_id')
+    .where({ 'd.case_id': c.id, 'd.practice_id': actor.practiceId })
+    .orderBy([{ column: 'd.created_at', order: 'desc' }, { column: 'd.id', order: 'desc' }])
+    .select(
+      'd.id',
+      'd.step',
+      knexOf(em).raw('d.date::text as date'),
+      'd.note',
+      'd.created_at',
+      knexOf(em).raw('d.review_date::text as review_date'),
+      'd.linked_case_id',
+      'd.visit_id',
+      knexOf(em).raw('coalesce(u.name, u.email) as by'),
+      knexOf(em).raw('exists (select 1 from case_decision n where n.replaces_id = d.id) as replaced'),
+    )) as { id: string; step: NextStep; date: string; note: string | null; created_at: Date; review_date: string; linked_case_id: string | null; visit_id: string | null; by: string; replaced: boolean }[];
+  await audit(em, actor, { action: 'outcomes.decisions_read', entityType: 'case', entityId: c.id, detail: { decisions: rows.length } });
+  return rows.map((r) => ({
+    id: r.id,
+    step: r.step,
+    stepLabel: NEXT_STEP_LABELS[r.step],
+    date: r.date,
+    note: r.note,
+    decidedBy: r.by,
+    decidedAt: new Date(r.created_at).toISOString(),
+    reviewDate: r.review_date,
+    linkedCaseId: r.linked_case_id,
+    visitId: r.visit_id,
+    replaced: r.replaced,
+  }));
+}
