@@ -157,6 +157,20 @@ export function kmOf(intervals: readonly Interval[]) {
   return kaplanMeier(intervals.map((i) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true })));
 }
 
+/**
+ * Turnbull's estimate, or null when its EM does not converge within lib/stats' limit (it can
+ * happen on a small group with awkward intervals: a level of a factor, a filtered selection).
+ * The screens then show Kaplan–Meier and say why; other errors still throw.
+ */
+export function turnbullOrNull(intervals: readonly Interval[]): ReturnType<typeof turnbull> | null {
+  try {
+    return turnbull(intervals);
+  } catch (e) {
+    if (e instanceof Error && /did not converge/.test(e.message)) return null;
+    throw e;
+  }
+}
+
 /** S(t) from a step function whose rows carry `time`/`upper` and `survival` (1 before the first step). */
 export function stepAt<T extends { survival: number }>(steps: readonly T[], at: (s: T) => number, t: number): T | null {
   let row: T | null = null;
@@ -172,8 +186,9 @@ export function overview(selection: readonly OutcomeCase[], all: readonly Outcom
   });
   const intervals = toothLossObservations(selection, all, minObs);
   const km = kmOf(intervals);
-  const turnbullComputed = intervals.length > 0 && intervals.length <= TURNBULL_MAX;
-  const tb = turnbullComputed ? turnbull(intervals) : [];
+  const tbOrNull = intervals.length > 0 && intervals.length <= TURNBULL_MAX ? turnbullOrNull(intervals) : null;
+  const turnbullComputed = tbOrNull !== null;
+  const tb = tbOrNull ?? [];
   const survival = SURVIVAL_YEARS.map((years) => {
     const days = milestoneDays(years * 12);
     const k = stepAt(km, (s) => s.time, days);

@@ -11,9 +11,9 @@
  */
 import { daysBetween } from '@/lib/registry/calendar-date';
 import type { Interval } from '@/lib/scoring';
-import { cumulativeIncidence, logRank, turnbull } from '@/lib/stats';
+import { cumulativeIncidence, logRank } from '@/lib/stats';
 import { healingObservations, milestoneDays, toothLossObservations, type OutcomeCase } from './cases';
-import { compareLevels, FACTORS, kmOf, TURNBULL_MAX, type FactorKey } from './compute';
+import { compareLevels, FACTORS, kmOf, TURNBULL_MAX, turnbullOrNull, type FactorKey } from './compute';
 
 export const AT_RISK_MONTHS = [0, 6, 12, 24, 36, 48] as const;
 export type Endpoint = 'healing' | 'tooth';
@@ -42,6 +42,8 @@ export interface Curves {
   /** the method asked for, and the one used (Turnbull falls back to KM above TURNBULL_MAX) */
   asked: CurveMethod;
   method: CurveMethod;
+  /** Turnbull was asked and within TURNBULL_MAX but did not converge for some level: Kaplan–Meier is shown */
+  turnbullFailed?: boolean;
   factor: FactorKey | null;
   curves: Curve[];
   logRank: { chiSquare: number; df: number; pValue: number } | null;
@@ -50,11 +52,16 @@ export interface Curves {
 
 const obsOf = (i: Interval) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true });
 
-function curveOf(level: string, intervals: Interval[], method: CurveMethod): Curve {
+/** A level's curve; null when Turnbull was asked and did not converge (the caller falls back to Kaplan–Meier). */
+function curveOf(level: string, intervals: Interval[], method: CurveMethod): Curve | null {
   let points: CurvePoint[] = [{ time: 0, survival: 1, lower: 1, upper: 1 }];
   if (intervals.length > 0) {
     if (method === 'km') points.push(...kmOf(intervals).map((s) => ({ time: s.time, survival: s.survival, lower: s.lower, upper: s.upper })));
-    else points = [{ time: 0, survival: 1 }, ...turnbull(intervals).map((s) => ({ time: s.upper, survival: s.survival }))];
+    else {
+      const tb = turnbullOrNull(intervals);
+      if (tb === null) return null;
+      points = [{ time: 0, survival: 1 }, ...tb.map((s) => ({ time: s.upper, survival: s.survival }))];
+    }
   }
   return {
     level,
@@ -95,8 +102,13 @@ export function curves(
   const intervalsOf = (cases: OutcomeCase[]) => (opts.endpoint === 'tooth' ? toothLossObservations(cases, all, opts.minObs) : healingObservations(cases, opts.minObs));
   const byLevel = sorted.map(([level, cases]) => ({ level, intervals: intervalsOf(cases) }));
   const total = byLevel.reduce((s, g) => s + g.intervals.length, 0);
-  const method: CurveMethod = opts.method === 'turnbull' && total > TURNBULL_MAX ? 'km' : opts.method;
-  const curveList = byLevel.map((g) => curveOf(opts.levelName ? opts.levelName(g.level) : g.level, g.intervals, method));
+  let method: CurveMethod = opts.method === 'turnbull' && total > TURNBULL_MAX ? 'km' : opts.method;
+  let curveList = byLevel.map((g) => curveOf(named(g.level), g.intervals, method));
+  const turnbullFailed = curveList.some((c) => c === null);
+  if (turnbullFailed) {
+    method = 'km';
+    curveList = byLevel.map((g) => curveOf(named(g.level), g.intervals, 'km'));
+  }
   const withCases = byLevel.filter((g) => g.intervals.length > 0);
   let lr: Curves['logRank'] = null;
   if (withCases.length >= 2 && withCases.some((g) => g.intervals.some((i) => i.right !== null))) {
@@ -109,8 +121,9 @@ export function curves(
     endpoint: opts.endpoint,
     asked: opts.method,
     method,
+    turnbullFailed,
     factor: opts.factor,
-    curves: curveList,
+    curves: curveList as Curve[],
     logRank: lr,
     competing: Object.entries(ci).map(([cause, steps]) => ({ cause, points: steps.map((s) => ({ time: s.time, incidence: s.incidence, lower: s.lower, upper: s.upper })) })),
   };

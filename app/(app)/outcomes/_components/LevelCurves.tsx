@@ -71,7 +71,9 @@ export function LevelCurves({ c, title, filename }: { c: Curves; title: string; 
       <Method>
         {c.method === 'turnbull'
           ? 'Turnbull (NPMLE) for interval-censored times — a failure is found at a recall visit, so it happened some time since the last visit that found none'
-          : c.asked === 'turnbull'
+          : c.asked === 'turnbull' && c.turnbullFailed
+            ? 'Kaplan–Meier (the Turnbull estimate did not converge for some level), each event at the review that found it, log-scale 95% band (dotted), + marks a censored case'
+            : c.asked === 'turnbull'
             ? `Kaplan–Meier (Turnbull is not computed above ${TURNBULL_MAX.toLocaleString('en-GB')} teeth), each event at the review that found it, log-scale 95% band (dotted), + marks a censored case`
             : 'Kaplan–Meier with each event at the review that found it, log-scale 95% band (dotted); + marks a censored case'}
         ; days since completion; at risk = still followed at that time; the log-rank test (Mantel–Haenszel, as R survdiff) uses the visit dates.

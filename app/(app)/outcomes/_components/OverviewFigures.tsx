@@ -135,7 +135,7 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
         <Method>
           {o.teeth} teeth, {o.toothLossEvents} extracted; each tooth from its earliest case, followed through its retreatment or surgery. Kaplan–Meier with the
           extraction at the review that found it (log-scale 95% interval); Turnbull for extractions found between visits
-          {o.turnbullComputed ? '' : ` — not computed above ${TURNBULL_MAX.toLocaleString('en-GB')} teeth (it takes too long), Kaplan–Meier alone`}.
+          {o.turnbullComputed ? '' : o.teeth > 0 && o.teeth <= TURNBULL_MAX ? ' — it did not converge on these teeth, Kaplan–Meier alone' : ` — not computed above ${TURNBULL_MAX.toLocaleString('en-GB')} teeth (it takes too long), Kaplan–Meier alone`}.
         </Method>
       </div>
     </section>

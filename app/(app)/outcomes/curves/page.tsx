@@ -76,7 +76,9 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
             <Notice tone="info">
               {c.method === 'turnbull'
                 ? 'Turnbull is the default: a failure is found at a recall visit, so it happened at some time since the last visit that found none. Kaplan–Meier would date it at the visit and overstate survival before it; switch to Kaplan–Meier to see its 95% band and censoring marks.'
-                : c.asked === 'turnbull'
+                : c.asked === 'turnbull' && c.turnbullFailed
+                  ? 'Kaplan–Meier shown: the Turnbull estimate did not settle (converge) for some group of these cases. It dates each failure at the visit that found it.'
+                  : c.asked === 'turnbull'
                   ? `Kaplan–Meier shown: the Turnbull estimate is not computed above ${TURNBULL_MAX.toLocaleString('en-GB')} cases (it takes too long). It dates each failure at the visit that found it.`
                   : 'Kaplan–Meier dates each failure at the visit that found it (survival slightly overstated between visits); Turnbull, the default, does not.'}
             </Notice>
