@@ -58,7 +58,7 @@ export function ForestPlot({ rows, ratioLabel }: { rows: ForestRow[]; ratioLabel
           }}
         />
         <Scatter data={data} fill="#5a51a8" shape="square" isAnimationActive={false}>
-          <ErrorBar dataKey="err" direction="x" width={6} stroke="#5a51a8" strokeWidth={2} />
+          <ErrorBar dataKey="err" direction="x" width={6} stroke="#5a51a8" strokeWidth={2} isAnimationActive={false} />
         </Scatter>
       </ScatterChart>
     </ResponsiveContainer>
