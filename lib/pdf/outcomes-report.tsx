@@ -2,7 +2,7 @@ import 'server-only';
 import path from 'node:path';
 import { Circle, Document, Font, Line, Page, Polygon, Polyline, StyleSheet, Svg, Text, View, renderToBuffer } from '@react-pdf/renderer';
 import type { FactorTable, Overview, Rate } from '@/lib/outcomes';
-import { BAND_WORDS, FUNNEL_CAUTION, type Limits } from '@/lib/outcomes/funnel';
+import { BAND_WORDS, FUNNEL_CAUTION, TERM_LABELS, type Limits } from '@/lib/outcomes/funnel';
 import type { FunnelPoint, FunnelReport } from '@/lib/services/outcomes-funnel';
 
 /**
@@ -285,7 +285,7 @@ export function OutcomesReportDocument({ d }: { d: ReportData }) {
           />
           {f.model && (
             <Text style={{ marginTop: 4 }}>
-              {pdfText(`Case-mix model (logistic, ${f.model.n} judged cases, ${f.model.events} successes): ${f.model.names.slice(1).join('; ')}.${f.model.left.length ? ` Left out: ${f.model.left.map((l) => l.term).join(', ')}.` : ''}`)}
+              {pdfText(`Case-mix model (logistic, ${f.model.n} judged cases, ${f.model.events} successes): ${f.model.names.slice(1).join('; ')}.${f.model.left.length ? ` Left out: ${f.model.left.map((l) => TERM_LABELS[l.term]).join(', ')}.` : ''}`)}
             </Text>
           )}
           {f.literature.map((l) => (

@@ -37,7 +37,7 @@ export function FunnelChart({ points, curve, centre, references, yLabel }: Funne
         <XAxis type="number" dataKey="n" domain={[0, maxN]} allowDecimals={false} tick={{ fontSize: 11 }} label={{ value: 'Judged cases (n)', position: 'insideBottom', offset: -8, fontSize: 11 }} />
         <YAxis type="number" dataKey="value" domain={[0, 1]} ticks={[0, 0.2, 0.4, 0.6, 0.8, 1]} tickFormatter={pct} tick={{ fontSize: 11 }} label={{ value: yLabel, angle: -90, position: 'insideLeft', offset: 16, fontSize: 11 }} />
         <Tooltip formatter={(v) => `${(Number(v) * 100).toFixed(1)}%`} labelFormatter={(l) => `${l} judged cases`} />
-        <Legend wrapperStyle={{ fontSize: 12 }} />
+        <Legend verticalAlign="top" wrapperStyle={{ fontSize: 12 }} />
         <Line data={curve} dataKey="upper95" name="95% limits" type="monotone" dot={false} stroke="#5a51a8" strokeDasharray="6 3" strokeWidth={1.5} isAnimationActive={false} />
         <Line data={curve} dataKey="lower95" name="95% lower" legendType="none" type="monotone" dot={false} stroke="#5a51a8" strokeDasharray="6 3" strokeWidth={1.5} isAnimationActive={false} />
         <Line data={curve} dataKey="upper998" name="99.8% limits" type="monotone" dot={false} stroke="#1d2225" strokeDasharray="2 2" strokeWidth={1.5} isAnimationActive={false} />
