@@ -33,7 +33,7 @@ test('the practice lead reads the practice’s worklist, filters it by clinician
   await expect(page.getByTestId('worklist-row')).toHaveCount(api.rows.length);
   await expect(page.getByTestId('worklist-row').first()).toHaveAttribute('data-case', api.rows[0]!.caseId);
   expect(api.rows.every((r) => !r.canDecide)).toBe(true);
-  await expect(page.getByText('Record the next step')).toHaveCount(0);
+  await expect(page.locator('summary', { hasText: 'Record the next step' })).toHaveCount(0);
   for (const width of [1366, 375]) {
     await page.setViewportSize({ width, height: 900 });
     await page.screenshot({ path: testInfo.outputPath(`worklist-lead-${width}.png`), fullPage: true });
@@ -79,7 +79,7 @@ test('a clinician records a re-review and then a retreatment, which opens a link
   await page.setViewportSize({ width: 1366, height: 900 });
 
   const row = page.locator(`[data-testid="worklist-row"][data-case="${target!.caseId}"]`);
-  await row.getByText('Record the next step').click();
+  await row.locator('summary', { hasText: 'Record the next step' }).click();
   const form = row.getByRole('form', { name: `Next step for tooth ${target!.tooth}` });
   // a refusal is shown on its field, nothing typed is lost
   await form.getByLabel('Next step').selectOption('watch');
@@ -95,7 +95,7 @@ test('a clinician records a re-review and then a retreatment, which opens a link
   await row.screenshot({ path: testInfo.outputPath('worklist-row-watch.png') });
 
   // then a retreatment: a new case of the tooth, in progress, linked; recording it again opens no second one
-  if (!(await row.getByRole('form').isVisible())) await row.getByText('Change the next step').click();
+  if (!(await row.getByRole('form').isVisible())) await row.locator('summary', { hasText: 'Change the next step' }).click();
   const again = row.getByRole('form', { name: `Next step for tooth ${target!.tooth}` });
   await again.getByLabel('Next step').selectOption('retreat');
   await again.getByLabel('Planned for').fill(inDays(14));
