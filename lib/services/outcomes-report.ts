@@ -1,13 +1,13 @@
 import 'server-only';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
-import { applyFilter, byFactor, FACTORS, overview, type FactorKey } from '@/lib/outcomes';
+import { applyFilter, byFactor, FACTORS, levelLabel, overview, type FactorKey } from '@/lib/outcomes';
 import { methodsParagraphs } from '@/lib/outcomes/methods';
 import { renderOutcomesReport, type ReportData } from '@/lib/pdf/outcomes-report';
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
 import { OutcomeReportQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
-import { filterDetail, scope } from './outcomes';
+import { filterDetail, levelNamer, scope } from './outcomes';
 import { funnelOfScope } from './outcomes-funnel';
 import { parseInput } from './parse';
 import { knexOf, practiceSettings } from './registry-common';
@@ -42,6 +42,11 @@ export async function outcomesReportData(em: EntityManager, actor: Actor, raw: u
       { label: 'Completed', value: f.from && f.to ? `${fmtDay(f.from)} to ${fmtDay(f.to)}` : f.from ? `from ${fmtDay(f.from)}` : f.to ? `up to ${fmtDay(f.to)}` : 'any date' },
       { label: 'Clinician', value: s.own ? `your own cases (${names.get(actor.userId) ?? actor.email})` : f.clinician ? (names.get(f.clinician) ?? 'Former clinician') : 'every clinician' },
       { label: 'Kind of treatment', value: f.kind ? CASE_KIND_LABELS[f.kind as CaseKind] : 'every kind' },
+      ...Object.entries(f.levels ?? {}).map(([k, codes]) => {
+        const key = k as FactorKey;
+        const name = levelNamer(s, key) ?? ((code: string) => levelLabel(key, code));
+        return { label: FACTORS[key].label, value: (codes ?? []).map(name).join(' or ') };
+      }),
       { label: 'Factor', value: FACTORS[factor].label },
       { label: 'Clinician audit', value: `${q.measure === 'm12' ? 'strict success at 12 months' : 'strict success at the latest review a year or more after completion'}, ${q.adjust === 'adjusted' ? 'risk-adjusted' : 'crude'}` },
       { label: 'Figures as of', value: fmtDay(s.today) },

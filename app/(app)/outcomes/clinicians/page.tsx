@@ -8,6 +8,7 @@ import { Caution } from '@/components/ui/Caution';
 import { Notice } from '@/components/ui/Notice';
 import { filtersOf, Method, OutcomesHeader, pct, queryOf, RateText } from '../_components/parts';
 import { FunnelChart } from '../_components/FunnelChartLazy';
+import { ChartDownloads } from '@/components/charts/ChartDownloads';
 
 export const metadata: Metadata = { title: 'Clinician audit' };
 
@@ -84,15 +85,17 @@ export default async function OutcomesCliniciansPage({ searchParams }: { searchP
                   No funnel: {data.practice.n === 0 ? 'no case has a judged outcome for this measure yet' : 'every judged case had the same result, so there is no spread to draw limits around'}.
                 </Notice>
               ) : (
-                <div id="funnel-chart" className="h-96 rounded-lg border border-bone-200 bg-white p-2" data-testid="funnel-chart" role="img" aria-label={`Funnel plot of ${adjusted ? 'risk-adjusted' : 'crude'} ${data.measureLabel} per clinician`}>
-                  <FunnelChart
-                    points={data.points.filter((p) => valueOf(p) !== null).map((p) => ({ key: p.key, label: p.label, n: p.n, value: valueOf(p)!, highlighted: p.highlighted, named: !own || p.own }))}
-                    curve={data.curve}
-                    centre={data.practice.estimate}
-                    references={data.literature.map((l) => ({ rate: l.rate, label: l.label }))}
-                    yLabel={adjusted ? 'Risk-adjusted strict success' : 'Strict success'}
-                  />
-                </div>
+                <ChartDownloads filename={`lamina-clinician-funnel-${adjusted ? 'adjusted' : 'crude'}`} title={`Funnel plot: ${adjusted ? 'risk-adjusted' : 'crude'} ${data.measureLabel} per clinician`}>
+                  <div id="funnel-chart" className="h-96 rounded-lg border border-bone-200 bg-white p-2" data-testid="funnel-chart" role="img" aria-label={`Funnel plot of ${adjusted ? 'risk-adjusted' : 'crude'} ${data.measureLabel} per clinician`}>
+                    <FunnelChart
+                      points={data.points.filter((p) => valueOf(p) !== null).map((p) => ({ key: p.key, label: p.label, n: p.n, value: valueOf(p)!, highlighted: p.highlighted, named: !own || p.own }))}
+                      curve={data.curve}
+                      centre={data.practice.estimate}
+                      references={data.literature.map((l) => ({ rate: l.rate, label: l.label }))}
+                      yLabel={adjusted ? 'Risk-adjusted strict success' : 'Strict success'}
+                    />
+                  </div>
+                </ChartDownloads>
               )}
             </div>
             <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">

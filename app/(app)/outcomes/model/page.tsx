@@ -8,6 +8,7 @@ import { Caution } from '@/components/ui/Caution';
 import { Notice } from '@/components/ui/Notice';
 import { filtersOf, FILTER_KEYS, Method, OutcomesHeader } from '../_components/parts';
 import { ForestPlot } from '../_components/ForestPlotLazy';
+import { ChartDownloads } from '@/components/charts/ChartDownloads';
 
 export const metadata: Metadata = { title: 'Outcomes: multivariable' };
 
@@ -67,9 +68,11 @@ function ModelSection({ fit, title, id, endpoint, method, above }: { fit: ModelF
       )}
       {fit.terms.length > 0 && (
         <>
-          <div className="w-full" style={{ height: 70 + 34 * fit.terms.length }} data-testid={`model-${fit.model}-forest`} aria-label={`Forest plot: ${t.ratio.toLowerCase()}s with 95% intervals`} role="img">
-            <ForestPlot ratioLabel={t.ratio} rows={fit.terms.map((x) => ({ name: `${x.label.replace(' before treatment', '')}: ${x.term}`, ratio: x.ratio, lower: x.lower, upper: x.upper }))} />
-          </div>
+          <ChartDownloads filename={`lamina-${fit.model}-model`} title={title}>
+            <div className="w-full" style={{ height: 70 + 34 * fit.terms.length }} data-testid={`model-${fit.model}-forest`} aria-label={`Forest plot: ${t.ratio.toLowerCase()}s with 95% intervals`} role="img">
+              <ForestPlot ratioLabel={t.ratio} rows={fit.terms.map((x) => ({ name: `${x.label.replace(' before treatment', '')}: ${x.term}`, ratio: x.ratio, lower: x.lower, upper: x.upper }))} />
+            </div>
+          </ChartDownloads>
           <p className="text-xs text-ink-500">{above}</p>
           <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
             <table className="table-dense table-stack w-full" aria-label={`${title}: table`}>
