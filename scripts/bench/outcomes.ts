@@ -1,0 +1,178 @@
+/**
+ * Benchmark of the outcomes area (issue 12) at scale:
+ *
+ *  1. seeds a fresh practice with 100,000 completed cases of the demo world's generator
+ *     (lib/demo/cases.ts: ≈60,000 patients, recall visits in every status, several reviews per case
+ *     with healing, disease, retreatments, surgery and extractions, follow-on cases on the same tooth)
+ *     by bulk insert (lib/demo/seed-demo.ts persistWorld), then VACUUM ANALYZE;
+ *  2. times each outcomes API view by calling its service — what the route handler calls, with a
+ *     fresh EntityManager fork per request (permission check, zod parse, the lean read, the engine,
+ *     the audit event); not over HTTP, so JSON serialisation of the response is timed separately —
+ *     and prints p50, p95 and max per view, then where the time of a cold request goes
+ *     (SQL read, row mapping, engine) and the response size.
+ *
+ *   npm run bench -- outcomes                      (throwaway services from scripts/bench.sh)
+ *   DATABASE_URL=… npx tsx scripts/bench/outcomes.ts
+ *   BENCH_CASES=20000 BENCH_REQUESTS=10 …          (smaller)
+ *   BENCH_KEEP=1 keeps the practice; BENCH_REUSE=1 reuses a kept one of the same size.
+ *
+ * The data are invented (the demo world's seeded generator: the same figures on every run).
+ */
+import { runUnderScriptsTsconfig } from '../lib/scripts-tsconfig';
+import { performance } from 'node:perf_hooks';
+
+await runUnderScriptsTsconfig(import.meta.url);
+
+const { MikroORM } = await import('@mikro-orm/postgresql');
+const { default: config } = await import('../../mikro-orm.config');
+const entities = await import('../../entities');
+const { generateDemoWorld } = await import('../../lib/demo/cases');
+const { persistWorld } = await import('../../lib/demo/seed-demo');
+const { todayIn } = await import('../../lib/services/registry-common');
+const outcomes = await import('../../lib/services/outcomes');
+const lib = await import('../../lib/outcomes');
+const { DEFAULT_MIN_OBSERVATION_DAYS } = await import('../../lib/scoring');
+type Actor = import('../../lib/auth/actor').Actor;
+
+const N_CASES = Number(process.env.BENCH_CASES ?? 100_000);
+const N_REQUESTS = Number(process.env.BENCH_REQUESTS ?? 20);
+const KEEP = process.env.BENCH_KEEP === '1';
+const REUSE = process.env.BENCH_REUSE === '1';
+
+const orm = await MikroORM.init({ ...config, pool: { min: 0, max: 6 } });
+const conn = orm.em.getConnection();
+const today = todayIn('Europe/London');
+const slug = `bench-outcomes-${N_CASES}`;
+
+// --- 1. seed (or reuse) ---------------------------------------------------------------------------
+const em0 = orm.em.fork();
+let practice = REUSE ? await em0.findOne(entities.PracticeSchema, { slug }) : null;
+let seedNote = '';
+if (practice) {
+  seedNote = `reused practice ${slug}`;
+} else {
+  const old = await em0.findOne(entities.PracticeSchema, { slug });
+  if (old) await removePractice(old.id);
+  const t0 = performance.now();
+  const world = generateDemoWorld({ today, cases: N_CASES, patients: Math.round(N_CASES * 0.6) });
+  const genMs = performance.now() - t0;
+  practice = em0.create(entities.PracticeSchema, { name: 'Bench Outcomes (invented)', slug, recallPolicy: world.practice.recallPolicy });
+  const made: [string, { id: string }][] = [];
+  const emails = new Set([...world.staff.map((s) => s.email), ...world.clinicians]);
+  for (const c of world.cases) {
+    emails.add(c.operatorEmail);
+    for (const v of c.visits) if (v.review) emails.add(v.review.assessorEmail);
+    for (const r of c.unplannedReviews) emails.add(r.assessorEmail);
+  }
+  for (const [i, email] of [...emails].entries()) {
+    const u = em0.create(entities.UserSchema, { email: `staff${i + 1}.${slug}@bench.invalid`, name: `Bench Clinician ${i + 1}` });
+    made.push([email, u]);
+    em0.create(entities.MembershipSchema, { user: u, practice, role: 'clinician' });
+  }
+  const lead = em0.create(entities.UserSchema, { email: `lead.${slug}@bench.invalid`, name: 'Bench Lead' });
+  em0.create(entities.MembershipSchema, { user: lead, practice, role: 'auditor' });
+  await em0.flush();
+  const userIds = new Map(made.map(([email, u]) => [email, u.id]));
+  const seeded = await persistWorld(orm.em.fork(), practice.id, world, userIds, DEFAULT_MIN_OBSERVATION_DAYS);
+  for (const t of ['patient', 'treatment_case', 'recall_visit', 'review']) await conn.execute(`vacuum analyze ${t}`);
+  seedNote = `seeded ${seeded.cases.toLocaleString('en-GB')} cases, ${seeded.patients.toLocaleString('en-GB')} patients, ${seeded.visits.toLocaleString('en-GB')} visits, ${seeded.reviews.toLocaleString('en-GB')} reviews in ${((performance.now() - t0) / 1000).toFixed(1)} s (generation ${(genMs / 1000).toFixed(1)} s)`;
+}
+const lead = await em0.findOneOrFail(entities.UserSchema, { email: `lead.${slug}@bench.invalid` });
+const actor: Actor = {
+  userId: lead.id,
+  email: lead.email,
+  name: 'Bench Lead',
+  practiceId: practice.id,
+  practiceName: practice.name,
+  roles: ['auditor'],
+  ip: '127.0.0.1',
+  userAgent: 'bench',
+};
+
+// --- 2. the views -----------------------------------------------------------------------------------
+type View = { name: string; run: () => Promise<unknown> };
+const fresh = () => orm.em.fork();
+const VIEWS: View[] = [
+  { name: 'overview', run: () => outcomes.outcomesOverview(fresh(), actor, {}) },
+  { name: 'factor (kind)', run: () => outcomes.outcomesByFactor(fresh(), actor, { factor: 'kind' }) },
+  { name: 'factor (lesion)', run: () => outcomes.outcomesByFactor(fresh(), actor, { factor: 'lesion' }) },
+  { name: 'curves healing KM', run: () => outcomes.outcomesCurves(fresh(), actor, { endpoint: 'healing', method: 'km' }) },
+  { name: 'curves healing Turnbull', run: () => outcomes.outcomesCurves(fresh(), actor, { endpoint: 'healing', method: 'turnbull' }) },
+  { name: 'curves tooth KM', run: () => outcomes.outcomesCurves(fresh(), actor, { endpoint: 'tooth', method: 'km' }) },
+  { name: 'curves tooth Turnbull', run: () => outcomes.outcomesCurves(fresh(), actor, { endpoint: 'tooth', method: 'turnbull' }) },
+  { name: 'curves healing KM by kind', run: () => outcomes.outcomesCurves(fresh(), actor, { endpoint: 'healing', method: 'km', factor: 'kind' }) },
+  { name: 'curves healing Turnbull by kind', run: () => outcomes.outcomesCurves(fresh(), actor, { endpoint: 'healing', method: 'turnbull', factor: 'kind' }) },
+  { name: 'export overview CSV', run: () => outcomes.outcomesCsv(fresh(), actor, 'overview', {}) },
+  { name: 'export factor CSV', run: () => outcomes.outcomesCsv(fresh(), actor, 'factor', { factor: 'kind' }) },
+  { name: 'export curves CSV', run: () => outcomes.outcomesCsv(fresh(), actor, 'curves', { endpoint: 'healing', method: 'km' }) },
+];
+
+const quantile = (xs: number[], p: number) => {
+  const s = [...xs].sort((a, b) => a - b);
+  return s[Math.min(s.length - 1, Math.max(0, Math.ceil(p * s.length) - 1))]!;
+};
+
+// Where a request's time goes, measured once before the timed runs (cold: the first request
+// after start; what a request costs when the practice's data changed since the last one).
+const tRead0 = performance.now();
+const rows = await outcomes.readOutcomeCases(fresh(), practice.id);
+const readMs = performance.now() - tRead0;
+const tOv = performance.now();
+lib.overview(rows, rows, today, DEFAULT_MIN_OBSERVATION_DAYS);
+const overviewEngineMs = performance.now() - tOv;
+const coldMs: Record<string, number> = {};
+const bytes: Record<string, number> = {};
+const jsonMs: Record<string, number> = {};
+for (const v of VIEWS) {
+  if ('invalidateOutcomeCases' in outcomes) (outcomes as unknown as { invalidateOutcomeCases: () => void }).invalidateOutcomeCases();
+  const t0 = performance.now();
+  const out = await v.run();
+  coldMs[v.name] = performance.now() - t0;
+  const t1 = performance.now();
+  const body = typeof out === 'string' ? out : JSON.stringify(out);
+  jsonMs[v.name] = performance.now() - t1;
+  bytes[v.name] = Buffer.byteLength(body);
+}
+
+const samples = new Map<string, number[]>(VIEWS.map((v) => [v.name, []]));
+for (let i = 0; i < N_REQUESTS; i++) {
+  for (const v of VIEWS) {
+    const t0 = performance.now();
+    await v.run();
+    samples.get(v.name)!.push(performance.now() - t0);
+  }
+}
+
+// --- report -------------------------------------------------------------------------------------------
+const counts = (await conn.execute(
+  `select (select count(*) from treatment_case where practice_id = ?) cases, (select count(*) from review where practice_id = ?) reviews`,
+  [practice.id, practice.id],
+)) as { cases: string; reviews: string }[];
+const num = (n: number) => n.toFixed(1).padStart(9);
+console.log(`\nOutcomes benchmark (${today}; PostgreSQL ${(await conn.execute('show server_version'))[0].server_version}; Node ${process.version})`);
+console.log(seedNote);
+console.log(`practice: ${Number(counts[0]!.cases).toLocaleString('en-GB')} cases, ${Number(counts[0]!.reviews).toLocaleString('en-GB')} reviews; ${rows.length.toLocaleString('en-GB')} completed cases read`);
+console.log(`cold read of the rows (readOutcomeCases): ${readMs.toFixed(0)} ms; overview engine on them: ${overviewEngineMs.toFixed(0)} ms`);
+console.log(`\nservices called directly (as the route handlers call them), fresh EntityManager fork per request, ${N_REQUESTS} requests per view after one cold request`);
+console.log(`${'view'.padEnd(34)}${'cold ms'.padStart(9)}${'p50 ms'.padStart(9)}${'p95 ms'.padStart(9)}${'max ms'.padStart(9)}${'JSON ms'.padStart(9)}${'KB'.padStart(8)}`);
+let worst = 0;
+for (const v of VIEWS) {
+  const xs = samples.get(v.name)!;
+  worst = Math.max(worst, quantile(xs, 0.95));
+  console.log(
+    `${v.name.padEnd(34)}${num(coldMs[v.name]!)}${num(quantile(xs, 0.5))}${num(quantile(xs, 0.95))}${num(Math.max(...xs))}${num(jsonMs[v.name]!)}${String(Math.round(bytes[v.name]! / 1024)).padStart(8)}`,
+  );
+}
+console.log(`\nworst p95 ${worst.toFixed(0)} ms (goal: under 300 ms)`);
+
+async function removePractice(id: string) {
+  await conn.execute('delete from audit_event where practice_id = ?', [id]);
+  await conn.execute('delete from practice where id = ?', [id]);
+  await conn.execute('delete from app_user where email like ?', [`%.${slug}@bench.invalid`]);
+}
+if (!KEEP) {
+  const t = performance.now();
+  await removePractice(practice.id);
+  console.log(`(bench practice removed in ${((performance.now() - t) / 1000).toFixed(1)} s; BENCH_KEEP=1 keeps it)`);
+}
+await orm.close(true);
