@@ -2,9 +2,11 @@
  * Benchmark of the outcomes area (issue 12) at scale:
  *
  *  1. seeds a fresh practice with 100,000 completed cases of the demo world's generator
- *     (lib/demo/cases.ts: ≈60,000 patients, recall visits in every status, several reviews per case
- *     with healing, disease, retreatments, surgery and extractions, follow-on cases on the same tooth)
- *     by bulk insert (lib/demo/seed-demo.ts persistWorld), then VACUUM ANALYZE;
+ *     (lib/demo/cases.ts: recall visits in every status, several reviews per case with healing,
+ *     disease, retreatments, surgery and extractions, follow-on cases on the same tooth) by bulk
+ *     insert (lib/demo/seed-demo.ts persistWorld), then VACUUM ANALYZE. The generator is slow
+ *     beyond a few thousand cases, so it makes a world of 5,000 cases (3,000 patients) and the
+ *     bench copies it, each copy k moved k days earlier (every date) and with its own patients;
  *  2. times each outcomes API view by calling its service — what the route handler calls, with a
  *     fresh EntityManager fork per request (permission check, zod parse, the lean read, the engine,
  *     the audit event); not over HTTP, so JSON serialisation of the response is timed separately —
@@ -27,6 +29,8 @@ const { MikroORM } = await import('@mikro-orm/postgresql');
 const { default: config } = await import('../../mikro-orm.config');
 const entities = await import('../../entities');
 const { generateDemoWorld } = await import('../../lib/demo/cases');
+type DemoWorld = import('../../lib/demo/cases').DemoWorld;
+const { addDaysTo } = await import('../../lib/registry/calendar-date');
 const { persistWorld } = await import('../../lib/demo/seed-demo');
 const { todayIn } = await import('../../lib/services/registry-common');
 const outcomes = await import('../../lib/services/outcomes');
@@ -44,6 +48,30 @@ const conn = orm.em.getConnection();
 const today = todayIn('Europe/London');
 const slug = `bench-outcomes-${N_CASES}`;
 
+/** BENCH_CASES cases: copies of a 5,000-case demo world, copy k with every date k days earlier. */
+function replicatedWorld(): DemoWorld {
+  const unit = Math.min(5000, N_CASES);
+  const base = generateDemoWorld({ today, cases: unit, patients: Math.round(unit * 0.6) });
+  const copies = Math.ceil(N_CASES / unit);
+  const shift = (k: number) => <T>(v: T): T => {
+    if (typeof v === 'string') return (/^\d{4}-\d{2}-\d{2}$/.test(v) ? addDaysTo(v, -k) : v) as T;
+    if (Array.isArray(v)) return v.map(shift(k)) as T;
+    if (v && typeof v === 'object') return Object.fromEntries(Object.entries(v).map(([key, x]) => [key, shift(k)(x)])) as T;
+    return v;
+  };
+  const patients: DemoWorld['patients'] = [];
+  const cases: DemoWorld['cases'] = [];
+  for (let k = 0; k < copies; k++) {
+    const f = shift(k);
+    for (const p of base.patients) patients.push({ ...f(p), key: `${p.key}~${k}`, registryNumber: `${p.registryNumber}-${k}` });
+    for (const c of base.cases) {
+      if (cases.length >= N_CASES) break;
+      cases.push({ ...f(c), key: `${c.key}~${k}`, patientKey: `${c.patientKey}~${k}`, previousCaseKey: c.previousCaseKey ? `${c.previousCaseKey}~${k}` : null });
+    }
+  }
+  return { ...base, patients, cases };
+}
+
 // --- 1. seed (or reuse) ---------------------------------------------------------------------------
 const em0 = orm.em.fork();
 let practice = REUSE ? await em0.findOne(entities.PracticeSchema, { slug }) : null;
@@ -54,7 +82,7 @@ if (practice) {
   const old = await em0.findOne(entities.PracticeSchema, { slug });
   if (old) await removePractice(old.id);
   const t0 = performance.now();
-  const world = generateDemoWorld({ today, cases: N_CASES, patients: Math.round(N_CASES * 0.6) });
+  const world = replicatedWorld();
   const genMs = performance.now() - t0;
   practice = em0.create(entities.PracticeSchema, { name: 'Bench Outcomes (invented)', slug, recallPolicy: world.practice.recallPolicy });
   const made: [string, { id: string }][] = [];
