@@ -3,6 +3,7 @@ import { AuditEventSchema } from './AuditEvent';
 import { ContactLogEntrySchema } from './ContactLogEntry';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
+import { OutcomesDataVersionSchema } from './OutcomesDataVersion';
 import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
@@ -29,12 +30,14 @@ export const entities = [
   ReminderSchema,
   ContactLogEntrySchema,
   ReplyNonceSchema,
+  OutcomesDataVersionSchema,
 ];
 
 export * from './AuditEvent';
 export * from './ContactLogEntry';
 export * from './Invitation';
 export * from './Membership';
+export * from './OutcomesDataVersion';
 export * from './Patient';
 export * from './Practice';
 export * from './RecallVisit';

@@ -6,6 +6,7 @@ import { applyFilter, byFactor, curves, type Curves, FACTORS, overview, type Fac
 import type { RecordedReview } from '@/lib/scoring';
 import { OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
+import { cachedOutcomeCases } from './outcomes-cache';
 import { parseInput } from './parse';
 import { knexOf, practiceSettings, todayIn } from './registry-common';
 
@@ -27,11 +28,11 @@ interface CaseRow {
   tooth_group: string;
   tooth_arch: 'upper' | 'lower';
   previous_case_id: string | null;
-  lost: boolean;
+  open_visit: boolean;
   reviews: { d: string; s: RecordedReview['toothStatus']; p: number | null; g: RecordedReview['signs']; e: string | null }[];
 }
 
-/** Every completed case of the practice (archived cases and patients left out), with its reviews in date order. */
+/** Every completed case of the practice (archived cases and patients left out), with its current reviews (not those a correction superseded) in date order. */
 export async function readOutcomeCases(em: EntityManager, practiceId: string): Promise<OutcomeCase[]> {
   const knex = knexOf(em);
   const rows = (await knex
@@ -47,9 +48,9 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
       'c.tooth_group',
       'c.tooth_arch',
       'c.previous_case_id',
-      knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status = 'closed') as lost`),
+      knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status in ('planned', 'invited', 'confirmed', 'missed')) as open_visit`),
       knex.raw(
-        `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id), '[]'::json) as reviews`,
+        `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews`,
       ),
     )
     .from('treatment_case as c')
@@ -71,7 +72,7 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
     toothGroup: r.tooth_group,
     toothArch: r.tooth_arch,
     previousCaseId: r.previous_case_id,
-    lost: r.lost,
+    openVisit: r.open_visit,
     reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
   }));
 }
@@ -95,7 +96,8 @@ export interface Scope {
 export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQuery): Promise<Scope> {
   assertCan(actor, 'outcomes.read');
   const whole = seesWholePractice(actor);
-  const [settings, all] = await Promise.all([practiceSettings(em, actor.practiceId), readOutcomeCases(em, actor.practiceId)]);
+  // the rows come from the per-practice cache while the practice's data version is unchanged
+  const [settings, all] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, readOutcomeCases)]);
   const clinicians = whole ? await practiceClinicians(em, actor) : [{ id: actor.userId, name: actor.name ?? actor.email }];
   const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId };
   return { filter, own: !whole, today: todayIn(settings.timeZone), minObs: settings.minObservationDays, all, clinicians };
@@ -193,12 +195,12 @@ export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overvi
     const header = ['Figure', 'At', 'Value %', '95% lower %', '95% upper %', 'n', 'Detail'];
     const rows: (string | number | null)[][] = [
       ['Cases followed', '', null, null, null, o.cases, `${o.reviewed} with a review`],
-      ['Lost to follow-up', '', pct(o.lost.estimate), pct(o.lost.lower), pct(o.lost.upper), o.lost.n, `${o.lost.x} cases`],
+      ['Lost to follow-up (due for the 12-month review, no outcome a year or more after treatment)', '', pct(o.lost.estimate), pct(o.lost.lower), pct(o.lost.upper), o.lost.n, `${o.lost.x} cases, ${o.lostStillInvited} still invited`],
       ...o.completeness.map((c) => ['Follow-up completeness', `${c.months} months`, pct(c.rate.estimate), pct(c.rate.lower), pct(c.rate.upper), c.rate.n, `${c.rate.x} seen`]),
       ...o.success.flatMap((f) => {
         const at = f.at === 'latest' ? 'latest review ≥ 12 months' : `${f.at} months`;
         return [
-          ['Success, strict (healed)', at, pct(f.strict.estimate), pct(f.strict.lower), pct(f.strict.upper), f.strict.n, `best ${pct(f.strictBounds.best) ?? ''}% / worst ${pct(f.strictBounds.worst) ?? ''}%; ${f.missing} not seen, ${f.uncertain} uncertain`],
+          ['Success, strict (healed)', at, pct(f.strict.estimate), pct(f.strict.lower), pct(f.strict.upper), f.strict.n, `best ${pct(f.strictBounds.best) ?? ''}% / worst ${pct(f.strictBounds.worst) ?? ''}%; ${f.missing} lost to follow-up, ${f.uncertain} uncertain`],
           ['Success, lenient (healed or healing)', at, pct(f.lenient.estimate), pct(f.lenient.lower), pct(f.lenient.upper), f.lenient.n, `best ${pct(f.lenientBounds.best) ?? ''}% / worst ${pct(f.lenientBounds.worst) ?? ''}%`],
         ];
       }),

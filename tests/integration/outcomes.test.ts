@@ -35,15 +35,16 @@ interface FixtureCase {
   /** due at 12 / 24 months (the window ended before today) */
   due12: boolean;
   due24: boolean;
-  lost?: boolean;
+  /** the desk closed the case's open recall visits as lost to follow-up (not what makes a case lost: lib/outcomes lostAt) */
+  closed?: boolean;
 }
 
 const CASES: FixtureCase[] = [
-  { key: 'A', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 4, reviews: [{ day: 365, status: 'present', pai: 1 }, { day: 730, status: 'present', pai: 1 }], at12: 0, at24: 1, latest: 1, due12: true, due24: true },
+  { key: 'A', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 4, reviews: [{ day: 365, status: 'present', pai: 1 }, { day: 730, status: 'present', pai: 1 }], at12: 0, at24: 1, latest: 1, due12: true, due24: true, closed: true },
   { key: 'B', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 4, reviews: [{ day: 370, status: 'present', pai: 3 }, { day: 740, status: 'extracted' }], at12: 0, at24: 1, latest: 1, due12: true, due24: true },
   { key: 'C', who: 'cleo', kind: 'nonsurgical_retreatment', monthsBack: 32, pai: 3, lesion: 3, reviews: [{ day: 360, status: 'present', pai: 3 }, { day: 720, status: 'present', pai: 3 }], at12: 0, at24: 1, latest: 1, due12: true, due24: true },
   { key: 'D', who: 'cleo', kind: 'primary_treatment', monthsBack: 16, pai: 1, lesion: 0, reviews: [{ day: 365, status: 'present', pai: 1 }], at12: 0, at24: null, latest: 0, due12: true, due24: false },
-  { key: 'E', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 6, reviews: [], at12: null, at24: null, latest: null, due12: true, due24: true, lost: true },
+  { key: 'E', who: 'cal', kind: 'primary_treatment', monthsBack: 32, pai: 4, lesion: 6, reviews: [], at12: null, at24: null, latest: null, due12: true, due24: true },
   { key: 'F', who: 'cleo', kind: 'primary_treatment', monthsBack: 5, pai: 2, lesion: 0, reviews: [], at12: null, at24: null, latest: null, due12: false, due24: false },
 ];
 
@@ -79,7 +80,7 @@ beforeAll(async () => {
         ...(r.status === 'present' ? { paiScore: r.pai, lesionDiameterMm: r.pai! >= 3 ? 2 : 0 } : { extractionReason: 'fracture' }),
       });
     }
-    if (f.lost) await knex('recall_visit').where({ case_id: c.id }).update({ status: 'closed' });
+    if (f.closed) await knex('recall_visit').where({ case_id: c.id }).whereIn('status', ['planned', 'invited', 'confirmed']).update({ status: 'closed', lost_to_follow_up: true });
   }
 });
 
@@ -121,7 +122,13 @@ describe('outcomes overview (issue 12, items 1 and 6)', () => {
     expect(practice).toBeNull();
     expect(o.cases).toBe(6);
     expect(o.reviewed).toBe(4);
-    expectRate(o.lost, 1, 6);
+    // lost to follow-up (lib/outcomes lostAt): due for the 12-month review and no outcome a year or
+    // more after completion — E only (no review), still invited (its visits are open); A's later
+    // visit was closed as lost by the desk, but A was seen: not lost
+    const lost = CASES.filter((f) => f.due12 && f.latest === null);
+    expect(lost.map((f) => f.key)).toEqual(['E']);
+    expectRate(o.lost, lost.length, CASES.filter((f) => f.due12).length);
+    expect(o.lostStillInvited).toBe(1);
     // completeness: seen at the milestone ÷ due
     const seen12 = CASES.filter((f) => f.due12 && f.at12 !== null).length;
     const seen24 = CASES.filter((f) => f.due24 && f.at24 !== null).length;
