@@ -4,7 +4,7 @@
  */
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
 import { type CalendarDate } from '@/lib/registry/calendar-date';
-import type { Interval, ReviewOutcome } from '@/lib/scoring';
+import type { Interval } from '@/lib/scoring';
 import { chiSquareTest, fisherExact2x2, kaplanMeier, turnbull, wilsonInterval } from '@/lib/stats';
 import {
   isDue,

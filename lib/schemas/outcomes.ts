@@ -25,5 +25,7 @@ export const OutcomeCurvesQuery = z.intersection(
     endpoint: z.enum(['healing', 'tooth'], { error: 'The endpoint is healing or tooth.' }).default('healing'),
     method: z.enum(['turnbull', 'km'], { error: 'The method is turnbull or km.' }).default('turnbull'),
     factor: blankAsUndefined(z.enum(FACTOR_KEYS as [string, ...string[]], { error: `The factor is one of ${FACTOR_KEYS.join(', ')}.` })),
+    /** the log-rank test stratified by this factor (issue 12, item 3) */
+    stratum: blankAsUndefined(z.enum(FACTOR_KEYS as [string, ...string[]], { error: `The stratum is one of ${FACTOR_KEYS.join(', ')}.` })),
   }),
-);
+).refine((q) => !q.stratum || q.stratum !== q.factor, { message: 'Stratify by a factor other than the one the curves are split by.', path: ['stratum'] });

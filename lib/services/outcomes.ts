@@ -173,10 +173,11 @@ export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unkno
     endpoint: q.endpoint,
     method: q.method,
     factor,
+    stratum: (q.stratum ?? null) as FactorKey | null,
     minObs: s.minObs,
     levelName: factor === 'clinician' ? (id) => names.get(id) ?? 'Former clinician' : undefined,
   });
-  await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}) } });
+  await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}), ...(result.stratum ? { stratum: result.stratum } : {}) } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, curves: result };
 }
 
@@ -214,6 +215,11 @@ export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overvi
     const header = ['Level', 'Method', 'Day', 'Survival', '95% lower', '95% upper'];
     const rows = c.curves.flatMap((cv) => cv.points.map((p) => [cv.level, c.method === 'km' ? 'Kaplan–Meier' : 'Turnbull', p.time, p.survival, p.lower ?? null, p.upper ?? null]));
     for (const cp of c.competing) rows.push(...cp.points.map((p) => [`Cumulative incidence: ${cp.cause}`, 'Aalen–Johansen', p.time, p.incidence, p.lower, p.upper]));
+    for (const cv of c.curves) {
+      rows.push([cv.level, 'Median survival, days (Kaplan–Meier)', null, cv.median.median, cv.median.lower, cv.median.upper]);
+      if (cv.rmst) rows.push([cv.level, `Restricted mean survival to day ${cv.rmst.tau} (Kaplan–Meier)`, cv.rmst.tau, cv.rmst.mean, cv.rmst.lower, cv.rmst.upper]);
+    }
+    if (c.logRank) rows.push([c.logRank.method, `chi-square ${c.logRank.chiSquare}, ${c.logRank.df} df`, null, c.logRank.pValue, null, null]);
     await audit(em, actor, { action: 'outcomes.exported', detail: { view } });
     return writeCsv(header, rows);
   }

@@ -1,7 +1,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
 import { assessRecordedReview, caseObservations, recordedHistory, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
-import { cumulativeIncidence, fisherExact2x2, kaplanMeier, logRank, turnbull, wilsonInterval } from '@/lib/stats';
+import { cumulativeIncidence, fisherExact2x2, kaplanMeier, logRank, medianSurvival, restrictedMeanInterval, turnbull, wilsonInterval } from '@/lib/stats';
 import { createCase } from '@/lib/services/cases';
 import { outcomesByFactor, outcomesCsv, outcomesCurves, outcomesOverview } from '@/lib/services/outcomes';
 import { createPatient } from '@/lib/services/patients';
@@ -286,5 +286,38 @@ describe('survival curves (issue 12, item 3)', () => {
     const ci = cumulativeIncidence(rows);
     expect(r.curves.competing.map((c) => c.cause)).toEqual(['extraction']);
     expect(r.curves.competing[0]!.points.map((p) => p.incidence)).toEqual(ci.extraction!.map((s) => s.incidence));
+    expect(r.curves.logRank?.method).toMatch(/^log-rank test \(Mantel–Haenszel/);
+    expect(r.curves.logRank?.stratum).toBeNull();
+  });
+
+  it('a stratum makes the log-rank test stratified (lib/stats logRank with strata, as R survdiff + strata()); median and RMST per level equal lib/stats', async () => {
+    const r = await outcomesCurves(services.em(), world.auditor, { endpoint: 'healing', method: 'km', factor: 'kind', stratum: 'clinician' });
+    const who = (f: FixtureCase) => (f.who === 'cal' ? world.clinician.userId : world.clinician2.userId);
+    const groups = Object.fromEntries(
+      (['primary_treatment', 'nonsurgical_retreatment'] as const).map((kind) => [
+        kind,
+        CASES.filter((f) => f.kind === kind).map((f) => {
+          const i = healing(f);
+          return { time: i.right ?? i.left, event: i.right !== null, stratum: who(f) };
+        }),
+      ]),
+    );
+    const lr = logRank(groups);
+    expect(r.curves.stratum).toBe('clinician');
+    expect(r.curves.logRank?.method).toMatch(/^stratified log-rank test .*by clinician/);
+    expect(r.curves.logRank?.chiSquare).toBeCloseTo(lr.chiSquare, 12);
+    expect(r.curves.logRank?.pValue).toBeCloseTo(lr.pValue, 12);
+    // stratified and unstratified differ on this fixture (the stratum changes the test)
+    const plain = logRank(Object.fromEntries(Object.entries(groups).map(([k, v]) => [k, v.map(({ time, event }) => ({ time, event }))])));
+    expect(Math.abs(plain.chiSquare - lr.chiSquare)).toBeGreaterThan(1e-6);
+    // median (with R's interval) and the restricted mean to 48 months, per level, from the level's Kaplan–Meier curve
+    for (const [kind, level] of [['primary_treatment', 'Primary root canal treatment'], ['nonsurgical_retreatment', 'Non-surgical retreatment']] as const) {
+      const steps = km(CASES.filter((f) => f.kind === kind).map(healing));
+      const got = r.curves.curves.find((c) => c.level === level)!;
+      expect(got.median).toEqual(medianSurvival(steps));
+      expect(got.rmst).toEqual(steps[steps.length - 1]!.time >= 1461 ? restrictedMeanInterval(steps, 1461) : null);
+    }
+    // the stratum cannot be the split factor
+    await expect(outcomesCurves(services.em(), world.auditor, { factor: 'kind', stratum: 'kind' })).rejects.toMatchObject({ fieldErrors: { stratum: [expect.any(String)] } });
   });
 });

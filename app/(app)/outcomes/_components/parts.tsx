@@ -9,7 +9,7 @@ export const FILTER_KEYS = ['from', 'to', 'clinician', 'kind'] as const;
 /** The filters of the URL (strings as typed; the service validates them). */
 export function filtersOf(params: Record<string, string | string[] | undefined>): Record<string, string> {
   const out: Record<string, string> = {};
-  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method']) {
+  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method', 'stratum']) {
     const v = params[k];
     if (typeof v === 'string' && v !== '') out[k] = v;
   }
