@@ -34,14 +34,18 @@ export async function outcomesDataVersion(em: EntityManager, practiceId: string)
   return String(row?.version ?? 0);
 }
 
-/** The practice's rows, from the cache when its data version is unchanged, else from `read`. */
-export async function cachedOutcomeCases(em: EntityManager, practiceId: string, read: (em: EntityManager, practiceId: string) => Promise<OutcomeCase[]>): Promise<OutcomeCase[]> {
+/** The practice's rows and their data version, from the cache when the version is unchanged, else from `read`. */
+export async function cachedOutcomeCases(
+  em: EntityManager,
+  practiceId: string,
+  read: (em: EntityManager, practiceId: string) => Promise<OutcomeCase[]>,
+): Promise<{ rows: OutcomeCase[]; version: string }> {
   const version = await outcomesDataVersion(em, practiceId);
   const hit = cache.get(practiceId);
   if (hit && hit.version === version) {
     cache.delete(practiceId); // most recently used last
     cache.set(practiceId, hit);
-    return hit.rows;
+    return hit;
   }
   const key = `${practiceId}@${version}`;
   let pending = reading.get(key);
@@ -61,10 +65,34 @@ export async function cachedOutcomeCases(em: EntityManager, practiceId: string, 
       .finally(() => reading.delete(key));
     reading.set(key, pending);
   }
-  return (await pending).rows;
+  return pending;
 }
 
-/** Forget every cached practice (the benchmark's cold requests; tests). */
+/**
+ * A view's figures computed from the rows of one data version, kept for the next request that asks
+ * the same (key: the view, the effective filter and options, today, the minimum observation time).
+ * The figures are plain data that callers must not change (copy before renaming levels). At most
+ * MAX_VIEWS are kept, the least recently used going first; a new data version makes old keys
+ * unreachable (and they age out).
+ */
+const MAX_VIEWS = 48;
+const views = new Map<string, unknown>();
+export function memoView<T>(practiceId: string, version: string, key: readonly unknown[], compute: () => T): T {
+  const k = `${practiceId}@${version}:${JSON.stringify(key)}`;
+  if (views.has(k)) {
+    const v = views.get(k) as T;
+    views.delete(k);
+    views.set(k, v);
+    return v;
+  }
+  const v = compute();
+  views.set(k, v);
+  while (views.size > MAX_VIEWS) views.delete(views.keys().next().value!);
+  return v;
+}
+
+/** Forget every cached practice and view (the benchmark's cold requests; tests). */
 export function invalidateOutcomeCases(): void {
   cache.clear();
+  views.clear();
 }

@@ -6,7 +6,7 @@ import { applyFilter, byFactor, curves, type Curves, FACTORS, overview, type Fac
 import type { RecordedReview } from '@/lib/scoring';
 import { OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
-import { cachedOutcomeCases } from './outcomes-cache';
+import { cachedOutcomeCases, memoView } from './outcomes-cache';
 import { parseInput } from './parse';
 import { knexOf, practiceSettings, todayIn } from './registry-common';
 
@@ -91,16 +91,23 @@ export interface Scope {
   minObs: number;
   all: OutcomeCase[];
   clinicians: { id: string; name: string }[];
+  /** the practice's data version the rows are from (lib/services/outcomes-cache.ts) */
+  version: string;
+  /** a view's figures, kept for this data version, today and minimum observation time under `key` (the result must not be changed) */
+  memo: <T>(key: readonly unknown[], compute: () => T) => T;
 }
 
 export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQuery): Promise<Scope> {
   assertCan(actor, 'outcomes.read');
   const whole = seesWholePractice(actor);
   // the rows come from the per-practice cache while the practice's data version is unchanged
-  const [settings, all] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, readOutcomeCases)]);
+  const [settings, { rows: all, version }] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, readOutcomeCases)]);
   const clinicians = whole ? await practiceClinicians(em, actor) : [{ id: actor.userId, name: actor.name ?? actor.email }];
   const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId };
-  return { filter, own: !whole, today: todayIn(settings.timeZone), minObs: settings.minObservationDays, all, clinicians };
+  const today = todayIn(settings.timeZone);
+  const minObs = settings.minObservationDays;
+  const memo = <T>(key: readonly unknown[], compute: () => T): T => memoView(actor.practiceId, version, [...key, today, minObs], compute);
+  return { filter, own: !whole, today, minObs, all, clinicians, version, memo };
 }
 
 async function practiceClinicians(em: EntityManager, actor: Actor): Promise<{ id: string; name: string }[]> {
@@ -130,8 +137,8 @@ export interface OverviewReport {
 export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const result = overview(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
-  const practice = s.own ? overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs) : null;
+  const result = s.memo(['overview', s.filter], () => overview(applyFilter(s.all, s.filter), s.all, s.today, s.minObs));
+  const practice = s.own ? s.memo(['overview', { ...s.filter, clinician: undefined }], () => overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs)) : null;
   await audit(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(s.filter), cases: result.cases } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, overview: result, practice };
 }
@@ -148,10 +155,10 @@ export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unk
   const q = parseInput(OutcomeFactorQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
-  const table = byFactor(applyFilter(s.all, s.filter), factor, s.minObs);
+  let table = s.memo(['factor', s.filter, factor], () => byFactor(applyFilter(s.all, s.filter), factor, s.minObs));
   if (factor === 'clinician') {
     const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
-    for (const l of table.levels) l.level = names.get(l.level) ?? 'Former clinician';
+    table = { ...table, levels: table.levels.map((l) => ({ ...l, level: names.get(l.level) ?? 'Former clinician' })) };
   }
   await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(s.filter), factor } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, factor, table };
@@ -169,14 +176,11 @@ export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unkno
   const s = await scope(em, actor, q);
   const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
   const factor = (q.factor ?? null) as FactorKey | null;
-  const result = curves(applyFilter(s.all, s.filter), s.all, {
-    endpoint: q.endpoint,
-    method: q.method,
-    factor,
-    stratum: (q.stratum ?? null) as FactorKey | null,
-    minObs: s.minObs,
-    levelName: factor === 'clinician' ? (id) => names.get(id) ?? 'Former clinician' : undefined,
-  });
+  const stratum = (q.stratum ?? null) as FactorKey | null;
+  let result = s.memo(['curves', s.filter, q.endpoint, q.method, factor, stratum], () =>
+    curves(applyFilter(s.all, s.filter), s.all, { endpoint: q.endpoint, method: q.method, factor, stratum, minObs: s.minObs }),
+  );
+  if (factor === 'clinician') result = { ...result, curves: result.curves.map((c) => ({ ...c, level: names.get(c.level) ?? 'Former clinician' })) };
   await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}), ...(result.stratum ? { stratum: result.stratum } : {}) } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, curves: result };
 }
