@@ -32,7 +32,14 @@ begin
   end if;
   return null;
 end $$;`);
+    // TRUNCATE fires no row or delete triggers and names no practice: every version moves on
+    this.addSql(`create or replace function outcomes_data_bump_all() returns trigger language plpgsql as $$
+begin
+  update outcomes_data_version set version = version + 1;
+  return null;
+end $$;`);
     for (const t of TABLES) {
+      this.addSql(`create trigger "${t}_outcomes_trunc" after truncate on "${t}" for each statement execute function outcomes_data_bump_all();`);
       this.addSql(`create trigger "${t}_outcomes_ins" after insert on "${t}" referencing new table as changed_new for each statement execute function outcomes_data_bump();`);
       this.addSql(`create trigger "${t}_outcomes_upd" after update on "${t}" referencing old table as changed_old new table as changed_new for each statement execute function outcomes_data_bump();`);
       this.addSql(`create trigger "${t}_outcomes_del" after delete on "${t}" referencing old table as changed_old for each statement execute function outcomes_data_bump();`);
@@ -44,8 +51,10 @@ end $$;`);
       this.addSql(`drop trigger if exists "${t}_outcomes_ins" on "${t}";`);
       this.addSql(`drop trigger if exists "${t}_outcomes_upd" on "${t}";`);
       this.addSql(`drop trigger if exists "${t}_outcomes_del" on "${t}";`);
+      this.addSql(`drop trigger if exists "${t}_outcomes_trunc" on "${t}";`);
     }
     this.addSql(`drop function if exists outcomes_data_bump();`);
+    this.addSql(`drop function if exists outcomes_data_bump_all();`);
     this.addSql(`drop table if exists "outcomes_data_version";`);
   }
 }

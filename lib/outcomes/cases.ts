@@ -61,7 +61,7 @@ export function windowDays(months: number): number {
   return months <= 12 ? milestoneDays(3) : milestoneDays(6);
 }
 
-const daysOf = (c: OutcomeCase, r: RecordedReview) => daysBetween(c.completionDate, r.reviewDate);
+const daysOf = (c: OutcomeCase, r: RecordedReview) => daysSinceCompletion(c, r.reviewDate);
 
 /**
  * What the rules below derive from one case, computed once per case object and minimum observation
@@ -75,14 +75,28 @@ interface CaseMemo {
   afterAYear?: ReviewOutcome | null;
   healing?: Interval;
 }
-const caseMemo = new WeakMap<OutcomeCase, CaseMemo>();
+/** Kept on the case object under a symbol (invisible to JSON and Object.keys; faster than a WeakMap at 100,000 cases). */
+const MEMO = Symbol('outcomes memo');
+const COMPLETION_DAY = Symbol('completion day');
+type Memoised = OutcomeCase & { [MEMO]?: CaseMemo; [COMPLETION_DAY]?: number };
 function memoOf(c: OutcomeCase, minObs: number): CaseMemo {
-  let m = caseMemo.get(c);
+  const x = c as Memoised;
+  let m = x[MEMO];
   if (!m || m.minObs !== minObs) {
     m = { minObs, atMilestone: new Map() };
-    caseMemo.set(c, m);
+    Object.defineProperty(x, MEMO, { value: m, writable: true, enumerable: false, configurable: true });
   }
   return m;
+}
+/** Days from completion to `date`. */
+function daysSinceCompletion(c: OutcomeCase, date: CalendarDate): number {
+  const x = c as Memoised;
+  let day = x[COMPLETION_DAY];
+  if (day === undefined) {
+    day = daysBetween('1970-01-01', c.completionDate);
+    Object.defineProperty(x, COMPLETION_DAY, { value: day, enumerable: false });
+  }
+  return daysBetween('1970-01-01', date) - day;
 }
 const isTerminal = (r: RecordedReview) => r.toothStatus !== 'present';
 
@@ -92,7 +106,7 @@ export function outcomeOf(c: OutcomeCase, r: RecordedReview, minObservationDays:
 
 /** Whether the window of the milestone has ended by `today`. */
 export function isDue(c: OutcomeCase, months: number, today: CalendarDate): boolean {
-  return daysBetween(c.completionDate, today) >= milestoneDays(months) + windowDays(months);
+  return daysSinceCompletion(c, today) >= milestoneDays(months) + windowDays(months);
 }
 
 /** The outcome at a milestone, or null when the case was not seen then (see the top of this file). */

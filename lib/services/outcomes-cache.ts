@@ -72,10 +72,10 @@ export async function cachedOutcomeCases(
  * A view's figures computed from the rows of one data version, kept for the next request that asks
  * the same (key: the view, the effective filter and options, today, the minimum observation time).
  * The figures are plain data that callers must not change (copy before renaming levels). At most
- * MAX_VIEWS are kept, the least recently used going first; a new data version makes old keys
+ * MAX_VIEWS (128; a curves view is about 200 KB) are kept, the least recently used going first; a new data version makes old keys
  * unreachable (and they age out).
  */
-const MAX_VIEWS = 48;
+const MAX_VIEWS = 128;
 const views = new Map<string, unknown>();
 export function memoView<T>(practiceId: string, version: string, key: readonly unknown[], compute: () => T): T {
   const k = `${practiceId}@${version}:${JSON.stringify(key)}`;
