@@ -1,5 +1,5 @@
 import 'server-only';
-import type { EntityManager } from '@mikro-orm/postgresql';
+import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { writeCsv } from '@/lib/csv/write';
 import { applyFilter, byFactor, curves, type Curves, FACTORS, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
@@ -34,8 +34,31 @@ interface CaseRow {
 
 /** Every completed case of the practice (archived cases and patients left out), with its current reviews (not those a correction superseded) in date order. */
 export async function readOutcomeCases(em: EntityManager, practiceId: string): Promise<OutcomeCase[]> {
-  const knex = knexOf(em);
-  const rows = (await knex
+  // JIT off for this read: its cost estimate (100,000 sub-plans) makes PostgreSQL compile it, which
+  // costs more than it saves (about a quarter of the read at 100,000 cases; npm run bench -- outcomes)
+  const rows = await knexOf(em).transaction(async (knex) => {
+    await knex.raw('set local jit = off');
+    return readRows(knex, practiceId);
+  });
+  return rows.map((r) => ({
+    id: r.id,
+    patientId: r.patient_id,
+    operatorId: r.operator_id,
+    kind: r.kind,
+    completionDate: r.completion_date,
+    baselinePai: Number(r.pai_score),
+    lesionDiameterMm: Number(r.lesion_diameter_mm),
+    fillLengthClass: r.fill_length_class,
+    toothGroup: r.tooth_group,
+    toothArch: r.tooth_arch,
+    previousCaseId: r.previous_case_id,
+    openVisit: r.open_visit,
+    reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
+  }));
+}
+
+async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
+  return (await knex
     .select(
       'c.id',
       'c.patient_id',
@@ -60,21 +83,6 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
     .whereNull('p.archived_at')
     .whereNotNull('c.completion_date')
     .orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }])) as CaseRow[];
-  return rows.map((r) => ({
-    id: r.id,
-    patientId: r.patient_id,
-    operatorId: r.operator_id,
-    kind: r.kind,
-    completionDate: r.completion_date,
-    baselinePai: Number(r.pai_score),
-    lesionDiameterMm: Number(r.lesion_diameter_mm),
-    fillLengthClass: r.fill_length_class,
-    toothGroup: r.tooth_group,
-    toothArch: r.tooth_arch,
-    previousCaseId: r.previous_case_id,
-    openVisit: r.open_visit,
-    reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
-  }));
 }
 
 /** Whether the actor sees every clinician's cases (the lead) or only their own (a clinician). */
@@ -102,24 +110,24 @@ export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQue
   const whole = seesWholePractice(actor);
   // the rows come from the per-practice cache while the practice's data version is unchanged
   const [settings, { rows: all, version }] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, readOutcomeCases)]);
-  const clinicians = whole ? await practiceClinicians(em, actor) : [{ id: actor.userId, name: actor.name ?? actor.email }];
   const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId };
   const today = todayIn(settings.timeZone);
   const minObs = settings.minObservationDays;
   const memo = <T>(key: readonly unknown[], compute: () => T): T => memoView(actor.practiceId, version, [...key, today, minObs], compute);
+  // who treated the practice's cases, from the rows (kept per data version) rather than a scan of the cases
+  const operators = memoView(actor.practiceId, version, ['operators'], () => [...new Set(all.map((c) => c.operatorId))]);
+  const clinicians = whole ? await practiceClinicians(em, actor, operators) : [{ id: actor.userId, name: actor.name ?? actor.email }];
   return { filter, own: !whole, today, minObs, all, clinicians, version, memo };
 }
 
-async function practiceClinicians(em: EntityManager, actor: Actor): Promise<{ id: string; name: string }[]> {
+async function practiceClinicians(em: EntityManager, actor: Actor, operators: readonly string[]): Promise<{ id: string; name: string }[]> {
   const knex = knexOf(em);
   // Clinicians of the practice, and anyone else who treated one of its cases (a past clinician).
   const rows = (await knex
     .distinct('u.id', 'u.name', 'u.email')
     .from('app_user as u')
     .where((b) =>
-      b
-        .whereIn('u.id', knex('membership').select('user_id').where({ practice_id: actor.practiceId, role: 'clinician' }))
-        .orWhereIn('u.id', knex('treatment_case').select('operator_id').where({ practice_id: actor.practiceId })),
+      b.whereIn('u.id', knex('membership').select('user_id').where({ practice_id: actor.practiceId, role: 'clinician' })).orWhereIn('u.id', [...operators]),
     )
     .orderBy('u.name')) as { id: string; name: string | null; email: string }[];
   return rows.map((r) => ({ id: r.id, name: r.name ?? r.email }));
