@@ -8,10 +8,12 @@
  *     beyond a few thousand cases, so it makes a world of 5,000 cases (3,000 patients) and the
  *     bench copies it, each copy k moved k days earlier (every date) and with its own patients;
  *  2. times each outcomes API view by calling its service — what the route handler calls, with a
- *     fresh EntityManager fork per request (permission check, zod parse, the lean read, the engine,
- *     the audit event); not over HTTP, so JSON serialisation of the response is timed separately —
- *     and prints p50, p95 and max per view, then where the time of a cold request goes
- *     (SQL read, row mapping, engine) and the response size.
+ *     fresh EntityManager fork per request (permission check, zod parse, data version, the rows, the
+ *     engine, the audit event); not over HTTP, so JSON serialisation of the response is timed
+ *     separately. Per view: a cold request (no cached rows or figures: the first after a data change),
+ *     then BENCH_REQUESTS requests cycling through 7 filters; p50, p95 and max of those, split into the
+ *     first time a filter is asked (figures computed from the cached rows) and repeats (cached
+ *     figures). Also the read alone and the overview engine alone, and the response size.
  *
  *   npm run bench -- outcomes                      (throwaway services from scripts/bench.sh)
  *   DATABASE_URL=… npx tsx scripts/bench/outcomes.ts
