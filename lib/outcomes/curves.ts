@@ -61,6 +61,8 @@ export interface Curves {
   curves: Curve[];
   /** across the levels, on the visit dates; `method` names the test as the screen says it */
   logRank: { chiSquare: number; df: number; pValue: number; stratum: FactorKey | null; method: string } | null;
+  /** why there is no log-rank test although there are levels and events (its variance is singular) */
+  logRankNote: string | null;
   competing: { cause: string; points: { time: number; incidence: number; lower: number; upper: number }[] }[];
 }
 
@@ -135,11 +137,21 @@ export function curves(
   const withCases = byLevel.filter((g) => g.intervals.length > 0);
   const stratum = opts.stratum && opts.stratum !== opts.factor ? opts.stratum : null;
   let lr: Curves['logRank'] = null;
+  let logRankNote: string | null = null;
+  let r: ReturnType<typeof logRank> | null = null;
   if (withCases.length >= 2 && withCases.some((g) => g.intervals.some((i) => i.right !== null))) {
     const stratumOf = stratum ? FACTORS[stratum].level : null;
-    const r = logRank(
-      Object.fromEntries(withCases.map((g) => [g.level, g.obs.map((o) => (stratumOf ? { ...obsOf(o.i), stratum: stratumOf(o.c) } : obsOf(o.i)))])),
-    );
+    try {
+      r = logRank(Object.fromEntries(withCases.map((g) => [g.level, g.obs.map((o) => (stratumOf ? { ...obsOf(o.i), stratum: stratumOf(o.c) } : obsOf(o.i)))])));
+    } catch (e) {
+      // a singular variance: no event time (in any stratum) has two levels at risk, so the test has no information
+      if (!(e instanceof RangeError)) throw e;
+      logRankNote = stratum
+        ? `No stratified log-rank test: within no ${FACTORS[stratum].label.toLowerCase()} group do two levels share an event time with cases at risk.`
+        : 'No log-rank test: no event time has two levels with cases at risk.';
+    }
+  }
+  if (r) {
     lr = {
       chiSquare: r.chiSquare,
       df: r.df,
@@ -160,6 +172,7 @@ export function curves(
     stratum,
     curves: curveList,
     logRank: lr,
+    logRankNote,
     competing: Object.entries(ci).map(([cause, steps]) => ({ cause, points: steps.map((s) => ({ time: s.time, incidence: s.incidence, lower: s.lower, upper: s.upper })) })),
   };
 }

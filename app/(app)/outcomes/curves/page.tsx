@@ -119,7 +119,7 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
             <p data-testid="log-rank">
               {c.logRank
                 ? `${c.logRank.method.charAt(0).toUpperCase()}${c.logRank.method.slice(1)} across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): p ${c.logRank.pValue < 0.001 ? '< 0.001' : `= ${c.logRank.pValue.toFixed(3)}`}.`
-                : 'No log-rank test: choose a factor with at least two levels and some events.'}
+                : (c.logRankNote ?? 'No log-rank test: choose a factor with at least two levels and some events.')}
             </p>
             <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
               <table className="table-dense table-stack w-full" aria-label="Median and restricted mean survival" data-testid="median-rmst">
