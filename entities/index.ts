@@ -4,6 +4,7 @@ import { CaseDecisionSchema } from './CaseDecision';
 import { ContactLogEntrySchema } from './ContactLogEntry';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
+import { OutcomesDataVersionSchema } from './OutcomesDataVersion';
 import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
@@ -31,6 +32,7 @@ export const entities = [
   ContactLogEntrySchema,
   ReplyNonceSchema,
   CaseDecisionSchema,
+  OutcomesDataVersionSchema,
 ];
 
 export * from './AuditEvent';
@@ -38,6 +40,7 @@ export * from './CaseDecision';
 export * from './ContactLogEntry';
 export * from './Invitation';
 export * from './Membership';
+export * from './OutcomesDataVersion';
 export * from './Patient';
 export * from './Practice';
 export * from './RecallVisit';

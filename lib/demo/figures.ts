@@ -111,9 +111,12 @@ export function teethPerPatient(world: DemoWorld): { mean: number; max: number }
 }
 
 /**
- * Loss to follow-up: Kaplan–Meier of the time from completion to dropping out — the end of the
+ * The demo generator's dropout (its calibration, not a screen figure): Kaplan–Meier of the time from
+ * completion to dropping out of recall for good — the end of the
  * window of the first missed (or closed) visit after which the case has no attended review —
- * censored at today or at the tooth's event; the share lost by `days`.
+ * censored at today or at the tooth's event; the share dropped out by `days` (29–35% by four years).
+ * The registry's "lost to follow-up" is another quantity with one definition, lib/outcomes/cases.ts
+ * `lostAt` (due, outcome not known then), which the outcomes screens show.
  */
 export function lostBy(world: DemoWorld, days: number): number {
   const obs = world.cases.map((c) => {

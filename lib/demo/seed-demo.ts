@@ -117,7 +117,7 @@ async function seedPractice(em: EntityManager, def: { slug: string; name: string
 const SIGNS: readonly ReviewSign[] = ['painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain', 'swelling', 'sinusTract', 'mobility'];
 const noon = (date: string) => new Date(`${date}T12:00:00Z`);
 
-async function persistWorld(em: EntityManager, practiceId: string, world: DemoWorld, userIds: Map<string, string>, minObservationDays: number) {
+export async function persistWorld(em: EntityManager, practiceId: string, world: DemoWorld, userIds: Map<string, string>, minObservationDays: number) {
   const referrerIds = new Map(world.referrers.map((r) => [r.key, randomUUID()]));
   const caseIds = new Map(world.cases.map((c) => [c.key, randomUUID()]));
   const patientIds = new Map(world.patients.map((p) => [p.key, randomUUID()]));

@@ -14,7 +14,16 @@
  *   time) of the review in the window closest to the milestone (the later one on a tie).
  * - The **outcome at the latest review a year or more after completion**: a terminal event at any
  *   time, otherwise the latest review on day 365 or later.
- * - **Lost to follow-up**: a recall visit of the case closed as lost to follow-up.
+ * - **Lost to follow-up** (the one definition; `lostAt`): a case **due** for a milestone whose outcome
+ *   then is **not known** — at 12, 24 or 48 months: due and not seen in the window; at the registry's
+ *   primary endpoint, the latest review a year or more after completion: due for the 12-month review
+ *   and neither a review on or after day 365 nor a tooth event. This is loss to follow-up as outcome
+ *   studies count it — the participants whose outcome at the endpoint was not ascertained, whatever
+ *   the reason (recall rate = reviewed ÷ due; e.g. Ng et al. 2007, Int Endod J 40:921, report
+ *   recall rates so; STROBE item 13 asks for the numbers not followed). It does not depend on the
+ *   desk: a recall visit "closed — lost to follow-up" records that the practice stopped inviting,
+ *   one reason among others (missed, declined, never invited), and a case closed so and seen later
+ *   is not lost. `openVisit` tells how many lost cases the desk is still inviting.
  * - **Tooth loss**: lib/scoring `caseObservations` over the case's reviews and those of the cases
  *   that follow it on the same tooth (retreatment, surgery); each tooth counted once, from its
  *   earliest case in the selection.
@@ -46,8 +55,8 @@ export interface OutcomeCase {
   coronalRestoration?: string | null;
   definitiveRestoration?: string | null;
   referrerId?: string | null;
-  /** A recall visit of the case was closed as lost to follow-up. */
-  lost: boolean;
+  /** A recall visit of the case is still open (planned, invited, confirmed) or missed and not yet closed: the desk is still inviting. */
+  openVisit: boolean;
   /** Reviews in date order. */
   reviews: RecordedReview[];
 }
@@ -63,7 +72,43 @@ export function windowDays(months: number): number {
   return months <= 12 ? milestoneDays(3) : milestoneDays(6);
 }
 
-const daysOf = (c: OutcomeCase, r: RecordedReview) => daysBetween(c.completionDate, r.reviewDate);
+const daysOf = (c: OutcomeCase, r: RecordedReview) => daysSinceCompletion(c, r.reviewDate);
+
+/**
+ * What the rules below derive from one case, computed once per case object and minimum observation
+ * time: the outcomes service keeps the practice's rows between requests (lib/services/outcomes-cache.ts)
+ * so each view then costs a pass over cached facts. Rows are never changed after they are read; a
+ * changed case is a new object.
+ */
+interface CaseMemo {
+  minObs: number;
+  atMilestone: Map<number, ReviewOutcome | null>;
+  afterAYear?: ReviewOutcome | null;
+  healing?: Interval;
+}
+/** Kept on the case object under a symbol (invisible to JSON and Object.keys; faster than a WeakMap at 100,000 cases). */
+const MEMO = Symbol('outcomes memo');
+const COMPLETION_DAY = Symbol('completion day');
+type Memoised = OutcomeCase & { [MEMO]?: CaseMemo; [COMPLETION_DAY]?: number };
+function memoOf(c: OutcomeCase, minObs: number): CaseMemo {
+  const x = c as Memoised;
+  let m = x[MEMO];
+  if (!m || m.minObs !== minObs) {
+    m = { minObs, atMilestone: new Map() };
+    Object.defineProperty(x, MEMO, { value: m, writable: true, enumerable: false, configurable: true });
+  }
+  return m;
+}
+/** Days from completion to `date`. */
+function daysSinceCompletion(c: OutcomeCase, date: CalendarDate): number {
+  const x = c as Memoised;
+  let day = x[COMPLETION_DAY];
+  if (day === undefined) {
+    day = daysBetween('1970-01-01', c.completionDate);
+    Object.defineProperty(x, COMPLETION_DAY, { value: day, enumerable: false });
+  }
+  return daysBetween('1970-01-01', date) - day;
+}
 const isTerminal = (r: RecordedReview) => r.toothStatus !== 'present';
 
 export function outcomeOf(c: OutcomeCase, r: RecordedReview, minObservationDays: number): ReviewOutcome {
@@ -72,11 +117,21 @@ export function outcomeOf(c: OutcomeCase, r: RecordedReview, minObservationDays:
 
 /** Whether the window of the milestone has ended by `today`. */
 export function isDue(c: OutcomeCase, months: number, today: CalendarDate): boolean {
-  return daysBetween(c.completionDate, today) >= milestoneDays(months) + windowDays(months);
+  return daysSinceCompletion(c, today) >= milestoneDays(months) + windowDays(months);
 }
 
 /** The outcome at a milestone, or null when the case was not seen then (see the top of this file). */
 export function outcomeAtMilestone(c: OutcomeCase, months: number, minObservationDays: number): ReviewOutcome | null {
+  const m = memoOf(c, minObservationDays);
+  let o = m.atMilestone.get(months);
+  if (o === undefined) {
+    o = computeOutcomeAtMilestone(c, months, minObservationDays);
+    m.atMilestone.set(months, o);
+  }
+  return o;
+}
+
+function computeOutcomeAtMilestone(c: OutcomeCase, months: number, minObservationDays: number): ReviewOutcome | null {
   const at = milestoneDays(months);
   const w = windowDays(months);
   const terminal = c.reviews.find((r) => isTerminal(r) && daysOf(c, r) <= at + w);
@@ -97,10 +152,32 @@ export function outcomeAtMilestone(c: OutcomeCase, months: number, minObservatio
 
 /** The outcome at the latest review a year or more after completion (a terminal event at any time counts). */
 export function outcomeAfterAYear(c: OutcomeCase, minObservationDays: number): ReviewOutcome | null {
+  const m = memoOf(c, minObservationDays);
+  if (m.afterAYear === undefined) m.afterAYear = computeOutcomeAfterAYear(c, minObservationDays);
+  return m.afterAYear;
+}
+
+function computeOutcomeAfterAYear(c: OutcomeCase, minObservationDays: number): ReviewOutcome | null {
   const terminal = c.reviews.find(isTerminal);
   if (terminal) return outcomeOf(c, terminal, minObservationDays);
   const late = c.reviews.filter((r) => daysOf(c, r) >= 365);
   return late.length ? outcomeOf(c, late[late.length - 1]!, minObservationDays) : null;
+}
+
+/** A milestone in months, or 'latest': the latest review a year or more after completion. */
+export type FollowUpPoint = number | 'latest';
+
+/** The outcome at a milestone or at the latest review a year or more after completion. */
+export function outcomeAt(c: OutcomeCase, at: FollowUpPoint, minObservationDays: number): ReviewOutcome | null {
+  return at === 'latest' ? outcomeAfterAYear(c, minObservationDays) : outcomeAtMilestone(c, at, minObservationDays);
+}
+
+/**
+ * Lost to follow-up at a milestone (or at 'latest', due from the 12-month review on): due, and the
+ * outcome then is not known (the definition at the top of this file).
+ */
+export function lostAt(c: OutcomeCase, at: FollowUpPoint, today: CalendarDate, minObservationDays: number): boolean {
+  return isDue(c, at === 'latest' ? 12 : at, today) && outcomeAt(c, at, minObservationDays) === null;
 }
 
 export const isStrictSuccess = (o: ReviewOutcome) => o === 'healed';
@@ -111,27 +188,49 @@ export const isLenientSuccess = (o: ReviewOutcome) => o === 'healed' || o === 'h
  * selection, followed across the cases that come after it (taken from `all`).
  */
 export function toothLossObservations(selection: readonly OutcomeCase[], all: readonly OutcomeCase[], minObservationDays: number): Interval[] {
-  const next = new Map<string, OutcomeCase>();
-  for (const c of all) if (c.previousCaseId) next.set(c.previousCaseId, c);
+  return toothLossStarts(selection).map((c) => toothLossFrom(c, all, minObservationDays));
+}
+
+/** The cases of a selection that start a tooth's follow-up in it (the earliest case of each tooth in the selection), in selection order. */
+export function toothLossStarts(selection: readonly OutcomeCase[]): OutcomeCase[] {
   const selected = new Set(selection.map((c) => c.id));
-  const out: Interval[] = [];
-  for (const c of selection) {
-    if (c.previousCaseId && selected.has(c.previousCaseId)) continue;
-    const reviews: RecordedReview[] = [...c.reviews];
-    const seen = new Set([c.id]);
-    for (let n = next.get(c.id); n && !seen.has(n.id); n = next.get(n.id)) {
-      seen.add(n.id);
-      reviews.push(...n.reviews.filter((r) => r.reviewDate >= c.completionDate));
-    }
-    reviews.sort((a, b) => (a.reviewDate < b.reviewDate ? -1 : a.reviewDate > b.reviewDate ? 1 : 0));
-    out.push(caseObservations(recordedHistory({ completionDate: c.completionDate, baselinePai: c.baselinePai }, reviews), { minObservationDays }).toothLoss);
+  return selection.filter((c) => !(c.previousCaseId && selected.has(c.previousCaseId)));
+}
+
+/** Per `all` array: the case that follows each case on its tooth, and the tooth-loss observation from each case (memo). */
+const chainMemo = new WeakMap<readonly OutcomeCase[], { minObs: number; next: Map<string, OutcomeCase>; loss: Map<OutcomeCase, Interval> }>();
+
+/** The tooth-loss observation of the tooth followed from case `c` across the cases after it (taken from `all`). */
+export function toothLossFrom(c: OutcomeCase, all: readonly OutcomeCase[], minObservationDays: number): Interval {
+  let memo = chainMemo.get(all);
+  if (!memo || memo.minObs !== minObservationDays) {
+    const next = new Map<string, OutcomeCase>();
+    for (const x of all) if (x.previousCaseId) next.set(x.previousCaseId, x);
+    memo = { minObs: minObservationDays, next, loss: new Map() };
+    chainMemo.set(all, memo);
   }
-  return out;
+  const hit = memo.loss.get(c);
+  if (hit) return hit;
+  const next = memo.next;
+  const reviews: RecordedReview[] = [...c.reviews];
+  const seen = new Set([c.id]);
+  for (let n = next.get(c.id); n && !seen.has(n.id); n = next.get(n.id)) {
+    seen.add(n.id);
+    reviews.push(...n.reviews.filter((r) => r.reviewDate >= c.completionDate));
+  }
+  reviews.sort((a, b) => (a.reviewDate < b.reviewDate ? -1 : a.reviewDate > b.reviewDate ? 1 : 0));
+  const loss = caseObservations(recordedHistory({ completionDate: c.completionDate, baselinePai: c.baselinePai }, reviews), { minObservationDays }).toothLoss;
+  memo.loss.set(c, loss);
+  return loss;
 }
 
 /** Healing-endpoint observations of a selection (one per case). */
 export function healingObservations(selection: readonly OutcomeCase[], minObservationDays: number): Interval[] {
-  return selection.map(
-    (c) => caseObservations(recordedHistory({ completionDate: c.completionDate, baselinePai: c.baselinePai }, c.reviews), { minObservationDays }).healing,
-  );
+  return selection.map((c) => healingObservation(c, minObservationDays));
+}
+
+export function healingObservation(c: OutcomeCase, minObservationDays: number): Interval {
+  const m = memoOf(c, minObservationDays);
+  m.healing ??= caseObservations(recordedHistory({ completionDate: c.completionDate, baselinePai: c.baselinePai }, c.reviews), { minObservationDays }).healing;
+  return m.healing;
 }

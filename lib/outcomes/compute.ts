@@ -14,17 +14,20 @@ import {
   type CaseField,
 } from '@/lib/schemas/case';
 import { type CalendarDate } from '@/lib/registry/calendar-date';
-import type { Interval, ReviewOutcome } from '@/lib/scoring';
+import type { Interval } from '@/lib/scoring';
 import { chiSquareTest, fisherExact2x2, kaplanMeier, turnbull, wilsonInterval } from '@/lib/stats';
 import {
   isDue,
   isLenientSuccess,
   isStrictSuccess,
+  lostAt,
   milestoneDays,
   MILESTONES,
   outcomeAfterAYear,
+  outcomeAt,
   outcomeAtMilestone,
   SURVIVAL_YEARS,
+  type FollowUpPoint,
   toothLossObservations,
   type OutcomeCase,
 } from './cases';
@@ -89,25 +92,23 @@ export interface SuccessFigure {
   lenient: Rate;
   /** reviews scored uncertain at that time (neither success nor failure; not in n) */
   uncertain: number;
-  /** due cases whose outcome is not known then (not seen) */
+  /** lost to follow-up then (lib/outcomes/cases.ts `lostAt`: due, outcome not known) */
   missing: number;
-  /** lost cases counted as successes / as failures (item 6 of issue 12) */
+  /** the lost cases counted as successes / as failures (item 6 of issue 12) */
   strictBounds: { best: number | null; worst: number | null };
   lenientBounds: { best: number | null; worst: number | null };
 }
 
-function successFigure(cases: readonly OutcomeCase[], at: number | 'latest', today: CalendarDate, minObs: number): SuccessFigure {
-  const dueMonths = at === 'latest' ? 12 : at;
-  const outcomes: (ReviewOutcome | null)[] = cases.map((c) => (at === 'latest' ? outcomeAfterAYear(c, minObs) : outcomeAtMilestone(c, at, minObs)));
+function successFigure(cases: readonly OutcomeCase[], at: FollowUpPoint, today: CalendarDate, minObs: number): SuccessFigure {
   let n = 0;
   let strict = 0;
   let lenient = 0;
   let uncertain = 0;
   let missing = 0;
-  cases.forEach((c, i) => {
-    const o = outcomes[i];
-    if (o === null || o === undefined) {
-      if (isDue(c, dueMonths, today)) missing += 1;
+  cases.forEach((c) => {
+    const o = outcomeAt(c, at, minObs);
+    if (o === null) {
+      if (lostAt(c, at, today, minObs)) missing += 1;
       return;
     }
     if (o === 'uncertain') {
@@ -141,7 +142,10 @@ export interface Overview {
   today: CalendarDate;
   cases: number;
   reviewed: number;
+  /** lost to follow-up at the primary endpoint (`lostAt(c, 'latest')`) ÷ cases due for the 12-month review */
   lost: Rate;
+  /** of the lost cases, those the desk is still inviting (a recall visit open or missed, not closed) */
+  lostStillInvited: number;
   completeness: CompletenessFigure[];
   /** the lowest completeness is below COMPLETENESS_WARNING */
   warning: boolean;
@@ -184,6 +188,7 @@ export function overview(selection: readonly OutcomeCase[], all: readonly Outcom
     const seen = due.filter((c) => outcomeAtMilestone(c, months, minObs) !== null);
     return { months, rate: rate(seen.length, due.length) };
   });
+  const lost = selection.filter((c) => lostAt(c, 'latest', today, minObs));
   const intervals = toothLossObservations(selection, all, minObs);
   const km = kmOf(intervals);
   const tbOrNull = intervals.length > 0 && intervals.length <= TURNBULL_MAX ? turnbullOrNull(intervals) : null;
@@ -205,7 +210,8 @@ export function overview(selection: readonly OutcomeCase[], all: readonly Outcom
     today,
     cases: selection.length,
     reviewed: selection.filter((c) => c.reviews.length > 0).length,
-    lost: rate(selection.filter((c) => c.lost).length, selection.length),
+    lost: rate(lost.length, selection.filter((c) => isDue(c, 12, today)).length),
+    lostStillInvited: lost.filter((c) => c.openVisit).length,
     completeness,
     warning: completeness.some((c) => c.rate.n > 0 && (c.rate.estimate ?? 0) < COMPLETENESS_WARNING),
     success: [...MILESTONES, 'latest' as const].map((at) => successFigure(selection, at, today, minObs)),

@@ -81,8 +81,8 @@ export interface WorklistEntry {
   symptomatic: boolean;
   /** Days from completion to today. */
   daysSinceCompletion: number;
-  /** A recall visit of the case was closed as lost to follow-up. */
-  lost: boolean;
+  /** No recall visit of the case is open (planned, invited, confirmed or missed and not closed): nobody is inviting the patient back. */
+  noOpenVisit: boolean;
 }
 
 const SCORED_SIGNS = ['sinusTract', 'swelling', 'painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain'] as const;
@@ -111,7 +111,7 @@ export function worklistEntry(c: OutcomeCase, today: CalendarDate, minObservatio
     latestReviewDate: latestDate,
     symptomatic: latest.some((r: RecordedReview) => SCORED_SIGNS.some((s) => r.signs?.[s])),
     daysSinceCompletion: days,
-    lost: c.lost,
+    noOpenVisit: !c.openVisit,
   };
 }
 

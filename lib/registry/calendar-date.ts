@@ -9,7 +9,7 @@
  * round-trip exactly whatever `TZ` the server runs in. Nothing here calls the clock: "today"
  * is always passed in by the caller (in the practice's time zone).
  */
-import { addDays, addMonths, differenceInCalendarDays } from 'date-fns';
+import { addDays, addMonths } from 'date-fns';
 
 /** A calendar date written 'YYYY-MM-DD'. */
 export type CalendarDate = string;
@@ -67,7 +67,27 @@ export function addDaysTo(date: CalendarDate, days: number): CalendarDate {
 
 /** Whole days from `from` to `to` (positive when `to` is later). */
 export function daysBetween(from: CalendarDate, to: CalendarDate): number {
-  return differenceInCalendarDays(toLocalNoon(to), toLocalNoon(from));
+  return dayNumber(to) - dayNumber(from);
+}
+
+/**
+ * Days since 1970-01-01 of a calendar date: the proleptic Gregorian day count, so differences are
+ * whole calendar days whatever the time zone (as differenceInCalendarDays of the local noons, without
+ * its time-zone work: the outcomes area calls this millions of times). Kept per date string.
+ */
+const dayNumbers = new Map<string, number>();
+function dayNumber(date: CalendarDate): number {
+  let n = dayNumbers.get(date);
+  if (n === undefined) {
+    if (!isCalendarDate(date)) throw new RangeError(`Not a calendar date (YYYY-MM-DD): ${String(date)}`);
+    const [y, m, d] = date.split('-').map(Number) as [number, number, number];
+    const t = new Date(0);
+    t.setUTCFullYear(y, m - 1, d); // the full year, also 0–99
+    n = Math.round(t.getTime() / 86_400_000);
+    if (dayNumbers.size >= 50_000) dayNumbers.clear();
+    dayNumbers.set(date, n);
+  }
+  return n;
 }
 
 /** Orders two calendar dates: negative, zero or positive. 'YYYY-MM-DD' sorts as text. */

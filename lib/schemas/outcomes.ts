@@ -81,8 +81,10 @@ export const OutcomeCurvesQuery = z.intersection(
     endpoint: Endpoint,
     method: CurveMethod,
     factor: blankAsUndefined(z.enum(FACTOR_KEYS as [string, ...string[]], { error: `The factor is one of ${FACTOR_KEYS.join(', ')}.` })),
+    /** the log-rank test stratified by this factor (issue 12, item 3) */
+    stratum: blankAsUndefined(z.enum(FACTOR_KEYS as [string, ...string[]], { error: `The stratum is one of ${FACTOR_KEYS.join(', ')}.` })),
   }),
-);
+).refine((q) => !q.stratum || q.stratum !== q.factor, { message: 'Stratify by a factor other than the one the curves are split by.', path: ['stratum'] });
 
 /** The clinician audit (funnel plot): which strict-success measure, crude or risk-adjusted. */
 const FunnelChoice = z.object({

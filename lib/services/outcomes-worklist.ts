@@ -81,7 +81,7 @@ export interface WorklistRow {
   outcomeLabel: string;
   latestReviewDate: CalendarDate;
   symptomatic: boolean;
-  lost: boolean;
+  noOpenVisit: boolean;
   urgency: Urgency;
   urgencyLabel: string;
   decision: WorklistDecisionView | null;
@@ -191,7 +191,7 @@ async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Pro
       outcomeLabel: OUTCOME_LABELS[e.outcome],
       latestReviewDate: e.latestReviewDate,
       symptomatic: e.symptomatic,
-      lost: e.lost,
+      noOpenVisit: e.noOpenVisit,
       urgency: e.urgency,
       urgencyLabel: URGENCY_LABELS[e.urgency],
       decision: decisionOf.get(e.caseId) ?? null,
@@ -309,7 +309,7 @@ function asOutcomeCase(r: RuleRow): OutcomeCase {
     toothGroup: '',
     toothArch: 'upper',
     previousCaseId: r.previous_case_id,
-    lost: false,
+    openVisit: false,
     reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
   };
 }

@@ -1,5 +1,5 @@
 import 'server-only';
-import type { EntityManager } from '@mikro-orm/postgresql';
+import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { can } from '@/lib/auth/permissions';
 import { writeCsv } from '@/lib/csv/write';
@@ -7,6 +7,7 @@ import { applyFilter, byFactor, curves, type Curves, FACTORS, NO_REFERRER, overv
 import type { RecordedReview } from '@/lib/scoring';
 import { levelParams, OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
+import { cachedOutcomeCases, memoView } from './outcomes-cache';
 import { parseInput } from './parse';
 import { knexOf, practiceSettings, todayIn } from './registry-common';
 
@@ -35,45 +36,18 @@ interface CaseRow {
   coronal_restoration: string | null;
   definitive_restoration: string | null;
   referrer_id: string | null;
-  lost: boolean;
+  open_visit: boolean;
   reviews: { d: string; s: RecordedReview['toothStatus']; p: number | null; g: RecordedReview['signs']; e: string | null }[];
 }
 
-/** Every completed case of the practice (archived cases and patients left out), with its reviews in date order. */
+/** Every completed case of the practice (archived cases and patients left out), with its current reviews (not those a correction superseded) in date order. */
 export async function readOutcomeCases(em: EntityManager, practiceId: string): Promise<OutcomeCase[]> {
-  const knex = knexOf(em);
-  const rows = (await knex
-    .select(
-      'c.id',
-      'c.patient_id',
-      'c.operator_id',
-      'c.kind',
-      knex.raw('c.completion_date::text as completion_date'),
-      'c.pai_score',
-      'c.lesion_diameter_mm',
-      'c.fill_length_class',
-      'c.tooth_group',
-      'c.tooth_arch',
-      'c.previous_case_id',
-      'c.fill_density',
-      'c.sealer_class',
-      'c.filling_technique',
-      'c.complications',
-      'c.coronal_restoration',
-      'c.definitive_restoration',
-      'c.referrer_id',
-      knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status = 'closed') as lost`),
-      knex.raw(
-        `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews`,
-      ),
-    )
-    .from('treatment_case as c')
-    .join('patient as p', 'p.id', 'c.patient_id')
-    .where('c.practice_id', practiceId)
-    .whereNull('c.archived_at')
-    .whereNull('p.archived_at')
-    .whereNotNull('c.completion_date')
-    .orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }])) as CaseRow[];
+  // JIT off for this read: its cost estimate (100,000 sub-plans) makes PostgreSQL compile it, which
+  // costs more than it saves (about a quarter of the read at 100,000 cases; npm run bench -- outcomes)
+  const rows = await knexOf(em).transaction(async (knex) => {
+    await knex.raw('set local jit = off');
+    return readRows(knex, practiceId);
+  });
   return rows.map((r) => ({
     id: r.id,
     patientId: r.patient_id,
@@ -93,9 +67,37 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
     coronalRestoration: r.coronal_restoration,
     definitiveRestoration: r.definitive_restoration,
     referrerId: r.referrer_id,
-    lost: r.lost,
+    openVisit: r.open_visit,
     reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
   }));
+}
+
+async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
+  return (await knex
+    .select(
+      'c.id',
+      'c.patient_id',
+      'c.operator_id',
+      'c.kind',
+      knex.raw('c.completion_date::text as completion_date'),
+      'c.pai_score',
+      'c.lesion_diameter_mm',
+      'c.fill_length_class',
+      'c.tooth_group',
+      'c.tooth_arch',
+      'c.previous_case_id',
+      knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status in ('planned', 'invited', 'confirmed', 'missed')) as open_visit`),
+      knex.raw(
+        `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews`,
+      ),
+    )
+    .from('treatment_case as c')
+    .join('patient as p', 'p.id', 'c.patient_id')
+    .where('c.practice_id', practiceId)
+    .whereNull('c.archived_at')
+    .whereNull('p.archived_at')
+    .whereNotNull('c.completion_date')
+    .orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }])) as CaseRow[];
 }
 
 /** Whether the actor sees every clinician's cases (the lead) or only their own (a clinician). */
@@ -114,15 +116,25 @@ export interface Scope {
   clinicians: { id: string; name: string }[];
   /** The practice's referrers, named for a reader who may read patient records (`patient.read`), else empty. */
   referrers: { id: string; name: string }[];
+  /** the practice's data version the rows are from (lib/services/outcomes-cache.ts) */
+  version: string;
+  /** a view's figures, kept for this data version, today and minimum observation time under `key` (the result must not be changed) */
+  memo: <T>(key: readonly unknown[], compute: () => T) => T;
 }
 
 export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQuery): Promise<Scope> {
   assertCan(actor, 'outcomes.read');
   const whole = seesWholePractice(actor);
-  const [settings, all, referrers] = await Promise.all([practiceSettings(em, actor.practiceId), readOutcomeCases(em, actor.practiceId), practiceReferrers(em, actor)]);
-  const clinicians = whole ? await practiceClinicians(em, actor) : [{ id: actor.userId, name: actor.name ?? actor.email }];
+  // the rows come from the per-practice cache while the practice's data version is unchanged
+  const [settings, { rows: all, version }, referrers] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, readOutcomeCases), practiceReferrers(em, actor)]);
   const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId, levels: q.levels };
-  return { filter, own: !whole, today: todayIn(settings.timeZone), minObs: settings.minObservationDays, all, clinicians, referrers };
+  const today = todayIn(settings.timeZone);
+  const minObs = settings.minObservationDays;
+  const memo = <T>(key: readonly unknown[], compute: () => T): T => memoView(actor.practiceId, version, [...key, today, minObs], compute);
+  // who treated the practice's cases, from the rows (kept per data version) rather than a scan of the cases
+  const operators = memoView(actor.practiceId, version, ['operators'], () => [...new Set(all.map((c) => c.operatorId))]);
+  const clinicians = whole ? await practiceClinicians(em, actor, operators) : [{ id: actor.userId, name: actor.name ?? actor.email }];
+  return { filter, own: !whole, today, minObs, all, clinicians, referrers, version, memo };
 }
 
 /**
@@ -135,6 +147,9 @@ async function practiceReferrers(em: EntityManager, actor: Actor): Promise<{ id:
   const rows = (await knexOf(em).select('id', 'name').from('referrer').where({ practice_id: actor.practiceId }).orderBy('name')) as { id: string; name: string }[];
   return rows;
 }
+
+/** The names an open factor's levels carry, for the key of kept figures (a renamed clinician or referrer changes no data version). */
+const namesOf = (s: Pick<Scope, 'clinicians' | 'referrers'>, factor: FactorKey | null) => (factor === 'clinician' ? s.clinicians : factor === 'referrer' ? s.referrers : null);
 
 /** The words of an open factor's levels: clinicians and referrers by name (closed vocabularies name themselves). */
 export function levelNamer(s: Pick<Scope, 'clinicians' | 'referrers'>, factor: FactorKey | null): ((code: string) => string) | undefined {
@@ -149,16 +164,14 @@ export function levelNamer(s: Pick<Scope, 'clinicians' | 'referrers'>, factor: F
   return undefined;
 }
 
-async function practiceClinicians(em: EntityManager, actor: Actor): Promise<{ id: string; name: string }[]> {
+async function practiceClinicians(em: EntityManager, actor: Actor, operators: readonly string[]): Promise<{ id: string; name: string }[]> {
   const knex = knexOf(em);
   // Clinicians of the practice, and anyone else who treated one of its cases (a past clinician).
   const rows = (await knex
     .distinct('u.id', 'u.name', 'u.email')
     .from('app_user as u')
     .where((b) =>
-      b
-        .whereIn('u.id', knex('membership').select('user_id').where({ practice_id: actor.practiceId, role: 'clinician' }))
-        .orWhereIn('u.id', knex('treatment_case').select('operator_id').where({ practice_id: actor.practiceId })),
+      b.whereIn('u.id', knex('membership').select('user_id').where({ practice_id: actor.practiceId, role: 'clinician' })).orWhereIn('u.id', [...operators]),
     )
     .orderBy('u.name')) as { id: string; name: string | null; email: string }[];
   return rows.map((r) => ({ id: r.id, name: r.name ?? r.email }));
@@ -177,8 +190,8 @@ export interface OverviewReport {
 export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const result = overview(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
-  const practice = s.own ? overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs) : null;
+  const result = s.memo(['overview', s.filter], () => overview(applyFilter(s.all, s.filter), s.all, s.today, s.minObs));
+  const practice = s.own ? s.memo(['overview', { ...s.filter, clinician: undefined }], () => overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs)) : null;
   await audit(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(s.filter), cases: result.cases } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, overview: result, practice };
 }
@@ -198,10 +211,12 @@ export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unk
   const q = parseInput(OutcomeFactorQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
-  const selection = applyFilter(s.all, s.filter);
   const levelName = levelNamer(s, factor);
-  const table = byFactor(selection, factor, s.minObs, levelName);
-  const perLevel = curves(selection, s.all, { endpoint: q.endpoint, method: q.method, factor, minObs: s.minObs, levelName });
+  // the engine's figures are kept per data version and filter; the words of open factors (clinicians, referrers) are put on copies
+  const table = s.memo(['factor', s.filter, factor, namesOf(s, factor)], () => byFactor(applyFilter(s.all, s.filter), factor, s.minObs, levelName));
+  const perLevel = s.memo(['factor-curves', s.filter, factor, q.endpoint, q.method, namesOf(s, factor)], () =>
+    curves(applyFilter(s.all, s.filter), s.all, { endpoint: q.endpoint, method: q.method, factor, minObs: s.minObs, levelName }),
+  );
   await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(s.filter), factor } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, factor, table, curves: perLevel };
 }
@@ -218,14 +233,12 @@ export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unkno
   const q = parseInput(OutcomeCurvesQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = (q.factor ?? null) as FactorKey | null;
-  const result = curves(applyFilter(s.all, s.filter), s.all, {
-    endpoint: q.endpoint,
-    method: q.method,
-    factor,
-    minObs: s.minObs,
-    levelName: levelNamer(s, factor),
-  });
-  await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}) } });
+  const stratum = (q.stratum ?? null) as FactorKey | null;
+  const levelName = levelNamer(s, factor);
+  const result = s.memo(['curves', s.filter, q.endpoint, q.method, factor, stratum, namesOf(s, factor)], () =>
+    curves(applyFilter(s.all, s.filter), s.all, { endpoint: q.endpoint, method: q.method, factor, stratum, minObs: s.minObs, levelName }),
+  );
+  await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}), ...(result.stratum ? { stratum: result.stratum } : {}) } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, curves: result };
 }
 
@@ -246,12 +259,12 @@ export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overvi
     const header = ['Figure', 'At', 'Value %', '95% lower %', '95% upper %', 'n', 'Detail'];
     const rows: (string | number | null)[][] = [
       ['Cases followed', '', null, null, null, o.cases, `${o.reviewed} with a review`],
-      ['Lost to follow-up', '', pct(o.lost.estimate), pct(o.lost.lower), pct(o.lost.upper), o.lost.n, `${o.lost.x} cases`],
+      ['Lost to follow-up (due for the 12-month review, no outcome a year or more after treatment)', '', pct(o.lost.estimate), pct(o.lost.lower), pct(o.lost.upper), o.lost.n, `${o.lost.x} cases, ${o.lostStillInvited} still invited`],
       ...o.completeness.map((c) => ['Follow-up completeness', `${c.months} months`, pct(c.rate.estimate), pct(c.rate.lower), pct(c.rate.upper), c.rate.n, `${c.rate.x} seen`]),
       ...o.success.flatMap((f) => {
         const at = f.at === 'latest' ? 'latest review ≥ 12 months' : `${f.at} months`;
         return [
-          ['Success, strict (healed)', at, pct(f.strict.estimate), pct(f.strict.lower), pct(f.strict.upper), f.strict.n, `best ${pct(f.strictBounds.best) ?? ''}% / worst ${pct(f.strictBounds.worst) ?? ''}%; ${f.missing} not seen, ${f.uncertain} uncertain`],
+          ['Success, strict (healed)', at, pct(f.strict.estimate), pct(f.strict.lower), pct(f.strict.upper), f.strict.n, `best ${pct(f.strictBounds.best) ?? ''}% / worst ${pct(f.strictBounds.worst) ?? ''}%; ${f.missing} lost to follow-up, ${f.uncertain} uncertain`],
           ['Success, lenient (healed or healing)', at, pct(f.lenient.estimate), pct(f.lenient.lower), pct(f.lenient.upper), f.lenient.n, `best ${pct(f.lenientBounds.best) ?? ''}% / worst ${pct(f.lenientBounds.worst) ?? ''}%`],
         ];
       }),
@@ -265,6 +278,11 @@ export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overvi
     const header = ['Level', 'Method', 'Day', 'Survival', '95% lower', '95% upper'];
     const rows = c.curves.flatMap((cv) => cv.points.map((p) => [cv.level, c.method === 'km' ? 'Kaplan–Meier' : 'Turnbull', p.time, p.survival, p.lower ?? null, p.upper ?? null]));
     for (const cp of c.competing) rows.push(...cp.points.map((p) => [`Cumulative incidence: ${cp.cause}`, 'Aalen–Johansen', p.time, p.incidence, p.lower, p.upper]));
+    for (const cv of c.curves) {
+      rows.push([cv.level, 'Median survival, days (Kaplan–Meier)', null, cv.median.median, cv.median.lower, cv.median.upper]);
+      if (cv.rmst) rows.push([cv.level, `Restricted mean survival to day ${cv.rmst.tau} (Kaplan–Meier)`, cv.rmst.tau, cv.rmst.mean, cv.rmst.lower, cv.rmst.upper]);
+    }
+    if (c.logRank) rows.push([c.logRank.method, `chi-square ${c.logRank.chiSquare}, ${c.logRank.df} df`, null, c.logRank.pValue, null, null]);
     await audit(em, actor, { action: 'outcomes.exported', detail: { view } });
     return writeCsv(header, rows);
   }

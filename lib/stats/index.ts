@@ -20,6 +20,8 @@ export { wilsonInterval } from './wilson';
 export type { ProportionInterval } from './wilson';
 export { kaplanMeier, medianSurvival, restrictedMean } from './kaplan-meier';
 export type { SurvivalObservation, KaplanMeierStep, KaplanMeierOptions, ConfType, MedianSurvival } from './kaplan-meier';
+export { restrictedMeanInterval } from './restricted-mean';
+export type { RestrictedMeanInterval } from './restricted-mean';
 export { logRank } from './log-rank';
 export type { LogRankResult, LogRankObservation } from './log-rank';
 export { coxPH } from './cox';

@@ -46,6 +46,12 @@ async function walk(page: Page, who: string, testInfo: { outputPath: (name: stri
   await expect(atRisk.locator('tbody tr').first().locator('td').nth(1)).toHaveText(String(curves.curves.curves[0]!.atRisk[0]));
   await expect(page.getByTestId('survival-chart').locator('svg.recharts-surface').first()).toBeVisible();
   await expect(page.getByTestId('log-rank')).toContainText(/Log-rank|No log-rank/);
+  // median and restricted mean per level
+  await expect(page.getByTestId('median-rmst').getByRole('columnheader', { name: /Restricted mean to 48 months/ })).toBeVisible();
+  // a stratum in the URL makes the log-rank test stratified, and the screen says so
+  await page.goto('/outcomes/curves?endpoint=healing&method=km&factor=kind&stratum=group');
+  await expect(page.locator('#curves-stratum')).toHaveValue('group');
+  await expect(page.getByTestId('log-rank')).toContainText(/Stratified log-rank test .*by tooth group|No log-rank/);
   for (const width of [1366, 375]) {
     await page.setViewportSize({ width, height: 900 });
     await page.screenshot({ path: testInfo.outputPath(`outcomes-curves-${who}-${width}.png`), fullPage: true });

@@ -88,7 +88,7 @@ beforeAll(async () => {
       toothGroup: groupOf(f.tooth),
       toothArch: Math.floor(f.tooth / 10) <= 2 ? 'upper' : 'lower',
       previousCaseId: null,
-      lost: false,
+      openVisit: false,
       reviews: f.reviews.map((r) => ({ reviewDate: addDaysTo(DONE, r.day), toothStatus: r.status, paiScore: r.status === 'present' ? 1 : null, signs: {} })),
     });
   }

@@ -105,7 +105,7 @@ function fixtureRows(): OutcomeCase[] {
     toothGroup: 'molar',
     toothArch: 'lower',
     previousCaseId: null,
-    lost: false,
+    openVisit: false,
     reviews: f.reviews.map((r) => ({ reviewDate: addDaysTo(completion.get(f.key)!, r.day), toothStatus: r.status, paiScore: f.correctedTo ?? r.pai ?? null, signs: r.signs ?? {} })),
   }));
   for (const f of FIXTURES.filter((x) => x.followed)) rows.push({ ...rows[0]!, id: `later-${f.key}`, previousCaseId: ids.get(f.key)!, reviews: [] });

@@ -23,6 +23,7 @@ import {
   logRank,
   medianSurvival,
   restrictedMean,
+  restrictedMeanInterval,
   wilsonInterval,
   type ConfType,
   type SurvivalObservation,
@@ -184,6 +185,8 @@ interface RJson {
     medianLower: (number | null)[];
     medianUpper: (number | null)[];
     rmean: number[];
+    /** survival:::survmean's se(rmean) (the se print(survfit, rmean = tau) shows) */
+    rmeanSe: number[];
   }[];
   logRank: { id: string; groups: string[]; observed: number[]; expected: number[]; chiSquare: number[]; df: number[]; pValue: number[] }[];
   cox: {
@@ -289,6 +292,10 @@ describe('kaplanMeier, medianSurvival, restrictedMean vs R survfit', () => {
     close(med.lower, ref.medianLower[0], 'median lower');
     close(med.upper, ref.medianUpper[0], 'median upper');
     close(restrictedMean(steps, run.tau), ref.rmean[0], 'restricted mean');
+    // R survival: print(survfit, rmean = tau) / survival:::survmean, column se(rmean)
+    const rmst = restrictedMeanInterval(steps, run.tau, run.level);
+    close(rmst.mean, ref.rmean[0], 'restricted mean (with interval)');
+    close(rmst.se, ref.rmeanSe[0], 'restricted mean se');
   });
 });
 

@@ -88,7 +88,7 @@ function dataset(): { cases: OutcomeCase[]; truth: Truth[] } {
         toothGroup: group,
         toothArch: 'lower',
         previousCaseId: null,
-        lost: false,
+        openVisit: false,
         reviews,
       });
     }

@@ -31,7 +31,7 @@ kmOut <- lapply(seq_len(nrow(km)), function(i) {
            tau = num(km$tau[i]), time = num(fit$time), nRisk = num(fit$n.risk), nEvent = num(fit$n.event),
            nCensor = num(fit$n.censor), survival = num(fit$surv), lower = num(fit$lower), upper = num(fit$upper),
            median = num(tab["median"]), medianLower = num(tab[8]), medianUpper = num(tab[9]),
-           rmean = num(tab["rmean"])))
+           rmean = num(tab["rmean"]), rmeanSe = num(tab["se(rmean)"])))
 })
 
 grp <- rd("groups.csv")

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { applyFilter, byFactor, isDue, milestoneDays, outcomeAfterAYear, outcomeAtMilestone, rate, toothLossObservations, type OutcomeCase } from '@/lib/outcomes';
+import { applyFilter, byFactor, isDue, lostAt, milestoneDays, overview, outcomeAfterAYear, outcomeAtMilestone, rate, toothLossObservations, type OutcomeCase } from '@/lib/outcomes';
 import { addDaysTo } from '@/lib/registry/calendar-date';
 import { chiSquareTest } from '@/lib/stats';
 
@@ -21,7 +21,7 @@ function kase(change: Partial<OutcomeCase> = {}): OutcomeCase {
     toothGroup: 'molar',
     toothArch: 'lower',
     previousCaseId: null,
-    lost: false,
+    openVisit: false,
     reviews: [],
     ...change,
   };
@@ -50,6 +50,42 @@ describe('milestones', () => {
   it('the latest review a year or more after completion; none before a year', () => {
     expect(outcomeAfterAYear(kase({ reviews: [present(400, 1), present(800, 3)] }), 365)).toBe('healing');
     expect(outcomeAfterAYear(kase({ reviews: [present(200, 1)] }), 365)).toBeNull();
+  });
+
+  it('lost to follow-up: due, and the outcome then not known — whatever the desk did (one definition, lib/outcomes/cases.ts)', () => {
+    const today = at(800);
+    // due at 12 months (window ended day 456), no review: lost at 12 and at the ≥ 1-year endpoint
+    expect(lostAt(kase(), 12, today, 365)).toBe(true);
+    expect(lostAt(kase(), 'latest', today, 365)).toBe(true);
+    // seen at day 300 (inside the 12-month window) but never a year or more after: not lost at 12, lost for the latest-review endpoint
+    expect(lostAt(kase({ reviews: [present(300, 1)] }), 12, today, 365)).toBe(false);
+    expect(lostAt(kase({ reviews: [present(300, 1)] }), 'latest', today, 365)).toBe(true);
+    // a tooth event before the window's end is a known outcome: not lost
+    expect(lostAt(kase({ reviews: [{ reviewDate: at(200), toothStatus: 'extracted' as const, signs: {} }] }), 'latest', today, 365)).toBe(false);
+    // not due yet: not lost, however unseen
+    expect(lostAt(kase(), 24, today, 365)).toBe(false);
+    expect(lostAt(kase(), 'latest', at(400), 365)).toBe(false);
+    // a visit still open does not make a due, unseen case any less lost (it is counted as still invited)
+    expect(lostAt(kase({ openVisit: true }), 'latest', today, 365)).toBe(true);
+  });
+
+  it('the overview: lost ÷ due at 12 months, those still invited, and the bounds count the same lost cases', () => {
+    const today = at(800);
+    const rows = [
+      kase({ id: 'seen', reviews: [present(400, 1)] }),
+      kase({ id: 'healing', reviews: [present(400, 3)] }),
+      kase({ id: 'lost-closed' }),
+      kase({ id: 'lost-invited', openVisit: true }),
+      kase({ id: 'not-due', completionDate: at(500) }),
+    ];
+    const o = overview(rows, rows, today, 365);
+    expect([o.lost.x, o.lost.n]).toEqual([2, 4]);
+    expect(o.lostStillInvited).toBe(1);
+    const latest = o.success.find((f) => f.at === 'latest')!;
+    expect(latest.missing).toBe(2);
+    // strict: 1 healed of 2 judged; best (1 + 2) / 4, worst 1 / 4 (worst-case / best-case analysis, every lost case a success or a failure)
+    expect([latest.strict.x, latest.strict.n]).toEqual([1, 2]);
+    expect(latest.strictBounds).toEqual({ best: 3 / 4, worst: 1 / 4 });
   });
 
   it('a case is due once the window has ended', () => {

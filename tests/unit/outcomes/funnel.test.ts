@@ -30,7 +30,7 @@ function kase(change: Partial<OutcomeCase> & { success?: boolean } = {}): Outcom
     toothGroup: 'molar',
     toothArch: 'lower',
     previousCaseId: null,
-    lost: false,
+    openVisit: false,
     reviews,
     ...rest,
   };

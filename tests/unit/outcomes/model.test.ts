@@ -25,7 +25,7 @@ function kase(change: Partial<OutcomeCase> = {}): OutcomeCase {
     toothGroup: 'molar',
     toothArch: 'lower',
     previousCaseId: null,
-    lost: false,
+    openVisit: false,
     reviews: [],
     ...change,
   };

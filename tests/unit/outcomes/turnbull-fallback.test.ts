@@ -29,7 +29,7 @@ const kase = (id: string, sealerClass: string, pai: number): OutcomeCase => ({
   toothGroup: 'molar',
   toothArch: 'lower',
   previousCaseId: null,
-  lost: false,
+  openVisit: false,
   sealerClass,
   reviews: [{ reviewDate: addDaysTo(DONE, 400), toothStatus: 'present', paiScore: pai, signs: {} }],
 });

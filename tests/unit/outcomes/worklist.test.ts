@@ -24,7 +24,7 @@ function kase(change: Partial<OutcomeCase> = {}): OutcomeCase {
     toothGroup: 'molar',
     toothArch: 'lower',
     previousCaseId: null,
-    lost: false,
+    openVisit: false,
     reviews: [],
     ...change,
   };

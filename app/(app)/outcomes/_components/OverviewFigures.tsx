@@ -44,7 +44,16 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
           <p className="mt-1">
             <RateText r={o.lost} testId={`${idPrefix}-lost`} />
           </p>
-          <Method>cases with a recall visit closed as lost to follow-up ÷ cases followed; Wilson 95% interval.</Method>
+          {o.lostStillInvited > 0 ? (
+            <p className="text-sm text-ink-600" data-testid={`${idPrefix}-lost-invited`}>
+              {o.lostStillInvited} of them still being invited by the desk
+            </p>
+          ) : null}
+          <Method>
+            cases due for the 12-month review with no outcome known a year or more after treatment (no review from day 365 on, no extraction, retreatment or surgery)
+            ÷ cases due for the 12-month review, whatever the desk recorded (a visit closed as lost is one reason, and a case seen later is not lost); Wilson 95%
+            interval.
+          </Method>
         </div>
       </div>
 
@@ -56,9 +65,9 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
               <tr>
                 <th scope="col">When</th>
                 <th scope="col">Strict (healed)</th>
-                <th scope="col">If the cases not seen had all succeeded / failed</th>
+                <th scope="col">If the cases lost to follow-up had all succeeded / failed</th>
                 <th scope="col">Lenient (healed or healing)</th>
-                <th scope="col">Uncertain, not seen</th>
+                <th scope="col">Uncertain, lost to follow-up</th>
               </tr>
             </thead>
             <tbody>
@@ -70,7 +79,7 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
                   </td>
                   <td data-label="Best / worst">
                     {f.missing === 0 ? (
-                      <span className="text-sm text-ink-500">none missing</span>
+                      <span className="text-sm text-ink-500">none lost</span>
                     ) : (
                       <span className="text-sm">
                         best {pct(f.strictBounds.best)} · worst {pct(f.strictBounds.worst)}{' '}
@@ -84,7 +93,7 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
                     <RateText r={f.lenient} />
                   </td>
                   <td data-label="Not counted" className="text-sm">
-                    {f.uncertain} uncertain, {f.missing} not seen
+                    {f.uncertain} uncertain, {f.missing} lost
                   </td>
                 </tr>
               ))}
@@ -94,7 +103,7 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
         <Method>
           outcome of the review nearest the milestone (within 3 months at 12 months, 6 months later) by Lamina’s scoring rules, a retreatment, surgery or extraction found
           earlier counting as failure; “uncertain” (an unchanged lesion before the minimum observation time) is neither and is left out of n; Wilson 95% interval; best and
-          worst case count the due cases not seen as all successes or all failures.
+          worst case count the cases lost to follow-up then (due, outcome not known) as all successes or all failures.
         </Method>
       </div>
 

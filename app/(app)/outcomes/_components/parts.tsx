@@ -14,7 +14,7 @@ const isLevelKey = (k: string) => k.startsWith(LEVEL_PREFIX);
 /** The filters of the URL (strings as typed; the service validates them), level filters included. */
 export function filtersOf(params: Record<string, string | string[] | undefined>): Record<string, string> {
   const out: Record<string, string> = {};
-  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method', 'measure', 'adjust', ...Object.keys(params).filter(isLevelKey)]) {
+  for (const k of [...FILTER_KEYS, 'factor', 'endpoint', 'method', 'measure', 'adjust', 'stratum', ...Object.keys(params).filter(isLevelKey)]) {
     const v = params[k];
     if (typeof v === 'string' && v !== '') out[k] = v;
   }

@@ -1,6 +1,6 @@
 import type { Metadata } from 'next';
 import { requireActor } from '@/lib/auth/session';
-import { AT_RISK_MONTHS, FACTOR_KEYS, FACTORS, milestoneDays, TURNBULL_MAX, type Curve } from '@/lib/outcomes';
+import { AT_RISK_MONTHS, FACTOR_KEYS, FACTORS, milestoneDays, RMST_MONTHS, TURNBULL_MAX, type Curve } from '@/lib/outcomes';
 import { outcomesCurves, type CurvesReport } from '@/lib/services/outcomes';
 import { ValidationError } from '@/lib/services/errors';
 import { Notice } from '@/components/ui/Notice';
@@ -10,6 +10,9 @@ import { SurvivalChart } from '../_components/SurvivalChartLazy';
 import type { ChartSeries } from '../_components/SurvivalChart';
 
 export const metadata: Metadata = { title: 'Survival curves' };
+
+/** Days as months, one decimal (12 months = 365.25 days). */
+const months = (days: number) => ((days * 12) / 365.25).toFixed(1);
 
 const valueAt = (c: Curve, t: number) => {
   let v = 1;
@@ -62,6 +65,7 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
         {select('endpoint', c?.endpoint ?? filters.endpoint ?? 'healing', [['healing', 'Healing'], ['tooth', 'Tooth survival']], 'Endpoint')}
         {select('method', c?.asked ?? filters.method ?? 'turnbull', [['turnbull', 'Turnbull (failures found at visits)'], ['km', 'Kaplan–Meier (on visit dates)']], 'Method')}
         {select('factor', c?.factor ?? filters.factor ?? '', [['', 'No split'], ...FACTOR_KEYS.map((k): [string, string] => [k, FACTORS[k].label])], 'Split by')}
+        {select('stratum', c?.stratum ?? filters.stratum ?? '', [['', 'No stratum'], ...FACTOR_KEYS.map((k): [string, string] => [k, FACTORS[k].label])], 'Log-rank stratified by')}
         <button type="submit" className="btn-primary">
           Show
         </button>
@@ -119,13 +123,45 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
             </div>
             <p data-testid="log-rank">
               {c.logRank
-                ? `Log-rank test across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): p ${c.logRank.pValue < 0.001 ? '< 0.001' : `= ${c.logRank.pValue.toFixed(3)}`}.`
-                : 'No log-rank test: choose a factor with at least two levels and some events.'}
+                ? `${c.logRank.method.charAt(0).toUpperCase()}${c.logRank.method.slice(1)} across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): p ${c.logRank.pValue < 0.001 ? '< 0.001' : `= ${c.logRank.pValue.toFixed(3)}`}.`
+                : (c.logRankNote ?? 'No log-rank test: choose a factor with at least two levels and some events.')}
             </p>
+            <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
+              <table className="table-dense table-stack w-full" aria-label="Median and restricted mean survival" data-testid="median-rmst">
+                <thead>
+                  <tr>
+                    <th scope="col">Level</th>
+                    <th scope="col">Median (95% interval)</th>
+                    <th scope="col">Restricted mean to {RMST_MONTHS} months (95% interval)</th>
+                  </tr>
+                </thead>
+                <tbody>
+                  {c.curves.map((cv) => (
+                    <tr key={cv.level}>
+                      <td data-label="Level" className="font-semibold">
+                        {cv.level}
+                      </td>
+                      <td data-label="Median">
+                        {cv.median.median === null
+                          ? 'not reached'
+                          : `${months(cv.median.median)} mo (${cv.median.lower === null ? 'not reached' : months(cv.median.lower)}–${cv.median.upper === null ? 'not reached' : months(cv.median.upper)})`}
+                      </td>
+                      <td data-label={`Restricted mean to ${RMST_MONTHS} mo`}>
+                        {cv.rmst ? `${months(cv.rmst.mean)} mo (${months(cv.rmst.lower)}–${months(cv.rmst.upper)})` : `no case followed ${RMST_MONTHS} months`}
+                      </td>
+                    </tr>
+                  ))}
+                </tbody>
+              </table>
+            </div>
             <Method>
               {c.method === 'turnbull' ? 'Turnbull (NPMLE) for interval-censored times, survival at the end of each interval' : 'Kaplan–Meier with each event at the review that found it, log-scale 95% band (dotted); + marks a censored case'}
               ; days since completion, each {c.endpoint === 'tooth' ? 'tooth from its earliest case, followed through retreatment or surgery' : 'case censored at its last review'}; at risk = still
-              followed at that time; the log-rank test (Mantel–Haenszel, as R survdiff) uses the visit dates, since Lamina has no interval-censored test.
+              followed at that time; the {c.logRank?.method ?? 'log-rank test (Mantel–Haenszel, as R survdiff)'} uses the visit dates, since Lamina has no
+              interval-censored test{c.stratum ? ' (each stratum its own risk sets, summed before the χ²)' : ''}. Median and restricted mean from the Kaplan–Meier curve on
+              the visit dates whichever curve is drawn: the median where the curve reaches 50%, its interval where the 95% band does (as R print(survfit));
+              the restricted mean is the area under the curve to {RMST_MONTHS} months (time free of the event in the first {RMST_MONTHS} months), with R’s
+              standard error and mean ± 1.96 SE.
             </Method>
           </section>
           <section aria-labelledby="competing-title" className="space-y-3">

@@ -131,7 +131,7 @@ function Row({ r }: { r: WorklistRow }) {
         <div className="text-xs text-ink-500">
           {r.reasonLabel}
           {r.symptomatic ? '; signs or symptoms recorded' : ''}
-          {r.lost ? '; closed as lost to follow-up' : ''}
+          {r.noOpenVisit ? '; no recall visit open' : ''}
         </div>
       </td>
       <td data-label="Since completion">

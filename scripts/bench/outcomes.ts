@@ -1,0 +1,238 @@
+/**
+ * Benchmark of the outcomes area (issue 12) at scale:
+ *
+ *  1. seeds a fresh practice with 100,000 completed cases of the demo world's generator
+ *     (lib/demo/cases.ts: recall visits in every status, several reviews per case with healing,
+ *     disease, retreatments, surgery and extractions, follow-on cases on the same tooth) by bulk
+ *     insert (lib/demo/seed-demo.ts persistWorld), then VACUUM ANALYZE. The generator is slow
+ *     beyond a few thousand cases, so it makes a world of 5,000 cases (3,000 patients) and the
+ *     bench copies it, each copy k moved k days earlier (every date) and with its own patients;
+ *  2. times each outcomes API view by calling its service — what the route handler calls, with a
+ *     fresh EntityManager fork per request (permission check, zod parse, data version, the rows, the
+ *     engine, the audit event); not over HTTP, so JSON serialisation of the response is timed
+ *     separately. Per view: a cold request (no cached rows or figures: the first after a data change),
+ *     then BENCH_REQUESTS requests cycling through 7 filters; p50, p95 and max of those, split into the
+ *     first time a filter is asked (figures computed from the cached rows) and repeats (cached
+ *     figures). Also the read alone and the overview engine alone, and the response size.
+ *
+ *   npm run bench -- outcomes                      (throwaway services from scripts/bench.sh)
+ *   DATABASE_URL=… npx tsx scripts/bench/outcomes.ts
+ *   BENCH_CASES=20000 BENCH_REQUESTS=14 …          (smaller)
+ *   BENCH_KEEP=1 keeps the practice; BENCH_REUSE=1 reuses a kept one of the same size.
+ *
+ * The data are invented (the demo world's seeded generator: the same figures on every run).
+ */
+import { runUnderScriptsTsconfig } from '../lib/scripts-tsconfig';
+import { performance } from 'node:perf_hooks';
+
+await runUnderScriptsTsconfig(import.meta.url);
+
+const { MikroORM } = await import('@mikro-orm/postgresql');
+const { default: config } = await import('../../mikro-orm.config');
+const entities = await import('../../entities');
+const { generateDemoWorld } = await import('../../lib/demo/cases');
+type DemoWorld = import('../../lib/demo/cases').DemoWorld;
+const { addDaysTo } = await import('../../lib/registry/calendar-date');
+const { persistWorld } = await import('../../lib/demo/seed-demo');
+const { todayIn } = await import('../../lib/services/registry-common');
+const outcomes = await import('../../lib/services/outcomes');
+const lib = await import('../../lib/outcomes');
+const { DEFAULT_MIN_OBSERVATION_DAYS } = await import('../../lib/scoring');
+type Actor = import('../../lib/auth/actor').Actor;
+
+const N_CASES = Number(process.env.BENCH_CASES ?? 100_000);
+const N_REQUESTS = Number(process.env.BENCH_REQUESTS ?? 21);
+const KEEP = process.env.BENCH_KEEP === '1';
+const REUSE = process.env.BENCH_REUSE === '1';
+
+const orm = await MikroORM.init({ ...config, pool: { min: 0, max: 6 } });
+const conn = orm.em.getConnection();
+const today = todayIn('Europe/London');
+const slug = `bench-outcomes-${N_CASES}`;
+
+/** BENCH_CASES cases: copies of a 5,000-case demo world, copy k with every date k days earlier. */
+function replicatedWorld(): DemoWorld {
+  const unit = Math.min(5000, N_CASES);
+  const base = generateDemoWorld({ today, cases: unit, patients: Math.round(unit * 0.6) });
+  const copies = Math.ceil(N_CASES / unit);
+  const shift = (k: number) => <T>(v: T): T => {
+    if (typeof v === 'string') return (/^\d{4}-\d{2}-\d{2}$/.test(v) ? addDaysTo(v, -k) : v) as T;
+    if (Array.isArray(v)) return v.map(shift(k)) as T;
+    if (v && typeof v === 'object') return Object.fromEntries(Object.entries(v).map(([key, x]) => [key, shift(k)(x)])) as T;
+    return v;
+  };
+  const patients: DemoWorld['patients'] = [];
+  const cases: DemoWorld['cases'] = [];
+  for (let k = 0; k < copies; k++) {
+    const f = shift(k);
+    for (const p of base.patients) patients.push({ ...f(p), key: `${p.key}~${k}`, registryNumber: `${p.registryNumber}-${k}` });
+    for (const c of base.cases) {
+      if (cases.length >= N_CASES) break;
+      cases.push({ ...f(c), key: `${c.key}~${k}`, patientKey: `${c.patientKey}~${k}`, previousCaseKey: c.previousCaseKey ? `${c.previousCaseKey}~${k}` : null });
+    }
+  }
+  return { ...base, patients, cases };
+}
+
+// --- 1. seed (or reuse) ---------------------------------------------------------------------------
+const em0 = orm.em.fork();
+let practice = REUSE ? await em0.findOne(entities.PracticeSchema, { slug }) : null;
+let seedNote = '';
+if (practice) {
+  seedNote = `reused practice ${slug}`;
+} else {
+  const old = await em0.findOne(entities.PracticeSchema, { slug });
+  if (old) await removePractice(old.id);
+  const t0 = performance.now();
+  const world = replicatedWorld();
+  const genMs = performance.now() - t0;
+  practice = em0.create(entities.PracticeSchema, { name: 'Bench Outcomes (invented)', slug, recallPolicy: world.practice.recallPolicy });
+  const made: [string, { id: string }][] = [];
+  const emails = new Set([...world.staff.map((s) => s.email), ...world.clinicians]);
+  for (const c of world.cases) {
+    emails.add(c.operatorEmail);
+    for (const v of c.visits) if (v.review) emails.add(v.review.assessorEmail);
+    for (const r of c.unplannedReviews) emails.add(r.assessorEmail);
+  }
+  for (const [i, email] of [...emails].entries()) {
+    const u = em0.create(entities.UserSchema, { email: `staff${i + 1}.${slug}@bench.invalid`, name: `Bench Clinician ${i + 1}` });
+    made.push([email, u]);
+    em0.create(entities.MembershipSchema, { user: u, practice, role: 'clinician' });
+  }
+  const lead = em0.create(entities.UserSchema, { email: `lead.${slug}@bench.invalid`, name: 'Bench Lead' });
+  em0.create(entities.MembershipSchema, { user: lead, practice, role: 'auditor' });
+  await em0.flush();
+  const userIds = new Map(made.map(([email, u]) => [email, u.id]));
+  const seeded = await persistWorld(orm.em.fork(), practice.id, world, userIds, DEFAULT_MIN_OBSERVATION_DAYS);
+  for (const t of ['patient', 'treatment_case', 'recall_visit', 'review']) await conn.execute(`vacuum analyze ${t}`);
+  seedNote = `seeded ${seeded.cases.toLocaleString('en-GB')} cases, ${seeded.patients.toLocaleString('en-GB')} patients, ${seeded.visits.toLocaleString('en-GB')} visits, ${seeded.reviews.toLocaleString('en-GB')} reviews in ${((performance.now() - t0) / 1000).toFixed(1)} s (generation ${(genMs / 1000).toFixed(1)} s)`;
+}
+const lead = await em0.findOneOrFail(entities.UserSchema, { email: `lead.${slug}@bench.invalid` });
+const actor: Actor = {
+  userId: lead.id,
+  email: lead.email,
+  name: 'Bench Lead',
+  practiceId: practice.id,
+  practiceName: practice.name,
+  roles: ['auditor'],
+  ip: '127.0.0.1',
+  userAgent: 'bench',
+};
+
+// --- 2. the views -----------------------------------------------------------------------------------
+type Query = Record<string, string>;
+type View = { name: string; run: (q: Query) => Promise<unknown> };
+const fresh = () => orm.em.fork();
+const VIEWS: View[] = [
+  { name: 'overview', run: (q) => outcomes.outcomesOverview(fresh(), actor, q) },
+  { name: 'factor (kind)', run: (q) => outcomes.outcomesByFactor(fresh(), actor, { ...q, factor: 'kind' }) },
+  { name: 'factor (lesion)', run: (q) => outcomes.outcomesByFactor(fresh(), actor, { ...q, factor: 'lesion' }) },
+  { name: 'curves healing KM', run: (q) => outcomes.outcomesCurves(fresh(), actor, { ...q, endpoint: 'healing', method: 'km' }) },
+  { name: 'curves healing Turnbull', run: (q) => outcomes.outcomesCurves(fresh(), actor, { ...q, endpoint: 'healing', method: 'turnbull' }) },
+  { name: 'curves tooth KM', run: (q) => outcomes.outcomesCurves(fresh(), actor, { ...q, endpoint: 'tooth', method: 'km' }) },
+  { name: 'curves tooth Turnbull', run: (q) => outcomes.outcomesCurves(fresh(), actor, { ...q, endpoint: 'tooth', method: 'turnbull' }) },
+  { name: 'curves healing KM by kind', run: (q) => outcomes.outcomesCurves(fresh(), actor, { ...q, endpoint: 'healing', method: 'km', factor: 'kind' }) },
+  { name: 'curves KM by kind, stratum', run: (q) => outcomes.outcomesCurves(fresh(), actor, { ...q, endpoint: 'healing', method: 'km', factor: 'kind', stratum: 'group' }) },
+  { name: 'export overview CSV', run: (q) => outcomes.outcomesCsv(fresh(), actor, 'overview', q) },
+  { name: 'export factor CSV', run: (q) => outcomes.outcomesCsv(fresh(), actor, 'factor', { ...q, factor: 'kind' }) },
+  { name: 'export curves CSV', run: (q) => outcomes.outcomesCsv(fresh(), actor, 'curves', { ...q, endpoint: 'healing', method: 'km' }) },
+];
+// The filters a lead clicks through: the whole practice, each of two clinicians, each of two kinds, a year, two years.
+const clinicianIds = ((await conn.execute('select distinct operator_id from treatment_case where practice_id = ? limit 2', [practice.id])) as { operator_id: string }[]).map((r) => r.operator_id);
+const year = (back: number) => ({ from: `${Number(today.slice(0, 4)) - back}-01-01`, to: `${Number(today.slice(0, 4)) - back}-12-31` });
+const FILTERS: Query[] = [
+  {},
+  ...clinicianIds.map((clinician) => ({ clinician })),
+  { kind: 'primary_treatment' },
+  { kind: 'nonsurgical_retreatment' },
+  year(1),
+  { from: year(3).from, to: year(2).to },
+];
+
+const quantile = (xs: number[], p: number) => {
+  const s = [...xs].sort((a, b) => a - b);
+  return s[Math.min(s.length - 1, Math.max(0, Math.ceil(p * s.length) - 1))]!;
+};
+const cache = await import('../../lib/services/outcomes-cache').catch(() => null);
+const invalidate = () => (cache && 'invalidateOutcomeCases' in cache ? cache.invalidateOutcomeCases() : undefined);
+
+// Where a request's time goes, measured once before the timed runs.
+const tRead0 = performance.now();
+const rows = await outcomes.readOutcomeCases(fresh(), practice.id);
+const readMs = performance.now() - tRead0;
+const tOv = performance.now();
+lib.overview(rows, rows, today, DEFAULT_MIN_OBSERVATION_DAYS);
+const overviewEngineMs = performance.now() - tOv;
+const tOv2 = performance.now();
+lib.overview(rows, rows, today, DEFAULT_MIN_OBSERVATION_DAYS);
+const overviewEngineAgainMs = performance.now() - tOv2;
+
+// cold: the first request after the practice's data changed (no cached rows, no cached figures)
+const coldMs: Record<string, number> = {};
+const bytes: Record<string, number> = {};
+const jsonMs: Record<string, number> = {};
+for (const v of VIEWS) {
+  invalidate();
+  const t0 = performance.now();
+  const out = await v.run({});
+  coldMs[v.name] = performance.now() - t0;
+  const t1 = performance.now();
+  const body = typeof out === 'string' ? out : JSON.stringify(out);
+  jsonMs[v.name] = performance.now() - t1;
+  bytes[v.name] = Buffer.byteLength(body);
+}
+
+// then N_REQUESTS per view, cycling through FILTERS: the first time each filter is asked the figures are
+// computed (rows cached), later times they come from the cache of figures (same data version)
+const first = new Map<string, number[]>(VIEWS.map((v) => [v.name, []]));
+const again = new Map<string, number[]>(VIEWS.map((v) => [v.name, []]));
+const asked = new Set<string>();
+for (let i = 0; i < N_REQUESTS; i++) {
+  for (const v of VIEWS) {
+    const q = FILTERS[i % FILTERS.length]!;
+    const key = `${v.name}|${JSON.stringify(q)}`;
+    const t0 = performance.now();
+    await v.run(q);
+    (asked.has(key) ? again : first).get(v.name)!.push(performance.now() - t0);
+    asked.add(key);
+  }
+}
+
+// --- report -------------------------------------------------------------------------------------------
+const counts = (await conn.execute(
+  `select (select count(*) from treatment_case where practice_id = ?) cases, (select count(*) from review where practice_id = ?) reviews`,
+  [practice.id, practice.id],
+)) as { cases: string; reviews: string }[];
+const num = (n: number | undefined) => (n === undefined ? '–' : n.toFixed(1)).padStart(9);
+const all = [...first.values(), ...again.values()].flat();
+console.log(`\nOutcomes benchmark (${today}; PostgreSQL ${(await conn.execute('show server_version'))[0].server_version}; Node ${process.version}; load average ${(await import('node:os')).loadavg().map((x) => x.toFixed(1)).join(' ')})`);
+console.log(seedNote);
+console.log(`practice: ${Number(counts[0]!.cases).toLocaleString('en-GB')} cases, ${Number(counts[0]!.reviews).toLocaleString('en-GB')} reviews; ${rows.length.toLocaleString('en-GB')} completed cases read`);
+console.log(`read of the rows (readOutcomeCases): ${readMs.toFixed(0)} ms; overview engine on them: ${overviewEngineMs.toFixed(0)} ms first, ${overviewEngineAgainMs.toFixed(0)} ms again (per-case facts memoised)`);
+console.log(`\nservices called directly (as the route handlers call them; not over HTTP), fresh EntityManager fork per request;`);
+console.log(`cold = first request after a data change; then ${N_REQUESTS} requests per view cycling through ${FILTERS.length} filters (${cache ? 'figures computed the first time a filter is asked, from the cache of figures after' : 'every request reads and computes'})`);
+console.log(`${'view'.padEnd(30)}${'cold ms'.padStart(9)}${'p50 ms'.padStart(9)}${'p95 ms'.padStart(9)}${'max ms'.padStart(9)}${'1st p50'.padStart(9)}${'1st p95'.padStart(9)}${'rpt p50'.padStart(9)}${'rpt p95'.padStart(9)}${'JSON ms'.padStart(9)}${'KB'.padStart(7)}`);
+let worst = 0;
+for (const v of VIEWS) {
+  const f = first.get(v.name)!;
+  const a = again.get(v.name)!;
+  const xs = [...f, ...a];
+  worst = Math.max(worst, quantile(xs, 0.95));
+  const q = (ys: number[], p: number) => (ys.length ? quantile(ys, p) : undefined);
+  console.log(
+    `${v.name.padEnd(30)}${num(coldMs[v.name])}${num(q(xs, 0.5))}${num(q(xs, 0.95))}${num(Math.max(...xs))}${num(q(f, 0.5))}${num(q(f, 0.95))}${num(q(a, 0.5))}${num(q(a, 0.95))}${num(jsonMs[v.name])}${String(Math.round(bytes[v.name]! / 1024)).padStart(7)}`,
+  );
+}
+console.log(`\nall views: p50 ${quantile(all, 0.5).toFixed(0)} ms, p95 ${quantile(all, 0.95).toFixed(0)} ms; worst per-view p95 ${worst.toFixed(0)} ms (goal: under 300 ms)`);
+
+async function removePractice(id: string) {
+  await conn.execute('delete from audit_event where practice_id = ?', [id]);
+  await conn.execute('delete from practice where id = ?', [id]);
+  await conn.execute('delete from app_user where email like ?', [`%.${slug}@bench.invalid`]);
+}
+if (!KEEP) {
+  const t = performance.now();
+  await removePractice(practice.id);
+  console.log(`(bench practice removed in ${((performance.now() - t) / 1000).toFixed(1)} s; BENCH_KEEP=1 keeps it)`);
+}
+await orm.close(true);
