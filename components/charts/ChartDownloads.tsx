@@ -14,7 +14,7 @@ export function ChartDownloads({ filename, title, children }: { filename: string
 
   const download = async (format: 'svg' | 'png') => {
     setProblem(null);
-    const svg = box.current?.querySelector('svg');
+    const svg = box.current ? chartSvg(box.current) : null;
     if (!svg || !box.current) {
       setProblem('The chart is not drawn yet; try again in a moment.');
       return;
@@ -75,6 +75,12 @@ const PROPS = [
 const FALLBACK_FONTS = 'Inter, "Helvetica Neue", Arial, sans-serif';
 const TITLE_HEIGHT = 36;
 const LEGEND_ROW = 18;
+
+/** The chart's first <svg>, legend icons left out (recharts may draw its HTML legend, with an svg per entry, before the chart). */
+export function chartSvg(container: Element): SVGSVGElement | null {
+  const all = Array.from(container.querySelectorAll('svg'));
+  return all.find((s) => !s.closest('li, .recharts-legend-wrapper') && !s.parentElement?.closest('svg')) ?? all[0] ?? null;
+}
 
 /** The chart's svg as a standalone document: styles inlined, white background, title, legend. */
 export function standaloneSvg(svg: SVGSVGElement, container: Element, title: string): { text: string; width: number; height: number } {
