@@ -100,6 +100,7 @@ test('a clinician records a re-review and then a retreatment, which opens a link
   await again.getByLabel('Next step').selectOption('retreat');
   await again.getByLabel('Planned for').fill(inDays(14));
   await again.getByLabel('Apical diagnosis (starts the new case)').selectOption('asymptomatic_apical_periodontitis');
+  await again.getByLabel('Note (optional, 300 characters)').fill('Retreat in two weeks');
   await again.getByRole('button', { name: 'Record the next step' }).click();
   await expect(page.getByText('A new case of the tooth was opened')).toBeVisible();
   await expect(row.getByTestId('worklist-later-case')).toContainText('Non-surgical retreatment');
@@ -107,7 +108,7 @@ test('a clinician records a re-review and then a retreatment, which opens a link
   await expect(row.getByTestId('worklist-decision')).toContainText('1 earlier step kept');
   await page.screenshot({ path: testInfo.outputPath('worklist-clinician-after-1366.png'), fullPage: true });
   const repeat = await page.request.post(`/api/outcomes/worklist/${target!.caseId}/decisions`, {
-    data: { step: 'retreat', date: inDays(14), apicalDiagnosis: 'asymptomatic_apical_periodontitis' },
+    data: { step: 'retreat', date: inDays(14), note: 'Retreat in two weeks', apicalDiagnosis: 'asymptomatic_apical_periodontitis' },
   });
   expect(repeat.status()).toBe(200);
   expect(((await repeat.json()) as { created: boolean }).created).toBe(false);
