@@ -66,8 +66,9 @@ export interface FunnelReport {
 
 /** The funnel of a scope, the points named as the actor may see them (no audit: callers audit). */
 export function funnelOfScope(s: Scope, measure: FunnelMeasure, adjust: 'crude' | 'adjusted', actorId: string): FunnelReport {
-  const selection = applyFilter(s.all, { ...s.filter, clinician: undefined });
-  const f = funnel(selection, measure, s.minObs);
+  // every clinician of the period and kind; kept per data version like the other views (lib/services/outcomes-cache.ts)
+  const practiceFilter = { ...s.filter, clinician: undefined };
+  const f = s.memo(['funnel', practiceFilter, measure], () => funnel(applyFilter(s.all, practiceFilter), measure, s.minObs));
   const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
   let other = 0;
   const points: FunnelPoint[] = f.units.map((u) => {

@@ -34,11 +34,13 @@ async function compute(em: EntityManager, actor: Actor, raw: unknown) {
   const s = await scope(em, actor, q);
   const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
   const choices = covariateChoices(q);
-  const result = multivariable(applyFilter(s.all, s.filter), s.all, choices, {
-    endpoint: q.endpoint,
-    minObs: s.minObs,
-    levelName: (key, level) => (key === 'clinician' ? (names.get(level) ?? 'Former clinician') : level),
-  });
+  const result = s.memo(['model', s.filter, choices, q.endpoint, s.clinicians], () =>
+    multivariable(applyFilter(s.all, s.filter), s.all, choices, {
+      endpoint: q.endpoint,
+      minObs: s.minObs,
+      levelName: (key, level) => (key === 'clinician' ? (names.get(level) ?? 'Former clinician') : level),
+    }),
+  );
   const chosen = { covariates: choices.map((c) => c.key), lesionAs: q.lesionAs, paiAs: q.paiAs };
   return { s, q, result, chosen };
 }
