@@ -86,6 +86,13 @@ async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
       'c.tooth_group',
       'c.tooth_arch',
       'c.previous_case_id',
+      'c.fill_density',
+      'c.sealer_class',
+      'c.filling_technique',
+      'c.complications',
+      'c.coronal_restoration',
+      'c.definitive_restoration',
+      'c.referrer_id',
       knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status in ('planned', 'invited', 'confirmed', 'missed')) as open_visit`),
       knex.raw(
         `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews`,
