@@ -93,16 +93,33 @@ export function transferSyntaxLabel(uid: string): string {
   return known ? `${known.name} (${uid})` : `an unknown transfer syntax (${uid})`;
 }
 
-function parse(bytes: Uint8Array): dicomParser.DataSet {
+function failure(e: unknown): DicomReadError {
+  const text = typeof e === 'string' ? e : e instanceof Error ? e.message : String((e as { exception?: unknown })?.exception ?? e);
+  if (/buffer overread|beyond|end of|overrun|past/i.test(text)) {
+    return new DicomReadError('truncated', 'The DICOM file ends early (it was cut short, perhaps in the transfer): send the whole file again.');
+  }
+  return new DicomReadError('corrupt', 'The DICOM file could not be read: its header is damaged. Export it again from the imaging software.');
+}
+
+/**
+ * The file meta group first (always Explicit VR Little Endian, PS3.10 §7.1): a transfer syntax
+ * Lamina does not read is refused by name before its data set is parsed; then the whole file.
+ */
+function parse(bytes: Uint8Array): { ds: dicomParser.DataSet; uid: string } {
   if (!hasDicomPreamble(bytes)) throw new DicomReadError('corrupt', 'This is not a DICOM file: the “DICM” marker after the 128-byte preamble is missing.');
+  let meta: dicomParser.DataSet;
   try {
-    return dicomParser.parseDicom(bytes);
+    meta = dicomParser.readPart10Header(bytes);
   } catch (e) {
-    const text = typeof e === 'string' ? e : e instanceof Error ? e.message : String((e as { exception?: unknown })?.exception ?? e);
-    if (/buffer overread|beyond|end of|overrun|past/i.test(text)) {
-      throw new DicomReadError('truncated', 'The DICOM file ends early (it was cut short, perhaps in the transfer): send the whole file again.');
-    }
-    throw new DicomReadError('corrupt', 'The DICOM file could not be read: its header is damaged. Export it again from the imaging software.');
+    throw failure(e);
+  }
+  const uid = clean(meta.string('x00020010'));
+  if (!uid) throw new DicomReadError('corrupt', 'The DICOM file names no transfer syntax (tag 0002,0010 is missing).');
+  assertAccepted(uid);
+  try {
+    return { ds: dicomParser.parseDicom(bytes), uid };
+  } catch (e) {
+    throw failure(e);
   }
 }
 
@@ -128,12 +145,6 @@ function spacing(ds: dicomParser.DataSet, tag: string): [number, number] | null 
   return [row, col];
 }
 
-function transferSyntaxOf(ds: dicomParser.DataSet): string {
-  const uid = clean(ds.string('x00020010'));
-  if (!uid) throw new DicomReadError('corrupt', 'The DICOM file names no transfer syntax (tag 0002,0010 is missing).');
-  return uid;
-}
-
 function readTags(ds: dicomParser.DataSet, uid: string): DicomFilm {
   const rows = ds.uint16('x00280010') ?? 0;
   const columns = ds.uint16('x00280011') ?? 0;
@@ -156,9 +167,7 @@ function readTags(ds: dicomParser.DataSet, uid: string): DicomFilm {
 
 /** The tags of a DICOM file (no pixel decoding); refuses a transfer syntax Lamina does not decode. */
 export function readDicomTags(bytes: Uint8Array): DicomFilm {
-  const ds = parse(bytes);
-  const uid = transferSyntaxOf(ds);
-  assertAccepted(uid);
+  const { ds, uid } = parse(bytes);
   return readTags(ds, uid);
 }
 
@@ -172,9 +181,7 @@ function assertAccepted(uid: string) {
 
 /** The tags and the pixels, windowed to 8 bits (see `toEightBit`). */
 export function readDicom(bytes: Uint8Array): { film: DicomFilm; image: GrayImage } {
-  const ds = parse(bytes);
-  const uid = transferSyntaxOf(ds);
-  assertAccepted(uid);
+  const { ds, uid } = parse(bytes);
   const film = readTags(ds, uid);
   const el = ds.elements.x7fe00010;
   if (!el) throw new DicomReadError('truncated', 'The DICOM file has no pixel data: it may have been cut short. Send the whole file again.');
