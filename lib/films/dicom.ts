@@ -114,7 +114,7 @@ function parse(bytes: Uint8Array): { ds: dicomParser.DataSet; uid: string } {
     throw failure(e);
   }
   const uid = clean(meta.string('x00020010'));
-  if (!uid) throw new DicomReadError('corrupt', 'The DICOM file names no transfer syntax (tag 0002,0010 is missing).');
+  if (!uid) throw new DicomReadError('corrupt', 'The DICOM file could not be read: it names no transfer syntax (tag 0002,0010 is missing).');
   assertAccepted(uid);
   try {
     return { ds: dicomParser.parseDicom(bytes), uid };
