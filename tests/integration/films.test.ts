@@ -8,7 +8,7 @@ import type { Actor } from '@/lib/auth/actor';
 import { env } from '@/lib/env';
 import { createCase } from '@/lib/services/cases';
 import { createPatient } from '@/lib/services/patients';
-import { uploadFilm } from '@/lib/services/films';
+import { uploadFilm, type FilmView } from '@/lib/services/films';
 import { getObject } from '@/lib/storage/s3';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
 import { TS, drawRadiograph, filmDicom } from '../support/film-fixtures';
@@ -42,6 +42,15 @@ async function world() {
   return { a, patient, c };
 }
 
+/** An upload's answer: the film, or a refusal. */
+interface Answer {
+  film: FilmView;
+  created: boolean;
+  error?: string;
+  message?: string;
+  fieldErrors: Record<string, string[]>;
+}
+
 function as(actor: Actor) {
   state.actor = actor;
 }
@@ -52,7 +61,7 @@ async function upload(caseId: string, bytes: Uint8Array | Buffer, name: string, 
   for (const [k, v] of Object.entries(fields)) form.set(k, v);
   const req = new Request(`${origin}/api/cases/${caseId}/films`, { method: 'POST', headers: { Origin: origin, 'Sec-Fetch-Site': 'same-origin' }, body: form });
   const res = await uploadRoute(req, { params: Promise.resolve({ id: caseId }) });
-  return { status: res.status, body: (await res.json()) as Record<string, any> };
+  return { status: res.status, body: (await res.json()) as Answer };
 }
 
 async function fetchFile(id: string, variant: string) {
@@ -62,7 +71,7 @@ async function fetchFile(id: string, variant: string) {
 
 async function list(caseId: string) {
   const res = await listRoute(new Request(`${origin}/api/cases/${caseId}/films`), { params: Promise.resolve({ id: caseId }) });
-  return { status: res.status, body: (await res.json()) as { films: Record<string, any>[] } };
+  return { status: res.status, body: (await res.json()) as { films: FilmView[] } };
 }
 
 /** Every object key the bucket holds under a case. */
@@ -196,7 +205,7 @@ describe('uploading films', () => {
     const r = await upload(w.c.id, fixture('jpeg2000.dcm'), 'j2k.dcm');
     expect(r.status).toBe(415);
     expect(r.body.message).toContain('JPEG 2000 Image Compression (Lossless Only) (1.2.840.10008.1.2.4.90)');
-    expect(r.body.fieldErrors.file[0]).toContain('1.2.840.10008.1.2.4.90');
+    expect(r.body.fieldErrors.file![0]).toContain('1.2.840.10008.1.2.4.90');
   });
 
   it('a retry of the same file for the same role keeps one film; another role is another film', async () => {
