@@ -122,11 +122,12 @@ export async function uploadFilm(
   actor: Actor,
   caseId: string,
   fields: unknown,
-  bytes: Uint8Array,
+  bytes: Uint8Array | null,
 ): Promise<FilmUploadResult> {
   assertCan(actor, 'film.upload');
   const c = await findCase(em, actor, caseId);
   const input = parseInput(FilmUploadFields, fields);
+  if (!bytes) throw new ValidationError('Some fields need attention.', { file: ['Choose a film to upload (PNG, JPEG or DICOM).'] });
   let visitId: string | null = null;
   if (input.visitId) {
     const visit = await em.findOne(RecallVisitSchema, { id: assertIdOr422(input.visitId), case: c.id, practice: actor.practiceId }, { fields: ['id'] });

@@ -32,12 +32,11 @@ export const POST = handler<P>(
       throw new ValidationError('The upload could not be read: send the film as the form field “file” of a multipart form.');
     });
     const file = form.get('file');
-    if (!file || typeof file === 'string') {
-      throw new ValidationError('Some fields need attention.', { file: ['Choose a film to upload (PNG, JPEG or DICOM).'] });
-    }
-    if (file.size > max) throw tooLarge();
+    const hasFile = file !== null && typeof file !== 'string';
+    if (hasFile && file.size > max) throw tooLarge();
     const fields = { role: form.get('role') ?? undefined, visitId: form.get('visitId') ?? undefined };
-    const result = await uploadFilm(em, actor, id, fields, new Uint8Array(await file.arrayBuffer()));
+    // Without a file the service still answers for the case first (404 for another practice's), then 422.
+    const result = await uploadFilm(em, actor, id, fields, hasFile ? new Uint8Array(await file.arrayBuffer()) : null);
     return json(result, result.created ? 201 : 200);
   },
   { accept: ['multipart/form-data'] },
