@@ -9,8 +9,13 @@
  * process 14 (1.2.840.10008.1.2.4.57) and its first-order prediction variant (.70). Any other
  * syntax is refused with its name and UID (DICOM PS3.6 Annex A, registry of UIDs).
  */
-import * as dicomParser from 'dicom-parser';
+import * as dicomParserModule from 'dicom-parser';
 import { Decoder } from 'jpeg-lossless-decoder-js';
+import type { DataSet, Element } from 'dicom-parser';
+
+// dicom-parser ships one UMD file: bundlers (vitest, Next) expose its names on the namespace, Node's
+// own ESM loader (tsx scripts, the bench) only as `default`. Take whichever holds them.
+const dicomParser = ((dicomParserModule as unknown as { default?: typeof dicomParserModule }).default ?? dicomParserModule) as typeof dicomParserModule;
 
 export const DICOM_PREAMBLE_LENGTH = 128;
 
@@ -105,9 +110,9 @@ function failure(e: unknown): DicomReadError {
  * The file meta group first (always Explicit VR Little Endian, PS3.10 §7.1): a transfer syntax
  * Lamina does not read is refused by name before its data set is parsed; then the whole file.
  */
-function parse(bytes: Uint8Array): { ds: dicomParser.DataSet; uid: string } {
+function parse(bytes: Uint8Array): { ds: DataSet; uid: string } {
   if (!hasDicomPreamble(bytes)) throw new DicomReadError('corrupt', 'This is not a DICOM file: the “DICM” marker after the 128-byte preamble is missing.');
-  let meta: dicomParser.DataSet;
+  let meta: DataSet;
   try {
     meta = dicomParser.readPart10Header(bytes);
   } catch (e) {
@@ -138,14 +143,14 @@ export function dicomDate(da: string | null | undefined): string | null {
   return `${m[1]}-${m[2]}-${m[3]}`;
 }
 
-function spacing(ds: dicomParser.DataSet, tag: string): [number, number] | null {
+function spacing(ds: DataSet, tag: string): [number, number] | null {
   const row = ds.floatString(tag, 0);
   const col = ds.floatString(tag, 1);
   if (row === undefined || col === undefined || !Number.isFinite(row) || !Number.isFinite(col) || row <= 0 || col <= 0 || row > 10 || col > 10) return null;
   return [row, col];
 }
 
-function readTags(ds: dicomParser.DataSet, uid: string): DicomFilm {
+function readTags(ds: DataSet, uid: string): DicomFilm {
   const rows = ds.uint16('x00280010') ?? 0;
   const columns = ds.uint16('x00280011') ?? 0;
   if (!rows || !columns) throw new DicomReadError('corrupt', 'The DICOM file has no image size (Rows and Columns are missing).');
@@ -238,7 +243,7 @@ function rawBytes(bytes: Uint8Array, offset: number, length: number, need: numbe
   return bytes.subarray(offset, offset + need);
 }
 
-function decodeJpegLossless(ds: dicomParser.DataSet, el: dicomParser.Element, bitsAllocated: number, count: number): ArrayLike<number> {
+function decodeJpegLossless(ds: DataSet, el: Element, bitsAllocated: number, count: number): ArrayLike<number> {
   let frame: Uint8Array;
   try {
     const fragments = el.fragments ?? [];

@@ -32,12 +32,18 @@ const RUNS = Number(process.env.BENCH_FILM_RUNS ?? 5);
 
 // --- the films (drawn once; each run changes one pixel so no upload is a repeat) ------------------------
 const t0 = performance.now();
-const side = 2236; // 2236² × 2 bytes ≈ 10.0 MB of 16-bit pixels
+const side = 2300; // 2300² × 2 bytes = 10.1 MiB of 16-bit pixels
 const dicomFilm = drawRadiograph(side, side, 21);
 const dicom = filmDicom(dicomFilm, { transferSyntax: TS.explicitLE, pixelSpacing: [0.019, 0.019], patientName: 'Mere^Rowan', patientId: 'B-000001', acquisitionDate: '20250310', windowCenter: 2048, windowWidth: 4096 });
 const lossless = filmDicom(dicomFilm, { transferSyntax: TS.jpegLossless70, pixelSpacing: [0.019, 0.019], patientName: 'Mere^Rowan', patientId: 'B-000001' });
-let jpeg = await filmJpeg(drawRadiograph(3600, 2700, 22), 100);
-for (let w = 3600; jpeg.length < 5 * 1024 * 1024 && w < 8000; w += 400) jpeg = await filmJpeg(drawRadiograph(w, Math.round(w * 0.75), 22), 100);
+// A 5 MB JPEG: try a size, then scale the pixel count to the bytes wanted (JPEG bytes grow with pixels).
+const TARGET = 5.2 * 1024 * 1024;
+let w = 3000;
+let jpeg = await filmJpeg(drawRadiograph(w, w * 0.75, 22), 100);
+if (jpeg.length < 5 * 1024 * 1024) {
+  w = Math.ceil((w * Math.sqrt(TARGET / jpeg.length)) / 4) * 4;
+  jpeg = await filmJpeg(drawRadiograph(w, w * 0.75, 22), 100);
+}
 console.log(`films drawn in ${((performance.now() - t0) / 1000).toFixed(1)} s: DICOM ${(dicom.length / 1048576).toFixed(1)} MB (${side}×${side}, 16-bit), JPEG Lossless DICOM ${(lossless.length / 1048576).toFixed(1)} MB, JPEG ${(jpeg.length / 1048576).toFixed(1)} MB`);
 
 // --- a practice, a patient and one case per run -----------------------------------------------------------
