@@ -20,8 +20,11 @@ test('a clinician uploads two films to a case and sees their thumbnails', async 
       familyName: 'Ashdown',
       dateOfBirth: '1971-04-12',
       sex: 'female',
-      recallContact: false,
+      email: `wren.${stamp}@patients.test.invalid`,
+      recallContact: true,
+      recallChannel: 'email',
       researchUse: false,
+      consentDate: '2025-01-10',
     },
   });
   expect(patient.status(), await patient.text()).toBe(201);
