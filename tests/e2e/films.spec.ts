@@ -69,8 +69,8 @@ test('a clinician uploads two films to a case and sees their thumbnails', async 
   await expect(page.getByText('Quill')).toHaveCount(0); // the other patient is never shown
   // The thumbnails load through the authorised route.
   for (const img of await grid.getByRole('img').all()) {
-    await expect(img).toHaveJSProperty('complete', true);
-    expect(await img.evaluate((el) => (el as HTMLImageElement).naturalWidth)).toBeGreaterThan(0);
+    await img.scrollIntoViewIfNeeded(); // (loading="lazy")
+    await expect.poll(() => img.evaluate((el) => ((el as HTMLImageElement).complete ? (el as HTMLImageElement).naturalWidth : 0))).toBeGreaterThan(0);
   }
 
   // Not an image, whatever its name: refused, with a retry button; a retry of a stored file keeps no copy.
