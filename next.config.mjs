@@ -3,7 +3,10 @@ const nextConfig = {
   distDir: process.env.NEXT_DIST_DIR || '.next',
   poweredByHeader: false,
   // forbidden() and app/forbidden.tsx: pages answer 403 with Lamina's own page.
-  experimental: { authInterrupts: true },
+  // proxyClientMaxBodySize: proxy.ts runs on every request and Next buffers a body for it up to
+  // this size, cutting longer ones short (10 MB by default): a film upload may be up to FILM_MAX_MB
+  // (lib/env.ts, at most 60) plus the multipart framing.
+  experimental: { authInterrupts: true, proxyClientMaxBodySize: '64mb' },
   // The registry is health data: never let a page be framed or sniffed. These are
   // lib/security/headers.ts's STATIC_HEADERS (a unit test holds them equal); the CSP with its
   // nonce and HSTS are set per response by proxy.ts.

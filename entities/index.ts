@@ -2,6 +2,7 @@
 import { AuditEventSchema } from './AuditEvent';
 import { CaseDecisionSchema } from './CaseDecision';
 import { ContactLogEntrySchema } from './ContactLogEntry';
+import { FilmSchema } from './Film';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
 import { OutcomesDataVersionSchema } from './OutcomesDataVersion';
@@ -33,11 +34,13 @@ export const entities = [
   ReplyNonceSchema,
   CaseDecisionSchema,
   OutcomesDataVersionSchema,
+  FilmSchema,
 ];
 
 export * from './AuditEvent';
 export * from './CaseDecision';
 export * from './ContactLogEntry';
+export * from './Film';
 export * from './Invitation';
 export * from './Membership';
 export * from './OutcomesDataVersion';

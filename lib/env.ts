@@ -46,6 +46,20 @@ export const EnvSchema = z
     SIGNIN_LINKS_PER_ACCOUNT: z.coerce.number().int().positive().default(5),
     SIGNIN_LINKS_PER_ADDRESS: z.coerce.number().int().positive().default(20),
     SIGNIN_LINK_WINDOW_SECONDS: z.coerce.number().int().positive().default(3600),
+    /**
+     * Films (lib/storage/s3.ts): S3-compatible object storage, path-style addressing. The defaults
+     * are the local S3 fake that `npm start` runs (scripts/s3-fake.ts, credentials S3RVER).
+     */
+    S3_URL: z.url().default('http://127.0.0.1:4569'),
+    S3_BUCKET: z
+      .string()
+      .regex(/^[a-z0-9][a-z0-9.-]{1,61}[a-z0-9]$/, 'S3_BUCKET must be a valid bucket name')
+      .default('lamina-films'),
+    S3_REGION: z.string().min(1).max(40).default('us-east-1'),
+    S3_ACCESS_KEY_ID: z.string().min(1).default('S3RVER'),
+    S3_SECRET_ACCESS_KEY: z.string().min(1).default('S3RVER'),
+    /** The largest film file accepted for upload, in MB (lib/films/limits.ts; a larger one is 413). */
+    FILM_MAX_MB: z.coerce.number().int().positive().max(60, 'FILM_MAX_MB is at most 60 (next.config.mjs proxyClientMaxBodySize is 64 MB)').default(40),
   })
   .transform((e, ctx) => {
     // `next build` evaluates modules without the runtime secret; the running server must have one.

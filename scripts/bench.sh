@@ -2,9 +2,9 @@
 # npm run bench [-- NAME...]: run every benchmark under scripts/bench/ (*.ts, with tsx), or
 # only those whose file name contains one of NAME, and print their output.
 #
-# Benchmarks get throwaway services like npm test: PostgreSQL (migrated), Redis and the SMTP
-# fake in a temporary dir on free ports, with DATABASE_URL, REDIS_URL, SMTP_URL, MAILBOX_URL
-# exported, plus R and Python (for reference figures) installed. Everything is stopped and
+# Benchmarks get throwaway services like npm test: PostgreSQL (migrated), Redis, the SMTP
+# fake and the S3 fake in a temporary dir on free ports, with DATABASE_URL, REDIS_URL, SMTP_URL,
+# MAILBOX_URL and S3_URL exported, plus R and Python (for reference figures) installed. Everything is stopped and
 # removed at exit. Exits non-zero if any benchmark failed.
 set -euo pipefail
 
@@ -25,7 +25,7 @@ if ((${#benches[@]} == 0)); then
   exit 1
 fi
 
-lamina_throwaway_env bench 55533 56480 52625 53100
+lamina_throwaway_env bench 55533 56480 52625 53100 "" 45790
 
 cleanup() {
   services_stop 2>/dev/null || true

@@ -8,7 +8,8 @@
 #      the URL and demo sign-ins, and on Ctrl-C stops everything it started.
 #
 # Ports (override with the variable): web LAMINA_WEB_PORT=3000, PostgreSQL LAMINA_PG_PORT=54320,
-# Redis LAMINA_REDIS_PORT=63790, SMTP LAMINA_SMTP_PORT=2525, mailbox LAMINA_MAILBOX_PORT=2526.
+# Redis LAMINA_REDIS_PORT=63790, SMTP LAMINA_SMTP_PORT=2525, mailbox LAMINA_MAILBOX_PORT=2526,
+# S3 fake (films, objects in .data/s3) LAMINA_S3_PORT=4569.
 # LAMINA_BUILD=always rebuilds even when the sources did not change.
 set -euo pipefail
 

@@ -4,11 +4,11 @@
  * - Runs the web server (scripts/web-server.mjs: Next behind a plain HTTP server) and the queue worker (jobs/worker.ts) as children,
  *   each in a process group of its own; a child that exits is restarted with a
  *   growing delay (1 s, 2 s, 4 s … 30 s; back to 1 s after a minute of good health).
- * - Watches PostgreSQL, Redis and the mail fake (daemons started by scripts/lib/services.sh)
+ * - Watches PostgreSQL, Redis, the mail fake and the S3 fake (daemons started by scripts/lib/services.sh)
  *   and restarts one that stops answering, through the same script.
  * - Prints the URL and the demo sign-ins (the seed's output) once the web server answers.
  * - On Ctrl-C, SIGTERM or SIGHUP stops everything it started: web and worker first, then the
- *   mail fake, Redis and PostgreSQL. A second Ctrl-C kills the children at once.
+ *   S3 fake, the mail fake, Redis and PostgreSQL (services.sh stop). A second Ctrl-C kills the children at once.
  *
  * Configuration: the LAMINA_* and app variables exported by start.sh (see services.sh).
  */
@@ -32,6 +32,8 @@ const webPort = Number(need('LAMINA_WEB_PORT'));
 const pgPort = Number(need('LAMINA_PG_PORT'));
 const redisPort = Number(need('LAMINA_REDIS_PORT'));
 const mailboxPort = Number(need('LAMINA_MAILBOX_PORT'));
+const s3Port = Number(need('LAMINA_S3_PORT'));
+const s3Bucket = need('LAMINA_S3_BUCKET');
 const appUrl = need('APP_URL');
 const runDir = path.join(data, 'run');
 const logDir = path.join(data, 'logs');
@@ -161,6 +163,15 @@ const mailAlive = async () => {
   }
 };
 
+const s3Alive = async () => {
+  try {
+    const r = await fetch(`http://127.0.0.1:${s3Port}/${s3Bucket}?max-keys=1`, { signal: AbortSignal.timeout(2000) });
+    return r.ok;
+  } catch {
+    return false;
+  }
+};
+
 function runServices(command: string): Promise<number> {
   return new Promise((resolve) => {
     const p = spawn('bash', [servicesScript, command], { cwd: repo, env: process.env, stdio: ['ignore', 'inherit', 'inherit'] });
@@ -181,7 +192,7 @@ interface Service {
 /** The first wait after a failed restart; doubled after each further failure, up to a minute. */
 const SERVICE_RETRY_MS = 2000;
 const service = (name: string, alive: () => Promise<boolean>, start: string): Service => ({ name, alive, start, failures: 0, nextTry: 0, delay: SERVICE_RETRY_MS });
-const services: Service[] = [service('PostgreSQL', pgAlive, 'pg-start'), service('Redis', redisAlive, 'redis-start'), service('mail fake', mailAlive, 'mail-start')];
+const services: Service[] = [service('PostgreSQL', pgAlive, 'pg-start'), service('Redis', redisAlive, 'redis-start'), service('mail fake', mailAlive, 'mail-start'), service('S3 fake', s3Alive, 's3-start')];
 
 let watching: Promise<void> = Promise.resolve();
 let watchTimer: NodeJS.Timeout | null = null;

@@ -3,8 +3,9 @@
 # `tests: N passed, N failed` and the exit status is non-zero on any failure.
 #
 #   1. Debian packages and node_modules, if missing
-#   2. PostgreSQL, Redis and the SMTP fake in a temporary dir (removed at exit), on free ports
-#      near 55433 / 56380 / 52525 / 52526 (web 53000); override with LAMINA_TEST_*_PORT
+#   2. PostgreSQL, Redis, the SMTP fake and the S3 fake in a temporary dir (removed at exit), on
+#      free ports near 55433 / 56380 / 52525 / 52526 / 45690 (web 53000); override with
+#      LAMINA_TEST_*_PORT (…_PG_, _REDIS_, _SMTP_, _MAILBOX_, _WEB_, _S3_PORT)
 #   3. migrations, then vitest (all projects: unit, reference, integration)
 #   4. a fresh database: migrations and the demo seed (the e2e tests sign in as demo users)
 #   5. `next build` into .next-test (a running `npm start` keeps its .next), `next start`,
@@ -19,7 +20,7 @@ cd "$(dirname "${BASH_SOURCE[0]}")/.."
 source scripts/lib/services.sh
 
 export CI=true
-lamina_throwaway_env test 55433 56380 52525 53000 LAMINA_TEST
+lamina_throwaway_env test 55433 56380 52525 53000 LAMINA_TEST 45690
 TMP="$LAMINA_DATA"
 
 RESULTS="$TMP/results"
@@ -168,7 +169,7 @@ main() {
   NEXTAUTH_SECRET="$(random_secret)"
   export NEXTAUTH_SECRET
   export E2E_BASE_URL="$APP_URL"
-  lamina_log "ports: web $LAMINA_WEB_PORT, PostgreSQL $LAMINA_PG_PORT, Redis $LAMINA_REDIS_PORT, SMTP $LAMINA_SMTP_PORT, mailbox $LAMINA_MAILBOX_PORT; data $TMP"
+  lamina_log "ports: web $LAMINA_WEB_PORT, PostgreSQL $LAMINA_PG_PORT, Redis $LAMINA_REDIS_PORT, SMTP $LAMINA_SMTP_PORT, mailbox $LAMINA_MAILBOX_PORT, S3 $LAMINA_S3_PORT; data $TMP"
 
   step "start services" services_start
   ok || { finish; return; }

@@ -81,6 +81,16 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     },
   },
   {
+    prefix: 'film.',
+    label: 'Films',
+    actions: {
+      'film.list': 'Viewed a case’s films',
+      'film.uploaded': 'Uploaded a film',
+      'film.upload_repeated': 'Uploaded a film already stored (no copy kept)',
+      'film.viewed': 'Viewed a film',
+    },
+  },
+  {
     prefix: 'visit.',
     label: 'Recall visits',
     actions: {

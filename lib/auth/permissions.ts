@@ -27,6 +27,13 @@ export const PERMISSIONS = {
   'case.import': ['coordinator', 'clinician'],
   /** Work the recall desk: invitations, replies, bookings, no-shows. */
   'recall.manage': ['coordinator'],
+  /**
+   * See a case's films (thumbnails, the web rendition, the original file): whoever reads the case —
+   * the clinicians who score them, the coordinator who files them, the practice lead who audits.
+   */
+  'film.read': ['coordinator', 'clinician', 'auditor'],
+  /** Upload films to a case (the clinician at the chair; the coordinator filing films sent in). */
+  'film.upload': ['coordinator', 'clinician'],
   /** Score follow-up films and record reviews. */
   'review.write': ['clinician'],
   /** Read outcome and survival statistics. */

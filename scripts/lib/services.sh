@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# Lamina's local services on loopback: PostgreSQL, Redis and the SMTP fake, plus the set-up
+# Lamina's local services on loopback: PostgreSQL, Redis, the SMTP fake and the S3 fake, plus the set-up
 # they need (Debian packages, node_modules). Sourced by scripts/start.sh, test.sh and bench.sh;
 # also callable as `bash scripts/lib/services.sh <command>` (used by scripts/supervise.ts to
 # restart a service that died).
@@ -9,9 +9,9 @@
 # run with a clear message.
 #
 # Configuration (set before sourcing; lamina_defaults fills in what is unset):
-#   LAMINA_DATA          data dir holding pg/ redis/ mail/ logs/ run/        (.data)
+#   LAMINA_DATA          data dir holding pg/ redis/ mail/ s3/ logs/ run/    (.data)
 #   LAMINA_PROFILE       start | test: persistence and fsync settings         (start)
-#   LAMINA_PG_PORT LAMINA_REDIS_PORT LAMINA_SMTP_PORT LAMINA_MAILBOX_PORT LAMINA_WEB_PORT
+#   LAMINA_PG_PORT LAMINA_REDIS_PORT LAMINA_SMTP_PORT LAMINA_MAILBOX_PORT LAMINA_WEB_PORT LAMINA_S3_PORT
 #   LAMINA_DB_NAME       the app database                                     (lamina)
 
 # Debian packages: the base set, and what only the tests and benchmarks need.
@@ -36,9 +36,11 @@ lamina_defaults() {
   : "${LAMINA_SMTP_PORT:=2525}"
   : "${LAMINA_MAILBOX_PORT:=2526}"
   : "${LAMINA_WEB_PORT:=3000}"
+  : "${LAMINA_S3_PORT:=4569}"
+  : "${LAMINA_S3_BUCKET:=lamina-films}"
   : "${LAMINA_DB_NAME:=lamina}"
   export LAMINA_DATA LAMINA_PROFILE LAMINA_PG_PORT LAMINA_REDIS_PORT LAMINA_SMTP_PORT \
-    LAMINA_MAILBOX_PORT LAMINA_WEB_PORT LAMINA_DB_NAME LAMINA_REPO
+    LAMINA_MAILBOX_PORT LAMINA_WEB_PORT LAMINA_S3_PORT LAMINA_S3_BUCKET LAMINA_DB_NAME LAMINA_REPO
   mkdir -p "$LAMINA_DATA/logs" "$LAMINA_DATA/run"
 }
 
@@ -135,24 +137,25 @@ pick_free_port() {
   lamina_die "no free port found from $1 upwards"
 }
 
-# lamina_throwaway_env KIND PG REDIS SMTP WEB [OVERRIDES]: the set-up of npm test and npm run bench.
+# lamina_throwaway_env KIND PG REDIS SMTP WEB [OVERRIDES] [S3]: the set-up of npm test and npm run bench.
 # A new data dir /tmp/lamina-KIND.XXXXXX (LAMINA_DATA; the caller removes it), the test profile,
-# and for each service the first free port from its base (the mailbox's from the SMTP port + 1).
-# With OVERRIDES (npm test: LAMINA_TEST), OVERRIDES_PG_PORT … OVERRIDES_WEB_PORT are used as
-# given when set. The database keeps the app's name: MikroORM writes
+# and for each service the first free port from its base (the mailbox's from the SMTP port + 1,
+# the S3 fake's from S3, default 45690). With OVERRIDES (npm test: LAMINA_TEST),
+# OVERRIDES_PG_PORT … OVERRIDES_WEB_PORT and OVERRIDES_S3_PORT are used as given when set. The database keeps the app's name: MikroORM writes
 # migrations/.snapshot-<db name>.json.
 lamina_throwaway_env() {
   local kind="$1" overrides="${6:-}" name base fixed port
   LAMINA_DATA="$(mktemp -d "/tmp/lamina-$kind.XXXXXX")"
   chmod 755 "$LAMINA_DATA" # the postgres user must reach DATA/pg
   export LAMINA_DATA LAMINA_PROFILE=test LAMINA_DB_NAME=lamina
-  for name in PG REDIS SMTP MAILBOX WEB; do
+  for name in PG REDIS SMTP MAILBOX WEB S3; do
     case "$name" in
       PG) base="$2" ;;
       REDIS) base="$3" ;;
       SMTP) base="$4" ;;
       MAILBOX) base=$((LAMINA_SMTP_PORT + 1)) ;;
       WEB) base="$5" ;;
+      S3) base="${7:-45690}" ;;
     esac
     fixed=""
     if [[ -n "$overrides" ]]; then fixed="${overrides}_${name}_PORT"; fixed="${!fixed:-}"; fi
@@ -281,6 +284,12 @@ lamina_export_env() {
   # up to ~100 MB more memory when busy. The worker keeps Node's defaults. scripts/bench/stats.ts
   # measures both ways.
   export LAMINA_WEB_NODE_OPTIONS="--max-semi-space-size=64"
+  # Films (lib/storage/s3.ts): the local S3 fake, path-style, with its fixed credentials.
+  export S3_URL="http://127.0.0.1:$LAMINA_S3_PORT"
+  export S3_BUCKET="$LAMINA_S3_BUCKET"
+  export S3_REGION=us-east-1
+  export S3_ACCESS_KEY_ID=S3RVER
+  export S3_SECRET_ACCESS_KEY=S3RVER
 }
 
 # ----------------------------------------------------------------------------------------------
@@ -532,16 +541,61 @@ mail_stop() {
 }
 
 # ----------------------------------------------------------------------------------------------
+# The S3 fake for films (scripts/s3-fake.ts: s3rver), in a session of its own; objects in DATA/s3
+
+s3_dir() { echo "$LAMINA_DATA/s3"; }
+
+# s3_ready: the fake answers an anonymous listing of the films bucket.
+s3_ready() { http_get "http://127.0.0.1:$LAMINA_S3_PORT/$LAMINA_S3_BUCKET?max-keys=1" >/dev/null; }
+
+s3_start() {
+  lamina_defaults
+  local dir pidfile pid log
+  dir="$(s3_dir)"
+  pidfile="$LAMINA_DATA/run/s3-fake.pid"
+  log="$LAMINA_DATA/logs/s3-fake.log"
+  mkdir -p "$dir/objects"
+
+  if pid="$(read_pidfile "$pidfile")"; then
+    if wait_until 10 "the S3 fake (pid $pid) to answer" s3_ready; then
+      lamina_log "S3 fake already running on 127.0.0.1:$LAMINA_S3_PORT (pid $pid), reusing it"
+      return 0
+    fi
+    lamina_log "S3 fake (pid $pid) is not answering; restarting it"
+    stop_pid "$pid" "S3 fake" 5
+    rm -f "$pidfile"
+  fi
+  require_free_port "$LAMINA_S3_PORT" "the S3 fake" LAMINA_S3_PORT
+
+  # setsid --wait: the launcher lives as long as the fake, so its death means the fake died.
+  (cd "$LAMINA_REPO" && exec setsid --wait node --import tsx scripts/s3-fake.ts \
+    --port "$LAMINA_S3_PORT" --dir "$dir/objects" --bucket "$LAMINA_S3_BUCKET" \
+    --pid-file "$pidfile" </dev/null >>"$log" 2>&1) &
+  local launcher=$!
+  disown "$launcher" 2>/dev/null || true
+  wait_for_launch 30 "$launcher" "the S3 fake" "$log" s3_ready
+  lamina_log "S3 fake: http://127.0.0.1:$LAMINA_S3_PORT/$LAMINA_S3_BUCKET (objects in $dir/objects)"
+}
+
+s3_stop() {
+  lamina_defaults
+  stop_pidfile "$LAMINA_DATA/run/s3-fake.pid" "S3 fake" 10 || return 0
+  lamina_log "S3 fake stopped"
+}
+
+# ----------------------------------------------------------------------------------------------
 # Everything at once
 
 services_start() {
   pg_start
   redis_start
   mail_start
+  s3_start
 }
 
 # services_stop: the reverse order; never fails (used from exit traps).
 services_stop() {
+  s3_stop || true
   mail_stop || true
   redis_stop || true
   pg_stop || true
@@ -562,11 +616,14 @@ if [[ "${BASH_SOURCE[0]}" == "$0" ]]; then
     redis-stop) redis_stop ;;
     mail-start) mail_start ;;
     mail-stop) mail_stop ;;
+    s3-start) s3_start ;;
+    s3-stop) s3_stop ;;
     pg-ready) pg_ready ;;
     redis-ready) redis_ready ;;
     mail-ready) mail_ready ;;
+    s3-ready) s3_ready ;;
     *)
-      echo "usage: bash scripts/lib/services.sh start|stop|pg-start|pg-stop|redis-start|redis-stop|mail-start|mail-stop|pg-ready|redis-ready|mail-ready" >&2
+      echo "usage: bash scripts/lib/services.sh start|stop|pg-start|pg-stop|redis-start|redis-stop|mail-start|mail-stop|s3-start|s3-stop|pg-ready|redis-ready|mail-ready|s3-ready" >&2
       exit 2
       ;;
   esac

@@ -1,5 +1,5 @@
 import { test, expect, type APIRequestContext, type Browser } from '@playwright/test';
-import { readdirSync, statSync } from 'node:fs';
+import { readFileSync, readdirSync, statSync } from 'node:fs';
 import path from 'node:path';
 import { randomUUID } from 'node:crypto';
 import { ROLES, type Role } from '../../lib/auth/roles';
@@ -24,6 +24,7 @@ interface Ids {
   caseId: string;
   visitId: string;
   invitationId: string;
+  filmId: string;
 }
 interface Row {
   route: string; // the route file's path under app/, e.g. 'api/team/members'
@@ -31,6 +32,8 @@ interface Row {
   /** own: ids of the caller's practice; other: ids of the other practice. */
   url: (own: Ids, other: Ids) => string;
   body?: unknown;
+  /** A multipart body instead (the film upload takes nothing else). */
+  multipart?: Record<string, string>;
   expect: Record<Who, number>;
 }
 
@@ -91,6 +94,12 @@ const MATRIX: Row[] = [
   { route: 'api/cases/[id]/reviews', method: 'GET', url: () => `/api/cases/${randomUUID()}/reviews`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
   { route: 'api/cases/[id]/reviews', method: 'POST', url: () => `/api/cases/${randomUUID()}/reviews`, body: { toothStatus: 'present' }, expect: only({ clinician: 404 }) },
   { route: 'api/cases/[id]/reviews/[reviewId]/correction', method: 'POST', url: () => `/api/cases/${randomUUID()}/reviews/${randomUUID()}/correction`, body: { reason: 'Typo in the PAI.' }, expect: only({ clinician: 404 }) },
+  // Films (issue 13): read by whoever reads the case, uploaded by the clinicians and the coordinator.
+  { route: 'api/cases/[id]/films', method: 'GET', url: () => `/api/cases/${randomUUID()}/films`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/cases/[id]/films', method: 'POST', url: () => `/api/cases/${randomUUID()}/films`, multipart: { role: 'follow_up' }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/cases/[id]/films', method: 'POST', url: (own) => `/api/cases/${own.caseId}/films`, multipart: { role: 'follow_up' }, expect: only({ coordinator: 422, clinician: 422 }) },
+  { route: 'api/films/[id]/[variant]', method: 'GET', url: () => `/api/films/${randomUUID()}/thumbnail`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/films/[id]/[variant]', method: 'GET', url: (own) => `/api/films/${own.filmId}/thumbnail`, expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
   { route: 'api/cases/import', method: 'GET', url: () => '/api/cases/import', expect: only({ coordinator: 200, clinician: 200 }) },
   { route: 'api/cases/import', method: 'POST', url: () => '/api/cases/import', body: { csv: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: () => `/api/visits/${randomUUID()}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
@@ -136,6 +145,9 @@ const CROSS: Row[] = [
   { route: 'api/cases/[id]/reviews', method: 'GET', url: (_, o) => `/api/cases/${o.caseId}/reviews`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
   { route: 'api/cases/[id]/reviews', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/reviews`, body: { toothStatus: 'present' }, expect: only({ clinician: 404 }) },
   { route: 'api/cases/[id]/reviews/[reviewId]/correction', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/reviews/${randomUUID()}/correction`, body: { reason: 'Typo in the PAI.' }, expect: only({ clinician: 404 }) },
+  { route: 'api/cases/[id]/films', method: 'GET', url: (_, o) => `/api/cases/${o.caseId}/films`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
+  { route: 'api/cases/[id]/films', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/films`, multipart: { role: 'follow_up' }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/films/[id]/[variant]', method: 'GET', url: (_, o) => `/api/films/${o.filmId}/original`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: (_, o) => `/api/visits/${o.visitId}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
   { route: 'api/recall/visits/[id]/contact-log', method: 'GET', url: (_, o) => `/api/recall/visits/${o.visitId}/contact-log`, expect: only({ coordinator: 404 }) },
   { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },  { route: 'api/outcomes/worklist/[id]/decisions', method: 'GET', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, expect: only({ clinician: 404, auditor: 404 }) },
@@ -194,6 +206,11 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
       visits = await (await coord.request.get(`/api/cases/${caseId}/visits`)).json();
       if (visits.visits.length > 0) break;
     }
+    // A film of the practice (the same file again is the same film: reruns add nothing).
+    const film = await coord.request.post(`/api/cases/${caseId}/films`, {
+      multipart: { role: 'follow_up', file: { name: 'matrix.png', mimeType: 'image/png', buffer: readFileSync(path.resolve(import.meta.dirname, '../support/films/radiograph.png')) } },
+    });
+    expect([200, 201]).toContain(film.status());
     return {
       adminId: byEmail(people('admin').email),
       coordinatorId: byEmail(people('coordinator').email),
@@ -201,6 +218,7 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
       caseId,
       visitId: visits.visits[0].id,
       invitationId: (await invited.json()).invitationId,
+      filmId: (await film.json()).film.id,
     };
   } finally {
     await admin.close();
@@ -235,7 +253,7 @@ test.describe('route × role × practice', () => {
             const url = row.url(own, other); // once: rows with unknown ids draw a new one per call
             const res = await request.fetch(url, {
               method: row.method,
-              data: row.body,
+              ...(row.multipart ? { multipart: row.multipart } : { data: row.body }),
               headers: row.body ? { 'Content-Type': 'application/json' } : undefined,
               maxRedirects: 0,
             });

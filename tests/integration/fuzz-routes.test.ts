@@ -9,12 +9,14 @@ import { errorResponse } from '@/lib/http';
 import { deriveLinkSecret, issueReplyToken } from '@/lib/recall/reply-token';
 import { templateCsv } from '@/lib/registry/csv';
 import { createCase } from '@/lib/services/cases';
+import { uploadFilm } from '@/lib/services/films';
 import { createPatient } from '@/lib/services/patients';
 import { createReview } from '@/lib/services/reviews';
 import { answerReply } from '@/lib/services/recall-replies';
 import { acceptInvitation, inviteMember } from '@/lib/services/team';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
 import { mailbox } from './recall-fixtures';
+import { drawRadiograph, filmPng } from '../support/film-fixtures';
 
 /**
  * Issue 9 item 9: bad bytes get a 4xx, never a 500. Every route handler under app/api (found on
@@ -40,6 +42,8 @@ const RUNS = Number(process.env.LAMINA_FUZZ_RUNS ?? 40);
 const services = await openServices();
 let actor: Actor;
 const ids: Record<string, string> = {};
+/** A small valid film for the upload route (each fuzz run that keeps it uploads it again: no duplicate). */
+const filmPngBytes = new Uint8Array(await filmPng(drawRadiograph(40, 30, 11)));
 
 afterAll(() => services.close());
 
@@ -109,6 +113,8 @@ interface RouteSpec {
   fields?: string[];
   /** The body is CSV text (the import). */
   csv?: boolean;
+  /** The body is a multipart form: its text fields (fuzzed) and a `file` (valid, random bytes or a nasty string). */
+  multipart?: { fields: () => Record<string, string>; file: () => Uint8Array };
   /** Not fuzzed here, and why. */
   skip?: string;
 }
@@ -133,6 +139,12 @@ const SPECS: Record<string, RouteSpec> = {
   },
   'cases/[id]/route.ts#DELETE': { params: () => ({ id: ids.case2! }) },
   'cases/[id]/visits/route.ts#GET': { params: () => ({ id: ids.case! }) },
+  'cases/[id]/films/route.ts#GET': { params: () => ({ id: ids.case! }) },
+  'cases/[id]/films/route.ts#POST': {
+    params: () => ({ id: ids.case! }),
+    multipart: { fields: () => ({ role: 'follow_up', visitId: ids.visit! }), file: () => filmPngBytes },
+  },
+  'films/[id]/[variant]/route.ts#GET': { params: () => ({ id: ids.film!, variant: 'thumbnail' }) },
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream'], baseQuery: { mode: 'dry-run' }, csv: true },
   'cases/route.ts#GET': { query: [...PAGING, 'tooth', 'kind', 'operator', 'from', 'to', 'outcome', 'status', 'patientId'] },
@@ -224,6 +236,8 @@ interface Fuzzed {
   params: Record<string, string>;
   query: [string, string][];
   body?: string;
+  /** A multipart body (then the Request sets the content type with its boundary). */
+  form?: Record<string, string | Uint8Array>;
   contentType: string;
 }
 
@@ -243,8 +257,23 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
     return [...q.entries()];
   });
 
-  let body: fc.Arbitrary<{ body?: string; contentType: string }>;
-  if (spec.csv) {
+  let body: fc.Arbitrary<{ body?: string; form?: Record<string, string | Uint8Array>; contentType: string }>;
+  if (spec.multipart) {
+    const mp = spec.multipart;
+    const keys = [...Object.keys(mp.fields()), 'file', 'unexpected'];
+    const fileValue = fc.oneof(
+      { weight: 2, arbitrary: fc.constant<'valid'>('valid') },
+      { weight: 2, arbitrary: fc.uint8Array({ maxLength: 4096 }) },
+      // A valid file cut short or with a byte changed.
+      { weight: 2, arbitrary: fc.nat().map((n) => mp.file().subarray(0, n % mp.file().length)) },
+      { weight: 1, arbitrary: weirdString.map((s) => (typeof s === 'string' ? s : String(s))) },
+    );
+    body = fc.array(fc.tuple(fc.constantFrom(...keys), fc.oneof(nasty.map(asQueryValue), fileValue)), { maxLength: 3 }).map((changes) => {
+      const form: Record<string, string | Uint8Array> = { ...mp.fields(), file: mp.file() };
+      for (const [k, v] of changes) form[k] = v === 'valid' ? mp.file() : v;
+      return { form, contentType: 'multipart/form-data' };
+    });
+  } else if (spec.csv) {
     // As JSON { csv } (the route also takes text/csv and multipart; JSON is what every client may send).
     body = csvArbitrary().map((text) => ({ body: jsonText({ csv: text }), contentType: 'application/json' }));
   } else if (method === 'GET' || method === 'DELETE') {
@@ -265,7 +294,7 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
       { weight: 1, arbitrary: weirdString.map((s) => ({ body: typeof s === 'string' ? s : String(s), contentType: 'application/json' })) },
     );
   }
-  return fc.record({ params, query, b: body }).map(({ params: p, query: q, b }) => ({ params: p, query: q, body: b.body, contentType: b.contentType }));
+  return fc.record({ params, query, b: body }).map(({ params: p, query: q, b }) => ({ params: p, query: q, body: b.body, form: b.form, contentType: b.contentType }));
 }
 
 /** The import template with the fuzz practice's clinician as the operator. */
@@ -295,10 +324,23 @@ async function send(fn: (req: Request, ctx: { params: Promise<unknown> }) => Pro
   const routePath = route.split('#')[0]!.replace(/\/route\.ts$/, '');
   const url = new URL(`/api/${routePath.replace(/\[\.{0,3}(\w+)\]/g, (_, n: string) => encodeURIComponent(r.params[n] ?? 'x'))}`, env.APP_URL);
   for (const [k, v] of r.query) url.searchParams.append(k, v);
+  let form: FormData | undefined;
+  if (r.form) {
+    form = new FormData();
+    for (const [k, v] of Object.entries(r.form)) {
+      if (typeof v === 'string') form.set(k, v);
+      else form.set(k, new Blob([new Uint8Array(v)]), 'film.png');
+    }
+  }
   const req = new Request(url, {
     method,
-    headers: { 'Content-Type': r.contentType, Origin: new URL(env.APP_URL).origin, 'Sec-Fetch-Site': 'same-origin', Accept: 'application/json' },
-    ...(r.body !== undefined && method !== 'GET' && method !== 'DELETE' ? { body: r.body } : {}),
+    headers: {
+      ...(form ? {} : { 'Content-Type': r.contentType }),
+      Origin: new URL(env.APP_URL).origin,
+      'Sec-Fetch-Site': 'same-origin',
+      Accept: 'application/json',
+    },
+    ...(form ? { body: form } : r.body !== undefined && method !== 'GET' && method !== 'DELETE' ? { body: r.body } : {}),
   });
   const res = await fn(req, { params: Promise.resolve(r.params) });
   const text = await res.text();
@@ -339,6 +381,7 @@ beforeAll(async () => {
   const worklistCase = await createCase(services.em(), p.clinician, caseInput(patient3.id, p.clinician.userId, { tooth: 47, startDate: '2023-01-10', completionDate: '2023-01-24' }));
   await createReview(services.em(), p.clinician, worklistCase.id, { reviewDate: '2024-02-01', toothStatus: 'present', paiScore: 5, lesionDiameterMm: 5 });
   ids.worklistCase = worklistCase.id;
+  ids.film = (await uploadFilm(services.em(), p.clinician, c.id, { role: 'post_fill' }, filmPngBytes)).film.id;
   // A real invitation, so the invitation form's fuzz reaches the database with a usable token.
   const invitee = `invitee.${Date.now()}@fuzz.test`;
   await inviteMember(services.em(), p.admin, { name: 'Invitee', email: invitee, roles: ['clinician'] });
@@ -370,6 +413,7 @@ describe('fuzzed requests never answer 500 (issue 9 item 9)', async () => {
         params: spec.params?.() ?? {},
         query: Object.entries(spec.baseQuery ?? {}),
         body: spec.csv ? jsonText({ csv: fuzzTemplate() }) : method === 'GET' || method === 'DELETE' ? undefined : jsonText(spec.body?.() ?? {}),
+        form: spec.multipart ? { ...spec.multipart.fields(), file: spec.multipart.file() } : undefined,
         contentType: 'application/json',
       };
       const status = await send(fn, route, method, base);

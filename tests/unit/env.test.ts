@@ -10,6 +10,15 @@ describe('configuration', () => {
     expect(env.localMail).toBe(false);
   });
 
+  it('films: the local S3 fake by default, any S3-compatible store by URL; the size limit stays under the proxy’s 64 MB', () => {
+    const env = parseEnv({});
+    expect([env.S3_URL, env.S3_BUCKET, env.S3_ACCESS_KEY_ID, env.FILM_MAX_MB]).toEqual(['http://127.0.0.1:4569', 'lamina-films', 'S3RVER', 40]);
+    const hosted = parseEnv({ S3_URL: 'https://objects.example.test', S3_BUCKET: 'practice-films', S3_ACCESS_KEY_ID: 'AK', S3_SECRET_ACCESS_KEY: 'SK', FILM_MAX_MB: '20' });
+    expect([hosted.S3_URL, hosted.S3_BUCKET, hosted.FILM_MAX_MB]).toEqual(['https://objects.example.test', 'practice-films', 20]);
+    expect(() => parseEnv({ FILM_MAX_MB: '61' })).toThrow(/FILM_MAX_MB is at most 60/);
+    expect(() => parseEnv({ S3_BUCKET: 'Not_A_Bucket' })).toThrow(/S3_BUCKET must be a valid bucket name/);
+  });
+
   it('points at hosted services by URL alone', () => {
     const env = parseEnv({
       NODE_ENV: 'production',

@@ -10,9 +10,9 @@ import { navFor } from '@/components/shell/nav';
  */
 const EXPECTED: Record<Role, string[]> = {
   admin: ['team.read', 'team.manage', 'audit.read', 'mailbox.read'],
-  coordinator: ['patient.read', 'patient.write', 'case.import', 'recall.manage'],
-  clinician: ['patient.read', 'patient.write', 'case.write', 'case.import', 'review.write', 'outcomes.read', 'outcomes.decide'],
-  auditor: ['patient.read', 'outcomes.read'],
+  coordinator: ['patient.read', 'patient.write', 'case.import', 'recall.manage', 'film.read', 'film.upload'],
+  clinician: ['patient.read', 'patient.write', 'case.write', 'case.import', 'review.write', 'outcomes.read', 'outcomes.decide', 'film.read', 'film.upload'],
+  auditor: ['patient.read', 'outcomes.read', 'film.read'],
   researcher: ['cohort.export'],
 };
 
@@ -36,6 +36,13 @@ describe('permissions', () => {
   it('the researcher never reads identifiable patient data; the administrator neither', () => {
     expect(can(['researcher'], 'patient.read')).toBe(false);
     expect(can(['admin'], 'patient.read')).toBe(false);
+  });
+
+  it('films are health data: the administrator and the researcher never see one', () => {
+    for (const p of ['film.read', 'film.upload'] as const) {
+      expect(can(['admin'], p)).toBe(false);
+      expect(can(['researcher'], p)).toBe(false);
+    }
   });
 
   it('every permission is granted to someone', () => {

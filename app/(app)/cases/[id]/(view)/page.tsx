@@ -22,6 +22,8 @@ import { fmtDate } from '@/components/ui/format';
 import { ReviewForm } from '../ReviewFormLazy';
 import type { ReviewCorrection, ReviewVisitOption } from '../ReviewForm';
 import { VisitActions } from '../VisitActions';
+import { FilmsSection } from '../FilmsSection';
+import { listFilms } from '@/lib/services/films';
 import { isoSize } from '../../_components/options';
 
 export const metadata: Metadata = { title: 'Case' };
@@ -53,6 +55,7 @@ export default async function CasePage({ params, searchParams }: { params: Promi
   const correctingId = typeof query.correct === 'string' ? query.correct : undefined;
   const correcting = canReview ? c.reviews.find((r) => r.id === correctingId && r.current) : undefined;
   const canWrite = can(actor.roles, 'case.write');
+  const films = can(actor.roles, 'film.read') ? await listFilms(em, actor, c.id) : null;
   return (
     <div className="space-y-6">
       <p className="text-sm">
@@ -166,6 +169,16 @@ export default async function CasePage({ params, searchParams }: { params: Promi
               </table>
             )}
           </section>
+
+          {films && (
+            <FilmsSection
+              caseId={c.id}
+              initialFilms={films.films}
+              maxBytes={films.maxBytes}
+              canUpload={can(actor.roles, 'film.upload') && !c.archived}
+              visits={c.visits.map((x) => ({ value: x.id, label: `${x.milestone} months — ${x.statusLabel.toLowerCase()}` }))}
+            />
+          )}
 
           <section aria-labelledby="visits" className="card">
             <h2 id="visits" className="text-xl">

@@ -1,0 +1,50 @@
+import 'server-only';
+import { DeleteObjectCommand, GetObjectCommand, NoSuchKey, PutObjectCommand, S3Client } from '@aws-sdk/client-s3';
+import { env } from '@/lib/env';
+
+/**
+ * Object storage for films: one bucket (S3_BUCKET) on an S3-compatible endpoint (S3_URL), path-style
+ * addressing (the local fake and most self-hosted stores need it). The client is made once per
+ * process. Keys are chosen by lib/services/films.ts; nothing else writes to the bucket.
+ */
+const g = globalThis as unknown as { __laminaS3?: S3Client };
+
+export function s3(): S3Client {
+  return (g.__laminaS3 ??= new S3Client({
+    endpoint: env.S3_URL,
+    forcePathStyle: true,
+    region: env.S3_REGION,
+    credentials: { accessKeyId: env.S3_ACCESS_KEY_ID, secretAccessKey: env.S3_SECRET_ACCESS_KEY },
+    maxAttempts: 3,
+  }));
+}
+
+export interface StoredObject {
+  key: string;
+  body: Uint8Array;
+  contentType: string;
+}
+
+/** Writes one object. */
+export async function putObject(o: StoredObject): Promise<void> {
+  await s3().send(new PutObjectCommand({ Bucket: env.S3_BUCKET, Key: o.key, Body: o.body, ContentType: o.contentType, ContentLength: o.body.byteLength }));
+}
+
+/** Reads one object whole; null when there is no such key. */
+export async function getObject(key: string): Promise<Uint8Array | null> {
+  try {
+    const r = await s3().send(new GetObjectCommand({ Bucket: env.S3_BUCKET, Key: key }));
+    if (!r.Body) return null;
+    return await r.Body.transformToByteArray();
+  } catch (e) {
+    if (e instanceof NoSuchKey || (e as { name?: string }).name === 'NoSuchKey') return null;
+    throw e;
+  }
+}
+
+/** Removes the objects (missing keys are no error). */
+export async function deleteObjects(keys: readonly string[]): Promise<void> {
+  if (keys.length === 0) return;
+  // One request per key: the multi-object delete needs a body checksum the local fake does not take.
+  await Promise.all(keys.map((Key) => s3().send(new DeleteObjectCommand({ Bucket: env.S3_BUCKET, Key }))));
+}
