@@ -181,6 +181,8 @@ export function templateCsv(): string {
 export interface CsvError {
   line: number;
   column?: string;
+  /** The cell as written, when the reason is about it (mapped files). */
+  value?: string;
   reason: string;
 }
 
