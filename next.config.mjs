@@ -2,6 +2,8 @@
 const nextConfig = {
   distDir: process.env.NEXT_DIST_DIR || '.next',
   poweredByHeader: false,
+  // Read on the server only (lib/import/read.ts loads it on demand); kept out of the bundle.
+  serverExternalPackages: ['exceljs'],
   // forbidden() and app/forbidden.tsx: pages answer 403 with Lamina's own page.
   experimental: { authInterrupts: true },
   // The registry is health data: never let a page be framed or sniffed. These are

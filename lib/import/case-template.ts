@@ -146,8 +146,17 @@ const LABELS: Record<string, string> = {
   phone: 'Patient phone',
 };
 
+/** Other names of the canal columns ("Canal 1 WL", "MAF 2"): n is the canal's number. */
+const CANAL_SYNONYMS: Record<string, (n: string) => string[]> = {
+  name: (n) => [`canal ${n}`, `canal ${n} name`, `canal${n}`],
+  working_length_mm: (n) => [`canal ${n} wl`, `canal ${n} length`, `canal ${n} working length`, `wl ${n}`, `wl${n}`],
+  apical_size: (n) => [`canal ${n} size`, `canal ${n} apical size`, `canal ${n} maf`, `maf ${n}`, `size ${n}`],
+  fill_to_apex_mm: (n) => [`canal ${n} fill`, `canal ${n} fill to apex`, `canal ${n} short`, `fill ${n}`],
+};
+
 function describe(c: (typeof CSV_COLUMNS)[number]): TemplateColumn {
   const canal = /^canal(\d)_(.+)$/.exec(c.name);
+  const synonyms = canal ? CANAL_SYNONYMS[canal[2]!]?.(canal[1]!) : SYNONYMS[c.name];
   const range = RANGES[canal ? canal[2]! : c.name];
   const kind = c.kind === 'bool' || c.kind === 'codes' ? 'code' : c.kind;
   const allowed = c.kind === 'bool' ? YES_NO_CODES : CODES[c.name];
@@ -158,7 +167,7 @@ function describe(c: (typeof CSV_COLUMNS)[number]): TemplateColumn {
     ...(c.required ? { required: true } : {}),
     ...(allowed ? { codes: allowed } : {}),
     ...(c.kind === 'codes' ? { multiple: true } : {}),
-    ...(SYNONYMS[c.name] ? { synonyms: SYNONYMS[c.name] } : {}),
+    ...(synonyms ? { synonyms } : {}),
     ...(HINTS[c.name] ? { hint: HINTS[c.name] } : {}),
     ...(range ? { min: range[0], max: range[1] } : {}),
     description: c.description,

@@ -163,7 +163,11 @@ export function suggestMapping(headers: readonly string[], sampleRows: readonly 
       header: headers[p.index]!,
       target: p.column.key,
       score: Math.round(p.score * 100) / 100,
-      why: exact ? 'same name' : `name like “${p.column.label}”${p.fit !== null && p.fit >= 0.8 ? ', values fit' : ''}`,
+      why: !exact
+        ? `name like “${p.column.label}”${p.fit !== null && p.fit >= 0.8 ? ', values fit' : ''}`
+        : [p.column.key, p.column.label].some((n) => normaliseHeader(n).replace(/ /g, '') === normaliseHeader(headers[p.index]!).replace(/ /g, ''))
+          ? 'same name'
+          : `a usual name for “${p.column.label}”`,
     };
   }
   // Columns whose name says nothing: by values alone, when exactly one free template column fits.
