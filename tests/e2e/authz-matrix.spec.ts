@@ -31,6 +31,8 @@ interface Row {
   /** own: ids of the caller's practice; other: ids of the other practice. */
   url: (own: Ids, other: Ids) => string;
   body?: unknown;
+  /** A multipart form instead of a JSON body (upload routes). */
+  multipart?: Record<string, string>;
   expect: Record<Who, number>;
 }
 
@@ -85,6 +87,7 @@ const MATRIX: Row[] = [
   { route: 'api/cases/[id]/reviews/[reviewId]/correction', method: 'POST', url: () => `/api/cases/${randomUUID()}/reviews/${randomUUID()}/correction`, body: { reason: 'Typo in the PAI.' }, expect: only({ clinician: 404 }) },
   { route: 'api/cases/import', method: 'GET', url: () => '/api/cases/import', expect: only({ coordinator: 200, clinician: 200 }) },
   { route: 'api/cases/import', method: 'POST', url: () => '/api/cases/import', body: { csv: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
+  { route: 'api/cases/import/read', method: 'POST', url: () => '/api/cases/import/read', multipart: { sheet: 'none' }, expect: only({ coordinator: 422, clinician: 422 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: () => `/api/visits/${randomUUID()}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
   { route: 'api/practice/settings', method: 'GET', url: () => '/api/practice/settings', expect: only({ admin: 200 }) },
   { route: 'api/practice/settings', method: 'PATCH', url: () => '/api/practice/settings', body: {}, expect: only({ admin: 422 }) },
@@ -226,7 +229,7 @@ test.describe('route × role × practice', () => {
             const url = row.url(own, other); // once: rows with unknown ids draw a new one per call
             const res = await request.fetch(url, {
               method: row.method,
-              data: row.body,
+              ...(row.multipart ? { multipart: row.multipart } : { data: row.body }),
               headers: row.body ? { 'Content-Type': 'application/json' } : undefined,
               maxRedirects: 0,
             });
