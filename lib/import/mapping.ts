@@ -189,10 +189,21 @@ export function suggestMapping(headers: readonly string[], sampleRows: readonly 
 export function codeFor(value: string, column: TemplateColumn): string | null {
   const v = normaliseCodeValue(value);
   if (v === '') return null;
-  for (const c of column.codes ?? []) {
-    if (v === c.code || v === normaliseCodeValue(c.label) || (c.synonyms ?? []).some((s) => normaliseCodeValue(s) === v)) return c.code;
+  return codeIndex(column).get(v) ?? null;
+}
+
+/** Normalised code, label and synonyms → code, built once per column. */
+const CODE_INDEX = new WeakMap<TemplateColumn, Map<string, string>>();
+function codeIndex(column: TemplateColumn): Map<string, string> {
+  let index = CODE_INDEX.get(column);
+  if (!index) {
+    index = new Map();
+    for (const c of column.codes ?? []) {
+      for (const name of [...(c.synonyms ?? []), c.label, c.code]) index.set(normaliseCodeValue(name), c.code);
+    }
+    CODE_INDEX.set(column, index);
   }
-  return null;
+  return index;
 }
 
 function nearCode(value: string, codes: readonly TemplateCode[]): string | null {
