@@ -219,9 +219,10 @@ export function suggestDateOrder(values: Iterable<string>): DateOrderSuggestion 
     return {
       order: slashed,
       reason:
-        slashed === 'dmy'
-          ? `${n} date${n === 1 ? '' : 's'} such as “${example.dmy}” start with a number above 12, which can only be a day.`
-          : `${n} date${n === 1 ? '' : 's'} such as “${example.mdy}” have a middle number above 12, which can only be a day.`,
+        (n === 1 ? `“${example[slashed]}”` : `${n} dates, such as “${example[slashed]}”,`) +
+        (slashed === 'dmy'
+          ? ` start${n === 1 ? 's' : ''} with a number above 12, which can only be a day.`
+          : ` ha${n === 1 ? 's' : 've'} a middle number above 12, which can only be a day.`),
       evidence,
       dates,
     };

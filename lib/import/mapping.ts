@@ -174,7 +174,7 @@ export function suggestMapping(headers: readonly string[], sampleRows: readonly 
   for (const proposal of proposals) {
     if (proposal.target !== null) continue;
     const values = samples[proposal.index]!;
-    const fitting = template.columns.filter((c) => !taken.has(c.key) && distinctive(c) && (valueFit(values, c) ?? 0) >= 0.9);
+    const fitting = template.columns.filter((c) => !taken.has(c.key) && distinctive(c) && (valueFit(values, c) ?? 0) >= 0.75);
     if (fitting.length !== 1) continue;
     const column = fitting[0]!;
     taken.add(column.key);

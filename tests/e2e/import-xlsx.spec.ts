@@ -20,6 +20,8 @@ async function workbook(stamp: number, badTooth: number): Promise<Buffer> {
   ];
   ws.addRow(row('A', '25/12/1970', 36, 'Ivy'));
   ws.addRow(row('B', '03/04/1981', badTooth, 'Rue'));
+  ws.addRow(row('C', '14/07/1966', 46, 'Fen'));
+  ws.addRow(row('D', '01/10/1990', 26, 'Sol'));
   return Buffer.from(await wb.xlsx.writeBuffer());
 }
 
@@ -38,13 +40,13 @@ test('a coordinator maps an .xlsx with its own headers, fixes a bad row and impo
   await upload(19);
   const mapping = page.getByRole('table', { name: 'Column mapping' });
   await expect(mapping).toBeVisible();
-  await expect(page.getByText(/Excel workbook: 2 rows/)).toBeVisible();
+  await expect(page.getByText(/Excel workbook: 4 rows/)).toBeVisible();
   // Proposed by name and by values; the date order suggested from “25/12/1970”.
   await expect(page.getByLabel('Lamina field for “Surname”')).toHaveValue('family_name');
   await expect(page.getByLabel('Lamina field for “Zahn”')).toHaveValue('tooth_fdi');
   await expect(page.getByText(/Proposed: values look like FDI tooth numbers/)).toBeVisible();
   await expect(page.getByLabel(/Day-month-year/)).toBeChecked();
-  await expect(page.getByText(/“25\/12\/1970” start with a number above 12/)).toBeVisible();
+  await expect(page.getByText(/“25\/12\/1970” starts with a number above 12/)).toBeVisible();
   // E-mails could be any of three fields: the clinician's column is mapped by hand.
   await expect(page.getByLabel('Lamina field for “Behandler”')).toHaveValue('');
   await page.getByLabel('Lamina field for “Behandler”').selectOption('operator_email');
@@ -70,13 +72,13 @@ test('a coordinator maps an .xlsx with its own headers, fixes a bad row and impo
   await expect(page.getByLabel('Lamina field for “Behandler”')).toHaveValue('operator_email');
   await expect(page.getByLabel('Code for “Endo” in Procedure')).toHaveValue('primary_treatment');
   await page.getByRole('button', { name: 'Check the file' }).click();
-  await expect(page.getByText('The file is clean: 2 cases')).toBeVisible();
-  await page.getByRole('button', { name: 'Import 2 cases' }).click();
-  await expect(page.getByText(/Imported 2 cases/)).toBeVisible();
+  await expect(page.getByText('The file is clean: 4 cases')).toBeVisible();
+  await page.getByRole('button', { name: 'Import 4 cases' }).click();
+  await expect(page.getByText(/Imported 4 cases/)).toBeVisible();
   await page.setViewportSize({ width: 375, height: 800 });
   await page.screenshot({ path: test.info().outputPath('import-done-375.png'), fullPage: true });
 
   await page.setViewportSize({ width: 1366, height: 900 });
   await page.goto(`/cases?q=XL-${stamp}`);
-  await expect(page.getByRole('table', { name: 'Cases' }).getByRole('row')).toHaveCount(3);
+  await expect(page.getByRole('table', { name: 'Cases' }).getByRole('row')).toHaveCount(5);
 });
