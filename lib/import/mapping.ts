@@ -45,31 +45,56 @@ function editDistance(a: string, b: string): number {
   return row[b.length]!;
 }
 
+interface Name {
+  text: string;
+  compact: string;
+  words: Set<string>;
+}
+
+function nameOf(normalised: string): Name {
+  return { text: normalised, compact: normalised.replace(/ /g, ''), words: new Set(normalised.split(' ')) };
+}
+
 /** 0–1: how well a normalised header names a normalised candidate. */
-function similarity(header: string, candidate: string): number {
-  if (header === '' || candidate === '') return 0;
-  if (header === candidate) return 1;
-  if (header.replace(/ /g, '') === candidate.replace(/ /g, '')) return 0.97;
-  const hw = new Set(header.split(' '));
-  const cw = new Set(candidate.split(' '));
-  const shared = [...hw].filter((w) => cw.has(w)).length;
+function similarity(header: Name, candidate: Name): number {
+  if (header.text === '' || candidate.text === '') return 0;
+  if (header.text === candidate.text) return 1;
+  if (header.compact === candidate.compact) return 0.97;
+  let shared = 0;
+  for (const w of header.words) if (candidate.words.has(w)) shared++;
   let score = 0;
   if (shared > 0) {
     // All the candidate's words in the header ("Date of birth of patient" ⊇ "date of birth").
-    const jaccard = shared / new Set([...hw, ...cw]).size;
-    score = shared === cw.size ? Math.max(0.75, jaccard) : shared === hw.size ? Math.max(0.7, jaccard) : jaccard * 0.8;
+    const jaccard = shared / (header.words.size + candidate.words.size - shared);
+    score = shared === candidate.words.size ? Math.max(0.75, jaccard) : shared === header.words.size ? Math.max(0.7, jaccard) : jaccard * 0.8;
   }
-  const d = editDistance(header, candidate);
-  const longest = Math.max(header.length, candidate.length);
-  if (longest >= 5 && d <= 2) score = Math.max(score, 0.9 - d * 0.05);
+  const a = header.text;
+  const b = candidate.text;
+  if (Math.max(a.length, b.length) >= 5 && Math.abs(a.length - b.length) <= 2) {
+    const d = editDistance(a, b);
+    if (d <= 2) score = Math.max(score, 0.9 - d * 0.05);
+  }
   return score;
 }
 
+/** The column's key, label and synonyms, normalised once. */
+const NAMES = new WeakMap<TemplateColumn, Name[]>();
+function namesOf(column: TemplateColumn): Name[] {
+  let names = NAMES.get(column);
+  if (!names) {
+    names = [column.key, column.label, ...(column.synonyms ?? [])].map((n) => nameOf(normaliseHeader(n)));
+    NAMES.set(column, names);
+  }
+  return names;
+}
+
 export function nameScore(header: string, column: TemplateColumn): number {
-  const h = normaliseHeader(header);
-  const names = [column.key, column.label, ...(column.synonyms ?? [])].map(normaliseHeader);
+  const h = nameOf(normaliseHeader(header));
   let best = 0;
-  for (const n of names) best = Math.max(best, similarity(h, n));
+  for (const n of namesOf(column)) {
+    best = Math.max(best, similarity(h, n));
+    if (best === 1) break;
+  }
   return best;
 }
 
