@@ -46,7 +46,7 @@ test('a coordinator maps an .xlsx with its own headers, fixes a bad row and impo
   await expect(page.getByLabel('Lamina field for “Zahn”')).toHaveValue('tooth_fdi');
   await expect(page.getByText(/Proposed: values look like FDI tooth numbers/)).toBeVisible();
   await expect(page.getByLabel(/Day-month-year/)).toBeChecked();
-  await expect(page.getByText(/“25\/12\/1970” starts with a number above 12/)).toBeVisible();
+  await expect(page.getByText(/2 dates, such as “25\/12\/1970”, start with a number above 12/)).toBeVisible();
   // E-mails could be any of three fields: the clinician's column is mapped by hand.
   await expect(page.getByLabel('Lamina field for “Behandler”')).toHaveValue('');
   await page.getByLabel('Lamina field for “Behandler”').selectOption('operator_email');
