@@ -2,6 +2,8 @@
 const nextConfig = {
   distDir: process.env.NEXT_DIST_DIR || '.next',
   poweredByHeader: false,
+  // Read on the server only (lib/import/read.ts loads it on demand); kept out of the bundle.
+  serverExternalPackages: ['exceljs'],
   // forbidden() and app/forbidden.tsx: pages answer 403 with Lamina's own page.
   // proxyClientMaxBodySize: proxy.ts runs on every request and Next buffers a body for it up to
   // this size, cutting longer ones short (10 MB by default): a film upload may be up to FILM_MAX_MB

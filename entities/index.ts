@@ -3,6 +3,7 @@ import { AuditEventSchema } from './AuditEvent';
 import { CaseDecisionSchema } from './CaseDecision';
 import { ContactLogEntrySchema } from './ContactLogEntry';
 import { FilmSchema } from './Film';
+import { ImportMappingSchema } from './ImportMapping';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
 import { OutcomesDataVersionSchema } from './OutcomesDataVersion';
@@ -35,12 +36,14 @@ export const entities = [
   CaseDecisionSchema,
   OutcomesDataVersionSchema,
   FilmSchema,
+  ImportMappingSchema,
 ];
 
 export * from './AuditEvent';
 export * from './CaseDecision';
 export * from './ContactLogEntry';
 export * from './Film';
+export * from './ImportMapping';
 export * from './Invitation';
 export * from './Membership';
 export * from './OutcomesDataVersion';

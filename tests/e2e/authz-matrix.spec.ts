@@ -102,6 +102,7 @@ const MATRIX: Row[] = [
   { route: 'api/films/[id]/[variant]', method: 'GET', url: (own) => `/api/films/${own.filmId}/thumbnail`, expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
   { route: 'api/cases/import', method: 'GET', url: () => '/api/cases/import', expect: only({ coordinator: 200, clinician: 200 }) },
   { route: 'api/cases/import', method: 'POST', url: () => '/api/cases/import', body: { csv: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
+  { route: 'api/cases/import/read', method: 'POST', url: () => '/api/cases/import/read', multipart: { sheet: 'none' }, expect: only({ coordinator: 422, clinician: 422 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: () => `/api/visits/${randomUUID()}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
   { route: 'api/practice/settings', method: 'GET', url: () => '/api/practice/settings', expect: only({ admin: 200 }) },
   { route: 'api/practice/settings', method: 'PATCH', url: () => '/api/practice/settings', body: {}, expect: only({ admin: 422 }) },

@@ -73,7 +73,7 @@ test('a coordinator imports a CSV with one bad row, sees the row’s error, fixe
   });
 
   await page.goto('/cases/import');
-  await page.getByLabel('CSV file').setInputFiles(file('19'));
+  await page.getByLabel('Spreadsheet (CSV or .xlsx)').setInputFiles(file('19'));
   await page.getByRole('button', { name: 'Check the file' }).click();
   const problems = page.getByRole('table', { name: 'Problems in the file' });
   await expect(problems).toBeVisible();
@@ -83,7 +83,7 @@ test('a coordinator imports a CSV with one bad row, sees the row’s error, fixe
   await expect(page.getByText('nothing was imported')).toBeVisible();
   await expect(page.getByRole('button', { name: /^Import/ })).toBeDisabled();
 
-  await page.getByLabel('CSV file').setInputFiles(file('47'));
+  await page.getByLabel('Spreadsheet (CSV or .xlsx)').setInputFiles(file('47'));
   await page.getByRole('button', { name: 'Check the file' }).click();
   await expect(page.getByText('The file is clean: 2 cases')).toBeVisible();
   await page.getByRole('button', { name: 'Import 2 cases' }).click();

@@ -115,6 +115,8 @@ interface RouteSpec {
   csv?: boolean;
   /** The body is a multipart form: its text fields (fuzzed) and a `file` (valid, random bytes or a nasty string). */
   multipart?: { fields: () => Record<string, string>; file: () => Uint8Array };
+  /** The body is a multipart upload of a file (`file`, and `sheet`): the import's file reading. */
+  upload?: boolean;
   /** Not fuzzed here, and why. */
   skip?: string;
 }
@@ -147,6 +149,7 @@ const SPECS: Record<string, RouteSpec> = {
   'films/[id]/[variant]/route.ts#GET': { params: () => ({ id: ids.film!, variant: 'thumbnail' }) },
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream'], baseQuery: { mode: 'dry-run' }, csv: true },
+  'cases/import/read/route.ts#POST': { upload: true },
   'cases/route.ts#GET': { query: [...PAGING, 'tooth', 'kind', 'operator', 'from', 'to', 'outcome', 'status', 'patientId'] },
   'cases/route.ts#POST': {
     body: () => caseInput(ids.patient!, ids.clinician!, { tooth: 46 }),
@@ -235,11 +238,33 @@ const asQueryValue = (v: unknown) => (typeof v === 'string' ? v.slice(0, 4096) :
 interface Fuzzed {
   params: Record<string, string>;
   query: [string, string][];
-  body?: string;
+  body?: string | FormData;
   /** A multipart body (then the Request sets the content type with its boundary). */
   form?: Record<string, string | Uint8Array>;
   contentType: string;
 }
+
+/** A multipart upload: the template, nasty text or random bytes as `file`, and other fields. */
+function uploadForm(file: string | Uint8Array, fields: Record<string, string> = {}): FormData {
+  const form = new FormData();
+  form.set('file', new Blob([file as BlobPart]), 'upload.bin');
+  for (const [k, v] of Object.entries(fields)) form.set(k, v);
+  return form;
+}
+const fileContent = fc.oneof(
+  fc.constant(null).map(() => new TextEncoder().encode(fuzzTemplate())),
+  fc.uint8Array({ maxLength: 2048 }),
+  fc.uint8Array({ maxLength: 64 }).map((b) => new Uint8Array([0x50, 0x4b, 0x03, 0x04, ...b])),
+  weirdString.map((v) => new TextEncoder().encode(typeof v === 'string' ? v : String(v))),
+);
+const optionsText = fc.oneof(
+  weirdString.map((v) => (typeof v === 'string' ? v : String(v))),
+  fc.array(fc.tuple(fc.constantFrom('sheet', 'dateOrder', 'decimalMark', 'columns', 'codes', 'columns.0', 'codes.kind', 'codes.kind.RCT', 'extra'), nasty), { maxLength: 3 }).map((changes) => {
+    const o: Json = { dateOrder: 'ymd', decimalMark: '.', codes: {} };
+    for (const [k, v] of changes) setPath(o, k, v);
+    return jsonText(o);
+  }),
+);
 
 function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed> {
   const baseParams = spec.params?.() ?? {};
@@ -257,7 +282,7 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
     return [...q.entries()];
   });
 
-  let body: fc.Arbitrary<{ body?: string; form?: Record<string, string | Uint8Array>; contentType: string }>;
+  let body: fc.Arbitrary<{ body?: string | FormData; form?: Record<string, string | Uint8Array>; contentType: string }>;
   if (spec.multipart) {
     const mp = spec.multipart;
     const keys = [...Object.keys(mp.fields()), 'file', 'unexpected'];
@@ -273,9 +298,16 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
       for (const [k, v] of changes) form[k] = v === 'valid' ? mp.file() : v;
       return { form, contentType: 'multipart/form-data' };
     });
+  } else if (spec.upload) {
+    body = fc
+      .record({ file: fileContent, sheet: fc.option(weirdString.map((v) => (typeof v === 'string' ? v : String(v))), { nil: undefined }) })
+      .map(({ file, sheet }) => ({ body: uploadForm(file, sheet === undefined ? {} : { sheet }), contentType: 'multipart/form-data' }));
   } else if (spec.csv) {
-    // As JSON { csv } (the route also takes text/csv and multipart; JSON is what every client may send).
-    body = csvArbitrary().map((text) => ({ body: jsonText({ csv: text }), contentType: 'application/json' }));
+    // As JSON { csv } (the route also takes text/csv), or as a multipart upload with the mapping step's options.
+    body = fc.oneof(
+      { weight: 3, arbitrary: csvArbitrary().map((text) => ({ body: jsonText({ csv: text }), contentType: 'application/json' })) },
+      { weight: 2, arbitrary: fc.record({ file: fileContent, options: optionsText }).map(({ file, options }) => ({ body: uploadForm(file, { options }), contentType: 'multipart/form-data' })) },
+    );
   } else if (method === 'GET' || method === 'DELETE') {
     body = fc.constant({ contentType: 'application/json' });
   } else {
@@ -335,7 +367,7 @@ async function send(fn: (req: Request, ctx: { params: Promise<unknown> }) => Pro
   const req = new Request(url, {
     method,
     headers: {
-      ...(form ? {} : { 'Content-Type': r.contentType }),
+      ...(form || r.body instanceof FormData ? {} : { 'Content-Type': r.contentType }),
       Origin: new URL(env.APP_URL).origin,
       'Sec-Fetch-Site': 'same-origin',
       Accept: 'application/json',
@@ -412,7 +444,7 @@ describe('fuzzed requests never answer 500 (issue 9 item 9)', async () => {
       const base: Fuzzed = {
         params: spec.params?.() ?? {},
         query: Object.entries(spec.baseQuery ?? {}),
-        body: spec.csv ? jsonText({ csv: fuzzTemplate() }) : method === 'GET' || method === 'DELETE' ? undefined : jsonText(spec.body?.() ?? {}),
+        body: spec.upload ? uploadForm(fuzzTemplate()) : spec.csv ? jsonText({ csv: fuzzTemplate() }) : method === 'GET' || method === 'DELETE' ? undefined : jsonText(spec.body?.() ?? {}),
         form: spec.multipart ? { ...spec.multipart.fields(), file: spec.multipart.file() } : undefined,
         contentType: 'application/json',
       };

@@ -14,7 +14,8 @@ export default async function ImportPage() {
       <div>
         <h1 className="text-3xl">Import past cases</h1>
         <p className="mt-1 max-w-3xl text-ink-700">
-          Bring completed cases from before Lamina in from a spreadsheet. Lamina checks every row first and shows each problem with its line;
+          Bring completed cases from before Lamina in from your own spreadsheet (CSV or Excel .xlsx, your own column names and date format).
+          Lamina checks every row first and shows each problem with its line and column;
           nothing is written until the whole file is clean, and then all rows go in together. Imported cases get their recall plans, and
           visits already past due are marked missed.
         </p>
