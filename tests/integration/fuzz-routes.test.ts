@@ -8,6 +8,7 @@ import { env } from '@/lib/env';
 import { errorResponse } from '@/lib/http';
 import { deriveLinkSecret, issueReplyToken } from '@/lib/recall/reply-token';
 import { templateCsv } from '@/lib/registry/csv';
+import { reviewTemplateCsv } from '@/lib/registry/review-csv';
 import { createCase } from '@/lib/services/cases';
 import { createPatient } from '@/lib/services/patients';
 import { answerReply } from '@/lib/services/recall-replies';
@@ -108,6 +109,8 @@ interface RouteSpec {
   fields?: string[];
   /** The body is CSV text (the import). */
   csv?: boolean;
+  /** The CSV's valid file (default: the case import's template). */
+  template?: () => string;
   /** Not fuzzed here, and why. */
   skip?: string;
 }
@@ -134,6 +137,13 @@ const SPECS: Record<string, RouteSpec> = {
   'cases/[id]/visits/route.ts#GET': { params: () => ({ id: ids.case! }) },
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream'], baseQuery: { mode: 'dry-run' }, csv: true },
+  'reviews/import/route.ts#GET': {},
+  'reviews/import/route.ts#POST': {
+    query: ['mode', 'stream', 'validRowsOnly', 'remindOverdue'],
+    baseQuery: { mode: 'dry-run' },
+    csv: true,
+    template: () => reviewTemplateCsv().replace('clinician@lamina-demo.invalid', 'cal@fuzz.test'),
+  },
   'cases/route.ts#GET': { query: [...PAGING, 'tooth', 'kind', 'operator', 'from', 'to', 'outcome', 'status', 'patientId'] },
   'cases/route.ts#POST': {
     body: () => caseInput(ids.patient!, ids.clinician!, { tooth: 46 }),
@@ -235,7 +245,7 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
   let body: fc.Arbitrary<{ body?: string; contentType: string }>;
   if (spec.csv) {
     // As JSON { csv } (the route also takes text/csv and multipart; JSON is what every client may send).
-    body = csvArbitrary().map((text) => ({ body: jsonText({ csv: text }), contentType: 'application/json' }));
+    body = csvArbitrary(spec.template ?? fuzzTemplate).map((text) => ({ body: jsonText({ csv: text }), contentType: 'application/json' }));
   } else if (method === 'GET' || method === 'DELETE') {
     body = fc.constant({ contentType: 'application/json' });
   } else {
@@ -261,8 +271,8 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
 const fuzzTemplate = () => templateCsv().replace('clinician@lamina-demo.invalid', 'cal@fuzz.test');
 
 /** The template's example row with some cells replaced by nasty text (and, sometimes, a second nasty row). */
-function csvArbitrary(): fc.Arbitrary<string> {
-  const [header, example] = Papa.parse<string[]>(fuzzTemplate().trim()).data as [string[], string[]];
+function csvArbitrary(template: () => string): fc.Arbitrary<string> {
+  const [header, example] = Papa.parse<string[]>(template().trim()).data as [string[], string[]];
   return fc
     .tuple(fc.array(fc.tuple(fc.nat({ max: header.length - 1 }), weirdString), { minLength: 1, maxLength: 4 }), fc.boolean())
     .map(([changes, twice]) => {
@@ -353,7 +363,7 @@ describe('fuzzed requests never answer 500 (issue 9 item 9)', async () => {
       const base: Fuzzed = {
         params: spec.params?.() ?? {},
         query: Object.entries(spec.baseQuery ?? {}),
-        body: spec.csv ? jsonText({ csv: fuzzTemplate() }) : method === 'GET' || method === 'DELETE' ? undefined : jsonText(spec.body?.() ?? {}),
+        body: spec.csv ? jsonText({ csv: (spec.template ?? fuzzTemplate)() }) : method === 'GET' || method === 'DELETE' ? undefined : jsonText(spec.body?.() ?? {}),
         contentType: 'application/json',
       };
       const status = await send(fn, route, method, base);
