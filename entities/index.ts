@@ -1,6 +1,7 @@
 /** Every entity, listed explicitly (no glob): the ORM config and migrations read this list. */
 import { AuditEventSchema } from './AuditEvent';
 import { ContactLogEntrySchema } from './ContactLogEntry';
+import { ImportMappingSchema } from './ImportMapping';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
 import { PatientSchema } from './Patient';
@@ -29,10 +30,12 @@ export const entities = [
   ReminderSchema,
   ContactLogEntrySchema,
   ReplyNonceSchema,
+  ImportMappingSchema,
 ];
 
 export * from './AuditEvent';
 export * from './ContactLogEntry';
+export * from './ImportMapping';
 export * from './Invitation';
 export * from './Membership';
 export * from './Patient';

@@ -11,6 +11,7 @@ import { Migration20261202100000 } from './Migration20261202100000';
 import { Migration20261202110000 } from './Migration20261202110000';
 import { Migration20261202120000 } from './Migration20261202120000';
 import { Migration20261202130000 } from './Migration20261202130000';
+import { Migration20261202150000 } from './Migration20261202150000';
 import { Migration20261202160000 } from './Migration20261202160000';
 
 export const migrationsList: MigrationObject[] = [
@@ -22,5 +23,6 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261202110000', class: Migration20261202110000 },
   { name: 'Migration20261202120000', class: Migration20261202120000 },
   { name: 'Migration20261202130000', class: Migration20261202130000 },
+  { name: 'Migration20261202150000', class: Migration20261202150000 },
   { name: 'Migration20261202160000', class: Migration20261202160000 },
 ];

@@ -136,6 +136,14 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     },
   },
   {
+    prefix: 'import.',
+    label: 'Import files',
+    actions: {
+      'import.file_read': 'Read the columns of an import file',
+      'import.mapping_saved': 'Saved the column mapping of an import file',
+    },
+  },
+  {
     prefix: 'audit.',
     label: 'Audit trail',
     actions: {
@@ -176,6 +184,7 @@ export const RECORD_KINDS = {
   user: 'Team member',
   practice: 'Practice',
   referrer: 'Referring dentist',
+  import_mapping: 'Import column mapping',
 } as const;
 export type RecordKind = keyof typeof RECORD_KINDS;
 export const RECORD_KIND_VALUES = Object.keys(RECORD_KINDS) as [RecordKind, ...RecordKind[]];

@@ -181,6 +181,8 @@ export function templateCsv(): string {
 export interface CsvError {
   line: number;
   column?: string;
+  /** The cell as written, when the reason is about it (mapped files). */
+  value?: string;
   reason: string;
 }
 
@@ -221,6 +223,20 @@ export function parseCasesCsv(text: string, options: ParseCasesOptions = {}): Pa
   const errors: CsvError[] = [];
   const { header, rows: records } = readRecords(text, errors);
   if (!header) return { rows: [], errors };
+  return parseCaseRecords(header, records, options, errors);
+}
+
+/**
+ * Checks rows already split into cells, with their file lines: the canonical rows of a mapped
+ * spreadsheet (lib/import normalises a practice's own CSV or .xlsx to the template's header and
+ * forms). `header` holds template column names; the same rules as `parseCasesCsv` apply.
+ */
+export function parseCaseRecords(
+  header: string[],
+  records: { line: number; cells: string[] }[],
+  options: ParseCasesOptions = {},
+  errors: CsvError[] = [],
+): ParseCasesResult {
   const index = checkHeader(header, errors);
   if (!index) return { rows: [], errors };
 

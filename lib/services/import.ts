@@ -6,11 +6,13 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { PatientSchema, RecallVisitSchema, ReferrerSchema, TreatmentCaseSchema } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { planImportedVisits } from '@/lib/recall';
-import { parseCasesCsv, templateCsv, type CsvError, type ValidRow } from '@/lib/registry/csv';
+import { CASE_TEMPLATE } from '@/lib/import/case-template';
+import { parseCaseRecords, parseCasesCsv, templateCsv, type CsvError, type ParseCasesResult, type ValidRow } from '@/lib/registry/csv';
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/schemas/case';
 import { formatTooth } from '@/lib/teeth';
 import { audit } from './audit';
 import { ConflictError } from './errors';
+import { ImportFileOptionsSchema, resolveImportFile } from './import-file';
 import { parseInput } from './parse';
 import { caseColumns } from './cases';
 import { patientColumns } from './patients';
@@ -29,6 +31,21 @@ export const ImportInputSchema = z.object({
     .max(IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
 });
 export type ImportInput = z.input<typeof ImportInputSchema>;
+
+/**
+ * A practice's own file (CSV or .xlsx, told by its content) with the choices of the mapping step
+ * (lib/services/import-file.ts; anything left out is proposed: the saved mapping, else the
+ * suggestions).
+ */
+export const ImportFileInputSchema = z.object({
+  mode: z.enum(['dry-run', 'commit'], { error: 'mode is dry-run or commit.' }),
+  file: z
+    .instanceof(Uint8Array, { error: 'Send the file.' })
+    .refine((b) => b.length > 0, 'The file is empty.')
+    .refine((b) => b.length <= IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+  options: ImportFileOptionsSchema.optional(),
+});
+export type ImportFileInput = z.input<typeof ImportFileInputSchema>;
 
 export interface ImportProgress {
   /** check: reading and checking rows; insert: writing (commit only). */
@@ -99,7 +116,7 @@ export function importTemplate(): { filename: string; body: string } {
 export async function importCases(em: EntityManager, actor: Actor, raw: unknown, options: ImportOptions = {}): Promise<ImportResult> {
   assertCan(actor, 'case.import');
   const started = Date.now();
-  const input = parseInput(ImportInputSchema, raw);
+  const input = isFileInput(raw) ? parseInput(ImportFileInputSchema, raw) : parseInput(ImportInputSchema, raw);
   const settings = await practiceSettings(em, actor.practiceId);
   const today = options.today ?? todayIn(settings.timeZone);
   const progress = options.onProgress ?? (() => {});
@@ -113,7 +130,7 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
     known.set(r.registry_number, r.id);
   }
   await progress({ phase: 'check', done: 0, total: 0 });
-  const parsed = parseCasesCsv(input.csv, { knownRegistryNumbers: known.keys() });
+  const parsed = 'csv' in input ? parseCasesCsv(input.csv, { knownRegistryNumbers: known.keys() }) : await parseFile(em, actor, input, known.keys());
   const total = parsed.rows.length + new Set(parsed.errors.map((e) => e.line)).size;
   await progress({ phase: 'check', done: Math.round(total / 2), total });
   const errors: CsvError[] = [...parsed.errors];
@@ -324,4 +341,36 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
     detail: { rows: total, cases: good.length, newPatients: patientRows.length, newReferrers: referrerRows.length, visits: visitRows.length },
   });
   return result(true);
+}
+
+function isFileInput(raw: unknown): boolean {
+  return typeof raw === 'object' && raw !== null && 'file' in raw;
+}
+
+/**
+ * A practice's own file: read, mapped and normalised (lib/import), then checked by the template's
+ * rules. A row with a cell that could not be normalised is not valid; its rule errors on the same
+ * cell are left out (one reason per cell). Errors name the file's own headers.
+ */
+async function parseFile(
+  em: EntityManager,
+  actor: Actor,
+  input: z.infer<typeof ImportFileInputSchema>,
+  knownRegistryNumbers: Iterable<string>,
+): Promise<ParseCasesResult> {
+  const { canonical, headerOf } = await resolveImportFile(em, actor, CASE_TEMPLATE, input.file, input.options);
+  const parsed = parseCaseRecords(
+    canonical.keys,
+    canonical.rows.map((r) => ({ line: r.line, cells: canonical.keys.map((k) => r.values[k] ?? '') })),
+    { knownRegistryNumbers },
+  );
+  const problemLines = new Set(canonical.problems.map((p) => p.line));
+  const problemCells = new Set(canonical.problems.map((p) => `${p.line}|${p.column ?? ''}`));
+  const named = (column: string | undefined) => (column === undefined ? {} : { column: headerOf.get(column) ?? column });
+  const errors: CsvError[] = [
+    ...canonical.problems.map((p) => ({ line: p.line, ...named(p.column), ...(p.value ? { value: p.value } : {}), reason: p.reason })),
+    ...parsed.errors.filter((e) => !problemCells.has(`${e.line}|${e.column ?? ''}`)).map((e) => ({ ...e, ...named(e.column) })),
+  ];
+  errors.sort((a, b) => a.line - b.line);
+  return { rows: parsed.rows.filter((r) => !problemLines.has(r.line)), errors };
 }

@@ -1,6 +1,8 @@
 import { z } from 'zod';
 import { csvDownload, handler } from '@/lib/http';
-import { IMPORT_MAX_BYTES, ImportInputSchema, importCases, importTemplate } from '@/lib/services/import';
+import { decodeText, detectFormat } from '@/lib/import/read';
+import { IMPORT_MAX_BYTES, ImportFileInputSchema, ImportInputSchema, importCases, importTemplate } from '@/lib/services/import';
+import { parseOptionsField } from '@/lib/services/import-file';
 import { ServiceError, ValidationError } from '@/lib/services/errors';
 import { parseInput } from '@/lib/services/parse';
 import { searchParamsObject } from '@/lib/schemas/paging';
@@ -17,16 +19,17 @@ const Query = z.object({
 });
 
 /**
- * POST /api/cases/import?mode=dry-run|commit with the CSV as the body (text/csv; nothing else
- * untyped), as a
- * multipart form field `file`, or as JSON { csv }. Answers the ImportResult as JSON — or, when
+ * POST /api/cases/import?mode=dry-run|commit with the file as a multipart form field `file`
+ * (CSV or .xlsx; with the mapping step's choices as the JSON field `options`), or a CSV in the
+ * template's form as the body (text/csv) or as JSON { csv }. Answers the ImportResult as JSON — or, when
  * the request sends `Accept: application/x-ndjson` (or ?stream=1), streams NDJSON lines:
  * {type:'progress', phase, done, total} … then {type:'result', ...ImportResult}, or
  * {type:'error', status, message, fieldErrors} if it fails after the stream began.
  */
 export const POST = handler('case.import', async ({ req, em, actor }) => {
   const q = parseInput(Query, searchParamsObject(req.url));
-  const input = parseInput(ImportInputSchema, { mode: q.mode, csv: await readCsv(req) });
+  const upload = await readUpload(req, q.mode);
+  const input = upload && typeof upload === 'object' && 'file' in upload ? parseInput(ImportFileInputSchema, upload) : parseInput(ImportInputSchema, upload);
   const streamed = q.stream === '1' || (req.headers.get('accept') ?? '').includes('application/x-ndjson');
   if (!streamed) return importCases(em, actor, input);
 
@@ -63,7 +66,12 @@ export const POST = handler('case.import', async ({ req, em, actor }) => {
   });
 }, { accept: ['application/json', 'multipart/form-data', 'text/csv'] });
 
-async function readCsv(req: Request): Promise<unknown> {
+/**
+ * The request's file: multipart `file` (CSV or .xlsx, told by its content) with an optional
+ * `options` field (JSON: sheet, dateOrder, decimalMark, columns, codes — lib/services/import-file.ts);
+ * a CSV without options keeps the template's strict reading, as do text/csv and JSON { csv }.
+ */
+async function readUpload(req: Request, mode: 'dry-run' | 'commit'): Promise<unknown> {
   const length = Number(req.headers.get('content-length') ?? 0);
   if (length > IMPORT_MAX_BYTES + 64 * 1024) {
     throw new ServiceError(`The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`, 413);
@@ -74,15 +82,18 @@ async function readCsv(req: Request): Promise<unknown> {
       throw new ValidationError('The upload could not be read: send the file as the form field “file”.');
     });
     const file = form.get('file');
-    if (file === null) throw new ValidationError('Some fields need attention.', { csv: ['Choose a CSV file to upload (form field “file”).'] });
-    return typeof file === 'string' ? file : await file.text();
+    if (file === null) throw new ValidationError('Some fields need attention.', { csv: ['Choose a CSV or .xlsx file to upload (form field “file”).'] });
+    const bytes = typeof file === 'string' ? new TextEncoder().encode(file) : new Uint8Array(await file.arrayBuffer());
+    const options = parseOptionsField(form.get('options'));
+    if (!options && detectFormat(bytes).format === 'csv') return { mode, csv: decodeText(bytes) };
+    return { mode, file: bytes, ...(options ? { options } : {}) };
   }
-  if (type.includes('text/csv')) return req.text();
+  if (type.includes('text/csv')) return { mode, csv: await req.text() };
   if (type.includes('application/json')) {
     const body = (await req.json().catch(() => {
       throw new ValidationError('The request body is not valid JSON.');
     })) as unknown;
-    return body && typeof body === 'object' ? (body as { csv?: unknown }).csv : undefined;
+    return { mode, csv: body && typeof body === 'object' ? (body as { csv?: unknown }).csv : undefined };
   }
-  return undefined; // an empty body: handler() refused any other type
+  return { mode, csv: undefined }; // an empty body: handler() refused any other type
 }
