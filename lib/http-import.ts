@@ -1,12 +1,24 @@
 import 'server-only';
+import { decodeText, detectFormat } from '@/lib/import/read';
 import { IMPORT_MAX_BYTES, type ImportProgress } from '@/lib/services/import';
+import { parseOptionsField, type ImportFileOptions } from '@/lib/services/import-file';
 import { ServiceError, ValidationError } from '@/lib/services/errors';
 
+export interface ImportBody {
+  /** A CSV in the template's form (text/csv, JSON { csv }, or a multipart CSV sent without options). */
+  csv?: unknown;
+  /** A practice's own file (multipart: .xlsx, or CSV with the mapping step's options). */
+  file?: Uint8Array;
+  options?: ImportFileOptions;
+  /** The other fields of a JSON body. */
+  fields: Record<string, unknown>;
+}
+
 /**
- * What the import routes share: reading the uploaded file's text (multipart field `file`,
- * text/csv, or JSON { csv, ...fields }) and streaming progress as NDJSON.
+ * What the import routes share: reading the upload (multipart field `file` with an optional JSON
+ * field `options`, text/csv, or JSON { csv, ...fields }) and streaming progress as NDJSON.
  */
-export async function readImportBody(req: Request): Promise<{ csv: unknown; fields: Record<string, unknown> }> {
+export async function readImportBody(req: Request): Promise<ImportBody> {
   const length = Number(req.headers.get('content-length') ?? 0);
   if (length > IMPORT_MAX_BYTES + 64 * 1024) {
     throw new ServiceError(`The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`, 413);
@@ -17,8 +29,11 @@ export async function readImportBody(req: Request): Promise<{ csv: unknown; fiel
       throw new ValidationError('The upload could not be read: send the file as the form field “file”.');
     });
     const file = form.get('file');
-    if (file === null) throw new ValidationError('Some fields need attention.', { csv: ['Choose a CSV file to upload (form field “file”).'] });
-    return { csv: typeof file === 'string' ? file : await file.text(), fields: {} };
+    if (file === null) throw new ValidationError('Some fields need attention.', { csv: ['Choose a CSV or .xlsx file to upload (form field “file”).'] });
+    const bytes = typeof file === 'string' ? new TextEncoder().encode(file) : new Uint8Array(await file.arrayBuffer());
+    const options = parseOptionsField(form.get('options'));
+    if (!options && detectFormat(bytes).format === 'csv') return { csv: decodeText(bytes), fields: {} };
+    return { file: bytes, ...(options ? { options } : {}), fields: {} };
   }
   if (type.includes('text/csv')) return { csv: await req.text(), fields: {} };
   if (type.includes('application/json')) {

@@ -198,8 +198,8 @@ const FIELD_COLUMN: Record<string, string> = {
 
 /**
  * Checks canonical review rows on their own (no database): the case is named, the values read,
- * the findings pass the review schema, and the same case and date do not appear twice in the file.
- * Errors are in line order.
+ * the findings pass the review schema. What needs the practice's records (the case itself, the
+ * assessor, duplicates) is lib/registry/review-import.ts. Errors are in line order.
  */
 export function parseReviewRows(records: readonly CanonicalRecord[]): { rows: ReviewImportRow[]; errors: CsvError[] } {
   const errors: CsvError[] = [];

@@ -6,12 +6,14 @@ import { ContactLogEntrySchema, ReviewSchema } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { writeCsv } from '@/lib/csv/write';
 import type { CsvError } from '@/lib/registry/csv';
-import { parseReviewRows, readReviewCsv, REVIEW_COLUMN_KEYS, reviewTemplateCsv, type CanonicalRecord } from '@/lib/registry/review-csv';
+import { parseReviewRows, readReviewCsv, REVIEW_COLUMN_KEYS, REVIEW_TEMPLATE, reviewTemplateCsv, type CanonicalRecord } from '@/lib/registry/review-csv';
 import { attachReviews, type ImportCaseInfo } from '@/lib/registry/review-import';
 import { OUTCOME_LABELS, SCORING_CAUTION, type ReviewOutcome } from '@/lib/scoring';
 import { formatTooth } from '@/lib/teeth';
 import { audit } from './audit';
 import { IMPORT_MAX_BYTES, type ImportProgress } from './import';
+import { ImportFileOptionsSchema, resolveImportFile } from './import-file';
+import { ConflictError } from './errors';
 import { parseInput } from './parse';
 import { bulkInsert, knexOf, practiceSettings, todayIn } from './registry-common';
 
@@ -27,6 +29,19 @@ export const ReviewImportInputSchema = z.object({
   remindOverdue: z.boolean().default(false),
 });
 export type ReviewImportInput = z.input<typeof ReviewImportInputSchema>;
+
+/**
+ * A practice's own file (CSV or .xlsx, told by its content) with the mapping step's choices
+ * (lib/services/import-file.ts; anything left out is proposed: the saved mapping, else suggestions).
+ */
+export const ReviewImportFileInputSchema = ReviewImportInputSchema.omit({ csv: true }).extend({
+  file: z
+    .instanceof(Uint8Array, { error: 'Send the file.' })
+    .refine((b) => b.length > 0, 'The file is empty.')
+    .refine((b) => b.length <= IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+  options: ImportFileOptionsSchema.optional(),
+});
+export type ReviewImportFileInput = z.input<typeof ReviewImportFileInputSchema>;
 
 export interface ReviewImportRowPreview {
   line: number;
@@ -90,6 +105,20 @@ export function reviewImportTemplate(): { filename: string; body: string } {
  */
 export async function importReviews(em: EntityManager, actor: Actor, raw: unknown, options: ReviewImportOptions = {}): Promise<ReviewImportResult> {
   assertCan(actor, 'case.import');
+  if (raw && typeof raw === 'object' && 'file' in raw) {
+    const input = parseInput(ReviewImportFileInputSchema, raw);
+    const { canonical, headerOf, table } = await resolveImportFile(em, actor, REVIEW_TEMPLATE, input.file, input.options);
+    const problems: CsvError[] = canonical.problems.map((p) => ({ line: p.line, ...(p.column ? { column: p.column } : {}), reason: p.reason }));
+    const keys = new Set(canonical.keys);
+    if (!keys.has('case_ref') && !(keys.has('registry_number') && keys.has('tooth_fdi'))) {
+      problems.push({ line: table.headerLine, column: 'registry_number', reason: 'Map the columns that name the case: registry number and tooth, or the case reference.' });
+    }
+    // A row with a cell that could not be read is rejected with that reason alone.
+    const badLines = new Set(problems.map((p) => p.line));
+    const records = canonical.rows.filter((r) => !badLines.has(r.line)).map((r) => ({ line: r.line, cells: r.values }));
+    const all = canonical.rows.map((r) => ({ line: r.line, cells: r.values }));
+    return importReviewRecords(em, actor, { ...input, records, allRecords: all, readErrors: problems, headerOf }, options);
+  }
   const input = parseInput(ReviewImportInputSchema, raw);
   const { records, errors } = readReviewCsv(input.csv);
   return importReviewRecords(em, actor, { ...input, records, readErrors: errors }, options);
@@ -99,7 +128,17 @@ export async function importReviews(em: EntityManager, actor: Actor, raw: unknow
 export async function importReviewRecords(
   em: EntityManager,
   actor: Actor,
-  input: { mode: 'dry-run' | 'commit'; validRowsOnly: boolean; remindOverdue: boolean; records: CanonicalRecord[]; readErrors: CsvError[] },
+  input: {
+    mode: 'dry-run' | 'commit';
+    validRowsOnly: boolean;
+    remindOverdue: boolean;
+    records: CanonicalRecord[];
+    /** Every row of the file (for the rejected CSV), when `records` leaves some out. */
+    allRecords?: CanonicalRecord[];
+    readErrors: CsvError[];
+    /** Template key → the file's own header: problems name the file's columns. */
+    headerOf?: ReadonlyMap<string, string>;
+  },
   options: ReviewImportOptions = {},
 ): Promise<ReviewImportResult> {
   assertCan(actor, 'case.import');
@@ -108,7 +147,7 @@ export async function importReviewRecords(
   const today = options.today ?? todayIn(settings.timeZone);
   const progress = options.onProgress ?? (() => {});
   const knex = knexOf(em);
-  const total = input.records.length;
+  const total = (input.allRecords ?? input.records).length;
   await progress({ phase: 'check', done: 0, total });
 
   const parsed = parseReviewRows(input.records);
@@ -126,7 +165,8 @@ export async function importReviewRecords(
   const cases = await readCases(em, actor.practiceId);
   await progress({ phase: 'check', done: Math.round((2 * total) / 3), total });
   const attached = attachReviews(parsed.rows, cases, { today, minObservationDays: settings.minObservationDays, assessors, remindOverdue: input.remindOverdue });
-  const errors = [...input.readErrors, ...parsed.errors, ...attached.errors].sort((a, b) => a.line - b.line);
+  const named = (e: CsvError): CsvError => (e.column && input.headerOf?.has(e.column) ? { ...e, column: input.headerOf.get(e.column)! } : e);
+  const errors = [...input.readErrors, ...parsed.errors, ...attached.errors].map(named).sort((a, b) => a.line - b.line);
   await progress({ phase: 'check', done: total, total });
 
   const caseById = new Map(cases.map((c) => [c.id, c]));
@@ -169,7 +209,7 @@ export async function importReviewRecords(
     }),
     errors,
     duplicates: attached.duplicates,
-    rejectedCsv: rejectedLines.size ? rejectedCsv(input.records, errors) : null,
+    rejectedCsv: rejectedLines.size ? rejectedCsv(input.allRecords ?? input.records, errors) : null,
     summary,
     caution: SCORING_CAUTION,
     durationMs: Date.now() - started,
@@ -227,19 +267,30 @@ export async function importReviewRecords(
   };
   await em.transactional(async (tx) => {
     const db = knexOf(tx);
+    // One review import per practice at a time; a review recorded since the check (same case and
+    // date) stops this one rather than doubling it.
+    await db.raw(`select pg_advisory_xact_lock(hashtext('lamina-review-import'), hashtext(?))`, [actor.practiceId]);
+    const keys = JSON.stringify(reviewRows.map((r) => ({ c: r.case, d: r.reviewDate })));
+    const clash = (await db.raw(
+      `select 1 from review r join json_to_recordset(?::json) as x(c uuid, d date) on r.case_id = x.c and r.review_date = x.d where r.superseded_by_id is null limit 1`,
+      [keys],
+    )) as { rows: unknown[] };
+    if (clash.rows.length) throw new ConflictError('Reviews of these cases were recorded meanwhile: nothing was imported. Run the check again.');
     // Visits first: a review names the visit it attended.
     for (let i = 0; i < attached.visitChanges.length; i += CHUNK * 2) {
       const chunk = attached.visitChanges.slice(i, i + CHUNK * 2);
       const json = JSON.stringify(
-        chunk.map((v) => ({ id: v.visitId, status: v.changes.status, missed_reason: v.changes.missedReason, missed_on: v.changes.missedOn, missed_from: v.changes.missedFrom })),
+        chunk.map((v) => ({ id: v.visitId, from: v.from, status: v.changes.status, missed_reason: v.changes.missedReason, missed_on: v.changes.missedOn, missed_from: v.changes.missedFrom })),
       );
-      await db.raw(
+      const updated = (await db.raw(
         `update recall_visit v set status = x.status, missed_reason = x.missed_reason, missed_on = x.missed_on, missed_from = x.missed_from,
            reinvite_needed = false, status_changed_at = ?, status_changed_by_id = ?, updated_at = ?
-         from json_to_recordset(?::json) as x(id uuid, status text, missed_reason text, missed_on date, missed_from text)
-         where v.id = x.id and v.practice_id = ?`,
+         from json_to_recordset(?::json) as x(id uuid, "from" text, status text, missed_reason text, missed_on date, missed_from text)
+         where v.id = x.id and v.practice_id = ? and v.status = x."from"`,
         [now, actor.userId, now, json, actor.practiceId],
-      );
+      )) as { rowCount: number };
+      // A visit whose status changed since the check (the desk, the scan) stops the import.
+      if (updated.rowCount !== chunk.length) throw new ConflictError('Some recall visits changed meanwhile: nothing was imported. Run the check again.');
       await step(chunk.length);
     }
     await bulkInsert(tx, ContactLogEntrySchema, logRows, CHUNK * 2);

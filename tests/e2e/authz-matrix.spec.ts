@@ -87,6 +87,7 @@ const MATRIX: Row[] = [
   { route: 'api/cases/import', method: 'POST', url: () => '/api/cases/import', body: { csv: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
   { route: 'api/reviews/import', method: 'GET', url: () => '/api/reviews/import', expect: only({ coordinator: 200, clinician: 200 }) },
   { route: 'api/reviews/import', method: 'POST', url: () => '/api/reviews/import?mode=dry-run', body: { csv: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
+  { route: 'api/reviews/import/read', method: 'POST', url: () => '/api/reviews/import/read', body: {}, expect: only({ coordinator: 422, clinician: 422 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: () => `/api/visits/${randomUUID()}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
   { route: 'api/practice/settings', method: 'GET', url: () => '/api/practice/settings', expect: only({ admin: 200 }) },
   { route: 'api/practice/settings', method: 'PATCH', url: () => '/api/practice/settings', body: {}, expect: only({ admin: 422 }) },

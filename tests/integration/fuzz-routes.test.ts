@@ -136,8 +136,9 @@ const SPECS: Record<string, RouteSpec> = {
   'cases/[id]/route.ts#DELETE': { params: () => ({ id: ids.case2! }) },
   'cases/[id]/visits/route.ts#GET': { params: () => ({ id: ids.case! }) },
   'cases/import/route.ts#GET': {},
-  'cases/import/route.ts#POST': { query: ['mode', 'stream'], baseQuery: { mode: 'dry-run' }, csv: true },
+  'cases/import/route.ts#POST': { query: ['mode', 'stream', 'validRowsOnly'], baseQuery: { mode: 'dry-run' }, csv: true },
   'reviews/import/route.ts#GET': {},
+  'reviews/import/read/route.ts#POST': {},
   'reviews/import/route.ts#POST': {
     query: ['mode', 'stream', 'validRowsOnly', 'remindOverdue'],
     baseQuery: { mode: 'dry-run' },

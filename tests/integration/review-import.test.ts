@@ -1,3 +1,4 @@
+import ExcelJS from 'exceljs';
 import Papa from 'papaparse';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { randomBytes } from 'node:crypto';
@@ -208,6 +209,90 @@ describe('review import: a 200-case, 400-review history', () => {
   });
 });
 
+/** The fixture's reviews as a practice's own workbook: its own headers and order, DD/MM/YYYY dates, decimal commas, Y/N signs, its own status words. */
+async function messyWorkbook(cells: Record<string, string>[]): Promise<{ bytes: Uint8Array; columns: (string | null)[] }> {
+  const own: [string, string | null, (v: string) => string | number][] = [
+    ['Seen on', 'review_date', (v) => v.split('-').reverse().join('/')],
+    ['Pt No.', 'registry_number', (v) => v],
+    ['Tooth', 'tooth_fdi', (v) => Number(v)],
+    ['Clinician', 'assessor_email', (v) => v.toUpperCase()],
+    ['Tooth state', 'tooth_status', (v) => ({ present: 'In situ', extracted: 'Extr.', retreated: 'Re-RCT', surgery: 'Apicectomy' })[v] ?? v],
+    ['PAI', 'pai', (v) => (v === '' ? '' : Number(v))],
+    ['Lesion mm', 'lesion_mm', (v) => v.replace('.', ',')],
+    ['Notes (internal)', null, () => 'not imported'],
+    ...(['pain_on_biting', 'tender_to_percussion', 'tender_to_palpation', 'spontaneous_pain', 'swelling', 'sinus_tract', 'mobility'] as const).map(
+      (k): [string, string, (v: string) => string] => [k.replace(/_/g, ' ').toUpperCase(), k, (v) => (v === 'yes' ? 'Y' : v === 'no' ? 'N' : '')],
+    ),
+    ['Event on', 'event_date', (v) => (v ? v.split('-').reverse().join('/') : '')],
+    ['Why extracted', 'extraction_reason', (v) => v],
+  ];
+  const wb = new ExcelJS.Workbook();
+  const ws = wb.addWorksheet('Recalls 2019-2026');
+  ws.addRow(own.map(([h]) => h));
+  for (const c of cells) ws.addRow(own.map(([, key, f]) => f(key ? (c[key] ?? '') : '')));
+  return { bytes: new Uint8Array(await wb.xlsx.writeBuffer()), columns: own.map(([, key]) => key) };
+}
+
+describe('review import: a messy .xlsx of the same history (own headers, DD/MM/YYYY, decimal commas)', () => {
+  it('imports fully with the mapping step’s choices, and the figures equal lib/outcomes on the fixture rows', async () => {
+    await resetData(services.orm, services.redis);
+    const world = await makeRegistryPractice(services.em(), 'xlsx');
+    const h = historyWorld({ seed: 16, cases: 200, today, clinicians: ['cal@xlsx.test', 'cleo@xlsx.test'] });
+    expect((await importCases(services.em(), world.coordinator, { mode: 'commit', csv: h.caseCsv })).committed).toBe(true);
+    const { bytes, columns } = await messyWorkbook(h.reviewCells);
+    const options = {
+      columns,
+      dateOrder: 'dmy' as const,
+      decimalMark: ',' as const,
+      codes: { tooth_status: { 'In situ': 'present', 'Extr.': 'extracted', 'Re-RCT': 'retreated' } },
+    };
+    const dry = await importReviews(services.em(), world.coordinator, { mode: 'dry-run', file: bytes, options });
+    expect(dry.errors).toEqual([]);
+    expect(dry.summary).toMatchObject({ rows: 400, validRows: 400 });
+    const done = await importReviews(services.em(), world.coordinator, { mode: 'commit', file: bytes, options });
+    expect(done.committed).toBe(true);
+    const ids = new Map([
+      ['cal@xlsx.test', world.clinician.userId],
+      ['cleo@xlsx.test', world.clinician2.userId],
+    ]);
+    const rows: OutcomeCase[] = h.cases.map((c, i) => ({
+      id: `case-${i}`,
+      patientId: c.registryNumber,
+      operatorId: ids.get(c.operatorEmail)!,
+      kind: 'primary_treatment',
+      completionDate: c.completionDate,
+      baselinePai: c.baselinePai,
+      lesionDiameterMm: c.lesionMm,
+      fillLengthClass: null,
+      toothGroup: 'molar',
+      toothArch: 'lower',
+      previousCaseId: null,
+      lost: false,
+      reviews: c.reviews.map((r) => ({ reviewDate: r.reviewDate, toothStatus: r.toothStatus, paiScore: r.paiScore, signs: r.signs, eventDate: r.eventDate })),
+    }));
+    expectClose((await outcomesOverview(services.em(), world.auditor, {})).overview, overview(rows, rows, today, 365));
+    const tooth = await outcomesCurves(services.em(), world.auditor, { endpoint: 'tooth', method: 'km' });
+    expectClose(tooth.curves, curves(rows, rows, { endpoint: 'tooth', method: 'km', factor: null, minObs: 365 }));
+    // a lesion written 2,5 is stored as 2.5
+    const lesions = (await knex()('review').whereNotNull('lesion_diameter_mm').select('lesion_diameter_mm')) as { lesion_diameter_mm: string }[];
+    expect(lesions.some((l) => Number(l.lesion_diameter_mm) % 1 !== 0)).toBe(true);
+  }, 120_000);
+
+  it('problems in the practice’s file name its own headers; an ambiguous date order is refused', async () => {
+    const world = await makeRegistryPractice(services.em(), 'xlsx2');
+    const h = historyWorld({ seed: 3, cases: 4, today, clinicians: ['cal@xlsx2.test'] });
+    expect((await importCases(services.em(), world.coordinator, { mode: 'commit', csv: h.caseCsv })).committed).toBe(true);
+    const cells = h.reviewCells.map((c) => ({ ...c }));
+    cells[0]!.pai = '9';
+    const { bytes, columns } = await messyWorkbook(cells);
+    const r = await importReviews(services.em(), world.coordinator, { mode: 'dry-run', file: bytes, options: { columns, dateOrder: 'dmy', decimalMark: ',', codes: { tooth_status: { 'In situ': 'present', 'Extr.': 'extracted', 'Re-RCT': 'retreated' } } } });
+    expect(r.errors.map((e) => [e.line, e.column])).toEqual([[2, 'PAI']]);
+    const mdy = await importReviews(services.em(), world.coordinator, { mode: 'dry-run', file: bytes, options: { columns, dateOrder: 'mdy', decimalMark: ',' } });
+    expect(mdy.errors.length).toBeGreaterThan(0);
+    expect(mdy.summary.validRows).toBeLessThan(cells.length);
+  });
+});
+
 describe('review import: problems, the valid rows only, the rejected rows as CSV', () => {
   it('a file with bad rows writes nothing; "import the valid rows" writes them and hands back the rejected ones with their reasons', async () => {
     await resetData(services.orm, services.redis);
@@ -249,5 +334,29 @@ describe('review import: problems, the valid rows only, the rejected rows as CSV
     const world = await makeRegistryPractice(services.em(), 'perm');
     await expect(importReviews(services.em(), world.researcher, { mode: 'dry-run', csv: 'x' })).rejects.toMatchObject({ status: 403 });
     await expect(importReviews(services.em(), world.coordinator, { mode: 'dry-run', csv: '' })).rejects.toMatchObject({ status: 422 });
+  });
+});
+
+describe('case import: the same choice, import the valid rows and download the rejected ones', () => {
+  it('a file with a bad row writes nothing, unless the valid rows are asked for; the rejected rows come back with their reasons', async () => {
+    await resetData(services.orm, services.redis);
+    const world = await makeRegistryPractice(services.em(), 'cpart');
+    const h = historyWorld({ seed: 5, cases: 4, today, clinicians: ['cal@cpart.test'] });
+    const [header, ...rows] = Papa.parse<string[]>(h.caseCsv.trim()).data;
+    rows[2]![header!.indexOf('tooth_fdi')] = '19';
+    const csv = Papa.unparse({ fields: header!, data: rows }, { newline: '\r\n' });
+    const all = await importCases(services.em(), world.coordinator, { mode: 'commit', csv });
+    expect(all.committed).toBe(false);
+    expect(all.errors.map((e) => [e.line, e.column])).toEqual([[4, 'tooth_fdi']]);
+    expect(Number((await knex()('treatment_case').count('* as n'))[0]!.n)).toBe(0);
+    const part = await importCases(services.em(), world.coordinator, { mode: 'commit', csv, validRowsOnly: true });
+    expect(part.committed).toBe(true);
+    expect(part.summary.cases).toBe(3);
+    expect(Number((await knex()('treatment_case').count('* as n'))[0]!.n)).toBe(3);
+    const rejected = Papa.parse<Record<string, string>>(part.rejectedCsv!.trim(), { header: true }).data;
+    expect(rejected.map((r) => [r.line, r.registry_number, r.tooth_fdi])).toEqual([['4', rows[2]![0], '19']]);
+    expect(rejected[0]!.problems).toMatch(/^tooth_fdi: /);
+    const audit = await services.em().findOne(AuditEventSchema, { action: 'case.imported_valid_rows' });
+    expect(audit?.detail).toMatchObject({ cases: 3, rejectedRows: 1 });
   });
 });

@@ -81,7 +81,8 @@ export function ReviewImportPanel() {
             Download the review template
           </a>{' '}
           and fill one row per review: the patient’s registry number and the tooth (or the case reference), the review date, the findings and
-          the assessor. Import the cases first.
+          the assessor — or send the practice’s own spreadsheet (.xlsx or CSV): its columns are matched to the template’s. Import the cases
+          first.
         </li>
         <li>Check the file: every row is matched to its case, and every problem listed with its line and column.</li>
         <li>
@@ -92,12 +93,12 @@ export function ReviewImportPanel() {
       <div className="flex flex-wrap items-end gap-3">
         <div>
           <label htmlFor="review-import-file" className="field-label">
-            Review CSV file
+            Review file (CSV or .xlsx)
           </label>
           <input
             id="review-import-file"
             type="file"
-            accept=".csv,text/csv"
+            accept=".csv,text/csv,.xlsx,application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"
             className="block max-w-full text-sm"
             onChange={(e) => {
               setFile(e.target.files?.[0] ?? null);

@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import { csvDownload, handler } from '@/lib/http';
 import { readImportBody, streamImport } from '@/lib/http-import';
-import { importReviews, ReviewImportInputSchema, reviewImportTemplate } from '@/lib/services/import-reviews';
+import { importReviews, ReviewImportFileInputSchema, ReviewImportInputSchema, reviewImportTemplate } from '@/lib/services/import-reviews';
 import { parseInput } from '@/lib/services/parse';
 import { searchParamsObject } from '@/lib/schemas/paging';
 
@@ -20,21 +20,19 @@ const Query = z.object({
 });
 
 /**
- * POST /api/reviews/import?mode=dry-run|commit[&validRowsOnly=1][&remindOverdue=1] with the CSV
- * (review template) as text/csv, a multipart field `file`, or JSON { csv, validRowsOnly?,
- * remindOverdue? }. Answers the ReviewImportResult, or streams NDJSON progress then the result
- * (`Accept: application/x-ndjson` or ?stream=1), as the case import does.
+ * POST /api/reviews/import?mode=dry-run|commit[&validRowsOnly=1][&remindOverdue=1] with the file
+ * as a multipart field `file` (CSV or .xlsx, told by its content; with the mapping step's choices
+ * as the JSON field `options`, as for the case import), or a CSV in the review template's form as
+ * text/csv or JSON { csv, validRowsOnly?, remindOverdue? }. Answers the ReviewImportResult, or
+ * streams NDJSON progress then the result (`Accept: application/x-ndjson` or ?stream=1).
  */
 export const POST = handler('case.import', async ({ req, em, actor }) => {
   const q = parseInput(Query, searchParamsObject(req.url));
   const body = await readImportBody(req);
-  const input = parseInput(ReviewImportInputSchema, {
-    validRowsOnly: q.validRowsOnly === '1',
-    remindOverdue: q.remindOverdue === '1',
-    ...body.fields,
-    mode: q.mode,
-    csv: body.csv,
-  });
+  const flags = { validRowsOnly: q.validRowsOnly === '1', remindOverdue: q.remindOverdue === '1', ...body.fields, mode: q.mode };
+  const input = body.file
+    ? parseInput(ReviewImportFileInputSchema, { ...flags, file: body.file, ...(body.options ? { options: body.options } : {}) })
+    : parseInput(ReviewImportInputSchema, { ...flags, csv: body.csv });
   const streamed = q.stream === '1' || (req.headers.get('accept') ?? '').includes('application/x-ndjson');
   if (!streamed) return importReviews(em, actor, input);
   return streamImport((onProgress) => importReviews(em, actor, input, { onProgress }));
