@@ -263,7 +263,11 @@ export function parseReviewRows(records: readonly CanonicalRecord[]): { rows: Re
       const text = cell(key);
       if (text === '') continue;
       const t = text.replace(/^(-?\d+),(\d+)$/, '$1.$2');
-      if (/^-?(\d+\.?\d*|\.\d+)$/.test(t)) values[field] = Number(t);
+      if (key === 'pai' && /^-?(\d+\.?\d*|\.\d+)$/.test(t) && !/^[1-5]$/.test(t)) {
+        // out of the scale: said once, on its own column (the schema would add a PAI–lesion mismatch)
+        report(key, `The periapical index is a whole number from 1 to 5 (found “${text}”).`);
+        failed.add(key);
+      } else if (/^-?(\d+\.?\d*|\.\d+)$/.test(t)) values[field] = Number(t);
       else {
         report(key, /^-?\d+([.,]\d+)?\s*[a-zµ]+$/i.test(text) ? `“${text}”: write the number without the unit.` : `“${text}” is not a number.`);
         failed.add(key);
