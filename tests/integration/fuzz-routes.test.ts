@@ -138,7 +138,6 @@ const SPECS: Record<string, RouteSpec> = {
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream', 'validRowsOnly'], baseQuery: { mode: 'dry-run' }, csv: true },
   'reviews/import/route.ts#GET': {},
-  'reviews/import/read/route.ts#POST': {},
   'reviews/import/route.ts#POST': {
     query: ['mode', 'stream', 'validRowsOnly', 'remindOverdue'],
     baseQuery: { mode: 'dry-run' },
