@@ -15,6 +15,7 @@
  * retreated (one in fourteen, 30 days before, as the event date); other reviews find it present
  * with a PAI and lesion, and sometimes signs.
  */
+import ExcelJS from 'exceljs';
 import Papa from 'papaparse';
 import { writeCsv } from '@/lib/csv/write';
 import { addDaysTo, addMonthsClamped, type CalendarDate } from '@/lib/registry/calendar-date';
@@ -165,5 +166,44 @@ export function historyWorld(o: HistoryOptions): HistoryWorld {
     caseCsv: writeCsv(CASE_HEADER, caseRows),
     reviewCsv: writeCsv(REVIEW_COLUMN_KEYS, reviewCells.map((c) => REVIEW_COLUMN_KEYS.map((k) => c[k]!))),
     reviewCells,
+  };
+}
+
+/**
+ * The reviews as a practice's own workbook, the way a practice keeps them: its own headers in its
+ * own order (and a column Lamina does not take), DD/MM/YYYY dates as text, decimal commas, Y/N
+ * signs, its own status words, upper-case e-mails, teeth and PAI as numbers. `options` are the
+ * mapping step's choices for it (lib/services/import-file.ts).
+ */
+export async function historyWorkbook(cells: readonly Record<string, string>[]): Promise<{
+  bytes: Uint8Array;
+  options: { columns: (string | null)[]; dateOrder: 'dmy'; decimalMark: ','; codes: Record<string, Record<string, string>> };
+}> {
+  const dmy = (v: string) => (v ? v.split('-').reverse().join('/') : '');
+  const own: [string, string | null, (v: string) => string | number][] = [
+    ['Seen on', 'review_date', dmy],
+    ['Pt No.', 'registry_number', (v) => v],
+    ['Tooth', 'tooth_fdi', (v) => Number(v)],
+    ['Clinician', 'assessor_email', (v) => v.toUpperCase()],
+    ['Tooth state', 'tooth_status', (v) => ({ present: 'In situ', extracted: 'Extr.', retreated: 'Re-RCT', surgery: 'Apicectomy' })[v] ?? v],
+    ['PAI', 'pai', (v) => (v === '' ? '' : Number(v))],
+    ['Lesion mm', 'lesion_mm', (v) => v.replace('.', ',')],
+    ['Notes (internal)', null, () => 'not imported'],
+    ...SIGN_COLUMNS.map((s): [string, string, (v: string) => string] => [s.key.replace(/_/g, ' ').toUpperCase(), s.key, (v) => (v === 'yes' ? 'Y' : v === 'no' ? 'N' : '')]),
+    ['Event on', 'event_date', dmy],
+    ['Why extracted', 'extraction_reason', (v) => v],
+  ];
+  const wb = new ExcelJS.Workbook();
+  const ws = wb.addWorksheet('Recalls');
+  ws.addRow(own.map(([h]) => h));
+  for (const c of cells) ws.addRow(own.map(([, key, f]) => f(key ? (c[key] ?? '') : '')));
+  return {
+    bytes: new Uint8Array(await wb.xlsx.writeBuffer()),
+    options: {
+      columns: own.map(([, key]) => key),
+      dateOrder: 'dmy',
+      decimalMark: ',',
+      codes: { tooth_status: { 'In situ': 'present', 'Extr.': 'extracted', 'Re-RCT': 'retreated' } },
+    },
   };
 }

@@ -1,10 +1,9 @@
-import ExcelJS from 'exceljs';
 import Papa from 'papaparse';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { randomBytes } from 'node:crypto';
 import type { Redis } from 'ioredis';
 import { AuditEventSchema } from '@/entities';
-import { historyWorld, type HistoryCase } from '@/lib/demo/history-file';
+import { historyWorkbook, historyWorld, type HistoryCase } from '@/lib/demo/history-file';
 import { curves, overview, type OutcomeCase } from '@/lib/outcomes';
 import { connectionForWorker, type RemindersQueue } from '@/lib/queue';
 import { planVisits } from '@/lib/recall/plan';
@@ -211,43 +210,13 @@ describe('review import: a 200-case, 400-review history', () => {
   });
 });
 
-/** The fixture's reviews as a practice's own workbook: its own headers and order, DD/MM/YYYY dates, decimal commas, Y/N signs, its own status words. */
-async function messyWorkbook(cells: Record<string, string>[]): Promise<{ bytes: Uint8Array; columns: (string | null)[] }> {
-  const own: [string, string | null, (v: string) => string | number][] = [
-    ['Seen on', 'review_date', (v) => v.split('-').reverse().join('/')],
-    ['Pt No.', 'registry_number', (v) => v],
-    ['Tooth', 'tooth_fdi', (v) => Number(v)],
-    ['Clinician', 'assessor_email', (v) => v.toUpperCase()],
-    ['Tooth state', 'tooth_status', (v) => ({ present: 'In situ', extracted: 'Extr.', retreated: 'Re-RCT', surgery: 'Apicectomy' })[v] ?? v],
-    ['PAI', 'pai', (v) => (v === '' ? '' : Number(v))],
-    ['Lesion mm', 'lesion_mm', (v) => v.replace('.', ',')],
-    ['Notes (internal)', null, () => 'not imported'],
-    ...(['pain_on_biting', 'tender_to_percussion', 'tender_to_palpation', 'spontaneous_pain', 'swelling', 'sinus_tract', 'mobility'] as const).map(
-      (k): [string, string, (v: string) => string] => [k.replace(/_/g, ' ').toUpperCase(), k, (v) => (v === 'yes' ? 'Y' : v === 'no' ? 'N' : '')],
-    ),
-    ['Event on', 'event_date', (v) => (v ? v.split('-').reverse().join('/') : '')],
-    ['Why extracted', 'extraction_reason', (v) => v],
-  ];
-  const wb = new ExcelJS.Workbook();
-  const ws = wb.addWorksheet('Recalls 2019-2026');
-  ws.addRow(own.map(([h]) => h));
-  for (const c of cells) ws.addRow(own.map(([, key, f]) => f(key ? (c[key] ?? '') : '')));
-  return { bytes: new Uint8Array(await wb.xlsx.writeBuffer()), columns: own.map(([, key]) => key) };
-}
-
 describe('review import: a messy .xlsx of the same history (own headers, DD/MM/YYYY, decimal commas)', () => {
   it('imports fully with the mapping step’s choices, and the figures equal lib/outcomes on the fixture rows', async () => {
     await resetData(services.orm, services.redis);
     const world = await makeRegistryPractice(services.em(), 'xlsx');
     const h = historyWorld({ seed: 16, cases: 200, today, clinicians: ['cal@xlsx.test', 'cleo@xlsx.test'] });
     expect((await importCases(services.em(), world.coordinator, { mode: 'commit', csv: h.caseCsv })).committed).toBe(true);
-    const { bytes, columns } = await messyWorkbook(h.reviewCells);
-    const options = {
-      columns,
-      dateOrder: 'dmy' as const,
-      decimalMark: ',' as const,
-      codes: { tooth_status: { 'In situ': 'present', 'Extr.': 'extracted', 'Re-RCT': 'retreated' } },
-    };
+    const { bytes, options } = await historyWorkbook(h.reviewCells);
     const dry = await importReviews(services.em(), world.coordinator, { mode: 'dry-run', file: bytes, options });
     expect(dry.errors).toEqual([]);
     expect(dry.summary).toMatchObject({ rows: 400, validRows: 400 });
@@ -286,10 +255,10 @@ describe('review import: a messy .xlsx of the same history (own headers, DD/MM/Y
     expect((await importCases(services.em(), world.coordinator, { mode: 'commit', csv: h.caseCsv })).committed).toBe(true);
     const cells = h.reviewCells.map((c) => ({ ...c }));
     cells[0]!.pai = '9';
-    const { bytes, columns } = await messyWorkbook(cells);
-    const r = await importReviews(services.em(), world.coordinator, { mode: 'dry-run', file: bytes, options: { columns, dateOrder: 'dmy', decimalMark: ',', codes: { tooth_status: { 'In situ': 'present', 'Extr.': 'extracted', 'Re-RCT': 'retreated' } } } });
+    const { bytes, options } = await historyWorkbook(cells);
+    const r = await importReviews(services.em(), world.coordinator, { mode: 'dry-run', file: bytes, options });
     expect(r.errors.map((e) => [e.line, e.column])).toEqual([[2, 'PAI']]);
-    const mdy = await importReviews(services.em(), world.coordinator, { mode: 'dry-run', file: bytes, options: { columns, dateOrder: 'mdy', decimalMark: ',' } });
+    const mdy = await importReviews(services.em(), world.coordinator, { mode: 'dry-run', file: bytes, options: { ...options, dateOrder: 'mdy' } });
     expect(mdy.errors.length).toBeGreaterThan(0);
     expect(mdy.summary.validRows).toBeLessThan(cells.length);
   });
