@@ -4,6 +4,7 @@ import Link from 'next/link';
 import type { ImportProgress } from '@/lib/services/import';
 import type { ReviewImportResult } from '@/lib/services/import-reviews';
 import { Notice } from '@/components/ui/Notice';
+import { fmtDate } from '@/components/ui/format';
 
 type Mode = 'dry-run' | 'commit' | 'commit-valid';
 type Phase = { kind: 'idle' } | { kind: 'running'; mode: Mode; progress?: ImportProgress } | { kind: 'done'; result: ReviewImportResult } | { kind: 'failed'; message: string };
@@ -221,7 +222,7 @@ export function ReviewImportPanel() {
                     <td data-label="Line">{r.line}</td>
                     <td data-label="Patient">{r.patient}</td>
                     <td data-label="Tooth">{r.tooth}</td>
-                    <td data-label="Review">{r.reviewDate}</td>
+                    <td data-label="Review">{fmtDate(r.reviewDate)}</td>
                     <td data-label="Outcome">{r.outcomeLabel}</td>
                     <td data-label="Visit">{r.visitMilestone === null ? 'Unplanned' : `${r.visitMilestone}-month, attended`}</td>
                   </tr>
