@@ -28,6 +28,8 @@ export const RecallVisitSchema = defineEntity({
     bookedDate: p.date().nullable(),
     /** The visit moved after an invitation or booking (completion date changed): invite again. */
     reinviteNeeded: p.boolean().default(false),
+    /** False: the recall scan sends no automatic reminder for it (a visit already due when the review import brought the practice's history in); the desk still can. */
+    autoReminders: p.boolean().default(true),
     lostToFollowUp: p.boolean().default(false),
     closedOn: p.date().nullable(),
     note: p.string().length(500).nullable(),

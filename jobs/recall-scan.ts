@@ -216,6 +216,7 @@ async function queueSteps(ctx: ScanContext, practiceId: string, timeZone: string
     .join('patient as p', 'p.id', 'c.patient_id')
     .where('v.practice_id', practiceId)
     .whereIn('v.status', CONTACT_STATUSES)
+    .where('v.auto_reminders', true)
     .where('v.window_end', '>=', today)
     .where((b) => b.whereIn('v.status', AWAITING_REPLY_STATUSES).orWhere('v.due_date', '<=', horizon))
     .select('v.id', 'v.status', 'v.due_date', 'v.window_end', 'v.reminder_round', knex.raw(`${EMAIL_CONSENT_SQL} as consent`))) as {

@@ -13,6 +13,7 @@ import { Migration20261202120000 } from './Migration20261202120000';
 import { Migration20261202130000 } from './Migration20261202130000';
 import { Migration20261202140000 } from './Migration20261202140000';
 import { Migration20261202150000 } from './Migration20261202150000';
+import { Migration20261202160000 } from './Migration20261202160000';
 import { Migration20261202170000 } from './Migration20261202170000';
 import { Migration20261202180000 } from './Migration20261202180000';
 
@@ -27,6 +28,7 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261202130000', class: Migration20261202130000 },
   { name: 'Migration20261202140000', class: Migration20261202140000 },
   { name: 'Migration20261202150000', class: Migration20261202150000 },
+  { name: 'Migration20261202160000', class: Migration20261202160000 },
   { name: 'Migration20261202170000', class: Migration20261202170000 },
   { name: 'Migration20261202180000', class: Migration20261202180000 },
 ];

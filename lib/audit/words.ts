@@ -68,6 +68,7 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'case.restored': 'Restored a case',
       'case.import_checked': 'Checked a case import file',
       'case.imported': 'Imported cases',
+      'case.imported_valid_rows': 'Imported the valid rows of a case file (rejected rows left out)',
     },
   },
   {
@@ -78,6 +79,8 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'review.created': 'Recorded a review',
       'review.corrected': 'Corrected a review (new version)',
       'review.superseded': 'A review version was replaced by a correction',
+      'review.import_checked': 'Checked a review import file',
+      'review.imported': 'Imported past reviews and visits',
     },
   },
   {

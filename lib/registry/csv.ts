@@ -210,7 +210,7 @@ export interface ParseCasesOptions {
   allowPrimaryTeeth?: boolean;
 }
 
-interface RawRow {
+export interface RawRow {
   line: number;
   cells: string[];
 }
@@ -410,7 +410,7 @@ function readCase(schema: typeof DEFAULT_SCHEMAS.CaseImportSchema, cell: Cell, r
 }
 
 /** Splits the text into records with the line each starts on. */
-function readRecords(text: string, errors: CsvError[]): { header: string[] | null; rows: RawRow[] } {
+export function readRecords(text: string, errors: CsvError[]): { header: string[] | null; rows: RawRow[] } {
   const normalised = text.replace(/^\uFEFF/, '').replace(/\r\n?/g, '\n');
   if (normalised.trim() === '') {
     errors.push({ line: 1, reason: 'The file is empty: start from the template, which has the header on line 1.' });

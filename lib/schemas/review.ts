@@ -131,10 +131,16 @@ const wrap = <T extends z.ZodType>(schema: T) => z.preprocess(dropForExtracted, 
 export const ReviewSchema = wrap(ReviewObject.superRefine(reviewRules(false)));
 /** A new review from the entry form or the API; the assessor may be set by the service. */
 export const ReviewCreateSchema = wrap(ReviewObject.omit({ id: true }).superRefine(reviewRules(false)));
+/**
+ * One row of the review import (lib/registry/review-csv.ts): the findings of a past review, without
+ * ids — the import service finds the case, the assessor and the visit itself.
+ */
+export const ReviewImportSchema = wrap(ReviewObject.omit({ id: true, caseId: true, visitId: true, assessorId: true }).superRefine(reviewRules(false)));
 /** A correction to some findings. */
 export const ReviewUpdateSchema = wrap(ReviewObject.omit({ id: true, caseId: true }).partial().superRefine(reviewRules(true)));
 
 export type Review = z.output<typeof ReviewSchema>;
 export type ReviewCreate = z.output<typeof ReviewCreateSchema>;
 export type ReviewUpdate = z.output<typeof ReviewUpdateSchema>;
+export type ReviewImport = z.output<typeof ReviewImportSchema>;
 export type ReviewFormValues = z.input<typeof ReviewObject>;

@@ -7,7 +7,8 @@ import { PatientSchema, RecallVisitSchema, ReferrerSchema, TreatmentCaseSchema }
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { planImportedVisits } from '@/lib/recall';
 import { CASE_TEMPLATE } from '@/lib/import/case-template';
-import { parseCaseRecords, parseCasesCsv, templateCsv, type CsvError, type ParseCasesResult, type ValidRow } from '@/lib/registry/csv';
+import { writeCsv } from '@/lib/csv/write';
+import { parseCaseRecords, parseCasesCsv, readRecords, templateCsv, type CsvError, type ParseCasesResult, type ValidRow } from '@/lib/registry/csv';
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/schemas/case';
 import { formatTooth } from '@/lib/teeth';
 import { audit } from './audit';
@@ -25,6 +26,8 @@ export const IMPORT_MAX_BYTES = 20 * 1024 * 1024;
 
 export const ImportInputSchema = z.object({
   mode: z.enum(['dry-run', 'commit'], { error: 'mode is dry-run or commit.' }),
+  /** Commit the valid rows and leave the rejected ones out (they come back as a CSV with their reasons). */
+  validRowsOnly: z.boolean().default(false),
   csv: z
     .string({ error: 'Send the CSV file.' })
     .min(1, 'The file is empty: start from the template.')
@@ -39,6 +42,7 @@ export type ImportInput = z.input<typeof ImportInputSchema>;
  */
 export const ImportFileInputSchema = z.object({
   mode: z.enum(['dry-run', 'commit'], { error: 'mode is dry-run or commit.' }),
+  validRowsOnly: z.boolean().default(false),
   file: z
     .instanceof(Uint8Array, { error: 'Send the file.' })
     .refine((b) => b.length > 0, 'The file is empty.')
@@ -73,6 +77,8 @@ export interface ImportResult {
   mode: 'dry-run' | 'commit';
   /** True only for a commit that wrote every row. */
   committed: boolean;
+  /** The rejected rows as CSV (the file's cells, then line and problems); null when none. */
+  rejectedCsv: string | null;
   rows: ImportRowPreview[];
   /** Every bad row, by file line and column; nothing is written while there is one. */
   errors: CsvError[];
@@ -130,7 +136,8 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
     known.set(r.registry_number, r.id);
   }
   await progress({ phase: 'check', done: 0, total: 0 });
-  const parsed = 'csv' in input ? parseCasesCsv(input.csv, { knownRegistryNumbers: known.keys() }) : await parseFile(em, actor, input, known.keys());
+  const parsed: ParseCasesResult & { records?: RejectableRecords } =
+    'csv' in input ? parseCasesCsv(input.csv, { knownRegistryNumbers: known.keys() }) : await parseFile(em, actor, input, known.keys());
   const total = parsed.rows.length + new Set(parsed.errors.map((e) => e.line)).size;
   await progress({ phase: 'check', done: Math.round(total / 2), total });
   const errors: CsvError[] = [...parsed.errors];
@@ -239,11 +246,12 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
     committed,
     rows: previews.map((p) => p.preview),
     errors,
+    rejectedCsv: errors.length ? rejectedRowsCsv(parsed.records ?? csvRecords('csv' in input ? input.csv : ''), errors) : null,
     summary,
     durationMs: Date.now() - started,
   });
 
-  if (input.mode === 'dry-run' || errors.length > 0) {
+  if (input.mode === 'dry-run' || (errors.length > 0 && !input.validRowsOnly) || good.length === 0) {
     await audit(em, actor, {
       action: 'case.import_checked',
       entityType: 'case',
@@ -336,11 +344,37 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
     throw e;
   }
   await audit(em, actor, {
-    action: 'case.imported',
+    action: errors.length ? 'case.imported_valid_rows' : 'case.imported',
     entityType: 'case',
-    detail: { rows: total, cases: good.length, newPatients: patientRows.length, newReferrers: referrerRows.length, visits: visitRows.length },
+    detail: {
+      rows: total,
+      cases: good.length,
+      newPatients: patientRows.length,
+      newReferrers: referrerRows.length,
+      visits: visitRows.length,
+      ...(errors.length ? { rejectedRows: new Set(errors.map((e) => e.line)).size } : {}),
+    },
   });
   return result(true);
+}
+
+/** A file's rows by line, under its header, for the rejected-rows CSV. */
+interface RejectableRecords {
+  header: string[];
+  rows: Map<number, string[]>;
+}
+
+function csvRecords(text: string): RejectableRecords {
+  const { header, rows } = readRecords(text, []);
+  return { header: header ?? [], rows: new Map(rows.map((r) => [r.line, r.cells])) };
+}
+
+/** The rejected rows: the line, their cells as read, and every problem (the one CSV writer). */
+function rejectedRowsCsv(records: RejectableRecords, errors: readonly CsvError[]): string {
+  const reasons = new Map<number, string[]>();
+  for (const e of errors) reasons.set(e.line, [...(reasons.get(e.line) ?? []), e.column ? `${e.column}: ${e.reason}` : e.reason]);
+  const rows = [...reasons.keys()].sort((a, b) => a - b).map((line) => [line, ...records.header.map((_, i) => records.rows.get(line)?.[i] ?? ''), reasons.get(line)!.join(' | ')]);
+  return writeCsv(['line', ...records.header, 'problems'], rows);
 }
 
 function isFileInput(raw: unknown): boolean {
@@ -357,7 +391,7 @@ async function parseFile(
   actor: Actor,
   input: z.infer<typeof ImportFileInputSchema>,
   knownRegistryNumbers: Iterable<string>,
-): Promise<ParseCasesResult> {
+): Promise<ParseCasesResult & { records: RejectableRecords }> {
   const { canonical, headerOf } = await resolveImportFile(em, actor, CASE_TEMPLATE, input.file, input.options);
   const parsed = parseCaseRecords(
     canonical.keys,
@@ -372,5 +406,6 @@ async function parseFile(
     ...parsed.errors.filter((e) => !problemCells.has(`${e.line}|${e.column ?? ''}`)).map((e) => ({ ...e, ...named(e.column) })),
   ];
   errors.sort((a, b) => a.line - b.line);
-  return { rows: parsed.rows.filter((r) => !problemLines.has(r.line)), errors };
+  const records = { header: canonical.keys, rows: new Map(canonical.rows.map((r) => [r.line, canonical.keys.map((k) => r.values[k] ?? '')])) };
+  return { rows: parsed.rows.filter((r) => !problemLines.has(r.line)), errors, records };
 }

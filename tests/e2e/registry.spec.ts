@@ -81,7 +81,8 @@ test('a coordinator imports a CSV with one bad row, sees the row’s error, fixe
   await expect(problems.getByRole('row').nth(1)).toContainText('3');
   await expect(problems.getByRole('row').nth(1)).toContainText('tooth_fdi');
   await expect(page.getByText('nothing was imported')).toBeVisible();
-  await expect(page.getByRole('button', { name: /^Import/ })).toBeDisabled();
+  await expect(page.getByRole('button', { name: 'Import', exact: true })).toBeDisabled();
+  await expect(page.getByRole('button', { name: 'Import the 1 valid row only' })).toBeVisible();
 
   await page.getByLabel('Spreadsheet (CSV or .xlsx)').setInputFiles(file('47'));
   await page.getByRole('button', { name: 'Check the file' }).click();

@@ -8,6 +8,7 @@ import { env } from '@/lib/env';
 import { errorResponse } from '@/lib/http';
 import { deriveLinkSecret, issueReplyToken } from '@/lib/recall/reply-token';
 import { templateCsv } from '@/lib/registry/csv';
+import { reviewTemplateCsv } from '@/lib/registry/review-csv';
 import { createCase } from '@/lib/services/cases';
 import { uploadFilm } from '@/lib/services/films';
 import { createPatient } from '@/lib/services/patients';
@@ -117,6 +118,8 @@ interface RouteSpec {
   multipart?: { fields: () => Record<string, string>; file: () => Uint8Array };
   /** The body is a multipart upload of a file (`file`, and `sheet`): the import's file reading. */
   upload?: boolean;
+  /** The CSV's valid file (default: the case import's template). */
+  template?: () => string;
   /** Not fuzzed here, and why. */
   skip?: string;
 }
@@ -148,8 +151,15 @@ const SPECS: Record<string, RouteSpec> = {
   },
   'films/[id]/[variant]/route.ts#GET': { params: () => ({ id: ids.film!, variant: 'thumbnail' }) },
   'cases/import/route.ts#GET': {},
-  'cases/import/route.ts#POST': { query: ['mode', 'stream'], baseQuery: { mode: 'dry-run' }, csv: true },
+  'cases/import/route.ts#POST': { query: ['mode', 'stream', 'validRowsOnly'], baseQuery: { mode: 'dry-run' }, csv: true },
   'cases/import/read/route.ts#POST': { upload: true },
+  'reviews/import/route.ts#GET': {},
+  'reviews/import/route.ts#POST': {
+    query: ['mode', 'stream', 'validRowsOnly', 'remindOverdue'],
+    baseQuery: { mode: 'dry-run' },
+    csv: true,
+    template: () => reviewTemplateCsv().replace('clinician@lamina-demo.invalid', 'cal@fuzz.test'),
+  },
   'cases/route.ts#GET': { query: [...PAGING, 'tooth', 'kind', 'operator', 'from', 'to', 'outcome', 'status', 'patientId'] },
   'cases/route.ts#POST': {
     body: () => caseInput(ids.patient!, ids.clinician!, { tooth: 46 }),
@@ -305,7 +315,7 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
   } else if (spec.csv) {
     // As JSON { csv } (the route also takes text/csv), or as a multipart upload with the mapping step's options.
     body = fc.oneof(
-      { weight: 3, arbitrary: csvArbitrary().map((text) => ({ body: jsonText({ csv: text }), contentType: 'application/json' })) },
+      { weight: 3, arbitrary: csvArbitrary(spec.template ?? fuzzTemplate).map((text) => ({ body: jsonText({ csv: text }), contentType: 'application/json' })) },
       { weight: 2, arbitrary: fc.record({ file: fileContent, options: optionsText }).map(({ file, options }) => ({ body: uploadForm(file, { options }), contentType: 'multipart/form-data' })) },
     );
   } else if (method === 'GET' || method === 'DELETE') {
@@ -333,8 +343,8 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
 const fuzzTemplate = () => templateCsv().replace('clinician@lamina-demo.invalid', 'cal@fuzz.test');
 
 /** The template's example row with some cells replaced by nasty text (and, sometimes, a second nasty row). */
-function csvArbitrary(): fc.Arbitrary<string> {
-  const [header, example] = Papa.parse<string[]>(fuzzTemplate().trim()).data as [string[], string[]];
+function csvArbitrary(template: () => string): fc.Arbitrary<string> {
+  const [header, example] = Papa.parse<string[]>(template().trim()).data as [string[], string[]];
   return fc
     .tuple(fc.array(fc.tuple(fc.nat({ max: header.length - 1 }), weirdString), { minLength: 1, maxLength: 4 }), fc.boolean())
     .map(([changes, twice]) => {
@@ -444,7 +454,7 @@ describe('fuzzed requests never answer 500 (issue 9 item 9)', async () => {
       const base: Fuzzed = {
         params: spec.params?.() ?? {},
         query: Object.entries(spec.baseQuery ?? {}),
-        body: spec.upload ? uploadForm(fuzzTemplate()) : spec.csv ? jsonText({ csv: fuzzTemplate() }) : method === 'GET' || method === 'DELETE' ? undefined : jsonText(spec.body?.() ?? {}),
+        body: spec.upload ? uploadForm(fuzzTemplate()) : spec.csv ? jsonText({ csv: (spec.template ?? fuzzTemplate)() }) : method === 'GET' || method === 'DELETE' ? undefined : jsonText(spec.body?.() ?? {}),
         form: spec.multipart ? { ...spec.multipart.fields(), file: spec.multipart.file() } : undefined,
         contentType: 'application/json',
       };

@@ -8,7 +8,8 @@ import { suggestCodes } from '@/lib/import/mapping';
 import type { TemplateColumn } from '@/lib/import/template';
 import { Notice } from '@/components/ui/Notice';
 
-type Phase = { kind: 'idle' } | { kind: 'running'; mode: 'dry-run' | 'commit'; progress?: ImportProgress } | { kind: 'done'; result: ImportResult } | { kind: 'failed'; message: string };
+type Mode = 'dry-run' | 'commit' | 'commit-valid';
+type Phase = { kind: 'idle' } | { kind: 'running'; mode: Mode; progress?: ImportProgress } | { kind: 'done'; result: ImportResult } | { kind: 'failed'; message: string };
 
 interface Choices {
   sheet: string | null;
@@ -34,11 +35,12 @@ async function readFile(file: File, sheet: string | null): Promise<ImportPreview
 }
 
 /** Reads the NDJSON progress stream of POST /api/cases/import until its result line. */
-async function runImport(file: File, choices: Choices, mode: 'dry-run' | 'commit', onProgress: (p: ImportProgress) => void): Promise<ImportResult> {
+async function runImport(file: File, choices: Choices, mode: Mode, onProgress: (p: ImportProgress) => void): Promise<ImportResult> {
   const form = new FormData();
   form.set('file', file);
   form.set('options', JSON.stringify(choices));
-  const res = await fetch(`/api/cases/import?mode=${mode}&stream=1`, { method: 'POST', body: form, headers: { Accept: 'application/x-ndjson' } });
+  const query = mode === 'commit-valid' ? 'mode=commit&validRowsOnly=1' : `mode=${mode}`;
+  const res = await fetch(`/api/cases/import?${query}&stream=1`, { method: 'POST', body: form, headers: { Accept: 'application/x-ndjson' } });
   if (!res.ok || !res.body) throw await failure(res, 'The file could not be sent.');
   const reader = res.body.pipeThrough(new TextDecoderStream()).getReader();
   let buffer = '';
@@ -70,6 +72,15 @@ function initialChoices(preview: ImportPreview): Choices {
   return { sheet: preview.sheet, columns: [...preview.proposed.columns], dateOrder: preview.proposed.dateOrder, decimalMark: preview.proposed.decimalMark, codes };
 }
 
+function downloadCsv(text: string, name: string) {
+  const url = URL.createObjectURL(new Blob([text], { type: 'text/csv;charset=utf-8' }));
+  const a = document.createElement('a');
+  a.href = url;
+  a.download = name;
+  a.click();
+  setTimeout(() => URL.revokeObjectURL(url), 1000);
+}
+
 export function ImportPanel() {
   const [file, setFile] = useState<File | null>(null);
   const [preview, setPreview] = useState<ImportPreview | null>(null);
@@ -93,7 +104,7 @@ export function ImportPanel() {
     }
   };
 
-  const start = async (mode: 'dry-run' | 'commit') => {
+  const start = async (mode: Mode) => {
     if (!file || !choices) return;
     setPhase({ kind: 'running', mode });
     try {
@@ -173,6 +184,11 @@ export function ImportPanel() {
           >
             {clean && result?.mode === 'dry-run' ? `Import ${result.summary.validRows} case${result.summary.validRows === 1 ? '' : 's'}` : 'Import'}
           </button>
+          {result && !clean && result.mode === 'dry-run' && result.summary.validRows > 0 && (
+            <button type="button" className="btn-secondary" disabled={phase.kind === 'running' || reading} onClick={() => start('commit-valid')}>
+              Import the {result.summary.validRows} valid row{result.summary.validRows === 1 ? '' : 's'} only
+            </button>
+          )}
         </div>
       )}
 
@@ -189,7 +205,7 @@ export function ImportPanel() {
 
       {result && result.mode === 'commit' && result.committed && (
         <Notice tone="ok">
-          Imported {result.summary.cases} cases ({result.summary.newPatients} new patients, {result.summary.visits} recall visits, of which{' '}
+          Imported {result.summary.cases} cases{result.errors.length ? ` (the ${badRows} rejected row${badRows === 1 ? '' : 's'} left out)` : ''} ({result.summary.newPatients} new patients, {result.summary.visits} recall visits, of which{' '}
           {result.summary.visitsMissed} already past due and marked missed). <Link href="/cases">See the cases</Link>.
         </Notice>
       )}
@@ -197,8 +213,14 @@ export function ImportPanel() {
         <div className="space-y-3">
           <Notice tone="alert">
             {result.errors.length} problem{result.errors.length === 1 ? '' : 's'} in {badRows} row
-            {badRows === 1 ? '' : 's'}: nothing was imported. Fix the file (or the choices above) and check it again.
+            {badRows === 1 ? '' : 's'}
+            {result.committed ? ': those rows were left out.' : ': nothing was imported. Fix the file (or the choices above) and check it again, or import the valid rows only.'}
           </Notice>
+          {result.rejectedCsv && (
+            <button type="button" className="btn-secondary" onClick={() => downloadCsv(result.rejectedCsv!, 'lamina-cases-rejected.csv')}>
+              Download the rejected rows (CSV with reasons)
+            </button>
+          )}
           <div className="max-h-96 overflow-auto rounded-md border border-bone-200">
             <table className="table-dense table-stack w-full" aria-label="Problems in the file">
               <thead>

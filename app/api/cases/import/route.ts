@@ -16,10 +16,12 @@ export const GET = handler('case.import', async () => {
 const Query = z.object({
   mode: z.enum(['dry-run', 'commit'], { error: 'Add ?mode=dry-run or ?mode=commit.' }),
   stream: z.enum(['0', '1']).optional(),
+  /** 1: commit the valid rows and leave the rejected ones out (the result's rejectedCsv lists them with their reasons). */
+  validRowsOnly: z.enum(['0', '1']).optional(),
 });
 
 /**
- * POST /api/cases/import?mode=dry-run|commit with the file as a multipart form field `file`
+ * POST /api/cases/import?mode=dry-run|commit[&validRowsOnly=1] with the file as a multipart form field `file`
  * (CSV or .xlsx; with the mapping step's choices as the JSON field `options`), or a CSV in the
  * template's form as the body (text/csv) or as JSON { csv }. Answers the ImportResult as JSON — or, when
  * the request sends `Accept: application/x-ndjson` (or ?stream=1), streams NDJSON lines:
@@ -28,7 +30,7 @@ const Query = z.object({
  */
 export const POST = handler('case.import', async ({ req, em, actor }) => {
   const q = parseInput(Query, searchParamsObject(req.url));
-  const upload = await readUpload(req, q.mode);
+  const upload = { ...((await readUpload(req, q.mode)) as object), validRowsOnly: q.validRowsOnly === '1' };
   const input = upload && typeof upload === 'object' && 'file' in upload ? parseInput(ImportFileInputSchema, upload) : parseInput(ImportInputSchema, upload);
   const streamed = q.stream === '1' || (req.headers.get('accept') ?? '').includes('application/x-ndjson');
   if (!streamed) return importCases(em, actor, input);
