@@ -36,6 +36,10 @@ export const CaseDecisionSchema = defineEntity({
     createdAt: p.datetime().onCreate(() => new Date()),
   },
   indexes: [{ name: 'case_decision_case_index', properties: ['case', 'createdAt'] }],
+  uniques: [
+    // one first step per case: a later step replaces an earlier one (replaces), so two first steps would be two histories
+    { name: 'case_decision_case_first_unique', expression: 'create unique index "case_decision_case_first_unique" on "case_decision" ("case_id") where "replaces_id" is null' },
+  ],
 });
 
 export type CaseDecision = InferEntity<typeof CaseDecisionSchema>;
