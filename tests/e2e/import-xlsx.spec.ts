@@ -60,7 +60,9 @@ test('a coordinator maps an .xlsx with its own headers, fixes a bad row and impo
   await expect(problems.getByRole('row')).toHaveCount(2);
   await expect(problems.getByRole('row').nth(1)).toContainText('3');
   await expect(problems.getByRole('row').nth(1)).toContainText('Zahn');
-  await expect(page.getByRole('button', { name: /^Import/ })).toBeDisabled();
+  await expect(page.getByRole('button', { name: 'Import', exact: true })).toBeDisabled();
+  // or the valid rows only, the bad one left out (with a CSV of it and its reasons)
+  await expect(page.getByRole('button', { name: 'Import the 3 valid rows only' })).toBeEnabled();
   await page.screenshot({ path: test.info().outputPath('import-problems-1366.png'), fullPage: true });
   await page.setViewportSize({ width: 375, height: 800 });
   await page.screenshot({ path: test.info().outputPath('import-problems-375.png'), fullPage: true });

@@ -38,7 +38,7 @@ test('a clinician imports past reviews, fixes a bad row, and sees the outcomes a
     return csvLine(v);
   };
   await page.goto('/cases/import');
-  await page.getByLabel('CSV file').setInputFiles({ name: 'cases.csv', mimeType: 'text/csv', buffer: Buffer.from([header, ...regs.map(caseRow)].join('\n')) });
+  await page.getByLabel('Spreadsheet (CSV or .xlsx)').setInputFiles({ name: 'cases.csv', mimeType: 'text/csv', buffer: Buffer.from([header, ...regs.map(caseRow)].join('\n')) });
   await page.getByRole('button', { name: 'Check the file' }).click();
   await page.getByRole('button', { name: 'Import 3 cases' }).click();
   await expect(page.getByText(/Imported 3 cases/)).toBeVisible();
