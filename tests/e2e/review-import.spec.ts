@@ -61,10 +61,13 @@ test('a clinician imports past reviews, fixes a bad row, and sees the outcomes a
   const file = (badTooth: string) => ({
     name: 'reviews.csv',
     mimeType: 'text/csv',
-    buffer: Buffer.from([rHeader, reviewRow(regs[0]!, '36', 370, '1', '0'), reviewRow(regs[1]!, badTooth, 380, '2', '1'), reviewRow(regs[2]!, '36', 730, '4', '3')].join('\n')),
+    // the practice's own name for the review date: the mapping step matches it to the template's field
+    buffer: Buffer.from([rHeader!.replace('review_date', 'Seen on'), reviewRow(regs[0]!, '36', 370, '1', '0'), reviewRow(regs[1]!, badTooth, 380, '2', '1'), reviewRow(regs[2]!, '36', 730, '4', '3')].join('\n')),
   });
   const panel = page.getByRole('region', { name: 'Past reviews and visits' });
   await panel.getByLabel('Review file (CSV or .xlsx)').setInputFiles(file('11'));
+  await expect(panel.getByRole('table', { name: 'Column mapping' })).toBeVisible();
+  await panel.getByLabel('Lamina field for “Seen on”').selectOption('review_date');
   await panel.getByRole('button', { name: 'Check the reviews' }).click();
   const problems = panel.getByRole('table', { name: 'Problems in the review file' });
   await expect(problems).toBeVisible();
@@ -81,6 +84,8 @@ test('a clinician imports past reviews, fixes a bad row, and sees the outcomes a
   await page.setViewportSize({ width: 1366, height: 900 });
 
   await panel.getByLabel('Review file (CSV or .xlsx)').setInputFiles(file('36'));
+  // the practice's mapping was saved with the check: proposed again for the next file
+  await expect(panel.getByLabel('Lamina field for “Seen on”')).toHaveValue('review_date');
   await panel.getByRole('button', { name: 'Check the reviews' }).click();
   await expect(panel.getByText(/The file is clean: 3 reviews of 3 cases/)).toBeVisible();
   await panel.getByRole('button', { name: 'Import 3 reviews' }).click();

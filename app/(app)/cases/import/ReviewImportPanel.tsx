@@ -5,14 +5,17 @@ import type { ImportProgress } from '@/lib/services/import';
 import type { ReviewImportResult } from '@/lib/services/import-reviews';
 import { Notice } from '@/components/ui/Notice';
 import { fmtDate } from '@/components/ui/format';
+import type { ImportPreview } from '@/lib/services/import-file';
+import { initialChoices, Mapping, readPreview, type Choices } from './MappingStep';
 
 type Mode = 'dry-run' | 'commit' | 'commit-valid';
 type Phase = { kind: 'idle' } | { kind: 'running'; mode: Mode; progress?: ImportProgress } | { kind: 'done'; result: ReviewImportResult } | { kind: 'failed'; message: string };
 
 /** Reads the NDJSON progress stream of POST /api/reviews/import until its result line. */
-async function runImport(file: File, mode: Mode, remindOverdue: boolean, onProgress: (p: ImportProgress) => void): Promise<ReviewImportResult> {
+async function runImport(file: File, choices: Choices | null, mode: Mode, remindOverdue: boolean, onProgress: (p: ImportProgress) => void): Promise<ReviewImportResult> {
   const form = new FormData();
   form.set('file', file);
+  if (choices) form.set('options', JSON.stringify(choices));
   const q = new URLSearchParams({ mode: mode === 'dry-run' ? 'dry-run' : 'commit', stream: '1' });
   if (mode === 'commit-valid') q.set('validRowsOnly', '1');
   if (remindOverdue) q.set('remindOverdue', '1');
@@ -52,14 +55,39 @@ const plural = (n: number, one: string, many = `${one}s`) => `${n.toLocaleString
 /** The second import of the page: past reviews, attached to the practice's cases (issue 16). */
 export function ReviewImportPanel() {
   const [file, setFile] = useState<File | null>(null);
+  const [preview, setPreview] = useState<ImportPreview | null>(null);
+  const [choices, setChoices] = useState<Choices | null>(null);
+  const [reading, setReading] = useState(false);
   const [remindOverdue, setRemindOverdue] = useState(false);
   const [phase, setPhase] = useState<Phase>({ kind: 'idle' });
 
+  // the file's columns matched to the review template's, as for the case import (MappingStep)
+  const load = async (f: File, sheet: string | null) => {
+    setReading(true);
+    setPhase({ kind: 'idle' });
+    try {
+      const p = await readPreview('/api/reviews/import/read', f, sheet);
+      setPreview(p);
+      setChoices(initialChoices(p));
+    } catch (e) {
+      setPreview(null);
+      setChoices(null);
+      setPhase({ kind: 'failed', message: (e as Error).message });
+    } finally {
+      setReading(false);
+    }
+  };
+
+  const change = (next: Partial<Choices>) => {
+    setChoices((c) => (c ? { ...c, ...next } : c));
+    setPhase({ kind: 'idle' });
+  };
+
   const start = async (mode: Mode) => {
-    if (!file) return;
+    if (!file || !choices) return;
     setPhase({ kind: 'running', mode });
     try {
-      const result = await runImport(file, mode, remindOverdue, (progress) => setPhase({ kind: 'running', mode, progress }));
+      const result = await runImport(file, choices, mode, remindOverdue, (progress) => setPhase({ kind: 'running', mode, progress }));
       setPhase({ kind: 'done', result });
     } catch (e) {
       setPhase({ kind: 'failed', message: (e as Error).message });
@@ -71,6 +99,7 @@ export function ReviewImportPanel() {
   const clean = result && result.errors.length === 0;
   const s = result?.summary;
   const running = phase.kind === 'running';
+  const busy = running || reading;
   return (
     <section aria-labelledby="review-import-title" className="card space-y-4">
       <h2 id="review-import-title" className="text-xl">
@@ -102,23 +131,33 @@ export function ReviewImportPanel() {
             accept=".csv,text/csv,.xlsx,application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"
             className="block max-w-full text-sm"
             onChange={(e) => {
-              setFile(e.target.files?.[0] ?? null);
+              const f = e.target.files?.[0] ?? null;
+              setFile(f);
+              setPreview(null);
+              setChoices(null);
               setPhase({ kind: 'idle' });
+              if (f) void load(f, null);
             }}
           />
+          {reading && (
+            <p role="status" className="mt-2 text-sm text-ink-500">
+              Reading the file…
+            </p>
+          )}
         </div>
-        <button type="button" className="btn-secondary" disabled={!file || running} onClick={() => start('dry-run')}>
+        <button type="button" className="btn-secondary" disabled={!file || !choices || busy} onClick={() => start('dry-run')}>
           Check the reviews
         </button>
-        <button type="button" className="btn-primary" disabled={!file || running || !clean || !checked || s?.validRows === 0} onClick={() => start('commit')}>
+        <button type="button" className="btn-primary" disabled={!file || busy || !clean || !checked || s?.validRows === 0} onClick={() => start('commit')}>
           {clean && checked ? `Import ${plural(s!.validRows, 'review')}` : 'Import reviews'}
         </button>
         {result && !clean && checked && s!.validRows > 0 && (
-          <button type="button" className="btn-secondary" disabled={running} onClick={() => start('commit-valid')}>
+          <button type="button" className="btn-secondary" disabled={busy} onClick={() => start('commit-valid')}>
             Import the {plural(s!.validRows, 'valid row')} only
           </button>
         )}
       </div>
+      {file && preview && choices && <Mapping idPrefix="review-import" preview={preview} choices={choices} onChange={change} onSheet={(sheet) => void load(file, sheet)} />}
       <label className="flex items-start gap-2 text-sm">
         <input type="checkbox" className="mt-0.5 h-4 w-4 accent-dura-700" checked={remindOverdue} onChange={(e) => setRemindOverdue(e.target.checked)} />
         <span>
