@@ -4,6 +4,8 @@ import { signInAs } from './support';
 // Issue 11: tenderness to percussion is scored as a sign of disease (Friedman & Mor 2004); an
 // extraction records its reason and, when it happened elsewhere, its own date.
 test('a clinician records a review with tenderness to percussion and sees disease, with the reason', async ({ page }) => {
+  // it may open up to ten case pages to find one with a review to record: on a loaded machine that outlasts 30 s
+  test.setTimeout(90_000);
   await signInAs(page, 'clinician');
   await page.goto('/cases');
   // A completed case (other tests may add a case not completed yet at the top of the list).
