@@ -11,6 +11,7 @@ import { createReview } from '@/lib/services/reviews';
 import { outcomesFunnel, outcomesFunnelCsv } from '@/lib/services/outcomes-funnel';
 import { outcomesReportData, outcomesReportPdf, pageCount } from '@/lib/services/outcomes-report';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
+import { completedOn } from '../support/outcome-cases';
 
 /**
  * Issue 12, items 5 and 8: the clinician funnel and the printed report. Every figure equals a
@@ -48,10 +49,7 @@ beforeAll(async () => {
       services.em(),
       world.clinician,
       caseInput(patient.id, operator.userId, {
-        kind,
-        pulpalDiagnosis: kind === 'nonsurgical_retreatment' ? 'previously_treated' : 'pulp_necrosis',
-        startDate: addDaysTo(done, -7),
-        completionDate: done,
+        ...completedOn(done, kind),
         paiScore: 4,
         lesionDiameterMm: 3.5,
       }),

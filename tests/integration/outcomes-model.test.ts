@@ -9,6 +9,7 @@ import { createPatient } from '@/lib/services/patients';
 import { todayIn } from '@/lib/services/registry-common';
 import { createReview } from '@/lib/services/reviews';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
+import { completedOn, outcomeCase, review } from '../support/outcome-cases';
 
 /**
  * Issue 12, item 4: the multivariable models the API returns equal a direct engine call
@@ -64,11 +65,8 @@ beforeAll(async () => {
       services.em(),
       world.clinician,
       caseInput(patients[f.patient]!, operator.userId, {
+        ...completedOn(DONE, f.kind),
         tooth: f.tooth,
-        kind: f.kind,
-        pulpalDiagnosis: f.kind === 'nonsurgical_retreatment' ? 'previously_treated' : 'pulp_necrosis',
-        startDate: addDaysTo(DONE, -7),
-        completionDate: DONE,
         paiScore: f.pai,
         lesionDiameterMm: f.lesion,
       }),
@@ -76,21 +74,21 @@ beforeAll(async () => {
     for (const r of f.reviews) {
       await createReview(services.em(), operator, c.id, { reviewDate: addDaysTo(DONE, r.day), toothStatus: r.status, ...(r.status === 'present' ? { paiScore: 1, lesionDiameterMm: 0 } : {}) });
     }
-    rows.push({
-      id: c.id,
-      patientId: patients[f.patient]!,
-      operatorId: operator.userId,
-      kind: f.kind,
-      completionDate: DONE,
-      baselinePai: f.pai,
-      lesionDiameterMm: f.lesion,
-      fillLengthClass: null,
-      toothGroup: groupOf(f.tooth),
-      toothArch: Math.floor(f.tooth / 10) <= 2 ? 'upper' : 'lower',
-      previousCaseId: null,
-      openVisit: false,
-      reviews: f.reviews.map((r) => ({ reviewDate: addDaysTo(DONE, r.day), toothStatus: r.status, paiScore: r.status === 'present' ? 1 : null, signs: {} })),
-    });
+    rows.push(
+      outcomeCase({
+        id: c.id,
+        patientId: patients[f.patient]!,
+        operatorId: operator.userId,
+        kind: f.kind,
+        completionDate: DONE,
+        baselinePai: f.pai,
+        lesionDiameterMm: f.lesion,
+        fillLengthClass: null,
+        toothGroup: groupOf(f.tooth),
+        toothArch: Math.floor(f.tooth / 10) <= 2 ? 'upper' : 'lower',
+        reviews: f.reviews.map((r) => review(r.day, r.status, { paiScore: r.status === 'present' ? 1 : null, from: DONE })),
+      }),
+    );
   }
 }, 120_000);
 

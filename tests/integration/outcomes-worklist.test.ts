@@ -9,6 +9,7 @@ import { createPatient } from '@/lib/services/patients';
 import { todayIn } from '@/lib/services/registry-common';
 import { correctReview, createReview } from '@/lib/services/reviews';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
+import { completedOn, outcomeCase, review } from '../support/outcome-cases';
 
 /**
  * Issue 12, item 7: the non-healing worklist equals the rule (lib/outcomes/worklist.ts, the ESE
@@ -65,7 +66,7 @@ beforeAll(async () => {
     const patient = await createPatient(services.em(), world.clinician, patientInput({ registryNumber: `W-${++n}`, email: `w${n}@patients.test.invalid` }));
     const done = addMonthsClamped(today, -f.monthsBack);
     completion.set(f.key, done);
-    const c = await createCase(services.em(), world.clinician, caseInput(patient.id, operator.userId, { startDate: addDaysTo(done, -7), completionDate: done, paiScore: f.pai, lesionDiameterMm: f.pai >= 3 ? 3 : 0 }));
+    const c = await createCase(services.em(), world.clinician, caseInput(patient.id, operator.userId, { ...completedOn(done), paiScore: f.pai, lesionDiameterMm: f.pai >= 3 ? 3 : 0 }));
     ids.set(f.key, c.id);
     for (const r of f.reviews) {
       const made = await createReview(services.em(), operator, c.id, {
@@ -86,28 +87,25 @@ beforeAll(async () => {
     }
   }
   const op = await createPatient(services.em(), other.clinician, patientInput({ registryNumber: 'X-1' }));
-  const oc = await createCase(services.em(), other.clinician, caseInput(op.id, other.clinician.userId, { startDate: addDaysTo(addMonthsClamped(today, -30), -7), completionDate: addMonthsClamped(today, -30) }));
+  const oc = await createCase(services.em(), other.clinician, caseInput(op.id, other.clinician.userId, completedOn(addMonthsClamped(today, -30))));
   await createReview(services.em(), other.clinician, oc.id, { reviewDate: addDaysTo(addMonthsClamped(today, -30), 365), toothStatus: 'present', paiScore: 5, lesionDiameterMm: 4 });
   otherCaseId = oc.id;
 });
 
 /** The fixture as the rule's input, built from the definitions above (not from the database). */
 function fixtureRows(): OutcomeCase[] {
-  const rows: OutcomeCase[] = FIXTURES.map((f) => ({
-    id: ids.get(f.key)!,
-    patientId: f.key,
-    operatorId: f.who === 'cal' ? world.clinician.userId : world.clinician2.userId,
-    kind: 'primary_treatment',
-    completionDate: completion.get(f.key)!,
-    baselinePai: f.pai,
-    lesionDiameterMm: 3,
-    fillLengthClass: null,
-    toothGroup: 'molar',
-    toothArch: 'lower',
-    previousCaseId: null,
-    openVisit: false,
-    reviews: f.reviews.map((r) => ({ reviewDate: addDaysTo(completion.get(f.key)!, r.day), toothStatus: r.status, paiScore: f.correctedTo ?? r.pai ?? null, signs: r.signs ?? {} })),
-  }));
+  const rows: OutcomeCase[] = FIXTURES.map((f) =>
+    outcomeCase({
+      id: ids.get(f.key)!,
+      patientId: f.key,
+      operatorId: f.who === 'cal' ? world.clinician.userId : world.clinician2.userId,
+      completionDate: completion.get(f.key)!,
+      baselinePai: f.pai,
+      lesionDiameterMm: 3,
+      fillLengthClass: null,
+      reviews: f.reviews.map((r) => review(r.day, r.status, { paiScore: f.correctedTo ?? r.pai ?? null, signs: r.signs ?? {}, from: completion.get(f.key)! })),
+    }),
+  );
   for (const f of FIXTURES.filter((x) => x.followed)) rows.push({ ...rows[0]!, id: `later-${f.key}`, previousCaseId: ids.get(f.key)!, reviews: [] });
   return rows;
 }

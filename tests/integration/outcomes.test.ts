@@ -9,6 +9,7 @@ import { createReferrer } from '@/lib/services/referrers';
 import { todayIn } from '@/lib/services/registry-common';
 import { createReview } from '@/lib/services/reviews';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
+import { completedOn, review } from '../support/outcome-cases';
 
 /**
  * Issue 12: every figure the outcomes API returns equals a direct engine call (lib/scoring,
@@ -77,10 +78,7 @@ beforeAll(async () => {
       services.em(),
       world.clinician,
       caseInput(patient.id, operator.userId, {
-        kind: f.kind,
-        pulpalDiagnosis: f.kind === 'nonsurgical_retreatment' ? 'previously_treated' : 'pulp_necrosis',
-        startDate: addDaysTo(done, -7),
-        completionDate: done,
+        ...completedOn(done, f.kind),
         paiScore: f.pai,
         lesionDiameterMm: f.lesion,
         tooth: f.tooth,
@@ -106,7 +104,7 @@ beforeAll(async () => {
 
 const recorded = (f: FixtureCase, i: number): RecordedReview => {
   const r = f.reviews[i]!;
-  return { reviewDate: addDaysTo(completion.get(f.key)!, r.day), toothStatus: r.status, paiScore: r.pai ?? null, signs: {} };
+  return review(r.day, r.status, { paiScore: r.pai ?? null, from: completion.get(f.key)! });
 };
 const outcome = (f: FixtureCase, i: number | null): ReviewOutcome | null =>
   i === null ? null : assessRecordedReview({ completionDate: completion.get(f.key)!, baselinePai: f.pai }, recorded(f, i), 365).outcome;

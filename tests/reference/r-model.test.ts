@@ -23,8 +23,8 @@ import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { FACTORS, healingObservations, outcomeAtMilestone, type OutcomeCase } from '@/lib/outcomes';
 import { coxModel, logisticModel, type CovariateChoice, type ModelFit } from '@/lib/outcomes/model';
-import { addDaysTo } from '@/lib/registry/calendar-date';
 import type { RecordedReview } from '@/lib/scoring';
+import { outcomeCase, review } from '../support/outcome-cases';
 import { prng } from './datasets';
 
 const HERE = fileURLToPath(new URL('./scripts', import.meta.url));
@@ -64,11 +64,11 @@ function dataset(): { cases: OutcomeCase[]; truth: Truth[] } {
       let event = false;
       for (const d of days) {
         if (d >= t) {
-          reviews.push({ reviewDate: addDaysTo(DONE, d), toothStatus: 'retreated', paiScore: null, signs: {} });
+          reviews.push(review(d, 'retreated', { paiScore: null, from: DONE }));
           event = true;
           break;
         }
-        reviews.push({ reviewDate: addDaysTo(DONE, d), toothStatus: 'present', paiScore: 1, signs: {} });
+        reviews.push(review(d, 'present', { paiScore: 1, from: DONE }));
         last = d;
       }
       const failedAt = event ? Number(days[reviews.length - 1]) : null;
@@ -76,21 +76,18 @@ function dataset(): { cases: OutcomeCase[]; truth: Truth[] } {
       const twelve = days.find((d) => d >= 274 && d <= 456);
       const y = failedAt !== null && failedAt <= 456 ? false : twelve !== undefined ? true : null;
       truth.push({ time: failedAt !== null ? (last + failedAt) / 2 : last, event, y });
-      cases.push({
-        id: `c${cases.length}`,
-        patientId: `p${patient}`,
-        operatorId: 'u1',
-        kind: retreat ? 'nonsurgical_retreatment' : 'primary_treatment',
-        completionDate: DONE,
-        baselinePai: pai,
-        lesionDiameterMm: lesion,
-        fillLengthClass: 'within',
-        toothGroup: group,
-        toothArch: 'lower',
-        previousCaseId: null,
-        openVisit: false,
-        reviews,
-      });
+      cases.push(
+        outcomeCase({
+          id: `c${cases.length}`,
+          patientId: `p${patient}`,
+          kind: retreat ? 'nonsurgical_retreatment' : 'primary_treatment',
+          completionDate: DONE,
+          baselinePai: pai,
+          lesionDiameterMm: lesion,
+          toothGroup: group,
+          reviews,
+        }),
+      );
     }
   }
   return { cases, truth };

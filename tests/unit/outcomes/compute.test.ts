@@ -1,32 +1,11 @@
 import { describe, expect, it } from 'vitest';
-import { applyFilter, byFactor, isDue, lostAt, milestoneDays, overview, outcomeAfterAYear, outcomeAtMilestone, rate, toothLossObservations, type OutcomeCase } from '@/lib/outcomes';
-import { addDaysTo } from '@/lib/registry/calendar-date';
+import { applyFilter, byFactor, isDue, lostAt, milestoneDays, overview, outcomeAfterAYear, outcomeAtMilestone, rate, toothLossObservations } from '@/lib/outcomes';
 import { chiSquareTest } from '@/lib/stats';
+import { at, outcomeCase as kase, present, review } from '../../support/outcome-cases';
 
 // The outcomes area's definitions (lib/outcomes/cases.ts), checked by hand on small cases.
 // Outcomes of single reviews come from lib/scoring (its own tests name the sources); here only
 // which review counts, and when, is checked.
-const DONE = '2020-01-01';
-const at = (days: number) => addDaysTo(DONE, days);
-function kase(change: Partial<OutcomeCase> = {}): OutcomeCase {
-  return {
-    id: 'a',
-    patientId: 'p',
-    operatorId: 'u1',
-    kind: 'primary_treatment',
-    completionDate: DONE,
-    baselinePai: 4,
-    lesionDiameterMm: 4,
-    fillLengthClass: 'within',
-    toothGroup: 'molar',
-    toothArch: 'lower',
-    previousCaseId: null,
-    openVisit: false,
-    reviews: [],
-    ...change,
-  };
-}
-const present = (day: number, pai: number) => ({ reviewDate: at(day), toothStatus: 'present' as const, paiScore: pai, signs: {} });
 
 describe('milestones', () => {
   it('12 months is 365 days, 24 is 731, 48 is 1461 (months × 365.25 / 12)', () => {
@@ -40,9 +19,9 @@ describe('milestones', () => {
   });
 
   it('a terminal event found before the window ends is the outcome; after it, not', () => {
-    const extracted = { reviewDate: at(300), toothStatus: 'extracted' as const, signs: {} };
+    const extracted = review(300, 'extracted');
     expect(outcomeAtMilestone(kase({ reviews: [extracted, present(365, 1)] }), 12, 365)).toBe('tooth-extracted');
-    const late = { reviewDate: at(500), toothStatus: 'retreated' as const, signs: {} };
+    const late = review(500, 'retreated');
     expect(outcomeAtMilestone(kase({ reviews: [present(365, 1), late] }), 12, 365)).toBe('healed');
     expect(outcomeAfterAYear(kase({ reviews: [present(365, 1), late] }), 365)).toBe('retreated');
   });
@@ -61,7 +40,7 @@ describe('milestones', () => {
     expect(lostAt(kase({ reviews: [present(300, 1)] }), 12, today, 365)).toBe(false);
     expect(lostAt(kase({ reviews: [present(300, 1)] }), 'latest', today, 365)).toBe(true);
     // a tooth event before the window's end is a known outcome: not lost
-    expect(lostAt(kase({ reviews: [{ reviewDate: at(200), toothStatus: 'extracted' as const, signs: {} }] }), 'latest', today, 365)).toBe(false);
+    expect(lostAt(kase({ reviews: [review(200, 'extracted')] }), 'latest', today, 365)).toBe(false);
     // not due yet: not lost, however unseen
     expect(lostAt(kase(), 24, today, 365)).toBe(false);
     expect(lostAt(kase(), 'latest', at(400), 365)).toBe(false);
@@ -104,8 +83,8 @@ describe('filters and tooth loss', () => {
   });
 
   it('follows a tooth through its retreatment, counting the tooth once', () => {
-    const first = kase({ id: 'a', reviews: [present(365, 4), { reviewDate: at(400), toothStatus: 'retreated', signs: {} }] });
-    const second = kase({ id: 'b', previousCaseId: 'a', completionDate: at(420), kind: 'nonsurgical_retreatment', reviews: [{ reviewDate: at(900), toothStatus: 'extracted', signs: {} }] });
+    const first = kase({ id: 'a', reviews: [present(365, 4), review(400, 'retreated')] });
+    const second = kase({ id: 'b', previousCaseId: 'a', completionDate: at(420), kind: 'nonsurgical_retreatment', reviews: [review(900, 'extracted')] });
     // the tooth was present at the retreatment (day 400) and found extracted at day 900
     expect(toothLossObservations([first, second], [first, second], 365)).toEqual([{ left: 400, right: 900 }]);
     // the retreatment alone: from its own completion

@@ -1,35 +1,16 @@
 import { describe, expect, it } from 'vitest';
 import { applyFilter, byFactor, compareLevels, curves, FACTOR_KEYS, FACTORS, isLevelCode, levelLabel, type FactorKey, type OutcomeCase } from '@/lib/outcomes';
-import { addDaysTo } from '@/lib/registry/calendar-date';
 import { LevelFilterQuery, levelParams, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { fisherExact2x2 } from '@/lib/stats';
+import { outcomeCase, present } from '../../support/outcome-cases';
 
 // Issue 12, item 2 (the factors a lead audits by) and item 8 (level filters in the URL).
 // Words come from the vocabularies of lib/schemas/case.ts; which fields apply to which kind from
 // its CASE_FIELDS (no sealer after apical surgery: common practice — no root canal is filled).
-const DONE = '2020-01-01';
-const at = (days: number) => addDaysTo(DONE, days);
 let n = 0;
-function kase(change: Partial<OutcomeCase> = {}): OutcomeCase {
-  return {
-    id: `c${++n}`,
-    patientId: 'p',
-    operatorId: 'u1',
-    kind: 'primary_treatment',
-    completionDate: DONE,
-    baselinePai: 4,
-    lesionDiameterMm: 4,
-    fillLengthClass: 'within',
-    toothGroup: 'molar',
-    toothArch: 'lower',
-    previousCaseId: null,
-    openVisit: false,
-    reviews: [],
-    ...change,
-  };
-}
-const healed = [{ reviewDate: at(400), toothStatus: 'present' as const, paiScore: 1, signs: {} }];
-const disease = [{ reviewDate: at(400), toothStatus: 'present' as const, paiScore: 4, signs: {} }];
+const kase = (change: Partial<OutcomeCase> = {}) => outcomeCase({ id: `c${++n}`, ...change });
+const healed = [present(400, 1)];
+const disease = [present(400, 4)];
 const level = (f: FactorKey, c: OutcomeCase) => FACTORS[f].level(c);
 
 describe('the new factors (issue 12, item 2)', () => {

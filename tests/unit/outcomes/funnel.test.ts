@@ -1,39 +1,18 @@
 import { describe, expect, it } from 'vitest';
-import { addDaysTo } from '@/lib/registry/calendar-date';
 import { funnelLimits } from '@/lib/stats';
 import { bandOf, fitCaseMix, funnel, funnelCurve, limitsAt, literatureFor, strictSuccessFor, type JudgedCase } from '@/lib/outcomes/funnel';
 import type { OutcomeCase } from '@/lib/outcomes';
+import { outcomeCase, present, review } from '../../support/outcome-cases';
 
 // The clinician audit's funnel (lib/outcomes/funnel.ts). Sources: indirect standardisation and
 // funnel limits, Spiegelhalter DJ (2005) Funnel plots for comparing institutional performance,
 // Stat Med 24:1185–1202; the logistic fit against R's glm (tests/reference/scripts/funnel-reference.R,
 // R 4.x, values pasted below); the saturated-model example is worked by hand.
-const DONE = '2020-01-01';
 let seq = 0;
 function kase(change: Partial<OutcomeCase> & { success?: boolean } = {}): OutcomeCase {
   const { success, ...rest } = change;
-  const reviews: OutcomeCase['reviews'] =
-    success === undefined
-      ? []
-      : success
-        ? [{ reviewDate: addDaysTo(DONE, 365), toothStatus: 'present', paiScore: 1, signs: {} }]
-        : [{ reviewDate: addDaysTo(DONE, 300), toothStatus: 'extracted', paiScore: null, signs: {} }];
-  return {
-    id: `c${++seq}`,
-    patientId: `p${seq}`,
-    operatorId: 'a',
-    kind: 'primary_treatment',
-    completionDate: DONE,
-    baselinePai: 4,
-    lesionDiameterMm: 0,
-    fillLengthClass: 'within',
-    toothGroup: 'molar',
-    toothArch: 'lower',
-    previousCaseId: null,
-    openVisit: false,
-    reviews,
-    ...rest,
-  };
+  const reviews = success === undefined ? [] : success ? [present(365, 1)] : [review(300, 'extracted', { paiScore: null })];
+  return outcomeCase({ id: `c${++seq}`, patientId: `p${seq}`, operatorId: 'a', lesionDiameterMm: 0, reviews, ...rest });
 }
 const many = (count: number, successes: number, change: Partial<OutcomeCase>) => Array.from({ length: count }, (_, i) => kase({ ...change, success: i < successes }));
 

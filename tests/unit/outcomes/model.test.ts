@@ -1,36 +1,18 @@
 import { describe, expect, it } from 'vitest';
 import { healingObservations, outcomeAtMilestone, type OutcomeCase } from '@/lib/outcomes';
 import { coxModel, coxTime, designMatrix, EPV_MIN, fitProblem, logisticModel, MAX_ABS_COEF, MIN_LEVEL_ROWS, multivariable, runaway, type ModelTerm } from '@/lib/outcomes/model';
-import { addDaysTo } from '@/lib/registry/calendar-date';
 import { coxPH, logisticRegression } from '@/lib/stats';
+import { outcomeCase, present } from '../../support/outcome-cases';
 
 // The multivariable view's design matrix and models (issue 12, item 4), checked by hand on small
 // invented selections. The model fits themselves are lib/stats' coxPH and logisticRegression (checked
 // against R in tests/reference); here: which rows and columns go in, and that a fit which cannot be
 // made is a message, not an exception.
-const DONE = '2020-01-01';
-const at = (days: number) => addDaysTo(DONE, days);
 let seq = 0;
 function kase(change: Partial<OutcomeCase> = {}): OutcomeCase {
   seq += 1;
-  return {
-    id: `c${seq}`,
-    patientId: `p${seq}`,
-    operatorId: 'u1',
-    kind: 'primary_treatment',
-    completionDate: DONE,
-    baselinePai: 4,
-    lesionDiameterMm: 4,
-    fillLengthClass: 'within',
-    toothGroup: 'molar',
-    toothArch: 'lower',
-    previousCaseId: null,
-    openVisit: false,
-    reviews: [],
-    ...change,
-  };
+  return outcomeCase({ id: `c${seq}`, patientId: `p${seq}`, ...change });
 }
-const present = (day: number, pai: number) => ({ reviewDate: at(day), toothStatus: 'present' as const, paiScore: pai, signs: {} });
 const many = (n: number, change: Partial<OutcomeCase>) => Array.from({ length: n }, () => kase(change));
 
 describe('designMatrix', () => {

@@ -1,6 +1,6 @@
 import { describe, expect, it, vi } from 'vitest';
-import { curves, overview, type OutcomeCase } from '@/lib/outcomes';
-import { addDaysTo } from '@/lib/registry/calendar-date';
+import { curves, overview } from '@/lib/outcomes';
+import { outcomeCase, present } from '../../support/outcome-cases';
 
 // Turnbull's EM can fail to converge on a small group (seen on a level of the demo world's
 // sealers). lib/stats then throws; the outcomes views must show Kaplan–Meier and say why, not fail.
@@ -16,23 +16,7 @@ vi.mock('@/lib/stats', async (importOriginal) => {
   };
 });
 
-const DONE = '2020-01-01';
-const kase = (id: string, sealerClass: string, pai: number): OutcomeCase => ({
-  id,
-  patientId: 'p',
-  operatorId: 'u1',
-  kind: 'primary_treatment',
-  completionDate: DONE,
-  baselinePai: 4,
-  lesionDiameterMm: 4,
-  fillLengthClass: 'within',
-  toothGroup: 'molar',
-  toothArch: 'lower',
-  previousCaseId: null,
-  openVisit: false,
-  sealerClass,
-  reviews: [{ reviewDate: addDaysTo(DONE, 400), toothStatus: 'present', paiScore: pai, signs: {} }],
-});
+const kase = (id: string, sealerClass: string, pai: number) => outcomeCase({ id, sealerClass, reviews: [present(400, pai)] });
 
 describe('Turnbull that does not converge', () => {
   const rows = [kase('a', 'epoxy_resin', 1), kase('b', 'epoxy_resin', 4), kase('c', 'calcium_silicate', 4)];

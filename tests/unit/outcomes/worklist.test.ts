@@ -1,35 +1,14 @@
 import { describe, expect, it } from 'vitest';
-import type { OutcomeCase } from '@/lib/outcomes';
 import { orderWorklist, planReReviewVisit, urgencyOf, worklistEntries, worklistEntry, yearsOf, type CurrentDecision } from '@/lib/outcomes/worklist';
 import { addDaysTo } from '@/lib/registry/calendar-date';
 import { defaultWindow } from '@/lib/schemas/recall-policy';
+import { at, DONE, outcomeCase as kase, present, review } from '../../support/outcome-cases';
 
 // The non-healing worklist's rule (lib/outcomes/worklist.ts). Source of the four-year rule: European
 // Society of Endodontology (2006), Quality guidelines for endodontic treatment, Int Endod J
 // 39:921–930 — judge at one year, follow an unchanged or smaller lesion up to four years (page
 // numbers from memory, as cited in lib/scoring/README.md). Outcomes of single reviews come from
 // lib/scoring (Friedman & Mor 2004; its own tests name the sources); here only which case qualifies.
-const DONE = '2020-01-01';
-const at = (days: number) => addDaysTo(DONE, days);
-function kase(change: Partial<OutcomeCase> = {}): OutcomeCase {
-  return {
-    id: 'a',
-    patientId: 'p',
-    operatorId: 'u1',
-    kind: 'primary_treatment',
-    completionDate: DONE,
-    baselinePai: 4,
-    lesionDiameterMm: 4,
-    fillLengthClass: 'within',
-    toothGroup: 'molar',
-    toothArch: 'lower',
-    previousCaseId: null,
-    openVisit: false,
-    reviews: [],
-    ...change,
-  };
-}
-const present = (day: number, pai: number, signs = {}) => ({ reviewDate: at(day), toothStatus: 'present' as const, paiScore: pai, signs });
 const MIN_OBS = 365;
 
 describe('which latest-review states qualify (ESE 2006 four-year rule)', () => {
@@ -87,11 +66,11 @@ describe('terminal events and later cases are excluded', () => {
   const today = at(2000);
   it('extraction, retreatment or apical surgery found at a review ends the case (lib/scoring currentOutcome)', () => {
     for (const status of ['extracted', 'retreated', 'surgery'] as const) {
-      const c = kase({ reviews: [present(400, 5), { reviewDate: at(600), toothStatus: status, signs: {} }] });
+      const c = kase({ reviews: [present(400, 5), review(600, status)] });
       expect(worklistEntry(c, today, MIN_OBS)).toBeNull();
     }
     // a terminal event stays the outcome even when a later review is recorded
-    const c = kase({ reviews: [{ reviewDate: at(600), toothStatus: 'retreated', signs: {} }, present(900, 5)] });
+    const c = kase({ reviews: [review(600, 'retreated'), present(900, 5)] });
     expect(worklistEntry(c, today, MIN_OBS)).toBeNull();
   });
   it('a case whose tooth has a later completed case is off the list; its follower is judged on its own', () => {
