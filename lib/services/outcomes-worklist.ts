@@ -50,7 +50,8 @@ import { loadVisits } from './visits';
  * makes themselves its clinician on the case form first (any clinician may edit a case).
  */
 
-export interface WorklistDecisionView {
+/** A recorded next step as the list and the history show it. */
+interface DecisionBase {
   id: string;
   step: NextStep;
   stepLabel: string;
@@ -58,11 +59,14 @@ export interface WorklistDecisionView {
   note: string | null;
   decidedBy: string;
   decidedAt: string;
+  linkedCaseId: string | null;
+  visitId: string | null;
+}
+
+export interface WorklistDecisionView extends DecisionBase {
   decidedOn: CalendarDate;
   /** Recorded on or after the day of the latest review (else it needs looking at again). */
   stands: boolean;
-  linkedCaseId: string | null;
-  visitId: string | null;
 }
 
 export interface WorklistRow {
@@ -441,17 +445,8 @@ async function viewOf(em: EntityManager, d: CaseDecision, latestReviewDate: Cale
   );
 }
 
-export interface DecisionHistoryItem {
-  id: string;
-  step: NextStep;
-  stepLabel: string;
-  date: CalendarDate;
-  note: string | null;
-  decidedBy: string;
-  decidedAt: string;
+export interface DecisionHistoryItem extends DecisionBase {
   reviewDate: CalendarDate;
-  linkedCaseId: string | null;
-  visitId: string | null;
   /** The step a later row replaced (false for the current one). */
   replaced: boolean;
 }
