@@ -24,7 +24,7 @@ import {
 } from '@/lib/outcomes/worklist';
 import { addDaysTo, type CalendarDate } from '@/lib/registry/calendar-date';
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
-import { OUTCOME_LABELS, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
+import { OUTCOME_LABELS, type ReviewOutcome } from '@/lib/scoring';
 import { OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { DecisionInput } from '@/lib/schemas/outcomes-worklist';
 import { defaultWindow } from '@/lib/schemas/recall-policy';
@@ -32,7 +32,7 @@ import { formatTooth } from '@/lib/teeth';
 import { audit } from './audit';
 import { createCase } from './cases-commands';
 import { ConflictError, ForbiddenError, ValidationError } from './errors';
-import { filterDetail, scope, seesWholePractice } from './outcomes';
+import { currentReviewsJson, filterDetail, recordedReviews, scope, seesWholePractice, type ReviewJson } from './outcomes';
 import { parseInput } from './parse';
 import { displayName, findCase, knexOf, practiceSettings, todayIn } from './registry-common';
 import { loadVisits } from './visits';
@@ -279,7 +279,7 @@ interface RuleRow {
   lesion_diameter_mm: string | number;
   previous_case_id: string | null;
   archived: boolean;
-  reviews: { d: string; s: RecordedReview['toothStatus']; p: number | null; l: string | number | null; g: RecordedReview['signs']; e: string | null }[];
+  reviews: Required<ReviewJson>[];
 }
 
 /** One case and its later, completed cases, as the worklist rule reads them (current review versions only). */
@@ -288,8 +288,7 @@ async function readForRule(em: EntityManager, practiceId: string, caseId: string
     await knexOf(em).raw(
       `select c.id, c.patient_id, c.operator_id, c.kind, c.completion_date::text as completion_date, c.pai_score, c.lesion_diameter_mm,
          c.previous_case_id, (c.archived_at is not null or p.archived_at is not null) as archived,
-         coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'l', r.lesion_diameter_mm, 'g', r.signs, 'e', r.event_date::text)
-                   order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews
+         ${currentReviewsJson(true)} as reviews
        from treatment_case c join patient p on p.id = c.patient_id
        where c.practice_id = ? and (c.id = ? or (c.previous_case_id = ? and c.completion_date is not null and c.archived_at is null))`,
       [practiceId, caseId, caseId],
@@ -314,7 +313,7 @@ function asOutcomeCase(r: RuleRow): OutcomeCase {
     toothArch: 'upper',
     previousCaseId: r.previous_case_id,
     openVisit: false,
-    reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
+    reviews: recordedReviews(r.reviews),
   };
 }
 

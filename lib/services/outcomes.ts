@@ -37,8 +37,29 @@ interface CaseRow {
   definitive_restoration: string | null;
   referrer_id: string | null;
   open_visit: boolean;
-  reviews: { d: string; s: RecordedReview['toothStatus']; p: number | null; g: RecordedReview['signs']; e: string | null }[];
+  reviews: ReviewJson[];
 }
+
+/** A review as CURRENT_REVIEWS_JSON writes it (`l`, the lesion, only when asked for). */
+export interface ReviewJson {
+  d: string;
+  s: RecordedReview['toothStatus'];
+  p: number | null;
+  l?: string | number | null;
+  g: RecordedReview['signs'];
+  e: string | null;
+}
+
+/**
+ * SQL: the current reviews (not those a correction superseded) of the case aliased `c`, in date
+ * order, as a JSON array of ReviewJson; `withLesion` adds each review's lesion diameter.
+ */
+export const currentReviewsJson = (withLesion = false) =>
+  `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score,${withLesion ? " 'l', r.lesion_diameter_mm," : ''} 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json)`;
+
+/** The reviews of CURRENT_REVIEWS_JSON as lib/scoring reads them. */
+export const recordedReviews = (json: readonly ReviewJson[]): RecordedReview[] =>
+  json.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e }));
 
 /** Every completed case of the practice (archived cases and patients left out), with its current reviews (not those a correction superseded) in date order. */
 export async function readOutcomeCases(em: EntityManager, practiceId: string): Promise<OutcomeCase[]> {
@@ -68,7 +89,7 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
     definitiveRestoration: r.definitive_restoration,
     referrerId: r.referrer_id,
     openVisit: r.open_visit,
-    reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
+    reviews: recordedReviews(r.reviews),
   }));
 }
 
@@ -94,9 +115,7 @@ async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
       'c.definitive_restoration',
       'c.referrer_id',
       knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status in ('planned', 'invited', 'confirmed', 'missed')) as open_visit`),
-      knex.raw(
-        `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews`,
-      ),
+      knex.raw(`${currentReviewsJson()} as reviews`),
     )
     .from('treatment_case as c')
     .join('patient as p', 'p.id', 'c.patient_id')
