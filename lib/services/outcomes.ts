@@ -3,7 +3,7 @@ import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { can } from '@/lib/auth/permissions';
 import { writeCsv } from '@/lib/csv/write';
-import { applyFilter, byFactor, curves, type Curves, FACTORS, NO_REFERRER, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
+import { applyFilter, byFactor, curves, type CurveMethod, type Curves, type Endpoint, FACTORS, NO_REFERRER, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
 import type { RecordedReview } from '@/lib/scoring';
 import { levelParams, OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
@@ -137,6 +137,8 @@ export interface Scope {
   /** The filter the actor asked for, limited to their own cases when they are a clinician. */
   own: boolean;
   today: string;
+  /** the practice's time zone (its settings, read once for the request) */
+  timeZone: string;
   minObs: number;
   all: OutcomeCase[];
   clinicians: { id: string; name: string }[];
@@ -160,7 +162,7 @@ export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQue
   // who treated the practice's cases, from the rows (kept per data version) rather than a scan of the cases
   const operators = memoView(actor.practiceId, version, ['operators'], () => [...new Set(all.map((c) => c.operatorId))]);
   const clinicians = whole ? await practiceClinicians(em, actor, operators) : [{ id: actor.userId, name: actor.name ?? actor.email }];
-  return { filter, own: !whole, today, minObs, all, clinicians, referrers, version, memo };
+  return { filter, own: !whole, today, timeZone: settings.timeZone, minObs, all, clinicians, referrers, version, memo };
 }
 
 /**
@@ -213,11 +215,16 @@ export interface OverviewReport {
   practice: Overview | null;
 }
 
+/** The overview of a scope's filter and, for a clinician, of the practice overall (same filter, every clinician); kept per data version (no audit: callers audit). */
+export function overviewOfScope(s: Scope): { overview: Overview; practice: Overview | null } {
+  const of = (f: OutcomeFilter) => s.memo(['overview', f], () => overview(applyFilter(s.all, f), s.all, s.today, s.minObs));
+  return { overview: of(s.filter), practice: s.own ? of({ ...s.filter, clinician: undefined }) : null };
+}
+
 export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const result = s.memo(['overview', s.filter], () => overview(applyFilter(s.all, s.filter), s.all, s.today, s.minObs));
-  const practice = s.own ? s.memo(['overview', { ...s.filter, clinician: undefined }], () => overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs)) : null;
+  const { overview: result, practice } = overviewOfScope(s);
   await audit(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(s.filter), cases: result.cases } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, overview: result, practice };
 }
@@ -237,14 +244,19 @@ export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unk
   const q = parseInput(OutcomeFactorQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
-  const levelName = levelNamer(s, factor);
-  // the engine's figures are kept per data version and filter; the words of open factors (clinicians, referrers) are put on copies
-  const table = s.memo(['factor', s.filter, factor, namesOf(s, factor)], () => byFactor(applyFilter(s.all, s.filter), factor, s.minObs, levelName));
-  const perLevel = s.memo(['factor-curves', s.filter, factor, q.endpoint, q.method, namesOf(s, factor)], () =>
-    curves(applyFilter(s.all, s.filter), s.all, { endpoint: q.endpoint, method: q.method, factor, minObs: s.minObs, levelName }),
-  );
+  // the engine's figures are kept per data version and filter, with the names of open factors' levels (clinicians, referrers) in the key
+  const table = s.memo(['factor', s.filter, factor, namesOf(s, factor)], () => byFactor(applyFilter(s.all, s.filter), factor, s.minObs, levelNamer(s, factor)));
+  // the same figures (and kept figures) as the curves view split by this factor
+  const perLevel = curvesOfScope(s, { endpoint: q.endpoint, method: q.method, factor, stratum: null });
   await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(s.filter), factor } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, factor, table, curves: perLevel };
+}
+
+/** The survival curves of a scope's filter, per level of `factor` (its open levels named), kept per data version (no audit: callers audit). */
+function curvesOfScope(s: Scope, o: { endpoint: Endpoint; method: CurveMethod; factor: FactorKey | null; stratum: FactorKey | null }): Curves {
+  return s.memo(['curves', s.filter, o.endpoint, o.method, o.factor, o.stratum, namesOf(s, o.factor)], () =>
+    curves(applyFilter(s.all, s.filter), s.all, { ...o, minObs: s.minObs, levelName: levelNamer(s, o.factor) }),
+  );
 }
 
 export interface CurvesReport {
@@ -260,10 +272,7 @@ export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unkno
   const s = await scope(em, actor, q);
   const factor = (q.factor ?? null) as FactorKey | null;
   const stratum = (q.stratum ?? null) as FactorKey | null;
-  const levelName = levelNamer(s, factor);
-  const result = s.memo(['curves', s.filter, q.endpoint, q.method, factor, stratum, namesOf(s, factor)], () =>
-    curves(applyFilter(s.all, s.filter), s.all, { endpoint: q.endpoint, method: q.method, factor, stratum, minObs: s.minObs, levelName }),
-  );
+  const result = curvesOfScope(s, { endpoint: q.endpoint, method: q.method, factor, stratum });
   await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}), ...(result.stratum ? { stratum: result.stratum } : {}) } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, curves: result };
 }
