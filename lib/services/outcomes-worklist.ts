@@ -166,18 +166,21 @@ function decisionView(d: NonNullable<DetailRow['decision']>, latestReviewDate: C
 async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const entries = worklistEntries(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
-  const settings = await practiceSettings(em, actor.practiceId);
+  // the rule's entries (and their completion dates) are kept per data version like the other views' figures
+  const { entries, completion } = s.memo(['worklist', s.filter], () => {
+    const listed = worklistEntries(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
+    const ids = new Set(listed.map((e) => e.caseId));
+    return { entries: listed, completion: new Map(s.all.filter((c) => ids.has(c.id)).map((c) => [c.id, c.completionDate])) };
+  });
   const details = await readDetails(em, actor.practiceId, entries.map((e) => e.caseId));
   const decisionOf = new Map<string, WorklistDecisionView | null>();
   for (const e of entries) {
     const d = details.get(e.caseId)?.decision;
-    decisionOf.set(e.caseId, d ? decisionView(d, e.latestReviewDate, settings.timeZone) : null);
+    decisionOf.set(e.caseId, d ? decisionView(d, e.latestReviewDate, s.timeZone) : null);
   }
   const current = (id: string): CurrentDecision | null => decisionOf.get(id) ?? null;
   const seesPatients = can(actor.roles, 'patient.read');
   const decides = can(actor.roles, 'outcomes.decide');
-  const completion = new Map(s.all.map((c) => [c.id, c.completionDate]));
   const rows = orderWorklist(entries, current, s.today).map((e): WorklistRow => {
     const d = details.get(e.caseId)!;
     return {
