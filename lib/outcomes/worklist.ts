@@ -30,6 +30,7 @@
 import { addDaysTo, addMonthsClamped, compareDates, daysBetween, type CalendarDate } from '@/lib/registry/calendar-date';
 import { assessRecordedReview, currentOutcome, HEALING_WINDOW_DAYS, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
 import { OPEN_VISIT_STATUSES, type VisitStatus } from '@/lib/recall/status';
+import { MAX_MILESTONE_MONTHS } from '@/lib/schemas/recall-policy';
 import type { OutcomeCase } from './cases';
 
 export const WORKLIST_CAUTION =
@@ -193,8 +194,8 @@ export type ReReviewPlan =
   | { create: true; milestone: number; dueDate: CalendarDate; windowStart: CalendarDate; windowEnd: CalendarDate }
   | { create: false; reason: 'open_visit' | 'beyond_plan' | 'no_room'; message: string };
 
-/** The furthest milestone a recall plan may have (lib/schemas/recall-policy MAX_MILESTONE_MONTHS). */
-export const MAX_REREVIEW_MONTHS = 120;
+/** The furthest milestone a recall plan may have. */
+export const MAX_REREVIEW_MONTHS = MAX_MILESTONE_MONTHS;
 
 /**
  * Where a "watch and re-review on `date`" puts its recall visit, under the visit rules
