@@ -31,6 +31,7 @@ import { addDaysTo, addMonthsClamped, compareDates, daysBetween, type CalendarDa
 import { assessRecordedReview, currentOutcome, HEALING_WINDOW_DAYS, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
 import { OPEN_VISIT_STATUSES, type VisitStatus } from '@/lib/recall/status';
 import { MAX_MILESTONE_MONTHS } from '@/lib/schemas/recall-policy';
+import { SCORED_REVIEW_SIGNS } from '@/lib/schemas/review';
 import type { OutcomeCase } from './cases';
 
 export const WORKLIST_CAUTION =
@@ -86,8 +87,6 @@ export interface WorklistEntry {
   noOpenVisit: boolean;
 }
 
-const SCORED_SIGNS = ['sinusTract', 'swelling', 'painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain'] as const;
-
 /** Whether the case is on the worklist today, and why (null when it is not). `completedFollowers` are the ids of cases whose tooth has a later, completed case. */
 export function worklistEntry(c: OutcomeCase, today: CalendarDate, minObservationDays: number, completedFollowers: ReadonlySet<string> = new Set()): WorklistEntry | null {
   if (c.reviews.length === 0 || completedFollowers.has(c.id)) return null;
@@ -110,7 +109,7 @@ export function worklistEntry(c: OutcomeCase, today: CalendarDate, minObservatio
     reason,
     outcome,
     latestReviewDate: latestDate,
-    symptomatic: latest.some((r: RecordedReview) => SCORED_SIGNS.some((s) => r.signs?.[s])),
+    symptomatic: latest.some((r: RecordedReview) => SCORED_REVIEW_SIGNS.some((s) => r.signs?.[s])),
     daysSinceCompletion: days,
     noOpenVisit: !c.openVisit,
   };
