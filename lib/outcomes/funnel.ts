@@ -25,9 +25,9 @@
  *   the order of TERMS. When none fits, the adjusted figures are not shown, and the screen says why.
  */
 import { funnelLimits, logisticRegression } from '@/lib/stats';
-import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
+import type { CaseKind } from '@/lib/registry/case-kinds';
 import { isStrictSuccess, outcomeAfterAYear, outcomeAtMilestone, type OutcomeCase } from './cases';
-import { rate, type Rate } from './compute';
+import { FACTORS, levelLabel, rate, type Rate } from './compute';
 
 export const FUNNEL_MEASURES = ['m12', 'latest'] as const;
 export type FunnelMeasure = (typeof FUNNEL_MEASURES)[number];
@@ -69,8 +69,9 @@ interface Column {
   value: (c: OutcomeCase) => number;
 }
 
-const levelOf: Record<'kind' | 'group', (c: OutcomeCase) => string> = { kind: (c) => c.kind, group: (c) => c.toothGroup };
-const levelName = (term: 'kind' | 'group', level: string) => (term === 'kind' ? (CASE_KIND_LABELS[level as CaseKind] ?? level) : level);
+const levelOf: Record<'kind' | 'group', (c: OutcomeCase) => string> = { kind: FACTORS.kind.code, group: FACTORS.group.code };
+/** A kind by its words; a tooth group by its code (lower case in the coefficient names). */
+const levelName = (term: 'kind' | 'group', level: string) => (term === 'kind' ? levelLabel('kind', level) : level);
 
 /** The columns a term can carry on these cases (none when it has no variation). */
 function columnsOf(term: CaseMixTerm, rows: readonly JudgedCase[]): { columns: Column[]; merged: string[]; reference?: string } {

@@ -26,7 +26,7 @@
  *   a model that cannot be fitted is a message, never an exception.
  */
 import { coxPH, logisticRegression } from '@/lib/stats';
-import { healingObservations, isStrictSuccess, outcomeAtMilestone, toothLossObservations, type OutcomeCase } from './cases';
+import { healingObservations, isStrictSuccess, outcomeAtMilestone, toothLossFrom, toothLossStarts, type OutcomeCase } from './cases';
 import { FACTORS, levelOrder, type FactorKey } from './compute';
 
 /** A level with fewer rows than this is merged (or left out). */
@@ -322,9 +322,8 @@ export function coxModel(
   let cases: OutcomeCase[];
   let intervals: { left: number; right: number | null }[];
   if (opts.endpoint === 'tooth') {
-    const ids = new Set(selection.map((c) => c.id));
-    cases = selection.filter((c) => !(c.previousCaseId && ids.has(c.previousCaseId)));
-    intervals = toothLossObservations(cases, all, opts.minObs);
+    cases = toothLossStarts(selection);
+    intervals = cases.map((c) => toothLossFrom(c, all, opts.minObs));
   } else {
     cases = [...selection];
     intervals = healingObservations(cases, opts.minObs);

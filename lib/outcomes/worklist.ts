@@ -30,6 +30,8 @@
 import { addDaysTo, addMonthsClamped, compareDates, daysBetween, type CalendarDate } from '@/lib/registry/calendar-date';
 import { assessRecordedReview, currentOutcome, HEALING_WINDOW_DAYS, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
 import { OPEN_VISIT_STATUSES, type VisitStatus } from '@/lib/recall/status';
+import { MAX_MILESTONE_MONTHS } from '@/lib/schemas/recall-policy';
+import { SCORED_REVIEW_SIGNS } from '@/lib/schemas/review';
 import type { OutcomeCase } from './cases';
 
 export const WORKLIST_CAUTION =
@@ -85,8 +87,6 @@ export interface WorklistEntry {
   noOpenVisit: boolean;
 }
 
-const SCORED_SIGNS = ['sinusTract', 'swelling', 'painOnBiting', 'tenderToPercussion', 'tenderToPalpation', 'spontaneousPain'] as const;
-
 /** Whether the case is on the worklist today, and why (null when it is not). `completedFollowers` are the ids of cases whose tooth has a later, completed case. */
 export function worklistEntry(c: OutcomeCase, today: CalendarDate, minObservationDays: number, completedFollowers: ReadonlySet<string> = new Set()): WorklistEntry | null {
   if (c.reviews.length === 0 || completedFollowers.has(c.id)) return null;
@@ -109,7 +109,7 @@ export function worklistEntry(c: OutcomeCase, today: CalendarDate, minObservatio
     reason,
     outcome,
     latestReviewDate: latestDate,
-    symptomatic: latest.some((r: RecordedReview) => SCORED_SIGNS.some((s) => r.signs?.[s])),
+    symptomatic: latest.some((r: RecordedReview) => SCORED_REVIEW_SIGNS.some((s) => r.signs?.[s])),
     daysSinceCompletion: days,
     noOpenVisit: !c.openVisit,
   };
@@ -193,8 +193,8 @@ export type ReReviewPlan =
   | { create: true; milestone: number; dueDate: CalendarDate; windowStart: CalendarDate; windowEnd: CalendarDate }
   | { create: false; reason: 'open_visit' | 'beyond_plan' | 'no_room'; message: string };
 
-/** The furthest milestone a recall plan may have (lib/schemas/recall-policy MAX_MILESTONE_MONTHS). */
-export const MAX_REREVIEW_MONTHS = 120;
+/** The furthest milestone a recall plan may have. */
+export const MAX_REREVIEW_MONTHS = MAX_MILESTONE_MONTHS;
 
 /**
  * Where a "watch and re-review on `date`" puts its recall visit, under the visit rules

@@ -1,9 +1,9 @@
 import 'server-only';
 import path from 'node:path';
 import { Circle, Document, Font, Line, Page, Polygon, Polyline, StyleSheet, Svg, Text, View, renderToBuffer } from '@react-pdf/renderer';
-import type { FactorTable, Overview, Rate } from '@/lib/outcomes';
+import { COMPLETENESS_WARNING, type FactorTable, type Overview, type Rate } from '@/lib/outcomes';
 import { BAND_WORDS, FUNNEL_CAUTION, TERM_LABELS, type Limits } from '@/lib/outcomes/funnel';
-import type { FunnelPoint, FunnelReport } from '@/lib/services/outcomes-funnel';
+import { tableRows, type FunnelPoint, type FunnelReport } from '@/lib/services/outcomes-funnel';
 
 /**
  * The printable audit report (issue 12, item 8), drawn with @react-pdf/renderer in the route
@@ -115,9 +115,7 @@ function OverviewTable({ o, title }: { o: Overview; title: string }) {
     <View>
       <Text style={{ fontWeight: 700, marginBottom: 3 }}>{pdfText(title)}</Text>
       {o.warning && (
-        <Text style={s.warning}>
-          Follow-up completeness is below 60%: these results describe the reviewed cases, not the practice.
-        </Text>
+        <Text style={s.warning}>{`Follow-up completeness is below ${Math.round(COMPLETENESS_WARNING * 100)}%: these results describe the reviewed cases, not the practice.`}</Text>
       )}
       <Table widths={[38, 30, 32]} head={['Figure', 'Value (95% interval; n)', 'Detail']} rows={rows} />
     </View>
@@ -205,7 +203,7 @@ function FunnelSvg({ f, numbers }: { f: FunnelReport; numbers: Map<string, numbe
 export function OutcomesReportDocument({ d }: { d: ReportData }) {
   const f = d.funnel;
   const adjusted = f.adjustShown === 'adjusted';
-  const rows = f.own ? f.points.filter((p) => p.own) : f.points;
+  const rows = tableRows(f);
   const numbers = new Map(f.own ? [] : f.points.map((p, i) => [p.key, i + 1] as const));
   const test = d.factorTable.test;
   return (

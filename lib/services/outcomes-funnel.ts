@@ -9,9 +9,9 @@ import {
   FUNNEL_MEASURE_LABELS,
   funnel,
   literatureFor,
-  type Band,
   type Funnel,
   type FunnelMeasure,
+  type FunnelUnit,
   type Limits,
   type LiteratureLine,
 } from '@/lib/outcomes/funnel';
@@ -26,7 +26,8 @@ import { parseInput } from './parse';
  * a clinician sees their own point named and the others as unnamed points ("Another clinician"),
  * with neither their names nor their ids in the answer, and a table of their own row alone.
  */
-export interface FunnelPoint {
+/** A clinician's figures (lib/outcomes/funnel `FunnelUnit`) as the actor may see them: the id replaced by a key and a label. */
+export type FunnelPoint = Omit<FunnelUnit, 'id'> & {
   /** the lead: the clinician's user id; a clinician: 'you' or 'other-N' (never another's id) */
   key: string;
   label: string;
@@ -34,16 +35,7 @@ export interface FunnelPoint {
   own: boolean;
   /** the point to highlight (a clinician's own; the lead's chosen clinician) */
   highlighted: boolean;
-  cases: number;
-  n: number;
-  observed: number;
-  crude: Rate;
-  crudeBand: Band | null;
-  expected: number | null;
-  oe: number | null;
-  adjusted: number | null;
-  adjustedBand: Band | null;
-}
+};
 
 export interface FunnelReport {
   filter: OutcomeFilter;

@@ -6,7 +6,7 @@ import { applyFilter, type FactorKey, type OutcomeFilter } from '@/lib/outcomes'
 import { DEFAULT_COVARIATES, EPV_MIN, multivariable, type CovariateChoice, type ModelFit, type Multivariable } from '@/lib/outcomes/model';
 import { OutcomeModelQuery } from '@/lib/schemas/outcomes-model';
 import { audit } from './audit';
-import { filterDetail, scope } from './outcomes';
+import { filterDetail, levelNamer, scope } from './outcomes';
 import { parseInput } from './parse';
 
 /**
@@ -32,13 +32,13 @@ export function covariateChoices(q: Pick<OutcomeModelQuery, 'covariates' | 'lesi
 async function compute(em: EntityManager, actor: Actor, raw: unknown) {
   const q = parseInput(OutcomeModelQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
+  const clinicianName = levelNamer(s, 'clinician')!;
   const choices = covariateChoices(q);
   const result = s.memo(['model', s.filter, choices, q.endpoint, s.clinicians], () =>
     multivariable(applyFilter(s.all, s.filter), s.all, choices, {
       endpoint: q.endpoint,
       minObs: s.minObs,
-      levelName: (key, level) => (key === 'clinician' ? (names.get(level) ?? 'Former clinician') : level),
+      levelName: (key, level) => (key === 'clinician' ? clinicianName(level) : level),
     }),
   );
   const chosen = { covariates: choices.map((c) => c.key), lesionAs: q.lesionAs, paiAs: q.paiAs };

@@ -1,16 +1,16 @@
 import 'server-only';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
-import { applyFilter, byFactor, FACTORS, levelLabel, overview, type FactorKey } from '@/lib/outcomes';
+import { applyFilter, byFactor, FACTORS, levelLabel, type FactorKey } from '@/lib/outcomes';
 import { methodsParagraphs } from '@/lib/outcomes/methods';
 import { renderOutcomesReport, type ReportData } from '@/lib/pdf/outcomes-report';
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
 import { OutcomeReportQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
-import { filterDetail, levelNamer, scope } from './outcomes';
+import { filterDetail, levelNamer, overviewOfScope, scope } from './outcomes';
 import { funnelOfScope } from './outcomes-funnel';
 import { parseInput } from './parse';
-import { knexOf, practiceSettings } from './registry-common';
+import { knexOf } from './registry-common';
 
 /** A calendar date as the screens show it ("5 Mar 2024"; components/ui/format.ts). */
 const fmtDay = (d: string) => new Date(`${d}T12:00:00Z`).toLocaleDateString('en-GB', { day: 'numeric', month: 'short', year: 'numeric', timeZone: 'UTC' });
@@ -24,23 +24,21 @@ export async function outcomesReportData(em: EntityManager, actor: Actor, raw: u
   const q = parseInput(OutcomeReportQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
-  const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
-  const selection = applyFilter(s.all, s.filter);
-  const table = byFactor(selection, factor, s.minObs);
-  if (factor === 'clinician') for (const l of table.levels) l.level = names.get(l.level) ?? 'Former clinician';
-  const [practiceRow, settings] = await Promise.all([
-    knexOf(em)('practice').where({ id: actor.practiceId }).first('name') as Promise<{ name: string } | undefined>,
-    practiceSettings(em, actor.practiceId),
-  ]);
-  const generated = now.toLocaleString('en-GB', { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit', timeZone: settings.timeZone });
+  const clinicianName = levelNamer(s, 'clinician')!;
+  const table = byFactor(applyFilter(s.all, s.filter), factor, s.minObs);
+  if (factor === 'clinician') for (const l of table.levels) l.level = clinicianName(l.level);
+  const practiceRow = (await knexOf(em)('practice').where({ id: actor.practiceId }).first('name')) as { name: string } | undefined;
+  const generated = now.toLocaleString('en-GB', { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit', timeZone: s.timeZone });
   const f = s.filter;
+  const funnel = funnelOfScope(s, q.measure, q.adjust, actor.userId);
+  const { overview, practice } = overviewOfScope(s);
   return {
     practiceName: practiceRow?.name ?? 'The practice',
     generated,
     preparedBy: actor.name ?? actor.email,
     filters: [
       { label: 'Completed', value: f.from && f.to ? `${fmtDay(f.from)} to ${fmtDay(f.to)}` : f.from ? `from ${fmtDay(f.from)}` : f.to ? `up to ${fmtDay(f.to)}` : 'any date' },
-      { label: 'Clinician', value: s.own ? `your own cases (${names.get(actor.userId) ?? actor.email})` : f.clinician ? (names.get(f.clinician) ?? 'Former clinician') : 'every clinician' },
+      { label: 'Clinician', value: s.own ? `your own cases (${actor.name ?? actor.email})` : f.clinician ? clinicianName(f.clinician) : 'every clinician' },
       { label: 'Kind of treatment', value: f.kind ? CASE_KIND_LABELS[f.kind as CaseKind] : 'every kind' },
       ...Object.entries(f.levels ?? {}).map(([k, codes]) => {
         const key = k as FactorKey;
@@ -48,15 +46,15 @@ export async function outcomesReportData(em: EntityManager, actor: Actor, raw: u
         return { label: FACTORS[key].label, value: (codes ?? []).map(name).join(' or ') };
       }),
       { label: 'Factor', value: FACTORS[factor].label },
-      { label: 'Clinician audit', value: `${q.measure === 'm12' ? 'strict success at 12 months' : 'strict success at the latest review a year or more after completion'}, ${q.adjust === 'adjusted' ? 'risk-adjusted' : 'crude'}` },
+      { label: 'Clinician audit', value: `${funnel.measureLabel}, ${q.adjust === 'adjusted' ? 'risk-adjusted' : 'crude'}` },
       { label: 'Figures as of', value: fmtDay(s.today) },
     ],
     own: s.own,
-    overview: overview(selection, s.all, s.today, s.minObs),
-    practice: s.own ? overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs) : null,
+    overview,
+    practice,
     factorLabel: FACTORS[factor].label,
     factorTable: table,
-    funnel: funnelOfScope(s, q.measure, q.adjust, actor.userId),
+    funnel,
     methods: methodsParagraphs(s.minObs),
   };
 }

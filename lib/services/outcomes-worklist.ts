@@ -24,7 +24,7 @@ import {
 } from '@/lib/outcomes/worklist';
 import { addDaysTo, type CalendarDate } from '@/lib/registry/calendar-date';
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
-import { OUTCOME_LABELS, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
+import { OUTCOME_LABELS, type ReviewOutcome } from '@/lib/scoring';
 import { OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { DecisionInput } from '@/lib/schemas/outcomes-worklist';
 import { defaultWindow } from '@/lib/schemas/recall-policy';
@@ -32,7 +32,7 @@ import { formatTooth } from '@/lib/teeth';
 import { audit } from './audit';
 import { createCase } from './cases-commands';
 import { ConflictError, ForbiddenError, ValidationError } from './errors';
-import { filterDetail, scope, seesWholePractice } from './outcomes';
+import { currentReviewsJson, filterDetail, recordedReviews, scope, seesWholePractice, type ReviewJson } from './outcomes';
 import { parseInput } from './parse';
 import { displayName, findCase, knexOf, practiceSettings, todayIn } from './registry-common';
 import { loadVisits } from './visits';
@@ -50,7 +50,8 @@ import { loadVisits } from './visits';
  * makes themselves its clinician on the case form first (any clinician may edit a case).
  */
 
-export interface WorklistDecisionView {
+/** A recorded next step as the list and the history show it. */
+interface DecisionBase {
   id: string;
   step: NextStep;
   stepLabel: string;
@@ -58,11 +59,14 @@ export interface WorklistDecisionView {
   note: string | null;
   decidedBy: string;
   decidedAt: string;
+  linkedCaseId: string | null;
+  visitId: string | null;
+}
+
+export interface WorklistDecisionView extends DecisionBase {
   decidedOn: CalendarDate;
   /** Recorded on or after the day of the latest review (else it needs looking at again). */
   stands: boolean;
-  linkedCaseId: string | null;
-  visitId: string | null;
 }
 
 export interface WorklistRow {
@@ -162,18 +166,21 @@ function decisionView(d: NonNullable<DetailRow['decision']>, latestReviewDate: C
 async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const entries = worklistEntries(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
-  const settings = await practiceSettings(em, actor.practiceId);
+  // the rule's entries (and their completion dates) are kept per data version like the other views' figures
+  const { entries, completion } = s.memo(['worklist', s.filter], () => {
+    const listed = worklistEntries(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
+    const ids = new Set(listed.map((e) => e.caseId));
+    return { entries: listed, completion: new Map(s.all.filter((c) => ids.has(c.id)).map((c) => [c.id, c.completionDate])) };
+  });
   const details = await readDetails(em, actor.practiceId, entries.map((e) => e.caseId));
   const decisionOf = new Map<string, WorklistDecisionView | null>();
   for (const e of entries) {
     const d = details.get(e.caseId)?.decision;
-    decisionOf.set(e.caseId, d ? decisionView(d, e.latestReviewDate, settings.timeZone) : null);
+    decisionOf.set(e.caseId, d ? decisionView(d, e.latestReviewDate, s.timeZone) : null);
   }
   const current = (id: string): CurrentDecision | null => decisionOf.get(id) ?? null;
   const seesPatients = can(actor.roles, 'patient.read');
   const decides = can(actor.roles, 'outcomes.decide');
-  const completion = new Map(s.all.map((c) => [c.id, c.completionDate]));
   const rows = orderWorklist(entries, current, s.today).map((e): WorklistRow => {
     const d = details.get(e.caseId)!;
     return {
@@ -275,7 +282,7 @@ interface RuleRow {
   lesion_diameter_mm: string | number;
   previous_case_id: string | null;
   archived: boolean;
-  reviews: { d: string; s: RecordedReview['toothStatus']; p: number | null; l: string | number | null; g: RecordedReview['signs']; e: string | null }[];
+  reviews: Required<ReviewJson>[];
 }
 
 /** One case and its later, completed cases, as the worklist rule reads them (current review versions only). */
@@ -284,8 +291,7 @@ async function readForRule(em: EntityManager, practiceId: string, caseId: string
     await knexOf(em).raw(
       `select c.id, c.patient_id, c.operator_id, c.kind, c.completion_date::text as completion_date, c.pai_score, c.lesion_diameter_mm,
          c.previous_case_id, (c.archived_at is not null or p.archived_at is not null) as archived,
-         coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'l', r.lesion_diameter_mm, 'g', r.signs, 'e', r.event_date::text)
-                   order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews
+         ${currentReviewsJson(true)} as reviews
        from treatment_case c join patient p on p.id = c.patient_id
        where c.practice_id = ? and (c.id = ? or (c.previous_case_id = ? and c.completion_date is not null and c.archived_at is null))`,
       [practiceId, caseId, caseId],
@@ -310,7 +316,7 @@ function asOutcomeCase(r: RuleRow): OutcomeCase {
     toothArch: 'upper',
     previousCaseId: r.previous_case_id,
     openVisit: false,
-    reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
+    reviews: recordedReviews(r.reviews),
   };
 }
 
@@ -441,17 +447,8 @@ async function viewOf(em: EntityManager, d: CaseDecision, latestReviewDate: Cale
   );
 }
 
-export interface DecisionHistoryItem {
-  id: string;
-  step: NextStep;
-  stepLabel: string;
-  date: CalendarDate;
-  note: string | null;
-  decidedBy: string;
-  decidedAt: string;
+export interface DecisionHistoryItem extends DecisionBase {
   reviewDate: CalendarDate;
-  linkedCaseId: string | null;
-  visitId: string | null;
   /** The step a later row replaced (false for the current one). */
   replaced: boolean;
 }

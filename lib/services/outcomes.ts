@@ -3,7 +3,7 @@ import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { can } from '@/lib/auth/permissions';
 import { writeCsv } from '@/lib/csv/write';
-import { applyFilter, byFactor, curves, type Curves, FACTORS, NO_REFERRER, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
+import { applyFilter, byFactor, curves, type CurveMethod, type Curves, type Endpoint, FACTORS, NO_REFERRER, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
 import type { RecordedReview } from '@/lib/scoring';
 import { levelParams, OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
@@ -37,8 +37,29 @@ interface CaseRow {
   definitive_restoration: string | null;
   referrer_id: string | null;
   open_visit: boolean;
-  reviews: { d: string; s: RecordedReview['toothStatus']; p: number | null; g: RecordedReview['signs']; e: string | null }[];
+  reviews: ReviewJson[];
 }
+
+/** A review as CURRENT_REVIEWS_JSON writes it (`l`, the lesion, only when asked for). */
+export interface ReviewJson {
+  d: string;
+  s: RecordedReview['toothStatus'];
+  p: number | null;
+  l?: string | number | null;
+  g: RecordedReview['signs'];
+  e: string | null;
+}
+
+/**
+ * SQL: the current reviews (not those a correction superseded) of the case aliased `c`, in date
+ * order, as a JSON array of ReviewJson; `withLesion` adds each review's lesion diameter.
+ */
+export const currentReviewsJson = (withLesion = false) =>
+  `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score,${withLesion ? " 'l', r.lesion_diameter_mm," : ''} 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json)`;
+
+/** The reviews of CURRENT_REVIEWS_JSON as lib/scoring reads them. */
+export const recordedReviews = (json: readonly ReviewJson[]): RecordedReview[] =>
+  json.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e }));
 
 /** Every completed case of the practice (archived cases and patients left out), with its current reviews (not those a correction superseded) in date order. */
 export async function readOutcomeCases(em: EntityManager, practiceId: string): Promise<OutcomeCase[]> {
@@ -68,7 +89,7 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
     definitiveRestoration: r.definitive_restoration,
     referrerId: r.referrer_id,
     openVisit: r.open_visit,
-    reviews: r.reviews.map((x) => ({ reviewDate: x.d, toothStatus: x.s, paiScore: x.p, signs: x.g ?? {}, eventDate: x.e })),
+    reviews: recordedReviews(r.reviews),
   }));
 }
 
@@ -94,9 +115,7 @@ async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
       'c.definitive_restoration',
       'c.referrer_id',
       knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status in ('planned', 'invited', 'confirmed', 'missed')) as open_visit`),
-      knex.raw(
-        `coalesce((select json_agg(json_build_object('d', r.review_date::text, 's', r.tooth_status, 'p', r.pai_score, 'g', r.signs, 'e', r.event_date::text) order by r.review_date, r.created_at) from review r where r.case_id = c.id and r.superseded_by_id is null), '[]'::json) as reviews`,
-      ),
+      knex.raw(`${currentReviewsJson()} as reviews`),
     )
     .from('treatment_case as c')
     .join('patient as p', 'p.id', 'c.patient_id')
@@ -118,6 +137,8 @@ export interface Scope {
   /** The filter the actor asked for, limited to their own cases when they are a clinician. */
   own: boolean;
   today: string;
+  /** the practice's time zone (its settings, read once for the request) */
+  timeZone: string;
   minObs: number;
   all: OutcomeCase[];
   clinicians: { id: string; name: string }[];
@@ -141,7 +162,7 @@ export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQue
   // who treated the practice's cases, from the rows (kept per data version) rather than a scan of the cases
   const operators = memoView(actor.practiceId, version, ['operators'], () => [...new Set(all.map((c) => c.operatorId))]);
   const clinicians = whole ? await practiceClinicians(em, actor, operators) : [{ id: actor.userId, name: actor.name ?? actor.email }];
-  return { filter, own: !whole, today, minObs, all, clinicians, referrers, version, memo };
+  return { filter, own: !whole, today, timeZone: settings.timeZone, minObs, all, clinicians, referrers, version, memo };
 }
 
 /**
@@ -194,11 +215,16 @@ export interface OverviewReport {
   practice: Overview | null;
 }
 
+/** The overview of a scope's filter and, for a clinician, of the practice overall (same filter, every clinician); kept per data version (no audit: callers audit). */
+export function overviewOfScope(s: Scope): { overview: Overview; practice: Overview | null } {
+  const of = (f: OutcomeFilter) => s.memo(['overview', f], () => overview(applyFilter(s.all, f), s.all, s.today, s.minObs));
+  return { overview: of(s.filter), practice: s.own ? of({ ...s.filter, clinician: undefined }) : null };
+}
+
 export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const result = s.memo(['overview', s.filter], () => overview(applyFilter(s.all, s.filter), s.all, s.today, s.minObs));
-  const practice = s.own ? s.memo(['overview', { ...s.filter, clinician: undefined }], () => overview(applyFilter(s.all, { ...s.filter, clinician: undefined }), s.all, s.today, s.minObs)) : null;
+  const { overview: result, practice } = overviewOfScope(s);
   await audit(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(s.filter), cases: result.cases } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, overview: result, practice };
 }
@@ -218,14 +244,19 @@ export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unk
   const q = parseInput(OutcomeFactorQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
-  const levelName = levelNamer(s, factor);
-  // the engine's figures are kept per data version and filter; the words of open factors (clinicians, referrers) are put on copies
-  const table = s.memo(['factor', s.filter, factor, namesOf(s, factor)], () => byFactor(applyFilter(s.all, s.filter), factor, s.minObs, levelName));
-  const perLevel = s.memo(['factor-curves', s.filter, factor, q.endpoint, q.method, namesOf(s, factor)], () =>
-    curves(applyFilter(s.all, s.filter), s.all, { endpoint: q.endpoint, method: q.method, factor, minObs: s.minObs, levelName }),
-  );
+  // the engine's figures are kept per data version and filter, with the names of open factors' levels (clinicians, referrers) in the key
+  const table = s.memo(['factor', s.filter, factor, namesOf(s, factor)], () => byFactor(applyFilter(s.all, s.filter), factor, s.minObs, levelNamer(s, factor)));
+  // the same figures (and kept figures) as the curves view split by this factor
+  const perLevel = curvesOfScope(s, { endpoint: q.endpoint, method: q.method, factor, stratum: null });
   await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(s.filter), factor } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, factor, table, curves: perLevel };
+}
+
+/** The survival curves of a scope's filter, per level of `factor` (its open levels named), kept per data version (no audit: callers audit). */
+function curvesOfScope(s: Scope, o: { endpoint: Endpoint; method: CurveMethod; factor: FactorKey | null; stratum: FactorKey | null }): Curves {
+  return s.memo(['curves', s.filter, o.endpoint, o.method, o.factor, o.stratum, namesOf(s, o.factor)], () =>
+    curves(applyFilter(s.all, s.filter), s.all, { ...o, minObs: s.minObs, levelName: levelNamer(s, o.factor) }),
+  );
 }
 
 export interface CurvesReport {
@@ -241,10 +272,7 @@ export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unkno
   const s = await scope(em, actor, q);
   const factor = (q.factor ?? null) as FactorKey | null;
   const stratum = (q.stratum ?? null) as FactorKey | null;
-  const levelName = levelNamer(s, factor);
-  const result = s.memo(['curves', s.filter, q.endpoint, q.method, factor, stratum, namesOf(s, factor)], () =>
-    curves(applyFilter(s.all, s.filter), s.all, { endpoint: q.endpoint, method: q.method, factor, stratum, minObs: s.minObs, levelName }),
-  );
+  const result = curvesOfScope(s, { endpoint: q.endpoint, method: q.method, factor, stratum });
   await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}), ...(result.stratum ? { stratum: result.stratum } : {}) } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, curves: result };
 }
