@@ -11,7 +11,7 @@ import { attachReviews, type ImportCaseInfo } from '@/lib/registry/review-import
 import { OUTCOME_LABELS, SCORING_CAUTION, type ReviewOutcome } from '@/lib/scoring';
 import { formatTooth } from '@/lib/teeth';
 import { audit } from './audit';
-import { IMPORT_MAX_BYTES, type ImportProgress } from './import';
+import { IMPORT_MAX_BYTES, IMPORT_TOO_LARGE, ImportFileBytesSchema, type ImportProgress } from './import';
 import { ImportFileOptionsSchema, resolveImportFile } from './import-file';
 import { ConflictError } from './errors';
 import { parseInput } from './parse';
@@ -22,7 +22,7 @@ export const ReviewImportInputSchema = z.object({
   csv: z
     .string({ error: 'Send the CSV file.' })
     .min(1, 'The file is empty: start from the review template.')
-    .max(IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+    .max(IMPORT_MAX_BYTES, IMPORT_TOO_LARGE),
   /** Commit the valid rows and leave the rejected ones out (they come back as a CSV with their reasons). */
   validRowsOnly: z.boolean().default(false),
   /** Let the recall scan remind visits already due (their follow-up was outside Lamina until now). */
@@ -35,10 +35,7 @@ export type ReviewImportInput = z.input<typeof ReviewImportInputSchema>;
  * (lib/services/import-file.ts; anything left out is proposed: the saved mapping, else suggestions).
  */
 export const ReviewImportFileInputSchema = ReviewImportInputSchema.omit({ csv: true }).extend({
-  file: z
-    .instanceof(Uint8Array, { error: 'Send the file.' })
-    .refine((b) => b.length > 0, 'The file is empty.')
-    .refine((b) => b.length <= IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+  file: ImportFileBytesSchema,
   options: ImportFileOptionsSchema.optional(),
 });
 export type ReviewImportFileInput = z.input<typeof ReviewImportFileInputSchema>;

@@ -23,6 +23,14 @@ import { visitSummary } from './visits';
 
 /** Largest CSV accepted (a 10,000-row file is about 3 MB). */
 export const IMPORT_MAX_BYTES = 20 * 1024 * 1024;
+/** The refusal of a file past IMPORT_MAX_BYTES (413 at the routes, a field error in the schemas). */
+export const IMPORT_TOO_LARGE = `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`;
+
+/** A practice's own file (CSV or .xlsx) as sent: not empty, at most IMPORT_MAX_BYTES. */
+export const ImportFileBytesSchema = z
+  .instanceof(Uint8Array, { error: 'Send the file.' })
+  .refine((b) => b.length > 0, 'The file is empty.')
+  .refine((b) => b.length <= IMPORT_MAX_BYTES, IMPORT_TOO_LARGE);
 
 export const ImportInputSchema = z.object({
   mode: z.enum(['dry-run', 'commit'], { error: 'mode is dry-run or commit.' }),
@@ -31,7 +39,7 @@ export const ImportInputSchema = z.object({
   csv: z
     .string({ error: 'Send the CSV file.' })
     .min(1, 'The file is empty: start from the template.')
-    .max(IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+    .max(IMPORT_MAX_BYTES, IMPORT_TOO_LARGE),
 });
 export type ImportInput = z.input<typeof ImportInputSchema>;
 
@@ -43,10 +51,7 @@ export type ImportInput = z.input<typeof ImportInputSchema>;
 export const ImportFileInputSchema = z.object({
   mode: z.enum(['dry-run', 'commit'], { error: 'mode is dry-run or commit.' }),
   validRowsOnly: z.boolean().default(false),
-  file: z
-    .instanceof(Uint8Array, { error: 'Send the file.' })
-    .refine((b) => b.length > 0, 'The file is empty.')
-    .refine((b) => b.length <= IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+  file: ImportFileBytesSchema,
   options: ImportFileOptionsSchema.optional(),
 });
 export type ImportFileInput = z.input<typeof ImportFileInputSchema>;
