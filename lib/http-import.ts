@@ -1,6 +1,6 @@
 import 'server-only';
 import { decodeText, detectFormat } from '@/lib/import/read';
-import { IMPORT_MAX_BYTES, type ImportProgress } from '@/lib/services/import';
+import { IMPORT_MAX_BYTES, IMPORT_TOO_LARGE, type ImportProgress } from '@/lib/services/import';
 import { parseOptionsField, type ImportFileOptions } from '@/lib/services/import-file';
 import { ServiceError, ValidationError } from '@/lib/services/errors';
 
@@ -19,10 +19,7 @@ export interface ImportBody {
  * field `options`, text/csv, or JSON { csv, ...fields }) and streaming progress as NDJSON.
  */
 export async function readImportBody(req: Request): Promise<ImportBody> {
-  const length = Number(req.headers.get('content-length') ?? 0);
-  if (length > IMPORT_MAX_BYTES + 64 * 1024) {
-    throw new ServiceError(`The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`, 413);
-  }
+  refuseLargeBody(req);
   const type = req.headers.get('content-type') ?? '';
   if (type.includes('multipart/form-data')) {
     const form = await req.formData().catch(() => {
@@ -45,6 +42,31 @@ export async function readImportBody(req: Request): Promise<ImportBody> {
     return { csv, fields };
   }
   return { csv: undefined, fields: {} }; // an empty body: handler() refused any other type
+}
+
+/** 413 before reading a body whose declared length is past the largest import (and a form's overhead). */
+function refuseLargeBody(req: Request): void {
+  const length = Number(req.headers.get('content-length') ?? 0);
+  if (length > IMPORT_MAX_BYTES + 64 * 1024) throw new ServiceError(IMPORT_TOO_LARGE, 413);
+}
+
+/**
+ * The upload of the mapping step's preview (POST /api/cases/import/read, /api/reviews/import/read):
+ * a multipart form with `file` (CSV or .xlsx, not empty, at most IMPORT_MAX_BYTES) and optionally
+ * `sheet`.
+ */
+export async function readPreviewUpload(req: Request): Promise<{ bytes: Uint8Array; sheet: string | null }> {
+  refuseLargeBody(req);
+  const form = await req.formData().catch(() => {
+    throw new ValidationError('The upload could not be read: send the file as the form field “file”.');
+  });
+  const file = form.get('file');
+  if (file === null || typeof file === 'string') throw new ValidationError('Some fields need attention.', { file: ['Choose a CSV or .xlsx file (form field “file”).'] });
+  if (file.size === 0) throw new ValidationError('Some fields need attention.', { file: ['The file is empty.'] });
+  if (file.size > IMPORT_MAX_BYTES) throw new ServiceError(IMPORT_TOO_LARGE, 413);
+  const sheet = form.get('sheet');
+  if (sheet !== null && (typeof sheet !== 'string' || sheet.length > 200)) throw new ValidationError('Some fields need attention.', { sheet: ['Choose one of the workbook’s sheets.'] });
+  return { bytes: new Uint8Array(await file.arrayBuffer()), sheet: sheet || null };
 }
 
 /**

@@ -31,7 +31,8 @@ export function normaliseCodeValue(text: string): string {
   return normaliseHeader(text).replace(/ /g, '_');
 }
 
-function editDistance(a: string, b: string): number {
+/** Levenshtein distance (insertions, deletions, substitutions); also the template header check of lib/registry/csv.ts. */
+export function editDistance(a: string, b: string): number {
   const row = Array.from({ length: b.length + 1 }, (_, j) => j);
   for (let i = 1; i <= a.length; i++) {
     let prev = row[0]!;

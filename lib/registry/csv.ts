@@ -26,6 +26,7 @@ import { buildCaseSchemas, MAX_CANALS, type CaseImport } from '@/lib/schemas/cas
 import { PatientCreateSchema, type PatientCreate } from '@/lib/schemas/patient';
 import { ReferrerCreateSchema, type ReferrerCreate } from '@/lib/schemas/referrer';
 import { readCsvCell, writeCsv } from '@/lib/csv/write';
+import { editDistance } from '@/lib/import/mapping';
 import { Email } from './fields';
 
 type ValueKind = 'text' | 'date' | 'number' | 'bool' | 'code' | 'codes';
@@ -484,20 +485,6 @@ function nearest(name: string): string | undefined {
   return best;
 }
 
-function editDistance(a: string, b: string): number {
-  const row = Array.from({ length: b.length + 1 }, (_, j) => j);
-  for (let i = 1; i <= a.length; i++) {
-    let prev = row[0]!;
-    row[0] = i;
-    for (let j = 1; j <= b.length; j++) {
-      const tmp = row[j]!;
-      row[j] = Math.min(row[j]! + 1, row[j - 1]! + 1, prev + (a[i - 1] === b[j - 1] ? 0 : 1));
-      prev = tmp;
-    }
-  }
-  return row[b.length]!;
-}
-
 /** Converted cells keyed by schema field, and the columns whose cell could not be converted. */
 type Converted = { values: Record<string, unknown>; failed: Set<string> };
 
@@ -564,7 +551,7 @@ function code(text: string): string {
 }
 
 /** Zod issues as column errors, leaving out columns whose cell already failed to convert. */
-function columnIssues(
+export function columnIssues(
   error: z.ZodError,
   columnOf: (path: PropertyKey[]) => string | undefined,
   failedColumns: Set<string>,

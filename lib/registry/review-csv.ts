@@ -12,12 +12,11 @@
  * (lib/schemas/review.ts ReviewImportSchema). There is no outcome column: outcomes are computed
  * by the scoring rules, never read from a file. Pure: no database.
  */
-import type { z } from 'zod';
 import { writeCsv, readCsvCell } from '@/lib/csv/write';
 import { YES_NO_CODES, type CanonicalRow, type TemplateColumn, type TemplateDescriptor } from '@/lib/import/template';
 import { EXTRACTION_REASONS, EXTRACTION_REASON_LABELS, ReviewImportSchema, REVIEW_SIGN_LABELS, TOOTH_STATUSES, TOOTH_STATUS_LABELS, type ReviewImport, type ReviewSign } from '@/lib/schemas/review';
 import { parseFdi } from '@/lib/teeth/notation';
-import { readRecords, type CsvError } from './csv';
+import { columnIssues, readRecords, type CsvError } from './csv';
 import { Email } from './fields';
 
 /** Sign columns of the template and the review field each fills. */
@@ -274,9 +273,10 @@ export function parseReviewRows(records: readonly CanonicalRecord[]): { rows: Re
       }
     }
     if (values.toothStatus === undefined && !failed.has('tooth_status')) report('tooth_status', 'Enter the tooth status: present, extracted, retreated or surgery.');
+    if (cell('tooth_status') === '') failed.add('tooth_status'); // a blank status is reported just above
     const parsed = ReviewImportSchema.safeParse(values);
     if (!parsed.success) {
-      for (const e of columnIssues(parsed.error, failed, cell)) report(e.column, e.reason);
+      for (const e of columnIssues(parsed.error, columnOfPath, failed, cell)) report(e.column, e.reason);
     }
     if (errors.length === before && parsed.success && assessor.success) {
       rows.push({ line: record.line, registryNumber, tooth, caseRef, assessorEmail: assessor.data, review: parsed.data });
@@ -286,19 +286,7 @@ export function parseReviewRows(records: readonly CanonicalRecord[]): { rows: Re
   return { rows, errors };
 }
 
-function columnIssues(error: z.ZodError, failed: Set<string>, cell: (key: string) => string): { column?: string; reason: string }[] {
-  const out: { column?: string; reason: string }[] = [];
-  const seen = new Set<string>();
-  for (const issue of error.issues) {
-    const column = issue.path[0] === undefined ? undefined : FIELD_COLUMN[String(issue.path[0])];
-    if (column && failed.has(column)) continue;
-    if (column === 'tooth_status' && cell('tooth_status') === '') continue; // reported above
-    const value = column ? cell(column) : '';
-    const reason = value ? `${issue.message.replace(/\.$/, '')} (found “${value}”).` : issue.message;
-    const key = `${column}|${reason}`;
-    if (seen.has(key)) continue;
-    seen.add(key);
-    out.push(column ? { column, reason } : { reason });
-  }
-  return out;
+/** The template column of a schema field (the first step of an issue's path). */
+function columnOfPath(path: PropertyKey[]): string | undefined {
+  return path[0] === undefined ? undefined : FIELD_COLUMN[String(path[0])];
 }

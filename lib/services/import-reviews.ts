@@ -4,14 +4,13 @@ import { z } from 'zod';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { ContactLogEntrySchema, ReviewSchema } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
-import { writeCsv } from '@/lib/csv/write';
 import type { CsvError } from '@/lib/registry/csv';
 import { parseReviewRows, readReviewCsv, REVIEW_COLUMN_KEYS, REVIEW_TEMPLATE, reviewTemplateCsv, type CanonicalRecord } from '@/lib/registry/review-csv';
 import { attachReviews, type ImportCaseInfo } from '@/lib/registry/review-import';
 import { OUTCOME_LABELS, SCORING_CAUTION, type ReviewOutcome } from '@/lib/scoring';
 import { formatTooth } from '@/lib/teeth';
 import { audit } from './audit';
-import { IMPORT_MAX_BYTES, type ImportProgress } from './import';
+import { IMPORT_MAX_BYTES, IMPORT_TOO_LARGE, ImportFileBytesSchema, isFileInput, rejectedRowsCsv, type ImportProgress } from './import';
 import { ImportFileOptionsSchema, resolveImportFile } from './import-file';
 import { ConflictError } from './errors';
 import { parseInput } from './parse';
@@ -22,7 +21,7 @@ export const ReviewImportInputSchema = z.object({
   csv: z
     .string({ error: 'Send the CSV file.' })
     .min(1, 'The file is empty: start from the review template.')
-    .max(IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+    .max(IMPORT_MAX_BYTES, IMPORT_TOO_LARGE),
   /** Commit the valid rows and leave the rejected ones out (they come back as a CSV with their reasons). */
   validRowsOnly: z.boolean().default(false),
   /** Let the recall scan remind visits already due (their follow-up was outside Lamina until now). */
@@ -35,10 +34,7 @@ export type ReviewImportInput = z.input<typeof ReviewImportInputSchema>;
  * (lib/services/import-file.ts; anything left out is proposed: the saved mapping, else suggestions).
  */
 export const ReviewImportFileInputSchema = ReviewImportInputSchema.omit({ csv: true }).extend({
-  file: z
-    .instanceof(Uint8Array, { error: 'Send the file.' })
-    .refine((b) => b.length > 0, 'The file is empty.')
-    .refine((b) => b.length <= IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+  file: ImportFileBytesSchema,
   options: ImportFileOptionsSchema.optional(),
 });
 export type ReviewImportFileInput = z.input<typeof ReviewImportFileInputSchema>;
@@ -105,7 +101,7 @@ export function reviewImportTemplate(): { filename: string; body: string } {
  */
 export async function importReviews(em: EntityManager, actor: Actor, raw: unknown, options: ReviewImportOptions = {}): Promise<ReviewImportResult> {
   assertCan(actor, 'case.import');
-  if (raw && typeof raw === 'object' && 'file' in raw) {
+  if (isFileInput(raw)) {
     const input = parseInput(ReviewImportFileInputSchema, raw);
     const { canonical, headerOf, table } = await resolveImportFile(em, actor, REVIEW_TEMPLATE, input.file, input.options);
     const problems: CsvError[] = canonical.problems.map((p) => ({ line: p.line, ...(p.column ? { column: p.column } : {}), reason: p.reason }));
@@ -326,20 +322,11 @@ export async function importReviewRecords(
 
 /** The rejected rows: their cells as read (template columns), the file line, and every problem. */
 export function rejectedCsv(records: readonly CanonicalRecord[], errors: readonly CsvError[]): string {
-  const reasons = new Map<number, string[]>();
-  for (const e of errors) {
-    const list = reasons.get(e.line) ?? [];
-    list.push(e.column ? `${e.column}: ${e.reason}` : e.reason);
-    reasons.set(e.line, list);
-  }
   const byLine = new Map(records.map((r) => [r.line, r]));
-  const rows = [...reasons.keys()]
-    .sort((a, b) => a - b)
-    .map((line) => {
-      const r = byLine.get(line);
-      return [line, ...REVIEW_COLUMN_KEYS.map((k) => r?.cells[k] ?? ''), reasons.get(line)!.join(' | ')];
-    });
-  return writeCsv(['line', ...REVIEW_COLUMN_KEYS, 'problems'], rows);
+  return rejectedRowsCsv(REVIEW_COLUMN_KEYS, (line) => {
+    const r = byLine.get(line);
+    return r ? REVIEW_COLUMN_KEYS.map((k) => r.cells[k] ?? '') : undefined;
+  }, errors);
 }
 
 interface CaseRow {

@@ -23,6 +23,14 @@ import { visitSummary } from './visits';
 
 /** Largest CSV accepted (a 10,000-row file is about 3 MB). */
 export const IMPORT_MAX_BYTES = 20 * 1024 * 1024;
+/** The refusal of a file past IMPORT_MAX_BYTES (413 at the routes, a field error in the schemas). */
+export const IMPORT_TOO_LARGE = `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`;
+
+/** A practice's own file (CSV or .xlsx) as sent: not empty, at most IMPORT_MAX_BYTES. */
+export const ImportFileBytesSchema = z
+  .instanceof(Uint8Array, { error: 'Send the file.' })
+  .refine((b) => b.length > 0, 'The file is empty.')
+  .refine((b) => b.length <= IMPORT_MAX_BYTES, IMPORT_TOO_LARGE);
 
 export const ImportInputSchema = z.object({
   mode: z.enum(['dry-run', 'commit'], { error: 'mode is dry-run or commit.' }),
@@ -31,7 +39,7 @@ export const ImportInputSchema = z.object({
   csv: z
     .string({ error: 'Send the CSV file.' })
     .min(1, 'The file is empty: start from the template.')
-    .max(IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+    .max(IMPORT_MAX_BYTES, IMPORT_TOO_LARGE),
 });
 export type ImportInput = z.input<typeof ImportInputSchema>;
 
@@ -43,10 +51,7 @@ export type ImportInput = z.input<typeof ImportInputSchema>;
 export const ImportFileInputSchema = z.object({
   mode: z.enum(['dry-run', 'commit'], { error: 'mode is dry-run or commit.' }),
   validRowsOnly: z.boolean().default(false),
-  file: z
-    .instanceof(Uint8Array, { error: 'Send the file.' })
-    .refine((b) => b.length > 0, 'The file is empty.')
-    .refine((b) => b.length <= IMPORT_MAX_BYTES, `The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`),
+  file: ImportFileBytesSchema,
   options: ImportFileOptionsSchema.optional(),
 });
 export type ImportFileInput = z.input<typeof ImportFileInputSchema>;
@@ -246,7 +251,7 @@ export async function importCases(em: EntityManager, actor: Actor, raw: unknown,
     committed,
     rows: previews.map((p) => p.preview),
     errors,
-    rejectedCsv: errors.length ? rejectedRowsCsv(parsed.records ?? csvRecords('csv' in input ? input.csv : ''), errors) : null,
+    rejectedCsv: errors.length ? rejectedRecordsCsv(parsed.records ?? csvRecords('csv' in input ? input.csv : ''), errors) : null,
     summary,
     durationMs: Date.now() - started,
   });
@@ -364,20 +369,31 @@ interface RejectableRecords {
   rows: Map<number, string[]>;
 }
 
+const rejectedRecordsCsv = (records: RejectableRecords, errors: readonly CsvError[]) => rejectedRowsCsv(records.header, (line) => records.rows.get(line), errors);
+
 function csvRecords(text: string): RejectableRecords {
   const { header, rows } = readRecords(text, []);
   return { header: header ?? [], rows: new Map(rows.map((r) => [r.line, r.cells])) };
 }
 
-/** The rejected rows: the line, their cells as read, and every problem (the one CSV writer). */
-function rejectedRowsCsv(records: RejectableRecords, errors: readonly CsvError[]): string {
+/**
+ * The rejected rows of either import as CSV (the one CSV writer): the file line, the row's cells
+ * under `header` (`cellsOf(line)`, blank when unknown), and every problem ("column: reason", joined by " | ").
+ */
+export function rejectedRowsCsv(header: readonly string[], cellsOf: (line: number) => readonly string[] | undefined, errors: readonly CsvError[]): string {
   const reasons = new Map<number, string[]>();
   for (const e of errors) reasons.set(e.line, [...(reasons.get(e.line) ?? []), e.column ? `${e.column}: ${e.reason}` : e.reason]);
-  const rows = [...reasons.keys()].sort((a, b) => a - b).map((line) => [line, ...records.header.map((_, i) => records.rows.get(line)?.[i] ?? ''), reasons.get(line)!.join(' | ')]);
-  return writeCsv(['line', ...records.header, 'problems'], rows);
+  const rows = [...reasons.keys()]
+    .sort((a, b) => a - b)
+    .map((line) => {
+      const cells = cellsOf(line);
+      return [line, ...header.map((_, i) => cells?.[i] ?? ''), reasons.get(line)!.join(' | ')];
+    });
+  return writeCsv(['line', ...header, 'problems'], rows);
 }
 
-function isFileInput(raw: unknown): boolean {
+/** A practice's own file (multipart `file`), not a CSV in the template's form. */
+export function isFileInput(raw: unknown): raw is { file: unknown } {
   return typeof raw === 'object' && raw !== null && 'file' in raw;
 }
 

@@ -45,6 +45,25 @@ afterAll(async () => {
   await services.close();
 });
 
+/** The engine's rows for the fixture's cases (`ids`: the operator e-mail → the clinician's user id). */
+function fixtureRows(cases: readonly HistoryCase[], ids: ReadonlyMap<string, string>): OutcomeCase[] {
+  return cases.map((c, i) => ({
+    id: `case-${i}`,
+    patientId: c.registryNumber,
+    operatorId: ids.get(c.operatorEmail)!,
+    kind: 'primary_treatment',
+    completionDate: c.completionDate,
+    baselinePai: c.baselinePai,
+    lesionDiameterMm: c.lesionMm,
+    fillLengthClass: null,
+    toothGroup: 'molar',
+    toothArch: 'lower',
+    previousCaseId: null,
+    openVisit: false,
+    reviews: c.reviews.map((r) => ({ reviewDate: r.reviewDate, toothStatus: r.toothStatus, paiScore: r.paiScore, signs: r.signs, eventDate: r.eventDate })),
+  }));
+}
+
 /**
  * The deep equality of two figures to 8 decimals (5 for Turnbull's estimates): the row order (the
  * service reads by completion date and id) moves the last bits of floating sums, and Turnbull's EM
@@ -115,21 +134,7 @@ describe('review import: a 200-case, 400-review history', () => {
       ['cal@hist.test', world.clinician.userId],
       ['cleo@hist.test', world.clinician2.userId],
     ]);
-    const rows: OutcomeCase[] = h.cases.map((c, i) => ({
-      id: `case-${i}`,
-      patientId: c.registryNumber,
-      operatorId: ids.get(c.operatorEmail)!,
-      kind: 'primary_treatment',
-      completionDate: c.completionDate,
-      baselinePai: c.baselinePai,
-      lesionDiameterMm: c.lesionMm,
-      fillLengthClass: null,
-      toothGroup: 'molar',
-      toothArch: 'lower',
-      previousCaseId: null,
-      openVisit: false,
-      reviews: c.reviews.map((r) => ({ reviewDate: r.reviewDate, toothStatus: r.toothStatus, paiScore: r.paiScore, signs: r.signs, eventDate: r.eventDate })),
-    }));
+    const rows = fixtureRows(h.cases, ids);
     const got = await outcomesOverview(services.em(), world.auditor, {});
     const want = overview(rows, rows, today, 365);
     expect(want.cases).toBe(200);
@@ -226,21 +231,7 @@ describe('review import: a messy .xlsx of the same history (own headers, DD/MM/Y
       ['cal@xlsx.test', world.clinician.userId],
       ['cleo@xlsx.test', world.clinician2.userId],
     ]);
-    const rows: OutcomeCase[] = h.cases.map((c, i) => ({
-      id: `case-${i}`,
-      patientId: c.registryNumber,
-      operatorId: ids.get(c.operatorEmail)!,
-      kind: 'primary_treatment',
-      completionDate: c.completionDate,
-      baselinePai: c.baselinePai,
-      lesionDiameterMm: c.lesionMm,
-      fillLengthClass: null,
-      toothGroup: 'molar',
-      toothArch: 'lower',
-      previousCaseId: null,
-      openVisit: false,
-      reviews: c.reviews.map((r) => ({ reviewDate: r.reviewDate, toothStatus: r.toothStatus, paiScore: r.paiScore, signs: r.signs, eventDate: r.eventDate })),
-    }));
+    const rows = fixtureRows(h.cases, ids);
     expectClose((await outcomesOverview(services.em(), world.auditor, {})).overview, overview(rows, rows, today, 365));
     const tooth = await outcomesCurves(services.em(), world.auditor, { endpoint: 'tooth', method: 'km' });
     expectClose(tooth.curves, curves(rows, rows, { endpoint: 'tooth', method: 'km', factor: null, minObs: 365 }));

@@ -1,86 +1,14 @@
 'use client';
-import { useState } from 'react';
 import Link from 'next/link';
-import type { ImportProgress, ImportResult } from '@/lib/services/import';
-import type { ImportPreview } from '@/lib/services/import-file';
+import type { ImportResult } from '@/lib/services/import';
 import { Notice } from '@/components/ui/Notice';
-import { failure, initialChoices, Mapping, readPreview, type Choices } from './MappingStep';
+import { Mapping } from './MappingStep';
+import { downloadCsv, useImport, type ImportMode } from './useImport';
 
-type Mode = 'dry-run' | 'commit' | 'commit-valid';
-type Phase = { kind: 'idle' } | { kind: 'running'; mode: Mode; progress?: ImportProgress } | { kind: 'done'; result: ImportResult } | { kind: 'failed'; message: string };
-
-/** Reads the NDJSON progress stream of POST /api/cases/import until its result line. */
-async function runImport(file: File, choices: Choices, mode: Mode, onProgress: (p: ImportProgress) => void): Promise<ImportResult> {
-  const form = new FormData();
-  form.set('file', file);
-  form.set('options', JSON.stringify(choices));
-  const query = mode === 'commit-valid' ? 'mode=commit&validRowsOnly=1' : `mode=${mode}`;
-  const res = await fetch(`/api/cases/import?${query}&stream=1`, { method: 'POST', body: form, headers: { Accept: 'application/x-ndjson' } });
-  if (!res.ok || !res.body) throw await failure(res, 'The file could not be sent.');
-  const reader = res.body.pipeThrough(new TextDecoderStream()).getReader();
-  let buffer = '';
-  for (;;) {
-    const { value, done } = await reader.read();
-    if (value) buffer += value;
-    let nl: number;
-    while ((nl = buffer.indexOf('\n')) >= 0) {
-      const line = JSON.parse(buffer.slice(0, nl)) as { type: string } & Record<string, unknown>;
-      buffer = buffer.slice(nl + 1);
-      if (line.type === 'progress') onProgress(line as unknown as ImportProgress);
-      else if (line.type === 'result') return line as unknown as ImportResult;
-      else if (line.type === 'error') throw new Error(String(line.message ?? 'The import failed. Nothing was imported.'));
-    }
-    if (done) throw new Error('The connection ended before the import finished. Nothing was imported.');
-  }
-}
-
-function downloadCsv(text: string, name: string) {
-  const url = URL.createObjectURL(new Blob([text], { type: 'text/csv;charset=utf-8' }));
-  const a = document.createElement('a');
-  a.href = url;
-  a.download = name;
-  a.click();
-  setTimeout(() => URL.revokeObjectURL(url), 1000);
-}
+const importUrl = (mode: ImportMode) => `/api/cases/import?${mode === 'commit-valid' ? 'mode=commit&validRowsOnly=1' : `mode=${mode}`}&stream=1`;
 
 export function ImportPanel() {
-  const [file, setFile] = useState<File | null>(null);
-  const [preview, setPreview] = useState<ImportPreview | null>(null);
-  const [choices, setChoices] = useState<Choices | null>(null);
-  const [reading, setReading] = useState(false);
-  const [phase, setPhase] = useState<Phase>({ kind: 'idle' });
-
-  const load = async (f: File, sheet: string | null) => {
-    setReading(true);
-    setPhase({ kind: 'idle' });
-    try {
-      const p = await readPreview('/api/cases/import/read', f, sheet);
-      setPreview(p);
-      setChoices(initialChoices(p));
-    } catch (e) {
-      setPreview(null);
-      setChoices(null);
-      setPhase({ kind: 'failed', message: (e as Error).message });
-    } finally {
-      setReading(false);
-    }
-  };
-
-  const start = async (mode: Mode) => {
-    if (!file || !choices) return;
-    setPhase({ kind: 'running', mode });
-    try {
-      const result = await runImport(file, choices, mode, (progress) => setPhase({ kind: 'running', mode, progress }));
-      setPhase({ kind: 'done', result });
-    } catch (e) {
-      setPhase({ kind: 'failed', message: (e as Error).message });
-    }
-  };
-
-  const change = (next: Partial<Choices>) => {
-    setChoices((c) => (c ? { ...c, ...next } : c));
-    setPhase({ kind: 'idle' });
-  };
+  const { file, preview, choices, reading, phase, load, pick, change, start } = useImport<ImportResult>('/api/cases/import/read', importUrl);
 
   const result = phase.kind === 'done' ? phase.result : null;
   const clean = result && result.errors.length === 0;
@@ -107,13 +35,7 @@ export function ImportPanel() {
           type="file"
           accept=".csv,.xlsx,.txt,text/csv,application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"
           className="block max-w-full text-sm"
-          onChange={(e) => {
-            const f = e.target.files?.[0] ?? null;
-            setFile(f);
-            setPreview(null);
-            setChoices(null);
-            if (f) void load(f, null);
-          }}
+          onChange={(e) => pick(e.target.files?.[0] ?? null)}
         />
         {reading && (
           <p role="status" className="mt-2 text-sm text-ink-500">

@@ -1,98 +1,28 @@
 'use client';
 import { useState } from 'react';
 import Link from 'next/link';
-import type { ImportProgress } from '@/lib/services/import';
 import type { ReviewImportResult } from '@/lib/services/import-reviews';
 import { Notice } from '@/components/ui/Notice';
 import { fmtDate } from '@/components/ui/format';
-import type { ImportPreview } from '@/lib/services/import-file';
-import { initialChoices, Mapping, readPreview, type Choices } from './MappingStep';
+import { Mapping } from './MappingStep';
+import { downloadCsv, useImport, type ImportMode } from './useImport';
 
-type Mode = 'dry-run' | 'commit' | 'commit-valid';
-type Phase = { kind: 'idle' } | { kind: 'running'; mode: Mode; progress?: ImportProgress } | { kind: 'done'; result: ReviewImportResult } | { kind: 'failed'; message: string };
-
-/** Reads the NDJSON progress stream of POST /api/reviews/import until its result line. */
-async function runImport(file: File, choices: Choices | null, mode: Mode, remindOverdue: boolean, onProgress: (p: ImportProgress) => void): Promise<ReviewImportResult> {
-  const form = new FormData();
-  form.set('file', file);
-  if (choices) form.set('options', JSON.stringify(choices));
+function importUrl(mode: ImportMode, remindOverdue: boolean): string {
   const q = new URLSearchParams({ mode: mode === 'dry-run' ? 'dry-run' : 'commit', stream: '1' });
   if (mode === 'commit-valid') q.set('validRowsOnly', '1');
   if (remindOverdue) q.set('remindOverdue', '1');
-  const res = await fetch(`/api/reviews/import?${q}`, { method: 'POST', body: form, headers: { Accept: 'application/x-ndjson' } });
-  if (!res.ok || !res.body) {
-    const body = (await res.json().catch(() => ({}))) as { message?: string; fieldErrors?: Record<string, string[]> };
-    throw new Error(Object.values(body.fieldErrors ?? {})[0]?.[0] ?? body.message ?? 'The file could not be sent.');
-  }
-  const reader = res.body.pipeThrough(new TextDecoderStream()).getReader();
-  let buffer = '';
-  for (;;) {
-    const { value, done } = await reader.read();
-    if (value) buffer += value;
-    let nl: number;
-    while ((nl = buffer.indexOf('\n')) >= 0) {
-      const line = JSON.parse(buffer.slice(0, nl)) as { type: string } & Record<string, unknown>;
-      buffer = buffer.slice(nl + 1);
-      if (line.type === 'progress') onProgress(line as unknown as ImportProgress);
-      else if (line.type === 'result') return line as unknown as ReviewImportResult;
-      else if (line.type === 'error') throw new Error(String(line.message ?? 'The import failed. Nothing was imported.'));
-    }
-    if (done) throw new Error('The connection ended before the import finished. Nothing was imported.');
-  }
-}
-
-function download(text: string, name: string) {
-  const url = URL.createObjectURL(new Blob([text], { type: 'text/csv;charset=utf-8' }));
-  const a = document.createElement('a');
-  a.href = url;
-  a.download = name;
-  a.click();
-  setTimeout(() => URL.revokeObjectURL(url), 1000);
+  return `/api/reviews/import?${q}`;
 }
 
 const plural = (n: number, one: string, many = `${one}s`) => `${n.toLocaleString('en-GB')} ${n === 1 ? one : many}`;
 
 /** The second import of the page: past reviews, attached to the practice's cases (issue 16). */
 export function ReviewImportPanel() {
-  const [file, setFile] = useState<File | null>(null);
-  const [preview, setPreview] = useState<ImportPreview | null>(null);
-  const [choices, setChoices] = useState<Choices | null>(null);
-  const [reading, setReading] = useState(false);
   const [remindOverdue, setRemindOverdue] = useState(false);
-  const [phase, setPhase] = useState<Phase>({ kind: 'idle' });
-
   // the file's columns matched to the review template's, as for the case import (MappingStep)
-  const load = async (f: File, sheet: string | null) => {
-    setReading(true);
-    setPhase({ kind: 'idle' });
-    try {
-      const p = await readPreview('/api/reviews/import/read', f, sheet);
-      setPreview(p);
-      setChoices(initialChoices(p));
-    } catch (e) {
-      setPreview(null);
-      setChoices(null);
-      setPhase({ kind: 'failed', message: (e as Error).message });
-    } finally {
-      setReading(false);
-    }
-  };
-
-  const change = (next: Partial<Choices>) => {
-    setChoices((c) => (c ? { ...c, ...next } : c));
-    setPhase({ kind: 'idle' });
-  };
-
-  const start = async (mode: Mode) => {
-    if (!file || !choices) return;
-    setPhase({ kind: 'running', mode });
-    try {
-      const result = await runImport(file, choices, mode, remindOverdue, (progress) => setPhase({ kind: 'running', mode, progress }));
-      setPhase({ kind: 'done', result });
-    } catch (e) {
-      setPhase({ kind: 'failed', message: (e as Error).message });
-    }
-  };
+  const { file, preview, choices, reading, phase, setPhase, load, pick, change, start } = useImport<ReviewImportResult>('/api/reviews/import/read', (mode) =>
+    importUrl(mode, remindOverdue),
+  );
 
   const result = phase.kind === 'done' ? phase.result : null;
   const checked = result?.mode === 'dry-run';
@@ -131,12 +61,8 @@ export function ReviewImportPanel() {
             accept=".csv,text/csv,.xlsx,application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"
             className="block max-w-full text-sm"
             onChange={(e) => {
-              const f = e.target.files?.[0] ?? null;
-              setFile(f);
-              setPreview(null);
-              setChoices(null);
               setPhase({ kind: 'idle' });
-              if (f) void load(f, null);
+              pick(e.target.files?.[0] ?? null);
             }}
           />
           {reading && (
@@ -213,7 +139,7 @@ export function ReviewImportPanel() {
             {s!.validRows > 0 ? ', or import the valid rows only and download the rejected ones' : ''}.
           </Notice>
           {result.rejectedCsv && (
-            <button type="button" className="btn-secondary" onClick={() => download(result.rejectedCsv!, 'lamina-reviews-rejected.csv')}>
+            <button type="button" className="btn-secondary" onClick={() => downloadCsv(result.rejectedCsv!, 'lamina-reviews-rejected.csv')}>
               Download the rejected rows (CSV with reasons)
             </button>
           )}

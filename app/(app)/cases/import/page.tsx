@@ -1,7 +1,8 @@
 import type { Metadata } from 'next';
 import { requireActor } from '@/lib/auth/session';
 import { can } from '@/lib/auth/permissions';
-import { CSV_COLUMNS } from '@/lib/registry/csv';
+import { CASE_TEMPLATE } from '@/lib/import/case-template';
+import type { TemplateDescriptor } from '@/lib/import/template';
 import { CasesSubnav } from '../_components/CasesSubnav';
 import { ImportPanel } from './ImportPanel';
 import { ReviewImportPanel } from './ReviewImportPanel';
@@ -24,51 +25,39 @@ export default async function ImportPage() {
       </div>
       <CasesSubnav current="import" canImport={can(actor.roles, 'case.import')} />
       <ImportPanel />
-      <details className="card">
-        <summary className="cursor-pointer font-medium">The columns of the template ({CSV_COLUMNS.length})</summary>
-        <table className="table-dense mt-3 w-full" aria-label="Template columns">
-          <thead>
-            <tr>
-              <th scope="col">Column</th>
-              <th scope="col">Meaning</th>
-            </tr>
-          </thead>
-          <tbody>
-            {CSV_COLUMNS.map((c) => (
-              <tr key={c.name}>
-                <td>
-                  <code className="text-xs">{c.name}</code>
-                  {c.required ? <span className="ml-1 text-xs text-state-alert">required</span> : null}
-                </td>
-                <td className="text-sm">{c.description}</td>
-              </tr>
-            ))}
-          </tbody>
-        </table>
-      </details>
+      <TemplateColumns template={CASE_TEMPLATE} title="The columns of the template" label="Template columns" />
       <ReviewImportPanel />
-      <details className="card">
-        <summary className="cursor-pointer font-medium">The columns of the review template ({REVIEW_TEMPLATE.columns.length})</summary>
-        <table className="table-dense mt-3 w-full" aria-label="Review template columns">
-          <thead>
-            <tr>
-              <th scope="col">Column</th>
-              <th scope="col">Meaning</th>
-            </tr>
-          </thead>
-          <tbody>
-            {REVIEW_TEMPLATE.columns.map((c) => (
-              <tr key={c.key}>
-                <td>
-                  <code className="text-xs">{c.key}</code>
-                  {c.required ? <span className="ml-1 text-xs text-state-alert">required</span> : null}
-                </td>
-                <td className="text-sm">{c.description}</td>
-              </tr>
-            ))}
-          </tbody>
-        </table>
-      </details>
+      <TemplateColumns template={REVIEW_TEMPLATE} title="The columns of the review template" label="Review template columns" />
     </div>
+  );
+}
+
+/** A template's columns with their meaning, below its panel. */
+function TemplateColumns({ template, title, label }: { template: TemplateDescriptor; title: string; label: string }) {
+  return (
+    <details className="card">
+      <summary className="cursor-pointer font-medium">
+        {title} ({template.columns.length})
+      </summary>
+      <table className="table-dense mt-3 w-full" aria-label={label}>
+        <thead>
+          <tr>
+            <th scope="col">Column</th>
+            <th scope="col">Meaning</th>
+          </tr>
+        </thead>
+        <tbody>
+          {template.columns.map((c) => (
+            <tr key={c.key}>
+              <td>
+                <code className="text-xs">{c.key}</code>
+                {c.required ? <span className="ml-1 text-xs text-state-alert">required</span> : null}
+              </td>
+              <td className="text-sm">{c.description}</td>
+            </tr>
+          ))}
+        </tbody>
+      </table>
+    </details>
   );
 }

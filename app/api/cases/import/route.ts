@@ -1,9 +1,7 @@
 import { z } from 'zod';
 import { csvDownload, handler } from '@/lib/http';
-import { decodeText, detectFormat } from '@/lib/import/read';
-import { IMPORT_MAX_BYTES, ImportFileInputSchema, ImportInputSchema, importCases, importTemplate } from '@/lib/services/import';
-import { parseOptionsField } from '@/lib/services/import-file';
-import { ServiceError, ValidationError } from '@/lib/services/errors';
+import { readImportBody, streamImport } from '@/lib/http-import';
+import { ImportFileInputSchema, ImportInputSchema, importCases, importTemplate } from '@/lib/services/import';
 import { parseInput } from '@/lib/services/parse';
 import { searchParamsObject } from '@/lib/schemas/paging';
 
@@ -30,72 +28,14 @@ const Query = z.object({
  */
 export const POST = handler('case.import', async ({ req, em, actor }) => {
   const q = parseInput(Query, searchParamsObject(req.url));
-  const upload = { ...((await readUpload(req, q.mode)) as object), validRowsOnly: q.validRowsOnly === '1' };
-  const input = upload && typeof upload === 'object' && 'file' in upload ? parseInput(ImportFileInputSchema, upload) : parseInput(ImportInputSchema, upload);
+  // A CSV sent without the mapping step's options (multipart, text/csv or JSON { csv }) keeps the
+  // template's strict reading; a JSON body's other fields are not read here (the flags are in the query).
+  const body = await readImportBody(req);
+  const flags = { mode: q.mode, validRowsOnly: q.validRowsOnly === '1' };
+  const input = body.file
+    ? parseInput(ImportFileInputSchema, { ...flags, file: body.file, ...(body.options ? { options: body.options } : {}) })
+    : parseInput(ImportInputSchema, { ...flags, csv: body.csv });
   const streamed = q.stream === '1' || (req.headers.get('accept') ?? '').includes('application/x-ndjson');
   if (!streamed) return importCases(em, actor, input);
-
-  const encoder = new TextEncoder();
-  const body = new ReadableStream<Uint8Array>({
-    async start(controller) {
-      const send = (line: unknown) => controller.enqueue(encoder.encode(`${JSON.stringify(line)}\n`));
-      let last = 0;
-      try {
-        const result = await importCases(em, actor, input, {
-          onProgress: (p) => {
-            const now = Date.now();
-            if (now - last >= 100 || p.done === p.total) {
-              last = now;
-              send({ type: 'progress', ...p });
-            }
-          },
-        });
-        send({ type: 'result', ...result });
-      } catch (e) {
-        if (!(e instanceof ServiceError)) console.error('[api] import failed', e);
-        send(
-          e instanceof ServiceError
-            ? { type: 'error', status: e.status, message: e.message, fieldErrors: e.fieldErrors }
-            : { type: 'error', status: 500, message: 'Something went wrong on our side. Nothing was imported.' },
-        );
-      } finally {
-        controller.close();
-      }
-    },
-  });
-  return new Response(body, {
-    headers: { 'Content-Type': 'application/x-ndjson; charset=utf-8', 'Cache-Control': 'no-store', 'X-Accel-Buffering': 'no' },
-  });
+  return streamImport((onProgress) => importCases(em, actor, input, { onProgress }));
 }, { accept: ['application/json', 'multipart/form-data', 'text/csv'] });
-
-/**
- * The request's file: multipart `file` (CSV or .xlsx, told by its content) with an optional
- * `options` field (JSON: sheet, dateOrder, decimalMark, columns, codes — lib/services/import-file.ts);
- * a CSV without options keeps the template's strict reading, as do text/csv and JSON { csv }.
- */
-async function readUpload(req: Request, mode: 'dry-run' | 'commit'): Promise<unknown> {
-  const length = Number(req.headers.get('content-length') ?? 0);
-  if (length > IMPORT_MAX_BYTES + 64 * 1024) {
-    throw new ServiceError(`The file is larger than ${IMPORT_MAX_BYTES / 1024 / 1024} MB: split it.`, 413);
-  }
-  const type = req.headers.get('content-type') ?? '';
-  if (type.includes('multipart/form-data')) {
-    const form = await req.formData().catch(() => {
-      throw new ValidationError('The upload could not be read: send the file as the form field “file”.');
-    });
-    const file = form.get('file');
-    if (file === null) throw new ValidationError('Some fields need attention.', { csv: ['Choose a CSV or .xlsx file to upload (form field “file”).'] });
-    const bytes = typeof file === 'string' ? new TextEncoder().encode(file) : new Uint8Array(await file.arrayBuffer());
-    const options = parseOptionsField(form.get('options'));
-    if (!options && detectFormat(bytes).format === 'csv') return { mode, csv: decodeText(bytes) };
-    return { mode, file: bytes, ...(options ? { options } : {}) };
-  }
-  if (type.includes('text/csv')) return { mode, csv: await req.text() };
-  if (type.includes('application/json')) {
-    const body = (await req.json().catch(() => {
-      throw new ValidationError('The request body is not valid JSON.');
-    })) as unknown;
-    return { mode, csv: body && typeof body === 'object' ? (body as { csv?: unknown }).csv : undefined };
-  }
-  return { mode, csv: undefined }; // an empty body: handler() refused any other type
-}
