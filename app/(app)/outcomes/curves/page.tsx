@@ -1,13 +1,13 @@
 import type { Metadata } from 'next';
 import { requireActor } from '@/lib/auth/session';
 import { AT_RISK_MONTHS, FACTOR_KEYS, FACTORS, milestoneDays, RMST_MONTHS, TURNBULL_MAX, type Curve } from '@/lib/outcomes';
-import { outcomesCurves, type CurvesReport } from '@/lib/services/outcomes';
-import { ValidationError } from '@/lib/services/errors';
+import { outcomesCurves } from '@/lib/services/outcomes';
 import { Notice } from '@/components/ui/Notice';
 import { ChartDownloads } from '@/components/charts/ChartDownloads';
 import { filtersOf, HiddenFilters, Method, OutcomesHeader, pct } from '../_components/parts';
 import { SurvivalChart } from '../_components/SurvivalChartLazy';
 import type { ChartSeries } from '../_components/SurvivalChart';
+import { viewData } from '../_components/viewData';
 
 export const metadata: Metadata = { title: 'Survival curves' };
 
@@ -23,14 +23,7 @@ const valueAt = (c: Curve, t: number) => {
 export default async function OutcomesCurvesPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
   const { em, actor } = await requireActor('outcomes.read', '/outcomes/curves');
   const filters = filtersOf(await searchParams);
-  let data: CurvesReport | null = null;
-  let problems: Record<string, string[]> = {};
-  try {
-    data = await outcomesCurves(em, actor, filters);
-  } catch (e) {
-    if (!(e instanceof ValidationError)) throw e;
-    problems = e.fieldErrors ?? {};
-  }
+  const { data, problems, own } = await viewData(actor, () => outcomesCurves(em, actor, filters));
   const c = data?.curves;
   const endpointWords = c?.endpoint === 'tooth' ? 'Tooth survival (event: extraction)' : 'Healing (failure: disease, retreatment, surgery or extraction)';
   const series: ChartSeries[] = (c?.curves ?? []).map((cv) => ({
@@ -59,7 +52,7 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
   );
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/curves" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="curves" referrers={data?.referrers} />
+      <OutcomesHeader current="/outcomes/curves" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="curves" referrers={data?.referrers} />
       <form method="get" action="/outcomes/curves" aria-label="Choose the curves" className="flex flex-wrap items-end gap-3">
         <HiddenFilters filters={filters} />
         {select('endpoint', c?.endpoint ?? filters.endpoint ?? 'healing', [['healing', 'Healing'], ['tooth', 'Tooth survival']], 'Endpoint')}

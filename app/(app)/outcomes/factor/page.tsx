@@ -1,25 +1,18 @@
 import type { Metadata } from 'next';
 import { requireActor } from '@/lib/auth/session';
 import { FACTOR_KEYS, FACTORS } from '@/lib/outcomes';
-import { outcomesByFactor, type FactorReport } from '@/lib/services/outcomes';
-import { ValidationError } from '@/lib/services/errors';
+import { outcomesByFactor } from '@/lib/services/outcomes';
 import { Notice } from '@/components/ui/Notice';
 import { filtersOf, HiddenFilters, Method, OutcomesHeader, RateText, withLevel } from '../_components/parts';
 import { LevelCurves } from '../_components/LevelCurves';
+import { viewData } from '../_components/viewData';
 
 export const metadata: Metadata = { title: 'Outcomes by factor' };
 
 export default async function OutcomesFactorPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
   const { em, actor } = await requireActor('outcomes.read', '/outcomes/factor');
   const filters = filtersOf(await searchParams);
-  let data: FactorReport | null = null;
-  let problems: Record<string, string[]> = {};
-  try {
-    data = await outcomesByFactor(em, actor, filters);
-  } catch (e) {
-    if (!(e instanceof ValidationError)) throw e;
-    problems = e.fieldErrors ?? {};
-  }
+  const { data, problems, own } = await viewData(actor, () => outcomesByFactor(em, actor, filters));
   const factor = data?.factor ?? 'kind';
   const test = data?.table.test ?? null;
   const canFilter = factor !== 'clinician' || !(data?.own ?? true);
@@ -40,7 +33,7 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
   );
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/factor" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="factor" referrers={data?.referrers} />
+      <OutcomesHeader current="/outcomes/factor" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="factor" referrers={data?.referrers} />
       <form method="get" action="/outcomes/factor" aria-label="Choose a factor" className="flex flex-wrap items-end gap-3">
         <HiddenFilters filters={filters} />
         <div>
