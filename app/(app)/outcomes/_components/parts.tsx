@@ -141,6 +141,36 @@ export function RateText({ r, testId }: { r: Rate; testId?: string }) {
   );
 }
 
+type Choices = readonly (readonly [value: string, label: string])[];
+export const ENDPOINT_CHOICES: Choices = [
+  ['healing', 'Healing'],
+  ['tooth', 'Tooth survival'],
+];
+export const METHOD_CHOICES: Choices = [
+  ['turnbull', 'Turnbull (failures found at visits)'],
+  ['km', 'Kaplan–Meier (on visit dates)'],
+];
+export const FACTOR_CHOICES: Choices = FACTOR_KEYS.map((k) => [k, FACTORS[k].label] as const);
+
+/** One select of a view's own form, with the service's problem with it. */
+export function ChoiceSelect({ id, name, value, options, label, problems }: { id: string; name: string; value: string; options: Choices; label: string; problems: Record<string, string[]> }) {
+  return (
+    <div>
+      <label htmlFor={id} className="field-label">
+        {label}
+      </label>
+      <select id={id} name={name} defaultValue={value} className="field-input" aria-invalid={problems[name] ? true : undefined}>
+        {options.map(([v, l]) => (
+          <option key={v} value={v}>
+            {l}
+          </option>
+        ))}
+      </select>
+      {problems[name] && <p className="field-error">{problems[name][0]}</p>}
+    </div>
+  );
+}
+
 /** The method of a figure in one plain line. */
 export function Method({ children }: { children: ReactNode }) {
   return <p className="mt-1 text-xs text-ink-500">Method: {children}</p>;

@@ -1,9 +1,9 @@
 import type { Metadata } from 'next';
 import { requireActor } from '@/lib/auth/session';
-import { FACTOR_KEYS, FACTORS } from '@/lib/outcomes';
+import { FACTORS } from '@/lib/outcomes';
 import { outcomesByFactor } from '@/lib/services/outcomes';
 import { Notice } from '@/components/ui/Notice';
-import { filtersOf, HiddenFilters, Method, OutcomesHeader, RateText, withLevel } from '../_components/parts';
+import { ChoiceSelect, ENDPOINT_CHOICES, FACTOR_CHOICES, filtersOf, HiddenFilters, METHOD_CHOICES, Method, OutcomesHeader, RateText, withLevel } from '../_components/parts';
 import { LevelCurves } from '../_components/LevelCurves';
 import { viewData } from '../_components/viewData';
 
@@ -15,42 +15,15 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
   const { data, problems, own } = await viewData(actor, () => outcomesByFactor(em, actor, filters));
   const factor = data?.factor ?? 'kind';
   const test = data?.table.test ?? null;
-  const canFilter = factor !== 'clinician' || !(data?.own ?? true);
-  const select = (name: string, value: string, options: [string, string][], label: string) => (
-    <div>
-      <label htmlFor={`factor-${name}`} className="field-label">
-        {label}
-      </label>
-      <select id={`factor-${name}`} name={name} defaultValue={value} className="field-input" aria-invalid={problems[name] ? true : undefined}>
-        {options.map(([v, l]) => (
-          <option key={v} value={v}>
-            {l}
-          </option>
-        ))}
-      </select>
-      {problems[name] && <p className="field-error">{problems[name][0]}</p>}
-    </div>
-  );
+  const canFilter = factor !== 'clinician' || !own;
   return (
     <div className="space-y-8">
       <OutcomesHeader current="/outcomes/factor" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="factor" referrers={data?.referrers} />
       <form method="get" action="/outcomes/factor" aria-label="Choose a factor" className="flex flex-wrap items-end gap-3">
         <HiddenFilters filters={filters} />
-        <div>
-          <label htmlFor="outcomes-factor" className="field-label">
-            How do we do by…
-          </label>
-          <select id="outcomes-factor" name="factor" defaultValue={factor} className="field-input" aria-invalid={problems.factor ? true : undefined}>
-            {FACTOR_KEYS.map((k) => (
-              <option key={k} value={k}>
-                {FACTORS[k].label}
-              </option>
-            ))}
-          </select>
-          {problems.factor && <p className="field-error">{problems.factor[0]}</p>}
-        </div>
-        {select('endpoint', data?.curves.endpoint ?? filters.endpoint ?? 'healing', [['healing', 'Healing'], ['tooth', 'Tooth survival']], 'Curves of')}
-        {select('method', data?.curves.asked ?? filters.method ?? 'turnbull', [['turnbull', 'Turnbull (failures found at visits)'], ['km', 'Kaplan–Meier (on visit dates)']], 'Method')}
+        <ChoiceSelect id="outcomes-factor" name="factor" value={factor} options={FACTOR_CHOICES} label="How do we do by…" problems={problems} />
+        <ChoiceSelect id="factor-endpoint" name="endpoint" value={data?.curves.endpoint ?? filters.endpoint ?? 'healing'} options={ENDPOINT_CHOICES} label="Curves of" problems={problems} />
+        <ChoiceSelect id="factor-method" name="method" value={data?.curves.asked ?? filters.method ?? 'turnbull'} options={METHOD_CHOICES} label="Method" problems={problems} />
         <button type="submit" className="btn-primary">
           Show
         </button>
