@@ -1,6 +1,6 @@
 import { AT_RISK_MONTHS, FEW_CASES, milestoneDays, TURNBULL_MAX, type Curve, type Curves } from '@/lib/outcomes';
 import { ChartDownloads } from '@/components/charts/ChartDownloads';
-import { Method, pct } from './parts';
+import { Method, pct, pIs } from './parts';
 import { SurvivalChart } from './SurvivalChartLazy';
 import type { ChartSeries } from './SurvivalChart';
 
@@ -80,7 +80,7 @@ export function LevelCurves({ c, title, filename }: { c: Curves; title: string; 
       <AtRiskTable curves={c.curves} label="Numbers at risk per level" testId="level-at-risk" rowTestId="level-at-risk-row" events />
       <p data-testid="level-log-rank">
         {c.logRank
-          ? `Log-rank test across the levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): p ${c.logRank.pValue < 0.001 ? '< 0.001' : `= ${c.logRank.pValue.toFixed(3)}`}.`
+          ? `Log-rank test across the levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): ${pIs(c.logRank.pValue)}.`
           : 'No log-rank test: fewer than two levels with cases, or no events.'}
       </p>
       <Method>

@@ -122,6 +122,11 @@ export function queryOf(f: Record<string, string | undefined>, extra: Record<str
 
 export const pct = (x: number | null | undefined, digits = 0) => (x === null || x === undefined ? '—' : `${(100 * x).toFixed(digits)}%`);
 
+/** A p-value as the area writes it: three decimals, or "< 0.001". */
+export const pText = (p: number) => (p < 0.001 ? '< 0.001' : p.toFixed(3));
+/** "p = 0.012" or "p < 0.001" in a sentence. */
+export const pIs = (p: number) => `p ${p < 0.001 ? '' : '= '}${pText(p)}`;
+
 /** A rate as the area shows it: estimate, 95% interval, n; greyed with "few cases" under FEW_CASES. */
 export function RateText({ r, testId }: { r: Rate; testId?: string }) {
   if (r.n === 0)

@@ -4,7 +4,7 @@ import { FACTORS, milestoneDays, RMST_MONTHS, TURNBULL_MAX } from '@/lib/outcome
 import { outcomesCurves } from '@/lib/services/outcomes';
 import { Notice } from '@/components/ui/Notice';
 import { ChartDownloads } from '@/components/charts/ChartDownloads';
-import { ChoiceSelect, ENDPOINT_CHOICES, FACTOR_CHOICES, filtersOf, HiddenFilters, METHOD_CHOICES, Method, OutcomesHeader, pct } from '../_components/parts';
+import { ChoiceSelect, ENDPOINT_CHOICES, FACTOR_CHOICES, filtersOf, HiddenFilters, METHOD_CHOICES, Method, OutcomesHeader, pct, pIs } from '../_components/parts';
 import { SurvivalChart } from '../_components/SurvivalChartLazy';
 import { AtRiskTable, LevelChart } from '../_components/LevelCurves';
 import type { ChartSeries } from '../_components/SurvivalChart';
@@ -63,7 +63,7 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
             <AtRiskTable curves={c.curves} label="Numbers at risk" testId="at-risk" />
             <p data-testid="log-rank">
               {c.logRank
-                ? `${c.logRank.method.charAt(0).toUpperCase()}${c.logRank.method.slice(1)} across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): p ${c.logRank.pValue < 0.001 ? '< 0.001' : `= ${c.logRank.pValue.toFixed(3)}`}.`
+                ? `${c.logRank.method.charAt(0).toUpperCase()}${c.logRank.method.slice(1)} across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): ${pIs(c.logRank.pValue)}.`
                 : (c.logRankNote ?? 'No log-rank test: choose a factor with at least two levels and some events.')}
             </p>
             <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">

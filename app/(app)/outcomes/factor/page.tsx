@@ -3,7 +3,7 @@ import { requireActor } from '@/lib/auth/session';
 import { FACTORS } from '@/lib/outcomes';
 import { outcomesByFactor } from '@/lib/services/outcomes';
 import { Notice } from '@/components/ui/Notice';
-import { ChoiceSelect, ENDPOINT_CHOICES, FACTOR_CHOICES, filtersOf, HiddenFilters, METHOD_CHOICES, Method, OutcomesHeader, RateText, withLevel } from '../_components/parts';
+import { ChoiceSelect, ENDPOINT_CHOICES, FACTOR_CHOICES, filtersOf, HiddenFilters, METHOD_CHOICES, Method, OutcomesHeader, pIs, RateText, withLevel } from '../_components/parts';
 import { LevelCurves } from '../_components/LevelCurves';
 import { viewData } from '../_components/viewData';
 
@@ -86,7 +86,7 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
           <p data-testid="factor-test">
             {test === null
               ? 'No test: fewer than two levels with judged cases, or every judged case had the same result.'
-              : `${test.method === 'fisher' ? 'Fisher’s exact test' : `Pearson’s χ² test (χ² = ${test.chiSquare!.toFixed(2)}, ${test.df} df)`}: p ${test.pValue < 0.001 ? '< 0.001' : `= ${test.pValue.toFixed(3)}`}${test.sparse ? ' — some expected counts are below 5, read it with care' : ''}.`}
+              : `${test.method === 'fisher' ? 'Fisher’s exact test' : `Pearson’s χ² test (χ² = ${test.chiSquare!.toFixed(2)}, ${test.df} df)`}: ${pIs(test.pValue)}${test.sparse ? ' — some expected counts are below 5, read it with care' : ''}.`}
           </p>
           <Method>
             outcome at the latest review a year or more after completion by Lamina’s scoring rules (a retreatment, surgery or extraction at any time counts as failure;

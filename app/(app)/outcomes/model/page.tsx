@@ -5,7 +5,7 @@ import { COVARIATE_KEYS, EPV_MIN, MIN_LEVEL_ROWS, type ModelFit } from '@/lib/ou
 import { outcomesModel } from '@/lib/services/outcomes-model';
 import { Caution } from '@/components/ui/Caution';
 import { Notice } from '@/components/ui/Notice';
-import { filtersOf, FILTER_KEYS, Method, OutcomesHeader } from '../_components/parts';
+import { filtersOf, FILTER_KEYS, Method, OutcomesHeader, pText } from '../_components/parts';
 import { ForestPlot } from '../_components/ForestPlotLazy';
 import { ChartDownloads } from '@/components/charts/ChartDownloads';
 import { viewData } from '../_components/viewData';
@@ -27,7 +27,6 @@ function choicesOf(params: Params): Record<string, string> {
 }
 
 const fmt = (v: number) => (v >= 100 || v < 0.01 ? v.toExponential(1) : v.toFixed(2));
-const pText = (p: number) => (p < 0.001 ? '< 0.001' : p.toFixed(3));
 
 const MODEL_TEXT = {
   cox: { ratio: 'Hazard ratio', short: 'HR', unit: (endpoint: string) => (endpoint === 'tooth' ? 'teeth' : 'cases') },
