@@ -190,6 +190,14 @@ const VIEWS = [
   { href: '/outcomes/worklist', label: 'Non-healing worklist' },
 ] as const;
 
+type CsvView = 'overview' | 'factor' | 'curves' | 'model' | 'funnel' | 'worklist';
+/** Where a view's "Download this table (CSV)" points: the export route, or the view's own route (the funnel, the worklist). */
+function csvHref(view: CsvView, filters: Record<string, string>): string {
+  if (view === 'funnel') return `/api/outcomes/funnel${queryOf(filters, { format: 'csv' })}`;
+  if (view === 'worklist') return `/api/outcomes/worklist/export${queryOf(Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]])))}`;
+  return `/api/outcomes/export${queryOf(filters, { view })}`;
+}
+
 export function OutcomesHeader({
   current,
   filters,
@@ -198,18 +206,15 @@ export function OutcomesHeader({
   problems,
   csvView,
   referrers,
-  csvHref,
 }: {
   current: (typeof VIEWS)[number]['href'];
   filters: Record<string, string>;
   clinicians: { id: string; name: string }[];
   own: boolean;
   problems: Record<string, string[]>;
-  csvView: 'overview' | 'factor' | 'curves' | 'model' | 'funnel' | 'worklist';
+  csvView: CsvView;
   /** to name referrer level filters on the chips (the reports carry them) */
   referrers?: { id: string; name: string }[];
-  /** A view whose CSV has a route of its own (the worklist). */
-  csvHref?: string;
 }) {
   const keep = sharedFilters(filters);
   const chips = filterChips(current, filters, { clinicians, referrers, own });
@@ -240,7 +245,7 @@ export function OutcomesHeader({
           </p>
         </div>
         <div className="flex flex-wrap gap-2">
-          <a className="btn-secondary no-underline" href={csvHref ?? (csvView === 'funnel' ? `/api/outcomes/funnel${queryOf(filters, { format: 'csv' })}` : `/api/outcomes/export${queryOf(filters, { view: csvView })}`)} download>
+          <a className="btn-secondary no-underline" href={csvHref(csvView, filters)} download>
             Download this table (CSV)
           </a>
           <ReportButton filters={filters} />

@@ -8,7 +8,7 @@ import { EmptyState } from '@/components/ui/EmptyState';
 import { Notice } from '@/components/ui/Notice';
 import { OutcomeBadge, StateBadge } from '@/components/ui/StateBadge';
 import { fmtDate } from '@/components/ui/format';
-import { FILTER_KEYS, filtersOf, Method, OutcomesHeader, queryOf } from '../_components/parts';
+import { filtersOf, Method, OutcomesHeader } from '../_components/parts';
 import { DecisionForm } from './DecisionFormLazy';
 import { viewData } from '../_components/viewData';
 
@@ -25,7 +25,6 @@ export default async function OutcomesWorklistPage({ searchParams }: { searchPar
   const filters = filtersOf(await searchParams);
   for (const k of ['factor', 'endpoint', 'method']) delete filters[k];
   const { data, problems, own } = await viewData(actor, () => outcomesWorklist(em, actor, filters));
-  const keep = Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]]));
   const count = (u: Urgency) => data?.rows.filter((r) => r.urgency === u).length ?? 0;
   return (
     <div className="space-y-8">
@@ -35,8 +34,7 @@ export default async function OutcomesWorklistPage({ searchParams }: { searchPar
         clinicians={data?.clinicians ?? []}
         own={own}
         problems={problems}
-        csvView="overview"
-        csvHref={`/api/outcomes/worklist/export${queryOf(keep)}`}
+        csvView="worklist"
       />
       {!data && <Notice tone="alert">Some filters need attention; nothing is shown until they are corrected.</Notice>}
       {data && (
