@@ -1,8 +1,7 @@
 import { test, expect, type Page } from '@playwright/test';
 import { execFileSync } from 'node:child_process';
 import { readFileSync } from 'node:fs';
-import { gzipSync } from 'node:zlib';
-import { signInAs } from './support';
+import { firstLoadJsKb, signInAs } from './support';
 
 /**
  * Issue 12, items 5 and 8, in Chromium: the clinician audit's funnel plot as the practice lead
@@ -110,13 +109,8 @@ test('a clinician sees their own point highlighted and no other clinician’s na
 });
 
 test('the clinician audit page loads under 200 kB of JavaScript (gzip) on a first visit; the chart comes later', async ({ page }, testInfo) => {
-  // As scripts/first-load-js.mjs: every <script src> of the served HTML, nomodule polyfills left out, gzip summed.
   await signInAs(page, 'auditor');
-  const html = await (await page.request.get('/outcomes/clinicians')).text();
-  const srcs = [...new Set([...html.matchAll(/<script[^>]+src="([^"]+)"[^>]*>/g)].filter((m) => !/\bnomodule\b/i.test(m[0])).map((m) => m[1]!))];
-  let total = 0;
-  for (const src of srcs) total += gzipSync(await (await page.request.get(src)).body()).length;
-  const kb = Math.round((total / 1024) * 10) / 10;
+  const kb = await firstLoadJsKb(page, '/outcomes/clinicians');
   await testInfo.attach('first-load-js.json', { body: JSON.stringify({ '/outcomes/clinicians': kb }), contentType: 'application/json' });
   console.log('First Load JS (kB gzip): /outcomes/clinicians', kb);
   expect(kb).toBeLessThan(200);

@@ -1,6 +1,5 @@
 import { test, expect, type Page } from '@playwright/test';
-import { gzipSync } from 'node:zlib';
-import { signInAs } from './support';
+import { firstLoadJsKb, signInAs } from './support';
 
 /**
  * Issue 12, item 4: the lead and a clinician open the multivariable view, see the Cox model's forest
@@ -101,11 +100,7 @@ test('a clinician fits the models on their own cases', async ({ page }, testInfo
 
 test('the multivariable page loads under 200 kB of JavaScript (gzip) on a first visit; the chart comes later', async ({ page }, testInfo) => {
   await signInAs(page, 'auditor');
-  const html = await (await page.request.get('/outcomes/model')).text();
-  const srcs = [...new Set([...html.matchAll(/<script[^>]+src="([^"]+)"[^>]*>/g)].filter((m) => !/\bnomodule\b/i.test(m[0])).map((m) => m[1]!))];
-  let total = 0;
-  for (const src of srcs) total += gzipSync(await (await page.request.get(src)).body()).length;
-  const kb = Math.round((total / 1024) * 10) / 10;
+  const kb = await firstLoadJsKb(page, '/outcomes/model');
   await testInfo.attach('first-load-js-model.json', { body: JSON.stringify({ '/outcomes/model': kb }), contentType: 'application/json' });
   console.log('First Load JS /outcomes/model (kB gzip):', kb);
   expect(kb).toBeLessThan(200);

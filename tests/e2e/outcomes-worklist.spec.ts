@@ -1,6 +1,5 @@
 import { test, expect } from '@playwright/test';
-import { gzipSync } from 'node:zlib';
-import { signInAs } from './support';
+import { firstLoadJsKb, signInAs } from './support';
 
 /**
  * Issue 12, item 7: the non-healing worklist as the practice lead (reads the practice's list,
@@ -123,13 +122,8 @@ test('a clinician records a re-review and then a retreatment, which opens a link
 });
 
 test('the worklist page loads under 200 kB of JavaScript (gzip); the next-step form comes later', async ({ page }, testInfo) => {
-  // As scripts/first-load-js.mjs: every <script src> of the served HTML, nomodule polyfills left out, gzip summed.
   await signInAs(page, 'clinician');
-  const html = await (await page.request.get('/outcomes/worklist')).text();
-  const srcs = [...new Set([...html.matchAll(/<script[^>]+src="([^"]+)"[^>]*>/g)].filter((m) => !/\bnomodule\b/i.test(m[0])).map((m) => m[1]!))];
-  let total = 0;
-  for (const src of srcs) total += gzipSync(await (await page.request.get(src)).body()).length;
-  const kb = Math.round((total / 1024) * 10) / 10;
+  const kb = await firstLoadJsKb(page, '/outcomes/worklist');
   await testInfo.attach('first-load-js-worklist.json', { body: JSON.stringify({ '/outcomes/worklist': kb }), contentType: 'application/json' });
   console.log('First Load JS /outcomes/worklist (kB gzip):', kb);
   expect(kb).toBeLessThan(200);

@@ -1,6 +1,5 @@
 import { test, expect, type Page } from '@playwright/test';
-import { gzipSync } from 'node:zlib';
-import { signInAs } from './support';
+import { firstLoadJsKb, signInAs } from './support';
 
 /**
  * Issue 12: the practice lead and a clinician open Outcomes from the navigation, read the
@@ -82,15 +81,10 @@ test('a clinician sees their own cases beside the practice overall', async ({ pa
 });
 
 test('each outcomes page loads under 200 kB of JavaScript (gzip) on a first visit; the chart comes later', async ({ page }, testInfo) => {
-  // As scripts/first-load-js.mjs: every <script src> of the served HTML, nomodule polyfills left out, gzip summed.
   await signInAs(page, 'auditor');
   const sizes: Record<string, number> = {};
   for (const route of ['/outcomes', '/outcomes/factor', '/outcomes/curves']) {
-    const html = await (await page.request.get(route)).text();
-    const srcs = [...new Set([...html.matchAll(/<script[^>]+src="([^"]+)"[^>]*>/g)].filter((m) => !/\bnomodule\b/i.test(m[0])).map((m) => m[1]!))];
-    let total = 0;
-    for (const src of srcs) total += gzipSync(await (await page.request.get(src)).body()).length;
-    sizes[route] = Math.round((total / 1024) * 10) / 10;
+    sizes[route] = await firstLoadJsKb(page, route);
   }
   await testInfo.attach('first-load-js.json', { body: JSON.stringify(sizes, null, 2), contentType: 'application/json' });
   console.log('First Load JS (kB gzip):', sizes);

@@ -1,3 +1,4 @@
+import { gzipSync } from 'node:zlib';
 import { expect, type Page, type APIRequestContext } from '@playwright/test';
 import { DEMO_LOCUM, DEMO_PASSWORD, demoUser, demoUserB } from '../../lib/demo/people';
 import type { Role } from '../../lib/auth/roles';
@@ -16,6 +17,18 @@ export async function signIn(page: Page, email: string, password = DEMO_PASSWORD
 /** Signs in as the demo person with that role, in the demo practice (A) or the second one (B). */
 export async function signInAs(page: Page, role: Role, practice: 'A' | 'B' = 'A') {
   await signIn(page, (practice === 'A' ? demoUser : demoUserB)(role).email);
+}
+
+/**
+ * A page's First Load JS as scripts/first-load-js.mjs counts it: every <script src> of the served HTML,
+ * nomodule polyfills left out, gzip sizes summed; in kB, one decimal.
+ */
+export async function firstLoadJsKb(page: Page, route: string): Promise<number> {
+  const html = await (await page.request.get(route)).text();
+  const srcs = [...new Set([...html.matchAll(/<script[^>]+src="([^"]+)"[^>]*>/g)].filter((m) => !/\bnomodule\b/i.test(m[0])).map((m) => m[1]!))];
+  let total = 0;
+  for (const src of srcs) total += gzipSync(await (await page.request.get(src)).body()).length;
+  return Math.round((total / 1024) * 10) / 10;
 }
 
 const mailboxUrl = () => process.env.MAILBOX_URL ?? 'http://127.0.0.1:2526';

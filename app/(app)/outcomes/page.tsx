@@ -1,10 +1,10 @@
 import type { Metadata } from 'next';
 import { requireActor } from '@/lib/auth/session';
-import { outcomesOverview, type OverviewReport } from '@/lib/services/outcomes';
-import { ValidationError } from '@/lib/services/errors';
+import { outcomesOverview } from '@/lib/services/outcomes';
 import { Notice } from '@/components/ui/Notice';
 import { filtersOf, OutcomesHeader } from './_components/parts';
 import { OverviewFigures } from './_components/OverviewFigures';
+import { viewData } from './_components/viewData';
 
 export const metadata: Metadata = { title: 'Outcomes' };
 
@@ -12,17 +12,10 @@ export default async function OutcomesOverviewPage({ searchParams }: { searchPar
   const { em, actor } = await requireActor('outcomes.read', '/outcomes');
   const filters = filtersOf(await searchParams);
   delete filters.factor;
-  let data: OverviewReport | null = null;
-  let problems: Record<string, string[]> = {};
-  try {
-    data = await outcomesOverview(em, actor, filters);
-  } catch (e) {
-    if (!(e instanceof ValidationError)) throw e;
-    problems = e.fieldErrors ?? {};
-  }
+  const { data, problems, own } = await viewData(actor, () => outcomesOverview(em, actor, filters));
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="overview" referrers={data?.referrers} />
+      <OutcomesHeader current="/outcomes" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="overview" referrers={data?.referrers} />
       {!data && <Notice tone="alert">Some filters need attention; nothing is shown until they are corrected.</Notice>}
       {data && <OverviewFigures o={data.overview} idPrefix="selection" title={data.own ? 'Your cases' : 'The cases chosen'} />}
       {data?.practice && <OverviewFigures o={data.practice} idPrefix="practice" title="The practice overall" />}

@@ -122,6 +122,11 @@ export function queryOf(f: Record<string, string | undefined>, extra: Record<str
 
 export const pct = (x: number | null | undefined, digits = 0) => (x === null || x === undefined ? '—' : `${(100 * x).toFixed(digits)}%`);
 
+/** A p-value as the area writes it: three decimals, or "< 0.001". */
+export const pText = (p: number) => (p < 0.001 ? '< 0.001' : p.toFixed(3));
+/** "p = 0.012" or "p < 0.001" in a sentence. */
+export const pIs = (p: number) => `p ${p < 0.001 ? '' : '= '}${pText(p)}`;
+
 /** A rate as the area shows it: estimate, 95% interval, n; greyed with "few cases" under FEW_CASES. */
 export function RateText({ r, testId }: { r: Rate; testId?: string }) {
   if (r.n === 0)
@@ -141,6 +146,36 @@ export function RateText({ r, testId }: { r: Rate; testId?: string }) {
   );
 }
 
+type Choices = readonly (readonly [value: string, label: string])[];
+export const ENDPOINT_CHOICES: Choices = [
+  ['healing', 'Healing'],
+  ['tooth', 'Tooth survival'],
+];
+export const METHOD_CHOICES: Choices = [
+  ['turnbull', 'Turnbull (failures found at visits)'],
+  ['km', 'Kaplan–Meier (on visit dates)'],
+];
+export const FACTOR_CHOICES: Choices = FACTOR_KEYS.map((k) => [k, FACTORS[k].label] as const);
+
+/** One select of a view's own form, with the service's problem with it. */
+export function ChoiceSelect({ id, name, value, options, label, problems }: { id: string; name: string; value: string; options: Choices; label: string; problems: Record<string, string[]> }) {
+  return (
+    <div>
+      <label htmlFor={id} className="field-label">
+        {label}
+      </label>
+      <select id={id} name={name} defaultValue={value} className="field-input" aria-invalid={problems[name] ? true : undefined}>
+        {options.map(([v, l]) => (
+          <option key={v} value={v}>
+            {l}
+          </option>
+        ))}
+      </select>
+      {problems[name] && <p className="field-error">{problems[name][0]}</p>}
+    </div>
+  );
+}
+
 /** The method of a figure in one plain line. */
 export function Method({ children }: { children: ReactNode }) {
   return <p className="mt-1 text-xs text-ink-500">Method: {children}</p>;
@@ -155,6 +190,14 @@ const VIEWS = [
   { href: '/outcomes/worklist', label: 'Non-healing worklist' },
 ] as const;
 
+type CsvView = 'overview' | 'factor' | 'curves' | 'model' | 'funnel' | 'worklist';
+/** Where a view's "Download this table (CSV)" points: the export route, or the view's own route (the funnel, the worklist). */
+function csvHref(view: CsvView, filters: Record<string, string>): string {
+  if (view === 'funnel') return `/api/outcomes/funnel${queryOf(filters, { format: 'csv' })}`;
+  if (view === 'worklist') return `/api/outcomes/worklist/export${queryOf(Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]])))}`;
+  return `/api/outcomes/export${queryOf(filters, { view })}`;
+}
+
 export function OutcomesHeader({
   current,
   filters,
@@ -163,18 +206,15 @@ export function OutcomesHeader({
   problems,
   csvView,
   referrers,
-  csvHref,
 }: {
   current: (typeof VIEWS)[number]['href'];
   filters: Record<string, string>;
   clinicians: { id: string; name: string }[];
   own: boolean;
   problems: Record<string, string[]>;
-  csvView: 'overview' | 'factor' | 'curves' | 'model' | 'funnel' | 'worklist';
+  csvView: CsvView;
   /** to name referrer level filters on the chips (the reports carry them) */
   referrers?: { id: string; name: string }[];
-  /** A view whose CSV has a route of its own (the worklist). */
-  csvHref?: string;
 }) {
   const keep = sharedFilters(filters);
   const chips = filterChips(current, filters, { clinicians, referrers, own });
@@ -205,7 +245,7 @@ export function OutcomesHeader({
           </p>
         </div>
         <div className="flex flex-wrap gap-2">
-          <a className="btn-secondary no-underline" href={csvHref ?? (csvView === 'funnel' ? `/api/outcomes/funnel${queryOf(filters, { format: 'csv' })}` : `/api/outcomes/export${queryOf(filters, { view: csvView })}`)} download>
+          <a className="btn-secondary no-underline" href={csvHref(csvView, filters)} download>
             Download this table (CSV)
           </a>
           <ReportButton filters={filters} />

@@ -3,12 +3,12 @@ import Link from 'next/link';
 import { requireActor } from '@/lib/auth/session';
 import { BAND_WORDS, EVENTS_PER_PARAMETER, MIN_LEVEL_CASES, TERM_LABELS, type Band } from '@/lib/outcomes/funnel';
 import { outcomesFunnel, tableRows, type FunnelReport } from '@/lib/services/outcomes-funnel';
-import { ValidationError } from '@/lib/services/errors';
 import { Caution } from '@/components/ui/Caution';
 import { Notice } from '@/components/ui/Notice';
 import { filtersOf, Method, OutcomesHeader, pct, queryOf, RateText } from '../_components/parts';
 import { FunnelChart } from '../_components/FunnelChartLazy';
 import { ChartDownloads } from '@/components/charts/ChartDownloads';
+import { viewData } from '../_components/viewData';
 
 export const metadata: Metadata = { title: 'Clinician audit' };
 
@@ -26,15 +26,7 @@ function BandText({ band }: { band: Band | null }) {
 export default async function OutcomesCliniciansPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
   const { em, actor } = await requireActor('outcomes.read', '/outcomes/clinicians');
   const filters = filtersOf(await searchParams);
-  let data: FunnelReport | null = null;
-  let problems: Record<string, string[]> = {};
-  try {
-    data = await outcomesFunnel(em, actor, filters);
-  } catch (e) {
-    if (!(e instanceof ValidationError)) throw e;
-    problems = e.fieldErrors ?? {};
-  }
-  const own = data?.own ?? !actor.roles.includes('auditor');
+  const { data, problems, own } = await viewData(actor, () => outcomesFunnel(em, actor, filters));
   const choice = (key: 'measure' | 'adjust', value: string, label: string, current: string) => (
     <Link
       key={value}

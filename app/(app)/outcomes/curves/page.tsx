@@ -1,71 +1,39 @@
 import type { Metadata } from 'next';
 import { requireActor } from '@/lib/auth/session';
-import { AT_RISK_MONTHS, FACTOR_KEYS, FACTORS, milestoneDays, RMST_MONTHS, TURNBULL_MAX, type Curve } from '@/lib/outcomes';
-import { outcomesCurves, type CurvesReport } from '@/lib/services/outcomes';
-import { ValidationError } from '@/lib/services/errors';
+import { FACTORS, milestoneDays, RMST_MONTHS, TURNBULL_MAX } from '@/lib/outcomes';
+import { outcomesCurves } from '@/lib/services/outcomes';
 import { Notice } from '@/components/ui/Notice';
 import { ChartDownloads } from '@/components/charts/ChartDownloads';
-import { filtersOf, HiddenFilters, Method, OutcomesHeader, pct } from '../_components/parts';
+import { ChoiceSelect, ENDPOINT_CHOICES, FACTOR_CHOICES, filtersOf, HiddenFilters, METHOD_CHOICES, Method, OutcomesHeader, pct, pIs } from '../_components/parts';
 import { SurvivalChart } from '../_components/SurvivalChartLazy';
+import { AtRiskTable, LevelChart } from '../_components/LevelCurves';
 import type { ChartSeries } from '../_components/SurvivalChart';
+import { viewData } from '../_components/viewData';
 
 export const metadata: Metadata = { title: 'Survival curves' };
 
 /** Days as months, one decimal (12 months = 365.25 days). */
 const months = (days: number) => ((days * 12) / 365.25).toFixed(1);
 
-const valueAt = (c: Curve, t: number) => {
-  let v = 1;
-  for (const p of c.points) if (p.time <= t) v = p.survival;
-  return v;
-};
-
 export default async function OutcomesCurvesPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
   const { em, actor } = await requireActor('outcomes.read', '/outcomes/curves');
   const filters = filtersOf(await searchParams);
-  let data: CurvesReport | null = null;
-  let problems: Record<string, string[]> = {};
-  try {
-    data = await outcomesCurves(em, actor, filters);
-  } catch (e) {
-    if (!(e instanceof ValidationError)) throw e;
-    problems = e.fieldErrors ?? {};
-  }
+  const { data, problems, own } = await viewData(actor, () => outcomesCurves(em, actor, filters));
   const c = data?.curves;
   const endpointWords = c?.endpoint === 'tooth' ? 'Tooth survival (event: extraction)' : 'Healing (failure: disease, retreatment, surgery or extraction)';
-  const series: ChartSeries[] = (c?.curves ?? []).map((cv) => ({
-    name: `${cv.level} (n = ${cv.n})`,
-    points: cv.points.map((p) => ({ time: p.time, value: p.survival, lower: p.lower, upper: p.upper })),
-    censored: c?.method === 'km' ? cv.censored.map((t) => ({ time: t, value: valueAt(cv, t) })) : undefined,
-  }));
   const competing: ChartSeries[] = (c?.competing ?? []).map((cp) => ({
     name: cp.cause,
     points: [{ time: 0, value: 0, lower: 0, upper: 0 }, ...cp.points.map((p) => ({ time: p.time, value: p.incidence, lower: p.lower, upper: p.upper }))],
   }));
-  const select = (name: string, value: string, options: [string, string][], label: string) => (
-    <div>
-      <label htmlFor={`curves-${name}`} className="field-label">
-        {label}
-      </label>
-      <select id={`curves-${name}`} name={name} defaultValue={value} className="field-input" aria-invalid={problems[name] ? true : undefined}>
-        {options.map(([v, l]) => (
-          <option key={v} value={v}>
-            {l}
-          </option>
-        ))}
-      </select>
-      {problems[name] && <p className="field-error">{problems[name][0]}</p>}
-    </div>
-  );
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/curves" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="curves" referrers={data?.referrers} />
+      <OutcomesHeader current="/outcomes/curves" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="curves" referrers={data?.referrers} />
       <form method="get" action="/outcomes/curves" aria-label="Choose the curves" className="flex flex-wrap items-end gap-3">
         <HiddenFilters filters={filters} />
-        {select('endpoint', c?.endpoint ?? filters.endpoint ?? 'healing', [['healing', 'Healing'], ['tooth', 'Tooth survival']], 'Endpoint')}
-        {select('method', c?.asked ?? filters.method ?? 'turnbull', [['turnbull', 'Turnbull (failures found at visits)'], ['km', 'Kaplan–Meier (on visit dates)']], 'Method')}
-        {select('factor', c?.factor ?? filters.factor ?? '', [['', 'No split'], ...FACTOR_KEYS.map((k): [string, string] => [k, FACTORS[k].label])], 'Split by')}
-        {select('stratum', c?.stratum ?? filters.stratum ?? '', [['', 'No stratum'], ...FACTOR_KEYS.map((k): [string, string] => [k, FACTORS[k].label])], 'Log-rank stratified by')}
+        <ChoiceSelect id="curves-endpoint" name="endpoint" value={c?.endpoint ?? filters.endpoint ?? 'healing'} options={ENDPOINT_CHOICES} label="Endpoint" problems={problems} />
+        <ChoiceSelect id="curves-method" name="method" value={c?.asked ?? filters.method ?? 'turnbull'} options={METHOD_CHOICES} label="Method" problems={problems} />
+        <ChoiceSelect id="curves-factor" name="factor" value={c?.factor ?? filters.factor ?? ''} options={[['', 'No split'], ...FACTOR_CHOICES]} label="Split by" problems={problems} />
+        <ChoiceSelect id="curves-stratum" name="stratum" value={c?.stratum ?? filters.stratum ?? ''} options={[['', 'No stratum'], ...FACTOR_CHOICES]} label="Log-rank stratified by" problems={problems} />
         <button type="submit" className="btn-primary">
           Show
         </button>
@@ -86,44 +54,16 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
                   ? `Kaplan–Meier shown: the Turnbull estimate is not computed above ${TURNBULL_MAX.toLocaleString('en-GB')} cases (it takes too long). It dates each failure at the visit that found it.`
                   : 'Kaplan–Meier dates each failure at the visit that found it (survival slightly overstated between visits); Turnbull, the default, does not.'}
             </Notice>
-            <ChartDownloads filename={`lamina-${c.endpoint === 'tooth' ? 'tooth-survival' : 'healing'}${c.factor ? `-by-${c.factor}` : ''}`} title={`${endpointWords}${c.factor ? ` by ${FACTORS[c.factor].label.toLowerCase()}` : ''}`}>
-              <div className="h-80 rounded-lg border border-bone-200 bg-white p-2" data-testid="survival-chart">
-                <SurvivalChart series={series} yLabel={c.endpoint === 'tooth' ? 'Teeth kept' : 'Free of failure'} band={c.method === 'km'} />
-              </div>
-            </ChartDownloads>
-            <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
-              <table className="table-dense table-stack w-full" aria-label="Numbers at risk" data-testid="at-risk">
-                <thead>
-                  <tr>
-                    <th scope="col">Numbers at risk</th>
-                    {AT_RISK_MONTHS.map((m) => (
-                      <th key={m} scope="col">
-                        {m} mo
-                      </th>
-                    ))}
-                    <th scope="col">Estimate at 12 / 24 / 48 mo</th>
-                  </tr>
-                </thead>
-                <tbody>
-                  {c.curves.map((cv) => (
-                    <tr key={cv.level} className={cv.n < 20 ? 'text-ink-500' : undefined}>
-                      <td data-label="Level" className="font-semibold">
-                        {cv.level} {cv.n < 20 && <span className="ml-1 rounded border border-bone-300 px-1 text-xs font-normal">few cases</span>}
-                      </td>
-                      {cv.atRisk.map((n, i) => (
-                        <td key={AT_RISK_MONTHS[i]} data-label={`${AT_RISK_MONTHS[i]} months`}>
-                          {n}
-                        </td>
-                      ))}
-                      <td data-label="At 12/24/48 mo">{[12, 24, 48].map((m) => pct(valueAt(cv, milestoneDays(m)), 1)).join(' / ')}</td>
-                    </tr>
-                  ))}
-                </tbody>
-              </table>
-            </div>
+            <LevelChart
+              c={c}
+              filename={`lamina-${c.endpoint === 'tooth' ? 'tooth-survival' : 'healing'}${c.factor ? `-by-${c.factor}` : ''}`}
+              title={`${endpointWords}${c.factor ? ` by ${FACTORS[c.factor].label.toLowerCase()}` : ''}`}
+              testId="survival-chart"
+            />
+            <AtRiskTable curves={c.curves} label="Numbers at risk" testId="at-risk" />
             <p data-testid="log-rank">
               {c.logRank
-                ? `${c.logRank.method.charAt(0).toUpperCase()}${c.logRank.method.slice(1)} across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): p ${c.logRank.pValue < 0.001 ? '< 0.001' : `= ${c.logRank.pValue.toFixed(3)}`}.`
+                ? `${c.logRank.method.charAt(0).toUpperCase()}${c.logRank.method.slice(1)} across the ${c.curves.length} levels (χ² = ${c.logRank.chiSquare.toFixed(2)}, ${c.logRank.df} df): ${pIs(c.logRank.pValue)}.`
                 : (c.logRankNote ?? 'No log-rank test: choose a factor with at least two levels and some events.')}
             </p>
             <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">

@@ -1,63 +1,29 @@
 import type { Metadata } from 'next';
 import { requireActor } from '@/lib/auth/session';
-import { FACTOR_KEYS, FACTORS } from '@/lib/outcomes';
-import { outcomesByFactor, type FactorReport } from '@/lib/services/outcomes';
-import { ValidationError } from '@/lib/services/errors';
+import { FACTORS } from '@/lib/outcomes';
+import { outcomesByFactor } from '@/lib/services/outcomes';
 import { Notice } from '@/components/ui/Notice';
-import { filtersOf, HiddenFilters, Method, OutcomesHeader, RateText, withLevel } from '../_components/parts';
+import { ChoiceSelect, ENDPOINT_CHOICES, FACTOR_CHOICES, filtersOf, HiddenFilters, METHOD_CHOICES, Method, OutcomesHeader, pIs, RateText, withLevel } from '../_components/parts';
 import { LevelCurves } from '../_components/LevelCurves';
+import { viewData } from '../_components/viewData';
 
 export const metadata: Metadata = { title: 'Outcomes by factor' };
 
 export default async function OutcomesFactorPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
   const { em, actor } = await requireActor('outcomes.read', '/outcomes/factor');
   const filters = filtersOf(await searchParams);
-  let data: FactorReport | null = null;
-  let problems: Record<string, string[]> = {};
-  try {
-    data = await outcomesByFactor(em, actor, filters);
-  } catch (e) {
-    if (!(e instanceof ValidationError)) throw e;
-    problems = e.fieldErrors ?? {};
-  }
+  const { data, problems, own } = await viewData(actor, () => outcomesByFactor(em, actor, filters));
   const factor = data?.factor ?? 'kind';
   const test = data?.table.test ?? null;
-  const canFilter = factor !== 'clinician' || !(data?.own ?? true);
-  const select = (name: string, value: string, options: [string, string][], label: string) => (
-    <div>
-      <label htmlFor={`factor-${name}`} className="field-label">
-        {label}
-      </label>
-      <select id={`factor-${name}`} name={name} defaultValue={value} className="field-input" aria-invalid={problems[name] ? true : undefined}>
-        {options.map(([v, l]) => (
-          <option key={v} value={v}>
-            {l}
-          </option>
-        ))}
-      </select>
-      {problems[name] && <p className="field-error">{problems[name][0]}</p>}
-    </div>
-  );
+  const canFilter = factor !== 'clinician' || !own;
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/factor" filters={filters} clinicians={data?.clinicians ?? []} own={data?.own ?? !actor.roles.includes('auditor')} problems={problems} csvView="factor" referrers={data?.referrers} />
+      <OutcomesHeader current="/outcomes/factor" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="factor" referrers={data?.referrers} />
       <form method="get" action="/outcomes/factor" aria-label="Choose a factor" className="flex flex-wrap items-end gap-3">
         <HiddenFilters filters={filters} />
-        <div>
-          <label htmlFor="outcomes-factor" className="field-label">
-            How do we do by…
-          </label>
-          <select id="outcomes-factor" name="factor" defaultValue={factor} className="field-input" aria-invalid={problems.factor ? true : undefined}>
-            {FACTOR_KEYS.map((k) => (
-              <option key={k} value={k}>
-                {FACTORS[k].label}
-              </option>
-            ))}
-          </select>
-          {problems.factor && <p className="field-error">{problems.factor[0]}</p>}
-        </div>
-        {select('endpoint', data?.curves.endpoint ?? filters.endpoint ?? 'healing', [['healing', 'Healing'], ['tooth', 'Tooth survival']], 'Curves of')}
-        {select('method', data?.curves.asked ?? filters.method ?? 'turnbull', [['turnbull', 'Turnbull (failures found at visits)'], ['km', 'Kaplan–Meier (on visit dates)']], 'Method')}
+        <ChoiceSelect id="outcomes-factor" name="factor" value={factor} options={FACTOR_CHOICES} label="How do we do by…" problems={problems} />
+        <ChoiceSelect id="factor-endpoint" name="endpoint" value={data?.curves.endpoint ?? filters.endpoint ?? 'healing'} options={ENDPOINT_CHOICES} label="Curves of" problems={problems} />
+        <ChoiceSelect id="factor-method" name="method" value={data?.curves.asked ?? filters.method ?? 'turnbull'} options={METHOD_CHOICES} label="Method" problems={problems} />
         <button type="submit" className="btn-primary">
           Show
         </button>
@@ -120,7 +86,7 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
           <p data-testid="factor-test">
             {test === null
               ? 'No test: fewer than two levels with judged cases, or every judged case had the same result.'
-              : `${test.method === 'fisher' ? 'Fisher’s exact test' : `Pearson’s χ² test (χ² = ${test.chiSquare!.toFixed(2)}, ${test.df} df)`}: p ${test.pValue < 0.001 ? '< 0.001' : `= ${test.pValue.toFixed(3)}`}${test.sparse ? ' — some expected counts are below 5, read it with care' : ''}.`}
+              : `${test.method === 'fisher' ? 'Fisher’s exact test' : `Pearson’s χ² test (χ² = ${test.chiSquare!.toFixed(2)}, ${test.df} df)`}: ${pIs(test.pValue)}${test.sparse ? ' — some expected counts are below 5, read it with care' : ''}.`}
           </p>
           <Method>
             outcome at the latest review a year or more after completion by Lamina’s scoring rules (a retreatment, surgery or extraction at any time counts as failure;

@@ -2,13 +2,13 @@ import type { Metadata } from 'next';
 import { requireActor } from '@/lib/auth/session';
 import { FACTORS } from '@/lib/outcomes';
 import { COVARIATE_KEYS, EPV_MIN, MIN_LEVEL_ROWS, type ModelFit } from '@/lib/outcomes/model';
-import { outcomesModel, type ModelReport } from '@/lib/services/outcomes-model';
-import { ValidationError } from '@/lib/services/errors';
+import { outcomesModel } from '@/lib/services/outcomes-model';
 import { Caution } from '@/components/ui/Caution';
 import { Notice } from '@/components/ui/Notice';
-import { filtersOf, FILTER_KEYS, Method, OutcomesHeader } from '../_components/parts';
+import { filtersOf, FILTER_KEYS, Method, OutcomesHeader, pText } from '../_components/parts';
 import { ForestPlot } from '../_components/ForestPlotLazy';
 import { ChartDownloads } from '@/components/charts/ChartDownloads';
+import { viewData } from '../_components/viewData';
 
 export const metadata: Metadata = { title: 'Outcomes: multivariable' };
 
@@ -27,7 +27,6 @@ function choicesOf(params: Params): Record<string, string> {
 }
 
 const fmt = (v: number) => (v >= 100 || v < 0.01 ? v.toExponential(1) : v.toFixed(2));
-const pText = (p: number) => (p < 0.001 ? '< 0.001' : p.toFixed(3));
 
 const MODEL_TEXT = {
   cox: { ratio: 'Hazard ratio', short: 'HR', unit: (endpoint: string) => (endpoint === 'tooth' ? 'teeth' : 'cases') },
@@ -120,15 +119,7 @@ export default async function OutcomesModelPage({ searchParams }: { searchParams
   const { em, actor } = await requireActor('outcomes.read', '/outcomes/model');
   const params = await searchParams;
   const filters = { ...filtersOf(params), ...choicesOf(params) };
-  let data: ModelReport | null = null;
-  let problems: Record<string, string[]> = {};
-  try {
-    data = await outcomesModel(em, actor, filters);
-  } catch (e) {
-    if (!(e instanceof ValidationError)) throw e;
-    problems = e.fieldErrors ?? {};
-  }
-  const own = data?.own ?? !actor.roles.includes('auditor');
+  const { data, problems, own } = await viewData(actor, () => outcomesModel(em, actor, filters));
   const chosen = new Set<string>(data?.chosen.covariates ?? []);
   const lesionAs = data?.chosen.lesionAs ?? 'bands';
   const paiAs = data?.chosen.paiAs ?? 'numeric';

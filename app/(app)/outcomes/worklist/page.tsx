@@ -2,15 +2,15 @@ import type { Metadata } from 'next';
 import Link from 'next/link';
 import { requireActor } from '@/lib/auth/session';
 import { URGENCY_LABELS, WORKLIST_CAUTION, type Urgency } from '@/lib/outcomes/worklist';
-import { outcomesWorklist, type WorklistReport, type WorklistRow } from '@/lib/services/outcomes-worklist';
-import { ValidationError } from '@/lib/services/errors';
+import { outcomesWorklist, type WorklistRow } from '@/lib/services/outcomes-worklist';
 import { Caution } from '@/components/ui/Caution';
 import { EmptyState } from '@/components/ui/EmptyState';
 import { Notice } from '@/components/ui/Notice';
 import { OutcomeBadge, StateBadge } from '@/components/ui/StateBadge';
 import { fmtDate } from '@/components/ui/format';
-import { FILTER_KEYS, filtersOf, Method, OutcomesHeader, queryOf } from '../_components/parts';
+import { filtersOf, Method, OutcomesHeader } from '../_components/parts';
 import { DecisionForm } from './DecisionFormLazy';
+import { viewData } from '../_components/viewData';
 
 export const metadata: Metadata = { title: 'Non-healing worklist' };
 
@@ -24,15 +24,7 @@ export default async function OutcomesWorklistPage({ searchParams }: { searchPar
   const { em, actor } = await requireActor('outcomes.read', '/outcomes/worklist');
   const filters = filtersOf(await searchParams);
   for (const k of ['factor', 'endpoint', 'method']) delete filters[k];
-  let data: WorklistReport | null = null;
-  let problems: Record<string, string[]> = {};
-  try {
-    data = await outcomesWorklist(em, actor, filters);
-  } catch (e) {
-    if (!(e instanceof ValidationError)) throw e;
-    problems = e.fieldErrors ?? {};
-  }
-  const keep = Object.fromEntries(FILTER_KEYS.map((k) => [k, filters[k]]));
+  const { data, problems, own } = await viewData(actor, () => outcomesWorklist(em, actor, filters));
   const count = (u: Urgency) => data?.rows.filter((r) => r.urgency === u).length ?? 0;
   return (
     <div className="space-y-8">
@@ -40,10 +32,9 @@ export default async function OutcomesWorklistPage({ searchParams }: { searchPar
         current="/outcomes/worklist"
         filters={filters}
         clinicians={data?.clinicians ?? []}
-        own={data?.own ?? !actor.roles.includes('auditor')}
+        own={own}
         problems={problems}
-        csvView="overview"
-        csvHref={`/api/outcomes/worklist/export${queryOf(keep)}`}
+        csvView="worklist"
       />
       {!data && <Notice tone="alert">Some filters need attention; nothing is shown until they are corrected.</Notice>}
       {data && (
