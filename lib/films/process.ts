@@ -15,6 +15,9 @@ export const THUMB_SIDE = 320;
 /** Larger images are refused before decoding (a decompression bomb guard): 100 megapixels. */
 export const MAX_PIXELS = 100_000_000;
 
+/** The refusal of a file over the size limit (the upload route's early check and processFilm's). */
+export const filmTooLargeMessage = (maxBytes: number) => `The file is larger than ${Math.round(maxBytes / 1024 / 1024)} MB, the largest film Lamina takes.`;
+
 export class FilmRejected extends Error {
   constructor(
     readonly status: 413 | 415 | 422,
@@ -70,9 +73,7 @@ async function renditions(pipeline: () => Sharp, width: number, height: number, 
 /** Reads, checks and renders one uploaded file; throws FilmRejected with a message for the uploader. */
 export async function processFilm(bytes: Uint8Array, maxBytes: number): Promise<ProcessedFilm> {
   if (bytes.byteLength === 0) throw new FilmRejected(422, 'empty', 'The file is empty.');
-  if (bytes.byteLength > maxBytes) {
-    throw new FilmRejected(413, 'too_large', `The file is larger than ${Math.round(maxBytes / 1024 / 1024)} MB, the largest film Lamina takes.`);
-  }
+  if (bytes.byteLength > maxBytes) throw new FilmRejected(413, 'too_large', filmTooLargeMessage(maxBytes));
   const sniffed = await sniffFilm(bytes);
   if (!sniffed.kind) {
     throw new FilmRejected(
@@ -110,18 +111,12 @@ export async function processFilm(bytes: Uint8Array, maxBytes: number): Promise<
 
   // PNG or JPEG: decode once (refusing what sharp cannot read), bake the EXIF orientation in, drop all metadata.
   try {
-    await sharp(bytes, { limitInputPixels: MAX_PIXELS }).metadata();
-  } catch {
-    throw new FilmRejected(422, 'corrupt', `The ${sniffed.kind.toUpperCase()} file could not be read: it is damaged or cut short.`);
-  }
-  try {
     const input = () => sharp(bytes, { limitInputPixels: MAX_PIXELS, failOn: 'truncated' }).rotate();
     const original = await (sniffed.kind === 'png' ? input().png({ compressionLevel: 6 }) : input().jpeg({ quality: 95 })).toBuffer({ resolveWithObject: true });
     const { width, height } = original.info;
     const r = await renditions(() => sharp(original.data), width, height, sniffed.kind === 'png' ? 'png' : 'jpeg');
     return { ...base, width, height, original: { body: original.data, contentType: sniffed.contentType, width, height }, ...r, dicom: null };
-  } catch (e) {
-    if (e instanceof FilmRejected) throw e;
+  } catch {
     throw new FilmRejected(422, 'corrupt', `The ${sniffed.kind.toUpperCase()} file could not be read: it is damaged or cut short.`);
   }
 }
