@@ -8,10 +8,9 @@
 import { createHash } from 'node:crypto';
 import sharp, { type Sharp } from 'sharp';
 import { DicomReadError, readDicom, type DicomFilm } from './dicom';
+import { THUMB_SIDE, WEB_MAX_SIDE, fitInside } from './sizes';
 import { FILM_CONTENT_TYPES, sniffFilm, type FilmKind } from './sniff';
 
-export const WEB_MAX_SIDE = 4096;
-export const THUMB_SIDE = 320;
 /** Larger images are refused before decoding (a decompression bomb guard): 100 megapixels. */
 export const MAX_PIXELS = 100_000_000;
 
@@ -50,11 +49,6 @@ export interface ProcessedFilm {
 }
 
 export const sha256Hex = (bytes: Uint8Array) => createHash('sha256').update(bytes).digest('hex');
-
-function fitInside(width: number, height: number, side: number) {
-  const k = Math.min(1, side / Math.max(width, height));
-  return { width: Math.max(1, Math.round(width * k)), height: Math.max(1, Math.round(height * k)) };
-}
 
 async function renditions(pipeline: () => Sharp, width: number, height: number, webAs: 'png' | 'jpeg') {
   const w = fitInside(width, height, WEB_MAX_SIDE);
