@@ -58,7 +58,7 @@ export const EnvSchema = z
     S3_REGION: z.string().min(1).max(40).default('us-east-1'),
     S3_ACCESS_KEY_ID: z.string().min(1).default('S3RVER'),
     S3_SECRET_ACCESS_KEY: z.string().min(1).default('S3RVER'),
-    /** The largest film file accepted for upload, in MB (lib/films/limits.ts; a larger one is 413). */
+    /** The largest film file accepted for upload, in MB (lib/services/films.ts filmMaxBytes; a larger one is 413). */
     FILM_MAX_MB: z.coerce.number().int().positive().max(60, 'FILM_MAX_MB is at most 60 (next.config.mjs proxyClientMaxBodySize is 64 MB)').default(40),
   })
   .transform((e, ctx) => {

@@ -12,6 +12,7 @@
 import * as dicomParserModule from 'dicom-parser';
 import { Decoder } from 'jpeg-lossless-decoder-js';
 import type { DataSet, Element } from 'dicom-parser';
+import type { SpacingSourceCode } from './roles';
 
 // dicom-parser ships one UMD file: bundlers (vitest, Next) expose its names on the namespace, Node's
 // own ESM loader (tsx scripts, the bench) only as `default`. Take whichever holds them.
@@ -55,8 +56,6 @@ export class DicomReadError extends Error {
   }
 }
 
-export type SpacingSource = 'pixel_spacing' | 'imager_pixel_spacing' | 'none';
-
 export interface DicomFilm {
   transferSyntaxUid: string;
   transferSyntaxName: string;
@@ -64,7 +63,7 @@ export interface DicomFilm {
   columns: number;
   /** Millimetres between pixel centres: [row spacing (vertical), column spacing (horizontal)]; null without a spacing tag. */
   pixelSpacingMm: [number, number] | null;
-  spacingSource: SpacingSource;
+  spacingSource: SpacingSourceCode;
   /** ISO date: Acquisition Date, else Content Date, else Study Date; null when none is valid. */
   acquisitionDate: string | null;
   modality: string | null;

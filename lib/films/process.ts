@@ -8,12 +8,14 @@
 import { createHash } from 'node:crypto';
 import sharp, { type Sharp } from 'sharp';
 import { DicomReadError, readDicom, type DicomFilm } from './dicom';
+import { THUMB_SIDE, WEB_MAX_SIDE, fitInside } from './sizes';
 import { FILM_CONTENT_TYPES, sniffFilm, type FilmKind } from './sniff';
 
-export const WEB_MAX_SIDE = 4096;
-export const THUMB_SIDE = 320;
 /** Larger images are refused before decoding (a decompression bomb guard): 100 megapixels. */
 export const MAX_PIXELS = 100_000_000;
+
+/** The refusal of a file over the size limit (the upload route's early check and processFilm's). */
+export const filmTooLargeMessage = (maxBytes: number) => `The file is larger than ${Math.round(maxBytes / 1024 / 1024)} MB, the largest film Lamina takes.`;
 
 export class FilmRejected extends Error {
   constructor(
@@ -48,11 +50,6 @@ export interface ProcessedFilm {
 
 export const sha256Hex = (bytes: Uint8Array) => createHash('sha256').update(bytes).digest('hex');
 
-function fitInside(width: number, height: number, side: number) {
-  const k = Math.min(1, side / Math.max(width, height));
-  return { width: Math.max(1, Math.round(width * k)), height: Math.max(1, Math.round(height * k)) };
-}
-
 async function renditions(pipeline: () => Sharp, width: number, height: number, webAs: 'png' | 'jpeg') {
   const w = fitInside(width, height, WEB_MAX_SIDE);
   const t = fitInside(width, height, THUMB_SIDE);
@@ -70,9 +67,7 @@ async function renditions(pipeline: () => Sharp, width: number, height: number, 
 /** Reads, checks and renders one uploaded file; throws FilmRejected with a message for the uploader. */
 export async function processFilm(bytes: Uint8Array, maxBytes: number): Promise<ProcessedFilm> {
   if (bytes.byteLength === 0) throw new FilmRejected(422, 'empty', 'The file is empty.');
-  if (bytes.byteLength > maxBytes) {
-    throw new FilmRejected(413, 'too_large', `The file is larger than ${Math.round(maxBytes / 1024 / 1024)} MB, the largest film Lamina takes.`);
-  }
+  if (bytes.byteLength > maxBytes) throw new FilmRejected(413, 'too_large', filmTooLargeMessage(maxBytes));
   const sniffed = await sniffFilm(bytes);
   if (!sniffed.kind) {
     throw new FilmRejected(
@@ -110,18 +105,12 @@ export async function processFilm(bytes: Uint8Array, maxBytes: number): Promise<
 
   // PNG or JPEG: decode once (refusing what sharp cannot read), bake the EXIF orientation in, drop all metadata.
   try {
-    await sharp(bytes, { limitInputPixels: MAX_PIXELS }).metadata();
-  } catch {
-    throw new FilmRejected(422, 'corrupt', `The ${sniffed.kind.toUpperCase()} file could not be read: it is damaged or cut short.`);
-  }
-  try {
     const input = () => sharp(bytes, { limitInputPixels: MAX_PIXELS, failOn: 'truncated' }).rotate();
     const original = await (sniffed.kind === 'png' ? input().png({ compressionLevel: 6 }) : input().jpeg({ quality: 95 })).toBuffer({ resolveWithObject: true });
     const { width, height } = original.info;
     const r = await renditions(() => sharp(original.data), width, height, sniffed.kind === 'png' ? 'png' : 'jpeg');
     return { ...base, width, height, original: { body: original.data, contentType: sniffed.contentType, width, height }, ...r, dicom: null };
-  } catch (e) {
-    if (e instanceof FilmRejected) throw e;
+  } catch {
     throw new FilmRejected(422, 'corrupt', `The ${sniffed.kind.toUpperCase()} file could not be read: it is damaged or cut short.`);
   }
 }

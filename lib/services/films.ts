@@ -13,7 +13,7 @@ import { deleteObjects, getObject, putObject } from '@/lib/storage/s3';
 import { audit } from './audit';
 import { NotFoundError, ServiceError, ValidationError } from './errors';
 import { parseInput } from './parse';
-import { assertId, findCase } from './registry-common';
+import { assertId, bodyId, findCase } from './registry-common';
 
 /** The largest film file accepted (FILM_MAX_MB, default 40 MB); a larger upload is answered 413. */
 export const filmMaxBytes = () => env.FILM_MAX_MB * 1024 * 1024;
@@ -107,6 +107,8 @@ export interface FilmUploadResult {
   created: boolean;
 }
 
+const NO_SUCH_VISIT = 'Choose a recall visit of this case.';
+
 /** Why an upload was refused, as the API's stable error code. */
 const CODE_OF_STATUS = { 413: 'payload_too_large', 415: 'unsupported_media_type', 422: 'validation' } as const;
 
@@ -130,8 +132,8 @@ export async function uploadFilm(
   if (!bytes) throw new ValidationError('Some fields need attention.', { file: ['Choose a film to upload (PNG, JPEG or DICOM).'] });
   let visitId: string | null = null;
   if (input.visitId) {
-    const visit = await em.findOne(RecallVisitSchema, { id: assertIdOr422(input.visitId), case: c.id, practice: actor.practiceId }, { fields: ['id'] });
-    if (!visit) throw new ValidationError('Some fields need attention.', { visitId: ['Choose a recall visit of this case.'] });
+    const visit = await em.findOne(RecallVisitSchema, { id: bodyId(input.visitId, 'visitId', NO_SUCH_VISIT), case: c.id, practice: actor.practiceId }, { fields: ['id'] });
+    if (!visit) throw new ValidationError('Some fields need attention.', { visitId: [NO_SUCH_VISIT] });
     visitId = visit.id;
   }
 
@@ -154,8 +156,8 @@ export async function uploadFilm(
   const prefix = `practices/${actor.practiceId}/cases/${c.id}/films/${filmId}`;
   const keys = {
     original: `${prefix}/original.${EXTENSIONS[processed.contentType]}`,
-    web: `${prefix}/web.${processed.web.contentType === 'image/png' ? 'png' : 'jpg'}`,
-    thumbnail: `${prefix}/thumbnail.jpg`,
+    web: `${prefix}/web.${EXTENSIONS[processed.web.contentType]}`,
+    thumbnail: `${prefix}/thumbnail.${EXTENSIONS[processed.thumbnail.contentType]}`,
   };
 
   try {
@@ -218,14 +220,6 @@ export async function uploadFilm(
   return { film: (await views(em, [film]))[0]!, created: true };
 }
 
-function assertIdOr422(id: string): string {
-  try {
-    return assertId(id, 'visit');
-  } catch {
-    throw new ValidationError('Some fields need attention.', { visitId: ['Choose a recall visit of this case.'] });
-  }
-}
-
 function findLive(em: EntityManager, caseId: string, role: FilmRole, sha256: string) {
   return em.findOne(FilmSchema, { case: caseId, role, sha256, archivedAt: null });
 }
@@ -262,11 +256,10 @@ export async function readFilmFile(em: EntityManager, actor: Actor, filmId: stri
   await audit(em, actor, { action: 'film.viewed', entityType: 'case', entityId: film.case.id, detail: { film: film.id, variant } });
   const contentType =
     variant === 'thumbnail' ? 'image/jpeg' : variant === 'web' ? (film.webKey.endsWith('.png') ? 'image/png' : 'image/jpeg') : film.contentType;
-  const ext = variant === 'original' ? EXTENSIONS[film.contentType] : contentType === 'image/png' ? 'png' : 'jpg';
   return {
     body,
     contentType,
-    filename: `film-${film.id.slice(0, 8)}-${variant}.${ext}`,
+    filename: `film-${film.id.slice(0, 8)}-${variant}.${EXTENSIONS[contentType]}`,
     disposition: variant === 'original' ? 'attachment' : 'inline',
   };
 }

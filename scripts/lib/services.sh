@@ -203,6 +203,18 @@ wait_for_launch() {
   lamina_die "$name did not answer in ${seconds}s (log: $log)"
 }
 
+# launch_node_fake NAME LOG READY SCRIPT ARGS...: `node --import tsx SCRIPT ARGS` from the repo in a
+# session of its own, output appended to LOG, then wait_for_launch (30 s) until READY succeeds.
+# setsid --wait: the launcher lives as long as the fake, so its death means the fake died.
+launch_node_fake() {
+  local name="$1" log="$2" ready="$3" launcher
+  shift 3
+  (cd "$LAMINA_REPO" && exec setsid --wait node --import tsx "$@" </dev/null >>"$log" 2>&1) &
+  launcher=$!
+  disown "$launcher" 2>/dev/null || true
+  wait_for_launch 30 "$launcher" "$name" "$log" "$ready"
+}
+
 # run_as_postgres CMD...: run a command as the postgres user, from / (so it never tries to
 # read a directory it cannot enter).
 run_as_postgres() { (cd / && runuser -u postgres -- "$@"); }
@@ -524,13 +536,8 @@ mail_start() {
   require_free_port "$LAMINA_SMTP_PORT" "the SMTP fake" LAMINA_SMTP_PORT
   require_free_port "$LAMINA_MAILBOX_PORT" "the mailbox HTTP API" LAMINA_MAILBOX_PORT
 
-  # setsid --wait: the launcher lives as long as the fake, so its death means the fake died.
-  (cd "$LAMINA_REPO" && exec setsid --wait node --import tsx scripts/mail-fake.ts \
-    --smtp-port "$LAMINA_SMTP_PORT" --http-port "$LAMINA_MAILBOX_PORT" \
-    --dir "$dir/messages" --pid-file "$pidfile" </dev/null >>"$log" 2>&1) &
-  local launcher=$!
-  disown "$launcher" 2>/dev/null || true
-  wait_for_launch 30 "$launcher" "the mail fake" "$log" mail_ready
+  launch_node_fake "the mail fake" "$log" mail_ready scripts/mail-fake.ts \
+    --smtp-port "$LAMINA_SMTP_PORT" --http-port "$LAMINA_MAILBOX_PORT" --dir "$dir/messages" --pid-file "$pidfile"
   lamina_log "mail fake: SMTP 127.0.0.1:$LAMINA_SMTP_PORT, mailbox http://127.0.0.1:$LAMINA_MAILBOX_PORT"
 }
 
@@ -567,13 +574,8 @@ s3_start() {
   fi
   require_free_port "$LAMINA_S3_PORT" "the S3 fake" LAMINA_S3_PORT
 
-  # setsid --wait: the launcher lives as long as the fake, so its death means the fake died.
-  (cd "$LAMINA_REPO" && exec setsid --wait node --import tsx scripts/s3-fake.ts \
-    --port "$LAMINA_S3_PORT" --dir "$dir/objects" --bucket "$LAMINA_S3_BUCKET" \
-    --pid-file "$pidfile" </dev/null >>"$log" 2>&1) &
-  local launcher=$!
-  disown "$launcher" 2>/dev/null || true
-  wait_for_launch 30 "$launcher" "the S3 fake" "$log" s3_ready
+  launch_node_fake "the S3 fake" "$log" s3_ready scripts/s3-fake.ts \
+    --port "$LAMINA_S3_PORT" --dir "$dir/objects" --bucket "$LAMINA_S3_BUCKET" --pid-file "$pidfile"
   lamina_log "S3 fake: http://127.0.0.1:$LAMINA_S3_PORT/$LAMINA_S3_BUCKET (objects in $dir/objects)"
 }
 

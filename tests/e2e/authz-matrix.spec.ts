@@ -32,7 +32,7 @@ interface Row {
   /** own: ids of the caller's practice; other: ids of the other practice. */
   url: (own: Ids, other: Ids) => string;
   body?: unknown;
-  /** A multipart body instead (the film upload takes nothing else). */
+  /** A multipart form's text fields instead of `body` (the film upload and the import's file reading take nothing else). */
   multipart?: Record<string, string>;
   expect: Record<Who, number>;
 }
@@ -154,7 +154,8 @@ const CROSS: Row[] = [
   { route: 'api/films/[id]/[variant]', method: 'GET', url: (_, o) => `/api/films/${o.filmId}/original`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: (_, o) => `/api/visits/${o.visitId}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
   { route: 'api/recall/visits/[id]/contact-log', method: 'GET', url: (_, o) => `/api/recall/visits/${o.visitId}/contact-log`, expect: only({ coordinator: 404 }) },
-  { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },  { route: 'api/outcomes/worklist/[id]/decisions', method: 'GET', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, expect: only({ clinician: 404, auditor: 404 }) },
+  { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },
+  { route: 'api/outcomes/worklist/[id]/decisions', method: 'GET', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, expect: only({ clinician: 404, auditor: 404 }) },
   { route: 'api/outcomes/worklist/[id]/decisions', method: 'POST', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, body: { step: 'watch' }, expect: only({ clinician: 404 }) },
 ];
 

@@ -9,7 +9,7 @@ import { env } from '@/lib/env';
 import { createCase } from '@/lib/services/cases';
 import { createPatient } from '@/lib/services/patients';
 import { uploadFilm, type FilmView } from '@/lib/services/films';
-import { getObject } from '@/lib/storage/s3';
+import { getObject, s3 } from '@/lib/storage/s3';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
 import { TS, drawRadiograph, filmDicom } from '../support/film-fixtures';
 
@@ -74,15 +74,9 @@ async function list(caseId: string) {
   return { status: res.status, body: (await res.json()) as { films: FilmView[] } };
 }
 
-/** Every object key the bucket holds under a case. */
+/** Every object key the bucket holds under a case (through the app's own client). */
 async function keysOf(practiceId: string, caseId: string): Promise<string[]> {
-  const client = new S3Client({
-    endpoint: env.S3_URL,
-    forcePathStyle: true,
-    region: env.S3_REGION,
-    credentials: { accessKeyId: env.S3_ACCESS_KEY_ID, secretAccessKey: env.S3_SECRET_ACCESS_KEY },
-  });
-  const r = await client.send(new ListObjectsV2Command({ Bucket: env.S3_BUCKET, Prefix: `practices/${practiceId}/cases/${caseId}/` }));
+  const r = await s3().send(new ListObjectsV2Command({ Bucket: env.S3_BUCKET, Prefix: `practices/${practiceId}/cases/${caseId}/` }));
   return (r.Contents ?? []).map((o) => o.Key!).sort();
 }
 

@@ -114,14 +114,18 @@ interface RouteSpec {
   fields?: string[];
   /** The body is CSV text (the import). */
   csv?: boolean;
-  /** The body is a multipart form: its text fields (fuzzed) and a `file` (valid, random bytes or a nasty string). */
-  multipart?: { fields: () => Record<string, string>; file: () => Uint8Array };
-  /** The body is a multipart upload of a file (`file`, and `sheet`): the import's file reading. */
-  upload?: boolean;
+  /** The body is a multipart form (see fieldsAndFile, importFileUpload). */
+  multipart?: MultipartSpec;
   /** The CSV's valid file (default: the case import's template). */
   template?: () => string;
   /** Not fuzzed here, and why. */
   skip?: string;
+}
+
+/** A multipart body: the valid form, and the fuzzed ones. */
+interface MultipartSpec {
+  valid: () => FormData;
+  fuzzed: () => fc.Arbitrary<FormData>;
 }
 
 const PAGING = ['page', 'pageSize', 'q', 'sort', 'dir', 'archived'];
@@ -147,12 +151,12 @@ const SPECS: Record<string, RouteSpec> = {
   'cases/[id]/films/route.ts#GET': { params: () => ({ id: ids.case! }) },
   'cases/[id]/films/route.ts#POST': {
     params: () => ({ id: ids.case! }),
-    multipart: { fields: () => ({ role: 'follow_up', visitId: ids.visit! }), file: () => filmPngBytes },
+    multipart: fieldsAndFile(() => ({ role: 'follow_up', visitId: ids.visit! }), () => filmPngBytes),
   },
   'films/[id]/[variant]/route.ts#GET': { params: () => ({ id: ids.film!, variant: 'thumbnail' }) },
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream', 'validRowsOnly'], baseQuery: { mode: 'dry-run' }, csv: true },
-  'cases/import/read/route.ts#POST': { upload: true },
+  'cases/import/read/route.ts#POST': { multipart: importFileUpload() },
   'reviews/import/route.ts#GET': {},
   'reviews/import/route.ts#POST': {
     query: ['mode', 'stream', 'validRowsOnly', 'remindOverdue'],
@@ -248,18 +252,57 @@ const asQueryValue = (v: unknown) => (typeof v === 'string' ? v.slice(0, 4096) :
 interface Fuzzed {
   params: Record<string, string>;
   query: [string, string][];
+  /** A FormData body: the Request sets the multipart content type with its boundary. */
   body?: string | FormData;
-  /** A multipart body (then the Request sets the content type with its boundary). */
-  form?: Record<string, string | Uint8Array>;
   contentType: string;
+}
+
+/** A multipart form: text as fields, bytes as files. */
+function formOf(entries: Record<string, string | Uint8Array>): FormData {
+  const form = new FormData();
+  for (const [k, v] of Object.entries(entries)) {
+    if (typeof v === 'string') form.set(k, v);
+    else form.set(k, new Blob([new Uint8Array(v)]), 'upload.bin');
+  }
+  return form;
 }
 
 /** A multipart upload: the template, nasty text or random bytes as `file`, and other fields. */
 function uploadForm(file: string | Uint8Array, fields: Record<string, string> = {}): FormData {
-  const form = new FormData();
-  form.set('file', new Blob([file as BlobPart]), 'upload.bin');
-  for (const [k, v] of Object.entries(fields)) form.set(k, v);
-  return form;
+  return formOf({ file: typeof file === 'string' ? new TextEncoder().encode(file) : file, ...fields });
+}
+
+/** Text fields and a valid `file`; up to three entries (or an unexpected one) replaced by nasty text, random or cut-short bytes. */
+function fieldsAndFile(fields: () => Record<string, string>, file: () => Uint8Array): MultipartSpec {
+  return {
+    valid: () => formOf({ ...fields(), file: file() }),
+    fuzzed: () => {
+      const keys = [...Object.keys(fields()), 'file', 'unexpected'];
+      const fileValue = fc.oneof(
+        { weight: 2, arbitrary: fc.constant<'valid'>('valid') },
+        { weight: 2, arbitrary: fc.uint8Array({ maxLength: 4096 }) },
+        // A valid file cut short or with a byte changed.
+        { weight: 2, arbitrary: fc.nat().map((n) => file().subarray(0, n % file().length)) },
+        { weight: 1, arbitrary: weirdString.map((s) => (typeof s === 'string' ? s : String(s))) },
+      );
+      return fc.array(fc.tuple(fc.constantFrom(...keys), fc.oneof(nasty.map(asQueryValue), fileValue)), { maxLength: 3 }).map((changes) => {
+        const form: Record<string, string | Uint8Array> = { ...fields(), file: file() };
+        for (const [k, v] of changes) form[k] = v === 'valid' ? file() : v;
+        return formOf(form);
+      });
+    },
+  };
+}
+
+/** The import's file reading: `file` (the template, random bytes, a zip-like header or text) and optionally `sheet`. */
+function importFileUpload(): MultipartSpec {
+  return {
+    valid: () => uploadForm(fuzzTemplate()),
+    fuzzed: () =>
+      fc
+        .record({ file: fileContent, sheet: fc.option(weirdString.map((v) => (typeof v === 'string' ? v : String(v))), { nil: undefined }) })
+        .map(({ file, sheet }) => uploadForm(file, sheet === undefined ? {} : { sheet })),
+  };
 }
 const fileContent = fc.oneof(
   fc.constant(null).map(() => new TextEncoder().encode(fuzzTemplate())),
@@ -292,26 +335,9 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
     return [...q.entries()];
   });
 
-  let body: fc.Arbitrary<{ body?: string | FormData; form?: Record<string, string | Uint8Array>; contentType: string }>;
+  let body: fc.Arbitrary<{ body?: string | FormData; contentType: string }>;
   if (spec.multipart) {
-    const mp = spec.multipart;
-    const keys = [...Object.keys(mp.fields()), 'file', 'unexpected'];
-    const fileValue = fc.oneof(
-      { weight: 2, arbitrary: fc.constant<'valid'>('valid') },
-      { weight: 2, arbitrary: fc.uint8Array({ maxLength: 4096 }) },
-      // A valid file cut short or with a byte changed.
-      { weight: 2, arbitrary: fc.nat().map((n) => mp.file().subarray(0, n % mp.file().length)) },
-      { weight: 1, arbitrary: weirdString.map((s) => (typeof s === 'string' ? s : String(s))) },
-    );
-    body = fc.array(fc.tuple(fc.constantFrom(...keys), fc.oneof(nasty.map(asQueryValue), fileValue)), { maxLength: 3 }).map((changes) => {
-      const form: Record<string, string | Uint8Array> = { ...mp.fields(), file: mp.file() };
-      for (const [k, v] of changes) form[k] = v === 'valid' ? mp.file() : v;
-      return { form, contentType: 'multipart/form-data' };
-    });
-  } else if (spec.upload) {
-    body = fc
-      .record({ file: fileContent, sheet: fc.option(weirdString.map((v) => (typeof v === 'string' ? v : String(v))), { nil: undefined }) })
-      .map(({ file, sheet }) => ({ body: uploadForm(file, sheet === undefined ? {} : { sheet }), contentType: 'multipart/form-data' }));
+    body = spec.multipart.fuzzed().map((form) => ({ body: form, contentType: 'multipart/form-data' }));
   } else if (spec.csv) {
     // As JSON { csv } (the route also takes text/csv), or as a multipart upload with the mapping step's options.
     body = fc.oneof(
@@ -336,7 +362,7 @@ function requestArbitrary(spec: RouteSpec, method: string): fc.Arbitrary<Fuzzed>
       { weight: 1, arbitrary: weirdString.map((s) => ({ body: typeof s === 'string' ? s : String(s), contentType: 'application/json' })) },
     );
   }
-  return fc.record({ params, query, b: body }).map(({ params: p, query: q, b }) => ({ params: p, query: q, body: b.body, form: b.form, contentType: b.contentType }));
+  return fc.record({ params, query, b: body }).map(({ params: p, query: q, b }) => ({ params: p, query: q, body: b.body, contentType: b.contentType }));
 }
 
 /** The import template with the fuzz practice's clinician as the operator. */
@@ -366,23 +392,15 @@ async function send(fn: (req: Request, ctx: { params: Promise<unknown> }) => Pro
   const routePath = route.split('#')[0]!.replace(/\/route\.ts$/, '');
   const url = new URL(`/api/${routePath.replace(/\[\.{0,3}(\w+)\]/g, (_, n: string) => encodeURIComponent(r.params[n] ?? 'x'))}`, env.APP_URL);
   for (const [k, v] of r.query) url.searchParams.append(k, v);
-  let form: FormData | undefined;
-  if (r.form) {
-    form = new FormData();
-    for (const [k, v] of Object.entries(r.form)) {
-      if (typeof v === 'string') form.set(k, v);
-      else form.set(k, new Blob([new Uint8Array(v)]), 'film.png');
-    }
-  }
   const req = new Request(url, {
     method,
     headers: {
-      ...(form || r.body instanceof FormData ? {} : { 'Content-Type': r.contentType }),
+      ...(r.body instanceof FormData ? {} : { 'Content-Type': r.contentType }),
       Origin: new URL(env.APP_URL).origin,
       'Sec-Fetch-Site': 'same-origin',
       Accept: 'application/json',
     },
-    ...(form ? { body: form } : r.body !== undefined && method !== 'GET' && method !== 'DELETE' ? { body: r.body } : {}),
+    ...(r.body !== undefined && method !== 'GET' && method !== 'DELETE' ? { body: r.body } : {}),
   });
   const res = await fn(req, { params: Promise.resolve(r.params) });
   const text = await res.text();
@@ -454,8 +472,13 @@ describe('fuzzed requests never answer 500 (issue 9 item 9)', async () => {
       const base: Fuzzed = {
         params: spec.params?.() ?? {},
         query: Object.entries(spec.baseQuery ?? {}),
-        body: spec.upload ? uploadForm(fuzzTemplate()) : spec.csv ? jsonText({ csv: (spec.template ?? fuzzTemplate)() }) : method === 'GET' || method === 'DELETE' ? undefined : jsonText(spec.body?.() ?? {}),
-        form: spec.multipart ? { ...spec.multipart.fields(), file: spec.multipart.file() } : undefined,
+        body: spec.multipart
+          ? spec.multipart.valid()
+          : spec.csv
+            ? jsonText({ csv: (spec.template ?? fuzzTemplate)() })
+            : method === 'GET' || method === 'DELETE'
+              ? undefined
+              : jsonText(spec.body?.() ?? {}),
         contentType: 'application/json',
       };
       const status = await send(fn, route, method, base);

@@ -1,6 +1,7 @@
 'use client';
 import { useCallback, useEffect, useId, useRef, useState } from 'react';
 import { FILM_ROLES, FILM_ROLE_LABELS, type FilmRole } from '@/lib/films/roles';
+import { THUMB_SIDE, fitInside } from '@/lib/films/sizes';
 import type { FilmView } from '@/lib/services/films';
 import { Select } from '@/components/ui/Select';
 import { fmtDate } from '@/components/ui/format';
@@ -226,8 +227,7 @@ export function FilmsSection({
                 <img
                   src={f.urls.thumbnail}
                   alt={`${f.roleLabel} film, ${fmtDate(f.acquisitionDate ?? f.createdAt)}`}
-                  width={thumbSize(f).width}
-                  height={thumbSize(f).height}
+                  {...fitInside(f.width, f.height, THUMB_SIDE)}
                   loading="lazy"
                   className="mx-auto block h-32 w-auto max-w-full object-contain"
                 />
@@ -251,9 +251,4 @@ export function FilmsSection({
       )}
     </section>
   );
-}
-
-function thumbSize(f: FilmView) {
-  const k = Math.min(1, 320 / Math.max(f.width, f.height));
-  return { width: Math.round(f.width * k), height: Math.round(f.height * k) };
 }

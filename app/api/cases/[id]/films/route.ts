@@ -1,4 +1,5 @@
 import { handler, json } from '@/lib/http';
+import { filmTooLargeMessage } from '@/lib/films/process';
 import { filmMaxBytes, listFilms, uploadFilm } from '@/lib/services/films';
 import { ServiceError, ValidationError } from '@/lib/services/errors';
 import { parseInput } from '@/lib/services/parse';
@@ -26,7 +27,7 @@ export const POST = handler<P>(
   async ({ req, em, actor, params }) => {
     const { id } = parseInput(IdParams, params);
     const max = filmMaxBytes();
-    const tooLarge = () => new ServiceError(`The file is larger than ${Math.round(max / 1024 / 1024)} MB, the largest film Lamina takes.`, 413, undefined, 'payload_too_large');
+    const tooLarge = () => new ServiceError(filmTooLargeMessage(max), 413, undefined, 'payload_too_large');
     if (Number(req.headers.get('content-length') ?? 0) > max + FRAMING_BYTES) throw tooLarge();
     const form = await req.formData().catch(() => {
       throw new ValidationError('The upload could not be read: send the film as the form field “file” of a multipart form.');
