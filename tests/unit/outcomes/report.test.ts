@@ -18,6 +18,12 @@ describe('the report’s methods paragraph', () => {
     expect(text).toContain('Spiegelhalter 2005');
     expect(text).toContain('not a verdict');
   });
+
+  it('defines lost to follow-up as lostAt does (outcome not known when due), not as a visit closed as lost', () => {
+    const text = methodsParagraphs(365).join(' ');
+    expect(text).toContain('Lost to follow-up: a case due for the milestone whose outcome then is not known');
+    expect(text).not.toMatch(/Lost to follow-up: a recall visit/);
+  });
 });
 
 describe('pdfText', () => {
