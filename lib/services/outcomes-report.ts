@@ -1,13 +1,13 @@
 import 'server-only';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
-import { applyFilter, byFactor, FACTORS, levelLabel, type FactorKey } from '@/lib/outcomes';
+import { FACTORS, levelLabel, type FactorKey } from '@/lib/outcomes';
 import { methodsParagraphs } from '@/lib/outcomes/methods';
 import { renderOutcomesReport, type ReportData } from '@/lib/pdf/outcomes-report';
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
 import { OutcomeReportQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
-import { filterDetail, levelNamer, overviewOfScope, scope } from './outcomes';
+import { factorTableOfScope, filterDetail, levelNamer, overviewOfScope, scope } from './outcomes';
 import { funnelOfScope } from './outcomes-funnel';
 import { parseInput } from './parse';
 import { knexOf } from './registry-common';
@@ -25,8 +25,7 @@ export async function outcomesReportData(em: EntityManager, actor: Actor, raw: u
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
   const clinicianName = levelNamer(s, 'clinician')!;
-  const table = byFactor(applyFilter(s.all, s.filter), factor, s.minObs);
-  if (factor === 'clinician') for (const l of table.levels) l.level = clinicianName(l.level);
+  const table = factorTableOfScope(s, factor);
   const practiceRow = (await knexOf(em)('practice').where({ id: actor.practiceId }).first('name')) as { name: string } | undefined;
   const generated = now.toLocaleString('en-GB', { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit', timeZone: s.timeZone });
   const f = s.filter;

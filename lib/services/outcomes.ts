@@ -244,12 +244,19 @@ export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unk
   const q = parseInput(OutcomeFactorQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
-  // the engine's figures are kept per data version and filter, with the names of open factors' levels (clinicians, referrers) in the key
-  const table = s.memo(['factor', s.filter, factor, namesOf(s, factor)], () => byFactor(applyFilter(s.all, s.filter), factor, s.minObs, levelNamer(s, factor)));
+  const table = factorTableOfScope(s, factor);
   // the same figures (and kept figures) as the curves view split by this factor
   const perLevel = curvesOfScope(s, { endpoint: q.endpoint, method: q.method, factor, stratum: null });
   await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(s.filter), factor } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, factor, table, curves: perLevel };
+}
+
+/**
+ * A factor's table for a scope's filter, its open levels (clinicians, referrers) named: kept per data
+ * version and filter, with the names in the key. The factor view and the printed report both use it.
+ */
+export function factorTableOfScope(s: Scope, factor: FactorKey): FactorTable {
+  return s.memo(['factor', s.filter, factor, namesOf(s, factor)], () => byFactor(applyFilter(s.all, s.filter), factor, s.minObs, levelNamer(s, factor)));
 }
 
 /** The survival curves of a scope's filter, per level of `factor` (its open levels named), kept per data version (no audit: callers audit). */

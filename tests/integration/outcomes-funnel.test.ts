@@ -203,6 +203,16 @@ describe('the printable audit report (issue 12, item 8)', () => {
     expect(flat).not.toContain(world.clinician2.userId);
   }, 60_000);
 
+  it('the factor table names open levels as the factor view does: clinicians and referrers by name, never an id', async () => {
+    const uuid = /[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}/;
+    const byClinician = pdfText((await outcomesReportPdf(services.em(), world.auditor, { factor: 'clinician' })).pdf).replace(/\s+/g, ' ');
+    expect(byClinician).toMatch(/Success by clinician.*\bcal\b.*\bcleo\b/);
+    expect(byClinician).not.toMatch(uuid);
+    const byReferrer = pdfText((await outcomesReportPdf(services.em(), world.auditor, { factor: 'referrer' })).pdf).replace(/\s+/g, ' ');
+    expect(byReferrer).toContain('No referrer recorded');
+    expect(byReferrer).not.toMatch(uuid);
+  }, 60_000);
+
   it('bad filters are a 422 before anything is drawn', async () => {
     await expect(outcomesReportPdf(services.em(), world.auditor, { factor: 'horoscope' })).rejects.toMatchObject({ status: 422 });
     await expect(outcomesReportPdf(services.em(), world.auditor, { from: '2026-02-30' })).rejects.toMatchObject({ status: 422 });
