@@ -32,13 +32,14 @@ export function covariateChoices(q: Pick<OutcomeModelQuery, 'covariates' | 'lesi
 async function compute(em: EntityManager, actor: Actor, raw: unknown) {
   const q = parseInput(OutcomeModelQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const clinicianName = levelNamer(s, 'clinician')!;
+  // open factors' levels (clinician and referrer ids) shown by name, as in the factor view
+  const namers = { clinician: levelNamer(s, 'clinician')!, referrer: levelNamer(s, 'referrer')! };
   const choices = covariateChoices(q);
-  const result = s.memo(['model', s.filter, choices, q.endpoint, s.clinicians], () =>
+  const result = s.memo(['model', s.filter, choices, q.endpoint, s.clinicians, s.referrers], () =>
     multivariable(applyFilter(s.all, s.filter), s.all, choices, {
       endpoint: q.endpoint,
       minObs: s.minObs,
-      levelName: (key, level) => (key === 'clinician' ? clinicianName(level) : level),
+      levelName: (key, level) => (key === 'clinician' || key === 'referrer' ? namers[key](level) : level),
     }),
   );
   const chosen = { covariates: choices.map((c) => c.key), lesionAs: q.lesionAs, paiAs: q.paiAs };

@@ -6,6 +6,7 @@ import type { RecordedReview } from '@/lib/scoring';
 import { createCase } from '@/lib/services/cases';
 import { outcomesModel, outcomesModelCsv } from '@/lib/services/outcomes-model';
 import { createPatient } from '@/lib/services/patients';
+import { createReferrer } from '@/lib/services/referrers';
 import { todayIn } from '@/lib/services/registry-common';
 import { createReview } from '@/lib/services/reviews';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
@@ -163,6 +164,21 @@ describe('multivariable models (issue 12, item 4)', () => {
     const ref = r.result.cox.references[0]!;
     expect(ref.covariate).toBe('clinician');
     expect(`${ref.level} ${r.result.cox.terms[0]!.term}`).not.toMatch(/[0-9a-f]{8}-/);
+  });
+
+  it('the referrer factor names the referrers as the factor view does, never by id', async () => {
+    const knex = services.orm.em.getKnex();
+    const referrer = await createReferrer(services.em(), world.coordinator, { name: 'Dr Ada Referral' });
+    const ids = rows.filter((_, i) => i % 2 === 0).map((c) => c.id);
+    await knex('treatment_case').whereIn('id', ids).update({ referrer_id: referrer.id });
+    try {
+      const r = await outcomesModel(services.em(), world.auditor, { covariates: 'referrer' });
+      const levels = [r.result.cox.references[0]!.level, ...r.result.cox.terms.map((t) => t.term)];
+      expect(levels.sort()).toEqual(['Dr Ada Referral', 'No referrer recorded']);
+      expect(JSON.stringify(r.result)).not.toContain(referrer.id);
+    } finally {
+      await knex('treatment_case').whereIn('id', ids).update({ referrer_id: null });
+    }
   });
 
   it('bad input is a 422; other roles a 403', async () => {
