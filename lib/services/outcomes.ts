@@ -221,12 +221,19 @@ export function overviewOfScope(s: Scope): { overview: Overview; practice: Overv
   return { overview: of(s.filter), practice: s.own ? of({ ...s.filter, clinician: undefined }) : null };
 }
 
-export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
+// Each view is read by an unaudited step shared by the screen (audited as a read) and its CSV
+// (audited once, as the download).
+async function overviewReport(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const { overview: result, practice } = overviewOfScope(s);
-  await audit(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(s.filter), cases: result.cases } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, overview: result, practice };
+}
+
+export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
+  const r = await overviewReport(em, actor, raw);
+  await audit(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(r.filter), cases: r.overview.cases } });
+  return r;
 }
 
 export interface FactorReport {
@@ -240,15 +247,20 @@ export interface FactorReport {
   curves: Curves;
 }
 
-export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unknown): Promise<FactorReport> {
+async function factorReport(em: EntityManager, actor: Actor, raw: unknown): Promise<FactorReport> {
   const q = parseInput(OutcomeFactorQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
   const table = factorTableOfScope(s, factor);
   // the same figures (and kept figures) as the curves view split by this factor
   const perLevel = curvesOfScope(s, { endpoint: q.endpoint, method: q.method, factor, stratum: null });
-  await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(s.filter), factor } });
   return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, factor, table, curves: perLevel };
+}
+
+export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unknown): Promise<FactorReport> {
+  const r = await factorReport(em, actor, raw);
+  await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(r.filter), factor: r.factor } });
+  return r;
 }
 
 /**
@@ -274,14 +286,20 @@ export interface CurvesReport {
   curves: Curves;
 }
 
-export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport> {
+async function curvesReport(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport & { detail: Record<string, string> }> {
   const q = parseInput(OutcomeCurvesQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = (q.factor ?? null) as FactorKey | null;
   const stratum = (q.stratum ?? null) as FactorKey | null;
   const result = curvesOfScope(s, { endpoint: q.endpoint, method: q.method, factor, stratum });
-  await audit(em, actor, { action: 'outcomes.curves_read', detail: { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}), ...(result.stratum ? { stratum: result.stratum } : {}) } });
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, curves: result };
+  const detail = { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}), ...(result.stratum ? { stratum: result.stratum } : {}) };
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, curves: result, detail };
+}
+
+export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport> {
+  const { detail, ...r } = await curvesReport(em, actor, raw);
+  await audit(em, actor, { action: 'outcomes.curves_read', detail });
+  return r;
 }
 
 /** A filter for the audit trail: its set fields, level filters as in the URL (`f.group: 'molar'`). */
@@ -294,10 +312,10 @@ const pct = (x: number | null) => (x === null ? null : Math.round(x * 10000) / 1
 const rateCells = (r: Rate) => [r.x, r.n, pct(r.estimate), pct(r.lower), pct(r.upper), r.few ? 'few cases' : ''];
 const RATE_HEAD = (what: string) => [`${what}: successes`, `${what}: n`, `${what} %`, `${what}: 95% lower %`, `${what}: 95% upper %`, `${what}: note`];
 
-/** A view's table as CSV through the one CSV writer (lib/csv/write.ts); the download is audited. */
+/** A view's table as CSV through the one CSV writer (lib/csv/write.ts); the download is audited once, with its filter. */
 export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overview' | 'factor' | 'curves', raw: unknown): Promise<string> {
   if (view === 'overview') {
-    const { overview: o } = await outcomesOverview(em, actor, raw);
+    const { overview: o, filter } = await overviewReport(em, actor, raw);
     const header = ['Figure', 'At', 'Value %', '95% lower %', '95% upper %', 'n', 'Detail'];
     const rows: (string | number | null)[][] = [
       ['Cases followed', '', null, null, null, o.cases, `${o.reviewed} with a review`],
@@ -312,11 +330,11 @@ export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overvi
       }),
       ...o.survival.map((sv) => ['Tooth survival (Kaplan–Meier)', `${sv.years} years`, pct(sv.km.survival), pct(sv.km.lower), pct(sv.km.upper), sv.km.nRisk, sv.turnbull === null ? 'Turnbull not computed' : `Turnbull ${pct(sv.turnbull)}%`]),
     ];
-    await audit(em, actor, { action: 'outcomes.exported', detail: { view } });
+    await audit(em, actor, { action: 'outcomes.exported', detail: { view, ...filterDetail(filter) } });
     return writeCsv(header, rows);
   }
   if (view === 'curves') {
-    const { curves: c } = await outcomesCurves(em, actor, raw);
+    const { curves: c, detail } = await curvesReport(em, actor, raw);
     const header = ['Level', 'Method', 'Day', 'Survival', '95% lower', '95% upper'];
     const rows = c.curves.flatMap((cv) => cv.points.map((p) => [cv.level, c.method === 'km' ? 'Kaplan–Meier' : 'Turnbull', p.time, p.survival, p.lower ?? null, p.upper ?? null]));
     for (const cp of c.competing) rows.push(...cp.points.map((p) => [`Cumulative incidence: ${cp.cause}`, 'Aalen–Johansen', p.time, p.incidence, p.lower, p.upper]));
@@ -325,16 +343,16 @@ export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overvi
       if (cv.rmst) rows.push([cv.level, `Restricted mean survival to day ${cv.rmst.tau} (Kaplan–Meier)`, cv.rmst.tau, cv.rmst.mean, cv.rmst.lower, cv.rmst.upper]);
     }
     if (c.logRank) rows.push([c.logRank.method, `chi-square ${c.logRank.chiSquare}, ${c.logRank.df} df`, null, c.logRank.pValue, null, null]);
-    await audit(em, actor, { action: 'outcomes.exported', detail: { view } });
+    await audit(em, actor, { action: 'outcomes.exported', detail: { view, ...detail } });
     return writeCsv(header, rows);
   }
-  const r = await outcomesByFactor(em, actor, raw);
+  const r = await factorReport(em, actor, raw);
   const header = [FACTORS[r.factor].label, 'Cases', ...RATE_HEAD('Strict'), ...RATE_HEAD('Lenient'), 'Uncertain'];
   const rows: (string | number | null)[][] = [
     ...r.table.levels.map((l) => [l.level, l.cases, ...rateCells(l.strict), ...rateCells(l.lenient), l.uncertain]),
   ];
   if (r.table.test) rows.push([`${r.table.test.method === 'fisher' ? 'Fisher exact test' : 'Pearson chi-square test'} p`, r.table.test.pValue]);
-  await audit(em, actor, { action: 'outcomes.exported', detail: { view, factor: r.factor } });
+  await audit(em, actor, { action: 'outcomes.exported', detail: { view, ...filterDetail(r.filter), factor: r.factor } });
   return writeCsv(header, rows);
 }
 

@@ -266,6 +266,22 @@ describe('outcomes by factor (issue 12, item 2)', () => {
     const actions = (await knex('audit_event').where({ practice_id: world.practice.id }).select('action')).map((a: { action: string }) => a.action);
     expect(actions).toEqual(expect.arrayContaining(['outcomes.overview_read', 'outcomes.factor_read', 'outcomes.exported']));
   });
+
+  it('a CSV download is one audit event, the download with its filter (as the funnel, model and worklist CSVs)', async () => {
+    const knex = services.orm.em.getKnex();
+    const count = async () => Number(((await knex('audit_event').where({ practice_id: world.practice.id }).count('* as n')) as { n: string }[])[0]!.n);
+    for (const [view, raw, extra] of [
+      ['overview', { kind: 'primary_treatment' }, {}],
+      ['factor', { factor: 'kind', kind: 'primary_treatment' }, { factor: 'kind' }],
+      ['curves', { kind: 'primary_treatment', endpoint: 'tooth' }, { endpoint: 'tooth' }],
+    ] as const) {
+      const before = await count();
+      await outcomesCsv(services.em(), world.auditor, view, raw);
+      expect(await count(), view).toBe(before + 1);
+      const last = (await knex('audit_event').where({ practice_id: world.practice.id }).orderBy('at', 'desc').first('action', 'detail')) as { action: string; detail: Record<string, unknown> };
+      expect(last).toMatchObject({ action: 'outcomes.exported', detail: { view, kind: 'primary_treatment', ...extra } });
+    }
+  });
 });
 
 describe('survival curves (issue 12, item 3)', () => {
