@@ -1,5 +1,6 @@
 import 'server-only';
 import { ServiceError } from '@/lib/services/errors';
+import { isServiceUnavailable, UNAVAILABLE_MESSAGE } from '@/lib/services/unavailable';
 
 /** What a server action returns to its form: success, or messages per field plus a summary. */
 export type ActionState = { ok: true; message?: string } | { ok: false; message: string; fieldErrors?: Record<string, string[]> } | null;
@@ -12,6 +13,7 @@ export async function runAction(fn: () => Promise<string | void>): Promise<Actio
   } catch (e) {
     if (e instanceof ServiceError) return { ok: false, message: e.message, fieldErrors: e.fieldErrors };
     if (isNextControlFlow(e)) throw e;
+    if (isServiceUnavailable(e)) return { ok: false, message: UNAVAILABLE_MESSAGE };
     console.error('[action] unexpected error', e);
     return { ok: false, message: 'Something went wrong on our side. Nothing was changed.' };
   }

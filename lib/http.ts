@@ -5,6 +5,7 @@ import { getRequestContext } from '@/lib/auth/session';
 import { can, type Permission } from '@/lib/auth/permissions';
 import type { Actor } from '@/lib/auth/actor';
 import { RateLimitedError, ServiceError } from '@/lib/services/errors';
+import { isServiceUnavailable, UnavailableError } from '@/lib/services/unavailable';
 import { env } from '@/lib/env';
 import { bodyTypeRefusal, crossSiteRefusal, originOf, type BodyType } from '@/lib/security/request-guard';
 
@@ -63,9 +64,11 @@ export function json(body: unknown, status = 200, init?: ResponseInit) {
 export function errorResponse(e: unknown): Response {
   if (e instanceof ServiceError) {
     const headers: Record<string, string> = {};
-    if (e instanceof RateLimitedError) headers['Retry-After'] = String(e.retryAfterSeconds);
+    if (e instanceof RateLimitedError || e instanceof UnavailableError) headers['Retry-After'] = String(e.retryAfterSeconds);
     return json({ error: e.code, message: e.message, fieldErrors: e.fieldErrors }, e.status, { headers });
   }
+  // the database or Redis not answering: the request changed nothing and may be tried again
+  if (isServiceUnavailable(e)) return errorResponse(new UnavailableError());
   console.error('[api] unexpected error', e);
   return json({ error: 'internal', message: 'Something went wrong on our side. Nothing was changed.' }, 500);
 }
