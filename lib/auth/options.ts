@@ -8,7 +8,7 @@ import { redisReady } from '@/lib/redis';
 import { sendMail } from '@/lib/mail/mailer';
 import { SignInLinkEmail } from '@/lib/mail/templates/SignInLinkEmail';
 import { SignInInput } from '@/lib/schemas/auth';
-import { activePracticeIds, auditInPractices, choosePractice, currentSessionVersion, endSessions, verifyCredentials } from '@/lib/services/auth';
+import { activePracticeIds, auditInPractices, choosePractice, currentSessionVersion, endSessions, SIGN_IN_UNAVAILABLE, verifyCredentials } from '@/lib/services/auth';
 import { ServiceError } from '@/lib/services/errors';
 import { UserSchema } from '@/entities';
 import { laminaAdapter } from './adapter';
@@ -43,7 +43,7 @@ export const authOptions: NextAuthOptions = {
         try {
           r = await redisReady();
         } catch {
-          throw new Error('Sign-in is unavailable for a moment. Try again shortly.');
+          throw new Error(SIGN_IN_UNAVAILABLE);
         }
         try {
           const { userId } = await verifyCredentials(

@@ -9,8 +9,10 @@ import { verifyPassword } from '@/lib/auth/password';
 import { linkWaitMessage, passwordWaitMessage, signInThrottle, type ThrottlePolicy } from '@/lib/auth/rate-limit';
 import { audit, type AuditInput } from './audit';
 import { RateLimitedError, ServiceError } from './errors';
+import { isServiceUnavailable } from './unavailable';
 
 export const WRONG_CREDENTIALS = 'Wrong e-mail or password.';
+export const SIGN_IN_UNAVAILABLE = 'Sign-in is paused for a moment: Lamina cannot reach the store that limits password tries. Your account is fine. Try again in a minute.';
 
 /**
  * Checks an e-mail and password. Throttled per account-and-address and per address with growing
@@ -27,7 +29,12 @@ export async function verifyCredentials(
 ): Promise<{ userId: string }> {
   const email = input.email.trim().toLowerCase();
   const throttle = signInThrottle(r, policy);
-  const limit = await throttle.checkPassword(email, origin.ip);
+  const limit = await throttle.checkPassword(email, origin.ip).catch((e: unknown) => {
+    // Fail closed: the throttle is what stops password guessing, so without its store no password
+    // is checked at all (a wrong guess could not be counted). The e-mailed link needs Redis too.
+    if (isServiceUnavailable(e)) throw new ServiceError(SIGN_IN_UNAVAILABLE, 503, undefined, 'unavailable');
+    throw e;
+  });
   const user = await em.findOne(UserSchema, { email });
   const practiceIds = user ? await activePracticeIds(em, user.id) : [];
   const trail = { actorId: user?.id ?? null, actorEmail: email, ip: origin.ip, userAgent: origin.userAgent };

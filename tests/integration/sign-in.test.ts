@@ -1,6 +1,7 @@
 import { afterAll, beforeEach, describe, expect, it } from 'vitest';
 import { AuditEventSchema, MembershipSchema } from '@/entities';
-import { verifyCredentials, loadActor, takeSignInLinkRequest, WRONG_CREDENTIALS } from '@/lib/services/auth';
+import { Redis } from 'ioredis';
+import { verifyCredentials, loadActor, takeSignInLinkRequest, SIGN_IN_UNAVAILABLE, WRONG_CREDENTIALS } from '@/lib/services/auth';
 import { RateLimitedError, ServiceError } from '@/lib/services/errors';
 import { PASSWORD, makePractice, openServices, resetData } from '../support/db';
 
@@ -42,6 +43,21 @@ describe('password sign-in against PostgreSQL and Redis', () => {
     expect(events).toHaveLength(1);
     expect(events[0]).toMatchObject({ actorId: userId, actorEmail: 'ana@north.test', ip: '203.0.113.7', entityId: userId });
     expect(events[0]!.practiceId).toBeTruthy();
+  });
+
+  it('Redis down: fails closed with a clear 503, the right password included, since no try could be counted (issue 15, faults)', async () => {
+    const em = await setup();
+    // the web's client settings (lib/redis.ts: no offline queue, one retry) against a port nothing listens on
+    const down = new Redis('redis://127.0.0.1:9', { enableOfflineQueue: false, maxRetriesPerRequest: 1, connectTimeout: 500, lazyConnect: true, retryStrategy: () => null });
+    down.on('error', () => {});
+    try {
+      for (const password of [PASSWORD, 'nope']) {
+        await expect(verifyCredentials(em, down, policy, { email: 'ana@north.test', password }, origin)).rejects.toMatchObject({ status: 503, code: 'unavailable', message: SIGN_IN_UNAVAILABLE });
+      }
+    } finally {
+      down.disconnect();
+    }
+    expect(await actions()).toEqual([]); // no sign-in recorded, and no failure counted against the owner
   });
 
   it('refuses a wrong password and an unknown account with the same message, and audits both', async () => {
