@@ -32,10 +32,10 @@ import { daysBetween, type CalendarDate } from '@/lib/registry/calendar-date';
 import { caseObservations, recordedHistory } from '@/lib/scoring';
 import { codesCell, dictionaryRows, exportColumns, type CohortVariable, type ExportRow } from './catalogue';
 import { ageAtCompletion, ageBand, codeBook, hmacHex, postalPrefix, pseudonym, yearPeriod } from './deidentify';
-import { classKey, KAnonymityCounter, type KPlan } from './k-anonymity';
+import { classKey, KAnonymityCounter } from './k-anonymity';
 import { cohortReadme } from './readme';
 import { ANALYSIS_PY, ANALYSIS_R } from './scripts';
-import type { CohortArchiveInput, CohortExportSummary, CohortRow, WriteCohortArchive } from './types';
+import type { CohortExportSummary, CohortRow, WriteCohortArchive } from './types';
 
 export const PROGRESS_EVERY = 1000;
 export const COHORT_FILES = ['cases.csv', 'reviews.csv', 'dictionary.csv', 'dictionary.json', 'README.md', 'analysis.R', 'analysis.py'] as const;
