@@ -100,9 +100,28 @@ function abortError(signal: AbortSignal): Error {
   return e;
 }
 
-/** Writes to a stream, waiting while it is full (backpressure); fails if the stream fails. */
+/** Writes to a stream, waiting while it is full (backpressure). */
 async function write(stream: Writable, text: string): Promise<void> {
   if (!stream.write(text)) await once(stream, 'drain');
+}
+
+/** Lines gathered into chunks of about 64 kB before they go to the stream (one write per chunk, not per line). */
+class Chunked {
+  private parts: string[] = [];
+  private size = 0;
+  constructor(private readonly stream: Writable) {}
+  async add(text: string): Promise<void> {
+    this.parts.push(text);
+    this.size += text.length;
+    if (this.size >= 65_536) await this.flush();
+  }
+  async flush(): Promise<void> {
+    if (!this.parts.length) return;
+    const text = this.parts.join('');
+    this.parts = [];
+    this.size = 0;
+    await write(this.stream, text);
+  }
 }
 
 const line = (cells: readonly CsvValue[]) => cells.map(csvCell).join(',') + CRLF;
@@ -114,8 +133,11 @@ export const writeCohortArchive: WriteCohortArchive = async (input, out) => {
   const released = new Set(QI_KEYS.filter((q) => columns.some((v) => v.key === q)));
   const total = input.total * 2;
   let done = 0;
+  let reported = -1;
   const progress = async (force = false) => {
-    if (input.onProgress && (force || done % PROGRESS_EVERY === 0)) await input.onProgress({ done, total });
+    if (!input.onProgress || done === reported || !(force || done % PROGRESS_EVERY === 0)) return;
+    reported = done;
+    await input.onProgress({ done, total });
   };
   const checkAbort = () => {
     if (signal?.aborted) throw abortError(signal);
@@ -163,8 +185,10 @@ export const writeCohortArchive: WriteCohortArchive = async (input, out) => {
     archive.append(cases, { name: 'cases.csv' });
     reviewsFile = createWriteStream(reviewsPath);
     reviewsFile.on('error', fail);
-    await write(cases, line(columns.map((v) => v.key)));
-    await write(reviewsFile, line(REVIEW_COLUMNS));
+    const casesOut = new Chunked(cases);
+    const reviewsOut = new Chunked(reviewsFile);
+    await casesOut.add(line(columns.map((v) => v.key)));
+    await reviewsOut.add(line(REVIEW_COLUMNS));
     const patients = new Set<number>();
     let released_ = 0;
     let reviews = 0;
@@ -179,15 +203,17 @@ export const writeCohortArchive: WriteCohortArchive = async (input, out) => {
         const r = exportRow(row, c, q, decision === 'generalise', { secret, minObs, clinicianCodes, referrerCodes, practiceCodes });
         patients.add(parseInt(hmacHex(secret, `patient:${row.case.patientId}`).slice(0, 13), 16));
         released_ += 1;
-        await write(cases, line(columns.map((v) => v.value(r))));
+        await casesOut.add(line(columns.map((v) => v.value(r))));
         for (const rv of c.reviews) {
-          await write(reviewsFile, line([r.caseId, daysBetween(c.completionDate, rv.reviewDate), rv.paiScore ?? null, outcomeOf(c, rv, minObs)]));
+          await reviewsOut.add(line([r.caseId, daysBetween(c.completionDate, rv.reviewDate), rv.paiScore ?? null, outcomeOf(c, rv, minObs)]));
           reviews += 1;
         }
       }
       await progress();
     }
     await progress(true);
+    await casesOut.flush();
+    await reviewsOut.flush();
     cases.end();
     reviewsFile.end();
     await finished(reviewsFile);
