@@ -100,16 +100,19 @@ function abortError(signal: AbortSignal): Error {
   return e;
 }
 
-/** Writes to a stream, waiting while it is full (backpressure). */
-async function write(stream: Writable, text: string): Promise<void> {
-  if (!stream.write(text)) await once(stream, 'drain');
+/** Writes to a stream, waiting while it is full (backpressure) unless `stop` rejects first (a failed output, a cancellation). */
+async function write(stream: Writable, text: string, stop: Promise<never>): Promise<void> {
+  if (!stream.write(text)) await Promise.race([once(stream, 'drain'), stop]);
 }
 
 /** Lines gathered into chunks of about 64 kB before they go to the stream (one write per chunk, not per line). */
 class Chunked {
   private parts: string[] = [];
   private size = 0;
-  constructor(private readonly stream: Writable) {}
+  constructor(
+    private readonly stream: Writable,
+    private readonly stop: Promise<never>,
+  ) {}
   async add(text: string): Promise<void> {
     this.parts.push(text);
     this.size += text.length;
@@ -120,7 +123,7 @@ class Chunked {
     const text = this.parts.join('');
     this.parts = [];
     this.size = 0;
-    await write(this.stream, text);
+    await write(this.stream, text, this.stop);
   }
 }
 
@@ -173,9 +176,15 @@ export const writeCohortArchive: WriteCohortArchive = async (input, out) => {
   const cases = new PassThrough();
   let reviewsFile: WriteStream | null = null;
   let failure: Error | null = null;
+  let rejectStop: (e: Error) => void = () => undefined;
+  const stop = new Promise<never>((_, reject) => (rejectStop = reject));
+  stop.catch(() => undefined);
   const fail = (e: unknown) => {
     failure ??= e instanceof Error ? e : new Error(String(e));
+    rejectStop(failure);
   };
+  const onAbort = () => fail(abortError(signal!));
+  signal?.addEventListener('abort', onAbort, { once: true });
   archive.on('error', fail);
   archive.on('warning', fail);
   out.on('error', fail);
@@ -185,8 +194,8 @@ export const writeCohortArchive: WriteCohortArchive = async (input, out) => {
     archive.append(cases, { name: 'cases.csv' });
     reviewsFile = createWriteStream(reviewsPath);
     reviewsFile.on('error', fail);
-    const casesOut = new Chunked(cases);
-    const reviewsOut = new Chunked(reviewsFile);
+    const casesOut = new Chunked(cases, stop);
+    const reviewsOut = new Chunked(reviewsFile, stop);
     await casesOut.add(line(columns.map((v) => v.key)));
     await reviewsOut.add(line(REVIEW_COLUMNS));
     const patients = new Set<number>();
@@ -216,7 +225,7 @@ export const writeCohortArchive: WriteCohortArchive = async (input, out) => {
     await reviewsOut.flush();
     cases.end();
     reviewsFile.end();
-    await finished(reviewsFile);
+    await Promise.race([finished(reviewsFile), stop]);
     checkAbort();
     if (failure) throw failure;
     archive.file(reviewsPath, { name: 'reviews.csv' });
@@ -244,8 +253,8 @@ export const writeCohortArchive: WriteCohortArchive = async (input, out) => {
     archive.append(cohortReadme({ input, summary, plan, columns, released: [...released] }), { name: 'README.md' });
     archive.append(ANALYSIS_R, { name: 'analysis.R' });
     archive.append(ANALYSIS_PY, { name: 'analysis.py' });
-    await archive.finalize();
-    await outDone;
+    await Promise.race([archive.finalize(), stop]);
+    await Promise.race([outDone, stop]);
     if (failure) throw failure;
     return summary;
   } catch (e) {
@@ -254,6 +263,7 @@ export const writeCohortArchive: WriteCohortArchive = async (input, out) => {
     reviewsFile?.destroy();
     throw e;
   } finally {
+    signal?.removeEventListener('abort', onAbort);
     rmSync(tmp, { recursive: true, force: true });
   }
 };

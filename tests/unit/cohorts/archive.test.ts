@@ -216,6 +216,27 @@ describe('progress and cancellation', () => {
     const after = readdirSync(tmpdir()).filter((f) => f.startsWith('lamina-cohort-') && !f.startsWith('lamina-cohort-test-')).length;
     expect(after).toBe(before);
   });
+  it('rejects, and does not hang, when the output fails', { timeout: 120_000 }, async () => {
+    let writes = 0;
+    const failing = new Writable({
+      write(_chunk, _enc, cb) {
+        writes += 1;
+        cb(writes > 3 ? new Error('disk full') : null);
+      },
+    });
+    await expect(writeCohortArchive(exportInput({ rows: 3000, seed: 3 }), failing)).rejects.toThrow('disk full');
+  });
+  it('a cancellation while the output is full (never drained) ends the export', { timeout: 120_000 }, async () => {
+    const ac = new AbortController();
+    const stalled = new Writable({
+      highWaterMark: 1024,
+      write() {
+        // never calls back: the output is stuck; cancel once the writer has had to wait
+        setImmediate(() => ac.abort(new Error('cancelled while the output was full')));
+      },
+    });
+    await expect(writeCohortArchive(exportInput({ rows: 3000, seed: 3 }, { signal: ac.signal }), stalled)).rejects.toThrow('cancelled while the output was full');
+  });
   it('refuses an unknown variable and a short secret before writing', async () => {
     await expect(writeCohortArchive(exportInput({ rows: 5 }, { variables: ['surname'] }), sink())).rejects.toThrow(/surname/);
     await expect(writeCohortArchive(exportInput({ rows: 5 }, { secret: Buffer.from('short') }), sink())).rejects.toThrow(/16 bytes/);
