@@ -31,7 +31,7 @@ import { healingObservation, outcomeAfterAYear, outcomeOf, type OutcomeCase } fr
 import { daysBetween, type CalendarDate } from '@/lib/registry/calendar-date';
 import { caseObservations, recordedHistory } from '@/lib/scoring';
 import { codesCell, dictionaryRows, exportColumns, type CohortVariable, type ExportRow } from './catalogue';
-import { ageAtCompletion, ageBand, codeBook, hmacHex, postalPrefix, pseudonym, yearPeriod } from './deidentify';
+import { ageAtCompletion, ageBand, codeBook, postalPrefix, pseudonym, yearPeriod } from './deidentify';
 import { classKey, KAnonymityCounter } from './k-anonymity';
 import { cohortReadme } from './readme';
 import { ANALYSIS_PY, ANALYSIS_R } from './scripts';
@@ -210,7 +210,7 @@ export const writeCohortArchive: WriteCohortArchive = async (input, out) => {
       const decision = plan.decide(q.fine);
       if (decision !== 'suppress') {
         const r = exportRow(row, c, q, decision === 'generalise', { secret, minObs, clinicianCodes, referrerCodes, practiceCodes });
-        patients.add(parseInt(hmacHex(secret, `patient:${row.case.patientId}`).slice(0, 13), 16));
+        patients.add(parseInt(r.patientId.slice(3, 16), 16)); // 52 bits of the pseudonym: exact as a double
         released_ += 1;
         await casesOut.add(line(columns.map((v) => v.value(r))));
         for (const rv of c.reviews) {
