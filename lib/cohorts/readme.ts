@@ -46,7 +46,7 @@ export function cohortReadme({
 Made by Lamina on ${input.today} from a saved cohort version, so it can be made again.
 Cohort filters: ${safe(input.cohort.filtersText) || 'none'}.
 
-${SCORING_CAUTION} Lamina supports clinical judgement; these data describe treated teeth, they do not diagnose.
+Outcomes in these files: ${SCORING_CAUTION}
 
 | | |
 | --- | --- |
