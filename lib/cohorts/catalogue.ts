@@ -215,7 +215,7 @@ export const COHORT_VARIABLES: readonly CohortVariable[] = [
     label: 'Age at completion (band)',
     type: 'categorical',
     unit: 'years',
-    codes: Object.fromEntries([...ageBandCodes(5), ...ageBandCodes(10)].map((c) => [c, c === '90+' ? '90 years or older' : `${c.replace('-', ' to ')} years`])),
+    codes: Object.fromEntries([...new Set([...ageBandCodes(5), ...ageBandCodes(10)])].map((c) => [c, c === '90+' ? '90 years or older' : c === 'not_recorded' ? 'Not recorded' : `${c.replace('-', ' to ')} years`])),
     derivation: 'Whole years from the date of birth to the completion date, in five-year bands (ten-year when generalised); 90 and over as one band, "90+" (45 CFR 164.514(b)(2)(i)(C)). The date of birth is not exported.',
     always: false,
     quasiIdentifier: true,

@@ -44,12 +44,15 @@ export function codeBook(secret: Buffer, kind: string, prefix: string, ids: Iter
 
 /** Ages of 90 and over are one band (45 CFR 164.514(b)(2)(i)(C)). */
 export const AGE_TOP = 90;
+/** The band of an age that cannot be worked out (no valid date of birth). */
+export const AGE_UNKNOWN = 'not_recorded';
 
 /**
  * The age band of an age in whole years: `width` 5 ("40-44") or 10 ("40-49"); 90 and over "90+".
  * A negative age (a date of birth after the completion: a data error) counts as 0.
  */
 export function ageBand(age: number, width: 5 | 10): string {
+  if (!Number.isFinite(age)) return AGE_UNKNOWN;
   const a = Math.max(0, Math.floor(age));
   if (a >= AGE_TOP) return `${AGE_TOP}+`;
   const lo = Math.floor(a / width) * width;
@@ -65,7 +68,7 @@ export function ageAtCompletion(dateOfBirth: CalendarDate, completionDate: Calen
 export function ageBandCodes(width: 5 | 10): string[] {
   const out: string[] = [];
   for (let lo = 0; lo < AGE_TOP; lo += width) out.push(ageBand(lo, width));
-  return [...out, `${AGE_TOP}+`];
+  return [...out, `${AGE_TOP}+`, AGE_UNKNOWN];
 }
 
 /**

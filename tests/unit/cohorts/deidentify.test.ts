@@ -49,6 +49,7 @@ describe('ageBand (45 CFR 164.514(b)(2)(i)(C): ages over 89 in one band)', () =>
     [89, 10, '80-89'],
     [90, 10, '90+'],
     [-2, 5, '0-4'],
+    [NaN, 5, 'not_recorded'],
   ] as const)('age %d, width %d → %s', (age, width, band) => {
     expect(ageBand(age, width)).toBe(band);
   });
