@@ -16,7 +16,7 @@
 
 # Debian packages: the base set, and what only the tests and benchmarks need.
 LAMINA_APT_BASE=(postgresql redis-server chromium iproute2)
-LAMINA_APT_TEST=(r-base-core r-cran-survival r-cran-sandwich r-cran-cmprsk python3-sklearn python3-statsmodels poppler-utils)
+LAMINA_APT_TEST=(r-base-core r-cran-survival r-cran-sandwich r-cran-cmprsk python3-sklearn python3-statsmodels python3-pandas poppler-utils unzip)
 
 LAMINA_REPO="$(cd "$(dirname "${BASH_SOURCE[0]}")/../.." && pwd)"
 
