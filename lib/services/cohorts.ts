@@ -2,6 +2,7 @@ import 'server-only';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { CohortExportSchema, CohortSchema, CohortVersionSchema, type CohortExport } from '@/entities';
+import { COHORT_VARIABLE_KEYS } from '@/lib/cohorts/catalogue';
 import { env } from '@/lib/env';
 import { cohortCounts, type CohortCounts } from '@/lib/outcomes/cohort-filter';
 import { FACTORS, levelLabel, type FactorKey, type LevelFilters } from '@/lib/outcomes/compute';
@@ -229,6 +230,8 @@ export async function saveCohortVersion(em: EntityManager, actor: Actor, cohortI
   assertCan(actor, 'cohort.export');
   const cohort = await cohortOf(em, actor, cohortId);
   const body = parseInput(SaveVersionBody, raw ?? {});
+  const unknownVars = body.variables.filter((v) => !COHORT_VARIABLE_KEYS.includes(v));
+  if (unknownVars.length) throw new ValidationError('Some fields need attention.', { variables: [`Unknown variable${unknownVars.length > 1 ? 's' : ''}: ${unknownVars.slice(0, 5).join(', ')}.`] });
   const filters = await parseCohortFilters(em, actor.practiceId, body.filters);
   const number = await em.transactional(async (tx) => {
     const knex = knexOf(tx);
