@@ -73,7 +73,6 @@ export const SaveVersionBody = z.strictObject({
   filters: FilterRecord.default({}),
   variables: z
     .array(z.string().regex(/^[a-z][a-z0-9_]{0,59}$/, 'A variable is named in lower case, digits and _.'), { error: 'Choose the variables as a list.' })
-    .min(1, 'Choose at least one variable.')
     .max(MAX_VARIABLES)
     .transform((v) => [...new Set(v)]),
   k: z.number({ error: 'k is a whole number.' }).int('k is a whole number.').min(K_MIN, `k is at least ${K_MIN}.`).max(K_MAX, `k is at most ${K_MAX}.`).default(K_DEFAULT),

@@ -1,4 +1,5 @@
 import 'server-only';
+import { randomUUID } from 'node:crypto';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { CohortExportSchema, CohortSchema, CohortVersionSchema, type CohortExport } from '@/entities';
@@ -253,10 +254,8 @@ export async function startCohortExport(em: EntityManager, actor: Actor, cohortI
   const body = parseInput(StartExportBody, raw ?? {});
   const version = await em.findOne(CohortVersionSchema, { cohort: cohort.id, number: body.version });
   if (!version) throw new NotFoundError('No such saved version; save the cohort first.');
-  const running = await em.count(CohortExportSchema, { version: { cohort: cohort.id }, status: { $in: ['queued', 'running'] } });
-  if (running > 0) throw new ConflictError('An export of this cohort is already under way; wait for it or cancel it.');
-  const row = em.create(CohortExportSchema, { practice: actor.practiceId, version: version.id, requestedBy: actor.userId, objectKey: 'pending' });
-  row.objectKey = cohortObjectKey(actor.practiceId, cohort.id, row.id);
+  const id = randomUUID();
+  const row = em.create(CohortExportSchema, { id, practice: actor.practiceId, version: version.id, requestedBy: actor.userId, objectKey: cohortObjectKey(actor.practiceId, cohort.id, id) });
   await em.persist(row).flush();
   await audit(em, actor, { action: 'cohort.export_requested', entityType: 'cohort_export', entityId: row.id, detail: { cohort: cohort.id, version: version.number } });
   try {
