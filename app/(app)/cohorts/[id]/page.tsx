@@ -1,3 +1,4 @@
+import Link from 'next/link';
 import type { Metadata } from 'next';
 import { notFound } from 'next/navigation';
 import { requireActor } from '@/lib/auth/session';
@@ -31,7 +32,7 @@ export default async function CohortPage({ params }: { params: Promise<{ id: str
     <div className="space-y-6">
       <header>
         <p className="text-sm text-ink-500">
-          <a href="/cohorts">Cohorts</a> ›
+          <Link href="/cohorts">Cohorts</Link> ›
         </p>
         <h1 className="text-3xl">{cohort.name}</h1>
         <p className="mt-2 max-w-3xl text-ink-700">
