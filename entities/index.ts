@@ -1,6 +1,9 @@
 /** Every entity, listed explicitly (no glob): the ORM config and migrations read this list. */
 import { AuditEventSchema } from './AuditEvent';
 import { CaseDecisionSchema } from './CaseDecision';
+import { CohortSchema } from './Cohort';
+import { CohortExportSchema } from './CohortExport';
+import { CohortVersionSchema } from './CohortVersion';
 import { ContactLogEntrySchema } from './ContactLogEntry';
 import { FilmSchema } from './Film';
 import { ImportMappingSchema } from './ImportMapping';
@@ -37,10 +40,16 @@ export const entities = [
   OutcomesDataVersionSchema,
   FilmSchema,
   ImportMappingSchema,
+  CohortSchema,
+  CohortVersionSchema,
+  CohortExportSchema,
 ];
 
 export * from './AuditEvent';
 export * from './CaseDecision';
+export * from './Cohort';
+export * from './CohortExport';
+export * from './CohortVersion';
 export * from './ContactLogEntry';
 export * from './Film';
 export * from './ImportMapping';

@@ -31,6 +31,7 @@ import {
   SendReminderPayload,
   connectionForWorker,
   enqueueRecallScan,
+  openCohortExportsQueue,
   openRecallScanQueue,
   parseJobData,
   upsertRecallScanScheduler,
@@ -45,6 +46,8 @@ import { readWorkerConfig, type WorkerConfig } from './config';
 import { createReminderTransport, mailboxDeliveryCheck } from './mail';
 import { runRecallScan } from './recall-scan';
 import { processSendReminder, type SendContext } from './send-reminder';
+import { processCohortExport } from './cohort-export';
+import { writeCohortArchive } from '@/lib/cohorts/archive';
 
 export interface WorkerHandle {
   remindersQueue: RemindersQueue;
@@ -101,6 +104,14 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     { ...common, connection: connect('worker-scan'), concurrency: 1 },
   );
 
+  // research exports (issue 14): one at a time (each streams a practice's rows; memory stays flat)
+  const cohortQueue = openCohortExportsQueue(producer, { ...prefix, log });
+  const cohorts = new Worker(
+    QUEUES.cohortExports,
+    async (job: Job, token?: string, signal?: AbortSignal) => processCohortExport({ em: () => db.em.fork(), write: writeCohortArchive, appUrl: env.APP_URL, log }, job, token, signal),
+    { ...common, connection: connect('worker-cohorts'), concurrency: 1 },
+  );
+
   reminders.on('completed', (_job, result: { outcome?: string } | undefined) => {
     if (result?.outcome === 'sent' || result?.outcome === 'resent' || result?.outcome === 'reconciled') sent += 1;
   });
@@ -121,7 +132,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
       }
     })().catch((e: unknown) => log(`[send-reminder] could not record the failure of ${job.id}: ${(e as Error).message}`));
   });
-  for (const w of [reminders, scanner]) w.on('error', (err) => log(`[worker] ${err.message}`));
+  for (const w of [reminders, scanner, cohorts]) w.on('error', (err) => log(`[worker] ${err.message}`));
 
   // On every (re)connection: the scheduler exists, and a scan runs (Redis may have lost everything).
   let ensuring: Promise<void> | null = null;
@@ -150,8 +161,8 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     (closing ??= (async () => {
       clearInterval(progress);
       producer.off('ready', ensure);
-      await Promise.all([reminders.close(), scanner.close()]);
-      await Promise.all([remindersQueue.close(), scanQueue.close()]);
+      await Promise.all([reminders.close(), scanner.close(), cohorts.close()]);
+      await Promise.all([remindersQueue.close(), scanQueue.close(), cohortQueue.close()]);
       transport.close();
       for (const c of connections) c.disconnect();
       log(`[worker] stopped; ${sent} reminder(s) sent since start`);

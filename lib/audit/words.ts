@@ -94,6 +94,21 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     },
   },
   {
+    prefix: 'cohort.',
+    label: 'Research cohorts',
+    actions: {
+      'cohort.created': 'Created a research cohort',
+      'cohort.read': 'Opened a research cohort',
+      'cohort.counts_read': 'Counted a cohort’s consenting cases',
+      'cohort.version_saved': 'Saved a version of a research cohort',
+      'cohort.export_requested': 'Asked for an anonymised export',
+      'cohort.exported': 'An anonymised export was written',
+      'cohort.export_failed': 'An anonymised export failed',
+      'cohort.export_cancelled': 'Cancelled an anonymised export',
+      'cohort.downloaded': 'Downloaded an anonymised export',
+    },
+  },
+  {
     prefix: 'visit.',
     label: 'Recall visits',
     actions: {
@@ -202,6 +217,8 @@ export const RECORD_KINDS = {
   practice: 'Practice',
   referrer: 'Referring dentist',
   import_mapping: 'Import column mapping',
+  cohort: 'Research cohort',
+  cohort_export: 'Research export',
 } as const;
 export type RecordKind = keyof typeof RECORD_KINDS;
 export const RECORD_KIND_VALUES = Object.keys(RECORD_KINDS) as [RecordKind, ...RecordKind[]];

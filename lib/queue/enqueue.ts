@@ -4,12 +4,13 @@
 import { Queue, type Job, type JobsOptions, type QueueOptions } from 'bullmq';
 import type { Redis } from 'ioredis';
 import { reminderJobId } from '@/lib/recall/reminders';
-import { JOBS, QUEUES, RECALL_SCAN_DEFAULT_PATTERN, RECALL_SCAN_SCHEDULER_ID, type QueueName } from './names';
+import { cohortExportJobId, JOBS, QUEUES, RECALL_SCAN_DEFAULT_PATTERN, RECALL_SCAN_SCHEDULER_ID, type QueueName } from './names';
 import { DEFAULT_JOB_OPTIONS, PRODUCER_QUEUE_OPTIONS, RECALL_SCAN_JOB_OPTIONS } from './options';
-import { parsePayload, type RecallScanData, type RecallScanInput, type SendReminderData, type SendReminderInput } from './payloads';
+import { parsePayload, type CohortExportData, type CohortExportInput, type RecallScanData, type RecallScanInput, type SendReminderData, type SendReminderInput } from './payloads';
 
 export type RemindersQueue = Queue<SendReminderData, unknown, typeof JOBS.sendReminder>;
 export type RecallScanQueue = Queue<RecallScanData, unknown, typeof JOBS.recallScan>;
+export type CohortExportsQueue = Queue<CohortExportData, unknown, typeof JOBS.cohortExport>;
 
 export interface OpenQueueOptions {
   /** Redis key prefix (BullMQ's default 'bull'); tests use their own. */
@@ -104,4 +105,14 @@ export async function upsertRecallScanScheduler(queue: RecallScanQueue, repeat: 
     { pattern: repeat.pattern ?? RECALL_SCAN_DEFAULT_PATTERN, ...(repeat.tz ? { tz: repeat.tz } : {}) },
     { name: JOBS.recallScan, data: parsePayload(JOBS.recallScan, {}), opts: RECALL_SCAN_JOB_OPTIONS },
   );
+}
+
+export function openCohortExportsQueue(connection: Redis, options: OpenQueueOptions = {}): CohortExportsQueue {
+  return openQueue(QUEUES.cohortExports, connection, options) as CohortExportsQueue;
+}
+
+/** Queues one export under its deterministic job id (adding it again while the job is kept adds nothing). */
+export async function enqueueCohortExport(queue: CohortExportsQueue, payload: CohortExportInput) {
+  const data = parsePayload(JOBS.cohortExport, payload);
+  return queue.add(JOBS.cohortExport, data, { jobId: cohortExportJobId(data.exportId) });
 }

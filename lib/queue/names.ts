@@ -9,12 +9,15 @@ export const QUEUES = {
   reminders: 'reminders',
   /** The scheduled scan that finds visits entering a step and queues their reminders. */
   recallScan: 'recall-scan',
+  /** One job per research export (issue 14): read a cohort version's rows, write the archive to storage. */
+  cohortExports: 'cohort-exports',
 } as const;
 export type QueueName = (typeof QUEUES)[keyof typeof QUEUES];
 
 export const JOBS = {
   sendReminder: 'send-reminder',
   recallScan: 'recall-scan',
+  cohortExport: 'cohort-export',
 } as const;
 export type JobName = (typeof JOBS)[keyof typeof JOBS];
 
@@ -22,7 +25,11 @@ export type JobName = (typeof JOBS)[keyof typeof JOBS];
 export const JOB_QUEUE: Record<JobName, QueueName> = {
   [JOBS.sendReminder]: QUEUES.reminders,
   [JOBS.recallScan]: QUEUES.recallScan,
+  [JOBS.cohortExport]: QUEUES.cohortExports,
 };
+
+/** The export's job id: one per export row, so a double click or a re-add queues nothing twice. */
+export const cohortExportJobId = (exportId: string) => `cohort-export-${exportId}`;
 
 /** The id of the recall scan's job scheduler (one per deployment). */
 export const RECALL_SCAN_SCHEDULER_ID = 'recall-scan-hourly';

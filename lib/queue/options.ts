@@ -33,7 +33,19 @@ export const RECALL_SCAN_JOB_OPTIONS = {
   removeOnFail: { age: 30 * DAY_SECONDS, count: 500 },
 } as const satisfies DefaultJobOptions;
 
+/**
+ * A research export: 3 attempts, 10 s then 20 s apart (a storage or database hiccup); every attempt
+ * writes the same object key, so a retry replaces the partial file. Lamina's own numbers.
+ */
+export const COHORT_EXPORT_JOB_OPTIONS = {
+  attempts: 3,
+  backoff: { type: 'exponential', delay: 10_000 },
+  removeOnComplete: { age: 7 * DAY_SECONDS, count: 1_000 },
+  removeOnFail: { age: 30 * DAY_SECONDS, count: 1_000 },
+} as const satisfies DefaultJobOptions;
+
 export const DEFAULT_JOB_OPTIONS: Record<QueueName, DefaultJobOptions> = {
+  [QUEUES.cohortExports]: COHORT_EXPORT_JOB_OPTIONS,
   [QUEUES.reminders]: REMINDER_JOB_OPTIONS,
   [QUEUES.recallScan]: RECALL_SCAN_JOB_OPTIONS,
 };

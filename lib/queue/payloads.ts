@@ -42,12 +42,20 @@ export const RecallScanPayload = z.strictObject({
 export type RecallScanInput = z.input<typeof RecallScanPayload>;
 export type RecallScanData = z.output<typeof RecallScanPayload>;
 
+export const CohortExportPayload = z.strictObject({
+  practiceId: JobSafeId,
+  exportId: JobSafeId,
+});
+export type CohortExportInput = z.input<typeof CohortExportPayload>;
+export type CohortExportData = z.output<typeof CohortExportPayload>;
+
 export const JOB_PAYLOADS = {
+  [JOBS.cohortExport]: CohortExportPayload,
   [JOBS.sendReminder]: SendReminderPayload,
   [JOBS.recallScan]: RecallScanPayload,
 } as const;
 
-export type JobData = { [JOBS.sendReminder]: SendReminderData; [JOBS.recallScan]: RecallScanData };
+export type JobData = { [JOBS.sendReminder]: SendReminderData; [JOBS.recallScan]: RecallScanData; [JOBS.cohortExport]: CohortExportData };
 
 /** A plain one-line summary of what is wrong with a payload. */
 export function payloadProblems(error: z.ZodError): string {

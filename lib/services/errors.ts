@@ -14,7 +14,8 @@ export type ErrorCode =
   | 'validation'
   | 'rate_limited'
   | 'unavailable'
-  | 'upstream';
+  | 'upstream'
+  | 'gone';
 
 /** The code of a plain ServiceError, from its status. */
 const CODE_OF_STATUS: Record<number, ErrorCode> = {
@@ -23,6 +24,7 @@ const CODE_OF_STATUS: Record<number, ErrorCode> = {
   403: 'forbidden',
   404: 'not_found',
   409: 'conflict',
+  410: 'gone',
   413: 'payload_too_large',
   415: 'unsupported_media_type',
   422: 'validation',

@@ -17,7 +17,7 @@ import { knexOf, practiceSettings, todayIn } from './registry-common';
  * every clinician; a clinician sees their own cases, plus the practice's overall figures.
  */
 
-interface CaseRow {
+export interface CaseRow {
   id: string;
   patient_id: string;
   operator_id: string;
@@ -69,7 +69,12 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
     await knex.raw('set local jit = off');
     return readRows(knex, practiceId);
   });
-  return rows.map((r) => ({
+  return rows.map(outcomeCaseOf);
+}
+
+/** A row of outcomeCaseColumns as lib/outcomes reads it (the cohort export's reader uses it too). */
+export function outcomeCaseOf(r: CaseRow): OutcomeCase {
+  return {
     id: r.id,
     patientId: r.patient_id,
     operatorId: r.operator_id,
@@ -90,12 +95,12 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
     referrerId: r.referrer_id,
     openVisit: r.open_visit,
     reviews: recordedReviews(r.reviews),
-  }));
+  };
 }
 
-async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
-  return (await knex
-    .select(
+/** The columns of a completed case (alias `c`) that outcomeCaseOf reads: one home for the outcome engine's row. */
+export function outcomeCaseColumns(knex: Knex) {
+  return [
       'c.id',
       'c.patient_id',
       'c.operator_id',
@@ -116,7 +121,12 @@ async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
       'c.referrer_id',
       knex.raw(`exists (select 1 from recall_visit v where v.case_id = c.id and v.status in ('planned', 'invited', 'confirmed', 'missed')) as open_visit`),
       knex.raw(`${currentReviewsJson()} as reviews`),
-    )
+  ];
+}
+
+async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
+  return (await knex
+    .select(...outcomeCaseColumns(knex))
     .from('treatment_case as c')
     .join('patient as p', 'p.id', 'c.patient_id')
     .where('c.practice_id', practiceId)

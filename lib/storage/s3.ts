@@ -1,5 +1,6 @@
 import 'server-only';
-import { DeleteObjectCommand, GetObjectCommand, NoSuchKey, PutObjectCommand, S3Client } from '@aws-sdk/client-s3';
+import type { Readable } from 'node:stream';
+import { DeleteObjectCommand, GetObjectCommand, HeadObjectCommand, NoSuchKey, PutObjectCommand, S3Client } from '@aws-sdk/client-s3';
 import { env } from '@/lib/env';
 
 /**
@@ -47,4 +48,45 @@ export async function deleteObjects(keys: readonly string[]): Promise<void> {
   if (keys.length === 0) return;
   // One request per key: the multi-object delete needs a body checksum the local fake does not take.
   await Promise.all(keys.map((Key) => s3().send(new DeleteObjectCommand({ Bucket: env.S3_BUCKET, Key }))));
+}
+
+/**
+ * Streams one object to storage as it is written (multipart above 5 MB, @aws-sdk/lib-storage), so
+ * memory stays flat with the object's size. The same key again replaces the object. `signal` aborts
+ * the upload (no object is left by an aborted multipart upload; a caller removes a finished one).
+ */
+export async function uploadStream(key: string, body: Readable, contentType: string, signal?: AbortSignal): Promise<void> {
+  const { Upload } = await import('@aws-sdk/lib-storage');
+  const upload = new Upload({ client: s3(), params: { Bucket: env.S3_BUCKET, Key: key, Body: body, ContentType: contentType }, queueSize: 2, partSize: 5 * 1024 * 1024, leavePartsOnError: false });
+  const onAbort = () => void upload.abort().catch(() => undefined);
+  signal?.addEventListener('abort', onAbort, { once: true });
+  try {
+    await upload.done();
+  } finally {
+    signal?.removeEventListener('abort', onAbort);
+  }
+}
+
+/** One object as a stream with its size; null when there is no such key. */
+export async function getObjectStream(key: string): Promise<{ body: ReadableStream; size: number | null } | null> {
+  try {
+    const r = await s3().send(new GetObjectCommand({ Bucket: env.S3_BUCKET, Key: key }));
+    if (!r.Body) return null;
+    return { body: r.Body.transformToWebStream(), size: r.ContentLength ?? null };
+  } catch (e) {
+    if (e instanceof NoSuchKey || (e as { name?: string }).name === 'NoSuchKey') return null;
+    throw e;
+  }
+}
+
+/** Whether an object exists (and its size). */
+export async function headObject(key: string): Promise<{ size: number } | null> {
+  try {
+    const r = await s3().send(new HeadObjectCommand({ Bucket: env.S3_BUCKET, Key: key }));
+    return { size: r.ContentLength ?? 0 };
+  } catch (e) {
+    const name = (e as { name?: string }).name;
+    if (name === 'NotFound' || name === 'NoSuchKey' || (e as { $metadata?: { httpStatusCode?: number } }).$metadata?.httpStatusCode === 404) return null;
+    throw e;
+  }
 }

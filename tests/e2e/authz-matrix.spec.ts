@@ -25,6 +25,9 @@ interface Ids {
   visitId: string;
   invitationId: string;
   filmId: string;
+  /** a research cohort of the practice and an export of its first version (issue 14) */
+  cohortId: string;
+  exportId: string;
 }
 interface Row {
   route: string; // the route file's path under app/, e.g. 'api/team/members'
@@ -124,6 +127,16 @@ const MATRIX: Row[] = [
   { route: 'api/recall/policy', method: 'GET', url: () => '/api/recall/policy', expect: only({ coordinator: 200 }) },
   { route: 'api/recall/policy', method: 'PUT', url: () => '/api/recall/policy', body: { invitationWeeksBefore: 0 }, expect: only({ coordinator: 422 }) },
   // Patients' links (no account; the signed token is the credential): the same answer for everyone.
+  // Research cohorts (issue 14): the researcher alone; nobody else, and the researcher reaches no identifiable route (rows above).
+  { route: 'api/cohorts', method: 'GET', url: () => '/api/cohorts', expect: only({ researcher: 200 }) },
+  { route: 'api/cohorts', method: 'POST', url: () => '/api/cohorts', body: { name: '' }, expect: only({ researcher: 422 }) },
+  { route: 'api/cohorts/counts', method: 'GET', url: () => '/api/cohorts/counts?kind=primary_treatment', expect: only({ researcher: 200 }) },
+  { route: 'api/cohorts/[id]', method: 'GET', url: () => `/api/cohorts/${randomUUID()}`, expect: only({ researcher: 404 }) },
+  { route: 'api/cohorts/[id]/versions', method: 'POST', url: () => `/api/cohorts/${randomUUID()}/versions`, body: { variables: [] }, expect: only({ researcher: 404 }) },
+  { route: 'api/cohorts/[id]/exports', method: 'POST', url: () => `/api/cohorts/${randomUUID()}/exports`, body: { version: 1 }, expect: only({ researcher: 404 }) },
+  { route: 'api/cohort-exports/[id]', method: 'GET', url: () => `/api/cohort-exports/${randomUUID()}`, expect: only({ researcher: 404 }) },
+  { route: 'api/cohort-exports/[id]/cancel', method: 'POST', url: () => `/api/cohort-exports/${randomUUID()}/cancel`, expect: only({ researcher: 404 }) },
+  { route: 'api/cohort-exports/[id]/download', method: 'GET', url: () => `/api/cohort-exports/${randomUUID()}/download?token=not-a-real-token`, expect: only({ researcher: 404 }) },
   { route: 'api/unsubscribe/[token]', method: 'POST', url: () => '/api/unsubscribe/not-a-token', expect: everyone(400) },
   { route: 'api/unsubscribe/[token]', method: 'GET', url: () => '/api/unsubscribe/not-a-token', expect: everyone(303) },
   { route: 'r/[token]', method: 'GET', url: () => '/r/not-a-token?answer=confirmed', expect: everyone(200) },
@@ -157,6 +170,12 @@ const CROSS: Row[] = [
   { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },
   { route: 'api/outcomes/worklist/[id]/decisions', method: 'GET', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, expect: only({ clinician: 404, auditor: 404 }) },
   { route: 'api/outcomes/worklist/[id]/decisions', method: 'POST', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, body: { step: 'watch' }, expect: only({ clinician: 404 }) },
+  { route: 'api/cohorts/[id]', method: 'GET', url: (_, o) => `/api/cohorts/${o.cohortId}`, expect: only({ researcher: 404 }) },
+  { route: 'api/cohorts/[id]/versions', method: 'POST', url: (_, o) => `/api/cohorts/${o.cohortId}/versions`, body: { variables: [] }, expect: only({ researcher: 404 }) },
+  { route: 'api/cohorts/[id]/exports', method: 'POST', url: (_, o) => `/api/cohorts/${o.cohortId}/exports`, body: { version: 1 }, expect: only({ researcher: 404 }) },
+  { route: 'api/cohort-exports/[id]', method: 'GET', url: (_, o) => `/api/cohort-exports/${o.exportId}`, expect: only({ researcher: 404 }) },
+  { route: 'api/cohort-exports/[id]/cancel', method: 'POST', url: (_, o) => `/api/cohort-exports/${o.exportId}/cancel`, expect: only({ researcher: 404 }) },
+  { route: 'api/cohort-exports/[id]/download', method: 'GET', url: (_, o) => `/api/cohort-exports/${o.exportId}/download?token=${o.exportId}.x.1.y`, expect: only({ researcher: 404 }) },
 ];
 
 /** Routes whose id is a signed token (the credential itself), not a record of a practice. */
@@ -194,6 +213,7 @@ async function contextFor(browser: Browser, who: Who, practice: PracticeKey): Pr
 async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
   const admin = await contextFor(browser, 'admin', practice);
   const coord = await contextFor(browser, 'coordinator', practice);
+  const researcher = await contextFor(browser, 'researcher', practice);
   try {
     const members = (await (await admin.request.get('/api/team/members')).json()).members as { userId: string; email: string }[];
     const byEmail = (email: string) => members.find((m) => m.email === email)!.userId;
@@ -216,7 +236,16 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
       multipart: { role: 'follow_up', file: { name: 'matrix.png', mimeType: 'image/png', buffer: readFileSync(path.resolve(import.meta.dirname, '../support/films/radiograph.png')) } },
     });
     expect([200, 201]).toContain(film.status());
+    // A research cohort with one saved version and an export of it (a rerun starts none while one is under way).
+    const cohort = await researcher.request.post('/api/cohorts', { data: { name: `Matrix cohort ${practice}` } });
+    expect(cohort.status()).toBe(200);
+    const cohortId = (await cohort.json()).id as string;
+    expect((await researcher.request.post(`/api/cohorts/${cohortId}/versions`, { data: { filters: { kind: 'primary_treatment' }, variables: [] } })).status()).toBe(200);
+    expect((await researcher.request.post(`/api/cohorts/${cohortId}/exports`, { data: { version: 1 } })).status()).toBe(202);
+    const exportId = (await (await researcher.request.get(`/api/cohorts/${cohortId}`)).json()).exports[0].id as string;
     return {
+      cohortId,
+      exportId,
       adminId: byEmail(people('admin').email),
       coordinatorId: byEmail(people('coordinator').email),
       patientId: patients.rows[0].id,
@@ -228,6 +257,7 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
   } finally {
     await admin.close();
     await coord.close();
+    await researcher.close();
   }
 }
 
@@ -329,6 +359,8 @@ const PAGES: PageRow[] = [
   { page: 'outcomes/model', url: () => '/outcomes/model', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'outcomes/clinicians', url: () => '/outcomes/clinicians', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
   { page: 'outcomes/worklist', url: () => '/outcomes/worklist', expect: signInFirst(only({ clinician: 200, auditor: 200 })) },
+  { page: 'cohorts', url: () => '/cohorts', expect: signInFirst(only({ researcher: 200 })) },
+  { page: 'cohorts/[id]', url: () => `/cohorts/${randomUUID()}`, expect: signInFirst(only({ researcher: 404 })) },
   { page: 'team', url: () => '/team', expect: signInFirst(only({ admin: 200 })) },
   { page: 'team/audit', url: () => '/team/audit', expect: signInFirst(only({ admin: 200 })) },
   { page: 'team/settings', url: () => '/team/settings', expect: signInFirst(only({ admin: 200 })) },

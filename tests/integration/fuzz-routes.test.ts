@@ -11,6 +11,8 @@ import { templateCsv } from '@/lib/registry/csv';
 import { reviewTemplateCsv } from '@/lib/registry/review-csv';
 import { createCase } from '@/lib/services/cases';
 import { uploadFilm } from '@/lib/services/films';
+import { createCohort, downloadPath, saveCohortVersion, startCohortExport } from '@/lib/services/cohorts';
+import { putObject } from '@/lib/storage/s3';
 import { createPatient } from '@/lib/services/patients';
 import { createReview } from '@/lib/services/reviews';
 import { answerReply } from '@/lib/services/recall-replies';
@@ -170,6 +172,25 @@ const SPECS: Record<string, RouteSpec> = {
     fields: ['canals.0.name', 'canals.0.apicalSize', 'complications.0'],
   },
   'clinicians/route.ts#GET': {},
+  'cohorts/route.ts#GET': {},
+  'cohorts/route.ts#POST': { body: () => ({ name: 'Molars since 2022' }) },
+  'cohorts/counts/route.ts#GET': { query: ['from', 'to', 'kind', 'clinicians', 'f.group', 'f.referrer', 'f.clinician'], baseQuery: { 'f.group': 'molar', clinicians: 'C1' } },
+  'cohorts/[id]/route.ts#GET': { params: () => ({ id: ids.cohort! }) },
+  'cohorts/[id]/versions/route.ts#POST': {
+    params: () => ({ id: ids.cohort! }),
+    body: () => ({ filters: { kind: 'primary_treatment', 'f.group': 'molar', clinicians: 'C1' }, variables: [], k: 5 }),
+    fields: ['filters.from', 'filters.clinicians', 'filters.f.pai', 'variables.0', 'k'],
+  },
+  'cohorts/[id]/exports/route.ts#POST': { params: () => ({ id: ids.cohort! }), body: () => ({ version: 1 }) },
+  'cohort-exports/[id]/route.ts#GET': { params: () => ({ id: ids.cohortExport! }) },
+  'cohort-exports/[id]/cancel/route.ts#POST': { params: () => ({ id: ids.cohortExport! }) },
+  'cohort-exports/[id]/download/route.ts#GET': {
+    params: () => ({ id: ids.cohortExport! }),
+    query: ['token'],
+    get baseQuery() {
+      return { token: ids.downloadToken ?? '' };
+    },
+  },
   'outcomes/overview/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'f.group', 'f.referrer'], baseQuery: { 'f.group': 'molar' } },
   'outcomes/factor/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor', 'endpoint', 'method', 'f.sealer', 'f.year'], baseQuery: { factor: 'sealer', 'f.pai': '4,5' } },
   'outcomes/curves/route.ts#GET': { query: ['from', 'to', 'clinician', 'kind', 'factor', 'endpoint', 'method', 'f.density'], baseQuery: { endpoint: 'tooth' } },
@@ -442,6 +463,15 @@ beforeAll(async () => {
   await createReview(services.em(), p.clinician, worklistCase.id, { reviewDate: '2024-02-01', toothStatus: 'present', paiScore: 5, lesionDiameterMm: 5 });
   ids.worklistCase = worklistCase.id;
   ids.film = (await uploadFilm(services.em(), p.clinician, c.id, { role: 'post_fill' }, filmPngBytes)).film.id;
+  // A research cohort with a saved version and a finished export (its archive stored), for the researcher's routes.
+  const cohort = await createCohort(services.em(), actor, { name: 'Fuzz cohort' });
+  ids.cohort = cohort.id;
+  await saveCohortVersion(services.em(), actor, cohort.id, { filters: { kind: 'primary_treatment' }, variables: [] });
+  const exported = await startCohortExport(services.em(), actor, cohort.id, { version: 1 });
+  ids.cohortExport = exported.id;
+  const exportRow = (await services.em().getKnex()('cohort_export').where({ id: exported.id }).update({ status: 'done', cases: 1 }).returning(['object_key'])) as { object_key: string }[];
+  await putObject({ key: exportRow[0]!.object_key, body: new Uint8Array([80, 75, 5, 6, ...new Array(18).fill(0)]), contentType: 'application/zip' });
+  ids.downloadToken = new URL(downloadPath(exported.id, actor.practiceId), 'http://x').searchParams.get('token')!;
   // A real invitation, so the invitation form's fuzz reaches the database with a usable token.
   const invitee = `invitee.${Date.now()}@fuzz.test`;
   await inviteMember(services.em(), p.admin, { name: 'Invitee', email: invitee, roles: ['clinician'] });

@@ -22,8 +22,8 @@ const good = { practiceId: uuid(1), visitId: uuid(2), step: 'invitation' as cons
 
 describe('names, defined once', () => {
   it('has the two queues and their jobs, none with ":"', () => {
-    expect(QUEUES).toEqual({ reminders: 'reminders', recallScan: 'recall-scan' });
-    expect(JOB_QUEUE).toEqual({ 'send-reminder': 'reminders', 'recall-scan': 'recall-scan' });
+    expect(QUEUES).toEqual({ reminders: 'reminders', recallScan: 'recall-scan', cohortExports: 'cohort-exports' });
+    expect(JOB_QUEUE).toEqual({ 'send-reminder': 'reminders', 'recall-scan': 'recall-scan', 'cohort-export': 'cohort-exports' });
     for (const name of [...Object.values(QUEUES), ...Object.values(JOBS), RECALL_SCAN_SCHEDULER_ID]) expect(name).not.toContain(':');
     expect(Object.keys(JOB_PAYLOADS).sort()).toEqual(Object.values(JOBS).sort());
     expect(Object.keys(DEFAULT_JOB_OPTIONS).sort()).toEqual(Object.values(QUEUES).sort());
