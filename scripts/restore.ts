@@ -16,7 +16,6 @@ import { runUnderScriptsTsconfig } from './lib/scripts-tsconfig';
 await runUnderScriptsTsconfig(import.meta.url);
 
 const { readFile } = await import('node:fs/promises');
-const { createReadStream } = await import('node:fs');
 const path = await import('node:path');
 const { DeleteObjectCommand, ListObjectsV2Command, PutObjectCommand } = await import('@aws-sdk/client-s3');
 const { MikroORM } = await import('@mikro-orm/postgresql');
@@ -85,7 +84,9 @@ console.log(`restore: database restored, ${rows} rows in ${Object.keys(manifest.
 const wanted = new Set(manifest.objects.items.map((o) => o.key));
 for (const o of manifest.objects.items) {
   await s3().send(
-    new PutObjectCommand({ Bucket: env.S3_BUCKET, Key: o.key, Body: createReadStream(path.join(dir, o.file)), ContentLength: o.size, ContentType: o.contentType ?? undefined }),
+    // The bytes in one buffer, as lib/storage/s3.ts writes them: a stream body goes out in the SDK's
+    // aws-chunked encoding, which some S3-compatible stores (the local fake) keep as the object.
+    new PutObjectCommand({ Bucket: env.S3_BUCKET, Key: o.key, Body: await readFile(path.join(dir, o.file)), ContentLength: o.size, ContentType: o.contentType ?? undefined }),
   );
 }
 let removed = 0;
