@@ -42,6 +42,8 @@ import { deriveLinkSecret } from '@/lib/recall/reply-token';
 import { getOrm } from '@/lib/db';
 import { env } from '@/lib/env';
 import { knexOf, markReminderFailed, openReminderQueue, reminderQueueSettings } from '@/lib/services/recall-outbox';
+import { logger } from '@/lib/log/logger';
+import { withRequestId } from '@/lib/log/context';
 import { readWorkerConfig, type WorkerConfig } from './config';
 import { createReminderTransport, mailboxDeliveryCheck } from './mail';
 import { runRecallScan } from './recall-scan';
@@ -57,7 +59,10 @@ export interface WorkerHandle {
   close: () => Promise<void>;
 }
 
-const log = (message: string) => console.log(`${new Date().toISOString()} ${message}`);
+// Structured lines (pino, lib/log/logger.ts): JSON on stdout, e-mail addresses scrubbed from any
+// message, and ids only — never a patient's name, address, phone or note.
+const workerLog = logger('worker');
+const log = (message: string) => workerLog.info(message);
 
 export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm?: MikroORM): Promise<WorkerHandle> {
   const db = orm ?? (await getOrm());
@@ -88,7 +93,15 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
 
   const common = { ...prefix, lockDuration: config.lockMs, stalledInterval: config.lockMs, maxStalledCount: config.maxStalled };
   let sent = 0;
-  const reminders = new Worker(QUEUES.reminders, async (job: Job, token?: string) => processSendReminder(sendContext, job, token), {
+  const reminders = new Worker(QUEUES.reminders, async (job: Job, token?: string) => {
+    // The web request that queued it (a coordinator's "send now") carries on in this job's line.
+    const reqId = typeof job.data?.requestId === 'string' ? (job.data.requestId as string) : undefined;
+    const started = Date.now();
+    const run = () => processSendReminder(sendContext, job, token);
+    const result = reqId ? await withRequestId(reqId, run) : await run();
+    workerLog.info({ jobId: job.id, reqId, outcome: (result as { outcome?: string } | undefined)?.outcome, ms: Date.now() - started }, 'send-reminder');
+    return result;
+  }, {
     ...common,
     connection: connect('worker-reminders'),
     concurrency: config.concurrency,
@@ -97,7 +110,10 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
   const scanner = new Worker(
     QUEUES.recallScan,
     async (job: Job) => {
-      const summary = await runRecallScan({ em: () => db.em.fork(), queue: remindersQueue, log }, parseJobData(JOBS.recallScan, job.data));
+      const data = parseJobData(JOBS.recallScan, job.data);
+      const scan = () => runRecallScan({ em: () => db.em.fork(), queue: remindersQueue, log }, data);
+      const summary = data.requestId ? await withRequestId(data.requestId, scan) : await scan();
+      workerLog.info({ jobId: job.id, reqId: data.requestId, queued: summary.queued, requeued: summary.reconcile.requeued }, 'recall-scan');
       scans += 1;
       return { queued: summary.queued, requeued: summary.reconcile.requeued, finalized: summary.reconcile.finalized };
     },

@@ -8,6 +8,9 @@ import { RateLimitedError, ServiceError } from '@/lib/services/errors';
 import { isServiceUnavailable, UnavailableError } from '@/lib/services/unavailable';
 import { env } from '@/lib/env';
 import { bodyTypeRefusal, crossSiteRefusal, originOf, type BodyType } from '@/lib/security/request-guard';
+import { logger } from '@/lib/log/logger';
+import { withRequestId } from '@/lib/log/context';
+import { REQUEST_ID_HEADER, logPath, requestIdFrom, safeError } from '@/lib/log/request-id';
 
 export interface HandlerContext<P> {
   req: Request;
@@ -36,40 +39,64 @@ export function handler<P = Record<string, string>>(
   options: HandlerOptions = {},
 ) {
   return async (req: Request, ctx: { params: Promise<P> }): Promise<Response> => {
+    const requestId = requestIdFrom(req.headers, behindProxy());
+    const started = performance.now();
+    const seen: { actor: Actor | null } = { actor: null };
+    const response = await withRequestId(requestId, async () => {
+      try {
+        const refusal =
+          crossSiteRefusal(req.method, req.headers, originOf(env.APP_URL)) ??
+          bodyTypeRefusal(req.method, req.headers, options.accept ?? JSON_ONLY);
+        if (refusal) return json({ error: refusal.error, message: refusal.message }, refusal.status);
+        const { em, actor, mustChoosePractice } = await getRequestContext();
+        if (!actor && mustChoosePractice) {
+          return json({ error: 'practice_not_chosen', message: 'Choose the practice you are working in first.' }, 409);
+        }
+        if (!actor) return json({ error: 'not_signed_in', message: 'Sign in to continue.' }, 401);
+        seen.actor = actor;
+        if (!can(actor.roles, permission)) {
+          return json({ error: 'forbidden', message: 'Your role does not allow this.' }, 403);
+        }
+        const result = await fn({ req, em, actor, params: await ctx.params });
+        return result instanceof Response ? result : json(result, 200);
+      } catch (e) {
+        return errorResponse(e, requestId);
+      }
+    });
+    // One line a request: ids, the path (long tokens cut out), status and time — never a body or a query.
+    logger('web').info(
+      { reqId: requestId, method: req.method, path: logPath(req.url), status: response.status, ms: Math.round(performance.now() - started), userId: seen.actor?.userId, practiceId: seen.actor?.practiceId },
+      'request',
+    );
     try {
-      const refusal =
-        crossSiteRefusal(req.method, req.headers, originOf(env.APP_URL)) ??
-        bodyTypeRefusal(req.method, req.headers, options.accept ?? JSON_ONLY);
-      if (refusal) return json({ error: refusal.error, message: refusal.message }, refusal.status);
-      const { em, actor, mustChoosePractice } = await getRequestContext();
-      if (!actor && mustChoosePractice) {
-        return json({ error: 'practice_not_chosen', message: 'Choose the practice you are working in first.' }, 409);
-      }
-      if (!actor) return json({ error: 'not_signed_in', message: 'Sign in to continue.' }, 401);
-      if (!can(actor.roles, permission)) {
-        return json({ error: 'forbidden', message: 'Your role does not allow this.' }, 403);
-      }
-      const result = await fn({ req, em, actor, params: await ctx.params });
-      return result instanceof Response ? result : json(result, 200);
-    } catch (e) {
-      return errorResponse(e);
+      response.headers.set(REQUEST_ID_HEADER, requestId);
+    } catch {
+      // a redirect's headers are immutable: it goes without the id
     }
+    return response;
   };
+}
+
+/** A proxy is configured (TRUSTED_PROXIES): only then is its X-Request-Id taken. */
+function behindProxy(): boolean {
+  const t = env.trustedProxies;
+  return 'count' in t ? t.count > 0 : t.addresses.length > 0;
 }
 
 export function json(body: unknown, status = 200, init?: ResponseInit) {
   return NextResponse.json(body, { status, ...init, headers: { 'Cache-Control': 'no-store', ...init?.headers } });
 }
 
-export function errorResponse(e: unknown): Response {
+export function errorResponse(e: unknown, requestId?: string): Response {
   if (e instanceof ServiceError) {
     const headers: Record<string, string> = {};
     if (e instanceof RateLimitedError || e instanceof UnavailableError) headers['Retry-After'] = String(e.retryAfterSeconds);
     return json({ error: e.code, message: e.message, fieldErrors: e.fieldErrors }, e.status, { headers });
   }
   // the database or Redis not answering: the request changed nothing and may be tried again
-  if (isServiceUnavailable(e)) return errorResponse(new UnavailableError());
-  console.error('[api] unexpected error', e);
+  if (isServiceUnavailable(e)) return errorResponse(new UnavailableError(), requestId);
+  // The error's class, code and stack frames: a driver's message can quote a row's values.
+  logger('web').error({ reqId: requestId, err: safeError(e) }, 'unexpected error');
   return json({ error: 'internal', message: 'Something went wrong on our side. Nothing was changed.' }, 500);
 }
 

@@ -7,9 +7,11 @@
 #      free ports near 55433 / 56380 / 52525 / 52526 / 45690 (web 53000); override with
 #      LAMINA_TEST_*_PORT (…_PG_, _REDIS_, _SMTP_, _MAILBOX_, _WEB_, _S3_PORT)
 #   3. migrations, then vitest (all projects: unit, reference, integration)
-#   4. a fresh database: migrations and the demo seed (the e2e tests sign in as demo users)
-#   5. `next build` into .next-test (a running `npm start` keeps its .next), `next start`,
-#      the worker, then Playwright in Debian's Chromium
+#   4. meanwhile, in the background (they need nothing from vitest): a second database for the e2e
+#      tests (migrations and the demo seed; they sign in as demo users) and `next build` into
+#      .next-test (a running `npm start` keeps its .next); their output goes to logs/ and is
+#      printed when vitest is done
+#   5. the web server and the worker on the e2e database, then Playwright in Debian's Chromium
 #   6. everything stopped, then scripts/summarize-tests.mjs sums every runner's JSON report
 #
 # Service logs of a failed run are copied to test-results/logs/.
@@ -64,10 +66,55 @@ runner() {
   lamina_log "$name: exit $rc ($((SECONDS - t0)) s)"
 }
 
+# The e2e tests run on a database of their own, so that it can be seeded while vitest uses the first.
+E2E_DB_NAME=lamina_e2e
 reset_database() {
-  pg_recreate_database "$LAMINA_DB_NAME"
+  pg_recreate_database "$E2E_DB_NAME"
+  export DATABASE_URL="${DATABASE_URL%/*}/$E2E_DB_NAME"
   lamina_migrate
+  # MikroORM's migrator leaves a schema snapshot named after the database: not ours to keep.
+  rm -f "$LAMINA_REPO/migrations/.snapshot-$E2E_DB_NAME.json"
   lamina_seed
+}
+
+# bg_step NAME CMD...: `step` in the background, its output in $TMP/logs/<slug>.log; the pid in
+# BG_PID. await_step NAME PID: wait for it, print its output, record it; STEP_RC as `step`.
+BG_PID=
+BG_PIDS=()
+bg_step() {
+  local name="$1" log t0=$SECONDS
+  shift
+  log="$TMP/logs/$(printf '%s' "$name" | tr -c 'a-zA-Z0-9' '-').log"
+  lamina_log "$name: started in the background (output: $log)"
+  (
+    set +e
+    (set -e; "$@") </dev/null >"$log" 2>&1
+    rc=$?
+    echo "$rc $((SECONDS - t0))" >"$log.rc"
+    exit "$rc"
+  ) &
+  BG_PID=$!
+  BG_PIDS+=("$BG_PID")
+}
+# kill_tree PID: a background step and what it started (an interrupted run).
+kill_tree() {
+  local child
+  for child in $(pgrep -P "$1" 2>/dev/null); do kill_tree "$child"; done
+  kill "$1" 2>/dev/null || true
+}
+await_step() {
+  local name="$1" pid="$2" log rc secs
+  log="$TMP/logs/$(printf '%s' "$name" | tr -c 'a-zA-Z0-9' '-').log"
+  wait "$pid" 2>/dev/null || true
+  local left=() p
+  for p in "${BG_PIDS[@]}"; do [[ "$p" == "$pid" ]] || left+=("$p"); done
+  BG_PIDS=("${left[@]}")
+  banner "$name (ran in the background)"
+  cat "$log" >&2 2>/dev/null || true
+  read -r rc secs <"$log.rc" 2>/dev/null || { rc=1; secs=?; }
+  STEP_RC=$rc
+  record step "$name" "$STEP_RC"
+  if ((STEP_RC == 0)); then lamina_log "$name: ok ($secs s, beside vitest)"; else lamina_log "$name: FAILED (exit $STEP_RC)"; fi
 }
 
 # http_answers URL: the server sent any HTTP response (a redirect or an error page counts).
@@ -113,6 +160,8 @@ stop_app() {
 }
 
 stop_everything() {
+  local pid
+  for pid in "${BG_PIDS[@]}"; do kill_tree "$pid"; done
   stop_app 2>/dev/null || true
   services_stop 2>/dev/null || true
 }
@@ -176,6 +225,17 @@ main() {
   step "migrate" lamina_migrate
   ok || { finish; return; }
 
+  # The e2e preparation does not wait for vitest: the seed goes to its own database, the build
+  # to .next-test (behind the checkout's e2e lock).
+  local seed_pid='' build_pid=''
+  if [[ -z "${LAMINA_SKIP_E2E:-}" ]]; then
+    bg_step "fresh e2e database, migrations and demo seed" reset_database
+    seed_pid=$BG_PID
+    lock_e2e
+    bg_step "next build" build
+    build_pid=$BG_PID
+  fi
+
   # LAMINA_VITEST_ARGS / LAMINA_PW_ARGS narrow the runs to some files while developing;
   # LAMINA_SKIP_E2E=1 stops after vitest. CI sets none of them.
   # shellcheck disable=SC2086
@@ -183,10 +243,12 @@ main() {
     --reporter=default --reporter=json --outputFile.json="$RESULTS/vitest.json" ${LAMINA_VITEST_ARGS:-}
   if [[ -n "${LAMINA_SKIP_E2E:-}" ]]; then finish; return; fi
 
-  step "fresh database, migrations and demo seed" reset_database
-  ok || { finish; return; }
-  lock_e2e
-  step "next build" build
+  await_step "fresh e2e database, migrations and demo seed" "$seed_pid"
+  local seeded=$STEP_RC
+  await_step "next build" "$build_pid"
+  ((seeded == 0)) || STEP_RC=$seeded
+  # The web server, the worker and Playwright use the e2e database.
+  export DATABASE_URL="${DATABASE_URL%/*}/$E2E_DB_NAME"
   if ok; then step "start the web server" start_web; fi
   if ok; then
     runner playwright "$RESULTS/playwright.json" env PLAYWRIGHT_JSON_FILE="$RESULTS/playwright.json" \

@@ -4,6 +4,7 @@
 import { Queue, type Job, type JobsOptions, type QueueOptions } from 'bullmq';
 import type { Redis } from 'ioredis';
 import { reminderJobId } from '@/lib/recall/reminders';
+import { currentRequestId } from '@/lib/log/context';
 import { cohortExportJobId, JOBS, QUEUES, RECALL_SCAN_DEFAULT_PATTERN, RECALL_SCAN_SCHEDULER_ID, type QueueName } from './names';
 import { DEFAULT_JOB_OPTIONS, PRODUCER_QUEUE_OPTIONS, RECALL_SCAN_JOB_OPTIONS } from './options';
 import { parsePayload, type CohortExportData, type CohortExportInput, type RecallScanData, type RecallScanInput, type SendReminderData, type SendReminderInput } from './payloads';
@@ -31,6 +32,12 @@ function queueOptions(name: QueueName, connection: Redis, options: OpenQueueOpti
     ...(options.prefix ? { prefix: options.prefix } : {}),
     ...(options.failFast ? PRODUCER_QUEUE_OPTIONS : {}),
   };
+}
+
+/** The payload with the id of the web request queueing it (when there is one and none was given). */
+function withRequest<T extends { requestId?: string }>(payload: T): T {
+  const requestId = payload.requestId ?? currentRequestId();
+  return requestId ? { ...payload, requestId } : payload;
 }
 
 /** A queue with its default job options, its errors logged. Close it with `await queue.close()`. */
@@ -70,7 +77,7 @@ export async function enqueueReminder(
   payload: SendReminderInput,
   options: EnqueueOptions = {},
 ): Promise<Job<SendReminderData, unknown, typeof JOBS.sendReminder>> {
-  const data = parsePayload(JOBS.sendReminder, payload);
+  const data = parsePayload(JOBS.sendReminder, withRequest(payload));
   return queue.add(JOBS.sendReminder, data, jobOptions(data, options));
 }
 
@@ -81,7 +88,7 @@ export async function enqueueReminders(
   options: EnqueueOptions = {},
 ): Promise<Job<SendReminderData, unknown, typeof JOBS.sendReminder>[]> {
   const jobs = payloads.map((p) => {
-    const data = parsePayload(JOBS.sendReminder, p);
+    const data = parsePayload(JOBS.sendReminder, withRequest(p));
     return { name: JOBS.sendReminder, data, opts: jobOptions(data, options) };
   });
   return jobs.length ? queue.addBulk(jobs) : [];
@@ -89,7 +96,7 @@ export async function enqueueReminders(
 
 /** Queues a scan now (e.g. after a policy change, or the desk's "scan again"). */
 export async function enqueueRecallScan(queue: RecallScanQueue, payload: RecallScanInput = {}) {
-  const data = parsePayload(JOBS.recallScan, payload);
+  const data = parsePayload(JOBS.recallScan, withRequest(payload));
   return queue.add(JOBS.recallScan, data);
 }
 

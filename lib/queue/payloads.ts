@@ -29,6 +29,8 @@ export const SendReminderPayload = z.strictObject({
   requestedBy: JobSafeId.optional(),
   /** The practice's day on which the step was entered. */
   day: Day.optional(),
+  /** The web request that queued it (lib/log/context.ts), for the worker's log lines. */
+  requestId: JobSafeId.optional(),
 });
 export type SendReminderInput = z.input<typeof SendReminderPayload>;
 export type SendReminderData = z.output<typeof SendReminderPayload>;
@@ -38,6 +40,8 @@ export const RecallScanPayload = z.strictObject({
   practiceId: JobSafeId.optional(),
   /** The day to scan for; left out, each practice's own today in its time zone. */
   day: Day.optional(),
+  /** The web request that queued it, if any. */
+  requestId: JobSafeId.optional(),
 });
 export type RecallScanInput = z.input<typeof RecallScanPayload>;
 export type RecallScanData = z.output<typeof RecallScanPayload>;

@@ -56,6 +56,7 @@ test.describe('signing in', () => {
   });
 
   test('an e-mailed sign-in link signs the user in once', async ({ page, request }) => {
+    test.setTimeout(90_000); // waits for a mail through SMTP (waitForMail's deadline is a minute)
     const since = Date.now() - 1000;
     const email = demoUser('researcher').email;
     await page.goto('/sign-in');
@@ -130,6 +131,7 @@ test.describe('throttling, not lockout (issue 9 item 8)', () => {
 });
 
 test('an invited colleague accepts the e-mailed link, sets a password and signs in', async ({ page, request }) => {
+  test.setTimeout(90_000); // waits for a mail through SMTP (waitForMail's deadline is a minute)
   const email = `new.colleague.${Date.now()}@lamina-demo.invalid`;
   await signInAs(page, 'admin');
   await page.goto('/team');

@@ -42,7 +42,11 @@ export interface Mail {
   headers?: Record<string, unknown>;
 }
 
-/** Waits for the newest message to an address in the local mail fake. */
+/**
+ * Waits for the newest message to an address in the local mail fake. The send goes through the
+ * worker (a queue, a claim, SMTP): on a loaded machine that takes far longer than on a quiet one,
+ * so the deadline is a minute, polled every half second (callers' tests allow for it).
+ */
 export async function waitForMail(request: APIRequestContext, to: string, subject: RegExp, since = 0): Promise<Mail> {
   let found: Mail | undefined;
   await expect
@@ -54,7 +58,7 @@ export async function waitForMail(request: APIRequestContext, to: string, subjec
         found = list.find((m) => subject.test(m.subject) && Date.parse((m as unknown as { receivedAt: string }).receivedAt) >= since);
         return Boolean(found);
       },
-      { timeout: 15_000 },
+      { timeout: 60_000, intervals: [250, 500] },
     )
     .toBe(true);
   return found!;

@@ -87,12 +87,12 @@ describe('recall faults', () => {
     const atKill = await waitFor('the first 250 messages', async () => {
       const n = await mailboxCount();
       return n >= 250 ? n : false;
-    }, 40_000, 50);
+    }, 120_000, 50); // a deadline for a loaded machine (issue 15)
     first.proc.kill('SIGKILL');
     await first.exited;
     const stuck = (await outboxCounts(services.em())).sending ?? 0;
     const second = start(workerEnv(prefix));
-    await allSent(1000, 50_000);
+    await allSent(1000, 150_000);
     const exit = await stop(second);
     await expectExactlyOnce(visits);
     const out = second.output();
@@ -100,14 +100,14 @@ describe('recall faults', () => {
     const resent = (out.match(/sending again under the same Message-ID/g) ?? []).length;
     console.log(`fault (1): killed after ${atKill} messages with ${stuck} claim(s) open; the restart found ${reconciled} already delivered and sent ${resent} again; ${((Date.now() - t0) / 1000).toFixed(1)} s`);
     expect(exit).toEqual({ code: 0, signal: null });
-  }, 90_000);
+  }, 330_000);
 
   it('(2) the SMTP fake refuses for a while: the messages are retried and all arrive, once', async () => {
     const t0 = Date.now();
     const visits = await seed(120);
     await refuseSmtp(60);
     const w = start(workerEnv(`lamina-test-refuse-${randomBytes(3).toString('hex')}`));
-    await allSent(120, 40_000);
+    await allSent(120, 120_000);
     const exit = await stop(w);
     await expectExactlyOnce(visits);
     const attempts = (await knex()('reminder').sum('attempts as n').first()) as { n: string };
@@ -118,7 +118,7 @@ describe('recall faults', () => {
     expect(w.output()).toMatch(/refused the message for now \(451\)/);
     console.log(`fault (2): 60 refusals ridden out, 120 delivered once each; ${((Date.now() - t0) / 1000).toFixed(1)} s`);
     expect(exit).toEqual({ code: 0, signal: null });
-  }, 60_000);
+  }, 180_000);
 
   it('(3) Redis restarted empty in the middle of a run: the scan re-queues from the outbox and nothing is lost', async () => {
     const t0 = Date.now();
@@ -135,14 +135,14 @@ describe('recall faults', () => {
     const before = await waitFor('the first 60 messages', async () => {
       const n = await mailboxCount();
       return n >= 60 ? n : false;
-    }, 40_000, 50);
+    }, 120_000, 50); // a deadline for a loaded machine (issue 15)
     // Redis goes away with every job and the scan's scheduler, and comes back empty.
     server.kill('SIGKILL');
     await new Promise((r) => server.once('exit', r));
     await sleep(1000);
     server = redis();
     await waitFor('Redis back', () => canConnect(port), 10_000, 100);
-    await allSent(400, 50_000);
+    await allSent(400, 150_000);
     const exit = await stop(w);
     await expectExactlyOnce(visits);
     expect(w.output()).toMatch(/re-queued/);
@@ -151,7 +151,7 @@ describe('recall faults', () => {
     expect(Math.max(...requeued)).toBeGreaterThan(0);
     expect(exit).toEqual({ code: 0, signal: null });
     server.kill('SIGTERM');
-  }, 90_000);
+  }, 330_000);
 });
 
 function freePort(): Promise<number> {
