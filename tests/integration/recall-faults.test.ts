@@ -163,8 +163,12 @@ describe('recall faults', () => {
     await hangSmtp(hangs);
     const w = start(workerEnv(`lamina-test-hang-${randomBytes(3).toString('hex')}`));
     // The relay answers again only after every hung transaction has been timed out by the worker.
-    await waitFor('every hung transaction used', async () => (await smtpHanging()) === 0, 40_000, 100);
-    await allSent(100, 50_000);
+    try {
+      await waitFor('every hung transaction used', async () => (await smtpHanging()) === 0, 40_000, 100);
+      await allSent(100, 50_000);
+    } catch (e) {
+      throw new Error(`${(e as Error).message}; the worker said: ${w.output().slice(-1500)}`);
+    }
     const exit = await stop(w);
     await expectExactlyOnce(visits);
     const counts = await outboxCounts(services.em());
