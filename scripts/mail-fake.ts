@@ -7,14 +7,18 @@
  * scripts generate and hand to the app, the worker and the tests) in the `x-mailbox-secret`
  * header; without it, 401. A part of Lamina's demo mode only (LAMINA_DEMO=1).
  *
- *   GET    /health            {ok, pid, smtpPort, httpPort, dir, messages, refusing} (no secret)
+ *   GET    /health            {ok, pid, smtpPort, httpPort, dir, messages, refusing, hanging} (no secret)
  *   GET    /messages          stored messages, newest first; ?to=address filters on any
  *                             recipient (To, Cc or SMTP envelope); ?limit=N
  *   GET    /messages/:id      one message, 404 if unknown
  *   DELETE /messages          remove every stored message (for tests)
  *   DELETE /messages/:id      remove one
  *   POST   /control           {"refuse": N}: the next N SMTP transactions fail with a 451
- *                             temporary error (fault tests); {"refuse": 0} stops refusing
+ *                             temporary error (fault tests); {"refuse": 0} stops refusing.
+ *                             {"hang": N}: the next N transactions get the whole message but no
+ *                             answer to it, ever (not stored: a relay that accepted the connection
+ *                             and then stopped answering); the client's timeout has to end them.
+ *                             Either key or both; a key left out keeps its count.
  *
  * Run: MAILBOX_SECRET=… node --import tsx scripts/mail-fake.ts --smtp-port 2525 --http-port 2526 --dir .data/mail/messages
  * (or MAIL_FAKE_SMTP_PORT, MAIL_FAKE_HTTP_PORT, MAIL_FAKE_DIR). scripts/lib/services.sh starts it.
@@ -255,6 +259,7 @@ class Store {
 
 interface Faults {
   refuse: number;
+  hang: number;
 }
 
 function smtpError(message: string, responseCode: number): Error {
@@ -283,6 +288,12 @@ function createSmtpServer(config: Config, store: Store, faults: Faults): SMTPSer
       stream.on('data', (c: Buffer) => chunks.push(c));
       stream.on('error', (e: Error) => callback(e));
       stream.on('end', () => {
+        if (faults.hang > 0) {
+          // The message is read to its end and never answered: the client times out and closes.
+          faults.hang -= 1;
+          console.log(`mail-fake: leaving a transaction unanswered (${faults.hang} more to hang)`);
+          return;
+        }
         if (stream.sizeExceeded) return callback(smtpError('5.3.4 Message too big for the mail fake', 552));
         void (async () => {
           try {
@@ -307,7 +318,10 @@ const ListQuery = z.object({
   to: z.string().trim().min(1).max(320).optional(),
   limit: z.coerce.number().int().min(1).max(10_000).optional(),
 });
-const ControlBody = z.object({ refuse: z.number().int().min(0).max(10_000) }).strict();
+const ControlBody = z
+  .object({ refuse: z.number().int().min(0).max(10_000).optional(), hang: z.number().int().min(0).max(10_000).optional() })
+  .strict()
+  .refine((b) => b.refuse !== undefined || b.hang !== undefined);
 
 class HttpError extends Error {
   constructor(
@@ -366,6 +380,7 @@ function createHttpServer(config: Config, store: Store, faults: Faults): http.Se
         dir: config.dir,
         messages: await store.count(),
         refusing: faults.refuse,
+        hanging: faults.hang,
       });
     }
     if (parts[0] === 'messages' && parts.length === 1) {
@@ -389,10 +404,11 @@ function createHttpServer(config: Config, store: Store, faults: Faults): http.Se
     if (url.pathname === '/control') {
       if (method !== 'POST') throw new HttpError(405, 'method not allowed');
       const body = ControlBody.safeParse(await readJson(req));
-      if (!body.success) throw new HttpError(400, `expected {"refuse": N} with 0 <= N <= 10000`);
-      faults.refuse = body.data.refuse;
-      console.log(`mail-fake: refusing the next ${faults.refuse} SMTP transaction(s)`);
-      return send(res, 200, { refusing: faults.refuse });
+      if (!body.success) throw new HttpError(400, `expected {"refuse": N} and/or {"hang": N} with 0 <= N <= 10000`);
+      if (body.data.refuse !== undefined) faults.refuse = body.data.refuse;
+      if (body.data.hang !== undefined) faults.hang = body.data.hang;
+      console.log(`mail-fake: refusing the next ${faults.refuse} and leaving unanswered the next ${faults.hang} SMTP transaction(s)`);
+      return send(res, 200, { refusing: faults.refuse, hanging: faults.hang });
     }
     throw new HttpError(404, 'not found');
   }
@@ -423,7 +439,7 @@ async function main() {
   const config = readConfig(process.argv.slice(2), process.env);
   const store = new Store(config.dir);
   await store.init();
-  const faults: Faults = { refuse: 0 };
+  const faults: Faults = { refuse: 0, hang: 0 };
 
   const smtp = createSmtpServer(config, store, faults);
   smtp.on('error', (e) => console.error('mail-fake: SMTP error:', e.message));

@@ -4,13 +4,15 @@ import net from 'node:net';
 import { afterAll, afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { todayIn } from '@/lib/services/registry-common';
 import { makeRegistryPractice, openServices, resetData } from '../support/db';
-import { clearMailbox, mailbox, mailboxCount, outboxCounts, refuseSmtp, seedVisits, sleep, spawnWorker, waitFor, type WorkerChild } from './recall-fixtures';
+import { clearMailbox, hangSmtp, mailbox, mailboxCount, outboxCounts, refuseSmtp, seedVisits, sleep, smtpHanging, spawnWorker, waitFor, type WorkerChild } from './recall-fixtures';
 
 /**
  * Fault tests with the real worker process (jobs/worker.ts as a child, as npm start runs it):
  *   1. SIGKILL in the middle of 1,000 reminders, then a restart: each arrives exactly once
  *   2. the SMTP relay refuses for a while: the refused ones are retried and all arrive, once
  *   3. Redis restarts empty in the middle of a run: the scan re-queues from the outbox, nothing lost
+ *   4. the SMTP relay takes the message and never answers: the attempt times out (SMTP_TIMEOUT_MS),
+ *      is retried, and once the relay answers again each reminder arrives once, none left 'sending'
  * Each counts the messages the SMTP fake stored by Message-ID and by recipient.
  */
 const services = await openServices();
@@ -23,10 +25,12 @@ beforeEach(async () => {
   await resetData(services.orm, services.redis);
   await clearMailbox();
   await refuseSmtp(0);
+  await hangSmtp(0);
 });
 afterEach(async () => {
   for (const c of children.splice(0)) if (c.exitCode === null && c.signalCode === null) c.kill('SIGKILL');
   await refuseSmtp(0);
+  await hangSmtp(0);
 });
 
 /** Short waits for tests: 2 s locks (a killed worker's jobs come back within about 4 s), 100 ms first retry. */
@@ -152,6 +156,31 @@ describe('recall faults', () => {
     expect(exit).toEqual({ code: 0, signal: null });
     server.kill('SIGTERM');
   }, 330_000);
+
+  it('(4) the SMTP relay takes messages and never answers: each attempt times out, is retried, and every reminder arrives once', async () => {
+    const t0 = Date.now();
+    const hangs = 12;
+    const visits = await seed(100);
+    await hangSmtp(hangs);
+    const w = start(workerEnv(`lamina-test-hang-${randomBytes(3).toString('hex')}`));
+    // The relay answers again only after every hung transaction has been timed out by the worker.
+    try {
+      await waitFor('every hung transaction used', async () => (await smtpHanging()) === 0, 120_000, 100);
+      await allSent(100, 150_000);
+    } catch (e) {
+      throw new Error(`${(e as Error).message}; the worker said: ${w.output().slice(-1500)}`);
+    }
+    const exit = await stop(w);
+    await expectExactlyOnce(visits);
+    const counts = await outboxCounts(services.em());
+    expect(counts.sending ?? 0).toBe(0);
+    const attempts = (await knex()('reminder').sum('attempts as n').first()) as { n: string };
+    // Each unanswered transaction cost one attempt of some reminder (its timeout), and nothing else did.
+    expect(Number(attempts.n)).toBe(100 + hangs);
+    expect(await knex()('recall_visit').whereNotNull('delivery_failed_at').count('* as n').first()).toMatchObject({ n: '0' });
+    console.log(`fault (4): ${hangs} unanswered transactions timed out and retried, 100 delivered once each; ${((Date.now() - t0) / 1000).toFixed(1)} s`);
+    expect(exit).toEqual({ code: 0, signal: null });
+  }, 300_000);
 });
 
 function freePort(): Promise<number> {

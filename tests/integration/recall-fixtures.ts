@@ -151,6 +151,18 @@ export async function refuseSmtp(n: number): Promise<void> {
   if (!res.ok) throw new Error(`mail fake control answered ${res.status}`);
 }
 
+/** The next n SMTP transactions get the message and no answer (scripts/mail-fake.ts {"hang": n}). */
+export async function hangSmtp(n: number): Promise<void> {
+  const res = await fetch(new URL('/control', mailboxUrl()), { method: 'POST', headers: { 'Content-Type': 'application/json', ...mailboxHeaders(process.env.MAILBOX_SECRET) }, body: JSON.stringify({ hang: n }) });
+  if (!res.ok) throw new Error(`mail fake control answered ${res.status}`);
+}
+
+/** How many transactions the mail fake still leaves unanswered. */
+export async function smtpHanging(): Promise<number> {
+  const health = (await (await fetch(new URL('/health', mailboxUrl()))).json()) as { hanging: number };
+  return health.hanging;
+}
+
 export async function mailboxCount(): Promise<number> {
   const health = (await (await fetch(new URL('/health', mailboxUrl()))).json()) as { messages: number };
   return health.messages;
