@@ -3,6 +3,7 @@ import { AuditEventSchema } from './AuditEvent';
 import { CaseDecisionSchema } from './CaseDecision';
 import { ContactLogEntrySchema } from './ContactLogEntry';
 import { FilmSchema } from './Film';
+import { FilmReadingSchema } from './FilmReading';
 import { ImportMappingSchema } from './ImportMapping';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
@@ -10,6 +11,7 @@ import { OutcomesDataVersionSchema } from './OutcomesDataVersion';
 import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
+import { ReferenceFilmSchema } from './ReferenceFilm';
 import { ReferrerSchema } from './Referrer';
 import { ReminderSchema } from './Reminder';
 import { ReplyNonceSchema } from './ReplyNonce';
@@ -37,12 +39,15 @@ export const entities = [
   OutcomesDataVersionSchema,
   FilmSchema,
   ImportMappingSchema,
+  FilmReadingSchema,
+  ReferenceFilmSchema,
 ];
 
 export * from './AuditEvent';
 export * from './CaseDecision';
 export * from './ContactLogEntry';
 export * from './Film';
+export * from './FilmReading';
 export * from './ImportMapping';
 export * from './Invitation';
 export * from './Membership';
@@ -50,6 +55,7 @@ export * from './OutcomesDataVersion';
 export * from './Patient';
 export * from './Practice';
 export * from './RecallVisit';
+export * from './ReferenceFilm';
 export * from './Referrer';
 export * from './Reminder';
 export * from './ReplyNonce';
