@@ -34,7 +34,7 @@ import type { ReviewSign } from '@/lib/schemas/review';
 import { SCORING_CAUTION } from '@/lib/scoring';
 import { getObject } from '@/lib/storage/s3';
 import { audit } from './audit';
-import { ConflictError, NotFoundError } from './errors';
+import { ConflictError, NotFoundError, ServiceError } from './errors';
 import { parseInput } from './parse';
 import { applyAgreedPai } from './reviews';
 import { assertId, practiceSettings, todayIn } from './registry-common';
@@ -359,14 +359,22 @@ async function reviewOf(em: EntityManager, f: Film): Promise<string | null> {
 async function settle(em: EntityManager, actor: Actor, f: Film, state: FilmReadingState): Promise<string | null> {
   const reviewId = await reviewOf(em, f);
   const why = state.basis === 'adjudication' ? 'adjudication' : state.basis === 'first-within-one-step' ? 'first and blinded second reading within one step' : 'first reading';
-  const corrected = reviewId
-    ? await applyAgreedPai(em, actor, reviewId, state.agreedPai!, `Agreed PAI ${state.agreedPai} from the film’s readings (${why}).`)
-    : null;
+  let corrected: Awaited<ReturnType<typeof applyAgreedPai>> = null;
+  let reviewProblem: string | null = null;
+  if (reviewId) {
+    try {
+      corrected = await applyAgreedPai(em, actor, reviewId, state.agreedPai!, `Agreed PAI ${state.agreedPai} from the film’s readings (${why}).`);
+    } catch (e) {
+      // e.g. PAI 4 agreed on a review that recorded no lesion: the readings stand, the clinician corrects the review
+      if (!(e instanceof ServiceError) || e.status >= 500) throw e;
+      reviewProblem = e.fieldErrors ? Object.values(e.fieldErrors).flat().join(' ') || e.message : e.message;
+    }
+  }
   await audit(em, actor, {
     action: 'reading.agreed',
     entityType: 'case',
     entityId: f.case.id,
-    detail: { film: f.id, pai: state.agreedPai, basis: state.basis, review: reviewId, corrected: corrected?.review.id ?? null },
+    detail: { film: f.id, pai: state.agreedPai, basis: state.basis, review: reviewId, corrected: corrected?.review.id ?? null, ...(reviewProblem ? { reviewNotCorrected: reviewProblem } : {}) },
   });
   return corrected?.review.id ?? null;
 }

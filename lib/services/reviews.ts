@@ -306,7 +306,8 @@ export async function applyAgreedPai(em: EntityManager, actor: Actor, reviewId: 
     reviewDate: old.reviewDate,
     toothStatus: old.toothStatus,
     paiScore: pai,
-    ...(old.lesionDiameterMm !== null && old.lesionDiameterMm !== undefined ? { lesionDiameterMm: Number(old.lesionDiameterMm) } : {}),
+    // PAI 1 means no lesion: a diameter kept from the earlier version would contradict it
+    ...(old.lesionDiameterMm !== null && old.lesionDiameterMm !== undefined ? { lesionDiameterMm: pai === 1 ? 0 : Number(old.lesionDiameterMm) } : {}),
     ...(old.otherFindings ? { otherFindings: old.otherFindings } : {}),
     ...(old.signs ?? {}),
   };
