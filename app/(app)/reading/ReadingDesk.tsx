@@ -20,10 +20,21 @@ const SIGN_KEYS: Record<string, string> = {
 
 type Film = Omit<ReadingFilmProps, 'src'> & { src: string };
 
-export function ReadingDesk({ items: initial, scope, signs }: { items: QueueItem[]; scope: 'mine' | 'practice'; signs: { key: string; label: string }[] }) {
+export function ReadingDesk({
+  items: initial,
+  scope,
+  signs,
+  start,
+}: {
+  items: QueueItem[];
+  scope: 'mine' | 'practice';
+  signs: { key: string; label: string }[];
+  /** ?film=<id>: open that film first (a link from elsewhere). */
+  start?: string;
+}) {
   const router = useRouter();
   const [items, setItems] = useState(initial);
-  const [index, setIndex] = useState(0);
+  const [index, setIndex] = useState(() => Math.max(0, initial.findIndex((i) => i.filmId === start)));
   const [message, setMessage] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
   const item = items[index] ?? null;
   const next = useCallback(() => {

@@ -47,7 +47,7 @@ export default async function ReadingPage({ searchParams }: { searchParams: Prom
         {queue.counts['awaiting-adjudication']} adjudication; {queue.counts.agreed} agreed.
       </p>
       <Caution text={queue.caution} />
-      <ReadingDesk items={queue.items} scope={scope} signs={REVIEW_SIGNS.map((k) => ({ key: k, label: REVIEW_SIGN_LABELS[k] }))} />
+      <ReadingDesk items={queue.items} scope={scope} start={typeof sp.film === 'string' ? sp.film : undefined} signs={REVIEW_SIGNS.map((k) => ({ key: k, label: REVIEW_SIGN_LABELS[k] }))} />
     </div>
   );
 }
