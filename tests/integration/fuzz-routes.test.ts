@@ -11,6 +11,7 @@ import { templateCsv } from '@/lib/registry/csv';
 import { reviewTemplateCsv } from '@/lib/registry/review-csv';
 import { createCase } from '@/lib/services/cases';
 import { uploadFilm } from '@/lib/services/films';
+import { setReferenceFilm } from '@/lib/services/readings';
 import { createPatient } from '@/lib/services/patients';
 import { createReview } from '@/lib/services/reviews';
 import { answerReply } from '@/lib/services/recall-replies';
@@ -155,11 +156,11 @@ const SPECS: Record<string, RouteSpec> = {
   },
   'films/[id]/[variant]/route.ts#GET': { params: () => ({ id: ids.film!, variant: 'thumbnail' }) },
   'reading/queue/route.ts#GET': { query: ['scope'], baseQuery: { scope: 'practice' } },
-  'reading/blinded/[id]/route.ts#GET': { params: () => ({ id: ids.film! }) },
-  'reading/blinded/[id]/image/route.ts#GET': { params: () => ({ id: ids.film! }) },
+  'reading/blinded/[id]/route.ts#GET': { params: () => ({ id: ids.readingFilm! }) },
+  'reading/blinded/[id]/image/route.ts#GET': { params: () => ({ id: ids.readingFilm! }) },
   'reading/films/[id]/readings/route.ts#POST': {
-    params: () => ({ id: ids.film! }),
-    body: () => ({ kind: 'first', pai: 2, signs: { swelling: false } }),
+    params: () => ({ id: ids.readingFilm2! }),
+    body: () => ({ kind: 'reference-exercise', pai: 2, signs: { swelling: false } }),
     fields: ['signs.swelling', 'signs.sinusTract', 'signs.glow'],
   },
   'reading/reference/[id]/route.ts#PUT': { params: () => ({ id: ids.film! }), body: () => ({ pai: 3 }) },
@@ -452,6 +453,13 @@ beforeAll(async () => {
   await createReview(services.em(), p.clinician, worklistCase.id, { reviewDate: '2024-02-01', toothStatus: 'present', paiScore: 5, lesionDiameterMm: 5 });
   ids.worklistCase = worklistCase.id;
   ids.film = (await uploadFilm(services.em(), p.clinician, c.id, { role: 'post_fill' }, filmPngBytes)).film.id;
+  // Two follow-up films in the reference set: the fuzz actor (every role) has a calibration-exercise task on
+  // each, so the blinded routes (readingFilm) and the reading route (readingFilm2) reach their services.
+  for (const [key, seed] of [['readingFilm', 21], ['readingFilm2', 22]] as const) {
+    const bytes = new Uint8Array(await filmPng(drawRadiograph(40, 30, seed)));
+    ids[key] = (await uploadFilm(services.em(), p.clinician, c.id, { role: 'follow_up' }, bytes)).film.id;
+    await setReferenceFilm(services.em(), p.auditor, ids[key]!, { pai: 2 });
+  }
   // A real invitation, so the invitation form's fuzz reaches the database with a usable token.
   const invitee = `invitee.${Date.now()}@fuzz.test`;
   await inviteMember(services.em(), p.admin, { name: 'Invitee', email: invitee, roles: ['clinician'] });
