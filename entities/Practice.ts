@@ -37,6 +37,8 @@ export const PracticeSchema = defineEntity({
      * baseline is "uncertain", from it on "disease" (lib/scoring assessReview).
      */
     minObservationDays: p.smallint().default(365),
+    /** Share (%) of follow-up films read a second time, blinded, besides every "disease" (issue 13; default 20). */
+    secondReadingPercent: p.smallint().default(20),
     /** Shown in every patient message and calendar file (practice settings); optional. */
     address: p.string().length(300).nullable(),
     phone: p.string().length(40).nullable(),

@@ -6,6 +6,7 @@ import { CohortExportSchema } from './CohortExport';
 import { CohortVersionSchema } from './CohortVersion';
 import { ContactLogEntrySchema } from './ContactLogEntry';
 import { FilmSchema } from './Film';
+import { FilmReadingSchema } from './FilmReading';
 import { ImportMappingSchema } from './ImportMapping';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
@@ -13,6 +14,7 @@ import { OutcomesDataVersionSchema } from './OutcomesDataVersion';
 import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
+import { ReferenceFilmSchema } from './ReferenceFilm';
 import { ReferrerSchema } from './Referrer';
 import { ReminderSchema } from './Reminder';
 import { ReplyNonceSchema } from './ReplyNonce';
@@ -43,6 +45,8 @@ export const entities = [
   CohortSchema,
   CohortVersionSchema,
   CohortExportSchema,
+  FilmReadingSchema,
+  ReferenceFilmSchema,
 ];
 
 export * from './AuditEvent';
@@ -52,6 +56,7 @@ export * from './CohortExport';
 export * from './CohortVersion';
 export * from './ContactLogEntry';
 export * from './Film';
+export * from './FilmReading';
 export * from './ImportMapping';
 export * from './Invitation';
 export * from './Membership';
@@ -59,6 +64,7 @@ export * from './OutcomesDataVersion';
 export * from './Patient';
 export * from './Practice';
 export * from './RecallVisit';
+export * from './ReferenceFilm';
 export * from './Referrer';
 export * from './Reminder';
 export * from './ReplyNonce';

@@ -17,6 +17,7 @@ export interface NavItem {
 const NAV_ITEMS: NavItem[] = [
   { href: '/cases', label: 'Cases', permission: 'patient.read', description: 'Patients and their treated teeth, each with its recall plan and reviews.', match: ['/patients'] },
   { href: '/desk', label: 'Recall desk', permission: 'recall.manage', description: 'Who is due, who was invited, who replied, who is slipping away.' },
+  { href: '/reading', label: 'Reading', permission: 'reading.queue', description: 'Follow-up films to score: first readings, blinded second readings, adjudication.' },
   { href: '/outcomes', label: 'Outcomes', permission: 'outcomes.read', description: 'Healing and tooth survival of the practice’s treatments, by factor and over time.' },
   { href: '/cohorts', label: 'Cohorts', permission: 'cohort.export', description: 'Anonymised, analysis-ready exports of consenting patients’ cases.' },
   { href: '/team', label: 'Team', permission: 'team.read', description: 'People, roles and the audit trail.' },

@@ -109,6 +109,19 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     },
   },
   {
+    prefix: 'reading.',
+    label: 'Film readings',
+    actions: {
+      'reading.queue_read': 'Viewed the reading queue',
+      'reading.blinded_viewed': 'Opened a film for a blinded reading',
+      'reading.recorded': 'Recorded a film reading',
+      'reading.agreed': 'A film’s readings reached an agreed score',
+      'reading.reference_set': 'Put a film in the reference set (or changed its reference score)',
+      'reading.reference_removed': 'Took a film out of the reference set',
+      'reading.agreement_read': 'Viewed reader agreement and calibration',
+    },
+  },
+  {
     prefix: 'visit.',
     label: 'Recall visits',
     actions: {

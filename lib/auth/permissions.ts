@@ -44,6 +44,16 @@ export const PERMISSIONS = {
    * lead (auditor) reads the worklist. The service also limits it to the clinician who treated the case.
    */
   'outcomes.decide': ['clinician'],
+  /**
+   * The reading queue (issue 13): see the films waiting to be read, open a film for a reading task
+   * (the blinded routes check that the task is the reader's) and record a reading. Clinicians read;
+   * the lead sees the practice's queue for consensus entries and the reference set.
+   */
+  'reading.queue': ['clinician', 'auditor'],
+  /** Score films: first, blinded second, adjudication (third reader) and calibration-exercise readings. */
+  'reading.score': ['clinician'],
+  /** The lead's part of the reading: consensus entries, the reference set, agreement figures. */
+  'reading.lead': ['auditor'],
   /** Export anonymised cohorts for research. */
   'cohort.export': ['researcher'],
 } as const satisfies Record<string, readonly Role[]>;

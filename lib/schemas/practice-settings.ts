@@ -43,6 +43,13 @@ export const PracticeSettingsPatch = z
       .max(1461, 'At most 1461 days (four years, when a lesion still present is disease).')
       .optional(),
     contact: PracticeContactPatch.optional(),
+    /** Share (%) of follow-up films read a second time, blinded, besides every "disease" (issue 13). */
+    secondReadingPercent: z
+      .number({ error: 'Enter the second-reading share as a whole percentage.' })
+      .int('Enter a whole percentage.')
+      .min(0, 'The share cannot be below 0%.')
+      .max(100, 'The share cannot be above 100%.')
+      .optional(),
   })
   .refine((v) => Object.values(v).some((x) => x !== undefined), { message: 'Change at least one setting.', path: ['toothNotation'] });
 export type PracticeSettingsPatchInput = z.input<typeof PracticeSettingsPatch>;

@@ -16,6 +16,8 @@ export interface PracticeSettingsView {
   recallPolicy: RecallPolicy;
   /** Days before which an unchanged lesion is "uncertain" (lib/scoring assessReview). */
   minObservationDays: number;
+  /** Share (%) of follow-up films read a second time, blinded, besides every "disease" (issue 13). */
+  secondReadingPercent: number;
   /** Shown in every patient message and calendar file; null when not given. */
   contact: PracticeContact;
 }
@@ -36,6 +38,7 @@ export async function getPracticeSettings(em: EntityManager, actor: Actor): Prom
     timeZone: practice.timeZone,
     recallPolicy: recallPolicyOf(practice.recallPolicy),
     minObservationDays: practice.minObservationDays,
+    secondReadingPercent: practice.secondReadingPercent,
     contact: { address: practice.address ?? null, phone: practice.phone ?? null, contactEmail: practice.contactEmail ?? null },
   };
 }
@@ -58,11 +61,13 @@ export async function updatePracticeSettings(em: EntityManager, actor: Actor, ra
     phone: practice.phone ?? null,
     contactEmail: practice.contactEmail ?? null,
     minObservationDays: practice.minObservationDays,
+    secondReadingPercent: practice.secondReadingPercent,
   });
   const before = snapshot();
   if (patch.toothNotation) practice.toothNotation = patch.toothNotation;
   if (patch.recallPolicy) practice.recallPolicy = patch.recallPolicy;
   if (patch.minObservationDays !== undefined) practice.minObservationDays = patch.minObservationDays;
+  if (patch.secondReadingPercent !== undefined) practice.secondReadingPercent = patch.secondReadingPercent;
   if (patch.contact) {
     const c = patch.contact;
     if (c.address !== undefined) practice.address = c.address;

@@ -130,8 +130,21 @@ export async function createReview(
   caseId: string,
   raw: unknown,
   correction?: { supersedes: Review; reason: string },
-): Promise<{ review: ReviewView; visits: VisitView[]; currentOutcome: ReviewOutcome | null; caution: string }> {
+): Promise<ReviewRecorded> {
   assertCan(actor, 'review.write');
+  return recordReview(em, actor, caseId, raw, correction);
+}
+
+type ReviewRecorded = { review: ReviewView; visits: VisitView[]; currentOutcome: ReviewOutcome | null; caution: string };
+
+/** createReview without its permission check: for callers that checked their own (applyAgreedPai). */
+async function recordReview(
+  em: EntityManager,
+  actor: Actor,
+  caseId: string,
+  raw: unknown,
+  correction?: { supersedes: Review; reason: string },
+): Promise<ReviewRecorded> {
   const c = await findCase(em, actor, caseId);
   const body = raw && typeof raw === 'object' && !Array.isArray(raw) ? (raw as Record<string, unknown>) : {};
   const input = parseInput(ReviewCreateSchema, { ...body, caseId: c.id, assessorId: body.assessorId ?? actor.userId });
@@ -272,6 +285,33 @@ export async function correctReview(em: EntityManager, actor: Actor, caseId: str
     { ...body, visitId: old.visit?.id ?? undefined, assessorId: body.assessorId ?? old.assessor.id },
     { supersedes: old, reason },
   );
+}
+
+/**
+ * The agreed PAI of a film's readings (lib/reading/rules.ts, issue 13) becomes its review's score:
+ * when it differs from the current version's PAI, a correction (a new version, the earlier one kept
+ * and superseded) with the same findings and the agreed PAI, its outcome computed again by the same
+ * rules as every review. A review of an extracted/retreated/operated tooth, or already at that PAI,
+ * is left as it is (null). Called by the reading service, which checks the reader's permission
+ * (`reading.queue` here: a blinded second reader or the lead's consensus need not hold review.write).
+ */
+export async function applyAgreedPai(em: EntityManager, actor: Actor, reviewId: string, pai: number, reason: string): Promise<ReviewRecorded | null> {
+  assertCan(actor, 'reading.queue');
+  const old = await em.findOne(ReviewSchema, { id: assertId(reviewId, 'review'), practice: actor.practiceId });
+  if (!old) throw new NotFoundError('No such review.');
+  if (old.supersededBy || old.toothStatus !== 'present' || old.paiScore === pai) return null;
+  const body: Record<string, unknown> = {
+    visitId: old.visit?.id ?? undefined,
+    assessorId: old.assessor.id,
+    reviewDate: old.reviewDate,
+    toothStatus: old.toothStatus,
+    paiScore: pai,
+    // PAI 1 means no lesion: a diameter kept from the earlier version would contradict it
+    ...(old.lesionDiameterMm !== null && old.lesionDiameterMm !== undefined ? { lesionDiameterMm: pai === 1 ? 0 : Number(old.lesionDiameterMm) } : {}),
+    ...(old.otherFindings ? { otherFindings: old.otherFindings } : {}),
+    ...(old.signs ?? {}),
+  };
+  return recordReview(em, actor, old.case.id, body, { supersedes: old, reason });
 }
 
 /**

@@ -1,3 +1,5 @@
+import { zForLevel } from './distributions';
+
 export interface KappaResult {
   kappa: number;
   /** (weighted) proportion of agreement observed */
@@ -115,4 +117,58 @@ export function cohenKappa(pairs: readonly (readonly [number, number])[], opts: 
     Array.from({ length: k }, (_, j) => (weights === 'none' ? (i === j ? 0 : 1) : weights === 'linear' ? Math.abs(i - j) : (i - j) * (i - j))),
   );
   return weightedKappaFromTable(table, w);
+}
+
+export interface KappaInterval extends KappaResult {
+  /** Number of rated pairs. */
+  n: number;
+  /** Large-sample standard error of kappa (Fleiss, Cohen & Everitt 1969), not under the null. */
+  se: number;
+  /** Confidence limits kappa ± z·se (not clipped to [-1, 1]: reported as computed). */
+  lower: number;
+  upper: number;
+  level: number;
+}
+
+/**
+ * Cohen's kappa (unweighted, linear or quadratic weights) with its large-sample standard error
+ * and a Wald interval, as Fleiss, Cohen & Everitt (1969, Psychol Bull 72:323–327) give it and as
+ * statsmodels' `cohens_kappa(table, wt=…)` computes `std_kappa` / `kappa_low` / `kappa_upp`
+ * (checked in tests/reference/kappa-ci.test.ts). Pass `scale` ([1, 2, 3, 4, 5] for PAI) so the
+ * table, and so the weights' positions, cover the whole scale.
+ */
+export function cohenKappaInterval(pairs: readonly (readonly [number, number])[], opts: KappaOptions & { level?: number } = {}): KappaInterval {
+  const level = opts.level ?? 0.95;
+  const point = cohenKappa(pairs, opts);
+  const categories = opts.categories ?? (opts.scale ? [...opts.scale].sort((a, b) => a - b) : [...new Set(pairs.flat())].sort((a, b) => a - b));
+  const k = categories.length;
+  const index = new Map(categories.map((c, i) => [c, i]));
+  const n = pairs.length;
+  const p = Array.from({ length: k }, () => new Array<number>(k).fill(0));
+  for (const [a, b] of pairs) p[index.get(a)!]![index.get(b)!]! += 1 / n;
+  const weights = opts.weights ?? 'none';
+  // agreement weights in [0, 1]: 1 on the diagonal
+  const span = k - 1;
+  const w = Array.from({ length: k }, (_, i) =>
+    Array.from({ length: k }, (_, j) => {
+      if (weights === 'none' || span === 0) return i === j ? 1 : 0;
+      const d = Math.abs(i - j) / span;
+      return weights === 'linear' ? 1 - d : 1 - d * d;
+    }),
+  );
+  const rows = p.map((r) => r.reduce((a, b) => a + b, 0));
+  const cols = p[0]!.map((_, j) => p.reduce((a, r) => a + r[j]!, 0));
+  let pe = 0;
+  for (let i = 0; i < k; i++) for (let j = 0; j < k; j++) pe += w[i]![j]! * rows[i]! * cols[j]!;
+  const kappa = point.kappa;
+  const wRow = rows.map((_, i) => cols.reduce((a, c, j) => a + c * w[i]![j]!, 0));
+  const wCol = cols.map((_, j) => rows.reduce((a, r, i) => a + r * w[i]![j]!, 0));
+  let termA = 0;
+  for (let i = 0; i < k; i++) {
+    for (let j = 0; j < k; j++) termA += p[i]![j]! * (w[i]![j]! - (wRow[i]! + wCol[j]!) * (1 - kappa)) ** 2;
+  }
+  const variance = (termA - (kappa - pe * (1 - kappa)) ** 2) / ((1 - pe) ** 2 * n);
+  const se = Math.sqrt(Math.max(0, variance));
+  const z = zForLevel(level);
+  return { ...point, n, se, lower: kappa - z * se, upper: kappa + z * se, level };
 }

@@ -13,6 +13,7 @@ import { createCase } from '@/lib/services/cases';
 import { uploadFilm } from '@/lib/services/films';
 import { createCohort, downloadPath, saveCohortVersion, startCohortExport } from '@/lib/services/cohorts';
 import { putObject } from '@/lib/storage/s3';
+import { setReferenceFilm } from '@/lib/services/readings';
 import { createPatient } from '@/lib/services/patients';
 import { createReview } from '@/lib/services/reviews';
 import { answerReply } from '@/lib/services/recall-replies';
@@ -156,6 +157,16 @@ const SPECS: Record<string, RouteSpec> = {
     multipart: fieldsAndFile(() => ({ role: 'follow_up', visitId: ids.visit! }), () => filmPngBytes),
   },
   'films/[id]/[variant]/route.ts#GET': { params: () => ({ id: ids.film!, variant: 'thumbnail' }) },
+  'reading/queue/route.ts#GET': { query: ['scope'], baseQuery: { scope: 'practice' } },
+  'reading/blinded/[id]/route.ts#GET': { params: () => ({ id: ids.readingFilm! }) },
+  'reading/blinded/[id]/image/route.ts#GET': { params: () => ({ id: ids.readingFilm! }) },
+  'reading/films/[id]/readings/route.ts#POST': {
+    params: () => ({ id: ids.readingFilm2! }),
+    body: () => ({ kind: 'reference-exercise', pai: 2, signs: { swelling: false } }),
+    fields: ['signs.swelling', 'signs.sinusTract', 'signs.glow'],
+  },
+  'reading/reference/[id]/route.ts#PUT': { params: () => ({ id: ids.film! }), body: () => ({ pai: 3 }) },
+  'outcomes/agreement/route.ts#GET': {},
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream', 'validRowsOnly'], baseQuery: { mode: 'dry-run' }, csv: true },
   'cases/import/read/route.ts#POST': { multipart: importFileUpload() },
@@ -472,6 +483,13 @@ beforeAll(async () => {
   const exportRow = (await services.em().getKnex()('cohort_export').where({ id: exported.id }).update({ status: 'done', cases: 1 }).returning(['object_key'])) as { object_key: string }[];
   await putObject({ key: exportRow[0]!.object_key, body: new Uint8Array([80, 75, 5, 6, ...new Array(18).fill(0)]), contentType: 'application/zip' });
   ids.downloadToken = new URL(downloadPath(exported.id, actor.practiceId), 'http://x').searchParams.get('token')!;
+  // Two follow-up films in the reference set: the fuzz actor (every role) has a calibration-exercise task on
+  // each, so the blinded routes (readingFilm) and the reading route (readingFilm2) reach their services.
+  for (const [key, seed] of [['readingFilm', 21], ['readingFilm2', 22]] as const) {
+    const bytes = new Uint8Array(await filmPng(drawRadiograph(40, 30, seed)));
+    ids[key] = (await uploadFilm(services.em(), p.clinician, c.id, { role: 'follow_up' }, bytes)).film.id;
+    await setReferenceFilm(services.em(), p.auditor, ids[key]!, { pai: 2 });
+  }
   // A real invitation, so the invitation form's fuzz reaches the database with a usable token.
   const invitee = `invitee.${Date.now()}@fuzz.test`;
   await inviteMember(services.em(), p.admin, { name: 'Invitee', email: invitee, roles: ['clinician'] });

@@ -190,6 +190,27 @@ const VIEWS = [
   { href: '/outcomes/worklist', label: 'Non-healing worklist' },
 ] as const;
 
+/** The lead's tab (reading.lead): reader agreement and the calibration exercise (issue 13). */
+const LEAD_VIEWS = [{ href: '/outcomes/agreement', label: 'Reader agreement' }] as const;
+
+/** The outcome views' tab strip; `lead` adds the lead's tabs (the whole-practice view, not a clinician's own). */
+export function OutcomesTabs({ current, query = '', lead = false }: { current: string; query?: string; lead?: boolean }) {
+  return (
+    <nav aria-label="Outcome views" className="flex flex-wrap gap-2">
+      {[...VIEWS, ...(lead ? LEAD_VIEWS : [])].map((v) => (
+        <Link
+          key={v.href}
+          href={v.href === '/outcomes/agreement' ? v.href : `${v.href}${query}`}
+          aria-current={v.href === current ? 'page' : undefined}
+          className={`rounded-md border px-3 py-1 text-sm no-underline ${v.href === current ? 'border-dura-700 bg-dura-700 font-semibold text-white' : 'border-bone-300'}`}
+        >
+          {v.label}
+        </Link>
+      ))}
+    </nav>
+  );
+}
+
 type CsvView = 'overview' | 'factor' | 'curves' | 'model' | 'funnel' | 'worklist';
 /** Where a view's "Download this table (CSV)" points: the export route, or the view's own route (the funnel, the worklist). */
 function csvHref(view: CsvView, filters: Record<string, string>): string {
@@ -251,18 +272,7 @@ export function OutcomesHeader({
           <ReportButton filters={filters} />
         </div>
       </div>
-      <nav aria-label="Outcome views" className="flex flex-wrap gap-2">
-        {VIEWS.map((v) => (
-          <Link
-            key={v.href}
-            href={`${v.href}${queryOf(keep)}`}
-            aria-current={v.href === current ? 'page' : undefined}
-            className={`rounded-md border px-3 py-1 text-sm no-underline ${v.href === current ? 'border-dura-700 bg-dura-700 font-semibold text-white' : 'border-bone-300'}`}
-          >
-            {v.label}
-          </Link>
-        ))}
-      </nav>
+      <OutcomesTabs current={current} query={queryOf(keep)} lead={!own} />
       <form method="get" action={current} aria-label="Filter the outcomes" className="card grid gap-4 sm:grid-cols-2 lg:grid-cols-5">
         {(['factor', 'endpoint', 'method', 'covariates', 'lesionAs', 'paiAs', 'measure', 'adjust'] as const).map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
         {Object.entries(filters).map(([k, v]) => isLevelKey(k) && <input key={k} type="hidden" name={k} value={v} />)}
