@@ -6,6 +6,7 @@ import { FilmSchema } from './Film';
 import { ImportMappingSchema } from './ImportMapping';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
+import { OutcomesDataChangeSchema } from './OutcomesDataChange';
 import { OutcomesDataVersionSchema } from './OutcomesDataVersion';
 import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
@@ -35,6 +36,7 @@ export const entities = [
   ReplyNonceSchema,
   CaseDecisionSchema,
   OutcomesDataVersionSchema,
+  OutcomesDataChangeSchema,
   FilmSchema,
   ImportMappingSchema,
 ];
@@ -46,6 +48,7 @@ export * from './Film';
 export * from './ImportMapping';
 export * from './Invitation';
 export * from './Membership';
+export * from './OutcomesDataChange';
 export * from './OutcomesDataVersion';
 export * from './Patient';
 export * from './Practice';
