@@ -150,15 +150,21 @@ async function refresh(em: EntityManager, practiceId: string, old: Entry | null,
 const MAX_VIEWS = 128;
 const views = new Map<string, unknown>();
 /** The most recently asked views per practice (key → how to compute it), for the warmer. */
-const MAX_RECIPES = 24;
-const recipes = new Map<string, Map<string, (rows: OutcomeCase[]) => unknown>>();
+const MAX_RECIPES = 32;
+/** Views not asked for this long are not warmed. */
+const RECENT_MS = 30 * 60 * 1000;
+interface Recipe {
+  compute: (rows: OutcomeCase[]) => unknown;
+  at: number;
+}
+const recipes = new Map<string, Map<string, Recipe>>();
 
 export function memoView<T>(practiceId: string, version: string, key: readonly unknown[], rows: OutcomeCase[], compute: (rows: OutcomeCase[]) => T): T {
   const id = JSON.stringify(key);
   let mine = recipes.get(practiceId);
   if (!mine) recipes.set(practiceId, (mine = new Map()));
   mine.delete(id);
-  mine.set(id, compute);
+  mine.set(id, { compute, at: Date.now() });
   while (mine.size > MAX_RECIPES) mine.delete(mine.keys().next().value!);
   const k = `${practiceId}@${version}:${id}`;
   if (views.has(k)) {
@@ -182,9 +188,10 @@ export function memoView<T>(practiceId: string, version: string, key: readonly u
 export async function warmOutcomes(em: EntityManager, practiceId: string, reader: OutcomeReader): Promise<number> {
   const version = await outcomesDataVersion(em, practiceId);
   const { rows } = await rowsAt(em, practiceId, version, reader);
-  const mine = [...(recipes.get(practiceId) ?? new Map<string, (rows: OutcomeCase[]) => unknown>()).entries()].reverse();
+  const since = Date.now() - RECENT_MS;
+  const mine = [...(recipes.get(practiceId) ?? new Map<string, Recipe>()).entries()].filter(([, r]) => r.at >= since).reverse();
   let computed = 0;
-  for (const [id, compute] of mine) {
+  for (const [id, { compute }] of mine) {
     const k = `${practiceId}@${version}:${id}`;
     if (cache.get(practiceId)?.version !== version) break; // a newer version arrived: the next round warms it
     if (views.has(k)) continue;
