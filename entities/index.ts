@@ -10,6 +10,7 @@ import { FilmReadingSchema } from './FilmReading';
 import { ImportMappingSchema } from './ImportMapping';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
+import { OutcomesDataChangeSchema } from './OutcomesDataChange';
 import { OutcomesDataVersionSchema } from './OutcomesDataVersion';
 import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
@@ -40,6 +41,7 @@ export const entities = [
   ReplyNonceSchema,
   CaseDecisionSchema,
   OutcomesDataVersionSchema,
+  OutcomesDataChangeSchema,
   FilmSchema,
   ImportMappingSchema,
   CohortSchema,
@@ -60,6 +62,7 @@ export * from './FilmReading';
 export * from './ImportMapping';
 export * from './Invitation';
 export * from './Membership';
+export * from './OutcomesDataChange';
 export * from './OutcomesDataVersion';
 export * from './Patient';
 export * from './Practice';

@@ -60,6 +60,12 @@ export const EnvSchema = z
     S3_SECRET_ACCESS_KEY: z.string().min(1).default('S3RVER'),
     /** The largest film file accepted for upload, in MB (lib/services/films.ts filmMaxBytes; a larger one is 413). */
     FILM_MAX_MB: z.coerce.number().int().positive().max(60, 'FILM_MAX_MB is at most 60 (next.config.mjs proxyClientMaxBodySize is 64 MB)').default(40),
+    /**
+     * The outcomes area's warmer (lib/services/outcomes-warm.ts): every this many ms the web server
+     * checks whether its cached practices' data changed and, if so, refreshes their rows and the views
+     * recently asked in the background; 0 turns it (and the read at start) off.
+     */
+    OUTCOMES_WARM_MS: z.coerce.number().int().min(0).default(2000),
   })
   .transform((e, ctx) => {
     // `next build` evaluates modules without the runtime secret; the running server must have one.

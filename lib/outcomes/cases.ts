@@ -89,7 +89,9 @@ interface CaseMemo {
 /** Kept on the case object under a symbol (invisible to JSON and Object.keys; faster than a WeakMap at 100,000 cases). */
 const MEMO = Symbol('outcomes memo');
 const COMPLETION_DAY = Symbol('completion day');
-type Memoised = OutcomeCase & { [MEMO]?: CaseMemo; [COMPLETION_DAY]?: number };
+/** The tooth-loss observation from this case and the case objects that followed it on the tooth when it was computed (toothLossFrom). */
+const CHAIN = Symbol('tooth-loss memo');
+type Memoised = OutcomeCase & { [MEMO]?: CaseMemo; [COMPLETION_DAY]?: number; [CHAIN]?: { minObs: number; followers: OutcomeCase[]; loss: Interval } };
 function memoOf(c: OutcomeCase, minObs: number): CaseMemo {
   const x = c as Memoised;
   let m = x[MEMO];
@@ -212,15 +214,26 @@ export function toothLossFrom(c: OutcomeCase, all: readonly OutcomeCase[], minOb
   const hit = memo.loss.get(c);
   if (hit) return hit;
   const next = memo.next;
-  const reviews: RecordedReview[] = [...c.reviews];
+  const followers: OutcomeCase[] = [];
   const seen = new Set([c.id]);
   for (let n = next.get(c.id); n && !seen.has(n.id); n = next.get(n.id)) {
     seen.add(n.id);
-    reviews.push(...n.reviews.filter((r) => r.reviewDate >= c.completionDate));
+    followers.push(n);
   }
+  // the same case objects as when last computed (another `all` of a newer data version in which this
+  // tooth's cases did not change): the same observation
+  const x = c as Memoised;
+  const kept = x[CHAIN];
+  if (kept && kept.minObs === minObservationDays && kept.followers.length === followers.length && kept.followers.every((f, i) => f === followers[i])) {
+    memo.loss.set(c, kept.loss);
+    return kept.loss;
+  }
+  const reviews: RecordedReview[] = [...c.reviews];
+  for (const n of followers) reviews.push(...n.reviews.filter((r) => r.reviewDate >= c.completionDate));
   reviews.sort((a, b) => (a.reviewDate < b.reviewDate ? -1 : a.reviewDate > b.reviewDate ? 1 : 0));
   const loss = caseObservations(recordedHistory({ completionDate: c.completionDate, baselinePai: c.baselinePai }, reviews), { minObservationDays }).toothLoss;
   memo.loss.set(c, loss);
+  Object.defineProperty(x, CHAIN, { value: { minObs: minObservationDays, followers, loss }, writable: true, enumerable: false, configurable: true });
   return loss;
 }
 

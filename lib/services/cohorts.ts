@@ -16,7 +16,7 @@ import { deriveDownloadKey, DOWNLOAD_LINK_TTL_SECONDS, signDownloadToken, verify
 import { audit } from './audit';
 import { cohortExportsProducer, cohortObjectKey } from './cohort-export';
 import { ConflictError, NotFoundError, ServiceError, ValidationError } from './errors';
-import { readOutcomeCases } from './outcomes';
+import { OUTCOME_READER } from './outcomes';
 import { cachedOutcomeCases } from './outcomes-cache';
 import { parseInput } from './parse';
 import { isUuid, knexOf, practiceSettings } from './registry-common';
@@ -101,7 +101,7 @@ export async function countCohort(em: EntityManager, actor: Actor, raw: unknown)
   const filters = await parseCohortFilters(em, actor.practiceId, raw);
   const [settings, { rows }, consents, codes] = await Promise.all([
     practiceSettings(em, actor.practiceId),
-    cachedOutcomeCases(em, actor.practiceId, readOutcomeCases),
+    cachedOutcomeCases(em, actor.practiceId, OUTCOME_READER),
     researchConsents(em, actor.practiceId),
     clinicianCodes(em, actor.practiceId),
   ]);

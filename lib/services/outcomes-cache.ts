@@ -1,26 +1,44 @@
 import 'server-only';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { OutcomeCase } from '@/lib/outcomes';
+import { swapRows } from '@/lib/outcomes/swap';
 import { knexOf } from './registry-common';
 
 /**
  * The outcomes area's rows, kept per practice between requests (issue 12, performance).
  *
- * Reading 100,000 cases with their reviews takes about a second or more; every outcomes view
- * needs all of them. So each web instance keeps the last rows it read per practice together with
- * the practice's **data version** (table outcomes_data_version), which database triggers bump in
- * the same transaction as every statement that changes the practice's cases, reviews, recall
- * visits or patients (migrations/Migration20261202180000.ts). A request reads the version (one
- * primary-key lookup) and reuses the rows when it is unchanged; otherwise it reads them again.
- * Correct with several web instances: each checks the database's version, none trusts its own.
+ * Reading 100,000 cases with their reviews takes seconds; every outcomes view needs all of them.
+ * So each web instance keeps the last rows it read per practice together with the practice's
+ * **data version** (table outcomes_data_version), which database triggers bump in the same
+ * transaction as every statement that changes the practice's cases, reviews, recall visits or
+ * patients (migrations/Migration20261202180000.ts). A request reads the version (one primary-key
+ * lookup) and reuses the rows when it is unchanged. Correct with several web instances: each
+ * checks the database's version, none trusts its own.
  *
- * The version is read BEFORE the rows: a change committed in between gives rows newer than their
- * version, which only costs a re-read next time (never rows older than their version). Requests
- * that find the same stale version share one read. The rows (and what lib/outcomes memoises on
- * them) are never changed after the read. At most MAX_PRACTICES practices are kept (the least
- * recently used goes).
+ * **Incremental refresh** (Migration20261202230000): the triggers also write which cases (or
+ * patients) each version changed (table outcomes_data_change). When the version moved on, the
+ * cache reads the changes between its version and the new one and, when every version in between
+ * is there, none says "everything" (a bulk statement, a TRUNCATE) and at most MAX_CHANGED cases
+ * and patients changed, re-reads only those cases (`OutcomeReader.some`: the same query, limited
+ * to the cases and the patients' cases) and swaps them into a copy of the rows (unchanged case
+ * objects are kept, with what lib/outcomes memoised on them; removed ones dropped; the order of
+ * the full read kept). Otherwise it reads everything again.
+ *
+ * The version is read BEFORE the changes and the rows: a change committed in between gives rows
+ * newer than their version, which only costs a second re-read of those cases next time (never
+ * rows older than their version). Requests that find the same stale version share one read. The
+ * rows (and what lib/outcomes memoises on them) are never changed after the read. At most
+ * MAX_PRACTICES practices are kept (the least recently used goes).
  */
 const MAX_PRACTICES = 4;
+/** More changed cases and patients than this since the cached version: read everything again. */
+export const MAX_CHANGED = 2000;
+
+/** How the rows are read: every completed case of a practice, or those among some cases and the cases of some patients (lib/services/outcomes.ts). */
+export interface OutcomeReader {
+  all: (em: EntityManager, practiceId: string) => Promise<OutcomeCase[]>;
+  some: (em: EntityManager, practiceId: string, caseIds: readonly string[], patientIds: readonly string[]) => Promise<OutcomeCase[]>;
+}
 
 interface Entry {
   version: string;
@@ -29,18 +47,34 @@ interface Entry {
 const cache = new Map<string, Entry>();
 const reading = new Map<string, Promise<Entry>>();
 
+/** How the last refresh went (the benchmark and the tests read it). */
+export interface RefreshInfo {
+  practiceId: string;
+  from: string | null;
+  to: string;
+  kind: 'full' | 'partial';
+  /** why a full read: 'empty' (nothing cached), 'gap' (a version's changes missing), 'bulk', 'many' */
+  reason?: 'empty' | 'gap' | 'bulk' | 'many';
+  changedCases: number;
+  changedPatients: number;
+  ms: number;
+}
+let lastRefresh: RefreshInfo | null = null;
+export const lastOutcomesRefresh = (): RefreshInfo | null => lastRefresh;
+
 export async function outcomesDataVersion(em: EntityManager, practiceId: string): Promise<string> {
   const row = (await knexOf(em).select('version').from('outcomes_data_version').where({ practice_id: practiceId }).first()) as { version: string | number } | undefined;
   return String(row?.version ?? 0);
 }
 
-/** The practice's rows and their data version, from the cache when the version is unchanged, else from `read`. */
-export async function cachedOutcomeCases(
-  em: EntityManager,
-  practiceId: string,
-  read: (em: EntityManager, practiceId: string) => Promise<OutcomeCase[]>,
-): Promise<{ rows: OutcomeCase[]; version: string }> {
+/** The practice's rows and their data version, from the cache when the version is unchanged, else refreshed through `reader`. */
+export async function cachedOutcomeCases(em: EntityManager, practiceId: string, reader: OutcomeReader): Promise<{ rows: OutcomeCase[]; version: string }> {
   const version = await outcomesDataVersion(em, practiceId);
+  return rowsAt(em, practiceId, version, reader);
+}
+
+/** The rows at `version` (just read from the database). */
+function rowsAt(em: EntityManager, practiceId: string, version: string, reader: OutcomeReader): Promise<Entry> | Entry {
   const hit = cache.get(practiceId);
   if (hit && hit.version === version) {
     cache.delete(practiceId); // most recently used last
@@ -50,7 +84,7 @@ export async function cachedOutcomeCases(
   const key = `${practiceId}@${version}`;
   let pending = reading.get(key);
   if (!pending) {
-    pending = read(em, practiceId)
+    pending = refresh(em, practiceId, hit ?? null, version, reader)
       .then((rows) => {
         const entry = { version, rows };
         const current = cache.get(practiceId);
@@ -68,31 +102,148 @@ export async function cachedOutcomeCases(
   return pending;
 }
 
+interface ChangeSummary {
+  versions: string | number;
+  bulk: string | number;
+  cases: string[] | null;
+  patients: string[] | null;
+}
+
+async function refresh(em: EntityManager, practiceId: string, old: Entry | null, version: string, reader: OutcomeReader): Promise<OutcomeCase[]> {
+  const t0 = performance.now();
+  const done = (rows: OutcomeCase[], info: Omit<RefreshInfo, 'practiceId' | 'from' | 'to' | 'ms'>) => {
+    lastRefresh = { practiceId, from: old?.version ?? null, to: version, ms: performance.now() - t0, ...info };
+    return rows;
+  };
+  const full = async (reason: RefreshInfo['reason']) => done(await reader.all(em, practiceId), { kind: 'full', reason, changedCases: 0, changedPatients: 0 });
+  if (!old) return full('empty');
+  if (BigInt(old.version) >= BigInt(version)) return full('gap');
+  const from = BigInt(old.version);
+  const summary = (
+    await knexOf(em).raw(
+      `select count(distinct version) as versions,
+              count(*) filter (where case_id is null and patient_id is null) as bulk,
+              array_agg(distinct case_id) filter (where case_id is not null) as cases,
+              array_agg(distinct patient_id) filter (where patient_id is not null) as patients
+         from outcomes_data_change where practice_id = ? and version > ? and version <= ?`,
+      [practiceId, old.version, version],
+    )
+  ).rows[0] as ChangeSummary;
+  if (BigInt(summary.versions) !== BigInt(version) - from) return full('gap');
+  if (Number(summary.bulk) > 0) return full('bulk');
+  const cases = summary.cases ?? [];
+  const patients = summary.patients ?? [];
+  if (cases.length + patients.length > MAX_CHANGED) return full('many');
+  const fresh = await reader.some(em, practiceId, cases, patients);
+  return done(swapRows(old.rows, fresh, cases, patients), { kind: 'partial', changedCases: cases.length, changedPatients: patients.length });
+}
+
 /**
  * A view's figures computed from the rows of one data version, kept for the next request that asks
  * the same (key: the view, the effective filter and options, today, the minimum observation time).
- * The figures are plain data that callers must not change (copy before renaming levels). At most
- * MAX_VIEWS (128; a curves view is about 200 KB) are kept, the least recently used going first; a new data version makes old keys
+ * `compute` gets the rows and must depend on nothing else that is not in the key: the warmer
+ * (warmOutcomes) runs it again on the rows of a newer version. The figures are plain data that
+ * callers must not change (copy before renaming levels). At most MAX_VIEWS (128; a curves view is
+ * about 200 KB) are kept, the least recently used going first; a new data version makes old keys
  * unreachable (and they age out).
  */
 const MAX_VIEWS = 128;
 const views = new Map<string, unknown>();
-export function memoView<T>(practiceId: string, version: string, key: readonly unknown[], compute: () => T): T {
-  const k = `${practiceId}@${version}:${JSON.stringify(key)}`;
+/** The most recently asked views per practice (key → how to compute it), for the warmer. */
+const MAX_RECIPES = 32;
+/** Views not asked for this long are not warmed. */
+const RECENT_MS = 30 * 60 * 1000;
+interface Recipe {
+  compute: (rows: OutcomeCase[]) => unknown;
+  at: number;
+}
+const recipes = new Map<string, Map<string, Recipe>>();
+
+export function memoView<T>(practiceId: string, version: string, key: readonly unknown[], rows: OutcomeCase[], compute: (rows: OutcomeCase[]) => T): T {
+  const id = JSON.stringify(key);
+  let mine = recipes.get(practiceId);
+  if (!mine) recipes.set(practiceId, (mine = new Map()));
+  mine.delete(id);
+  mine.set(id, { compute, at: Date.now() });
+  while (mine.size > MAX_RECIPES) mine.delete(mine.keys().next().value!);
+  const k = `${practiceId}@${version}:${id}`;
   if (views.has(k)) {
     const v = views.get(k) as T;
     views.delete(k);
     views.set(k, v);
     return v;
   }
-  const v = compute();
+  const v = compute(rows);
   views.set(k, v);
   while (views.size > MAX_VIEWS) views.delete(views.keys().next().value!);
   return v;
 }
 
+/**
+ * Bring a practice's cache up to the database's current version and compute again, on the new
+ * rows, the views most recently asked (newest first), yielding to requests between views: run in
+ * the background after a write (startOutcomesWarmer) and at start, so a user rarely meets a cold
+ * read or a cold view. Returns how many views it computed.
+ */
+export async function warmOutcomes(em: EntityManager, practiceId: string, reader: OutcomeReader): Promise<number> {
+  const version = await outcomesDataVersion(em, practiceId);
+  const { rows } = await rowsAt(em, practiceId, version, reader);
+  const since = Date.now() - RECENT_MS;
+  const mine = [...(recipes.get(practiceId) ?? new Map<string, Recipe>()).entries()].filter(([, r]) => r.at >= since).reverse();
+  let computed = 0;
+  for (const [id, { compute }] of mine) {
+    const k = `${practiceId}@${version}:${id}`;
+    if (cache.get(practiceId)?.version !== version) break; // a newer version arrived: the next round warms it
+    if (views.has(k)) continue;
+    await new Promise((r) => setImmediate(r));
+    if (views.has(k)) continue;
+    views.set(k, compute(rows));
+    while (views.size > MAX_VIEWS) views.delete(views.keys().next().value!);
+    computed++;
+  }
+  return computed;
+}
+
+/** The practices whose rows this instance keeps, with their cached versions. */
+export const cachedPractices = (): { practiceId: string; version: string }[] => [...cache.entries()].map(([practiceId, e]) => ({ practiceId, version: e.version }));
+
+/**
+ * Every `everyMs`, compare the cached practices' versions with the database's (one query) and warm
+ * those that moved on (warmOutcomes), one round at a time. The timer does not keep the process
+ * alive. Returns a stop function.
+ */
+export function startOutcomesWarmer(getEm: () => Promise<EntityManager>, reader: OutcomeReader, everyMs: number, onError: (e: unknown) => void): () => void {
+  let busy = false;
+  const tick = async () => {
+    if (busy) return;
+    busy = true;
+    try {
+      const held = cachedPractices();
+      if (!held.length) return;
+      const em = await getEm();
+      const now = (await knexOf(em).select('practice_id', 'version').from('outcomes_data_version').whereIn('practice_id', held.map((h) => h.practiceId))) as { practice_id: string; version: string | number }[];
+      for (const h of held) {
+        const v = now.find((r) => r.practice_id === h.practiceId);
+        if (v && String(v.version) !== h.version) await warmOutcomes(await getEm(), h.practiceId, reader);
+      }
+    } catch (e) {
+      onError(e);
+    } finally {
+      busy = false;
+    }
+  };
+  const timer = setInterval(() => void tick(), everyMs);
+  timer.unref?.();
+  return () => clearInterval(timer);
+}
+
 /** Forget every cached practice and view (the benchmark's cold requests; tests). */
 export function invalidateOutcomeCases(): void {
   cache.clear();
+  views.clear();
+}
+
+/** Forget the figures computed for every version but keep the rows (the benchmark: the first request of a filter). */
+export function forgetOutcomeViews(): void {
   views.clear();
 }

@@ -60,7 +60,7 @@ export interface FunnelReport {
 export function funnelOfScope(s: Scope, measure: FunnelMeasure, adjust: 'crude' | 'adjusted', actorId: string): FunnelReport {
   // every clinician of the period and kind; kept per data version like the other views (lib/services/outcomes-cache.ts)
   const practiceFilter = { ...s.filter, clinician: undefined };
-  const f = s.memo(['funnel', practiceFilter, measure], () => funnel(applyFilter(s.all, practiceFilter), measure, s.minObs));
+  const f = s.memo(['funnel', practiceFilter, measure], (all) => funnel(applyFilter(all, practiceFilter), measure, s.minObs));
   const names = new Map(s.clinicians.map((c) => [c.id, c.name]));
   let other = 0;
   const points: FunnelPoint[] = f.units.map((u) => {

@@ -35,8 +35,8 @@ async function compute(em: EntityManager, actor: Actor, raw: unknown) {
   // open factors' levels (clinician and referrer ids) shown by name, as in the factor view
   const namers = { clinician: levelNamer(s, 'clinician')!, referrer: levelNamer(s, 'referrer')! };
   const choices = covariateChoices(q);
-  const result = s.memo(['model', s.filter, choices, q.endpoint, s.clinicians, s.referrers], () =>
-    multivariable(applyFilter(s.all, s.filter), s.all, choices, {
+  const result = s.memo(['model', s.filter, choices, q.endpoint, s.clinicians, s.referrers], (all) =>
+    multivariable(applyFilter(all, s.filter), all, choices, {
       endpoint: q.endpoint,
       minObs: s.minObs,
       levelName: (key, level) => (key === 'clinician' || key === 'referrer' ? namers[key](level) : level),

@@ -167,10 +167,10 @@ async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Pro
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
   // the rule's entries (and their completion dates) are kept per data version like the other views' figures
-  const { entries, completion } = s.memo(['worklist', s.filter], () => {
-    const listed = worklistEntries(applyFilter(s.all, s.filter), s.all, s.today, s.minObs);
+  const { entries, completion } = s.memo(['worklist', s.filter], (all) => {
+    const listed = worklistEntries(applyFilter(all, s.filter), all, s.today, s.minObs);
     const ids = new Set(listed.map((e) => e.caseId));
-    return { entries: listed, completion: new Map(s.all.filter((c) => ids.has(c.id)).map((c) => [c.id, c.completionDate])) };
+    return { entries: listed, completion: new Map(all.filter((c) => ids.has(c.id)).map((c) => [c.id, c.completionDate])) };
   });
   const details = await readDetails(em, actor.practiceId, entries.map((e) => e.caseId));
   const decisionOf = new Map<string, WorklistDecisionView | null>();

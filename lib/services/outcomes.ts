@@ -7,7 +7,7 @@ import { applyFilter, byFactor, curves, type CurveMethod, type Curves, type Endp
 import type { RecordedReview } from '@/lib/scoring';
 import { levelParams, OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
-import { cachedOutcomeCases, memoView } from './outcomes-cache';
+import { cachedOutcomeCases, memoView, type OutcomeReader } from './outcomes-cache';
 import { parseInput } from './parse';
 import { knexOf, practiceSettings, todayIn } from './registry-common';
 
@@ -72,6 +72,19 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
   return rows.map(outcomeCaseOf);
 }
 
+/**
+ * The rows of readOutcomeCases among some cases and the cases of some patients (the same query
+ * and rules, limited): what the cache re-reads after a change (lib/services/outcomes-cache.ts).
+ */
+export async function readSomeOutcomeCases(em: EntityManager, practiceId: string, caseIds: readonly string[], patientIds: readonly string[]): Promise<OutcomeCase[]> {
+  if (!caseIds.length && !patientIds.length) return [];
+  const rows = await readRows(knexOf(em), practiceId, { caseIds, patientIds });
+  return rows.map(outcomeCaseOf);
+}
+
+/** How the cache reads the rows. */
+export const OUTCOME_READER: OutcomeReader = { all: readOutcomeCases, some: readSomeOutcomeCases };
+
 /** A row of outcomeCaseColumns as lib/outcomes reads it (the cohort export's reader uses it too). */
 export function outcomeCaseOf(r: CaseRow): OutcomeCase {
   return {
@@ -124,8 +137,8 @@ export function outcomeCaseColumns(knex: Knex) {
   ];
 }
 
-async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
-  return (await knex
+async function readRows(knex: Knex, practiceId: string, only?: { caseIds: readonly string[]; patientIds: readonly string[] }): Promise<CaseRow[]> {
+  const q = knex
     .select(...outcomeCaseColumns(knex))
     .from('treatment_case as c')
     .join('patient as p', 'p.id', 'c.patient_id')
@@ -133,7 +146,9 @@ async function readRows(knex: Knex, practiceId: string): Promise<CaseRow[]> {
     .whereNull('c.archived_at')
     .whereNull('p.archived_at')
     .whereNotNull('c.completion_date')
-    .orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }])) as CaseRow[];
+    .orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }]);
+  if (only) q.where((b) => b.whereIn('c.id', [...only.caseIds]).orWhereIn('c.patient_id', [...only.patientIds]));
+  return (await q) as CaseRow[];
 }
 
 /** Whether the actor sees every clinician's cases (the lead) or only their own (a clinician). */
@@ -156,21 +171,25 @@ export interface Scope {
   referrers: { id: string; name: string }[];
   /** the practice's data version the rows are from (lib/services/outcomes-cache.ts) */
   version: string;
-  /** a view's figures, kept for this data version, today and minimum observation time under `key` (the result must not be changed) */
-  memo: <T>(key: readonly unknown[], compute: () => T) => T;
+  /**
+   * A view's figures, kept for this data version, today and minimum observation time under `key`
+   * (the result must not be changed). `compute` gets the rows (`all`) and must use nothing else
+   * that is not in the key: the warmer runs it again on a newer version's rows (outcomes-cache.ts).
+   */
+  memo: <T>(key: readonly unknown[], compute: (all: OutcomeCase[]) => T) => T;
 }
 
 export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQuery): Promise<Scope> {
   assertCan(actor, 'outcomes.read');
   const whole = seesWholePractice(actor);
   // the rows come from the per-practice cache while the practice's data version is unchanged
-  const [settings, { rows: all, version }, referrers] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, readOutcomeCases), practiceReferrers(em, actor)]);
+  const [settings, { rows: all, version }, referrers] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, OUTCOME_READER), practiceReferrers(em, actor)]);
   const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId, levels: q.levels };
   const today = todayIn(settings.timeZone);
   const minObs = settings.minObservationDays;
-  const memo = <T>(key: readonly unknown[], compute: () => T): T => memoView(actor.practiceId, version, [...key, today, minObs], compute);
+  const memo = <T>(key: readonly unknown[], compute: (all: OutcomeCase[]) => T): T => memoView(actor.practiceId, version, [...key, today, minObs], all, compute);
   // who treated the practice's cases, from the rows (kept per data version) rather than a scan of the cases
-  const operators = memoView(actor.practiceId, version, ['operators'], () => [...new Set(all.map((c) => c.operatorId))]);
+  const operators = memoView(actor.practiceId, version, ['operators'], all, (rows) => [...new Set(rows.map((c) => c.operatorId))]);
   const clinicians = whole ? await practiceClinicians(em, actor, operators) : [{ id: actor.userId, name: actor.name ?? actor.email }];
   return { filter, own: !whole, today, timeZone: settings.timeZone, minObs, all, clinicians, referrers, version, memo };
 }
@@ -227,7 +246,7 @@ export interface OverviewReport {
 
 /** The overview of a scope's filter and, for a clinician, of the practice overall (same filter, every clinician); kept per data version (no audit: callers audit). */
 export function overviewOfScope(s: Scope): { overview: Overview; practice: Overview | null } {
-  const of = (f: OutcomeFilter) => s.memo(['overview', f], () => overview(applyFilter(s.all, f), s.all, s.today, s.minObs));
+  const of = (f: OutcomeFilter) => s.memo(['overview', f], (all) => overview(applyFilter(all, f), all, s.today, s.minObs));
   return { overview: of(s.filter), practice: s.own ? of({ ...s.filter, clinician: undefined }) : null };
 }
 
@@ -278,13 +297,13 @@ export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unk
  * version and filter, with the names in the key. The factor view and the printed report both use it.
  */
 export function factorTableOfScope(s: Scope, factor: FactorKey): FactorTable {
-  return s.memo(['factor', s.filter, factor, namesOf(s, factor)], () => byFactor(applyFilter(s.all, s.filter), factor, s.minObs, levelNamer(s, factor)));
+  return s.memo(['factor', s.filter, factor, namesOf(s, factor)], (all) => byFactor(applyFilter(all, s.filter), factor, s.minObs, levelNamer(s, factor)));
 }
 
 /** The survival curves of a scope's filter, per level of `factor` (its open levels named), kept per data version (no audit: callers audit). */
 function curvesOfScope(s: Scope, o: { endpoint: Endpoint; method: CurveMethod; factor: FactorKey | null; stratum: FactorKey | null }): Curves {
-  return s.memo(['curves', s.filter, o.endpoint, o.method, o.factor, o.stratum, namesOf(s, o.factor)], () =>
-    curves(applyFilter(s.all, s.filter), s.all, { ...o, minObs: s.minObs, levelName: levelNamer(s, o.factor) }),
+  return s.memo(['curves', s.filter, o.endpoint, o.method, o.factor, o.stratum, namesOf(s, o.factor)], (all) =>
+    curves(applyFilter(all, s.filter), all, { ...o, minObs: s.minObs, levelName: levelNamer(s, o.factor) }),
   );
 }
 

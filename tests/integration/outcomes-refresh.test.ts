@@ -1,0 +1,166 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
+import { createCase, updateCase } from '@/lib/services/cases';
+import { archivePatient, createPatient } from '@/lib/services/patients';
+import { outcomesByFactor, outcomesCsv, outcomesCurves, outcomesOverview, OUTCOME_READER, readOutcomeCases } from '@/lib/services/outcomes';
+import { cachedOutcomeCases, invalidateOutcomeCases, lastOutcomesRefresh, warmOutcomes } from '@/lib/services/outcomes-cache';
+import { outcomesFunnel } from '@/lib/services/outcomes-funnel';
+import { outcomesModel } from '@/lib/services/outcomes-model';
+import { outcomesReportData } from '@/lib/services/outcomes-report';
+import { outcomesWorklist } from '@/lib/services/outcomes-worklist';
+import { todayIn } from '@/lib/services/registry-common';
+import { createReview } from '@/lib/services/reviews';
+import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
+import { completedOn } from '../support/outcome-cases';
+
+/**
+ * Issue 12, speed: after a write the outcomes cache re-reads only the changed cases
+ * (lib/services/outcomes-cache.ts, incremental refresh; migrations/Migration20261202230000.ts) or
+ * the warmer computes the recent views again on the new rows. Whatever the path, every view must
+ * then equal what a fresh full read gives (the cache emptied, everything read and computed again).
+ */
+const services = await openServices();
+afterAll(() => services.close());
+
+const today = todayIn('Europe/London');
+let world: Awaited<ReturnType<typeof makeRegistryPractice>>;
+const patients: string[] = [];
+const cases: string[] = [];
+const NOW = new Date('2026-01-01T12:00:00Z');
+
+beforeAll(async () => {
+  await resetData(services.orm, services.redis);
+  world = await makeRegistryPractice(services.em(), 'refresh');
+  // invented: 8 patients, 12 completed cases of both clinicians, with reviews healing, not healing and an extraction
+  for (let i = 0; i < 8; i++) {
+    patients.push((await createPatient(services.em(), world.clinician, patientInput({ registryNumber: `R-${i + 1}`, email: `r${i + 1}@patients.test.invalid` }))).id);
+  }
+  for (let i = 0; i < 12; i++) {
+    const operator = i % 2 ? world.clinician : world.clinician2;
+    const done = addMonthsClamped(today, -(14 + 3 * i));
+    const c = await createCase(
+      services.em(),
+      world.clinician,
+      caseInput(patients[i % 8]!, operator.userId, { ...completedOn(done, i % 3 ? 'primary_treatment' : 'nonsurgical_retreatment'), tooth: [36, 46, 11, 24, 37, 47][i % 6], paiScore: 2 + (i % 3), lesionDiameterMm: 2 + (i % 3) >= 3 ? 1 + (i % 4) : 0 }),
+    );
+    cases.push(c.id);
+    const reviews = i % 5 === 4 ? [] : [{ day: 365, pai: 1 + (i % 4) }, ...(i > 3 ? [{ day: 730, pai: 1 + (i % 3) }] : [])];
+    for (const r of reviews) await createReview(services.em(), operator, c.id, { reviewDate: addDaysTo(done, r.day), toothStatus: 'present', paiScore: r.pai, lesionDiameterMm: r.pai >= 3 ? 2 : 0 });
+    if (i === 7) await createReview(services.em(), operator, c.id, { reviewDate: addDaysTo(done, 800), toothStatus: 'extracted', extractionReason: 'fracture' });
+  }
+});
+
+const lead = () => world.auditor;
+/** Every view the lead opens (as JSON), the clinician's overview, and the CSVs. */
+async function views() {
+  const em = () => services.em();
+  const out = {
+    overview: await outcomesOverview(em(), lead(), {}),
+    own: await outcomesOverview(em(), world.clinician, {}),
+    factor: await outcomesByFactor(em(), lead(), { factor: 'kind' }),
+    clinicianFactor: await outcomesByFactor(em(), lead(), { factor: 'clinician' }),
+    healing: await outcomesCurves(em(), lead(), { endpoint: 'healing', method: 'km' }),
+    tooth: await outcomesCurves(em(), lead(), { endpoint: 'tooth', method: 'turnbull', factor: 'kind' }),
+    funnel: await outcomesFunnel(em(), lead(), { adjust: 'crude' }),
+    model: await outcomesModel(em(), lead(), {}),
+    worklist: await outcomesWorklist(em(), lead(), {}),
+    report: await outcomesReportData(em(), lead(), { factor: 'clinician' }, NOW),
+    csv: await outcomesCsv(em(), lead(), 'overview', {}),
+  };
+  return JSON.parse(JSON.stringify(out)) as unknown;
+}
+
+/** After `write`, the views through the cache equal the views of a fresh full read; returns how the cache refreshed. */
+async function expectFreshAfter(write: () => Promise<unknown>, o: { warm?: boolean } = {}) {
+  await views(); // the cache and the kept figures are at the current version
+  await write();
+  let warmed = 0;
+  if (o.warm) warmed = await warmOutcomes(services.em(), world.practice.id, OUTCOME_READER);
+  const cached = await views();
+  const refresh = lastOutcomesRefresh();
+  const rows = (await cachedOutcomeCases(services.em(), world.practice.id, OUTCOME_READER)).rows;
+  invalidateOutcomeCases();
+  expect(rows).toEqual(await readOutcomeCases(services.em(), world.practice.id));
+  expect(cached).toEqual(await views());
+  return { refresh, warmed };
+}
+
+describe('outcomes cache after a write (incremental refresh)', () => {
+  it('a review added: only its case is read again, and every view equals a fresh read', async () => {
+    const { refresh } = await expectFreshAfter(() =>
+      createReview(services.em(), world.clinician2, cases[4]!, { reviewDate: addDaysTo(addMonthsClamped(today, -26), 700), toothStatus: 'present', paiScore: 4, lesionDiameterMm: 3 }),
+    );
+    expect(refresh).toMatchObject({ kind: 'partial', changedCases: 1, changedPatients: 0 });
+  });
+
+  it('a case edited (its completion date moves it in the order, the lesion changes a factor level)', async () => {
+    const { refresh } = await expectFreshAfter(() => updateCase(services.em(), world.clinician, cases[3]!, { lesionDiameterMm: 7, paiScore: 4, startDate: addMonthsClamped(today, -41), completionDate: addMonthsClamped(today, -40) }));
+    expect(refresh).toMatchObject({ kind: 'partial', changedCases: 1 });
+  });
+
+  it("a patient archived: the patient's cases leave every view", async () => {
+    const before = (await cachedOutcomeCases(services.em(), world.practice.id, OUTCOME_READER)).rows.length;
+    const { refresh } = await expectFreshAfter(() => archivePatient(services.em(), world.clinician, patients[1]!));
+    expect(refresh).toMatchObject({ kind: 'partial', changedPatients: 1 });
+    expect((await cachedOutcomeCases(services.em(), world.practice.id, OUTCOME_READER)).rows.length).toBe(before - 2); // cases 1 and 9
+  });
+
+  it('a follow-on case on a tooth (the earlier case’s tooth-loss chain) and a recall visit closed by raw SQL', async () => {
+    const { refresh } = await expectFreshAfter(async () => {
+      const c = await createCase(
+        services.em(),
+        world.clinician,
+        caseInput(patients[0]!, world.clinician.userId, { ...completedOn(addMonthsClamped(today, -3), 'nonsurgical_retreatment'), tooth: 36, previousCaseId: cases[0] }),
+      );
+      cases.push(c.id);
+      await services.orm.em.getKnex()('recall_visit').where({ case_id: cases[2] }).whereIn('status', ['planned', 'invited', 'confirmed']).update({ status: 'closed', lost_to_follow_up: true });
+    });
+    expect(refresh).toMatchObject({ kind: 'partial' });
+    expect(refresh!.changedCases).toBeGreaterThanOrEqual(2);
+  });
+
+  it('the warmer brings the cache and the recent views up to date in the background', async () => {
+    const { refresh, warmed } = await expectFreshAfter(() => updateCase(services.em(), world.clinician2, cases[7]!, { paiScore: 5 }), { warm: true });
+    expect(refresh).toMatchObject({ kind: 'partial', changedCases: 1 });
+    expect(warmed).toBeGreaterThan(5); // the views above, computed before anyone asked
+  });
+
+  it('a version whose changes are missing makes a full read', async () => {
+    const { refresh } = await expectFreshAfter(async () => {
+      await updateCase(services.em(), world.clinician, cases[5]!, { lesionDiameterMm: 1 });
+      await services.orm.em.getKnex()('outcomes_data_change').where({ practice_id: world.practice.id }).delete();
+    });
+    expect(refresh).toMatchObject({ kind: 'full', reason: 'gap' });
+  });
+
+  it('a statement changing more than 2,000 cases writes one "everything" change, and the cache reads everything again', async () => {
+    const knex = services.orm.em.getKnex();
+    const version = async () => Number((await knex('outcomes_data_version').where({ practice_id: world.practice.id }).first('version')).version);
+    const v0 = await version();
+    // a bulk statement on 2,001 rows: 2,001 patients inserted at once (invented)
+    await knex('patient').insert(
+      Array.from({ length: 2001 }, (_, i) => ({
+        id: crypto.randomUUID(),
+        practice_id: world.practice.id,
+        registry_number: `BULK-${i}`,
+        given_name: 'Bulk',
+        family_name: `Patient ${i}`,
+        date_of_birth: '1980-01-01',
+        sex: 'not_stated',
+        recall_contact: false,
+        recall_channel: 'none',
+        research_use: false,
+        consent_date: '2024-01-01',
+        created_at: new Date(),
+        updated_at: new Date(),
+      })),
+    );
+    expect(await version()).toBe(v0 + 1);
+    const rows = await knex('outcomes_data_change').where({ practice_id: world.practice.id, version: v0 + 1 });
+    expect(rows).toEqual([expect.objectContaining({ case_id: null, patient_id: null })]);
+    await cachedOutcomeCases(services.em(), world.practice.id, OUTCOME_READER);
+    expect(lastOutcomesRefresh()).toMatchObject({ kind: 'full', reason: 'bulk' });
+    const { refresh } = await expectFreshAfter(() => updateCase(services.em(), world.clinician, cases[5]!, { lesionDiameterMm: 2 }));
+    expect(refresh).toMatchObject({ kind: 'partial' }); // the next single change is small again
+  });
+});
