@@ -1,7 +1,7 @@
 import 'server-only';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { OutcomeCase } from '@/lib/outcomes';
-import { knexOf } from './registry-common';
+import { readKnex } from '@/lib/db-read';
 
 /**
  * The outcomes area's rows, kept per practice between requests (issue 12, performance).
@@ -19,6 +19,9 @@ import { knexOf } from './registry-common';
  * that find the same stale version share one read. The rows (and what lib/outcomes memoises on
  * them) are never changed after the read. At most MAX_PRACTICES practices are kept (the least
  * recently used goes).
+ *
+ * With a read replica (DATABASE_READ_URL) the version is read there too, like the rows: a version
+ * from the primary with rows from a lagging replica would keep stale rows under a new version.
  */
 const MAX_PRACTICES = 4;
 
@@ -30,7 +33,7 @@ const cache = new Map<string, Entry>();
 const reading = new Map<string, Promise<Entry>>();
 
 export async function outcomesDataVersion(em: EntityManager, practiceId: string): Promise<string> {
-  const row = (await knexOf(em).select('version').from('outcomes_data_version').where({ practice_id: practiceId }).first()) as { version: string | number } | undefined;
+  const row = (await readKnex(em).select('version').from('outcomes_data_version').where({ practice_id: practiceId }).first()) as { version: string | number } | undefined;
   return String(row?.version ?? 0);
 }
 
