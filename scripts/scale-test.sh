@@ -4,7 +4,7 @@
 # sources did not change; LAMINA_BUILD=always forces it), then scripts/scale-test.ts: haproxy in
 # front of two web instances, two workers, and the checks. Exit status non-zero on any failure.
 #
-#   npm run scale-test [-- --short] [-- --reminders 2000 --kill-reminders 1000]
+#   npm run scale-test [-- --short] [-- --reminders 2000 --kill-reminders 1000] [-- --workers-only]
 #
 # Ports as npm test chooses them (free from 55733 / 56680 / 52825 / 53300 / 45990; the web port is
 # haproxy's), or fixed with LAMINA_TEST_*_PORT. Logs of a failed run go to test-results/scale-logs/.
@@ -39,5 +39,5 @@ export NEXTAUTH_SECRET
 services_start
 lamina_migrate
 export NEXT_DIST_DIR="${LAMINA_SCALE_DIST_DIR:-.next-scale}"
-build_if_needed "$NEXT_DIST_DIR"
+[[ " $* " == *" --workers-only "* ]] || build_if_needed "$NEXT_DIST_DIR"
 TSX_TSCONFIG_PATH=scripts/tsconfig.json node --import tsx scripts/scale-test.ts "$@"

@@ -45,6 +45,8 @@ import { seedDueVisits } from './lib/reminder-seed';
 const { values: args } = parseArgs({
   options: {
     short: { type: 'boolean', default: false },
+    /** Only the worker checks (5, 6, 7): no build, no proxy, no web instances. */
+    'workers-only': { type: 'boolean', default: false },
     reminders: { type: 'string' },
     'kill-reminders': { type: 'string' },
     report: { type: 'string' },
@@ -52,10 +54,11 @@ const { values: args } = parseArgs({
   strict: true,
 });
 const SHORT = args.short;
+const WORKERS_ONLY = args['workers-only'];
 const N = Number(args.reminders ?? (SHORT ? 200 : 2000));
 const KILL_N = Number(args['kill-reminders'] ?? (SHORT ? 200 : 1000));
 const repo = path.resolve(import.meta.dirname, '..');
-const need = ['DATABASE_URL', 'REDIS_URL', 'SMTP_URL', 'MAILBOX_URL', 'MAILBOX_SECRET', 'NEXTAUTH_SECRET', 'APP_URL', 'LAMINA_DATA', 'NEXT_DIST_DIR'];
+const need = ['DATABASE_URL', 'REDIS_URL', 'SMTP_URL', 'MAILBOX_URL', 'MAILBOX_SECRET', 'NEXTAUTH_SECRET', 'APP_URL', 'LAMINA_DATA', ...(WORKERS_ONLY ? [] : ['NEXT_DIST_DIR'])];
 const missingEnv = need.filter((k) => !process.env[k]);
 if (missingEnv.length) {
   console.error(`scale-test: run through scripts/scale-test.sh (missing ${missingEnv.join(', ')})`);
@@ -334,18 +337,7 @@ async function statusCounts(knex: Knex, practiceId: string): Promise<Record<stri
 
 // --- the run ---------------------------------------------------------------------------------------
 
-async function main(): Promise<void> {
-  const orm = await MikroORM.init({ ...config, clientUrl: process.env.DATABASE_URL, pool: { min: 0, max: 3 } });
-  const knex = orm.em.getKnex() as Knex;
-  const redis = new Redis(process.env.REDIS_URL!, { maxRetriesPerRequest: 3 });
-  const reminders = new Queue(QUEUES.reminders, { connection: redis, prefix: PREFIX });
-  const scans = new Queue(QUEUES.recallScan, { connection: redis, prefix: PREFIX });
-  try {
-    const today = fromLocalDate(new Date());
-    const passwordHash = await hashPassword(PASSWORD);
-    const world = await seedDueVisits(knex, { n: N, today, tag: TAG, practiceName: 'Scale Test Endodontics', passwordHash });
-    log(`seeded ${N} visits due (practice ${world.practiceId.slice(0, 8)}, tag ${TAG})`);
-
+async function webChecks(knex: Knex, world: Awaited<ReturnType<typeof seedDueVisits>>): Promise<void> {
     // haproxy and the two web instances
     const [portA, portB] = [await freePort(), await freePort()];
     const cfg = path.join(WORK, 'haproxy.cfg');
@@ -433,6 +425,22 @@ async function main(): Promise<void> {
       `upload on A answered ${up1.status}; B served ${down ? `${down.status}, ${down.body.length} bytes, sha256 ${sha(down.body)}` : 'nothing'} (sent ${png.length} bytes, ${sha(png)})`,
     );
 
+}
+
+async function main(): Promise<void> {
+  const orm = await MikroORM.init({ ...config, clientUrl: process.env.DATABASE_URL, pool: { min: 0, max: 3 } });
+  const knex = orm.em.getKnex() as Knex;
+  const redis = new Redis(process.env.REDIS_URL!, { maxRetriesPerRequest: 3 });
+  const reminders = new Queue(QUEUES.reminders, { connection: redis, prefix: PREFIX });
+  const scans = new Queue(QUEUES.recallScan, { connection: redis, prefix: PREFIX });
+  try {
+    const today = fromLocalDate(new Date());
+    const passwordHash = await hashPassword(PASSWORD);
+    const world = await seedDueVisits(knex, { n: N, today, tag: TAG, practiceName: 'Scale Test Endodontics', passwordHash });
+    log(`seeded ${N} visits due (practice ${world.practiceId.slice(0, 8)}, tag ${TAG})`);
+
+    if (!WORKERS_ONLY) await webChecks(knex, world);
+
     // 5. N reminders by two workers, exactly once
     const sendStart = Date.now();
     startWorker('worker-1');
@@ -504,9 +512,14 @@ async function main(): Promise<void> {
     // 6b. with a two-second schedule and both workers, every slot runs once
     await Promise.all([stop('worker-1'), stop('worker-3')]);
     const fast = { RECALL_SCAN_PATTERN: '*/2 * * * * *', RECALL_SCAN_ON_START: '0' };
-    const watchFrom = Date.now();
+    const logSize = (n: string) => (fs.existsSync(path.join(LOGS, `scale-${n}.log`)) ? fs.statSync(path.join(LOGS, `scale-${n}.log`)).size : 0);
+    const from = { 'worker-4': logSize('worker-4'), 'worker-5': logSize('worker-5') };
+    const startedLine = (n: 'worker-4' | 'worker-5') => fs.readFileSync(path.join(LOGS, `scale-${n}.log`), 'utf8').slice(from[n]).includes('[worker] started');
     startWorker('worker-4', fast);
     startWorker('worker-5', fast);
+    // Watch only once both run (starting takes a while on a busy machine).
+    await until(180, async () => startedLine('worker-4') && startedLine('worker-5'), 250);
+    const watchFrom = Date.now();
     const watchS = SHORT ? 9 : 21;
     await sleep(watchS * 1000); // observing a schedule: the wait IS the measurement
     await Promise.all([stop('worker-4'), stop('worker-5')]);
