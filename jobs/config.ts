@@ -29,6 +29,8 @@ export const WorkerConfigSchema = z
     RECALL_SCAN_PATTERN: z.string().trim().min(9).max(60).default(RECALL_SCAN_DEFAULT_PATTERN),
     /** Scan at start and after every reconnection to Redis (default yes). */
     RECALL_SCAN_ON_START: flag,
+    /** This worker's name, stored on every job it processes (BullMQ `processedBy`); host and pid by default. */
+    WORKER_NAME: z.string().trim().min(1).max(80).optional(),
   })
   .transform((c, ctx) => {
     if (c.SMTP_TIMEOUT_MS >= c.WORKER_LOCK_MS) {
@@ -41,10 +43,12 @@ export const WorkerConfigSchema = z
       smtpTimeoutMs: c.SMTP_TIMEOUT_MS,
       scanPattern: c.RECALL_SCAN_PATTERN,
       scanOnStart: c.RECALL_SCAN_ON_START ?? true,
+      /** Left out: host and pid (jobs/worker.ts). */
+      ...(c.WORKER_NAME ? { name: c.WORKER_NAME } : {}),
     };
   });
 
-export type WorkerConfig = z.output<typeof WorkerConfigSchema>;
+export type WorkerConfig = z.output<typeof WorkerConfigSchema> & { name?: string };
 
 export function readWorkerConfig(source: Record<string, string | undefined> = process.env): WorkerConfig {
   const parsed = WorkerConfigSchema.safeParse(source);

@@ -68,7 +68,6 @@ import {
   reminderMessageId,
   reminderPolicyOf,
 } from '@/lib/services/recall-outbox';
-import { refreshNextVisit } from '@/lib/services/visits';
 import { todayIn } from '@/lib/services/registry-common';
 import { renderReminder, type DeliveryCheck } from './mail';
 
@@ -319,9 +318,8 @@ const SENT = (() => {
  * the audit trail, in one SQL statement (atomic without a transaction round trip).
  */
 async function finish(ctx: SendContext, row: ClaimRow, step: ReminderStep, messageId: string, now: Date, how: SendOutcome): Promise<void> {
-  const em = ctx.em();
-  const knex = knexOf(em);
-  const result = (await knex.raw(
+  const knex = knexOf(ctx.em());
+  await knex.raw(
     `with r as (
        update reminder set status = 'sent', message_id = ?, sent_at = ?, sent_on = ?, claim_expires_at = null, last_error = null, updated_at = ?
         where id = ? and status = 'sending'
@@ -353,10 +351,9 @@ async function finish(ctx: SendContext, row: ClaimRow, step: ReminderStep, messa
       randomUUID(), new Date(now.getTime() + 1), SENT.status,
       randomUUID(), now, JSON.stringify({ reminderId: row.id, step, how }),
     ],
-  )) as { rows: { updated: number; before: string | null; case_id: string | null }[] };
-  const r = result.rows[0];
-  // The case's next-visit summary (a trigger keeps it too, where the registry's migration installed one).
-  if (r?.updated && r.before && INVITED_BY_MESSAGE_STATUSES.includes(r.before as VisitStatus) && r.case_id) await refreshNextVisit(em, [r.case_id]);
+  );
+  // The case's next-visit summary is kept by the statement-level triggers on recall_visit
+  // (Migration20261201230524: lamina_case_visit_summary), which fire for the update above.
 }
 
 /** Puts a claim back after an attempt that did not send: `queued` when the relay said no, `sending` (expired) when unknown. */

@@ -21,6 +21,7 @@
  * TSX_TSCONFIG_PATH=scripts/tsconfig.json): the scripts tsconfig maps `server-only` to an empty
  * module outside Next.
  */
+import { hostname } from 'node:os';
 import { pathToFileURL } from 'node:url';
 import { Worker, type Job } from 'bullmq';
 import type { Redis } from 'ioredis';
@@ -91,7 +92,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     log,
   };
 
-  const common = { ...prefix, lockDuration: config.lockMs, stalledInterval: config.lockMs, maxStalledCount: config.maxStalled };
+  const common = { ...prefix, name: config.name ?? `${hostname()}-${process.pid}`, lockDuration: config.lockMs, stalledInterval: config.lockMs, maxStalledCount: config.maxStalled };
   let sent = 0;
   const reminders = new Worker(QUEUES.reminders, async (job: Job, token?: string) => {
     // The web request that queued it (a coordinator's "send now") carries on in this job's line.

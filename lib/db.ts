@@ -2,6 +2,7 @@ import 'server-only';
 import { MikroORM, type EntityManager } from '@mikro-orm/postgresql';
 import config from '@/mikro-orm.config';
 import { env } from './env';
+import { readReplicaOptions } from './db-read';
 
 /**
  * The ORM, created once per process and cached on globalThis so dev reloads do not open a
@@ -10,7 +11,7 @@ import { env } from './env';
 const g = globalThis as unknown as { __laminaOrm?: Promise<MikroORM> };
 
 export function getOrm(): Promise<MikroORM> {
-  g.__laminaOrm ??= MikroORM.init({ ...config, clientUrl: env.DATABASE_URL });
+  g.__laminaOrm ??= MikroORM.init({ ...config, clientUrl: env.DATABASE_URL, ...readReplicaOptions(env.DATABASE_READ_URL) });
   return g.__laminaOrm;
 }
 

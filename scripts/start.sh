@@ -53,32 +53,6 @@ stop_leftover_children() {
 # The seed prints the demo sign-ins; keep its output for the banner.
 run_seed() { lamina_seed >"$LAMINA_SEED_OUTPUT"; }
 
-# build_fingerprint: a hash of every file git sees (tracked and untracked, not ignored), the
-# Node version and the environment a build may bake in. Empty when this is not a git checkout.
-build_fingerprint() {
-  git rev-parse --is-inside-work-tree >/dev/null 2>&1 || return 0
-  {
-    node --version
-    env | grep -E '^(NEXT_PUBLIC_[A-Z0-9_]*|NODE_ENV|DATABASE_URL|REDIS_URL|SMTP_URL|MAILBOX_URL|APP_URL|NEXTAUTH_URL|MAIL_FROM|LAMINA_DEMO)=' | sort
-    git ls-files -z -c -o --exclude-standard --deduplicate | (xargs -0 sha1sum 2>/dev/null || true)
-  } | sha1sum | cut -c1-40
-}
-
-# Build unless .next holds a finished build of exactly these sources.
-build_if_needed() {
-  local fingerprint marker=.next/lamina-build-fingerprint
-  fingerprint="$(build_fingerprint)"
-  if [[ "${LAMINA_BUILD:-}" != always && -n "$fingerprint" && -f .next/BUILD_ID && -f "$marker" &&
-    "$(cat "$marker")" == "$fingerprint $(cat .next/BUILD_ID)" ]]; then
-    lamina_log "the build in .next is up to date, not rebuilding (LAMINA_BUILD=always to force)"
-    return 0
-  fi
-  rm -f "$marker"
-  lamina_log "building the web app (next build)"
-  NEXT_DIST_DIR=.next node_modules/.bin/next build
-  [[ -z "$fingerprint" ]] || echo "$fingerprint $(cat .next/BUILD_ID)" >"$marker"
-}
-
 # Until the supervisor takes over, a failure or Ctrl-C stops the services started so far.
 on_setup_exit() {
   local rc=$?
@@ -112,7 +86,7 @@ main() {
   timed "services" services_start
   timed "migrations" lamina_migrate
   timed "demo seed" run_seed
-  timed "build" build_if_needed
+  timed "build" build_if_needed .next
   lamina_log "set-up took $((SECONDS - t0)) s; starting the web server"
 
   trap - EXIT INT TERM

@@ -12,7 +12,9 @@
 #      .next-test (a running `npm start` keeps its .next); their output goes to logs/ and is
 #      printed when vitest is done
 #   5. the web server and the worker on the e2e database, then Playwright in Debian's Chromium
-#   6. everything stopped, then scripts/summarize-tests.mjs sums every runner's JSON report
+#   6. the scale test's short form (scripts/scale-test.ts --short: haproxy, two instances of the
+#      build, two workers, 200 reminders; its checks are counted like tests)
+#   7. everything stopped, then scripts/summarize-tests.mjs sums every runner's JSON report
 #
 # Service logs of a failed run are copied to test-results/logs/.
 set -euo pipefail
@@ -136,6 +138,13 @@ unlock_e2e() { flock -u 9 2>/dev/null || true; exec 9>&-; }
 
 build() { NEXT_DIST_DIR=.next-test node_modules/.bin/next build; }
 
+# The scale test's short form runs after Playwright on the same build, unless LAMINA_SKIP_SCALE=1,
+# or LAMINA_PW_ARGS narrows the e2e run (then LAMINA_SCALE=1 asks for it anyway).
+scale_wanted() {
+  [[ "${LAMINA_SKIP_SCALE:-}" != 1 ]] || return 1
+  [[ -z "${LAMINA_PW_ARGS:-}" || "${LAMINA_SCALE:-}" == 1 ]]
+}
+
 # start_web: the web server (scripts/web-server.mjs: Next behind Lamina's HTTP server) and the worker, each in a process group of its own
 # (setsid) so that stopping it stops anything it spawned. Runs inside a step's subshell, so the
 # pids go to files.
@@ -206,6 +215,7 @@ main() {
   trap 'exit 143' TERM
   record expect vitest
   [[ -n "${LAMINA_SKIP_E2E:-}" ]] || record expect playwright
+  [[ -n "${LAMINA_SKIP_E2E:-}" ]] || ! scale_wanted || record expect scale-test
 
   step "Debian packages" ensure_apt_packages "${LAMINA_APT_BASE[@]}" "${LAMINA_APT_TEST[@]}"
   ok || { finish; return; }
@@ -255,6 +265,11 @@ main() {
       node_modules/.bin/playwright test --config tests/playwright.config.ts ${LAMINA_PW_ARGS:-}
   fi
   stop_app
+  # The scale test's short form (issue 15): haproxy, two instances of this build, two workers.
+  if ok && scale_wanted; then
+    runner scale-test "$RESULTS/scale-test.json" env NEXT_DIST_DIR=.next-test TSX_TSCONFIG_PATH=scripts/tsconfig.json \
+      node --import tsx scripts/scale-test.ts --short --report "$RESULTS/scale-test.json"
+  fi
   unlock_e2e
   finish
 }

@@ -3,6 +3,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import type { OutcomeCase } from '@/lib/outcomes';
 import { swapRows } from '@/lib/outcomes/swap';
 import { knexOf } from './registry-common';
+import { readKnex } from '@/lib/db-read';
 
 /**
  * The outcomes area's rows, kept per practice between requests (issue 12, performance).
@@ -29,6 +30,10 @@ import { knexOf } from './registry-common';
  * rows older than their version). Requests that find the same stale version share one read. The
  * rows (and what lib/outcomes memoises on them) are never changed after the read. At most
  * MAX_PRACTICES practices are kept (the least recently used goes).
+ *
+ * With a read replica (DATABASE_READ_URL) the version and the changes are read there too, like the
+ * rows (full or some): a version from the primary with rows from a lagging replica would keep stale
+ * rows under a new version.
  */
 const MAX_PRACTICES = 4;
 /** More changed cases and patients than this since the cached version: read everything again. */
@@ -63,7 +68,7 @@ let lastRefresh: RefreshInfo | null = null;
 export const lastOutcomesRefresh = (): RefreshInfo | null => lastRefresh;
 
 export async function outcomesDataVersion(em: EntityManager, practiceId: string): Promise<string> {
-  const row = (await knexOf(em).select('version').from('outcomes_data_version').where({ practice_id: practiceId }).first()) as { version: string | number } | undefined;
+  const row = (await readKnex(em).select('version').from('outcomes_data_version').where({ practice_id: practiceId }).first()) as { version: string | number } | undefined;
   return String(row?.version ?? 0);
 }
 
@@ -120,7 +125,7 @@ async function refresh(em: EntityManager, practiceId: string, old: Entry | null,
   if (BigInt(old.version) >= BigInt(version)) return full('gap');
   const from = BigInt(old.version);
   const summary = (
-    await knexOf(em).raw(
+    await readKnex(em).raw(
       `select count(distinct version) as versions,
               count(*) filter (where case_id is null and patient_id is null) as bulk,
               array_agg(distinct case_id) filter (where case_id is not null) as cases,

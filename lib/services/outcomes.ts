@@ -9,6 +9,7 @@ import { levelParams, OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery
 import { audit } from './audit';
 import { cachedOutcomeCases, memoView, type OutcomeReader } from './outcomes-cache';
 import { parseInput } from './parse';
+import { readKnex } from '@/lib/db-read';
 import { knexOf, practiceSettings, todayIn } from './registry-common';
 
 /**
@@ -64,8 +65,9 @@ export const recordedReviews = (json: readonly ReviewJson[]): RecordedReview[] =
 /** Every completed case of the practice (archived cases and patients left out), with its current reviews (not those a correction superseded) in date order. */
 export async function readOutcomeCases(em: EntityManager, practiceId: string): Promise<OutcomeCase[]> {
   // JIT off for this read: its cost estimate (100,000 sub-plans) makes PostgreSQL compile it, which
-  // costs more than it saves (about a quarter of the read at 100,000 cases; npm run bench -- outcomes)
-  const rows = await knexOf(em).transaction(async (knex) => {
+  // costs more than it saves (about a quarter of the read at 100,000 cases; npm run bench -- outcomes).
+  // On the read replica when DATABASE_READ_URL is set (lib/db-read.ts): figures may lag by a moment.
+  const rows = await readKnex(em).transaction(async (knex) => {
     await knex.raw('set local jit = off');
     return readRows(knex, practiceId);
   });
@@ -78,7 +80,7 @@ export async function readOutcomeCases(em: EntityManager, practiceId: string): P
  */
 export async function readSomeOutcomeCases(em: EntityManager, practiceId: string, caseIds: readonly string[], patientIds: readonly string[]): Promise<OutcomeCase[]> {
   if (!caseIds.length && !patientIds.length) return [];
-  const rows = await readRows(knexOf(em), practiceId, { caseIds, patientIds });
+  const rows = await readRows(readKnex(em), practiceId, { caseIds, patientIds });
   return rows.map(outcomeCaseOf);
 }
 

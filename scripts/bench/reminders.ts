@@ -8,13 +8,14 @@
  * BENCH_CONCURRENCY (default 8) change the size. Exits 1 if a reminder is missing or duplicated.
  */
 import { spawn } from 'node:child_process';
-import { randomBytes, randomUUID } from 'node:crypto';
+import { randomBytes } from 'node:crypto';
 import fs from 'node:fs';
 import path from 'node:path';
 import { MikroORM } from '@mikro-orm/postgresql';
 import type { Knex } from '@mikro-orm/knex';
 import config from '../../mikro-orm.config';
-import { addDaysTo, fromLocalDate } from '../../lib/registry/calendar-date';
+import { fromLocalDate } from '../../lib/registry/calendar-date';
+import { seedDueVisits } from '../lib/reminder-seed';
 import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 
 const N = Number(process.env.BENCH_REMINDERS ?? 10_000);
@@ -29,40 +30,7 @@ if (!process.env.DATABASE_URL || !process.env.REDIS_URL || !process.env.SMTP_URL
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
 async function seed(knex: Knex, today: string): Promise<void> {
-  const now = new Date();
-  const tag = randomBytes(3).toString('hex');
-  const practiceId = randomUUID();
-  const userId = randomUUID();
-  await knex('practice').insert({ id: practiceId, name: 'Harbour Endodontics (bench)', slug: `bench-${tag}`, created_at: now });
-  await knex('app_user').insert({ id: userId, email: `clinician.${tag}@bench.invalid`, name: 'Bench Clinician', created_at: now });
-  await knex('membership').insert({ id: randomUUID(), user_id: userId, practice_id: practiceId, role: 'clinician', granted_at: now });
-  for (let start = 0; start < N; start += 1000) {
-    const patients: object[] = [];
-    const cases: object[] = [];
-    const visits: object[] = [];
-    for (let i = start; i < Math.min(N, start + 1000); i++) {
-      const patientId = randomUUID();
-      const caseId = randomUUID();
-      const due = addDaysTo(today, 1 + (i % 20));
-      patients.push({
-        id: patientId, practice_id: practiceId, registry_number: `B-${String(i).padStart(6, '0')}`, given_name: `Rowan${i}`, family_name: `Mere${i}`,
-        date_of_birth: '1968-05-17', sex: 'male', email: `rowan${i}.${tag}@patients.bench.invalid`, recall_contact: true, recall_channel: 'email',
-        research_use: false, consent_date: '2024-02-01', created_at: now, updated_at: now,
-      });
-      cases.push({
-        id: caseId, practice_id: practiceId, patient_id: patientId, tooth: 46, tooth_group: 'molar', tooth_arch: 'lower', kind: 'primary_treatment',
-        operator_id: userId, start_date: '2025-01-06', completion_date: '2025-01-20', pulpal_diagnosis: 'pulp_necrosis',
-        apical_diagnosis: 'asymptomatic_apical_periodontitis', pai_score: 3, lesion_diameter_mm: 2, source: 'demo', created_at: now, updated_at: now,
-      });
-      visits.push({
-        id: randomUUID(), practice_id: practiceId, case_id: caseId, milestone: 12, due_date: due, window_start: addDaysTo(due, -60),
-        window_end: addDaysTo(due, 120), status: 'planned', status_changed_at: now, created_at: now, updated_at: now,
-      });
-    }
-    await knex('patient').insert(patients);
-    await knex('treatment_case').insert(cases);
-    await knex('recall_visit').insert(visits);
-  }
+  await seedDueVisits(knex, { n: N, today, tag: randomBytes(3).toString('hex') });
 }
 
 function vm(pid: number): { hwm: number; rss: number } | null {

@@ -16,7 +16,7 @@
 
 # Debian packages: the base set, and what only the tests and benchmarks need.
 LAMINA_APT_BASE=(postgresql redis-server chromium iproute2)
-LAMINA_APT_TEST=(r-base-core r-cran-survival r-cran-sandwich r-cran-cmprsk python3-sklearn python3-statsmodels python3-pandas poppler-utils unzip)
+LAMINA_APT_TEST=(haproxy r-base-core r-cran-survival r-cran-sandwich r-cran-cmprsk python3-sklearn python3-statsmodels python3-pandas poppler-utils unzip)
 
 LAMINA_REPO="$(cd "$(dirname "${BASH_SOURCE[0]}")/../.." && pwd)"
 
@@ -273,6 +273,39 @@ ensure_secret() {
 # runs under scripts/tsconfig.json, where `server-only` is an empty module (as `npm run seed`).
 lamina_migrate() { (cd "$LAMINA_REPO" && node_modules/.bin/tsx scripts/migrate.ts); }
 lamina_seed() { (cd "$LAMINA_REPO" && node_modules/.bin/tsx --tsconfig scripts/tsconfig.json scripts/seed.ts); }
+
+# build_fingerprint: a hash of every file git sees (tracked and untracked, not ignored), the
+# Node version and the environment a build may bake in. Empty when this is not a git checkout.
+build_fingerprint() {
+  git rev-parse --is-inside-work-tree >/dev/null 2>&1 || return 0
+  {
+    node --version
+    env | grep -E '^(NEXT_PUBLIC_[A-Z0-9_]*|NODE_ENV|DATABASE_URL|REDIS_URL|SMTP_URL|MAILBOX_URL|APP_URL|NEXTAUTH_URL|MAIL_FROM|LAMINA_DEMO)=' | sort
+    git ls-files -z -c -o --exclude-standard --deduplicate | (xargs -0 sha1sum 2>/dev/null || true)
+  } | sha1sum | cut -c1-40
+}
+
+# build_if_needed DIR: `next build` into DIR (.next for npm start, .next-scale for the scale test)
+# unless DIR holds a finished build of exactly these sources. LAMINA_BUILD=always forces it;
+# LAMINA_BUILD=never uses any finished build in DIR (while developing the scripts).
+build_if_needed() {
+  local dir="${1:-.next}" fingerprint marker
+  marker="$dir/lamina-build-fingerprint"
+  fingerprint="$(cd "$LAMINA_REPO" && build_fingerprint)"
+  if [[ "${LAMINA_BUILD:-}" != always && -n "$fingerprint" && -f "$LAMINA_REPO/$dir/BUILD_ID" && -f "$LAMINA_REPO/$marker" &&
+    "$(cat "$LAMINA_REPO/$marker")" == "$fingerprint $(cat "$LAMINA_REPO/$dir/BUILD_ID")" ]]; then
+    lamina_log "the build in $dir is up to date, not rebuilding (LAMINA_BUILD=always to force)"
+    return 0
+  fi
+  if [[ "${LAMINA_BUILD:-}" == never && -f "$LAMINA_REPO/$dir/BUILD_ID" ]]; then
+    lamina_log "LAMINA_BUILD=never: using the build in $dir as it is"
+    return 0
+  fi
+  rm -f "$LAMINA_REPO/$marker"
+  lamina_log "building the web app (next build into $dir)"
+  (cd "$LAMINA_REPO" && NEXT_DIST_DIR="$dir" node_modules/.bin/next build)
+  [[ -z "$fingerprint" ]] || echo "$fingerprint $(cat "$LAMINA_REPO/$dir/BUILD_ID")" >"$LAMINA_REPO/$marker"
+}
 
 # ----------------------------------------------------------------------------------------------
 # Environment for the app (read by lib/env.ts)
