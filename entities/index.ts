@@ -11,6 +11,8 @@ import { PatientSchema } from './Patient';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
 import { ReferrerSchema } from './Referrer';
+import { ReferrerMessageSchema } from './ReferrerMessage';
+import { ReferrerUploadLinkSchema } from './ReferrerUploadLink';
 import { ReminderSchema } from './Reminder';
 import { ReplyNonceSchema } from './ReplyNonce';
 import { ReviewSchema } from './Review';
@@ -37,6 +39,8 @@ export const entities = [
   OutcomesDataVersionSchema,
   FilmSchema,
   ImportMappingSchema,
+  ReferrerUploadLinkSchema,
+  ReferrerMessageSchema,
 ];
 
 export * from './AuditEvent';
@@ -51,6 +55,8 @@ export * from './Patient';
 export * from './Practice';
 export * from './RecallVisit';
 export * from './Referrer';
+export * from './ReferrerMessage';
+export * from './ReferrerUploadLink';
 export * from './Reminder';
 export * from './ReplyNonce';
 export * from './Review';

@@ -9,12 +9,15 @@ export const QUEUES = {
   reminders: 'reminders',
   /** The scheduled scan that finds visits entering a step and queues their reminders. */
   recallScan: 'recall-scan',
+  /** One job per referrer_message row (upload link, outcome letter): claim, render, send. */
+  referrerMail: 'referrer-mail',
 } as const;
 export type QueueName = (typeof QUEUES)[keyof typeof QUEUES];
 
 export const JOBS = {
   sendReminder: 'send-reminder',
   recallScan: 'recall-scan',
+  sendReferrerMail: 'send-referrer-mail',
 } as const;
 export type JobName = (typeof JOBS)[keyof typeof JOBS];
 
@@ -22,6 +25,7 @@ export type JobName = (typeof JOBS)[keyof typeof JOBS];
 export const JOB_QUEUE: Record<JobName, QueueName> = {
   [JOBS.sendReminder]: QUEUES.reminders,
   [JOBS.recallScan]: QUEUES.recallScan,
+  [JOBS.sendReferrerMail]: QUEUES.referrerMail,
 };
 
 /** The id of the recall scan's job scheduler (one per deployment). */

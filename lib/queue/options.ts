@@ -36,6 +36,8 @@ export const RECALL_SCAN_JOB_OPTIONS = {
 export const DEFAULT_JOB_OPTIONS: Record<QueueName, DefaultJobOptions> = {
   [QUEUES.reminders]: REMINDER_JOB_OPTIONS,
   [QUEUES.recallScan]: RECALL_SCAN_JOB_OPTIONS,
+  // Mail to referrers follows the reminders' rules: same retries, same history.
+  [QUEUES.referrerMail]: REMINDER_JOB_OPTIONS,
 };
 
 /**

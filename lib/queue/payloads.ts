@@ -42,12 +42,21 @@ export const RecallScanPayload = z.strictObject({
 export type RecallScanInput = z.input<typeof RecallScanPayload>;
 export type RecallScanData = z.output<typeof RecallScanPayload>;
 
+export const SendReferrerMailPayload = z.strictObject({
+  practiceId: JobSafeId,
+  /** The outbox row (referrer_message). */
+  messageId: JobSafeId,
+});
+export type SendReferrerMailInput = z.input<typeof SendReferrerMailPayload>;
+export type SendReferrerMailData = z.output<typeof SendReferrerMailPayload>;
+
 export const JOB_PAYLOADS = {
   [JOBS.sendReminder]: SendReminderPayload,
   [JOBS.recallScan]: RecallScanPayload,
+  [JOBS.sendReferrerMail]: SendReferrerMailPayload,
 } as const;
 
-export type JobData = { [JOBS.sendReminder]: SendReminderData; [JOBS.recallScan]: RecallScanData };
+export type JobData = { [JOBS.sendReminder]: SendReminderData; [JOBS.recallScan]: RecallScanData; [JOBS.sendReferrerMail]: SendReferrerMailData };
 
 /** A plain one-line summary of what is wrong with a payload. */
 export function payloadProblems(error: z.ZodError): string {
