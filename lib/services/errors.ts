@@ -9,6 +9,7 @@ export type ErrorCode =
   | 'forbidden'
   | 'not_found'
   | 'conflict'
+  | 'gone'
   | 'payload_too_large'
   | 'unsupported_media_type'
   | 'validation'
@@ -23,6 +24,7 @@ const CODE_OF_STATUS: Record<number, ErrorCode> = {
   403: 'forbidden',
   404: 'not_found',
   409: 'conflict',
+  410: 'gone',
   413: 'payload_too_large',
   415: 'unsupported_media_type',
   422: 'validation',
