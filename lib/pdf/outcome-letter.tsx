@@ -70,6 +70,7 @@ export async function renderOutcomeLetter(facts: LetterFacts): Promise<Buffer> {
         <Rows rows={c.findings} />
         {facts.thumbnail && (
           <View style={s.film} wrap={false}>
+            {/* eslint-disable-next-line jsx-a11y/alt-text -- a react-pdf Image, not an HTML img: a PDF has no alt attribute */}
             <Image style={s.thumb} src={{ data: Buffer.from(facts.thumbnail), format: 'jpg' }} />
             <Text style={s.muted}>Follow-up film (thumbnail)</Text>
           </View>
