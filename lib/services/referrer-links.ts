@@ -298,12 +298,16 @@ export async function receiveReferrerUpload(em: EntityManager, token: string, fi
 
 // --- rate limit ----------------------------------------------------------------------------------
 
-/** Requests to the public upload API per client address: 30 in 10 minutes (common practice; Lamina's own numbers). */
-export const UPLOAD_RATE = { points: 30, durationSeconds: 600 } as const;
+/** Requests to the public upload API per client address: 60 in 10 minutes (common practice; Lamina's own numbers). */
+export const UPLOAD_RATE = { points: 60, durationSeconds: 600 } as const;
 const limiters = new WeakMap<Redis, RateLimiterRedis>();
 
-/** Takes one request for the address; 429 with Retry-After when its budget is spent. */
-export async function takeUploadRequest(r: Redis, ip: string | null): Promise<void> {
+/** Takes one request for the address; 429 with Retry-After when its budget is spent, 503 when Redis cannot count. */
+export async function takeUploadRequest(connect: () => Promise<Redis>, ip: string | null): Promise<void> {
+  const unavailable = () => new ServiceError('The practice’s system is busy. Nothing was kept; try again in a minute.', 503, undefined, 'unavailable');
+  const r = await connect().catch(() => {
+    throw unavailable();
+  });
   let limiter = limiters.get(r);
   if (!limiter) {
     limiter = new RateLimiterRedis({ storeClient: r, keyPrefix: 'lamina:referrer-upload', points: UPLOAD_RATE.points, duration: UPLOAD_RATE.durationSeconds });
@@ -316,6 +320,6 @@ export async function takeUploadRequest(r: Redis, ip: string | null): Promise<vo
       const wait = Math.max(1, Math.ceil(e.msBeforeNext / 1000));
       throw new RateLimitedError(`Too many requests from your network. Try again in ${wait} seconds.`, wait);
     }
-    throw e;
+    throw unavailable();
   }
 }

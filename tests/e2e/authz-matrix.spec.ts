@@ -25,6 +25,7 @@ interface Ids {
   visitId: string;
   invitationId: string;
   filmId: string;
+  reviewId: string;
 }
 interface Row {
   route: string; // the route file's path under app/, e.g. 'api/team/members'
@@ -123,6 +124,13 @@ const MATRIX: Row[] = [
   { route: 'api/recall/rate', method: 'GET', url: () => '/api/recall/rate', expect: only({ coordinator: 200 }) },
   { route: 'api/recall/policy', method: 'GET', url: () => '/api/recall/policy', expect: only({ coordinator: 200 }) },
   { route: 'api/recall/policy', method: 'PUT', url: () => '/api/recall/policy', body: { invitationWeeksBefore: 0 }, expect: only({ coordinator: 422 }) },
+  // Referring dentists (issue 13): links and letters are sent by the coordinator and the clinicians.
+  { route: 'api/cases/[id]/referrer-links', method: 'POST', url: () => `/api/cases/${randomUUID()}/referrer-links`, body: { visitId: randomUUID() }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/reviews/[id]/letter', method: 'POST', url: () => `/api/reviews/${randomUUID()}/letter`, expect: only({ coordinator: 404, clinician: 404 }) },
+  // The referrer's upload link (no account; the token is the credential): the same answer for everyone.
+  { route: 'api/upload/[token]', method: 'GET', url: () => '/api/upload/not-a-token', expect: everyone(404) },
+  { route: 'api/upload/[token]', method: 'POST', url: () => '/api/upload/not-a-token', expect: everyone(404) },
+  { route: 'upload/[token]', method: 'GET', url: () => '/upload/not-a-token', expect: everyone(200) },
   // Patients' links (no account; the signed token is the credential): the same answer for everyone.
   { route: 'api/unsubscribe/[token]', method: 'POST', url: () => '/api/unsubscribe/not-a-token', expect: everyone(400) },
   { route: 'api/unsubscribe/[token]', method: 'GET', url: () => '/api/unsubscribe/not-a-token', expect: everyone(303) },
@@ -153,6 +161,8 @@ const CROSS: Row[] = [
   { route: 'api/cases/[id]/films', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/films`, multipart: { role: 'follow_up' }, expect: only({ coordinator: 404, clinician: 404 }) },
   { route: 'api/films/[id]/[variant]', method: 'GET', url: (_, o) => `/api/films/${o.filmId}/original`, expect: only({ coordinator: 404, clinician: 404, auditor: 404 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: (_, o) => `/api/visits/${o.visitId}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
+  { route: 'api/cases/[id]/referrer-links', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/referrer-links`, body: { visitId: randomUUID() }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/reviews/[id]/letter', method: 'POST', url: (_, o) => `/api/reviews/${o.reviewId}/letter`, expect: only({ coordinator: 404, clinician: 404 }) },
   { route: 'api/recall/visits/[id]/contact-log', method: 'GET', url: (_, o) => `/api/recall/visits/${o.visitId}/contact-log`, expect: only({ coordinator: 404 }) },
   { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },
   { route: 'api/outcomes/worklist/[id]/decisions', method: 'GET', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, expect: only({ clinician: 404, auditor: 404 }) },
@@ -160,7 +170,7 @@ const CROSS: Row[] = [
 ];
 
 /** Routes whose id is a signed token (the credential itself), not a record of a practice. */
-const NOT_PRACTICE_IDS = new Set(['api/auth/[...nextauth]', 'api/unsubscribe/[token]', 'r/[token]', 'u/[token]']);
+const NOT_PRACTICE_IDS = new Set(['api/auth/[...nextauth]', 'api/unsubscribe/[token]', 'api/upload/[token]', 'r/[token]', 'u/[token]', 'upload/[token]']);
 
 function routeFiles(dir: string, base = dir): string[] {
   return readdirSync(dir).flatMap((name) => {
@@ -216,6 +226,16 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
       multipart: { role: 'follow_up', file: { name: 'matrix.png', mimeType: 'image/png', buffer: readFileSync(path.resolve(import.meta.dirname, '../support/films/radiograph.png')) } },
     });
     expect([200, 201]).toContain(film.status());
+    // A review of the practice (the demo world has many), for the outcome letter's route.
+    let reviewId = '';
+    for (const c of cases) {
+      const r = (await (await coord.request.get(`/api/cases/${c.id}/reviews`)).json()) as { reviews?: { id: string }[] };
+      if (r.reviews?.length) {
+        reviewId = r.reviews[0]!.id;
+        break;
+      }
+    }
+    expect(reviewId).not.toBe('');
     return {
       adminId: byEmail(people('admin').email),
       coordinatorId: byEmail(people('coordinator').email),
@@ -224,6 +244,7 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
       visitId: visits.visits[0].id,
       invitationId: (await invited.json()).invitationId,
       filmId: (await film.json()).film.id,
+      reviewId,
     };
   } finally {
     await admin.close();

@@ -3,9 +3,10 @@ import { env } from '@/lib/env';
 import { errorResponse, json } from '@/lib/http';
 import { originFrom } from '@/lib/auth/origin';
 import { filmTooLargeMessage } from '@/lib/films/process';
-import { redis } from '@/lib/redis';
+import { redisReady } from '@/lib/redis';
 import { bodyTypeRefusal, crossSiteRefusal, originOf } from '@/lib/security/request-guard';
-import { ServiceError, ValidationError } from '@/lib/services/errors';
+import { NotFoundError, ServiceError, ValidationError } from '@/lib/services/errors';
+import { isWellFormedToken } from '@/lib/referrers/upload-token';
 import { filmMaxBytes } from '@/lib/services/films';
 import { LinkGoneError, UPLOAD_MAX_FILES, openUploadLink, receiveReferrerUpload, takeUploadRequest } from '@/lib/services/referrer-links';
 
@@ -28,7 +29,7 @@ export async function GET(req: Request, ctx: Ctx): Promise<Response> {
   try {
     const { token } = await ctx.params;
     const origin = originFrom(req.headers);
-    await takeUploadRequest(redis(), origin.ip);
+    await takeUploadRequest(redisReady, origin.ip);
     const view = await openUploadLink(await requestEm(), token, origin);
     if (view.state !== 'open') throw new LinkGoneError(view.message!);
     return json(view);
@@ -45,7 +46,8 @@ export async function POST(req: Request, ctx: Ctx): Promise<Response> {
     if (refusal) return json({ error: refusal.error, message: refusal.message }, refusal.status);
     const { token } = await ctx.params;
     const origin = originFrom(req.headers);
-    await takeUploadRequest(redis(), origin.ip);
+    await takeUploadRequest(redisReady, origin.ip);
+    if (!isWellFormedToken(token)) throw new NotFoundError('This upload link is not valid. Check that the whole link was copied, or ask the practice for a new one.');
     const max = filmMaxBytes();
     const tooLarge = () => new ServiceError(filmTooLargeMessage(max), 413, undefined, 'payload_too_large');
     if (Number(req.headers.get('content-length') ?? 0) > UPLOAD_MAX_FILES * max + FRAMING_BYTES) throw tooLarge();
