@@ -3,6 +3,7 @@ import { randomUUID } from 'node:crypto';
 import { FILM_ROLES, SPACING_SOURCES } from '../lib/films/roles';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
+import { ReferrerUploadLinkSchema } from './ReferrerUploadLink';
 import { ReviewSchema } from './Review';
 import { TreatmentCaseSchema } from './TreatmentCase';
 import { UserSchema } from './User';
@@ -49,7 +50,11 @@ export const FilmSchema = defineEntity({
     dicomPatientName: p.string().length(200).nullable().default(null),
     dicomPatientId: p.string().length(64).nullable().default(null),
     patientMismatch: p.boolean().default(false),
-    uploadedBy: p.manyToOne(UserSchema).ref().deleteRule('restrict'),
+    /** Who uploaded it; null for a film sent by a referrer through an upload link (`source` referrer). */
+    uploadedBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('restrict').default(null),
+    /** practice: uploaded by a signed-in user; referrer: sent by the referring dentist through `referrerLink`. */
+    source: p.enum(['practice', 'referrer'] as const).default('practice'),
+    referrerLink: p.manyToOne(ReferrerUploadLinkSchema).ref().nullable().deleteRule('set null').default(null),
     createdAt: p.datetime().onCreate(() => new Date()),
     archivedAt: p.datetime().nullable().default(null),
   },

@@ -17,6 +17,8 @@ import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
 import { ReferenceFilmSchema } from './ReferenceFilm';
 import { ReferrerSchema } from './Referrer';
+import { ReferrerMessageSchema } from './ReferrerMessage';
+import { ReferrerUploadLinkSchema } from './ReferrerUploadLink';
 import { ReminderSchema } from './Reminder';
 import { ReplyNonceSchema } from './ReplyNonce';
 import { ReviewSchema } from './Review';
@@ -49,6 +51,8 @@ export const entities = [
   CohortExportSchema,
   FilmReadingSchema,
   ReferenceFilmSchema,
+  ReferrerUploadLinkSchema,
+  ReferrerMessageSchema,
 ];
 
 export * from './AuditEvent';
@@ -69,6 +73,8 @@ export * from './Practice';
 export * from './RecallVisit';
 export * from './ReferenceFilm';
 export * from './Referrer';
+export * from './ReferrerMessage';
+export * from './ReferrerUploadLink';
 export * from './Reminder';
 export * from './ReplyNonce';
 export * from './Review';

@@ -3,6 +3,9 @@
  * beside the web server), never a side effect of the web server.
  *
  *   reminders    `send-reminder` jobs (jobs/send-reminder.ts), WORKER_CONCURRENCY at once
+ *   referrer-mail `send-referrer-mail` jobs (jobs/send-referrer-mail.ts): upload links and outcome
+ *                letters to referring dentists, from their outbox (lib/services/referrer-outbox.ts);
+ *                every scan also reconciles that outbox
  *   recall-scan  `recall-scan` jobs (jobs/recall-scan.ts), one at a time: hourly by the job
  *                scheduler, at start, and after every reconnection to Redis — a Redis that
  *                restarted without its data has lost its jobs and its scheduler, and the scan
@@ -29,6 +32,7 @@ import type { MikroORM } from '@mikro-orm/postgresql';
 import {
   JOBS,
   QUEUES,
+  SendReferrerMailPayload,
   SendReminderPayload,
   connectionForWorker,
   enqueueRecallScan,
@@ -37,6 +41,7 @@ import {
   parseJobData,
   upsertRecallScanScheduler,
   type RecallScanQueue,
+  type ReferrerMailQueue,
   type RemindersQueue,
 } from '@/lib/queue';
 import { deriveLinkSecret } from '@/lib/recall/reply-token';
@@ -45,6 +50,9 @@ import { env } from '@/lib/env';
 import { knexOf, markReminderFailed, openReminderQueue, reminderQueueSettings } from '@/lib/services/recall-outbox';
 import { logger } from '@/lib/log/logger';
 import { withRequestId } from '@/lib/log/context';
+import { markReferrerMessageFailed, openReferrerQueue, reconcileReferrerOutbox } from '@/lib/services/referrer-outbox';
+import { deriveUploadLinkSecret } from '@/lib/referrers/upload-token';
+import { processSendReferrerMail, type ReferrerMailContext } from './send-referrer-mail';
 import { readWorkerConfig, type WorkerConfig } from './config';
 import { createReminderTransport, mailboxDeliveryCheck } from './mail';
 import { runRecallScan } from './recall-scan';
@@ -54,6 +62,7 @@ import { writeCohortArchive } from '@/lib/cohorts/archive';
 
 export interface WorkerHandle {
   remindersQueue: RemindersQueue;
+  referrerQueue: ReferrerMailQueue;
   scanQueue: RecallScanQueue;
   /** How many scans this process has run (the first starts at once unless scanOnStart is off). */
   scans: () => number;
@@ -79,6 +88,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
   const producer = connect('worker-producer');
   const remindersQueue = openReminderQueue(producer, settings, { log });
   const scanQueue = openRecallScanQueue(producer, { ...prefix, log });
+  const referrerQueue = openReferrerQueue(producer, settings, { log });
   const transport = createReminderTransport(env.SMTP_URL, { maxConnections: config.concurrency, timeoutMs: config.smtpTimeoutMs });
 
   const sendContext: SendContext = {
@@ -86,6 +96,17 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     transport,
     deliveryCheck: env.localMail && env.MAILBOX_URL ? mailboxDeliveryCheck(env.MAILBOX_URL, env.MAILBOX_SECRET) : undefined,
     linkSecret: deriveLinkSecret(env.NEXTAUTH_SECRET),
+    appUrl: env.APP_URL,
+    mailFrom: env.MAIL_FROM,
+    leaseMs: config.lockMs,
+    log,
+  };
+
+  const referrerContext: ReferrerMailContext = {
+    em: () => db.em.fork(),
+    transport,
+    deliveryCheck: sendContext.deliveryCheck,
+    uploadKey: deriveUploadLinkSecret(env.NEXTAUTH_SECRET),
     appUrl: env.APP_URL,
     mailFrom: env.MAIL_FROM,
     leaseMs: config.lockMs,
@@ -107,6 +128,26 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     connection: connect('worker-reminders'),
     concurrency: config.concurrency,
   });
+  const referrerMail = new Worker(QUEUES.referrerMail, async (job: Job, token?: string) => processSendReferrerMail(referrerContext, job, token), {
+    ...common,
+    connection: connect('worker-referrer-mail'),
+    concurrency: Math.min(config.concurrency, 4),
+  });
+  referrerMail.on('failed', (job, err) => {
+    if (!job) return;
+    void (async () => {
+      const state = await job.getState().catch(() => null);
+      const final = state === 'failed' || job.attemptsMade >= (job.opts.attempts ?? 1);
+      if (!final) {
+        log(`[send-referrer-mail] ${job.id}: attempt ${job.attemptsMade} of ${job.opts.attempts ?? 1} failed, retrying: ${err.message}`);
+        return;
+      }
+      const data = SendReferrerMailPayload.safeParse(job.data);
+      if (data.success && (await markReferrerMessageFailed(db.em.fork(), data.data.messageId, err.message))) {
+        log(`[send-referrer-mail] ${job.id}: given up after ${job.attemptsMade} attempt(s): ${err.message}`);
+      }
+    })().catch((e: unknown) => log(`[send-referrer-mail] could not record the failure of ${job.id}: ${(e as Error).message}`));
+  });
   let scans = 0;
   const scanner = new Worker(
     QUEUES.recallScan,
@@ -115,6 +156,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
       const scan = () => runRecallScan({ em: () => db.em.fork(), queue: remindersQueue, log }, data);
       const summary = data.requestId ? await withRequestId(data.requestId, scan) : await scan();
       workerLog.info({ jobId: job.id, reqId: data.requestId, queued: summary.queued, requeued: summary.reconcile.requeued }, 'recall-scan');
+      await reconcileReferrerOutbox(db.em.fork(), referrerQueue).catch((e: unknown) => log(`[referrer-mail] reconciliation failed: ${(e as Error).message}`));
       scans += 1;
       return { queued: summary.queued, requeued: summary.reconcile.requeued, finalized: summary.reconcile.finalized };
     },
@@ -149,7 +191,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
       }
     })().catch((e: unknown) => log(`[send-reminder] could not record the failure of ${job.id}: ${(e as Error).message}`));
   });
-  for (const w of [reminders, scanner, cohorts]) w.on('error', (err) => log(`[worker] ${err.message}`));
+  for (const w of [reminders, referrerMail, scanner, cohorts]) w.on('error', (err) => log(`[worker] ${err.message}`));
 
   // On every (re)connection: the scheduler exists, and a scan runs (Redis may have lost everything).
   let ensuring: Promise<void> | null = null;
@@ -178,8 +220,8 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     (closing ??= (async () => {
       clearInterval(progress);
       producer.off('ready', ensure);
-      await Promise.all([reminders.close(), scanner.close(), cohorts.close()]);
-      await Promise.all([remindersQueue.close(), scanQueue.close(), cohortQueue.close()]);
+      await Promise.all([reminders.close(), referrerMail.close(), scanner.close(), cohorts.close()]);
+      await Promise.all([remindersQueue.close(), referrerQueue.close(), scanQueue.close(), cohortQueue.close()]);
       transport.close();
       for (const c of connections) c.disconnect();
       log(`[worker] stopped; ${sent} reminder(s) sent since start`);
@@ -189,7 +231,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     `[worker] started: concurrency ${config.concurrency}, lock ${config.lockMs} ms, scan '${config.scanPattern}'` +
       `${settings.prefix ? `, prefix ${settings.prefix}` : ''}${sendContext.deliveryCheck ? ', delivery check via the local mailbox' : ''}`,
   );
-  return { remindersQueue, scanQueue, scans: () => scans, close };
+  return { remindersQueue, referrerQueue, scanQueue, scans: () => scans, close };
 }
 
 async function main() {

@@ -17,6 +17,7 @@ import { Migration20261202160000 } from './Migration20261202160000';
 import { Migration20261202170000 } from './Migration20261202170000';
 import { Migration20261202180000 } from './Migration20261202180000';
 import { Migration20261202200000 } from './Migration20261202200000';
+import { Migration20261202210000 } from './Migration20261202210000';
 import { Migration20261202220000 } from './Migration20261202220000';
 import { Migration20261202230000 } from './Migration20261202230000';
 
@@ -35,6 +36,7 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261202170000', class: Migration20261202170000 },
   { name: 'Migration20261202180000', class: Migration20261202180000 },
   { name: 'Migration20261202200000', class: Migration20261202200000 },
+  { name: 'Migration20261202210000', class: Migration20261202210000 },
   { name: 'Migration20261202220000', class: Migration20261202220000 },
   { name: 'Migration20261202230000', class: Migration20261202230000 },
 ];

@@ -122,6 +122,20 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     },
   },
   {
+    prefix: 'referrer.',
+    label: 'Referring dentists',
+    actions: {
+      'referrer.link_sent': 'Sent a referrer an upload link for a visit',
+      'referrer.link_opened': 'A referrer opened an upload link',
+      'referrer.upload_received': 'A referrer uploaded films through a link',
+      'referrer.upload_refused': 'Refused an upload through a used or expired link',
+      'referrer.letter_requested': 'Sent the outcome letter of a review to the referrer',
+      'referrer.letter_repeated': 'Asked again for an outcome letter already sent (nothing new sent)',
+      'referrer.mail_sent': 'An e-mail to a referrer was delivered to the mail relay',
+      'referrer.mail_failed': 'An e-mail to a referrer could not be delivered',
+    },
+  },
+  {
     prefix: 'visit.',
     label: 'Recall visits',
     actions: {

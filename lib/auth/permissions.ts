@@ -34,6 +34,11 @@ export const PERMISSIONS = {
   'film.read': ['coordinator', 'clinician', 'auditor'],
   /** Upload films to a case (the clinician at the chair; the coordinator filing films sent in). */
   'film.upload': ['coordinator', 'clinician'],
+  /**
+   * Write to the case's referring dentist (issue 13): send an upload link for a visit's film, send
+   * the outcome letter after a review — the coordinator who arranges follow-ups and the clinicians.
+   */
+  'referrer.send': ['coordinator', 'clinician'],
   /** Score follow-up films and record reviews. */
   'review.write': ['clinician'],
   /** Read outcome and survival statistics. */

@@ -14,7 +14,8 @@ import { tableRows, type FunnelPoint, type FunnelReport } from '@/lib/services/o
  */
 const FONT_DIR = path.join(process.cwd(), 'app', 'fonts', 'pdf');
 let registered = false;
-function registerFont() {
+/** Registers the PDF font once (also used by lib/pdf/outcome-letter.tsx). */
+export function registerFont() {
   if (registered) return;
   Font.register({
     family: 'Inter',

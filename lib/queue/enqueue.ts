@@ -7,11 +7,22 @@ import { reminderJobId } from '@/lib/recall/reminders';
 import { currentRequestId } from '@/lib/log/context';
 import { cohortExportJobId, JOBS, QUEUES, RECALL_SCAN_DEFAULT_PATTERN, RECALL_SCAN_SCHEDULER_ID, type QueueName } from './names';
 import { DEFAULT_JOB_OPTIONS, PRODUCER_QUEUE_OPTIONS, RECALL_SCAN_JOB_OPTIONS } from './options';
-import { parsePayload, type CohortExportData, type CohortExportInput, type RecallScanData, type RecallScanInput, type SendReminderData, type SendReminderInput } from './payloads';
+import {
+  parsePayload,
+  type CohortExportData,
+  type CohortExportInput,
+  type RecallScanData,
+  type RecallScanInput,
+  type SendReferrerMailData,
+  type SendReferrerMailInput,
+  type SendReminderData,
+  type SendReminderInput,
+} from './payloads';
 
 export type RemindersQueue = Queue<SendReminderData, unknown, typeof JOBS.sendReminder>;
 export type RecallScanQueue = Queue<RecallScanData, unknown, typeof JOBS.recallScan>;
 export type CohortExportsQueue = Queue<CohortExportData, unknown, typeof JOBS.cohortExport>;
+export type ReferrerMailQueue = Queue<SendReferrerMailData, unknown, typeof JOBS.sendReferrerMail>;
 
 export interface OpenQueueOptions {
   /** Redis key prefix (BullMQ's default 'bull'); tests use their own. */
@@ -54,6 +65,19 @@ export function openRemindersQueue(connection: Redis, options: OpenQueueOptions 
 
 export function openRecallScanQueue(connection: Redis, options: OpenQueueOptions = {}): RecallScanQueue {
   return openQueue(QUEUES.recallScan, connection, options) as RecallScanQueue;
+}
+
+export function openReferrerMailQueue(connection: Redis, options: OpenQueueOptions = {}): ReferrerMailQueue {
+  return openQueue(QUEUES.referrerMail, connection, options) as ReferrerMailQueue;
+}
+
+/** The job id of a referrer_message row: one job per row. */
+export const referrerMailJobId = (messageId: string) => `referrer-mail-${messageId}`;
+
+/** Queues one referrer_message row under its deterministic job id (a job that exists is left alone). */
+export async function enqueueReferrerMail(queue: ReferrerMailQueue, payload: SendReferrerMailInput) {
+  const data = parsePayload(JOBS.sendReferrerMail, payload);
+  return queue.add(JOBS.sendReferrerMail, data, { jobId: referrerMailJobId(data.messageId) });
 }
 
 export interface EnqueueOptions {

@@ -11,6 +11,8 @@ export const QUEUES = {
   recallScan: 'recall-scan',
   /** One job per research export (issue 14): read a cohort version's rows, write the archive to storage. */
   cohortExports: 'cohort-exports',
+  /** One job per referrer_message row (upload link, outcome letter): claim, render, send. */
+  referrerMail: 'referrer-mail',
 } as const;
 export type QueueName = (typeof QUEUES)[keyof typeof QUEUES];
 
@@ -18,6 +20,7 @@ export const JOBS = {
   sendReminder: 'send-reminder',
   recallScan: 'recall-scan',
   cohortExport: 'cohort-export',
+  sendReferrerMail: 'send-referrer-mail',
 } as const;
 export type JobName = (typeof JOBS)[keyof typeof JOBS];
 
@@ -26,6 +29,7 @@ export const JOB_QUEUE: Record<JobName, QueueName> = {
   [JOBS.sendReminder]: QUEUES.reminders,
   [JOBS.recallScan]: QUEUES.recallScan,
   [JOBS.cohortExport]: QUEUES.cohortExports,
+  [JOBS.sendReferrerMail]: QUEUES.referrerMail,
 };
 
 /** The export's job id: one per export row, so a double click or a re-add queues nothing twice. */

@@ -48,6 +48,8 @@ export const DEFAULT_JOB_OPTIONS: Record<QueueName, DefaultJobOptions> = {
   [QUEUES.cohortExports]: COHORT_EXPORT_JOB_OPTIONS,
   [QUEUES.reminders]: REMINDER_JOB_OPTIONS,
   [QUEUES.recallScan]: RECALL_SCAN_JOB_OPTIONS,
+  // Mail to referrers follows the reminders' rules: same retries, same history.
+  [QUEUES.referrerMail]: REMINDER_JOB_OPTIONS,
 };
 
 /**

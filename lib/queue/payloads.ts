@@ -53,13 +53,22 @@ export const CohortExportPayload = z.strictObject({
 export type CohortExportInput = z.input<typeof CohortExportPayload>;
 export type CohortExportData = z.output<typeof CohortExportPayload>;
 
+export const SendReferrerMailPayload = z.strictObject({
+  practiceId: JobSafeId,
+  /** The outbox row (referrer_message). */
+  messageId: JobSafeId,
+});
+export type SendReferrerMailInput = z.input<typeof SendReferrerMailPayload>;
+export type SendReferrerMailData = z.output<typeof SendReferrerMailPayload>;
+
 export const JOB_PAYLOADS = {
   [JOBS.cohortExport]: CohortExportPayload,
   [JOBS.sendReminder]: SendReminderPayload,
   [JOBS.recallScan]: RecallScanPayload,
+  [JOBS.sendReferrerMail]: SendReferrerMailPayload,
 } as const;
 
-export type JobData = { [JOBS.sendReminder]: SendReminderData; [JOBS.recallScan]: RecallScanData; [JOBS.cohortExport]: CohortExportData };
+export type JobData = { [JOBS.sendReminder]: SendReminderData; [JOBS.recallScan]: RecallScanData; [JOBS.cohortExport]: CohortExportData; [JOBS.sendReferrerMail]: SendReferrerMailData };
 
 /** A plain one-line summary of what is wrong with a payload. */
 export function payloadProblems(error: z.ZodError): string {

@@ -9,6 +9,7 @@ export type ErrorCode =
   | 'forbidden'
   | 'not_found'
   | 'conflict'
+  | 'gone'
   | 'payload_too_large'
   | 'unsupported_media_type'
   | 'validation'

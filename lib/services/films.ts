@@ -43,7 +43,10 @@ export interface FilmView {
   transferSyntax: string | null;
   /** The patient named in the DICOM file does not look like this case's patient. */
   patientMismatch: boolean;
-  uploadedBy: { id: string; name: string | null };
+  /** Who uploaded it; null for a film sent by the referring dentist through an upload link. */
+  uploadedBy: { id: string; name: string | null } | null;
+  /** Sent by the case's referring dentist through an upload link (issue 13). */
+  fromReferrer: boolean;
   createdAt: string;
   urls: Record<FilmVariant, string>;
 }
@@ -51,7 +54,7 @@ export interface FilmView {
 const FORMATS: Record<string, FilmView['format']> = { 'image/png': 'PNG', 'image/jpeg': 'JPEG', 'application/dicom': 'DICOM' };
 const EXTENSIONS: Record<string, string> = { 'image/png': 'png', 'image/jpeg': 'jpg', 'application/dicom': 'dcm' };
 
-function view(f: Film, uploader: { id: string; name: string | null }): FilmView {
+function view(f: Film, uploader: { id: string; name: string | null } | null): FilmView {
   const spacing = f.pixelSpacingRowMm != null && f.pixelSpacingColMm != null ? ([f.pixelSpacingRowMm, f.pixelSpacingColMm] as [number, number]) : null;
   const acquisition = f.acquisitionDate as unknown;
   return {
@@ -76,6 +79,7 @@ function view(f: Film, uploader: { id: string; name: string | null }): FilmView 
     transferSyntax: f.transferSyntax ?? null,
     patientMismatch: f.patientMismatch,
     uploadedBy: uploader,
+    fromReferrer: f.source === 'referrer',
     createdAt: f.createdAt.toISOString(),
     urls: {
       thumbnail: `/api/films/${f.id}/thumbnail`,
@@ -85,11 +89,11 @@ function view(f: Film, uploader: { id: string; name: string | null }): FilmView 
   };
 }
 
-async function views(em: EntityManager, films: Film[]): Promise<FilmView[]> {
-  const ids = [...new Set(films.map((f) => f.uploadedBy.id))];
+export async function views(em: EntityManager, films: Film[]): Promise<FilmView[]> {
+  const ids = [...new Set(films.flatMap((f) => (f.uploadedBy ? [f.uploadedBy.id] : [])))];
   const users = ids.length ? await em.find(UserSchema, { id: { $in: ids } }, { fields: ['id', 'name'] }) : [];
   const names = new Map(users.map((u) => [u.id, u.name ?? null]));
-  return films.map((f) => view(f, { id: f.uploadedBy.id, name: names.get(f.uploadedBy.id) ?? null }));
+  return films.map((f) => view(f, f.uploadedBy ? { id: f.uploadedBy.id, name: names.get(f.uploadedBy.id) ?? null } : null));
 }
 
 /** The live films of a case, newest first. Audited as a read. */
@@ -137,66 +141,20 @@ export async function uploadFilm(
     visitId = visit.id;
   }
 
-  let processed: ProcessedFilm;
-  try {
-    processed = await processFilm(bytes, filmMaxBytes());
-  } catch (e) {
-    if (e instanceof FilmRejected) {
-      throw new ServiceError(e.message, e.status, { file: [e.message] }, CODE_OF_STATUS[e.status]);
-    }
-    throw e;
-  }
+  const processed = await checkFilm(bytes);
 
   const existing = await findLive(em, c.id, input.role, processed.sha256);
   if (existing) return repeated(em, actor, existing);
 
   const patient = await em.findOneOrFail(PatientSchema, { id: c.patient.id }, { fields: ['id', 'givenName', 'familyName', 'registryNumber'] });
-  const dicom = processed.dicom;
-  const filmId = randomUUID();
-  const prefix = `practices/${actor.practiceId}/cases/${c.id}/films/${filmId}`;
-  const keys = {
-    original: `${prefix}/original.${EXTENSIONS[processed.contentType]}`,
-    web: `${prefix}/web.${EXTENSIONS[processed.web.contentType]}`,
-    thumbnail: `${prefix}/thumbnail.${EXTENSIONS[processed.thumbnail.contentType]}`,
-  };
-
-  try {
-    await Promise.all([
-      putObject({ key: keys.original, body: processed.original.body, contentType: processed.original.contentType }),
-      putObject({ key: keys.web, body: processed.web.body, contentType: processed.web.contentType }),
-      putObject({ key: keys.thumbnail, body: processed.thumbnail.body, contentType: processed.thumbnail.contentType }),
-    ]);
-  } catch (e) {
-    await removeQuietly(Object.values(keys));
-    console.error('[films] object storage refused a write', (e as Error)?.name ?? 'error');
-    throw new ServiceError('The film store is not answering: nothing was kept. Try the upload again in a moment.', 503, undefined, 'unavailable');
-  }
-
+  const stored = await storeFilmObjects(actor.practiceId, c.id, processed);
+  const keys = stored.keys;
   const film = em.create(FilmSchema, {
-    id: filmId,
+    ...filmRowData(stored, processed, patient),
     practice: actor.practiceId,
     case: c.id,
     visit: visitId,
     role: input.role,
-    originalKey: keys.original,
-    webKey: keys.web,
-    thumbnailKey: keys.thumbnail,
-    contentType: processed.contentType,
-    byteSize: processed.byteSize,
-    sha256: processed.sha256,
-    width: processed.width,
-    height: processed.height,
-    webWidth: processed.web.width,
-    webHeight: processed.web.height,
-    pixelSpacingRowMm: dicom?.pixelSpacingMm?.[0] ?? null,
-    pixelSpacingColMm: dicom?.pixelSpacingMm?.[1] ?? null,
-    spacingSource: dicom?.spacingSource ?? 'none',
-    acquisitionDate: dicom?.acquisitionDate ?? null,
-    modality: dicom?.modality ?? null,
-    transferSyntax: dicom?.transferSyntaxUid ?? null,
-    dicomPatientName: dicom?.patientName ?? null,
-    dicomPatientId: dicom?.patientId ?? null,
-    patientMismatch: dicom ? dicomPatientMismatch(patient, dicom.patientName, dicom.patientId) : false,
     uploadedBy: actor.userId,
   });
   try {
@@ -220,6 +178,76 @@ export async function uploadFilm(
   return { film: (await views(em, [film]))[0]!, created: true };
 }
 
+/** Checks and renders an uploaded file (lib/films/process.ts); a refused file is a 413/415/422 naming why. */
+export async function checkFilm(bytes: Uint8Array): Promise<ProcessedFilm> {
+  try {
+    return await processFilm(bytes, filmMaxBytes());
+  } catch (e) {
+    if (e instanceof FilmRejected) {
+      throw new ServiceError(e.message, e.status, { file: [e.message] }, CODE_OF_STATUS[e.status]);
+    }
+    throw e;
+  }
+}
+
+export interface StoredFilmObjects {
+  filmId: string;
+  keys: { original: string; web: string; thumbnail: string };
+}
+
+/**
+ * Writes a checked film's three objects under a fresh film id (before its row: a row never names
+ * a missing object). A failed write removes what was written and answers 503.
+ */
+export async function storeFilmObjects(practiceId: string, caseId: string, processed: ProcessedFilm): Promise<StoredFilmObjects> {
+  const filmId = randomUUID();
+  const prefix = `practices/${practiceId}/cases/${caseId}/films/${filmId}`;
+  const keys = {
+    original: `${prefix}/original.${EXTENSIONS[processed.contentType]}`,
+    web: `${prefix}/web.${EXTENSIONS[processed.web.contentType]}`,
+    thumbnail: `${prefix}/thumbnail.${EXTENSIONS[processed.thumbnail.contentType]}`,
+  };
+  try {
+    await Promise.all([
+      putObject({ key: keys.original, body: processed.original.body, contentType: processed.original.contentType }),
+      putObject({ key: keys.web, body: processed.web.body, contentType: processed.web.contentType }),
+      putObject({ key: keys.thumbnail, body: processed.thumbnail.body, contentType: processed.thumbnail.contentType }),
+    ]);
+  } catch (e) {
+    await removeQuietly(Object.values(keys));
+    console.error('[films] object storage refused a write', (e as Error)?.name ?? 'error');
+    throw new ServiceError('The film store is not answering: nothing was kept. Try the upload again in a moment.', 503, undefined, 'unavailable');
+  }
+  return { filmId, keys };
+}
+
+/** The columns of a film row that come from the file and its stored objects. */
+export function filmRowData(stored: StoredFilmObjects, processed: ProcessedFilm, patient: { givenName: string; familyName: string; registryNumber: string }) {
+  const dicom = processed.dicom;
+  return {
+    id: stored.filmId,
+    originalKey: stored.keys.original,
+    webKey: stored.keys.web,
+    thumbnailKey: stored.keys.thumbnail,
+    contentType: processed.contentType,
+    byteSize: processed.byteSize,
+    sha256: processed.sha256,
+    width: processed.width,
+    height: processed.height,
+    webWidth: processed.web.width,
+    webHeight: processed.web.height,
+    pixelSpacingRowMm: dicom?.pixelSpacingMm?.[0] ?? null,
+    pixelSpacingColMm: dicom?.pixelSpacingMm?.[1] ?? null,
+    spacingSource: dicom?.spacingSource ?? ('none' as const),
+    acquisitionDate: dicom?.acquisitionDate ?? null,
+    modality: dicom?.modality ?? null,
+    transferSyntax: dicom?.transferSyntaxUid ?? null,
+    dicomPatientName: dicom?.patientName ?? null,
+    dicomPatientId: dicom?.patientId ?? null,
+    patientMismatch: dicom ? dicomPatientMismatch(patient, dicom.patientName, dicom.patientId) : false,
+  };
+}
+
 function findLive(em: EntityManager, caseId: string, role: FilmRole, sha256: string) {
   return em.findOne(FilmSchema, { case: caseId, role, sha256, archivedAt: null });
 }
@@ -229,7 +257,7 @@ async function repeated(em: EntityManager, actor: Actor, film: Film): Promise<Fi
   return { film: (await views(em, [film]))[0]!, created: false };
 }
 
-async function removeQuietly(keys: string[]) {
+export async function removeQuietly(keys: string[]) {
   try {
     await deleteObjects(keys);
   } catch {

@@ -28,6 +28,7 @@ interface Ids {
   /** a research cohort of the practice and an export of its first version (issue 14) */
   cohortId: string;
   exportId: string;
+  reviewId: string;
 }
 interface Row {
   route: string; // the route file's path under app/, e.g. 'api/team/members'
@@ -122,6 +123,13 @@ const MATRIX: Row[] = [
   { route: 'api/recall/rate', method: 'GET', url: () => '/api/recall/rate', expect: only({ coordinator: 200 }) },
   { route: 'api/recall/policy', method: 'GET', url: () => '/api/recall/policy', expect: only({ coordinator: 200 }) },
   { route: 'api/recall/policy', method: 'PUT', url: () => '/api/recall/policy', body: { invitationWeeksBefore: 0 }, expect: only({ coordinator: 422 }) },
+  // Referring dentists (issue 13): links and letters are sent by the coordinator and the clinicians.
+  { route: 'api/cases/[id]/referrer-links', method: 'POST', url: () => `/api/cases/${randomUUID()}/referrer-links`, body: { visitId: randomUUID() }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/reviews/[id]/letter', method: 'POST', url: () => `/api/reviews/${randomUUID()}/letter`, expect: only({ coordinator: 404, clinician: 404 }) },
+  // The referrer's upload link (no account; the token is the credential): the same answer for everyone.
+  { route: 'api/upload/[token]', method: 'GET', url: () => '/api/upload/not-a-token', expect: everyone(404) },
+  { route: 'api/upload/[token]', method: 'POST', url: () => '/api/upload/not-a-token', expect: everyone(404) },
+  { route: 'upload/[token]', method: 'GET', url: () => '/upload/not-a-token', expect: everyone(200) },
   // Patients' links (no account; the signed token is the credential): the same answer for everyone.
   // Research cohorts (issue 14): the researcher alone; nobody else, and the researcher reaches no identifiable route (rows above).
   { route: 'api/cohorts', method: 'GET', url: () => '/api/cohorts', expect: only({ researcher: 200 }) },
@@ -166,6 +174,8 @@ const CROSS: Row[] = [
   { route: 'api/reading/films/[id]/readings', method: 'POST', url: (_, o) => `/api/reading/films/${o.filmId}/readings`, body: { kind: 'first', pai: 2 }, expect: only({ clinician: 404, auditor: 404 }) },
   { route: 'api/reading/reference/[id]', method: 'PUT', url: (_, o) => `/api/reading/reference/${o.filmId}`, body: { pai: 2 }, expect: only({ auditor: 404 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: (_, o) => `/api/visits/${o.visitId}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
+  { route: 'api/cases/[id]/referrer-links', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/referrer-links`, body: { visitId: randomUUID() }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/reviews/[id]/letter', method: 'POST', url: (_, o) => `/api/reviews/${o.reviewId}/letter`, expect: only({ coordinator: 404, clinician: 404 }) },
   { route: 'api/recall/visits/[id]/contact-log', method: 'GET', url: (_, o) => `/api/recall/visits/${o.visitId}/contact-log`, expect: only({ coordinator: 404 }) },
   { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },
   { route: 'api/outcomes/worklist/[id]/decisions', method: 'GET', url: (_, o) => `/api/outcomes/worklist/${o.caseId}/decisions`, expect: only({ clinician: 404, auditor: 404 }) },
@@ -179,7 +189,7 @@ const CROSS: Row[] = [
 ];
 
 /** Routes whose id is a signed token (the credential itself), not a record of a practice. */
-const NOT_PRACTICE_IDS = new Set(['api/auth/[...nextauth]', 'api/unsubscribe/[token]', 'r/[token]', 'u/[token]']);
+const NOT_PRACTICE_IDS = new Set(['api/auth/[...nextauth]', 'api/unsubscribe/[token]', 'api/upload/[token]', 'r/[token]', 'u/[token]', 'upload/[token]']);
 
 function routeFiles(dir: string, base = dir): string[] {
   return readdirSync(dir).flatMap((name) => {
@@ -243,6 +253,16 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
     expect((await researcher.request.post(`/api/cohorts/${cohortId}/versions`, { data: { filters: { kind: 'primary_treatment' }, variables: [] } })).status()).toBe(200);
     expect((await researcher.request.post(`/api/cohorts/${cohortId}/exports`, { data: { version: 1 } })).status()).toBe(202);
     const exportId = (await (await researcher.request.get(`/api/cohorts/${cohortId}`)).json()).exports[0].id as string;
+    // A review of the practice (the demo world has many), for the outcome letter's route.
+    let reviewId = '';
+    for (const c of cases) {
+      const r = (await (await coord.request.get(`/api/cases/${c.id}/reviews`)).json()) as { reviews?: { id: string }[] };
+      if (r.reviews?.length) {
+        reviewId = r.reviews[0]!.id;
+        break;
+      }
+    }
+    expect(reviewId).not.toBe('');
     return {
       cohortId,
       exportId,
@@ -253,6 +273,7 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
       visitId: visits.visits[0].id,
       invitationId: (await invited.json()).invitationId,
       filmId: (await film.json()).film.id,
+      reviewId,
     };
   } finally {
     await admin.close();

@@ -14,6 +14,9 @@ import { uploadFilm } from '@/lib/services/films';
 import { createCohort, downloadPath, saveCohortVersion, startCohortExport } from '@/lib/services/cohorts';
 import { putObject } from '@/lib/storage/s3';
 import { setReferenceFilm } from '@/lib/services/readings';
+import { createReferrer } from '@/lib/services/referrers';
+import { sendUploadLink } from '@/lib/services/referrer-links';
+import { deriveUploadLinkSecret, uploadToken } from '@/lib/referrers/upload-token';
 import { createPatient } from '@/lib/services/patients';
 import { createReview } from '@/lib/services/reviews';
 import { answerReply } from '@/lib/services/recall-replies';
@@ -167,6 +170,10 @@ const SPECS: Record<string, RouteSpec> = {
   },
   'reading/reference/[id]/route.ts#PUT': { params: () => ({ id: ids.film! }), body: () => ({ pai: 3 }) },
   'outcomes/agreement/route.ts#GET': {},
+  'cases/[id]/referrer-links/route.ts#POST': { params: () => ({ id: ids.worklistCase! }), body: () => ({ visitId: ids.worklistVisit!, days: 7 }) },
+  'reviews/[id]/letter/route.ts#POST': { params: () => ({ id: ids.worklistReview! }) },
+  'upload/[token]/route.ts#GET': { params: () => ({ token: ids.uploadToken! }) },
+  'upload/[token]/route.ts#POST': { params: () => ({ token: ids.uploadToken! }), multipart: fieldsAndFile(() => ({}), () => filmPngBytes) },
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream', 'validRowsOnly'], baseQuery: { mode: 'dry-run' }, csv: true },
   'cases/import/read/route.ts#POST': { multipart: importFileUpload() },
@@ -471,8 +478,13 @@ beforeAll(async () => {
   // A case on the non-healing worklist (disease at its latest review), so a next step can be recorded.
   const patient3 = await createPatient(services.em(), p.coordinator, patientInput({ registryNumber: 'T-0003' }));
   const worklistCase = await createCase(services.em(), p.clinician, caseInput(patient3.id, p.clinician.userId, { tooth: 47, startDate: '2023-01-10', completionDate: '2023-01-24' }));
-  await createReview(services.em(), p.clinician, worklistCase.id, { reviewDate: '2024-02-01', toothStatus: 'present', paiScore: 5, lesionDiameterMm: 5 });
+  ids.worklistReview = (await createReview(services.em(), p.clinician, worklistCase.id, { reviewDate: '2024-02-01', toothStatus: 'present', paiScore: 5, lesionDiameterMm: 5 })).review.id;
   ids.worklistCase = worklistCase.id;
+  // Its referrer has an address: an upload link (its token for the public route) and the outcome letter.
+  const referrer = await createReferrer(services.em(), p.coordinator, { name: 'Dr Fuzz Referrer', email: 'referrer@fuzz.test' });
+  await services.em().getKnex()('treatment_case').where({ id: worklistCase.id }).update({ referrer_id: referrer.id });
+  ids.worklistVisit = ((await services.em().getKnex()('recall_visit').where({ case_id: worklistCase.id }).orderBy('milestone').first('id')) as { id: string }).id;
+  ids.uploadToken = uploadToken((await sendUploadLink(services.em(), p.coordinator, worklistCase.id, { visitId: ids.worklistVisit })).linkId, deriveUploadLinkSecret(env.NEXTAUTH_SECRET));
   ids.film = (await uploadFilm(services.em(), p.clinician, c.id, { role: 'post_fill' }, filmPngBytes)).film.id;
   // A research cohort with a saved version and a finished export (its archive stored), for the researcher's routes.
   const cohort = await createCohort(services.em(), actor, { name: 'Fuzz cohort' });

@@ -10,8 +10,8 @@ import { navFor } from '@/components/shell/nav';
  */
 const EXPECTED: Record<Role, string[]> = {
   admin: ['team.read', 'team.manage', 'audit.read', 'mailbox.read'],
-  coordinator: ['patient.read', 'patient.write', 'case.import', 'recall.manage', 'film.read', 'film.upload'],
-  clinician: ['patient.read', 'patient.write', 'case.write', 'case.import', 'review.write', 'outcomes.read', 'outcomes.decide', 'film.read', 'film.upload', 'reading.queue', 'reading.score'],
+  coordinator: ['patient.read', 'patient.write', 'case.import', 'recall.manage', 'film.read', 'film.upload', 'referrer.send'],
+  clinician: ['patient.read', 'patient.write', 'case.write', 'case.import', 'review.write', 'outcomes.read', 'outcomes.decide', 'film.read', 'film.upload', 'reading.queue', 'reading.score', 'referrer.send'],
   auditor: ['patient.read', 'outcomes.read', 'film.read', 'reading.queue', 'reading.lead'],
   researcher: ['cohort.export'],
 };

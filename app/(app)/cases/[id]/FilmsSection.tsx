@@ -233,6 +233,11 @@ export function FilmsSection({
                 />
               </a>
               <div className="text-sm font-medium">{f.roleLabel}</div>
+              {f.fromReferrer && (
+                <div className="text-xs font-medium text-dura-700" data-testid="film-from-referrer">
+                  ↘ From the referring dentist
+                </div>
+              )}
               <div className="text-xs text-ink-700">
                 {fmtDate(f.acquisitionDate ?? f.createdAt)} · {f.format}
                 {f.pixelSpacingMm ? ` · ${f.pixelSpacingMm[0]} × ${f.pixelSpacingMm[1]} mm per pixel` : ''}

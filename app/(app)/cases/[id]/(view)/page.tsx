@@ -22,6 +22,7 @@ import { fmtDate } from '@/components/ui/format';
 import { ReviewForm } from '../ReviewFormLazy';
 import type { ReviewCorrection, ReviewVisitOption } from '../ReviewForm';
 import { VisitActions } from '../VisitActions';
+import { ReferrerAction } from '../ReferrerActions';
 import { FilmsSection } from '../FilmsSection';
 import { listFilms } from '@/lib/services/films';
 import { isoSize } from '../../_components/options';
@@ -56,6 +57,7 @@ export default async function CasePage({ params, searchParams }: { params: Promi
   const correcting = canReview ? c.reviews.find((r) => r.id === correctingId && r.current) : undefined;
   const canWrite = can(actor.roles, 'case.write');
   const films = can(actor.roles, 'film.read') ? await listFilms(em, actor, c.id) : null;
+  const canWriteReferrer = can(actor.roles, 'referrer.send') && Boolean(c.referrer) && !c.archived;
   return (
     <div className="space-y-6">
       <p className="text-sm">
@@ -215,6 +217,9 @@ export default async function CasePage({ params, searchParams }: { params: Promi
                       </td>
                       <td data-label="Action">
                         {canMoveVisits && (x.allowedNext.length > 0 || x.canUndoMissed) && <VisitActions visit={x} />}
+                        {canWriteReferrer && x.allowedNext.length > 0 && (
+                          <ReferrerAction url={`/api/cases/${c.id}/referrer-links`} body={{ visitId: x.id }} label="Ask the referrer for the film" doneLabel="Upload link sent" />
+                        )}
                         {canReview && x.allowedNext.includes('attended') && (
                           <Link href={`/cases/${c.id}?review=${x.id}#record-review`} className="btn-secondary min-h-0 py-1 text-sm no-underline">
                             Record the review
@@ -283,7 +288,12 @@ export default async function CasePage({ params, searchParams }: { params: Promi
                           strict {r.successStrict ? '✓' : '✕'} · lenient {r.successLenient ? '✓' : '✕'}
                         </div>
                       </td>
-                      <td data-label="Why" className="text-xs">{r.reasons.join('; ')}</td>
+                      <td data-label="Why" className="text-xs">
+                        {r.reasons.join('; ')}
+                        {canWriteReferrer && r.current && (
+                          <ReferrerAction url={`/api/reviews/${r.id}/letter`} label="Send the outcome letter" doneLabel="Outcome letter sent" />
+                        )}
+                      </td>
                     </tr>
                   ))}
                 </tbody>
