@@ -1,6 +1,7 @@
 import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
 import { FILM_ROLES, SPACING_SOURCES } from '../lib/films/roles';
+import { CALIBRATION_SOURCES, type DrawnReference, type FilmPoint } from '../lib/films/calibration';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
 import { ReviewSchema } from './Review';
@@ -50,6 +51,18 @@ export const FilmSchema = defineEntity({
     dicomPatientId: p.string().length(64).nullable().default(null),
     patientMismatch: p.boolean().default(false),
     uploadedBy: p.manyToOne(UserSchema).ref().deleteRule('restrict'),
+    /** Calibration (Migration20261202190000): mm per pixel of the original, across (x) and down (y). */
+    calibrationSource: p.enum([...CALIBRATION_SOURCES]).nullable().default(null),
+    mmPerPxX: p.double().$type<number>().nullable(),
+    mmPerPxY: p.double().$type<number>().nullable(),
+    calibrationReference: p.json<DrawnReference>().nullable(),
+    calibratedAt: p.datetime().nullable().default(null),
+    /** The largest lesion diameter's two ends and an optional outline (original pixels), and their figures. */
+    lesionDiameter: p.json<{ a: FilmPoint; b: FilmPoint }>().nullable(),
+    lesionOutline: p.json<FilmPoint[]>().nullable(),
+    lesionDiameterMm: p.double().$type<number>().nullable(),
+    lesionAreaMm2: p.double().$type<number>().nullable(),
+    measuredAt: p.datetime().nullable().default(null),
     createdAt: p.datetime().onCreate(() => new Date()),
     archivedAt: p.datetime().nullable().default(null),
   },

@@ -16,6 +16,7 @@ import { Migration20261202150000 } from './Migration20261202150000';
 import { Migration20261202160000 } from './Migration20261202160000';
 import { Migration20261202170000 } from './Migration20261202170000';
 import { Migration20261202180000 } from './Migration20261202180000';
+import { Migration20261202190000 } from './Migration20261202190000';
 
 export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261201221639', class: Migration20261201221639 },
@@ -31,4 +32,5 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261202160000', class: Migration20261202160000 },
   { name: 'Migration20261202170000', class: Migration20261202170000 },
   { name: 'Migration20261202180000', class: Migration20261202180000 },
+  { name: 'Migration20261202190000', class: Migration20261202190000 },
 ];

@@ -54,6 +54,9 @@ export const MIN_REFERENCE_PX = 10;
 /** The longest known length accepted (mm): no file or tooth is longer (common practice). */
 export const MAX_REFERENCE_MM = 100;
 
+/** The most points an outline may have. */
+export const MAX_OUTLINE_POINTS = 500;
+
 export class CalibrationError extends Error {}
 
 const positive = (v: number, what: string) => {

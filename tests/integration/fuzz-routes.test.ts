@@ -154,6 +154,11 @@ const SPECS: Record<string, RouteSpec> = {
     multipart: fieldsAndFile(() => ({ role: 'follow_up', visitId: ids.visit! }), () => filmPngBytes),
   },
   'films/[id]/[variant]/route.ts#GET': { params: () => ({ id: ids.film!, variant: 'thumbnail' }) },
+  'films/[id]/calibration/route.ts#PUT': { params: () => ({ id: ids.film! }), body: () => ({ source: 'drawn', a: { x: 10, y: 20 }, b: { x: 150, y: 20 }, mm: 10 }) },
+  'films/[id]/measurement/route.ts#PUT': {
+    params: () => ({ id: ids.film! }),
+    body: () => ({ diameter: { a: { x: 40, y: 40 }, b: { x: 90, y: 60 } }, outline: [{ x: 40, y: 40 }, { x: 90, y: 40 }, { x: 90, y: 60 }] }),
+  },
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream', 'validRowsOnly'], baseQuery: { mode: 'dry-run' }, csv: true },
   'cases/import/read/route.ts#POST': { multipart: importFileUpload() },
