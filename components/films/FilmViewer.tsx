@@ -399,7 +399,7 @@ export function FilmViewer({ films: initial, onCalibrate, onMeasure, onMeasured 
         </div>
       )}
 
-      <details className="text-xs text-bone-300">
+      <details className="text-xs text-bone-300" open>
         <summary className="cursor-pointer">Keyboard shortcuts</summary>
         <dl className="mt-2 grid grid-cols-[auto_1fr] gap-x-3 gap-y-1" aria-label="Keyboard shortcuts">
           {VIEWER_SHORTCUTS.filter(([k]) => canEdit || !['k', 'd', 'o'].includes(k)).map(([k, w]) => (

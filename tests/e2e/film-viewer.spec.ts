@@ -79,7 +79,6 @@ test('calibrate, measure, and the diameter fills the review form', async ({ page
   await expect(viewer.getByText('Zoom 1.3×')).toBeVisible();
   await page.keyboard.press('0');
   await expect(viewer.getByText('Zoom 1.0×')).toBeVisible();
-  await viewer.getByText('Keyboard shortcuts').click();
   await expect(viewer.getByRole('definition').filter({ hasText: 'known length (calibrate)' })).toBeVisible();
 
   // Calibrate: a known 10 mm drawn across 0.6 of the pane's side.
