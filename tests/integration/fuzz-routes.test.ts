@@ -11,6 +11,7 @@ import { templateCsv } from '@/lib/registry/csv';
 import { reviewTemplateCsv } from '@/lib/registry/review-csv';
 import { createCase } from '@/lib/services/cases';
 import { uploadFilm } from '@/lib/services/films';
+import { calibrateFilm } from '@/lib/services/film-measure';
 import { createPatient } from '@/lib/services/patients';
 import { createReview } from '@/lib/services/reviews';
 import { answerReply } from '@/lib/services/recall-replies';
@@ -154,10 +155,10 @@ const SPECS: Record<string, RouteSpec> = {
     multipart: fieldsAndFile(() => ({ role: 'follow_up', visitId: ids.visit! }), () => filmPngBytes),
   },
   'films/[id]/[variant]/route.ts#GET': { params: () => ({ id: ids.film!, variant: 'thumbnail' }) },
-  'films/[id]/calibration/route.ts#PUT': { params: () => ({ id: ids.film! }), body: () => ({ source: 'drawn', a: { x: 10, y: 20 }, b: { x: 150, y: 20 }, mm: 10 }) },
+  'films/[id]/calibration/route.ts#PUT': { params: () => ({ id: ids.film! }), body: () => ({ source: 'drawn', a: { x: 2, y: 5 }, b: { x: 38, y: 5 }, mm: 10 }) },
   'films/[id]/measurement/route.ts#PUT': {
     params: () => ({ id: ids.film! }),
-    body: () => ({ diameter: { a: { x: 40, y: 40 }, b: { x: 90, y: 60 } }, outline: [{ x: 40, y: 40 }, { x: 90, y: 40 }, { x: 90, y: 60 }] }),
+    body: () => ({ diameter: { a: { x: 5, y: 5 }, b: { x: 30, y: 20 } }, outline: [{ x: 5, y: 5 }, { x: 30, y: 5 }, { x: 30, y: 20 }] }),
   },
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream', 'validRowsOnly'], baseQuery: { mode: 'dry-run' }, csv: true },
@@ -447,6 +448,8 @@ beforeAll(async () => {
   await createReview(services.em(), p.clinician, worklistCase.id, { reviewDate: '2024-02-01', toothStatus: 'present', paiScore: 5, lesionDiameterMm: 5 });
   ids.worklistCase = worklistCase.id;
   ids.film = (await uploadFilm(services.em(), p.clinician, c.id, { role: 'post_fill' }, filmPngBytes)).film.id;
+  // Calibrated, so a measurement's valid request is accepted whatever the order of the routes (the film is 40 × 30 px).
+  await calibrateFilm(services.em(), p.clinician, ids.film, { source: 'drawn', a: { x: 2, y: 5 }, b: { x: 38, y: 5 }, mm: 10 });
   // A real invitation, so the invitation form's fuzz reaches the database with a usable token.
   const invitee = `invitee.${Date.now()}@fuzz.test`;
   await inviteMember(services.em(), p.admin, { name: 'Invitee', email: invitee, roles: ['clinician'] });
