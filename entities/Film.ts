@@ -1,6 +1,7 @@
 import { defineEntity, p, type InferEntity } from '@mikro-orm/core';
 import { randomUUID } from 'node:crypto';
 import { FILM_ROLES, SPACING_SOURCES } from '../lib/films/roles';
+import { CALIBRATION_SOURCES, type DrawnReference, type FilmPoint } from '../lib/films/calibration';
 import { PracticeSchema } from './Practice';
 import { RecallVisitSchema } from './RecallVisit';
 import { ReferrerUploadLinkSchema } from './ReferrerUploadLink';
@@ -55,6 +56,18 @@ export const FilmSchema = defineEntity({
     /** practice: uploaded by a signed-in user; referrer: sent by the referring dentist through `referrerLink`. */
     source: p.enum(['practice', 'referrer'] as const).default('practice'),
     referrerLink: p.manyToOne(ReferrerUploadLinkSchema).ref().nullable().deleteRule('set null').default(null),
+    /** Calibration (Migration20261202190000): mm per pixel of the original, across (x) and down (y). */
+    calibrationSource: p.enum([...CALIBRATION_SOURCES]).nullable().default(null),
+    mmPerPxX: p.double().$type<number>().nullable(),
+    mmPerPxY: p.double().$type<number>().nullable(),
+    calibrationReference: p.json<DrawnReference>().nullable(),
+    calibratedAt: p.datetime().nullable().default(null),
+    /** The largest lesion diameter's two ends and an optional outline (original pixels), and their figures. */
+    lesionDiameter: p.json<{ a: FilmPoint; b: FilmPoint }>().nullable(),
+    lesionOutline: p.json<FilmPoint[]>().nullable(),
+    lesionDiameterMm: p.double().$type<number>().nullable(),
+    lesionAreaMm2: p.double().$type<number>().nullable(),
+    measuredAt: p.datetime().nullable().default(null),
     createdAt: p.datetime().onCreate(() => new Date()),
     archivedAt: p.datetime().nullable().default(null),
   },

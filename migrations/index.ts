@@ -16,6 +16,7 @@ import { Migration20261202150000 } from './Migration20261202150000';
 import { Migration20261202160000 } from './Migration20261202160000';
 import { Migration20261202170000 } from './Migration20261202170000';
 import { Migration20261202180000 } from './Migration20261202180000';
+import { Migration20261202190000 } from './Migration20261202190000';
 import { Migration20261202200000 } from './Migration20261202200000';
 import { Migration20261202210000 } from './Migration20261202210000';
 import { Migration20261202220000 } from './Migration20261202220000';
@@ -35,6 +36,7 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261202160000', class: Migration20261202160000 },
   { name: 'Migration20261202170000', class: Migration20261202170000 },
   { name: 'Migration20261202180000', class: Migration20261202180000 },
+  { name: 'Migration20261202190000', class: Migration20261202190000 },
   { name: 'Migration20261202200000', class: Migration20261202200000 },
   { name: 'Migration20261202210000', class: Migration20261202210000 },
   { name: 'Migration20261202220000', class: Migration20261202220000 },

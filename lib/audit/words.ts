@@ -91,6 +91,8 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
       'film.uploaded': 'Uploaded a film',
       'film.upload_repeated': 'Uploaded a film already stored (no copy kept)',
       'film.viewed': 'Viewed a film',
+      'film.calibrated': 'Calibrated a film (mm per pixel)',
+      'film.measured': 'Measured the lesion on a film',
     },
   },
   {

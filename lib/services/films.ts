@@ -9,6 +9,7 @@ import { dicomPatientMismatch } from '@/lib/films/identity';
 import { FilmRejected, processFilm, type ProcessedFilm } from '@/lib/films/process';
 import { FILM_ROLE_LABELS, SPACING_SOURCE_LABELS, type FilmRole, type FilmVariant, type SpacingSourceCode } from '@/lib/films/roles';
 import { FilmUploadFields } from '@/lib/schemas/film';
+import type { FilmCalibration, FilmPoint } from '@/lib/films/calibration';
 import { deleteObjects, getObject, putObject } from '@/lib/storage/s3';
 import { audit } from './audit';
 import { NotFoundError, ServiceError, ValidationError } from './errors';
@@ -49,6 +50,24 @@ export interface FilmView {
   fromReferrer: boolean;
   createdAt: string;
   urls: Record<FilmVariant, string>;
+  /** How mm are read off the film (mm per pixel of the original); null until calibrated. */
+  calibration: FilmCalibration | null;
+  /** The largest lesion diameter (and an optional outline) measured on it; null until measured. */
+  measurement: FilmMeasurementView | null;
+}
+
+export interface FilmMeasurementView {
+  diameter: { a: FilmPoint; b: FilmPoint };
+  outline: FilmPoint[] | null;
+  diameterMm: number;
+  areaMm2: number | null;
+  measuredAt: string;
+}
+
+/** The calibration stored with a film, as the viewer and the API see it. */
+export function calibrationOf(f: Film): FilmCalibration | null {
+  if (!f.calibrationSource || f.mmPerPxX == null || f.mmPerPxY == null) return null;
+  return { source: f.calibrationSource, mmPerPxX: f.mmPerPxX, mmPerPxY: f.mmPerPxY, reference: f.calibrationReference ?? null };
 }
 
 const FORMATS: Record<string, FilmView['format']> = { 'image/png': 'PNG', 'image/jpeg': 'JPEG', 'application/dicom': 'DICOM' };
@@ -86,6 +105,11 @@ function view(f: Film, uploader: { id: string; name: string | null } | null): Fi
       web: `/api/films/${f.id}/web`,
       original: `/api/films/${f.id}/original`,
     },
+    calibration: calibrationOf(f),
+    measurement:
+      f.lesionDiameter && f.lesionDiameterMm != null && f.measuredAt
+        ? { diameter: f.lesionDiameter, outline: f.lesionOutline ?? null, diameterMm: f.lesionDiameterMm, areaMm2: f.lesionAreaMm2 ?? null, measuredAt: f.measuredAt.toISOString() }
+        : null,
   };
 }
 

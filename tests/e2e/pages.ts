@@ -39,6 +39,7 @@ export const PAGES: PageRow[] = [
   // before); a role without the area still gets 403 from the area's layout, before anything streams.
   { page: 'cases/[id]', url: () => `/cases/${randomUUID()}`, expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },
   { page: 'cases/[id]/edit', url: () => `/cases/${randomUUID()}/edit`, expect: signInFirst(only({ clinician: 200 })) }, // not found, shown after the loading state (as for cases/[id])
+  { page: 'cases/[id]/films/view', url: () => `/cases/${randomUUID()}/films/view`, expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) }, // not found, shown after the loading state (as for cases/[id])
   { page: 'patients', url: () => '/patients', expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },
   { page: 'patients/new', url: () => '/patients/new', expect: signInFirst(only({ coordinator: 200, clinician: 200 })) },
   { page: 'patients/[id]', url: () => `/patients/${randomUUID()}`, expect: signInFirst(only({ coordinator: 200, clinician: 200, auditor: 200 })) },

@@ -17,6 +17,7 @@ import { setReferenceFilm } from '@/lib/services/readings';
 import { createReferrer } from '@/lib/services/referrers';
 import { sendUploadLink } from '@/lib/services/referrer-links';
 import { deriveUploadLinkSecret, uploadToken } from '@/lib/referrers/upload-token';
+import { calibrateFilm } from '@/lib/services/film-measure';
 import { createPatient } from '@/lib/services/patients';
 import { createReview } from '@/lib/services/reviews';
 import { answerReply } from '@/lib/services/recall-replies';
@@ -174,6 +175,11 @@ const SPECS: Record<string, RouteSpec> = {
   'reviews/[id]/letter/route.ts#POST': { params: () => ({ id: ids.worklistReview! }) },
   'upload/[token]/route.ts#GET': { params: () => ({ token: ids.uploadToken! }) },
   'upload/[token]/route.ts#POST': { params: () => ({ token: ids.uploadToken! }), multipart: fieldsAndFile(() => ({}), () => filmPngBytes) },
+  'films/[id]/calibration/route.ts#PUT': { params: () => ({ id: ids.film! }), body: () => ({ source: 'drawn', a: { x: 2, y: 5 }, b: { x: 38, y: 5 }, mm: 10 }) },
+  'films/[id]/measurement/route.ts#PUT': {
+    params: () => ({ id: ids.film! }),
+    body: () => ({ diameter: { a: { x: 5, y: 5 }, b: { x: 30, y: 20 } }, outline: [{ x: 5, y: 5 }, { x: 30, y: 5 }, { x: 30, y: 20 }] }),
+  },
   'cases/import/route.ts#GET': {},
   'cases/import/route.ts#POST': { query: ['mode', 'stream', 'validRowsOnly'], baseQuery: { mode: 'dry-run' }, csv: true },
   'cases/import/read/route.ts#POST': { multipart: importFileUpload() },
@@ -502,6 +508,8 @@ beforeAll(async () => {
     ids[key] = (await uploadFilm(services.em(), p.clinician, c.id, { role: 'follow_up' }, bytes)).film.id;
     await setReferenceFilm(services.em(), p.auditor, ids[key]!, { pai: 2 });
   }
+  // Calibrated, so a measurement's valid request is accepted whatever the order of the routes (the film is 40 × 30 px).
+  await calibrateFilm(services.em(), p.clinician, ids.film, { source: 'drawn', a: { x: 2, y: 5 }, b: { x: 38, y: 5 }, mm: 10 });
   // A real invitation, so the invitation form's fuzz reaches the database with a usable token.
   const invitee = `invitee.${Date.now()}@fuzz.test`;
   await inviteMember(services.em(), p.admin, { name: 'Invitee', email: invitee, roles: ['clinician'] });

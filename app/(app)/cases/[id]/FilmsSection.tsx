@@ -143,9 +143,16 @@ export function FilmsSection({
 
   return (
     <section aria-labelledby="films" className="card space-y-4">
-      <h2 id="films" className="text-xl">
-        Films
-      </h2>
+      <div className="flex flex-wrap items-baseline justify-between gap-2">
+        <h2 id="films" className="text-xl">
+          Films
+        </h2>
+        {films.length > 0 && (
+          <a href={`/cases/${caseId}/films/view`} className="text-sm" data-testid="open-viewer">
+            Compare and measure in the viewer
+          </a>
+        )}
+      </div>
 
       {canUpload && (
         <div className="space-y-3 rounded-md border border-bone-300 p-3">
@@ -241,7 +248,11 @@ export function FilmsSection({
               <div className="text-xs text-ink-700">
                 {fmtDate(f.acquisitionDate ?? f.createdAt)} · {f.format}
                 {f.pixelSpacingMm ? ` · ${f.pixelSpacingMm[0]} × ${f.pixelSpacingMm[1]} mm per pixel` : ''}
+                {f.measurement ? ` · lesion ${f.measurement.diameterMm.toFixed(1)} mm` : ''}
               </div>
+              <a href={`/cases/${caseId}/films/view?films=${f.id}`} className="text-xs">
+                Open in the viewer
+              </a>
               {f.patientMismatch && (
                 <p role="note" className="rounded-md border border-state-alert/30 bg-state-alertBg px-2 py-1 text-xs text-state-alert" data-testid="film-mismatch">
                   <span aria-hidden="true" className="font-bold">

@@ -22,6 +22,9 @@ import { Notice } from '@/components/ui/Notice';
 import { Check, CheckGroup } from '@/components/ui/Check';
 import { PAI_OPTIONS } from '../_components/options';
 import { submitJson } from '@/components/forms/submitJson';
+import { PAI_REFERENCE_CAUTION, PaiReferenceDrawing } from '@/components/films/PaiReference';
+import { cbctPai } from '@/lib/scoring/cbct-pai';
+import type { PaiScore } from '@/lib/scoring/pai';
 
 type Shape = Record<string, unknown> & {
   visitId?: string;
@@ -50,6 +53,24 @@ export interface ReviewCorrection {
   values: Partial<Shape>;
 }
 
+/** A film of the case as the review form lists it (those of the chosen visit are shown). */
+export interface ReviewFilm {
+  id: string;
+  visitId: string | null;
+  label: string;
+  /** The largest lesion diameter measured on it in the viewer (mm, 0.1), if any. */
+  diameterMm: number | null;
+  /** DICOM modality (CT for a cone-beam or other CT volume's slice). */
+  modality: string | null;
+}
+
+/** The CBCT-PAI (Estrela et al. 2008; lib/scoring/cbct-pai.ts) of the diameter typed, or null. */
+function liveCbctPai(mm: unknown): { label: string; description: string } | null {
+  const d = typeof mm === 'number' ? mm : typeof mm === 'string' && mm !== '' ? Number(mm) : Number.NaN;
+  if (!Number.isFinite(d) || d < 0 || d > 100) return null;
+  return cbctPai(d);
+}
+
 const num = { setValueAs: (v: unknown) => (v === '' || v === undefined ? undefined : Number(v)) };
 // caseId and assessorId come from the page and the session; the form checks the rest with the API's schema.
 const FormSchema = z.preprocess((v) => ({ ...(v as object), caseId: 'this-case', assessorId: 'me' }), ReviewCreateSchema);
@@ -67,6 +88,9 @@ export function ReviewForm({
   initialVisitId,
   startOpen = false,
   correcting,
+  initialLesionMm,
+  films = [],
+  baselineFilmId,
 }: {
   caseId: string;
   visits: ReviewVisitOption[];
@@ -74,6 +98,12 @@ export function ReviewForm({
   initialVisitId?: string;
   startOpen?: boolean;
   correcting?: ReviewCorrection;
+  /** A diameter measured in the film viewer, carried here by its "Record the review" link. */
+  initialLesionMm?: number;
+  /** The case's films: those of the chosen visit are listed with a link to the viewer. */
+  films?: ReviewFilm[];
+  /** The film the viewer shows beside a follow-up film (the latest baseline). */
+  baselineFilmId?: string;
 }) {
   const router = useRouter();
   const [open, setOpen] = useState(startOpen);
@@ -82,13 +112,21 @@ export function ReviewForm({
     resolver: schemaResolver(correcting ? CorrectionFormSchema : FormSchema, { raw: true }),
     defaultValues: correcting
       ? { ...correcting.values, reason: '' }
-      : { toothStatus: 'present', reviewDate: new Date().toISOString().slice(0, 10), visitId: initialVisitId ?? '' },
+      : { toothStatus: 'present', reviewDate: new Date().toISOString().slice(0, 10), visitId: initialVisitId ?? '', lesionDiameterMm: initialLesionMm },
   });
   const { register, formState, control } = form;
   const e = formState.errors as Record<string, { message?: string } | undefined>;
   const status = useWatch({ control, name: 'toothStatus' });
   const visitId = useWatch({ control, name: 'visitId' });
   const marks = !correcting && visits.find((v) => v.value === visitId)?.marksAttended;
+  const pai = useWatch({ control, name: 'paiScore' });
+  const lesion = useWatch({ control, name: 'lesionDiameterMm' });
+  const cbct = liveCbctPai(lesion);
+  const visitFilms = films.filter((f) => f.visitId && f.visitId === visitId);
+  const onCt = visitFilms.some((f) => f.modality === 'CT');
+  const viewerUrl = (filmId: string) => `/cases/${caseId}/films/view?films=${[baselineFilmId, filmId].filter((x) => x && x !== filmId).concat(filmId).join(',')}`;
+  const setPai = (score: number) => form.setValue('paiScore', score, { shouldDirty: true, shouldValidate: formState.isSubmitted });
+  const setLesion = (mm: number) => form.setValue('lesionDiameterMm', mm, { shouldDirty: true, shouldValidate: formState.isSubmitted });
   const title = correcting ? `Correct the review of ${correcting.label}` : 'Record a review';
 
   const onSubmit = form.handleSubmit(async (values) => {
@@ -142,8 +180,54 @@ export function ReviewForm({
               {...register('paiScore', num)}
               error={e.paiScore?.message}
             />
-            <Field label="Largest lesion diameter now (mm)" type="number" step={0.1} min={0} hint="0 when there is none." {...register('lesionDiameterMm', num)} error={e.lesionDiameterMm?.message} />
+            <div>
+              <Field label="Largest lesion diameter now (mm)" type="number" step={0.1} min={0} hint="0 when there is none." {...register('lesionDiameterMm', num)} error={e.lesionDiameterMm?.message} />
+              {cbct && (
+                <p className={`mt-1 text-xs ${onCt ? 'font-medium text-ink-900' : 'text-ink-700'}`} data-testid="cbct-pai" aria-live="polite">
+                  CBCT-PAI by this diameter{onCt ? ' (this visit has a CT film)' : ', for a review on cone-beam CT'}: <strong>{cbct.label}</strong> — {cbct.description}
+                </p>
+              )}
+            </div>
           </>
+        )}
+        {status !== 'extracted' && (
+          <div className="md:col-span-2 space-y-2">
+            <p className="field-label" id="pai-reference">
+              PAI reference drawings (choose a score)
+            </p>
+            <div role="group" aria-labelledby="pai-reference" className="grid grid-cols-3 gap-2 sm:grid-cols-5">
+              {([1, 2, 3, 4, 5] as PaiScore[]).map((score) => (
+                <button
+                  key={score}
+                  type="button"
+                  aria-pressed={Number(pai) === score}
+                  aria-label={`PAI ${score}`}
+                  onClick={() => setPai(score)}
+                  className={`rounded-md border p-2 ${Number(pai) === score ? 'border-dura-600 bg-dura-50 ring-2 ring-dura-500' : 'border-bone-300 bg-white hover:bg-bone-100'}`}
+                >
+                  <PaiReferenceDrawing score={score} />
+                </button>
+              ))}
+            </div>
+            <p className="text-xs text-ink-500">{PAI_REFERENCE_CAUTION}</p>
+          </div>
+        )}
+        {!correcting && visitFilms.length > 0 && (
+          <div className="md:col-span-2 space-y-1 rounded-md bg-bone-100 p-3 text-sm" data-testid="review-films">
+            <p className="font-medium">Films of this visit</p>
+            <ul className="space-y-1">
+              {visitFilms.map((f) => (
+                <li key={f.id} className="flex flex-wrap items-center gap-2">
+                  <a href={viewerUrl(f.id)}>Open {f.label} in the viewer</a>
+                  {f.diameterMm != null && status !== 'extracted' && (
+                    <button type="button" className="btn-secondary min-h-0 py-1 text-xs" onClick={() => setLesion(f.diameterMm!)}>
+                      Use the measured {f.diameterMm.toFixed(1)} mm
+                    </button>
+                  )}
+                </li>
+              ))}
+            </ul>
+          </div>
         )}
         {EVENT_STATUSES.includes(status as ToothStatus) && (
           <Field

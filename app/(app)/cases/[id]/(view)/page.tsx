@@ -20,7 +20,7 @@ import { OutcomeBadge, VisitStatusBadge } from '@/components/ui/StateBadge';
 import { Caution } from '@/components/ui/Caution';
 import { fmtDate } from '@/components/ui/format';
 import { ReviewForm } from '../ReviewFormLazy';
-import type { ReviewCorrection, ReviewVisitOption } from '../ReviewForm';
+import type { ReviewCorrection, ReviewFilm, ReviewVisitOption } from '../ReviewForm';
 import { VisitActions } from '../VisitActions';
 import { ReferrerAction } from '../ReferrerActions';
 import { FilmsSection } from '../FilmsSection';
@@ -58,6 +58,16 @@ export default async function CasePage({ params, searchParams }: { params: Promi
   const canWrite = can(actor.roles, 'case.write');
   const films = can(actor.roles, 'film.read') ? await listFilms(em, actor, c.id) : null;
   const canWriteReferrer = can(actor.roles, 'referrer.send') && Boolean(c.referrer) && !c.archived;
+  // A diameter measured in the film viewer comes back in the link to the review form (0.1 mm steps).
+  const lesionMm = typeof query.lesionMm === 'string' && /^\d{1,2}(\.\d)?$/.test(query.lesionMm) ? Number(query.lesionMm) : undefined;
+  const reviewFilms: ReviewFilm[] = (films?.films ?? []).map((f) => ({
+    id: f.id,
+    visitId: f.visitId,
+    label: `${f.roleLabel.toLowerCase()} film of ${fmtDate(f.acquisitionDate ?? f.createdAt)}`,
+    diameterMm: f.measurement?.diameterMm ?? null,
+    modality: f.modality,
+  }));
+  const baselineFilmId = (films?.films.find((f) => f.role === 'post_fill') ?? films?.films.find((f) => f.role === 'pre_operative'))?.id;
   return (
     <div className="space-y-6">
       <p className="text-sm">
@@ -314,12 +324,15 @@ export default async function CasePage({ params, searchParams }: { params: Promi
             {canReview && c.completionDate && !correcting && (
               <ReviewForm
                 // A new "Record the review" link (another ?review=) opens a fresh form on that visit.
-                key={`${wanted ?? ''}/${initialVisitId ?? ''}`}
+                key={`${wanted ?? ''}/${initialVisitId ?? ''}/${lesionMm ?? ''}`}
                 caseId={c.id}
                 visits={reviewVisits}
                 completionDate={c.completionDate}
                 initialVisitId={initialVisitId}
                 startOpen={Boolean(wanted)}
+                initialLesionMm={lesionMm}
+                films={reviewFilms}
+                baselineFilmId={baselineFilmId}
               />
             )}
           </section>
