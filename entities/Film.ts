@@ -71,6 +71,16 @@ export const FilmSchema = defineEntity({
     createdAt: p.datetime().onCreate(() => new Date()),
     archivedAt: p.datetime().nullable().default(null),
   },
+  // Declared for the schema diff; written by Migration20261202190000 / …210000.
+  checks: [
+    {
+      name: 'film_calibration_complete',
+      expression:
+        '((calibration_source IS NULL) = (mm_per_px_x IS NULL)) AND ((mm_per_px_x IS NULL) = (mm_per_px_y IS NULL)) AND ((mm_per_px_x IS NULL) OR ((mm_per_px_x > (0)::double precision) AND (mm_per_px_y > (0)::double precision)))',
+    },
+    { name: 'film_measurement_calibrated', expression: '"lesion_diameter_mm" is null or "calibration_source" is not null' },
+    { name: 'film_source_uploader_check', expression: '("source" = \'referrer\') = ("uploaded_by_id" is null)' },
+  ],
   indexes: [
     { name: 'film_case_index', properties: ['case', 'createdAt'] },
     { name: 'film_visit_index', properties: ['visit'] },

@@ -27,6 +27,7 @@ export const FilmReadingSchema = defineEntity({
     consensus: p.boolean().default(false),
     createdAt: p.datetime().onCreate(() => new Date()),
   },
+  checks: [{ name: 'film_reading_pai_check', expression: '(pai >= 1) AND (pai <= 5)' }],
   indexes: [
     { name: 'film_reading_film_index', properties: ['film', 'createdAt'] },
     { name: 'film_reading_practice_kind_index', properties: ['practice', 'kind'] },

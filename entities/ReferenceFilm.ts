@@ -18,6 +18,7 @@ export const ReferenceFilmSchema = defineEntity({
     setBy: p.manyToOne(UserSchema).ref().deleteRule('restrict'),
     setAt: p.datetime().onCreate(() => new Date()).onUpdate(() => new Date()),
   },
+  checks: [{ name: 'reference_film_pai_check', expression: '(pai >= 1) AND (pai <= 5)' }],
   indexes: [{ name: 'reference_film_practice_index', properties: ['practice'] }],
 });
 
