@@ -261,8 +261,10 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
     expect((await researcher.request.post(`/api/cohorts/${cohortId}/exports`, { data: { version: 1 } })).status()).toBe(202);
     const exportId = (await (await researcher.request.get(`/api/cohorts/${cohortId}`)).json()).exports[0].id as string;
     // A review of the practice (the demo world has many), for the outcome letter's route.
+    // The oldest cases of the demo world have their reviews (the newest, the list's default order, have none yet).
     let reviewId = '';
-    for (const c of cases) {
+    const oldest = (await (await coord.request.get('/api/cases?pageSize=20&sort=completionDate&dir=asc')).json()).rows as { id: string }[];
+    for (const c of oldest) {
       const r = (await (await coord.request.get(`/api/cases/${c.id}/reviews`)).json()) as { reviews?: { id: string }[] };
       if (r.reviews?.length) {
         reviewId = r.reviews[0]!.id;

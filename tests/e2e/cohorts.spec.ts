@@ -22,7 +22,7 @@ test('the researcher builds a cohort, exports a saved version and opens the arch
   const all = Number((await cases.textContent())!.replace(/,/g, ''));
   expect(all).toBeGreaterThan(0);
   await expect(page.getByTestId('count-left-out')).toContainText('Left out for want of research consent');
-  await page.getByText('Tooth group').click();
+  await page.locator('summary', { hasText: 'Tooth group' }).click();
   await page.getByLabel('Molar').check();
   await expect.poll(async () => Number((await cases.textContent())!.replace(/,/g, ''))).toBeLessThan(all);
   await page.screenshot({ path: testInfo.outputPath('cohort-builder.png'), fullPage: true });

@@ -123,7 +123,7 @@ describe('the local SMTP fake', () => {
 
   test('refuses the next N transactions with a 451 when told to, then accepts again', async () => {
     const to = unique('refused');
-    expect(await control({ refuse: 2 })).toEqual({ status: 200, body: { refusing: 2 } });
+    expect(await control({ refuse: 2 })).toEqual({ status: 200, body: { refusing: 2, hanging: 0 } });
     const send = () => transport().sendMail({ from: 'a@lamina.invalid', to, subject: 'try', text: 'try' });
 
     for (let i = 0; i < 2; i++) {
@@ -140,7 +140,7 @@ describe('the local SMTP fake', () => {
 
   test('{"refuse": 0} stops refusing', async () => {
     await control({ refuse: 5 });
-    expect((await control({ refuse: 0 })).body).toEqual({ refusing: 0 });
+    expect((await control({ refuse: 0 })).body).toEqual({ refusing: 0, hanging: 0 });
     const to = unique('accepted');
     await expect(transport().sendMail({ from: 'a@lamina.invalid', to, subject: 'ok', text: 'ok' })).resolves.toMatchObject({ accepted: [to] });
   });

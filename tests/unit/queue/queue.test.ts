@@ -21,9 +21,9 @@ const uuid = (n: number) => `00000000-0000-4000-8000-${String(n).padStart(12, '0
 const good = { practiceId: uuid(1), visitId: uuid(2), step: 'invitation' as const };
 
 describe('names, defined once', () => {
-  it('has the two queues and their jobs, none with ":"', () => {
-    expect(QUEUES).toEqual({ reminders: 'reminders', recallScan: 'recall-scan', cohortExports: 'cohort-exports' });
-    expect(JOB_QUEUE).toEqual({ 'send-reminder': 'reminders', 'recall-scan': 'recall-scan', 'cohort-export': 'cohort-exports' });
+  it('has the queues and their jobs, none with ":"', () => {
+    expect(QUEUES).toEqual({ reminders: 'reminders', recallScan: 'recall-scan', cohortExports: 'cohort-exports', referrerMail: 'referrer-mail' });
+    expect(JOB_QUEUE).toEqual({ 'send-reminder': 'reminders', 'recall-scan': 'recall-scan', 'cohort-export': 'cohort-exports', 'send-referrer-mail': 'referrer-mail' });
     for (const name of [...Object.values(QUEUES), ...Object.values(JOBS), RECALL_SCAN_SCHEDULER_ID]) expect(name).not.toContain(':');
     expect(Object.keys(JOB_PAYLOADS).sort()).toEqual(Object.values(JOBS).sort());
     expect(Object.keys(DEFAULT_JOB_OPTIONS).sort()).toEqual(Object.values(QUEUES).sort());

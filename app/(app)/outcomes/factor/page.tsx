@@ -73,8 +73,8 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
                     <td data-label="Uncertain">{l.uncertain}</td>
                     {canFilter && (
                       <td data-label="Filter">
-                        <a href={withLevel('/outcomes/factor', filters, factor, l.code)} className="text-sm" aria-label={`Only ${l.level}`}>
-                          Only this level
+                        <a href={withLevel('/outcomes/factor', filters, factor, l.code)} className="text-sm">
+                          Only this level<span className="sr-only">: {l.level}</span>
                         </a>
                       </td>
                     )}
