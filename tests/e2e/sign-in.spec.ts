@@ -7,9 +7,9 @@ import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 const NAVIGATION: Record<Role, string[]> = {
   admin: ['Home', 'Team', 'Dev mailbox'],
   coordinator: ['Home', 'Cases', 'Recall desk'],
-  clinician: ['Home', 'Cases', 'Outcomes'],
-  auditor: ['Home', 'Cases', 'Outcomes'],
-  researcher: ['Home'],
+  clinician: ['Home', 'Cases', 'Reading', 'Outcomes'],
+  auditor: ['Home', 'Cases', 'Reading', 'Outcomes'],
+  researcher: ['Home', 'Cohorts'],
 };
 
 test.describe('signing in', () => {
