@@ -23,7 +23,7 @@ test('the researcher builds a cohort, exports a saved version and opens the arch
   expect(all).toBeGreaterThan(0);
   await expect(page.getByTestId('count-left-out')).toContainText('Left out for want of research consent');
   await page.locator('summary', { hasText: 'Tooth group' }).click();
-  await page.getByLabel('Molar').check();
+  await page.getByLabel('Molar', { exact: true }).check();
   await expect.poll(async () => Number((await cases.textContent())!.replace(/,/g, ''))).toBeLessThan(all);
   await page.screenshot({ path: testInfo.outputPath('cohort-builder.png'), fullPage: true });
 

@@ -77,7 +77,7 @@ test('the lead picks a new factor, sees curves per level, filters by a level on 
 
   // a level filter: only epoxy resin; the chip stays on every tab and goes into the CSV link
   const epoxy = api.table.levels.find((l) => l.code === 'epoxy_resin')!;
-  await page.getByRole('link', { name: 'Only this level: Epoxy resin' }).click();
+  await page.getByRole('link', { name: /^Only this level\s*: Epoxy resin$/ }).click();
   await expect(page).toHaveURL(/f\.sealer=epoxy_resin/);
   const chip = page.getByTestId('filter-chip').filter({ hasText: 'Sealer: Epoxy resin' });
   await expect(chip).toBeVisible();
