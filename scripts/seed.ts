@@ -28,6 +28,7 @@ try {
       ? `demo registry: ${r.patients} patients, ${r.cases} cases, ${r.visits} visits (${statuses}), ${r.reviews} reviews — written in ${Date.now() - started} ms`
       : `demo registry: already there (${r.patients} patients, ${r.cases} cases, ${r.visits} visits, ${r.reviews} reviews)`,
   );
+  if (result.films.films) console.log(`demo films: ${result.films.films} films (drawn), ${result.films.readings} readings`);
   console.log('demo sign-ins (password for all: ' + DEMO_PASSWORD + '):');
   for (const u of result.users) console.log(`  ${u.role.padEnd(12)} ${u.email}`);
   console.log(`second practice: ${result.second.practiceName} (${result.second.cases} cases); its sign-ins:`);

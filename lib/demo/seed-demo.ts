@@ -23,6 +23,8 @@ import { visitSummary } from '../services/visits';
 import { DEMO_EXTRA_CLINICIANS, generateDemoWorld, type DemoReview, type DemoWorld } from './cases';
 import { DEMO_LOCUM, DEMO_PASSWORD, DEMO_PRACTICE, DEMO_PRACTICE_B, DEMO_USERS, DEMO_USERS_B } from './people';
 
+import { seedDemoFilms } from './films';
+
 export { DEMO_LOCUM, DEMO_PASSWORD, DEMO_PRACTICE, DEMO_PRACTICE_B, DEMO_USERS, DEMO_USERS_B };
 
 /** Everyone who can sign in to the demo practice: one user per role, and the three extra clinicians. */
@@ -35,6 +37,8 @@ export interface SeedResult {
   users: { email: string; role: string }[];
   /** The registry world: written on the first run only (a practice that has cases is left alone). */
   registry: { seeded: boolean; patients: number; cases: number; visits: number; reviews: number; visitsByStatus: Record<string, number> };
+  /** Demo films (lib/demo/films.ts) written on this run, and their readings: none when the practice had films. */
+  films: { films: number; readings: number };
   /** The second practice (its own people and a small registry), and the locum who works in both. */
   second: { practiceName: string; users: { email: string; role: string }[]; cases: number };
 }
@@ -65,6 +69,8 @@ export async function seedDemo(em: EntityManager): Promise<SeedResult> {
     registry.reviews = await em.count(ReviewSchema, { practice: practice.id });
   }
 
+  const films = await seedDemoFilms(em, { id: practice.id, name: practice.name });
+
   const b = await seedPractice(em, DEMO_PRACTICE_B, [...DEMO_USERS_B, DEMO_LOCUM], hash);
   if ((await em.count(TreatmentCaseSchema, { practice: b.practice.id })) === 0) {
     const world = generateDemoWorld({ today: todayIn(b.practice.timeZone), seed: 20261202, patients: 12, cases: 16 });
@@ -82,6 +88,7 @@ export async function seedDemo(em: EntityManager): Promise<SeedResult> {
     practiceId: practice.id,
     users: a.users,
     registry,
+    films,
     second: { practiceName: b.practice.name, users: b.users, cases: await em.count(TreatmentCaseSchema, { practice: b.practice.id }) },
   };
 }
