@@ -164,7 +164,13 @@ export function readerPairAgreement(films: readonly { first: { readerId: string;
     .sort((a, b) => b.n - a.n || a.readers.join().localeCompare(b.readers.join()));
 }
 
+/** Below this many films a kappa (and its interval) says nothing; one film is agreement or not. */
+export const MIN_FILMS_FOR_KAPPA = 2;
+
 function agreementOf<R>(readers: R, pairs: [number, number][]): { readers: R; n: number; linear: KappaInterval | null; quadratic: KappaInterval | null; note: string | null } {
+  if (pairs.length < MIN_FILMS_FOR_KAPPA) {
+    return { readers, n: pairs.length, linear: null, quadratic: null, note: `Kappa needs at least ${MIN_FILMS_FOR_KAPPA} films read by both.` };
+  }
   const linear = kappaOrNull(pairs, 'linear');
   const quadratic = kappaOrNull(pairs, 'quadratic');
   const note = linear ? (pairs.length < 10 ? 'Few films: the interval is wide.' : null) : 'Kappa is undefined: both readers gave one and the same score throughout.';

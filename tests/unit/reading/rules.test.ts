@@ -97,9 +97,19 @@ describe('agreement per reader pair', () => {
     expect(pair!.linear!.upper).toBeGreaterThan(pair!.linear!.kappa);
   });
   it('one score throughout: kappa undefined, said in words', () => {
-    const [pair] = readerPairAgreement([{ first: { readerId: 'a', pai: 2 }, second: { readerId: 'b', pai: 2 } }]);
+    const [pair] = readerPairAgreement([
+      { first: { readerId: 'a', pai: 2 }, second: { readerId: 'b', pai: 2 } },
+      { first: { readerId: 'b', pai: 2 }, second: { readerId: 'a', pai: 2 } },
+    ]);
     expect(pair!.linear).toBeNull();
     expect(pair!.note).toMatch(/undefined/);
+  });
+  it('a single film gives no kappa (not a kappa of 0 with a zero-width interval), said in words', () => {
+    const [pair] = readerPairAgreement([{ first: { readerId: 'a', pai: 2 }, second: { readerId: 'b', pai: 3 } }]);
+    expect(pair!.n).toBe(1);
+    expect(pair!.linear).toBeNull();
+    expect(pair!.quadratic).toBeNull();
+    expect(pair!.note).toBe('Kappa needs at least 2 films read by both.');
   });
 });
 

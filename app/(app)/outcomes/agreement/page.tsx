@@ -11,7 +11,10 @@ import { ReferenceButton } from './ReferenceButton';
 
 export const metadata: Metadata = { title: 'Reader agreement' };
 
-const k = (v: KappaInterval | null) => (v ? `${v.kappa.toFixed(2)} (${v.lower.toFixed(2)} to ${v.upper.toFixed(2)})` : '—');
+// A zero standard error (e.g. perfect agreement on two films) gives no usable interval: say so.
+const k = (v: KappaInterval | null) =>
+  !v ? '—' : v.se > 0 ? `${v.kappa.toFixed(2)} (${v.lower.toFixed(2)} to ${v.upper.toFixed(2)})` : `${v.kappa.toFixed(2)} (no interval: too few films)`;
+const films = (n: number) => `${n} ${n === 1 ? 'film' : 'films'}`;
 
 export default async function AgreementPage() {
   const { em, actor } = await requireActor('reading.lead', '/outcomes/agreement');
@@ -30,8 +33,8 @@ export default async function AgreementPage() {
           Reader agreement
         </h2>
         <p className="text-sm text-ink-700">
-          {data.counts.agreed} films agreed, {data.counts['awaiting-second']} awaiting a second reading, {data.counts['awaiting-adjudication']} awaiting
-          adjudication. Second-reading share: {data.secondReadingPercent}% of films, plus every film whose first reading means disease.{' '}
+          {films(data.counts.agreed)} agreed, {films(data.counts['awaiting-second'])} awaiting a second reading,{' '}
+          {films(data.counts['awaiting-adjudication'])} awaiting adjudication. Second-reading share: {data.secondReadingPercent}% of films, plus every film whose first reading means disease.{' '}
           <Link href="/reading?scope=practice">The practice’s reading queue</Link>
         </p>
         <Caution text={data.caution} />
