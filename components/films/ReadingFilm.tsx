@@ -19,7 +19,7 @@ export function ReadingFilm({ filmId, src, width, height, calibration }: Reading
       {/* eslint-disable-next-line @next/next/no-img-element -- an authorised, uncached route; next/image would proxy and cache it */}
       <img src={src} width={width} height={height} alt="Film to be read" className="mx-auto h-auto max-h-[70vh] w-auto max-w-full" />
       <figcaption className="mt-2 text-center text-xs text-bone-200">
-        {width} × {height} px · {mm ? `calibrated: ${mm[1].toFixed(3)} × ${mm[0].toFixed(3)} mm per pixel` : 'not calibrated (no pixel spacing)'}
+        {width} × {height} px · {mm ? `scale: ${mm[1].toFixed(3)} × ${mm[0].toFixed(3)} mm per pixel` : 'no scale: not calibrated and no pixel spacing in the file'}
       </figcaption>
     </figure>
   );

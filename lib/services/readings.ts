@@ -110,10 +110,19 @@ function rowsOf(readings: readonly FilmReading[]): FilmReadingRow[] {
   return readings.map((r) => ({ kind: r.kind as ReadingKind, readerId: r.reader.id, pai: r.pai, at: r.createdAt.toISOString() }));
 }
 
+/**
+ * mm per pixel of the web rendition [row, column]: the clinician's stored calibration (from the DICOM
+ * spacing or a known length, as the viewer sets it) when there is one, otherwise the file's own pixel
+ * spacing; null when neither exists.
+ */
 function calibrationOf(f: Film): FilmCalibration {
-  if (f.pixelSpacingRowMm == null || f.pixelSpacingColMm == null || !f.webWidth || !f.webHeight) return { mmPerPixel: null };
+  if (!f.webWidth || !f.webHeight) return { mmPerPixel: null };
+  const stored = f.calibrationSource && f.mmPerPxX != null && f.mmPerPxY != null ? [f.mmPerPxY, f.mmPerPxX] : null;
+  const spacing = f.pixelSpacingRowMm != null && f.pixelSpacingColMm != null ? [Number(f.pixelSpacingRowMm), Number(f.pixelSpacingColMm)] : null;
+  const perOriginalPx = stored ?? spacing;
+  if (!perOriginalPx) return { mmPerPixel: null };
   const round = (v: number) => Math.round(v * 1e6) / 1e6;
-  return { mmPerPixel: [round(Number(f.pixelSpacingRowMm) * (f.height / f.webHeight)), round(Number(f.pixelSpacingColMm) * (f.width / f.webWidth))] };
+  return { mmPerPixel: [round(perOriginalPx[0]! * (f.height / f.webHeight)), round(perOriginalPx[1]! * (f.width / f.webWidth))] };
 }
 
 function filmDate(f: Film): string {

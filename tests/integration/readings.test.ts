@@ -4,6 +4,7 @@ import type { Actor } from '@/lib/auth/actor';
 import { env } from '@/lib/env';
 import { inSecondReadingShare } from '@/lib/reading/rules';
 import { createCase } from '@/lib/services/cases';
+import { calibrateFilm } from '@/lib/services/film-measure';
 import { uploadFilm } from '@/lib/services/films';
 import { createPatient } from '@/lib/services/patients';
 import { blindedFilm, readingAgreement, readingQueue, recordReading, setReferenceFilm } from '@/lib/services/readings';
@@ -177,6 +178,20 @@ describe('blinded second reading, adjudication and the review', () => {
     expect(await recordReading(services.em(), w.lead, b.id, { kind: 'adjudication', pai: 3 })).toMatchObject({ status: 'agreed', reviewCorrected: null });
     const consensus = await services.em().findOneOrFail(FilmReadingSchema, { film: b.id, kind: 'adjudication' });
     expect(consensus.consensus).toBe(true);
+  });
+
+  it('a film calibrated by a known length (a PNG: no pixel spacing) reaches the readers with that scale, per pixel of the image they see', async () => {
+    const f = await film(w);
+    expect((await readingQueue(services.em(), w.cal, {})).items.find((i) => i.filmId === f.id)?.film?.calibration).toEqual({ mmPerPixel: null });
+    // 40 px drawn across = 10 mm: 0.25 mm per original pixel, square pixels (lib/films/calibration.ts)
+    await calibrateFilm(services.em(), w.cal, f.id, { source: 'drawn', a: { x: 4, y: 10 }, b: { x: 44, y: 10 }, mm: 10 });
+    const item = (await readingQueue(services.em(), w.cal, {})).items.find((i) => i.filmId === f.id)!;
+    const [row, col] = item.film!.calibration.mmPerPixel!;
+    expect(col).toBeCloseTo(0.25 * (f.width / f.webWidth), 6);
+    expect(row).toBeCloseTo(0.25 * (f.height / f.webHeight), 6);
+    await services.em().nativeUpdate(PracticeSchema, { id: w.made.practice.id }, { secondReadingPercent: 100 });
+    await recordReading(services.em(), w.cal, f.id, { kind: 'first', pai: 2 });
+    expect((await blindedFilm(services.em(), w.cleo, f.id)).calibration).toEqual(item.film!.calibration);
   });
 
   it('refuses bad input with 4xx and another practice’s film as unknown', async () => {
