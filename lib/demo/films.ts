@@ -11,13 +11,18 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
 import { FilmSchema } from '@/entities';
 import { uploadFilm } from '@/lib/services/films';
+import { inSecondReadingShare } from '@/lib/reading/rules';
 import { recordReading } from '@/lib/services/readings';
 import { knexOf } from '@/lib/services/registry-common';
 import { drawRadiograph, filmDicom } from './drawn-films';
 
-/** How many reviewed follow-ups get films, and how many of those are read in the seed. */
+/** How many reviewed follow-ups get films at least, and how many of those are read in the seed. */
 export const DEMO_FILM_CASES = 14;
 const READ = 9;
+/** Follow-ups in the second-reading share the demo needs: agreed, adjudication, one awaiting a second reading. */
+export const MIN_IN_SHARE = 3;
+/** Reviewed follow-ups looked at beyond DEMO_FILM_CASES to find MIN_IN_SHARE (20% share: 0.8^44 < 1e-4 to fall short). */
+const MAX_EXTRA = 30;
 
 interface Row {
   case_id: string;
@@ -62,7 +67,7 @@ export async function seedDemoFilms(em: EntityManager, practice: { id: string; n
     .where('r.tooth_status', 'present')
     .whereNull('c.archived_at')
     .orderBy([{ column: 'r.review_date', order: 'desc' }, { column: 'r.id' }])
-    .limit(DEMO_FILM_CASES)) as Row[];
+    .limit(DEMO_FILM_CASES + MAX_EXTRA)) as Row[];
   const clinicians = (await knex('membership as m')
     .join('app_user as u', 'u.id', 'm.user_id')
     .where({ 'm.practice_id': practice.id, 'm.role': 'clinician' })
@@ -74,9 +79,13 @@ export async function seedDemoFilms(em: EntityManager, practice: { id: string; n
     return { userId: u.id, email: u.email, name: u.name, practiceId: practice.id, practiceName: practice.name, roles: ['clinician'], ip: null, userAgent: null };
   };
 
-  let films = 0;
-  let readings = 0;
+  const practiceRow = (await knex('practice').where({ id: practice.id }).first('second_reading_percent')) as { second_reading_percent: number };
+  const percent = Number(practiceRow.second_reading_percent);
+  // Films go to a second reader by a hash of their id (lib/reading/rules.ts), so which ones do is
+  // known only after the upload: go on past DEMO_FILM_CASES until MIN_IN_SHARE follow-ups are in the share.
+  const uploaded: { row: Row; filmId: string; inShare: boolean }[] = [];
   for (const [i, r] of rows.entries()) {
+    if (i >= DEMO_FILM_CASES && uploaded.filter((u) => u.inShare).length >= MIN_IN_SHARE) break;
     const operator = actorOf(r.operator_id);
     const dicom = (date: string, pai: number, seed: number) =>
       filmDicom(drawRadiograph(640, 480, seed, lesionScaleOf(pai)), {
@@ -88,18 +97,27 @@ export async function seedDemoFilms(em: EntityManager, practice: { id: string; n
       });
     await uploadFilm(em.fork(), operator, r.case_id, { role: 'post_fill' }, dicom(r.completion_date, r.baseline_pai, 100 + i));
     const followUp = await uploadFilm(em.fork(), operator, r.case_id, { role: 'follow_up', visitId: r.visit_id }, dicom(r.review_date, r.pai_score, 100 + i));
-    films += 2;
-    if (i >= READ) continue; // left in the reading queue
+    uploaded.push({ row: r, filmId: followUp.film.id, inShare: percent > 0 && inSecondReadingShare(followUp.film.id, percent) });
+  }
+  const films = 2 * uploaded.length;
+
+  // Read every film of the share (so second readings have something) and others up to READ; the rest
+  // wait for a first reading. The last film of the share waits for its second reading.
+  const inShare = uploaded.filter((u) => u.inShare);
+  const toRead = [...inShare, ...uploaded.filter((u) => !u.inShare).slice(0, Math.max(0, READ - inShare.length))];
+  let readings = 0;
+  for (const [j, u] of toRead.entries()) {
+    const operator = actorOf(u.row.operator_id);
     // The treating clinician reads the film as the review scored it (nothing on the review changes).
-    const first = await recordReading(em.fork(), operator, followUp.film.id, { kind: 'first', pai: r.pai_score });
+    const first = await recordReading(em.fork(), operator, u.filmId, { kind: 'first', pai: u.row.pai_score });
     readings += 1;
-    if (first.status !== 'awaiting-second' || i % 3 === 2) continue; // some second readings wait too
-    // A blinded second reading by another clinician: mostly the same or one step off, once two steps (to adjudication).
+    if (first.status !== 'awaiting-second' || j === inShare.length - 1) continue;
+    // A blinded second reading by another clinician: the same or one step off, once two steps (to adjudication).
     const other = clinicians.find((c) => c.id !== operator.userId);
     if (!other) continue;
-    const step = i === 1 ? 2 : i % 2;
-    const pai = r.pai_score + step <= 5 ? r.pai_score + step : r.pai_score - step;
-    await recordReading(em.fork(), actorOf(other.id), followUp.film.id, { kind: 'second', pai });
+    const step = j === 1 ? 2 : j % 2;
+    const pai = u.row.pai_score + step <= 5 ? u.row.pai_score + step : u.row.pai_score - step;
+    await recordReading(em.fork(), actorOf(other.id), u.filmId, { kind: 'second', pai });
     readings += 1;
   }
   return { films, readings };
