@@ -112,7 +112,7 @@ export async function referrerWithAddress(em: EntityManager, practiceId: string,
   const email = r.email?.trim();
   if (!email) {
     throw new ServiceError(
-      `${r.name} has no e-mail address: add it to the referrer first. Nothing was sent.`,
+      `${r.name} has no e-mail address yet: add it to the referrer, then send. Nothing was sent.`,
       422,
       { referrer: [`${r.name} has no e-mail address.`] },
       'validation',

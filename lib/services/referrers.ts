@@ -3,11 +3,11 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import { ReferrerSchema, type Referrer } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { Paging } from '@/lib/schemas/paging';
-import { ReferrerCreateSchema, type ReferrerCreate } from '@/lib/schemas/referrer';
+import { ReferrerCreateSchema, ReferrerUpdateSchema, type ReferrerCreate } from '@/lib/schemas/referrer';
 import { audit } from './audit';
-import { ConflictError } from './errors';
+import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
-import { SearchText, likeWord, pageOffset, searchWords, type Page } from './registry-common';
+import { SearchText, assertId, likeWord, pageOffset, searchWords, type Page } from './registry-common';
 
 export interface ReferrerView {
   id: string;
@@ -74,6 +74,40 @@ export async function createReferrer(em: EntityManager, actor: Actor, raw: unkno
   }) as Referrer;
   await em.flush();
   await audit(em, actor, { action: 'referrer.created', entityType: 'referrer', entityId: referrer.id });
+  return referrerView(referrer);
+}
+
+/**
+ * Changes a referring dentist of the practice: name, practice, e-mail (e.g. the address an upload link
+ * or an outcome letter needs), or archives them. Another practice's referrer is unknown (404); an
+ * e-mail another referrer of the practice already has is refused (409). Audited with the fields changed.
+ */
+export async function updateReferrer(em: EntityManager, actor: Actor, id: string, raw: unknown): Promise<ReferrerView> {
+  assertCan(actor, 'patient.write');
+  const input = parseInput(ReferrerUpdateSchema, raw);
+  const referrer = await em.findOne(ReferrerSchema, { id: assertId(id, 'referrer in this practice'), practice: actor.practiceId });
+  if (!referrer) throw new NotFoundError('No such referrer in this practice.');
+  if (input.email && input.email !== referrer.email) {
+    const existing = await em.findOne(ReferrerSchema, { practice: actor.practiceId, email: input.email, archivedAt: null, id: { $ne: referrer.id } });
+    if (existing) throw new ConflictError(`${existing.name} already has the e-mail ${input.email} in this practice.`);
+  }
+  const changed: string[] = [];
+  const set = <K extends 'name' | 'practiceName' | 'email'>(key: K, value: Referrer[K] | undefined) => {
+    if (value === undefined || value === referrer[key]) return;
+    referrer[key] = value;
+    changed.push(key);
+  };
+  set('name', input.name);
+  set('practiceName', input.practiceName);
+  set('email', input.email);
+  if (input.archived !== undefined && input.archived !== Boolean(referrer.archivedAt)) {
+    referrer.archivedAt = input.archived ? new Date() : null;
+    changed.push('archived');
+  }
+  if (changed.length > 0) {
+    await em.flush();
+    await audit(em, actor, { action: 'referrer.updated', entityType: 'referrer', entityId: referrer.id, detail: { fields: changed } });
+  }
   return referrerView(referrer);
 }
 

@@ -29,6 +29,8 @@ interface Ids {
   cohortId: string;
   exportId: string;
   reviewId: string;
+  /** a referring dentist of the practice (the demo seed makes some) */
+  referrerId: string;
 }
 interface Row {
   route: string; // the route file's path under app/, e.g. 'api/team/members'
@@ -116,6 +118,7 @@ const MATRIX: Row[] = [
   { route: 'api/practice/settings', method: 'PATCH', url: () => '/api/practice/settings', body: {}, expect: only({ admin: 422 }) },
   { route: 'api/referrers', method: 'GET', url: () => '/api/referrers', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
   { route: 'api/referrers', method: 'POST', url: () => '/api/referrers', body: { name: '' }, expect: only({ coordinator: 422, clinician: 422 }) },
+  { route: 'api/referrers/[id]', method: 'PATCH', url: () => `/api/referrers/${randomUUID()}`, body: { email: 'matrix@referrers.test.invalid' }, expect: only({ coordinator: 404, clinician: 404 }) },
   { route: 'api/clinicians', method: 'GET', url: () => '/api/clinicians', expect: only({ coordinator: 200, clinician: 200, auditor: 200 }) },
   // Recall desk (issue 5): the coordinator works the desk; nobody else reads or changes it.
   { route: 'api/recall/queues', method: 'GET', url: () => '/api/recall/queues', expect: only({ coordinator: 200 }) },
@@ -130,6 +133,7 @@ const MATRIX: Row[] = [
   { route: 'api/recall/policy', method: 'PUT', url: () => '/api/recall/policy', body: { invitationWeeksBefore: 0 }, expect: only({ coordinator: 422 }) },
   // Referring dentists (issue 13): links and letters are sent by the coordinator and the clinicians.
   { route: 'api/cases/[id]/referrer-links', method: 'POST', url: () => `/api/cases/${randomUUID()}/referrer-links`, body: { visitId: randomUUID() }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/referrers/[id]', method: 'PATCH', url: (_, o) => `/api/referrers/${o.referrerId}`, body: { practiceName: 'Matrix Dental' }, expect: only({ coordinator: 404, clinician: 404 }) },
   { route: 'api/reviews/[id]/letter', method: 'POST', url: () => `/api/reviews/${randomUUID()}/letter`, expect: only({ coordinator: 404, clinician: 404 }) },
   // The referrer's upload link (no account; the token is the credential): the same answer for everyone.
   { route: 'api/upload/[token]', method: 'GET', url: () => '/api/upload/not-a-token', expect: everyone(404) },
@@ -182,6 +186,7 @@ const CROSS: Row[] = [
   { route: 'api/films/[id]/measurement', method: 'PUT', url: (_, o) => `/api/films/${o.filmId}/measurement`, body: {}, expect: only({ clinician: 404 }) },
   { route: 'api/visits/[id]', method: 'PATCH', url: (_, o) => `/api/visits/${o.visitId}`, body: { status: 'invited' }, expect: only({ coordinator: 404 }) },
   { route: 'api/cases/[id]/referrer-links', method: 'POST', url: (_, o) => `/api/cases/${o.caseId}/referrer-links`, body: { visitId: randomUUID() }, expect: only({ coordinator: 404, clinician: 404 }) },
+  { route: 'api/referrers/[id]', method: 'PATCH', url: (_, o) => `/api/referrers/${o.referrerId}`, body: { practiceName: 'Matrix Dental' }, expect: only({ coordinator: 404, clinician: 404 }) },
   { route: 'api/reviews/[id]/letter', method: 'POST', url: (_, o) => `/api/reviews/${o.reviewId}/letter`, expect: only({ coordinator: 404, clinician: 404 }) },
   { route: 'api/recall/visits/[id]/contact-log', method: 'GET', url: (_, o) => `/api/recall/visits/${o.visitId}/contact-log`, expect: only({ coordinator: 404 }) },
   { route: 'api/recall/visits/[id]/notes', method: 'POST', url: (_, o) => `/api/recall/visits/${o.visitId}/notes`, body: { note: 'No answer.', reached: false }, expect: only({ coordinator: 404 }) },
@@ -272,7 +277,16 @@ async function idsOf(browser: Browser, practice: PracticeKey): Promise<Ids> {
       }
     }
     expect(reviewId).not.toBe('');
+    // A referring dentist of the practice: the demo's, or one made on the first run (found again on reruns).
+    const referrers = (await (await coord.request.get('/api/referrers?pageSize=1')).json()).rows as { id: string }[];
+    let referrerId = referrers[0]?.id;
+    if (!referrerId) {
+      const made = await coord.request.post('/api/referrers', { data: { name: `Dr Matrix ${practice}` } });
+      expect(made.status()).toBe(201);
+      referrerId = (await made.json()).referrer.id as string;
+    }
     return {
+      referrerId,
       cohortId,
       exportId,
       adminId: byEmail(people('admin').email),

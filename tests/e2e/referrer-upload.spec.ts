@@ -14,7 +14,9 @@ test('the coordinator sends a referrer an upload link; the referrer uploads a fi
   const stamp = Date.now().toString(36);
   await signInAs(page, 'clinician');
   const referrerEmail = `dr.hollin.${stamp}@referrers.test.invalid`;
-  const referrer = await page.request.post('/api/referrers', { data: { name: `Dr Ivo Hollin ${stamp}`, email: referrerEmail } });
+  // Made without an address (as an import or a quick entry would): the coordinator adds it on the case page.
+  const referrerName = `Dr Ivo Hollin ${stamp}`;
+  const referrer = await page.request.post('/api/referrers', { data: { name: referrerName } });
   expect(referrer.status(), await referrer.text()).toBe(201);
   const referrerId = (await referrer.json()).referrer.id as string;
   const patient = await page.request.post('/api/patients', {
@@ -60,7 +62,14 @@ test('the coordinator sends a referrer an upload link; the referrer uploads a fi
   await page.goto(`/cases/${caseId}`);
   const since = Date.now() - 1000;
   await page.getByRole('button', { name: 'Ask the referrer for the film' }).first().click();
-  await expect(page.getByRole('status').filter({ hasText: 'Upload link sent' })).toBeVisible();
+  await expect(page.getByRole('alert').filter({ hasText: `${referrerName} has no e-mail address yet` })).toBeVisible();
+  const addAddress = page.getByRole('form', { name: `Add ${referrerName}’s e-mail` });
+  await addAddress.getByLabel(`${referrerName}’s e-mail`).fill('not an address');
+  await addAddress.getByRole('button', { name: 'Save the address and send' }).click();
+  await expect(addAddress.getByRole('alert')).toBeVisible(); // refused: nothing saved, nothing sent
+  await addAddress.getByLabel(`${referrerName}’s e-mail`).fill(referrerEmail);
+  await addAddress.getByRole('button', { name: 'Save the address and send' }).click();
+  await expect(page.getByRole('status').filter({ hasText: `Upload link sent to ${referrerEmail}` })).toBeVisible();
   const mail = await waitForMail(page.request, referrerEmail, /Follow-up film for tooth 46/, since);
   expect(mail.subject).not.toContain('Quenby');
   expect(mail.text).not.toContain('Marlow');

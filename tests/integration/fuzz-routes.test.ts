@@ -255,6 +255,7 @@ const SPECS: Record<string, RouteSpec> = {
   'recall/visits/[id]/notes/route.ts#POST': { params: () => ({ id: ids.visit! }), body: () => ({ note: 'Rang, no answer.', reached: false }) },
   'recall/visits/route.ts#GET': { query: [...PAGING, 'queue', 'status', 'from', 'to', 'operator'], baseQuery: { queue: 'due_soon' } },
   'referrers/route.ts#GET': { query: PAGING },
+  'referrers/[id]/route.ts#PATCH': { params: () => ({ id: ids.referrer! }), body: () => ({ practiceName: 'Harrowgate Dental' }), fields: ['email', 'name'] },
   'referrers/route.ts#POST': { body: () => ({ name: 'Dr Ilse Quarrender', practiceName: 'Harrowgate Dental', email: 'ilse@referrers.test.invalid' }) },
   'team/invitations/route.ts#POST': { body: () => ({ name: 'Noor Test', email: `n${Math.random().toString(36).slice(2, 8)}@fuzz.test`, roles: ['clinician'] }), fields: ['roles.0'] },
   'team/members/[userId]/route.ts#PATCH': { params: () => ({ userId: ids.member! }), body: () => ({ roles: ['clinician'] }), fields: ['roles.0'] },
@@ -488,6 +489,7 @@ beforeAll(async () => {
   ids.worklistCase = worklistCase.id;
   // Its referrer has an address: an upload link (its token for the public route) and the outcome letter.
   const referrer = await createReferrer(services.em(), p.coordinator, { name: 'Dr Fuzz Referrer', email: 'referrer@fuzz.test' });
+  ids.referrer = referrer.id;
   await services.em().getKnex()('treatment_case').where({ id: worklistCase.id }).update({ referrer_id: referrer.id });
   ids.worklistVisit = ((await services.em().getKnex()('recall_visit').where({ case_id: worklistCase.id }).orderBy('milestone').first('id')) as { id: string }).id;
   ids.uploadToken = uploadToken((await sendUploadLink(services.em(), p.coordinator, worklistCase.id, { visitId: ids.worklistVisit })).linkId, deriveUploadLinkSecret(env.NEXTAUTH_SECRET));

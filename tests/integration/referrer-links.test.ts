@@ -41,6 +41,7 @@ vi.mock('@/lib/services/referrer-outbox', async (importOriginal) => ({
 const { POST: sendLinkRoute } = await import('@/app/api/cases/[id]/referrer-links/route');
 const { GET: publicGet, POST: publicPost } = await import('@/app/api/upload/[token]/route');
 const { POST: letterRoute } = await import('@/app/api/reviews/[id]/letter/route');
+const { PATCH: patchReferrerRoute } = await import('@/app/api/referrers/[id]/route');
 
 const services = await openServices();
 afterAll(() => services.close());
@@ -174,6 +175,33 @@ describe('referrer upload links', () => {
     expect(sent.body.message).toMatch(/no e-mail address/);
     expect((await sendLink(w.a.auditor, w.c.id, { visitId: w.visit.id })).status).toBe(403);
     expect(await knex()('referrer_message').count('* as n').first()).toMatchObject({ n: '0' });
+  });
+
+  it('the missing address is added to the referrer (PATCH /api/referrers/:id, audited) and the link then goes out; bad, taken or foreign input is refused', async () => {
+    const w = await world(null);
+    expect((await sendLink(w.a.coordinator, w.c.id, { visitId: w.visit.id })).status).toBe(422);
+    const patch = async (actor: Actor, id: string, body: unknown) => {
+      state.actor = actor;
+      const req = new Request(`${origin}/api/referrers/${id}`, { method: 'PATCH', headers: { 'content-type': 'application/json', origin }, body: JSON.stringify(body) });
+      const res = await patchReferrerRoute(req, params({ id }));
+      return { status: res.status, body: (await res.json()) as Record<string, unknown> };
+    };
+    expect((await patch(w.a.coordinator, w.referrer.id, { email: 'not an address' })).status).toBe(422);
+    const other = await createReferrer(services.em(), w.a.coordinator, { name: 'Dr Pell Arnou', email: 'dr.arnou@referrers.test.invalid' });
+    expect((await patch(w.a.coordinator, w.referrer.id, { email: other.email })).status).toBe(409);
+    expect((await patch(w.a.auditor, w.referrer.id, { email: 'dr.holm@referrers.test.invalid' })).status).toBe(403);
+    const elsewhere = await makeRegistryPractice(services.em(), 'alder');
+    expect((await patch(elsewhere.coordinator, w.referrer.id, { email: 'dr.holm@referrers.test.invalid' })).status).toBe(404);
+    expect(await knex()('referrer').where({ id: w.referrer.id }).first('email')).toMatchObject({ email: null });
+
+    const saved = await patch(w.a.coordinator, w.referrer.id, { email: 'dr.holm@referrers.test.invalid' });
+    expect(saved).toMatchObject({ status: 200, body: { referrer: { id: w.referrer.id, email: 'dr.holm@referrers.test.invalid' } } });
+    const events = await services.em().find(AuditEventSchema, { action: 'referrer.updated', entityId: w.referrer.id });
+    expect(events.map((e) => e.detail)).toEqual([{ fields: ['email'] }]);
+    expect(JSON.stringify(events.map((e) => e.detail))).not.toContain('dr.holm'); // the audit names the field, not the address
+
+    const sent = await sendLink(w.a.coordinator, w.c.id, { visitId: w.visit.id });
+    expect(sent).toMatchObject({ status: 201, body: { to: 'dr.holm@referrers.test.invalid' } });
   });
 });
 

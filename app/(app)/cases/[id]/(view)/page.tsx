@@ -228,7 +228,13 @@ export default async function CasePage({ params, searchParams }: { params: Promi
                       <td data-label="Action">
                         {canMoveVisits && (x.allowedNext.length > 0 || x.canUndoMissed) && <VisitActions visit={x} />}
                         {canWriteReferrer && x.allowedNext.length > 0 && (
-                          <ReferrerAction url={`/api/cases/${c.id}/referrer-links`} body={{ visitId: x.id }} label="Ask the referrer for the film" doneLabel="Upload link sent" />
+                          <ReferrerAction
+                            url={`/api/cases/${c.id}/referrer-links`}
+                            body={{ visitId: x.id }}
+                            label="Ask the referrer for the film"
+                            doneLabel="Upload link sent"
+                            referrer={c.referrer ?? undefined}
+                          />
                         )}
                         {canReview && x.allowedNext.includes('attended') && (
                           <Link href={`/cases/${c.id}?review=${x.id}#record-review`} className="btn-secondary min-h-0 py-1 text-sm no-underline">
@@ -301,7 +307,7 @@ export default async function CasePage({ params, searchParams }: { params: Promi
                       <td data-label="Why" className="text-xs">
                         {r.reasons.join('; ')}
                         {canWriteReferrer && r.current && (
-                          <ReferrerAction url={`/api/reviews/${r.id}/letter`} label="Send the outcome letter" doneLabel="Outcome letter sent" />
+                          <ReferrerAction url={`/api/reviews/${r.id}/letter`} label="Send the outcome letter" doneLabel="Outcome letter sent" referrer={c.referrer ?? undefined} />
                         )}
                       </td>
                     </tr>
