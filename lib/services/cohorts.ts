@@ -19,6 +19,7 @@ import { ConflictError, NotFoundError, ServiceError, ValidationError } from './e
 import { OUTCOME_READER } from './outcomes';
 import { cachedOutcomeCases } from './outcomes-cache';
 import { parseInput } from './parse';
+import { sameDefinition } from '@/lib/cohorts/definition';
 import { isUuid, knexOf, practiceSettings } from './registry-common';
 
 /**
@@ -227,22 +228,28 @@ function exportView(e: CohortExport, version: number, actor: Actor): ExportView 
 }
 
 /** Saves the builder's definition as the cohort's next version (numbers are per cohort; a saved version never changes). */
-export async function saveCohortVersion(em: EntityManager, actor: Actor, cohortId: unknown, raw: unknown): Promise<{ number: number }> {
+export async function saveCohortVersion(em: EntityManager, actor: Actor, cohortId: unknown, raw: unknown): Promise<{ number: number; unchanged?: true }> {
   assertCan(actor, 'cohort.export');
   const cohort = await cohortOf(em, actor, cohortId);
   const body = parseInput(SaveVersionBody, raw ?? {});
   const unknownVars = body.variables.filter((v) => !COHORT_VARIABLE_KEYS.includes(v));
   if (unknownVars.length) throw new ValidationError('Some fields need attention.', { variables: [`Unknown variable${unknownVars.length > 1 ? 's' : ''}: ${unknownVars.slice(0, 5).join(', ')}.`] });
   const filters = await parseCohortFilters(em, actor.practiceId, body.filters);
-  const number = await em.transactional(async (tx) => {
+  const saved = await em.transactional(async (tx) => {
     const knex = knexOf(tx);
     await knex.raw('select id from cohort where id = ? for update', [cohort.id]);
-    const row = (await knex('cohort_version').where({ cohort_id: cohort.id }).max({ n: 'number' }).first()) as { n: number | null };
-    const next = (row?.n ?? 0) + 1;
+    const latest = (await knex('cohort_version').where({ cohort_id: cohort.id }).orderBy('number', 'desc').first('number', 'filters', 'variables', 'k')) as
+      | { number: number; filters: unknown; variables: string[]; k: number }
+      | undefined;
+    // Saved unchanged: the last version already says this; no new version.
+    if (latest && sameDefinition(latest, { filters, variables: body.variables, k: body.k })) return { number: latest.number, unchanged: true as const };
+    const next = (latest?.number ?? 0) + 1;
     tx.create(CohortVersionSchema, { cohort: cohort.id, number: next, filters, variables: body.variables, k: body.k, createdBy: actor.userId });
     await tx.flush();
-    return next;
+    return { number: next };
   });
+  if (saved.unchanged) return saved;
+  const number = saved.number;
   await audit(em, actor, { action: 'cohort.version_saved', entityType: 'cohort', entityId: cohort.id, detail: { version: number, variables: body.variables.length, k: body.k } });
   return { number };
 }

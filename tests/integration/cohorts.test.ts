@@ -84,6 +84,18 @@ describe('the cohort builder', () => {
     await expect(saveCohortVersion(services.em(), res, cohortId, { variables: ['patient_name'] })).rejects.toMatchObject({ status: 422 });
     await expect(readCohort(services.em(), otherRes, cohortId)).rejects.toMatchObject({ status: 404 });
   });
+
+  it('saving the builder unchanged adds no version that says the same as the last one', async () => {
+    const { id } = await createCohort(services.em(), res, { name: 'Unchanged twice' });
+    const body = { filters: { kind: 'primary_treatment', from: '2021-01-01' }, variables: ['age_band', 'sex'], k: 5 };
+    expect(await saveCohortVersion(services.em(), res, id, body)).toEqual({ number: 1 });
+    expect(await saveCohortVersion(services.em(), res, id, { ...body, variables: ['sex', 'age_band'] })).toEqual({ number: 1, unchanged: true });
+    expect(await saveCohortVersion(services.em(), res, id, { ...body, k: 6 })).toEqual({ number: 2 });
+    const saved = await services.em().getKnex()('cohort_version').where({ cohort_id: id }).count('* as n').first();
+    expect(saved).toMatchObject({ n: '2' });
+    const events = await services.em().getKnex()('audit_event').where({ action: 'cohort.version_saved', entity_id: id }).count('* as n').first();
+    expect(events).toMatchObject({ n: '2' });
+  });
 });
 
 describe('the export job', () => {

@@ -109,9 +109,9 @@ export function CohortWorkspace({ cohort, factors, variables, kinds, kDefault }:
   const save = async () => {
     setMessage(null);
     setSaved(null);
-    const r = await submitJson<{ number: number }>(`/api/cohorts/${cohort.id}/versions`, 'POST', { filters, variables: chosen, k });
+    const r = await submitJson<{ number: number; unchanged?: true }>(`/api/cohorts/${cohort.id}/versions`, 'POST', { filters, variables: chosen, k });
     if (r.ok) {
-      setSaved(`Saved as version ${r.data.number}.`);
+      setSaved(r.data.unchanged ? `No change since version ${r.data.number}: nothing new to save.` : `Saved as version ${r.data.number}.`);
       router.refresh();
     } else {
       setProblems(r.fieldErrors);
