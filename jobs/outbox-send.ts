@@ -52,16 +52,28 @@ export async function delayJob(job: Job | undefined, token: string | undefined, 
   throw new Error(`Not now: ${reason}.`);
 }
 
+/** What every outbox mail job is given by the worker (jobs/worker.ts) or a test. */
+export interface MailJobContext {
+  /** A fresh EntityManager fork per call. */
+  em: () => EntityManager;
+  transport: Pick<Transporter, 'sendMail'>;
+  /** Asks the relay whether it holds a Message-ID (local fake only); see jobs/send-reminder.ts. */
+  deliveryCheck?: DeliveryCheck;
+  appUrl: string;
+  mailFrom: string;
+  /** How long a claim is presumed alive, ms (the worker's lock duration). */
+  leaseMs: number;
+  now?: () => Date;
+  log?: (message: string) => void;
+}
+
 export interface SendOnce {
+  ctx: MailJobContext;
   /** The job's name, in log lines ('send-reminder'). */
   job: string;
   /** What the row sends, in error messages ('reminder', 'message'). */
   noun: string;
-  em: () => EntityManager;
   table: OutboxTable;
-  transport: Pick<Transporter, 'sendMail'>;
-  deliveryCheck?: DeliveryCheck;
-  log?: (message: string) => void;
   /** The claimed row. */
   rowId: string;
   to: string;
@@ -77,43 +89,44 @@ export interface SendOnce {
 
 /** Sends a claimed row exactly once (see the top of this file); returns how, throws to retry or UnrecoverableError to stop. */
 export async function sendOnce(s: SendOnce): Promise<SendHow> {
+  const { ctx } = s;
   if (s.uncertain) {
-    if (s.deliveryCheck) {
+    if (ctx.deliveryCheck) {
       let delivered: boolean;
       try {
-        delivered = await s.deliveryCheck(s.messageId, s.to);
+        delivered = await ctx.deliveryCheck(s.messageId, s.to);
       } catch (e) {
-        await releaseClaim(s.em(), s.table, s.rowId, 'sending', `Delivery check failed: ${(e as Error).message}`, s.now);
+        await releaseClaim(ctx.em(), s.table, s.rowId, 'sending', `Delivery check failed: ${(e as Error).message}`, s.now);
         throw new Error(`An earlier attempt may have sent this ${s.noun} and the mailbox cannot say: ${(e as Error).message}`);
       }
       if (delivered) {
-        s.log?.(`[${s.job}] ${s.rowId}: an earlier attempt was accepted by the relay (Message-ID found); marked sent without sending again`);
+        ctx.log?.(`[${s.job}] ${s.rowId}: an earlier attempt was accepted by the relay (Message-ID found); marked sent without sending again`);
         await s.finish('reconciled', s.now);
         return 'reconciled';
       }
     } else {
-      s.log?.(`[${s.job}] ${s.rowId}: an earlier attempt did not finish; sending again under the same Message-ID`);
+      ctx.log?.(`[${s.job}] ${s.rowId}: an earlier attempt did not finish; sending again under the same Message-ID`);
     }
   }
 
   const message = await s.compose();
   try {
-    await s.transport.sendMail(message);
+    await ctx.transport.sendMail(message);
   } catch (e) {
     const err = e as Error & { responseCode?: number; code?: string };
     const text = `${err.message}`.slice(0, 400);
     if (err.code === 'ECONNECTION' || err.code === 'EDNS') {
       // No connection to the relay at all: nothing can have been accepted.
-      await releaseClaim(s.em(), s.table, s.rowId, 'queued', `Could not reach the mail relay: ${text}`, new Date());
+      await releaseClaim(ctx.em(), s.table, s.rowId, 'queued', `Could not reach the mail relay: ${text}`, new Date());
       throw err;
     }
     if (typeof err.responseCode === 'number') {
-      await releaseClaim(s.em(), s.table, s.rowId, 'queued', `The mail relay answered ${err.responseCode}: ${text}`, new Date());
+      await releaseClaim(ctx.em(), s.table, s.rowId, 'queued', `The mail relay answered ${err.responseCode}: ${text}`, new Date());
       if (err.responseCode >= 500) throw new UnrecoverableError(`The mail relay refused the message for good (${err.responseCode}): ${text}`);
       throw new Error(`The mail relay refused the message for now (${err.responseCode}): ${text}`);
     }
     // No answer from the relay: it may or may not hold the message. The next attempt asks or resends.
-    await releaseClaim(s.em(), s.table, s.rowId, 'sending', `No answer from the mail relay: ${text}`, new Date());
+    await releaseClaim(ctx.em(), s.table, s.rowId, 'sending', `No answer from the mail relay: ${text}`, new Date());
     throw err;
   }
   const how = s.uncertain ? 'resent' : 'sent';

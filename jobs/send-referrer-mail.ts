@@ -14,8 +14,6 @@
  */
 import { UnrecoverableError, type Job } from 'bullmq';
 import { randomUUID } from 'node:crypto';
-import type { Transporter } from 'nodemailer';
-import type { EntityManager } from '@mikro-orm/postgresql';
 import { JOBS, parseJobData } from '@/lib/queue';
 import { initialsOf, uploadToken } from '@/lib/referrers/upload-token';
 import { letterDate } from '@/lib/referrers/letter';
@@ -23,20 +21,12 @@ import { renderOutcomeLetter } from '@/lib/pdf/outcome-letter';
 import { letterFacts } from '@/lib/services/referrer-letter';
 import { referrerMessageMailId } from '@/lib/services/referrer-outbox';
 import { knexOf, todayIn } from '@/lib/services/registry-common';
-import { escapeHtml, type DeliveryCheck } from './mail';
-import { claimOf, delayJob, releaseClaim, sendOnce } from './outbox-send';
+import { escapeHtml } from './mail';
+import { claimOf, delayJob, type MailJobContext, releaseClaim, sendOnce } from './outbox-send';
 
-export interface ReferrerMailContext {
-  em: () => EntityManager;
-  transport: Pick<Transporter, 'sendMail'>;
-  deliveryCheck?: DeliveryCheck;
+export interface ReferrerMailContext extends MailJobContext {
   /** lib/referrers/upload-token.ts deriveUploadLinkSecret(NEXTAUTH_SECRET). */
   uploadKey: Buffer;
-  appUrl: string;
-  mailFrom: string;
-  leaseMs: number;
-  now?: () => Date;
-  log?: (message: string) => void;
 }
 
 export type ReferrerMailOutcome = 'sent' | 'resent' | 'reconciled' | 'already_sent' | 'already_failed' | 'no_row';
@@ -154,13 +144,10 @@ export async function processSendReferrerMail(
   const { row, uncertain } = c;
   const messageId = referrerMessageMailId(row.id, ctx.mailFrom);
   const how = await sendOnce({
+    ctx,
     job: 'send-referrer-mail',
     noun: 'message',
-    em: ctx.em,
     table: 'referrer_message',
-    transport: ctx.transport,
-    deliveryCheck: ctx.deliveryCheck,
-    log: ctx.log,
     rowId: row.id,
     to: row.to_address,
     messageId,

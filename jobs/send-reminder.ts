@@ -49,8 +49,6 @@
  */
 import { UnrecoverableError, type Job } from 'bullmq';
 import { randomUUID } from 'node:crypto';
-import type { Transporter } from 'nodemailer';
-import type { EntityManager } from '@mikro-orm/postgresql';
 import { JOBS, parseJobData, type SendReminderData } from '@/lib/queue';
 import { CONTACT_STATUSES, needsContact, quietDelayMs, type ReminderStep } from '@/lib/recall/reminders';
 import { messageWording } from '@/lib/recall/wording';
@@ -69,22 +67,12 @@ import {
   reminderPolicyOf,
 } from '@/lib/services/recall-outbox';
 import { todayIn } from '@/lib/services/registry-common';
-import { renderReminder, type DeliveryCheck } from './mail';
-import { claimOf, delayJob, sendOnce } from './outbox-send';
+import { renderReminder } from './mail';
+import { claimOf, delayJob, type MailJobContext, sendOnce } from './outbox-send';
 
-export interface SendContext {
-  /** A fresh EntityManager fork per job. */
-  em: () => EntityManager;
-  transport: Pick<Transporter, 'sendMail'>;
-  /** Asks the relay whether it holds a Message-ID (local fake only); see the top of this file. */
-  deliveryCheck?: DeliveryCheck;
+export interface SendContext extends MailJobContext {
+  /** lib/recall/reply-token.ts deriveLinkSecret(NEXTAUTH_SECRET). */
   linkSecret: Buffer;
-  appUrl: string;
-  mailFrom: string;
-  /** How long a claim is presumed alive, ms (the worker's lock duration). */
-  leaseMs: number;
-  now?: () => Date;
-  log?: (message: string) => void;
 }
 
 export type SendOutcome =
@@ -373,13 +361,10 @@ export async function processSendReminder(
   const { row, uncertain } = c;
   const messageId = reminderMessageId(row.id, ctx.mailFrom);
   const how = await sendOnce({
+    ctx,
     job: 'send-reminder',
     noun: 'reminder',
-    em: ctx.em,
     table: 'reminder',
-    transport: ctx.transport,
-    deliveryCheck: ctx.deliveryCheck,
-    log: ctx.log,
     rowId: row.id,
     to: row.email!,
     messageId,
