@@ -12,10 +12,8 @@
  * say (the local fake): found → marked sent without sending again. A refusal the relay states puts
  * the row back to queued (4xx: retried; 5xx: given up, the row failed and audited).
  */
-import { DelayedError, UnrecoverableError, type Job } from 'bullmq';
+import { UnrecoverableError, type Job } from 'bullmq';
 import { randomUUID } from 'node:crypto';
-import type { Transporter } from 'nodemailer';
-import type { EntityManager } from '@mikro-orm/postgresql';
 import { JOBS, parseJobData } from '@/lib/queue';
 import { initialsOf, uploadToken } from '@/lib/referrers/upload-token';
 import { letterDate } from '@/lib/referrers/letter';
@@ -23,19 +21,12 @@ import { renderOutcomeLetter } from '@/lib/pdf/outcome-letter';
 import { letterFacts } from '@/lib/services/referrer-letter';
 import { referrerMessageMailId } from '@/lib/services/referrer-outbox';
 import { knexOf, todayIn } from '@/lib/services/registry-common';
-import { escapeHtml, type DeliveryCheck } from './mail';
+import { escapeHtml } from './mail';
+import { claimOf, delayJob, type MailJobContext, releaseClaim, sendOnce } from './outbox-send';
 
-export interface ReferrerMailContext {
-  em: () => EntityManager;
-  transport: Pick<Transporter, 'sendMail'>;
-  deliveryCheck?: DeliveryCheck;
+export interface ReferrerMailContext extends MailJobContext {
   /** lib/referrers/upload-token.ts deriveUploadLinkSecret(NEXTAUTH_SECRET). */
   uploadKey: Buffer;
-  appUrl: string;
-  mailFrom: string;
-  leaseMs: number;
-  now?: () => Date;
-  log?: (message: string) => void;
 }
 
 export type ReferrerMailOutcome = 'sent' | 'resent' | 'reconciled' | 'already_sent' | 'already_failed' | 'no_row';
@@ -62,12 +53,9 @@ async function claim(ctx: ReferrerMailContext, practiceId: string, rowId: string
     if (!row) return { kind: 'done', outcome: 'no_row' };
     if (row.status === 'sent') return { kind: 'done', outcome: 'already_sent', rowId: row.id };
     if (row.status === 'failed') return { kind: 'done', outcome: 'already_failed', rowId: row.id };
-    let uncertain = false;
-    if (row.status === 'sending') {
-      const expires = row.claim_expires_at ? new Date(row.claim_expires_at).getTime() : 0;
-      if (expires > now.getTime()) return { kind: 'wait', ms: expires - now.getTime() + 50 };
-      uncertain = true;
-    }
+    const lease = claimOf(row, now);
+    if ('wait' in lease) return { kind: 'wait', ms: lease.wait };
+    const { uncertain } = lease;
     const claimed = await knex('referrer_message')
       .where({ id: row.id, status: row.status })
       .whereRaw('claim_expires_at is not distinct from ?', [row.claim_expires_at])
@@ -86,12 +74,6 @@ async function finish(ctx: ReferrerMailContext, row: Row, messageId: string, now
      select ?, ?, r.practice_id, 'referrer.mail_sent', 'case', r.case_id::text, jsonb_build_object('message', r.id, 'kind', r.kind, 'subject', r.subject_id, 'how', ?::text) from r`,
     [messageId, now, now, row.id, randomUUID(), now, how],
   );
-}
-
-async function release(ctx: ReferrerMailContext, rowId: string, status: 'queued' | 'sending', error: string, now: Date) {
-  await knexOf(ctx.em())('referrer_message')
-    .where({ id: rowId, status: 'sending' })
-    .update({ status, last_error: error.slice(0, 500), claim_expires_at: status === 'sending' ? now : null, updated_at: now });
 }
 
 interface Composed {
@@ -148,14 +130,6 @@ async function composeLetter(ctx: ReferrerMailContext, row: Row, now: Date): Pro
   };
 }
 
-async function delay(job: Job | undefined, token: string | undefined, ms: number): Promise<never> {
-  if (job && token) {
-    await job.moveToDelayed(Date.now() + Math.max(ms, 100), token);
-    throw new DelayedError(`Waiting ${Math.round(ms / 1000)} s: another attempt is sending it.`);
-  }
-  throw new Error('Not now: another attempt is sending it.');
-}
-
 /** The job handler (also called directly by tests). */
 export async function processSendReferrerMail(
   ctx: ReferrerMailContext,
@@ -166,51 +140,29 @@ export async function processSendReferrerMail(
   const now = ctx.now?.() ?? new Date();
   const c = await claim(ctx, data.practiceId, data.messageId, now);
   if (c.kind === 'done') return { outcome: c.outcome, rowId: c.rowId };
-  if (c.kind === 'wait') return delay(job as Job, token, c.ms);
+  if (c.kind === 'wait') return delayJob(job as Job, token, c.ms, 'another attempt is sending it');
   const { row, uncertain } = c;
   const messageId = referrerMessageMailId(row.id, ctx.mailFrom);
-  if (uncertain) {
-    if (ctx.deliveryCheck) {
-      let delivered: boolean;
+  const how = await sendOnce({
+    ctx,
+    job: 'send-referrer-mail',
+    noun: 'message',
+    table: 'referrer_message',
+    rowId: row.id,
+    to: row.to_address,
+    messageId,
+    uncertain,
+    now,
+    compose: async () => {
       try {
-        delivered = await ctx.deliveryCheck(messageId, row.to_address);
+        const message = row.kind === 'upload_link' ? await composeUploadLink(ctx, row) : await composeLetter(ctx, row, now);
+        return { from: ctx.mailFrom, to: row.to_address, messageId, ...message };
       } catch (e) {
-        await release(ctx, row.id, 'sending', `Delivery check failed: ${(e as Error).message}`, now);
-        throw new Error(`An earlier attempt may have sent this message and the mailbox cannot say: ${(e as Error).message}`);
+        await releaseClaim(ctx.em(), 'referrer_message', row.id, 'queued', `Could not compose the message: ${(e as Error).message}`, new Date());
+        throw e;
       }
-      if (delivered) {
-        ctx.log?.(`[send-referrer-mail] ${row.id}: an earlier attempt was accepted by the relay (Message-ID found); marked sent without sending again`);
-        await finish(ctx, row, messageId, now, 'reconciled');
-        return { outcome: 'reconciled', rowId: row.id };
-      }
-    } else {
-      ctx.log?.(`[send-referrer-mail] ${row.id}: an earlier attempt did not finish; sending again under the same Message-ID`);
-    }
-  }
-  let message: Composed;
-  try {
-    message = row.kind === 'upload_link' ? await composeUploadLink(ctx, row) : await composeLetter(ctx, row, now);
-  } catch (e) {
-    await release(ctx, row.id, 'queued', `Could not compose the message: ${(e as Error).message}`, new Date());
-    throw e;
-  }
-  try {
-    await ctx.transport.sendMail({ from: ctx.mailFrom, to: row.to_address, messageId, ...message });
-  } catch (e) {
-    const err = e as Error & { responseCode?: number; code?: string };
-    const text = `${err.message}`.slice(0, 400);
-    if (err.code === 'ECONNECTION' || err.code === 'EDNS') {
-      await release(ctx, row.id, 'queued', `Could not reach the mail relay: ${text}`, new Date());
-      throw err;
-    }
-    if (typeof err.responseCode === 'number') {
-      await release(ctx, row.id, 'queued', `The mail relay answered ${err.responseCode}: ${text}`, new Date());
-      if (err.responseCode >= 500) throw new UnrecoverableError(`The mail relay refused the message for good (${err.responseCode}): ${text}`);
-      throw new Error(`The mail relay refused the message for now (${err.responseCode}): ${text}`);
-    }
-    await release(ctx, row.id, 'sending', `No answer from the mail relay: ${text}`, new Date());
-    throw err;
-  }
-  await finish(ctx, row, messageId, new Date(), uncertain ? 'resent' : 'sent');
-  return { outcome: uncertain ? 'resent' : 'sent', rowId: row.id };
+    },
+    finish: (result, at) => finish(ctx, row, messageId, at, result),
+  });
+  return { outcome: how, rowId: row.id };
 }

@@ -47,10 +47,8 @@
  * renders the same message), and every message and calendar file carries the practice's
  * address, phone and e-mail when the practice has given them.
  */
-import { DelayedError, UnrecoverableError, type Job } from 'bullmq';
+import { UnrecoverableError, type Job } from 'bullmq';
 import { randomUUID } from 'node:crypto';
-import type { Transporter } from 'nodemailer';
-import type { EntityManager } from '@mikro-orm/postgresql';
 import { JOBS, parseJobData, type SendReminderData } from '@/lib/queue';
 import { CONTACT_STATUSES, needsContact, quietDelayMs, type ReminderStep } from '@/lib/recall/reminders';
 import { messageWording } from '@/lib/recall/wording';
@@ -69,21 +67,12 @@ import {
   reminderPolicyOf,
 } from '@/lib/services/recall-outbox';
 import { todayIn } from '@/lib/services/registry-common';
-import { renderReminder, type DeliveryCheck } from './mail';
+import { renderReminder } from './mail';
+import { claimOf, delayJob, type MailJobContext, sendOnce } from './outbox-send';
 
-export interface SendContext {
-  /** A fresh EntityManager fork per job. */
-  em: () => EntityManager;
-  transport: Pick<Transporter, 'sendMail'>;
-  /** Asks the relay whether it holds a Message-ID (local fake only); see the top of this file. */
-  deliveryCheck?: DeliveryCheck;
+export interface SendContext extends MailJobContext {
+  /** lib/recall/reply-token.ts deriveLinkSecret(NEXTAUTH_SECRET). */
   linkSecret: Buffer;
-  appUrl: string;
-  mailFrom: string;
-  /** How long a claim is presumed alive, ms (the worker's lock duration). */
-  leaseMs: number;
-  now?: () => Date;
-  log?: (message: string) => void;
 }
 
 export type SendOutcome =
@@ -190,12 +179,9 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
     if (row.status === 'failed') return { kind: 'done', outcome: 'already_failed', reminderId: row.id };
     if (row.status === 'skipped') return { kind: 'done', outcome: 'already_skipped', reminderId: row.id };
 
-    let uncertain = false;
-    if (row.status === 'sending') {
-      const expires = row.claim_expires_at ? new Date(row.claim_expires_at).getTime() : 0;
-      if (expires > now.getTime()) return { kind: 'wait', ms: expires - now.getTime() + 50, reason: 'another attempt is sending it' };
-      uncertain = true;
-    }
+    const lease = claimOf(row, now);
+    if ('wait' in lease) return { kind: 'wait', ms: lease.wait, reason: 'another attempt is sending it' };
+    const { uncertain } = lease;
     const unchanged = (q: ReturnType<typeof knex>) =>
       q.where({ id: row.id, status: row.status }).whereRaw('claim_expires_at is not distinct from ?', [row.claim_expires_at]);
     const skip = async (reason: string) =>
@@ -356,21 +342,6 @@ async function finish(ctx: SendContext, row: ClaimRow, step: ReminderStep, messa
   // (Migration20261201230524: lamina_case_visit_summary), which fire for the update above.
 }
 
-/** Puts a claim back after an attempt that did not send: `queued` when the relay said no, `sending` (expired) when unknown. */
-async function release(ctx: SendContext, reminderId: string, status: 'queued' | 'sending', error: string, now: Date) {
-  await knexOf(ctx.em())('reminder')
-    .where({ id: reminderId, status: 'sending' })
-    .update({ status, last_error: error.slice(0, 500), claim_expires_at: status === 'sending' ? now : null, updated_at: now });
-}
-
-async function delay(job: Job | undefined, token: string | undefined, ms: number, reason: string): Promise<never> {
-  if (job && token) {
-    await job.moveToDelayed(Date.now() + Math.max(ms, 100), token);
-    throw new DelayedError(`Waiting ${Math.round(ms / 1000)} s: ${reason}.`);
-  }
-  throw new Error(`Not now: ${reason}.`);
-}
-
 /**
  * The job handler (also called directly by tests). Returns what happened; throws to let BullMQ
  * retry (a relay's temporary refusal, a broken connection) or UnrecoverableError to stop.
@@ -384,50 +355,23 @@ export async function processSendReminder(
   const now = ctx.now?.() ?? new Date();
   const c = await claim(ctx, data, now);
   if (c.kind === 'done') return { outcome: c.outcome, reminderId: c.reminderId };
-  if (c.kind === 'wait') return delay(job as Job, token, c.ms, c.reason);
+  if (c.kind === 'wait') return delayJob(job as Job, token, c.ms, c.reason);
   if (c.kind === 'no_consent') throw new UnrecoverableError('The patient has not agreed to recall contact by e-mail: no message was sent.');
 
   const { row, uncertain } = c;
   const messageId = reminderMessageId(row.id, ctx.mailFrom);
-  if (uncertain) {
-    if (ctx.deliveryCheck) {
-      let delivered: boolean;
-      try {
-        delivered = await ctx.deliveryCheck(messageId, row.email!);
-      } catch (e) {
-        await release(ctx, row.id, 'sending', `Delivery check failed: ${(e as Error).message}`, now);
-        throw new Error(`An earlier attempt may have sent this reminder and the mailbox cannot say: ${(e as Error).message}`);
-      }
-      if (delivered) {
-        ctx.log?.(`[send-reminder] ${row.id}: an earlier attempt was accepted by the relay (Message-ID found); marked sent without sending again`);
-        await finish(ctx, row, data.step, messageId, now, 'reconciled');
-        return { outcome: 'reconciled', reminderId: row.id };
-      }
-    } else {
-      ctx.log?.(`[send-reminder] ${row.id}: an earlier attempt did not finish; sending again under the same Message-ID`);
-    }
-  }
-
-  const message = await compose(ctx, row, data.step, messageId, now);
-  try {
-    await ctx.transport.sendMail(message);
-  } catch (e) {
-    const err = e as Error & { responseCode?: number; code?: string };
-    const text = `${err.message}`.slice(0, 400);
-    if (err.code === 'ECONNECTION' || err.code === 'EDNS') {
-      // No connection to the relay at all: nothing can have been accepted.
-      await release(ctx, row.id, 'queued', `Could not reach the mail relay: ${text}`, new Date());
-      throw err;
-    }
-    if (typeof err.responseCode === 'number') {
-      await release(ctx, row.id, 'queued', `The mail relay answered ${err.responseCode}: ${text}`, new Date());
-      if (err.responseCode >= 500) throw new UnrecoverableError(`The mail relay refused the message for good (${err.responseCode}): ${text}`);
-      throw new Error(`The mail relay refused the message for now (${err.responseCode}): ${text}`);
-    }
-    // No answer from the relay: it may or may not hold the message. The next attempt asks or resends.
-    await release(ctx, row.id, 'sending', `No answer from the mail relay: ${text}`, new Date());
-    throw err;
-  }
-  await finish(ctx, row, data.step, messageId, new Date(), uncertain ? 'resent' : 'sent');
-  return { outcome: uncertain ? 'resent' : 'sent', reminderId: row.id };
+  const how = await sendOnce({
+    ctx,
+    job: 'send-reminder',
+    noun: 'reminder',
+    table: 'reminder',
+    rowId: row.id,
+    to: row.email!,
+    messageId,
+    uncertain,
+    now,
+    compose: () => compose(ctx, row, data.step, messageId, now),
+    finish: (result, at) => finish(ctx, row, data.step, messageId, at, result),
+  });
+  return { outcome: how, reminderId: row.id };
 }

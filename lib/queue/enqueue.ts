@@ -1,7 +1,7 @@
 /**
  * Opening queues and adding jobs. Every add parses its payload first (the worker parses again).
  */
-import { Queue, type Job, type JobsOptions, type QueueOptions } from 'bullmq';
+import { Queue, type DefaultJobOptions, type Job, type JobsOptions, type QueueOptions } from 'bullmq';
 import type { Redis } from 'ioredis';
 import { reminderJobId } from '@/lib/recall/reminders';
 import { currentRequestId } from '@/lib/log/context';
@@ -34,12 +34,14 @@ export interface OpenQueueOptions {
   failFast?: boolean;
   /** Where queue errors go; console.error by default. */
   log?: (message: string) => void;
+  /** Default job options in place of the queue's own (DEFAULT_JOB_OPTIONS): tests' overrides only. */
+  jobOptions?: DefaultJobOptions;
 }
 
 function queueOptions(name: QueueName, connection: Redis, options: OpenQueueOptions): QueueOptions {
   return {
     connection,
-    defaultJobOptions: DEFAULT_JOB_OPTIONS[name],
+    defaultJobOptions: options.jobOptions ?? DEFAULT_JOB_OPTIONS[name],
     ...(options.prefix ? { prefix: options.prefix } : {}),
     ...(options.failFast ? PRODUCER_QUEUE_OPTIONS : {}),
   };

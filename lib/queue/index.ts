@@ -4,3 +4,4 @@ export * from './payloads';
 export * from './connection';
 export * from './options';
 export * from './enqueue';
+export * from './producer';

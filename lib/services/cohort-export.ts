@@ -2,11 +2,10 @@ import 'server-only';
 import { randomBytes } from 'node:crypto';
 import { PassThrough } from 'node:stream';
 import type { EntityManager, Knex } from '@mikro-orm/postgresql';
-import type { Redis } from 'ioredis';
 import type { CohortArchiveInput, CohortExportSummary, CohortRow, WriteCohortArchive } from '@/lib/cohorts/types';
 import { env } from '@/lib/env';
 import { cohortPredicate } from '@/lib/outcomes/cohort-filter';
-import { connectionForProducer, openCohortExportsQueue, whenReady, type CohortExportsQueue } from '@/lib/queue';
+import { QUEUES, openCohortExportsQueue, producerFor, type CohortExportsQueue } from '@/lib/queue';
 import type { CohortFilters } from '@/lib/schemas/cohort';
 import { deleteObjects, headObject, uploadStream } from '@/lib/storage/s3';
 import { audit } from './audit';
@@ -30,21 +29,14 @@ export function cohortObjectKey(practiceId: string, cohortId: string, exportId: 
   return `practices/${practiceId}/cohorts/${cohortId}/exports/${exportId}.zip`;
 }
 
-const g = globalThis as unknown as { __laminaCohortProducer?: { connection: Redis; queue?: Promise<CohortExportsQueue> } };
-
-/** The web process's producer (fail-fast, like the desk's "send now"). */
-export async function cohortExportsProducer(): Promise<CohortExportsQueue> {
-  const p = (g.__laminaCohortProducer ??= { connection: connectionForProducer(env.REDIS_URL, { name: 'web-cohorts' }) });
+/** The web process's producer (lib/queue's producerFor; fail-fast, like the desk's "send now"). */
+export function cohortExportsProducer(): Promise<CohortExportsQueue> {
   const prefix = process.env.QUEUE_PREFIX;
-  p.queue ??= whenReady(p.connection, 3_000).then((c) => openCohortExportsQueue(c, { failFast: true, ...(prefix ? { prefix } : {}) }));
-  try {
-    const queue = await p.queue;
-    await whenReady(p.connection, 3_000);
-    return queue;
-  } catch (e) {
-    if (p.connection.status !== 'ready') p.queue = undefined;
-    throw e;
-  }
+  return producerFor(QUEUES.cohortExports, {
+    url: env.REDIS_URL,
+    name: 'web-cohorts',
+    open: (c) => openCohortExportsQueue(c, { failFast: true, ...(prefix ? { prefix } : {}) }),
+  });
 }
 
 interface RowWithPatient extends CaseRow {

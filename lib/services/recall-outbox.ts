@@ -1,17 +1,16 @@
 import 'server-only';
 import { createHash, randomUUID } from 'node:crypto';
-import { Queue, type DefaultJobOptions } from 'bullmq';
+import type { DefaultJobOptions } from 'bullmq';
 import type { Redis } from 'ioredis';
 import { z } from 'zod';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import {
-  PRODUCER_QUEUE_OPTIONS,
   QUEUES,
   REMINDER_JOB_OPTIONS,
-  connectionForProducer,
   enqueueReminders,
   openRemindersQueue,
-  whenReady,
+  producerFor,
+  type OpenQueueOptions,
   type RemindersQueue,
   type SendReminderInput,
 } from '@/lib/queue';
@@ -80,43 +79,31 @@ export function reminderQueueSettings(source: Record<string, string | undefined>
   };
 }
 
+/** How lib/queue opens a queue of the reminders' rules: the test overrides when they are set. */
+export function outboxQueueOptions(settings: ReminderQueueSettings, options: { failFast?: boolean; log?: (m: string) => void } = {}): OpenQueueOptions {
+  return { prefix: settings.prefix, failFast: options.failFast, log: options.log, ...(settings.overridden ? { jobOptions: settings.jobOptions } : {}) };
+}
+
 /** The reminders queue (lib/queue), with the test overrides when they are set. */
 export function openReminderQueue(
   connection: Redis,
   settings: ReminderQueueSettings = reminderQueueSettings(),
   options: { failFast?: boolean; log?: (m: string) => void } = {},
 ): RemindersQueue {
-  if (!settings.overridden) return openRemindersQueue(connection, { prefix: settings.prefix, failFast: options.failFast, log: options.log });
-  const queue: RemindersQueue = new Queue(QUEUES.reminders, {
-    connection,
-    defaultJobOptions: settings.jobOptions,
-    ...(settings.prefix ? { prefix: settings.prefix } : {}),
-    ...(options.failFast ? PRODUCER_QUEUE_OPTIONS : {}),
-  });
-  const log = options.log ?? console.error;
-  queue.on('error', (err) => log(`[queue ${QUEUES.reminders}] ${err.message}`));
-  return queue;
+  return openRemindersQueue(connection, outboxQueueOptions(settings, options));
 }
 
-const g = globalThis as unknown as { __laminaReminderProducer?: { connection: Redis; queue?: Promise<RemindersQueue> } };
-
 /**
- * The web process's producer for "send now": a fail-fast connection (lib/queue), so a desk
- * request answers at once while Redis is down (the outbox rows are kept and the next scan
- * queues them). The queue is opened only once the connection is ready (BullMQ's queue asks the
- * server for its version when it is made, and a fail-fast connection would fail that for good).
+ * The web process's producer for "send now" (lib/queue's producerFor): a fail-fast connection, so
+ * a desk request answers at once while Redis is down (the outbox rows are kept and the next scan
+ * queues them).
  */
-export async function reminderProducer(): Promise<RemindersQueue> {
-  const p = (g.__laminaReminderProducer ??= { connection: connectionForProducer(env.REDIS_URL, { name: 'web-reminders' }) });
-  p.queue ??= whenReady(p.connection, 3_000).then((c) => openReminderQueue(c, reminderQueueSettings(), { failFast: true }));
-  try {
-    const queue = await p.queue;
-    await whenReady(p.connection, 3_000);
-    return queue;
-  } catch (e) {
-    if (p.connection.status !== 'ready') p.queue = undefined;
-    throw e;
-  }
+export function reminderProducer(): Promise<RemindersQueue> {
+  return producerFor(QUEUES.reminders, {
+    url: env.REDIS_URL,
+    name: 'web-reminders',
+    open: (c) => openReminderQueue(c, reminderQueueSettings(), { failFast: true }),
+  });
 }
 
 // --- the practice's calendar ---------------------------------------------------------------------

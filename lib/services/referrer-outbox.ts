@@ -1,21 +1,11 @@
 import 'server-only';
 import { randomUUID } from 'node:crypto';
-import { Queue } from 'bullmq';
 import type { Redis } from 'ioredis';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import {
-  PRODUCER_QUEUE_OPTIONS,
-  QUEUES,
-  connectionForProducer,
-  enqueueReferrerMail,
-  openReferrerMailQueue,
-  referrerMailJobId,
-  whenReady,
-  type ReferrerMailQueue,
-} from '@/lib/queue';
+import { QUEUES, enqueueReferrerMail, openReferrerMailQueue, producerFor, referrerMailJobId, type ReferrerMailQueue } from '@/lib/queue';
 import type { ReferrerMessageKind } from '@/entities';
 import { env } from '@/lib/env';
-import { fromAddress, reminderQueueSettings, type ReminderQueueSettings } from './recall-outbox';
+import { fromAddress, outboxQueueOptions, reminderQueueSettings, type ReminderQueueSettings } from './recall-outbox';
 import { knexOf } from './registry-common';
 
 /**
@@ -34,32 +24,16 @@ export function openReferrerQueue(
   settings: ReminderQueueSettings = reminderQueueSettings(),
   options: { failFast?: boolean; log?: (m: string) => void } = {},
 ): ReferrerMailQueue {
-  if (!settings.overridden) return openReferrerMailQueue(connection, { prefix: settings.prefix, failFast: options.failFast, log: options.log });
-  const queue: ReferrerMailQueue = new Queue(QUEUES.referrerMail, {
-    connection,
-    defaultJobOptions: settings.jobOptions,
-    ...(settings.prefix ? { prefix: settings.prefix } : {}),
-    ...(options.failFast ? PRODUCER_QUEUE_OPTIONS : {}),
-  });
-  const log = options.log ?? console.error;
-  queue.on('error', (err) => log(`[queue ${QUEUES.referrerMail}] ${err.message}`));
-  return queue;
+  return openReferrerMailQueue(connection, outboxQueueOptions(settings, options));
 }
 
-const g = globalThis as unknown as { __laminaReferrerProducer?: { connection: Redis; queue?: Promise<ReferrerMailQueue> } };
-
-/** The web process's producer (fail-fast, like reminderProducer). */
-export async function referrerMailProducer(): Promise<ReferrerMailQueue> {
-  const p = (g.__laminaReferrerProducer ??= { connection: connectionForProducer(env.REDIS_URL, { name: 'web-referrer-mail' }) });
-  p.queue ??= whenReady(p.connection, 3_000).then((c) => openReferrerQueue(c, reminderQueueSettings(), { failFast: true }));
-  try {
-    const queue = await p.queue;
-    await whenReady(p.connection, 3_000);
-    return queue;
-  } catch (e) {
-    if (p.connection.status !== 'ready') p.queue = undefined;
-    throw e;
-  }
+/** The web process's producer (lib/queue's producerFor; fail-fast, like reminderProducer). */
+export function referrerMailProducer(): Promise<ReferrerMailQueue> {
+  return producerFor(QUEUES.referrerMail, {
+    url: env.REDIS_URL,
+    name: 'web-referrer-mail',
+    open: (c) => openReferrerQueue(c, reminderQueueSettings(), { failFast: true }),
+  });
 }
 
 /** The Message-ID of a referrer_message row: the same for every attempt. */

@@ -4,9 +4,8 @@
  *  1. seeds a fresh practice with 100,000 completed cases of the demo world's generator
  *     (lib/demo/cases.ts: recall visits in every status, several reviews per case with healing,
  *     disease, retreatments, surgery and extractions, follow-on cases on the same tooth) by bulk
- *     insert (lib/demo/seed-demo.ts persistWorld), then VACUUM ANALYZE. The generator is slow
- *     beyond a few thousand cases, so it makes a world of 5,000 cases (3,000 patients) and the
- *     bench copies it, each copy k moved k days earlier (every date) and with its own patients;
+ *     insert, then VACUUM ANALYZE: copies of a 5,000-case world, each with its dates moved
+ *     (scripts/lib/bench-world.ts, shared with the cohort bench);
  *  2. times each outcomes API view (overview, factor, curves, model, funnel, worklist, the report
  *     PDF and every CSV) by calling its service — what the route handler calls, with a fresh
  *     EntityManager fork per request (permission check, zod parse, data version, the rows, the
@@ -33,10 +32,6 @@ await runUnderScriptsTsconfig(import.meta.url);
 const { MikroORM } = await import('@mikro-orm/postgresql');
 const { default: config } = await import('../../mikro-orm.config');
 const entities = await import('../../entities');
-const { generateDemoWorld } = await import('../../lib/demo/cases');
-type DemoWorld = import('../../lib/demo/cases').DemoWorld;
-const { addDaysTo } = await import('../../lib/registry/calendar-date');
-const { persistWorld } = await import('../../lib/demo/seed-demo');
 const { todayIn } = await import('../../lib/services/registry-common');
 const outcomes = await import('../../lib/services/outcomes');
 const funnelService = await import('../../lib/services/outcomes-funnel');
@@ -46,7 +41,7 @@ const worklistService = await import('../../lib/services/outcomes-worklist');
 const cacheModule = await import('../../lib/services/outcomes-cache');
 const lib = await import('../../lib/outcomes');
 const { DEFAULT_MIN_OBSERVATION_DAYS } = await import('../../lib/scoring');
-type Actor = import('../../lib/auth/actor').Actor;
+const { benchActor, seedBenchPractice } = await import('../lib/bench-world');
 
 const N_CASES = Number(process.env.BENCH_CASES ?? 100_000);
 const N_REQUESTS = Number(process.env.BENCH_REQUESTS ?? 21);
@@ -58,30 +53,6 @@ const conn = orm.em.getConnection();
 const today = todayIn('Europe/London');
 const slug = `bench-outcomes-${N_CASES}`;
 
-/** BENCH_CASES cases: copies of a 5,000-case demo world, copy k with every date k days earlier. */
-function replicatedWorld(): DemoWorld {
-  const unit = Math.min(5000, N_CASES);
-  const base = generateDemoWorld({ today, cases: unit, patients: Math.round(unit * 0.6) });
-  const copies = Math.ceil(N_CASES / unit);
-  const shift = (k: number) => <T>(v: T): T => {
-    if (typeof v === 'string') return (/^\d{4}-\d{2}-\d{2}$/.test(v) ? addDaysTo(v, -k) : v) as T;
-    if (Array.isArray(v)) return v.map(shift(k)) as T;
-    if (v && typeof v === 'object') return Object.fromEntries(Object.entries(v).map(([key, x]) => [key, shift(k)(x)])) as T;
-    return v;
-  };
-  const patients: DemoWorld['patients'] = [];
-  const cases: DemoWorld['cases'] = [];
-  for (let k = 0; k < copies; k++) {
-    const f = shift(k);
-    for (const p of base.patients) patients.push({ ...f(p), key: `${p.key}~${k}`, registryNumber: `${p.registryNumber}-${k}` });
-    for (const c of base.cases) {
-      if (cases.length >= N_CASES) break;
-      cases.push({ ...f(c), key: `${c.key}~${k}`, patientKey: `${c.patientKey}~${k}`, previousCaseKey: c.previousCaseKey ? `${c.previousCaseKey}~${k}` : null });
-    }
-  }
-  return { ...base, patients, cases };
-}
-
 // --- 1. seed (or reuse) ---------------------------------------------------------------------------
 const em0 = orm.em.fork();
 let practice = REUSE ? await em0.findOne(entities.PracticeSchema, { slug }) : null;
@@ -91,41 +62,14 @@ if (practice) {
 } else {
   const old = await em0.findOne(entities.PracticeSchema, { slug });
   if (old) await removePractice(old.id);
-  const t0 = performance.now();
-  const world = replicatedWorld();
-  const genMs = performance.now() - t0;
-  practice = em0.create(entities.PracticeSchema, { name: 'Bench Outcomes (invented)', slug, recallPolicy: world.practice.recallPolicy });
-  const made: [string, { id: string }][] = [];
-  const emails = new Set([...world.staff.map((s) => s.email), ...world.clinicians]);
-  for (const c of world.cases) {
-    emails.add(c.operatorEmail);
-    for (const v of c.visits) if (v.review) emails.add(v.review.assessorEmail);
-    for (const r of c.unplannedReviews) emails.add(r.assessorEmail);
-  }
-  for (const [i, email] of [...emails].entries()) {
-    const u = em0.create(entities.UserSchema, { email: `staff${i + 1}.${slug}@bench.invalid`, name: `Bench Clinician ${i + 1}` });
-    made.push([email, u]);
-    em0.create(entities.MembershipSchema, { user: u, practice, role: 'clinician' });
-  }
-  const lead = em0.create(entities.UserSchema, { email: `lead.${slug}@bench.invalid`, name: 'Bench Lead' });
-  em0.create(entities.MembershipSchema, { user: lead, practice, role: 'auditor' });
-  await em0.flush();
-  const userIds = new Map(made.map(([email, u]) => [email, u.id]));
-  const seeded = await persistWorld(orm.em.fork(), practice.id, world, userIds, DEFAULT_MIN_OBSERVATION_DAYS);
-  for (const t of ['patient', 'treatment_case', 'recall_visit', 'review']) await conn.execute(`vacuum analyze ${t}`);
-  seedNote = `seeded ${seeded.cases.toLocaleString('en-GB')} cases, ${seeded.patients.toLocaleString('en-GB')} patients, ${seeded.visits.toLocaleString('en-GB')} visits, ${seeded.reviews.toLocaleString('en-GB')} reviews in ${((performance.now() - t0) / 1000).toFixed(1)} s (generation ${(genMs / 1000).toFixed(1)} s)`;
+  const lead = { email: `lead.${slug}@bench.invalid`, name: 'Bench Lead', role: 'auditor' as const };
+  const made = await seedBenchPractice(orm, { cases: N_CASES, today, name: 'Bench Outcomes (invented)', slug, member: lead });
+  const { seeded } = made;
+  practice = made.practice;
+  seedNote = `seeded ${seeded.cases.toLocaleString('en-GB')} cases, ${seeded.patients.toLocaleString('en-GB')} patients, ${seeded.visits.toLocaleString('en-GB')} visits, ${seeded.reviews.toLocaleString('en-GB')} reviews in ${(made.ms / 1000).toFixed(1)} s (generation ${(made.generationMs / 1000).toFixed(1)} s)`;
 }
 const lead = await em0.findOneOrFail(entities.UserSchema, { email: `lead.${slug}@bench.invalid` });
-const actor: Actor = {
-  userId: lead.id,
-  email: lead.email,
-  name: 'Bench Lead',
-  practiceId: practice.id,
-  practiceName: practice.name,
-  roles: ['auditor'],
-  ip: '127.0.0.1',
-  userAgent: 'bench',
-};
+const actor = benchActor(lead, practice, ['auditor']);
 
 // --- 2. the views -----------------------------------------------------------------------------------
 type Query = Record<string, string>;
