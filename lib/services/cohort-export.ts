@@ -194,9 +194,9 @@ export async function runCohortExport(ctx: ExportContext, exportId: string, opts
     };
     const out = new PassThrough();
     const uploading = uploadStream(row.object_key, out, 'application/zip', controller.signal);
-    // The store failing mid-upload stops the writer at once: with nobody reading `out`, its next
-    // write would wait for a drain that never comes and the attempt would hang (a multipart upload
-    // stops reading its body when a part is refused).
+    // The store failing mid-upload stops the writer at once, with the store's error as the reason:
+    // otherwise the writer learns of it only as its output being torn down ("The operation was
+    // aborted"), and the row would record that instead of the outage.
     uploading.catch((e: unknown) => {
       if (!controller.signal.aborted) controller.abort(e);
       out.destroy(e as Error);
