@@ -4,7 +4,7 @@
  * lib/env.ts). Every value has a default; tests and benchmarks shorten the waits.
  */
 import { z } from 'zod';
-import { RECALL_SCAN_DEFAULT_PATTERN } from '@/lib/queue/names';
+import { RECALL_SCAN_DEFAULT_PATTERN, STORAGE_SWEEP_DEFAULT_PATTERN } from '@/lib/queue/names';
 
 const int = (min: number, max: number) => z.coerce.number().int().min(min).max(max);
 const flag = z
@@ -29,6 +29,10 @@ export const WorkerConfigSchema = z
     RECALL_SCAN_PATTERN: z.string().trim().min(9).max(60).default(RECALL_SCAN_DEFAULT_PATTERN),
     /** Scan at start and after every reconnection to Redis (default yes). */
     RECALL_SCAN_ON_START: flag,
+    /** The storage sweep's schedule (cron, server time): every hour at minute 30 by default. */
+    STORAGE_SWEEP_PATTERN: z.string().trim().min(9).max(60).default(STORAGE_SWEEP_DEFAULT_PATTERN),
+    /** Minutes an object or row must be old before the sweep removes it (default 60: lib/storage/orphans.ts). */
+    STORAGE_SWEEP_GRACE_MINUTES: int(1, 7 * 24 * 60).optional(),
     /** This worker's name, stored on every job it processes (BullMQ `processedBy`); host and pid by default. */
     WORKER_NAME: z.string().trim().min(1).max(80).optional(),
   })
@@ -43,12 +47,15 @@ export const WorkerConfigSchema = z
       smtpTimeoutMs: c.SMTP_TIMEOUT_MS,
       scanPattern: c.RECALL_SCAN_PATTERN,
       scanOnStart: c.RECALL_SCAN_ON_START ?? true,
+      sweepPattern: c.STORAGE_SWEEP_PATTERN,
+      ...(c.STORAGE_SWEEP_GRACE_MINUTES ? { sweepGraceMinutes: c.STORAGE_SWEEP_GRACE_MINUTES } : {}),
       /** Left out: host and pid (jobs/worker.ts). */
       ...(c.WORKER_NAME ? { name: c.WORKER_NAME } : {}),
     };
   });
 
-export type WorkerConfig = z.output<typeof WorkerConfigSchema> & { name?: string };
+/** `sweepPattern` may be left out by callers that build a config by hand (tests): the default schedule then. */
+export type WorkerConfig = Omit<z.output<typeof WorkerConfigSchema>, 'sweepPattern'> & { name?: string; sweepPattern?: string };
 
 export function readWorkerConfig(source: Record<string, string | undefined> = process.env): WorkerConfig {
   const parsed = WorkerConfigSchema.safeParse(source);

@@ -10,6 +10,9 @@
  *                scheduler, at start, and after every reconnection to Redis — a Redis that
  *                restarted without its data has lost its jobs and its scheduler, and the scan
  *                queues again from the outbox in PostgreSQL
+ *   storage-sweep `storage-sweep` jobs (jobs/storage-sweep.ts), one at a time: hourly by its job
+ *                scheduler (STORAGE_SWEEP_PATTERN, minute 30): objects with no row and rows whose
+ *                objects never arrived, older than the grace period, are removed
  *
  * A reminder job that fails for good (its last attempt, or a refusal the relay calls permanent)
  * marks its outbox row failed and flags the visit for the coordinator (the 'failed' event; if
@@ -38,8 +41,10 @@ import {
   enqueueRecallScan,
   openCohortExportsQueue,
   openRecallScanQueue,
+  openStorageSweepQueue,
   parseJobData,
   upsertRecallScanScheduler,
+  upsertStorageSweepScheduler,
   type RecallScanQueue,
   type ReferrerMailQueue,
   type RemindersQueue,
@@ -58,6 +63,7 @@ import { createReminderTransport, mailboxDeliveryCheck } from './mail';
 import { runRecallScan } from './recall-scan';
 import { processSendReminder, type SendContext } from './send-reminder';
 import { processCohortExport } from './cohort-export';
+import { processStorageSweep } from './storage-sweep';
 import { writeCohortArchive } from '@/lib/cohorts/archive';
 
 export interface WorkerHandle {
@@ -171,6 +177,18 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     { ...common, connection: connect('worker-cohorts'), concurrency: 1 },
   );
 
+  // the storage sweep (issue 15): hourly, one at a time
+  const sweepQueue = openStorageSweepQueue(producer, { ...prefix, log });
+  const sweeper = new Worker(
+    QUEUES.storageSweep,
+    async (job: Job) => {
+      const summary = await processStorageSweep({ em: () => db.em.fork(), graceMinutes: config.sweepGraceMinutes, log }, job);
+      workerLog.info({ jobId: job.id, objectsRemoved: summary.objectsRemoved, filmRowsRemoved: summary.filmRowsRemoved, exportsMarkedFailed: summary.exportsMarkedFailed, refusedPractices: summary.refusedPractices }, 'storage-sweep');
+      return summary;
+    },
+    { ...common, connection: connect('worker-sweep'), concurrency: 1 },
+  );
+
   reminders.on('completed', (_job, result: { outcome?: string } | undefined) => {
     if (result?.outcome === 'sent' || result?.outcome === 'resent' || result?.outcome === 'reconciled') sent += 1;
   });
@@ -191,7 +209,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
       }
     })().catch((e: unknown) => log(`[send-reminder] could not record the failure of ${job.id}: ${(e as Error).message}`));
   });
-  for (const w of [reminders, referrerMail, scanner, cohorts]) w.on('error', (err) => log(`[worker] ${err.message}`));
+  for (const w of [reminders, referrerMail, scanner, cohorts, sweeper]) w.on('error', (err) => log(`[worker] ${err.message}`));
 
   // On every (re)connection: the scheduler exists, and a scan runs (Redis may have lost everything).
   let ensuring: Promise<void> | null = null;
@@ -199,9 +217,10 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     ensuring ??= (async () => {
       try {
         await upsertRecallScanScheduler(scanQueue, { pattern: config.scanPattern });
+        await upsertStorageSweepScheduler(sweepQueue, { pattern: config.sweepPattern });
         if (config.scanOnStart) await enqueueRecallScan(scanQueue, {});
       } catch (e) {
-        log(`[worker] could not schedule the recall scan: ${(e as Error).message}`);
+        log(`[worker] could not schedule the recall scan or the storage sweep: ${(e as Error).message}`);
       } finally {
         ensuring = null;
       }
@@ -220,8 +239,8 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     (closing ??= (async () => {
       clearInterval(progress);
       producer.off('ready', ensure);
-      await Promise.all([reminders.close(), referrerMail.close(), scanner.close(), cohorts.close()]);
-      await Promise.all([remindersQueue.close(), referrerQueue.close(), scanQueue.close(), cohortQueue.close()]);
+      await Promise.all([reminders.close(), referrerMail.close(), scanner.close(), cohorts.close(), sweeper.close()]);
+      await Promise.all([remindersQueue.close(), referrerQueue.close(), scanQueue.close(), cohortQueue.close(), sweepQueue.close()]);
       transport.close();
       for (const c of connections) c.disconnect();
       log(`[worker] stopped; ${sent} reminder(s) sent since start`);

@@ -96,6 +96,13 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     },
   },
   {
+    prefix: 'storage.',
+    label: 'Stored files',
+    actions: {
+      'storage.swept': 'The storage sweep removed files or records left by an interrupted upload or export',
+    },
+  },
+  {
     prefix: 'cohort.',
     label: 'Research cohorts',
     actions: {

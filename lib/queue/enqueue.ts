@@ -5,8 +5,8 @@ import { Queue, type DefaultJobOptions, type Job, type JobsOptions, type QueueOp
 import type { Redis } from 'ioredis';
 import { reminderJobId } from '@/lib/recall/reminders';
 import { currentRequestId } from '@/lib/log/context';
-import { cohortExportJobId, JOBS, QUEUES, RECALL_SCAN_DEFAULT_PATTERN, RECALL_SCAN_SCHEDULER_ID, type QueueName } from './names';
-import { DEFAULT_JOB_OPTIONS, PRODUCER_QUEUE_OPTIONS, RECALL_SCAN_JOB_OPTIONS } from './options';
+import { cohortExportJobId, JOBS, QUEUES, RECALL_SCAN_DEFAULT_PATTERN, RECALL_SCAN_SCHEDULER_ID, STORAGE_SWEEP_DEFAULT_PATTERN, STORAGE_SWEEP_SCHEDULER_ID, type QueueName } from './names';
+import { DEFAULT_JOB_OPTIONS, PRODUCER_QUEUE_OPTIONS, RECALL_SCAN_JOB_OPTIONS, STORAGE_SWEEP_JOB_OPTIONS } from './options';
 import {
   parsePayload,
   type CohortExportData,
@@ -17,12 +17,15 @@ import {
   type SendReferrerMailInput,
   type SendReminderData,
   type SendReminderInput,
+  type StorageSweepData,
+  type StorageSweepInput,
 } from './payloads';
 
 export type RemindersQueue = Queue<SendReminderData, unknown, typeof JOBS.sendReminder>;
 export type RecallScanQueue = Queue<RecallScanData, unknown, typeof JOBS.recallScan>;
 export type CohortExportsQueue = Queue<CohortExportData, unknown, typeof JOBS.cohortExport>;
 export type ReferrerMailQueue = Queue<SendReferrerMailData, unknown, typeof JOBS.sendReferrerMail>;
+export type StorageSweepQueue = Queue<StorageSweepData, unknown, typeof JOBS.storageSweep>;
 
 export interface OpenQueueOptions {
   /** Redis key prefix (BullMQ's default 'bull'); tests use their own. */
@@ -148,4 +151,23 @@ export function openCohortExportsQueue(connection: Redis, options: OpenQueueOpti
 export async function enqueueCohortExport(queue: CohortExportsQueue, payload: CohortExportInput) {
   const data = parsePayload(JOBS.cohortExport, payload);
   return queue.add(JOBS.cohortExport, data, { jobId: cohortExportJobId(data.exportId) });
+}
+
+export function openStorageSweepQueue(connection: Redis, options: OpenQueueOptions = {}): StorageSweepQueue {
+  return openQueue(QUEUES.storageSweep, connection, options) as StorageSweepQueue;
+}
+
+/** Installs (or updates) the storage sweep's schedule: by default every hour at minute 30 (STORAGE_SWEEP_DEFAULT_PATTERN). */
+export async function upsertStorageSweepScheduler(queue: StorageSweepQueue, repeat: { pattern?: string; graceMinutes?: number } = {}) {
+  const data = parsePayload(JOBS.storageSweep, repeat.graceMinutes ? { graceMinutes: repeat.graceMinutes } : {});
+  return queue.upsertJobScheduler(
+    STORAGE_SWEEP_SCHEDULER_ID as typeof JOBS.storageSweep,
+    { pattern: repeat.pattern ?? STORAGE_SWEEP_DEFAULT_PATTERN },
+    { name: JOBS.storageSweep, data, opts: STORAGE_SWEEP_JOB_OPTIONS },
+  );
+}
+
+/** Queues a sweep now. */
+export async function enqueueStorageSweep(queue: StorageSweepQueue, payload: StorageSweepInput = {}) {
+  return queue.add(JOBS.storageSweep, parsePayload(JOBS.storageSweep, withRequest(payload)));
 }

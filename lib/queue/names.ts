@@ -13,6 +13,8 @@ export const QUEUES = {
   cohortExports: 'cohort-exports',
   /** One job per referrer_message row (upload link, outcome letter): claim, render, send. */
   referrerMail: 'referrer-mail',
+  /** The scheduled storage sweep (issue 15): objects with no row, rows whose objects never arrived. */
+  storageSweep: 'storage-sweep',
 } as const;
 export type QueueName = (typeof QUEUES)[keyof typeof QUEUES];
 
@@ -21,6 +23,7 @@ export const JOBS = {
   recallScan: 'recall-scan',
   cohortExport: 'cohort-export',
   sendReferrerMail: 'send-referrer-mail',
+  storageSweep: 'storage-sweep',
 } as const;
 export type JobName = (typeof JOBS)[keyof typeof JOBS];
 
@@ -30,6 +33,7 @@ export const JOB_QUEUE: Record<JobName, QueueName> = {
   [JOBS.recallScan]: QUEUES.recallScan,
   [JOBS.cohortExport]: QUEUES.cohortExports,
   [JOBS.sendReferrerMail]: QUEUES.referrerMail,
+  [JOBS.storageSweep]: QUEUES.storageSweep,
 };
 
 /** The export's job id: one per export row, so a double click or a re-add queues nothing twice. */
@@ -40,3 +44,9 @@ export const RECALL_SCAN_SCHEDULER_ID = 'recall-scan-hourly';
 
 /** The scan's default schedule (cron, server time): every hour at minute 0 (RECALL_SCAN_PATTERN overrides it). */
 export const RECALL_SCAN_DEFAULT_PATTERN = '0 * * * *';
+
+/** The id of the storage sweep's job scheduler (one per deployment). */
+export const STORAGE_SWEEP_SCHEDULER_ID = 'storage-sweep-hourly';
+
+/** The sweep's default schedule (cron, server time): every hour at minute 30, away from the scan. */
+export const STORAGE_SWEEP_DEFAULT_PATTERN = '30 * * * *';

@@ -44,12 +44,21 @@ export const COHORT_EXPORT_JOB_OPTIONS = {
   removeOnFail: { age: 30 * DAY_SECONDS, count: 1_000 },
 } as const satisfies DefaultJobOptions;
 
+/** The storage sweep is idempotent and runs every hour: one retry a minute later (a store restarting), little history. */
+export const STORAGE_SWEEP_JOB_OPTIONS = {
+  attempts: 2,
+  backoff: { type: 'fixed', delay: 60_000 },
+  removeOnComplete: { age: 7 * DAY_SECONDS, count: 200 },
+  removeOnFail: { age: 30 * DAY_SECONDS, count: 500 },
+} as const satisfies DefaultJobOptions;
+
 export const DEFAULT_JOB_OPTIONS: Record<QueueName, DefaultJobOptions> = {
   [QUEUES.cohortExports]: COHORT_EXPORT_JOB_OPTIONS,
   [QUEUES.reminders]: REMINDER_JOB_OPTIONS,
   [QUEUES.recallScan]: RECALL_SCAN_JOB_OPTIONS,
   // Mail to referrers follows the reminders' rules: same retries, same history.
   [QUEUES.referrerMail]: REMINDER_JOB_OPTIONS,
+  [QUEUES.storageSweep]: STORAGE_SWEEP_JOB_OPTIONS,
 };
 
 /**

@@ -61,14 +61,23 @@ export const SendReferrerMailPayload = z.strictObject({
 export type SendReferrerMailInput = z.input<typeof SendReferrerMailPayload>;
 export type SendReferrerMailData = z.output<typeof SendReferrerMailPayload>;
 
+export const StorageSweepPayload = z.strictObject({
+  /** Minutes an object or row must be old before it is swept (lib/storage/orphans.ts SWEEP_GRACE_MS when left out). */
+  graceMinutes: z.number().int().min(1).max(7 * 24 * 60).optional(),
+  requestId: JobSafeId.optional(),
+});
+export type StorageSweepInput = z.input<typeof StorageSweepPayload>;
+export type StorageSweepData = z.output<typeof StorageSweepPayload>;
+
 export const JOB_PAYLOADS = {
   [JOBS.cohortExport]: CohortExportPayload,
   [JOBS.sendReminder]: SendReminderPayload,
   [JOBS.recallScan]: RecallScanPayload,
   [JOBS.sendReferrerMail]: SendReferrerMailPayload,
+  [JOBS.storageSweep]: StorageSweepPayload,
 } as const;
 
-export type JobData = { [JOBS.sendReminder]: SendReminderData; [JOBS.recallScan]: RecallScanData; [JOBS.cohortExport]: CohortExportData; [JOBS.sendReferrerMail]: SendReferrerMailData };
+export type JobData = { [JOBS.sendReminder]: SendReminderData; [JOBS.recallScan]: RecallScanData; [JOBS.cohortExport]: CohortExportData; [JOBS.sendReferrerMail]: SendReferrerMailData; [JOBS.storageSweep]: StorageSweepData };
 
 /** A plain one-line summary of what is wrong with a payload. */
 export function payloadProblems(error: z.ZodError): string {

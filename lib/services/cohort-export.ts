@@ -9,6 +9,7 @@ import { QUEUES, openCohortExportsQueue, producerFor, type CohortExportsQueue } 
 import type { CohortFilters } from '@/lib/schemas/cohort';
 import { deleteObjects, headObject, uploadStream } from '@/lib/storage/s3';
 import { audit } from './audit';
+import { isServiceUnavailable } from './unavailable';
 import { clinicianCodes, filtersText as filtersInWords } from './cohorts';
 import { outcomeCaseColumns, outcomeCaseOf, type CaseRow } from './outcomes';
 import { knexOf, practiceSettings, todayIn } from './registry-common';
@@ -97,6 +98,15 @@ export interface ExportContext {
 
 export type ExportOutcome = 'done' | 'cancelled' | 'skipped';
 
+/** What the page shows for an attempt that failed because storage or the database did not answer (never a driver's message). */
+export const EXPORT_UNAVAILABLE_MESSAGE = 'The file store or the database did not answer (it may be restarting).';
+
+/** A failed attempt in words for the row (and the page): an outage in plain words, anything else by its message. */
+export function exportErrorWords(e: unknown): string {
+  if (isServiceUnavailable(e)) return EXPORT_UNAVAILABLE_MESSAGE;
+  return (e as Error)?.message?.slice(0, 400) || 'The export failed.';
+}
+
 class Cancelled extends Error {
   constructor() {
     super('cancelled');
@@ -176,6 +186,13 @@ export async function runCohortExport(ctx: ExportContext, exportId: string, opts
     };
     const out = new PassThrough();
     const uploading = uploadStream(row.object_key, out, 'application/zip', controller.signal);
+    // The store failing mid-upload stops the writer at once, with the store's error as the reason:
+    // otherwise the writer learns of it only as its output being torn down ("The operation was
+    // aborted"), and the row would record that instead of the outage.
+    uploading.catch((e: unknown) => {
+      if (!controller.signal.aborted) controller.abort(e);
+      out.destroy(e as Error);
+    });
     let summary: CohortExportSummary;
     try {
       summary = await ctx.write(input, out);
@@ -233,7 +250,8 @@ export async function runCohortExport(ctx: ExportContext, exportId: string, opts
       return 'cancelled';
     }
     // a worker shutting down: leave the row running for the retry; otherwise record the failure
-    const message = (e as Error).message?.slice(0, 400) ?? 'failed';
+    // the upload's own error is the reason when the store failed first (the writer then throws "aborted")
+    const message = isServiceUnavailable(controller.signal.reason) ? EXPORT_UNAVAILABLE_MESSAGE : exportErrorWords(e);
     if (opts.final) {
       await deleteObjects([row.object_key]).catch(() => undefined);
       await knex('cohort_export').where({ id: exportId }).update({ status: 'failed', error: message, finished_at: new Date() });

@@ -13,6 +13,7 @@ import type { FilmCalibration, FilmPoint } from '@/lib/films/calibration';
 import { deleteObjects, getObject, putObject } from '@/lib/storage/s3';
 import { audit } from './audit';
 import { NotFoundError, ServiceError, ValidationError } from './errors';
+import { UnavailableError } from './unavailable';
 import { parseInput } from './parse';
 import { assertId, bodyId, findCase } from './registry-common';
 
@@ -219,9 +220,15 @@ export interface StoredFilmObjects {
   keys: { original: string; web: string; thumbnail: string };
 }
 
+/** What an upload answers when the object store does not take its files (503 `unavailable`, Retry-After). */
+export const FILM_STORE_UNAVAILABLE = 'The film store is not answering: nothing was kept. Try the upload again in a moment.';
+
 /**
  * Writes a checked film's three objects under a fresh film id (before its row: a row never names
- * a missing object). A failed write removes what was written and answers 503.
+ * a missing object). A failed write removes what was written and answers 503 `unavailable` with a
+ * Retry-After hint (UnavailableError); what could not be removed (the store being down) is left to
+ * the storage sweep (lib/services/storage-sweep.ts), which removes objects with no row once they
+ * are older than its grace period.
  */
 export async function storeFilmObjects(practiceId: string, caseId: string, processed: ProcessedFilm): Promise<StoredFilmObjects> {
   const filmId = randomUUID();
@@ -240,7 +247,7 @@ export async function storeFilmObjects(practiceId: string, caseId: string, proce
   } catch (e) {
     await removeQuietly(Object.values(keys));
     console.error('[films] object storage refused a write', (e as Error)?.name ?? 'error');
-    throw new ServiceError('The film store is not answering: nothing was kept. Try the upload again in a moment.', 503, undefined, 'unavailable');
+    throw new UnavailableError(FILM_STORE_UNAVAILABLE);
   }
   return { filmId, keys };
 }

@@ -24,6 +24,7 @@ import { audit } from './audit';
 import { NotFoundError, RateLimitedError, ServiceError, ValidationError } from './errors';
 import { checkFilm, filmMaxBytes, removeQuietly, storeFilmObjects, filmRowData, type StoredFilmObjects } from './films';
 import { parseInput } from './parse';
+import { UnavailableError } from './unavailable';
 import { insertReferrerMessage, queueReferrerMessage } from './referrer-outbox';
 import { findCase, knexOf } from './registry-common';
 
@@ -242,6 +243,8 @@ export async function receiveReferrerUpload(em: EntityManager, token: string, fi
     for (const p of fresh) stored.push({ s: await storeFilmObjects(row.practice_id, row.case_id, p), p });
   } catch (e) {
     await removeQuietly(stored.flatMap((x) => Object.values(x.s.keys)));
+    // the store is down: the link was not used (it is taken only with the films' rows, below)
+    if (e instanceof UnavailableError) throw new UnavailableError(`${e.message} The link still works.`);
     throw e;
   }
   const keys = stored.flatMap((x) => Object.values(x.s.keys));

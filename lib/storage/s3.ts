@@ -1,6 +1,6 @@
 import 'server-only';
 import type { Readable } from 'node:stream';
-import { DeleteObjectCommand, GetObjectCommand, HeadObjectCommand, NoSuchKey, PutObjectCommand, S3Client } from '@aws-sdk/client-s3';
+import { DeleteObjectCommand, GetObjectCommand, HeadObjectCommand, ListObjectsV2Command, NoSuchKey, PutObjectCommand, S3Client } from '@aws-sdk/client-s3';
 import { env } from '@/lib/env';
 
 /**
@@ -89,4 +89,20 @@ export async function headObject(key: string): Promise<{ size: number } | null> 
     if (name === 'NotFound' || name === 'NoSuchKey' || (e as { $metadata?: { httpStatusCode?: number } }).$metadata?.httpStatusCode === 404) return null;
     throw e;
   }
+}
+
+/** One object of a listing: its key and when it was last written (the store's clock, whole seconds on some stores). */
+export interface ListedObject {
+  key: string;
+  lastModified: Date;
+}
+
+/** Every object under a prefix, a page (at most 1,000) at a time; an error of the store is thrown, never taken for an empty listing. */
+export async function* listObjects(prefix: string): AsyncGenerator<ListedObject[]> {
+  let token: string | undefined;
+  do {
+    const r = await s3().send(new ListObjectsV2Command({ Bucket: env.S3_BUCKET, Prefix: prefix, ContinuationToken: token, MaxKeys: 1000 }));
+    yield (r.Contents ?? []).flatMap((o) => (o.Key && o.LastModified ? [{ key: o.Key, lastModified: o.LastModified }] : []));
+    token = r.IsTruncated ? r.NextContinuationToken : undefined;
+  } while (token);
 }

@@ -9,6 +9,7 @@ import {
   RECALL_SCAN_JOB_OPTIONS,
   RECALL_SCAN_SCHEDULER_ID,
   REMINDER_JOB_OPTIONS,
+  STORAGE_SWEEP_SCHEDULER_ID,
   RecallScanPayload,
   SendReminderPayload,
   parseJobData,
@@ -22,9 +23,9 @@ const good = { practiceId: uuid(1), visitId: uuid(2), step: 'invitation' as cons
 
 describe('names, defined once', () => {
   it('has the queues and their jobs, none with ":"', () => {
-    expect(QUEUES).toEqual({ reminders: 'reminders', recallScan: 'recall-scan', cohortExports: 'cohort-exports', referrerMail: 'referrer-mail' });
-    expect(JOB_QUEUE).toEqual({ 'send-reminder': 'reminders', 'recall-scan': 'recall-scan', 'cohort-export': 'cohort-exports', 'send-referrer-mail': 'referrer-mail' });
-    for (const name of [...Object.values(QUEUES), ...Object.values(JOBS), RECALL_SCAN_SCHEDULER_ID]) expect(name).not.toContain(':');
+    expect(QUEUES).toEqual({ reminders: 'reminders', recallScan: 'recall-scan', cohortExports: 'cohort-exports', referrerMail: 'referrer-mail', storageSweep: 'storage-sweep' });
+    expect(JOB_QUEUE).toEqual({ 'send-reminder': 'reminders', 'recall-scan': 'recall-scan', 'cohort-export': 'cohort-exports', 'send-referrer-mail': 'referrer-mail', 'storage-sweep': 'storage-sweep' });
+    for (const name of [...Object.values(QUEUES), ...Object.values(JOBS), RECALL_SCAN_SCHEDULER_ID, STORAGE_SWEEP_SCHEDULER_ID]) expect(name).not.toContain(':');
     expect(Object.keys(JOB_PAYLOADS).sort()).toEqual(Object.values(JOBS).sort());
     expect(Object.keys(DEFAULT_JOB_OPTIONS).sort()).toEqual(Object.values(QUEUES).sort());
   });

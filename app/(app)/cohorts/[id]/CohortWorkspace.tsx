@@ -318,7 +318,7 @@ export function CohortWorkspace({ cohort, factors, variables, kinds, kDefault }:
                       <div className="h-2 w-full overflow-hidden rounded bg-bone-200" role="progressbar" aria-label={`Export of version ${e.version}`} aria-valuemin={0} aria-valuemax={100} aria-valuenow={pct}>
                         <div className="h-2 bg-dura-600 transition-all" style={{ width: `${pct}%` }} />
                       </div>
-                      <p className="mt-1 text-xs text-ink-500">{e.status === 'queued' ? 'Waiting for the worker…' : `${pct}% (counting, then writing the files)`}</p>
+                      <p className="mt-1 text-xs text-ink-500">{e.status === 'queued' ? (e.error ? `The last attempt failed: ${e.error} It will be tried again in a moment.` : 'Waiting for the worker…') : `${pct}% (counting, then writing the files)`}</p>
                     </div>
                   )}
                   {e.status === 'done' && (
