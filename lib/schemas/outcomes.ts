@@ -98,3 +98,4 @@ export const OutcomeReportQuery = z.intersection(
   OutcomeFilterQuery,
   FunnelChoice.extend({ factor: z.enum(FACTOR_KEYS as [string, ...string[]], { error: `The factor is one of ${FACTOR_KEYS.join(', ')}.` }).default('kind') }),
 );
+export type OutcomeReportQuery = z.output<typeof OutcomeReportQuery>;

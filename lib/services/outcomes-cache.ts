@@ -1,4 +1,5 @@
 import 'server-only';
+import { createHash } from 'node:crypto';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { OutcomeCase } from '@/lib/outcomes';
 import { swapRows } from '@/lib/outcomes/swap';
@@ -242,10 +243,56 @@ export function startOutcomesWarmer(getEm: () => Promise<EntityManager>, reader:
   return () => clearInterval(timer);
 }
 
-/** Forget every cached practice and view (the benchmark's cold requests; tests). */
+/**
+ * Drawn documents (the printed report's PDF: seconds of drawing), kept like the views' figures: per
+ * practice and data version under `key`, which must hold everything the document shows (the
+ * report's key is its filters and the data it draws, the time it was drawn aside), so a repeat is
+ * the same bytes. Requests for a key being drawn share the drawing. At most MAX_DOCUMENTS and
+ * MAX_DOCUMENT_BYTES are kept, the least recently used going first; a new data version makes old
+ * keys unreachable. `cached` says whether the bytes were kept ones. The bytes must not be changed.
+ */
+const MAX_DOCUMENTS = 64;
+const MAX_DOCUMENT_BYTES = 48 * 1024 * 1024;
+const documents = new Map<string, Buffer>();
+const drawing = new Map<string, Promise<Buffer>>();
+let documentBytes = 0;
+
+export async function memoDocument(practiceId: string, version: string, key: readonly unknown[], draw: () => Promise<Buffer>): Promise<{ bytes: Buffer; cached: boolean }> {
+  const k = `${practiceId}@${version}:${createHash('sha256').update(JSON.stringify(key)).digest('base64url')}`;
+  const hit = documents.get(k);
+  if (hit) {
+    documents.delete(k);
+    documents.set(k, hit);
+    return { bytes: hit, cached: true };
+  }
+  let pending = drawing.get(k);
+  const shared = Boolean(pending);
+  if (!pending) {
+    pending = draw()
+      .then((bytes) => {
+        const old = documents.get(k);
+        if (old) documentBytes -= old.length;
+        documents.set(k, bytes);
+        documentBytes += bytes.length;
+        while (documents.size > MAX_DOCUMENTS || documentBytes > MAX_DOCUMENT_BYTES) {
+          const [oldest, b] = documents.entries().next().value!;
+          documents.delete(oldest);
+          documentBytes -= b.length;
+        }
+        return bytes;
+      })
+      .finally(() => drawing.delete(k));
+    drawing.set(k, pending);
+  }
+  return { bytes: await pending, cached: shared };
+}
+
+/** Forget every cached practice, view and document (the benchmark's cold requests; tests). */
 export function invalidateOutcomeCases(): void {
   cache.clear();
   views.clear();
+  documents.clear();
+  documentBytes = 0;
 }
 
 /** Forget the figures computed for every version but keep the rows (the benchmark: the first request of a filter). */

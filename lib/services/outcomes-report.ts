@@ -7,7 +7,8 @@ import { renderOutcomesReport, type ReportData } from '@/lib/pdf/outcomes-report
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
 import { OutcomeReportQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
-import { factorTableOfScope, filterDetail, levelNamer, overviewOfScope, scope } from './outcomes';
+import { factorTableOfScope, filterDetail, levelNamer, overviewOfScope, scope, type Scope } from './outcomes';
+import { memoDocument } from './outcomes-cache';
 import { funnelOfScope } from './outcomes-funnel';
 import { parseInput } from './parse';
 import { knexOf } from './registry-common';
@@ -21,7 +22,10 @@ const fmtDay = (d: string) => new Date(`${d}T12:00:00Z`).toLocaleDateString('en-
  * filters and the practice. The same figures as the screens, from the same engine calls on one read.
  */
 export async function outcomesReportData(em: EntityManager, actor: Actor, raw: unknown, now = new Date()): Promise<ReportData> {
-  const q = parseInput(OutcomeReportQuery, raw ?? {});
+  return (await reportData(em, actor, parseInput(OutcomeReportQuery, raw ?? {}), now)).data;
+}
+
+async function reportData(em: EntityManager, actor: Actor, q: OutcomeReportQuery, now: Date): Promise<{ data: ReportData; s: Scope }> {
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
   const clinicianName = levelNamer(s, 'clinician')!;
@@ -31,7 +35,7 @@ export async function outcomesReportData(em: EntityManager, actor: Actor, raw: u
   const f = s.filter;
   const funnel = funnelOfScope(s, q.measure, q.adjust, actor.userId);
   const { overview, practice } = overviewOfScope(s);
-  return {
+  const data: ReportData = {
     practiceName: practiceRow?.name ?? 'The practice',
     generated,
     preparedBy: actor.name ?? actor.email,
@@ -56,14 +60,25 @@ export async function outcomesReportData(em: EntityManager, actor: Actor, raw: u
     funnel,
     methods: methodsParagraphs(s.minObs),
   };
+  return { data, s };
 }
 
-/** The report as PDF bytes; the download is audited with its filters. */
+/**
+ * The report as PDF bytes; every download is audited with its filters. Drawing takes seconds, so the
+ * PDF is kept (outcomes-cache.ts memoDocument) per practice and data version under the normalised
+ * filters and everything the report shows (names, who prepared it, today, the figures): a repeat with
+ * unchanged data is served from the cache, and its "Prepared" time is the first drawing's (the same
+ * day, the same data). The first request after a change of the data draws again.
+ */
 export async function outcomesReportPdf(em: EntityManager, actor: Actor, raw: unknown): Promise<{ pdf: Buffer; filename: string }> {
-  const d = await outcomesReportData(em, actor, raw);
-  const pdf = await renderOutcomesReport(d);
   const q = parseInput(OutcomeReportQuery, raw ?? {});
-  await audit(em, actor, { action: 'outcomes.report_downloaded', detail: { ...filterDetail(d.funnel.filter), factor: q.factor, measure: q.measure, adjust: d.funnel.adjustShown, pages: pageCount(pdf) } });
+  const { data: d, s } = await reportData(em, actor, q, new Date());
+  const { generated: _drawnAt, ...shown } = d;
+  const { bytes: pdf, cached } = await memoDocument(actor.practiceId, s.version, ['report', s.filter, q.factor, q.measure, q.adjust, shown], () => renderOutcomesReport(d));
+  await audit(em, actor, {
+    action: 'outcomes.report_downloaded',
+    detail: { ...filterDetail(d.funnel.filter), factor: q.factor, measure: q.measure, adjust: d.funnel.adjustShown, pages: pageCount(pdf), cached },
+  });
   return { pdf, filename: `lamina-outcomes-report-${new Date().toISOString().slice(0, 10)}.pdf` };
 }
 

@@ -1,5 +1,6 @@
 import 'server-only';
 import type { EntityManager } from '@mikro-orm/postgresql';
+import { z } from 'zod';
 import { CaseDecisionSchema, RecallVisitSchema, TreatmentCaseSchema, type CaseDecision } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { can } from '@/lib/auth/permissions';
@@ -26,7 +27,7 @@ import { addDaysTo, type CalendarDate } from '@/lib/registry/calendar-date';
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
 import { OUTCOME_LABELS, type ReviewOutcome } from '@/lib/scoring';
 import { OutcomeFilterQuery } from '@/lib/schemas/outcomes';
-import { DecisionInput } from '@/lib/schemas/outcomes-worklist';
+import { DecisionInput, WorklistPaging } from '@/lib/schemas/outcomes-worklist';
 import { defaultWindow } from '@/lib/schemas/recall-policy';
 import { formatTooth } from '@/lib/teeth';
 import { audit } from './audit';
@@ -39,9 +40,10 @@ import { loadVisits } from './visits';
 
 /**
  * The non-healing worklist (issue 12, item 7). The rule and the order are lib/outcomes/worklist.ts;
- * this file reads the rows (the outcomes area's one lean read, `scope`), adds what the list shows
- * for the cases on it (one more query: tooth, patient, clinician, current step, later case), and
- * records next steps.
+ * this file reads the rows (the outcomes area's one lean read, `scope`), orders the list by the
+ * cases' current steps (one lean read of the practice's current steps), adds what the list shows for
+ * the cases of the page asked (one more query: tooth, patient, clinician, current step, later case;
+ * every case for the CSV), and records next steps.
  *
  * Who: the lead (auditor) sees the practice's worklist, filterable by clinician; a clinician sees
  * their own cases. Recording a step is `outcomes.decide` (clinicians only: a clinical decision, as
@@ -102,7 +104,14 @@ export interface WorklistReport {
   own: boolean;
   clinicians: { id: string; name: string }[];
   today: CalendarDate;
+  /** The rows of this page, in urgency order (the CSV: every row). */
   rows: WorklistRow[];
+  /** Every case on the list for the filter, and how many are at each urgency. */
+  total: number;
+  counts: Record<Urgency, number>;
+  /** The page shown (a page past the end shows the last) and the page size. */
+  page: number;
+  pageSize: number;
 }
 
 interface DetailRow {
@@ -119,8 +128,11 @@ interface DetailRow {
   decisions: number;
 }
 
-/** What the list shows of the cases on it, in one query (the current step is the row no later row replaces). */
-async function readDetails(em: EntityManager, practiceId: string, ids: readonly string[]): Promise<Map<string, DetailRow>> {
+/**
+ * What the list shows of the cases on one page, in one query. `decisionIds` are the current steps
+ * the order was built from (readCurrentDecisions), so a row shows the step its urgency comes from.
+ */
+async function readDetails(em: EntityManager, practiceId: string, ids: readonly string[], decisionIds: readonly string[]): Promise<Map<string, DetailRow>> {
   if (ids.length === 0) return new Map();
   const knex = knexOf(em);
   const rows = (
@@ -132,17 +144,42 @@ async function readDetails(em: EntityManager, practiceId: string, ids: readonly 
          (select json_build_object('id', d.id, 'step', d.step, 'date', d.date::text, 'note', d.note, 'createdAt', d.created_at,
                  'linkedCaseId', d.linked_case_id, 'visitId', d.visit_id, 'by', coalesce(du.name, du.email))
             from case_decision d join app_user du on du.id = d.decided_by_id
-            where d.case_id = c.id and not exists (select 1 from case_decision n where n.replaces_id = d.id)
-            order by d.created_at desc limit 1) as decision,
+            where d.case_id = c.id and d.id = any(?::uuid[])) as decision,
          (select count(*) from case_decision d where d.case_id = c.id)::int as decisions
        from treatment_case c
        join patient p on p.id = c.patient_id
        join app_user u on u.id = c.operator_id
        where c.practice_id = ? and c.id = any(?::uuid[])`,
-      [practiceId, [...ids]],
+      [[...decisionIds], practiceId, [...ids]],
     )
   ).rows as DetailRow[];
   return new Map(rows.map((r) => [r.id, r]));
+}
+
+/** The current step of a case (the row no later row replaces), as the order needs it. */
+interface CurrentDecisionRow {
+  id: string;
+  case_id: string;
+  step: NextStep;
+  date: string;
+  created_at: Date;
+}
+
+/**
+ * The current step of every case of the practice that has one: the few columns the urgency order
+ * needs (the rest is read for the page's rows only, readDetails). Steps are few beside the cases,
+ * and they change no data version, so they are read on every request.
+ */
+async function readCurrentDecisions(em: EntityManager, practiceId: string): Promise<CurrentDecisionRow[]> {
+  return (
+    await knexOf(em).raw(
+      `select distinct on (d.case_id) d.id, d.case_id, d.step, d.date::text as date, d.created_at
+         from case_decision d
+        where d.practice_id = ? and not exists (select 1 from case_decision n where n.replaces_id = d.id)
+        order by d.case_id, d.created_at desc`,
+      [practiceId],
+    )
+  ).rows as CurrentDecisionRow[];
 }
 
 function decisionView(d: NonNullable<DetailRow['decision']>, latestReviewDate: CalendarDate, timeZone: string): WorklistDecisionView {
@@ -163,25 +200,39 @@ function decisionView(d: NonNullable<DetailRow['decision']>, latestReviewDate: C
   };
 }
 
-async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
-  const q = parseInput(OutcomeFilterQuery, raw ?? {});
-  const s = await scope(em, actor, q);
+const WorklistQuery = z.intersection(OutcomeFilterQuery, WorklistPaging);
+
+/**
+ * The list for the actor's filter in urgency order, and the rows of one page (`paged`) or of all
+ * (the CSV). The rule's entries come from the kept figures (per data version); the current steps
+ * (one lean read) give the order; the details are read for the rows returned only.
+ */
+async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown, paged: boolean): Promise<WorklistReport> {
+  const q = parseInput(WorklistQuery, raw ?? {});
+  const [s, current] = await Promise.all([scope(em, actor, q), readCurrentDecisions(em, actor.practiceId)]);
   // the rule's entries (and their completion dates) are kept per data version like the other views' figures
   const { entries, completion } = s.memo(['worklist', s.filter], (all) => {
     const listed = worklistEntries(applyFilter(all, s.filter), all, s.today, s.minObs);
     const ids = new Set(listed.map((e) => e.caseId));
     return { entries: listed, completion: new Map(all.filter((c) => ids.has(c.id)).map((c) => [c.id, c.completionDate])) };
   });
-  const details = await readDetails(em, actor.practiceId, entries.map((e) => e.caseId));
-  const decisionOf = new Map<string, WorklistDecisionView | null>();
-  for (const e of entries) {
-    const d = details.get(e.caseId)?.decision;
-    decisionOf.set(e.caseId, d ? decisionView(d, e.latestReviewDate, s.timeZone) : null);
-  }
-  const current = (id: string): CurrentDecision | null => decisionOf.get(id) ?? null;
+  const currentOf = new Map<string, CurrentDecision & { id: string }>();
+  for (const d of current) currentOf.set(d.case_id, { id: d.id, step: d.step, date: d.date, decidedOn: todayIn(s.timeZone, new Date(d.created_at)) });
+  const ordered = orderWorklist(entries, (id) => currentOf.get(id) ?? null, s.today);
+  const counts: Record<Urgency, number> = { decide: 0, overdue: 0, in_hand: 0 };
+  for (const e of ordered) counts[e.urgency]++;
+  const pageSize = paged ? q.pageSize : Math.max(1, ordered.length);
+  const page = paged ? Math.min(q.page, Math.max(1, Math.ceil(ordered.length / pageSize))) : 1;
+  const shown = ordered.slice((page - 1) * pageSize, page * pageSize);
+  const details = await readDetails(
+    em,
+    actor.practiceId,
+    shown.map((e) => e.caseId),
+    shown.flatMap((e) => currentOf.get(e.caseId)?.id ?? []),
+  );
   const seesPatients = can(actor.roles, 'patient.read');
   const decides = can(actor.roles, 'outcomes.decide');
-  const rows = orderWorklist(entries, current, s.today).map((e): WorklistRow => {
+  const rows = shown.map((e): WorklistRow => {
     const d = details.get(e.caseId)!;
     return {
       caseId: e.caseId,
@@ -201,19 +252,19 @@ async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Pro
       noOpenVisit: e.noOpenVisit,
       urgency: e.urgency,
       urgencyLabel: URGENCY_LABELS[e.urgency],
-      decision: decisionOf.get(e.caseId) ?? null,
+      decision: d.decision ? decisionView(d.decision, e.latestReviewDate, s.timeZone) : null,
       decisions: d.decisions,
       laterCase: d.later_case ? { ...d.later_case, kindLabel: CASE_KIND_LABELS[d.later_case.kind] } : null,
       canDecide: decides && e.operatorId === actor.userId,
     };
   });
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, today: s.today, rows };
+  return { filter: s.filter, own: s.own, clinicians: s.clinicians, today: s.today, rows, total: ordered.length, counts, page, pageSize };
 }
 
 /** The worklist for the actor's filter (a clinician: their own cases), in urgency order. Audited. */
 export async function outcomesWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
-  const report = await buildWorklist(em, actor, raw);
-  await audit(em, actor, { action: 'outcomes.worklist_read', detail: { ...filterDetail(report.filter), cases: report.rows.length } });
+  const report = await buildWorklist(em, actor, raw, true);
+  await audit(em, actor, { action: 'outcomes.worklist_read', detail: { ...filterDetail(report.filter), cases: report.total, page: report.page, rows: report.rows.length } });
   return report;
 }
 
@@ -241,7 +292,7 @@ export const WORKLIST_CSV_HEADER = [
 
 /** The worklist as CSV through the one CSV writer (lib/csv/write.ts); the download is audited. */
 export async function worklistCsv(em: EntityManager, actor: Actor, raw: unknown): Promise<string> {
-  const r = await buildWorklist(em, actor, raw);
+  const r = await buildWorklist(em, actor, raw, false);
   const rows = r.rows.map((w) => [
     w.urgencyLabel,
     w.caseId,

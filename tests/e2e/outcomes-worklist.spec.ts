@@ -8,6 +8,14 @@ import { firstLoadJsKb, signInAs } from './support';
  * The list itself is checked against the rule in tests/integration/outcomes-worklist.test.ts.
  * Screenshots at 1366 and 375 px are kept as test artefacts.
  */
+interface Page {
+  rows: Row[];
+  total: number;
+  page: number;
+  pageSize: number;
+  counts: Record<'decide' | 'overdue' | 'in_hand', number>;
+}
+
 interface Row {
   caseId: string;
   tooth: string;
@@ -27,9 +35,10 @@ test('the practice lead reads the practice’s worklist, filters it by clinician
   await page.getByRole('link', { name: 'Non-healing worklist' }).click();
   await expect(page.getByRole('heading', { name: 'Non-healing worklist' })).toBeVisible();
   await expect(page.getByText('The next step is the clinician’s decision')).toBeVisible();
-  const api = (await (await page.request.get('/api/outcomes/worklist')).json()) as { rows: Row[] };
+  const api = (await (await page.request.get('/api/outcomes/worklist')).json()) as Page;
   expect(api.rows.length).toBeGreaterThan(0);
   await expect(page.getByTestId('worklist-row')).toHaveCount(api.rows.length);
+  await expect(page.getByTestId('worklist-counts')).toContainText(`${api.total} ${api.total === 1 ? 'case' : 'cases'}: ${api.counts.decide} to decide`);
   await expect(page.getByTestId('worklist-row').first()).toHaveAttribute('data-case', api.rows[0]!.caseId);
   expect(api.rows.every((r) => !r.canDecide)).toBe(true);
   await expect(page.locator('summary', { hasText: 'Record the next step' })).toHaveCount(0);
@@ -52,6 +61,19 @@ test('the practice lead reads the practice’s worklist, filters it by clinician
   const lines = (await csv.text()).trim().split(/\r?\n/);
   expect(lines[0]).toMatch(/^Urgency,Case,Tooth \(FDI\),/);
   expect(lines.length).toBeGreaterThanOrEqual(mine.rows.length + 1);
+  // the list is paged on the server: one row a page here, the pager keeps the filter (a period that changes nothing)
+  expect(api.total).toBeGreaterThan(1);
+  await page.goto('/outcomes/worklist?from=1900-01-01&pageSize=1');
+  await expect(page.getByTestId('worklist-row')).toHaveCount(1);
+  await expect(page.getByTestId('worklist-row')).toHaveAttribute('data-case', api.rows[0]!.caseId);
+  const pager = page.getByRole('navigation', { name: 'Pages' });
+  await expect(pager).toContainText(`Page 1 of ${api.total}`);
+  await pager.getByRole('link', { name: 'Next →' }).click();
+  await expect(page).toHaveURL(/from=1900-01-01.*page=2|page=2.*from=1900-01-01/);
+  const second = (await (await page.request.get('/api/outcomes/worklist?from=1900-01-01&pageSize=1&page=2')).json()) as Page;
+  expect(second).toMatchObject({ page: 2, pageSize: 1, total: api.total });
+  await expect(page.getByTestId('worklist-row')).toHaveAttribute('data-case', second.rows[0]!.caseId);
+  await expect(pager).toContainText(`Page 2 of ${api.total}`);
   // the lead cannot record a step
   const refused = await page.request.post(`/api/outcomes/worklist/${api.rows[0]!.caseId}/decisions`, { data: { step: 'watch', date: inDays(30) } });
   expect(refused.status()).toBe(403);

@@ -10,6 +10,7 @@ import { todayIn } from '@/lib/services/registry-common';
 import { createReview } from '@/lib/services/reviews';
 import { outcomesFunnel, outcomesFunnelCsv } from '@/lib/services/outcomes-funnel';
 import { outcomesReportData, outcomesReportPdf, pageCount } from '@/lib/services/outcomes-report';
+import { invalidateOutcomeCases } from '@/lib/services/outcomes-cache';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
 import { completedOn } from '../support/outcome-cases';
 
@@ -212,6 +213,30 @@ describe('the printable audit report (issue 12, item 8)', () => {
     expect(byReferrer).toContain('No referrer recorded');
     expect(byReferrer).not.toMatch(uuid);
   }, 60_000);
+
+  it('a repeat with unchanged data is the kept PDF (same bytes), audited per download; another reader or a change of the data draws again', async () => {
+    invalidateOutcomeCases();
+    const knex = services.orm.em.getKnex();
+    const downloads = async () =>
+      ((await knex('audit_event').where({ practice_id: world.practice.id, action: 'outcomes.report_downloaded' }).orderBy('at').select('detail')) as { detail: Record<string, unknown> }[]).map((e) => e.detail);
+    const before = (await downloads()).length;
+    const first = await outcomesReportPdf(services.em(), world.auditor, { factor: 'kind', measure: 'm12', adjust: 'crude', clinician: '' });
+    // the same filters normalised (defaults, a blank clinician): served from the cache
+    const again = await outcomesReportPdf(services.em(), world.auditor, { adjust: 'crude' });
+    expect(again.pdf.equals(first.pdf)).toBe(true);
+    // a clinician asking the same is forced to their own cases and named: their own PDF
+    const theirs = await outcomesReportPdf(services.em(), world.clinician, { factor: 'kind', adjust: 'crude' });
+    expect(theirs.pdf.equals(first.pdf)).toBe(false);
+    expect(pdfText(theirs.pdf)).toContain('your own cases (cal)');
+    // one statement changing a case moves the data version on: drawn again
+    await knex.raw('update treatment_case set lesion_diameter_mm = lesion_diameter_mm where id = (select id from treatment_case where practice_id = ? order by id limit 1)', [world.practice.id]);
+    const afterWrite = await outcomesReportPdf(services.em(), world.auditor, { factor: 'kind', adjust: 'crude' });
+    const events = (await downloads()).slice(before);
+    expect(events.map((e) => e.cached)).toEqual([false, true, false, false]);
+    expect(events.map((e) => e.pages)).toEqual([first, again, theirs, afterWrite].map((r) => pageCount(r.pdf)));
+    expect(events.every((e) => e.factor === 'kind' && e.adjust === 'crude')).toBe(true);
+    expect(pdfText(afterWrite.pdf).replace(/\s+/g, ' ')).toContain('Cases followed');
+  }, 120_000);
 
   it('bad filters are a 422 before anything is drawn', async () => {
     await expect(outcomesReportPdf(services.em(), world.auditor, { factor: 'horoscope' })).rejects.toMatchObject({ status: 422 });

@@ -231,3 +231,52 @@ describe('recording the next step', () => {
     for (const a of ['outcomes.worklist_read', 'outcomes.worklist_exported', 'outcomes.decision_recorded', 'outcomes.decisions_read', 'case.created']) expect(actions).toContain(a);
   });
 });
+
+describe('paging (issue 12, performance): the server answers one page of the urgency order', () => {
+  it('the pages, in turn, are the whole list in the same order as the CSV; counts and total on every page; past the end is the last page', async () => {
+    const em = () => services.em();
+    const whole = await outcomesWorklist(em(), world.auditor, { pageSize: '200' });
+    expect(whole.total).toBe(FIXTURES.filter((f) => f.listed).length);
+    expect(whole.rows).toHaveLength(whole.total);
+    // after the steps recorded above, the order depends on the current steps: in hand, by the step's date
+    expect(whole.rows.filter((r) => r.decision).length).toBeGreaterThan(2);
+    const inHand = whole.rows.filter((r) => r.urgency === 'in_hand').map((r) => r.decision!.date);
+    expect(inHand.length).toBeGreaterThan(2);
+    expect(inHand).toEqual([...inHand].sort());
+    const tally = { decide: 0, overdue: 0, in_hand: 0 };
+    for (const r of whole.rows) tally[r.urgency]++;
+    expect(whole.counts).toEqual(tally);
+    const csvCases = (await worklistCsv(em(), world.auditor, {})).trim().split(/\r?\n/).slice(1).map((l) => l.split(',')[1]);
+    expect(whole.rows.map((r) => r.caseId)).toEqual(csvCases);
+
+    const pages: typeof whole.rows = [];
+    for (let page = 1; page <= Math.ceil(whole.total / 2); page++) {
+      const p = await outcomesWorklist(em(), world.auditor, { page: String(page), pageSize: '2' });
+      expect(p).toMatchObject({ page, pageSize: 2, total: whole.total, counts: whole.counts });
+      expect(p.rows.length).toBe(Math.min(2, whole.total - (page - 1) * 2));
+      pages.push(...p.rows);
+    }
+    expect(pages).toEqual(whole.rows);
+    const past = await outcomesWorklist(em(), world.auditor, { page: '99', pageSize: '2' });
+    expect(past.page).toBe(Math.ceil(whole.total / 2));
+    expect(past.rows).toEqual(whole.rows.slice((past.page - 1) * 2));
+    // a clinician's pages are their own cases
+    const own = await outcomesWorklist(em(), world.clinician2, { pageSize: '1' });
+    expect(own.rows).toHaveLength(1);
+    expect(own.total).toBe(2);
+    expect(own.rows[0]!.clinician.id).toBe(world.clinician2.userId);
+    const event = (await services.orm.em.getKnex()('audit_event').where({ practice_id: world.practice.id, action: 'outcomes.worklist_read' }).orderBy('at', 'desc').first('detail')) as { detail: Record<string, unknown> };
+    expect(event.detail).toMatchObject({ cases: 2, page: 1, rows: 1 });
+  });
+
+  it('a bad page or page size is a 422 on its field', async () => {
+    for (const [q, field] of [
+      [{ page: '0' }, 'page'],
+      [{ page: 'two' }, 'page'],
+      [{ pageSize: '201' }, 'pageSize'],
+      [{ pageSize: '1.5' }, 'pageSize'],
+    ] as const) {
+      await expect(outcomesWorklist(services.em(), world.auditor, q)).rejects.toMatchObject({ status: 422, fieldErrors: { [field]: [expect.any(String)] } });
+    }
+  });
+});

@@ -6,9 +6,11 @@ import { outcomesWorklist, type WorklistRow } from '@/lib/services/outcomes-work
 import { Caution } from '@/components/ui/Caution';
 import { EmptyState } from '@/components/ui/EmptyState';
 import { Notice } from '@/components/ui/Notice';
+import { Pager } from '@/components/ui/Pager';
 import { OutcomeBadge, StateBadge } from '@/components/ui/StateBadge';
 import { fmtDate } from '@/components/ui/format';
-import { filtersOf, Method, OutcomesHeader } from '../_components/parts';
+import { WORKLIST_PAGE_SIZE } from '@/lib/schemas/outcomes-worklist';
+import { filtersOf, Method, OutcomesHeader, sharedFilters } from '../_components/parts';
 import { DecisionForm } from './DecisionFormLazy';
 import { viewData } from '../_components/viewData';
 
@@ -20,12 +22,23 @@ const URGENCY_LOOK: Record<Urgency, { tone: 'alert' | 'watch' | 'info'; icon: st
   in_hand: { tone: 'info', icon: '✓' },
 };
 
+/** A whole number from the URL within bounds, else the default (a bad page number shows the first page, not an error). */
+const wholeOr = (v: unknown, min: number, max: number, fallback: number) => {
+  const n = typeof v === 'string' && /^\d+$/.test(v) ? Number(v) : NaN;
+  return Number.isSafeInteger(n) && n >= min && n <= max ? n : fallback;
+};
+
 export default async function OutcomesWorklistPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
   const { em, actor } = await requireActor('outcomes.read', '/outcomes/worklist');
-  const filters = filtersOf(await searchParams);
+  const params = await searchParams;
+  const filters = filtersOf(params);
   for (const k of ['factor', 'endpoint', 'method']) delete filters[k];
-  const { data, problems, own } = await viewData(actor, () => outcomesWorklist(em, actor, filters));
-  const count = (u: Urgency) => data?.rows.filter((r) => r.urgency === u).length ?? 0;
+  // the list is paged on the server (urgency order); the filters and the page live in the URL
+  const page = wholeOr(params.page, 1, Number.MAX_SAFE_INTEGER, 1);
+  const pageSize = wholeOr(params.pageSize, 1, 200, WORKLIST_PAGE_SIZE);
+  const { data, problems, own } = await viewData(actor, () => outcomesWorklist(em, actor, { ...filters, page, pageSize }));
+  const count = (u: Urgency) => data?.counts[u] ?? 0;
+  const pagerQuery = { ...sharedFilters(filters), pageSize: pageSize === WORKLIST_PAGE_SIZE ? undefined : String(pageSize) };
   return (
     <div className="space-y-8">
       <OutcomesHeader
@@ -48,9 +61,10 @@ export default async function OutcomesWorklistPage({ searchParams }: { searchPar
             {data.own ? 'Record the next step for each.' : 'The clinician who treated the tooth records the next step.'}
           </p>
           <Caution text={WORKLIST_CAUTION} />
-          {data.rows.length > 0 && (
+          {data.total > 0 && (
             <p data-testid="worklist-counts" className="text-sm">
-              {data.rows.length} {data.rows.length === 1 ? 'case' : 'cases'}: {count('decide')} to decide, {count('overdue')} overdue, {count('in_hand')} in hand.
+              {data.total} {data.total === 1 ? 'case' : 'cases'}: {count('decide')} to decide, {count('overdue')} overdue, {count('in_hand')} in hand.
+              {data.total > data.pageSize && ` Showing ${(data.page - 1) * data.pageSize + 1}–${(data.page - 1) * data.pageSize + data.rows.length}, most urgent first.`}
             </p>
           )}
           {data.rows.length === 0 ? (
@@ -80,6 +94,7 @@ export default async function OutcomesWorklistPage({ searchParams }: { searchPar
               </table>
             </div>
           )}
+          {data.total > data.pageSize && <Pager page={data.page} pageSize={data.pageSize} total={data.total} basePath="/outcomes/worklist" query={pagerQuery} />}
           <Method>
             listed when the current outcome (Lamina’s scoring rules on the latest review, the practice’s minimum observation time; a retreatment,
             surgery or extraction found at a review ends the case) is disease, or is healing or uncertain more than 1461 days (four years) after
