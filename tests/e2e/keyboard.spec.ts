@@ -233,7 +233,7 @@ async function makeCase(page: Page, registryNumber: string, completionDate: stri
       operatorId: me.id,
       tooth: 36,
       kind: 'primary_treatment',
-      startDate: isoDaysAgo(400),
+      startDate: new Date(Date.parse(completionDate) - 14 * 86_400_000).toISOString().slice(0, 10),
       completionDate,
       pulpalDiagnosis: 'pulp_necrosis',
       apicalDiagnosis: 'asymptomatic_apical_periodontitis',
