@@ -442,7 +442,7 @@ test.describe('as a clinician', () => {
     // What went to the server: the score and the two signs, nothing else.
     const request = await sent;
     expect(request.postDataJSON()).toEqual({ kind: 'first', pai: 3, signs: { painOnBiting: true, swelling: true } });
-    expect((await request.response())?.status()).toBe(201);
+    expect((await request.response())?.status()).toBe(200);
     await expect(page.getByText(/Reading saved: PAI 3\./)).toBeVisible();
 
     // The queue moved on: our film is gone, one fewer to read, and the focus is on the next task.
