@@ -1,6 +1,6 @@
 'use client';
 
-import { useCallback, useEffect, useState } from 'react';
+import { useCallback, useEffect, useRef, useState, type RefObject } from 'react';
 import { useRouter } from 'next/navigation';
 import { ReadingFilm, type ReadingFilmProps } from '@/components/films/ReadingFilm';
 import { EmptyState } from '@/components/ui/EmptyState';
@@ -20,6 +20,16 @@ const SIGN_KEYS: Record<string, string> = {
 
 type Film = Omit<ReadingFilmProps, 'src'> & { src: string };
 
+/**
+ * Keys typed into a text field or a list belong to it; on a checkbox or a button (where Tab and Space
+ * leave a keyboard user) the reading shortcuts still work.
+ */
+function takesTyping(t: EventTarget | null): boolean {
+  if (!(t instanceof HTMLElement)) return false;
+  if (t.isContentEditable || t.tagName === 'TEXTAREA' || t.tagName === 'SELECT') return true;
+  return t.tagName === 'INPUT' && !['checkbox', 'radio', 'button', 'submit', 'reset', 'range', 'color', 'file', 'image'].includes((t as HTMLInputElement).type);
+}
+
 export function ReadingDesk({
   items: initial,
   scope,
@@ -37,11 +47,24 @@ export function ReadingDesk({
   const [index, setIndex] = useState(() => Math.max(0, initial.findIndex((i) => i.filmId === start)));
   const [message, setMessage] = useState<{ tone: 'ok' | 'alert'; text: string } | null>(null);
   const item = items[index] ?? null;
+  // After "next" or a save the task on screen is replaced, and with it the control that had the
+  // focus: the focus goes to the new task's heading (its position in the queue), or to the empty
+  // queue's message, never back to the top of the page.
+  const moved = useRef(false);
+  const title = useRef<HTMLHeadingElement>(null);
+  const empty = useRef<HTMLDivElement>(null);
+  useEffect(() => {
+    if (!moved.current) return;
+    moved.current = false;
+    (title.current ?? empty.current)?.focus();
+  }, [item?.filmId, item?.task]);
   const next = useCallback(() => {
+    if (items.length > 1) moved.current = true;
     if (items.length > 0) setIndex((i) => (i + 1) % items.length);
   }, [items.length]);
   const saved = useCallback(
     (done: QueueItem, text: string) => {
+      moved.current = true;
       setMessage({ tone: 'ok', text });
       setItems((list) => list.filter((x) => x !== done));
       setIndex((i) => (items.length - 1 <= i ? 0 : i));
@@ -52,7 +75,7 @@ export function ReadingDesk({
 
   if (!item) {
     return (
-      <>
+      <div ref={empty} tabIndex={-1} className="space-y-4">
         {message && <Notice tone={message.tone}>{message.text}</Notice>}
         <EmptyState
           title="No film is waiting for you"
@@ -61,7 +84,7 @@ export function ReadingDesk({
           Follow-up films uploaded to your cases wait here for their first reading; films chosen for a blinded second reading, readings to
           adjudicate and the yearly calibration exercise come here too.
         </EmptyState>
-      </>
+      </div>
     );
   }
   return (
@@ -70,6 +93,7 @@ export function ReadingDesk({
       item={item}
       position={`${index + 1} of ${items.length}`}
       signs={signs}
+      title={title}
       message={message}
       setMessage={setMessage}
       onNext={next}
@@ -82,6 +106,7 @@ function Task({
   item,
   position,
   signs,
+  title,
   message,
   setMessage,
   onNext,
@@ -90,6 +115,7 @@ function Task({
   item: QueueItem;
   position: string;
   signs: { key: string; label: string }[];
+  title: RefObject<HTMLHeadingElement | null>;
   message: { tone: 'ok' | 'alert'; text: string } | null;
   setMessage: (m: { tone: 'ok' | 'alert'; text: string } | null) => void;
   onNext: () => void;
@@ -148,8 +174,7 @@ function Task({
 
   useEffect(() => {
     const onKey = (e: KeyboardEvent) => {
-      const t = e.target as HTMLElement | null;
-      if (e.ctrlKey || e.metaKey || e.altKey || (t && ['INPUT', 'TEXTAREA', 'SELECT'].includes(t.tagName))) return;
+      if (e.ctrlKey || e.metaKey || e.altKey || takesTyping(e.target)) return;
       if (/^[1-5]$/.test(e.key)) {
         setPai(Number(e.key));
         setMessage(null);
@@ -167,7 +192,7 @@ function Task({
   return (
     <div className="grid gap-4 lg:grid-cols-[1fr_18rem]">
       <section aria-labelledby="reading-title" className="space-y-2">
-        <h2 id="reading-title" className="text-xl">
+        <h2 id="reading-title" ref={title} tabIndex={-1} className="text-xl">
           {item.taskLabel}
           <span className="ml-2 text-sm font-normal text-ink-500">{position}</span>
         </h2>

@@ -1,5 +1,5 @@
 'use client';
-import { useState } from 'react';
+import { useEffect, useRef, useState } from 'react';
 import { useRouter } from 'next/navigation';
 import { useForm, useWatch } from 'react-hook-form';
 import { schemaResolver } from '@/components/forms/schemaResolver';
@@ -108,6 +108,25 @@ export function ReviewForm({
   const router = useRouter();
   const [open, setOpen] = useState(startOpen);
   const [serverError, setServerError] = useState<string | null>(null);
+  const [saved, setSaved] = useState(false);
+  // The focus follows the form: to its heading when it opens (by its button, or by a link that opens
+  // it), back to its button when it closes (saved or cancelled). Without this, the control that had
+  // the focus disappears and a keyboard user starts again from the top of the page.
+  const heading = useRef<HTMLHeadingElement>(null);
+  const trigger = useRef<HTMLButtonElement>(null);
+  const [moves, setMoves] = useState(startOpen ? 1 : 0);
+  useEffect(() => {
+    if (moves > 0) (open ? heading.current : trigger.current)?.focus();
+  }, [moves, open]);
+  const openForm = () => {
+    setSaved(false);
+    setOpen(true);
+    setMoves((n) => n + 1);
+  };
+  const closeForm = () => {
+    setOpen(false);
+    setMoves((n) => n + 1);
+  };
   const form = useForm<Shape>({
     resolver: schemaResolver(correcting ? CorrectionFormSchema : FormSchema, { raw: true }),
     defaultValues: correcting
@@ -138,24 +157,36 @@ export function ReviewForm({
       return;
     }
     form.reset();
-    setOpen(false);
+    setSaved(true);
+    closeForm();
     router.refresh();
   });
 
   if (!open) {
-    return correcting ? (
-      <button type="button" className="btn-secondary min-h-0 py-1 text-xs" onClick={() => setOpen(true)} aria-label={title}>
-        Correct
-      </button>
-    ) : (
-      <button type="button" className="btn-primary" onClick={() => setOpen(true)}>
-        Record a review
-      </button>
+    return (
+      <div className="space-y-2">
+        {saved && (
+          <Notice tone="ok" role="status">
+            {correcting ? 'Correction saved' : 'Review saved'}: it is in the Reviews table, with the outcome computed from it.
+          </Notice>
+        )}
+        {correcting ? (
+          <button ref={trigger} type="button" className="btn-secondary min-h-0 py-1 text-xs" onClick={openForm} aria-label={title}>
+            Correct
+          </button>
+        ) : (
+          <button ref={trigger} type="button" className="btn-primary" onClick={openForm}>
+            Record a review
+          </button>
+        )}
+      </div>
     );
   }
   return (
     <form id={correcting ? undefined : 'record-review'} onSubmit={onSubmit} noValidate aria-label={title} className="space-y-4 rounded-md border border-bone-300 bg-white p-4 text-left">
-      <h3 className="text-lg">{title}</h3>
+      <h3 ref={heading} tabIndex={-1} className="text-lg">
+        {title}
+      </h3>
       {serverError && <Notice tone="alert">{serverError}</Notice>}
       {correcting && (
         <p className="text-sm text-ink-700">
@@ -264,7 +295,7 @@ export function ReviewForm({
         <button type="submit" className="btn-primary" disabled={formState.isSubmitting}>
           {formState.isSubmitting ? 'Saving…' : correcting ? 'Save correction' : marks ? 'Save review and mark attended' : 'Save review'}
         </button>
-        <button type="button" className="btn-secondary" onClick={() => setOpen(false)}>
+        <button type="button" className="btn-secondary" onClick={closeForm}>
           Cancel
         </button>
       </div>

@@ -74,7 +74,7 @@ export function ContactLog({ visitId, onClose }: { visitId: string; onClose: () 
         className="mt-5 space-y-3 border-t border-bone-200 pt-4"
         onSubmit={(e) => {
           e.preventDefault();
-          add.mutate();
+          if (!add.isPending) add.mutate();
         }}
       >
         <h3 className="text-lg">Note a call</h3>
@@ -86,7 +86,8 @@ export function ContactLog({ visitId, onClose }: { visitId: string; onClose: () 
           <textarea id="call-note" className="field-input" rows={3} value={note} onChange={(e) => setNote(e.target.value)} />
         </div>
         <Check label="I spoke to the patient" checked={reached} onChange={(e) => setReached(e.target.checked)} />
-        <button type="submit" className="btn-primary" disabled={add.isPending}>
+        {/* aria-disabled, not disabled: a disabled button loses the keyboard focus while the note is saved */}
+        <button type="submit" className="btn-primary aria-disabled:cursor-not-allowed aria-disabled:opacity-60" aria-disabled={add.isPending || undefined}>
           {add.isPending ? 'Saving…' : 'Add to the log'}
         </button>
       </form>

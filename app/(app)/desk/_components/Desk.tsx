@@ -1,7 +1,7 @@
 'use client';
 import Link from 'next/link';
 import { usePathname, useRouter, useSearchParams } from 'next/navigation';
-import { useMemo, useState } from 'react';
+import { useEffect, useMemo, useRef, useState } from 'react';
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { createColumnHelper, getCoreRowModel, useReactTable, type RowSelectionState } from '@tanstack/react-table';
 import type { DeskQueue, DeskQueues, DeskRow, DeskRowsPage, ActionResponse } from '@/lib/services/recall-desk';
@@ -41,6 +41,15 @@ export function Desk() {
   const [selection, setSelection] = useState<RowSelectionState>({});
   const [openLog, setOpenLog] = useState<string | null>(null);
   const [outcome, setOutcome] = useState<{ tone: 'ok' | 'alert' | 'info'; lines: string[] } | null>(null);
+  // After an action on the selection its button is disabled (nothing is selected any more), which
+  // takes the focus from a keyboard user: the focus goes to the action's outcome instead.
+  const outcomeBox = useRef<HTMLDivElement>(null);
+  const focusOutcome = useRef(false);
+  useEffect(() => {
+    if (!outcome || !focusOutcome.current) return;
+    focusOutcome.current = false;
+    outcomeBox.current?.focus();
+  }, [outcome]);
 
   const queues = useQuery({
     queryKey: ['desk-queues', clinician],
@@ -69,6 +78,7 @@ export function Desk() {
     mutationFn: ({ url, body }: { url: string; body: unknown }) => postJson<ActionResponse>(url, body),
     onSuccess: (res) => {
       const failed = res.results.filter((r) => !r.ok);
+      focusOutcome.current = true;
       setOutcome({
         tone: failed.length ? (failed.length === res.results.length ? 'alert' : 'info') : 'ok',
         lines: [
@@ -81,7 +91,10 @@ export function Desk() {
       qc.invalidateQueries({ queryKey: ['desk-rows'] });
       qc.invalidateQueries({ queryKey: ['desk-log'] });
     },
-    onError: (e) => setOutcome({ tone: 'alert', lines: [(e as Error).message] }),
+    onError: (e) => {
+      focusOutcome.current = true;
+      setOutcome({ tone: 'alert', lines: [(e as Error).message] });
+    },
   });
 
   const columns = useMemo(() => {
@@ -250,13 +263,15 @@ export function Desk() {
         onBook={(start, mode, sendNow) => act.mutate({ url: '/api/recall/book', body: { visitIds: selected, start, mode, sendNow } })}
       />
       {outcome && (
-        <Notice tone={outcome.tone}>
-          <ul>
-            {outcome.lines.map((l, i) => (
-              <li key={i}>{l}</li>
-            ))}
-          </ul>
-        </Notice>
+        <div ref={outcomeBox} tabIndex={-1} className="rounded-md">
+          <Notice tone={outcome.tone}>
+            <ul>
+              {outcome.lines.map((l, i) => (
+                <li key={i}>{l}</li>
+              ))}
+            </ul>
+          </Notice>
+        </div>
       )}
 
       {rows.error ? (
