@@ -22,6 +22,8 @@ interface Upload {
   /** 0–100 while the bytes go up. */
   progress: number;
   message?: string;
+  /** Trying the same file again can help (a lost connection, a busy or restarting server), not a refused file. */
+  retryable?: boolean;
   /** The server had this file already for this case and role (a retry): no copy kept. */
   repeated?: boolean;
 }
@@ -101,10 +103,12 @@ export function FilmsSection({
           setFilms((list) => [film, ...list.filter((f) => f.id !== film.id)]);
           finish({ status: 'done', repeated: body.created === false });
         } else {
-          finish({ status: 'failed', message: body.message ?? `The upload failed (status ${xhr.status}). Nothing was kept; try again.` });
+          // 4xx: this file was refused (type, size, content): the same file again would be refused again.
+          const retryable = xhr.status === 0 || xhr.status === 408 || xhr.status === 429 || xhr.status >= 500;
+          finish({ status: 'failed', retryable, message: body.message ?? `The upload failed (status ${xhr.status}). Nothing was kept${retryable ? '; try again' : ''}.` });
         }
       };
-      xhr.onerror = () => finish({ status: 'failed', message: 'The connection was lost during the upload. Nothing was kept; try again.' });
+      xhr.onerror = () => finish({ status: 'failed', retryable: true, message: 'The connection was lost during the upload. Nothing was kept; try again.' });
       xhr.onabort = xhr.onerror;
       xhr.send(form);
     },
@@ -139,7 +143,7 @@ export function FilmsSection({
     if (fileInput.current) fileInput.current.value = '';
   }
 
-  const retry = (u: Upload) => update(u.key, { status: 'waiting', progress: 0, message: undefined });
+  const retry = (u: Upload) => update(u.key, { status: 'waiting', progress: 0, message: undefined, retryable: undefined });
 
   return (
     <section aria-labelledby="films" className="card space-y-4">
@@ -202,7 +206,7 @@ export function FilmsSection({
                   {u.status === 'failed' && (
                     <div className="mt-1 flex flex-wrap items-center gap-2">
                       <span className="text-state-alert">{u.message}</span>
-                      {u.file.size <= maxBytes && (
+                      {u.retryable && u.file.size <= maxBytes && (
                         <button type="button" className="btn-secondary min-h-0 py-1 text-sm" onClick={() => retry(u)}>
                           Retry
                         </button>
