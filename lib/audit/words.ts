@@ -201,6 +201,7 @@ export const ACTION_GROUPS: readonly ActionGroup[] = [
     label: 'Referring dentists',
     actions: {
       'referrer.created': 'Added a referring dentist',
+      'referrer.updated': 'Changed a referring dentist (name, practice, e-mail or archived)',
     },
   },
   {
