@@ -23,14 +23,3 @@ export const DecisionInput = z
   });
 export type DecisionInput = z.output<typeof DecisionInput>;
 
-/** The worklist's page (in urgency order) and page size; the filters are OutcomeFilterQuery's. */
-export const WORKLIST_PAGE_SIZE = 50;
-export const WorklistPaging = z.object({
-  page: z.coerce.number({ error: 'The page is a whole number from 1.' }).int({ error: 'The page is a whole number from 1.' }).min(1, { error: 'The page is a whole number from 1.' }).default(1),
-  pageSize: z.coerce
-    .number({ error: 'The page size is a whole number from 1 to 200.' })
-    .int({ error: 'The page size is a whole number from 1 to 200.' })
-    .min(1, { error: 'The page size is a whole number from 1 to 200.' })
-    .max(200, { error: 'The page size is a whole number from 1 to 200.' })
-    .default(WORKLIST_PAGE_SIZE),
-});

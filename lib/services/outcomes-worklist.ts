@@ -27,7 +27,8 @@ import { addDaysTo, type CalendarDate } from '@/lib/registry/calendar-date';
 import { CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
 import { OUTCOME_LABELS, type ReviewOutcome } from '@/lib/scoring';
 import { OutcomeFilterQuery } from '@/lib/schemas/outcomes';
-import { DecisionInput, WorklistPaging } from '@/lib/schemas/outcomes-worklist';
+import { DecisionInput } from '@/lib/schemas/outcomes-worklist';
+import { Paging } from '@/lib/schemas/paging';
 import { defaultWindow } from '@/lib/schemas/recall-policy';
 import { formatTooth } from '@/lib/teeth';
 import { audit } from './audit';
@@ -200,7 +201,7 @@ function decisionView(d: NonNullable<DetailRow['decision']>, latestReviewDate: C
   };
 }
 
-const WorklistQuery = z.intersection(OutcomeFilterQuery, WorklistPaging);
+const WorklistQuery = z.intersection(OutcomeFilterQuery, Paging);
 
 /**
  * The list for the actor's filter in urgency order, and the rows of one page (`paged`) or of all

@@ -9,7 +9,7 @@ import { Notice } from '@/components/ui/Notice';
 import { Pager } from '@/components/ui/Pager';
 import { OutcomeBadge, StateBadge } from '@/components/ui/StateBadge';
 import { fmtDate } from '@/components/ui/format';
-import { WORKLIST_PAGE_SIZE } from '@/lib/schemas/outcomes-worklist';
+import { PAGE_SIZE } from '@/lib/schemas/paging';
 import { filtersOf, Method, OutcomesHeader, sharedFilters } from '../_components/parts';
 import { DecisionForm } from './DecisionFormLazy';
 import { viewData } from '../_components/viewData';
@@ -35,10 +35,10 @@ export default async function OutcomesWorklistPage({ searchParams }: { searchPar
   for (const k of ['factor', 'endpoint', 'method']) delete filters[k];
   // the list is paged on the server (urgency order); the filters and the page live in the URL
   const page = wholeOr(params.page, 1, Number.MAX_SAFE_INTEGER, 1);
-  const pageSize = wholeOr(params.pageSize, 1, 200, WORKLIST_PAGE_SIZE);
+  const pageSize = wholeOr(params.pageSize, 1, 200, PAGE_SIZE);
   const { data, problems, own } = await viewData(actor, () => outcomesWorklist(em, actor, { ...filters, page, pageSize }));
   const count = (u: Urgency) => data?.counts[u] ?? 0;
-  const pagerQuery = { ...sharedFilters(filters), pageSize: pageSize === WORKLIST_PAGE_SIZE ? undefined : String(pageSize) };
+  const pagerQuery = { ...sharedFilters(filters), pageSize: pageSize === PAGE_SIZE ? undefined : String(pageSize) };
   return (
     <div className="space-y-8">
       <OutcomesHeader
