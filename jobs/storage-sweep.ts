@@ -12,13 +12,12 @@ import { sweepStorage, type SweepSummary } from '@/lib/services/storage-sweep';
 
 export interface SweepJobContext {
   em: () => EntityManager;
-  /** from STORAGE_SWEEP_GRACE_MINUTES; the job's own graceMinutes wins */
+  /** from STORAGE_SWEEP_GRACE_MINUTES (lib/storage/orphans.ts's hour when left out) */
   graceMinutes?: number;
   log?: (message: string) => void;
 }
 
 export async function processStorageSweep(ctx: SweepJobContext, job: Job): Promise<SweepSummary> {
-  const data = parseJobData(JOBS.storageSweep, job.data);
-  const minutes = data.graceMinutes ?? ctx.graceMinutes;
-  return sweepStorage(ctx.em(), { ...(minutes ? { graceMs: minutes * 60_000 } : {}), log: ctx.log });
+  parseJobData(JOBS.storageSweep, job.data);
+  return sweepStorage(ctx.em(), { ...(ctx.graceMinutes ? { graceMs: ctx.graceMinutes * 60_000 } : {}), log: ctx.log });
 }

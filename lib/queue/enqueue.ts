@@ -18,7 +18,6 @@ import {
   type SendReminderData,
   type SendReminderInput,
   type StorageSweepData,
-  type StorageSweepInput,
 } from './payloads';
 
 export type RemindersQueue = Queue<SendReminderData, unknown, typeof JOBS.sendReminder>;
@@ -158,16 +157,10 @@ export function openStorageSweepQueue(connection: Redis, options: OpenQueueOptio
 }
 
 /** Installs (or updates) the storage sweep's schedule: by default every hour at minute 30 (STORAGE_SWEEP_DEFAULT_PATTERN). */
-export async function upsertStorageSweepScheduler(queue: StorageSweepQueue, repeat: { pattern?: string; graceMinutes?: number } = {}) {
-  const data = parsePayload(JOBS.storageSweep, repeat.graceMinutes ? { graceMinutes: repeat.graceMinutes } : {});
+export async function upsertStorageSweepScheduler(queue: StorageSweepQueue, repeat: { pattern?: string } = {}) {
   return queue.upsertJobScheduler(
     STORAGE_SWEEP_SCHEDULER_ID as typeof JOBS.storageSweep,
     { pattern: repeat.pattern ?? STORAGE_SWEEP_DEFAULT_PATTERN },
-    { name: JOBS.storageSweep, data, opts: STORAGE_SWEEP_JOB_OPTIONS },
+    { name: JOBS.storageSweep, data: parsePayload(JOBS.storageSweep, {}), opts: STORAGE_SWEEP_JOB_OPTIONS },
   );
-}
-
-/** Queues a sweep now. */
-export async function enqueueStorageSweep(queue: StorageSweepQueue, payload: StorageSweepInput = {}) {
-  return queue.add(JOBS.storageSweep, parsePayload(JOBS.storageSweep, withRequest(payload)));
 }

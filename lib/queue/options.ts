@@ -25,12 +25,17 @@ export const REMINDER_JOB_OPTIONS = {
   removeOnFail: { age: 30 * DAY_SECONDS, count: 50_000 },
 } as const satisfies DefaultJobOptions;
 
+/** The history kept of an hourly, idempotent job (the scan, the sweep): little. */
+const HOURLY_JOB_HISTORY = {
+  removeOnComplete: { age: 7 * DAY_SECONDS, count: 200 },
+  removeOnFail: { age: 30 * DAY_SECONDS, count: 500 },
+} as const satisfies DefaultJobOptions;
+
 /** The scan is idempotent and runs every hour: a few quick retries, little history. */
 export const RECALL_SCAN_JOB_OPTIONS = {
   attempts: 3,
   backoff: { type: 'exponential', delay: 30_000, jitter: 0.2 },
-  removeOnComplete: { age: 7 * DAY_SECONDS, count: 200 },
-  removeOnFail: { age: 30 * DAY_SECONDS, count: 500 },
+  ...HOURLY_JOB_HISTORY,
 } as const satisfies DefaultJobOptions;
 
 /**
@@ -48,8 +53,7 @@ export const COHORT_EXPORT_JOB_OPTIONS = {
 export const STORAGE_SWEEP_JOB_OPTIONS = {
   attempts: 2,
   backoff: { type: 'fixed', delay: 60_000 },
-  removeOnComplete: { age: 7 * DAY_SECONDS, count: 200 },
-  removeOnFail: { age: 30 * DAY_SECONDS, count: 500 },
+  ...HOURLY_JOB_HISTORY,
 } as const satisfies DefaultJobOptions;
 
 export const DEFAULT_JOB_OPTIONS: Record<QueueName, DefaultJobOptions> = {

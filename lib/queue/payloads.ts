@@ -61,12 +61,10 @@ export const SendReferrerMailPayload = z.strictObject({
 export type SendReferrerMailInput = z.input<typeof SendReferrerMailPayload>;
 export type SendReferrerMailData = z.output<typeof SendReferrerMailPayload>;
 
+/** The sweep's job carries nothing: its grace period is the worker's (STORAGE_SWEEP_GRACE_MINUTES). */
 export const StorageSweepPayload = z.strictObject({
-  /** Minutes an object or row must be old before it is swept (lib/storage/orphans.ts SWEEP_GRACE_MS when left out). */
-  graceMinutes: z.number().int().min(1).max(7 * 24 * 60).optional(),
   requestId: JobSafeId.optional(),
 });
-export type StorageSweepInput = z.input<typeof StorageSweepPayload>;
 export type StorageSweepData = z.output<typeof StorageSweepPayload>;
 
 export const JOB_PAYLOADS = {
