@@ -3,6 +3,7 @@
 import { useCallback, useEffect, useRef, useState, type RefObject } from 'react';
 import { useRouter } from 'next/navigation';
 import { ReadingFilm, type ReadingFilmProps } from '@/components/films/ReadingFilm';
+import { useFocusAfterRender } from '@/components/ui/useFocusAfterRender';
 import { EmptyState } from '@/components/ui/EmptyState';
 import { Notice } from '@/components/ui/Notice';
 import type { QueueItem } from '@/lib/services/readings';
@@ -50,27 +51,22 @@ export function ReadingDesk({
   // After "next" or a save the task on screen is replaced, and with it the control that had the
   // focus: the focus goes to the new task's heading (its position in the queue), or to the empty
   // queue's message, never back to the top of the page.
-  const moved = useRef(false);
   const title = useRef<HTMLHeadingElement>(null);
   const empty = useRef<HTMLDivElement>(null);
-  useEffect(() => {
-    if (!moved.current) return;
-    moved.current = false;
-    (title.current ?? empty.current)?.focus();
-  }, [item?.filmId, item?.task]);
+  const focusTask = useFocusAfterRender(() => title.current ?? empty.current);
   const next = useCallback(() => {
-    if (items.length > 1) moved.current = true;
+    if (items.length > 1) focusTask();
     if (items.length > 0) setIndex((i) => (i + 1) % items.length);
-  }, [items.length]);
+  }, [items.length, focusTask]);
   const saved = useCallback(
     (done: QueueItem, text: string) => {
-      moved.current = true;
+      focusTask();
       setMessage({ tone: 'ok', text });
       setItems((list) => list.filter((x) => x !== done));
       setIndex((i) => (items.length - 1 <= i ? 0 : i));
       router.refresh();
     },
-    [items.length, router],
+    [items.length, router, focusTask],
   );
 
   if (!item) {

@@ -1,5 +1,6 @@
 'use client';
-import { useEffect, useRef, useState } from 'react';
+import { useRef, useState } from 'react';
+import { useFocusAfterRender } from '@/components/ui/useFocusAfterRender';
 import { useRouter } from 'next/navigation';
 import { useForm, useWatch } from 'react-hook-form';
 import { schemaResolver } from '@/components/forms/schemaResolver';
@@ -114,18 +115,15 @@ export function ReviewForm({
   // the focus disappears and a keyboard user starts again from the top of the page.
   const heading = useRef<HTMLHeadingElement>(null);
   const trigger = useRef<HTMLButtonElement>(null);
-  const [moves, setMoves] = useState(startOpen ? 1 : 0);
-  useEffect(() => {
-    if (moves > 0) (open ? heading.current : trigger.current)?.focus();
-  }, [moves, open]);
+  const focusAfter = useFocusAfterRender(() => heading.current ?? trigger.current, startOpen);
   const openForm = () => {
     setSaved(false);
     setOpen(true);
-    setMoves((n) => n + 1);
+    focusAfter();
   };
   const closeForm = () => {
     setOpen(false);
-    setMoves((n) => n + 1);
+    focusAfter();
   };
   const form = useForm<Shape>({
     resolver: schemaResolver(correcting ? CorrectionFormSchema : FormSchema, { raw: true }),

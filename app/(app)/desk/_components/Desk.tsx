@@ -1,7 +1,8 @@
 'use client';
 import Link from 'next/link';
 import { usePathname, useRouter, useSearchParams } from 'next/navigation';
-import { useEffect, useMemo, useRef, useState } from 'react';
+import { useMemo, useRef, useState } from 'react';
+import { useFocusAfterRender } from '@/components/ui/useFocusAfterRender';
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { createColumnHelper, getCoreRowModel, useReactTable, type RowSelectionState } from '@tanstack/react-table';
 import type { DeskQueue, DeskQueues, DeskRow, DeskRowsPage, ActionResponse } from '@/lib/services/recall-desk';
@@ -44,12 +45,7 @@ export function Desk() {
   // After an action on the selection its button is disabled (nothing is selected any more), which
   // takes the focus from a keyboard user: the focus goes to the action's outcome instead.
   const outcomeBox = useRef<HTMLDivElement>(null);
-  const focusOutcome = useRef(false);
-  useEffect(() => {
-    if (!outcome || !focusOutcome.current) return;
-    focusOutcome.current = false;
-    outcomeBox.current?.focus();
-  }, [outcome]);
+  const focusOutcome = useFocusAfterRender(() => outcomeBox.current);
 
   const queues = useQuery({
     queryKey: ['desk-queues', clinician],
@@ -78,7 +74,7 @@ export function Desk() {
     mutationFn: ({ url, body }: { url: string; body: unknown }) => postJson<ActionResponse>(url, body),
     onSuccess: (res) => {
       const failed = res.results.filter((r) => !r.ok);
-      focusOutcome.current = true;
+      focusOutcome();
       setOutcome({
         tone: failed.length ? (failed.length === res.results.length ? 'alert' : 'info') : 'ok',
         lines: [
@@ -92,7 +88,7 @@ export function Desk() {
       qc.invalidateQueries({ queryKey: ['desk-log'] });
     },
     onError: (e) => {
-      focusOutcome.current = true;
+      focusOutcome();
       setOutcome({ tone: 'alert', lines: [(e as Error).message] });
     },
   });
