@@ -7,7 +7,7 @@ import { lesionFigures } from '@/lib/films/measure';
 import { FilmCalibrationInput, FilmMeasurementInput } from '@/lib/schemas/film';
 import { audit } from './audit';
 import { NotFoundError, ValidationError } from './errors';
-import { calibrationOf, views, type FilmView } from './films';
+import { calibrationOf, spacingOf, views, type FilmView } from './films';
 import { parseInput } from './parse';
 import { assertId } from './registry-common';
 
@@ -26,10 +26,6 @@ async function liveFilm(em: EntityManager, actor: Actor, filmId: string): Promis
 function onFilm(film: Film, points: readonly FilmPoint[], field: string) {
   const off = points.some((p) => p.x > film.width || p.y > film.height);
   if (off) throw new ValidationError('Some fields need attention.', { [field]: [`Every point must lie on the film (${film.width} × ${film.height} pixels).`] });
-}
-
-function spacingOf(film: Film): [number, number] | null {
-  return film.pixelSpacingRowMm != null && film.pixelSpacingColMm != null ? [Number(film.pixelSpacingRowMm), Number(film.pixelSpacingColMm)] : null;
 }
 
 /** Recomputes a stored measurement's figures with a new scale (a re-calibrated film). */

@@ -65,6 +65,11 @@ export interface FilmMeasurementView {
   measuredAt: string;
 }
 
+/** The film file's own pixel spacing, mm [row, column] (DICOM), or null. */
+export function spacingOf(f: Film): [number, number] | null {
+  return f.pixelSpacingRowMm != null && f.pixelSpacingColMm != null ? [Number(f.pixelSpacingRowMm), Number(f.pixelSpacingColMm)] : null;
+}
+
 /** The calibration stored with a film, as the viewer and the API see it. */
 export function calibrationOf(f: Film): FilmCalibration | null {
   if (!f.calibrationSource || f.mmPerPxX == null || f.mmPerPxY == null) return null;

@@ -35,6 +35,7 @@ import { SCORING_CAUTION } from '@/lib/scoring';
 import { getObject } from '@/lib/storage/s3';
 import { audit } from './audit';
 import { ConflictError, NotFoundError, ServiceError } from './errors';
+import { calibrationOf, spacingOf } from './films';
 import { parseInput } from './parse';
 import { applyAgreedPai } from './reviews';
 import { assertId, practiceSettings, todayIn } from './registry-common';
@@ -115,11 +116,10 @@ function rowsOf(readings: readonly FilmReading[]): FilmReadingRow[] {
  * spacing or a known length, as the viewer sets it) when there is one, otherwise the file's own pixel
  * spacing; null when neither exists.
  */
-function calibrationOf(f: Film): FilmCalibration {
+function readerCalibration(f: Film): FilmCalibration {
   if (!f.webWidth || !f.webHeight) return { mmPerPixel: null };
-  const stored = f.calibrationSource && f.mmPerPxX != null && f.mmPerPxY != null ? [f.mmPerPxY, f.mmPerPxX] : null;
-  const spacing = f.pixelSpacingRowMm != null && f.pixelSpacingColMm != null ? [Number(f.pixelSpacingRowMm), Number(f.pixelSpacingColMm)] : null;
-  const perOriginalPx = stored ?? spacing;
+  const stored = calibrationOf(f);
+  const perOriginalPx = stored ? [stored.mmPerPxY, stored.mmPerPxX] : spacingOf(f);
   if (!perOriginalPx) return { mmPerPixel: null };
   const round = (v: number) => Math.round(v * 1e6) / 1e6;
   return { mmPerPixel: [round(perOriginalPx[0]! * (f.height / f.webHeight)), round(perOriginalPx[1]! * (f.width / f.webWidth))] };
@@ -198,7 +198,7 @@ function exercisedWithinYear(l: Loaded, filmId: string, userId: string, today: s
 }
 
 function imageOf(f: Film) {
-  return { id: f.id, imageUrl: `/api/films/${f.id}/web`, width: f.webWidth, height: f.webHeight, calibration: calibrationOf(f) };
+  return { id: f.id, imageUrl: `/api/films/${f.id}/web`, width: f.webWidth, height: f.webHeight, calibration: readerCalibration(f) };
 }
 
 /** The films waiting for this reader (scope mine) or for anyone (scope practice). Audited. */
@@ -260,7 +260,7 @@ export async function blindedFilm(em: EntityManager, actor: Actor, filmId: strin
   const task = blindedTask(actor, l, f, todayIn(timeZone));
   if (!task) throw new NotFoundError('No blinded reading of this film is waiting for you.');
   await audit(em, actor, { action: 'reading.blinded_viewed', entityType: 'case', entityId: f.case.id, detail: { film: f.id, task } });
-  return { filmId: f.id, imageUrl: `/api/reading/blinded/${f.id}/image`, width: f.webWidth, height: f.webHeight, calibration: calibrationOf(f) };
+  return { filmId: f.id, imageUrl: `/api/reading/blinded/${f.id}/image`, width: f.webWidth, height: f.webHeight, calibration: readerCalibration(f) };
 }
 
 /** The web rendition for a blinded reader: same check as blindedFilm; named neutrally by the route. Audited. */
