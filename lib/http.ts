@@ -109,15 +109,42 @@ export async function readJson(req: Request): Promise<unknown> {
   }
 }
 
-/** A CSV file as a download (the body comes from lib/csv/write.ts, formulas already neutralised). */
-export function csvDownload(body: string, filename: string, headers: Record<string, string> = {}): Response {
-  return new Response(body, {
+/**
+ * A CSV file as a download (the body comes from lib/csv/write.ts, formulas already neutralised): the
+ * whole text, or its chunks as they are written (`streamCsv`), sent as the client reads them. A
+ * streamed body has its status sent already: a failure while it is written is logged (the error's
+ * class and code, nothing of the rows) and cuts the download short, so the client sees an
+ * incomplete transfer rather than a short file. A client that goes away stops the writing
+ * (the chunks' `return()`: their source closes what it holds).
+ */
+export function csvDownload(body: string | AsyncIterable<string>, filename: string, headers: Record<string, string> = {}): Response {
+  return new Response(typeof body === 'string' ? body : textStream(body), {
     headers: {
       'Content-Type': 'text/csv; charset=utf-8',
       'Content-Disposition': `attachment; filename="${filename}"`,
       'Cache-Control': 'no-store',
       'X-Content-Type-Options': 'nosniff',
       ...headers,
+    },
+  });
+}
+
+function textStream(chunks: AsyncIterable<string>): ReadableStream<Uint8Array> {
+  const encoder = new TextEncoder();
+  const it = chunks[Symbol.asyncIterator]();
+  return new ReadableStream<Uint8Array>({
+    async pull(controller) {
+      try {
+        const { value, done } = await it.next();
+        if (done) controller.close();
+        else controller.enqueue(encoder.encode(value));
+      } catch (e) {
+        logger('web').error({ err: safeError(e) }, 'download failed while streaming');
+        controller.error(e);
+      }
+    },
+    async cancel() {
+      await it.return?.();
     },
   });
 }

@@ -29,7 +29,7 @@
  *   earliest case in the selection.
  */
 import { daysBetween, type CalendarDate } from '@/lib/registry/calendar-date';
-import { assessRecordedReview, caseObservations, recordedHistory, type Interval, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
+import { assessRecordedReview, caseObservations, currentOutcome, recordedHistory, type Interval, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
 
 export interface OutcomeCase {
   id: string;
@@ -84,6 +84,7 @@ interface CaseMemo {
   minObs: number;
   atMilestone: Map<number, ReviewOutcome | null>;
   afterAYear?: ReviewOutcome | null;
+  current?: ReviewOutcome | null;
   healing?: Interval;
 }
 /** Kept on the case object under a symbol (invisible to JSON and Object.keys; faster than a WeakMap at 100,000 cases). */
@@ -166,6 +167,18 @@ function computeOutcomeAfterAYear(c: OutcomeCase, minObservationDays: number): R
   return late.length ? outcomeOf(c, late[late.length - 1]!, minObservationDays) : null;
 }
 
+/**
+ * The case's current outcome: lib/scoring `currentOutcome` of its reviews, each scored by
+ * `assessRecordedReview` (null without a review). What the non-healing worklist's rule starts from.
+ */
+export function currentOutcomeOf(c: OutcomeCase, minObservationDays: number): ReviewOutcome | null {
+  const m = memoOf(c, minObservationDays);
+  if (m.current === undefined) {
+    m.current = currentOutcome(c.reviews.map((r) => ({ daysSinceTreatment: daysOf(c, r), outcome: outcomeOf(c, r, minObservationDays) })));
+  }
+  return m.current;
+}
+
 /** A milestone in months, or 'latest': the latest review a year or more after completion. */
 export type FollowUpPoint = number | 'latest';
 
@@ -246,4 +259,19 @@ export function healingObservation(c: OutcomeCase, minObservationDays: number): 
   const m = memoOf(c, minObservationDays);
   m.healing ??= caseObservations(recordedHistory({ completionDate: c.completionDate, baselinePai: c.baselinePai }, c.reviews), { minObservationDays }).healing;
   return m.healing;
+}
+
+/**
+ * Everything the views derive per case, computed now and kept on the case object (and, for tooth
+ * loss, per `all`): the outcomes at the milestones, after a year and the current one, the healing
+ * interval and the tooth-loss interval followed from the case. The web server does it for the
+ * rows it reads at start, in the background (lib/services/outcomes-warm.ts), so that the first
+ * request of a view for a new filter computes only that view's figures.
+ */
+export function deriveCaseFacts(c: OutcomeCase, all: readonly OutcomeCase[], minObservationDays: number): void {
+  for (const m of MILESTONES) outcomeAtMilestone(c, m, minObservationDays);
+  outcomeAfterAYear(c, minObservationDays);
+  currentOutcomeOf(c, minObservationDays);
+  healingObservation(c, minObservationDays);
+  toothLossFrom(c, all, minObservationDays);
 }

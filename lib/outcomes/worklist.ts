@@ -28,11 +28,11 @@
  * Lamina lists cases by these rules; the decision is the clinician's (WORKLIST_CAUTION).
  */
 import { addDaysTo, addMonthsClamped, compareDates, daysBetween, type CalendarDate } from '@/lib/registry/calendar-date';
-import { assessRecordedReview, currentOutcome, HEALING_WINDOW_DAYS, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
+import { HEALING_WINDOW_DAYS, type RecordedReview, type ReviewOutcome } from '@/lib/scoring';
 import { OPEN_VISIT_STATUSES, type VisitStatus } from '@/lib/recall/status';
 import { MAX_MILESTONE_MONTHS } from '@/lib/schemas/recall-policy';
 import { SCORED_REVIEW_SIGNS } from '@/lib/schemas/review';
-import type { OutcomeCase } from './cases';
+import { currentOutcomeOf, type OutcomeCase } from './cases';
 
 export const WORKLIST_CAUTION =
   'The next step is the clinician’s decision. Lamina lists cases by its scoring rules from the findings as entered; it does not diagnose.';
@@ -90,11 +90,7 @@ export interface WorklistEntry {
 /** Whether the case is on the worklist today, and why (null when it is not). `completedFollowers` are the ids of cases whose tooth has a later, completed case. */
 export function worklistEntry(c: OutcomeCase, today: CalendarDate, minObservationDays: number, completedFollowers: ReadonlySet<string> = new Set()): WorklistEntry | null {
   if (c.reviews.length === 0 || completedFollowers.has(c.id)) return null;
-  const scored = c.reviews.map((r) => ({
-    daysSinceTreatment: daysBetween(c.completionDate, r.reviewDate),
-    outcome: assessRecordedReview({ completionDate: c.completionDate, baselinePai: c.baselinePai }, r, minObservationDays).outcome,
-  }));
-  const outcome = currentOutcome(scored);
+  const outcome = currentOutcomeOf(c, minObservationDays);
   const days = daysBetween(c.completionDate, today);
   let reason: WorklistReason | null = null;
   if (outcome === 'disease') reason = 'disease';

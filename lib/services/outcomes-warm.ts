@@ -1,7 +1,7 @@
 import 'server-only';
 import { requestEm } from '@/lib/db';
 import { env } from '@/lib/env';
-import { healingObservation, MILESTONES, outcomeAfterAYear, outcomeAtMilestone } from '@/lib/outcomes';
+import { deriveCaseFacts } from '@/lib/outcomes';
 import { cachedOutcomeCases, startOutcomesWarmer } from './outcomes-cache';
 import { OUTCOME_READER } from './outcomes';
 import { knexOf, practiceSettings } from './registry-common';
@@ -10,8 +10,9 @@ import { knexOf, practiceSettings } from './registry-common';
  * Warming the outcomes area in the web server (issue 12, speed), started once by instrumentation.ts:
  *
  * - at start, the rows of the practices with the most completed cases (as many as the cache keeps)
- *   are read in the background, and what lib/outcomes derives per case (outcomes at the milestones,
- *   healing intervals) is computed once, so the first user does not wait for the cold read;
+ *   are read in the background, and what lib/outcomes derives per case (`deriveCaseFacts`: outcomes at
+ *   the milestones, after a year and the current one, healing and tooth-loss intervals) is computed
+ *   once, so the first user does not wait for the cold read nor a view's first request for them;
  * - then every OUTCOMES_WARM_MS the cached practices' data versions are compared with the
  *   database's; a practice whose data changed (a write here, in another instance, the worker, an
  *   import) has its rows refreshed (incrementally: lib/services/outcomes-cache.ts) and its recently
@@ -44,11 +45,7 @@ export async function warmAtStart(): Promise<string[]> {
     const { minObservationDays: minObs } = await practiceSettings(em, id);
     // what lib/outcomes memoises per case object (kept with the rows), in slices so requests are not held up
     for (let i = 0; i < rows.length; i += 2000) {
-      for (const c of rows.slice(i, i + 2000)) {
-        for (const m of MILESTONES) outcomeAtMilestone(c, m, minObs);
-        outcomeAfterAYear(c, minObs);
-        healingObservation(c, minObs);
-      }
+      for (const c of rows.slice(i, i + 2000)) deriveCaseFacts(c, rows, minObs);
       await new Promise((r) => setImmediate(r));
     }
   }

@@ -11,9 +11,10 @@
  *     EntityManager fork per request (permission check, zod parse, data version, the rows, the
  *     engine, the audit event); not over HTTP, so JSON serialisation of the response is timed
  *     separately. Per view: BENCH_REQUESTS requests cycling through 7 filters, p50, p95 and max,
- *     split into the first time a filter is asked (figures computed from the cached rows) and
- *     repeats (kept figures); then the first request just after a write to one case, without the
- *     warmer (incremental refresh of the rows, the view computed on them) and once the warmer ran
+ *     split into the first time a filter is asked ("cold": figures computed from the cached rows,
+ *     with the per-case facts derived as the web server does at start — BENCH_UNDERIVED=1 leaves
+ *     them to the first requests) and repeats (kept figures); then the first request just after a
+ *     write to one case, without the warmer (incremental refresh of the rows, the view computed on them) and once the warmer ran
  *     (lib/services/outcomes-cache.ts warmOutcomes, as the web server does in the background).
  *     Also the full read alone (at start and after a bulk change) and the overview engine alone.
  *
@@ -131,8 +132,13 @@ const overviewEngineAgainMs = performance.now() - tOv2;
 
 // The web server's start (lib/services/outcomes-warm.ts warmAtStart: the rows read, per-case facts derived), timed.
 const tStart = performance.now();
-await cache.cachedOutcomeCases(fresh(), practice.id, outcomes.OUTCOME_READER);
+const { rows: cachedRows } = await cache.cachedOutcomeCases(fresh(), practice.id, outcomes.OUTCOME_READER);
 const startReadMs = performance.now() - tStart;
+// BENCH_UNDERIVED=1 leaves them underived: the first request of each view then derives what it needs
+const UNDERIVED = process.env.BENCH_UNDERIVED === '1';
+const tDerive = performance.now();
+if (!UNDERIVED) for (const c of cachedRows) lib.deriveCaseFacts(c, cachedRows, DEFAULT_MIN_OBSERVATION_DAYS);
+const deriveMs = performance.now() - tDerive;
 
 // A write to one case: one statement, as a review or a case edit makes (the triggers bump the data
 // version and record the case). The same values are written back, so every run gives the same figures.
@@ -188,6 +194,16 @@ for (const v of VIEWS) {
   afterWarm[v.name] = performance.now() - t0;
 }
 
+// The worklist CSV is streamed (worklistCsvStream): how soon its first chunk is ready, beside the whole file above.
+const firstChunk: number[] = [];
+for (let i = 0; i < 7; i++) {
+  const t0 = performance.now();
+  const { chunks } = await worklistService.worklistCsvStream(fresh(), actor, {});
+  await chunks.next();
+  firstChunk.push(performance.now() - t0);
+  await chunks.return?.();
+}
+
 // --- report -------------------------------------------------------------------------------------------
 const counts = (await conn.execute(
   `select (select count(*) from treatment_case where practice_id = ?) cases, (select count(*) from review where practice_id = ?) reviews`,
@@ -198,11 +214,16 @@ console.log(`\nOutcomes benchmark (${today}; PostgreSQL ${(await conn.execute('s
 console.log(seedNote);
 console.log(`practice: ${Number(counts[0]!.cases).toLocaleString('en-GB')} cases, ${Number(counts[0]!.reviews).toLocaleString('en-GB')} reviews; ${rows.length.toLocaleString('en-GB')} completed cases read`);
 console.log(`full read of the rows (readOutcomeCases): ${readMs.toFixed(0)} ms (again through the cache, as at start: ${startReadMs.toFixed(0)} ms); overview engine on them: ${overviewEngineMs.toFixed(0)} ms first, ${overviewEngineAgainMs.toFixed(0)} ms again (per-case facts memoised)`);
+console.log(
+  UNDERIVED
+    ? 'per-case facts NOT derived before the views (BENCH_UNDERIVED=1): the first request of each view derives what it needs'
+    : `per-case facts derived as the web server does at start in the background (warmAtStart, lib/outcomes deriveCaseFacts): ${deriveMs.toFixed(0)} ms`,
+);
 console.log(`after a write to one case: refresh of the rows ${refreshes.length ? refreshes.slice(0, 3).join(', ') : '–'}…; the warmer recomputed ${warmedViews} recent views in ${warmMs.toFixed(0)} ms (in the background in the web server)`);
 console.log(`\nservices called directly (as the route handlers call them; not over HTTP), fresh EntityManager fork per request;`);
 console.log(`write = the first request of the view just after a write to one case, no warmer (incremental refresh + the view computed); warmed = the same once the warmer ran;`);
-console.log(`then ${N_REQUESTS} requests per view cycling through ${FILTERS.length} filters: 1st = the first time a filter is asked (figures computed from the cached rows), rpt = repeats (kept figures)`);
-console.log(`${'view'.padEnd(30)}${'write'.padStart(9)}${'warmed'.padStart(9)}${'p50 ms'.padStart(9)}${'p95 ms'.padStart(9)}${'max ms'.padStart(9)}${'1st p50'.padStart(9)}${'1st p95'.padStart(9)}${'rpt p50'.padStart(9)}${'rpt p95'.padStart(9)}${'JSON ms'.padStart(9)}${'KB'.padStart(7)}`);
+console.log(`then ${N_REQUESTS} requests per view cycling through ${FILTERS.length} filters: cold = the first request of a filter (its figures computed from the cached rows), rpt = repeats (kept figures)`);
+console.log(`${'view'.padEnd(30)}${'write'.padStart(9)}${'warmed'.padStart(9)}${'p50 ms'.padStart(9)}${'p95 ms'.padStart(9)}${'max ms'.padStart(9)}${'cold p50'.padStart(9)}${'cold p95'.padStart(9)}${'rpt p50'.padStart(9)}${'rpt p95'.padStart(9)}${'JSON ms'.padStart(9)}${'KB'.padStart(7)}`);
 let worst = 0;
 for (const v of VIEWS) {
   const f = first.get(v.name)!;
@@ -214,6 +235,7 @@ for (const v of VIEWS) {
     `${v.name.padEnd(30)}${num(afterWrite[v.name])}${num(afterWarm[v.name])}${num(q(xs, 0.5))}${num(q(xs, 0.95))}${num(Math.max(...xs))}${num(q(f, 0.5))}${num(q(f, 0.95))}${num(q(a, 0.5))}${num(q(a, 0.95))}${num(jsonMs[v.name])}${String(Math.round(bytes[v.name]! / 1024)).padStart(7)}`,
   );
 }
+console.log(`worklist CSV (streamed): first chunk after p50 ${quantile(firstChunk, 0.5).toFixed(0)} ms, max ${Math.max(...firstChunk).toFixed(0)} ms (7 requests, whole practice); the whole file in the table above`);
 const all = [...first.values(), ...again.values()].flat();
 console.log(`\nall views: p50 ${quantile(all, 0.5).toFixed(0)} ms, p95 ${quantile(all, 0.95).toFixed(0)} ms; worst per-view p95 ${worst.toFixed(0)} ms; after a write: worst ${Math.max(...Object.values(afterWrite)).toFixed(0)} ms without the warmer, ${Math.max(...Object.values(afterWarm)).toFixed(0)} ms with it (goal: under 300 ms)`);
 

@@ -4,7 +4,8 @@ import { orderWorklist, worklistEntries } from '@/lib/outcomes/worklist';
 import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
 import type { RecordedReview } from '@/lib/scoring';
 import { createCase } from '@/lib/services/cases';
-import { caseDecisions, outcomesWorklist, recordDecision, worklistCsv } from '@/lib/services/outcomes-worklist';
+import { csvDownload } from '@/lib/http';
+import { caseDecisions, outcomesWorklist, recordDecision, worklistCsv, worklistCsvStream } from '@/lib/services/outcomes-worklist';
 import { createPatient } from '@/lib/services/patients';
 import { todayIn } from '@/lib/services/registry-common';
 import { correctReview, createReview } from '@/lib/services/reviews';
@@ -278,5 +279,32 @@ describe('paging (issue 12, performance): the server answers one page of the urg
     ] as const) {
       await expect(outcomesWorklist(services.em(), world.auditor, q)).rejects.toMatchObject({ status: 422, fieldErrors: { [field]: [expect.any(String)] } });
     }
+  });
+});
+
+describe('the CSV streamed (issue 12, performance): one read through a cursor, written as it is read', () => {
+  const inUse = () => (services.orm.em.getKnex().client as unknown as { pool: { numUsed(): number } }).pool.numUsed();
+  const exported = async () => Number(((await services.orm.em.getKnex()('audit_event').where({ practice_id: world.practice.id, action: 'outcomes.worklist_exported' }).count('* as n')) as { n: string }[])[0]!.n);
+
+  it('the streamed response is the same text as the CSV; a reader that stops early, or never reads, leaves no connection held; each download audited once', async () => {
+    const text = await worklistCsv(services.em(), world.auditor, {});
+    const before = await exported();
+    const whole = csvDownload((await worklistCsvStream(services.em(), world.auditor, {})).chunks, 'w.csv');
+    expect(whole.headers.get('content-type')).toContain('text/csv');
+    expect(await whole.text()).toBe(text);
+    expect(inUse()).toBe(0);
+    // the reader goes away after the first chunk
+    const cut = csvDownload((await worklistCsvStream(services.em(), world.auditor, {})).chunks, 'w.csv');
+    const reader = cut.body!.getReader();
+    expect(new TextDecoder().decode((await reader.read()).value)).toMatch(/^Urgency,Case,/);
+    await reader.cancel();
+    expect(inUse()).toBe(0);
+    // asked for and never read: return() alone closes the cursor's transaction
+    const { chunks, rows } = await worklistCsvStream(services.em(), world.auditor, {});
+    expect(rows).toBe(text.trim().split(/\r?\n/).length - 1);
+    expect(inUse()).toBe(1);
+    await chunks.return!();
+    expect(inUse()).toBe(0);
+    expect(await exported()).toBe(before + 3);
   });
 });

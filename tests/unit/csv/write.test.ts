@@ -2,7 +2,7 @@ import { readFileSync, readdirSync, statSync } from 'node:fs';
 import path from 'node:path';
 import Papa from 'papaparse';
 import { describe, expect, it } from 'vitest';
-import { csvCell, neutraliseFormula, readCsvCell, writeCsv, writeCsvObjects } from '@/lib/csv/write';
+import { CSV_CHUNK_CHARS, csvCell, neutraliseFormula, readCsvCell, streamCsv, writeCsv, writeCsvObjects } from '@/lib/csv/write';
 
 // OWASP "CSV Injection": cells beginning with = + - @ tab or carriage return are escaped with a
 // leading single quote; quotes doubled and the cell quoted (RFC 4180).
@@ -59,6 +59,37 @@ describe('writeCsv', () => {
   it('writes objects by column and a BOM when asked', () => {
     const text = writeCsvObjects(['a', 'b'], [{ a: 1, b: '=x' }], { bom: true, newline: '\n' });
     expect(text).toBe("\uFEFFa,b\n1,'=x\n");
+  });
+});
+
+describe('streamCsv', () => {
+  const collect = async (chunks: AsyncIterable<string>) => {
+    const out: string[] = [];
+    for await (const c of chunks) out.push(c);
+    return out;
+  };
+  async function* slowly<T>(items: readonly T[]) {
+    for (const x of items) {
+      await Promise.resolve();
+      yield x;
+    }
+  }
+  it('writes exactly what writeCsv writes, from rows that arrive one at a time, in chunks of about CSV_CHUNK_CHARS', async () => {
+    const header = ['name', 'note', 'n'];
+    // enough rows for several chunks; formulas, quotes, line ends, numbers, blanks and short rows
+    const rows = Array.from({ length: 5000 }, (_, i) => (i % 7 === 0 ? [`${HYPERLINK} ${i}`] : [`Row ${i}`, i % 3 ? 'say "hi"\nthere' : '@cmd', i % 2 ? -i / 4 : null]));
+    const chunks = await collect(streamCsv(header, slowly(rows)));
+    expect(chunks.join('')).toBe(writeCsv(header, rows));
+    expect(chunks.length).toBeGreaterThan(2);
+    for (const c of chunks.slice(0, -1)) expect(c.length).toBeGreaterThanOrEqual(CSV_CHUNK_CHARS);
+    // every chunk ends at a line end: no row is split between chunks
+    for (const c of chunks) expect(c.endsWith('\r\n')).toBe(true);
+    const options = { bom: true, newline: '\n' } as const;
+    expect((await collect(streamCsv(header, rows, options))).join('')).toBe(writeCsv(header, rows, options));
+  });
+  it('with no rows, the header alone', async () => {
+    expect(await collect(streamCsv(['a', '=b'], []))).toEqual([writeCsv(['a', '=b'], [])]);
+    expect(writeCsv(['a', '=b'], [])).toBe("a,'=b\r\n");
   });
 });
 
