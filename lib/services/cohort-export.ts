@@ -22,8 +22,14 @@ import { knexOf, practiceSettings, todayIn } from './registry-common';
  * key, write progress to the row, stop when cancelled, and finish with the figures and an audit event.
  */
 
-/** Rows per page of the reader (memory is a page, not the practice). */
-export const COHORT_PAGE_SIZE = 1_000;
+/**
+ * Rows per page of the reader (memory is a page, not the practice). Small on purpose: a page must
+ * be handled before V8's next young-generation collections, or its rows (with their reviews) are
+ * promoted to the old generation as they wait and pile up there as garbage until a full collection,
+ * which V8 puts off longer the larger the export (pages of 1,000 made the worker's peak grow from
+ * 322 MB at 10k cases to 480 MB at 100k; see DEVELOPERS.md, research cohorts).
+ */
+export const COHORT_PAGE_SIZE = 200;
 
 /** The export's object key: one per export, so a retry replaces the file it left and never adds one. */
 export function cohortObjectKey(practiceId: string, cohortId: string, exportId: string): string {
@@ -74,15 +80,17 @@ export async function* cohortRows(em: EntityManager, practiceId: string, f: Coho
   const keep = cohortPredicate(f);
   let after: { date: string; id: string } | null = null;
   for (;;) {
-    const page = await readPage(knex, practiceId, f, after);
-    for (const r of page) {
+    const page: (RowWithPatient | undefined)[] = await readPage(knex, practiceId, f, after);
+    const n = page.length;
+    if (n) after = { date: page[n - 1]!.completion_date, id: page[n - 1]!.id };
+    for (let i = 0; i < n; i++) {
+      const r = page[i]!;
+      page[i] = undefined; // a row handed on is no longer held by the page (the consumer may keep it waiting)
       const c = outcomeCaseOf(r);
       if (!keep(c)) continue;
       yield { case: c, patient: { dateOfBirth: r.date_of_birth, sex: r.sex, postalCode: r.postal_code }, practiceId };
     }
-    if (page.length < COHORT_PAGE_SIZE) return;
-    const last = page[page.length - 1]!;
-    after = { date: last.completion_date, id: last.id };
+    if (n < COHORT_PAGE_SIZE) return;
   }
 }
 
