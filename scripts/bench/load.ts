@@ -17,7 +17,8 @@
  *       clinician   case list with a filter, case page, outcomes overview (own cases), case page,
  *                   review save (a real POST with Origin, a valid body, a new case each time),
  *                   film thumbnail
- *       coordinator desk queues (all, or one clinician's), case list with a filter, case page, film thumbnail
+ *       coordinator desk queues (all, or one clinician's), a queue's rows, case list with a filter, case page,
+ *                   film thumbnail
  *       lead        outcomes overview, by factor, curves, worklist (cycling through filters), case list, case page
  *  5. prints per route: requests, p50 / p95 / p99 / max ms, non-2xx, and unanswered (socket errors and
  *     timeouts: sent and never answered, counted per route). Exits non-zero on any non-2xx answer
@@ -27,6 +28,8 @@
  *   npm run bench -- load                       (throwaway services and the build from scripts/bench.sh)
  *   BENCH_CASES=10000 npm run bench -- load     (smaller, to try it)
  *   BENCH_REQUESTS=60 (per connection), BENCH_CONNECTIONS_PER_USER=5, BENCH_TIMEOUT_S=30
+ *   BENCH_CPU_PROF=DIR writes a V8 CPU profile of the web server into DIR (open it in Chrome's DevTools)
+ *   LAMINA_BUILD=never reuses the build in .next-bench while changing only this script (see bench.sh)
  *
  * Latency is measured from the moment autocannon builds a request (just before it writes it) to its
  * full answer. The machine is shared: the load average is printed with the figures.
@@ -134,7 +137,8 @@ for (let i = 0; i < 12; i++) {
 const logFile = path.join(process.env.LAMINA_DATA!, 'logs', 'load-web.log');
 fs.mkdirSync(path.dirname(logFile), { recursive: true });
 const out = fs.openSync(logFile, 'a');
-const web: ChildProcess = spawn(process.execPath, ['scripts/web-server.mjs', '-H', '127.0.0.1', '-p', String(WEB_PORT)], {
+const profDir = process.env.BENCH_CPU_PROF ? path.resolve(process.env.BENCH_CPU_PROF) : null;
+const web: ChildProcess = spawn(process.execPath, [...(profDir ? ['--cpu-prof', `--cpu-prof-dir=${profDir}`] : []), 'scripts/web-server.mjs', '-H', '127.0.0.1', '-p', String(WEB_PORT)], {
   cwd: repo,
   env: { ...process.env, NODE_OPTIONS: `${process.env.NODE_OPTIONS ?? ''} ${process.env.LAMINA_WEB_NODE_OPTIONS ?? ''}`.trim() },
   stdio: ['ignore', out, out],
@@ -216,6 +220,7 @@ const listQueries = [
 const year = Number(today.slice(0, 4));
 const outcomeQueries = ['', 'kind=primary_treatment', `from=${year - 2}-01-01&to=${year - 2}-12-31`, `clinician=${clinicianIds[0]}`];
 const deskQueries = ['', ...clinicianIds.map((id) => `clinician=${id}`)];
+const deskRowQueries = ['queue=due_soon', 'queue=overdue', 'queue=call', 'queue=awaiting_reply', `queue=this_month&clinician=${clinicianIds[2]}`, 'queue=missed&sort=patient'];
 const q = (s: string) => (s ? `?${s}` : '');
 const nextCase = cycle(caseIds);
 const nextReviewable = cycle(reviewable);
@@ -223,11 +228,13 @@ const nextFilm = cycle(filmIds);
 const nextList = cycle(listQueries);
 const nextDesk = cycle(deskQueries);
 const nextOutcome = cycle(outcomeQueries);
+const nextDeskRows = cycle(deskRowQueries);
 
 const STEPS = {
   list: { route: 'GET /api/cases (filters)', method: 'GET', path: () => `/api/cases?${nextList()}` },
   case: { route: 'GET /api/cases/:id', method: 'GET', path: () => `/api/cases/${nextCase()}` },
   desk: { route: 'GET /api/recall/queues', method: 'GET', path: () => `/api/recall/queues${q(nextDesk())}` },
+  deskRows: { route: 'GET /api/recall/visits (a queue)', method: 'GET', path: () => `/api/recall/visits?${nextDeskRows()}` },
   overview: { route: 'GET /api/outcomes/overview', method: 'GET', path: () => `/api/outcomes/overview${q(nextOutcome())}` },
   factor: { route: 'GET /api/outcomes/factor', method: 'GET', path: () => `/api/outcomes/factor?${['factor=kind', nextOutcome()].filter(Boolean).join('&')}` },
   curves: { route: 'GET /api/outcomes/curves', method: 'GET', path: () => `/api/outcomes/curves?${['endpoint=healing&method=km', nextOutcome()].filter(Boolean).join('&')}` },
@@ -242,7 +249,7 @@ const STEPS = {
 } satisfies Record<string, Step>;
 const MIX: Record<Person['role'], Step[]> = {
   clinician: [STEPS.list, STEPS.case, STEPS.overview, STEPS.case, STEPS.review, STEPS.thumbnail],
-  coordinator: [STEPS.desk, STEPS.list, STEPS.case, STEPS.thumbnail],
+  coordinator: [STEPS.desk, STEPS.deskRows, STEPS.list, STEPS.case, STEPS.thumbnail],
   auditor: [STEPS.overview, STEPS.factor, STEPS.curves, STEPS.worklist, STEPS.list, STEPS.case],
 };
 const ROUTES = [...new Set(Object.values(STEPS).map((s) => s.route))];
@@ -343,7 +350,10 @@ console.log(
 if (socket) failed = true;
 
 // --- clean up ------------------------------------------------------------------------------------------------------
+const exited = new Promise((r) => (webExited ? r(null) : web.once('exit', r)));
 stopWeb();
+await Promise.race([exited, new Promise((r) => setTimeout(r, 15_000))]);
+if (profDir) console.log(`CPU profile of the web server in ${profDir}`);
 await conn.execute('delete from audit_event where practice_id = ?', [practice.id]);
 await conn.execute('delete from practice where id = ?', [practice.id]);
 await conn.execute('delete from app_user where email like ?', [`%.${slug}@bench.invalid`]);
