@@ -22,7 +22,8 @@
  *       lead        outcomes overview, by factor, curves, worklist (cycling through filters), case list, case page
  *  5. prints per route: requests, p50 / p95 / p99 / max ms, non-2xx, and unanswered (socket errors and
  *     timeouts: sent and never answered, counted per route). Exits non-zero on any non-2xx answer
- *     (a 5xx is a bug; a 4xx means the scenario is wrong) or any request left unanswered. Goal: p95 under
+ *     (a 5xx is a bug; a 4xx means the scenario is wrong) or any request left unanswered (built by
+ *     autocannon and never answered; it can exceed autocannon's own error count). Goal: p95 under
  *     500 ms per route.
  *
  *   npm run bench -- load                       (throwaway services and the build from scripts/bench.sh)
