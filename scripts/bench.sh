@@ -5,7 +5,10 @@
 # Benchmarks get throwaway services like npm test: PostgreSQL (migrated), Redis, the SMTP
 # fake and the S3 fake in a temporary dir on free ports, with DATABASE_URL, REDIS_URL, SMTP_URL,
 # MAILBOX_URL and S3_URL exported, plus R and Python (for reference figures) installed. Everything is stopped and
-# removed at exit. Exits non-zero if any benchmark failed.
+# removed at exit. Exits non-zero if any benchmark failed. Ports are free ones from fixed bases, or
+# as given in LAMINA_TEST_PG_PORT … LAMINA_TEST_S3_PORT (as for npm test). A benchmark whose file says
+# "bench: needs the production build" (the load bench) gets `next build` into .next-bench (skipped
+# when the sources did not change; LAMINA_BUILD=always forces it), with NEXT_DIST_DIR exported.
 set -euo pipefail
 
 cd "$(dirname "${BASH_SOURCE[0]}")/.."
@@ -25,7 +28,7 @@ if ((${#benches[@]} == 0)); then
   exit 1
 fi
 
-lamina_throwaway_env bench 55533 56480 52625 53100 "" 45790
+lamina_throwaway_env bench 55533 56480 52625 53100 LAMINA_TEST 45790
 
 cleanup() {
   services_stop 2>/dev/null || true
@@ -43,6 +46,10 @@ NEXTAUTH_SECRET="$(random_secret)"
 export NEXTAUTH_SECRET
 services_start
 lamina_migrate
+if grep -l 'bench: needs the production build' "${benches[@]}" >/dev/null; then
+  export NEXT_DIST_DIR="${LAMINA_BENCH_DIST_DIR:-.next-bench}"
+  build_if_needed "$NEXT_DIST_DIR"
+fi
 
 failed=()
 for file in "${benches[@]}"; do

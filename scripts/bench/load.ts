@@ -1,0 +1,365 @@
+/**
+ * Load benchmark (issue 15): 50 concurrent signed-in users over HTTP against the production build, at
+ * 100,000 cases.
+ *
+ *  1. seeds a fresh practice with BENCH_CASES (default 100,000) completed cases of the demo world's
+ *     generator (scripts/lib/bench-world.ts, as the outcomes and cohort benches), gives ten people a
+ *     password — 4 clinicians who treated cases, 3 recall coordinators, 3 practice leads (auditor) —
+ *     and stores 12 small drawn films (JPEG, lib/demo/drawn-films.ts) through the upload service;
+ *  2. starts the web server on the production build (scripts/web-server.mjs, the server `npm start`
+ *     runs, on NEXT_DIST_DIR, which scripts/bench.sh builds for this bench) and signs each person in
+ *     once through next-auth's credentials sign-in (csrf token, then the callback), keeping the cookie;
+ *  3. one warm-up pass of every request of every person, untimed (the outcomes rows are read at start
+ *     by the web server's warmer; the first ask of each filter computes its figures);
+ *  4. autocannon (loopback, bounded by a request count: BENCH_REQUESTS per connection, default 60)
+ *     with 5 connections per person — 50 in all — each person's connections looping through their
+ *     own mix of the main APIs:
+ *       clinician   case list with a filter, case page, outcomes overview (own cases), case page,
+ *                   review save (a real POST with Origin, a valid body, a new case each time),
+ *                   film thumbnail
+ *       coordinator desk queues (all, or one clinician's), a queue's rows, case list with a filter, case page,
+ *                   film thumbnail
+ *       lead        outcomes overview, by factor, curves, worklist (cycling through filters), case list, case page
+ *  5. prints per route: requests, p50 / p95 / p99 / max ms, non-2xx, and unanswered (socket errors and
+ *     timeouts: sent and never answered, counted per route). Exits non-zero on any non-2xx answer
+ *     (a 5xx is a bug; a 4xx means the scenario is wrong) or any request left unanswered (built by
+ *     autocannon and never answered; it can exceed autocannon's own error count). Goal: p95 under
+ *     500 ms per route.
+ *
+ *   npm run bench -- load                       (throwaway services and the build from scripts/bench.sh)
+ *   BENCH_CASES=10000 npm run bench -- load     (smaller, to try it)
+ *   BENCH_REQUESTS=60 (per connection), BENCH_CONNECTIONS_PER_USER=5, BENCH_TIMEOUT_S=30
+ *   BENCH_CPU_PROF=DIR writes a V8 CPU profile of the web server into DIR (open it in Chrome's DevTools)
+ *   LAMINA_BUILD=never reuses the build in .next-bench while changing only this script (see bench.sh)
+ *
+ * Latency is measured from the moment autocannon builds a request (just before it writes it) to its
+ * full answer. The machine is shared: the load average is printed with the figures.
+ *
+ * bench: needs the production build (scripts/bench.sh builds NEXT_DIST_DIR when this line is present)
+ */
+import { runUnderScriptsTsconfig } from '../lib/scripts-tsconfig';
+import { spawn, type ChildProcess } from 'node:child_process';
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { performance } from 'node:perf_hooks';
+
+await runUnderScriptsTsconfig(import.meta.url);
+
+const { default: autocannon } = await import('autocannon');
+const { MikroORM } = await import('@mikro-orm/postgresql');
+const { default: config } = await import('../../mikro-orm.config');
+const entities = await import('../../entities');
+const { todayIn } = await import('../../lib/services/registry-common');
+const { hashPassword } = await import('../../lib/auth/password');
+const { uploadFilm } = await import('../../lib/services/films');
+const { drawRadiograph, filmJpeg } = await import('../../lib/demo/drawn-films');
+const { addDaysTo } = await import('../../lib/registry/calendar-date');
+const { benchActor, seedBenchPractice } = await import('../lib/bench-world');
+type Role = import('../../lib/auth/roles').Role;
+type AcRequest = import('autocannon').Request;
+
+const need = ['DATABASE_URL', 'REDIS_URL', 'S3_URL', 'NEXTAUTH_SECRET', 'APP_URL', 'NEXT_DIST_DIR', 'LAMINA_DATA'];
+const missing = need.filter((k) => !process.env[k]);
+if (missing.length) {
+  console.error(`bench/load: run through scripts/bench.sh (missing ${missing.join(', ')})`);
+  process.exit(2);
+}
+const N_CASES = Number(process.env.BENCH_CASES ?? 100_000);
+const PER_CONNECTION = Number(process.env.BENCH_REQUESTS ?? 60);
+const CONNECTIONS_PER_USER = Number(process.env.BENCH_CONNECTIONS_PER_USER ?? 5);
+const TIMEOUT_S = Number(process.env.BENCH_TIMEOUT_S ?? 30);
+const GOAL_P95_MS = 500;
+const APP_URL = process.env.APP_URL!.replace(/\/+$/, '');
+const WEB_PORT = Number(new URL(APP_URL).port);
+const repo = path.resolve(import.meta.dirname, '../..');
+const PASSWORD = `bench-load-${process.pid}-correct-horse`;
+const slug = `bench-load-${N_CASES}`;
+const today = todayIn('Europe/London');
+const load = () => os.loadavg().map((x) => x.toFixed(1)).join(' ');
+
+// --- 1. the practice, the people, the films -----------------------------------------------------------
+const orm = await MikroORM.init({ ...config, pool: { min: 0, max: 4 } });
+const conn = orm.em.getConnection();
+const knex = orm.em.getKnex();
+const lead = { email: `lead.${slug}@bench.invalid`, name: 'Bench Lead', role: 'auditor' as const };
+const made = await seedBenchPractice(orm, { cases: N_CASES, today, name: 'Bench Load (invented)', slug, member: lead });
+const practice = made.practice;
+console.log(
+  `seeded ${made.seeded.cases.toLocaleString('en-GB')} cases, ${made.seeded.reviews.toLocaleString('en-GB')} reviews in ${(made.ms / 1000).toFixed(1)} s (load average ${load()})`,
+);
+
+const hash = await hashPassword(PASSWORD);
+// The four clinicians with the most cases sign in as themselves (their outcomes are their own cases).
+const clinicians = (await knex('treatment_case as c')
+  .join('app_user as u', 'u.id', 'c.operator_id')
+  .where('c.practice_id', practice.id)
+  .groupBy('u.id', 'u.email')
+  .orderByRaw('count(*) desc')
+  .limit(4)
+  .select('u.id', 'u.email')) as { id: string; email: string }[];
+const em1 = orm.em.fork();
+const extra: { email: string; role: Role }[] = [
+  ...[1, 2, 3].map((i) => ({ email: `coordinator${i}.${slug}@bench.invalid`, role: 'coordinator' as const })),
+  ...[2, 3].map((i) => ({ email: `lead${i}.${slug}@bench.invalid`, role: 'auditor' as const })),
+];
+const practiceRef = em1.getReference(entities.PracticeSchema, practice.id);
+for (const p of extra) {
+  const u = em1.create(entities.UserSchema, { email: p.email, name: `Bench ${p.role}` });
+  em1.create(entities.MembershipSchema, { user: u, practice: practiceRef, role: p.role });
+}
+await em1.flush();
+await knex('app_user').where('email', 'like', `%.${slug}@bench.invalid`).update({ password_hash: hash });
+type Person = { email: string; role: 'clinician' | 'coordinator' | 'auditor'; id: string; cookie: string };
+const people: Person[] = [
+  ...clinicians.map((c) => ({ email: c.email, role: 'clinician' as const, id: c.id, cookie: '' })),
+  ...extra.filter((p) => p.role === 'coordinator').map((p) => ({ email: p.email, role: 'coordinator' as const, id: '', cookie: '' })),
+  { email: lead.email, role: 'auditor' as const, id: '', cookie: '' },
+  ...extra.filter((p) => p.role === 'auditor').map((p) => ({ email: p.email, role: 'auditor' as const, id: '', cookie: '' })),
+];
+
+// Cases to open, and completed cases not archived to record a review on (a new one each time).
+const caseIds = ((await conn.execute('select id from treatment_case where practice_id = ? order by md5(id::text) limit 2000', [practice.id])) as { id: string }[]).map((r) => r.id);
+const reviewable = ((await conn.execute(
+  'select id from treatment_case where practice_id = ? and completion_date is not null and archived_at is null order by md5(id::text || ?) limit 5000',
+  [practice.id, 'review'],
+)) as { id: string }[]).map((r) => r.id);
+
+const clinicianUser = await orm.em.fork().findOneOrFail(entities.UserSchema, clinicians[0]!.id);
+const filmActor = benchActor(clinicianUser, practice, ['clinician']);
+const filmIds: string[] = [];
+for (let i = 0; i < 12; i++) {
+  const bytes = await filmJpeg(drawRadiograph(640, 480, 100 + i), 85);
+  const r = await uploadFilm(orm.em.fork(), filmActor, caseIds[i]!, { role: 'follow_up' }, bytes);
+  filmIds.push(r.film.id);
+}
+
+// --- 2. the web server and the sign-ins -------------------------------------------------------------------
+const logFile = path.join(process.env.LAMINA_DATA!, 'logs', 'load-web.log');
+fs.mkdirSync(path.dirname(logFile), { recursive: true });
+const out = fs.openSync(logFile, 'a');
+const profDir = process.env.BENCH_CPU_PROF ? path.resolve(process.env.BENCH_CPU_PROF) : null;
+const web: ChildProcess = spawn(process.execPath, [...(profDir ? ['--cpu-prof', `--cpu-prof-dir=${profDir}`] : []), 'scripts/web-server.mjs', '-H', '127.0.0.1', '-p', String(WEB_PORT)], {
+  cwd: repo,
+  env: { ...process.env, NODE_OPTIONS: `${process.env.NODE_OPTIONS ?? ''} ${process.env.LAMINA_WEB_NODE_OPTIONS ?? ''}`.trim() },
+  stdio: ['ignore', out, out],
+  detached: true,
+});
+fs.closeSync(out);
+const stopWeb = () => {
+  try {
+    process.kill(-web.pid!, 'SIGTERM');
+  } catch {
+    /* gone */
+  }
+};
+process.on('exit', stopWeb);
+let webExited = false;
+web.on('exit', () => (webExited = true));
+
+async function until(seconds: number, fn: () => Promise<boolean>): Promise<boolean> {
+  const end = Date.now() + seconds * 1000;
+  while (Date.now() < end) {
+    if (webExited) return false;
+    if (await fn().catch(() => false)) return true;
+    await new Promise((r) => setTimeout(r, 250));
+  }
+  return false;
+}
+const t0 = performance.now();
+if (!(await until(240, async () => (await fetch(`${APP_URL}/api/health`)).status < 500))) {
+  console.error(`bench/load: the web server did not answer within 240 s (log: ${logFile})`);
+  process.exit(1);
+}
+console.log(`web server up in ${((performance.now() - t0) / 1000).toFixed(1)} s on ${APP_URL} (build ${process.env.NEXT_DIST_DIR})`);
+
+/** next-auth's credentials sign-in, as the sign-in page does it; returns the Cookie header to reuse. */
+async function signIn(email: string): Promise<string> {
+  const jar = new Map<string, string>();
+  const keep = (r: Response) => {
+    for (const line of r.headers.getSetCookie()) {
+      const [pair] = line.split(';');
+      const i = pair!.indexOf('=');
+      jar.set(pair!.slice(0, i).trim(), pair!.slice(i + 1).trim());
+    }
+  };
+  const cookie = () => [...jar].map(([k, v]) => `${k}=${v}`).join('; ');
+  const csrf = await fetch(`${APP_URL}/api/auth/csrf`);
+  keep(csrf);
+  const { csrfToken } = (await csrf.json()) as { csrfToken: string };
+  const r = await fetch(`${APP_URL}/api/auth/callback/credentials`, {
+    method: 'POST',
+    redirect: 'manual',
+    headers: { 'content-type': 'application/x-www-form-urlencoded', origin: APP_URL, 'sec-fetch-site': 'same-origin', cookie: cookie() },
+    body: new URLSearchParams({ email, password: PASSWORD, csrfToken, callbackUrl: `${APP_URL}/`, json: 'true' }).toString(),
+  });
+  keep(r);
+  if (!jar.get('next-auth.session-token')) throw new Error(`bench/load: sign-in of a ${email.split('.')[0]} failed (answer ${r.status})`);
+  return cookie();
+}
+for (const p of people) p.cookie = await signIn(p.email);
+console.log(`${people.length} people signed in (${people.filter((p) => p.role === 'clinician').length} clinicians, ${people.filter((p) => p.role === 'coordinator').length} coordinators, ${people.filter((p) => p.role === 'auditor').length} leads)`);
+
+// --- 3. the scenario ----------------------------------------------------------------------------------------
+type Step = { route: string; method: 'GET' | 'POST'; path: () => string; body?: () => string };
+const cycle = <T>(xs: readonly T[]) => {
+  let i = 0;
+  return () => xs[i++ % xs.length]!;
+};
+const clinicianIds = clinicians.map((c) => c.id);
+const listQueries = [
+  'pageSize=50',
+  `operator=${clinicianIds[1]}&pageSize=50`,
+  'kind=nonsurgical_retreatment&toothGroup=molar&pageSize=50',
+  `visitStatus=invited,confirmed&dueFrom=${addDaysTo(today, -60)}&dueTo=${addDaysTo(today, 60)}&sort=nextVisit&dir=asc&pageSize=50`,
+  'visitStatus=missed&pageSize=50',
+  `completedFrom=${addDaysTo(today, -400)}&completedTo=${addDaysTo(today, -310)}&pageSize=50`,
+  'q=smith&pageSize=50',
+  'sort=patient&dir=asc&pageSize=50',
+  'page=20&pageSize=50',
+];
+const year = Number(today.slice(0, 4));
+const outcomeQueries = ['', 'kind=primary_treatment', `from=${year - 2}-01-01&to=${year - 2}-12-31`, `clinician=${clinicianIds[0]}`];
+const deskQueries = ['', ...clinicianIds.map((id) => `clinician=${id}`)];
+const deskRowQueries = ['queue=due_soon', 'queue=overdue', 'queue=call', 'queue=awaiting_reply', `queue=this_month&clinician=${clinicianIds[2]}`, 'queue=missed&sort=patient'];
+const q = (s: string) => (s ? `?${s}` : '');
+const nextCase = cycle(caseIds);
+const nextReviewable = cycle(reviewable);
+const nextFilm = cycle(filmIds);
+const nextList = cycle(listQueries);
+const nextDesk = cycle(deskQueries);
+const nextOutcome = cycle(outcomeQueries);
+const nextDeskRows = cycle(deskRowQueries);
+
+const STEPS = {
+  list: { route: 'GET /api/cases (filters)', method: 'GET', path: () => `/api/cases?${nextList()}` },
+  case: { route: 'GET /api/cases/:id', method: 'GET', path: () => `/api/cases/${nextCase()}` },
+  desk: { route: 'GET /api/recall/queues', method: 'GET', path: () => `/api/recall/queues${q(nextDesk())}` },
+  deskRows: { route: 'GET /api/recall/visits (a queue)', method: 'GET', path: () => `/api/recall/visits?${nextDeskRows()}` },
+  overview: { route: 'GET /api/outcomes/overview', method: 'GET', path: () => `/api/outcomes/overview${q(nextOutcome())}` },
+  factor: { route: 'GET /api/outcomes/factor', method: 'GET', path: () => `/api/outcomes/factor?${['factor=kind', nextOutcome()].filter(Boolean).join('&')}` },
+  curves: { route: 'GET /api/outcomes/curves', method: 'GET', path: () => `/api/outcomes/curves?${['endpoint=healing&method=km', nextOutcome()].filter(Boolean).join('&')}` },
+  worklist: { route: 'GET /api/outcomes/worklist', method: 'GET', path: () => `/api/outcomes/worklist${q(nextOutcome())}` },
+  review: {
+    route: 'POST /api/cases/:id/reviews',
+    method: 'POST',
+    path: () => `/api/cases/${nextReviewable()}/reviews`,
+    body: () => JSON.stringify({ reviewDate: today, toothStatus: 'present', paiScore: 2, lesionDiameterMm: 1, otherFindings: 'Calm.' }),
+  },
+  thumbnail: { route: 'GET /api/films/:id/thumbnail', method: 'GET', path: () => `/api/films/${nextFilm()}/thumbnail` },
+} satisfies Record<string, Step>;
+const MIX: Record<Person['role'], Step[]> = {
+  clinician: [STEPS.list, STEPS.case, STEPS.overview, STEPS.case, STEPS.review, STEPS.thumbnail],
+  coordinator: [STEPS.desk, STEPS.deskRows, STEPS.list, STEPS.case, STEPS.thumbnail],
+  auditor: [STEPS.overview, STEPS.factor, STEPS.curves, STEPS.worklist, STEPS.list, STEPS.case],
+};
+const ROUTES = [...new Set(Object.values(STEPS).map((s) => s.route))];
+
+function headersFor(p: Person, step: Step): Record<string, string> {
+  const h: Record<string, string> = { cookie: p.cookie, accept: 'application/json' };
+  if (step.method === 'POST') Object.assign(h, { 'content-type': 'application/json', origin: APP_URL, 'sec-fetch-site': 'same-origin' });
+  return h;
+}
+
+// Warm-up: every step of every person once, in turn (untimed); the outcomes filters each once.
+const tw = performance.now();
+const warmFailures: string[] = [];
+for (const p of people) {
+  const warm: Step[] = [...MIX[p.role], ...(p.role === 'auditor' ? [STEPS.overview, STEPS.factor, STEPS.curves, STEPS.worklist].flatMap((s) => outcomeQueries.map(() => s)) : [])];
+  for (const step of warm) {
+    const r = await fetch(`${APP_URL}${step.path()}`, { method: step.method, headers: headersFor(p, step), body: step.body?.() });
+    await r.arrayBuffer();
+    if (r.status >= 300) warmFailures.push(`${step.route} as ${p.role}: ${r.status}`);
+  }
+}
+if (warmFailures.length) {
+  console.error(`bench/load: the warm-up got answers that are not 2xx:\n  ${warmFailures.join('\n  ')}`);
+  process.exit(1);
+}
+console.log(`warm-up pass in ${((performance.now() - tw) / 1000).toFixed(1)} s`);
+
+// --- 4. the load ----------------------------------------------------------------------------------------------
+type Stat = { ms: number[]; sent: number; non2xx: Map<number, number> };
+const stats = new Map<string, Stat>(ROUTES.map((r) => [r, { ms: [], sent: 0, non2xx: new Map() }]));
+type Ctx = { started?: number };
+
+function instanceFor(p: Person) {
+  const requests: AcRequest[] = MIX[p.role].map((step) => ({
+    method: step.method,
+    setupRequest: (req: AcRequest, context: object) => {
+      (context as Ctx).started = performance.now();
+      stats.get(step.route)!.sent++;
+      return { ...req, path: step.path(), headers: headersFor(p, step), ...(step.body ? { body: step.body() } : {}) };
+    },
+    onResponse: (status: number, _body: string, context: object) => {
+      const s = stats.get(step.route)!;
+      s.ms.push(performance.now() - (context as Ctx).started!);
+      if (status < 200 || status >= 300) s.non2xx.set(status, (s.non2xx.get(status) ?? 0) + 1);
+    },
+  }));
+  return autocannon({
+    url: APP_URL,
+    connections: CONNECTIONS_PER_USER,
+    amount: CONNECTIONS_PER_USER * PER_CONNECTION,
+    timeout: TIMEOUT_S,
+    requests,
+  });
+}
+const loadBefore = load();
+const tl = performance.now();
+const results = await Promise.all(people.map(instanceFor));
+const seconds = (performance.now() - tl) / 1000;
+const loadAfter = load();
+
+// --- 5. the table -------------------------------------------------------------------------------------------------
+const quantile = (xs: number[], p: number) => {
+  if (!xs.length) return NaN;
+  const s = [...xs].sort((a, b) => a - b);
+  return s[Math.min(s.length - 1, Math.max(0, Math.ceil(p * s.length) - 1))]!;
+};
+const num = (n: number) => (Number.isNaN(n) ? '–' : n.toFixed(0)).padStart(8);
+const counts = (await conn.execute('select (select count(*) from treatment_case where practice_id = ?) cases, (select count(*) from review where practice_id = ?) reviews', [practice.id, practice.id])) as { cases: string; reviews: string }[];
+console.log(
+  `\nLoad benchmark (${today}; Node ${process.version}; ${os.cpus().length} cores; load average ${loadBefore} before, ${loadAfter} after)`,
+);
+console.log(
+  `practice: ${Number(counts[0]!.cases).toLocaleString('en-GB')} cases, ${Number(counts[0]!.reviews).toLocaleString('en-GB')} reviews; ${people.length * CONNECTIONS_PER_USER} connections ` +
+    `(${people.length} signed-in people × ${CONNECTIONS_PER_USER}), ${PER_CONNECTION} requests each, over loopback; ${seconds.toFixed(1)} s, ${(results.reduce((a, r) => a + r.requests.total, 0) / seconds).toFixed(1)} requests/s`,
+);
+console.log(`${'route'.padEnd(32)}${'requests'.padStart(9)}${'p50 ms'.padStart(8)}${'p95 ms'.padStart(8)}${'p99 ms'.padStart(8)}${'max ms'.padStart(8)}${'non-2xx'.padStart(9)}${'errors'.padStart(8)}  goal`);
+let failed = false;
+let missed = 0;
+for (const route of ROUTES) {
+  const s = stats.get(route)!;
+  const non2xx = [...s.non2xx.values()].reduce((a, b) => a + b, 0);
+  const unanswered = s.sent - s.ms.length;
+  const p95 = quantile(s.ms, 0.95);
+  if (non2xx || unanswered) failed = true;
+  if (!(p95 < GOAL_P95_MS)) missed++;
+  console.log(
+    `${route.padEnd(32)}${String(s.ms.length).padStart(9)}${num(quantile(s.ms, 0.5))}${num(p95)}${num(quantile(s.ms, 0.99))}${num(Math.max(...s.ms))}${String(non2xx).padStart(9)}${String(unanswered).padStart(8)}  ${p95 < GOAL_P95_MS ? 'ok' : `p95 ≥ ${GOAL_P95_MS} ms`}`,
+  );
+  if (non2xx) console.log(`${''.padEnd(32)}statuses: ${[...s.non2xx].map(([k, v]) => `${k}×${v}`).join(', ')}`);
+}
+const all = [...stats.values()].flatMap((s) => s.ms);
+const socket = results.reduce((a, r) => a + r.errors, 0);
+const timeouts = results.reduce((a, r) => a + r.timeouts, 0);
+console.log(
+  `all: ${all.length} answered, p50 ${num(quantile(all, 0.5)).trim()} ms, p95 ${num(quantile(all, 0.95)).trim()} ms, p99 ${num(quantile(all, 0.99)).trim()} ms; ` +
+    `autocannon: ${socket} errors (of which ${timeouts} timeouts at ${TIMEOUT_S} s), ${results.reduce((a, r) => a + r.non2xx, 0)} non-2xx; ${missed} route(s) over the ${GOAL_P95_MS} ms p95 goal`,
+);
+if (socket) failed = true;
+
+// --- clean up ------------------------------------------------------------------------------------------------------
+const exited = new Promise((r) => (webExited ? r(null) : web.once('exit', r)));
+stopWeb();
+await Promise.race([exited, new Promise((r) => setTimeout(r, 15_000))]);
+if (profDir) console.log(`CPU profile of the web server in ${profDir}`);
+await conn.execute('delete from audit_event where practice_id = ?', [practice.id]);
+await conn.execute('delete from practice where id = ?', [practice.id]);
+await conn.execute('delete from app_user where email like ?', [`%.${slug}@bench.invalid`]);
+await orm.close(true);
+if (failed) {
+  console.error('bench/load: FAILED (non-2xx answers or requests left unanswered; see the table)');
+  process.exit(1);
+}
