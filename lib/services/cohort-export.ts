@@ -53,7 +53,7 @@ interface RowWithPatient extends CaseRow {
 }
 
 /** One page of a practice's consenting, completed cases after (completion date, id), with the SQL-side filters. */
-async function readPage(knex: Knex, practiceId: string, f: CohortFilters, after: { date: string; id: string } | null): Promise<RowWithPatient[]> {
+async function readPage(knex: Knex, practiceId: string, f: CohortFilters, after: { date: string; id: string } | null, pageSize: number): Promise<RowWithPatient[]> {
   return knex.transaction(async (trx) => {
     await trx.raw('set local jit = off');
     const q = trx
@@ -70,17 +70,20 @@ async function readPage(knex: Knex, practiceId: string, f: CohortFilters, after:
     if (f.kind) q.where('c.kind', f.kind);
     if (f.clinicians?.length) q.whereIn('c.operator_id', f.clinicians);
     if (after) q.whereRaw('(c.completion_date, c.id) > (?::date, ?::uuid)', [after.date, after.id]);
-    return (await q.orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }]).limit(COHORT_PAGE_SIZE)) as RowWithPatient[];
+    return (await q.orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }]).limit(pageSize)) as RowWithPatient[];
   });
 }
 
-/** The version's rows, page by page, in (completion date, id) order: the same rows in the same order on every pass. */
-export async function* cohortRows(em: EntityManager, practiceId: string, f: CohortFilters): AsyncGenerator<CohortRow> {
+/**
+ * The version's rows, page by page, in (completion date, id) order: the same rows in the same order on
+ * every pass, whatever the page size (a parameter only so a test can cross page boundaries on a few rows).
+ */
+export async function* cohortRows(em: EntityManager, practiceId: string, f: CohortFilters, pageSize = COHORT_PAGE_SIZE): AsyncGenerator<CohortRow> {
   const knex = knexOf(em);
   const keep = cohortPredicate(f);
   let after: { date: string; id: string } | null = null;
   for (;;) {
-    const page: (RowWithPatient | undefined)[] = await readPage(knex, practiceId, f, after);
+    const page: (RowWithPatient | undefined)[] = await readPage(knex, practiceId, f, after, pageSize);
     const n = page.length;
     if (n) after = { date: page[n - 1]!.completion_date, id: page[n - 1]!.id };
     for (let i = 0; i < n; i++) {
@@ -90,7 +93,7 @@ export async function* cohortRows(em: EntityManager, practiceId: string, f: Coho
       if (!keep(c)) continue;
       yield { case: c, patient: { dateOfBirth: r.date_of_birth, sex: r.sex, postalCode: r.postal_code }, practiceId };
     }
-    if (n < COHORT_PAGE_SIZE) return;
+    if (n < pageSize) return;
   }
 }
 

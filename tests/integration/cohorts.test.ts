@@ -72,6 +72,28 @@ describe('the cohort builder', () => {
     expect(patients.every((x) => x.research_use)).toBe(true);
   });
 
+  it('the reader hands on the same rows in the same order whatever its page size, across pages and ties on the completion date', async () => {
+    const q = await makeRegistryPractice(services.em(), 'cohort-pages');
+    // 8 patients with one case each; three cases share a completion date (the keyset's tie on id); one patient did not consent
+    for (let i = 0; i < 8; i++) {
+      const patient = await createPatient(services.em(), q.coordinator, patientInput({ registryNumber: `P-${i}`, email: `pages${i}@patients.test.invalid`, researchUse: i !== 4 }));
+      const day = i < 3 ? '2021-05-10' : `2021-0${3 + (i % 6)}-2${i}`;
+      await createCase(services.em(), q.clinician, caseInput(patient.id, q.clinician.userId, { startDate: '2021-01-04', completionDate: day }));
+    }
+    const ids = async (pageSize?: number) => {
+      const out: string[] = [];
+      for await (const r of cohortRows(services.em(), q.practice.id, { levels: {} }, pageSize)) out.push(r.case.id);
+      return out;
+    };
+    const whole = await ids();
+    expect(whole).toHaveLength(7);
+    expect(new Set(whole).size).toBe(7);
+    const order = (await services.em().getKnex()('treatment_case as c').join('patient as p', 'p.id', 'c.patient_id').where({ 'p.practice_id': q.practice.id, 'p.research_use': true }).orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }]).pluck('c.id')) as string[];
+    expect(whole).toEqual(order);
+    // page sizes that end a page inside the tie, on the last row, one past it, and a single row per page
+    for (const size of [1, 2, 3, 6, 7, 8]) expect(await ids(size)).toEqual(whole);
+  });
+
   it('saves numbered versions that can never be changed', async () => {
     expect(await saveCohortVersion(services.em(), res, cohortId, { filters: { from: '2022-01-01' }, variables: [], k: 2 })).toEqual({ number: 1 });
     expect(await saveCohortVersion(services.em(), res, cohortId, { filters: { kind: 'primary_treatment' }, variables: [], k: 3 })).toEqual({ number: 2 });
