@@ -16,7 +16,7 @@ import { knexOf, practiceSettings, todayIn } from './registry-common';
 
 /**
  * The research export's I/O (issue 14), run by jobs/cohort-export.ts: claim the export row, read
- * the saved version's rows from PostgreSQL in keyset pages (never the whole practice in memory;
+ * the saved version's rows from PostgreSQL through a cursor, a page at a time (never the whole practice in memory;
  * consenting patients only; no name, e-mail, phone, note or registry number is selected), hand them
  * to the pure archive writer (lib/cohorts) streaming into object storage under the export's own
  * key, write progress to the row, stop when cancelled, and finish with the figures and an audit event.
@@ -52,48 +52,58 @@ interface RowWithPatient extends CaseRow {
   postal_code: string | null;
 }
 
-/** One page of a practice's consenting, completed cases after (completion date, id), with the SQL-side filters. */
-async function readPage(knex: Knex, practiceId: string, f: CohortFilters, after: { date: string; id: string } | null, pageSize: number): Promise<RowWithPatient[]> {
-  return knex.transaction(async (trx) => {
-    await trx.raw('set local jit = off');
-    const q = trx
-      .select(...outcomeCaseColumns(trx), trx.raw('p.date_of_birth::text as date_of_birth'), 'p.sex', 'p.postal_code')
-      .from('treatment_case as c')
-      .join('patient as p', 'p.id', 'c.patient_id')
-      .where('c.practice_id', practiceId)
-      .where('p.research_use', true)
-      .whereNull('c.archived_at')
-      .whereNull('p.archived_at')
-      .whereNotNull('c.completion_date');
-    if (f.from) q.where('c.completion_date', '>=', f.from);
-    if (f.to) q.where('c.completion_date', '<=', f.to);
-    if (f.kind) q.where('c.kind', f.kind);
-    if (f.clinicians?.length) q.whereIn('c.operator_id', f.clinicians);
-    if (after) q.whereRaw('(c.completion_date, c.id) > (?::date, ?::uuid)', [after.date, after.id]);
-    return (await q.orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }]).limit(pageSize)) as RowWithPatient[];
-  });
+/** A reader that stops taking rows for this long loses its cursor (PostgreSQL ends the idle transaction that holds it). */
+const COHORT_READ_IDLE_TIMEOUT = '5min';
+
+/** The one query of a practice's consenting, completed cases with the SQL-side filters, in (completion date, id) order. */
+function rowsQuery(knex: Knex, practiceId: string, f: CohortFilters): Knex.QueryBuilder {
+  const q = knex
+    .select(...outcomeCaseColumns(knex), knex.raw('p.date_of_birth::text as date_of_birth'), 'p.sex', 'p.postal_code')
+    .from('treatment_case as c')
+    .join('patient as p', 'p.id', 'c.patient_id')
+    .where('c.practice_id', practiceId)
+    .where('p.research_use', true)
+    .whereNull('c.archived_at')
+    .whereNull('p.archived_at')
+    .whereNotNull('c.completion_date');
+  if (f.from) q.where('c.completion_date', '>=', f.from);
+  if (f.to) q.where('c.completion_date', '<=', f.to);
+  if (f.kind) q.where('c.kind', f.kind);
+  if (f.clinicians?.length) q.whereIn('c.operator_id', f.clinicians);
+  return q.orderBy([{ column: 'c.completion_date' }, { column: 'c.id' }]);
 }
 
 /**
- * The version's rows, page by page, in (completion date, id) order: the same rows in the same order on
- * every pass, whatever the page size (a parameter only so a test can cross page boundaries on a few rows).
+ * The version's rows in (completion date, id) order: ONE query read through a cursor in a read-only
+ * transaction, `pageSize` rows fetched at a time (memory is a page, not the practice; a parameter
+ * only so a test can cross page boundaries on a few rows). One query, not a keyset query per page:
+ * each of those planned and joined afresh, about 0.3 s a page at 100,000 cases (npm run bench --
+ * cohort). The transaction is closed when the last row is read or the reader stops (return()).
  */
 export async function* cohortRows(em: EntityManager, practiceId: string, f: CohortFilters, pageSize = COHORT_PAGE_SIZE): AsyncGenerator<CohortRow> {
-  const knex = knexOf(em);
   const keep = cohortPredicate(f);
-  let after: { date: string; id: string } | null = null;
-  for (;;) {
-    const page: (RowWithPatient | undefined)[] = await readPage(knex, practiceId, f, after, pageSize);
-    const n = page.length;
-    if (n) after = { date: page[n - 1]!.completion_date, id: page[n - 1]!.id };
-    for (let i = 0; i < n; i++) {
-      const r = page[i]!;
-      page[i] = undefined; // a row handed on is no longer held by the page (the consumer may keep it waiting)
-      const c = outcomeCaseOf(r);
-      if (!keep(c)) continue;
-      yield { case: c, patient: { dateOfBirth: r.date_of_birth, sex: r.sex, postalCode: r.postal_code }, practiceId };
+  const trx = await knexOf(em).transaction(undefined, { readOnly: true });
+  let ok = false;
+  try {
+    await trx.raw(`set local idle_in_transaction_session_timeout = '${COHORT_READ_IDLE_TIMEOUT}'; set local jit = off`);
+    const { sql, bindings } = rowsQuery(trx, practiceId, f).toSQL();
+    await trx.raw(`declare cohort_rows no scroll cursor for ${sql}`, bindings);
+    for (;;) {
+      const page: (RowWithPatient | undefined)[] = (await trx.raw(`fetch ${Math.floor(pageSize)} from cohort_rows`)).rows;
+      const n = page.length;
+      for (let i = 0; i < n; i++) {
+        const r = page[i]!;
+        page[i] = undefined; // a row handed on is no longer held by the page (the consumer may keep it waiting)
+        const c = outcomeCaseOf(r);
+        if (!keep(c)) continue;
+        yield { case: c, patient: { dateOfBirth: r.date_of_birth, sex: r.sex, postalCode: r.postal_code }, practiceId };
+      }
+      if (n < pageSize) break;
     }
-    if (n < pageSize) return;
+    ok = true;
+  } finally {
+    // read only: nothing is kept either way; a commit after a failure would fail too
+    await (ok ? trx.commit() : trx.rollback()).catch(() => undefined);
   }
 }
 

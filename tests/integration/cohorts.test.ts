@@ -92,6 +92,10 @@ describe('the cohort builder', () => {
     expect(whole).toEqual(order);
     // page sizes that end a page inside the tie, on the last row, one past it, and a single row per page
     for (const size of [1, 2, 3, 6, 7, 8]) expect(await ids(size)).toEqual(whole);
+    // a reader that stops early closes the cursor's transaction (no connection is left holding it)
+    for await (const r of cohortRows(services.em(), q.practice.id, { levels: {} }, 2)) if (r) break;
+    const holding = await services.em().getKnex().raw(`select count(*)::int as n from pg_stat_activity where query like 'fetch % from cohort_rows' and state like 'idle in transaction%'`);
+    expect(holding.rows[0].n).toBe(0);
   });
 
   it('saves numbered versions that can never be changed', async () => {
