@@ -187,7 +187,20 @@ async function toStoredMessage(raw: Buffer, session: Pick<SMTPServerSession, 'en
 // ---------------------------------------------------------------------------------------------
 // Message store: one JSON file per message; file names sort by arrival
 
+/** Every address a stored message went to (To, Cc and the envelope), as stored (lower case). */
+function recipientsOf(m: StoredMessage): readonly string[] {
+  return [...m.to, ...m.cc, ...m.envelope.rcptTo];
+}
+
 class Store {
+  /**
+   * Each stored message's recipients by id, so a lookup by recipient (the worker's delivery check,
+   * once per reminder) reads only the matching files, not every file: reading them all made each
+   * check cost the whole mailbox, and a run of 2,000 reminders quadratic. The directory stays the
+   * truth (an id no longer listed is skipped); this only remembers what a file said.
+   */
+  private readonly recipients = new Map<string, readonly string[]>();
+
   constructor(readonly dir: string) {}
 
   async init() {
@@ -198,6 +211,7 @@ class Store {
     const tmp = path.join(this.dir, `.tmp-${message.id}`);
     await fs.writeFile(tmp, JSON.stringify(message, null, 2));
     await fs.rename(tmp, path.join(this.dir, `${message.id}.json`));
+    this.recipients.set(message.id, recipientsOf(message));
   }
 
   private async ids(): Promise<string[]> {
@@ -227,9 +241,17 @@ class Store {
     const out: StoredMessage[] = [];
     const to = filter.to?.toLowerCase();
     for (const id of await this.ids()) {
-      const m = await this.get(id);
+      let m: StoredMessage | null = null;
+      let rcpt = this.recipients.get(id);
+      if (!rcpt) {
+        m = await this.get(id);
+        if (!m) continue;
+        rcpt = recipientsOf(m);
+        this.recipients.set(id, rcpt);
+      }
+      if (to && !rcpt.includes(to)) continue;
+      m ??= await this.get(id);
       if (!m) continue;
-      if (to && !m.to.includes(to) && !m.cc.includes(to) && !m.envelope.rcptTo.includes(to)) continue;
       out.push(m);
       if (filter.limit !== undefined && out.length >= filter.limit) break;
     }
@@ -240,6 +262,7 @@ class Store {
     if (!ID_RE.test(id)) return false;
     try {
       await fs.unlink(path.join(this.dir, `${id}.json`));
+      this.recipients.delete(id);
       return true;
     } catch (e) {
       if ((e as NodeJS.ErrnoException).code === 'ENOENT') return false;
@@ -250,6 +273,7 @@ class Store {
   async clear(): Promise<number> {
     const ids = await this.ids();
     await Promise.all(ids.map((id) => fs.rm(path.join(this.dir, `${id}.json`), { force: true })));
+    this.recipients.clear();
     return ids.length;
   }
 }

@@ -121,6 +121,17 @@ describe('the local SMTP fake', () => {
     expect((limited.body as Stored[]).map((m) => m.subject)).toEqual(['third']);
   });
 
+  test('a lookup by recipient finds exactly that recipient’s messages, and no longer a removed one', async () => {
+    const [a, b] = [unique('lookup-a'), unique('lookup-b')];
+    await transport().sendMail({ from: 'a@lamina.invalid', to: a, subject: 'to a', text: 'a' });
+    await transport().sendMail({ from: 'a@lamina.invalid', to: b, cc: a, subject: 'to b, cc a', text: 'b' });
+    const forA = (await api(`/messages?to=${encodeURIComponent(a)}`)).body as Stored[];
+    expect(forA.map((m) => m.subject)).toEqual(['to b, cc a', 'to a']);
+    expect(((await api(`/messages?to=${encodeURIComponent(b)}`)).body as Stored[]).map((m) => m.subject)).toEqual(['to b, cc a']);
+    expect((await api(`/messages/${forA[1]!.id}`, { method: 'DELETE' })).status).toBe(200);
+    expect(((await api(`/messages?to=${encodeURIComponent(a)}`)).body as Stored[]).map((m) => m.subject)).toEqual(['to b, cc a']);
+  });
+
   test('refuses the next N transactions with a 451 when told to, then accepts again', async () => {
     const to = unique('refused');
     expect(await control({ refuse: 2 })).toEqual({ status: 200, body: { refusing: 2, hanging: 0 } });
