@@ -385,7 +385,10 @@ async function finishRows(ctx: SendContext, items: readonly FinishItem[]): Promi
     const visits = new Set<string>();
     const now: FinishItem[] = [];
     const later: FinishItem[] = [];
-    for (const i of rest) (visits.has(i.visitId) ? later : now).push(i), visits.add(i.visitId);
+    for (const i of rest) {
+      (visits.has(i.visitId) ? later : now).push(i);
+      visits.add(i.visitId);
+    }
     rest = later;
     const rows = now.map((i) => ({
       id: i.id,

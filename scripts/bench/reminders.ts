@@ -69,7 +69,7 @@ async function main() {
     const seedS = (performance.now() - t0) / 1000;
     await fetch(new URL('/messages', mailboxUrl), { method: 'DELETE', headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
 
-    const child = spawn(process.execPath, ['--import', 'tsx', 'jobs/worker.ts'], {
+    const child = spawn(process.execPath, [...(process.env.BENCH_WORKER_NODE_ARGS ? process.env.BENCH_WORKER_NODE_ARGS.split(' ') : []), '--import', 'tsx', 'jobs/worker.ts'], {
       cwd: repo,
       env: {
         ...process.env,
