@@ -5,7 +5,7 @@
  *
  * Run by scripts/bench.sh (throwaway PostgreSQL, Redis and SMTP fake; DATABASE_URL, REDIS_URL,
  * SMTP_URL, MAILBOX_URL and LAMINA_DATA exported). BENCH_REMINDERS (default 10000) and
- * BENCH_CONCURRENCY (the worker's WORKER_CONCURRENCY, default 32) and SMTP_MAX_CONNECTIONS (default: the concurrency)
+ * BENCH_CONCURRENCY (the worker's WORKER_CONCURRENCY, default 8) and SMTP_MAX_CONNECTIONS (default: the concurrency)
  * change the size; BENCH_WORKER_NODE_ARGS adds Node flags to the worker (e.g. `--cpu-prof --cpu-prof-dir=DIR`). Exits 1 if a reminder is missing or duplicated.
  */
 import { spawn } from 'node:child_process';
