@@ -14,8 +14,14 @@ const flag = z
 
 export const WorkerConfigSchema = z
   .object({
-    /** Reminders sent at once (also the SMTP pool size). */
+    /**
+     * Reminders worked on at once. Their reads, claims and finishes share statements
+     * (jobs/send-reminder.ts), so more at once means fewer statements per message; but after a
+     * crash every row then in flight needs a delivery check (DEVELOPERS.md, "The queue worker").
+     */
     WORKER_CONCURRENCY: int(1, 64).default(8),
+    /** Parallel SMTP connections (the pool); left out, one per reminder worked on at once (WORKER_CONCURRENCY). */
+    SMTP_MAX_CONNECTIONS: int(1, 64).optional(),
     /**
      * BullMQ lock duration and stalled-job check interval, ms. A job whose worker stops renewing
      * its lock for this long is handed to another worker; the outbox claim lease is the same.
@@ -42,6 +48,7 @@ export const WorkerConfigSchema = z
     }
     return {
       concurrency: c.WORKER_CONCURRENCY,
+      ...(c.SMTP_MAX_CONNECTIONS ? { smtpConnections: c.SMTP_MAX_CONNECTIONS } : {}),
       lockMs: c.WORKER_LOCK_MS,
       maxStalled: c.WORKER_MAX_STALLED,
       smtpTimeoutMs: c.SMTP_TIMEOUT_MS,
@@ -54,8 +61,16 @@ export const WorkerConfigSchema = z
     };
   });
 
-/** `sweepPattern` may be left out by callers that build a config by hand (tests): the default schedule then. */
+/**
+ * `sweepPattern` may be left out by callers that build a config by hand (tests): the default
+ * schedule then (and `smtpConnections`, optional anyway: smtpPoolOf).
+ */
 export type WorkerConfig = Omit<z.output<typeof WorkerConfigSchema>, 'sweepPattern'> & { name?: string; sweepPattern?: string };
+
+/** The SMTP pool's size: SMTP_MAX_CONNECTIONS, or else the concurrency (a relay that limits connections per client wants fewer). */
+export function smtpPoolOf(config: Pick<WorkerConfig, 'concurrency' | 'smtpConnections'>): number {
+  return config.smtpConnections ?? config.concurrency;
+}
 
 export function readWorkerConfig(source: Record<string, string | undefined> = process.env): WorkerConfig {
   const parsed = WorkerConfigSchema.safeParse(source);

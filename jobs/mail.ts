@@ -9,7 +9,7 @@ import { mailboxHeaders } from '@/lib/mail/mailbox-secret';
 import { ReminderEmail, type ReminderEmailProps } from '@/lib/mail/templates/ReminderEmail';
 
 export interface TransportOptions {
-  /** Parallel SMTP connections (the worker's concurrency). */
+  /** Parallel SMTP connections (SMTP_MAX_CONNECTIONS: jobs/config.ts). */
   maxConnections: number;
   /** Socket and greeting timeouts, ms: shorter than the claim lease, so a hung relay fails the attempt. */
   timeoutMs: number;

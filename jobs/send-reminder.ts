@@ -68,6 +68,7 @@ import {
 } from '@/lib/services/recall-outbox';
 import { todayIn } from '@/lib/services/registry-common';
 import { renderReminder } from './mail';
+import { coalesce } from './coalesce';
 import { claimOf, delayJob, type MailJobContext, sendOnce } from './outbox-send';
 
 export interface SendContext extends MailJobContext {
@@ -88,6 +89,7 @@ export type SendOutcome =
 interface ClaimRow {
   id: string;
   practice_id: string;
+  step: ReminderStep;
   status: 'queued' | 'sending' | 'sent' | 'failed' | 'skipped';
   claim_expires_at: string | null;
   queued_at: string;
@@ -120,17 +122,23 @@ type Claim =
 /** The visit statuses that still need contact (lib/recall/reminders), as an SQL list. */
 const CONTACT_STATUSES_SQL = statusSql(CONTACT_STATUSES);
 
-function selectRow(ctx: SendContext, data: SendReminderData): Promise<ClaimRow | undefined> {
+/** The row a job sends: its visit, step and round in its practice. */
+type RowKey = Pick<SendReminderData, 'practiceId' | 'visitId' | 'step' | 'round'>;
+const keyOf = (k: { practiceId: string; visitId: string; step: string; round?: number }) => `${k.practiceId}/${k.visitId}/${k.step}/${k.round ?? 0}`;
+
+/** The rows of several jobs in one SELECT (one answer per key, in order; undefined when there is none). */
+async function selectRows(ctx: SendContext, keys: readonly RowKey[]): Promise<(ClaimRow | undefined)[]> {
   const knex = knexOf(ctx.em());
-  return knex('reminder as r')
+  const rows = (await knex('reminder as r')
     .join('recall_visit as v', 'v.id', 'r.visit_id')
     .join('treatment_case as c', 'c.id', 'v.case_id')
     .join('patient as p', 'p.id', 'c.patient_id')
     .join('practice as pr', 'pr.id', 'r.practice_id')
-    .where({ 'r.visit_id': data.visitId, 'r.step': data.step, 'r.round': data.round ?? 0, 'r.practice_id': data.practiceId })
-    .first(
+    .whereIn(['r.visit_id', 'r.step', 'r.round', 'r.practice_id'], keys.map((k) => [k.visitId, k.step, k.round ?? 0, k.practiceId]))
+    .select(
       'r.id',
       'r.practice_id',
+      'r.step',
       'r.status',
       'r.claim_expires_at',
       'r.queued_at',
@@ -152,20 +160,81 @@ function selectRow(ctx: SendContext, data: SendReminderData): Promise<ClaimRow |
       'pr.contact_email as practice_email',
       'pr.time_zone',
       'pr.reminder_policy',
-    ) as Promise<ClaimRow | undefined>;
+    )) as ClaimRow[];
+  const byKey = new Map(rows.map((r) => [keyOf({ practiceId: r.practice_id, visitId: r.visit_id, step: r.step, round: r.round }), r]));
+  return keys.map((k) => byKey.get(keyOf(k)));
+}
+
+/** A compare-and-set claim of one row: it must still be as it was read (status and claim). */
+interface ClaimItem {
+  id: string;
+  status: ClaimRow['status'];
+  claim: string | null;
+  expires: Date;
+  at: Date;
 }
 
 /**
- * Decides what to do with the row and, to send, claims it: one compare-and-set UPDATE that
- * succeeds only if the row is still as read (status and claim) and, at that instant, the visit
- * still needs contact and the patient still agrees to e-mail. PostgreSQL holds the row lock for
- * the statement and re-checks the condition after waiting for a concurrent writer, so of two
- * attempts racing for one row exactly one claims it. A row that changed meanwhile is read again.
+ * queued → sending (or an expired claim taken over) for several rows in one UPDATE; true for each
+ * row this call claimed. Each row is claimed only if it is still as read and, at that instant, its
+ * visit still needs contact and the patient still agrees to e-mail: PostgreSQL locks each row and
+ * re-checks these conditions after waiting for a concurrent writer, so of two attempts racing for
+ * one row exactly one claims it. A row asked for twice in one call is claimed for the first only.
+ */
+async function claimRows(ctx: SendContext, items: readonly ClaimItem[]): Promise<boolean[]> {
+  const claimed = (await knexOf(ctx.em()).raw(
+    `update reminder r set status = 'sending', attempts = r.attempts + 1, claim_expires_at = x.expires, updated_at = x.at
+       from jsonb_to_recordset(cast(? as jsonb)) as x(id uuid, status text, claim timestamptz, expires timestamptz, at timestamptz),
+            recall_visit v, treatment_case c, patient p
+      where r.id = x.id and r.status = x.status and r.claim_expires_at is not distinct from x.claim
+        and v.id = r.visit_id and c.id = v.case_id and p.id = c.patient_id
+        and v.status in ${CONTACT_STATUSES_SQL} and r.round = v.reminder_round and ${EMAIL_CONSENT_SQL}
+      returning r.id`,
+    [JSON.stringify(items.map((i) => ({ ...i, claim: i.claim === null ? null : new Date(i.claim).toISOString() })))],
+  )) as { rows: { id: string }[] };
+  const won = new Set(claimed.rows.map((r) => r.id));
+  return items.map((i) => won.delete(i.id));
+}
+
+/**
+ * The statements of jobs running at once in this process go together (jobs/coalesce.ts): the
+ * reads of their rows in one SELECT, their claims in one UPDATE, their finishes in one statement.
+ * Each row keeps its own compare-and-set, so batching changes how many statements are sent, not
+ * what any of them may do; a batch that fails is run again row by row.
+ */
+const BATCH_MAX = 64;
+
+interface Batches {
+  read: (key: RowKey) => Promise<ClaimRow | undefined>;
+  claim: (item: ClaimItem) => Promise<boolean>;
+  finish: (item: FinishItem) => Promise<void>;
+}
+
+const batchesOf = new WeakMap<SendContext, Batches>();
+
+function batches(ctx: SendContext): Batches {
+  let b = batchesOf.get(ctx);
+  if (!b) {
+    b = {
+      read: coalesce((keys: RowKey[]) => selectRows(ctx, keys), { maxBatch: BATCH_MAX }),
+      claim: coalesce((items: ClaimItem[]) => claimRows(ctx, items), { maxBatch: BATCH_MAX }),
+      finish: coalesce((items: FinishItem[]) => finishRows(ctx, items), { maxBatch: BATCH_MAX }),
+    };
+    batchesOf.set(ctx, b);
+  }
+  return b;
+}
+
+/**
+ * Decides what to do with the row and, to send, claims it (claimRows: a compare-and-set that
+ * succeeds only if the row is still as read and the visit and consent still allow it). A row that
+ * changed meanwhile is read again.
  */
 async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promise<Claim> {
   const knex = knexOf(ctx.em());
+  const batch = batches(ctx);
   for (let round = 0; round < 5; round++) {
-    const row = await selectRow(ctx, data);
+    const row = await batch.read(data);
     if (!row) {
       // A job without its outbox row (queued by hand or by an older release): write the row first.
       const visit = await knex('recall_visit').where({ id: data.visitId, practice_id: data.practiceId }).first('id');
@@ -208,16 +277,9 @@ async function claim(ctx: SendContext, data: SendReminderData, now: Date): Promi
     const quiet = quietDelayMs(reminderPolicyOf(row.reminder_policy).quietHours, now, row.time_zone);
     if (quiet > 0) return { kind: 'wait', ms: quiet, reason: 'quiet hours' };
 
-    const claimed = await knex.raw(
-      `update reminder r set status = 'sending', attempts = r.attempts + 1, claim_expires_at = ?, updated_at = ?
-         from recall_visit v, treatment_case c, patient p
-        where r.id = ? and r.status = ? and r.claim_expires_at is not distinct from ?
-          and v.id = r.visit_id and c.id = v.case_id and p.id = c.patient_id
-          and v.status in ${CONTACT_STATUSES_SQL} and r.round = v.reminder_round and ${EMAIL_CONSENT_SQL}
-        returning r.id`,
-      [new Date(now.getTime() + ctx.leaseMs), now, row.id, row.status, row.claim_expires_at],
-    );
-    if ((claimed as { rows: unknown[] }).rows.length) return { kind: 'send', row, uncertain };
+    if (await batch.claim({ id: row.id, status: row.status, claim: row.claim_expires_at, expires: new Date(now.getTime() + ctx.leaseMs), at: now })) {
+      return { kind: 'send', row, uncertain };
+    }
   }
   throw new Error('The outbox row kept changing while it was being claimed; trying again later.');
 }
@@ -299,47 +361,82 @@ const SENT = (() => {
   return t.changes;
 })();
 
+/** One row to finish: how it was sent, when, and the ids of the rows the finish writes. */
+interface FinishItem {
+  id: string;
+  visitId: string;
+  messageId: string;
+  at: Date;
+  /** The practice's day of `at`. */
+  sentOn: string;
+  how: SendOutcome;
+}
+
 /**
  * sending → sent, with the visit (planned → invited, delivery flag cleared), the contact log and
- * the audit trail, in one SQL statement (atomic without a transaction round trip).
+ * the audit trail, in one SQL statement (atomic without a transaction round trip) for several
+ * rows. A row no longer `sending` is left alone (so finishing twice writes nothing twice). Rows of
+ * one visit go in separate statements, so each sees the visit as the one before left it.
  */
-async function finish(ctx: SendContext, row: ClaimRow, step: ReminderStep, messageId: string, now: Date, how: SendOutcome): Promise<void> {
+async function finishRows(ctx: SendContext, items: readonly FinishItem[]): Promise<void[]> {
   const knex = knexOf(ctx.em());
-  await knex.raw(
-    `with r as (
-       update reminder set status = 'sent', message_id = ?, sent_at = ?, sent_on = ?, claim_expires_at = null, last_error = null, updated_at = ?
-        where id = ? and status = 'sending'
-        returning id, practice_id, visit_id, step),
-     b as (select v.id, v.status, v.case_id from recall_visit v join r on v.id = r.visit_id for update of v),
-     v as (
-       update recall_visit v
-          set status = case when b.status in ${INVITE_FROM_SQL} then ? else v.status end,
-              status_changed_at = case when b.status in ${INVITE_FROM_SQL} then ? else v.status_changed_at end,
-              status_changed_by_id = case when b.status in ${INVITE_FROM_SQL} then null else v.status_changed_by_id end,
-              reinvite_needed = case when b.status in ${INVITE_FROM_SQL} then ? else v.reinvite_needed end,
-              delivery_failed_at = null, updated_at = ?
-         from b where v.id = b.id
-       returning b.status as before, v.case_id),
-     sent_log as (
-       insert into contact_log_entry (id, practice_id, visit_id, "at", kind, "by", reminder_id, step)
-       select ?, r.practice_id, r.visit_id, ?, 'message_sent', 'system', r.id, r.step from r),
-     status_log as (
-       insert into contact_log_entry (id, practice_id, visit_id, "at", kind, "by", from_status, to_status)
-       select ?, r.practice_id, r.visit_id, ?, 'status_change', 'system', b.status, ? from r join b on b.id = r.visit_id where b.status in ${INVITE_FROM_SQL}),
-     trail as (
-       insert into audit_event (id, "at", practice_id, action, entity_type, entity_id, detail)
-       select ?, ?, r.practice_id, 'recall.reminder_sent', 'visit', r.visit_id::text, cast(? as jsonb) from r)
-     select (select count(*) from r)::int as updated, (select before from v) as before, (select case_id from v) as case_id`,
-    [
-      messageId, now, todayIn(row.time_zone, now), now, row.id,
-      SENT.status, now, SENT.reinviteNeeded ?? false, now,
-      randomUUID(), now,
-      randomUUID(), new Date(now.getTime() + 1), SENT.status,
-      randomUUID(), now, JSON.stringify({ reminderId: row.id, step, how }),
-    ],
-  );
+  let rest = [...items];
+  while (rest.length) {
+    const visits = new Set<string>();
+    const now: FinishItem[] = [];
+    const later: FinishItem[] = [];
+    for (const i of rest) {
+      (visits.has(i.visitId) ? later : now).push(i);
+      visits.add(i.visitId);
+    }
+    rest = later;
+    const rows = now.map((i) => ({
+      id: i.id,
+      message_id: i.messageId,
+      at: i.at.toISOString(),
+      at_status: new Date(i.at.getTime() + 1).toISOString(),
+      sent_on: i.sentOn,
+      how: i.how,
+      sent_log: randomUUID(),
+      status_log: randomUUID(),
+      audit: randomUUID(),
+    }));
+    await knex.raw(
+      `with x as (
+         select * from jsonb_to_recordset(cast(? as jsonb))
+             as x(id uuid, message_id text, "at" timestamptz, at_status timestamptz, sent_on date, how text, sent_log uuid, status_log uuid, audit uuid)),
+       r as (
+         update reminder t set status = 'sent', message_id = x.message_id, sent_at = x.at, sent_on = x.sent_on, claim_expires_at = null, last_error = null, updated_at = x.at
+           from x
+          where t.id = x.id and t.status = 'sending'
+          returning t.id, t.practice_id, t.visit_id, t.step, x.at, x.at_status, x.how, x.sent_log, x.status_log, x.audit),
+       b as (select v.id, v.status, v.case_id from recall_visit v join r on v.id = r.visit_id order by v.id for update of v),
+       v as (
+         update recall_visit v
+            set status = case when b.status in ${INVITE_FROM_SQL} then ? else v.status end,
+                status_changed_at = case when b.status in ${INVITE_FROM_SQL} then r.at else v.status_changed_at end,
+                status_changed_by_id = case when b.status in ${INVITE_FROM_SQL} then null else v.status_changed_by_id end,
+                reinvite_needed = case when b.status in ${INVITE_FROM_SQL} then ? else v.reinvite_needed end,
+                delivery_failed_at = null, updated_at = r.at
+           from b join r on r.visit_id = b.id
+          where v.id = b.id
+         returning v.id),
+       sent_log as (
+         insert into contact_log_entry (id, practice_id, visit_id, "at", kind, "by", reminder_id, step)
+         select r.sent_log, r.practice_id, r.visit_id, r.at, 'message_sent', 'system', r.id, r.step from r),
+       status_log as (
+         insert into contact_log_entry (id, practice_id, visit_id, "at", kind, "by", from_status, to_status)
+         select r.status_log, r.practice_id, r.visit_id, r.at_status, 'status_change', 'system', b.status, ? from r join b on b.id = r.visit_id where b.status in ${INVITE_FROM_SQL}),
+       trail as (
+         insert into audit_event (id, "at", practice_id, action, entity_type, entity_id, detail)
+         select r.audit, r.at, r.practice_id, 'recall.reminder_sent', 'visit', r.visit_id::text, jsonb_build_object('reminderId', r.id, 'step', r.step, 'how', r.how) from r)
+       select (select count(*) from r)::int as updated, (select count(*) from v)::int as visits`,
+      [JSON.stringify(rows), SENT.status, SENT.reinviteNeeded ?? false, SENT.status],
+    );
+  }
   // The case's next-visit summary is kept by the statement-level triggers on recall_visit
   // (Migration20261201230524: lamina_case_visit_summary), which fire for the update above.
+  return items.map(() => undefined);
 }
 
 /**
@@ -371,7 +468,7 @@ export async function processSendReminder(
     uncertain,
     now,
     compose: () => compose(ctx, row, data.step, messageId, now),
-    finish: (result, at) => finish(ctx, row, data.step, messageId, at, result),
+    finish: (how, at) => batches(ctx).finish({ id: row.id, visitId: row.visit_id, messageId, at, sentOn: todayIn(row.time_zone, at), how }),
   });
   return { outcome: how, reminderId: row.id };
 }

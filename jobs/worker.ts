@@ -2,7 +2,9 @@
  * Lamina's queue worker: its own process (`npm run worker`; `npm start` and `npm test` run it
  * beside the web server), never a side effect of the web server.
  *
- *   reminders    `send-reminder` jobs (jobs/send-reminder.ts), WORKER_CONCURRENCY at once
+ *   reminders    `send-reminder` jobs (jobs/send-reminder.ts), WORKER_CONCURRENCY at once over
+ *                SMTP_MAX_CONNECTIONS pooled connections; the statements of jobs running at once
+ *                are batched (jobs/coalesce.ts)
  *   referrer-mail `send-referrer-mail` jobs (jobs/send-referrer-mail.ts): upload links and outcome
  *                letters to referring dentists, from their outbox (lib/services/referrer-outbox.ts);
  *                every scan also reconciles that outbox
@@ -58,7 +60,7 @@ import { withRequestId } from '@/lib/log/context';
 import { markReferrerMessageFailed, openReferrerQueue, reconcileReferrerOutbox } from '@/lib/services/referrer-outbox';
 import { deriveUploadLinkSecret } from '@/lib/referrers/upload-token';
 import { processSendReferrerMail, type ReferrerMailContext } from './send-referrer-mail';
-import { readWorkerConfig, type WorkerConfig } from './config';
+import { readWorkerConfig, smtpPoolOf, type WorkerConfig } from './config';
 import { createReminderTransport, mailboxDeliveryCheck } from './mail';
 import { runRecallScan } from './recall-scan';
 import { processSendReminder, type SendContext } from './send-reminder';
@@ -95,7 +97,8 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
   const remindersQueue = openReminderQueue(producer, settings, { log });
   const scanQueue = openRecallScanQueue(producer, { ...prefix, log });
   const referrerQueue = openReferrerQueue(producer, settings, { log });
-  const transport = createReminderTransport(env.SMTP_URL, { maxConnections: config.concurrency, timeoutMs: config.smtpTimeoutMs });
+  const smtpConnections = smtpPoolOf(config);
+  const transport = createReminderTransport(env.SMTP_URL, { maxConnections: smtpConnections, timeoutMs: config.smtpTimeoutMs });
 
   const sendContext: SendContext = {
     em: () => db.em.fork(),
@@ -247,7 +250,7 @@ export async function startWorker(config: WorkerConfig = readWorkerConfig(), orm
     })());
 
   log(
-    `[worker] started: concurrency ${config.concurrency}, lock ${config.lockMs} ms, scan '${config.scanPattern}'` +
+    `[worker] started: concurrency ${config.concurrency}, SMTP pool ${smtpConnections}, lock ${config.lockMs} ms, scan '${config.scanPattern}'` +
       `${settings.prefix ? `, prefix ${settings.prefix}` : ''}${sendContext.deliveryCheck ? ', delivery check via the local mailbox' : ''}`,
   );
   return { remindersQueue, referrerQueue, scanQueue, scans: () => scans, close };

@@ -5,7 +5,8 @@
  *
  * Run by scripts/bench.sh (throwaway PostgreSQL, Redis and SMTP fake; DATABASE_URL, REDIS_URL,
  * SMTP_URL, MAILBOX_URL and LAMINA_DATA exported). BENCH_REMINDERS (default 10000) and
- * BENCH_CONCURRENCY (default 8) change the size. Exits 1 if a reminder is missing or duplicated.
+ * BENCH_CONCURRENCY (the worker's WORKER_CONCURRENCY, default 8) and SMTP_MAX_CONNECTIONS (default: the concurrency)
+ * change the size; BENCH_WORKER_NODE_ARGS adds Node flags to the worker (e.g. `--cpu-prof --cpu-prof-dir=DIR`). Exits 1 if a reminder is missing or duplicated.
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
@@ -17,9 +18,12 @@ import config from '../../mikro-orm.config';
 import { fromLocalDate } from '../../lib/registry/calendar-date';
 import { seedDueVisits } from '../lib/reminder-seed';
 import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
+import { readWorkerConfig, smtpPoolOf } from '../../jobs/config';
 
 const N = Number(process.env.BENCH_REMINDERS ?? 10_000);
-const CONCURRENCY = Number(process.env.BENCH_CONCURRENCY ?? 8); // the worker's default
+// The worker's own settings (jobs/config.ts): its defaults unless BENCH_CONCURRENCY / SMTP_MAX_CONNECTIONS say otherwise.
+const workerConfig = readWorkerConfig({ WORKER_CONCURRENCY: process.env.BENCH_CONCURRENCY, SMTP_MAX_CONNECTIONS: process.env.SMTP_MAX_CONNECTIONS });
+const CONCURRENCY = workerConfig.concurrency;
 const repo = path.resolve(import.meta.dirname, '../..');
 const mailboxUrl = process.env.MAILBOX_URL;
 if (!process.env.DATABASE_URL || !process.env.REDIS_URL || !process.env.SMTP_URL || !mailboxUrl) {
@@ -69,13 +73,14 @@ async function main() {
     const seedS = (performance.now() - t0) / 1000;
     await fetch(new URL('/messages', mailboxUrl), { method: 'DELETE', headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
 
-    const child = spawn(process.execPath, ['--import', 'tsx', 'jobs/worker.ts'], {
+    const child = spawn(process.execPath, [...(process.env.BENCH_WORKER_NODE_ARGS ? process.env.BENCH_WORKER_NODE_ARGS.split(' ') : []), '--import', 'tsx', 'jobs/worker.ts'], {
       cwd: repo,
       env: {
         ...process.env,
         TSX_TSCONFIG_PATH: 'scripts/tsconfig.json',
         QUEUE_PREFIX: `lamina-bench-${randomBytes(3).toString('hex')}`,
         WORKER_CONCURRENCY: String(CONCURRENCY),
+        SMTP_MAX_CONNECTIONS: String(smtpPoolOf(workerConfig)),
         RECALL_SCAN_ON_START: '1',
       },
       stdio: ['ignore', 'pipe', 'pipe'],
@@ -125,7 +130,7 @@ async function main() {
     const sendMs = done - (firstSentAt ?? started);
     const table: [string, string][] = [
       ['reminders (visits due, one practice)', N.toLocaleString('en-GB')],
-      ['worker concurrency (SMTP pool)', String(CONCURRENCY)],
+      ['worker concurrency / SMTP pool', `${CONCURRENCY} / ${smtpPoolOf(workerConfig)}`],
       ['seed (patients, cases, visits)', `${seedS.toFixed(1)} s`],
       ['worker start → all 10,000 rows queued (scan)'.replace('10,000', N.toLocaleString('en-GB')), queuedAt ? s(queuedAt - started) : '—'],
       ['first message → last message', s(sendMs)],

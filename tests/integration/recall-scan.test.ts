@@ -338,3 +338,38 @@ describe('rendering', () => {
     }
   });
 });
+
+describe('send-reminder, batched (jobs/coalesce.ts)', () => {
+  it('two workers racing over the same rows, each job given to one of them twice: every row is claimed and sent once, one status change per visit', async () => {
+    const w = await world();
+    const visits = await seedVisits(services.em(), w.practiceId, w.operatorId, today, Array.from({ length: 30 }, (_, i) => ({ dueIn: 7 + (i % 14) })), 'b');
+    // Five visits have two rows (invitation and second invitation): their finishes must not share a statement.
+    const entries = visits.flatMap((v, i) =>
+      (i < 5 ? (['invitation', 'second_invitation'] as const) : (['invitation'] as const)).map((step) => ({ practiceId: w.practiceId, visitId: v.visitId, step, origin: 'scan' as const, day: today })),
+    );
+    await insertOutboxRows(services.em(), entries);
+    const sent: string[] = [];
+    const counting: SendContext['transport'] = {
+      sendMail: async (m: Parameters<SendContext['transport']['sendMail']>[0]) => {
+        sent.push(String(m.messageId));
+        return transport.sendMail(m);
+      },
+    } as SendContext['transport'];
+    const a = ctx({ transport: counting });
+    const b = ctx({ transport: counting });
+    const jobs = entries.map((data) => ({ data }));
+    // Worker a holds every job twice (a duplicate job in one process), worker b once; all at once.
+    const results = await Promise.allSettled([...jobs, ...jobs].map((j) => processSendReminder(a, j)).concat(jobs.map((j) => processSendReminder(b, j))));
+    const outcomes = results.map((r) => (r.status === 'fulfilled' ? r.value.outcome : (r.reason as Error).message));
+    expect(outcomes.filter((o) => o === 'sent').length).toBe(entries.length);
+    expect(outcomes.every((o) => o === 'sent' || o === 'already_sent' || /another attempt is sending it/.test(o))).toBe(true);
+    expect({ sends: sent.length, distinct: new Set(sent).size }).toEqual({ sends: entries.length, distinct: entries.length });
+    const rows = (await knex()('reminder').select('status', 'attempts', 'message_id')) as { status: string; attempts: number; message_id: string }[];
+    expect(rows.every((r) => r.status === 'sent' && r.attempts === 1)).toBe(true);
+    expect(new Set(rows.map((r) => r.message_id))).toEqual(new Set(sent));
+    expect(await knex()('contact_log_entry').where({ kind: 'message_sent' }).count('* as n').first()).toMatchObject({ n: String(entries.length) });
+    expect(await knex()('contact_log_entry').where({ kind: 'status_change', to_status: 'invited' }).count('* as n').first()).toMatchObject({ n: String(visits.length) });
+    expect(await knex()('audit_event').where({ action: 'recall.reminder_sent' }).count('* as n').first()).toMatchObject({ n: String(entries.length) });
+    expect((await mailbox()).length).toBe(entries.length);
+  }, 120_000);
+});
