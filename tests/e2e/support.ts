@@ -1,5 +1,5 @@
 import { gzipSync } from 'node:zlib';
-import { expect, type Page, type APIRequestContext } from '@playwright/test';
+import { expect, type Page, type APIRequestContext, type BrowserContext } from '@playwright/test';
 import { DEMO_LOCUM, DEMO_PASSWORD, demoUser, demoUserB } from '../../lib/demo/people';
 import type { Role } from '../../lib/auth/roles';
 import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
@@ -14,8 +14,38 @@ export async function signIn(page: Page, email: string, password = DEMO_PASSWORD
   await expect(page.getByTestId('whoami')).toBeVisible();
 }
 
-/** Signs in as the demo person with that role, in the demo practice (A) or the second one (B). */
+/**
+ * The session cookies of each demo person this worker has signed in through the form (Playwright's
+ * storageState pattern, kept per worker process). A session ends when a test signs that person
+ * out, revokes a role or ends every session; `signInAs` then notices and signs in again.
+ */
+const sessions = new Map<string, Awaited<ReturnType<BrowserContext['cookies']>>>();
+
+/**
+ * Signs in as the demo person with that role, in the demo practice (A) or the second one (B), and
+ * leaves the page on the home page with the person shown (as the form does). The first time in a
+ * worker this goes through the sign-in form; afterwards the session it made is reused while the
+ * server still accepts it. Tests about signing in, signing out or sessions use `signInWithForm`.
+ */
 export async function signInAs(page: Page, role: Role, practice: 'A' | 'B' = 'A') {
+  const email = (practice === 'A' ? demoUser : demoUserB)(role).email;
+  const saved = sessions.get(email);
+  if (saved) {
+    await page.context().addCookies(saved);
+    await page.goto('/');
+    // An ended session is sent to sign-in; a live one shows the person.
+    if (!new URL(page.url()).pathname.startsWith('/sign-in')) {
+      await expect(page.getByTestId('whoami')).toBeVisible();
+      return;
+    }
+    sessions.delete(email);
+  }
+  await signIn(page, email);
+  sessions.set(email, (await page.context().cookies()).filter((c) => c.name.includes('next-auth')));
+}
+
+/** Signs in as the demo person with that role through the form every time: a session of its own. */
+export async function signInWithForm(page: Page, role: Role, practice: 'A' | 'B' = 'A') {
   await signIn(page, (practice === 'A' ? demoUser : demoUserB)(role).email);
 }
 
