@@ -99,3 +99,59 @@ export function firstLink(mail: Mail, pattern: RegExp): string {
   if (!m) throw new Error(`no link matching ${pattern} in: ${mail.text}`);
   return m[0];
 }
+
+/** The parts of a new patient a test names; the rest are a consenting e-mail patient's defaults. */
+export interface TestPatient {
+  registryNumber: string;
+  givenName: string;
+  familyName: string;
+  dateOfBirth: string;
+  sex: 'female' | 'male';
+  email?: string;
+  recallContact?: boolean;
+  recallChannel?: 'email' | 'none';
+  consentDate?: string;
+}
+
+/** The parts of a completed case a test names; the rest are a primary treatment's defaults. */
+export interface TestCase {
+  tooth: number;
+  completionDate: string;
+  startDate?: string;
+  paiScore?: number;
+  lesionDiameterMm?: number;
+  referrerId?: string;
+  /** The operator by e-mail; the practice's first clinician when left out. */
+  operatorEmail?: string;
+}
+
+/**
+ * Makes a patient of the test's own and a completed primary treatment of one tooth for them through
+ * the API, as whoever `request` is signed in as, and returns both ids. Each write must answer 201.
+ */
+export async function newPatientWithCase(request: APIRequestContext, patient: TestPatient, kase: TestCase): Promise<{ patientId: string; caseId: string }> {
+  const { consentDate = '2025-01-10', recallContact = true, recallChannel = patient.email ? 'email' : 'none', ...named } = patient;
+  const made = await request.post('/api/patients', { data: { ...named, recallContact, recallChannel, researchUse: false, consentDate } });
+  expect(made.status(), await made.text()).toBe(201);
+  const patientId = ((await made.json()) as { patient: { id: string } }).patient.id;
+  const clinicians = ((await (await request.get('/api/clinicians')).json()) as { clinicians: { id: string; email: string }[] }).clinicians;
+  const operator = kase.operatorEmail ? clinicians.find((c) => c.email === kase.operatorEmail) : clinicians[0];
+  expect(operator, `a clinician ${kase.operatorEmail ?? ''}`).toBeDefined();
+  const { operatorEmail: _operatorEmail, startDate = kase.completionDate, paiScore = 4, lesionDiameterMm = 4, ...rest } = kase;
+  const created = await request.post('/api/cases', {
+    data: {
+      ...rest,
+      patientId,
+      operatorId: operator!.id,
+      kind: 'primary_treatment',
+      startDate,
+      pulpalDiagnosis: 'pulp_necrosis',
+      apicalDiagnosis: 'asymptomatic_apical_periodontitis',
+      paiScore,
+      lesionDiameterMm,
+      canals: [{ name: 'D', workingLengthMm: 21, apicalSize: 40, fillToApexMm: 1 }],
+    },
+  });
+  expect(created.status(), await created.text()).toBe(201);
+  return { patientId, caseId: ((await created.json()) as { case: { id: string } }).case.id };
+}
