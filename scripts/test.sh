@@ -192,6 +192,12 @@ finish() {
     mkdir -p test-results
     cp -r "$TMP/logs" test-results/logs 2>/dev/null && echo "service logs of this run: test-results/logs/" >&2
   fi
+  # Every runner's JSON report (per-file and per-test durations) and the step times stay in
+  # test-results/run/ for measuring where the minutes go.
+  rm -rf test-results/run
+  mkdir -p test-results/run
+  cp "$RESULTS"/*.json "$MANIFEST" test-results/run/ 2>/dev/null || true
+  cp "$TMP"/logs/*.log test-results/run/ 2>/dev/null || true
   echo
   cat "$RESULTS/summary.txt"
   rm -rf "$TMP"

@@ -13,11 +13,27 @@ import path from 'node:path';
 const root = path.resolve(import.meta.dirname, '..');
 const baseURL = process.env.E2E_BASE_URL ?? 'http://127.0.0.1:3000';
 
+const chromium = {
+  ...devices['Desktop Chrome'],
+  launchOptions: {
+    executablePath: '/usr/bin/chromium',
+    args: [
+      '--disable-gpu',
+      '--disable-quic',
+      '--no-first-run',
+      '--disable-background-networking',
+      '--disable-component-update',
+      '--disable-sync',
+    ],
+  },
+};
+
 export default defineConfig({
   testDir: path.join(root, 'tests/e2e'),
   outputDir: process.env.PLAYWRIGHT_OUTPUT_DIR ?? path.join(root, 'test-results/playwright'),
-  // Two cores, one app: tests run one at a time, and a failure is a failure (no retries).
-  workers: 1,
+  // Two workers, one per project (below): the specs that write to the shared demo world run one at a
+  // time; the accessibility spec, which only reads, runs beside them. A failure is a failure (no retries).
+  workers: 2,
   fullyParallel: false,
   retries: 0,
   forbidOnly: Boolean(process.env.CI),
@@ -39,21 +55,20 @@ export default defineConfig({
   },
   projects: [
     {
+      // Every spec but the accessibility one, one test at a time: most change the shared demo world
+      // (send, book, review, import, roles) and some read what others wrote.
       name: 'chromium',
-      use: {
-        ...devices['Desktop Chrome'],
-        launchOptions: {
-          executablePath: '/usr/bin/chromium',
-          args: [
-            '--disable-gpu',
-            '--disable-quic',
-            '--no-first-run',
-            '--disable-background-networking',
-            '--disable-component-update',
-            '--disable-sync',
-          ],
-        },
-      },
+      testIgnore: /accessibility\.spec\.ts$/,
+      workers: 1,
+      use: chromium,
+    },
+    {
+      // axe on every page as each role (issue 15): reads only, so it runs beside the project above, in
+      // the second worker, one role at a time. It signs in again when a test there ends its session.
+      name: 'accessibility',
+      testMatch: /accessibility\.spec\.ts$/,
+      workers: 1,
+      use: chromium,
     },
   ],
 });

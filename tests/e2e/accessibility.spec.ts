@@ -12,6 +12,7 @@ import { signInAs } from './support';
  * with zero serious or critical violations. One signed-in page per role, reused for all its pages.
  * Pages that take an id get a real one of the demo practice (a random id shows only "not found").
  * The counts per page and role go to test-results/playwright/axe-counts.json and the list output.
+ * It runs in a Playwright project of its own, beside the other specs (tests/playwright.config.ts).
  */
 type Found = { page: string; role: Role; violations: number; serious: number; details: string[] };
 const results: Found[] = [];
@@ -27,6 +28,8 @@ async function realIds(page: Page): Promise<Record<string, string>> {
   }
   return ids;
 }
+
+const isSignIn = (page: Page) => new URL(page.url()).pathname.startsWith('/sign-in');
 
 function urlOf(row: (typeof PAGES)[number], ids: Record<string, string>): string {
   if (row.page.startsWith('cases/[id]') && ids.case) return row.url().replace(/\/cases\/[^/]+/, `/cases/${ids.case}`);
@@ -60,8 +63,15 @@ for (const role of ROLES) {
     expect(mine.length).toBeGreaterThan(0);
     for (const row of mine) {
       const url = urlOf(row, ids);
-      const res = await page.goto(url);
+      let res = await page.goto(url);
+      if (isSignIn(page)) {
+        // A test running beside this spec ended the person's sessions (a revoked role, "sign out
+        // everywhere"): sign in again and open the page once more.
+        await signInAs(page, role);
+        res = await page.goto(url);
+      }
       expect(res?.status(), url).toBe(200);
+      expect(isSignIn(page), `${url} as ${role} was sent to sign-in`).toBe(false);
       await page.locator('main').first().waitFor();
       await page.waitForLoadState('load');
       const r = await analyzeSettled(page);

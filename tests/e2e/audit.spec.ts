@@ -1,13 +1,13 @@
 import { test, expect } from '@playwright/test';
 import { readFileSync } from 'node:fs';
-import { demoUser, signInAs } from './support';
+import { demoUser, signInAs, signInWithForm } from './support';
 
 test('the administrator filters the audit trail by person and downloads it as CSV', async ({ browser, page }, testInfo) => {
   test.setTimeout(60_000);
   // The coordinator signs in and opens the desk: both are in the trail under her name.
   const coordCtx = await browser.newContext();
   const coord = await coordCtx.newPage();
-  await signInAs(coord, 'coordinator');
+  await signInWithForm(coord, 'coordinator'); // a fresh sign-in: the trail must show it
   await coord.goto('/desk');
   await coordCtx.close();
 

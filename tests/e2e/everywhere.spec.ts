@@ -1,5 +1,5 @@
 import { test, expect, type Page, type Locator } from '@playwright/test';
-import { signInAs } from './support';
+import { signInAs, signInWithForm } from './support';
 
 /**
  * The desk and a case page on a phone (375 px), a tablet (768 px) and a laptop (1366 px): nothing
@@ -76,7 +76,7 @@ test('closing the contact log with Escape returns focus to the button that opene
 });
 
 test('signing out ends the session', async ({ page }) => {
-  await signInAs(page, 'coordinator');
+  await signInWithForm(page, 'coordinator');
   await page.getByRole('button', { name: 'Sign out' }).click();
   await expect(page).toHaveURL(/\/sign-in/);
   expect((await page.request.get('/api/recall/queues')).status()).toBe(401);

@@ -1,10 +1,7 @@
-import { mkdirSync, writeFileSync } from 'node:fs';
 import { test, expect, type Locator, type Page } from '@playwright/test';
 import { drawRadiograph, filmPng } from '../support/film-fixtures';
-import { firstLoadJsKb, signInAs } from './support';
+import { firstLoadJsKb, newPatientWithCase, signInAs } from './support';
 
-/** Where the lead collects the screenshots of this work (outside the repo); the artefacts keep copies. */
-const SHOTS = '/work/helpers/shots';
 
 /** A point of a pane given as a fraction of the pane's shorter side, from its centre (the film is centred). */
 async function clickAt(page: Page, pane: Locator, du: number, dv: number) {
@@ -22,39 +19,11 @@ test('calibrate, measure, and the diameter fills the review form', async ({ page
   test.setTimeout(90_000);
   await signInAs(page, 'clinician');
   const stamp = Date.now().toString(36);
-  const patient = await page.request.post('/api/patients', {
-    data: {
-      registryNumber: `E2E-V-${stamp}`,
-      givenName: 'Oriel',
-      familyName: 'Fenwick',
-      dateOfBirth: '1968-09-03',
-      sex: 'male',
-      email: `oriel.${stamp}@patients.test.invalid`,
-      recallContact: true,
-      recallChannel: 'email',
-      researchUse: false,
-      consentDate: '2025-01-08',
-    },
-  });
-  expect(patient.status(), await patient.text()).toBe(201);
-  const clinicians = (await (await page.request.get('/api/clinicians')).json()).clinicians as { id: string }[];
-  const created = await page.request.post('/api/cases', {
-    data: {
-      patientId: (await patient.json()).patient.id,
-      operatorId: clinicians[0]!.id,
-      tooth: 46,
-      kind: 'primary_treatment',
-      startDate: '2025-01-08',
-      completionDate: '2025-01-22',
-      pulpalDiagnosis: 'pulp_necrosis',
-      apicalDiagnosis: 'asymptomatic_apical_periodontitis',
-      paiScore: 4,
-      lesionDiameterMm: 4,
-      canals: [{ name: 'D', workingLengthMm: 21, apicalSize: 40, fillToApexMm: 1 }],
-    },
-  });
-  expect(created.status(), await created.text()).toBe(201);
-  const caseId = ((await created.json()) as { case: { id: string } }).case.id;
+  const { caseId } = await newPatientWithCase(
+    page.request,
+    { registryNumber: `E2E-V-${stamp}`, givenName: 'Oriel', familyName: 'Fenwick', dateOfBirth: '1968-09-03', sex: 'male', email: `oriel.${stamp}@patients.test.invalid`, consentDate: '2025-01-08' },
+    { tooth: 46, startDate: '2025-01-08', completionDate: '2025-01-22' },
+  );
   const visits = (await (await page.request.get(`/api/cases/${caseId}/visits`)).json()).visits as { id: string }[];
   const upload = async (role: string, seed: number, visitId?: string) => {
     const res = await page.request.post(`/api/cases/${caseId}/films`, {
@@ -106,9 +75,7 @@ test('calibrate, measure, and the diameter fills the review form', async ({ page
   await expect(viewer.getByRole('status')).toContainText('Measurement saved.');
   await expect(pane.getByTestId('diameter')).toHaveCount(1);
   await expect(pane.getByTestId('outline')).toHaveCount(1);
-  mkdirSync(SHOTS, { recursive: true });
   await page.screenshot({ path: testInfo.outputPath('viewer-measure-1280.png'), fullPage: true });
-  await page.screenshot({ path: `${SHOTS}/viewer-measure.png`, fullPage: true });
 
   // Stored: a reload shows the same figure.
   await page.reload();
@@ -119,7 +86,6 @@ test('calibrate, measure, and the diameter fills the review form', async ({ page
   const [top, bottom] = [await page.getByTestId(`pane-${baseline}`).boundingBox(), await page.getByTestId(`pane-${followUp}`).boundingBox()];
   expect(bottom!.y).toBeGreaterThan(top!.y + top!.height - 1);
   await page.screenshot({ path: testInfo.outputPath('viewer-375.png'), fullPage: true });
-  await page.screenshot({ path: `${SHOTS}/viewer-375.png`, fullPage: true });
   await page.setViewportSize({ width: 1280, height: 900 });
 
   // The diameter lands in the review form.
@@ -144,11 +110,9 @@ test('calibrate, measure, and the diameter fills the review form', async ({ page
   await films.getByRole('button', { name: `Use the measured ${text} mm` }).click();
   await expect(form.getByLabel('Largest lesion diameter now (mm)')).toHaveValue(value);
   await form.screenshot({ path: testInfo.outputPath('review-form-pai-drawings.png') });
-  await form.screenshot({ path: `${SHOTS}/review-form-pai-drawings.png` });
 
   // First Load JS of the viewer page (counted as scripts/first-load-js.mjs counts it).
   const kb = await firstLoadJsKb(page, `/cases/${caseId}/films/view`);
-  writeFileSync(`${SHOTS}/viewer-first-load-js.json`, JSON.stringify({ '/cases/[id]/films/view': kb }));
   await testInfo.attach('first-load-js.json', { body: JSON.stringify({ '/cases/[id]/films/view': kb }), contentType: 'application/json' });
   expect(kb).toBeLessThan(200);
 });

@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { test, expect } from '@playwright/test';
 import { drawRadiograph, filmDicom } from '../support/film-fixtures';
-import { signInAs } from './support';
+import { newPatientWithCase, signInAs } from './support';
 
 const fixture = (name: string) => readFileSync(path.resolve(import.meta.dirname, '../support/films', name));
 
@@ -13,40 +13,11 @@ test('a clinician uploads two films to a case and sees their thumbnails', async 
   await signInAs(page, 'clinician');
   // A case of its own (a new patient), so the page starts with no films.
   const stamp = Date.now().toString(36);
-  const patient = await page.request.post('/api/patients', {
-    data: {
-      registryNumber: `E2E-F-${stamp}`,
-      givenName: 'Wren',
-      familyName: 'Ashdown',
-      dateOfBirth: '1971-04-12',
-      sex: 'female',
-      email: `wren.${stamp}@patients.test.invalid`,
-      recallContact: true,
-      recallChannel: 'email',
-      researchUse: false,
-      consentDate: '2025-01-10',
-    },
-  });
-  expect(patient.status(), await patient.text()).toBe(201);
-  const patientId = (await patient.json()).patient.id as string;
-  const clinicians = (await (await page.request.get('/api/clinicians')).json()).clinicians as { id: string }[];
-  const created = await page.request.post('/api/cases', {
-    data: {
-      patientId,
-      operatorId: clinicians[0]!.id,
-      tooth: 36,
-      kind: 'primary_treatment',
-      startDate: '2025-01-10',
-      completionDate: '2025-01-24',
-      pulpalDiagnosis: 'pulp_necrosis',
-      apicalDiagnosis: 'asymptomatic_apical_periodontitis',
-      paiScore: 4,
-      lesionDiameterMm: 3.5,
-      canals: [{ name: 'D', workingLengthMm: 21, apicalSize: 40, fillToApexMm: 1 }],
-    },
-  });
-  expect(created.status(), await created.text()).toBe(201);
-  const caseId = ((await created.json()) as { case: { id: string } }).case.id;
+  const { caseId } = await newPatientWithCase(
+    page.request,
+    { registryNumber: `E2E-F-${stamp}`, givenName: 'Wren', familyName: 'Ashdown', dateOfBirth: '1971-04-12', sex: 'female', email: `wren.${stamp}@patients.test.invalid` },
+    { tooth: 36, startDate: '2025-01-10', completionDate: '2025-01-24', lesionDiameterMm: 3.5 },
+  );
 
   await page.goto(`/cases/${caseId}`);
   const films = page.getByRole('region', { name: 'Films' });

@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { test, expect, type Browser, type Locator, type Page } from '@playwright/test';
-import { demoUser, signInAs } from './support';
+import { demoUser, newPatientWithCase, signInAs } from './support';
 
 // Issue 15: a keyboard-only walk of the recall desk, the review form and the reading queue. After
 // sign-in nothing is clicked or filled: only page.keyboard (Tab, Shift+Tab, Enter, Space, typing,
@@ -211,39 +211,19 @@ const isoDaysAgo = (days: number) => new Date(Date.now() - days * 86_400_000).to
 
 /** A patient who agreed to no recall contact (the desk leaves them alone) and a completed case of theirs. */
 async function makeCase(page: Page, registryNumber: string, completionDate: string): Promise<string> {
-  const patient = await page.request.post('/api/patients', {
-    data: {
-      registryNumber,
-      givenName: 'Keya',
-      familyName: 'Tabbering',
-      dateOfBirth: '1971-04-19',
-      sex: 'female',
-      recallContact: false,
-      recallChannel: 'none',
-      researchUse: false,
-      consentDate: '2025-01-10',
-    },
-  });
-  expect(patient.status(), await patient.text()).toBe(201);
-  const clinicians = (await (await page.request.get('/api/clinicians')).json()).clinicians as { id: string; email: string }[];
-  const me = clinicians.find((c) => c.email === demoUser('clinician').email)!;
-  const created = await page.request.post('/api/cases', {
-    data: {
-      patientId: (await patient.json()).patient.id,
-      operatorId: me.id,
+  const { caseId } = await newPatientWithCase(
+    page.request,
+    { registryNumber, givenName: 'Keya', familyName: 'Tabbering', dateOfBirth: '1971-04-19', sex: 'female', recallContact: false },
+    {
       tooth: 36,
-      kind: 'primary_treatment',
       startDate: new Date(Date.parse(completionDate) - 14 * 86_400_000).toISOString().slice(0, 10),
       completionDate,
-      pulpalDiagnosis: 'pulp_necrosis',
-      apicalDiagnosis: 'asymptomatic_apical_periodontitis',
       paiScore: 3,
       lesionDiameterMm: 2,
-      canals: [{ name: 'D', workingLengthMm: 21, apicalSize: 40, fillToApexMm: 1 }],
+      operatorEmail: demoUser('clinician').email,
     },
-  });
-  expect(created.status(), await created.text()).toBe(201);
-  return ((await created.json()) as { case: { id: string } }).case.id;
+  );
+  return caseId;
 }
 
 /** From wherever the focus is, to a link of the main navigation, and follow it. */

@@ -1,14 +1,13 @@
-import { mkdirSync, readFileSync } from 'node:fs';
+import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { test, expect, type Browser, type Page } from '@playwright/test';
-import { demoUser, signIn, signInAs } from './support';
+import { demoUser, newPatientWithCase, signIn, signInAs } from './support';
 
 // Issue 13, reading queue: a clinician gives a follow-up film its first reading by keyboard (PAI 4
 // against a healthy baseline: a new lesion, disease, so a blinded second reading follows); a second
 // clinician reads it seeing the film alone (nothing of the patient, the case or the first reading);
 // the two are two steps apart, so the lead settles it by consensus; the lead sees kappa per pair.
 const fixture = readFileSync(path.resolve(import.meta.dirname, '../support/films/radiograph.png'));
-const SHOTS = process.env.LAMINA_SHOTS_DIR ?? '/work/helpers/shots';
 
 async function as(browser: Browser, sign: (p: Page) => Promise<void>) {
   const ctx = await browser.newContext();
@@ -22,40 +21,11 @@ test('first reading, blinded second reading, consensus, and the lead’s kappa',
   const stamp = Date.now().toString(36);
   const first = await as(browser, (p) => signInAs(p, 'clinician'));
   const fp = first.page;
-  const patient = await fp.request.post('/api/patients', {
-    data: {
-      registryNumber: `E2E-R-${stamp}`,
-      givenName: 'Orla',
-      familyName: 'Pendlebright',
-      dateOfBirth: '1968-09-02',
-      sex: 'female',
-      email: `orla.${stamp}@patients.test.invalid`,
-      recallContact: true,
-      recallChannel: 'email',
-      researchUse: false,
-      consentDate: '2025-01-10',
-    },
-  });
-  expect(patient.status(), await patient.text()).toBe(201);
-  const clinicians = (await (await fp.request.get('/api/clinicians')).json()).clinicians as { id: string; email: string }[];
-  const me = clinicians.find((c) => c.email === demoUser('clinician').email)!;
-  const created = await fp.request.post('/api/cases', {
-    data: {
-      patientId: (await patient.json()).patient.id,
-      operatorId: me.id,
-      tooth: 46,
-      kind: 'primary_treatment',
-      startDate: '2025-01-10',
-      completionDate: '2025-01-24',
-      pulpalDiagnosis: 'pulp_necrosis',
-      apicalDiagnosis: 'asymptomatic_apical_periodontitis',
-      paiScore: 2,
-      lesionDiameterMm: 0,
-      canals: [{ name: 'D', workingLengthMm: 21, apicalSize: 40, fillToApexMm: 1 }],
-    },
-  });
-  expect(created.status(), await created.text()).toBe(201);
-  const caseId = ((await created.json()) as { case: { id: string } }).case.id;
+  const { caseId } = await newPatientWithCase(
+    fp.request,
+    { registryNumber: `E2E-R-${stamp}`, givenName: 'Orla', familyName: 'Pendlebright', dateOfBirth: '1968-09-02', sex: 'female', email: `orla.${stamp}@patients.test.invalid` },
+    { tooth: 46, startDate: '2025-01-10', completionDate: '2025-01-24', paiScore: 2, lesionDiameterMm: 0, operatorEmail: demoUser('clinician').email },
+  );
   const upload = await fp.request.post(`/api/cases/${caseId}/films`, { multipart: { role: 'follow_up', file: { name: 'recall.png', mimeType: 'image/png', buffer: fixture } } });
   expect(upload.status(), await upload.text()).toBe(201);
   const filmId = (await upload.json()).film.id as string;
@@ -84,8 +54,6 @@ test('first reading, blinded second reading, consensus, and the lead’s kappa',
   const main = sp.locator('main');
   for (const secret of ['Orla', 'Pendlebright', `E2E-R-${stamp}`, 'Tooth 46', 'PAI 4', 'Imre', 'Swelling', caseId]) await expect(main).not.toContainText(secret);
   expect(await sp.title()).not.toMatch(/Orla|Pendlebright|46/);
-  mkdirSync(SHOTS, { recursive: true });
-  await sp.screenshot({ path: path.join(SHOTS, 'blinded-reader.png'), fullPage: true });
   await sp.screenshot({ path: testInfo.outputPath('blinded-reader.png'), fullPage: true });
   await sp.setViewportSize({ width: 375, height: 800 });
   await sp.screenshot({ path: testInfo.outputPath('blinded-reader-375.png'), fullPage: true });
@@ -110,6 +78,5 @@ test('first reading, blinded second reading, consensus, and the lead’s kappa',
   await expect(pairs.getByTestId('kappa-linear').first()).not.toBeEmpty();
   await expect(lp.getByText(/Fleiss, Cohen & Everitt \(1969\)/)).toBeVisible();
   await lp.screenshot({ path: testInfo.outputPath('agreement.png'), fullPage: true });
-  await lp.screenshot({ path: path.join(SHOTS, 'agreement.png'), fullPage: true });
   await lead.ctx.close();
 });

@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { test, expect } from '@playwright/test';
-import { signInAs, waitForMail, firstLink } from './support';
+import { firstLink, newPatientWithCase, signInAs, waitForMail } from './support';
 
 const fixture = (name: string) => readFileSync(path.resolve(import.meta.dirname, '../support/films', name));
 
@@ -19,42 +19,13 @@ test('the coordinator sends a referrer an upload link; the referrer uploads a fi
   const referrer = await page.request.post('/api/referrers', { data: { name: referrerName } });
   expect(referrer.status(), await referrer.text()).toBe(201);
   const referrerId = (await referrer.json()).referrer.id as string;
-  const patient = await page.request.post('/api/patients', {
-    data: {
-      registryNumber: `E2E-R-${stamp}`,
-      givenName: 'Marlow',
-      familyName: 'Quenby',
-      dateOfBirth: '1968-09-03',
-      sex: 'male',
-      email: `marlow.${stamp}@patients.test.invalid`,
-      recallContact: true,
-      recallChannel: 'email',
-      researchUse: false,
-      consentDate: '2025-01-10',
-    },
-  });
-  expect(patient.status(), await patient.text()).toBe(201);
-  const clinicians = (await (await page.request.get('/api/clinicians')).json()).clinicians as { id: string }[];
   // completed five months ago: the six-month recall visit is still ahead
   const done = new Date(Date.now() - 150 * 86_400_000).toISOString().slice(0, 10);
-  const created = await page.request.post('/api/cases', {
-    data: {
-      patientId: (await patient.json()).patient.id,
-      operatorId: clinicians[0]!.id,
-      referrerId,
-      tooth: 46,
-      kind: 'primary_treatment',
-      startDate: done,
-      completionDate: done,
-      pulpalDiagnosis: 'pulp_necrosis',
-      apicalDiagnosis: 'asymptomatic_apical_periodontitis',
-      paiScore: 4,
-      lesionDiameterMm: 3,
-      canals: [{ name: 'D', workingLengthMm: 21, apicalSize: 40, fillToApexMm: 1 }],
-    },
-  });
-  expect(created.status(), await created.text()).toBe(201);
-  const caseId = ((await created.json()) as { case: { id: string } }).case.id;
+  const { caseId } = await newPatientWithCase(
+    page.request,
+    { registryNumber: `E2E-R-${stamp}`, givenName: 'Marlow', familyName: 'Quenby', dateOfBirth: '1968-09-03', sex: 'male', email: `marlow.${stamp}@patients.test.invalid` },
+    { tooth: 46, completionDate: done, lesionDiameterMm: 3, referrerId },
+  );
 
   // The coordinator asks the referrer for the film of the first open visit.
   await page.context().clearCookies();

@@ -1,5 +1,5 @@
 import { test, expect, type Browser, type Page } from '@playwright/test';
-import { DEMO_LOCUM, DEMO_PASSWORD, demoUserB, firstLink, signIn, signInAs, waitForMail } from './support';
+import { DEMO_LOCUM, DEMO_PASSWORD, demoUserB, firstLink, signIn, signInAs, signInWithForm, waitForMail } from './support';
 import { DEMO_PRACTICE, DEMO_PRACTICE_B } from '../../lib/demo/people';
 
 /**
@@ -103,7 +103,7 @@ test('a person in two practices chooses one at sign-in and switches in the shell
 test('signing out ends the session: the old cookie gets 401 (item 7)', async ({ browser }) => {
   const ctx = await browser.newContext();
   const page = await ctx.newPage();
-  await signInAs(page, 'coordinator', 'B');
+  await signInWithForm(page, 'coordinator', 'B');
   expect((await page.request.get('/api/patients?page=1&pageSize=1')).status()).toBe(200);
   const saved = await ctx.storageState();
   await page.getByRole('button', { name: 'Sign out', exact: true }).click();
@@ -120,8 +120,9 @@ test('"sign out everywhere" ends the sessions on other devices too (item 7)', as
   const two = await browser.newContext();
   const p1 = await one.newPage();
   const p2 = await two.newPage();
-  await signInAs(p1, 'clinician', 'B');
-  await signInAs(p2, 'clinician', 'B');
+  // Two devices: two sessions of their own, not one shared.
+  await signInWithForm(p1, 'clinician', 'B');
+  await signInWithForm(p2, 'clinician', 'B');
   expect((await p2.request.get('/api/patients?page=1&pageSize=1')).status()).toBe(200);
   await p1.getByTestId('whoami').getByRole('link', { name: demoUserB('clinician').name }).click();
   await p1.getByRole('button', { name: 'Sign out everywhere' }).click();

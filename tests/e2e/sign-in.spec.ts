@@ -1,5 +1,5 @@
 import { test, expect } from '@playwright/test';
-import { DEMO_PASSWORD, demoUser, firstLink, signIn, signInAs, waitForMail } from './support';
+import { DEMO_PASSWORD, demoUser, firstLink, signIn, signInAs, signInWithForm, waitForMail } from './support';
 import type { Role } from '../../lib/auth/roles';
 import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 
@@ -15,7 +15,7 @@ const NAVIGATION: Record<Role, string[]> = {
 test.describe('signing in', () => {
   for (const role of Object.keys(NAVIGATION) as Role[]) {
     test(`the ${role} signs in and sees their own navigation`, async ({ page }) => {
-      await signInAs(page, role);
+      await signInWithForm(page, role);
       const nav = page.getByRole('navigation', { name: 'Main' });
       await expect(nav.getByRole('link')).toHaveText(NAVIGATION[role]);
       await expect(page.getByTestId('whoami')).toContainText(demoUser(role).name);

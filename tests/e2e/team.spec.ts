@@ -1,5 +1,5 @@
 import { test, expect } from '@playwright/test';
-import { demoUser, signInAs } from './support';
+import { demoUser, signInAs, signInWithForm } from './support';
 
 test('a revoked role stops working on the next request: the member’s session ends', async ({ browser, baseURL }) => {
   const adminCtx = await browser.newContext();
@@ -9,7 +9,7 @@ test('a revoked role stops working on the next request: the member’s session e
   // Give the coordinator the admin role, let them use it, then take it away.
   const coordCtx = await browser.newContext();
   const coord = await coordCtx.newPage();
-  await signInAs(coord, 'coordinator');
+  await signInWithForm(coord, 'coordinator');
   const members = await (await admin.request.get('/api/team/members')).json();
   const target = members.members.find((m: { email: string }) => m.email === demoUser('coordinator').email);
   expect((await admin.request.patch(`/api/team/members/${target.userId}`, { data: { roles: ['coordinator', 'admin'] }, headers: { Origin: new URL(baseURL!).origin } })).status()).toBe(200);
@@ -26,7 +26,7 @@ test('a revoked role stops working on the next request: the member’s session e
   await coord.goto('/team');
   await expect(coord).toHaveURL(/\/sign-in\?callbackUrl=%2Fteam/);
   // Signed in again, the revoked role is gone.
-  await signInAs(coord, 'coordinator');
+  await signInWithForm(coord, 'coordinator');
   expect((await coord.request.get('/api/team/members')).status()).toBe(403);
 
   // The change is in the audit trail.
@@ -38,7 +38,7 @@ test('a revoked role stops working on the next request: the member’s session e
 });
 
 test('the administrator reads sign-ins in the audit trail', async ({ page }) => {
-  await signInAs(page, 'admin');
+  await signInWithForm(page, 'admin');
   await page.goto('/team/audit');
   await expect(page.getByRole('heading', { name: 'Audit trail' })).toBeVisible();
   await page.getByLabel('Action').selectOption('auth.');
