@@ -25,7 +25,7 @@
  *   and named; any other failure of the fit (no convergence, collinearity) is reported in `error`:
  *   a model that cannot be fitted is a message, never an exception.
  */
-import { coxPH, logisticRegression } from '@/lib/stats';
+import { coxPHColumns, logisticRegressionColumns } from '@/lib/stats';
 import { healingObservations, isStrictSuccess, outcomeAtMilestone, toothLossFrom, toothLossStarts, type OutcomeCase } from './cases';
 import { FACTORS, levelOrder, type FactorKey } from './compute';
 
@@ -75,8 +75,11 @@ export interface DesignColumn {
 
 export interface Design {
   columns: DesignColumn[];
-  /** one row per kept input row */
-  x: number[][];
+  /**
+   * the covariates of the kept rows, row-major (one typed array, no array per row):
+   * x[k * columns.length + j] is column j of the k-th kept row; `designRow` gives one row
+   */
+  x: Float64Array;
   /** indices (into the input) of the rows kept */
   rows: number[];
   /** reference level of each categorical covariate kept, with its number of rows */
@@ -96,12 +99,13 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
   const minLevel = opts.minLevel ?? MIN_LEVEL_ROWS;
   const name: LevelName = opts.levelName ?? ((_k, l) => l);
   const notes: string[] = [];
-  const keep = new Array<boolean>(cases.length).fill(true);
+  const n = cases.length;
+  const keep = new Uint8Array(n).fill(1);
   interface Plan {
     choice: CovariateChoice;
     label: string;
-    /** per row: the index of its merged level, or null when the row is left out */
-    level?: (number | null)[];
+    /** per row: the index of its merged level, or -1 when the row is left out */
+    level?: Int32Array;
     /** shown names of the merged levels (made unique) */
     levels?: string[];
     reference?: number;
@@ -114,8 +118,10 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
     const numeric = choice.numeric === true && isNumericKey(choice.key);
     if (numeric) {
       const spec = NUMERIC_COVARIATES[choice.key as NumericKey];
-      const values = cases.map(spec.value);
-      if (values.length === 0 || values.every((v) => v === values[0])) {
+      let same = true;
+      const v0 = n > 0 ? spec.value(cases[0]!) : 0;
+      for (let i = 1; i < n && same; i++) same = spec.value(cases[i]!) === v0;
+      if (n === 0 || same) {
         notes.push(`${spec.label} is left out: it is the same in every case of this selection.`);
         continue;
       }
@@ -123,9 +129,25 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
       continue;
     }
     const label = FACTORS[choice.key].label;
-    const raw = cases.map((c) => FACTORS[choice.key].level(c));
-    const counts = new Map<string, number>();
-    for (const l of raw) counts.set(l, (counts.get(l) ?? 0) + 1);
+    // each row's level as an index into `found` (levels in order of first appearance), counted in one pass
+    const levelOfCase = FACTORS[choice.key].level;
+    const index = new Map<string, number>();
+    const found: string[] = [];
+    const foundRows: number[] = [];
+    const raw = new Int32Array(n);
+    for (let i = 0; i < n; i++) {
+      const l = levelOfCase(cases[i]!);
+      let j = index.get(l);
+      if (j === undefined) {
+        j = found.length;
+        index.set(l, j);
+        found.push(l);
+        foundRows.push(0);
+      }
+      foundRows[j]! += 1;
+      raw[i] = j;
+    }
+    const counts = new Map<string, number>(found.map((l, j) => [l, foundRows[j]!]));
     // groups: each merged level is a list of original levels
     let groups = [...counts.keys()].sort(sortLevels).map((l) => [l]);
     const size = (g: string[]) => g.reduce((s, l) => s + counts.get(l)!, 0);
@@ -165,19 +187,22 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
       continue;
     }
     if (leftNote) notes.push(leftNote);
-    const levelOf = new Map<string, number>();
-    groups.forEach((g, k) => g.forEach((l) => levelOf.set(l, k)));
-    const level = raw.map((l) => (left.has(l) ? null : levelOf.get(l)!));
-    level.forEach((l, i) => {
-      if (l === null) keep[i] = false;
-    });
+    // merged level of each original level (-1: left out), then of each row
+    const mergedOf = new Int32Array(found.length).fill(-1);
+    groups.forEach((g, k) => g.forEach((l) => (mergedOf[index.get(l)!] = k)));
+    const level = new Int32Array(n);
+    for (let i = 0; i < n; i++) {
+      const k = mergedOf[raw[i]!]!;
+      level[i] = k;
+      if (k === -1) keep[i] = 0;
+    }
     // shown names, unique even when two levels share a name (e.g. two former clinicians)
     const names: string[] = [];
     for (const g of groups) {
       const base = show(g);
-      let n = base;
-      for (let k = 2; names.includes(n); k++) n = `${base} (${k})`;
-      names.push(n);
+      let nm = base;
+      for (let k = 2; names.includes(nm); k++) nm = `${base} (${k})`;
+      names.push(nm);
     }
     let reference = 0;
     groups.forEach((g, k) => {
@@ -185,24 +210,58 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
     });
     plans.push({ choice, label, level, levels: names, reference });
   }
-  const rows = cases.map((_, i) => i).filter((i) => keep[i]);
+  const rows: number[] = [];
+  for (let i = 0; i < n; i++) if (keep[i] === 1) rows.push(i);
   const columns: DesignColumn[] = [];
   for (const p of plans) {
     if (p.choice.numeric) columns.push({ covariate: p.choice.key, label: p.label, term: NUMERIC_COVARIATES[p.choice.key as NumericKey].per, numeric: true, reference: null });
     else p.levels!.forEach((l, k) => k !== p.reference && columns.push({ covariate: p.choice.key, label: p.label, term: l, numeric: false, reference: p.levels![p.reference!]! }));
   }
-  const x = rows.map((i) => {
-    const out: number[] = [];
-    for (const p of plans) {
-      if (p.choice.numeric) out.push(NUMERIC_COVARIATES[p.choice.key as NumericKey].value(cases[i]!));
-      else p.levels!.forEach((_, k) => k !== p.reference && out.push(p.level![i] === k ? 1 : 0));
+  // the columns of each plan, side by side: a number, or one indicator per level but the reference
+  const width = columns.length;
+  const x = new Float64Array(rows.length * width);
+  const referenceRows = new Array<number>(plans.length).fill(0);
+  let offset = 0;
+  plans.forEach((p, q) => {
+    if (p.choice.numeric) {
+      const value = NUMERIC_COVARIATES[p.choice.key as NumericKey].value;
+      for (let k = 0; k < rows.length; k++) x[k * width + offset] = value(cases[rows[k]!]!);
+      offset += 1;
+      return;
     }
-    return out;
+    const level = p.level!;
+    const ref = p.reference!;
+    for (let k = 0; k < rows.length; k++) {
+      const l = level[rows[k]!]!;
+      if (l === ref) referenceRows[q]! += 1;
+      else x[k * width + offset + (l < ref ? l : l - 1)] = 1;
+    }
+    offset += p.levels!.length - 1;
   });
-  const references = plans
-    .filter((p) => !p.choice.numeric)
-    .map((p) => ({ covariate: p.choice.key, label: p.label, level: p.levels![p.reference!]!, rows: rows.filter((i) => p.level![i] === p.reference).length }));
+  const references = plans.flatMap((p, q) => (p.choice.numeric ? [] : [{ covariate: p.choice.key, label: p.label, level: p.levels![p.reference!]!, rows: referenceRows[q]! }]));
   return { columns, x, rows, references, notes };
+}
+
+/** Row k of a design (its kept row k) as an array, in the order of `columns`. */
+export function designRow(d: Pick<Design, 'columns' | 'x'>, k: number): number[] {
+  const p = d.columns.length;
+  return Array.from(d.x.subarray(k * p, (k + 1) * p));
+}
+
+/**
+ * Each kept row's patient as a cluster index 0..G-1, numbered in order of first appearance (as
+ * lib/stats numbers cluster ids), and G, the number of distinct patients.
+ */
+function patientClusters(cases: readonly OutcomeCase[], rows: readonly number[]): { cluster: Int32Array; patients: number } {
+  const ids = new Map<string, number>();
+  const cluster = new Int32Array(rows.length);
+  for (let k = 0; k < rows.length; k++) {
+    const id = cases[rows[k]!]!.patientId;
+    let g = ids.get(id);
+    if (g === undefined) ids.set(id, (g = ids.size));
+    cluster[k] = g;
+  }
+  return { cluster, patients: ids.size };
 }
 
 export interface ModelTerm extends DesignColumn {
@@ -245,14 +304,13 @@ interface Prepared {
   notes: string[];
 }
 
-function baseFit(model: ModelFit['model'], p: Prepared, events: number, extra: Partial<ModelFit>): ModelFit {
-  const kept = p.design.rows.map((i) => p.rows[i]!);
+function baseFit(model: ModelFit['model'], p: Prepared, events: number, patients: number, extra: Partial<ModelFit>): ModelFit {
   const parameters = p.design.columns.length;
   const epv = parameters > 0 ? events / parameters : null;
   return {
     model,
-    cases: kept.length,
-    patients: new Set(kept.map((c) => c.patientId)).size,
+    cases: p.design.rows.length,
+    patients,
     events,
     successes: null,
     failures: null,
@@ -281,25 +339,49 @@ export function fitProblem(e: unknown, columns: readonly DesignColumn[]): string
 }
 
 /** A level (indicator column) whose rows all have the same outcome, or the reference level so: named before the fit. */
-function separated(design: Design, y: readonly boolean[], what: 'cox' | 'logistic'): string | null {
-  const check = (label: string, idx: number[]) => {
-    if (idx.length === 0) return null;
-    const pos = idx.filter((i) => y[i]).length;
+function separated(design: Design, y: Uint8Array, what: 'cox' | 'logistic'): string | null {
+  const check = (label: string, rows: number, pos: number) => {
+    if (rows === 0) return null;
     if (what === 'cox' && pos === 0) return `${label} has no events`;
-    if (what === 'logistic' && (pos === 0 || pos === idx.length)) return `${label} has ${pos === 0 ? 'no successes' : 'only successes'}`;
+    if (what === 'logistic' && (pos === 0 || pos === rows)) return `${label} has ${pos === 0 ? 'no successes' : 'only successes'}`;
     return null;
   };
+  // rows and positive outcomes of each indicator column, and of each reference level (all its factor's columns 0), in one pass
+  const p = design.columns.length;
+  const m = design.rows.length;
+  const indicator = design.columns.map((c) => !c.numeric);
+  const refColumns = design.references.map((ref) => design.columns.map((c, k) => (c.covariate === ref.covariate && !c.numeric ? k : -1)).filter((k) => k >= 0));
+  const colRows = new Int32Array(p);
+  const colPos = new Int32Array(p);
+  const refRows = new Int32Array(refColumns.length);
+  const refPos = new Int32Array(refColumns.length);
+  const x = design.x;
+  for (let k = 0; k < m; k++) {
+    const o = k * p;
+    const yk = y[k]!;
+    for (let j = 0; j < p; j++) {
+      if (indicator[j] && x[o + j] === 1) {
+        colRows[j]! += 1;
+        colPos[j]! += yk;
+      }
+    }
+    for (let r = 0; r < refColumns.length; r++) {
+      if (refColumns[r]!.every((j) => x[o + j] === 0)) {
+        refRows[r]! += 1;
+        refPos[r]! += yk;
+      }
+    }
+  }
   const found: string[] = [];
   design.columns.forEach((c, k) => {
     if (c.numeric) return;
-    const r = check(`${c.label}: ${c.term}`, design.x.map((_, i) => i).filter((i) => design.x[i]![k] === 1));
+    const r = check(`${c.label}: ${c.term}`, colRows[k]!, colPos[k]!);
     if (r) found.push(r);
   });
-  for (const ref of design.references) {
-    const cols = design.columns.map((c, k) => (c.covariate === ref.covariate && !c.numeric ? k : -1)).filter((k) => k >= 0);
-    const r = check(`${ref.label}: ${ref.level} (reference)`, design.x.map((_, i) => i).filter((i) => cols.every((k) => design.x[i]![k] === 0)));
+  design.references.forEach((ref, q) => {
+    const r = check(`${ref.label}: ${ref.level} (reference)`, refRows[q]!, refPos[q]!);
     if (r) found.push(r);
-  }
+  });
   return found.length === 0 ? null : `The model cannot be estimated: ${found.join('; ')} (separation: its ratio would be infinite). Leave that factor out or choose a wider selection.`;
 }
 
@@ -328,22 +410,34 @@ export function coxModel(
     cases = [...selection];
     intervals = healingObservations(cases, opts.minObs);
   }
-  const followed = cases.map((_, i) => i).filter((i) => !(intervals[i]!.left === 0 && intervals[i]!.right === null));
+  const followed: number[] = [];
+  for (let i = 0; i < cases.length; i++) if (!(intervals[i]!.left === 0 && intervals[i]!.right === null)) followed.push(i);
   const notes: string[] = [];
   if (followed.length < cases.length) notes.push(`${cases.length - followed.length} ${opts.endpoint === 'tooth' ? 'teeth' : 'cases'} with no review yet left out.`);
   const rows = followed.map((i) => cases[i]!);
-  const obs = followed.map((i) => coxTime(intervals[i]!));
   const design = designMatrix(rows, choices, { levelName: opts.levelName, minLevel: opts.minLevel });
   const p: Prepared = { rows, design, notes };
-  const y = design.rows.map((i) => obs[i]!.event);
-  const events = y.filter(Boolean).length;
-  const fit = baseFit('cox', p, events, {});
+  // the design's rows as columns: time and event (coxTime), patient
+  const m = design.rows.length;
+  const time = new Float64Array(m);
+  const y = new Uint8Array(m);
+  let events = 0;
+  for (let k = 0; k < m; k++) {
+    const o = coxTime(intervals[followed[design.rows[k]!]!]!);
+    time[k] = o.time;
+    if (o.event) {
+      y[k] = 1;
+      events += 1;
+    }
+  }
+  const { cluster, patients } = patientClusters(rows, design.rows);
+  const fit = baseFit('cox', p, events, patients, {});
   if (design.columns.length === 0) return { ...fit, error: 'No factor is left in the model: choose at least one factor with two or more levels in this selection.' };
   if (events === 0) return { ...fit, error: 'No failures among these cases: a Cox model needs events.' };
   const sep = separated(design, y, 'cox');
   if (sep) return { ...fit, error: sep };
   try {
-    const r = coxPH(design.rows.map((i, k) => ({ ...obs[i]!, x: design.x[k]!, cluster: rows[i]!.patientId })));
+    const r = coxPHColumns({ time, event: y, p: design.columns.length, x: design.x, cluster });
     const terms = termsOf(design.columns, r.coef, r.se, r.robustSe ?? null, r.hazardRatio, r.lower, r.upper, r.pValue);
     const far = runaway(terms);
     return far ? { ...fit, error: far } : { ...fit, terms };
@@ -359,7 +453,7 @@ export function logisticModel(
   opts: { minObs: number; levelName?: LevelName; minLevel?: number },
 ): ModelFit {
   const judged: OutcomeCase[] = [];
-  const outcomes: boolean[] = [];
+  const outcomes: number[] = [];
   let uncertain = 0;
   for (const c of selection) {
     const o = outcomeAtMilestone(c, 12, opts.minObs);
@@ -369,20 +463,22 @@ export function logisticModel(
       continue;
     }
     judged.push(c);
-    outcomes.push(isStrictSuccess(o));
+    outcomes.push(isStrictSuccess(o) ? 1 : 0);
   }
   const notes = uncertain > 0 ? [`${uncertain} cases scored uncertain at 12 months left out.`] : [];
   const design = designMatrix(judged, choices, { levelName: opts.levelName, minLevel: opts.minLevel });
-  const y = design.rows.map((i) => outcomes[i]!);
-  const successes = y.filter(Boolean).length;
+  const y = new Uint8Array(design.rows.length);
+  let successes = 0;
+  for (let k = 0; k < y.length; k++) successes += y[k] = outcomes[design.rows[k]!]!;
   const failures = y.length - successes;
-  const fit = baseFit('logistic', { rows: judged, design, notes }, Math.min(successes, failures), { successes, failures });
+  const { cluster, patients } = patientClusters(judged, design.rows);
+  const fit = baseFit('logistic', { rows: judged, design, notes }, Math.min(successes, failures), patients, { successes, failures });
   if (design.columns.length === 0) return { ...fit, error: 'No factor is left in the model: choose at least one factor with two or more levels in this selection.' };
   if (successes === 0 || failures === 0) return { ...fit, error: 'The model needs both outcomes among the cases: there are none of one of them in this selection.' };
   const sep = separated(design, y, 'logistic');
   if (sep) return { ...fit, error: sep };
   try {
-    const r = logisticRegression(design.rows.map((i, k) => ({ y: outcomes[i]!, x: design.x[k]!, cluster: judged[i]!.patientId })));
+    const r = logisticRegressionColumns({ y, p: design.columns.length, x: design.x, cluster });
     // drop the intercept
     const s = <T>(a: readonly T[]) => a.slice(1);
     const terms = termsOf(design.columns, s(r.coef), s(r.se), r.robustSe ? s(r.robustSe) : null, s(r.oddsRatio), s(r.lower), s(r.upper), s(r.pValue));

@@ -251,7 +251,28 @@ function evaluate(s: Sorted, beta: Float64Array, efron: boolean, risk: Float64Ar
   return s.p === 2 ? evaluate2(s, beta, efron, risk) : evaluateGeneral(s, beta, efron, risk, eta);
 }
 
-function prepare(rows: readonly CoxRow[]): Sorted {
+/**
+ * The rows of a Cox model as columns (typed arrays), for callers that hold many rows: no object per
+ * row. `coxPHColumns` fits them exactly as `coxPH` fits the same rows.
+ */
+export interface CoxColumns {
+  /** follow-up time of each row, finite and >= 0 (not changed by the fit) */
+  time: Float64Array;
+  /** 1 when the row's event was seen, 0 when censored */
+  event: Uint8Array;
+  /** number of covariates */
+  p: number;
+  /** covariates, row-major: x[i * p + c] is covariate c of row i */
+  x: Float64Array;
+  /**
+   * cluster of each row as an index 0..G-1 (numbered in order of first appearance, as `coxPH` numbers
+   * its `cluster` values), or absent: with clusters the result adds robustSe
+   */
+  cluster?: Int32Array | null;
+}
+
+/** The rows checked and turned into columns (clusters numbered in order of first appearance). */
+function rowsToColumns(rows: readonly CoxRow[]): CoxColumns {
   if (!Array.isArray(rows)) throw new TypeError('coxPH expects an array of { time, event, x }');
   const n = rows.length;
   if (n < 2) throw new RangeError(`coxPH needs at least two rows, got ${n}`);
@@ -261,13 +282,9 @@ function prepare(rows: readonly CoxRow[]): Sorted {
   }
   const p = first.x.length;
   const time = new Float64Array(n);
-  const ev = new Uint8Array(n);
-  // covariates in input order (one sequential pass over the row objects),
-  // permuted into time order afterwards from the typed array
-  const xIn = new Float64Array(n * p);
-  const mean = new Float64Array(p);
-  let events = 0;
-  let clusterIn: Int32Array | null = null;
+  const event = new Uint8Array(n);
+  const x = new Float64Array(n * p);
+  let cluster: Int32Array | null = null;
   const clusterIds = new Map<string | number, number>();
   for (let i = 0; i < n; i++) {
     const r = rows[i];
@@ -284,35 +301,67 @@ function prepare(rows: readonly CoxRow[]): Sorted {
     }
     const cl = r.cluster;
     if (cl !== undefined && cl !== null) {
-      if (clusterIn === null) {
+      if (cluster === null) {
         if (i > 0) throw new RangeError(`row ${i}: has a cluster but row 0 has none; give every row a cluster or none`);
-        clusterIn = new Int32Array(n);
+        cluster = new Int32Array(n);
       }
       if (typeof cl !== 'string' && !(typeof cl === 'number' && Number.isFinite(cl))) throw new TypeError(`row ${i}: cluster must be a string or a finite number`);
       let g = clusterIds.get(cl);
       if (g === undefined) clusterIds.set(cl, (g = clusterIds.size));
-      clusterIn[i] = g;
-    } else if (clusterIn !== null) {
+      cluster[i] = g;
+    } else if (cluster !== null) {
       throw new RangeError(`row ${i}: has no cluster but row 0 has one; give every row a cluster or none`);
     }
     time[i] = t;
-    if (e) {
-      ev[i] = 1;
-      events++;
-    }
+    if (e) event[i] = 1;
     for (let c = 0; c < p; c++) {
       const v = xi[c];
       if (typeof v !== 'number' || !(v - v === 0)) {
         throw new RangeError(`row ${i}: covariate ${c} must be a finite number, got ${String(v)}`);
       }
-      xIn[i * p + c] = v;
+      x[i * p + c] = v;
+    }
+  }
+  return { time, event, p, x, cluster };
+}
+
+/** Checks columns (from a caller or from rowsToColumns), sorts them by time, centres and scales the covariates. */
+function prepare(data: CoxColumns): Sorted {
+  const { time: timeIn, event: ev, p, x: xIn } = data;
+  const n = timeIn?.length;
+  if (!(timeIn instanceof Float64Array) || !(ev instanceof Uint8Array) || !(xIn instanceof Float64Array)) {
+    throw new TypeError('coxPHColumns expects { time: Float64Array, event: Uint8Array, p, x: Float64Array }');
+  }
+  if (n < 2) throw new RangeError(`coxPH needs at least two rows, got ${n}`);
+  if (!Number.isInteger(p) || p < 1) throw new RangeError('coxPH: each row needs x, an array of at least one covariate');
+  if (ev.length !== n || xIn.length !== n * p) throw new RangeError(`coxPHColumns: expected ${n} events and ${n * p} covariate values for ${n} rows of ${p}`);
+  const clusterIn = data.cluster ?? null;
+  if (clusterIn !== null && (!(clusterIn instanceof Int32Array) || clusterIn.length !== n)) throw new RangeError(`coxPHColumns: expected a cluster index for each of the ${n} rows`);
+  const mean = new Float64Array(p);
+  let events = 0;
+  let G = 0;
+  for (let i = 0; i < n; i++) {
+    const t = timeIn[i];
+    if (!(t >= 0) || t === Infinity) throw new RangeError(`row ${i}: time must be a finite number >= 0, got ${String(t)}`);
+    const e = ev[i];
+    if (e === 1) events++;
+    else if (e !== 0) throw new TypeError(`row ${i}: event must be true or false`);
+    if (clusterIn !== null) {
+      const g = clusterIn[i];
+      if (g < 0) throw new RangeError(`row ${i}: a cluster index must be >= 0`);
+      if (g >= G) G = g + 1;
+    }
+    for (let c = 0; c < p; c++) {
+      const v = xIn[i * p + c];
+      if (!(v - v === 0)) throw new RangeError(`row ${i}: covariate ${c} must be a finite number, got ${String(v)}`);
       mean[c] += v;
     }
   }
   if (events === 0) throw new RangeError('coxPH needs at least one event; all rows are censored');
   const index = new Int32Array(n);
   for (let i = 0; i < n; i++) index[i] = i;
-  const { times, start, payload: order } = groupByTime(time, index, true);
+  // groupByTime sorts its keys in place: a copy, so the caller's times are left as they were
+  const { times, start, payload: order } = groupByTime(timeIn.slice(), index, true);
   const x = new Float64Array(n * p);
   const status = new Uint8Array(n);
   const cluster = clusterIn === null ? null : new Int32Array(n);
@@ -338,7 +387,7 @@ function prepare(rows: readonly CoxRow[]): Sorted {
     scale[c] = 1 / mad;
     for (let k = 0; k < n; k++) x[k * p + c] *= scale[c];
   }
-  return { n, p, x, status, start, D: times.length, scale, cluster, G: clusterIds.size };
+  return { n, p, x, status, start, D: times.length, scale, cluster, G };
 }
 
 /**
@@ -466,10 +515,23 @@ function robustVariance(s: Sorted, beta: Float64Array, efron: boolean, inv: Floa
  * "coefficient may be infinite").
  */
 export function coxPH(rows: readonly CoxRow[], opts: CoxOptions = {}): CoxResult {
+  checkTies(opts);
+  return fitCox(prepare(rowsToColumns(rows)), opts);
+}
+
+/** `coxPH` on rows given as columns (see CoxColumns): the same fit, the same result, no object per row. */
+export function coxPHColumns(data: CoxColumns, opts: CoxOptions = {}): CoxResult {
+  checkTies(opts);
+  return fitCox(prepare(data), opts);
+}
+
+function checkTies(opts: CoxOptions): void {
   const ties = opts.ties ?? 'efron';
   if (ties !== 'efron' && ties !== 'breslow') throw new RangeError(`ties must be 'efron' or 'breslow', got ${String(ties)}`);
-  const efron = ties === 'efron';
-  const s = prepare(rows);
+}
+
+function fitCox(s: Sorted, opts: CoxOptions): CoxResult {
+  const efron = (opts.ties ?? 'efron') === 'efron';
   const { n, p } = s;
   const risk = new Float64Array(n);
   const eta = new Float64Array(p === 2 ? 0 : n);

@@ -5,12 +5,14 @@
  * - wilsonInterval: a proportion (e.g. success rate) with its Wilson interval
  * - kaplanMeier, medianSurvival, restrictedMean: survival curves (R survival::survfit conventions)
  * - logRank: comparison of survival curves across groups (survdiff)
- * - coxPH: proportional hazards regression (coxph, Efron ties by default)
+ * - coxPH: proportional hazards regression (coxph, Efron ties by default); coxPHColumns: the same
+ *   fit of rows given as typed-array columns (no object per row, for 100,000-row models)
  * - chiSquareTest, fisherExact2x2: tests on tables of counts
  * - cohenKappa: agreement between two raters (e.g. two examiners' index scores)
  * - turnbull: survival from interval-censored event times (events found at reviews)
  * - cumulativeIncidence: Aalen–Johansen incidence of competing causes
- * - logisticRegression: binary outcome regression, optionally with cluster-robust errors
+ * - logisticRegression: binary outcome regression, optionally with cluster-robust errors;
+ *   logisticRegressionColumns: the same fit of rows given as typed-array columns
  * - funnelLimits: exact binomial funnel-plot limits for a proportion
  *
  * Every function either returns defined numbers or throws an Error with a
@@ -24,8 +26,8 @@ export { restrictedMeanInterval } from './restricted-mean';
 export type { RestrictedMeanInterval } from './restricted-mean';
 export { logRank } from './log-rank';
 export type { LogRankResult, LogRankObservation } from './log-rank';
-export { coxPH } from './cox';
-export type { CoxRow, CoxOptions, CoxResult } from './cox';
+export { coxPH, coxPHColumns } from './cox';
+export type { CoxRow, CoxColumns, CoxOptions, CoxResult } from './cox';
 export { chiSquareTest, fisherExact2x2 } from './contingency';
 export type { ChiSquareResult } from './contingency';
 export { cohenKappa, cohenKappaInterval, weightedKappaFromTable } from './kappa';
@@ -34,7 +36,7 @@ export { turnbull } from './turnbull';
 export type { CensoredInterval, TurnbullStep, TurnbullOptions } from './turnbull';
 export { cumulativeIncidence } from './competing-risks';
 export type { CompetingRiskRow, CumulativeIncidenceStep, CumulativeIncidenceOptions } from './competing-risks';
-export { logisticRegression } from './logistic';
-export type { LogisticRow, LogisticResult } from './logistic';
+export { logisticRegression, logisticRegressionColumns } from './logistic';
+export type { LogisticRow, LogisticColumns, LogisticResult } from './logistic';
 export { funnelLimits } from './funnel';
 export type { FunnelLimits } from './funnel';

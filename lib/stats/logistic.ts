@@ -57,14 +57,12 @@ export function logisticRegression(rows: readonly LogisticRow[]): LogisticResult
   let clustered: boolean | null = null;
   const clusterIndex = new Int32Array(n);
   const clusterIds = new Map<string | number, number>();
-  let ones = 0;
   for (let i = 0; i < n; i++) {
     const r = rows[i];
     if (r === null || typeof r !== 'object') throw new TypeError(`row ${i}: expected { y, x }`);
     if (r.y !== true && r.y !== false) throw new TypeError(`row ${i}: y must be true or false`);
     if (!Array.isArray(r.x) || r.x.length !== k - 1) throw new RangeError(`row ${i}: expected ${k - 1} covariates like the first row`);
     y[i] = r.y ? 1 : 0;
-    ones += y[i];
     X[i * k] = 1;
     for (let c = 1; c < k; c++) {
       const v = r.x[c - 1];
@@ -82,6 +80,65 @@ export function logisticRegression(rows: readonly LogisticRow[]): LogisticResult
       clusterIndex[i] = g;
     }
   }
+  return fitLogistic(n, k, X, y, clustered ? clusterIndex : null, clusterIds.size);
+}
+
+/**
+ * The rows of a logistic model as columns (typed arrays), for callers that hold many rows: no
+ * object per row. `logisticRegressionColumns` fits them exactly as `logisticRegression` fits the same rows.
+ */
+export interface LogisticColumns {
+  /** 1 or 0 for each row */
+  y: Uint8Array;
+  /** number of covariates (the intercept is added) */
+  p: number;
+  /** covariates, row-major: x[i * p + c] is covariate c of row i */
+  x: Float64Array;
+  /**
+   * cluster of each row as an index 0..G-1 (numbered in order of first appearance, as
+   * `logisticRegression` numbers its `cluster` values), or absent: with clusters robustSe is reported
+   */
+  cluster?: Int32Array | null;
+}
+
+/** `logisticRegression` on rows given as columns (see LogisticColumns): the same fit, the same result. */
+export function logisticRegressionColumns(data: LogisticColumns): LogisticResult {
+  const { y: yIn, p, x } = data;
+  if (!(yIn instanceof Uint8Array) || !(x instanceof Float64Array) || !Number.isInteger(p) || p < 0) {
+    throw new TypeError('logisticRegressionColumns expects { y: Uint8Array, p, x: Float64Array }');
+  }
+  const n = yIn.length;
+  const k = p + 1;
+  if (x.length !== n * p) throw new RangeError(`logisticRegressionColumns: expected ${n * p} covariate values for ${n} rows of ${p}`);
+  if (n <= k) throw new RangeError(`logisticRegression needs more rows (${n}) than coefficients (${k})`);
+  const cluster = data.cluster ?? null;
+  if (cluster !== null && (!(cluster instanceof Int32Array) || cluster.length !== n)) throw new RangeError(`logisticRegressionColumns: expected a cluster index for each of the ${n} rows`);
+  const X = new Float64Array(n * k);
+  const y = new Float64Array(n);
+  let G = 0;
+  for (let i = 0; i < n; i++) {
+    const v = yIn[i];
+    if (v !== 0 && v !== 1) throw new TypeError(`row ${i}: y must be true or false`);
+    y[i] = v;
+    X[i * k] = 1;
+    for (let c = 1; c < k; c++) {
+      const w = x[i * p + c - 1];
+      if (!Number.isFinite(w)) throw new RangeError(`row ${i}: covariate ${c - 1} must be a finite number, got ${String(w)}`);
+      X[i * k + c] = w;
+    }
+    if (cluster !== null) {
+      const g = cluster[i];
+      if (g < 0) throw new RangeError(`row ${i}: a cluster index must be >= 0`);
+      if (g >= G) G = g + 1;
+    }
+  }
+  return fitLogistic(n, k, X, y, cluster, G);
+}
+
+/** The IRLS fit and its standard errors on the design X (intercept first, row-major n × k). */
+function fitLogistic(n: number, k: number, X: Float64Array, y: Float64Array, clusterIndex: Int32Array | null, G: number): LogisticResult {
+  let ones = 0;
+  for (let i = 0; i < n; i++) ones += y[i];
   if (ones === 0 || ones === n) throw new RangeError('logisticRegression needs both outcomes in the data (every y is the same)');
 
   const beta = new Float64Array(k);
@@ -146,8 +203,7 @@ export function logisticRegression(rows: readonly LogisticRow[]): LogisticResult
   const se = Array.from({ length: k }, (_, a) => Math.sqrt(inv[a * k + a]));
 
   let robustSe: number[] | undefined;
-  if (clustered) {
-    const G = clusterIds.size;
+  if (clusterIndex !== null) {
     if (G < 2) throw new RangeError('logisticRegression: cluster-robust errors need at least two clusters');
     // bread = (X'WX)^-1 (as sandwich's bread.glm), meat = sum over clusters of (sum of scores)(sum of scores)'
     const bread = inv;

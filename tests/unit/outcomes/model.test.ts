@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { healingObservations, outcomeAtMilestone, type OutcomeCase } from '@/lib/outcomes';
-import { coxModel, coxTime, designMatrix, EPV_MIN, fitProblem, logisticModel, MAX_ABS_COEF, MIN_LEVEL_ROWS, multivariable, runaway, type ModelTerm } from '@/lib/outcomes/model';
+import { coxModel, coxTime, designMatrix, designRow, EPV_MIN, fitProblem, logisticModel, MAX_ABS_COEF, MIN_LEVEL_ROWS, multivariable, runaway, type ModelTerm } from '@/lib/outcomes/model';
 import { coxPH, logisticRegression } from '@/lib/stats';
 import { outcomeCase, present } from '../../support/outcome-cases';
 
@@ -21,9 +21,9 @@ describe('designMatrix', () => {
     const d = designMatrix(rows, [{ key: 'group' }]);
     expect(d.references).toEqual([{ covariate: 'group', label: 'Tooth group', level: 'Molar', rows: 30 }]);
     expect(d.columns.map((c) => c.term)).toEqual(['Incisor', 'Premolar']);
-    expect(d.x[0]).toEqual([1, 0]); // an incisor
-    expect(d.x[12]).toEqual([0, 0]); // a molar (reference)
-    expect(d.x[50]).toEqual([0, 1]); // a premolar
+    expect(designRow(d, 0)).toEqual([1, 0]); // an incisor
+    expect(designRow(d, 12)).toEqual([0, 0]); // a molar (reference)
+    expect(designRow(d, 50)).toEqual([0, 1]); // a premolar
     expect(d.rows).toHaveLength(57);
     expect(d.notes).toEqual([]);
   });
@@ -63,10 +63,11 @@ describe('designMatrix', () => {
       ['Lesion diameter before treatment', 'per mm', true],
       ['PAI before treatment', 'per PAI point', true],
     ]);
-    expect(d.x).toEqual([
+    expect([designRow(d, 0), designRow(d, 1)]).toEqual([
       [0, 1],
       [6.5, 4],
     ]);
+    expect(d.x).toEqual(new Float64Array([0, 1, 6.5, 4])); // row-major, one typed array
     expect(designMatrix([kase({ baselinePai: 3 }), kase({ baselinePai: 3 })], [{ key: 'pai', numeric: true }]).notes[0]).toMatch(/same in every case/);
   });
 
@@ -172,8 +173,8 @@ describe('designMatrix: levels that share a shown name', () => {
     const d = designMatrix(rows, [{ key: 'clinician' }], { levelName: (_k, l) => (l === 'u1' ? 'Dr One' : 'Former clinician') });
     expect(d.references[0]!.level).toBe('Dr One');
     expect(d.columns.map((c) => c.term)).toEqual(['Former clinician', 'Former clinician (2)']);
-    expect(d.x[12]).toEqual([1, 0]);
-    expect(d.x[23]).toEqual([0, 1]);
+    expect(designRow(d, 12)).toEqual([1, 0]);
+    expect(designRow(d, 23)).toEqual([0, 1]);
   });
 });
 
