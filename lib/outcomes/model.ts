@@ -26,7 +26,8 @@
  *   a model that cannot be fitted is a message, never an exception.
  */
 import { coxPHColumns, logisticRegressionColumns } from '@/lib/stats';
-import { healingObservations, isStrictSuccess, outcomeAtMilestone, toothLossFrom, toothLossStarts, type OutcomeCase } from './cases';
+import type { Interval } from '@/lib/scoring';
+import { healingObservations, isStrictSuccess, outcomeAtMilestone, patientNumbers, toothLossFrom, toothLossStarts, type OutcomeCase } from './cases';
 import { FACTORS, levelOrder, type FactorKey } from './compute';
 
 /** A level with fewer rows than this is merged (or left out). */
@@ -81,7 +82,7 @@ export interface Design {
    */
   x: Float64Array;
   /** indices (into the input) of the rows kept */
-  rows: number[];
+  rows: Int32Array;
   /** reference level of each categorical covariate kept, with its number of rows */
   references: { covariate: FactorKey; label: string; level: string; rows: number }[];
   /** merges, drops and left-out rows, in plain words */
@@ -92,62 +93,103 @@ type LevelName = (key: FactorKey, level: string) => string;
 const sortLevels = (a: string, b: string) => levelOrder(a) - levelOrder(b) || a.localeCompare(b, 'en', { numeric: true });
 
 /**
+ * The chosen covariates as read from each case, once per selection (the Cox and the logistic model
+ * take different subsets of it): a factor's level as an index into its levels (in order of first
+ * appearance), a numeric covariate's value. Duplicate choices are dropped here.
+ */
+interface Covariates {
+  /** the number of cases read */
+  n: number;
+  read: ({ choice: CovariateChoice; numeric: false; level: Int32Array; levels: string[] } | { choice: CovariateChoice; numeric: true; value: Float64Array })[];
+}
+
+function readCovariates(cases: readonly OutcomeCase[], choices: readonly CovariateChoice[]): Covariates {
+  const n = cases.length;
+  const read: Covariates['read'] = [];
+  const seen = new Set<FactorKey>();
+  for (const choice of choices) {
+    if (seen.has(choice.key)) continue;
+    seen.add(choice.key);
+    if (choice.numeric === true && isNumericKey(choice.key)) {
+      const value = NUMERIC_COVARIATES[choice.key].value;
+      const values = new Float64Array(n);
+      for (let i = 0; i < n; i++) values[i] = value(cases[i]!);
+      read.push({ choice: { key: choice.key, numeric: true }, numeric: true, value: values });
+      continue;
+    }
+    const levelOfCase = FACTORS[choice.key].level;
+    const index = new Map<string, number>();
+    const levels: string[] = [];
+    const level = new Int32Array(n);
+    for (let i = 0; i < n; i++) {
+      const l = levelOfCase(cases[i]!);
+      let j = index.get(l);
+      if (j === undefined) {
+        j = levels.length;
+        index.set(l, j);
+        levels.push(l);
+      }
+      level[i] = j;
+    }
+    read.push({ choice: { key: choice.key }, numeric: false, level, levels });
+  }
+  return { n, read };
+}
+
+/**
  * The design matrix of the chosen covariates on the given rows (see the top of this file for the
  * rules). `levelName` turns a level into its shown name (clinician ids into names).
  */
 export function designMatrix(cases: readonly OutcomeCase[], choices: readonly CovariateChoice[], opts: { minLevel?: number; levelName?: LevelName } = {}): Design {
+  return designOf(readCovariates(cases, choices), null, opts);
+}
+
+/**
+ * The design matrix on the rows `subset` (indices into the cases the covariates were read from; null:
+ * all of them, in order). The design's `rows` are positions in `subset`.
+ */
+function designOf(cov: Covariates, subset: Int32Array | null, opts: { minLevel?: number; levelName?: LevelName }): Design {
   const minLevel = opts.minLevel ?? MIN_LEVEL_ROWS;
   const name: LevelName = opts.levelName ?? ((_k, l) => l);
   const notes: string[] = [];
-  const n = cases.length;
+  const n = subset ? subset.length : cov.n;
+  const at = (k: number) => (subset ? subset[k]! : k);
   const keep = new Uint8Array(n).fill(1);
   interface Plan {
     choice: CovariateChoice;
     label: string;
-    /** per row: the index of its merged level, or -1 when the row is left out */
+    /** numeric: the value of each case read */
+    value?: Float64Array;
+    /** per row (position in the subset): the index of its merged level, or -1 when the row is left out */
     level?: Int32Array;
     /** shown names of the merged levels (made unique) */
     levels?: string[];
     reference?: number;
   }
   const plans: Plan[] = [];
-  const seen = new Set<FactorKey>();
-  for (const choice of choices) {
-    if (seen.has(choice.key)) continue;
-    seen.add(choice.key);
-    const numeric = choice.numeric === true && isNumericKey(choice.key);
-    if (numeric) {
+  for (const r of cov.read) {
+    const choice = r.choice;
+    if (r.numeric) {
       const spec = NUMERIC_COVARIATES[choice.key as NumericKey];
       let same = true;
-      const v0 = n > 0 ? spec.value(cases[0]!) : 0;
-      for (let i = 1; i < n && same; i++) same = spec.value(cases[i]!) === v0;
+      for (let k = 0; k < n && same; k++) same = r.value[at(k)] === r.value[at(0)];
       if (n === 0 || same) {
         notes.push(`${spec.label} is left out: it is the same in every case of this selection.`);
         continue;
       }
-      plans.push({ choice: { key: choice.key, numeric: true }, label: spec.label });
+      plans.push({ choice, label: spec.label, value: r.value });
       continue;
     }
     const label = FACTORS[choice.key].label;
-    // each row's level as an index into `found` (levels in order of first appearance), counted in one pass
-    const levelOfCase = FACTORS[choice.key].level;
-    const index = new Map<string, number>();
-    const found: string[] = [];
-    const foundRows: number[] = [];
-    const raw = new Int32Array(n);
-    for (let i = 0; i < n; i++) {
-      const l = levelOfCase(cases[i]!);
-      let j = index.get(l);
-      if (j === undefined) {
-        j = found.length;
-        index.set(l, j);
-        found.push(l);
-        foundRows.push(0);
-      }
-      foundRows[j]! += 1;
-      raw[i] = j;
+    // rows per level in these rows, the levels in order of first appearance here
+    const rowsOf = new Int32Array(r.levels.length);
+    const order: number[] = [];
+    for (let k = 0; k < n; k++) {
+      const j = r.level[at(k)]!;
+      if (rowsOf[j] === 0) order.push(j);
+      rowsOf[j]! += 1;
     }
-    const counts = new Map<string, number>(found.map((l, j) => [l, foundRows[j]!]));
+    const counts = new Map<string, number>(order.map((j) => [r.levels[j]!, rowsOf[j]!]));
     // groups: each merged level is a list of original levels
     let groups = [...counts.keys()].sort(sortLevels).map((l) => [l]);
     const size = (g: string[]) => g.reduce((s, l) => s + counts.get(l)!, 0);
@@ -187,14 +229,15 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
       continue;
     }
     if (leftNote) notes.push(leftNote);
-    // merged level of each original level (-1: left out), then of each row
-    const mergedOf = new Int32Array(found.length).fill(-1);
-    groups.forEach((g, k) => g.forEach((l) => (mergedOf[index.get(l)!] = k)));
+    // merged level of each level read (-1: left out), then of each row
+    const indexOf = new Map(r.levels.map((l, j) => [l, j]));
+    const mergedOf = new Int32Array(r.levels.length).fill(-1);
+    groups.forEach((g, k) => g.forEach((l) => (mergedOf[indexOf.get(l)!] = k)));
     const level = new Int32Array(n);
-    for (let i = 0; i < n; i++) {
-      const k = mergedOf[raw[i]!]!;
-      level[i] = k;
-      if (k === -1) keep[i] = 0;
+    for (let k = 0; k < n; k++) {
+      const m = mergedOf[r.level[at(k)]!]!;
+      level[k] = m;
+      if (m === -1) keep[k] = 0;
     }
     // shown names, unique even when two levels share a name (e.g. two former clinicians)
     const names: string[] = [];
@@ -210,35 +253,37 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
     });
     plans.push({ choice, label, level, levels: names, reference });
   }
-  const rows: number[] = [];
-  for (let i = 0; i < n; i++) if (keep[i] === 1) rows.push(i);
+  let kept = 0;
+  for (let k = 0; k < n; k++) kept += keep[k]!;
+  const rows = new Int32Array(kept);
+  for (let k = 0, r = 0; k < n; k++) if (keep[k] === 1) rows[r++] = k;
   const columns: DesignColumn[] = [];
   for (const p of plans) {
-    if (p.choice.numeric) columns.push({ covariate: p.choice.key, label: p.label, term: NUMERIC_COVARIATES[p.choice.key as NumericKey].per, numeric: true, reference: null });
+    if (p.value) columns.push({ covariate: p.choice.key, label: p.label, term: NUMERIC_COVARIATES[p.choice.key as NumericKey].per, numeric: true, reference: null });
     else p.levels!.forEach((l, k) => k !== p.reference && columns.push({ covariate: p.choice.key, label: p.label, term: l, numeric: false, reference: p.levels![p.reference!]! }));
   }
   // the columns of each plan, side by side: a number, or one indicator per level but the reference
   const width = columns.length;
-  const x = new Float64Array(rows.length * width);
+  const x = new Float64Array(kept * width);
   const referenceRows = new Array<number>(plans.length).fill(0);
   let offset = 0;
   plans.forEach((p, q) => {
-    if (p.choice.numeric) {
-      const value = NUMERIC_COVARIATES[p.choice.key as NumericKey].value;
-      for (let k = 0; k < rows.length; k++) x[k * width + offset] = value(cases[rows[k]!]!);
+    if (p.value) {
+      const value = p.value;
+      for (let r = 0; r < kept; r++) x[r * width + offset] = value[at(rows[r]!)]!;
       offset += 1;
       return;
     }
     const level = p.level!;
     const ref = p.reference!;
-    for (let k = 0; k < rows.length; k++) {
-      const l = level[rows[k]!]!;
+    for (let r = 0; r < kept; r++) {
+      const l = level[rows[r]!]!;
       if (l === ref) referenceRows[q]! += 1;
-      else x[k * width + offset + (l < ref ? l : l - 1)] = 1;
+      else x[r * width + offset + (l < ref ? l : l - 1)] = 1;
     }
     offset += p.levels!.length - 1;
   });
-  const references = plans.flatMap((p, q) => (p.choice.numeric ? [] : [{ covariate: p.choice.key, label: p.label, level: p.levels![p.reference!]!, rows: referenceRows[q]! }]));
+  const references = plans.flatMap((p, q) => (p.value ? [] : [{ covariate: p.choice.key, label: p.label, level: p.levels![p.reference!]!, rows: referenceRows[q]! }]));
   return { columns, x, rows, references, notes };
 }
 
@@ -246,22 +291,6 @@ export function designMatrix(cases: readonly OutcomeCase[], choices: readonly Co
 export function designRow(d: Pick<Design, 'columns' | 'x'>, k: number): number[] {
   const p = d.columns.length;
   return Array.from(d.x.subarray(k * p, (k + 1) * p));
-}
-
-/**
- * Each kept row's patient as a cluster index 0..G-1, numbered in order of first appearance (as
- * lib/stats numbers cluster ids), and G, the number of distinct patients.
- */
-function patientClusters(cases: readonly OutcomeCase[], rows: readonly number[]): { cluster: Int32Array; patients: number } {
-  const ids = new Map<string, number>();
-  const cluster = new Int32Array(rows.length);
-  for (let k = 0; k < rows.length; k++) {
-    const id = cases[rows[k]!]!.patientId;
-    let g = ids.get(id);
-    if (g === undefined) ids.set(id, (g = ids.size));
-    cluster[k] = g;
-  }
-  return { cluster, patients: ids.size };
 }
 
 export interface ModelTerm extends DesignColumn {
@@ -298,18 +327,45 @@ export interface ModelFit {
 
 export type ModelEndpoint = 'healing' | 'tooth';
 
-interface Prepared {
-  rows: OutcomeCase[];
-  design: Design;
-  notes: string[];
+/** What both models read of a selection's cases, each case read once (multivariable shares it between them). */
+interface Selection {
+  cases: readonly OutcomeCase[];
+  covariates: Covariates;
+  /** each case's patient as a number 0..patients-1 (lib/outcomes/cases.ts patientNumbers) */
+  patient: Int32Array;
+  patients: number;
 }
 
-function baseFit(model: ModelFit['model'], p: Prepared, events: number, patients: number, extra: Partial<ModelFit>): ModelFit {
-  const parameters = p.design.columns.length;
+/** `all`: the rows `cases` were selected from (their patients' numbers are kept per `all`), or null. */
+function readSelection(cases: readonly OutcomeCase[], all: readonly OutcomeCase[] | null, choices: readonly CovariateChoice[]): Selection {
+  const { patient, count } = patientNumbers(cases, all);
+  return { cases, covariates: readCovariates(cases, choices), patient, patients: count };
+}
+
+/**
+ * The patient of each design row (`subset[rows[k]]` in the selection) as a cluster 0..G-1, numbered in
+ * order of first appearance as lib/stats numbers cluster ids (so the fit is the one of the row API, to
+ * the last bit), and G, the number of distinct patients.
+ */
+function clustersOf(sel: Selection, subset: Int32Array, rows: Int32Array): { cluster: Int32Array; patients: number } {
+  const seen = new Int32Array(sel.patients).fill(-1);
+  const cluster = new Int32Array(rows.length);
+  let G = 0;
+  for (let k = 0; k < rows.length; k++) {
+    const p = sel.patient[subset[rows[k]!]!]!;
+    let g = seen[p]!;
+    if (g === -1) seen[p] = g = G++;
+    cluster[k] = g;
+  }
+  return { cluster, patients: G };
+}
+
+function baseFit(model: ModelFit['model'], design: Design, notes: string[], events: number, patients: number, extra: Partial<ModelFit>): ModelFit {
+  const parameters = design.columns.length;
   const epv = parameters > 0 ? events / parameters : null;
   return {
     model,
-    cases: p.design.rows.length,
+    cases: design.rows.length,
     patients,
     events,
     successes: null,
@@ -317,8 +373,8 @@ function baseFit(model: ModelFit['model'], p: Prepared, events: number, patients
     parameters,
     epv,
     lowEpv: epv !== null && epv < EPV_MIN,
-    references: p.design.references,
-    notes: [...p.notes, ...p.design.notes],
+    references: design.references,
+    notes: [...notes, ...design.notes],
     terms: [],
     error: null,
     ...extra,
@@ -401,22 +457,32 @@ export function coxModel(
   choices: readonly CovariateChoice[],
   opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName; minLevel?: number },
 ): ModelFit {
-  let cases: OutcomeCase[];
-  let intervals: { left: number; right: number | null }[];
+  return coxOf(readSelection(selection, all, choices), all, opts);
+}
+
+function coxOf(sel: Selection, all: readonly OutcomeCase[], opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName; minLevel?: number }): ModelFit {
+  const selection = sel.cases;
+  // the model's cases (indices into the selection) and their intervals
+  let cases: Int32Array;
+  let intervals: Interval[];
   if (opts.endpoint === 'tooth') {
-    cases = toothLossStarts(selection);
-    intervals = cases.map((c) => toothLossFrom(c, all, opts.minObs));
+    const starts = toothLossStarts(selection);
+    const isStart = new Set(starts);
+    cases = Int32Array.from(selection.keys()).filter((i) => isStart.has(selection[i]!));
+    intervals = starts.map((c) => toothLossFrom(c, all, opts.minObs));
   } else {
-    cases = [...selection];
-    intervals = healingObservations(cases, opts.minObs);
+    cases = Int32Array.from(selection.keys());
+    intervals = healingObservations(selection, opts.minObs);
   }
-  const followed: number[] = [];
-  for (let i = 0; i < cases.length; i++) if (!(intervals[i]!.left === 0 && intervals[i]!.right === null)) followed.push(i);
+  let nFollowed = 0;
+  const isFollowed = (iv: Interval) => !(iv.left === 0 && iv.right === null);
+  for (const iv of intervals) if (isFollowed(iv)) nFollowed += 1;
+  const followed = new Int32Array(nFollowed);
+  for (let i = 0, f = 0; i < intervals.length; i++) if (isFollowed(intervals[i]!)) followed[f++] = i;
   const notes: string[] = [];
   if (followed.length < cases.length) notes.push(`${cases.length - followed.length} ${opts.endpoint === 'tooth' ? 'teeth' : 'cases'} with no review yet left out.`);
   const rows = followed.map((i) => cases[i]!);
-  const design = designMatrix(rows, choices, { levelName: opts.levelName, minLevel: opts.minLevel });
-  const p: Prepared = { rows, design, notes };
+  const design = designOf(sel.covariates, rows, opts);
   // the design's rows as columns: time and event (coxTime), patient
   const m = design.rows.length;
   const time = new Float64Array(m);
@@ -430,8 +496,8 @@ export function coxModel(
       events += 1;
     }
   }
-  const { cluster, patients } = patientClusters(rows, design.rows);
-  const fit = baseFit('cox', p, events, patients, {});
+  const { cluster, patients } = clustersOf(sel, rows, design.rows);
+  const fit = baseFit('cox', design, notes, events, patients, {});
   if (design.columns.length === 0) return { ...fit, error: 'No factor is left in the model: choose at least one factor with two or more levels in this selection.' };
   if (events === 0) return { ...fit, error: 'No failures among these cases: a Cox model needs events.' };
   const sep = separated(design, y, 'cox');
@@ -452,27 +518,34 @@ export function logisticModel(
   choices: readonly CovariateChoice[],
   opts: { minObs: number; levelName?: LevelName; minLevel?: number },
 ): ModelFit {
-  const judged: OutcomeCase[] = [];
-  const outcomes: number[] = [];
+  return logisticOf(readSelection(selection, null, choices), opts);
+}
+
+function logisticOf(sel: Selection, opts: { minObs: number; levelName?: LevelName; minLevel?: number }): ModelFit {
+  const selection = sel.cases;
+  const judgedAt = new Int32Array(selection.length);
+  const outcomes = new Uint8Array(selection.length);
+  let judgedN = 0;
   let uncertain = 0;
-  for (const c of selection) {
-    const o = outcomeAtMilestone(c, 12, opts.minObs);
+  for (let i = 0; i < selection.length; i++) {
+    const o = outcomeAtMilestone(selection[i]!, 12, opts.minObs);
     if (o === null) continue;
     if (o === 'uncertain') {
       uncertain += 1;
       continue;
     }
-    judged.push(c);
-    outcomes.push(isStrictSuccess(o) ? 1 : 0);
+    outcomes[judgedN] = isStrictSuccess(o) ? 1 : 0;
+    judgedAt[judgedN++] = i;
   }
+  const judged = judgedAt.subarray(0, judgedN);
   const notes = uncertain > 0 ? [`${uncertain} cases scored uncertain at 12 months left out.`] : [];
-  const design = designMatrix(judged, choices, { levelName: opts.levelName, minLevel: opts.minLevel });
+  const design = designOf(sel.covariates, judged, opts);
   const y = new Uint8Array(design.rows.length);
   let successes = 0;
   for (let k = 0; k < y.length; k++) successes += y[k] = outcomes[design.rows[k]!]!;
   const failures = y.length - successes;
-  const { cluster, patients } = patientClusters(judged, design.rows);
-  const fit = baseFit('logistic', { rows: judged, design, notes }, Math.min(successes, failures), patients, { successes, failures });
+  const { cluster, patients } = clustersOf(sel, judged, design.rows);
+  const fit = baseFit('logistic', design, notes, Math.min(successes, failures), patients, { successes, failures });
   if (design.columns.length === 0) return { ...fit, error: 'No factor is left in the model: choose at least one factor with two or more levels in this selection.' };
   if (successes === 0 || failures === 0) return { ...fit, error: 'The model needs both outcomes among the cases: there are none of one of them in this selection.' };
   const sep = separated(design, y, 'logistic');
@@ -523,10 +596,12 @@ export function multivariable(
   covariates: readonly CovariateChoice[],
   opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName },
 ): Multivariable {
+  // the selection's cases read once for both models
+  const sel = readSelection(selection, all, covariates);
   return {
     endpoint: opts.endpoint,
     covariates: [...covariates],
-    cox: coxModel(selection, all, covariates, opts),
-    logistic: logisticModel(selection, covariates, opts),
+    cox: coxOf(sel, all, opts),
+    logistic: logisticOf(sel, opts),
   };
 }
