@@ -460,6 +460,13 @@ export function coxModel(
   return coxOf(readSelection(selection, all, choices), all, opts);
 }
 
+/** 0, 1, …, n - 1 (a plain loop: Int32Array.from(keys()) walks an iterator, ~10 ms at 100,000). */
+function everyIndex(n: number): Int32Array {
+  const out = new Int32Array(n);
+  for (let i = 0; i < n; i++) out[i] = i;
+  return out;
+}
+
 function coxOf(sel: Selection, all: readonly OutcomeCase[], opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName; minLevel?: number }): ModelFit {
   const selection = sel.cases;
   // the model's cases (indices into the selection) and their intervals
@@ -468,10 +475,10 @@ function coxOf(sel: Selection, all: readonly OutcomeCase[], opts: { endpoint: Mo
   if (opts.endpoint === 'tooth') {
     const starts = toothLossStarts(selection);
     const isStart = new Set(starts);
-    cases = Int32Array.from(selection.keys()).filter((i) => isStart.has(selection[i]!));
+    cases = everyIndex(selection.length).filter((i) => isStart.has(selection[i]!));
     intervals = starts.map((c) => toothLossFrom(c, all, opts.minObs));
   } else {
-    cases = Int32Array.from(selection.keys());
+    cases = everyIndex(selection.length);
     intervals = healingObservations(selection, opts.minObs);
   }
   let nFollowed = 0;

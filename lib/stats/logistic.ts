@@ -169,6 +169,8 @@ function fitLogistic(n: number, k: number, X: Float64Array, y: Float64Array, clu
       for (let a = 0; a < k; a++) {
         const wa = w * X[o + a];
         xtwz[a] += wa * z;
+        // a zero (an indicator column's usual value) adds exactly nothing: skipped, the sums are the same to the bit
+        if (wa === 0) continue;
         for (let b = 0; b <= a; b++) xtwx[a * k + b] += wa * X[o + b];
       }
     }
