@@ -3,6 +3,7 @@ import { randomBytes } from 'node:crypto';
 import { PassThrough } from 'node:stream';
 import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import type { CohortArchiveInput, CohortExportSummary, CohortRow, WriteCohortArchive } from '@/lib/cohorts/types';
+import { openCursor } from '@/lib/db-read';
 import { env } from '@/lib/env';
 import { cohortPredicate } from '@/lib/outcomes/cohort-filter';
 import { QUEUES, openCohortExportsQueue, producerFor, type CohortExportsQueue } from '@/lib/queue';
@@ -82,28 +83,24 @@ function rowsQuery(knex: Knex, practiceId: string, f: CohortFilters): Knex.Query
  */
 export async function* cohortRows(em: EntityManager, practiceId: string, f: CohortFilters, pageSize = COHORT_PAGE_SIZE): AsyncGenerator<CohortRow> {
   const keep = cohortPredicate(f);
-  const trx = await knexOf(em).transaction(undefined, { readOnly: true });
-  let ok = false;
+  const cursor = await openCursor<RowWithPatient | undefined>(knexOf(em), rowsQuery(knexOf(em), practiceId, f).toSQL(), {
+    name: 'cohort_rows',
+    fetchRows: pageSize,
+    idleTimeout: COHORT_READ_IDLE_TIMEOUT,
+    settings: 'set local jit = off',
+  });
   try {
-    await trx.raw(`set local idle_in_transaction_session_timeout = '${COHORT_READ_IDLE_TIMEOUT}'; set local jit = off`);
-    const { sql, bindings } = rowsQuery(trx, practiceId, f).toSQL();
-    await trx.raw(`declare cohort_rows no scroll cursor for ${sql}`, bindings);
-    for (;;) {
-      const page: (RowWithPatient | undefined)[] = (await trx.raw(`fetch ${Math.floor(pageSize)} from cohort_rows`)).rows;
-      const n = page.length;
-      for (let i = 0; i < n; i++) {
+    for await (const page of cursor.pages) {
+      for (let i = 0; i < page.length; i++) {
         const r = page[i]!;
         page[i] = undefined; // a row handed on is no longer held by the page (the consumer may keep it waiting)
         const c = outcomeCaseOf(r);
         if (!keep(c)) continue;
         yield { case: c, patient: { dateOfBirth: r.date_of_birth, sex: r.sex, postalCode: r.postal_code }, practiceId };
       }
-      if (n < pageSize) break;
     }
-    ok = true;
   } finally {
-    // read only: nothing is kept either way; a commit after a failure would fail too
-    await (ok ? trx.commit() : trx.rollback()).catch(() => undefined);
+    await cursor.close();
   }
 }
 

@@ -5,6 +5,7 @@ import { CaseDecisionSchema, RecallVisitSchema, TreatmentCaseSchema, type CaseDe
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { can } from '@/lib/auth/permissions';
 import { streamCsv, type CsvValue } from '@/lib/csv/write';
+import { openCursor } from '@/lib/db-read';
 import { applyFilter, type OutcomeCase, type OutcomeFilter } from '@/lib/outcomes';
 import {
   CASE_KIND_OF_STEP,
@@ -359,21 +360,20 @@ export async function worklistCsvStream(em: EntityManager, actor: Actor, raw: un
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const { s, ordered, completion, detailOf } = await orderedWorklist(em, actor, q);
   const seesPatients = can(actor.roles, 'patient.read');
-  const { sql, bindings } = detailQuery(actor.practiceId, detailOf(ordered), { page: false, patients: seesPatients });
-  const trx = await knexOf(em).transaction(undefined, { readOnly: true });
-  let first: DetailRow[];
+  // The rows come by primary key in the list's order (unnest … with ordinality is known to be in
+  // that order, so nested loops need no sort and the first rows come at once). Left alone, the
+  // planner hashes the practice's whole case and patient tables and compiles the plan (JIT): about
+  // 4x the time at 100,000 cases and 8,000 rows (npm run bench -- outcomes).
+  const cursor = await openCursor<DetailRow>(knexOf(em), detailQuery(actor.practiceId, detailOf(ordered), { page: false, patients: seesPatients }), {
+    name: 'worklist_csv',
+    fetchRows: CSV_FETCH_ROWS,
+    idleTimeout: CSV_IDLE_TIMEOUT,
+    settings: 'set local jit = off; set local enable_hashjoin = off; set local enable_mergejoin = off',
+  });
   try {
-    await trx.raw(`set local idle_in_transaction_session_timeout = '${CSV_IDLE_TIMEOUT}'`);
-    // The rows come by primary key in the list's order (unnest … with ordinality is known to be in
-    // that order, so nested loops need no sort and the first rows come at once). Left alone, the
-    // planner hashes the practice's whole case and patient tables and compiles the plan (JIT): about
-    // 4x the time at 100,000 cases and 8,000 rows (npm run bench -- outcomes).
-    await trx.raw('set local jit = off; set local enable_hashjoin = off; set local enable_mergejoin = off');
-    await trx.raw(`declare worklist_csv no scroll cursor for ${sql}`, bindings);
-    first = (await trx.raw(`fetch ${CSV_FETCH_ROWS} from worklist_csv`)).rows as DetailRow[];
     await audit(em, actor, { action: 'outcomes.worklist_exported', detail: { ...filterDetail(s.filter), cases: ordered.length } });
   } catch (e) {
-    await trx.rollback().catch(() => undefined);
+    await cursor.close();
     throw e;
   }
 
@@ -404,31 +404,15 @@ export async function worklistCsvStream(em: EntityManager, actor: Actor, raw: un
       later ? `${later.kindLabel} started ${later.startDate}${later.completionDate ? `, completed ${later.completionDate}` : ', in progress'} (${later.id})` : '',
     ];
   };
-  let closed = false;
-  // read only: commit or roll back, nothing is kept either way; a commit after a failure would fail too
-  const close = async (ok: boolean) => {
-    if (closed) return;
-    closed = true;
-    await (ok ? trx.commit() : trx.rollback()).catch(() => undefined);
-  };
   async function* lines(): AsyncGenerator<CsvValue[]> {
-    try {
-      for (let batch = first; batch.length; ) {
-        for (const d of batch) yield line(d);
-        if (batch.length < CSV_FETCH_ROWS) break;
-        batch = (await trx.raw(`fetch ${CSV_FETCH_ROWS} from worklist_csv`)).rows as DetailRow[];
-      }
-      await close(true);
-    } finally {
-      await close(false);
-    }
+    for await (const page of cursor.pages) for (const d of page) yield line(d);
   }
   const csv = streamCsv([...WORKLIST_CSV_HEADER], lines());
   // return() closes the transaction even when no chunk was asked for (a generator not yet started runs no finally)
   const chunks: AsyncIterableIterator<string> = {
     next: () => csv.next(),
     return: async () => {
-      await close(false);
+      await cursor.close();
       return csv.return(undefined);
     },
     [Symbol.asyncIterator]() {
