@@ -71,6 +71,13 @@ export const EnvSchema = z
      * recently asked in the background; 0 turns it (and the read at start) off.
      */
     OUTCOMES_WARM_MS: z.coerce.number().int().min(0).default(2000),
+    /**
+     * How far the outcomes figures may lag the database while entries are being saved
+     * (lib/services/outcomes-cache.ts, bounded lag): rows read less than this many ms ago are still
+     * served after a write, marked as behind, and the warmer brings them up to date in the
+     * background. 0: always current (the tests, which read right after writing).
+     */
+    OUTCOMES_MAX_LAG_MS: z.coerce.number().int().min(0).max(600_000).default(60_000),
   })
   .transform((e, ctx) => {
     // `next build` evaluates modules without the runtime secret; the running server must have one.

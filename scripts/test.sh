@@ -234,6 +234,9 @@ main() {
   NEXTAUTH_SECRET="$(random_secret)"
   export NEXTAUTH_SECRET
   export E2E_BASE_URL="$APP_URL"
+  # The tests read outcomes right after writing: no lag (lib/env.ts OUTCOMES_MAX_LAG_MS; its own test
+  # in tests/integration/outcomes-refresh.test.ts).
+  export OUTCOMES_MAX_LAG_MS=0
   lamina_log "ports: web $LAMINA_WEB_PORT, PostgreSQL $LAMINA_PG_PORT, Redis $LAMINA_REDIS_PORT, SMTP $LAMINA_SMTP_PORT, mailbox $LAMINA_MAILBOX_PORT, S3 $LAMINA_S3_PORT; data $TMP"
 
   step "start services" services_start

@@ -12,6 +12,7 @@ import { activePracticeIds, auditInPractices, choosePractice, currentSessionVers
 import { ServiceError } from '@/lib/services/errors';
 import { UserSchema } from '@/entities';
 import { laminaAdapter } from './adapter';
+import { decodeSessionToken, encodeSessionToken } from './session-token';
 import { originFrom } from './origin';
 import { safeReturnPath } from '@/lib/security/return-path';
 import { headers } from 'next/headers';
@@ -26,6 +27,8 @@ import { headers } from 'next/headers';
 export const authOptions: NextAuthOptions = {
   secret: env.NEXTAUTH_SECRET,
   session: { strategy: 'jwt', maxAge: 12 * 60 * 60 },
+  // next-auth's token format, its key derived once (lib/auth/session-token.ts)
+  jwt: { encode: encodeSessionToken, decode: decodeSessionToken },
   // Secure (and __Secure-/__Host- prefixed) session cookies whenever the public URL is https.
   useSecureCookies: env.https,
   pages: { signIn: '/sign-in', verifyRequest: '/sign-in/check-email', error: '/sign-in' },

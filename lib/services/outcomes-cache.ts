@@ -35,6 +35,15 @@ import { readKnex } from '@/lib/db-read';
  * With a read replica (DATABASE_READ_URL) the version and the changes are read there too, like the
  * rows (full or some): a version from the primary with rows from a lagging replica would keep stale
  * rows under a new version.
+ *
+ * **Bounded lag under a burst of writes** (issue 15, load): every write moves the version on, and
+ * each move makes every view be computed again on all the practice's cases (a few hundred ms each
+ * at 100,000 cases). During a burst (reviews saved every second) that work would hold up every
+ * other request. So a caller may pass `maxLagMs`: rows that moved on less than `maxLagMs` ago are
+ * still served (marked `behind`, with the time they were read), and the warmer advances them in the
+ * background once they are half that old. The rows, and so the figures, then lag the database by at
+ * most `maxLagMs`; with 0 (the default, and what the cohort counts use) they are always current.
+ * After a quiet spell the rows are older than `maxLagMs`, so the first write is seen at once.
  */
 const MAX_PRACTICES = 4;
 /** More changed cases and patients than this since the cached version: read everything again. */
@@ -49,6 +58,15 @@ export interface OutcomeReader {
 interface Entry {
   version: string;
   rows: OutcomeCase[];
+  /** when the version of these rows was read (Date.now()): they hold every change made before */
+  readAt: number;
+}
+
+/** What the rows a request gets describe: the database as it was at `at` (ISO time); `behind` when it has changed since, by at most `maxLagMs`. */
+export interface DataAsOf {
+  at: string;
+  behind: boolean;
+  maxLagMs: number;
 }
 const cache = new Map<string, Entry>();
 const reading = new Map<string, Promise<Entry>>();
@@ -73,14 +91,28 @@ export async function outcomesDataVersion(em: EntityManager, practiceId: string)
   return String(row?.version ?? 0);
 }
 
-/** The practice's rows and their data version, from the cache when the version is unchanged, else refreshed through `reader`. */
-export async function cachedOutcomeCases(em: EntityManager, practiceId: string, reader: OutcomeReader): Promise<{ rows: OutcomeCase[]; version: string }> {
+/**
+ * The practice's rows and their data version, from the cache when the version is unchanged (or, with
+ * `maxLagMs`, when the cached rows were read less than `maxLagMs` ago), else refreshed through `reader`.
+ */
+export async function cachedOutcomeCases(
+  em: EntityManager,
+  practiceId: string,
+  reader: OutcomeReader,
+  maxLagMs = 0,
+): Promise<{ rows: OutcomeCase[]; version: string; asOf: DataAsOf }> {
+  const readAt = Date.now();
   const version = await outcomesDataVersion(em, practiceId);
-  return rowsAt(em, practiceId, version, reader);
+  const hit = cache.get(practiceId);
+  if (hit && hit.version !== version && BigInt(hit.version) < BigInt(version) && readAt - hit.readAt < maxLagMs) {
+    return { rows: hit.rows, version: hit.version, asOf: { at: new Date(hit.readAt).toISOString(), behind: true, maxLagMs } };
+  }
+  const e = await rowsAt(em, practiceId, version, reader, readAt);
+  return { rows: e.rows, version: e.version, asOf: { at: new Date(readAt).toISOString(), behind: false, maxLagMs } };
 }
 
-/** The rows at `version` (just read from the database). */
-function rowsAt(em: EntityManager, practiceId: string, version: string, reader: OutcomeReader): Promise<Entry> | Entry {
+/** The rows at `version` (read from the database at `readAt`). */
+function rowsAt(em: EntityManager, practiceId: string, version: string, reader: OutcomeReader, readAt: number): Promise<Entry> | Entry {
   const hit = cache.get(practiceId);
   if (hit && hit.version === version) {
     cache.delete(practiceId); // most recently used last
@@ -92,7 +124,7 @@ function rowsAt(em: EntityManager, practiceId: string, version: string, reader: 
   if (!pending) {
     pending = refresh(em, practiceId, hit ?? null, version, reader)
       .then((rows) => {
-        const entry = { version, rows };
+        const entry = { version, rows, readAt };
         const current = cache.get(practiceId);
         // a slower read of an older version never replaces a newer one
         if (!current || BigInt(current.version) <= BigInt(version)) {
@@ -192,8 +224,9 @@ export function memoView<T>(practiceId: string, version: string, key: readonly u
  * read or a cold view. Returns how many views it computed.
  */
 export async function warmOutcomes(em: EntityManager, practiceId: string, reader: OutcomeReader): Promise<number> {
+  const readAt = Date.now();
   const version = await outcomesDataVersion(em, practiceId);
-  const { rows } = await rowsAt(em, practiceId, version, reader);
+  const { rows } = await rowsAt(em, practiceId, version, reader, readAt);
   const since = Date.now() - RECENT_MS;
   const mine = [...(recipes.get(practiceId) ?? new Map<string, Recipe>()).entries()].filter(([, r]) => r.at >= since).reverse();
   let computed = 0;
@@ -210,15 +243,27 @@ export async function warmOutcomes(em: EntityManager, practiceId: string, reader
   return computed;
 }
 
-/** The practices whose rows this instance keeps, with their cached versions. */
-export const cachedPractices = (): { practiceId: string; version: string }[] => [...cache.entries()].map(([practiceId, e]) => ({ practiceId, version: e.version }));
+/** The practices whose rows this instance keeps, with their cached versions and when those were read. */
+export const cachedPractices = (): { practiceId: string; version: string; readAt: number }[] =>
+  [...cache.entries()].map(([practiceId, e]) => ({ practiceId, version: e.version, readAt: e.readAt }));
+
+/**
+ * The practices to warm now: those whose database version moved on from the cached one, and whose
+ * rows were read at least `maxLagMs / 2` ago (the requests accept rows up to `maxLagMs` old).
+ */
+export function dueForWarming(held: readonly { practiceId: string; version: string; readAt: number }[], versions: ReadonlyMap<string, string>, now: number, maxLagMs: number): string[] {
+  return held.filter((h) => versions.has(h.practiceId) && versions.get(h.practiceId) !== h.version && now - h.readAt >= maxLagMs / 2).map((h) => h.practiceId);
+}
 
 /**
  * Every `everyMs`, compare the cached practices' versions with the database's (one query) and warm
- * those that moved on (warmOutcomes), one round at a time. The timer does not keep the process
- * alive. Returns a stop function.
+ * those that moved on (warmOutcomes), one round at a time; with `maxLagMs` (what the requests
+ * accept, cachedOutcomeCases), only those whose rows were read at least `maxLagMs / 2` ago, so that
+ * during a burst of writes the rows and the recent views are computed again about twice per
+ * `maxLagMs` rather than after every write. The timer does not keep the process alive. Returns a
+ * stop function.
  */
-export function startOutcomesWarmer(getEm: () => Promise<EntityManager>, reader: OutcomeReader, everyMs: number, onError: (e: unknown) => void): () => void {
+export function startOutcomesWarmer(getEm: () => Promise<EntityManager>, reader: OutcomeReader, everyMs: number, onError: (e: unknown) => void, maxLagMs = 0): () => void {
   let busy = false;
   const tick = async () => {
     if (busy) return;
@@ -228,10 +273,8 @@ export function startOutcomesWarmer(getEm: () => Promise<EntityManager>, reader:
       if (!held.length) return;
       const em = await getEm();
       const now = (await knexOf(em).select('practice_id', 'version').from('outcomes_data_version').whereIn('practice_id', held.map((h) => h.practiceId))) as { practice_id: string; version: string | number }[];
-      for (const h of held) {
-        const v = now.find((r) => r.practice_id === h.practiceId);
-        if (v && String(v.version) !== h.version) await warmOutcomes(await getEm(), h.practiceId, reader);
-      }
+      const versions = new Map(now.map((r) => [r.practice_id, String(r.version)]));
+      for (const practiceId of dueForWarming(held, versions, Date.now(), maxLagMs)) await warmOutcomes(await getEm(), practiceId, reader);
     } catch (e) {
       onError(e);
     } finally {

@@ -1,4 +1,5 @@
 import 'server-only';
+import type { DataAsOf } from './outcomes-cache';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
 import { writeCsv } from '@/lib/csv/write';
@@ -40,6 +41,8 @@ export type FunnelPoint = Omit<FunnelUnit, 'id'> & {
 export interface FunnelReport {
   filter: OutcomeFilter;
   own: boolean;
+  /** when the figures' rows were read, and whether entries were saved since (lib/services/outcomes-cache.ts) */
+  asOf: DataAsOf;
   clinicians: { id: string; name: string }[];
   measure: FunnelMeasure;
   measureLabel: string;
@@ -73,7 +76,7 @@ export function funnelOfScope(s: Scope, measure: FunnelMeasure, adjust: 'crude' 
   });
   return {
     filter: s.filter,
-    own: s.own,
+    own: s.own, asOf: s.asOf,
     clinicians: s.clinicians,
     measure,
     measureLabel: FUNNEL_MEASURE_LABELS[measure],

@@ -1,4 +1,5 @@
 import 'server-only';
+import type { DataAsOf } from './outcomes-cache';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
 import { writeCsv } from '@/lib/csv/write';
@@ -16,6 +17,8 @@ import { parseInput } from './parse';
 export interface ModelReport {
   filter: OutcomeFilter;
   own: boolean;
+  /** when the figures' rows were read, and whether entries were saved since (lib/services/outcomes-cache.ts) */
+  asOf: DataAsOf;
   clinicians: { id: string; name: string }[];
   /** the choices as read (for the form) */
   chosen: { covariates: FactorKey[]; lesionAs: 'bands' | 'numeric'; paiAs: 'numeric' | 'levels' };
@@ -52,7 +55,7 @@ export async function outcomesModel(em: EntityManager, actor: Actor, raw: unknow
     action: 'outcomes.model_read',
     detail: { ...filterDetail(s.filter), endpoint: q.endpoint, covariates: chosen.covariates.join(','), coxCases: result.cox.cases, logisticCases: result.logistic.cases },
   });
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, chosen, result };
+  return { filter: s.filter, own: s.own, asOf: s.asOf, clinicians: s.clinicians, chosen, result };
 }
 
 const MODEL_WORDS = { cox: 'Cox', logistic: 'Logistic' } as const;

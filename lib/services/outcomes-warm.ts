@@ -16,7 +16,8 @@ import { knexOf, practiceSettings } from './registry-common';
  * - then every OUTCOMES_WARM_MS the cached practices' data versions are compared with the
  *   database's; a practice whose data changed (a write here, in another instance, the worker, an
  *   import) has its rows refreshed (incrementally: lib/services/outcomes-cache.ts) and its recently
- *   asked views computed again, before anyone asks.
+ *   asked views computed again, before anyone asks; while entries are being saved, at most about
+ *   twice per OUTCOMES_MAX_LAG_MS (the lag the requests accept).
  *
  * Nothing here answers a request or writes anything; failures are logged (no health data) and retried
  * at the next tick.
@@ -26,7 +27,7 @@ const g = globalThis as unknown as { __laminaOutcomesWarmer?: () => void };
 export function startOutcomesWarming(): void {
   if (g.__laminaOutcomesWarmer || env.OUTCOMES_WARM_MS === 0) return;
   const onError = (e: unknown) => console.error('[outcomes] warming failed:', e instanceof Error ? e.message : e);
-  g.__laminaOutcomesWarmer = startOutcomesWarmer(requestEm, OUTCOME_READER, env.OUTCOMES_WARM_MS, onError);
+  g.__laminaOutcomesWarmer = startOutcomesWarmer(requestEm, OUTCOME_READER, env.OUTCOMES_WARM_MS, onError, env.OUTCOMES_MAX_LAG_MS);
   void warmAtStart().catch(onError);
 }
 

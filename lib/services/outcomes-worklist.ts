@@ -1,4 +1,5 @@
 import 'server-only';
+import type { DataAsOf } from './outcomes-cache';
 import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import { z } from 'zod';
 import { CaseDecisionSchema, RecallVisitSchema, TreatmentCaseSchema, type CaseDecision } from '@/entities';
@@ -104,6 +105,8 @@ export interface WorklistRow {
 export interface WorklistReport {
   filter: OutcomeFilter;
   own: boolean;
+  /** when the figures' rows were read, and whether entries were saved since (lib/services/outcomes-cache.ts) */
+  asOf: DataAsOf;
   clinicians: { id: string; name: string }[];
   today: CalendarDate;
   /** The rows of this page, in urgency order (the CSV: every row). */
@@ -309,7 +312,7 @@ async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Pro
       canDecide: decides && e.operatorId === actor.userId,
     };
   });
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, today: s.today, rows, total: ordered.length, counts, page, pageSize };
+  return { filter: s.filter, own: s.own, asOf: s.asOf, clinicians: s.clinicians, today: s.today, rows, total: ordered.length, counts, page, pageSize };
 }
 
 /** The worklist for the actor's filter (a clinician: their own cases), in urgency order. Audited. */

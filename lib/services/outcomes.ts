@@ -1,4 +1,5 @@
 import 'server-only';
+import { env } from '@/lib/env';
 import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { can } from '@/lib/auth/permissions';
@@ -7,7 +8,7 @@ import { applyFilter, byFactor, curves, type CurveMethod, type Curves, type Endp
 import type { RecordedReview } from '@/lib/scoring';
 import { levelParams, OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
 import { audit } from './audit';
-import { cachedOutcomeCases, memoView, type OutcomeReader } from './outcomes-cache';
+import { cachedOutcomeCases, memoView, type DataAsOf, type OutcomeReader } from './outcomes-cache';
 import { parseInput } from './parse';
 import { readKnex } from '@/lib/db-read';
 import { knexOf, practiceSettings, todayIn } from './registry-common';
@@ -173,6 +174,8 @@ export interface Scope {
   referrers: { id: string; name: string }[];
   /** the practice's data version the rows are from (lib/services/outcomes-cache.ts) */
   version: string;
+  /** when the rows were read, and whether entries were saved since (bounded lag, OUTCOMES_MAX_LAG_MS) */
+  asOf: DataAsOf;
   /**
    * A view's figures, kept for this data version, today and minimum observation time under `key`
    * (the result must not be changed). `compute` gets the rows (`all`) and must use nothing else
@@ -185,7 +188,7 @@ export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQue
   assertCan(actor, 'outcomes.read');
   const whole = seesWholePractice(actor);
   // the rows come from the per-practice cache while the practice's data version is unchanged
-  const [settings, { rows: all, version }, referrers] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, OUTCOME_READER), practiceReferrers(em, actor)]);
+  const [settings, { rows: all, version, asOf }, referrers] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, OUTCOME_READER, env.OUTCOMES_MAX_LAG_MS), practiceReferrers(em, actor)]);
   const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId, levels: q.levels };
   const today = todayIn(settings.timeZone);
   const minObs = settings.minObservationDays;
@@ -193,7 +196,7 @@ export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQue
   // who treated the practice's cases, from the rows (kept per data version) rather than a scan of the cases
   const operators = memoView(actor.practiceId, version, ['operators'], all, (rows) => [...new Set(rows.map((c) => c.operatorId))]);
   const clinicians = whole ? await practiceClinicians(em, actor, operators) : [{ id: actor.userId, name: actor.name ?? actor.email }];
-  return { filter, own: !whole, today, timeZone: settings.timeZone, minObs, all, clinicians, referrers, version, memo };
+  return { filter, own: !whole, today, timeZone: settings.timeZone, minObs, all, clinicians, referrers, version, asOf, memo };
 }
 
 /**
@@ -239,6 +242,8 @@ async function practiceClinicians(em: EntityManager, actor: Actor, operators: re
 export interface OverviewReport {
   filter: OutcomeFilter;
   own: boolean;
+  /** when the figures' rows were read, and whether entries were saved since (lib/services/outcomes-cache.ts) */
+  asOf: DataAsOf;
   clinicians: { id: string; name: string }[];
   referrers: { id: string; name: string }[];
   overview: Overview;
@@ -258,7 +263,7 @@ async function overviewReport(em: EntityManager, actor: Actor, raw: unknown): Pr
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const { overview: result, practice } = overviewOfScope(s);
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, overview: result, practice };
+  return { filter: s.filter, own: s.own, asOf: s.asOf, clinicians: s.clinicians, referrers: s.referrers, overview: result, practice };
 }
 
 export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
@@ -270,6 +275,8 @@ export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unk
 export interface FactorReport {
   filter: OutcomeFilter;
   own: boolean;
+  /** when the figures' rows were read, and whether entries were saved since (lib/services/outcomes-cache.ts) */
+  asOf: DataAsOf;
   clinicians: { id: string; name: string }[];
   referrers: { id: string; name: string }[];
   factor: FactorKey;
@@ -285,7 +292,7 @@ async function factorReport(em: EntityManager, actor: Actor, raw: unknown): Prom
   const table = factorTableOfScope(s, factor);
   // the same figures (and kept figures) as the curves view split by this factor
   const perLevel = curvesOfScope(s, { endpoint: q.endpoint, method: q.method, factor, stratum: null });
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, factor, table, curves: perLevel };
+  return { filter: s.filter, own: s.own, asOf: s.asOf, clinicians: s.clinicians, referrers: s.referrers, factor, table, curves: perLevel };
 }
 
 export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unknown): Promise<FactorReport> {
@@ -312,6 +319,8 @@ function curvesOfScope(s: Scope, o: { endpoint: Endpoint; method: CurveMethod; f
 export interface CurvesReport {
   filter: OutcomeFilter;
   own: boolean;
+  /** when the figures' rows were read, and whether entries were saved since (lib/services/outcomes-cache.ts) */
+  asOf: DataAsOf;
   clinicians: { id: string; name: string }[];
   referrers: { id: string; name: string }[];
   curves: Curves;
@@ -324,7 +333,7 @@ async function curvesReport(em: EntityManager, actor: Actor, raw: unknown): Prom
   const stratum = (q.stratum ?? null) as FactorKey | null;
   const result = curvesOfScope(s, { endpoint: q.endpoint, method: q.method, factor, stratum });
   const detail = { ...filterDetail(s.filter), endpoint: q.endpoint, method: result.method, ...(factor ? { factor } : {}), ...(result.stratum ? { stratum: result.stratum } : {}) };
-  return { filter: s.filter, own: s.own, clinicians: s.clinicians, referrers: s.referrers, curves: result, detail };
+  return { filter: s.filter, own: s.own, asOf: s.asOf, clinicians: s.clinicians, referrers: s.referrers, curves: result, detail };
 }
 
 export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport> {

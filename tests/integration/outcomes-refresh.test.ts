@@ -1,9 +1,9 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
 import { createCase, updateCase } from '@/lib/services/cases';
 import { archivePatient, createPatient } from '@/lib/services/patients';
 import { outcomesByFactor, outcomesCsv, outcomesCurves, outcomesOverview, OUTCOME_READER, readOutcomeCases } from '@/lib/services/outcomes';
-import { cachedOutcomeCases, invalidateOutcomeCases, lastOutcomesRefresh, warmOutcomes } from '@/lib/services/outcomes-cache';
+import { cachedOutcomeCases, cachedPractices, dueForWarming, invalidateOutcomeCases, lastOutcomesRefresh, warmOutcomes } from '@/lib/services/outcomes-cache';
 import { outcomesFunnel } from '@/lib/services/outcomes-funnel';
 import { outcomesModel } from '@/lib/services/outcomes-model';
 import { outcomesReportData } from '@/lib/services/outcomes-report';
@@ -67,7 +67,8 @@ async function views() {
     report: await outcomesReportData(em(), lead(), { factor: 'clinician' }, NOW),
     csv: await outcomesCsv(em(), lead(), 'overview', {}),
   };
-  return JSON.parse(JSON.stringify(out)) as unknown;
+  // the figures, without when their rows were read (asOf: a time, checked below)
+  return JSON.parse(JSON.stringify(out, (k, v: unknown) => (k === 'asOf' ? undefined : v))) as unknown;
 }
 
 /** After `write`, the views through the cache equal the views of a fresh full read; returns how the cache refreshed. */
@@ -162,5 +163,62 @@ describe('outcomes cache after a write (incremental refresh)', () => {
     expect(lastOutcomesRefresh()).toMatchObject({ kind: 'full', reason: 'bulk' });
     const { refresh } = await expectFreshAfter(() => updateCase(services.em(), world.clinician, cases[5]!, { lesionDiameterMm: 2 }));
     expect(refresh).toMatchObject({ kind: 'partial' }); // the next single change is small again
+  });
+});
+
+describe('bounded lag while entries are being saved (issue 15, load)', () => {
+  const LAG = 60_000;
+  const read = (maxLagMs: number) => cachedOutcomeCases(services.em(), world.practice.id, OUTCOME_READER, maxLagMs);
+
+  it('rows read less than maxLagMs ago are served after a write, marked behind; older ones, or maxLagMs 0, are brought up to date', async () => {
+    invalidateOutcomeCases();
+    const t0 = Date.now();
+    const clock = vi.spyOn(Date, 'now').mockReturnValue(t0);
+    try {
+      const before = await read(LAG);
+      expect(before.asOf).toEqual({ at: new Date(t0).toISOString(), behind: false, maxLagMs: LAG });
+      await createReview(services.em(), world.clinician, cases[8]!, { reviewDate: addDaysTo(today, -1), toothStatus: 'present', paiScore: 1, lesionDiameterMm: 0 });
+
+      clock.mockReturnValue(t0 + LAG - 1);
+      const lagging = await read(LAG);
+      expect(lagging.version).toBe(before.version);
+      expect(lagging.rows).toBe(before.rows);
+      expect(lagging.asOf).toEqual({ at: new Date(t0).toISOString(), behind: true, maxLagMs: LAG });
+
+      // the same moment without a lag allowed (the cohort counts): the write is there
+      const current = await read(0);
+      expect(BigInt(current.version)).toBe(BigInt(before.version) + 1n);
+      expect(current.asOf.behind).toBe(false);
+      invalidateOutcomeCases();
+      expect(current.rows).toEqual(await readOutcomeCases(services.em(), world.practice.id));
+
+      // rows read maxLagMs ago are not served behind: the first request after a quiet spell sees the write
+      await read(0);
+      const quiet = cachedPractices().find((p) => p.practiceId === world.practice.id)!;
+      await createReview(services.em(), world.clinician, cases[8]!, { reviewDate: today, toothStatus: 'present', paiScore: 1, lesionDiameterMm: 0 });
+      clock.mockReturnValue(quiet.readAt + LAG);
+      const after = await read(LAG);
+      expect(BigInt(after.version)).toBe(BigInt(quiet.version) + 1n);
+      expect(after.asOf).toEqual({ at: new Date(quiet.readAt + LAG).toISOString(), behind: false, maxLagMs: LAG });
+    } finally {
+      clock.mockRestore();
+    }
+  });
+
+  it('the warmer takes a practice whose version moved on once its rows are half the lag old', () => {
+    const held = [
+      { practiceId: 'a', version: '7', readAt: 1_000 },
+      { practiceId: 'b', version: '3', readAt: 1_000 },
+      { practiceId: 'c', version: '9', readAt: 40_000 },
+    ];
+    const versions = new Map([
+      ['a', '8'], // moved on, read 30 s ago: due
+      ['b', '3'], // unchanged
+      ['c', '10'], // moved on, read 1 s ago: not yet
+    ]);
+    expect(dueForWarming(held, versions, 31_000, LAG)).toEqual(['a']);
+    expect(dueForWarming(held, versions, 30_999, LAG)).toEqual([]);
+    expect(dueForWarming(held, versions, 41_000, 0)).toEqual(['a', 'c']); // no lag allowed: every practice that moved on
+    expect(dueForWarming(held, new Map(), 99_000, 0)).toEqual([]); // a practice gone from the database
   });
 });

@@ -15,7 +15,7 @@ export default async function OutcomesOverviewPage({ searchParams }: { searchPar
   const { data, problems, own } = await viewData(actor, () => outcomesOverview(em, actor, filters));
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="overview" referrers={data?.referrers} />
+      <OutcomesHeader current="/outcomes" asOf={data?.asOf} filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="overview" referrers={data?.referrers} />
       {!data && <Notice tone="alert">Some filters need attention; nothing is shown until they are corrected.</Notice>}
       {data && <OverviewFigures o={data.overview} idPrefix="selection" title={data.own ? 'Your cases' : 'The cases chosen'} />}
       {data?.practice && <OverviewFigures o={data.practice} idPrefix="practice" title="The practice overall" />}

@@ -47,7 +47,7 @@ describe('the report with nothing to show', () => {
       practice: null,
       factorLabel: 'Treatment kind',
       factorTable: byFactor([], 'kind', 365),
-      funnel: { filter: {}, own: false, clinicians: [], measure: 'm12', measureLabel: 'strict success at 12 months', adjust: 'adjusted', adjustShown: 'crude', practice: f.practice, cases: 0, model: null, modelNote: f.modelNote, points: [], curve: [], literature: [], caution: FUNNEL_CAUTION },
+      funnel: { filter: {}, own: false, asOf: { at: '2026-12-02T10:30:00.000Z', behind: false, maxLagMs: 0 }, clinicians: [], measure: 'm12', measureLabel: 'strict success at 12 months', adjust: 'adjusted', adjustShown: 'crude', practice: f.practice, cases: 0, model: null, modelNote: f.modelNote, points: [], curve: [], literature: [], caution: FUNNEL_CAUTION },
       methods: methodsParagraphs(365),
     });
     expect(pdf.subarray(0, 5).toString('latin1')).toBe('%PDF-');

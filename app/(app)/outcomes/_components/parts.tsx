@@ -3,8 +3,10 @@ import type { ReactNode } from 'react';
 import { CASE_KINDS, CASE_KIND_LABELS, type CaseKind } from '@/lib/registry/case-kinds';
 import { FACTOR_KEYS, FACTORS, levelLabel, NO_REFERRER, type FactorKey, type OutcomeFilter, type Rate } from '@/lib/outcomes';
 import { Caution } from '@/components/ui/Caution';
+import { Notice } from '@/components/ui/Notice';
 import { fmtDate } from '@/components/ui/format';
 import { ReportButton } from './ReportButton';
+import type { DataAsOf } from '@/lib/services/outcomes-cache';
 
 export const FILTER_KEYS = ['from', 'to', 'clinician', 'kind'] as const;
 /** Level filters in the URL: `f.<factor>=<code>[,<code>…]` (lib/schemas/outcomes.ts validates them). */
@@ -227,6 +229,7 @@ export function OutcomesHeader({
   problems,
   csvView,
   referrers,
+  asOf,
 }: {
   current: (typeof VIEWS)[number]['href'];
   filters: Record<string, string>;
@@ -236,6 +239,8 @@ export function OutcomesHeader({
   csvView: CsvView;
   /** to name referrer level filters on the chips (the reports carry them) */
   referrers?: { id: string; name: string }[];
+  /** when the figures' rows were read: a note when entries were saved since (the reports carry it) */
+  asOf?: DataAsOf;
 }) {
   const keep = sharedFilters(filters);
   const chips = filterChips(current, filters, { clinicians, referrers, own });
@@ -337,6 +342,11 @@ export function OutcomesHeader({
           Filter {k}: {messages[0]}
         </p>
       ))}
+      {asOf?.behind && (
+        <Notice tone="info">
+          Entries are being saved as you read: these figures may leave out those of the last {Math.max(1, Math.round(asOf.maxLagMs / 1000))} seconds, and catch up on their own.
+        </Notice>
+      )}
       <Caution text="Figures from the findings as entered, for the practice’s audit. They support clinical judgement and do not replace it; small groups vary by chance." />
     </div>
   );

@@ -42,7 +42,7 @@ export default async function OutcomesCliniciansPage({ searchParams }: { searchP
   const rows = data ? tableRows(data) : [];
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/clinicians" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="funnel" />
+      <OutcomesHeader current="/outcomes/clinicians" asOf={data?.asOf} filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="funnel" />
       {!data && <Notice tone="alert">Some choices need attention; nothing is shown until they are corrected.{problems.measure?.[0] ? ` ${problems.measure[0]}` : ''}{problems.adjust?.[0] ? ` ${problems.adjust[0]}` : ''}</Notice>}
       {data && (
         <section aria-labelledby="funnel-title" className="space-y-4">

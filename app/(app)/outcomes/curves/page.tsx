@@ -27,7 +27,7 @@ export default async function OutcomesCurvesPage({ searchParams }: { searchParam
   }));
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/curves" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="curves" referrers={data?.referrers} />
+      <OutcomesHeader current="/outcomes/curves" asOf={data?.asOf} filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="curves" referrers={data?.referrers} />
       <form method="get" action="/outcomes/curves" aria-label="Choose the curves" className="flex flex-wrap items-end gap-3">
         <HiddenFilters filters={filters} />
         <ChoiceSelect id="curves-endpoint" name="endpoint" value={c?.endpoint ?? filters.endpoint ?? 'healing'} options={ENDPOINT_CHOICES} label="Endpoint" problems={problems} />

@@ -18,7 +18,7 @@ export default async function OutcomesFactorPage({ searchParams }: { searchParam
   const canFilter = factor !== 'clinician' || !own;
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/factor" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="factor" referrers={data?.referrers} />
+      <OutcomesHeader current="/outcomes/factor" asOf={data?.asOf} filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="factor" referrers={data?.referrers} />
       <form method="get" action="/outcomes/factor" aria-label="Choose a factor" className="flex flex-wrap items-end gap-3">
         <HiddenFilters filters={filters} />
         <ChoiceSelect id="outcomes-factor" name="factor" value={factor} options={FACTOR_CHOICES} label="How do we do by…" problems={problems} />

@@ -132,7 +132,7 @@ export default async function OutcomesModelPage({ searchParams }: { searchParams
   );
   return (
     <div className="space-y-8">
-      <OutcomesHeader current="/outcomes/model" filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="model" />
+      <OutcomesHeader current="/outcomes/model" asOf={data?.asOf} filters={filters} clinicians={data?.clinicians ?? []} own={own} problems={problems} csvView="model" />
       <form method="get" action="/outcomes/model" aria-label="Choose the factors" className="card space-y-4">
         {FILTER_KEYS.map((k) => filters[k] && <input key={k} type="hidden" name={k} value={filters[k]} />)}
         <fieldset>

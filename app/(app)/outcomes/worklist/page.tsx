@@ -43,6 +43,7 @@ export default async function OutcomesWorklistPage({ searchParams }: { searchPar
     <div className="space-y-8">
       <OutcomesHeader
         current="/outcomes/worklist"
+        asOf={data?.asOf}
         filters={filters}
         clinicians={data?.clinicians ?? []}
         own={own}
