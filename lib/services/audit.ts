@@ -1,4 +1,5 @@
 import 'server-only';
+import { randomUUID } from 'node:crypto';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { AuditEventSchema, type AuditEvent } from '@/entities';
 import type { Knex } from '@mikro-orm/knex';
@@ -34,6 +35,29 @@ export async function audit(em: EntityManager, actor: Actor | null, input: Audit
   } as AuditEvent);
   await em.persist(event).flush();
   return event;
+}
+
+/**
+ * Records who saw what, for a read: the same row as `audit`, written by one plain insert (in the
+ * request's transaction, if any) without the unit of work, which a read has nothing to flush in
+ * but would still compare every entity it loaded (issue 15, load). Writes use `audit`, so their
+ * event is flushed with their changes.
+ */
+export async function auditRead(em: EntityManager, actor: Actor, input: AuditInput): Promise<void> {
+  await knexOf(em)('audit_event').insert({
+    id: randomUUID(),
+    at: new Date(),
+    practice_id: actor.practiceId,
+    actor_id: actor.userId,
+    actor_email: actor.email,
+    action: input.action,
+    entity_type: input.entityType ?? null,
+    entity_id: input.entityId ?? null,
+    // as JSON text: the driver would send a JS array as a PostgreSQL array
+    detail: input.detail === undefined ? null : JSON.stringify(input.detail),
+    ip: actor.ip ?? null,
+    user_agent: actor.userAgent?.slice(0, 300) ?? null,
+  });
 }
 
 /** One event as the audit trail shows it: plain words, the person and the record named. */

@@ -10,6 +10,7 @@ import { linkWaitMessage, passwordWaitMessage, signInThrottle, type ThrottlePoli
 import { audit, type AuditInput } from './audit';
 import { RateLimitedError, ServiceError } from './errors';
 import { isServiceUnavailable } from './unavailable';
+import { knexOf } from './registry-common';
 
 export const WRONG_CREDENTIALS = 'Wrong e-mail or password.';
 export const SIGN_IN_UNAVAILABLE = 'Sign-in is paused for a moment: Lamina cannot reach the store that limits password tries. Your account is fine. Try again in a minute.';
@@ -108,29 +109,39 @@ export async function resolveSession(
   origin: Origin,
   claims: SessionClaims,
 ): Promise<SessionState> {
-  const user = await em.findOne(UserSchema, { id: userId });
-  if (!user || claims.sessionVersion == null || user.sessionVersion !== claims.sessionVersion) return { kind: 'none' };
-  const memberships = await em.find(
-    MembershipSchema,
-    { user: userId, revokedAt: null },
-    { populate: ['practice'], orderBy: { practice: { name: 'asc' }, role: 'asc' } },
-  );
+  // one lean read on every request: the user's session version and live memberships with their practices' names
+  const rows = (await knexOf(em)('app_user as u')
+    .leftJoin('membership as m', (j) => j.on('m.user_id', 'u.id').andOnNull('m.revoked_at'))
+    .leftJoin('practice as p', 'p.id', 'm.practice_id')
+    .where('u.id', userId)
+    .orderBy([{ column: 'p.name' }, { column: 'm.role' }])
+    .select('u.email', 'u.name', 'u.session_version', 'm.role', 'p.id as practice_id', 'p.name as practice_name')) as {
+    email: string;
+    name: string | null;
+    session_version: number;
+    role: string | null;
+    practice_id: string | null;
+    practice_name: string | null;
+  }[];
+  const user = rows[0];
+  if (!user || claims.sessionVersion == null || user.session_version !== claims.sessionVersion) return { kind: 'none' };
+  const memberships = rows.filter((r) => r.practice_id !== null && r.role !== null);
   if (memberships.length === 0) return { kind: 'none' };
   const practices: PracticeChoice[] = [];
   for (const m of memberships) {
-    if (!practices.some((p) => p.id === m.practice.id)) practices.push({ id: m.practice.id, name: m.practice.$.name });
+    if (!practices.some((p) => p.id === m.practice_id)) practices.push({ id: m.practice_id!, name: m.practice_name! });
   }
   const chosen = practices.find((p) => p.id === claims.practiceId) ?? (practices.length === 1 ? practices[0] : undefined);
   if (!chosen) return { kind: 'choose_practice', userId, practices };
   const roles = memberships
-    .filter((m) => m.practice.id === chosen.id)
+    .filter((m) => m.practice_id === chosen.id)
     .map((m) => m.role)
     .filter(isRole) as Role[];
   return {
     kind: 'actor',
     practices,
     actor: {
-      userId: user.id,
+      userId,
       email: user.email,
       name: user.name ?? null,
       practiceId: chosen.id,

@@ -7,7 +7,7 @@ import { CASE_KIND_LABELS, fieldsFor, type Canal, type CaseCreate, type CaseFiel
 import type { VisitStatus } from '@/lib/recall';
 import { FILL_LENGTH_LABELS, OUTCOME_LABELS, SCORING_CAUTION, fillLengthClass, type FillLengthClass, type ReviewOutcome } from '@/lib/scoring';
 import { formatTooth, toothInfo, type ToothGroup, type ToothNotation } from '@/lib/teeth';
-import { audit } from './audit';
+import { auditRead } from './audit';
 import { displayName, findCase, practiceSettings, todayIn, type PracticeSettings } from './registry-common';
 import { referrerView, type ReferrerView } from './referrers';
 import { caseReviews, type ReviewView } from './reviews';
@@ -85,7 +85,7 @@ export async function getCase(em: EntityManager, actor: Actor, id: string): Prom
   assertCan(actor, 'patient.read');
   const c = await findCase(em, actor, id);
   const detail = await caseDetail(em, c, await practiceSettings(em, actor.practiceId));
-  await audit(em, actor, { action: 'case.read', entityType: 'case', entityId: c.id, detail: { patientId: c.patient.id } });
+  await auditRead(em, actor, { action: 'case.read', entityType: 'case', entityId: c.id, detail: { patientId: c.patient.id } });
   return detail;
 }
 

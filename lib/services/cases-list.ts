@@ -10,7 +10,7 @@ import { CASE_KINDS, CASE_KIND_LABELS, type CaseKind } from '@/lib/schemas/case'
 import { VISIT_STATUSES, VISIT_STATUS_LABELS, type VisitStatus } from '@/lib/recall';
 import { currentOutcome, type FillLengthClass, type ReviewOutcome } from '@/lib/scoring';
 import { TOOTH_GROUPS, formatTooth, toothInfo, toothNotationLabel, type ToothGroup, type ToothNotation } from '@/lib/teeth';
-import { audit } from './audit';
+import { auditRead } from './audit';
 import { parseInput } from './parse';
 import {
   ArchivedFilter,
@@ -147,7 +147,7 @@ export async function listCases(em: EntityManager, actor: Actor, raw: unknown): 
   const f = parseInput(CaseListQuery, raw);
   const settings = await practiceSettings(em, actor.practiceId);
   const result = await queryCases(em, actor.practiceId, f, settings.toothNotation);
-  await audit(em, actor, {
+  await auditRead(em, actor, {
     action: 'case.list',
     entityType: 'case',
     detail: {

@@ -11,7 +11,7 @@ import { FILM_ROLE_LABELS, SPACING_SOURCE_LABELS, type FilmRole, type FilmVarian
 import { FilmUploadFields } from '@/lib/schemas/film';
 import type { FilmCalibration, FilmPoint } from '@/lib/films/calibration';
 import { deleteObjects, getObject, putObject } from '@/lib/storage/s3';
-import { audit } from './audit';
+import { audit, auditRead } from './audit';
 import { NotFoundError, ServiceError, ValidationError } from './errors';
 import { UnavailableError } from './unavailable';
 import { parseInput } from './parse';
@@ -131,7 +131,7 @@ export async function listFilms(em: EntityManager, actor: Actor, caseId: string)
   assertCan(actor, 'film.read');
   const c = await findCase(em, actor, caseId);
   const films = await em.find(FilmSchema, { case: c.id, practice: actor.practiceId, archivedAt: null }, { orderBy: { createdAt: 'desc', id: 'asc' } });
-  await audit(em, actor, { action: 'film.list', entityType: 'case', entityId: c.id, detail: { films: films.length } });
+  await auditRead(em, actor, { action: 'film.list', entityType: 'case', entityId: c.id, detail: { films: films.length } });
   return { films: await views(em, films), maxBytes: filmMaxBytes() };
 }
 
@@ -317,7 +317,7 @@ export async function readFilmFile(em: EntityManager, actor: Actor, filmId: stri
   const key = variant === 'thumbnail' ? film.thumbnailKey : variant === 'web' ? film.webKey : film.originalKey;
   const body = await getObject(key);
   if (!body) throw new NotFoundError('The film’s file is missing from storage.');
-  await audit(em, actor, { action: 'film.viewed', entityType: 'case', entityId: film.case.id, detail: { film: film.id, variant } });
+  await auditRead(em, actor, { action: 'film.viewed', entityType: 'case', entityId: film.case.id, detail: { film: film.id, variant } });
   const contentType =
     variant === 'thumbnail' ? 'image/jpeg' : variant === 'web' ? (film.webKey.endsWith('.png') ? 'image/png' : 'image/jpeg') : film.contentType;
   return {

@@ -39,10 +39,10 @@ import { readKnex } from '@/lib/db-read';
  * **Bounded lag under a burst of writes** (issue 15, load): every write moves the version on, and
  * each move makes every view be computed again on all the practice's cases (a few hundred ms each
  * at 100,000 cases). During a burst (reviews saved every second) that work would hold up every
- * other request. So a caller may pass `maxLagMs`: rows that moved on less than `maxLagMs` ago are
- * still served (marked `behind`, with the time they were read), and the warmer advances them in the
- * background once they are half that old. The rows, and so the figures, then lag the database by at
- * most `maxLagMs`; with 0 (the default, and what the cohort counts use) they are always current.
+ * other request. So a caller may pass `maxLagMs`: rows read less than `maxLagMs` ago are still
+ * served after the version moved on (marked `behind`, with the time they were read), and the warmer
+ * advances them in the background just before they are that old (dueForWarming). The rows, and so
+ * the figures, then lag the database by at most `maxLagMs`; with 0 (the default, and what the cohort counts use) they are always current.
  * After a quiet spell the rows are older than `maxLagMs`, so the first write is seen at once.
  */
 const MAX_PRACTICES = 4;
@@ -249,17 +249,26 @@ export const cachedPractices = (): { practiceId: string; version: string; readAt
 
 /**
  * The practices to warm now: those whose database version moved on from the cached one, and whose
- * rows were read at least `maxLagMs / 2` ago (the requests accept rows up to `maxLagMs` old).
+ * rows are old enough that a request could soon stop accepting them: read at least `maxLagMs`
+ * less two ticks (`everyMs`) ago, and at least half `maxLagMs` ago (the requests accept rows up to
+ * `maxLagMs` old). So during a burst the rows advance about once per `maxLagMs`, in the background.
  */
-export function dueForWarming(held: readonly { practiceId: string; version: string; readAt: number }[], versions: ReadonlyMap<string, string>, now: number, maxLagMs: number): string[] {
-  return held.filter((h) => versions.has(h.practiceId) && versions.get(h.practiceId) !== h.version && now - h.readAt >= maxLagMs / 2).map((h) => h.practiceId);
+export function dueForWarming(
+  held: readonly { practiceId: string; version: string; readAt: number }[],
+  versions: ReadonlyMap<string, string>,
+  now: number,
+  maxLagMs: number,
+  everyMs: number,
+): string[] {
+  const age = Math.max(maxLagMs / 2, maxLagMs - 2 * everyMs);
+  return held.filter((h) => versions.has(h.practiceId) && versions.get(h.practiceId) !== h.version && now - h.readAt >= age).map((h) => h.practiceId);
 }
 
 /**
  * Every `everyMs`, compare the cached practices' versions with the database's (one query) and warm
  * those that moved on (warmOutcomes), one round at a time; with `maxLagMs` (what the requests
- * accept, cachedOutcomeCases), only those whose rows were read at least `maxLagMs / 2` ago, so that
- * during a burst of writes the rows and the recent views are computed again about twice per
+ * accept, cachedOutcomeCases), only once their rows are nearly that old (dueForWarming), so that
+ * during a burst of writes the rows and the recent views are computed again about once per
  * `maxLagMs` rather than after every write. The timer does not keep the process alive. Returns a
  * stop function.
  */
@@ -274,7 +283,7 @@ export function startOutcomesWarmer(getEm: () => Promise<EntityManager>, reader:
       const em = await getEm();
       const now = (await knexOf(em).select('practice_id', 'version').from('outcomes_data_version').whereIn('practice_id', held.map((h) => h.practiceId))) as { practice_id: string; version: string | number }[];
       const versions = new Map(now.map((r) => [r.practice_id, String(r.version)]));
-      for (const practiceId of dueForWarming(held, versions, Date.now(), maxLagMs)) await warmOutcomes(await getEm(), practiceId, reader);
+      for (const practiceId of dueForWarming(held, versions, Date.now(), maxLagMs, everyMs)) await warmOutcomes(await getEm(), practiceId, reader);
     } catch (e) {
       onError(e);
     } finally {

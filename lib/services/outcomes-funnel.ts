@@ -17,7 +17,7 @@ import {
   type LiteratureLine,
 } from '@/lib/outcomes/funnel';
 import { OutcomeFunnelQuery } from '@/lib/schemas/outcomes';
-import { audit } from './audit';
+import { audit, auditRead } from './audit';
 import { filterDetail, scope, type Scope } from './outcomes';
 import { parseInput } from './parse';
 
@@ -97,7 +97,7 @@ export async function outcomesFunnel(em: EntityManager, actor: Actor, raw: unkno
   const q = parseInput(OutcomeFunnelQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const r = funnelOfScope(s, q.measure, q.adjust, actor.userId);
-  await audit(em, actor, { action: 'outcomes.funnel_read', detail: { ...filterDetail(s.filter), measure: q.measure, adjust: r.adjustShown, clinicians: r.points.length } });
+  await auditRead(em, actor, { action: 'outcomes.funnel_read', detail: { ...filterDetail(s.filter), measure: q.measure, adjust: r.adjustShown, clinicians: r.points.length } });
   return r;
 }
 

@@ -6,7 +6,7 @@ import { writeCsv } from '@/lib/csv/write';
 import { applyFilter, type FactorKey, type OutcomeFilter } from '@/lib/outcomes';
 import { DEFAULT_COVARIATES, EPV_MIN, multivariable, type CovariateChoice, type ModelFit, type Multivariable } from '@/lib/outcomes/model';
 import { OutcomeModelQuery } from '@/lib/schemas/outcomes-model';
-import { audit } from './audit';
+import { audit, auditRead } from './audit';
 import { filterDetail, levelNamer, scope } from './outcomes';
 import { parseInput } from './parse';
 
@@ -51,7 +51,7 @@ async function compute(em: EntityManager, actor: Actor, raw: unknown) {
 
 export async function outcomesModel(em: EntityManager, actor: Actor, raw: unknown): Promise<ModelReport> {
   const { s, q, result, chosen } = await compute(em, actor, raw);
-  await audit(em, actor, {
+  await auditRead(em, actor, {
     action: 'outcomes.model_read',
     detail: { ...filterDetail(s.filter), endpoint: q.endpoint, covariates: chosen.covariates.join(','), coxCases: result.cox.cases, logisticCases: result.logistic.cases },
   });

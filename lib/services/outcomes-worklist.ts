@@ -33,7 +33,7 @@ import { DecisionInput } from '@/lib/schemas/outcomes-worklist';
 import { Paging } from '@/lib/schemas/paging';
 import { defaultWindow } from '@/lib/schemas/recall-policy';
 import { formatTooth } from '@/lib/teeth';
-import { audit } from './audit';
+import { audit, auditRead } from './audit';
 import { createCase } from './cases-commands';
 import { ConflictError, ForbiddenError, ValidationError } from './errors';
 import { currentReviewsJson, filterDetail, recordedReviews, scope, seesWholePractice, type ReviewJson } from './outcomes';
@@ -318,7 +318,7 @@ async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Pro
 /** The worklist for the actor's filter (a clinician: their own cases), in urgency order. Audited. */
 export async function outcomesWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
   const report = await buildWorklist(em, actor, raw);
-  await audit(em, actor, { action: 'outcomes.worklist_read', detail: { ...filterDetail(report.filter), cases: report.total, page: report.page, rows: report.rows.length } });
+  await auditRead(em, actor, { action: 'outcomes.worklist_read', detail: { ...filterDetail(report.filter), cases: report.total, page: report.page, rows: report.rows.length } });
   return report;
 }
 
@@ -639,7 +639,7 @@ export async function caseDecisions(em: EntityManager, actor: Actor, caseId: str
       knexOf(em).raw('coalesce(u.name, u.email) as by'),
       knexOf(em).raw('exists (select 1 from case_decision n where n.replaces_id = d.id) as replaced'),
     )) as { id: string; step: NextStep; date: string; note: string | null; created_at: Date; review_date: string; linked_case_id: string | null; visit_id: string | null; by: string; replaced: boolean }[];
-  await audit(em, actor, { action: 'outcomes.decisions_read', entityType: 'case', entityId: c.id, detail: { decisions: rows.length } });
+  await auditRead(em, actor, { action: 'outcomes.decisions_read', entityType: 'case', entityId: c.id, detail: { decisions: rows.length } });
   return rows.map((r) => ({
     id: r.id,
     step: r.step,

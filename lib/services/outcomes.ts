@@ -7,7 +7,7 @@ import { writeCsv } from '@/lib/csv/write';
 import { applyFilter, byFactor, curves, type CurveMethod, type Curves, type Endpoint, FACTORS, NO_REFERRER, overview, type FactorKey, type FactorTable, type OutcomeCase, type OutcomeFilter, type Overview, type Rate } from '@/lib/outcomes';
 import type { RecordedReview } from '@/lib/scoring';
 import { levelParams, OutcomeCurvesQuery, OutcomeFactorQuery, OutcomeFilterQuery } from '@/lib/schemas/outcomes';
-import { audit } from './audit';
+import { audit, auditRead } from './audit';
 import { cachedOutcomeCases, memoView, type DataAsOf, type OutcomeReader } from './outcomes-cache';
 import { parseInput } from './parse';
 import { readKnex } from '@/lib/db-read';
@@ -268,7 +268,7 @@ async function overviewReport(em: EntityManager, actor: Actor, raw: unknown): Pr
 
 export async function outcomesOverview(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
   const r = await overviewReport(em, actor, raw);
-  await audit(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(r.filter), cases: r.overview.cases } });
+  await auditRead(em, actor, { action: 'outcomes.overview_read', detail: { ...filterDetail(r.filter), cases: r.overview.cases } });
   return r;
 }
 
@@ -297,7 +297,7 @@ async function factorReport(em: EntityManager, actor: Actor, raw: unknown): Prom
 
 export async function outcomesByFactor(em: EntityManager, actor: Actor, raw: unknown): Promise<FactorReport> {
   const r = await factorReport(em, actor, raw);
-  await audit(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(r.filter), factor: r.factor } });
+  await auditRead(em, actor, { action: 'outcomes.factor_read', detail: { ...filterDetail(r.filter), factor: r.factor } });
   return r;
 }
 
@@ -338,7 +338,7 @@ async function curvesReport(em: EntityManager, actor: Actor, raw: unknown): Prom
 
 export async function outcomesCurves(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport> {
   const { detail, ...r } = await curvesReport(em, actor, raw);
-  await audit(em, actor, { action: 'outcomes.curves_read', detail });
+  await auditRead(em, actor, { action: 'outcomes.curves_read', detail });
   return r;
 }
 

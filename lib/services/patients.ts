@@ -6,7 +6,7 @@ import { patientSearchSql, PatientSchema, UserSchema, type Patient } from '@/ent
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { Paging } from '@/lib/schemas/paging';
 import { PatientCreateSchema, PatientUpdateSchema, recallConsent, type PatientCreate, type RecallChannel, type Sex } from '@/lib/schemas/patient';
-import { audit } from './audit';
+import { audit, auditRead } from './audit';
 import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
 import { ArchivedFilter, SearchText, SortDir, assertId, displayName, likeWord, pageOffset, presentKeys, searchWords, whereArchived, type Page } from './registry-common';
@@ -149,7 +149,7 @@ export async function findPatient(em: EntityManager, actor: Actor, id: string): 
 export async function getPatient(em: EntityManager, actor: Actor, id: string): Promise<PatientView> {
   assertCan(actor, 'patient.read');
   const patient = await findPatient(em, actor, id);
-  await audit(em, actor, { action: 'patient.read', entityType: 'patient', entityId: patient.id });
+  await auditRead(em, actor, { action: 'patient.read', entityType: 'patient', entityId: patient.id });
   return patientView(em, patient);
 }
 

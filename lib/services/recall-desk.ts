@@ -27,7 +27,7 @@ import { addDaysTo, daysInMonth } from '@/lib/registry/calendar-date';
 import { Paging } from '@/lib/schemas/paging';
 import { formatTooth, toothNotationLabel } from '@/lib/teeth';
 import type { ReminderStatus } from '@/entities';
-import { audit } from './audit';
+import { audit, auditRead } from './audit';
 import { ConflictError } from './errors';
 import { parseInput } from './parse';
 import {
@@ -191,7 +191,7 @@ export async function deskQueues(em: EntityManager, actor: Actor, raw: unknown =
   const row = (await base.first(
     parts.map((c, i) => knex.raw(`count(*) filter (where ${c.sql}) as "${DESK_QUEUES[i]}"`, c.bindings as Knex.RawBinding[])),
   )) as Record<DeskQueue, string>;
-  await audit(em, actor, { action: 'recall.queues_read', ...(q.clinician ? { detail: { clinician: q.clinician } } : {}) });
+  await auditRead(em, actor, { action: 'recall.queues_read', ...(q.clinician ? { detail: { clinician: q.clinician } } : {}) });
   return {
     today: s.today,
     clinician: q.clinician ?? null,
@@ -267,7 +267,7 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
       .offset(pageOffset(q)) as Promise<{ id: string }[]>,
   ]);
   const rows = await deskRowsByIds(em, s, ids.map((r) => r.id));
-  await audit(em, actor, {
+  await auditRead(em, actor, {
     action: 'recall.rows_read',
     detail: { queue: q.queue, page: q.page, ...(q.clinician ? { clinician: q.clinician } : {}), visitIds: rows.map((r) => r.visitId) },
   });
@@ -714,7 +714,7 @@ export async function callList(em: EntityManager, actor: Actor, raw: unknown = {
   if (q.clinician) base.where('c.operator_id', q.clinician);
   const ids = (await base.select('v.id').orderBy([{ column: 'v.due_date' }, { column: 'p.family_name' }, { column: 'v.id' }]).limit(CALL_LIST_MAX + 1)) as { id: string }[];
   const rows = await deskRowsByIds(em, s, ids.slice(0, CALL_LIST_MAX).map((r) => r.id));
-  await audit(em, actor, { action: 'recall.call_list_read', detail: { ...(q.clinician ? { clinician: q.clinician } : {}), visitIds: rows.map((r) => r.visitId) } });
+  await auditRead(em, actor, { action: 'recall.call_list_read', detail: { ...(q.clinician ? { clinician: q.clinician } : {}), visitIds: rows.map((r) => r.visitId) } });
   return {
     today: s.today,
     practiceName: s.practiceName,

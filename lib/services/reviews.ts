@@ -24,7 +24,7 @@ import {
   type ReviewAssessment,
   type ReviewOutcome,
 } from '@/lib/scoring';
-import { audit } from './audit';
+import { audit, auditRead } from './audit';
 import { ConflictError, NotFoundError, ValidationError } from './errors';
 import { parseInput } from './parse';
 import { assertClinician, assertId, bodyId, findCase, practiceSettings, todayIn } from './registry-common';
@@ -113,7 +113,7 @@ export async function listReviews(em: EntityManager, actor: Actor, caseId: strin
   assertCan(actor, 'patient.read');
   const c = await findCase(em, actor, caseId);
   const result = await caseReviews(em, c.id);
-  await audit(em, actor, { action: 'review.list', entityType: 'case', entityId: c.id });
+  await auditRead(em, actor, { action: 'review.list', entityType: 'case', entityId: c.id });
   return result;
 }
 

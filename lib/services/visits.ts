@@ -23,7 +23,7 @@ import {
   type VisitStatusChanges,
 } from '@/lib/recall';
 import { calendarDate, text } from '@/lib/registry/fields';
-import { audit } from './audit';
+import { audit, auditRead } from './audit';
 import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
 import { assertId, findCase, knexOf, practiceSettings, todayIn } from './registry-common';
@@ -90,7 +90,7 @@ export async function listVisits(em: EntityManager, actor: Actor, caseId: string
   assertCan(actor, 'patient.read');
   const c = await findCase(em, actor, caseId);
   const [visits, settings] = await Promise.all([loadVisits(em, c.id), practiceSettings(em, actor.practiceId)]);
-  await audit(em, actor, { action: 'visit.list', entityType: 'case', entityId: c.id });
+  await auditRead(em, actor, { action: 'visit.list', entityType: 'case', entityId: c.id });
   return visitViews(em, visits, todayIn(settings.timeZone));
 }
 

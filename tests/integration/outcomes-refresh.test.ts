@@ -205,20 +205,24 @@ describe('bounded lag while entries are being saved (issue 15, load)', () => {
     }
   });
 
-  it('the warmer takes a practice whose version moved on once its rows are half the lag old', () => {
+  it('the warmer takes a practice whose version moved on once its rows are nearly as old as the lag allows', () => {
+    const TICK = 2_000;
     const held = [
       { practiceId: 'a', version: '7', readAt: 1_000 },
       { practiceId: 'b', version: '3', readAt: 1_000 },
       { practiceId: 'c', version: '9', readAt: 40_000 },
     ];
     const versions = new Map([
-      ['a', '8'], // moved on, read 30 s ago: due
+      ['a', '8'], // moved on, read 56 s ago (the lag less two ticks): due
       ['b', '3'], // unchanged
-      ['c', '10'], // moved on, read 1 s ago: not yet
+      ['c', '10'], // moved on, read 17 s ago: not yet
     ]);
-    expect(dueForWarming(held, versions, 31_000, LAG)).toEqual(['a']);
-    expect(dueForWarming(held, versions, 30_999, LAG)).toEqual([]);
-    expect(dueForWarming(held, versions, 41_000, 0)).toEqual(['a', 'c']); // no lag allowed: every practice that moved on
-    expect(dueForWarming(held, new Map(), 99_000, 0)).toEqual([]); // a practice gone from the database
+    expect(dueForWarming(held, versions, 57_000, LAG, TICK)).toEqual(['a']);
+    expect(dueForWarming(held, versions, 56_999, LAG, TICK)).toEqual([]);
+    // ticks as long as the lag: half the lag
+    expect(dueForWarming(held, versions, 31_000, LAG, LAG)).toEqual(['a']);
+    expect(dueForWarming(held, versions, 30_999, LAG, LAG)).toEqual([]);
+    expect(dueForWarming(held, versions, 41_000, 0, TICK)).toEqual(['a', 'c']); // no lag allowed: every practice that moved on
+    expect(dueForWarming(held, new Map(), 99_000, 0, TICK)).toEqual([]); // a practice gone from the database
   });
 });
