@@ -47,6 +47,76 @@ function vm(pid: number): { hwm: number; rss: number } | null {
   }
 }
 
+/** CPU time (user + system, ms) of a process so far, from /proc (Linux); null once it is gone. */
+function cpuMs(pid: number): number | null {
+  try {
+    const stat = fs.readFileSync(`/proc/${pid}/stat`, 'utf8');
+    const f = stat.slice(stat.lastIndexOf(')') + 2).split(' ');
+    return ((Number(f[11]) + Number(f[12])) * 1000) / 100; // clock ticks (USER_HZ 100)
+  } catch {
+    return null;
+  }
+}
+
+/** Children of a process (PostgreSQL's backends under its postmaster). */
+function childrenOf(ppid: number): number[] {
+  const out: number[] = [];
+  for (const name of fs.readdirSync('/proc')) {
+    if (!/^\d+$/.test(name)) continue;
+    try {
+      const stat = fs.readFileSync(`/proc/${name}/stat`, 'utf8');
+      if (Number(stat.slice(stat.lastIndexOf(')') + 2).split(' ')[1]) === ppid) out.push(Number(name));
+    } catch {
+      // gone meanwhile
+    }
+  }
+  return out;
+}
+
+const readPid = (file: string): number | null => {
+  try {
+    return Number(fs.readFileSync(file, 'utf8').split('\n')[0]) || null;
+  } catch {
+    return null;
+  }
+};
+
+/**
+ * The processes of this run whose CPU time is counted per message: the worker, the mail fake (its
+ * pid from /health), PostgreSQL (postmaster and backends, from its pid file) and Redis (pid file).
+ */
+async function processGroups(workerPid: number): Promise<Record<string, number[]>> {
+  const data = process.env.LAMINA_DATA;
+  const health = (await fetch(new URL('/health', mailboxUrl)).then((r) => r.json()).catch(() => null)) as { pid?: number } | null;
+  const postmaster = data ? readPid(path.join(data, 'pg', 'postmaster.pid')) : null;
+  const redis = data ? readPid(path.join(data, 'redis', 'redis.pid')) : null;
+  return {
+    worker: [workerPid],
+    'mail fake': health?.pid ? [health.pid] : [],
+    PostgreSQL: postmaster ? [postmaster, ...childrenOf(postmaster)] : [],
+    Redis: redis ? [redis] : [],
+  };
+}
+
+/** CPU ms per process so far, by pid (processes of the groups, PostgreSQL's backends read again). */
+async function cpuSnapshot(workerPid: number): Promise<Map<string, Map<number, number>>> {
+  const out = new Map<string, Map<number, number>>();
+  for (const [group, pids] of Object.entries(await processGroups(workerPid))) {
+    const m = new Map<number, number>();
+    for (const pid of pids) {
+      const ms = cpuMs(pid);
+      if (ms !== null) m.set(pid, ms);
+    }
+    out.set(group, m);
+  }
+  return out;
+}
+
+/** CPU ms used between two snapshots, per group (a process that appeared in between counts from 0; one that exited is lost). */
+function cpuBetween(a: Map<string, Map<number, number>>, b: Map<string, Map<number, number>>): [string, number][] {
+  return [...b].map(([group, pids]) => [group, [...pids].reduce((sum, [pid, ms]) => sum + ms - (a.get(group)?.get(pid) ?? 0), 0)]);
+}
+
 /** Message-IDs and recipients the fake stored: from its directory when known (fast), else its API. */
 async function storedMessages(): Promise<{ messageId: string | null; rcptTo: string[] }[]> {
   const dir = process.env.LAMINA_DATA ? path.join(process.env.LAMINA_DATA, 'mail', 'messages') : null;
@@ -61,6 +131,33 @@ async function storedMessages(): Promise<{ messageId: string | null; rcptTo: str
   }
   const res = await fetch(new URL(`/messages?limit=10000`, mailboxUrl), { headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
   return ((await res.json()) as { messageId: string | null; envelope: { rcptTo: string[] } }[]).map((m) => ({ messageId: m.messageId, rcptTo: m.envelope.rcptTo }));
+}
+
+/**
+ * BENCH_PG_STATEMENTS=1 (with LAMINA_PG_OPTS='-c shared_preload_libraries=pg_stat_statements'): the
+ * statements PostgreSQL ran while sending, by total time (the extension is created in the bench's database).
+ */
+const pgStatements = process.env.BENCH_PG_STATEMENTS === '1';
+
+type Statements = Map<string, { calls: number; ms: number; rows: number; query: string }>;
+
+async function readStatements(knex: Knex): Promise<Statements> {
+  const rows = (await knex.raw(
+    `select queryid::text as id, calls, total_exec_time as ms, rows, regexp_replace(left(query, 150), '\\s+', ' ', 'g') as query
+       from pg_stat_statements where dbid = (select oid from pg_database where datname = current_database())`,
+  )) as { rows: { id: string; calls: string; ms: number; rows: string; query: string }[] };
+  return new Map(rows.rows.map((r) => [r.id, { calls: Number(r.calls), ms: r.ms, rows: Number(r.rows), query: r.query }]));
+}
+
+/** The 15 statements that took the most time between two readings (nested ones included: track=all). */
+function topStatements(a: Statements, b: Statements): string {
+  const d = [...b].map(([id, s]) => ({ ...s, calls: s.calls - (a.get(id)?.calls ?? 0), ms: s.ms - (a.get(id)?.ms ?? 0), rows: s.rows - (a.get(id)?.rows ?? 0) }));
+  return d
+    .filter((s) => s.calls > 0)
+    .sort((x, y) => y.ms - x.ms)
+    .slice(0, 15)
+    .map((s) => `${s.ms.toFixed(0).padStart(7)} ms ${String(s.calls).padStart(7)} calls ${(s.ms / s.calls).toFixed(3).padStart(8)} ms/call ${String(s.rows).padStart(8)} rows  ${s.query}`)
+    .join('\n');
 }
 
 async function main() {
@@ -94,13 +191,21 @@ async function main() {
     let queuedAt: number | null = null;
     let firstSentAt: number | null = null;
     let peak = { hwm: 0, rss: 0 };
+    let cpuAtFirst: Map<string, Map<number, number>> | null = null;
+    let sentAtFirst = 0;
+    let statementsAtFirst: Statements | null = null;
     const deadline = started + 30 * 60_000;
     for (;;) {
       const rows = (await knex('reminder').groupBy('status').select('status').count('* as n')) as { status: string; n: string }[];
       const by = Object.fromEntries(rows.map((r) => [r.status, Number(r.n)]));
       const total = Object.values(by).reduce((a, b) => a + b, 0);
       if (queuedAt === null && total >= N) queuedAt = performance.now();
-      if (firstSentAt === null && (by.sent ?? 0) > 0) firstSentAt = performance.now();
+      if (firstSentAt === null && (by.sent ?? 0) > 0) {
+        firstSentAt = performance.now();
+        if (pgStatements) statementsAtFirst = await readStatements(knex);
+        cpuAtFirst = await cpuSnapshot(child.pid!);
+        sentAtFirst = by.sent ?? 0;
+      }
       const v = vm(child.pid!);
       if (v) peak = { hwm: Math.max(peak.hwm, v.hwm), rss: Math.max(peak.rss, v.rss) };
       if ((by.sent ?? 0) >= N) break;
@@ -113,6 +218,8 @@ async function main() {
       await sleep(100);
     }
     const done = performance.now();
+    const cpuAtDone = await cpuSnapshot(child.pid!);
+    const statements = statementsAtFirst ? topStatements(statementsAtFirst, await readStatements(knex)) : null;
     const final = vm(child.pid!);
     if (final) peak = { hwm: Math.max(peak.hwm, final.hwm), rss: Math.max(peak.rss, final.rss) };
     child.kill('SIGTERM');
@@ -137,6 +244,10 @@ async function main() {
       ['end to end (worker start → last message)', s(done - started)],
       ['throughput, sending', `${(N / (sendMs / 1000)).toFixed(1)} messages/s`],
       ['throughput, end to end', `${(N / ((done - started) / 1000)).toFixed(1)} messages/s`],
+      [
+        'CPU per message while sending (ms)',
+        cpuAtFirst ? cpuBetween(cpuAtFirst, cpuAtDone).map(([g, ms]) => `${g} ${(ms / Math.max(1, N - sentAtFirst)).toFixed(2)}`).join(', ') : '—',
+      ],
       ['worker peak RSS (VmHWM)', `${(peak.hwm / 1024).toFixed(0)} MB`],
       ['messages stored by the SMTP fake', stored.length.toLocaleString('en-GB')],
       ['outbox rows sent', rowsSent.toLocaleString('en-GB')],
@@ -149,6 +260,7 @@ async function main() {
     console.log(`| ${'measure'.padEnd(w)} | value |`);
     console.log(`| ${'-'.repeat(w)} | ----- |`);
     for (const [k, v] of table) console.log(`| ${k.padEnd(w)} | ${v} |`);
+    if (statements) console.log(`\nPostgreSQL statements while sending (pg_stat_statements), by total time:\n${statements}`);
     if (duplicates !== 0 || missing !== 0 || rowsSent !== N || stored.length !== N) process.exitCode = 1;
   } finally {
     await orm.close(true);
