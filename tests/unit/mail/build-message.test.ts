@@ -6,7 +6,8 @@ import { buildMessage } from '@/jobs/mail';
 // envelope must be those nodemailer's own sendMail writes. The reference is nodemailer's stream
 // transport (`buffer: true`: the message sendMail would put on the wire, CRLF line ends), with
 // the date and the MIME boundaries fixed so that two builds can be compared byte for byte.
-const base: SendMailOptions = {
+/** `baseBoundary`: nodemailer's option (not in its types) that fixes the MIME boundaries. */
+const base: SendMailOptions & { baseBoundary: string } = {
   from: { name: 'Harbour & Söhne Endodontics', address: 'no-reply@lamina.invalid' },
   to: 'rowan.mere@patients.example.invalid',
   subject: 'Your review – March 2026 (ünïcödé, a long subject that has to be folded over more than one header line)',
