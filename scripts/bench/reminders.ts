@@ -4,9 +4,13 @@
  * fake — with the throughput, the worker's peak memory and the number of duplicates (must be 0).
  *
  * Run by scripts/bench.sh (throwaway PostgreSQL, Redis and SMTP fake; DATABASE_URL, REDIS_URL,
- * SMTP_URL, MAILBOX_URL and LAMINA_DATA exported). BENCH_REMINDERS (default 10000) and
- * BENCH_CONCURRENCY (the worker's WORKER_CONCURRENCY, default 8) and SMTP_MAX_CONNECTIONS (default: the concurrency)
- * change the size; BENCH_WORKER_NODE_ARGS adds Node flags to the worker (e.g. `--cpu-prof --cpu-prof-dir=DIR`). Exits 1 if a reminder is missing or duplicated.
+ * SMTP_URL, MAILBOX_URL and LAMINA_DATA exported). BENCH_REMINDERS (default 10000),
+ * BENCH_CONCURRENCY (the worker's WORKER_CONCURRENCY, its default when unset), SMTP_MAX_CONNECTIONS
+ * (default: the concurrency) and BENCH_WORKERS (worker processes on one queue, default 1; pool and
+ * concurrency are per process) change the size; BENCH_WORKER_NODE_ARGS adds Node flags to the
+ * worker (e.g. `--cpu-prof --cpu-prof-dir=DIR`). Also printed: the CPU time per message of the
+ * worker(s), the mail fake, PostgreSQL and Redis while sending. Exits 1 if a reminder is missing
+ * or duplicated.
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
@@ -24,6 +28,8 @@ const N = Number(process.env.BENCH_REMINDERS ?? 10_000);
 // The worker's own settings (jobs/config.ts): its defaults unless BENCH_CONCURRENCY / SMTP_MAX_CONNECTIONS say otherwise.
 const workerConfig = readWorkerConfig({ WORKER_CONCURRENCY: process.env.BENCH_CONCURRENCY, SMTP_MAX_CONNECTIONS: process.env.SMTP_MAX_CONNECTIONS });
 const CONCURRENCY = workerConfig.concurrency;
+const WORKERS = Number(process.env.BENCH_WORKERS ?? 1);
+if (!Number.isInteger(WORKERS) || WORKERS < 1 || WORKERS > 8) throw new Error('BENCH_WORKERS: 1 to 8 worker processes');
 const repo = path.resolve(import.meta.dirname, '../..');
 const mailboxUrl = process.env.MAILBOX_URL;
 if (!process.env.DATABASE_URL || !process.env.REDIS_URL || !process.env.SMTP_URL || !mailboxUrl) {
@@ -85,13 +91,13 @@ const readPid = (file: string): number | null => {
  * The processes of this run whose CPU time is counted per message: the worker, the mail fake (its
  * pid from /health), PostgreSQL (postmaster and backends, from its pid file) and Redis (pid file).
  */
-async function processGroups(workerPid: number): Promise<Record<string, number[]>> {
+async function processGroups(workerPids: number[]): Promise<Record<string, number[]>> {
   const data = process.env.LAMINA_DATA;
   const health = (await fetch(new URL('/health', mailboxUrl)).then((r) => r.json()).catch(() => null)) as { pid?: number } | null;
   const postmaster = data ? readPid(path.join(data, 'pg', 'postmaster.pid')) : null;
   const redis = data ? readPid(path.join(data, 'redis', 'redis.pid')) : null;
   return {
-    worker: [workerPid],
+    worker: workerPids,
     'mail fake': health?.pid ? [health.pid] : [],
     PostgreSQL: postmaster ? [postmaster, ...childrenOf(postmaster)] : [],
     Redis: redis ? [redis] : [],
@@ -99,9 +105,9 @@ async function processGroups(workerPid: number): Promise<Record<string, number[]
 }
 
 /** CPU ms per process so far, by pid (processes of the groups, PostgreSQL's backends read again). */
-async function cpuSnapshot(workerPid: number): Promise<Map<string, Map<number, number>>> {
+async function cpuSnapshot(workerPids: number[]): Promise<Map<string, Map<number, number>>> {
   const out = new Map<string, Map<number, number>>();
-  for (const [group, pids] of Object.entries(await processGroups(workerPid))) {
+  for (const [group, pids] of Object.entries(await processGroups(workerPids))) {
     const m = new Map<number, number>();
     for (const pid of pids) {
       const ms = cpuMs(pid);
@@ -170,22 +176,31 @@ async function main() {
     const seedS = (performance.now() - t0) / 1000;
     await fetch(new URL('/messages', mailboxUrl), { method: 'DELETE', headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
 
-    const child = spawn(process.execPath, [...(process.env.BENCH_WORKER_NODE_ARGS ? process.env.BENCH_WORKER_NODE_ARGS.split(' ') : []), '--import', 'tsx', 'jobs/worker.ts'], {
-      cwd: repo,
-      env: {
-        ...process.env,
-        TSX_TSCONFIG_PATH: 'scripts/tsconfig.json',
-        QUEUE_PREFIX: `lamina-bench-${randomBytes(3).toString('hex')}`,
-        WORKER_CONCURRENCY: String(CONCURRENCY),
-        SMTP_MAX_CONNECTIONS: String(smtpPoolOf(workerConfig)),
-        RECALL_SCAN_ON_START: '1',
-      },
-      stdio: ['ignore', 'pipe', 'pipe'],
-    });
+    // BENCH_WORKERS worker processes (default 1) on one queue, as a deployment may run them; the
+    // first scans at start.
+    const prefix = `lamina-bench-${randomBytes(3).toString('hex')}`;
+    const children = Array.from({ length: WORKERS }, (_, i) =>
+      spawn(process.execPath, [...(process.env.BENCH_WORKER_NODE_ARGS ? process.env.BENCH_WORKER_NODE_ARGS.split(' ') : []), '--import', 'tsx', 'jobs/worker.ts'], {
+        cwd: repo,
+        env: {
+          ...process.env,
+          TSX_TSCONFIG_PATH: 'scripts/tsconfig.json',
+          QUEUE_PREFIX: prefix,
+          WORKER_NAME: `bench-${i + 1}`,
+          WORKER_CONCURRENCY: String(CONCURRENCY),
+          SMTP_MAX_CONNECTIONS: String(smtpPoolOf(workerConfig)),
+          RECALL_SCAN_ON_START: i === 0 ? '1' : '0',
+        },
+        stdio: ['ignore', 'pipe', 'pipe'],
+      }),
+    );
     let log = '';
-    child.stdout.on('data', (d: Buffer) => (log += d.toString()));
-    child.stderr.on('data', (d: Buffer) => (log += d.toString()));
-    const exited = new Promise<number | null>((r) => child.on('exit', (code) => r(code)));
+    for (const child of children) {
+      child.stdout.on('data', (d: Buffer) => (log += d.toString()));
+      child.stderr.on('data', (d: Buffer) => (log += d.toString()));
+    }
+    const exited = Promise.all(children.map((child) => new Promise<number | null>((r) => child.on('exit', (code) => r(code)))));
+    const pids = children.map((c) => c.pid!);
     const started = performance.now();
 
     let queuedAt: number | null = null;
@@ -203,27 +218,31 @@ async function main() {
       if (firstSentAt === null && (by.sent ?? 0) > 0) {
         firstSentAt = performance.now();
         if (pgStatements) statementsAtFirst = await readStatements(knex);
-        cpuAtFirst = await cpuSnapshot(child.pid!);
+        cpuAtFirst = await cpuSnapshot(pids);
         sentAtFirst = by.sent ?? 0;
       }
-      const v = vm(child.pid!);
-      if (v) peak = { hwm: Math.max(peak.hwm, v.hwm), rss: Math.max(peak.rss, v.rss) };
+      for (const pid of pids) {
+        const v = vm(pid);
+        if (v) peak = { hwm: Math.max(peak.hwm, v.hwm), rss: Math.max(peak.rss, v.rss) };
+      }
       if ((by.sent ?? 0) >= N) break;
-      if ((by.failed ?? 0) + (by.skipped ?? 0) > 0 || child.exitCode !== null || performance.now() > deadline) {
-        console.error(`bench/reminders: stopped early: ${JSON.stringify(by)}, worker exit ${child.exitCode}\n${log.slice(-3000)}`);
-        child.kill('SIGKILL');
+      if ((by.failed ?? 0) + (by.skipped ?? 0) > 0 || children.some((c) => c.exitCode !== null) || performance.now() > deadline) {
+        console.error(`bench/reminders: stopped early: ${JSON.stringify(by)}, worker exit ${children.map((c) => c.exitCode).join(', ')}\n${log.slice(-3000)}`);
+        for (const c of children) c.kill('SIGKILL');
         process.exitCode = 1;
         return;
       }
       await sleep(100);
     }
     const done = performance.now();
-    const cpuAtDone = await cpuSnapshot(child.pid!);
+    const cpuAtDone = await cpuSnapshot(pids);
     const statements = statementsAtFirst ? topStatements(statementsAtFirst, await readStatements(knex)) : null;
-    const final = vm(child.pid!);
-    if (final) peak = { hwm: Math.max(peak.hwm, final.hwm), rss: Math.max(peak.rss, final.rss) };
-    child.kill('SIGTERM');
-    const code = await exited;
+    for (const pid of pids) {
+      const final = vm(pid);
+      if (final) peak = { hwm: Math.max(peak.hwm, final.hwm), rss: Math.max(peak.rss, final.rss) };
+    }
+    for (const c of children) c.kill('SIGTERM');
+    const codes = await exited;
 
     const stored = await storedMessages();
     const counts = new Map<string, number>();
@@ -237,7 +256,7 @@ async function main() {
     const sendMs = done - (firstSentAt ?? started);
     const table: [string, string][] = [
       ['reminders (visits due, one practice)', N.toLocaleString('en-GB')],
-      ['worker concurrency / SMTP pool', `${CONCURRENCY} / ${smtpPoolOf(workerConfig)}`],
+      ['worker processes × concurrency / SMTP pool', `${WORKERS} × ${CONCURRENCY} / ${smtpPoolOf(workerConfig)}`],
       ['seed (patients, cases, visits)', `${seedS.toFixed(1)} s`],
       ['worker start → all 10,000 rows queued (scan)'.replace('10,000', N.toLocaleString('en-GB')), queuedAt ? s(queuedAt - started) : '—'],
       ['first message → last message', s(sendMs)],
@@ -248,12 +267,12 @@ async function main() {
         'CPU per message while sending (ms)',
         cpuAtFirst ? cpuBetween(cpuAtFirst, cpuAtDone).map(([g, ms]) => `${g} ${(ms / Math.max(1, N - sentAtFirst)).toFixed(2)}`).join(', ') : '—',
       ],
-      ['worker peak RSS (VmHWM)', `${(peak.hwm / 1024).toFixed(0)} MB`],
+      [WORKERS > 1 ? 'worker peak RSS (VmHWM, the larger)' : 'worker peak RSS (VmHWM)', `${(peak.hwm / 1024).toFixed(0)} MB`],
       ['messages stored by the SMTP fake', stored.length.toLocaleString('en-GB')],
       ['outbox rows sent', rowsSent.toLocaleString('en-GB')],
       ['duplicates (same Message-ID twice)', String(duplicates)],
       ['missing (patients without a message)', String(missing)],
-      ['worker exit after SIGTERM', String(code)],
+      ['worker exit after SIGTERM', codes.join(', ')],
     ];
     const w = Math.max(...table.map(([k]) => k.length));
     console.log(`\nreminders end to end — real worker, PostgreSQL, Redis, SMTP fake\n`);
