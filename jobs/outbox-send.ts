@@ -15,9 +15,9 @@
  */
 import { DelayedError, UnrecoverableError, type Job } from 'bullmq';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import type { SendMailOptions, Transporter } from 'nodemailer';
+import type { SendMailOptions } from 'nodemailer';
 import { knexOf } from '@/lib/services/registry-common';
-import type { DeliveryCheck } from './mail';
+import type { DeliveryCheck, ReminderTransport } from './mail';
 
 /** The outbox tables whose rows a mail job claims (status, claim_expires_at, last_error, attempts). */
 export type OutboxTable = 'reminder' | 'referrer_message';
@@ -56,7 +56,7 @@ export async function delayJob(job: Job | undefined, token: string | undefined, 
 export interface MailJobContext {
   /** A fresh EntityManager fork per call. */
   em: () => EntityManager;
-  transport: Pick<Transporter, 'sendMail'>;
+  transport: Pick<ReminderTransport, 'sendMail'>;
   /** Asks the relay whether it holds a Message-ID (local fake only); see jobs/send-reminder.ts. */
   deliveryCheck?: DeliveryCheck;
   appUrl: string;

@@ -175,6 +175,16 @@ interface ClaimItem {
 }
 
 /**
+ * A PostgreSQL array literal of row ids (knex would spread a JS array into several bindings). With
+ * `id = any(cast(? as uuid[]))` beside the join on jsonb_to_recordset (which the planner guesses at
+ * 100 rows), a batched statement reaches its rows by the primary key instead of scanning the table.
+ */
+function uuidArray(ids: readonly string[]): string {
+  for (const id of ids) if (!/^[0-9a-f-]{36}$/i.test(id)) throw new Error('uuidArray: not a uuid');
+  return `{${ids.join(',')}}`;
+}
+
+/**
  * queued → sending (or an expired claim taken over) for several rows in one UPDATE; true for each
  * row this call claimed. Each row is claimed only if it is still as read and, at that instant, its
  * visit still needs contact and the patient still agrees to e-mail: PostgreSQL locks each row and
@@ -186,11 +196,11 @@ async function claimRows(ctx: SendContext, items: readonly ClaimItem[]): Promise
     `update reminder r set status = 'sending', attempts = r.attempts + 1, claim_expires_at = x.expires, updated_at = x.at
        from jsonb_to_recordset(cast(? as jsonb)) as x(id uuid, status text, claim timestamptz, expires timestamptz, at timestamptz),
             recall_visit v, treatment_case c, patient p
-      where r.id = x.id and r.status = x.status and r.claim_expires_at is not distinct from x.claim
+      where r.id = any(cast(? as uuid[])) and r.id = x.id and r.status = x.status and r.claim_expires_at is not distinct from x.claim
         and v.id = r.visit_id and c.id = v.case_id and p.id = c.patient_id
         and v.status in ${CONTACT_STATUSES_SQL} and r.round = v.reminder_round and ${EMAIL_CONSENT_SQL}
       returning r.id`,
-    [JSON.stringify(items.map((i) => ({ ...i, claim: i.claim === null ? null : new Date(i.claim).toISOString() })))],
+    [JSON.stringify(items.map((i) => ({ ...i, claim: i.claim === null ? null : new Date(i.claim).toISOString() }))), uuidArray(items.map((i) => i.id))],
   )) as { rows: { id: string }[] };
   const won = new Set(claimed.rows.map((r) => r.id));
   return items.map((i) => won.delete(i.id));
@@ -408,7 +418,7 @@ async function finishRows(ctx: SendContext, items: readonly FinishItem[]): Promi
        r as (
          update reminder t set status = 'sent', message_id = x.message_id, sent_at = x.at, sent_on = x.sent_on, claim_expires_at = null, last_error = null, updated_at = x.at
            from x
-          where t.id = x.id and t.status = 'sending'
+          where t.id = any(cast(? as uuid[])) and t.id = x.id and t.status = 'sending'
           returning t.id, t.practice_id, t.visit_id, t.step, x.at, x.at_status, x.how, x.sent_log, x.status_log, x.audit),
        b as (select v.id, v.status, v.case_id from recall_visit v join r on v.id = r.visit_id order by v.id for update of v),
        v as (
@@ -431,7 +441,7 @@ async function finishRows(ctx: SendContext, items: readonly FinishItem[]): Promi
          insert into audit_event (id, "at", practice_id, action, entity_type, entity_id, detail)
          select r.audit, r.at, r.practice_id, 'recall.reminder_sent', 'visit', r.visit_id::text, jsonb_build_object('reminderId', r.id, 'step', r.step, 'how', r.how) from r)
        select (select count(*) from r)::int as updated, (select count(*) from v)::int as visits`,
-      [JSON.stringify(rows), SENT.status, SENT.reinviteNeeded ?? false, SENT.status],
+      [JSON.stringify(rows), uuidArray(now.map((i) => i.id)), SENT.status, SENT.reinviteNeeded ?? false, SENT.status],
     );
   }
   // The case's next-visit summary is kept by the statement-level triggers on recall_visit

@@ -45,6 +45,10 @@ export NODE_ENV=production CI=true
 NEXTAUTH_SECRET="$(random_secret)"
 export NEXTAUTH_SECRET
 services_start
+if [[ "${LAMINA_PG_OPTS:-}" == *pg_stat_statements* ]]; then
+  # The reminders bench reads it (BENCH_PG_STATEMENTS=1); creating it needs the superuser.
+  pg_psql -d "$LAMINA_DB_NAME" -c 'create extension if not exists pg_stat_statements'
+fi
 lamina_migrate
 if grep -l 'bench: needs the production build' "${benches[@]}" >/dev/null; then
   export NEXT_DIST_DIR="${LAMINA_BENCH_DIST_DIR:-.next-bench}"

@@ -4,9 +4,13 @@
  * fake — with the throughput, the worker's peak memory and the number of duplicates (must be 0).
  *
  * Run by scripts/bench.sh (throwaway PostgreSQL, Redis and SMTP fake; DATABASE_URL, REDIS_URL,
- * SMTP_URL, MAILBOX_URL and LAMINA_DATA exported). BENCH_REMINDERS (default 10000) and
- * BENCH_CONCURRENCY (the worker's WORKER_CONCURRENCY, default 8) and SMTP_MAX_CONNECTIONS (default: the concurrency)
- * change the size; BENCH_WORKER_NODE_ARGS adds Node flags to the worker (e.g. `--cpu-prof --cpu-prof-dir=DIR`). Exits 1 if a reminder is missing or duplicated.
+ * SMTP_URL, MAILBOX_URL and LAMINA_DATA exported). BENCH_REMINDERS (default 10000),
+ * BENCH_CONCURRENCY (the worker's WORKER_CONCURRENCY, its default when unset), SMTP_MAX_CONNECTIONS
+ * (default: the concurrency) and BENCH_WORKERS (worker processes on one queue, default 1; pool and
+ * concurrency are per process) change the size; BENCH_WORKER_NODE_ARGS adds Node flags to the
+ * worker (e.g. `--cpu-prof --cpu-prof-dir=DIR`). Also printed: the CPU time per message of the
+ * worker(s), the mail fake, PostgreSQL and Redis while sending. Exits 1 if a reminder is missing
+ * or duplicated.
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
@@ -24,6 +28,8 @@ const N = Number(process.env.BENCH_REMINDERS ?? 10_000);
 // The worker's own settings (jobs/config.ts): its defaults unless BENCH_CONCURRENCY / SMTP_MAX_CONNECTIONS say otherwise.
 const workerConfig = readWorkerConfig({ WORKER_CONCURRENCY: process.env.BENCH_CONCURRENCY, SMTP_MAX_CONNECTIONS: process.env.SMTP_MAX_CONNECTIONS });
 const CONCURRENCY = workerConfig.concurrency;
+const WORKERS = Number(process.env.BENCH_WORKERS ?? 1);
+if (!Number.isInteger(WORKERS) || WORKERS < 1 || WORKERS > 8) throw new Error('BENCH_WORKERS: 1 to 8 worker processes');
 const repo = path.resolve(import.meta.dirname, '../..');
 const mailboxUrl = process.env.MAILBOX_URL;
 if (!process.env.DATABASE_URL || !process.env.REDIS_URL || !process.env.SMTP_URL || !mailboxUrl) {
@@ -47,6 +53,76 @@ function vm(pid: number): { hwm: number; rss: number } | null {
   }
 }
 
+/** CPU time (user + system, ms) of a process so far, from /proc (Linux); null once it is gone. */
+function cpuMs(pid: number): number | null {
+  try {
+    const stat = fs.readFileSync(`/proc/${pid}/stat`, 'utf8');
+    const f = stat.slice(stat.lastIndexOf(')') + 2).split(' ');
+    return ((Number(f[11]) + Number(f[12])) * 1000) / 100; // clock ticks (USER_HZ 100)
+  } catch {
+    return null;
+  }
+}
+
+/** Children of a process (PostgreSQL's backends under its postmaster). */
+function childrenOf(ppid: number): number[] {
+  const out: number[] = [];
+  for (const name of fs.readdirSync('/proc')) {
+    if (!/^\d+$/.test(name)) continue;
+    try {
+      const stat = fs.readFileSync(`/proc/${name}/stat`, 'utf8');
+      if (Number(stat.slice(stat.lastIndexOf(')') + 2).split(' ')[1]) === ppid) out.push(Number(name));
+    } catch {
+      // gone meanwhile
+    }
+  }
+  return out;
+}
+
+const readPid = (file: string): number | null => {
+  try {
+    return Number(fs.readFileSync(file, 'utf8').split('\n')[0]) || null;
+  } catch {
+    return null;
+  }
+};
+
+/**
+ * The processes of this run whose CPU time is counted per message: the worker, the mail fake (its
+ * pid from /health), PostgreSQL (postmaster and backends, from its pid file) and Redis (pid file).
+ */
+async function processGroups(workerPids: number[]): Promise<Record<string, number[]>> {
+  const data = process.env.LAMINA_DATA;
+  const health = (await fetch(new URL('/health', mailboxUrl)).then((r) => r.json()).catch(() => null)) as { pid?: number } | null;
+  const postmaster = data ? readPid(path.join(data, 'pg', 'postmaster.pid')) : null;
+  const redis = data ? readPid(path.join(data, 'redis', 'redis.pid')) : null;
+  return {
+    worker: workerPids,
+    'mail fake': health?.pid ? [health.pid] : [],
+    PostgreSQL: postmaster ? [postmaster, ...childrenOf(postmaster)] : [],
+    Redis: redis ? [redis] : [],
+  };
+}
+
+/** CPU ms per process so far, by pid (processes of the groups, PostgreSQL's backends read again). */
+async function cpuSnapshot(workerPids: number[]): Promise<Map<string, Map<number, number>>> {
+  const out = new Map<string, Map<number, number>>();
+  for (const [group, pids] of Object.entries(await processGroups(workerPids))) {
+    const m = new Map<number, number>();
+    for (const pid of pids) {
+      const ms = cpuMs(pid);
+      if (ms !== null) m.set(pid, ms);
+    }
+    out.set(group, m);
+  }
+  return out;
+}
+
+/** CPU ms used between two snapshots, per group (a process that appeared in between counts from 0; one that exited is lost). */
+function cpuBetween(a: Map<string, Map<number, number>>, b: Map<string, Map<number, number>>): [string, number][] {
+  return [...b].map(([group, pids]) => [group, [...pids].reduce((sum, [pid, ms]) => sum + ms - (a.get(group)?.get(pid) ?? 0), 0)]);
+}
+
 /** Message-IDs and recipients the fake stored: from its directory when known (fast), else its API. */
 async function storedMessages(): Promise<{ messageId: string | null; rcptTo: string[] }[]> {
   const dir = process.env.LAMINA_DATA ? path.join(process.env.LAMINA_DATA, 'mail', 'messages') : null;
@@ -63,6 +139,33 @@ async function storedMessages(): Promise<{ messageId: string | null; rcptTo: str
   return ((await res.json()) as { messageId: string | null; envelope: { rcptTo: string[] } }[]).map((m) => ({ messageId: m.messageId, rcptTo: m.envelope.rcptTo }));
 }
 
+/**
+ * BENCH_PG_STATEMENTS=1 (with LAMINA_PG_OPTS='-c shared_preload_libraries=pg_stat_statements'): the
+ * statements PostgreSQL ran while sending, by total time (the extension is created in the bench's database).
+ */
+const pgStatements = process.env.BENCH_PG_STATEMENTS === '1';
+
+type Statements = Map<string, { calls: number; ms: number; rows: number; query: string }>;
+
+async function readStatements(knex: Knex): Promise<Statements> {
+  const rows = (await knex.raw(
+    `select queryid::text as id, calls, total_exec_time as ms, rows, regexp_replace(left(query, 150), '\\s+', ' ', 'g') as query
+       from pg_stat_statements where dbid = (select oid from pg_database where datname = current_database())`,
+  )) as { rows: { id: string; calls: string; ms: number; rows: string; query: string }[] };
+  return new Map(rows.rows.map((r) => [r.id, { calls: Number(r.calls), ms: r.ms, rows: Number(r.rows), query: r.query }]));
+}
+
+/** The 15 statements that took the most time between two readings (nested ones included: track=all). */
+function topStatements(a: Statements, b: Statements): string {
+  const d = [...b].map(([id, s]) => ({ ...s, calls: s.calls - (a.get(id)?.calls ?? 0), ms: s.ms - (a.get(id)?.ms ?? 0), rows: s.rows - (a.get(id)?.rows ?? 0) }));
+  return d
+    .filter((s) => s.calls > 0)
+    .sort((x, y) => y.ms - x.ms)
+    .slice(0, 15)
+    .map((s) => `${s.ms.toFixed(0).padStart(7)} ms ${String(s.calls).padStart(7)} calls ${(s.ms / s.calls).toFixed(3).padStart(8)} ms/call ${String(s.rows).padStart(8)} rows  ${s.query}`)
+    .join('\n');
+}
+
 async function main() {
   const orm = await MikroORM.init({ ...config, clientUrl: process.env.DATABASE_URL, pool: { min: 0, max: 2 } });
   const knex = orm.em.getKnex() as Knex;
@@ -73,50 +176,73 @@ async function main() {
     const seedS = (performance.now() - t0) / 1000;
     await fetch(new URL('/messages', mailboxUrl), { method: 'DELETE', headers: mailboxHeaders(process.env.MAILBOX_SECRET) });
 
-    const child = spawn(process.execPath, [...(process.env.BENCH_WORKER_NODE_ARGS ? process.env.BENCH_WORKER_NODE_ARGS.split(' ') : []), '--import', 'tsx', 'jobs/worker.ts'], {
-      cwd: repo,
-      env: {
-        ...process.env,
-        TSX_TSCONFIG_PATH: 'scripts/tsconfig.json',
-        QUEUE_PREFIX: `lamina-bench-${randomBytes(3).toString('hex')}`,
-        WORKER_CONCURRENCY: String(CONCURRENCY),
-        SMTP_MAX_CONNECTIONS: String(smtpPoolOf(workerConfig)),
-        RECALL_SCAN_ON_START: '1',
-      },
-      stdio: ['ignore', 'pipe', 'pipe'],
-    });
+    // BENCH_WORKERS worker processes (default 1) on one queue, as a deployment may run them; the
+    // first scans at start.
+    const prefix = `lamina-bench-${randomBytes(3).toString('hex')}`;
+    const children = Array.from({ length: WORKERS }, (_, i) =>
+      spawn(process.execPath, [...(process.env.BENCH_WORKER_NODE_ARGS ? process.env.BENCH_WORKER_NODE_ARGS.split(' ') : []), '--import', 'tsx', 'jobs/worker.ts'], {
+        cwd: repo,
+        env: {
+          ...process.env,
+          TSX_TSCONFIG_PATH: 'scripts/tsconfig.json',
+          QUEUE_PREFIX: prefix,
+          WORKER_NAME: `bench-${i + 1}`,
+          WORKER_CONCURRENCY: String(CONCURRENCY),
+          SMTP_MAX_CONNECTIONS: String(smtpPoolOf(workerConfig)),
+          RECALL_SCAN_ON_START: i === 0 ? '1' : '0',
+        },
+        stdio: ['ignore', 'pipe', 'pipe'],
+      }),
+    );
     let log = '';
-    child.stdout.on('data', (d: Buffer) => (log += d.toString()));
-    child.stderr.on('data', (d: Buffer) => (log += d.toString()));
-    const exited = new Promise<number | null>((r) => child.on('exit', (code) => r(code)));
+    for (const child of children) {
+      child.stdout.on('data', (d: Buffer) => (log += d.toString()));
+      child.stderr.on('data', (d: Buffer) => (log += d.toString()));
+    }
+    const exited = Promise.all(children.map((child) => new Promise<number | null>((r) => child.on('exit', (code) => r(code)))));
+    const pids = children.map((c) => c.pid!);
     const started = performance.now();
 
     let queuedAt: number | null = null;
     let firstSentAt: number | null = null;
     let peak = { hwm: 0, rss: 0 };
+    let cpuAtFirst: Map<string, Map<number, number>> | null = null;
+    let sentAtFirst = 0;
+    let statementsAtFirst: Statements | null = null;
     const deadline = started + 30 * 60_000;
     for (;;) {
       const rows = (await knex('reminder').groupBy('status').select('status').count('* as n')) as { status: string; n: string }[];
       const by = Object.fromEntries(rows.map((r) => [r.status, Number(r.n)]));
       const total = Object.values(by).reduce((a, b) => a + b, 0);
       if (queuedAt === null && total >= N) queuedAt = performance.now();
-      if (firstSentAt === null && (by.sent ?? 0) > 0) firstSentAt = performance.now();
-      const v = vm(child.pid!);
-      if (v) peak = { hwm: Math.max(peak.hwm, v.hwm), rss: Math.max(peak.rss, v.rss) };
+      if (firstSentAt === null && (by.sent ?? 0) > 0) {
+        firstSentAt = performance.now();
+        if (pgStatements) statementsAtFirst = await readStatements(knex);
+        cpuAtFirst = await cpuSnapshot(pids);
+        sentAtFirst = by.sent ?? 0;
+      }
+      for (const pid of pids) {
+        const v = vm(pid);
+        if (v) peak = { hwm: Math.max(peak.hwm, v.hwm), rss: Math.max(peak.rss, v.rss) };
+      }
       if ((by.sent ?? 0) >= N) break;
-      if ((by.failed ?? 0) + (by.skipped ?? 0) > 0 || child.exitCode !== null || performance.now() > deadline) {
-        console.error(`bench/reminders: stopped early: ${JSON.stringify(by)}, worker exit ${child.exitCode}\n${log.slice(-3000)}`);
-        child.kill('SIGKILL');
+      if ((by.failed ?? 0) + (by.skipped ?? 0) > 0 || children.some((c) => c.exitCode !== null) || performance.now() > deadline) {
+        console.error(`bench/reminders: stopped early: ${JSON.stringify(by)}, worker exit ${children.map((c) => c.exitCode).join(', ')}\n${log.slice(-3000)}`);
+        for (const c of children) c.kill('SIGKILL');
         process.exitCode = 1;
         return;
       }
       await sleep(100);
     }
     const done = performance.now();
-    const final = vm(child.pid!);
-    if (final) peak = { hwm: Math.max(peak.hwm, final.hwm), rss: Math.max(peak.rss, final.rss) };
-    child.kill('SIGTERM');
-    const code = await exited;
+    const cpuAtDone = await cpuSnapshot(pids);
+    const statements = statementsAtFirst ? topStatements(statementsAtFirst, await readStatements(knex)) : null;
+    for (const pid of pids) {
+      const final = vm(pid);
+      if (final) peak = { hwm: Math.max(peak.hwm, final.hwm), rss: Math.max(peak.rss, final.rss) };
+    }
+    for (const c of children) c.kill('SIGTERM');
+    const codes = await exited;
 
     const stored = await storedMessages();
     const counts = new Map<string, number>();
@@ -130,25 +256,30 @@ async function main() {
     const sendMs = done - (firstSentAt ?? started);
     const table: [string, string][] = [
       ['reminders (visits due, one practice)', N.toLocaleString('en-GB')],
-      ['worker concurrency / SMTP pool', `${CONCURRENCY} / ${smtpPoolOf(workerConfig)}`],
+      ['worker processes × concurrency / SMTP pool', `${WORKERS} × ${CONCURRENCY} / ${smtpPoolOf(workerConfig)}`],
       ['seed (patients, cases, visits)', `${seedS.toFixed(1)} s`],
       ['worker start → all 10,000 rows queued (scan)'.replace('10,000', N.toLocaleString('en-GB')), queuedAt ? s(queuedAt - started) : '—'],
       ['first message → last message', s(sendMs)],
       ['end to end (worker start → last message)', s(done - started)],
       ['throughput, sending', `${(N / (sendMs / 1000)).toFixed(1)} messages/s`],
       ['throughput, end to end', `${(N / ((done - started) / 1000)).toFixed(1)} messages/s`],
-      ['worker peak RSS (VmHWM)', `${(peak.hwm / 1024).toFixed(0)} MB`],
+      [
+        'CPU per message while sending (ms)',
+        cpuAtFirst ? cpuBetween(cpuAtFirst, cpuAtDone).map(([g, ms]) => `${g} ${(ms / Math.max(1, N - sentAtFirst)).toFixed(2)}`).join(', ') : '—',
+      ],
+      [WORKERS > 1 ? 'worker peak RSS (VmHWM, the larger)' : 'worker peak RSS (VmHWM)', `${(peak.hwm / 1024).toFixed(0)} MB`],
       ['messages stored by the SMTP fake', stored.length.toLocaleString('en-GB')],
       ['outbox rows sent', rowsSent.toLocaleString('en-GB')],
       ['duplicates (same Message-ID twice)', String(duplicates)],
       ['missing (patients without a message)', String(missing)],
-      ['worker exit after SIGTERM', String(code)],
+      ['worker exit after SIGTERM', codes.join(', ')],
     ];
     const w = Math.max(...table.map(([k]) => k.length));
     console.log(`\nreminders end to end — real worker, PostgreSQL, Redis, SMTP fake\n`);
     console.log(`| ${'measure'.padEnd(w)} | value |`);
     console.log(`| ${'-'.repeat(w)} | ----- |`);
     for (const [k, v] of table) console.log(`| ${k.padEnd(w)} | ${v} |`);
+    if (statements) console.log(`\nPostgreSQL statements while sending (pg_stat_statements), by total time:\n${statements}`);
     if (duplicates !== 0 || missing !== 0 || rowsSent !== N || stored.length !== N) process.exitCode = 1;
   } finally {
     await orm.close(true);

@@ -430,6 +430,8 @@ pg_start() {
     # Throwaway data: durability buys nothing and costs seconds.
     opts+=" -c fsync=off -c synchronous_commit=off -c full_page_writes=off"
   fi
+  # LAMINA_PG_OPTS: more server settings, e.g. `-c shared_preload_libraries=pg_stat_statements` for a bench.
+  opts+="${LAMINA_PG_OPTS:+ $LAMINA_PG_OPTS}"
   if ! run_as_postgres "$bin/pg_ctl" -D "$data" -l "$log" -w -t 60 -o "$opts" start >/dev/null; then
     tail -n 20 "$log" >&2
     lamina_die "PostgreSQL did not start (log: $log)"
@@ -569,7 +571,9 @@ mail_start() {
   require_free_port "$LAMINA_SMTP_PORT" "the SMTP fake" LAMINA_SMTP_PORT
   require_free_port "$LAMINA_MAILBOX_PORT" "the mailbox HTTP API" LAMINA_MAILBOX_PORT
 
-  launch_node_fake "the mail fake" "$log" mail_ready scripts/mail-fake.ts \
+  # LAMINA_MAIL_FAKE_NODE_ARGS: Node flags for the fake (e.g. `--cpu-prof --cpu-prof-dir=DIR` in a bench).
+  # shellcheck disable=SC2086
+  launch_node_fake "the mail fake" "$log" mail_ready ${LAMINA_MAIL_FAKE_NODE_ARGS:-} scripts/mail-fake.ts \
     --smtp-port "$LAMINA_SMTP_PORT" --http-port "$LAMINA_MAILBOX_PORT" --dir "$dir/messages" --pid-file "$pidfile"
   lamina_log "mail fake: SMTP 127.0.0.1:$LAMINA_SMTP_PORT, mailbox http://127.0.0.1:$LAMINA_MAILBOX_PORT"
 }
