@@ -110,7 +110,7 @@ function OverviewTable({ o, title }: { o: Overview; title: string }) {
       [`Strict success (healed), ${at(f.at)}`, rateText(f.strict), `best ${pct(f.strictBounds.best)} / worst ${pct(f.strictBounds.worst)}; ${f.missing} not seen, ${f.uncertain} uncertain`],
       [`Lenient success (healed or healing), ${at(f.at)}`, rateText(f.lenient), `best ${pct(f.lenientBounds.best)} / worst ${pct(f.lenientBounds.worst)}`],
     ]),
-    ...o.survival.map((v) => [`Tooth survival, ${v.years} year${v.years === 1 ? '' : 's'} (Kaplan-Meier)`, `${pct(v.km.survival, 1)} (${pct(v.km.lower, 1)}-${pct(v.km.upper, 1)})`, `${v.km.nRisk} still followed`]),
+    ...o.survival.map((v) => [`Tooth survival, ${v.years} year${v.years === 1 ? '' : 's'} (Kaplan-Meier)`, o.teeth === 0 ? '- (no teeth)' : `${pct(v.km.survival, 1)} (${pct(v.km.lower, 1)}-${pct(v.km.upper, 1)})`, `${v.km.nRisk} still followed`]),
   ];
   return (
     <View>

@@ -368,7 +368,11 @@ export async function outcomesCsv(em: EntityManager, actor: Actor, view: 'overvi
           ['Success, lenient (healed or healing)', at, pct(f.lenient.estimate), pct(f.lenient.lower), pct(f.lenient.upper), f.lenient.n, `best ${pct(f.lenientBounds.best) ?? ''}% / worst ${pct(f.lenientBounds.worst) ?? ''}%`],
         ];
       }),
-      ...o.survival.map((sv) => ['Tooth survival (Kaplan–Meier)', `${sv.years} years`, pct(sv.km.survival), pct(sv.km.lower), pct(sv.km.upper), sv.km.nRisk, sv.turnbull === null ? 'Turnbull not computed' : `Turnbull ${pct(sv.turnbull)}%`]),
+      ...o.survival.map((sv) =>
+        o.teeth === 0
+          ? ['Tooth survival (Kaplan–Meier)', `${sv.years} years`, null, null, null, 0, 'no teeth']
+          : ['Tooth survival (Kaplan–Meier)', `${sv.years} years`, pct(sv.km.survival), pct(sv.km.lower), pct(sv.km.upper), sv.km.nRisk, sv.turnbull === null ? 'Turnbull not computed' : `Turnbull ${pct(sv.turnbull)}%`],
+      ),
     ];
     await audit(em, actor, { action: 'outcomes.exported', detail: { view, ...filterDetail(filter) } });
     return writeCsv(header, rows);

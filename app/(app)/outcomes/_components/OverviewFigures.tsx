@@ -125,14 +125,20 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
                   <td data-label="After">
                     {s.years} year{s.years > 1 ? 's' : ''}
                   </td>
-                  <td data-label="Kaplan–Meier" className={s.km.nRisk < 20 ? 'text-ink-500' : undefined}>
-                    <strong className="font-semibold">{pct(s.km.survival, 1)}</strong>{' '}
-                    <span className="text-sm">
-                      ({pct(s.km.lower, 1)}–{pct(s.km.upper, 1)})
-                    </span>
-                    {s.km.nRisk < 20 && <span className="ml-1 rounded border border-bone-300 px-1 text-xs">few cases</span>}
-                  </td>
-                  <td data-label="Turnbull">{s.turnbull === null ? <span className="text-sm text-ink-500">not computed</span> : pct(s.turnbull, 1)}</td>
+                  {o.teeth === 0 ? (
+                    <td data-label="Kaplan–Meier">
+                      — <span className="text-sm text-ink-500">(no teeth)</span>
+                    </td>
+                  ) : (
+                    <td data-label="Kaplan–Meier" className={s.km.nRisk < 20 ? 'text-ink-500' : undefined}>
+                      <strong className="font-semibold">{pct(s.km.survival, 1)}</strong>{' '}
+                      <span className="text-sm">
+                        ({pct(s.km.lower, 1)}–{pct(s.km.upper, 1)})
+                      </span>
+                      {s.km.nRisk < 20 && <span className="ml-1 rounded border border-bone-300 px-1 text-xs">few cases</span>}
+                    </td>
+                  )}
+                  <td data-label="Turnbull">{o.teeth === 0 ? '—' : s.turnbull === null ? <span className="text-sm text-ink-500">not computed</span> : pct(s.turnbull, 1)}</td>
                   <td data-label="Followed">
                     {s.km.nRisk} of {o.teeth}
                   </td>
@@ -144,7 +150,12 @@ export function OverviewFigures({ o, idPrefix, title }: { o: Overview; idPrefix:
         <Method>
           {o.teeth} teeth, {o.toothLossEvents} extracted; each tooth from its earliest case, followed through its retreatment or surgery. Kaplan–Meier with the
           extraction at the review that found it (log-scale 95% interval); Turnbull for extractions found between visits
-          {o.turnbullComputed ? '' : o.teeth > 0 && o.teeth <= TURNBULL_MAX ? ' — it did not converge on these teeth, Kaplan–Meier alone' : ` — not computed above ${TURNBULL_MAX.toLocaleString('en-GB')} teeth (it takes too long), Kaplan–Meier alone`}.
+          {o.turnbullComputed || o.teeth === 0
+            ? ''
+            : o.teeth <= TURNBULL_MAX
+              ? ' — it did not converge on these teeth, Kaplan–Meier alone'
+              : ` — not computed above ${TURNBULL_MAX.toLocaleString('en-GB')} teeth (it takes too long), Kaplan–Meier alone`}
+          .
         </Method>
       </div>
     </section>
