@@ -1,27 +1,32 @@
 import 'server-only';
+import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { Circle, Document, Font, Line, Page, Polygon, Polyline, StyleSheet, Svg, Text, View, renderToBuffer } from '@react-pdf/renderer';
 import { COMPLETENESS_WARNING, type FactorTable, type Overview, type Rate } from '@/lib/outcomes';
 import { BAND_WORDS, FUNNEL_CAUTION, TERM_LABELS, type Limits } from '@/lib/outcomes/funnel';
 import { tableRows, type FunnelPoint, type FunnelReport } from '@/lib/services/outcomes-funnel';
+import { woffToSfnt } from './woff';
 
 /**
  * The printable audit report (issue 12, item 8), drawn with @react-pdf/renderer in the route
  * handler (Node runtime; Next keeps the package external). The font ships in the app
  * (app/fonts/pdf: Inter 400 and 700, static WOFF from @fontsource/inter, OFL; the variable WOFF2
  * the pages use cannot be subset by the PDF writer). The font covers Latin: `pdfText` spells out
- * the few symbols it lacks.
+ * the few symbols it lacks. The WOFF files are unpacked once into plain TrueType (`woffToSfnt`):
+ * the PDF writer would otherwise inflate the glyph table again for every glyph of every document.
  */
 const FONT_DIR = path.join(process.cwd(), 'app', 'fonts', 'pdf');
 let registered = false;
+/** A font file of FONT_DIR as a data URL of the plain TrueType font it holds. */
+const unpackedFont = (file: string) => `data:font/ttf;base64,${woffToSfnt(readFileSync(path.join(FONT_DIR, file))).toString('base64')}`;
 /** Registers the PDF font once (also used by lib/pdf/outcome-letter.tsx). */
 export function registerFont() {
   if (registered) return;
   Font.register({
     family: 'Inter',
     fonts: [
-      { src: path.join(FONT_DIR, 'inter-latin-400-normal.woff'), fontWeight: 400 },
-      { src: path.join(FONT_DIR, 'inter-latin-700-normal.woff'), fontWeight: 700 },
+      { src: unpackedFont('inter-latin-400-normal.woff'), fontWeight: 400 },
+      { src: unpackedFont('inter-latin-700-normal.woff'), fontWeight: 700 },
     ],
   });
   // Words are not broken with hyphens (names, figures).
