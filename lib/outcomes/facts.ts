@@ -6,7 +6,7 @@
  * - `rowFacts(all, minObs)`: one entry per case of `all`, built once per array and minimum
  *   observation time (kept in a WeakMap: a new data version is a new array), from the functions of
  *   cases.ts (so the same values: outcomes at the milestones and after a year, the completion day,
- *   the tooth-loss observation followed from the case across `all`, its patient…).
+ *   the healing observation, the tooth-loss observation followed from the case across `all`…).
  * - `selectionIn(selection, all, minObs)`: where each case of a selection is among the facts. A
  *   selection made by `applyFilter` remembers its positions (`rememberSelection`); any other array of
  *   the same case objects is found through a map of `all`; a selection of other objects gets facts
@@ -15,7 +15,7 @@
  */
 import { daysBetween, type CalendarDate } from '@/lib/registry/calendar-date';
 import type { Interval, ReviewOutcome } from '@/lib/scoring';
-import { outcomeAfterAYear, outcomeAtMilestone, toothLossFrom, type OutcomeCase } from './cases';
+import { healingObservation, outcomeAfterAYear, outcomeAtMilestone, toothLossFrom, type OutcomeCase } from './cases';
 
 /** An outcome as a small number: 0 not known (null), then healed, healing, uncertain, any failure. */
 export const OUTCOME_NONE = 0;
@@ -52,6 +52,8 @@ export interface RowFacts {
   /** the first position in `cases` of the case's id, and of its previous case's id (-1: not among them) */
   idAt: Int32Array;
   previousAt: Int32Array;
+  /** the healing observation of the case (healingObservation) */
+  healing: Interval[];
   /** the tooth-loss observation followed from the case (toothLossFrom across `all`), and its Kaplan–Meier observation */
   toothLoss: Interval[];
   toothLossKm: KmObservation[];
@@ -73,6 +75,7 @@ function buildFacts(cases: readonly OutcomeCase[], all: readonly OutcomeCase[], 
     openVisit: new Uint8Array(n),
     idAt: new Int32Array(n),
     previousAt: new Int32Array(n),
+    healing: new Array<Interval>(n),
     toothLoss: new Array<Interval>(n),
     toothLossKm: new Array<KmObservation>(n),
   };
@@ -92,6 +95,7 @@ function buildFacts(cases: readonly OutcomeCase[], all: readonly OutcomeCase[], 
     f.openVisit[k] = c.openVisit ? 1 : 0;
     f.idAt[k] = firstOf.get(c.id)!;
     f.previousAt[k] = c.previousCaseId ? (firstOf.get(c.previousCaseId) ?? -1) : -1;
+    f.healing[k] = healingObservation(c, minObs);
     const loss = toothLossFrom(c, all, minObs);
     f.toothLoss[k] = loss;
     f.toothLossKm[k] = kmObservation(loss);
