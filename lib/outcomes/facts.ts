@@ -118,7 +118,7 @@ export function rowFacts(all: readonly OutcomeCase[], minObs: number): RowFacts 
 /** Positions of applyFilter's results in the rows they were selected from. */
 const selections = new WeakMap<readonly OutcomeCase[], { from: readonly OutcomeCase[]; at: Int32Array }>();
 
-/** Remembers that `selection[k]` is `from[at[k]]` (applyFilter calls it; the arrays are never changed after). */
+/** Remembers that `selection[k]` is `from[at[k]]` (applyFilter calls it; neither array may be changed after). */
 export function rememberSelection(selection: readonly OutcomeCase[], from: readonly OutcomeCase[], at: Int32Array): void {
   selections.set(selection, { from, at });
 }
@@ -132,7 +132,11 @@ export interface SelectionFacts {
 /** Where the cases of `selection` are among the facts of `all` (or facts of their own when they are not cases of `all`). */
 export function selectionIn(selection: readonly OutcomeCase[], all: readonly OutcomeCase[], minObs: number): SelectionFacts {
   const remembered = selections.get(selection);
-  if (remembered && remembered.from === all) return { facts: rowFacts(all, minObs), at: remembered.at };
+  // (its length and ends checked: an array changed since would be found through the map below)
+  const n = selection.length;
+  if (remembered && remembered.from === all && remembered.at.length === n && (n === 0 || (selection[0] === all[remembered.at[0]!] && selection[n - 1] === all[remembered.at[n - 1]!]))) {
+    return { facts: rowFacts(all, minObs), at: remembered.at };
+  }
   if (selection === all) return { facts: rowFacts(all, minObs), at: identity(all.length) };
   const facts = rowFacts(all, minObs);
   if (!facts.position) {

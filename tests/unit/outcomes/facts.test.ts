@@ -168,6 +168,9 @@ describe('the overview on the per-case facts (lib/outcomes/facts.ts)', () => {
     expect(selectionIn([...selection].reverse(), rows, 365).at).toEqual(s.at.slice().reverse());
     expect(rowFacts(rows, 365)).toBe(s.facts);
     expect(rowFacts(rows, 200)).not.toBe(s.facts);
+    // a selection changed after applyFilter (sorted in place) is found case by case, not by the positions remembered
+    const changed = applyFilter(rows, { clinician: 'u3' }).reverse();
+    expect([...selectionIn(changed, rows, 365).at].map((k) => rows[k])).toEqual(changed);
     const copies = selection.map((c) => ({ ...c }));
     const own = selectionIn(copies, rows, 365);
     expect(own.facts.cases).toBe(copies);
