@@ -34,6 +34,36 @@ export function registerFont() {
   registered = true;
 }
 
+/** Shaped texts kept per font (see cachedShaping); more than this and the font's cache starts again. */
+const MAX_SHAPED = 20_000;
+type Shaper = { layout: (text: string, ...rest: unknown[]) => unknown; __laminaShaped?: true };
+
+/**
+ * The PDF writer shapes every run of text with the font's OpenType rules (fontkit `layout`: about a third
+ * of drawing a report), and a report repeats most of its words in every drawing (headings, labels, the
+ * methods). Once the fonts are loaded, each font's `layout` is wrapped to keep its result per text and
+ * options: the same glyphs and positions, which react-pdf copies before changing (textkit scalePositions).
+ */
+async function cachedShaping(): Promise<void> {
+  for (const fontWeight of [400, 700]) {
+    await Font.load({ fontFamily: 'Inter', fontWeight });
+    const font = Font.getFont({ fontFamily: 'Inter', fontWeight })?.data as Shaper | null | undefined;
+    if (!font || font.__laminaShaped) continue;
+    const layout = font.layout.bind(font);
+    const kept = new Map<string, unknown>();
+    font.layout = (text: string, ...rest: unknown[]) => {
+      const key = `${JSON.stringify(rest)}\u0000${text}`;
+      let run = kept.get(key);
+      if (run === undefined) {
+        if (kept.size >= MAX_SHAPED) kept.clear();
+        kept.set(key, (run = layout(text, ...rest)));
+      }
+      return run;
+    };
+    font.__laminaShaped = true;
+  }
+}
+
 /** Symbols outside the font's Latin set, spelled out. */
 export function pdfText(s: string): string {
   return s
@@ -316,5 +346,6 @@ export function OutcomesReportDocument({ d }: { d: ReportData }) {
 
 export async function renderOutcomesReport(d: ReportData): Promise<Buffer> {
   registerFont();
+  await cachedShaping();
   return renderToBuffer(<OutcomesReportDocument d={d} />);
 }
