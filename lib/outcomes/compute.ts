@@ -16,21 +16,21 @@ import {
 import { type CalendarDate } from '@/lib/registry/calendar-date';
 import type { Interval } from '@/lib/scoring';
 import { chiSquareTest, fisherExact2x2, kaplanMeier, turnbull, wilsonInterval } from '@/lib/stats';
+import { isLenientSuccess, isStrictSuccess, milestoneDays, MILESTONES, outcomeAfterAYear, outcomeAt, SURVIVAL_YEARS, type FollowUpPoint, type OutcomeCase, windowDays } from './cases';
 import {
-  isDue,
-  isLenientSuccess,
-  isStrictSuccess,
-  lostAt,
-  milestoneDays,
-  MILESTONES,
-  outcomeAfterAYear,
-  outcomeAt,
-  outcomeAtMilestone,
-  SURVIVAL_YEARS,
-  type FollowUpPoint,
-  toothLossObservations,
-  type OutcomeCase,
-} from './cases';
+  dayOf,
+  type KmObservation,
+  OUTCOME_HEALED,
+  OUTCOME_HEALING,
+  OUTCOME_NONE,
+  OUTCOME_UNCERTAIN,
+  outcomeCode,
+  rememberSelection,
+  type RowFacts,
+  selectionIn,
+  type SelectionFacts,
+  toothLossStartsIn,
+} from './facts';
 
 /** Fewer cases than this in a figure: shown greyed with "few cases". */
 export const FEW_CASES = 20;
@@ -60,14 +60,24 @@ export function applyFilter(rows: readonly OutcomeCase[], f: OutcomeFilter): Out
   const levels = Object.entries(f.levels ?? {})
     .filter(([, codes]) => codes && codes.length > 0)
     .map(([k, codes]) => ({ code: FACTORS[k as FactorKey].code, codes: new Set(codes) }));
-  return rows.filter(
-    (c) =>
+  const out: OutcomeCase[] = [];
+  const at = new Int32Array(rows.length);
+  for (let k = 0; k < rows.length; k++) {
+    const c = rows[k]!;
+    if (
       (!f.from || c.completionDate >= f.from) &&
       (!f.to || c.completionDate <= f.to) &&
       (!f.clinician || c.operatorId === f.clinician) &&
       (!f.kind || c.kind === f.kind) &&
-      levels.every((l) => l.codes.has(l.code(c))),
-  );
+      levels.every((l) => l.codes.has(l.code(c)))
+    ) {
+      at[out.length] = k;
+      out.push(c);
+    }
+  }
+  // where each kept case is among the rows: the views then read their facts by position (facts.ts)
+  rememberSelection(out, rows, at.slice(0, out.length));
+  return out;
 }
 
 export interface Rate {
@@ -99,26 +109,40 @@ export interface SuccessFigure {
   lenientBounds: { best: number | null; worst: number | null };
 }
 
-function successFigure(cases: readonly OutcomeCase[], at: FollowUpPoint, today: CalendarDate, minObs: number): SuccessFigure {
+/** The outcome codes (facts.ts) of a follow-up point, or null for a milestone the facts do not keep. */
+function codesAt(facts: RowFacts, at: FollowUpPoint): Uint8Array | null {
+  return at === 'latest' ? facts.latest : at === 12 ? facts.at12 : at === 24 ? facts.at24 : at === 48 ? facts.at48 : null;
+}
+
+/**
+ * Success at a follow-up point over a selection's facts; `sinceToday` is today's day number and
+ * `due` the days after completion from which a case is due then (cases.ts isDue; lostAt = due and
+ * the outcome not known).
+ */
+function successFigure(sel: SelectionFacts, at: FollowUpPoint, sinceToday: number, due: number, minObs: number): SuccessFigure {
+  const { facts, at: pos } = sel;
+  const codes = codesAt(facts, at);
   let n = 0;
   let strict = 0;
   let lenient = 0;
   let uncertain = 0;
   let missing = 0;
-  cases.forEach((c) => {
-    const o = outcomeAt(c, at, minObs);
-    if (o === null) {
-      if (lostAt(c, at, today, minObs)) missing += 1;
-      return;
+  for (let k = 0; k < pos.length; k++) {
+    const i = pos[k]!;
+    const o = codes ? codes[i]! : outcomeCode(outcomeAt(facts.cases[i]!, at, minObs));
+    if (o === OUTCOME_NONE) {
+      if (sinceToday - facts.completionDay[i]! >= due) missing += 1;
+      continue;
     }
-    if (o === 'uncertain') {
+    if (o === OUTCOME_UNCERTAIN) {
       uncertain += 1;
-      return;
+      continue;
     }
     n += 1;
-    if (isStrictSuccess(o)) strict += 1;
-    if (isLenientSuccess(o)) lenient += 1;
-  });
+    // strict: healed; lenient: healed or healing (cases.ts isStrictSuccess / isLenientSuccess)
+    if (o === OUTCOME_HEALED) strict += 1;
+    if (o === OUTCOME_HEALED || o === OUTCOME_HEALING) lenient += 1;
+  }
   const bounds = (x: number) => (n + missing === 0 ? { best: null, worst: null } : { best: (x + missing) / (n + missing), worst: x / (n + missing) });
   return { at, strict: rate(strict, n), lenient: rate(lenient, n), uncertain, missing, strictBounds: bounds(strict), lenientBounds: bounds(lenient) };
 }
@@ -183,40 +207,88 @@ export function stepAt<T extends { survival: number }>(steps: readonly T[], at: 
 }
 
 export function overview(selection: readonly OutcomeCase[], all: readonly OutcomeCase[], today: CalendarDate, minObs: number): Overview {
-  const completeness = [12, 24].map((months) => {
-    const due = selection.filter((c) => isDue(c, months, today));
-    const seen = due.filter((c) => outcomeAtMilestone(c, months, minObs) !== null);
-    return { months, rate: rate(seen.length, due.length) };
-  });
-  const lost = selection.filter((c) => lostAt(c, 'latest', today, minObs));
-  const intervals = toothLossObservations(selection, all, minObs);
-  const km = kmOf(intervals);
+  // one pass over the selection's facts (facts.ts: the per-case rules of cases.ts, kept per rows array)
+  const sel = selectionIn(selection, all, minObs);
+  const { facts, at: pos } = sel;
+  const n = pos.length;
+  const sinceToday = dayOf(today);
+  // due for a milestone (cases.ts isDue): today at least the milestone and its window after completion
+  const dueAt = (months: number) => milestoneDays(months) + windowDays(months);
+  const due12 = dueAt(12);
+  const due24 = dueAt(24);
+  const due48 = dueAt(48);
+  const at12 = facts.at12;
+  const at24 = facts.at24;
+  let reviewed = 0;
+  let nDue12 = 0;
+  let nDue24 = 0;
+  let seen12 = 0;
+  let seen24 = 0;
+  let lost = 0;
+  let lostStillInvited = 0;
+  for (let k = 0; k < n; k++) {
+    const i = pos[k]!;
+    const since = sinceToday - facts.completionDay[i]!;
+    reviewed += facts.reviewed[i]!;
+    if (since >= due12) {
+      nDue12 += 1;
+      if (at12[i] !== OUTCOME_NONE) seen12 += 1;
+      // lost at the primary endpoint (cases.ts lostAt(c, 'latest')): due for the 12-month review, no outcome a year or more after
+      if (facts.latest[i] === OUTCOME_NONE) {
+        lost += 1;
+        lostStillInvited += facts.openVisit[i]!;
+      }
+    }
+    if (since >= due24) {
+      nDue24 += 1;
+      if (at24[i] !== OUTCOME_NONE) seen24 += 1;
+    }
+  }
+  const completeness = [
+    { months: 12, rate: rate(seen12, nDue12) },
+    { months: 24, rate: rate(seen24, nDue24) },
+  ];
+  // each tooth once, from its earliest case in the selection (cases.ts toothLossObservations)
+  const starts = toothLossStartsIn(sel);
+  const intervals = new Array<Interval>(starts.length);
+  const kmObs = new Array<KmObservation>(starts.length);
+  let toothLossEvents = 0;
+  for (let t = 0; t < starts.length; t++) {
+    const i = pos[starts[t]!]!;
+    const iv = facts.toothLoss[i]!;
+    intervals[t] = iv;
+    kmObs[t] = facts.toothLossKm[i]!;
+    if (iv.right !== null) toothLossEvents += 1;
+  }
+  const km = kaplanMeier(kmObs);
   const tbOrNull = intervals.length > 0 && intervals.length <= TURNBULL_MAX ? turnbullOrNull(intervals) : null;
   const turnbullComputed = tbOrNull !== null;
   const tb = tbOrNull ?? [];
   const survival = SURVIVAL_YEARS.map((years) => {
     const days = milestoneDays(years * 12);
     const k = stepAt(km, (s) => s.time, days);
-    const atRisk = intervals.filter((i) => (i.right ?? i.left) >= days).length;
-    const t = stepAt(tb, (s) => s.upper, days);
+    let atRisk = 0;
+    for (let t = 0; t < intervals.length; t++) if ((intervals[t]!.right ?? intervals[t]!.left) >= days) atRisk += 1;
+    const tr = stepAt(tb, (s) => s.upper, days);
     return {
       years,
       days,
       km: { survival: k?.survival ?? 1, lower: k?.lower ?? 1, upper: k?.upper ?? 1, nRisk: atRisk },
-      turnbull: turnbullComputed ? (t?.survival ?? 1) : null,
+      turnbull: turnbullComputed ? (tr?.survival ?? 1) : null,
     };
   });
+  const dueFor = (at: FollowUpPoint) => (at === 'latest' ? due12 : at === 12 ? due12 : at === 24 ? due24 : at === 48 ? due48 : dueAt(at));
   return {
     today,
-    cases: selection.length,
-    reviewed: selection.filter((c) => c.reviews.length > 0).length,
-    lost: rate(lost.length, selection.filter((c) => isDue(c, 12, today)).length),
-    lostStillInvited: lost.filter((c) => c.openVisit).length,
+    cases: n,
+    reviewed,
+    lost: rate(lost, nDue12),
+    lostStillInvited,
     completeness,
     warning: completeness.some((c) => c.rate.n > 0 && (c.rate.estimate ?? 0) < COMPLETENESS_WARNING),
-    success: [...MILESTONES, 'latest' as const].map((at) => successFigure(selection, at, today, minObs)),
+    success: [...MILESTONES, 'latest' as const].map((at) => successFigure(sel, at, sinceToday, dueFor(at), minObs)),
     teeth: intervals.length,
-    toothLossEvents: intervals.filter((i) => i.right !== null).length,
+    toothLossEvents,
     turnbullComputed,
     survival,
   };

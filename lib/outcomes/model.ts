@@ -27,8 +27,9 @@
  */
 import { coxPHColumns, logisticRegressionColumns } from '@/lib/stats';
 import type { Interval } from '@/lib/scoring';
-import { healingObservations, isStrictSuccess, outcomeAtMilestone, patientNumbers, toothLossFrom, toothLossStarts, type OutcomeCase } from './cases';
+import { patientNumbers, type OutcomeCase } from './cases';
 import { FACTORS, levelOrder, type FactorKey } from './compute';
+import { OUTCOME_HEALED, OUTCOME_NONE, OUTCOME_UNCERTAIN, selectionIn, toothLossStartsIn, type RowFacts, type SelectionFacts } from './facts';
 
 /** A level with fewer rows than this is merged (or left out). */
 export const MIN_LEVEL_ROWS = 10;
@@ -132,6 +133,51 @@ function readCovariates(cases: readonly OutcomeCase[], choices: readonly Covaria
       level[i] = j;
     }
     read.push({ choice: { key: choice.key }, numeric: false, level, levels });
+  }
+  return { n, read };
+}
+
+/** Each covariate read once over every case of a rows array's facts (readCovariates), kept with the facts. */
+const readOverRows = new WeakMap<RowFacts, Map<string, Covariates['read'][number]>>();
+
+/**
+ * readCovariates of a selection, from each covariate read once over the rows it was selected from:
+ * a numeric covariate's values gathered, a factor's levels renumbered in order of first appearance
+ * in the selection (as readCovariates numbers them). The same Covariates, without a string per case.
+ */
+function covariatesOfSelection(s: SelectionFacts, choices: readonly CovariateChoice[]): Covariates {
+  let kept = readOverRows.get(s.facts);
+  if (!kept) readOverRows.set(s.facts, (kept = new Map()));
+  const at = s.at;
+  const n = at.length;
+  const read: Covariates['read'] = [];
+  const seen = new Set<FactorKey>();
+  for (const choice of choices) {
+    if (seen.has(choice.key)) continue;
+    seen.add(choice.key);
+    const numeric = choice.numeric === true && isNumericKey(choice.key);
+    const id = `${choice.key}:${numeric}`;
+    let whole = kept.get(id);
+    if (!whole) kept.set(id, (whole = readCovariates(s.facts.cases, [numeric ? { key: choice.key, numeric: true } : { key: choice.key }]).read[0]!));
+    if (whole.numeric) {
+      const values = new Float64Array(n);
+      for (let k = 0; k < n; k++) values[k] = whole.value[at[k]!]!;
+      read.push({ choice: whole.choice, numeric: true, value: values });
+      continue;
+    }
+    const renumber = new Int32Array(whole.levels.length).fill(-1);
+    const levels: string[] = [];
+    const level = new Int32Array(n);
+    for (let k = 0; k < n; k++) {
+      const j = whole.level[at[k]!]!;
+      let r = renumber[j]!;
+      if (r === -1) {
+        r = renumber[j] = levels.length;
+        levels.push(whole.levels[j]!);
+      }
+      level[k] = r;
+    }
+    read.push({ choice: whole.choice, numeric: false, level, levels });
   }
   return { n, read };
 }
@@ -330,16 +376,19 @@ export type ModelEndpoint = 'healing' | 'tooth';
 /** What both models read of a selection's cases, each case read once (multivariable shares it between them). */
 interface Selection {
   cases: readonly OutcomeCase[];
+  /** where each case's facts are (lib/outcomes/facts.ts: outcomes, healing and tooth-loss observations) */
+  facts: SelectionFacts;
   covariates: Covariates;
   /** each case's patient as a number 0..patients-1 (lib/outcomes/cases.ts patientNumbers) */
   patient: Int32Array;
   patients: number;
 }
 
-/** `all`: the rows `cases` were selected from (their patients' numbers are kept per `all`), or null. */
-function readSelection(cases: readonly OutcomeCase[], all: readonly OutcomeCase[] | null, choices: readonly CovariateChoice[]): Selection {
+/** `all`: the rows `cases` were selected from (their facts and patients' numbers are kept per `all`), or null. */
+function readSelection(cases: readonly OutcomeCase[], all: readonly OutcomeCase[] | null, choices: readonly CovariateChoice[], minObs: number): Selection {
   const { patient, count } = patientNumbers(cases, all);
-  return { cases, covariates: readCovariates(cases, choices), patient, patients: count };
+  const facts = selectionIn(cases, all ?? cases, minObs);
+  return { cases, facts, covariates: covariatesOfSelection(facts, choices), patient, patients: count };
 }
 
 /**
@@ -457,7 +506,7 @@ export function coxModel(
   choices: readonly CovariateChoice[],
   opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName; minLevel?: number },
 ): ModelFit {
-  return coxOf(readSelection(selection, all, choices), all, opts);
+  return coxOf(readSelection(selection, all, choices, opts.minObs), opts);
 }
 
 /** 0, 1, …, n - 1 (a plain loop: Int32Array.from(keys()) walks an iterator, ~10 ms at 100,000). */
@@ -467,20 +516,21 @@ function everyIndex(n: number): Int32Array {
   return out;
 }
 
-function coxOf(sel: Selection, all: readonly OutcomeCase[], opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName; minLevel?: number }): ModelFit {
-  const selection = sel.cases;
-  // the model's cases (indices into the selection) and their intervals
+function coxOf(sel: Selection, opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName; minLevel?: number }): ModelFit {
+  // the model's cases (indices into the selection) and their intervals (lib/outcomes/facts.ts)
+  const { facts, at } = sel.facts;
   let cases: Int32Array;
-  let intervals: Interval[];
+  let column: Interval[];
   if (opts.endpoint === 'tooth') {
-    const starts = toothLossStarts(selection);
-    const isStart = new Set(starts);
-    cases = everyIndex(selection.length).filter((i) => isStart.has(selection[i]!));
-    intervals = starts.map((c) => toothLossFrom(c, all, opts.minObs));
+    // each tooth once, from its earliest case in the selection, followed across later cases (cases.ts toothLossStarts / toothLossFrom)
+    cases = toothLossStartsIn(sel.facts);
+    column = facts.toothLoss;
   } else {
-    cases = everyIndex(selection.length);
-    intervals = healingObservations(selection, opts.minObs);
+    cases = everyIndex(at.length);
+    column = facts.healing;
   }
+  const intervals = new Array<Interval>(cases.length);
+  for (let k = 0; k < cases.length; k++) intervals[k] = column[at[cases[k]!]!]!;
   let nFollowed = 0;
   const isFollowed = (iv: Interval) => !(iv.left === 0 && iv.right === null);
   for (const iv of intervals) if (isFollowed(iv)) nFollowed += 1;
@@ -525,23 +575,25 @@ export function logisticModel(
   choices: readonly CovariateChoice[],
   opts: { minObs: number; levelName?: LevelName; minLevel?: number },
 ): ModelFit {
-  return logisticOf(readSelection(selection, null, choices), opts);
+  return logisticOf(readSelection(selection, null, choices, opts.minObs), opts);
 }
 
 function logisticOf(sel: Selection, opts: { minObs: number; levelName?: LevelName; minLevel?: number }): ModelFit {
-  const selection = sel.cases;
-  const judgedAt = new Int32Array(selection.length);
-  const outcomes = new Uint8Array(selection.length);
+  // the outcome at 12 months (cases.ts outcomeAtMilestone, as facts.ts codes it); strict success = healed
+  const { facts, at } = sel.facts;
+  const at12 = facts.at12;
+  const judgedAt = new Int32Array(at.length);
+  const outcomes = new Uint8Array(at.length);
   let judgedN = 0;
   let uncertain = 0;
-  for (let i = 0; i < selection.length; i++) {
-    const o = outcomeAtMilestone(selection[i]!, 12, opts.minObs);
-    if (o === null) continue;
-    if (o === 'uncertain') {
+  for (let i = 0; i < at.length; i++) {
+    const o = at12[at[i]!]!;
+    if (o === OUTCOME_NONE) continue;
+    if (o === OUTCOME_UNCERTAIN) {
       uncertain += 1;
       continue;
     }
-    outcomes[judgedN] = isStrictSuccess(o) ? 1 : 0;
+    outcomes[judgedN] = o === OUTCOME_HEALED ? 1 : 0;
     judgedAt[judgedN++] = i;
   }
   const judged = judgedAt.subarray(0, judgedN);
@@ -604,11 +656,11 @@ export function multivariable(
   opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName },
 ): Multivariable {
   // the selection's cases read once for both models
-  const sel = readSelection(selection, all, covariates);
+  const sel = readSelection(selection, all, covariates, opts.minObs);
   return {
     endpoint: opts.endpoint,
     covariates: [...covariates],
-    cox: coxOf(sel, all, opts),
+    cox: coxOf(sel, opts),
     logistic: logisticOf(sel, opts),
   };
 }

@@ -1,32 +1,67 @@
 import 'server-only';
+import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { Circle, Document, Font, Line, Page, Polygon, Polyline, StyleSheet, Svg, Text, View, renderToBuffer } from '@react-pdf/renderer';
 import { COMPLETENESS_WARNING, type FactorTable, type Overview, type Rate } from '@/lib/outcomes';
 import { BAND_WORDS, FUNNEL_CAUTION, TERM_LABELS, type Limits } from '@/lib/outcomes/funnel';
 import { tableRows, type FunnelPoint, type FunnelReport } from '@/lib/services/outcomes-funnel';
+import { woffToSfnt } from './woff';
 
 /**
  * The printable audit report (issue 12, item 8), drawn with @react-pdf/renderer in the route
  * handler (Node runtime; Next keeps the package external). The font ships in the app
  * (app/fonts/pdf: Inter 400 and 700, static WOFF from @fontsource/inter, OFL; the variable WOFF2
  * the pages use cannot be subset by the PDF writer). The font covers Latin: `pdfText` spells out
- * the few symbols it lacks.
+ * the few symbols it lacks. The WOFF files are unpacked once into plain TrueType (`woffToSfnt`):
+ * the PDF writer would otherwise inflate the glyph table again for every glyph of every document.
  */
 const FONT_DIR = path.join(process.cwd(), 'app', 'fonts', 'pdf');
 let registered = false;
+/** A font file of FONT_DIR as a data URL of the plain TrueType font it holds. */
+const unpackedFont = (file: string) => `data:font/ttf;base64,${woffToSfnt(readFileSync(path.join(FONT_DIR, file))).toString('base64')}`;
 /** Registers the PDF font once (also used by lib/pdf/outcome-letter.tsx). */
 export function registerFont() {
   if (registered) return;
   Font.register({
     family: 'Inter',
     fonts: [
-      { src: path.join(FONT_DIR, 'inter-latin-400-normal.woff'), fontWeight: 400 },
-      { src: path.join(FONT_DIR, 'inter-latin-700-normal.woff'), fontWeight: 700 },
+      { src: unpackedFont('inter-latin-400-normal.woff'), fontWeight: 400 },
+      { src: unpackedFont('inter-latin-700-normal.woff'), fontWeight: 700 },
     ],
   });
   // Words are not broken with hyphens (names, figures).
   Font.registerHyphenationCallback((word) => [word]);
   registered = true;
+}
+
+/** Shaped texts kept per font (see cachedShaping); more than this and the font's cache starts again. */
+const MAX_SHAPED = 20_000;
+type Shaper = { layout: (text: string, ...rest: unknown[]) => unknown; __laminaShaped?: true };
+
+/**
+ * The PDF writer shapes every run of text with the font's OpenType rules (fontkit `layout`: about a third
+ * of drawing a report), and a report repeats most of its words in every drawing (headings, labels, the
+ * methods). Once the fonts are loaded, each font's `layout` is wrapped to keep its result per text and
+ * options: the same glyphs and positions, which react-pdf copies before changing (textkit scalePositions).
+ */
+async function cachedShaping(): Promise<void> {
+  for (const fontWeight of [400, 700]) {
+    await Font.load({ fontFamily: 'Inter', fontWeight });
+    const font = Font.getFont({ fontFamily: 'Inter', fontWeight })?.data as Shaper | null | undefined;
+    if (!font || font.__laminaShaped) continue;
+    const layout = font.layout.bind(font);
+    const kept = new Map<string, unknown>();
+    font.layout = (text: string, ...rest: unknown[]) => {
+      const key = `${JSON.stringify(rest)}\u0000${text}`;
+      let run = kept.get(key);
+      if (run === undefined) {
+        if (kept.size >= MAX_SHAPED) kept.clear();
+        kept.set(key, (run = layout(text, ...rest)));
+      }
+      return run;
+    };
+    font.__laminaShaped = true;
+  }
 }
 
 /** Symbols outside the font's Latin set, spelled out. */
@@ -311,5 +346,6 @@ export function OutcomesReportDocument({ d }: { d: ReportData }) {
 
 export async function renderOutcomesReport(d: ReportData): Promise<Buffer> {
   registerFont();
+  await cachedShaping();
   return renderToBuffer(<OutcomesReportDocument d={d} />);
 }

@@ -2,6 +2,7 @@ import 'server-only';
 import { requestEm } from '@/lib/db';
 import { env } from '@/lib/env';
 import { deriveCaseFacts } from '@/lib/outcomes';
+import { rowFacts } from '@/lib/outcomes/facts';
 import { cachedOutcomeCases, startOutcomesWarmer } from './outcomes-cache';
 import { OUTCOME_READER } from './outcomes';
 import { knexOf, practiceSettings } from './registry-common';
@@ -12,7 +13,8 @@ import { knexOf, practiceSettings } from './registry-common';
  * - at start, the rows of the practices with the most completed cases (as many as the cache keeps)
  *   are read in the background, and what lib/outcomes derives per case (`deriveCaseFacts`: outcomes at
  *   the milestones, after a year and the current one, healing and tooth-loss intervals) is computed
- *   once, so the first user does not wait for the cold read nor a view's first request for them;
+ *   once, then laid out as columns (`rowFacts`, lib/outcomes/facts.ts), so the first user does not
+ *   wait for the cold read nor a view's first request for them;
  * - then every OUTCOMES_WARM_MS the cached practices' data versions are compared with the
  *   database's; a practice whose data changed (a write here, in another instance, the worker, an
  *   import) has its rows refreshed (incrementally: lib/services/outcomes-cache.ts) and its recently
@@ -49,6 +51,8 @@ export async function warmAtStart(): Promise<string[]> {
       for (const c of rows.slice(i, i + 2000)) deriveCaseFacts(c, rows, minObs);
       await new Promise((r) => setImmediate(r));
     }
+    // the same facts as columns per rows array (what the views read; a pass over the memos above)
+    rowFacts(rows, minObs);
   }
   return practices.map((p) => p.practice_id);
 }

@@ -12,8 +12,8 @@
  *     engine, the audit event); not over HTTP, so JSON serialisation of the response is timed
  *     separately. Per view: BENCH_REQUESTS requests cycling through 7 filters, p50, p95 and max,
  *     split into the first time a filter is asked ("cold": figures computed from the cached rows,
- *     with the per-case facts derived as the web server does at start — BENCH_UNDERIVED=1 leaves
- *     them to the first requests) and repeats (kept figures); then the first request just after a
+ *     with the per-case facts derived as the web server does at start — deriveCaseFacts, then the
+ *     columns of lib/outcomes/facts.ts; BENCH_UNDERIVED=1 leaves them to the first requests) and repeats (kept figures); then the first request just after a
  *     write to one case, without the warmer (incremental refresh of the rows, the view computed on them) and once the warmer ran
  *     (lib/services/outcomes-cache.ts warmOutcomes, as the web server does in the background).
  *     Also the full read alone (at start and after a bulk change) and the overview engine alone.
@@ -41,6 +41,7 @@ const reportService = await import('../../lib/services/outcomes-report');
 const worklistService = await import('../../lib/services/outcomes-worklist');
 const cacheModule = await import('../../lib/services/outcomes-cache');
 const lib = await import('../../lib/outcomes');
+const { rowFacts } = await import('../../lib/outcomes/facts');
 const { DEFAULT_MIN_OBSERVATION_DAYS } = await import('../../lib/scoring');
 const { benchActor, seedBenchPractice } = await import('../lib/bench-world');
 
@@ -137,7 +138,10 @@ const startReadMs = performance.now() - tStart;
 // BENCH_UNDERIVED=1 leaves them underived: the first request of each view then derives what it needs
 const UNDERIVED = process.env.BENCH_UNDERIVED === '1';
 const tDerive = performance.now();
-if (!UNDERIVED) for (const c of cachedRows) lib.deriveCaseFacts(c, cachedRows, DEFAULT_MIN_OBSERVATION_DAYS);
+if (!UNDERIVED) {
+  for (const c of cachedRows) lib.deriveCaseFacts(c, cachedRows, DEFAULT_MIN_OBSERVATION_DAYS);
+  rowFacts(cachedRows, DEFAULT_MIN_OBSERVATION_DAYS);
+}
 const deriveMs = performance.now() - tDerive;
 
 // A write to one case: one statement, as a review or a case edit makes (the triggers bump the data
@@ -217,7 +221,7 @@ console.log(`full read of the rows (readOutcomeCases): ${readMs.toFixed(0)} ms (
 console.log(
   UNDERIVED
     ? 'per-case facts NOT derived before the views (BENCH_UNDERIVED=1): the first request of each view derives what it needs'
-    : `per-case facts derived as the web server does at start in the background (warmAtStart, lib/outcomes deriveCaseFacts): ${deriveMs.toFixed(0)} ms`,
+    : `per-case facts derived as the web server does at start in the background (warmAtStart, lib/outcomes deriveCaseFacts, then rowFacts): ${deriveMs.toFixed(0)} ms`,
 );
 console.log(`after a write to one case: refresh of the rows ${refreshes.length ? refreshes.slice(0, 3).join(', ') : '–'}…; the warmer recomputed ${warmedViews} recent views in ${warmMs.toFixed(0)} ms (in the background in the web server)`);
 console.log(`\nservices called directly (as the route handlers call them; not over HTTP), fresh EntityManager fork per request;`);
