@@ -29,6 +29,9 @@ import { runUnderScriptsTsconfig } from '../lib/scripts-tsconfig';
 import { performance } from 'node:perf_hooks';
 
 await runUnderScriptsTsconfig(import.meta.url);
+// Every figure current (no lag, lib/env.ts OUTCOMES_MAX_LAG_MS): the first request after a write then
+// measures the refresh and the recomputation, as after a quiet spell; read before lib/env.ts is loaded.
+process.env.OUTCOMES_MAX_LAG_MS = '0';
 
 const { MikroORM } = await import('@mikro-orm/postgresql');
 const { default: config } = await import('../../mikro-orm.config');
