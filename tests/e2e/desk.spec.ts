@@ -78,6 +78,8 @@ test('the coordinator notes a call in a visit’s contact log', async ({ page })
   await signInAs(page, 'coordinator');
   await page.goto('/desk?queue=missed');
   const first = page.getByRole('button', { name: 'Contact log' }).first();
+  // the queue's rows load after the page: slowly on a busy machine (a CI run beside a bench timed out at 10 s)
+  await expect(first).toBeVisible({ timeout: 30_000 });
   await first.click();
   const log = page.getByRole('complementary', { name: 'Contact log' });
   await expect(log).toBeVisible();
