@@ -37,44 +37,34 @@ describe('pdfText', () => {
   });
 });
 
+/** The report's data for a practice without completed cases (every section empty). */
+function emptyReport(practiceName: string) {
+  const f = funnel([], 'm12', 365);
+  return {
+    practiceName,
+    generated: '2 Dec 2026, 10:30',
+    preparedBy: 'lead',
+    filters: [{ label: 'Completed', value: 'any date' }],
+    own: false,
+    overview: overview([], [], '2026-12-02', 365),
+    practice: null,
+    factorLabel: 'Treatment kind',
+    factorTable: byFactor([], 'kind', 365),
+    funnel: { filter: {}, own: false, asOf: { at: '2026-12-02T10:30:00.000Z', behind: false, maxLagMs: 0 }, clinicians: [], measure: 'm12' as const, measureLabel: 'strict success at 12 months', adjust: 'adjusted' as const, adjustShown: 'crude' as const, practice: f.practice, cases: 0, model: null, modelNote: f.modelNote, points: [], curve: [], literature: [], caution: FUNNEL_CAUTION },
+    methods: methodsParagraphs(365),
+  };
+}
+
 describe('the report with nothing to show', () => {
   it('a practice without completed cases still gets a PDF (no funnel, no table rows), not an error', async () => {
-    const f = funnel([], 'm12', 365);
-    const pdf = await renderOutcomesReport({
-      practiceName: 'Empty practice',
-      generated: '2 Dec 2026, 10:30',
-      preparedBy: 'lead',
-      filters: [{ label: 'Completed', value: 'any date' }],
-      own: false,
-      overview: overview([], [], '2026-12-02', 365),
-      practice: null,
-      factorLabel: 'Treatment kind',
-      factorTable: byFactor([], 'kind', 365),
-      funnel: { filter: {}, own: false, asOf: { at: '2026-12-02T10:30:00.000Z', behind: false, maxLagMs: 0 }, clinicians: [], measure: 'm12', measureLabel: 'strict success at 12 months', adjust: 'adjusted', adjustShown: 'crude', practice: f.practice, cases: 0, model: null, modelNote: f.modelNote, points: [], curve: [], literature: [], caution: FUNNEL_CAUTION },
-      methods: methodsParagraphs(365),
-    });
+    const pdf = await renderOutcomesReport(emptyReport('Empty practice'));
     expect(pdf.subarray(0, 5).toString('latin1')).toBe('%PDF-');
     expect(pdf.toString('latin1')).toMatch(/\/Type\s*\/Page\b/);
   }, 60_000);
 });
 
 describe('the shaping kept per font (lib/pdf/outcomes-report.tsx cachedShaping)', () => {
-  const data = (name: string) => {
-    const f = funnel([], 'm12', 365);
-    return {
-      practiceName: name,
-      generated: '2 Dec 2026, 10:30',
-      preparedBy: 'lead',
-      filters: [{ label: 'Completed', value: 'any date' }],
-      own: false,
-      overview: overview([], [], '2026-12-02', 365),
-      practice: null,
-      factorLabel: 'Treatment kind',
-      factorTable: byFactor([], 'kind', 365),
-      funnel: { filter: {}, own: false, asOf: { at: '2026-12-02T10:30:00.000Z', behind: false, maxLagMs: 0 }, clinicians: [], measure: 'm12' as const, measureLabel: 'strict success at 12 months', adjust: 'adjusted' as const, adjustShown: 'crude' as const, practice: f.practice, cases: 0, model: null, modelNote: f.modelNote, points: [], curve: [], literature: [], caution: FUNNEL_CAUTION },
-      methods: methodsParagraphs(365),
-    };
-  };
+  const data = emptyReport;
   // the creation date and the document id are the only bytes that may differ between two drawings
   const undated = (pdf: Buffer) => pdf.toString('latin1').replace(/\(D:\d+Z\)/g, '(D:)').replace(/\/ID \[<[0-9a-f]+> <[0-9a-f]+>\]/g, '/ID');
 
