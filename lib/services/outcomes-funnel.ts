@@ -41,8 +41,6 @@ export type FunnelPoint = Omit<FunnelUnit, 'id'> & {
 export interface FunnelReport {
   filter: OutcomeFilter;
   own: boolean;
-  /** when the figures' rows were read, and whether entries were saved since (lib/services/outcomes-cache.ts) */
-  asOf: DataAsOf;
   clinicians: { id: string; name: string }[];
   measure: FunnelMeasure;
   measureLabel: string;
@@ -76,7 +74,7 @@ export function funnelOfScope(s: Scope, measure: FunnelMeasure, adjust: 'crude' 
   });
   return {
     filter: s.filter,
-    own: s.own, asOf: s.asOf,
+    own: s.own,
     clinicians: s.clinicians,
     measure,
     measureLabel: FUNNEL_MEASURE_LABELS[measure],
@@ -93,12 +91,13 @@ export function funnelOfScope(s: Scope, measure: FunnelMeasure, adjust: 'crude' 
   };
 }
 
-export async function outcomesFunnel(em: EntityManager, actor: Actor, raw: unknown): Promise<FunnelReport> {
+/** The funnel for the screen: its figures, and when their rows were read (the printed report draws the figures alone). */
+export async function outcomesFunnel(em: EntityManager, actor: Actor, raw: unknown): Promise<FunnelReport & { asOf: DataAsOf }> {
   const q = parseInput(OutcomeFunnelQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const r = funnelOfScope(s, q.measure, q.adjust, actor.userId);
   await auditRead(em, actor, { action: 'outcomes.funnel_read', detail: { ...filterDetail(s.filter), measure: q.measure, adjust: r.adjustShown, clinicians: r.points.length } });
-  return r;
+  return { ...r, asOf: s.asOf };
 }
 
 const pct = (x: number | null) => (x === null ? null : Math.round(x * 10000) / 100);

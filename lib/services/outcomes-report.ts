@@ -73,9 +73,7 @@ async function reportData(em: EntityManager, actor: Actor, q: OutcomeReportQuery
 export async function outcomesReportPdf(em: EntityManager, actor: Actor, raw: unknown): Promise<{ pdf: Buffer; filename: string }> {
   const q = parseInput(OutcomeReportQuery, raw ?? {});
   const { data: d, s } = await reportData(em, actor, q, new Date());
-  // the key: what the report shows, not when it was drawn nor when its rows were read (same version, same figures)
-  const { generated: _drawnAt, funnel: { asOf: _readAt, ...funnelShown }, ...rest } = d;
-  const shown = { ...rest, funnel: funnelShown };
+  const { generated: _drawnAt, ...shown } = d;
   const { bytes: pdf, cached } = await memoDocument(actor.practiceId, s.version, ['report', s.filter, q.factor, q.measure, q.adjust, shown], () => renderOutcomesReport(d));
   await audit(em, actor, {
     action: 'outcomes.report_downloaded',

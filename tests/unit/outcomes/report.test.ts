@@ -50,7 +50,7 @@ function emptyReport(practiceName: string) {
     practice: null,
     factorLabel: 'Treatment kind',
     factorTable: byFactor([], 'kind', 365),
-    funnel: { filter: {}, own: false, asOf: { at: '2026-12-02T10:30:00.000Z', behind: false, maxLagMs: 0 }, clinicians: [], measure: 'm12' as const, measureLabel: 'strict success at 12 months', adjust: 'adjusted' as const, adjustShown: 'crude' as const, practice: f.practice, cases: 0, model: null, modelNote: f.modelNote, points: [], curve: [], literature: [], caution: FUNNEL_CAUTION },
+    funnel: { filter: {}, own: false, clinicians: [], measure: 'm12' as const, measureLabel: 'strict success at 12 months', adjust: 'adjusted' as const, adjustShown: 'crude' as const, practice: f.practice, cases: 0, model: null, modelNote: f.modelNote, points: [], curve: [], literature: [], caution: FUNNEL_CAUTION },
     methods: methodsParagraphs(365),
   };
 }
