@@ -19,9 +19,9 @@ export interface AuditInput {
   detail?: Record<string, unknown>;
 }
 
-/** Records who did or saw what. Flushes at once so the trail is written even if the caller fails later. */
-export async function audit(em: EntityManager, actor: Actor | null, input: AuditInput, extra?: Partial<AuditEvent>) {
-  const event = em.create(AuditEventSchema, {
+/** What an event records of the actor and the input (one home for both writers below). */
+function eventFields(actor: Actor | null, input: AuditInput) {
+  return {
     practiceId: actor?.practiceId ?? null,
     actorId: actor?.userId ?? null,
     actorEmail: actor?.email ?? null,
@@ -31,33 +31,24 @@ export async function audit(em: EntityManager, actor: Actor | null, input: Audit
     detail: input.detail ?? null,
     ip: actor?.ip ?? null,
     userAgent: actor?.userAgent?.slice(0, 300) ?? null,
-    ...extra,
-  } as AuditEvent);
+  };
+}
+
+/** Records who did or saw what. Flushes at once so the trail is written even if the caller fails later. */
+export async function audit(em: EntityManager, actor: Actor | null, input: AuditInput, extra?: Partial<AuditEvent>) {
+  const event = em.create(AuditEventSchema, { ...eventFields(actor, input), ...extra } as AuditEvent);
   await em.persist(event).flush();
   return event;
 }
 
 /**
- * Records who saw what, for a read: the same row as `audit`, written by one plain insert (in the
+ * Records who saw what, for a read: the same row as `audit`, written by one native insert (in the
  * request's transaction, if any) without the unit of work, which a read has nothing to flush in
  * but would still compare every entity it loaded (issue 15, load). Writes use `audit`, so their
  * event is flushed with their changes.
  */
 export async function auditRead(em: EntityManager, actor: Actor, input: AuditInput): Promise<void> {
-  await knexOf(em)('audit_event').insert({
-    id: randomUUID(),
-    at: new Date(),
-    practice_id: actor.practiceId,
-    actor_id: actor.userId,
-    actor_email: actor.email,
-    action: input.action,
-    entity_type: input.entityType ?? null,
-    entity_id: input.entityId ?? null,
-    // as JSON text: the driver would send a JS array as a PostgreSQL array
-    detail: input.detail === undefined ? null : JSON.stringify(input.detail),
-    ip: actor.ip ?? null,
-    user_agent: actor.userAgent?.slice(0, 300) ?? null,
-  });
+  await em.insert(AuditEventSchema, { id: randomUUID(), at: new Date(), ...eventFields(actor, input) } as AuditEvent);
 }
 
 /** One event as the audit trail shows it: plain words, the person and the record named. */
