@@ -8,8 +8,11 @@
  * - PostgreSQL SQLSTATE classes 08 (connection exception) and 57P01–57P03 (admin shutdown, crash
  *   shutdown, cannot connect now), from the PostgreSQL manual's Appendix A (error codes);
  * - Node's socket errors ECONNREFUSED, ECONNRESET, EPIPE, ETIMEDOUT, EHOSTUNREACH, ENOTFOUND;
- * - node-postgres' "Connection terminated" messages and knex's pool "Timeout acquiring a
- *   connection" (the pool could not reach the server in time);
+ * - node-postgres' "Connection terminated" messages, its refusal of a client whose connection
+ *   broke or was closed under it ("… is not queryable", met when the pool hands out a connection
+ *   the server just ended), its connect timeouts ("timeout expired", "timeout exceeded when trying
+ *   to connect"), and knex's pool "Timeout acquiring a connection" (the pool could not reach the
+ *   server in time);
  * - ioredis' "Connection is closed", MaxRetriesPerRequestError and, with the offline queue off (the
  *   web's client, lib/redis.ts), "Stream isn't writeable and enableOfflineQueue options is false".
  */
@@ -29,7 +32,7 @@ export class UnavailableError extends ServiceError {
 
 const SOCKET_CODES = new Set(['ECONNREFUSED', 'ECONNRESET', 'EPIPE', 'ETIMEDOUT', 'EHOSTUNREACH', 'ENOTFOUND', 'EAI_AGAIN']);
 const SQLSTATES = new Set(['57P01', '57P02', '57P03']);
-const MESSAGES = [/connection terminated/i, /enableOfflineQueue options is false/i, /timeout acquiring a connection/i, /connection is closed/i, /terminating connection due to administrator command/i, /the database system is (starting up|shutting down)/i, /client has encountered a connection error/i];
+const MESSAGES = [/connection terminated/i, /enableOfflineQueue options is false/i, /timeout acquiring a connection/i, /connection is closed/i, /terminating connection due to administrator command/i, /the database system is (starting up|shutting down)/i, /client has encountered a connection error/i, /client was closed and is not queryable/i, /^timeout expired$/, /timeout exceeded when trying to connect/i];
 
 function isUnavailableOne(e: { code?: unknown; sqlState?: unknown; name?: unknown; message?: unknown }): boolean {
   for (const code of [e.code, e.sqlState]) {

@@ -40,13 +40,15 @@ afterEach(async () => {
 afterAll(() => services.close());
 
 /** A service call as a route answers it: its value, or the status and headers errorResponse gives. */
-async function asResponse(fn: () => Promise<unknown>): Promise<{ status: number; retryAfter: string | null; error?: string }> {
+async function asResponse(fn: () => Promise<unknown>): Promise<{ status: number; retryAfter: string | null; error?: string; thrown?: string }> {
   try {
     await fn();
     return { status: 200, retryAfter: null };
   } catch (e) {
     const r = errorResponse(e);
-    return { status: r.status, retryAfter: r.headers.get('retry-after'), error: ((await r.json()) as { error: string }).error };
+    const answer = { status: r.status, retryAfter: r.headers.get('retry-after'), error: ((await r.json()) as { error: string }).error };
+    // anything but the 503 carries what was thrown, so a failure names the error to recognise
+    return r.status === 503 ? answer : { ...answer, thrown: `${(e as Error)?.name}: ${(e as Error)?.message}` };
   }
 }
 

@@ -14,6 +14,11 @@ describe('isServiceUnavailable', () => {
     expect(isServiceUnavailable(Object.assign(new Error('connect ECONNREFUSED 127.0.0.1:5432'), { code: 'ECONNREFUSED' }))).toBe(true);
     expect(isServiceUnavailable(new Error('Connection terminated unexpectedly'))).toBe(true);
     expect(isServiceUnavailable(new Error('Knex: Timeout acquiring a connection. The pool is probably full.'))).toBe(true);
+    // node-postgres (lib/client.js): a query on a client whose connection the server ended, and its connect timeout
+    expect(isServiceUnavailable(new Error('Client was closed and is not queryable'))).toBe(true);
+    expect(isServiceUnavailable(new Error('Client has encountered a connection error and is not queryable'))).toBe(true);
+    expect(isServiceUnavailable(new Error('timeout expired'))).toBe(true);
+    expect(isServiceUnavailable(new Error('timeout exceeded when trying to connect'))).toBe(true);
   });
 
   it('wrapped errors: MikroORM keeps the driver error as `previous`, others as `cause`, a refused dual-stack connect as an AggregateError', () => {
@@ -32,6 +37,7 @@ describe('isServiceUnavailable', () => {
     expect(isServiceUnavailable(pgError('23505', 'duplicate key value violates unique constraint'))).toBe(false);
     expect(isServiceUnavailable(pgError('42P01', 'relation "x" does not exist'))).toBe(false);
     expect(isServiceUnavailable(new TypeError('Cannot read properties of undefined'))).toBe(false);
+    expect(isServiceUnavailable(new Error('the visit’s timeout expired'))).toBe(false); // only node-postgres' own whole message
     expect(isServiceUnavailable(null)).toBe(false);
     expect(isServiceUnavailable('ECONNREFUSED')).toBe(false);
     const loop: { message: string; cause?: unknown } = { message: 'x' };
