@@ -9,7 +9,7 @@
  *   clinician's judged cases in the selection).
  * - **Risk-adjusted** (indirect standardisation): a logistic case-mix model of strict success on
  *   lesion size (mm), treatment kind, tooth group and PAI before treatment, fitted on the practice's
- *   judged cases (lib/stats `logisticRegression`, as R's glm); a clinician's expected successes E is
+ *   judged cases (lib/stats `logisticRegressionColumns`, as R's glm); a clinician's expected successes E is
  *   the sum of the predicted probabilities of their cases, O/E the ratio, and the adjusted rate
  *   O/E × p0 (Spiegelhalter DJ 2005, Funnel plots for comparing institutional performance, Stat Med
  *   24:1185–1202; Spiegelhalter 2005 Qual Saf Health Care 14:347–351 — from memory).
@@ -24,7 +24,7 @@
  *   Epidemiol 49:1373–1379 — from memory). Of the term sets that fit, the largest is used, ties in
  *   the order of TERMS. When none fits, the adjusted figures are not shown, and the screen says why.
  */
-import { funnelLimits, logisticRegression } from '@/lib/stats';
+import { funnelLimits, logisticRegressionColumns } from '@/lib/stats';
 import type { CaseKind } from '@/lib/registry/case-kinds';
 import { isStrictSuccess, outcomeAfterAYear, outcomeAtMilestone, type OutcomeCase } from './cases';
 import { FACTORS, levelLabel, rate, type Rate } from './compute';
@@ -62,32 +62,36 @@ export interface JudgedCase {
   y: boolean;
 }
 
-/** One column of the design: a number per case, and its name. */
+/** One column of the design: its value for each judged case (in the order given), and its name. */
 interface Column {
   term: CaseMixTerm;
   name: string;
-  value: (c: OutcomeCase) => number;
+  values: Float64Array;
 }
 
 const levelOf: Record<'kind' | 'group', (c: OutcomeCase) => string> = { kind: FACTORS.kind.code, group: FACTORS.group.code };
 /** A kind by its words; a tooth group by its code (lower case in the coefficient names). */
 const levelName = (term: 'kind' | 'group', level: string) => (term === 'kind' ? levelLabel('kind', level) : level);
 
-/** The columns a term can carry on these cases (none when it has no variation). */
+/** The columns a term can carry on these cases (none when it has no variation); each case's level is read once. */
 function columnsOf(term: CaseMixTerm, rows: readonly JudgedCase[]): { columns: Column[]; merged: string[]; reference?: string } {
+  const n = rows.length;
   if (term === 'lesion' || term === 'pai') {
-    const value = term === 'lesion' ? (c: OutcomeCase) => c.lesionDiameterMm : (c: OutcomeCase) => c.baselinePai;
-    const first = rows.length ? value(rows[0]!.c) : 0;
-    return rows.some((r) => value(r.c) !== first) ? { columns: [{ term, name: TERM_LABELS[term], value }], merged: [] } : { columns: [], merged: [] };
+    const values = new Float64Array(n);
+    for (let i = 0; i < n; i++) values[i] = term === 'lesion' ? rows[i]!.c.lesionDiameterMm : rows[i]!.c.baselinePai;
+    return values.some((v) => v !== values[0]) ? { columns: [{ term, name: TERM_LABELS[term], values }], merged: [] } : { columns: [], merged: [] };
   }
   const of = levelOf[term];
-  const counts = new Map<string, { n: number; y: number }>();
-  for (const r of rows) {
+  const counts = new Map<string, { index: number; n: number; y: number }>();
+  const levelAt = new Int32Array(n);
+  for (let i = 0; i < n; i++) {
+    const r = rows[i]!;
     const k = of(r.c);
-    const g = counts.get(k) ?? { n: 0, y: 0 };
+    let g = counts.get(k);
+    if (!g) counts.set(k, (g = { index: counts.size, n: 0, y: 0 }));
     g.n += 1;
     if (r.y) g.y += 1;
-    counts.set(k, g);
+    levelAt[i] = g.index;
   }
   const levels = [...counts.entries()].sort((a, b) => b[1].n - a[1].n || a[0].localeCompare(b[0]));
   if (levels.length < 2) return { columns: [], merged: [] };
@@ -95,8 +99,13 @@ function columnsOf(term: CaseMixTerm, rows: readonly JudgedCase[]): { columns: C
   const columns: Column[] = [];
   const merged: string[] = [];
   for (const [level, g] of levels.slice(1)) {
-    if (g.n < MIN_LEVEL_CASES || g.y === 0 || g.y === g.n) merged.push(levelName(term, level));
-    else columns.push({ term, name: `${TERM_LABELS[term]}: ${levelName(term, level)}`, value: (c) => (of(c) === level ? 1 : 0) });
+    if (g.n < MIN_LEVEL_CASES || g.y === 0 || g.y === g.n) {
+      merged.push(levelName(term, level));
+      continue;
+    }
+    const values = new Float64Array(n);
+    for (let i = 0; i < n; i++) if (levelAt[i] === g.index) values[i] = 1;
+    columns.push({ term, name: `${TERM_LABELS[term]}: ${levelName(term, level)}`, values });
   }
   return { columns, merged, reference: levelName(term, reference) };
 }
@@ -114,7 +123,8 @@ export interface CaseMixModel {
   merged: Partial<Record<CaseMixTerm, { reference: string; levels: string[] }>>;
   /** terms left out and why */
   left: { term: CaseMixTerm; reason: string }[];
-  predict: (c: OutcomeCase) => number;
+  /** the model's probability of strict success for each judged case, in the order given */
+  fitted: Float64Array;
 }
 
 function subsets<T>(items: readonly T[]): T[][] {
@@ -136,12 +146,20 @@ export function fitCaseMix(rows: readonly JudgedCase[]): { model: CaseMixModel |
     left.push({ term: t, reason: 'no variation (or every other level too small) in these cases' });
     return false;
   });
+  const n = rows.length;
+  const y = new Uint8Array(n);
+  for (let i = 0; i < n; i++) if (rows[i]!.y) y[i] = 1;
   for (const set of subsets(usable)) {
     const columns = set.flatMap((t) => byTerm.get(t)!.columns);
     if (rarer < EVENTS_PER_PARAMETER * columns.length) continue;
+    const p = columns.length;
+    const x = new Float64Array(n * p);
+    columns.forEach((col, j) => {
+      for (let i = 0; i < n; i++) x[i * p + j] = col.values[i]!;
+    });
     let fit;
     try {
-      fit = logisticRegression(rows.map((r) => ({ y: r.y, x: columns.map((col) => col.value(r.c)) })));
+      fit = logisticRegressionColumns({ y, p, x });
     } catch {
       continue;
     }
@@ -161,7 +179,7 @@ export function fitCaseMix(rows: readonly JudgedCase[]): { model: CaseMixModel |
         events,
         merged,
         left: left.sort((a, b) => TERMS.indexOf(a.term) - TERMS.indexOf(b.term)),
-        predict: (c) => 1 / (1 + Math.exp(-columns.reduce((s, col, j) => s + coef[j + 1]! * col.value(c), coef[0]!))),
+        fitted: fittedOf(coef, x, n, p),
       },
       reason: null,
     };
@@ -170,6 +188,17 @@ export function fitCaseMix(rows: readonly JudgedCase[]): { model: CaseMixModel |
     model: null,
     reason: usable.length === 0 ? 'no case-mix factor varies in these cases' : `too few ${events <= rows.length - events ? 'successes' : 'failures'} (${rarer}) for a case-mix model (at least ${EVENTS_PER_PARAMETER} per coefficient), or no model converged`,
   };
+}
+
+/** Each row's probability from the coefficients (intercept first) and the row-major design. */
+function fittedOf(coef: readonly number[], x: Float64Array, n: number, p: number): Float64Array {
+  const out = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    let e = coef[0]!;
+    for (let j = 0; j < p; j++) e += coef[j + 1]! * x[i * p + j]!;
+    out[i] = 1 / (1 + Math.exp(-e));
+  }
+  return out;
 }
 
 /** Where a rate sits against the funnel at its n. */
@@ -267,7 +296,7 @@ export interface Funnel {
   practice: Rate;
   /** completed cases in the selection */
   cases: number;
-  model: Omit<CaseMixModel, 'predict'> | null;
+  model: Omit<CaseMixModel, 'fitted'> | null;
   /** why there is no risk adjustment (null when there is) */
   modelNote: string | null;
   units: FunnelUnit[];
@@ -293,13 +322,20 @@ export function funnel(selection: readonly OutcomeCase[], measure: FunnelMeasure
   const p0 = practice.estimate;
   const hasFunnel = p0 !== null && p0 > 0 && p0 < 1;
   const { model, reason } = fitCaseMix(judged);
+  // each clinician's judged cases, observed successes and expected ones (the sum of the model's probabilities)
+  const tally = new Map<string, { n: number; observed: number; expected: number }>();
+  judged.forEach((j, i) => {
+    let t = tally.get(j.c.operatorId);
+    if (!t) tally.set(j.c.operatorId, (t = { n: 0, observed: 0, expected: 0 }));
+    t.n += 1;
+    if (j.y) t.observed += 1;
+    if (model) t.expected += model.fitted[i]!;
+  });
   const units: FunnelUnit[] = [...casesBy.entries()].map(([id, cases]) => {
-    const mine = judged.filter((j) => j.c.operatorId === id);
-    const observed = mine.filter((j) => j.y).length;
-    const n = mine.length;
+    const { n, observed, expected: sum } = tally.get(id) ?? { n: 0, observed: 0, expected: 0 };
     const crude = rate(observed, n);
     const limits = hasFunnel && n > 0 ? limitsAt(p0, n) : null;
-    const expected = model && n > 0 ? mine.reduce((s, j) => s + model.predict(j.c), 0) : null;
+    const expected = model && n > 0 ? sum : null;
     const oe = expected !== null && expected > 0 ? observed / expected : null;
     const adjusted = oe !== null && p0 !== null ? oe * p0 : null;
     return {
@@ -319,8 +355,8 @@ export function funnel(selection: readonly OutcomeCase[], measure: FunnelMeasure
   const maxN = Math.max(0, ...units.map((u) => u.n));
   let modelOut: Funnel['model'] = null;
   if (model) {
-    const { predict: _predict, ...rest } = model;
-    void _predict;
+    const { fitted: _fitted, ...rest } = model;
+    void _fitted;
     modelOut = rest;
   }
   return {

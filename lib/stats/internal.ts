@@ -248,3 +248,62 @@ export function choleskyInverse(a: Float64Array, p: number, tol = 1e-12): Float6
   }
   return inv;
 }
+
+export interface RowGroups {
+  /** number of groups */
+  size: number;
+  /** the group of each row, numbered 0..size-1 in order of first appearance */
+  group: Int32Array;
+  /** a row of each group (its first) */
+  first: Int32Array;
+  /** how many rows each group has */
+  count: Float64Array;
+}
+
+/**
+ * Rows of a row-major matrix (n rows of k numbers) grouped by equal values — the same bits, and
+ * the same `label` when one is given (an outcome 0/1) — in one pass with a hash table (open
+ * addressing, a table of at least twice n slots). The models' covariates are mostly factor levels,
+ * so 100,000 rows have a few hundred patterns and every sum over rows can be taken over the groups
+ * (each times its count). Two rows whose values are equal but not bit for bit (0 and -0) fall in
+ * two groups: still correct sums, one group more.
+ */
+export function groupEqualRows(x: Float64Array, n: number, k: number, label?: Uint8Array): RowGroups {
+  const words = new Uint32Array(x.buffer, x.byteOffset, n * k * 2);
+  const w = 2 * k;
+  let slots = 1024;
+  while (slots < 2 * n) slots *= 2;
+  const mask = slots - 1;
+  const table = new Int32Array(slots).fill(-1);
+  const group = new Int32Array(n);
+  const first = new Int32Array(n);
+  const count = new Float64Array(n);
+  let size = 0;
+  for (let i = 0; i < n; i++) {
+    const o = i * w;
+    let h = label ? label[i] + 1 : 0;
+    for (let j = 0; j < w; j++) h = Math.imul(h ^ words[o + j], 0x9e3779b1) ^ (h >>> 15);
+    h ^= h >>> 16;
+    let slot = h & mask;
+    for (;;) {
+      const g = table[slot];
+      if (g === -1) {
+        table[slot] = size;
+        first[size] = i;
+        count[size] = 1;
+        group[i] = size++;
+        break;
+      }
+      const f = first[g] * w;
+      let same = !label || label[first[g]] === label[i];
+      for (let j = 0; j < w && same; j++) same = words[f + j] === words[o + j];
+      if (same) {
+        count[g] += 1;
+        group[i] = g;
+        break;
+      }
+      slot = (slot + 1) & mask;
+    }
+  }
+  return { size, group, first: first.slice(0, size), count: count.slice(0, size) };
+}
