@@ -1,6 +1,6 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import { IN_PLACE_HIST_LENGTH, groupByTime, radixSort, radixSortInPlace } from '@/lib/stats/internal';
+import { IN_PLACE_HIST_LENGTH, groupByTime, groupEqualRows, radixSort, radixSortInPlace } from '@/lib/stats/internal';
 import { prng } from '@/tests/reference/datasets';
 
 // The radix sort must order like the native numeric sort and be stable (common practice).
@@ -105,5 +105,53 @@ describe('radixSortInPlace', () => {
     const mixedSorted = mixed.slice().sort();
     radixSortInPlace(mixed, scratch, hist);
     expect(Array.from(mixed)).toEqual(Array.from(mixedSorted));
+  });
+});
+
+describe('groupEqualRows', () => {
+  // checked against the obvious grouping: a Map keyed by the row's values (and label) as text
+  const naive = (x: Float64Array, n: number, k: number, label?: Uint8Array) => {
+    const ids = new Map<string, number>();
+    return Array.from({ length: n }, (_, i) => {
+      const key = `${label ? label[i] : ''}|${Array.from(x.subarray(i * k, i * k + k)).join(',')}`;
+      if (!ids.has(key)) ids.set(key, ids.size);
+      return ids.get(key)!;
+    });
+  };
+
+  it('numbers groups in order of first appearance, counts their rows and names a first row of each', () => {
+    const x = new Float64Array([1, 0, 0, 1, 1, 0, 2, 5, 0, 1]);
+    const g = groupEqualRows(x, 5, 2);
+    expect(g.size).toBe(3);
+    expect(Array.from(g.group)).toEqual([0, 1, 0, 2, 1]);
+    expect(Array.from(g.first)).toEqual([0, 1, 3]);
+    expect(Array.from(g.count)).toEqual([2, 2, 1]);
+  });
+
+  it('a label (an outcome) splits rows with equal values', () => {
+    const g = groupEqualRows(new Float64Array([3, 3, 3]), 3, 1, new Uint8Array([1, 0, 1]));
+    expect(Array.from(g.group)).toEqual([0, 1, 0]);
+  });
+
+  it('the same grouping as the obvious one on many rows of few patterns and of many (hash collisions included)', () => {
+    const rnd = prng(4242);
+    for (const [n, k, levels] of [[20_000, 4, 3], [5_000, 3, 1000], [3, 1, 2]] as const) {
+      const x = new Float64Array(n * k);
+      for (let i = 0; i < x.length; i++) x[i] = Math.floor(rnd() * levels) / 7;
+      const label = Uint8Array.from({ length: n }, () => (rnd() < 0.3 ? 1 : 0));
+      for (const l of [undefined, label]) {
+        const g = groupEqualRows(x, n, k, l);
+        const want = naive(x, n, k, l);
+        expect(Array.from(g.group)).toEqual(want);
+        expect(g.size).toBe(new Set(want).size);
+        expect(g.count.reduce((a, b) => a + b, 0)).toBe(n);
+      }
+    }
+  });
+
+  it('a subarray view is read where it starts', () => {
+    const buf = new Float64Array([9, 9, 1, 2, 1, 2]);
+    const g = groupEqualRows(buf.subarray(2), 2, 2);
+    expect(Array.from(g.group)).toEqual([0, 0]);
   });
 });
