@@ -53,6 +53,12 @@ export interface FilmCalibration extends Scale {
 export const MIN_REFERENCE_PX = 10;
 /** The longest known length accepted (mm): no file or tooth is longer (common practice). */
 export const MAX_REFERENCE_MM = 100;
+/**
+ * The shortest known length accepted (mm): nothing shorter can be drawn on a radiograph with any
+ * accuracy (common practice). It also keeps the scale a normal number: a length of 1e-320 mm
+ * divided by the pixels drawn rounds to 0 mm per pixel (found by the route fuzzer).
+ */
+export const MIN_REFERENCE_MM = 0.5;
 
 /** The most points an outline may have. */
 export const MAX_OUTLINE_POINTS = 500;
@@ -79,6 +85,7 @@ export function scaleFromPixelSpacing(spacing: readonly [number, number]): Scale
 export function scaleFromDrawnLength(a: FilmPoint, b: FilmPoint, mm: number, aspect = 1): Scale {
   positive(mm, 'the known length');
   if (mm > MAX_REFERENCE_MM) throw new CalibrationError(`the known length must be at most ${MAX_REFERENCE_MM} mm, got ${mm}`);
+  if (mm < MIN_REFERENCE_MM) throw new CalibrationError(`the known length must be at least ${MIN_REFERENCE_MM} mm, got ${mm}`);
   positive(aspect, 'the pixel aspect');
   const dx = b.x - a.x;
   const dy = b.y - a.y;

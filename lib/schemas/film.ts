@@ -1,6 +1,6 @@
 import { z } from 'zod';
 import { FILM_ROLES, FILM_ROLE_LABELS, FILM_VARIANTS } from '@/lib/films/roles';
-import { MAX_OUTLINE_POINTS, MAX_REFERENCE_MM } from '@/lib/films/calibration';
+import { MAX_OUTLINE_POINTS, MAX_REFERENCE_MM, MIN_REFERENCE_MM } from '@/lib/films/calibration';
 
 /** The fields of a film upload besides the file (multipart form fields). */
 export const FilmUploadFields = z.object({
@@ -43,6 +43,7 @@ export const FilmCalibrationInput = z.discriminatedUnion(
         .number({ error: 'Enter the known length in mm.' })
         .finite('Enter the known length in mm.')
         .positive('The known length must be more than 0 mm.')
+        .min(MIN_REFERENCE_MM, `The known length must be at least ${MIN_REFERENCE_MM} mm.`)
         .max(MAX_REFERENCE_MM, `The known length must be at most ${MAX_REFERENCE_MM} mm.`),
     }),
   ],

@@ -8,6 +8,7 @@ import {
   scaleFromPixelSpacing,
 } from '@/lib/films/calibration';
 import { distanceMm, lesionFigures, polygonAreaMm2, polygonAreaPx, roundTenth } from '@/lib/films/measure';
+import { FilmCalibrationInput } from '@/lib/schemas/film';
 
 describe('scale from DICOM pixel spacing', () => {
   // DICOM PS3.3 §10.7.1.3 (from memory): Pixel Spacing = row spacing (y) \ column spacing (x).
@@ -50,6 +51,9 @@ describe('scale from a known length drawn on the film (common practice: mm ÷ dr
     [{ x: 0, y: 0 }, { x: 5, y: 5 }, 10, /at least 10 pixels/],
     [{ x: 0, y: 0 }, { x: 100, y: 0 }, 0, /positive/],
     [{ x: 0, y: 0 }, { x: 100, y: 0 }, 150, /at most 100 mm/],
+    // a subnormal length would give 0 mm per pixel (the route fuzzer's counterexample: 2e-323 over 36 px)
+    [{ x: 2, y: 5 }, { x: 38, y: 5 }, 2e-323, /at least 0.5 mm/],
+    [{ x: 0, y: 0 }, { x: 100, y: 0 }, 0.4, /at least 0.5 mm/],
     [{ x: 0, y: 0 }, { x: Number.POSITIVE_INFINITY, y: 0 }, 10, /finite/],
   ])('refuses %j → %j over %s mm', (a, b, mm, message) => {
     expect(() => scaleFromDrawnLength(a, b, mm)).toThrow(message);
@@ -115,5 +119,14 @@ describe('lesion figures as stored', () => {
   });
   it('no outline, no area', () => {
     expect(lesionFigures({ a: { x: 0, y: 0 }, b: { x: 30, y: 40 } }, null, { mmPerPxX: 0.1, mmPerPxY: 0.1 })).toEqual({ diameterMm: 5, areaMm2: null });
+  });
+});
+
+describe('the calibration input (lib/schemas/film.ts)', () => {
+  it('refuses a known length under 0.5 mm with a message for the field, not a scale of 0', () => {
+    const r = FilmCalibrationInput.safeParse({ source: 'drawn', a: { x: 2, y: 5 }, b: { x: 38, y: 5 }, mm: 2e-323 });
+    expect(r.success).toBe(false);
+    expect(r.error?.issues.map((i) => [i.path.join('.'), i.message])).toEqual([['mm', 'The known length must be at least 0.5 mm.']]);
+    expect(FilmCalibrationInput.safeParse({ source: 'drawn', a: { x: 2, y: 5 }, b: { x: 38, y: 5 }, mm: 0.5 }).success).toBe(true);
   });
 });
