@@ -14,16 +14,19 @@ export function TableView<T>({
   header,
   rowProps,
   stack = false,
+  busy = false,
 }: {
   table: Table<T>;
   label?: string;
   header?: (columnId: string, content: ReactNode) => { content: ReactNode; ariaSort?: 'ascending' | 'descending' };
   rowProps?: (row: Row<T>) => HTMLAttributes<HTMLTableRowElement> & Record<`data-${string}`, string>;
   stack?: boolean;
+  /** the rows shown are the previous ones while new ones load: aria-busy tells assistive technology (and tests) to wait */
+  busy?: boolean;
 }) {
   return (
     <div className="overflow-x-auto rounded-lg border border-bone-200 bg-white">
-      <table className={`table-dense w-full${stack ? ' table-stack' : ''}`} aria-label={label}>
+      <table className={`table-dense w-full${stack ? ' table-stack' : ''}`} aria-label={label} aria-busy={busy || undefined}>
         <thead>
           {table.getHeaderGroups().map((hg) => (
             <tr key={hg.id}>

@@ -278,6 +278,8 @@ test('the recall desk by keyboard: invite a due visit, note a call in its contac
   await tabTo(page, page.getByRole('navigation', { name: 'Work queues' }).getByRole('button', { name: /To call$/ }), 'Shift+Tab');
   await page.keyboard.press('Enter');
   await expect(page.getByText(/agreed to recall contact but cannot be e-mailed|cannot be e-mailed/i).first()).toBeVisible();
+  // the previous queue's rows stay (aria-busy) until the call list's arrive: the target must be one of the new rows
+  await expect(table).not.toHaveAttribute('aria-busy', 'true', { timeout: 30_000 });
   const opener = table.getByRole('button', { name: 'Contact log' }).first();
   await expect(opener).toBeVisible();
   await tabTo(page, opener);

@@ -35,7 +35,7 @@ export function CasesTable({ clinicians, canImport, canWrite }: { clinicians: Op
   const page = Number(params.get('page') ?? '1') || 1;
   const filtered = FILTER_KEYS.some((k) => params.get(k));
 
-  const { data, isPending, isFetching, error } = useQuery({
+  const { data, isPending, isFetching, isPlaceholderData, error } = useQuery({
     queryKey: ['cases', query],
     queryFn: async (): Promise<CasePage> => {
       const res = await fetch(`/api/cases?${query}`);
@@ -188,6 +188,7 @@ export function CasesTable({ clinicians, canImport, canWrite }: { clinicians: Op
           <TableView
             table={table}
             label="Cases"
+            busy={isPlaceholderData}
             rowProps={() => ({ className: 'hover:bg-bone-50' })}
             header={(id, content) => {
               if (!sortable.has(id)) return { content };

@@ -278,7 +278,7 @@ export function Desk() {
         <EmptyState title="Nothing in this queue">{EMPTY_TEXT[queue]}</EmptyState>
       ) : (
         <>
-          <TableView stack table={table} label="Visits in this queue" rowProps={(row) => ({ 'data-testid': `desk-row-${row.original.patient.registryNumber}-${row.original.milestone}` })} />
+          <TableView stack table={table} label="Visits in this queue" busy={rows.isPlaceholderData} rowProps={(row) => ({ 'data-testid': `desk-row-${row.original.patient.registryNumber}-${row.original.milestone}` })} />
           <PagerButtons
             page={page}
             pages={rows.data ? pageCount(rows.data.total, rows.data.pageSize) : 1}
