@@ -9,6 +9,9 @@
 # as given in LAMINA_TEST_PG_PORT … LAMINA_TEST_S3_PORT (as for npm test). A benchmark whose file says
 # "bench: needs the production build" (the load bench) gets `next build` into .next-bench (skipped
 # when the sources did not change; LAMINA_BUILD=always forces it), with NEXT_DIST_DIR exported.
+# A benchmark whose file says "bench: runs as the web server" (the outcomes bench, which calls the
+# route handlers' services in its own process) runs with the web server's Node options
+# (LAMINA_WEB_NODE_OPTIONS, scripts/lib/services.sh), so its collector behaves as the server's.
 set -euo pipefail
 
 cd "$(dirname "${BASH_SOURCE[0]}")/.."
@@ -59,7 +62,9 @@ failed=()
 for file in "${benches[@]}"; do
   printf '\n==> %s\n' "$file"
   t0=$SECONDS
-  if node_modules/.bin/tsx "$file" </dev/null; then
+  node_options="${NODE_OPTIONS:-}"
+  if grep -q 'bench: runs as the web server' "$file"; then node_options="$node_options ${LAMINA_WEB_NODE_OPTIONS:-}"; fi
+  if NODE_OPTIONS="$node_options" node_modules/.bin/tsx "$file" </dev/null; then
     echo "(${file}: $((SECONDS - t0)) s)"
   else
     rc=$?

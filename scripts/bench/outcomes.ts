@@ -24,6 +24,9 @@
  *   BENCH_KEEP=1 keeps the practice; BENCH_REUSE=1 reuses a kept one of the same size.
  *
  * The data are invented (the demo world's seeded generator: the same figures on every run).
+ *
+ * bench: runs as the web server (scripts/bench.sh gives it the server's Node options, a 64 MB young
+ * generation; run by hand, set NODE_OPTIONS=--max-semi-space-size=64 for the same)
  */
 import { runUnderScriptsTsconfig } from '../lib/scripts-tsconfig';
 import { performance } from 'node:perf_hooks';
@@ -217,7 +220,7 @@ const counts = (await conn.execute(
   [practice.id, practice.id],
 )) as { cases: string; reviews: string }[];
 const num = (n: number | undefined) => (n === undefined ? '–' : n.toFixed(1)).padStart(9);
-console.log(`\nOutcomes benchmark (${today}; PostgreSQL ${(await conn.execute('show server_version'))[0].server_version}; Node ${process.version}; load average ${(await import('node:os')).loadavg().map((x) => x.toFixed(1)).join(' ')})`);
+console.log(`\nOutcomes benchmark (${today}; PostgreSQL ${(await conn.execute('show server_version'))[0].server_version}; Node ${process.version}${process.env.NODE_OPTIONS?.trim() ? ` (${process.env.NODE_OPTIONS.trim()})` : ''}; load average ${(await import('node:os')).loadavg().map((x) => x.toFixed(1)).join(' ')})`);
 console.log(seedNote);
 console.log(`practice: ${Number(counts[0]!.cases).toLocaleString('en-GB')} cases, ${Number(counts[0]!.reviews).toLocaleString('en-GB')} reviews; ${rows.length.toLocaleString('en-GB')} completed cases read`);
 console.log(`full read of the rows (readOutcomeCases): ${readMs.toFixed(0)} ms (again through the cache, as at start: ${startReadMs.toFixed(0)} ms); overview engine on them: ${overviewEngineMs.toFixed(0)} ms first, ${overviewEngineAgainMs.toFixed(0)} ms again (per-case facts memoised)`);
