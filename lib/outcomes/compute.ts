@@ -20,8 +20,8 @@ import { isLenientSuccess, isStrictSuccess, milestoneDays, MILESTONES, outcomeAf
 import {
   dayOf,
   type KmObservation,
-  OUTCOME_HEALED,
-  OUTCOME_HEALING,
+  kmObservation,
+  LENIENT_SUCCESS,
   OUTCOME_NONE,
   OUTCOME_UNCERTAIN,
   outcomeCode,
@@ -29,6 +29,7 @@ import {
   type RowFacts,
   selectionIn,
   type SelectionFacts,
+  STRICT_SUCCESS,
   toothLossStartsIn,
 } from './facts';
 
@@ -139,9 +140,8 @@ function successFigure(sel: SelectionFacts, at: FollowUpPoint, sinceToday: numbe
       continue;
     }
     n += 1;
-    // strict: healed; lenient: healed or healing (cases.ts isStrictSuccess / isLenientSuccess)
-    if (o === OUTCOME_HEALED) strict += 1;
-    if (o === OUTCOME_HEALED || o === OUTCOME_HEALING) lenient += 1;
+    strict += STRICT_SUCCESS[o]!;
+    lenient += LENIENT_SUCCESS[o]!;
   }
   const bounds = (x: number) => (n + missing === 0 ? { best: null, worst: null } : { best: (x + missing) / (n + missing), worst: x / (n + missing) });
   return { at, strict: rate(strict, n), lenient: rate(lenient, n), uncertain, missing, strictBounds: bounds(strict), lenientBounds: bounds(lenient) };
@@ -182,7 +182,7 @@ export interface Overview {
 
 /** Kaplan–Meier on intervals, an interval's event at its right end (the review that found it). */
 export function kmOf(intervals: readonly Interval[]) {
-  return kaplanMeier(intervals.map((i) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true })));
+  return kaplanMeier(intervals.map(kmObservation));
 }
 
 /**
@@ -216,7 +216,6 @@ export function overview(selection: readonly OutcomeCase[], all: readonly Outcom
   const dueAt = (months: number) => milestoneDays(months) + windowDays(months);
   const due12 = dueAt(12);
   const due24 = dueAt(24);
-  const due48 = dueAt(48);
   const at12 = facts.at12;
   const at24 = facts.at24;
   let reviewed = 0;
@@ -277,7 +276,6 @@ export function overview(selection: readonly OutcomeCase[], all: readonly Outcom
       turnbull: turnbullComputed ? (tr?.survival ?? 1) : null,
     };
   });
-  const dueFor = (at: FollowUpPoint) => (at === 'latest' ? due12 : at === 12 ? due12 : at === 24 ? due24 : at === 48 ? due48 : dueAt(at));
   return {
     today,
     cases: n,
@@ -286,7 +284,7 @@ export function overview(selection: readonly OutcomeCase[], all: readonly Outcom
     lostStillInvited,
     completeness,
     warning: completeness.some((c) => c.rate.n > 0 && (c.rate.estimate ?? 0) < COMPLETENESS_WARNING),
-    success: [...MILESTONES, 'latest' as const].map((at) => successFigure(sel, at, sinceToday, dueFor(at), minObs)),
+    success: [...MILESTONES, 'latest' as const].map((at) => successFigure(sel, at, sinceToday, dueAt(at === 'latest' ? 12 : at), minObs)),
     teeth: intervals.length,
     toothLossEvents,
     turnbullComputed,

@@ -16,6 +16,7 @@ import type { Interval } from '@/lib/scoring';
 import { cumulativeIncidence, logRank, medianSurvival, restrictedMeanInterval } from '@/lib/stats';
 import { healingObservation, milestoneDays, toothLossFrom, toothLossStarts, type OutcomeCase } from './cases';
 import { compareLevels, FACTORS, kmOf, TURNBULL_MAX, turnbullOrNull, type FactorKey } from './compute';
+import { kmObservation } from './facts';
 
 export const AT_RISK_MONTHS = [0, 6, 12, 24, 36, 48] as const;
 export type Endpoint = 'healing' | 'tooth';
@@ -67,8 +68,6 @@ export interface Curves {
   logRankNote: string | null;
   competing: { cause: string; points: { time: number; incidence: number; lower: number; upper: number }[] }[];
 }
-
-const obsOf = (i: Interval) => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true });
 
 /** A level's curve; null when Turnbull was asked and did not converge (the caller falls back to Kaplan–Meier). */
 function curveOf(level: string, intervals: Interval[], method: CurveMethod): Curve | null {
@@ -156,7 +155,7 @@ export function curves(
   if (withCases.length >= 2 && withCases.some((g) => g.intervals.some((i) => i.right !== null))) {
     const stratumOf = stratum ? FACTORS[stratum].level : null;
     try {
-      r = logRank(Object.fromEntries(withCases.map((g) => [g.level, g.obs.map((o) => (stratumOf ? { ...obsOf(o.i), stratum: stratumOf(o.c) } : obsOf(o.i)))])));
+      r = logRank(Object.fromEntries(withCases.map((g) => [g.level, g.obs.map((o) => (stratumOf ? { ...kmObservation(o.i), stratum: stratumOf(o.c) } : kmObservation(o.i)))])));
     } catch (e) {
       // a singular variance: no event time (in any stratum) has two levels at risk, so the test has no information
       if (!(e instanceof RangeError)) throw e;

@@ -15,7 +15,7 @@
  */
 import { daysBetween, type CalendarDate } from '@/lib/registry/calendar-date';
 import type { Interval, ReviewOutcome } from '@/lib/scoring';
-import { healingObservation, outcomeAfterAYear, outcomeAtMilestone, toothLossFrom, type OutcomeCase } from './cases';
+import { healingObservation, isLenientSuccess, isStrictSuccess, outcomeAfterAYear, outcomeAtMilestone, toothLossFrom, type OutcomeCase } from './cases';
 
 /** An outcome as a small number: 0 not known (null), then healed, healing, uncertain, any failure. */
 export const OUTCOME_NONE = 0;
@@ -26,13 +26,28 @@ export const OUTCOME_FAILURE = 4;
 export function outcomeCode(o: ReviewOutcome | null): number {
   return o === null ? OUTCOME_NONE : o === 'healed' ? OUTCOME_HEALED : o === 'healing' ? OUTCOME_HEALING : o === 'uncertain' ? OUTCOME_UNCERTAIN : OUTCOME_FAILURE;
 }
+/** 1 where an outcome code is a strict / a lenient success: cases.ts isStrictSuccess and isLenientSuccess (the one rule) of the code's outcome. */
+const CODE_OUTCOME: readonly ReviewOutcome[] = ['healed', 'healing', 'uncertain', 'disease'];
+const successByCode = (isSuccess: (o: ReviewOutcome) => boolean) => Uint8Array.from([0, ...CODE_OUTCOME.map((o) => (isSuccess(o) ? 1 : 0))]);
+export const STRICT_SUCCESS = successByCode(isStrictSuccess);
+export const LENIENT_SUCCESS = successByCode(isLenientSuccess);
 
-/** A Kaplan–Meier observation of an interval (the event at the review that found it), as compute.ts `kmOf` makes it. */
+/** A Kaplan–Meier observation of an interval: the event at the review that found it (compute.ts kmOf, curves.ts, the overview). */
 export interface KmObservation {
   time: number;
   event: boolean;
 }
-const kmObservation = (i: Interval): KmObservation => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true });
+export const kmObservation = (i: Interval): KmObservation => (i.right === null ? { time: i.left, event: false } : { time: i.right, event: true });
+
+/** Days from 1970-01-01 to `date` (the completion days' origin). */
+export const dayOf = (date: CalendarDate): number => daysBetween('1970-01-01', date);
+
+/** 0, 1, …, n - 1 (a plain loop: Int32Array.from(keys()) walks an iterator, ~10 ms at 100,000). */
+export function everyIndex(n: number): Int32Array {
+  const out = new Int32Array(n);
+  for (let k = 0; k < n; k++) out[k] = k;
+  return out;
+}
 
 export interface RowFacts {
   /** the cases, in order: fact k is of cases[k] */
@@ -86,7 +101,7 @@ function buildFacts(cases: readonly OutcomeCase[], all: readonly OutcomeCase[], 
   }
   for (let k = 0; k < n; k++) {
     const c = cases[k]!;
-    f.completionDay[k] = daysBetween('1970-01-01', c.completionDate);
+    f.completionDay[k] = dayOf(c.completionDate);
     f.at12[k] = outcomeCode(outcomeAtMilestone(c, 12, minObs));
     f.at24[k] = outcomeCode(outcomeAtMilestone(c, 24, minObs));
     f.at48[k] = outcomeCode(outcomeAtMilestone(c, 48, minObs));
@@ -137,7 +152,7 @@ export function selectionIn(selection: readonly OutcomeCase[], all: readonly Out
   if (remembered && remembered.from === all && remembered.at.length === n && (n === 0 || (selection[0] === all[remembered.at[0]!] && selection[n - 1] === all[remembered.at[n - 1]!]))) {
     return { facts: rowFacts(all, minObs), at: remembered.at };
   }
-  if (selection === all) return { facts: rowFacts(all, minObs), at: identity(all.length) };
+  if (selection === all) return { facts: rowFacts(all, minObs), at: everyIndex(all.length) };
   const facts = rowFacts(all, minObs);
   if (!facts.position) {
     const position = new Map<OutcomeCase, number>();
@@ -147,20 +162,11 @@ export function selectionIn(selection: readonly OutcomeCase[], all: readonly Out
   const at = new Int32Array(selection.length);
   for (let k = 0; k < selection.length; k++) {
     const p = facts.position.get(selection[k]!);
-    if (p === undefined) return { facts: buildFacts(selection, all, minObs), at: identity(selection.length) };
+    if (p === undefined) return { facts: buildFacts(selection, all, minObs), at: everyIndex(selection.length) };
     at[k] = p;
   }
   return { facts, at };
 }
-
-function identity(n: number): Int32Array {
-  const at = new Int32Array(n);
-  for (let k = 0; k < n; k++) at[k] = k;
-  return at;
-}
-
-/** Days from 1970-01-01 to `date` (the completion days' origin). */
-export const dayOf = (date: CalendarDate): number => daysBetween('1970-01-01', date);
 
 /**
  * The positions (into `s.at`) of the cases that start a tooth's follow-up in the selection: as

@@ -29,7 +29,7 @@ import { coxPHColumns, logisticRegressionColumns } from '@/lib/stats';
 import type { Interval } from '@/lib/scoring';
 import { patientNumbers, type OutcomeCase } from './cases';
 import { FACTORS, levelOrder, type FactorKey } from './compute';
-import { OUTCOME_HEALED, OUTCOME_NONE, OUTCOME_UNCERTAIN, selectionIn, toothLossStartsIn, type RowFacts, type SelectionFacts } from './facts';
+import { everyIndex, OUTCOME_NONE, OUTCOME_UNCERTAIN, selectionIn, STRICT_SUCCESS, toothLossStartsIn, type RowFacts, type SelectionFacts } from './facts';
 
 /** A level with fewer rows than this is merged (or left out). */
 export const MIN_LEVEL_ROWS = 10;
@@ -104,14 +104,18 @@ interface Covariates {
   read: ({ choice: CovariateChoice; numeric: false; level: Int32Array; levels: string[] } | { choice: CovariateChoice; numeric: true; value: Float64Array })[];
 }
 
+/** The choices without repeats (the first of a key kept), each marked numeric only where its key can be. */
+function distinctChoices(choices: readonly CovariateChoice[]): { key: FactorKey; numeric: boolean }[] {
+  const out = new Map<FactorKey, { key: FactorKey; numeric: boolean }>();
+  for (const c of choices) if (!out.has(c.key)) out.set(c.key, { key: c.key, numeric: c.numeric === true && isNumericKey(c.key) });
+  return [...out.values()];
+}
+
 function readCovariates(cases: readonly OutcomeCase[], choices: readonly CovariateChoice[]): Covariates {
   const n = cases.length;
   const read: Covariates['read'] = [];
-  const seen = new Set<FactorKey>();
-  for (const choice of choices) {
-    if (seen.has(choice.key)) continue;
-    seen.add(choice.key);
-    if (choice.numeric === true && isNumericKey(choice.key)) {
+  for (const choice of distinctChoices(choices)) {
+    if (choice.numeric && isNumericKey(choice.key)) {
       const value = NUMERIC_COVARIATES[choice.key].value;
       const values = new Float64Array(n);
       for (let i = 0; i < n; i++) values[i] = value(cases[i]!);
@@ -151,14 +155,10 @@ function covariatesOfSelection(s: SelectionFacts, choices: readonly CovariateCho
   const at = s.at;
   const n = at.length;
   const read: Covariates['read'] = [];
-  const seen = new Set<FactorKey>();
-  for (const choice of choices) {
-    if (seen.has(choice.key)) continue;
-    seen.add(choice.key);
-    const numeric = choice.numeric === true && isNumericKey(choice.key);
-    const id = `${choice.key}:${numeric}`;
+  for (const choice of distinctChoices(choices)) {
+    const id = `${choice.key}:${choice.numeric}`;
     let whole = kept.get(id);
-    if (!whole) kept.set(id, (whole = readCovariates(s.facts.cases, [numeric ? { key: choice.key, numeric: true } : { key: choice.key }]).read[0]!));
+    if (!whole) kept.set(id, (whole = readCovariates(s.facts.cases, [choice]).read[0]!));
     if (whole.numeric) {
       const values = new Float64Array(n);
       for (let k = 0; k < n; k++) values[k] = whole.value[at[k]!]!;
@@ -509,13 +509,6 @@ export function coxModel(
   return coxOf(readSelection(selection, all, choices, opts.minObs), opts);
 }
 
-/** 0, 1, …, n - 1 (a plain loop: Int32Array.from(keys()) walks an iterator, ~10 ms at 100,000). */
-function everyIndex(n: number): Int32Array {
-  const out = new Int32Array(n);
-  for (let i = 0; i < n; i++) out[i] = i;
-  return out;
-}
-
 function coxOf(sel: Selection, opts: { endpoint: ModelEndpoint; minObs: number; levelName?: LevelName; minLevel?: number }): ModelFit {
   // the model's cases (indices into the selection) and their intervals (lib/outcomes/facts.ts)
   const { facts, at } = sel.facts;
@@ -593,7 +586,7 @@ function logisticOf(sel: Selection, opts: { minObs: number; levelName?: LevelNam
       uncertain += 1;
       continue;
     }
-    outcomes[judgedN] = o === OUTCOME_HEALED ? 1 : 0;
+    outcomes[judgedN] = STRICT_SUCCESS[o]!;
     judgedAt[judgedN++] = i;
   }
   const judged = judgedAt.subarray(0, judgedN);
