@@ -53,30 +53,28 @@ function vm(pid: number): { hwm: number; rss: number } | null {
   }
 }
 
-/** CPU time (user + system, ms) of a process so far, from /proc (Linux); null once it is gone. */
-function cpuMs(pid: number): number | null {
+/** The fields of /proc/PID/stat after the command name (field 3, the state, first); null once the process is gone. */
+function statFields(pid: number | string): string[] | null {
   try {
     const stat = fs.readFileSync(`/proc/${pid}/stat`, 'utf8');
-    const f = stat.slice(stat.lastIndexOf(')') + 2).split(' ');
-    return ((Number(f[11]) + Number(f[12])) * 1000) / 100; // clock ticks (USER_HZ 100)
+    return stat.slice(stat.lastIndexOf(')') + 2).split(' ');
   } catch {
     return null;
   }
 }
 
+/** CPU time (user + system, ms) of a process so far, from /proc (Linux); null once it is gone. */
+function cpuMs(pid: number): number | null {
+  const f = statFields(pid);
+  return f ? ((Number(f[11]) + Number(f[12])) * 1000) / 100 : null; // clock ticks (USER_HZ 100)
+}
+
 /** Children of a process (PostgreSQL's backends under its postmaster). */
 function childrenOf(ppid: number): number[] {
-  const out: number[] = [];
-  for (const name of fs.readdirSync('/proc')) {
-    if (!/^\d+$/.test(name)) continue;
-    try {
-      const stat = fs.readFileSync(`/proc/${name}/stat`, 'utf8');
-      if (Number(stat.slice(stat.lastIndexOf(')') + 2).split(' ')[1]) === ppid) out.push(Number(name));
-    } catch {
-      // gone meanwhile
-    }
-  }
-  return out;
+  return fs
+    .readdirSync('/proc')
+    .filter((name) => /^\d+$/.test(name) && Number(statFields(name)?.[1]) === ppid)
+    .map(Number);
 }
 
 const readPid = (file: string): number | null => {
