@@ -213,6 +213,20 @@ export function toothLossObservations(selection: readonly OutcomeCase[], all: re
   return toothLossStarts(selection).map((c) => toothLossFrom(c, all, minObservationDays));
 }
 
+const CAUSE_OF: Record<string, string | undefined> = { retreated: 'retreatment', surgery: 'apical surgery', extracted: 'extraction' };
+
+/**
+ * The case's first retreatment, apical surgery or extraction (days from completion to its own date
+ * when known, else to the review that recorded it) as a competing event; else censored at the last
+ * review (time 0 without one). curves.ts draws their cumulative incidence.
+ */
+export function competingEvent(c: OutcomeCase): { time: number; cause: string | null } {
+  const first = c.reviews.find((r) => r.toothStatus !== 'present');
+  if (first) return { time: daysBetween(c.completionDate, first.eventDate ?? first.reviewDate), cause: CAUSE_OF[first.toothStatus]! };
+  const last = c.reviews[c.reviews.length - 1];
+  return { time: last ? daysBetween(c.completionDate, last.reviewDate) : 0, cause: null };
+}
+
 /** The cases of a selection that start a tooth's follow-up in it (the earliest case of each tooth in the selection), in selection order. */
 export function toothLossStarts(selection: readonly OutcomeCase[]): OutcomeCase[] {
   const selected = new Set(selection.map((c) => c.id));

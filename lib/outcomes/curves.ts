@@ -11,12 +11,11 @@
  * - cumulative incidence of the first retreatment, apical surgery and extraction as competing
  *   events (Aalen–Johansen), censored at the last review.
  */
-import { daysBetween } from '@/lib/registry/calendar-date';
 import type { Interval } from '@/lib/scoring';
-import { cumulativeIncidence, logRank, medianSurvival, restrictedMeanInterval } from '@/lib/stats';
-import { healingObservation, milestoneDays, toothLossFrom, toothLossStarts, type OutcomeCase } from './cases';
-import { compareLevels, FACTORS, kmOf, TURNBULL_MAX, turnbullOrNull, type FactorKey } from './compute';
-import { kmObservation } from './facts';
+import { cumulativeIncidence, kaplanMeier, logRank, medianSurvival, restrictedMeanInterval } from '@/lib/stats';
+import { competingEvent, milestoneDays, type OutcomeCase } from './cases';
+import { compareLevels, FACTORS, TURNBULL_MAX, turnbullOrNull, type FactorKey } from './compute';
+import { selectionIn, toothLossStartsIn, type KmObservation, type SelectionFacts } from './facts';
 
 export const AT_RISK_MONTHS = [0, 6, 12, 24, 36, 48] as const;
 export type Endpoint = 'healing' | 'tooth';
@@ -69,13 +68,13 @@ export interface Curves {
   competing: { cause: string; points: { time: number; incidence: number; lower: number; upper: number }[] }[];
 }
 
-/** A level's curve; null when Turnbull was asked and did not converge (the caller falls back to Kaplan–Meier). */
-function curveOf(level: string, intervals: Interval[], method: CurveMethod): Curve | null {
+/** A level's curve from its intervals and their Kaplan–Meier observations; null when Turnbull was asked and did not converge (the caller falls back to Kaplan–Meier). */
+function curveOf(level: string, intervals: readonly Interval[], observations: readonly KmObservation[], method: CurveMethod): Curve | null {
   let points: CurvePoint[] = [{ time: 0, survival: 1, lower: 1, upper: 1 }];
   let median: Curve['median'] = { median: null, lower: null, upper: null };
   let rmst: Curve['rmst'] = null;
   if (intervals.length > 0) {
-    const km = kmOf(intervals);
+    const km = kaplanMeier(observations);
     if (method === 'km') points.push(...km.map((s) => ({ time: s.time, survival: s.survival, lower: s.lower, upper: s.upper })));
     else {
       const tb = turnbullOrNull(intervals);
@@ -86,28 +85,24 @@ function curveOf(level: string, intervals: Interval[], method: CurveMethod): Cur
     const tau = milestoneDays(RMST_MONTHS);
     if (km[km.length - 1]!.time >= tau) rmst = restrictedMeanInterval(km, tau);
   }
-  return {
-    level,
-    n: intervals.length,
-    events: intervals.filter((i) => i.right !== null).length,
-    points,
-    censored: [...new Set(intervals.filter((i) => i.right === null).map((i) => i.left))].sort((a, b) => a - b),
-    atRisk: AT_RISK_MONTHS.map((m) => intervals.filter((i) => (i.right ?? i.left) >= milestoneDays(m)).length),
-    median,
-    rmst,
-  };
+  // events, censoring days and numbers at risk ((right ?? left) ≥ t) in one pass
+  let events = 0;
+  const censored = new Set<number>();
+  const atRisk = AT_RISK_MONTHS.map(() => 0);
+  for (const i of intervals) {
+    if (i.right !== null) events++;
+    else censored.add(i.left);
+    const t = i.right ?? i.left;
+    for (let m = 0; m < AT_RISK_DAYS.length; m++) if (t >= AT_RISK_DAYS[m]!) atRisk[m]! += 1;
+  }
+  return { level, n: intervals.length, events, points, censored: [...censored].sort((a, b) => a - b), atRisk, median, rmst };
 }
 
-const CAUSE_OF: Record<string, string | undefined> = { retreated: 'retreatment', surgery: 'apical surgery', extracted: 'extraction' };
+const AT_RISK_DAYS = AT_RISK_MONTHS.map(milestoneDays);
 
-/** The first retreatment, surgery or extraction of each case (its own date when known), else censored at the last review. */
+/** The first retreatment, surgery or extraction of each case (its own date when known), else censored at the last review (cases.ts competingEvent). */
 export function competingRows(selection: readonly OutcomeCase[]): { time: number; cause: string | null }[] {
-  return selection.map((c) => {
-    const first = c.reviews.find((r) => r.toothStatus !== 'present');
-    if (first) return { time: daysBetween(c.completionDate, first.eventDate ?? first.reviewDate), cause: CAUSE_OF[first.toothStatus]! };
-    const last = c.reviews[c.reviews.length - 1];
-    return { time: last ? daysBetween(c.completionDate, last.reviewDate) : 0, cause: null };
-  });
+  return selection.map(competingEvent);
 }
 
 /** Restricted mean survival time horizon: 48 months (the registry's longest milestone). */
@@ -118,34 +113,44 @@ export function curves(
   all: readonly OutcomeCase[],
   opts: { endpoint: Endpoint; method: CurveMethod; factor: FactorKey | null; stratum?: FactorKey | null; minObs: number; levelName?: (level: string) => string },
 ): Curves {
-  const groups = new Map<string, OutcomeCase[]>();
+  // the selection's per-case facts (facts.ts: the rules of cases.ts, kept per rows array), read by position
+  const sel = selectionIn(selection, all, opts.minObs);
+  const { facts, at } = sel;
+  const groups = new Map<string, number[]>();
   const levelOf = opts.factor ? FACTORS[opts.factor].level : () => 'All cases';
-  for (const c of selection) {
-    const k = levelOf(c);
-    const g = groups.get(k);
-    if (g) g.push(c);
-    else groups.set(k, [c]);
+  for (let k = 0; k < selection.length; k++) {
+    const key = levelOf(selection[k]!);
+    const g = groups.get(key);
+    if (g) g.push(at[k]!);
+    else groups.set(key, [at[k]!]);
   }
   const order = compareLevels(opts.factor);
   const named = (level: string) => (opts.levelName ? opts.levelName(level) : level);
   const sorted = [...groups.entries()].sort(([a], [b]) => order(named(a), named(b)));
-  // each observation with the case it starts from (a tooth from its earliest case in the level, as
-  // toothLossObservations on the level's cases), for the stratum
-  const observe = (cases: OutcomeCase[]) =>
-    opts.endpoint === 'tooth'
-      ? toothLossStarts(cases).map((c) => ({ c, i: toothLossFrom(c, all, opts.minObs) }))
-      : cases.map((c) => ({ c, i: healingObservation(c, opts.minObs) }));
-  const byLevel = sorted.map(([level, cases]) => {
-    const obs = observe(cases);
-    return { level, obs, intervals: obs.map((o) => o.i) };
+  // each level's observations by the position of the case they start from: a tooth from its earliest
+  // case in the level (as toothLossObservations on the level's cases), else every case's healing
+  const tooth = opts.endpoint === 'tooth';
+  const starts = (positions: number[]): Int32Array => {
+    const level: SelectionFacts = { facts, at: Int32Array.from(positions) };
+    return toothLossStartsIn(level).map((k) => level.at[k]!);
+  };
+  const byLevel = sorted.map(([level, positions]) => {
+    const from = tooth ? starts(positions) : positions;
+    const intervals: Interval[] = [];
+    const observations: KmObservation[] = [];
+    for (const p of from) {
+      intervals.push(tooth ? facts.toothLoss[p]! : facts.healing[p]!);
+      observations.push(tooth ? facts.toothLossKm[p]! : facts.healingKm[p]!);
+    }
+    return { level, from, intervals, observations };
   });
   const total = byLevel.reduce((s, g) => s + g.intervals.length, 0);
   let method: CurveMethod = opts.method === 'turnbull' && total > TURNBULL_MAX ? 'km' : opts.method;
-  let curveList = byLevel.map((g) => curveOf(named(g.level), g.intervals, method));
+  let curveList = byLevel.map((g) => curveOf(named(g.level), g.intervals, g.observations, method));
   const turnbullFailed = curveList.some((c) => c === null);
   if (turnbullFailed) {
     method = 'km';
-    curveList = byLevel.map((g) => curveOf(named(g.level), g.intervals, 'km'));
+    curveList = byLevel.map((g) => curveOf(named(g.level), g.intervals, g.observations, 'km'));
   }
   const withCases = byLevel.filter((g) => g.intervals.length > 0);
   const stratum = opts.stratum && opts.stratum !== opts.factor ? opts.stratum : null;
@@ -155,7 +160,11 @@ export function curves(
   if (withCases.length >= 2 && withCases.some((g) => g.intervals.some((i) => i.right !== null))) {
     const stratumOf = stratum ? FACTORS[stratum].level : null;
     try {
-      r = logRank(Object.fromEntries(withCases.map((g) => [g.level, g.obs.map((o) => (stratumOf ? { ...kmObservation(o.i), stratum: stratumOf(o.c) } : kmObservation(o.i)))])));
+      r = logRank(
+        Object.fromEntries(
+          withCases.map((g) => [g.level, stratumOf ? Array.from(g.from, (p, j) => ({ ...g.observations[j]!, stratum: stratumOf(facts.cases[p]!) })) : g.observations]),
+        ),
+      );
     } catch (e) {
       // a singular variance: no event time (in any stratum) has two levels at risk, so the test has no information
       if (!(e instanceof RangeError)) throw e;
@@ -175,7 +184,7 @@ export function curves(
         : 'log-rank test (Mantel–Haenszel, as R survdiff)',
     };
   }
-  const rows = competingRows(selection);
+  const rows = Array.from(at, (p) => facts.competing[p]!);
   const ci = rows.length > 0 ? cumulativeIncidence(rows) : {};
   return {
     endpoint: opts.endpoint,

@@ -15,7 +15,7 @@
  */
 import { daysBetween, type CalendarDate } from '@/lib/registry/calendar-date';
 import type { Interval, ReviewOutcome } from '@/lib/scoring';
-import { healingObservation, isLenientSuccess, isStrictSuccess, outcomeAfterAYear, outcomeAtMilestone, toothLossFrom, type OutcomeCase } from './cases';
+import { competingEvent, healingObservation, isLenientSuccess, isStrictSuccess, outcomeAfterAYear, outcomeAtMilestone, toothLossFrom, type OutcomeCase } from './cases';
 
 /** An outcome as a small number: 0 not known (null), then healed, healing, uncertain, any failure. */
 export const OUTCOME_NONE = 0;
@@ -67,11 +67,14 @@ export interface RowFacts {
   /** the first position in `cases` of the case's id, and of its previous case's id (-1: not among them) */
   idAt: Int32Array;
   previousAt: Int32Array;
-  /** the healing observation of the case (healingObservation) */
+  /** the healing observation of the case (healingObservation), and its Kaplan–Meier observation */
   healing: Interval[];
+  healingKm: KmObservation[];
   /** the tooth-loss observation followed from the case (toothLossFrom across `all`), and its Kaplan–Meier observation */
   toothLoss: Interval[];
   toothLossKm: KmObservation[];
+  /** the case's first competing event, or its censoring (cases.ts competingEvent) */
+  competing: { time: number; cause: string | null }[];
   /** built lazily (selections of other arrays of the same objects): position of each case object */
   position?: Map<OutcomeCase, number>;
 }
@@ -91,8 +94,10 @@ function buildFacts(cases: readonly OutcomeCase[], all: readonly OutcomeCase[], 
     idAt: new Int32Array(n),
     previousAt: new Int32Array(n),
     healing: new Array<Interval>(n),
+    healingKm: new Array<KmObservation>(n),
     toothLoss: new Array<Interval>(n),
     toothLossKm: new Array<KmObservation>(n),
+    competing: new Array<{ time: number; cause: string | null }>(n),
   };
   const firstOf = new Map<string, number>();
   for (let k = 0; k < n; k++) {
@@ -111,6 +116,8 @@ function buildFacts(cases: readonly OutcomeCase[], all: readonly OutcomeCase[], 
     f.idAt[k] = firstOf.get(c.id)!;
     f.previousAt[k] = c.previousCaseId ? (firstOf.get(c.previousCaseId) ?? -1) : -1;
     f.healing[k] = healingObservation(c, minObs);
+    f.healingKm[k] = kmObservation(f.healing[k]!);
+    f.competing[k] = competingEvent(c);
     const loss = toothLossFrom(c, all, minObs);
     f.toothLoss[k] = loss;
     f.toothLossKm[k] = kmObservation(loss);

@@ -339,6 +339,9 @@ export async function memoDocument(practiceId: string, version: string, key: rea
   return { bytes: await pending, cached: shared };
 }
 
+/** How many views' figures are kept, over every practice (the start's warming is checked by it). */
+export const keptViewCount = (): number => views.size;
+
 /** Forget every cached practice, view and document (the benchmark's cold requests; tests). */
 export function invalidateOutcomeCases(): void {
   cache.clear();

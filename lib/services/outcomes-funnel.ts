@@ -91,12 +91,17 @@ export function funnelOfScope(s: Scope, measure: FunnelMeasure, adjust: 'crude' 
   };
 }
 
-/** The funnel for the screen: its figures, and when their rows were read (the printed report draws the figures alone). */
-export async function outcomesFunnel(em: EntityManager, actor: Actor, raw: unknown): Promise<FunnelReport & { asOf: DataAsOf }> {
+/** The funnel of the actor's choices and its scope (no audit: callers audit). */
+export async function funnelReport(em: EntityManager, actor: Actor, raw: unknown): Promise<{ s: Scope; r: FunnelReport }> {
   const q = parseInput(OutcomeFunnelQuery, raw ?? {});
   const s = await scope(em, actor, q);
-  const r = funnelOfScope(s, q.measure, q.adjust, actor.userId);
-  await auditRead(em, actor, { action: 'outcomes.funnel_read', detail: { ...filterDetail(s.filter), measure: q.measure, adjust: r.adjustShown, clinicians: r.points.length } });
+  return { s, r: funnelOfScope(s, q.measure, q.adjust, actor.userId) };
+}
+
+/** The funnel for the screen: its figures, and when their rows were read (the printed report draws the figures alone). */
+export async function outcomesFunnel(em: EntityManager, actor: Actor, raw: unknown): Promise<FunnelReport & { asOf: DataAsOf }> {
+  const { s, r } = await funnelReport(em, actor, raw);
+  await auditRead(em, actor, { action: 'outcomes.funnel_read', detail: { ...filterDetail(s.filter), measure: r.measure, adjust: r.adjustShown, clinicians: r.points.length } });
   return { ...r, asOf: s.asOf };
 }
 
@@ -110,9 +115,7 @@ export function tableRows(r: FunnelReport): FunnelPoint[] {
 
 /** The funnel's table as CSV (the one CSV writer), audited as a download. */
 export async function outcomesFunnelCsv(em: EntityManager, actor: Actor, raw: unknown): Promise<string> {
-  const q = parseInput(OutcomeFunnelQuery, raw ?? {});
-  const s = await scope(em, actor, q);
-  const r = funnelOfScope(s, q.measure, q.adjust, actor.userId);
+  const { s, r } = await funnelReport(em, actor, raw);
   const header = [
     'Clinician',
     'Cases',
@@ -145,6 +148,6 @@ export async function outcomesFunnelCsv(em: EntityManager, actor: Actor, raw: un
   rows.push([`Measure: ${r.measureLabel}`]);
   rows.push([r.model ? `Case-mix model: ${r.model.names.slice(1).join('; ')} (logistic, ${r.model.n} judged cases)` : (r.modelNote ?? '')]);
   rows.push([r.caution]);
-  await audit(em, actor, { action: 'outcomes.exported', detail: { view: 'funnel', ...filterDetail(s.filter), measure: q.measure } });
+  await audit(em, actor, { action: 'outcomes.exported', detail: { view: 'funnel', ...filterDetail(s.filter), measure: r.measure } });
   return writeCsv(header, rows);
 }

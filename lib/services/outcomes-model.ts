@@ -32,7 +32,8 @@ export function covariateChoices(q: Pick<OutcomeModelQuery, 'covariates' | 'lesi
   );
 }
 
-async function compute(em: EntityManager, actor: Actor, raw: unknown) {
+/** The model's figures for the actor's choices, kept per data version (no audit: callers audit). */
+export async function modelFigures(em: EntityManager, actor: Actor, raw: unknown) {
   const q = parseInput(OutcomeModelQuery, raw ?? {});
   const s = await scope(em, actor, q);
   // open factors' levels (clinician and referrer ids) shown by name, as in the factor view
@@ -50,7 +51,7 @@ async function compute(em: EntityManager, actor: Actor, raw: unknown) {
 }
 
 export async function outcomesModel(em: EntityManager, actor: Actor, raw: unknown): Promise<ModelReport> {
-  const { s, q, result, chosen } = await compute(em, actor, raw);
+  const { s, q, result, chosen } = await modelFigures(em, actor, raw);
   await auditRead(em, actor, {
     action: 'outcomes.model_read',
     detail: { ...filterDetail(s.filter), endpoint: q.endpoint, covariates: chosen.covariates.join(','), coxCases: result.cox.cases, logisticCases: result.logistic.cases },
@@ -80,7 +81,7 @@ function tableRows(fit: ModelFit, outcome: string): (string | number | null)[][]
 
 /** Both tables as one CSV through the one CSV writer (lib/csv/write.ts); the download is audited. */
 export async function outcomesModelCsv(em: EntityManager, actor: Actor, raw: unknown): Promise<string> {
-  const { s, q, result, chosen } = await compute(em, actor, raw);
+  const { s, q, result, chosen } = await modelFigures(em, actor, raw);
   const header = ['Model', 'Outcome', 'Factor', 'Level (vs reference)', 'Ratio', 'Estimate', '95% lower', '95% upper', 'p', 'Robust SE (log scale, by patient)'];
   const coxOutcome = result.endpoint === 'tooth' ? 'Time to tooth loss' : 'Time to failure to heal';
   const rows = [...tableRows(result.cox, coxOutcome), ...tableRows(result.logistic, 'Strict success (healed) at 12 months')];

@@ -273,7 +273,7 @@ async function orderedWorklist(em: EntityManager, actor: Actor, q: OutcomeFilter
 }
 
 /** The list for the actor's filter in urgency order, and the rows of one page (the details read for that page only). */
-async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
+export async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
   const q = parseInput(WorklistQuery, raw ?? {});
   const { s, ordered, counts, completion, detailOf } = await orderedWorklist(em, actor, q);
   const pageSize = q.pageSize;
@@ -360,6 +360,20 @@ const CSV_IDLE_TIMEOUT = '60s';
  * (`return()` closes it).
  */
 export async function worklistCsvStream(em: EntityManager, actor: Actor, raw: unknown): Promise<{ chunks: AsyncIterableIterator<string>; rows: number }> {
+  return openWorklistCsv(em, actor, raw, (filter, cases) => audit(em, actor, { action: 'outcomes.worklist_exported', detail: { ...filterDetail(filter), cases } }));
+}
+
+/**
+ * worklistCsvStream's steps; `beforeFirst` runs once the cursor is open and before any chunk (the
+ * download's audit; the start's warming, lib/services/outcomes-warm.ts, passes none, as it sends
+ * nothing to anyone).
+ */
+export async function openWorklistCsv(
+  em: EntityManager,
+  actor: Actor,
+  raw: unknown,
+  beforeFirst: (filter: OutcomeFilter, cases: number) => Promise<unknown>,
+): Promise<{ chunks: AsyncIterableIterator<string>; rows: number }> {
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const { s, ordered, completion, detailOf } = await orderedWorklist(em, actor, q);
   const seesPatients = can(actor.roles, 'patient.read');
@@ -374,7 +388,7 @@ export async function worklistCsvStream(em: EntityManager, actor: Actor, raw: un
     settings: 'set local jit = off; set local enable_hashjoin = off; set local enable_mergejoin = off',
   });
   try {
-    await audit(em, actor, { action: 'outcomes.worklist_exported', detail: { ...filterDetail(s.filter), cases: ordered.length } });
+    await beforeFirst(s.filter, ordered.length);
   } catch (e) {
     await cursor.close();
     throw e;

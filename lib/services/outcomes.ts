@@ -259,7 +259,7 @@ export function overviewOfScope(s: Scope): { overview: Overview; practice: Overv
 
 // Each view is read by an unaudited step shared by the screen (audited as a read) and its CSV
 // (audited once, as the download).
-async function overviewReport(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
+export async function overviewReport(em: EntityManager, actor: Actor, raw: unknown): Promise<OverviewReport> {
   const q = parseInput(OutcomeFilterQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const { overview: result, practice } = overviewOfScope(s);
@@ -285,7 +285,7 @@ export interface FactorReport {
   curves: Curves;
 }
 
-async function factorReport(em: EntityManager, actor: Actor, raw: unknown): Promise<FactorReport> {
+export async function factorReport(em: EntityManager, actor: Actor, raw: unknown): Promise<FactorReport> {
   const q = parseInput(OutcomeFactorQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = q.factor as FactorKey;
@@ -326,7 +326,7 @@ export interface CurvesReport {
   curves: Curves;
 }
 
-async function curvesReport(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport & { detail: Record<string, string> }> {
+export async function curvesReport(em: EntityManager, actor: Actor, raw: unknown): Promise<CurvesReport & { detail: Record<string, string> }> {
   const q = parseInput(OutcomeCurvesQuery, raw ?? {});
   const s = await scope(em, actor, q);
   const factor = (q.factor ?? null) as FactorKey | null;

@@ -3,11 +3,12 @@ import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
 import { createCase, updateCase } from '@/lib/services/cases';
 import { archivePatient, createPatient } from '@/lib/services/patients';
 import { outcomesByFactor, outcomesCsv, outcomesCurves, outcomesOverview, OUTCOME_READER, readOutcomeCases } from '@/lib/services/outcomes';
-import { cachedOutcomeCases, cachedPractices, dueForWarming, invalidateOutcomeCases, lastOutcomesRefresh, warmOutcomes } from '@/lib/services/outcomes-cache';
+import { cachedOutcomeCases, cachedPractices, dueForWarming, forgetOutcomeViews, invalidateOutcomeCases, keptViewCount, lastOutcomesRefresh, warmOutcomes } from '@/lib/services/outcomes-cache';
 import { outcomesFunnel } from '@/lib/services/outcomes-funnel';
 import { outcomesModel } from '@/lib/services/outcomes-model';
-import { outcomesReportData } from '@/lib/services/outcomes-report';
-import { outcomesWorklist } from '@/lib/services/outcomes-worklist';
+import { outcomesReportData, outcomesReportPdf } from '@/lib/services/outcomes-report';
+import { warmPractice } from '@/lib/services/outcomes-warm';
+import { outcomesWorklist, worklistCsv } from '@/lib/services/outcomes-worklist';
 import { todayIn } from '@/lib/services/registry-common';
 import { createReview } from '@/lib/services/reviews';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
@@ -163,6 +164,34 @@ describe('outcomes cache after a write (incremental refresh)', () => {
     expect(lastOutcomesRefresh()).toMatchObject({ kind: 'full', reason: 'bulk' });
     const { refresh } = await expectFreshAfter(() => updateCase(services.em(), world.clinician, cases[5]!, { lesionDiameterMm: 2 }));
     expect(refresh).toMatchObject({ kind: 'partial' }); // the next single change is small again
+  });
+});
+
+describe("the web server's start (lib/services/outcomes-warm.ts)", () => {
+  it("computes each view's practice-wide default once, kept for the lead, and writes nothing to the audit trail", async () => {
+    const knex = services.orm.em.getKnex();
+    const audits = async () => Number(((await knex('audit_event').where({ practice_id: world.practice.id }).count('* as n')) as { n: string }[])[0]!.n);
+    invalidateOutcomeCases();
+    forgetOutcomeViews();
+    expect(keptViewCount()).toBe(0);
+    const before = await audits();
+    await warmPractice(async () => services.em(), world.practice.id);
+    expect(await audits()).toBe(before);
+    const kept = keptViewCount();
+    expect(kept).toBeGreaterThanOrEqual(6); // overview, factor, curves, model, funnel, worklist (and the clinicians who treated)
+    // the lead's first look at each view is a kept figure: nothing new is computed
+    const em = () => services.em();
+    await outcomesOverview(em(), lead(), {});
+    await outcomesByFactor(em(), lead(), {});
+    await outcomesCurves(em(), lead(), {});
+    await outcomesModel(em(), lead(), {});
+    await outcomesFunnel(em(), lead(), {});
+    await outcomesWorklist(em(), lead(), {});
+    expect(keptViewCount()).toBe(kept);
+    // the report and the CSV are made for the lead as before (the start drew and dropped its own), and audited
+    expect((await outcomesReportPdf(em(), lead(), {})).pdf.subarray(0, 5).toString()).toBe('%PDF-');
+    expect((await worklistCsv(em(), lead(), {})).split('\r\n')[0]).toMatch(/^Urgency,Case,/);
+    expect(await audits()).toBe(before + 8);
   });
 });
 

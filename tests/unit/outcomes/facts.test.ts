@@ -1,6 +1,11 @@
 import { describe, expect, it } from 'vitest';
 import {
   applyFilter,
+  AT_RISK_MONTHS,
+  competingRows,
+  curves,
+  FACTORS,
+  healingObservation,
   isDue,
   isLenientSuccess,
   isStrictSuccess,
@@ -15,6 +20,7 @@ import {
   stepAt,
   SURVIVAL_YEARS,
   toothLossObservations,
+  toothLossStarts,
   turnbullOrNull,
   TURNBULL_MAX,
   windowDays,
@@ -27,7 +33,8 @@ import {
 import { rowFacts, selectionIn } from '@/lib/outcomes/facts';
 import { createRandom } from '@/lib/demo/random';
 import { addDaysTo, type CalendarDate } from '@/lib/registry/calendar-date';
-import type { RecordedReview } from '@/lib/scoring';
+import type { Interval, RecordedReview } from '@/lib/scoring';
+import { cumulativeIncidence, logRank } from '@/lib/stats';
 import { outcomeCase } from '../../support/outcome-cases';
 
 /**
@@ -174,5 +181,64 @@ describe('the overview on the per-case facts (lib/outcomes/facts.ts)', () => {
     const copies = selection.map((c) => ({ ...c }));
     const own = selectionIn(copies, rows, 365);
     expect(own.facts.cases).toBe(copies);
+  });
+});
+
+/**
+ * The curves read the same facts (healing and tooth-loss observations, their Kaplan–Meier
+ * observations, the competing events) by position. Checked against the definitions applied to each
+ * level's case objects (the curves as computed before the columns): cases.ts healingObservation and
+ * toothLossObservations, kmOf, the log-rank test and the cumulative incidence on competingRows.
+ */
+describe('the survival curves on the per-case facts', () => {
+  const rows = world(21, 700);
+  const levelsOf = (selection: readonly OutcomeCase[], factor: 'kind' | 'group' | null) => {
+    const groups = new Map<string, OutcomeCase[]>();
+    for (const c of selection) {
+      const k = factor ? FACTORS[factor].level(c) : 'All cases';
+      groups.set(k, [...(groups.get(k) ?? []), c]);
+    }
+    return groups;
+  };
+
+  it('gives the figures of the definitions per level, for both endpoints, with and without a stratum, for every kind of selection', () => {
+    for (const f of [{}, { clinician: 'u2' }, { kind: 'nonsurgical_retreatment' }] as OutcomeFilter[])
+      for (const endpoint of ['healing', 'tooth'] as const)
+        for (const [factor, stratum] of [[null, null], ['kind', null], ['kind', 'group']] as const) {
+          const selection = applyFilter(rows, f);
+          const got = curves(selection, rows, { endpoint, method: 'km', factor, stratum, minObs: 365 });
+          const byLevel = new Map<string, Interval[]>();
+          const logRankInput: Record<string, { time: number; event: boolean; stratum?: string }[]> = {};
+          for (const [level, cases] of levelsOf(selection, factor)) {
+            const starts = endpoint === 'tooth' ? toothLossStarts(cases) : cases;
+            const intervals = endpoint === 'tooth' ? toothLossObservations(cases, rows, 365) : cases.map((c) => healingObservation(c, 365));
+            byLevel.set(level, intervals);
+            logRankInput[level] = intervals.map((i, j) => ({ ...(i.right === null ? { time: i.left, event: false } : { time: i.right, event: true }), ...(stratum ? { stratum: FACTORS[stratum].level(starts[j]!) } : {}) }));
+          }
+          const context = JSON.stringify({ f, endpoint, factor, stratum });
+          expect(got.curves.map((c) => c.level).sort(), context).toEqual([...byLevel.keys()].sort());
+          for (const c of got.curves) {
+            const intervals = byLevel.get(c.level)!;
+            expect(c.n, context).toBe(intervals.length);
+            expect(c.events, context).toBe(intervals.filter((i) => i.right !== null).length);
+            expect(c.censored, context).toEqual([...new Set(intervals.filter((i) => i.right === null).map((i) => i.left))].sort((a, b) => a - b));
+            expect(c.atRisk, context).toEqual(AT_RISK_MONTHS.map((m) => intervals.filter((i) => (i.right ?? i.left) >= milestoneDays(m)).length));
+            expect(c.points.slice(1), context).toEqual(kmOf(intervals).map((s) => ({ time: s.time, survival: s.survival, lower: s.lower, upper: s.upper })));
+          }
+          const withCases = Object.fromEntries(Object.entries(logRankInput).filter(([, xs]) => xs.length > 0));
+          if (Object.keys(withCases).length >= 2) expect(got.logRank?.chiSquare, context).toBe(logRank(withCases).chiSquare);
+          const ci = cumulativeIncidence(competingRows(selection));
+          expect(got.competing.map((x) => x.cause), context).toEqual(Object.keys(ci));
+          for (const x of got.competing) expect(x.points, context).toEqual(ci[x.cause]!.map((s) => ({ time: s.time, incidence: s.incidence, lower: s.lower, upper: s.upper })));
+        }
+  });
+
+  it('the same curves for a selection by applyFilter, another array of the same cases and copies of the cases', () => {
+    const selection = applyFilter(rows, { kind: 'primary_treatment' });
+    for (const endpoint of ['healing', 'tooth'] as const) {
+      const expected = curves(selection, rows, { endpoint, method: 'km', factor: 'kind', stratum: 'group', minObs: 365 });
+      expect(curves([...selection], rows, { endpoint, method: 'km', factor: 'kind', stratum: 'group', minObs: 365 })).toEqual(expected);
+      expect(curves(selection.map((c) => ({ ...c })), rows, { endpoint, method: 'km', factor: 'kind', stratum: 'group', minObs: 365 })).toEqual(expected);
+    }
   });
 });
