@@ -2,7 +2,7 @@ import { randomBytes, randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
 import { reminderJobId } from '@/lib/recall/reminders';
 import { addDaysTo } from '@/lib/registry/calendar-date';
-import { callList, deskQueues, listDeskRows, sendRemindersNow, bookVisits, markVisits } from '@/lib/services/recall-desk';
+import { QUEUED_STATUSES, callList, deskQueues, listDeskRows, sendRemindersNow, bookVisits, markVisits } from '@/lib/services/recall-desk';
 import { addCallNote, listContactLog } from '@/lib/services/recall-contact';
 import { followUpRateReport } from '@/lib/services/recall-rate';
 import { getReminderPolicy, updateReminderPolicy } from '@/lib/services/recall-policy';
@@ -119,6 +119,12 @@ describe('desk queues', () => {
     const beyond = await listDeskRows(services.em(), w.coordinator, { queue: 'this_month', pageSize: 2, page: 9 });
     expect(beyond).toMatchObject({ total: 5, page: 9, rows: [] });
     expect(await listDeskRows(services.em(), w.coordinator, { queue: 'replied' })).toMatchObject({ total: 0, rows: [] });
+  });
+
+  it('the desk index holds exactly the queued statuses (else the counts read the table again)', async () => {
+    const { rows } = (await knex().raw(`select indexdef from pg_indexes where indexname = 'recall_visit_desk_index'`)) as { rows: { indexdef: string }[] };
+    const listed = [...rows[0]!.indexdef.matchAll(/'(\w+)'::text/g)].map((m) => m[1]);
+    expect(listed.sort()).toEqual([...QUEUED_STATUSES].sort());
   });
 
   it('only the coordinator works the desk', async () => {
