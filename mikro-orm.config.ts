@@ -25,6 +25,12 @@ export default defineConfig({
     migrationsList,
   },
   pool: { min: 0, max: Number(process.env.DATABASE_POOL_MAX ?? 10) },
+  // No parallel query plans on Lamina's connections (issue 15, load): with many requests at once
+  // on few cores, a plan's extra worker processes cost more CPU than they save, and starting them
+  // cost more time than they saved even for one request (the desk's counts at 100,000 cases: 381 ms
+  // with 2 workers, 148 ms without; DEVELOPERS.md "Load"). A startup option, so every connection of
+  // the pool has it from its first statement.
+  driverOptions: { connection: { options: '-c max_parallel_workers_per_gather=0' } },
   // The schema changes only through committed migrations, never at run time.
   ensureDatabase: false,
   debug: false,

@@ -58,6 +58,15 @@ export const RecallVisitSchema = defineEntity({
     { name: 'recall_visit_practice_status_due_index', properties: ['practice', 'status', 'dueDate', 'case'] },
     { name: 'recall_visit_case_status_due_index', properties: ['case', 'status', 'dueDate', 'practice'] },
     { name: 'recall_visit_practice_due_index', properties: ['practice', 'dueDate'] },
+    // The recall desk's queues (lib/services/recall-desk.ts QUEUED_STATUSES: every status a queue
+    // other than "this month" asks for): index-only, with every column their conditions read.
+    {
+      name: 'recall_visit_desk_index',
+      expression:
+        `create index "recall_visit_desk_index" on "recall_visit" ("practice_id", "status", "due_date") ` +
+        `include ("id", "case_id", "booked_date", "proposed_start", "window_end", "delivery_failed_at") ` +
+        `where "status" in ('planned', 'invited', 'confirmed', 'missed', 'declined')`,
+    },
   ],
 });
 

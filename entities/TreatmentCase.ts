@@ -130,6 +130,9 @@ export const TreatmentCaseSchema = defineEntity({
     workingListIndex('treatment_case_practice_tooth_group_index', ['practice_id', 'tooth_group', 'completion_date']),
     workingListIndex('treatment_case_practice_fill_length_index', ['practice_id', 'fill_length_class', 'completion_date']),
     workingListIndex('treatment_case_practice_next_visit_index', ['practice_id', 'next_visit_date', 'id']),
+    // The recall desk's counts and queue rows (lib/services/recall-desk.ts) join their visits to the
+    // live cases: an index-only scan of this one instead of the whole table (issue 15, load).
+    workingListIndex('treatment_case_live_index', ['id'], ['patient_id', 'operator_id', 'archived_at']),
     { name: 'treatment_case_patient_index', properties: ['patient'] },
     { name: 'treatment_case_previous_case_index', properties: ['previousCase'] },
   ],

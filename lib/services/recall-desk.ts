@@ -106,10 +106,13 @@ const REPLIED_VISITS = `(select e.visit_id from contact_log_entry e where e.prac
 const AWAITING_REPLY_VISITS = `(select r.visit_id from reminder r where r.practice_id = ? and r.status = 'sent'
   and not exists (select 1 from contact_log_entry e where e.visit_id = r.visit_id and e.kind = 'reply' and e.at >= r.sent_at))`;
 /**
- * Every status some queue other than "this month" asks for (the lists the conditions below use), so
- * the counts join only those visits, and this month's, to their cases and patients.
+ * Every status some queue other than "this month" asks for (the lists the conditions below use).
+ * Each such queue's condition implies one of these statuses, so the counts and rows may add
+ * `v.status in QUEUED` without changing any figure; with it PostgreSQL reads them index-only from
+ * recall_visit_desk_index (whose predicate is this list: keep them equal, or the index goes unused).
  */
-const QUEUED_STATUSES: readonly VisitStatus[] = [...new Set([...CONTACT_STATUSES, ...AWAITING_REPLY_STATUSES, ...NOT_FINAL_VISIT_STATUSES, ...MISSED_STATUSES])];
+export const QUEUED_STATUSES: readonly VisitStatus[] = [...new Set([...CONTACT_STATUSES, ...AWAITING_REPLY_STATUSES, ...NOT_FINAL_VISIT_STATUSES, ...MISSED_STATUSES])];
+const QUEUED_SQL = `v.status in ${statusSql(QUEUED_STATUSES)}`;
 
 /** The first and last day of today's calendar month. */
 function thisMonth(today: string): [string, string] {
@@ -183,19 +186,32 @@ export async function deskQueues(em: EntityManager, actor: Actor, raw: unknown =
   const q = parseInput(DeskQueuesQuery, raw);
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
-  const parts = DESK_QUEUES.map((queue) => queueCondition(queue, actor.practiceId, s));
-  const base = activeVisits(knex, actor.practiceId).where((w) =>
-    w.whereIn('v.status', QUEUED_STATUSES as VisitStatus[]).orWhereBetween('v.due_date', thisMonth(s.today)),
-  );
-  if (q.clinician) base.where('c.operator_id', q.clinician);
-  const row = (await base.first(
-    parts.map((c, i) => knex.raw(`count(*) filter (where ${c.sql}) as "${DESK_QUEUES[i]}"`, c.bindings as Knex.RawBinding[])),
-  )) as Record<DeskQueue, string>;
+  const visits = () => {
+    const b = activeVisits(knex, actor.practiceId);
+    return q.clinician ? b.where('c.operator_id', q.clinician) : b;
+  };
+  // The work queues from the visits in some queue (index-only: a queued status and any queue's
+  // condition), "this month" (any status) apart, from the due-date index: each visit in a queue
+  // is counted as before, and far fewer rows are joined to their cases and patients.
+  const queued = DESK_QUEUES.filter((k) => k !== 'this_month').map((key) => ({ key, ...queueCondition(key, actor.practiceId, s) }));
+  const month = queueCondition('this_month', actor.practiceId, s);
+  const [row, monthRow] = (await Promise.all([
+    visits()
+      .whereRaw(QUEUED_SQL)
+      .where((w) => {
+        for (const c of queued) w.orWhereRaw(c.sql, c.bindings as Knex.RawBinding[]);
+      })
+      .first(queued.map((c) => knex.raw(`count(*) filter (where ${c.sql}) as "${c.key}"`, c.bindings as Knex.RawBinding[]))),
+    visits()
+      .whereRaw(month.sql, month.bindings as Knex.RawBinding[])
+      .first(knex.raw('count(*) as "this_month"')),
+  ])) as [Record<DeskQueue, string> | undefined, { this_month: string } | undefined];
+  const counts: Partial<Record<DeskQueue, string>> = { ...row, this_month: monthRow?.this_month };
   await auditRead(em, actor, { action: 'recall.queues_read', ...(q.clinician ? { detail: { clinician: q.clinician } } : {}) });
   return {
     today: s.today,
     clinician: q.clinician ?? null,
-    queues: DESK_QUEUES.map((key) => ({ key, ...DESK_QUEUE_INFO[key], count: Number(row?.[key] ?? 0) })),
+    queues: DESK_QUEUES.map((key) => ({ key, ...DESK_QUEUE_INFO[key], count: Number(counts[key] ?? 0) })),
   };
 }
 
@@ -253,19 +269,26 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
   const cond = queueCondition(q.queue, actor.practiceId, s);
   const base = () => {
     const b = activeVisits(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
+    if (q.queue !== 'this_month') b.whereRaw(QUEUED_SQL); // implied by the condition; lets the desk index serve it
     return q.clinician ? b.where('c.operator_id', q.clinician) : b;
   };
   const lastContact = knex.raw(
     `(select max(e.at) from contact_log_entry e where e.visit_id = v.id and e.kind in ('message_sent', 'reply', 'call', 'appointment')) as last_contact_at`,
   );
-  const [countRow, ids] = await Promise.all([
-    base().count<{ n: string }[]>('* as n'),
-    base()
-      .select('v.id', lastContact)
-      .orderBy(SORTS[q.sort].map((column) => ({ column, order: q.dir, nulls: q.dir === 'asc' ? 'first' : 'last' })))
-      .limit(q.pageSize)
-      .offset(pageOffset(q)) as Promise<{ id: string }[]>,
-  ]);
+  // The queue's visits read once (a materialized CTE, planned as the count alone would be), then
+  // counted and sorted for the page: half the work of a count and a page query side by side. The
+  // last contact, a subquery per visit, is read only when the page is sorted by it.
+  const sortColumns = SORTS[q.sort].map((c) => c.split('.').pop()!);
+  const queue = base().select('v.id', 'v.due_date', ...(q.sort === 'patient' ? ['p.family_name', 'p.given_name'] : []), ...(q.sort === 'lastContact' ? [lastContact] : []));
+  const ids = (await knex
+    .withMaterialized('queue', queue)
+    .from('queue')
+    .select('id', knex.raw('(select count(*) from queue) as total'))
+    .orderBy(sortColumns.map((column) => ({ column, order: q.dir, nulls: q.dir === 'asc' ? 'first' : 'last' })))
+    .limit(q.pageSize)
+    .offset(pageOffset(q))) as { id: string; total: string }[];
+  // A page past the end has no row to carry the total: counted apart (rare).
+  const total = ids.length ? Number(ids[0]!.total) : q.page > 1 ? Number((await base().count<{ n: string }[]>('* as n'))[0]?.n ?? 0) : 0;
   const rows = await deskRowsByIds(em, s, ids.map((r) => r.id));
   await auditRead(em, actor, {
     action: 'recall.rows_read',
@@ -273,7 +296,7 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
   });
   return {
     rows,
-    total: Number(countRow[0]?.n ?? 0),
+    total,
     page: q.page,
     pageSize: q.pageSize,
     queue: q.queue,

@@ -2,7 +2,7 @@ import { randomBytes, randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
 import { reminderJobId } from '@/lib/recall/reminders';
 import { addDaysTo } from '@/lib/registry/calendar-date';
-import { callList, deskQueues, listDeskRows, sendRemindersNow, bookVisits, markVisits } from '@/lib/services/recall-desk';
+import { QUEUED_STATUSES, callList, deskQueues, listDeskRows, sendRemindersNow, bookVisits, markVisits } from '@/lib/services/recall-desk';
 import { addCallNote, listContactLog } from '@/lib/services/recall-contact';
 import { followUpRateReport } from '@/lib/services/recall-rate';
 import { getReminderPolicy, updateReminderPolicy } from '@/lib/services/recall-policy';
@@ -102,6 +102,29 @@ describe('desk queues', () => {
     expect(byContact).toMatchObject({ total: 3, pageSize: 2 });
     expect(byContact.rows.map((r) => r.visitId)).toEqual([w.id(5), w.id(1)]);
     expect(await knex()('audit_event').where({ action: 'recall.rows_read', actor_id: w.coordinator.userId }).count('* as n').first()).toMatchObject({ n: '4' });
+  });
+
+  it('"this month" counts every status, an archived case is in no queue, and a page past the end still gives the queue’s size (issue 15: the queued visits are read apart from this month’s)', async () => {
+    const specs = (['planned', 'attended', 'cancelled', 'closed', 'missed', 'planned'] as const).map((status) => ({ dueIn: 0, status }));
+    const w = await world(specs);
+    await knex()('treatment_case').where({ id: w.v[5]!.caseId }).update({ archived_at: new Date() });
+    const c = await counts(w.coordinator);
+    expect(c).toMatchObject({ this_month: 5, due_soon: 1, missed: 1 });
+    const first = await listDeskRows(services.em(), w.coordinator, { queue: 'this_month', pageSize: 2 });
+    expect(first).toMatchObject({ total: 5, page: 1 });
+    expect(first.rows).toHaveLength(2);
+    const last = await listDeskRows(services.em(), w.coordinator, { queue: 'this_month', pageSize: 2, page: 3 });
+    expect(last).toMatchObject({ total: 5, page: 3 });
+    expect(last.rows).toHaveLength(1);
+    const beyond = await listDeskRows(services.em(), w.coordinator, { queue: 'this_month', pageSize: 2, page: 9 });
+    expect(beyond).toMatchObject({ total: 5, page: 9, rows: [] });
+    expect(await listDeskRows(services.em(), w.coordinator, { queue: 'replied' })).toMatchObject({ total: 0, rows: [] });
+  });
+
+  it('the desk index holds exactly the queued statuses (else the counts read the table again)', async () => {
+    const { rows } = (await knex().raw(`select indexdef from pg_indexes where indexname = 'recall_visit_desk_index'`)) as { rows: { indexdef: string }[] };
+    const listed = [...rows[0]!.indexdef.matchAll(/'(\w+)'::text/g)].map((m) => m[1]);
+    expect(listed.sort()).toEqual([...QUEUED_STATUSES].sort());
   });
 
   it('only the coordinator works the desk', async () => {
