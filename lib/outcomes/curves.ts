@@ -13,7 +13,7 @@
  */
 import type { Interval } from '@/lib/scoring';
 import { cumulativeIncidence, kaplanMeier, logRank, medianSurvival, restrictedMeanInterval } from '@/lib/stats';
-import { competingEvent, milestoneDays, type OutcomeCase } from './cases';
+import { milestoneDays, type OutcomeCase } from './cases';
 import { compareLevels, FACTORS, TURNBULL_MAX, turnbullOrNull, type FactorKey } from './compute';
 import { selectionIn, toothLossStartsIn, type KmObservation, type SelectionFacts } from './facts';
 
@@ -100,11 +100,6 @@ function curveOf(level: string, intervals: readonly Interval[], observations: re
 
 const AT_RISK_DAYS = AT_RISK_MONTHS.map(milestoneDays);
 
-/** The first retreatment, surgery or extraction of each case (its own date when known), else censored at the last review (cases.ts competingEvent). */
-export function competingRows(selection: readonly OutcomeCase[]): { time: number; cause: string | null }[] {
-  return selection.map(competingEvent);
-}
-
 /** Restricted mean survival time horizon: 48 months (the registry's longest milestone). */
 export const RMST_MONTHS = 48;
 
@@ -134,15 +129,10 @@ export function curves(
     const level: SelectionFacts = { facts, at: Int32Array.from(positions) };
     return toothLossStartsIn(level).map((k) => level.at[k]!);
   };
+  const [intervalOf, observationOf] = tooth ? [facts.toothLoss, facts.toothLossKm] : [facts.healing, facts.healingKm];
   const byLevel = sorted.map(([level, positions]) => {
     const from = tooth ? starts(positions) : positions;
-    const intervals: Interval[] = [];
-    const observations: KmObservation[] = [];
-    for (const p of from) {
-      intervals.push(tooth ? facts.toothLoss[p]! : facts.healing[p]!);
-      observations.push(tooth ? facts.toothLossKm[p]! : facts.healingKm[p]!);
-    }
-    return { level, from, intervals, observations };
+    return { level, from, intervals: Array.from(from, (p) => intervalOf[p]!), observations: Array.from(from, (p) => observationOf[p]!) };
   });
   const total = byLevel.reduce((s, g) => s + g.intervals.length, 0);
   let method: CurveMethod = opts.method === 'turnbull' && total > TURNBULL_MAX ? 'km' : opts.method;

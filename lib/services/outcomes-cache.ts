@@ -217,6 +217,9 @@ export function memoView<T>(practiceId: string, version: string, key: readonly u
   return v;
 }
 
+/** Let the event loop answer waiting requests before the next piece of background work. */
+export const yieldToRequests = (): Promise<void> => new Promise((r) => setImmediate(r));
+
 /**
  * Bring a practice's cache up to the database's current version and compute again, on the new
  * rows, the views most recently asked (newest first), yielding to requests between views: run in
@@ -234,7 +237,7 @@ export async function warmOutcomes(em: EntityManager, practiceId: string, reader
     const k = `${practiceId}@${version}:${id}`;
     if (cache.get(practiceId)?.version !== version) break; // a newer version arrived: the next round warms it
     if (views.has(k)) continue;
-    await new Promise((r) => setImmediate(r));
+    await yieldToRequests();
     if (views.has(k)) continue;
     views.set(k, compute(rows));
     while (views.size > MAX_VIEWS) views.delete(views.keys().next().value!);

@@ -7,7 +7,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
 import { renderOutcomesReport } from '@/lib/pdf/outcomes-report';
 import { curvesReport, factorReport, OUTCOME_READER, overviewReport } from './outcomes';
-import { cachedOutcomeCases, startOutcomesWarmer } from './outcomes-cache';
+import { cachedOutcomeCases, startOutcomesWarmer, yieldToRequests } from './outcomes-cache';
 import { funnelReport } from './outcomes-funnel';
 import { modelFigures } from './outcomes-model';
 import { outcomesReportData } from './outcomes-report';
@@ -54,8 +54,6 @@ export async function warmAtStart(): Promise<string[]> {
   for (const { practice_id: id } of practices) await warmPractice(requestEm, id);
   return practices.map((p) => p.practice_id);
 }
-
-const yieldToRequests = () => new Promise((r) => setImmediate(r));
 
 /**
  * One practice at start: its rows read and what lib/outcomes derives per case computed, then every

@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import {
   applyFilter,
   AT_RISK_MONTHS,
-  competingRows,
+  competingEvent,
   curves,
   FACTORS,
   healingObservation,
@@ -188,7 +188,7 @@ describe('the overview on the per-case facts (lib/outcomes/facts.ts)', () => {
  * The curves read the same facts (healing and tooth-loss observations, their Kaplan–Meier
  * observations, the competing events) by position. Checked against the definitions applied to each
  * level's case objects (the curves as computed before the columns): cases.ts healingObservation and
- * toothLossObservations, kmOf, the log-rank test and the cumulative incidence on competingRows.
+ * toothLossObservations, kmOf, the log-rank test and the cumulative incidence on each case's competingEvent.
  */
 describe('the survival curves on the per-case facts', () => {
   const rows = world(21, 700);
@@ -227,7 +227,7 @@ describe('the survival curves on the per-case facts', () => {
           }
           const withCases = Object.fromEntries(Object.entries(logRankInput).filter(([, xs]) => xs.length > 0));
           if (Object.keys(withCases).length >= 2) expect(got.logRank?.chiSquare, context).toBe(logRank(withCases).chiSquare);
-          const ci = cumulativeIncidence(competingRows(selection));
+          const ci = cumulativeIncidence(selection.map(competingEvent));
           expect(got.competing.map((x) => x.cause), context).toEqual(Object.keys(ci));
           for (const x of got.competing) expect(x.points, context).toEqual(ci[x.cause]!.map((s) => ({ time: s.time, incidence: s.incidence, lower: s.lower, upper: s.upper })));
         }
