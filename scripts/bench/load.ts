@@ -30,6 +30,8 @@
  *   BENCH_CASES=10000 npm run bench -- load     (smaller, to try it)
  *   BENCH_REQUESTS=60 (per connection), BENCH_CONNECTIONS_PER_USER=5, BENCH_TIMEOUT_S=30
  *   BENCH_CPU_PROF=DIR writes a V8 CPU profile of the web server into DIR (open it in Chrome's DevTools)
+ *   BENCH_PG_STATEMENTS=1 (with LAMINA_PG_OPTS='-c shared_preload_libraries=pg_stat_statements') prints
+ *     the statements PostgreSQL spent the load's time on
  *   LAMINA_BUILD=never reuses the build in .next-bench while changing only this script (see bench.sh)
  *
  * Latency is measured from the moment autocannon builds a request (just before it writes it) to its
@@ -56,6 +58,7 @@ const { uploadFilm } = await import('../../lib/services/films');
 const { drawRadiograph, filmJpeg } = await import('../../lib/demo/drawn-films');
 const { addDaysTo } = await import('../../lib/registry/calendar-date');
 const { benchActor, seedBenchPractice } = await import('../lib/bench-world');
+const { childrenOf, cpuBetween, cpuSnapshot, readStatements, serviceGroups, topStatements } = await import('../lib/bench-proc');
 type Role = import('../../lib/auth/roles').Role;
 type AcRequest = import('autocannon').Request;
 
@@ -305,11 +308,18 @@ function instanceFor(p: Person) {
     requests,
   });
 }
+// Where the machine's CPU went during the load: the web server, PostgreSQL, Redis and this process
+// (autocannon's client), read from /proc before and after.
+const processGroups = () => ({ 'web server': [web.pid!, ...childrenOf(web.pid!)], ...serviceGroups(), 'bench (autocannon)': [process.pid] });
+const statementsBefore = process.env.BENCH_PG_STATEMENTS === '1' ? await readStatements(knex) : null;
+const cpuBefore = cpuSnapshot(processGroups());
 const loadBefore = load();
 const tl = performance.now();
 const results = await Promise.all(people.map(instanceFor));
 const seconds = (performance.now() - tl) / 1000;
 const loadAfter = load();
+const cpu = cpuBetween(cpuBefore, cpuSnapshot(processGroups()));
+const statements = statementsBefore ? topStatements(statementsBefore, await readStatements(knex), 20) : null;
 
 // --- 5. the table -------------------------------------------------------------------------------------------------
 const quantile = (xs: number[], p: number) => {
@@ -349,6 +359,12 @@ console.log(
     `autocannon: ${socket} errors (of which ${timeouts} timeouts at ${TIMEOUT_S} s), ${results.reduce((a, r) => a + r.non2xx, 0)} non-2xx; ${missed} route(s) over the ${GOAL_P95_MS} ms p95 goal`,
 );
 if (socket) failed = true;
+const answered = all.length;
+console.log(
+  `CPU during the load (${(seconds * os.cpus().length).toFixed(0)} core-seconds in ${seconds.toFixed(1)} s): ` +
+    cpu.map(([group, ms]) => `${group} ${(ms / 1000).toFixed(1)} s (${(ms / answered).toFixed(1)} ms a request)`).join(', '),
+);
+if (statements) console.log(`\nPostgreSQL statements during the load (pg_stat_statements), by total time:\n${statements}`);
 
 // --- clean up ------------------------------------------------------------------------------------------------------
 const exited = new Promise((r) => (webExited ? r(null) : web.once('exit', r)));

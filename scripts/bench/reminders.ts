@@ -21,6 +21,7 @@ import type { Knex } from '@mikro-orm/knex';
 import config from '../../mikro-orm.config';
 import { fromLocalDate } from '../../lib/registry/calendar-date';
 import { seedDueVisits } from '../lib/reminder-seed';
+import { cpuBetween, cpuSnapshot, readStatements, serviceGroups, topStatements, vm, type CpuSnapshot, type Statements } from '../lib/bench-proc';
 import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 import { readWorkerConfig, smtpPoolOf } from '../../jobs/config';
 
@@ -43,82 +44,13 @@ async function seed(knex: Knex, today: string): Promise<void> {
   await seedDueVisits(knex, { n: N, today, tag: randomBytes(3).toString('hex') });
 }
 
-function vm(pid: number): { hwm: number; rss: number } | null {
-  try {
-    const status = fs.readFileSync(`/proc/${pid}/status`, 'utf8');
-    const kb = (k: string) => Number(new RegExp(`^${k}:\\s+(\\d+) kB`, 'm').exec(status)?.[1] ?? 0);
-    return { hwm: kb('VmHWM'), rss: kb('VmRSS') };
-  } catch {
-    return null;
-  }
-}
-
-/** The fields of /proc/PID/stat after the command name (field 3, the state, first); null once the process is gone. */
-function statFields(pid: number | string): string[] | null {
-  try {
-    const stat = fs.readFileSync(`/proc/${pid}/stat`, 'utf8');
-    return stat.slice(stat.lastIndexOf(')') + 2).split(' ');
-  } catch {
-    return null;
-  }
-}
-
-/** CPU time (user + system, ms) of a process so far, from /proc (Linux); null once it is gone. */
-function cpuMs(pid: number): number | null {
-  const f = statFields(pid);
-  return f ? ((Number(f[11]) + Number(f[12])) * 1000) / 100 : null; // clock ticks (USER_HZ 100)
-}
-
-/** Children of a process (PostgreSQL's backends under its postmaster). */
-function childrenOf(ppid: number): number[] {
-  return fs
-    .readdirSync('/proc')
-    .filter((name) => /^\d+$/.test(name) && Number(statFields(name)?.[1]) === ppid)
-    .map(Number);
-}
-
-const readPid = (file: string): number | null => {
-  try {
-    return Number(fs.readFileSync(file, 'utf8').split('\n')[0]) || null;
-  } catch {
-    return null;
-  }
-};
-
 /**
  * The processes of this run whose CPU time is counted per message: the worker, the mail fake (its
  * pid from /health), PostgreSQL (postmaster and backends, from its pid file) and Redis (pid file).
  */
 async function processGroups(workerPids: number[]): Promise<Record<string, number[]>> {
-  const data = process.env.LAMINA_DATA;
   const health = (await fetch(new URL('/health', mailboxUrl)).then((r) => r.json()).catch(() => null)) as { pid?: number } | null;
-  const postmaster = data ? readPid(path.join(data, 'pg', 'postmaster.pid')) : null;
-  const redis = data ? readPid(path.join(data, 'redis', 'redis.pid')) : null;
-  return {
-    worker: workerPids,
-    'mail fake': health?.pid ? [health.pid] : [],
-    PostgreSQL: postmaster ? [postmaster, ...childrenOf(postmaster)] : [],
-    Redis: redis ? [redis] : [],
-  };
-}
-
-/** CPU ms per process so far, by pid (processes of the groups, PostgreSQL's backends read again). */
-async function cpuSnapshot(workerPids: number[]): Promise<Map<string, Map<number, number>>> {
-  const out = new Map<string, Map<number, number>>();
-  for (const [group, pids] of Object.entries(await processGroups(workerPids))) {
-    const m = new Map<number, number>();
-    for (const pid of pids) {
-      const ms = cpuMs(pid);
-      if (ms !== null) m.set(pid, ms);
-    }
-    out.set(group, m);
-  }
-  return out;
-}
-
-/** CPU ms used between two snapshots, per group (a process that appeared in between counts from 0; one that exited is lost). */
-function cpuBetween(a: Map<string, Map<number, number>>, b: Map<string, Map<number, number>>): [string, number][] {
-  return [...b].map(([group, pids]) => [group, [...pids].reduce((sum, [pid, ms]) => sum + ms - (a.get(group)?.get(pid) ?? 0), 0)]);
+  return { worker: workerPids, 'mail fake': health?.pid ? [health.pid] : [], ...serviceGroups() };
 }
 
 /** Message-IDs and recipients the fake stored: from its directory when known (fast), else its API. */
@@ -142,27 +74,6 @@ async function storedMessages(): Promise<{ messageId: string | null; rcptTo: str
  * statements PostgreSQL ran while sending, by total time (the extension is created in the bench's database).
  */
 const pgStatements = process.env.BENCH_PG_STATEMENTS === '1';
-
-type Statements = Map<string, { calls: number; ms: number; rows: number; query: string }>;
-
-async function readStatements(knex: Knex): Promise<Statements> {
-  const rows = (await knex.raw(
-    `select queryid::text as id, calls, total_exec_time as ms, rows, regexp_replace(left(query, 150), '\\s+', ' ', 'g') as query
-       from pg_stat_statements where dbid = (select oid from pg_database where datname = current_database())`,
-  )) as { rows: { id: string; calls: string; ms: number; rows: string; query: string }[] };
-  return new Map(rows.rows.map((r) => [r.id, { calls: Number(r.calls), ms: r.ms, rows: Number(r.rows), query: r.query }]));
-}
-
-/** The 15 statements that took the most time between two readings (nested ones included: track=all). */
-function topStatements(a: Statements, b: Statements): string {
-  const d = [...b].map(([id, s]) => ({ ...s, calls: s.calls - (a.get(id)?.calls ?? 0), ms: s.ms - (a.get(id)?.ms ?? 0), rows: s.rows - (a.get(id)?.rows ?? 0) }));
-  return d
-    .filter((s) => s.calls > 0)
-    .sort((x, y) => y.ms - x.ms)
-    .slice(0, 15)
-    .map((s) => `${s.ms.toFixed(0).padStart(7)} ms ${String(s.calls).padStart(7)} calls ${(s.ms / s.calls).toFixed(3).padStart(8)} ms/call ${String(s.rows).padStart(8)} rows  ${s.query}`)
-    .join('\n');
-}
 
 async function main() {
   const orm = await MikroORM.init({ ...config, clientUrl: process.env.DATABASE_URL, pool: { min: 0, max: 2 } });
@@ -204,7 +115,7 @@ async function main() {
     let queuedAt: number | null = null;
     let firstSentAt: number | null = null;
     let peak = { hwm: 0, rss: 0 };
-    let cpuAtFirst: Map<string, Map<number, number>> | null = null;
+    let cpuAtFirst: CpuSnapshot | null = null;
     let sentAtFirst = 0;
     let statementsAtFirst: Statements | null = null;
     const deadline = started + 30 * 60_000;
@@ -216,7 +127,7 @@ async function main() {
       if (firstSentAt === null && (by.sent ?? 0) > 0) {
         firstSentAt = performance.now();
         if (pgStatements) statementsAtFirst = await readStatements(knex);
-        cpuAtFirst = await cpuSnapshot(pids);
+        cpuAtFirst = cpuSnapshot(await processGroups(pids));
         sentAtFirst = by.sent ?? 0;
       }
       for (const pid of pids) {
@@ -233,7 +144,7 @@ async function main() {
       await sleep(100);
     }
     const done = performance.now();
-    const cpuAtDone = await cpuSnapshot(pids);
+    const cpuAtDone = cpuSnapshot(await processGroups(pids));
     const statements = statementsAtFirst ? topStatements(statementsAtFirst, await readStatements(knex)) : null;
     for (const pid of pids) {
       const final = vm(pid);
