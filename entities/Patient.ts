@@ -50,6 +50,12 @@ export const PatientSchema = defineEntity({
         `create index "patient_search_trgm_index" on "patient" using gin ` +
         `((lower(("registry_number")::text || ' ' || ("given_name")::text || ' ' || ("family_name")::text)) gin_trgm_ops)`,
     },
+    // The recall desk's "to call" queue (lib/services/recall-desk.ts): patients who agreed to recall
+    // contact but not by e-mail; its predicate is the queue's condition on the patient, verbatim.
+    {
+      name: 'patient_phone_recall_index',
+      expression: `create index "patient_phone_recall_index" on "patient" ("id") where "recall_contact" and not ("recall_channel" = 'email' and "email" is not null and "email" <> '')`,
+    },
   ],
 });
 

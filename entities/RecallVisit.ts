@@ -49,6 +49,12 @@ export const RecallVisitSchema = defineEntity({
     statusChangedBy: p.manyToOne(UserSchema).ref().nullable().deleteRule('set null'),
     createdAt: p.datetime().onCreate(() => new Date()),
     updatedAt: p.datetime().onCreate(() => new Date()).onUpdate(() => new Date()),
+    // Copies of the case's state for the recall desk, kept by database triggers (Migration20261203170000)
+    // whoever writes: never set by the app. The case and its patient are not archived; the case's
+    // clinician; its patient.
+    caseLive: p.boolean().default(true),
+    operatorId: p.uuid().nullable(),
+    patientId: p.uuid().nullable(),
   },
   uniques: [{ name: 'recall_visit_case_milestone_unique', properties: ['case', 'milestone'] }],
   indexes: [
@@ -59,13 +65,18 @@ export const RecallVisitSchema = defineEntity({
     { name: 'recall_visit_case_status_due_index', properties: ['case', 'status', 'dueDate', 'practice'] },
     { name: 'recall_visit_practice_due_index', properties: ['practice', 'dueDate'] },
     // The recall desk's queues (lib/services/recall-desk.ts QUEUED_STATUSES: every status a queue
-    // other than "this month" asks for): index-only, with every column their conditions read.
+    // other than "this month" asks for), live visits only: index-only, with every column their
+    // conditions read.
     {
       name: 'recall_visit_desk_index',
       expression:
         `create index "recall_visit_desk_index" on "recall_visit" ("practice_id", "status", "due_date") ` +
-        `include ("id", "case_id", "booked_date", "proposed_start", "window_end", "delivery_failed_at") ` +
-        `where "status" in ('planned', 'invited', 'confirmed', 'missed', 'declined')`,
+        `include ("id", "operator_id", "patient_id", "booked_date", "proposed_start", "window_end", "delivery_failed_at") ` +
+        `where "status" in ('planned', 'invited', 'confirmed', 'missed', 'declined') and "case_live"`,
+    },
+    {
+      name: 'recall_visit_delivery_failed_index',
+      expression: `create index "recall_visit_delivery_failed_index" on "recall_visit" ("practice_id", "operator_id") where "delivery_failed_at" is not null and "case_live"`,
     },
   ],
 });

@@ -37,14 +37,15 @@ export async function recallSettings(em: EntityManager, practiceId: string, now:
   };
 }
 
-/** The practice's visits joined to their case (c) and patient (p), archived patients and cases left out. */
-export function activeVisits(knex: Knex, practiceId: string): Knex.QueryBuilder {
-  return knex('recall_visit as v')
-    .join('treatment_case as c', 'c.id', 'v.case_id')
-    .join('patient as p', 'p.id', 'c.patient_id')
-    .where('v.practice_id', practiceId)
-    .whereNull('c.archived_at')
-    .whereNull('p.archived_at');
+/**
+ * The practice's visits (v) whose case and patient are not archived, with their patient (p) joined
+ * when `withPatient`. Read from the visit's own copies of its case's state (case_live, operator_id,
+ * patient_id: kept by database triggers, Migration20261203170000), so no case is joined: filter a
+ * clinician's visits on `v.operator_id`.
+ */
+export function activeVisits(knex: Knex, practiceId: string, { withPatient = false } = {}): Knex.QueryBuilder {
+  const b = knex('recall_visit as v').where('v.practice_id', practiceId).where('v.case_live', true);
+  return withPatient ? b.join('patient as p', 'p.id', 'v.patient_id') : b;
 }
 
 /** A list of visit ids from a body: 1 to 200 uuids, duplicates dropped. */

@@ -42,7 +42,7 @@ import {
   type DeskVisit,
   type RecallSettings,
 } from './recall-common';
-import { EMAIL_CONSENT_SQL, enqueueOutbox, insertOutboxRows, reminderProducer, retryFailedReminder, type OutboxEntry } from './recall-outbox';
+import { EMAIL_ADDRESS_SQL, EMAIL_CONSENT_SQL, enqueueOutbox, insertOutboxRows, reminderProducer, retryFailedReminder, type OutboxEntry } from './recall-outbox';
 import { SortDir, displayName, isUuid, knexOf, pageOffset, todayIn, type Page } from './registry-common';
 import { refreshNextVisit } from './visits';
 
@@ -120,13 +120,16 @@ function thisMonth(today: string): [string, string] {
   return [`${today.slice(0, 7)}-01`, `${today.slice(0, 7)}-${String(daysInMonth(y, m)).padStart(2, '0')}`];
 }
 
-/** The SQL condition of each queue on recall_visit v, c its case and p its patient. */
+/**
+ * The SQL condition of each queue on the live visits v (activeVisits) and, where `withPatient`, their
+ * patient p (only "to call" reads the patient).
+ */
 function queueCondition(
   queue: DeskQueue,
   practiceId: string,
   s: Pick<RecallSettings, 'today' | 'reminderPolicy'>,
   now: Date = new Date(),
-): { sql: string; bindings: unknown[] } {
+): { sql: string; bindings: unknown[]; withPatient?: true } {
   const today = s.today;
   switch (queue) {
     case 'due_soon':
@@ -137,9 +140,12 @@ function queueCondition(
         bindings: [CONTACT_STATUSES, today, now],
       };
     case 'call':
+      // Agreed to recall contact, but not by e-mail (not EMAIL_CONSENT_SQL: the case and patient of a
+      // live visit are not archived). Written as patient_phone_recall_index's predicate, which serves it.
       return {
-        sql: `v.status = any(?) and p.recall_contact and not ${EMAIL_CONSENT_SQL} and v.due_date <= ? and v.window_end >= ?`,
+        sql: `v.status = any(?) and p.recall_contact and not ${EMAIL_ADDRESS_SQL} and v.due_date <= ? and v.window_end >= ?`,
         bindings: [CONTACT_STATUSES, addDaysTo(today, 7 * s.reminderPolicy.invitationWeeksBefore), today],
+        withPatient: true,
       };
     case 'this_month':
       return { sql: `v.due_date between ? and ?`, bindings: thisMonth(today) };
@@ -186,27 +192,21 @@ export async function deskQueues(em: EntityManager, actor: Actor, raw: unknown =
   const q = parseInput(DeskQueuesQuery, raw);
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
-  const visits = () => {
-    const b = activeVisits(knex, actor.practiceId);
-    return q.clinician ? b.where('c.operator_id', q.clinician) : b;
+  const visits = (withPatient?: true) => {
+    const b = activeVisits(knex, actor.practiceId, { withPatient });
+    return q.clinician ? b.where('v.operator_id', q.clinician) : b;
   };
-  // The work queues from the visits in some queue (index-only: a queued status and any queue's
-  // condition), "this month" (any status) apart, from the due-date index: each visit in a queue
-  // is counted as before, and far fewer rows are joined to their cases and patients.
-  const queued = DESK_QUEUES.filter((k) => k !== 'this_month').map((key) => ({ key, ...queueCondition(key, actor.practiceId, s) }));
-  const month = queueCondition('this_month', actor.practiceId, s);
-  const [row, monthRow] = (await Promise.all([
-    visits()
-      .whereRaw(QUEUED_SQL)
-      .where((w) => {
-        for (const c of queued) w.orWhereRaw(c.sql, c.bindings as Knex.RawBinding[]);
-      })
-      .first(queued.map((c) => knex.raw(`count(*) filter (where ${c.sql}) as "${c.key}"`, c.bindings as Knex.RawBinding[]))),
-    visits()
-      .whereRaw(month.sql, month.bindings as Knex.RawBinding[])
-      .first(knex.raw('count(*) as "this_month"')),
-  ])) as [Record<DeskQueue, string> | undefined, { this_month: string } | undefined];
-  const counts: Partial<Record<DeskQueue, string>> = { ...row, this_month: monthRow?.this_month };
+  // One statement, a count per queue: each reads only its own visits from the desk index (a
+  // queued status and its condition) or, for "this month", the due-date index; no other table but
+  // the patient for "to call".
+  const count = (key: DeskQueue) => {
+    const c = queueCondition(key, actor.practiceId, s);
+    const b = visits(c.withPatient).whereRaw(c.sql, c.bindings as Knex.RawBinding[]);
+    if (key !== 'this_month') b.whereRaw(QUEUED_SQL); // implied by the condition; lets the desk index serve it
+    return b.count('*');
+  };
+  const row = (await knex.first(Object.fromEntries(DESK_QUEUES.map((key) => [key, count(key)])))) as Partial<Record<DeskQueue, string>> | undefined;
+  const counts: Partial<Record<DeskQueue, string>> = row ?? {};
   await auditRead(em, actor, { action: 'recall.queues_read', ...(q.clinician ? { detail: { clinician: q.clinician } } : {}) });
   return {
     today: s.today,
@@ -268,9 +268,9 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
   const knex = knexOf(em);
   const cond = queueCondition(q.queue, actor.practiceId, s);
   const base = () => {
-    const b = activeVisits(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
+    const b = activeVisits(knex, actor.practiceId, { withPatient: cond.withPatient === true || q.sort === 'patient' }).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
     if (q.queue !== 'this_month') b.whereRaw(QUEUED_SQL); // implied by the condition; lets the desk index serve it
-    return q.clinician ? b.where('c.operator_id', q.clinician) : b;
+    return q.clinician ? b.where('v.operator_id', q.clinician) : b;
   };
   const lastContact = knex.raw(
     `(select max(e.at) from contact_log_entry e where e.visit_id = v.id and e.kind in ('message_sent', 'reply', 'call', 'appointment')) as last_contact_at`,
@@ -733,8 +733,8 @@ export async function callList(em: EntityManager, actor: Actor, raw: unknown = {
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
   const cond = queueCondition('call', actor.practiceId, s);
-  const base = activeVisits(knex, actor.practiceId).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
-  if (q.clinician) base.where('c.operator_id', q.clinician);
+  const base = activeVisits(knex, actor.practiceId, { withPatient: true }).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
+  if (q.clinician) base.where('v.operator_id', q.clinician);
   const ids = (await base.select('v.id').orderBy([{ column: 'v.due_date' }, { column: 'p.family_name' }, { column: 'v.id' }]).limit(CALL_LIST_MAX + 1)) as { id: string }[];
   const rows = await deskRowsByIds(em, s, ids.slice(0, CALL_LIST_MAX).map((r) => r.id));
   await auditRead(em, actor, { action: 'recall.call_list_read', detail: { ...(q.clinician ? { clinician: q.clinician } : {}), visitIds: rows.map((r) => r.visitId) } });

@@ -275,12 +275,14 @@ export async function lastReplies(em: EntityManager, visitIds: readonly string[]
   return out;
 }
 
+/** SQL for "the patient's recall channel is e-mail and an address is on file". Alias: p patient. */
+export const EMAIL_ADDRESS_SQL = `(p.recall_channel = 'email' and p.email is not null and p.email <> '')`;
+
 /**
  * SQL for "the patient agrees to recall contact by e-mail": consent given, channel e-mail, an
  * address on file, neither the patient nor the case archived. Aliases: p patient, c case.
  */
-export const EMAIL_CONSENT_SQL =
-  `(p.recall_contact and p.recall_channel = 'email' and p.email is not null and p.email <> '' ` + `and p.archived_at is null and c.archived_at is null)`;
+export const EMAIL_CONSENT_SQL = `(p.recall_contact and ${EMAIL_ADDRESS_SQL} and p.archived_at is null and c.archived_at is null)`;
 
 // --- failures and recovery ------------------------------------------------------------------------
 

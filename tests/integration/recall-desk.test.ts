@@ -121,6 +121,50 @@ describe('desk queues', () => {
     expect(await listDeskRows(services.em(), w.coordinator, { queue: 'replied' })).toMatchObject({ total: 0, rows: [] });
   });
 
+  it("each visit keeps its case's state (case and patient live, clinician, patient) whoever writes, and the desk follows it", async () => {
+    const w = await desk();
+    // Every visit's copy against its case and patient, by the definition (activeVisits' former joins).
+    const stale = async () =>
+      (
+        (await knex().raw(
+          `select count(*)::int as n from recall_visit v join treatment_case c on c.id = v.case_id join patient p on p.id = c.patient_id
+            where v.practice_id = ? and (v.case_live is distinct from (c.archived_at is null and p.archived_at is null)
+               or v.operator_id is distinct from c.operator_id or v.patient_id is distinct from c.patient_id)`,
+          [w.practice.id],
+        )) as { rows: { n: number }[] }
+      ).rows[0]!.n;
+    const live = async (i: number) => ((await knex()('recall_visit').where({ id: w.id(i) }).first('case_live')) as { case_live: boolean }).case_live;
+    expect(await knex()('recall_visit').where({ practice_id: w.practice.id }).count('* as n').first()).toMatchObject({ n: '9' });
+    expect(await stale()).toBe(0);
+    expect([await live(0), await live(8)]).toEqual([true, false]); // visit 8's patient is archived
+    const before = await counts(w.coordinator);
+
+    // The patient archived, then back: the visit leaves the desk and returns.
+    const patientOf = (i: number) => knex()('treatment_case').where({ id: w.v[i]!.caseId }).first('patient_id', 'operator_id') as Promise<{ patient_id: string; operator_id: string }>;
+    const p0 = (await patientOf(0)).patient_id;
+    await knex()('patient').where({ id: p0 }).update({ archived_at: new Date() });
+    expect(await live(0)).toBe(false);
+    expect(await counts(w.coordinator)).toMatchObject({ due_soon: before.due_soon! - 1 });
+    await knex()('patient').where({ id: p0 }).update({ archived_at: null });
+    expect(await live(0)).toBe(true);
+    expect(await counts(w.coordinator)).toEqual(before);
+
+    // The case handed to another clinician: the clinician's counts follow.
+    const mine = async (actorId: string) => Object.fromEntries((await deskQueues(services.em(), w.coordinator, { clinician: actorId })).queues.map((q) => [q.key, q.count]));
+    expect(await mine(w.clinician2.userId)).toMatchObject({ due_soon: 0, missed: 0 });
+    await knex()('treatment_case').where({ id: w.v[0]!.caseId }).update({ operator_id: w.clinician2.userId });
+    expect(await mine(w.clinician2.userId)).toMatchObject({ due_soon: 1, missed: 0 });
+    expect(await mine(w.clinician.userId)).toMatchObject({ due_soon: before.due_soon! - 1 });
+
+    // A visit moved to another case, and one inserted by plain SQL, take their case's state.
+    await knex()('recall_visit').where({ id: w.id(7) }).update({ case_id: w.v[8]!.caseId, milestone: 99 });
+    expect(await live(7)).toBe(false);
+    const added = randomUUID();
+    await knex()('recall_visit').insert({ id: added, practice_id: w.practice.id, case_id: w.v[0]!.caseId, milestone: 98, due_date: addDaysTo(today, 5), window_start: today, window_end: addDaysTo(today, 60), status: 'planned', status_changed_at: new Date(), created_at: new Date(), updated_at: new Date() });
+    expect(await knex()('recall_visit').where({ id: added }).first('case_live', 'operator_id', 'patient_id')).toEqual({ case_live: true, operator_id: w.clinician2.userId, patient_id: p0 });
+    expect(await stale()).toBe(0);
+  });
+
   it('the desk index holds exactly the queued statuses (else the counts read the table again)', async () => {
     const { rows } = (await knex().raw(`select indexdef from pg_indexes where indexname = 'recall_visit_desk_index'`)) as { rows: { indexdef: string }[] };
     const listed = [...rows[0]!.indexdef.matchAll(/'(\w+)'::text/g)].map((m) => m[1]);
