@@ -119,6 +119,35 @@ await_step() {
   if ((STEP_RC == 0)); then lamina_log "$name: ok ($secs s, beside vitest)"; else lamina_log "$name: FAILED (exit $STEP_RC)"; fi
 }
 
+# vitest_run JSONFILE ARGS...: vitest (NODE_ENV=test) with the list and JSON reporters.
+vitest_run() {
+  local json="$1"
+  shift
+  env NODE_ENV=test node_modules/.bin/vitest run --config tests/vitest.config.ts \
+    --reporter=default --reporter=json --outputFile.json="$json" "$@"
+}
+
+# run_vitest_projects: the two vitest projects as two runners at once (issue 15). vitest runs a
+# project whose files go one at a time (integration) only after every other project has finished,
+# so in one vitest process the unit project's ~2 minutes came first and the integration files
+# after them. Here the integration project runs in the foreground (the longer one; its output is
+# printed as it goes) and the unit project beside it, its output in logs/vitest-unit.log, printed
+# when both are done. Each writes its own JSON report; the summary counts both.
+run_vitest_projects() {
+  local unit_log="$TMP/logs/vitest-unit.log" unit_pid
+  lamina_log "vitest unit: started in the background (output: $unit_log)"
+  runner "vitest unit" "$RESULTS/vitest-unit.json" vitest_run "$RESULTS/vitest-unit.json" --project unit >"$unit_log" 2>&1 &
+  unit_pid=$!
+  BG_PIDS+=("$unit_pid")
+  runner "vitest integration" "$RESULTS/vitest-integration.json" vitest_run "$RESULTS/vitest-integration.json" --project integration
+  wait "$unit_pid" 2>/dev/null || true
+  local left=() p
+  for p in "${BG_PIDS[@]}"; do [[ "$p" == "$unit_pid" ]] || left+=("$p"); done
+  BG_PIDS=("${left[@]}")
+  banner "vitest unit (ran beside the integration project)"
+  cat "$unit_log" >&2 2>/dev/null || true
+}
+
 # http_answers URL: the server sent any HTTP response (a redirect or an error page counts).
 http_answers() {
   node -e 'fetch(process.argv[1], { redirect: "manual", signal: AbortSignal.timeout(3000) }).then(() => {}, () => process.exit(1))' "$1"
@@ -219,7 +248,7 @@ main() {
   trap on_exit EXIT
   trap 'exit 130' INT
   trap 'exit 143' TERM
-  record expect vitest
+  if [[ -n "${LAMINA_VITEST_ARGS:-}" ]]; then record expect vitest; else record expect "vitest unit" && record expect "vitest integration"; fi
   [[ -n "${LAMINA_SKIP_E2E:-}" ]] || record expect playwright
   [[ -n "${LAMINA_SKIP_E2E:-}" ]] || ! scale_wanted || record expect scale-test
 
@@ -257,9 +286,12 @@ main() {
 
   # LAMINA_VITEST_ARGS / LAMINA_PW_ARGS narrow the runs to some files while developing;
   # LAMINA_SKIP_E2E=1 stops after vitest. CI sets none of them.
-  # shellcheck disable=SC2086
-  runner vitest "$RESULTS/vitest.json" env NODE_ENV=test node_modules/.bin/vitest run --config tests/vitest.config.ts \
-    --reporter=default --reporter=json --outputFile.json="$RESULTS/vitest.json" ${LAMINA_VITEST_ARGS:-}
+  if [[ -n "${LAMINA_VITEST_ARGS:-}" ]]; then
+    # shellcheck disable=SC2086
+    runner vitest "$RESULTS/vitest.json" vitest_run "$RESULTS/vitest.json" ${LAMINA_VITEST_ARGS}
+  else
+    run_vitest_projects
+  fi
   if [[ -n "${LAMINA_SKIP_E2E:-}" ]]; then finish; return; fi
 
   await_step "fresh e2e database, migrations and demo seed" "$seed_pid"
