@@ -6,15 +6,16 @@
 #   2. PostgreSQL, Redis, the SMTP fake and the S3 fake in a temporary dir (removed at exit), on
 #      free ports near 55433 / 56380 / 52525 / 52526 / 45690 (web 53000); override with
 #      LAMINA_TEST_*_PORT (…_PG_, _REDIS_, _SMTP_, _MAILBOX_, _WEB_, _S3_PORT)
-#   3. migrations, then vitest (all projects: unit, reference, integration)
+#   3. migrations, then vitest: the integration project, and the unit project (unit, reference)
+#      beside it as a second runner
 #   4. meanwhile, in the background (they need nothing from vitest): a second database for the e2e
 #      tests (migrations and the demo seed; they sign in as demo users) and `next build` into
 #      .next-test (a running `npm start` keeps its .next); their output goes to logs/ and is
-#      printed when vitest is done
+#      printed when vitest is done; once the build is there, the scale test's short form
+#      (scripts/scale-test.sh --short on services of its own: haproxy, two instances of the build,
+#      two workers, 200 reminders; its checks are counted like tests), printed after Playwright
 #   5. the web server and the worker on the e2e database, then Playwright in Debian's Chromium
-#   6. the scale test's short form (scripts/scale-test.ts --short: haproxy, two instances of the
-#      build, two workers, 200 reminders; its checks are counted like tests)
-#   7. everything stopped, then scripts/summarize-tests.mjs sums every runner's JSON report
+#   6. everything stopped, then scripts/summarize-tests.mjs sums every runner's JSON report
 #
 # Service logs of a failed run are copied to test-results/logs/.
 set -euo pipefail
@@ -148,6 +149,24 @@ run_vitest_projects() {
   cat "$unit_log" >&2 2>/dev/null || true
 }
 
+# scale_beside BUILD_RC_FILE: the scale test's short form (issue 15) on services of its own
+# (scripts/scale-test.sh: PostgreSQL, Redis, the SMTP and S3 fakes on free ports from its bases,
+# migrated, removed at its end), on the build in .next-test as soon as the build step has finished,
+# beside vitest. It shares nothing with vitest or with the e2e run (before, it ran after Playwright
+# on the run's services and web port: 46 s on the critical path). Called in the background.
+scale_beside() {
+  local rc_file="$1" deadline=$((SECONDS + 1800)) rc
+  until [[ -s "$rc_file" ]]; do
+    ((SECONDS < deadline)) || { lamina_log "scale-test: the build did not finish within 30 minutes"; return 1; }
+    sleep 1
+  done
+  read -r rc _ <"$rc_file"
+  ((rc == 0)) || { lamina_log "scale-test: not run, the build failed"; return 1; }
+  # Its own free ports, never the run's (LAMINA_TEST_*_PORT fix those).
+  unset LAMINA_TEST_PG_PORT LAMINA_TEST_REDIS_PORT LAMINA_TEST_SMTP_PORT LAMINA_TEST_MAILBOX_PORT LAMINA_TEST_WEB_PORT LAMINA_TEST_S3_PORT
+  LAMINA_SCALE_DIST_DIR=.next-test LAMINA_BUILD=never bash scripts/scale-test.sh --short --report "$RESULTS/scale-test.json"
+}
+
 # http_answers URL: the server sent any HTTP response (a redirect or an error page counts).
 http_answers() {
   node -e 'fetch(process.argv[1], { redirect: "manual", signal: AbortSignal.timeout(3000) }).then(() => {}, () => process.exit(1))' "$1"
@@ -167,7 +186,7 @@ unlock_e2e() { flock -u 9 2>/dev/null || true; exec 9>&-; }
 
 build() { NEXT_DIST_DIR=.next-test node_modules/.bin/next build; }
 
-# The scale test's short form runs after Playwright on the same build, unless LAMINA_SKIP_SCALE=1,
+# The scale test's short form runs beside vitest on the same build, unless LAMINA_SKIP_SCALE=1,
 # or LAMINA_PW_ARGS narrows the e2e run (then LAMINA_SCALE=1 asks for it anyway).
 scale_wanted() {
   [[ "${LAMINA_SKIP_SCALE:-}" != 1 ]] || return 1
@@ -275,13 +294,19 @@ main() {
 
   # The e2e preparation does not wait for vitest: the seed goes to its own database, the build
   # to .next-test (behind the checkout's e2e lock).
-  local seed_pid='' build_pid=''
+  local seed_pid='' build_pid='' scale_pid=''
   if [[ -z "${LAMINA_SKIP_E2E:-}" ]]; then
     bg_step "fresh e2e database, migrations and demo seed" reset_database
     seed_pid=$BG_PID
     lock_e2e
     bg_step "next build" build
     build_pid=$BG_PID
+    if scale_wanted; then
+      lamina_log "scale-test: starts in the background once the build is done (output: $TMP/logs/scale-test-run.log)"
+      runner scale-test "$RESULTS/scale-test.json" scale_beside "$TMP/logs/next-build.log.rc" >"$TMP/logs/scale-test-run.log" 2>&1 &
+      scale_pid=$!
+      BG_PIDS+=("$scale_pid")
+    fi
   fi
 
   # LAMINA_VITEST_ARGS / LAMINA_PW_ARGS narrow the runs to some files while developing;
@@ -306,10 +331,14 @@ main() {
       node_modules/.bin/playwright test --config tests/playwright.config.ts ${LAMINA_PW_ARGS:-}
   fi
   stop_app
-  # The scale test's short form (issue 15): haproxy, two instances of this build, two workers.
-  if ok && scale_wanted; then
-    runner scale-test "$RESULTS/scale-test.json" env NEXT_DIST_DIR=.next-test TSX_TSCONFIG_PATH=scripts/tsconfig.json \
-      node --import tsx scripts/scale-test.ts --short --report "$RESULTS/scale-test.json"
+  # The scale test's short form (issue 15), started beside vitest (scale_beside): its output now.
+  if [[ -n "$scale_pid" ]]; then
+    wait "$scale_pid" 2>/dev/null || true
+    local left=() p
+    for p in "${BG_PIDS[@]}"; do [[ "$p" == "$scale_pid" ]] || left+=("$p"); done
+    BG_PIDS=("${left[@]}")
+    banner "scale-test (ran in the background)"
+    cat "$TMP/logs/scale-test-run.log" >&2 2>/dev/null || true
   fi
   unlock_e2e
   finish
