@@ -7,11 +7,11 @@
 #      free ports near 55433 / 56380 / 52525 / 52526 / 45690 (web 53000); override with
 #      LAMINA_TEST_*_PORT (…_PG_, _REDIS_, _SMTP_, _MAILBOX_, _WEB_, _S3_PORT)
 #   3. migrations, then vitest: the integration project, and the unit project (unit, reference)
-#      beside it as a second runner
+#      beside it as a second runner once the build (step 4) is done
 #   4. meanwhile, in the background (they need nothing from vitest): a second database for the e2e
 #      tests (migrations and the demo seed; they sign in as demo users) and `next build` into
 #      .next-test (a running `npm start` keeps its .next); their output goes to logs/ and is
-#      printed when vitest is done; once the build is there, the scale test's short form
+#      printed when vitest is done; once the build and the unit project are done, the scale test's short form
 #      (scripts/scale-test.sh --short on services of its own: haproxy, two instances of the build,
 #      two workers, 200 reminders; its checks are counted like tests), printed after Playwright
 #   5. the web server and the worker on the e2e database, then Playwright in Debian's Chromium
@@ -128,43 +128,53 @@ vitest_run() {
     --reporter=default --reporter=json --outputFile.json="$json" "$@"
 }
 
-# run_vitest_projects: the two vitest projects as two runners at once (issue 15). vitest runs a
-# project whose files go one at a time (integration) only after every other project has finished,
-# so in one vitest process the unit project's ~2 minutes came first and the integration files
-# after them. Here the integration project runs in the foreground (the longer one; its output is
-# printed as it goes) and the unit project beside it, its output in logs/vitest-unit.log, printed
-# when both are done. Each writes its own JSON report; the summary counts both.
-run_vitest_projects() {
-  local unit_log="$TMP/logs/vitest-unit.log" unit_pid
-  lamina_log "vitest unit: started in the background (output: $unit_log)"
-  runner "vitest unit" "$RESULTS/vitest-unit.json" vitest_run "$RESULTS/vitest-unit.json" --project unit >"$unit_log" 2>&1 &
-  unit_pid=$!
-  BG_PIDS+=("$unit_pid")
-  runner "vitest integration" "$RESULTS/vitest-integration.json" vitest_run "$RESULTS/vitest-integration.json" --project integration
-  wait "$unit_pid" 2>/dev/null || true
-  local left=() p
-  for p in "${BG_PIDS[@]}"; do [[ "$p" == "$unit_pid" ]] || left+=("$p"); done
-  BG_PIDS=("${left[@]}")
-  banner "vitest unit (ran beside the integration project)"
-  cat "$unit_log" >&2 2>/dev/null || true
-}
-
-# scale_beside BUILD_RC_FILE: the scale test's short form (issue 15) on services of its own
-# (scripts/scale-test.sh: PostgreSQL, Redis, the SMTP and S3 fakes on free ports from its bases,
-# migrated, removed at its end), on the build in .next-test as soon as the build step has finished,
-# beside vitest. It shares nothing with vitest or with the e2e run (before, it ran after Playwright
-# on the run's services and web port: 46 s on the critical path). Called in the background.
-scale_beside() {
-  local rc_file="$1" deadline=$((SECONDS + 1800)) rc
-  until [[ -s "$rc_file" ]]; do
-    ((SECONDS < deadline)) || { lamina_log "scale-test: the build did not finish within 30 minutes"; return 1; }
+# wait_for_file FILE SECONDS WHAT: poll (1 s apart) until FILE exists and is not empty; non-zero
+# after SECONDS.
+wait_for_file() {
+  local file="$1" deadline=$((SECONDS + $2))
+  until [[ -s "$file" ]]; do
+    ((SECONDS < deadline)) || { lamina_log "gave up waiting for $3 after $2 s"; return 1; }
     sleep 1
   done
-  read -r rc _ <"$rc_file"
+}
+
+# unit_after_build BUILD_RC_FILE DONE_FILE: the vitest unit project as a runner of its own, beside the
+# integration project (issue 15). One vitest process runs a project whose files go one at a time
+# (integration) only after every other project has finished, so the unit project's ~2 minutes came
+# first, beside the build, with the integration files after them and one core often idle. Run at
+# once beside them, the unit project, the integration files and the build fought over the 2 cores
+# (vitest 545 s instead of 486); so the unit project waits for the build step to finish (BUILD_RC_FILE
+# empty: no build in this run), then runs beside the integration files. DONE_FILE is written when
+# it ends (the scale test waits for it). Called in the background.
+unit_after_build() {
+  local build_rc="$1" done_file="$2"
+  [[ -z "$build_rc" ]] || wait_for_file "$build_rc" 1800 "the build" || true
+  runner "vitest unit" "$RESULTS/vitest-unit.json" vitest_run "$RESULTS/vitest-unit.json" --project unit
+  echo done >"$done_file"
+}
+
+# scale_beside BUILD_RC_FILE [AFTER_FILE]: the scale test's short form (issue 15) on services of its
+# own (scripts/scale-test.sh: PostgreSQL, Redis, the SMTP and S3 fakes on free ports from its bases,
+# migrated, removed at its end), on the build in .next-test once the build step has finished (and
+# AFTER_FILE is written: the unit project is done), beside the integration files. It shares nothing
+# with vitest or the e2e run (before, it ran after Playwright on the run's services and web port:
+# 46 s on the critical path). Called in the background.
+scale_beside() {
+  local build_rc="$1" after="${2:-}" rc
+  wait_for_file "$build_rc" 1800 "the build" || return 1
+  read -r rc _ <"$build_rc"
   ((rc == 0)) || { lamina_log "scale-test: not run, the build failed"; return 1; }
+  [[ -z "$after" ]] || wait_for_file "$after" 1800 "the vitest unit project" || return 1
   # Its own free ports, never the run's (LAMINA_TEST_*_PORT fix those).
   unset LAMINA_TEST_PG_PORT LAMINA_TEST_REDIS_PORT LAMINA_TEST_SMTP_PORT LAMINA_TEST_MAILBOX_PORT LAMINA_TEST_WEB_PORT LAMINA_TEST_S3_PORT
   LAMINA_SCALE_DIST_DIR=.next-test LAMINA_BUILD=never bash scripts/scale-test.sh --short --report "$RESULTS/scale-test.json"
+}
+
+# forget_bg PID: PID has ended; stop_everything need not kill it.
+forget_bg() {
+  local left=() p
+  for p in "${BG_PIDS[@]}"; do [[ "$p" == "$1" ]] || left+=("$p"); done
+  BG_PIDS=("${left[@]}")
 }
 
 # http_answers URL: the server sent any HTTP response (a redirect or an error page counts).
@@ -294,28 +304,40 @@ main() {
 
   # The e2e preparation does not wait for vitest: the seed goes to its own database, the build
   # to .next-test (behind the checkout's e2e lock).
-  local seed_pid='' build_pid='' scale_pid=''
+  local seed_pid='' build_pid='' build_rc='' unit_pid='' scale_pid=''
+  local unit_done="$TMP/logs/vitest-unit.done" unit_log="$TMP/logs/vitest-unit.log" scale_log="$TMP/logs/scale-test-run.log"
   if [[ -z "${LAMINA_SKIP_E2E:-}" ]]; then
     bg_step "fresh e2e database, migrations and demo seed" reset_database
     seed_pid=$BG_PID
     lock_e2e
     bg_step "next build" build
     build_pid=$BG_PID
-    if scale_wanted; then
-      lamina_log "scale-test: starts in the background once the build is done (output: $TMP/logs/scale-test-run.log)"
-      runner scale-test "$RESULTS/scale-test.json" scale_beside "$TMP/logs/next-build.log.rc" >"$TMP/logs/scale-test-run.log" 2>&1 &
-      scale_pid=$!
-      BG_PIDS+=("$scale_pid")
-    fi
+    build_rc="$TMP/logs/next-build.log.rc"
   fi
 
   # LAMINA_VITEST_ARGS / LAMINA_PW_ARGS narrow the runs to some files while developing;
   # LAMINA_SKIP_E2E=1 stops after vitest. CI sets none of them.
+  if [[ -z "${LAMINA_VITEST_ARGS:-}" ]]; then
+    lamina_log "vitest unit: starts in the background${build_rc:+ once the build is done} (output: $unit_log)"
+    unit_after_build "$build_rc" "$unit_done" >"$unit_log" 2>&1 &
+    unit_pid=$!
+    BG_PIDS+=("$unit_pid")
+  fi
+  if [[ -n "$build_rc" ]] && scale_wanted; then
+    lamina_log "scale-test: starts in the background once the build${unit_pid:+ and the unit project} are done (output: $scale_log)"
+    runner scale-test "$RESULTS/scale-test.json" scale_beside "$build_rc" "${unit_pid:+$unit_done}" >"$scale_log" 2>&1 &
+    scale_pid=$!
+    BG_PIDS+=("$scale_pid")
+  fi
   if [[ -n "${LAMINA_VITEST_ARGS:-}" ]]; then
     # shellcheck disable=SC2086
     runner vitest "$RESULTS/vitest.json" vitest_run "$RESULTS/vitest.json" ${LAMINA_VITEST_ARGS}
   else
-    run_vitest_projects
+    runner "vitest integration" "$RESULTS/vitest-integration.json" vitest_run "$RESULTS/vitest-integration.json" --project integration
+    wait "$unit_pid" 2>/dev/null || true
+    forget_bg "$unit_pid"
+    banner "vitest unit (ran in the background)"
+    cat "$unit_log" >&2 2>/dev/null || true
   fi
   if [[ -n "${LAMINA_SKIP_E2E:-}" ]]; then finish; return; fi
 
@@ -334,11 +356,9 @@ main() {
   # The scale test's short form (issue 15), started beside vitest (scale_beside): its output now.
   if [[ -n "$scale_pid" ]]; then
     wait "$scale_pid" 2>/dev/null || true
-    local left=() p
-    for p in "${BG_PIDS[@]}"; do [[ "$p" == "$scale_pid" ]] || left+=("$p"); done
-    BG_PIDS=("${left[@]}")
+    forget_bg "$scale_pid"
     banner "scale-test (ran in the background)"
-    cat "$TMP/logs/scale-test-run.log" >&2 2>/dev/null || true
+    cat "$scale_log" >&2 2>/dev/null || true
   fi
   unlock_e2e
   finish
