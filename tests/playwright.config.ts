@@ -28,19 +28,11 @@ const chromium = {
   },
 };
 
-/**
- * The specs of the `readers` project (below). A spec may join only if it writes nothing another spec
- * reads and reads nothing another spec writes while it runs; one that ends sessions or changes roles
- * of the demo people stays in `chromium` and takes DEMO_SESSIONS_LOCK.
- */
-const READERS = /\/(authz-matrix|bad-input|everywhere|security)\.spec\.ts$/;
-
 export default defineConfig({
   testDir: path.join(root, 'tests/e2e'),
   outputDir: process.env.PLAYWRIGHT_OUTPUT_DIR ?? path.join(root, 'test-results/playwright'),
-  // Two workers (issue 15): one runs the `chromium` project (the specs that write to the shared demo
-  // world, one at a time); the other runs the specs that only read — `readers`, then `accessibility` —
-  // one at a time, beside it. A failure is a failure (no retries).
+  // Two workers, one per project (below): the specs that write to the shared demo world run one at a
+  // time; the accessibility spec, which only reads, runs beside them. A failure is a failure (no retries).
   workers: 2,
   fullyParallel: false,
   retries: 0,
@@ -63,28 +55,16 @@ export default defineConfig({
   },
   projects: [
     {
-      // Every spec that writes to the shared demo world (send, book, review, import, roles), one test at
-      // a time: some read what others wrote. Playwright queues the projects in this order, so this
-      // project's next spec always takes the first free worker.
+      // Every spec but the accessibility one, one test at a time: most change the shared demo world
+      // (send, book, review, import, roles) and some read what others wrote.
       name: 'chromium',
-      testIgnore: [READERS, /accessibility\.spec\.ts$/],
+      testIgnore: /accessibility\.spec\.ts$/,
       workers: 1,
       use: chromium,
     },
     {
-      // Specs that only read the demo world, or write only what no other spec reads (the route matrix's
-      // invitation, film and cohort export), and do not depend on another spec's writes: in the second
-      // worker, one at a time, before the accessibility spec. They sign in as demo people whose sessions
-      // the team and sessions specs end or whose roles they change, so both sides hold the test lock
-      // DEMO_SESSIONS_LOCK (tests/e2e/support.ts) and never overlap.
-      name: 'readers',
-      testMatch: READERS,
-      workers: 1,
-      use: chromium,
-    },
-    {
-      // axe on every page as each role (issue 15): reads only, in the second worker after `readers`, one
-      // role at a time. It signs in again when a test beside it ends its session.
+      // axe on every page as each role (issue 15): reads only, so it runs beside the project above, in
+      // the second worker, one role at a time. It signs in again when a test there ends its session.
       name: 'accessibility',
       testMatch: /accessibility\.spec\.ts$/,
       workers: 1,

@@ -3,7 +3,7 @@ import { readFileSync, readdirSync, statSync } from 'node:fs';
 import path from 'node:path';
 import { randomUUID } from 'node:crypto';
 import { ROLES } from '../../lib/auth/roles';
-import { DEMO_SESSIONS_LOCK, demoUser, demoUserB, signInAs } from './support';
+import { demoUser, demoUserB, signInAs } from './support';
 import { PAGES, everyone, only, type Who } from './pages';
 
 /**
@@ -15,10 +15,6 @@ import { PAGES, everyone, only, type Who } from './pages';
  * Requests are chosen so that an allowed caller changes nothing (an invalid body answers 422,
  * an unknown id 404, another practice's id 404).
  */
-// Runs beside the writing specs (the `readers` project) as every demo person of both practices, and
-// checks exact statuses: never while a test ends their sessions or changes their roles.
-test.describe.configure({ lock: DEMO_SESSIONS_LOCK });
-
 type PracticeKey = 'A' | 'B';
 /** Real ids of one practice, read through the API by its own people before the matrix runs. */
 interface Ids {

@@ -1,8 +1,5 @@
 import { test, expect } from '@playwright/test';
-import { DEMO_SESSIONS_LOCK, signInAs } from './support';
-
-// Runs beside the writing specs (the `readers` project) signed in as the demo coordinator.
-test.describe.configure({ lock: DEMO_SESSIONS_LOCK });
+import { signInAs } from './support';
 
 /** Issue 9 item 9 on a page: a NUL in the patient list's search is said plainly (it was a 500). */
 test('a control character in the patient search is refused with a message, not an error page', async ({ page }) => {

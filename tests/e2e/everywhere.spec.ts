@@ -1,8 +1,5 @@
 import { test, expect, type Page, type Locator } from '@playwright/test';
-import { DEMO_SESSIONS_LOCK, signInAs, signInWithForm } from './support';
-
-// Runs beside the writing specs (the `readers` project) signed in as the demo coordinator.
-test.describe.configure({ lock: DEMO_SESSIONS_LOCK });
+import { signInAs, signInWithForm } from './support';
 
 /**
  * The desk and a case page on a phone (375 px), a tablet (768 px) and a laptop (1366 px): nothing

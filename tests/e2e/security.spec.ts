@@ -1,14 +1,11 @@
 import { test, expect, type APIRequestContext } from '@playwright/test';
-import { DEMO_SESSIONS_LOCK, signInAs } from './support';
+import { signInAs } from './support';
 
 /**
  * Issue 9, the edge of the app: demo mailbox (item 3), the address a request came from (4), open
  * redirects (5), cross-site writes (6), security headers and stable error codes (12). Page
  * statuses (item 11) are in authz-matrix.spec.ts. Each test here failed on the code before.
  */
-
-// Runs beside the writing specs (the `readers` project) signed in as demo people.
-test.describe.configure({ lock: DEMO_SESSIONS_LOCK });
 
 // This file sends its own Origin headers (foreign, missing, same-origin) on every write.
 test.use({ extraHTTPHeaders: {} });

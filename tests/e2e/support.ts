@@ -61,15 +61,6 @@ export async function firstLoadJsKb(page: Page, route: string): Promise<number> 
   return Math.round((total / 1024) * 10) / 10;
 }
 
-/**
- * The Playwright test lock (https://playwright.dev/docs/test-parallel#test-locks) between the tests
- * that end the sessions of, or change the roles of, a demo person (team.spec's revoked role, the
- * "sign out everywhere" of sessions.spec) and the specs of the `readers` project, which run beside
- * the writers (tests/playwright.config.ts) signed in as those people and check exact statuses. Tests
- * sharing a lock never run at the same time; Playwright takes it for the whole spec file.
- */
-export const DEMO_SESSIONS_LOCK = 'demo-sessions';
-
 const mailboxUrl = () => process.env.MAILBOX_URL ?? 'http://127.0.0.1:2526';
 
 export interface Mail {

@@ -1,7 +1,7 @@
 import { test, expect } from '@playwright/test';
-import { DEMO_SESSIONS_LOCK, demoUser, signInAs, signInWithForm } from './support';
+import { demoUser, signInAs, signInWithForm } from './support';
 
-test('a revoked role stops working on the next request: the member’s session ends', { lock: DEMO_SESSIONS_LOCK }, async ({ browser, baseURL }) => {
+test('a revoked role stops working on the next request: the member’s session ends', async ({ browser, baseURL }) => {
   const adminCtx = await browser.newContext();
   const admin = await adminCtx.newPage();
   await signInAs(admin, 'admin');
