@@ -6,16 +6,15 @@
 #   2. PostgreSQL, Redis, the SMTP fake and the S3 fake in a temporary dir (removed at exit), on
 #      free ports near 55433 / 56380 / 52525 / 52526 / 45690 (web 53000); override with
 #      LAMINA_TEST_*_PORT (…_PG_, _REDIS_, _SMTP_, _MAILBOX_, _WEB_, _S3_PORT)
-#   3. migrations, then vitest: the integration project, and the unit project (unit, reference)
-#      beside it as a second runner once the build (step 4) is done
+#   3. migrations, then vitest (all projects: unit, reference, integration)
 #   4. meanwhile, in the background (they need nothing from vitest): a second database for the e2e
 #      tests (migrations and the demo seed; they sign in as demo users) and `next build` into
 #      .next-test (a running `npm start` keeps its .next); their output goes to logs/ and is
-#      printed when vitest is done; once the build and the unit project are done, the scale test's short form
-#      (scripts/scale-test.sh --short on services of its own: haproxy, two instances of the build,
-#      two workers, 200 reminders; its checks are counted like tests), printed after Playwright
+#      printed when vitest is done
 #   5. the web server and the worker on the e2e database, then Playwright in Debian's Chromium
-#   6. everything stopped, then scripts/summarize-tests.mjs sums every runner's JSON report
+#   6. the scale test's short form (scripts/scale-test.ts --short: haproxy, two instances of the
+#      build, two workers, 200 reminders; its checks are counted like tests)
+#   7. everything stopped, then scripts/summarize-tests.mjs sums every runner's JSON report
 #
 # Service logs of a failed run are copied to test-results/logs/.
 set -euo pipefail
@@ -120,63 +119,6 @@ await_step() {
   if ((STEP_RC == 0)); then lamina_log "$name: ok ($secs s, beside vitest)"; else lamina_log "$name: FAILED (exit $STEP_RC)"; fi
 }
 
-# vitest_run JSONFILE ARGS...: vitest (NODE_ENV=test) with the list and JSON reporters.
-vitest_run() {
-  local json="$1"
-  shift
-  env NODE_ENV=test node_modules/.bin/vitest run --config tests/vitest.config.ts \
-    --reporter=default --reporter=json --outputFile.json="$json" "$@"
-}
-
-# wait_for_file FILE SECONDS WHAT: poll (1 s apart) until FILE exists and is not empty; non-zero
-# after SECONDS.
-wait_for_file() {
-  local file="$1" deadline=$((SECONDS + $2))
-  until [[ -s "$file" ]]; do
-    ((SECONDS < deadline)) || { lamina_log "gave up waiting for $3 after $2 s"; return 1; }
-    sleep 1
-  done
-}
-
-# unit_after_build BUILD_RC_FILE DONE_FILE: the vitest unit project as a runner of its own, beside the
-# integration project (issue 15). One vitest process runs a project whose files go one at a time
-# (integration) only after every other project has finished, so the unit project's ~2 minutes came
-# first, beside the build, with the integration files after them and one core often idle. Run at
-# once beside them, the unit project, the integration files and the build fought over the 2 cores
-# (vitest 545 s instead of 486); so the unit project waits for the build step to finish (BUILD_RC_FILE
-# empty: no build in this run), then runs beside the integration files. DONE_FILE is written when
-# it ends (the scale test waits for it). Called in the background.
-unit_after_build() {
-  local build_rc="$1" done_file="$2"
-  [[ -z "$build_rc" ]] || wait_for_file "$build_rc" 1800 "the build" || true
-  runner "vitest unit" "$RESULTS/vitest-unit.json" vitest_run "$RESULTS/vitest-unit.json" --project unit
-  echo done >"$done_file"
-}
-
-# scale_beside BUILD_RC_FILE [AFTER_FILE]: the scale test's short form (issue 15) on services of its
-# own (scripts/scale-test.sh: PostgreSQL, Redis, the SMTP and S3 fakes on free ports from its bases,
-# migrated, removed at its end), on the build in .next-test once the build step has finished (and
-# AFTER_FILE is written: the unit project is done), beside the integration files. It shares nothing
-# with vitest or the e2e run (before, it ran after Playwright on the run's services and web port:
-# 46 s on the critical path). Called in the background.
-scale_beside() {
-  local build_rc="$1" after="${2:-}" rc
-  wait_for_file "$build_rc" 1800 "the build" || return 1
-  read -r rc _ <"$build_rc"
-  ((rc == 0)) || { lamina_log "scale-test: not run, the build failed"; return 1; }
-  [[ -z "$after" ]] || wait_for_file "$after" 1800 "the vitest unit project" || return 1
-  # Its own free ports, never the run's (LAMINA_TEST_*_PORT fix those).
-  unset LAMINA_TEST_PG_PORT LAMINA_TEST_REDIS_PORT LAMINA_TEST_SMTP_PORT LAMINA_TEST_MAILBOX_PORT LAMINA_TEST_WEB_PORT LAMINA_TEST_S3_PORT
-  LAMINA_SCALE_DIST_DIR=.next-test LAMINA_BUILD=never bash scripts/scale-test.sh --short --report "$RESULTS/scale-test.json"
-}
-
-# forget_bg PID: PID has ended; stop_everything need not kill it.
-forget_bg() {
-  local left=() p
-  for p in "${BG_PIDS[@]}"; do [[ "$p" == "$1" ]] || left+=("$p"); done
-  BG_PIDS=("${left[@]}")
-}
-
 # http_answers URL: the server sent any HTTP response (a redirect or an error page counts).
 http_answers() {
   node -e 'fetch(process.argv[1], { redirect: "manual", signal: AbortSignal.timeout(3000) }).then(() => {}, () => process.exit(1))' "$1"
@@ -196,7 +138,7 @@ unlock_e2e() { flock -u 9 2>/dev/null || true; exec 9>&-; }
 
 build() { NEXT_DIST_DIR=.next-test node_modules/.bin/next build; }
 
-# The scale test's short form runs beside vitest on the same build, unless LAMINA_SKIP_SCALE=1,
+# The scale test's short form runs after Playwright on the same build, unless LAMINA_SKIP_SCALE=1,
 # or LAMINA_PW_ARGS narrows the e2e run (then LAMINA_SCALE=1 asks for it anyway).
 scale_wanted() {
   [[ "${LAMINA_SKIP_SCALE:-}" != 1 ]] || return 1
@@ -277,7 +219,7 @@ main() {
   trap on_exit EXIT
   trap 'exit 130' INT
   trap 'exit 143' TERM
-  if [[ -n "${LAMINA_VITEST_ARGS:-}" ]]; then record expect vitest; else record expect "vitest unit" && record expect "vitest integration"; fi
+  record expect vitest
   [[ -n "${LAMINA_SKIP_E2E:-}" ]] || record expect playwright
   [[ -n "${LAMINA_SKIP_E2E:-}" ]] || ! scale_wanted || record expect scale-test
 
@@ -304,41 +246,20 @@ main() {
 
   # The e2e preparation does not wait for vitest: the seed goes to its own database, the build
   # to .next-test (behind the checkout's e2e lock).
-  local seed_pid='' build_pid='' build_rc='' unit_pid='' scale_pid=''
-  local unit_done="$TMP/logs/vitest-unit.done" unit_log="$TMP/logs/vitest-unit.log" scale_log="$TMP/logs/scale-test-run.log"
+  local seed_pid='' build_pid=''
   if [[ -z "${LAMINA_SKIP_E2E:-}" ]]; then
     bg_step "fresh e2e database, migrations and demo seed" reset_database
     seed_pid=$BG_PID
     lock_e2e
     bg_step "next build" build
     build_pid=$BG_PID
-    build_rc="$TMP/logs/next-build.log.rc"
   fi
 
   # LAMINA_VITEST_ARGS / LAMINA_PW_ARGS narrow the runs to some files while developing;
   # LAMINA_SKIP_E2E=1 stops after vitest. CI sets none of them.
-  if [[ -z "${LAMINA_VITEST_ARGS:-}" ]]; then
-    lamina_log "vitest unit: starts in the background${build_rc:+ once the build is done} (output: $unit_log)"
-    unit_after_build "$build_rc" "$unit_done" >"$unit_log" 2>&1 &
-    unit_pid=$!
-    BG_PIDS+=("$unit_pid")
-  fi
-  if [[ -n "$build_rc" ]] && scale_wanted; then
-    lamina_log "scale-test: starts in the background once the build${unit_pid:+ and the unit project} are done (output: $scale_log)"
-    runner scale-test "$RESULTS/scale-test.json" scale_beside "$build_rc" "${unit_pid:+$unit_done}" >"$scale_log" 2>&1 &
-    scale_pid=$!
-    BG_PIDS+=("$scale_pid")
-  fi
-  if [[ -n "${LAMINA_VITEST_ARGS:-}" ]]; then
-    # shellcheck disable=SC2086
-    runner vitest "$RESULTS/vitest.json" vitest_run "$RESULTS/vitest.json" ${LAMINA_VITEST_ARGS}
-  else
-    runner "vitest integration" "$RESULTS/vitest-integration.json" vitest_run "$RESULTS/vitest-integration.json" --project integration
-    wait "$unit_pid" 2>/dev/null || true
-    forget_bg "$unit_pid"
-    banner "vitest unit (ran in the background)"
-    cat "$unit_log" >&2 2>/dev/null || true
-  fi
+  # shellcheck disable=SC2086
+  runner vitest "$RESULTS/vitest.json" env NODE_ENV=test node_modules/.bin/vitest run --config tests/vitest.config.ts \
+    --reporter=default --reporter=json --outputFile.json="$RESULTS/vitest.json" ${LAMINA_VITEST_ARGS:-}
   if [[ -n "${LAMINA_SKIP_E2E:-}" ]]; then finish; return; fi
 
   await_step "fresh e2e database, migrations and demo seed" "$seed_pid"
@@ -353,12 +274,10 @@ main() {
       node_modules/.bin/playwright test --config tests/playwright.config.ts ${LAMINA_PW_ARGS:-}
   fi
   stop_app
-  # The scale test's short form (issue 15), started beside vitest (scale_beside): its output now.
-  if [[ -n "$scale_pid" ]]; then
-    wait "$scale_pid" 2>/dev/null || true
-    forget_bg "$scale_pid"
-    banner "scale-test (ran in the background)"
-    cat "$scale_log" >&2 2>/dev/null || true
+  # The scale test's short form (issue 15): haproxy, two instances of this build, two workers.
+  if ok && scale_wanted; then
+    runner scale-test "$RESULTS/scale-test.json" env NEXT_DIST_DIR=.next-test TSX_TSCONFIG_PATH=scripts/tsconfig.json \
+      node --import tsx scripts/scale-test.ts --short --report "$RESULTS/scale-test.json"
   fi
   unlock_e2e
   finish
