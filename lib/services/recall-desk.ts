@@ -163,6 +163,18 @@ function queueCondition(
   }
 }
 
+/**
+ * The live visits in a queue (activeVisits): its condition, and a queued status, which every queue
+ * but "this month" implies and which lets recall_visit_desk_index serve it; optionally one
+ * clinician's. The patient (p) is joined when the queue reads it or `withPatient` (a sort by name).
+ */
+function queueVisits(knex: Knex, s: RecallSettings, queue: DeskQueue, clinician?: string, withPatient = false): Knex.QueryBuilder {
+  const c = queueCondition(queue, s.practiceId, s);
+  const b = activeVisits(knex, s.practiceId, { withPatient: withPatient || c.withPatient === true }).whereRaw(c.sql, c.bindings as Knex.RawBinding[]);
+  if (queue !== 'this_month') b.whereRaw(QUEUED_SQL);
+  return clinician ? b.where('v.operator_id', clinician) : b;
+}
+
 // --- reads ----------------------------------------------------------------------------------------
 
 export interface DeskQueueCount {
@@ -192,21 +204,12 @@ export async function deskQueues(em: EntityManager, actor: Actor, raw: unknown =
   const q = parseInput(DeskQueuesQuery, raw);
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
-  const visits = (withPatient?: true) => {
-    const b = activeVisits(knex, actor.practiceId, { withPatient });
-    return q.clinician ? b.where('v.operator_id', q.clinician) : b;
-  };
-  // One statement, a count per queue: each reads only its own visits from the desk index (a
-  // queued status and its condition) or, for "this month", the due-date index; no other table but
-  // the patient for "to call".
-  const count = (key: DeskQueue) => {
-    const c = queueCondition(key, actor.practiceId, s);
-    const b = visits(c.withPatient).whereRaw(c.sql, c.bindings as Knex.RawBinding[]);
-    if (key !== 'this_month') b.whereRaw(QUEUED_SQL); // implied by the condition; lets the desk index serve it
-    return b.count('*');
-  };
-  const row = (await knex.first(Object.fromEntries(DESK_QUEUES.map((key) => [key, count(key)])))) as Partial<Record<DeskQueue, string>> | undefined;
-  const counts: Partial<Record<DeskQueue, string>> = row ?? {};
+  // One statement, a count per queue: each reads only its own visits from the desk index or, for
+  // "this month", the due-date index; no other table but the patient for "to call".
+  const row = (await knex.first(Object.fromEntries(DESK_QUEUES.map((key) => [key, queueVisits(knex, s, key, q.clinician).count('*')])))) as
+    | Partial<Record<DeskQueue, string>>
+    | undefined;
+  const counts = row ?? {};
   await auditRead(em, actor, { action: 'recall.queues_read', ...(q.clinician ? { detail: { clinician: q.clinician } } : {}) });
   return {
     today: s.today,
@@ -266,12 +269,7 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
   const q = parseInput(DeskRowsQuery, raw);
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
-  const cond = queueCondition(q.queue, actor.practiceId, s);
-  const base = () => {
-    const b = activeVisits(knex, actor.practiceId, { withPatient: cond.withPatient === true || q.sort === 'patient' }).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
-    if (q.queue !== 'this_month') b.whereRaw(QUEUED_SQL); // implied by the condition; lets the desk index serve it
-    return q.clinician ? b.where('v.operator_id', q.clinician) : b;
-  };
+  const base = () => queueVisits(knex, s, q.queue, q.clinician, q.sort === 'patient');
   const lastContact = knex.raw(
     `(select max(e.at) from contact_log_entry e where e.visit_id = v.id and e.kind in ('message_sent', 'reply', 'call', 'appointment')) as last_contact_at`,
   );
@@ -732,10 +730,7 @@ export async function callList(em: EntityManager, actor: Actor, raw: unknown = {
   const q = parseInput(DeskQueuesQuery, raw);
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
-  const cond = queueCondition('call', actor.practiceId, s);
-  const base = activeVisits(knex, actor.practiceId, { withPatient: true }).whereRaw(cond.sql, cond.bindings as Knex.RawBinding[]);
-  if (q.clinician) base.where('v.operator_id', q.clinician);
-  const ids = (await base.select('v.id').orderBy([{ column: 'v.due_date' }, { column: 'p.family_name' }, { column: 'v.id' }]).limit(CALL_LIST_MAX + 1)) as { id: string }[];
+  const ids = (await queueVisits(knex, s, 'call', q.clinician).select('v.id').orderBy([{ column: 'v.due_date' }, { column: 'p.family_name' }, { column: 'v.id' }]).limit(CALL_LIST_MAX + 1)) as { id: string }[];
   const rows = await deskRowsByIds(em, s, ids.slice(0, CALL_LIST_MAX).map((r) => r.id));
   await auditRead(em, actor, { action: 'recall.call_list_read', detail: { ...(q.clinician ? { clinician: q.clinician } : {}), visitIds: rows.map((r) => r.visitId) } });
   return {

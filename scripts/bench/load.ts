@@ -58,7 +58,7 @@ const { uploadFilm } = await import('../../lib/services/films');
 const { drawRadiograph, filmJpeg } = await import('../../lib/demo/drawn-films');
 const { addDaysTo } = await import('../../lib/registry/calendar-date');
 const { benchActor, seedBenchPractice } = await import('../lib/bench-world');
-const { childrenOf, cpuBetween, cpuSnapshot, readStatements, serviceGroups, topStatements } = await import('../lib/bench-proc');
+const { childrenOf, cpuBetween, cpuSnapshot, readStatements, serviceGroups, statementsWanted, topStatements } = await import('../lib/bench-proc');
 type Role = import('../../lib/auth/roles').Role;
 type AcRequest = import('autocannon').Request;
 
@@ -311,7 +311,7 @@ function instanceFor(p: Person) {
 // Where the machine's CPU went during the load: the web server, PostgreSQL, Redis and this process
 // (autocannon's client), read from /proc before and after.
 const processGroups = () => ({ 'web server': [web.pid!, ...childrenOf(web.pid!)], ...serviceGroups(), 'bench (autocannon)': [process.pid] });
-const statementsBefore = process.env.BENCH_PG_STATEMENTS === '1' ? await readStatements(knex) : null;
+const statementsBefore = statementsWanted ? await readStatements(knex) : null;
 const cpuBefore = cpuSnapshot(processGroups());
 const loadBefore = load();
 const tl = performance.now();

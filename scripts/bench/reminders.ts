@@ -21,7 +21,7 @@ import type { Knex } from '@mikro-orm/knex';
 import config from '../../mikro-orm.config';
 import { fromLocalDate } from '../../lib/registry/calendar-date';
 import { seedDueVisits } from '../lib/reminder-seed';
-import { cpuBetween, cpuSnapshot, readStatements, serviceGroups, topStatements, vm, type CpuSnapshot, type Statements } from '../lib/bench-proc';
+import { cpuBetween, cpuSnapshot, readStatements, serviceGroups, statementsWanted, topStatements, vm, type CpuSnapshot, type Statements } from '../lib/bench-proc';
 import { mailboxHeaders } from '../../lib/mail/mailbox-secret';
 import { readWorkerConfig, smtpPoolOf } from '../../jobs/config';
 
@@ -69,11 +69,6 @@ async function storedMessages(): Promise<{ messageId: string | null; rcptTo: str
   return ((await res.json()) as { messageId: string | null; envelope: { rcptTo: string[] } }[]).map((m) => ({ messageId: m.messageId, rcptTo: m.envelope.rcptTo }));
 }
 
-/**
- * BENCH_PG_STATEMENTS=1 (with LAMINA_PG_OPTS='-c shared_preload_libraries=pg_stat_statements'): the
- * statements PostgreSQL ran while sending, by total time (the extension is created in the bench's database).
- */
-const pgStatements = process.env.BENCH_PG_STATEMENTS === '1';
 
 async function main() {
   const orm = await MikroORM.init({ ...config, clientUrl: process.env.DATABASE_URL, pool: { min: 0, max: 2 } });
@@ -126,7 +121,7 @@ async function main() {
       if (queuedAt === null && total >= N) queuedAt = performance.now();
       if (firstSentAt === null && (by.sent ?? 0) > 0) {
         firstSentAt = performance.now();
-        if (pgStatements) statementsAtFirst = await readStatements(knex);
+        if (statementsWanted) statementsAtFirst = await readStatements(knex);
         cpuAtFirst = cpuSnapshot(await processGroups(pids));
         sentAtFirst = by.sent ?? 0;
       }

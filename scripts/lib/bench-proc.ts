@@ -83,6 +83,12 @@ export function cpuBetween(a: CpuSnapshot, b: CpuSnapshot): [string, number][] {
 
 export type Statements = Map<string, { calls: number; ms: number; rows: number; query: string }>;
 
+/**
+ * BENCH_PG_STATEMENTS=1 (with LAMINA_PG_OPTS='-c shared_preload_libraries=pg_stat_statements'): a
+ * bench prints the statements PostgreSQL spent its measured time on.
+ */
+export const statementsWanted = process.env.BENCH_PG_STATEMENTS === '1';
+
 /** pg_stat_statements of this database (LAMINA_PG_OPTS='-c shared_preload_libraries=pg_stat_statements'; scripts/bench.sh creates the extension). */
 export async function readStatements(knex: Knex): Promise<Statements> {
   const rows = (await knex.raw(
