@@ -25,6 +25,7 @@ import {
 } from '@/lib/recall';
 import { addDaysTo, daysInMonth } from '@/lib/registry/calendar-date';
 import { Paging } from '@/lib/schemas/paging';
+import { DESK_QUEUES, type DeskQueue } from '@/lib/recall/desk-address';
 import { formatTooth, toothNotationLabel } from '@/lib/teeth';
 import type { ReminderStatus } from '@/entities';
 import { audit, auditRead } from './audit';
@@ -77,8 +78,7 @@ import { refreshNextVisit } from './visits';
  *
  * Every queue and its count can be narrowed to one clinician's cases (the case's operator).
  */
-export const DESK_QUEUES = ['due_soon', 'overdue', 'call', 'awaiting_reply', 'replied', 'delivery_failed', 'missed', 'this_month'] as const;
-export type DeskQueue = (typeof DESK_QUEUES)[number];
+export { DESK_QUEUES, type DeskQueue };
 
 export const DESK_QUEUE_INFO: Record<DeskQueue, { label: string; definition: string }> = {
   due_soon: { label: 'Due in the next 30 days', definition: 'Planned or invited, due between today and 30 days from now.' },

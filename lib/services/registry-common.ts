@@ -8,6 +8,7 @@ import { DEFAULT_RECALL_POLICY, RecallPolicySchema, type RecallPolicy } from '@/
 import type { Canal } from '@/lib/schemas/case';
 import { fillLengthClass, type FillLengthClass } from '@/lib/scoring';
 import type { ToothNotation } from '@/lib/teeth';
+import { isUuid } from '@/lib/uuid';
 import type { CalendarDate } from '@/lib/registry/calendar-date';
 import { blankAsUndefined, calendarDate, text } from '@/lib/registry/fields';
 import { NotFoundError, ValidationError } from './errors';
@@ -80,11 +81,7 @@ export function todayIn(timeZone: string, now: Date = new Date()): CalendarDate 
   return `${get('year')}-${get('month')}-${get('day')}`;
 }
 
-const UUID = /^[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}$/i;
-
-export function isUuid(value: unknown): value is string {
-  return typeof value === 'string' && UUID.test(value);
-}
+export { isUuid };
 
 /** An id that is no uuid names no record: answer 404 like an unknown one (never a database error). */
 export function assertId(id: unknown, what: string): string {

@@ -82,3 +82,30 @@ test('the desk narrows to one clinician and has a "due this month" view', async 
   await expect(page.getByRole('navigation', { name: 'Work queues' }).getByRole('button', { name: /Due this month/ })).toContainText(String(count(mine, 'this_month')));
   await expect(page.getByText('Every visit due this calendar month, whatever its status.')).toBeVisible();
 });
+
+test('a desk address with a wrong queue, page and clinician shows the desk and says what it ignored', async ({ page }) => {
+  test.setTimeout(60_000);
+  await signInAs(page, 'coordinator');
+  const all = (await (await page.request.get('/api/recall/queues')).json()) as { queues: { key: string; count: number }[] };
+  const failures: string[] = [];
+  page.on('response', (r) => {
+    if (r.status() >= 400) failures.push(`${r.status()} ${r.url()}`);
+  });
+  await page.goto('/desk?queue=nonsense&page=zero&clinician=not-an-id');
+  const queues = page.getByRole('navigation', { name: 'Work queues' });
+  // The counts are shown, the first queue is the current one, and each ignored part is named once.
+  await expect(queues.getByRole('button', { name: /Due in the next 30 days/ })).toHaveAttribute('aria-current', 'true', { timeout: 30_000 });
+  await expect(queues.getByRole('button', { name: /Overdue/ })).toContainText(String(all.queues.find((q) => q.key === 'overdue')!.count));
+  await expect(page.getByText('The queue “nonsense” in the address is not one of the desk’s queues: showing the first queue.')).toHaveCount(1);
+  await expect(page.getByText('The page “zero” in the address is not a page number: showing page 1.')).toHaveCount(1);
+  await expect(page.getByText('The clinician in the address is not one of the practice’s clinicians: showing every clinician.')).toHaveCount(1);
+  await expect(page.getByText('Some fields need attention.')).toHaveCount(0);
+  await expect(page.getByLabel('Clinician')).toHaveValue('');
+  // Nothing wrong was sent to the server: the desk asked only for what it understood.
+  expect(failures).toEqual([]);
+
+  // The printable call list reads its address the same way.
+  await page.goto('/desk/calls?clinician=not-an-id');
+  await expect(page.getByRole('heading', { name: 'Call list' })).toBeVisible();
+  await expect(page.getByText('The clinician in the address is not one of the practice’s clinicians: showing every clinician.')).toBeVisible();
+});

@@ -5,7 +5,8 @@ import { useMemo, useRef, useState } from 'react';
 import { useFocusAfterRender } from '@/components/ui/useFocusAfterRender';
 import { keepPreviousData, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { createColumnHelper, getCoreRowModel, useReactTable, type RowSelectionState } from '@tanstack/react-table';
-import type { DeskQueue, DeskQueues, DeskRow, DeskRowsPage, ActionResponse } from '@/lib/services/recall-desk';
+import type { DeskQueues, DeskRow, DeskRowsPage, ActionResponse } from '@/lib/services/recall-desk';
+import { readDeskAddress, type DeskQueue } from '@/lib/recall/desk-address';
 import { REMINDER_STEP_LABELS } from '@/lib/recall/steps';
 import { MISSED_REASONS, MISSED_REASON_LABELS, type MissedReason } from '@/lib/recall/status';
 import { TableView } from '@/components/ui/TableView';
@@ -34,9 +35,9 @@ export function Desk() {
   const router = useRouter();
   const pathname = usePathname();
   const params = useSearchParams();
-  const queue = (params.get('queue') ?? 'due_soon') as DeskQueue;
-  const page = Number(params.get('page') ?? '1') || 1;
-  const clinician = params.get('clinician') ?? '';
+  const clinicians = useQuery({ queryKey: ['clinicians'], queryFn: () => getJson<{ clinicians: { id: string; name: string | null; email: string }[] }>('/api/clinicians') });
+  // A hand-edited or stale address shows the desk, saying what it ignored (the API would answer 422).
+  const { queue, page, clinician, ignored } = readDeskAddress((name) => params.get(name), clinicians.data?.clinicians.map((c) => c.id));
   const forClinician = clinician ? `&clinician=${encodeURIComponent(clinician)}` : '';
   const qc = useQueryClient();
   const [selection, setSelection] = useState<RowSelectionState>({});
@@ -51,7 +52,6 @@ export function Desk() {
     queryKey: ['desk-queues', clinician],
     queryFn: () => getJson<DeskQueues>(`/api/recall/queues${clinician ? `?clinician=${encodeURIComponent(clinician)}` : ''}`),
   });
-  const clinicians = useQuery({ queryKey: ['clinicians'], queryFn: () => getJson<{ clinicians: { id: string; name: string | null; email: string }[] }>('/api/clinicians') });
   const rows = useQuery({
     queryKey: ['desk-rows', queue, page, clinician],
     queryFn: () => getJson<DeskRowsPage>(`/api/recall/visits?queue=${queue}&page=${page}&pageSize=25${forClinician}`),
@@ -214,6 +214,15 @@ export function Desk() {
 
   return (
     <div className="space-y-4">
+      {ignored.length > 0 && (
+        <Notice tone="info">
+          <ul>
+            {ignored.map((line) => (
+              <li key={line}>{line}</li>
+            ))}
+          </ul>
+        </Notice>
+      )}
       {queues.error && <Notice tone="alert">{(queues.error as Error).message}</Notice>}
       <div className="flex flex-wrap items-end gap-3">
         <div>

@@ -2,6 +2,7 @@ import type { Metadata } from 'next';
 import Link from 'next/link';
 import { requireActor } from '@/lib/auth/session';
 import { callList } from '@/lib/services/recall-desk';
+import { readDeskAddress } from '@/lib/recall/desk-address';
 import { fmtDate, fmtDateTime } from '@/components/ui/format';
 import { Notice } from '@/components/ui/Notice';
 import { EmptyState } from '@/components/ui/EmptyState';
@@ -17,7 +18,9 @@ export const metadata: Metadata = { title: 'Call list' };
 export default async function CallListPage({ searchParams }: { searchParams: Promise<Record<string, string | string[] | undefined>> }) {
   const { em, actor } = await requireActor('recall.manage', '/desk/calls');
   const sp = await searchParams;
-  const list = await callList(em, actor, { clinician: typeof sp.clinician === 'string' ? sp.clinician : undefined });
+  // The address read as the desk reads it: a clinician that is no id is ignored, and said so.
+  const address = readDeskAddress((name) => (name === 'clinician' && typeof sp.clinician === 'string' ? sp.clinician : null));
+  const list = await callList(em, actor, { clinician: address.clinician || undefined });
   const clinician = list.rows.find((r) => r.clinician)?.clinician;
   return (
     <div className="space-y-4 print:space-y-2 print:text-[11pt]">
@@ -37,6 +40,11 @@ export default async function CallListPage({ searchParams }: { searchParams: Pro
         </div>
         <PrintButton />
       </div>
+      {address.ignored.map((line) => (
+        <Notice key={line} tone="info">
+          {line}
+        </Notice>
+      ))}
       {list.truncated && <Notice tone="info">The list shows the first {list.rows.length} visits; choose a clinician on the desk to print the rest.</Notice>}
       {list.rows.length === 0 ? (
         <EmptyState title="Nobody to call">Every patient due for an invitation can be e-mailed, or already has a time.</EmptyState>
