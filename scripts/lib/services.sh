@@ -14,9 +14,10 @@
 #   LAMINA_PG_PORT LAMINA_REDIS_PORT LAMINA_SMTP_PORT LAMINA_MAILBOX_PORT LAMINA_WEB_PORT LAMINA_S3_PORT
 #   LAMINA_DB_NAME       the app database                                     (lamina)
 
-# Debian packages: the base set, and what only the tests and benchmarks need.
-LAMINA_APT_BASE=(postgresql redis-server chromium iproute2)
-LAMINA_APT_TEST=(haproxy r-base-core r-cran-survival r-cran-sandwich r-cran-cmprsk python3-sklearn python3-statsmodels python3-pandas poppler-utils unzip)
+# Debian packages: the base set, and what only the tests and benchmarks need (the browser tests use
+# Chromium's headless shell, tests/playwright.config.ts; the app itself needs no browser).
+LAMINA_APT_BASE=(postgresql redis-server iproute2)
+LAMINA_APT_TEST=(chromium-headless-shell haproxy r-base-core r-cran-survival r-cran-sandwich r-cran-cmprsk python3-sklearn python3-statsmodels python3-pandas poppler-utils unzip)
 
 LAMINA_REPO="$(cd "$(dirname "${BASH_SOURCE[0]}")/../.." && pwd)"
 
@@ -223,7 +224,9 @@ run_as_postgres() { (cd / && runuser -u postgres -- "$@"); }
 # Installation
 
 # ensure_apt_packages PKG...: install the Debian packages that are missing (one apt-get update,
-# only when something is missing).
+# only when something is missing). Without their recommended packages: what Lamina uses is named in
+# the lists above, and the recommends (compilers for R, printing, matplotlib, sympy, …) were 212 more
+# packages, 91 MB more to download, on a fresh machine's npm test (DEVELOPERS.md).
 ensure_apt_packages() {
   local missing=() pkg sudo=()
   for pkg in "$@"; do
@@ -240,7 +243,7 @@ ensure_apt_packages() {
     "${sudo[@]}" "${apt[@]}" update -qq || lamina_die "apt-get update failed"
     LAMINA_APT_UPDATED=1
   fi
-  DEBIAN_FRONTEND=noninteractive "${sudo[@]}" "${apt[@]}" install -y -qq "${missing[@]}" >/dev/null ||
+  DEBIAN_FRONTEND=noninteractive "${sudo[@]}" "${apt[@]}" install -y -qq --no-install-recommends "${missing[@]}" >/dev/null ||
     lamina_die "apt-get could not install: ${missing[*]}"
 }
 
