@@ -6,8 +6,7 @@
 #   2. PostgreSQL, Redis, the SMTP fake and the S3 fake in a temporary dir (removed at exit), on
 #      free ports near 55433 / 56380 / 52525 / 52526 / 45690 (web 53000); override with
 #      LAMINA_TEST_*_PORT (…_PG_, _REDIS_, _SMTP_, _MAILBOX_, _WEB_, _S3_PORT)
-#   3. migrations, then vitest: the integration project, and beside it in a second run the unit and
-#      reference project
+#   3. migrations, then vitest (all projects: unit, reference, integration)
 #   4. meanwhile, in the background (they need nothing from vitest): a second database for the e2e
 #      tests (migrations and the demo seed; they sign in as demo users) and `next build` into
 #      .next-test (a running `npm start` keeps its .next); their output goes to logs/ and is
@@ -105,17 +104,13 @@ kill_tree() {
   for child in $(pgrep -P "$1" 2>/dev/null); do kill_tree "$child"; done
   kill "$1" 2>/dev/null || true
 }
-# forget_pid PID: a background job that ended, no longer to be stopped at exit.
-forget_pid() {
-  local left=() p
-  for p in "${BG_PIDS[@]}"; do [[ "$p" == "$1" ]] || left+=("$p"); done
-  BG_PIDS=("${left[@]}")
-}
 await_step() {
   local name="$1" pid="$2" log rc secs
   log="$TMP/logs/$(printf '%s' "$name" | tr -c 'a-zA-Z0-9' '-').log"
   wait "$pid" 2>/dev/null || true
-  forget_pid "$pid"
+  local left=() p
+  for p in "${BG_PIDS[@]}"; do [[ "$p" == "$pid" ]] || left+=("$p"); done
+  BG_PIDS=("${left[@]}")
   banner "$name (ran in the background)"
   cat "$log" >&2 2>/dev/null || true
   read -r rc secs <"$log.rc" 2>/dev/null || { rc=1; secs=?; }
@@ -224,8 +219,7 @@ main() {
   trap on_exit EXIT
   trap 'exit 130' INT
   trap 'exit 143' TERM
-  record expect vitest-unit
-  record expect vitest-integration
+  record expect vitest
   [[ -n "${LAMINA_SKIP_E2E:-}" ]] || record expect playwright
   [[ -n "${LAMINA_SKIP_E2E:-}" ]] || ! scale_wanted || record expect scale-test
 
@@ -269,26 +263,9 @@ main() {
 
   # LAMINA_VITEST_ARGS / LAMINA_PW_ARGS narrow the runs to some files while developing;
   # LAMINA_SKIP_E2E=1 stops after vitest. CI sets none of them.
-  # Two vitest runs side by side: the integration project runs its files one at a time and leaves
-  # most of the second core idle (vmstat: 35–45 % idle), which the unit and reference project, in one
-  # worker of its own, fills. Within one vitest run the single-file project waits for the others.
-  local narrowed=()
-  [[ -z "${LAMINA_VITEST_ARGS:-}" ]] || narrowed=(--passWithNoTests)
-  local unit_log="$TMP/logs/vitest-unit.log" unit_pid
   # shellcheck disable=SC2086
-  (runner vitest-unit "$RESULTS/vitest-unit.json" env NODE_ENV=test node_modules/.bin/vitest run --config tests/vitest.config.ts \
-    --project unit --maxWorkers=1 "${narrowed[@]}" \
-    --reporter=default --reporter=json --outputFile.json="$RESULTS/vitest-unit.json" ${LAMINA_VITEST_ARGS:-} >"$unit_log" 2>&1) &
-  unit_pid=$!
-  BG_PIDS+=("$unit_pid")
-  # shellcheck disable=SC2086
-  runner vitest-integration "$RESULTS/vitest-integration.json" env NODE_ENV=test node_modules/.bin/vitest run --config tests/vitest.config.ts \
-    --project integration "${narrowed[@]}" \
-    --reporter=default --reporter=json --outputFile.json="$RESULTS/vitest-integration.json" ${LAMINA_VITEST_ARGS:-}
-  wait "$unit_pid" 2>/dev/null || true
-  forget_pid "$unit_pid"
-  banner "vitest-unit (ran beside the integration tests)"
-  cat "$unit_log" >&2 2>/dev/null || true
+  runner vitest "$RESULTS/vitest.json" env NODE_ENV=test node_modules/.bin/vitest run --config tests/vitest.config.ts \
+    --reporter=default --reporter=json --outputFile.json="$RESULTS/vitest.json" ${LAMINA_VITEST_ARGS:-}
   if [[ -n "${LAMINA_SKIP_E2E:-}" ]]; then finish; return; fi
 
   await_step "fresh e2e database, migrations and demo seed" "$seed_pid"

@@ -9,6 +9,8 @@ test('the administrator filters the audit trail by person and downloads it as CS
   const coord = await coordCtx.newPage();
   await signInWithForm(coord, 'coordinator'); // a fresh sign-in: the trail must show it
   await coord.goto('/desk');
+  // The desk's counts are read (and audited) by the page after it loads: wait for them to show.
+  await expect(coord.getByRole('navigation', { name: 'Work queues' }).getByRole('button', { name: /Overdue/ })).toBeVisible({ timeout: 30_000 });
   await coordCtx.close();
 
   const coordinator = demoUser('coordinator');

@@ -54,7 +54,11 @@ describe('determinism', () => {
     vi.spyOn(Date, 'now').mockImplementation(() => {
       throw new Error('Date.now used');
     });
-    expect(() => generateDemoWorld({ today: '2025-03-01', seed: 5 })).not.toThrow();
+    try {
+      expect(() => generateDemoWorld({ today: '2025-03-01', seed: 5 })).not.toThrow();
+    } finally {
+      vi.restoreAllMocks();
+    }
   });
 });
 
