@@ -104,6 +104,17 @@ test('a desk address with a wrong queue, page and clinician shows the desk and s
   // Nothing wrong was sent to the server: the desk asked only for what it understood.
   expect(failures).toEqual([]);
 
+  // A page past the queue's last one says so and offers the last page.
+  const missed = all.queues.find((q) => q.key === 'missed')!.count;
+  const last = Math.max(1, Math.ceil(missed / 25));
+  await page.goto('/desk?queue=missed&page=999');
+  await expect(page.getByRole('heading', { name: 'Past the last page' })).toBeVisible({ timeout: 30_000 });
+  await expect(page.getByText(`This queue has ${missed} visits on ${last} pages; the address asked for page 999.`)).toBeVisible();
+  await page.getByRole('link', { name: `Go to page ${last}` }).click();
+  await expect(page).toHaveURL(new RegExp(`queue=missed&page=${last}$`));
+  await expect(page.getByRole('table', { name: 'Visits in this queue' }).locator('tbody tr').first()).toBeVisible();
+  await expect(page.getByText(`Page ${last} of ${last}`)).toBeVisible();
+
   // The printable call list reads its address the same way.
   await page.goto('/desk/calls?clinician=not-an-id');
   await expect(page.getByRole('heading', { name: 'Call list' })).toBeVisible();

@@ -70,6 +70,13 @@ export function Desk() {
     router.replace(`${pathname}?${next.toString()}`, { scroll: false });
   };
 
+  const lastPage = rows.data ? pageCount(rows.data.total, rows.data.pageSize) : 1;
+  const pageHref = (p: number) => {
+    const next = new URLSearchParams({ queue, page: String(p) });
+    if (clinician) next.set('clinician', clinician);
+    return `${pathname}?${next.toString()}`;
+  };
+
   const act = useMutation({
     mutationFn: ({ url, body }: { url: string; body: unknown }) => postJson<ActionResponse>(url, body),
     onSuccess: (res) => {
@@ -285,12 +292,17 @@ export function Desk() {
         <TableSkeleton label="Loading visits" columns={7} />
       ) : rows.data && rows.data.total === 0 ? (
         <EmptyState title="Nothing in this queue">{EMPTY_TEXT[queue]}</EmptyState>
+      ) : rows.data && page > lastPage ? (
+        // An address from a bookmark or an older list can ask for a page the queue no longer has.
+        <EmptyState title="Past the last page" action={{ href: pageHref(lastPage), label: `Go to page ${lastPage}` }}>
+          This queue has {rows.data.total} {rows.data.total === 1 ? 'visit' : 'visits'} on {lastPage} {lastPage === 1 ? 'page' : 'pages'}; the address asked for page {page}.
+        </EmptyState>
       ) : (
         <>
           <TableView stack table={table} label="Visits in this queue" busy={rows.isPlaceholderData} rowProps={(row) => ({ 'data-testid': `desk-row-${row.original.patient.registryNumber}-${row.original.milestone}` })} />
           <PagerButtons
             page={page}
-            pages={rows.data ? pageCount(rows.data.total, rows.data.pageSize) : 1}
+            pages={lastPage}
             onPage={(p) => go(queue, p)}
             summary={` · ${rows.data?.total ?? ''} visits`}
           />
