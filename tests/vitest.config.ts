@@ -15,7 +15,7 @@ export default defineConfig({
         // 30 s, not vitest's 5 s: a few pure tests (10,000-row CSV, large sorts, the demo world)
         // take 1–2 s on a quiet machine and timed out at 5 s on a loaded one (issue 15).
         // Not isolated: a worker keeps the modules it loaded for its next file (the pure code has no
-        // state to leak), which took the project from 112 to 48 s of CPU, most of it module loading.
+        // state to leak), which took the project from 112 to 56 s of CPU, most of it module loading.
         // A file that mocks a module (vi.mock) needs its own module graph: name it *.isolated.test.ts
         // (tests/unit/harness/isolated-mocks.test.ts fails a vi.mock anywhere else).
         test: {

@@ -20,7 +20,8 @@ import { OUTCOME_READER } from './outcomes';
 import { cachedOutcomeCases } from './outcomes-cache';
 import { parseInput } from './parse';
 import { sameDefinition } from '@/lib/cohorts/definition';
-import { isUuid, knexOf, practiceSettings } from './registry-common';
+import { isUuid } from '@/lib/uuid';
+import { knexOf, practiceSettings } from './registry-common';
 
 /**
  * The researcher's area (issue 14): cohorts of the practice, their immutable versions, the live

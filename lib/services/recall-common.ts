@@ -9,7 +9,8 @@ import { transitionVisit, type MissedReasonValue, type TransitionRequest, type T
 import type { ToothNotation } from '@/lib/teeth';
 import { NotFoundError } from './errors';
 import { EMAIL_CONSENT_SQL, reminderPolicyOf } from './recall-outbox';
-import { isUuid, knexOf, todayIn } from './registry-common';
+import { isUuid } from '@/lib/uuid';
+import { knexOf, todayIn } from './registry-common';
 
 /** Pieces shared by the recall-desk services (desk, contact log, replies, rate, policy). */
 

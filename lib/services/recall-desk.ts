@@ -44,7 +44,8 @@ import {
   type RecallSettings,
 } from './recall-common';
 import { EMAIL_ADDRESS_SQL, EMAIL_CONSENT_SQL, enqueueOutbox, insertOutboxRows, reminderProducer, retryFailedReminder, type OutboxEntry } from './recall-outbox';
-import { SortDir, displayName, isUuid, knexOf, pageOffset, todayIn, type Page } from './registry-common';
+import { isUuid } from '@/lib/uuid';
+import { SortDir, displayName, knexOf, pageOffset, todayIn, type Page } from './registry-common';
 import { refreshNextVisit } from './visits';
 
 /**
@@ -78,7 +79,6 @@ import { refreshNextVisit } from './visits';
  *
  * Every queue and its count can be narrowed to one clinician's cases (the case's operator).
  */
-export { DESK_QUEUES, type DeskQueue };
 
 export const DESK_QUEUE_INFO: Record<DeskQueue, { label: string; definition: string }> = {
   due_soon: { label: 'Due in the next 30 days', definition: 'Planned or invited, due between today and 30 days from now.' },

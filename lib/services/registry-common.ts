@@ -81,7 +81,6 @@ export function todayIn(timeZone: string, now: Date = new Date()): CalendarDate 
   return `${get('year')}-${get('month')}-${get('day')}`;
 }
 
-export { isUuid };
 
 /** An id that is no uuid names no record: answer 404 like an unknown one (never a database error). */
 export function assertId(id: unknown, what: string): string {

@@ -58,24 +58,23 @@ export function Desk() {
     placeholderData: keepPreviousData,
   });
 
-  const go = (q: DeskQueue, p = 1, who = clinician) => {
-    setSelection({});
-    setOutcome(null);
+  /** The desk's address for a queue, page and clinician (what readDeskAddress reads back). */
+  const deskHref = (q: DeskQueue, p = 1, who = clinician) => {
     const next = new URLSearchParams(params.toString());
     next.set('queue', q);
     if (p > 1) next.set('page', String(p));
     else next.delete('page');
     if (who) next.set('clinician', who);
     else next.delete('clinician');
-    router.replace(`${pathname}?${next.toString()}`, { scroll: false });
+    return `${pathname}?${next.toString()}`;
+  };
+  const go = (q: DeskQueue, p = 1, who = clinician) => {
+    setSelection({});
+    setOutcome(null);
+    router.replace(deskHref(q, p, who), { scroll: false });
   };
 
   const lastPage = rows.data ? pageCount(rows.data.total, rows.data.pageSize) : 1;
-  const pageHref = (p: number) => {
-    const next = new URLSearchParams({ queue, page: String(p) });
-    if (clinician) next.set('clinician', clinician);
-    return `${pathname}?${next.toString()}`;
-  };
 
   const act = useMutation({
     mutationFn: ({ url, body }: { url: string; body: unknown }) => postJson<ActionResponse>(url, body),
@@ -294,7 +293,7 @@ export function Desk() {
         <EmptyState title="Nothing in this queue">{EMPTY_TEXT[queue]}</EmptyState>
       ) : rows.data && page > lastPage ? (
         // An address from a bookmark or an older list can ask for a page the queue no longer has.
-        <EmptyState title="Past the last page" action={{ href: pageHref(lastPage), label: `Go to page ${lastPage}` }}>
+        <EmptyState title="Past the last page" action={{ href: deskHref(queue, lastPage), label: `Go to page ${lastPage}` }}>
           This queue has {rows.data.total} {rows.data.total === 1 ? 'visit' : 'visits'} on {lastPage} {lastPage === 1 ? 'page' : 'pages'}; the address asked for page {page}.
         </EmptyState>
       ) : (
