@@ -23,6 +23,7 @@ import { Migration20261202220000 } from './Migration20261202220000';
 import { Migration20261202230000 } from './Migration20261202230000';
 import { Migration20261203130022 } from './Migration20261203130022';
 import { Migration20261203170000 } from './Migration20261203170000';
+import { Migration20261203230000 } from './Migration20261203230000';
 
 export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261201221639', class: Migration20261201221639 },
@@ -45,4 +46,5 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261202230000', class: Migration20261202230000 },
   { name: 'Migration20261203130022', class: Migration20261203130022 },
   { name: 'Migration20261203170000', class: Migration20261203170000 },
+  { name: 'Migration20261203230000', class: Migration20261203230000 },
 ];

@@ -265,12 +265,27 @@ async function orderedWorklist(em: EntityManager, actor: Actor, q: OutcomeFilter
   });
   const currentOf = new Map<string, CurrentDecision & { id: string }>();
   for (const d of current) currentOf.set(d.case_id, { id: d.id, step: d.step, date: d.date, decidedOn: todayIn(s.timeZone, new Date(d.created_at)) });
-  const ordered: OrderedEntry[] = orderWorklist(entries, (id) => currentOf.get(id) ?? null, s.today);
-  const counts: Record<Urgency, number> = { decide: 0, overdue: 0, in_hand: 0 };
-  for (const e of ordered) counts[e.urgency]++;
+  // The order depends on the entries (the data version, the filter, today, the minimum observation)
+  // and on the current steps, which no data version covers: a step is never changed, only replaced
+  // by a new row, so their ids name them. Kept for the next request that finds the same.
+  const key = JSON.stringify([actor.practiceId, s.version, s.filter, s.today, s.minObs, s.timeZone, current.map((d) => d.id)]);
+  let kept = orders.get(key);
+  if (kept) orders.delete(key);
+  else {
+    const ordered: OrderedEntry[] = orderWorklist(entries, (id) => currentOf.get(id) ?? null, s.today);
+    const counts: Record<Urgency, number> = { decide: 0, overdue: 0, in_hand: 0 };
+    for (const e of ordered) counts[e.urgency]++;
+    kept = { ordered, counts };
+    while (orders.size >= MAX_ORDERS) orders.delete(orders.keys().next().value!);
+  }
+  orders.set(key, kept); // most recently used last
   const detailOf = (shown: readonly OrderedEntry[]) => shown.map((e) => ({ caseId: e.caseId, decisionId: currentOf.get(e.caseId)?.id ?? null }));
-  return { s, ordered, counts, completion, detailOf };
+  return { s, ordered: kept.ordered, counts: kept.counts, completion, detailOf };
 }
+
+/** Worklists in urgency order, kept per practice, data version, filter and current steps (see orderedWorklist); never changed once kept. */
+const MAX_ORDERS = 32;
+const orders = new Map<string, { ordered: readonly OrderedEntry[]; counts: Readonly<Record<Urgency, number>> }>();
 
 /** The list for the actor's filter in urgency order, and the rows of one page (the details read for that page only). */
 export async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {

@@ -29,6 +29,10 @@
  *   npm run bench -- load                       (throwaway services and the build from scripts/bench.sh)
  *   BENCH_CASES=10000 npm run bench -- load     (smaller, to try it)
  *   BENCH_REQUESTS=60 (per connection), BENCH_CONNECTIONS_PER_USER=5, BENCH_TIMEOUT_S=30
+ *   BENCH_ROUTE_COSTS=1 first runs each route alone and prints the web server's and PostgreSQL's CPU a request
+ *     (BENCH_ROUTE_COSTS=case,list: only those steps; BENCH_ROUTE_REQUESTS=100 each; BENCH_LOAD=0 skips the mixed load)
+ *   BENCH_WEB_INSTANCES=2 runs two web servers behind haproxy (one per core); BENCH_CONNECTION_RATE=1 paces each
+ *     connection to at most that many requests a second (autocannon's connectionRate)
  *   BENCH_CPU_PROF=DIR writes a V8 CPU profile of the web server into DIR (open it in Chrome's DevTools)
  *   BENCH_PG_STATEMENTS=1 (with LAMINA_PG_OPTS='-c shared_preload_libraries=pg_stat_statements') prints
  *     the statements PostgreSQL spent the load's time on
@@ -42,6 +46,7 @@
 import { runUnderScriptsTsconfig } from '../lib/scripts-tsconfig';
 import { spawn, type ChildProcess } from 'node:child_process';
 import fs from 'node:fs';
+import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
 import { performance } from 'node:perf_hooks';
@@ -72,6 +77,7 @@ const N_CASES = Number(process.env.BENCH_CASES ?? 100_000);
 const PER_CONNECTION = Number(process.env.BENCH_REQUESTS ?? 60);
 const CONNECTIONS_PER_USER = Number(process.env.BENCH_CONNECTIONS_PER_USER ?? 5);
 const TIMEOUT_S = Number(process.env.BENCH_TIMEOUT_S ?? 30);
+const CONNECTION_RATE = Number(process.env.BENCH_CONNECTION_RATE ?? 0);
 const GOAL_P95_MS = 500;
 const APP_URL = process.env.APP_URL!.replace(/\/+$/, '');
 const WEB_PORT = Number(new URL(APP_URL).port);
@@ -142,23 +148,55 @@ const logFile = path.join(process.env.LAMINA_DATA!, 'logs', 'load-web.log');
 fs.mkdirSync(path.dirname(logFile), { recursive: true });
 const out = fs.openSync(logFile, 'a');
 const profDir = process.env.BENCH_CPU_PROF ? path.resolve(process.env.BENCH_CPU_PROF) : null;
-const web: ChildProcess = spawn(process.execPath, [...(profDir ? ['--cpu-prof', `--cpu-prof-dir=${profDir}`] : []), 'scripts/web-server.mjs', '-H', '127.0.0.1', '-p', String(WEB_PORT)], {
-  cwd: repo,
-  env: { ...process.env, NODE_OPTIONS: `${process.env.NODE_OPTIONS ?? ''} ${process.env.LAMINA_WEB_NODE_OPTIONS ?? ''}`.trim() },
-  stdio: ['ignore', out, out],
-  detached: true,
-});
+/**
+ * BENCH_WEB_INSTANCES (default 1) web servers. With more than one, they listen on free ports behind
+ * Debian's haproxy on APP_URL's port (least connections, keep-alive to the instances; the instances
+ * trust it as their one proxy), the deployment the scale test proves: stateless instances, one per core.
+ */
+const INSTANCES = Math.max(1, Number(process.env.BENCH_WEB_INSTANCES ?? 1));
+const freePort = () =>
+  new Promise<number>((resolve) => {
+    const srv = net.createServer().listen(0, '127.0.0.1', () => {
+      const { port } = srv.address() as net.AddressInfo;
+      srv.close(() => resolve(port));
+    });
+  });
+const ports = INSTANCES === 1 ? [WEB_PORT] : await Promise.all(Array.from({ length: INSTANCES }, freePort));
+const detachedChild = (command: string, args: string[], env: NodeJS.ProcessEnv): ChildProcess =>
+  spawn(command, args, { cwd: repo, env, stdio: ['ignore', out, out], detached: true });
+const webs: ChildProcess[] = ports.map((port) =>
+  detachedChild(process.execPath, [...(profDir ? ['--cpu-prof', `--cpu-prof-dir=${profDir}`] : []), 'scripts/web-server.mjs', '-H', '127.0.0.1', '-p', String(port)], {
+    ...process.env,
+    ...(INSTANCES > 1 ? { TRUSTED_PROXIES: '127.0.0.1' } : {}),
+    NODE_OPTIONS: `${process.env.NODE_OPTIONS ?? ''} ${process.env.LAMINA_WEB_NODE_OPTIONS ?? ''}`.trim(),
+  }),
+);
+let proxy: ChildProcess | null = null;
+if (INSTANCES > 1) {
+  const cfg = path.join(process.env.LAMINA_DATA!, 'load-haproxy.cfg');
+  fs.writeFileSync(
+    cfg,
+    `global\n  maxconn 4096\n\ndefaults\n  mode http\n  timeout connect 5s\n  timeout client 120s\n  timeout server 120s\n  option forwardfor\n\n` +
+      `frontend lamina\n  bind 127.0.0.1:${WEB_PORT}\n  default_backend web\n\nbackend web\n  balance leastconn\n` +
+      ports.map((port, i) => `  server web${i + 1} 127.0.0.1:${port}\n`).join(''),
+  );
+  proxy = detachedChild('haproxy', ['-db', '-f', cfg], process.env);
+}
 fs.closeSync(out);
+const children = () => [...webs, ...(proxy ? [proxy] : [])];
+const webPids = () => webs.flatMap((w) => [w.pid!, ...childrenOf(w.pid!)]);
 const stopWeb = () => {
-  try {
-    process.kill(-web.pid!, 'SIGTERM');
-  } catch {
-    /* gone */
+  for (const c of children()) {
+    try {
+      process.kill(-c.pid!, 'SIGTERM');
+    } catch {
+      /* gone */
+    }
   }
 };
 process.on('exit', stopWeb);
 let webExited = false;
-web.on('exit', () => (webExited = true));
+for (const c of children()) c.on('exit', () => (webExited = true));
 
 async function until(seconds: number, fn: () => Promise<boolean>): Promise<boolean> {
   const end = Date.now() + seconds * 1000;
@@ -170,11 +208,14 @@ async function until(seconds: number, fn: () => Promise<boolean>): Promise<boole
   return false;
 }
 const t0 = performance.now();
-if (!(await until(240, async () => (await fetch(`${APP_URL}/api/health`)).status < 500))) {
+const answers = async (port: number) => (await fetch(`http://127.0.0.1:${port}/api/health`)).status < 500;
+if (!(await until(240, async () => (await Promise.all([...ports, WEB_PORT].map(answers))).every(Boolean)))) {
   console.error(`bench/load: the web server did not answer within 240 s (log: ${logFile})`);
   process.exit(1);
 }
-console.log(`web server up in ${((performance.now() - t0) / 1000).toFixed(1)} s on ${APP_URL} (build ${process.env.NEXT_DIST_DIR})`);
+console.log(
+  `${INSTANCES === 1 ? 'web server' : `${INSTANCES} web servers behind haproxy`} up in ${((performance.now() - t0) / 1000).toFixed(1)} s on ${APP_URL} (build ${process.env.NEXT_DIST_DIR})`,
+);
 
 /** next-auth's credentials sign-in, as the sign-in page does it; returns the Cookie header to reuse. */
 async function signIn(email: string): Promise<string> {
@@ -281,10 +322,71 @@ if (warmFailures.length) {
 }
 console.log(`warm-up pass in ${((performance.now() - tw) / 1000).toFixed(1)} s`);
 
+const quantile = (xs: number[], p: number) => {
+  if (!xs.length) return NaN;
+  const s = [...xs].sort((a, b) => a - b);
+  return s[Math.min(s.length - 1, Math.max(0, Math.ceil(p * s.length) - 1))]!;
+};
+const num = (n: number) => (Number.isNaN(n) ? '–' : n.toFixed(0)).padStart(8);
+type Ctx = { started?: number };
+// BENCH_ROUTE_COSTS=1: before the load, each route alone (2 connections, 100 requests, one person
+// who may use it): its latency and the CPU the web server and PostgreSQL spent a request, which
+// says where the mixed load's CPU goes.
+const routeCosts = process.env.BENCH_ROUTE_COSTS;
+if (routeCosts) {
+  const whoFor: Record<string, Person> = {};
+  for (const p of people) for (const step of MIX[p.role]) whoFor[step.route] ??= p;
+  console.log(`\n${'route alone (2 connections)'.padEnd(32)}${'requests'.padStart(9)}${'p50 ms'.padStart(8)}${'web ms/req'.padStart(12)}${'pg ms/req'.padStart(11)}`);
+  const only = routeCosts === '1' ? null : routeCosts.split(',');
+  for (const [key, step] of Object.entries(STEPS) as [string, Step][]) {
+    if (only && !only.includes(key)) continue;
+    const p = whoFor[step.route]!;
+    const ms: number[] = [];
+    const groups = () => ({ web: webPids(), ...serviceGroups() });
+    const before = cpuSnapshot(groups());
+    const r = await autocannon({
+      url: APP_URL,
+      connections: 2,
+      amount: Number(process.env.BENCH_ROUTE_REQUESTS ?? 100),
+      timeout: TIMEOUT_S,
+      requests: [
+        {
+          method: step.method,
+          setupRequest: (req: AcRequest, context: object) => {
+            (context as Ctx).started = performance.now();
+            return { ...req, path: step.path(), headers: headersFor(p, step), ...(step.body ? { body: step.body() } : {}) };
+          },
+          onResponse: (_s: number, _b: string, context: object) => void ms.push(performance.now() - (context as Ctx).started!),
+        },
+      ],
+    });
+    const used = new Map(cpuBetween(before, cpuSnapshot(groups())));
+    const n = r.requests.total || 1;
+    console.log(
+      `${step.route.padEnd(32)}${String(n).padStart(9)}${num(quantile(ms, 0.5))}${((used.get('web') ?? 0) / n).toFixed(1).padStart(12)}${((used.get('PostgreSQL') ?? 0) / n).toFixed(1).padStart(11)}${r.non2xx ? `  non-2xx ${r.non2xx}` : ''}`,
+    );
+  }
+  if (process.env.BENCH_LOAD === '0') {
+    await cleanUp();
+    process.exit(0);
+  }
+}
+
+/** Stops the web server (writing its CPU profile, if asked) and removes the bench's practice and people. */
+async function cleanUp() {
+  const exited = Promise.all(children().map((c) => new Promise((r) => (c.exitCode !== null || c.signalCode !== null ? r(null) : c.once('exit', r)))));
+  stopWeb();
+  await Promise.race([exited, new Promise((r) => setTimeout(r, 15_000))]);
+  if (profDir) console.log(`CPU profile of the web server in ${profDir}`);
+  await conn.execute('delete from audit_event where practice_id = ?', [practice.id]);
+  await conn.execute('delete from practice where id = ?', [practice.id]);
+  await conn.execute('delete from app_user where email like ?', [`%.${slug}@bench.invalid`]);
+  await orm.close(true);
+}
+
 // --- 4. the load ----------------------------------------------------------------------------------------------
 type Stat = { ms: number[]; sent: number; non2xx: Map<number, number> };
 const stats = new Map<string, Stat>(ROUTES.map((r) => [r, { ms: [], sent: 0, non2xx: new Map() }]));
-type Ctx = { started?: number };
 
 function instanceFor(p: Person) {
   const requests: AcRequest[] = MIX[p.role].map((step) => ({
@@ -305,12 +407,13 @@ function instanceFor(p: Person) {
     connections: CONNECTIONS_PER_USER,
     amount: CONNECTIONS_PER_USER * PER_CONNECTION,
     timeout: TIMEOUT_S,
+    ...(CONNECTION_RATE ? { connectionRate: CONNECTION_RATE } : {}),
     requests,
   });
 }
 // Where the machine's CPU went during the load: the web server, PostgreSQL, Redis and this process
 // (autocannon's client), read from /proc before and after.
-const processGroups = () => ({ 'web server': [web.pid!, ...childrenOf(web.pid!)], ...serviceGroups(), 'bench (autocannon)': [process.pid] });
+const processGroups = () => ({ [INSTANCES === 1 ? 'web server' : `${INSTANCES} web servers`]: webPids(), ...(proxy ? { haproxy: [proxy.pid!] } : {}), ...serviceGroups(), 'bench (autocannon)': [process.pid] });
 const statementsBefore = statementsWanted ? await readStatements(knex) : null;
 const cpuBefore = cpuSnapshot(processGroups());
 const loadBefore = load();
@@ -322,12 +425,6 @@ const cpu = cpuBetween(cpuBefore, cpuSnapshot(processGroups()));
 const statements = statementsBefore ? topStatements(statementsBefore, await readStatements(knex), 20) : null;
 
 // --- 5. the table -------------------------------------------------------------------------------------------------
-const quantile = (xs: number[], p: number) => {
-  if (!xs.length) return NaN;
-  const s = [...xs].sort((a, b) => a - b);
-  return s[Math.min(s.length - 1, Math.max(0, Math.ceil(p * s.length) - 1))]!;
-};
-const num = (n: number) => (Number.isNaN(n) ? '–' : n.toFixed(0)).padStart(8);
 const counts = (await conn.execute('select (select count(*) from treatment_case where practice_id = ?) cases, (select count(*) from review where practice_id = ?) reviews', [practice.id, practice.id])) as { cases: string; reviews: string }[];
 console.log(
   `\nLoad benchmark (${today}; Node ${process.version}; ${os.cpus().length} cores; load average ${loadBefore} before, ${loadAfter} after)`,
@@ -367,14 +464,7 @@ console.log(
 if (statements) console.log(`\nPostgreSQL statements during the load (pg_stat_statements), by total time:\n${statements}`);
 
 // --- clean up ------------------------------------------------------------------------------------------------------
-const exited = new Promise((r) => (webExited ? r(null) : web.once('exit', r)));
-stopWeb();
-await Promise.race([exited, new Promise((r) => setTimeout(r, 15_000))]);
-if (profDir) console.log(`CPU profile of the web server in ${profDir}`);
-await conn.execute('delete from audit_event where practice_id = ?', [practice.id]);
-await conn.execute('delete from practice where id = ?', [practice.id]);
-await conn.execute('delete from app_user where email like ?', [`%.${slug}@bench.invalid`]);
-await orm.close(true);
+await cleanUp();
 if (failed) {
   console.error('bench/load: FAILED (non-2xx answers or requests left unanswered; see the table)');
   process.exit(1);

@@ -214,7 +214,16 @@ describe('recording the next step', () => {
     const surgery = await services.orm.em.getKnex()('treatment_case').where({ id: s.linkedCase!.id }).first();
     expect(surgery).toMatchObject({ kind: 'apical_surgery', previous_case_id: ids.get('sinus'), apical_diagnosis: 'chronic_apical_abscess' });
     const id = ids.get('uncertain5y')!;
+    // A step changes no data version, yet the list (its order kept between requests) shows it at once.
+    const version = async () => (await services.orm.em.getKnex()('outcomes_data_version').where({ practice_id: world.practice.id }).first())?.version;
+    const before = await outcomesWorklist(em(), world.clinician2, {});
+    const v0 = await version();
+    expect(before.rows.find((x) => x.caseId === id)).toMatchObject({ urgency: 'decide', decision: null });
     await recordDecision(em(), world.clinician2, id, { step: 'extract', date: future(10) });
+    const after = await outcomesWorklist(em(), world.clinician2, {});
+    expect(await version()).toBe(v0);
+    expect(after.rows.find((x) => x.caseId === id)).toMatchObject({ urgency: 'in_hand', decision: { step: 'extract', date: future(10) } });
+    expect(after.counts).toEqual({ ...before.counts, decide: before.counts.decide - 1, in_hand: before.counts.in_hand + 1 });
     await recordDecision(em(), world.clinician2, id, { step: 'refer', date: today, note: '=HYPERLINK("x")' });
     const history = await caseDecisions(em(), world.auditor, id);
     expect(history.map((h) => [h.step, h.replaced])).toEqual([['refer', false], ['extract', true]]);

@@ -40,11 +40,16 @@ export default async function CallListPage({ searchParams }: { searchParams: Pro
         </div>
         <PrintButton />
       </div>
-      {address.ignored.map((line) => (
-        <Notice key={line} tone="info">
-          {line}
-        </Notice>
-      ))}
+      {address.ignored.length > 0 && (
+        // about the address typed, not the list: left off the paper
+        <div className="space-y-2 print:hidden">
+          {address.ignored.map((line) => (
+            <Notice key={line} tone="info">
+              {line}
+            </Notice>
+          ))}
+        </div>
+      )}
       {list.truncated && <Notice tone="info">The list shows the first {list.rows.length} visits; choose a clinician on the desk to print the rest.</Notice>}
       {list.rows.length === 0 ? (
         <EmptyState title="Nobody to call">Every patient due for an invitation can be e-mailed, or already has a time.</EmptyState>
