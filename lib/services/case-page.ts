@@ -125,7 +125,7 @@ export async function caseDetail(em: EntityManager, c: TreatmentCase, settings: 
     linkedCases(em, c),
   ]);
   const today = todayIn(settings.timeZone);
-  const visitList = await visitViews(em, visits, today);
+  const visitList = await visitViews(em, visits, today, reviews.reviews);
   const notation = settings.toothNotation;
   const info = toothInfo(c.tooth);
   const fill = (c.fillLengthClass as FillLengthClass | null) ?? null;

@@ -246,7 +246,7 @@ async function recordReview(
   const all = await caseReviews(em, c.id);
   return {
     review: all.reviews.find((r) => r.id === review.id)!,
-    visits: await visitViews(em, visits, today),
+    visits: await visitViews(em, visits, today, all.reviews),
     currentOutcome: all.currentOutcome,
     caution: SCORING_CAUTION,
   };

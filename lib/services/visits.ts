@@ -312,11 +312,22 @@ export async function refreshNextVisit(em: EntityManager, caseIds: readonly stri
   }
 }
 
-export async function visitViews(em: EntityManager, visits: readonly RecallVisit[], today: string): Promise<VisitView[]> {
-  const reviews = visits.length
-    ? await em.find(ReviewSchema, { visit: { $in: visits.map((v) => v.id) }, supersededBy: null }, { fields: ['id', 'visit'], orderBy: { reviewDate: 'asc' } })
-    : [];
-  return visits.map((v) => visitView(v, today, reviews.filter((r) => r.visit?.id === v.id).map((r) => r.id)));
+/**
+ * The visits as the pages show them, each with its current reviews (by review date). A caller that
+ * has read the case's reviews already (the case page) passes them, and nothing more is read.
+ */
+export async function visitViews(
+  em: EntityManager,
+  visits: readonly RecallVisit[],
+  today: string,
+  caseReviews?: readonly { id: string; visitId: string | null; current: boolean }[],
+): Promise<VisitView[]> {
+  const reviews = caseReviews
+    ? caseReviews.filter((r) => r.current && r.visitId).map((r) => ({ id: r.id, visitId: r.visitId }))
+    : visits.length
+      ? (await em.find(ReviewSchema, { visit: { $in: visits.map((v) => v.id) }, supersededBy: null }, { fields: ['id', 'visit'], orderBy: { reviewDate: 'asc' } })).map((r) => ({ id: r.id, visitId: r.visit?.id ?? null }))
+      : [];
+  return visits.map((v) => visitView(v, today, reviews.filter((r) => r.visitId === v.id).map((r) => r.id)));
 }
 
 export function visitView(v: RecallVisit, today: string, reviewIds: string[] = []): VisitView {

@@ -10,7 +10,9 @@
  *     runs, on NEXT_DIST_DIR, which scripts/bench.sh builds for this bench) and signs each person in
  *     once through next-auth's credentials sign-in (csrf token, then the callback), keeping the cookie;
  *  3. one warm-up pass of every request of every person, untimed (the outcomes rows are read at start
- *     by the web server's warmer; the first ask of each filter computes its figures);
+ *     by the web server's warmer; the first ask of each filter computes its figures), then the load
+ *     itself, untimed, for BENCH_WARMUP_REQUESTS (20) per connection (V8's compiled code, PostgreSQL's
+ *     buffers: the figures are of a server that has been running, not of its first minute);
  *  4. autocannon (loopback, bounded by a request count: BENCH_REQUESTS per connection, default 60)
  *     with 5 connections per person — 50 in all — each person's connections looping through their
  *     own mix of the main APIs:
@@ -78,6 +80,7 @@ const PER_CONNECTION = Number(process.env.BENCH_REQUESTS ?? 60);
 const CONNECTIONS_PER_USER = Number(process.env.BENCH_CONNECTIONS_PER_USER ?? 5);
 const TIMEOUT_S = Number(process.env.BENCH_TIMEOUT_S ?? 30);
 const CONNECTION_RATE = Number(process.env.BENCH_CONNECTION_RATE ?? 0);
+const WARMUP_PER_CONNECTION = Number(process.env.BENCH_WARMUP_REQUESTS ?? 20);
 const GOAL_P95_MS = 500;
 const APP_URL = process.env.APP_URL!.replace(/\/+$/, '');
 const WEB_PORT = Number(new URL(APP_URL).port);
@@ -388,16 +391,18 @@ async function cleanUp() {
 type Stat = { ms: number[]; sent: number; non2xx: Map<number, number> };
 const stats = new Map<string, Stat>(ROUTES.map((r) => [r, { ms: [], sent: 0, non2xx: new Map() }]));
 
-function instanceFor(p: Person) {
+/** One person's connections looping through their mix: `perConnection` requests each, into `into` (null: not recorded). */
+function instanceFor(p: Person, perConnection: number, into: Map<string, Stat> | null) {
   const requests: AcRequest[] = MIX[p.role].map((step) => ({
     method: step.method,
     setupRequest: (req: AcRequest, context: object) => {
       (context as Ctx).started = performance.now();
-      stats.get(step.route)!.sent++;
+      if (into) into.get(step.route)!.sent++;
       return { ...req, path: step.path(), headers: headersFor(p, step), ...(step.body ? { body: step.body() } : {}) };
     },
     onResponse: (status: number, _body: string, context: object) => {
-      const s = stats.get(step.route)!;
+      if (!into) return;
+      const s = into.get(step.route)!;
       s.ms.push(performance.now() - (context as Ctx).started!);
       if (status < 200 || status >= 300) s.non2xx.set(status, (s.non2xx.get(status) ?? 0) + 1);
     },
@@ -405,11 +410,24 @@ function instanceFor(p: Person) {
   return autocannon({
     url: APP_URL,
     connections: CONNECTIONS_PER_USER,
-    amount: CONNECTIONS_PER_USER * PER_CONNECTION,
+    amount: CONNECTIONS_PER_USER * perConnection,
     timeout: TIMEOUT_S,
     ...(CONNECTION_RATE ? { connectionRate: CONNECTION_RATE } : {}),
     requests,
   });
+}
+// The load itself, untimed, for BENCH_WARMUP_REQUESTS per connection first: a server that has run
+// for a while has its code compiled by V8 and PostgreSQL's buffers holding what the mix reads; the
+// figures are of that server, not of its first minute. Its answers must be 2xx too.
+if (WARMUP_PER_CONNECTION > 0) {
+  const tw2 = performance.now();
+  const warm = await Promise.all(people.map((p) => instanceFor(p, WARMUP_PER_CONNECTION, null)));
+  const bad = warm.reduce((a, r) => a + r.non2xx + r.errors, 0);
+  if (bad) {
+    console.error(`bench/load: the warm-up load got ${bad} answers that are not 2xx or no answer`);
+    process.exit(1);
+  }
+  console.log(`warm-up load: ${warm.reduce((a, r) => a + r.requests.total, 0)} requests (${WARMUP_PER_CONNECTION} per connection, untimed) in ${((performance.now() - tw2) / 1000).toFixed(1)} s`);
 }
 // Where the machine's CPU went during the load: the web server, PostgreSQL, Redis and this process
 // (autocannon's client), read from /proc before and after.
@@ -418,7 +436,7 @@ const statementsBefore = statementsWanted ? await readStatements(knex) : null;
 const cpuBefore = cpuSnapshot(processGroups());
 const loadBefore = load();
 const tl = performance.now();
-const results = await Promise.all(people.map(instanceFor));
+const results = await Promise.all(people.map((p) => instanceFor(p, PER_CONNECTION, stats)));
 const seconds = (performance.now() - tl) / 1000;
 const loadAfter = load();
 const cpu = cpuBetween(cpuBefore, cpuSnapshot(processGroups()));

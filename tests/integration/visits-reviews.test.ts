@@ -13,7 +13,7 @@ import { createPatient } from '@/lib/services/patients';
 import { markVisits } from '@/lib/services/recall-desk';
 import { todayIn } from '@/lib/services/registry-common';
 import { correctReview, createReview, listReviews } from '@/lib/services/reviews';
-import { closeVisitAsLost, updateVisit } from '@/lib/services/visits';
+import { closeVisitAsLost, listVisits, updateVisit } from '@/lib/services/visits';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
 
 const services = await openServices();
@@ -92,6 +92,18 @@ describe('the review marks the visit of the day attended', () => {
     const r = await createReview(services.em(), a.clinician, c.id, { visitId: v(12).id, reviewDate: today, toothStatus: 'present', paiScore: 1, lesionDiameterMm: 0 });
     expect(r.visits.find((x) => x.milestone === 12)).toMatchObject({ status: 'attended', reviewIds: [r.review.id] });
     expect((await log(v(12).id)).at(-1)).toMatchObject({ kind: 'status_change', by: 'user', from_status: 'confirmed', to_status: 'attended', note: 'Attended: review recorded.' });
+    // The case page and the saved review take each visit's reviews from the case's reviews they
+    // read (no second read): the same as the visits read on their own (listVisits), a corrected
+    // review by its current version only.
+    const reviewsOf = (visits: readonly { id: string; reviewIds: string[] }[]) => visits.map((x) => [x.id, x.reviewIds]);
+    const alone = reviewsOf(await listVisits(services.em(), a.clinician, c.id));
+    expect(reviewsOf(r.visits)).toEqual(alone);
+    expect(reviewsOf((await getCase(services.em(), a.clinician, c.id)).visits)).toEqual(alone);
+    const fixed = await correctReview(services.em(), a.clinician, c.id, r.review.id, { reviewDate: today, toothStatus: 'present', paiScore: 2, lesionDiameterMm: 0, reason: 'Scored on the wrong film.' });
+    const after = reviewsOf(await listVisits(services.em(), a.clinician, c.id));
+    expect(after.find(([id]) => id === v(12).id)![1]).toEqual([fixed.review.id]);
+    expect(reviewsOf(fixed.visits)).toEqual(after);
+    expect(reviewsOf((await getCase(services.em(), a.clinician, c.id)).visits)).toEqual(after);
   });
 
   it('refuses a review dated before the visit’s appointment', async () => {
