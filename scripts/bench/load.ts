@@ -33,8 +33,7 @@
  *   BENCH_REQUESTS=60 (per connection), BENCH_CONNECTIONS_PER_USER=5, BENCH_TIMEOUT_S=30
  *   BENCH_ROUTE_COSTS=1 first runs each route alone and prints the web server's and PostgreSQL's CPU a request
  *     (BENCH_ROUTE_COSTS=case,list: only those steps; BENCH_ROUTE_REQUESTS=100 each; BENCH_LOAD=0 skips the mixed load)
- *   BENCH_WEB_INSTANCES=2 runs two web servers behind haproxy (one per core); BENCH_CONNECTION_RATE=1 paces each
- *     connection to at most that many requests a second (autocannon's connectionRate)
+ *   BENCH_WEB_INSTANCES=2 runs two web servers behind haproxy (least connections)
  *   BENCH_CPU_PROF=DIR writes a V8 CPU profile of the web server into DIR (open it in Chrome's DevTools)
  *   BENCH_PG_STATEMENTS=1 (with LAMINA_PG_OPTS='-c shared_preload_libraries=pg_stat_statements') prints
  *     the statements PostgreSQL spent the load's time on
@@ -79,7 +78,6 @@ const N_CASES = Number(process.env.BENCH_CASES ?? 100_000);
 const PER_CONNECTION = Number(process.env.BENCH_REQUESTS ?? 60);
 const CONNECTIONS_PER_USER = Number(process.env.BENCH_CONNECTIONS_PER_USER ?? 5);
 const TIMEOUT_S = Number(process.env.BENCH_TIMEOUT_S ?? 30);
-const CONNECTION_RATE = Number(process.env.BENCH_CONNECTION_RATE ?? 0);
 const WARMUP_PER_CONNECTION = Number(process.env.BENCH_WARMUP_REQUESTS ?? 20);
 const GOAL_P95_MS = 500;
 const APP_URL = process.env.APP_URL!.replace(/\/+$/, '');
@@ -412,7 +410,6 @@ function instanceFor(p: Person, perConnection: number, into: Map<string, Stat> |
     connections: CONNECTIONS_PER_USER,
     amount: CONNECTIONS_PER_USER * perConnection,
     timeout: TIMEOUT_S,
-    ...(CONNECTION_RATE ? { connectionRate: CONNECTION_RATE } : {}),
     requests,
   });
 }
