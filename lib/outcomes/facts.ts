@@ -79,7 +79,8 @@ export interface RowFacts {
   position?: Map<OutcomeCase, number>;
 }
 
-function buildFacts(cases: readonly OutcomeCase[], all: readonly OutcomeCase[], minObs: number): RowFacts {
+/** The facts' columns, allocated, and the first position of each id (filled by fillFacts). */
+function newFacts(cases: readonly OutcomeCase[], minObs: number): { f: RowFacts; firstOf: Map<string, number> } {
   const n = cases.length;
   const f: RowFacts = {
     cases,
@@ -104,7 +105,13 @@ function buildFacts(cases: readonly OutcomeCase[], all: readonly OutcomeCase[], 
     const id = cases[k]!.id;
     if (!firstOf.has(id)) firstOf.set(id, k);
   }
-  for (let k = 0; k < n; k++) {
+  return { f, firstOf };
+}
+
+/** The facts of cases[from..to). */
+function fillFacts(f: RowFacts, firstOf: ReadonlyMap<string, number>, all: readonly OutcomeCase[], from: number, to: number): void {
+  const { cases, minObs } = f;
+  for (let k = from; k < to; k++) {
     const c = cases[k]!;
     f.completionDay[k] = dayOf(c.completionDate);
     f.at12[k] = outcomeCode(outcomeAtMilestone(c, 12, minObs));
@@ -122,6 +129,11 @@ function buildFacts(cases: readonly OutcomeCase[], all: readonly OutcomeCase[], 
     f.toothLoss[k] = loss;
     f.toothLossKm[k] = kmObservation(loss);
   }
+}
+
+function buildFacts(cases: readonly OutcomeCase[], all: readonly OutcomeCase[], minObs: number): RowFacts {
+  const { f, firstOf } = newFacts(cases, minObs);
+  fillFacts(f, firstOf, all, 0, cases.length);
   return f;
 }
 
@@ -134,6 +146,26 @@ export function rowFacts(all: readonly OutcomeCase[], minObs: number): RowFacts 
     f = buildFacts(all, all, minObs);
     factsOf.set(all, f);
   }
+  return f;
+}
+
+/**
+ * rowFacts built `slice` cases at a time with `pause()` between slices, for background work (the
+ * outcomes warmer) that must not hold a server's requests up for the whole pass (about a second at
+ * 100,000 cases). The same facts as rowFacts; kept only when complete, so a reader in between builds
+ * its own (rowFacts) and that one is kept.
+ */
+export async function rowFactsInSlices(all: readonly OutcomeCase[], minObs: number, pause: () => Promise<void>, slice = 5000): Promise<RowFacts> {
+  const kept = factsOf.get(all);
+  if (kept && kept.minObs === minObs) return kept;
+  const { f, firstOf } = newFacts(all, minObs);
+  for (let from = 0; from < all.length; from += slice) {
+    await pause();
+    fillFacts(f, firstOf, all, from, Math.min(all.length, from + slice));
+  }
+  const now = factsOf.get(all);
+  if (now && now.minObs === minObs) return now;
+  factsOf.set(all, f);
   return f;
 }
 

@@ -1,8 +1,8 @@
 import 'server-only';
 import { requestEm } from '@/lib/db';
 import { env } from '@/lib/env';
-import { deriveCaseFacts } from '@/lib/outcomes';
-import { rowFacts } from '@/lib/outcomes/facts';
+import { deriveCaseFacts, type OutcomeCase } from '@/lib/outcomes';
+import { rowFactsInSlices } from '@/lib/outcomes/facts';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
 import { renderOutcomesReport } from '@/lib/pdf/outcomes-report';
@@ -37,7 +37,7 @@ const g = globalThis as unknown as { __laminaOutcomesWarmer?: () => void };
 export function startOutcomesWarming(): void {
   if (g.__laminaOutcomesWarmer || env.OUTCOMES_WARM_MS === 0) return;
   const onError = (e: unknown) => console.error('[outcomes] warming failed:', e instanceof Error ? e.message : e);
-  g.__laminaOutcomesWarmer = startOutcomesWarmer(requestEm, OUTCOME_READER, env.OUTCOMES_WARM_MS, onError, env.OUTCOMES_MAX_LAG_MS);
+  g.__laminaOutcomesWarmer = startOutcomesWarmer(requestEm, OUTCOME_READER, env.OUTCOMES_WARM_MS, onError, env.OUTCOMES_MAX_LAG_MS, prepareRows);
   void warmAtStart().catch(onError);
 }
 
@@ -70,8 +70,17 @@ export async function warmPractice(getEm: () => Promise<EntityManager>, practice
     await yieldToRequests();
   }
   // the same facts as columns per rows array (what the views read; a pass over the memos above)
-  rowFacts(rows, minObs);
+  await rowFactsInSlices(rows, minObs, yieldToRequests);
   if (o.views !== false) await warmViews(getEm, practiceId);
+}
+
+/**
+ * New rows of a practice, before the warmer computes its views on them: their facts as columns,
+ * built in slices with yields to requests (lib/outcomes/facts.ts rowFactsInSlices).
+ */
+export async function prepareRows(em: EntityManager, practiceId: string, rows: OutcomeCase[]): Promise<void> {
+  const { minObservationDays } = await practiceSettings(em, practiceId);
+  await rowFactsInSlices(rows, minObservationDays, yieldToRequests);
 }
 
 /**

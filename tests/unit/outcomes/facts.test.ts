@@ -30,7 +30,7 @@ import {
   type OutcomeFilter,
   type Overview,
 } from '@/lib/outcomes';
-import { rowFacts, selectionIn } from '@/lib/outcomes/facts';
+import { rowFacts, rowFactsInSlices, selectionIn } from '@/lib/outcomes/facts';
 import { createRandom } from '@/lib/demo/random';
 import { addDaysTo, type CalendarDate } from '@/lib/registry/calendar-date';
 import type { Interval, RecordedReview } from '@/lib/scoring';
@@ -181,6 +181,25 @@ describe('the overview on the per-case facts (lib/outcomes/facts.ts)', () => {
     const copies = selection.map((c) => ({ ...c }));
     const own = selectionIn(copies, rows, 365);
     expect(own.facts.cases).toBe(copies);
+  });
+
+  it('built in slices with a pause between them (the warmer), the facts are those of rowFacts, and kept for the rows', async () => {
+    const fresh = [...rows]; // a new rows array: no facts kept for it yet
+    let pauses = 0;
+    const sliced = await rowFactsInSlices(fresh, 365, async () => void pauses++, 64);
+    expect(pauses).toBe(Math.ceil(fresh.length / 64));
+    expect(rowFacts(fresh, 365)).toBe(sliced); // kept: the views read these
+    const whole = rowFacts([...rows], 365); // built in one piece on another array of the same cases
+    expect({ ...sliced, cases: null, position: null }).toEqual({ ...whole, cases: null, position: null });
+    // facts kept already: returned at once, without a pause
+    expect(await rowFactsInSlices(fresh, 365, async () => void pauses++, 64)).toBe(sliced);
+    expect(pauses).toBe(Math.ceil(fresh.length / 64));
+    // a reader that builds them while the slices run (rowFacts, in one piece): its facts are kept, and returned
+    const raced = [...rows];
+    let theirs: ReturnType<typeof rowFacts> | null = null;
+    const mine = await rowFactsInSlices(raced, 365, async () => void (theirs ??= rowFacts(raced, 365)), 100);
+    expect(mine).toBe(theirs);
+    expect(rowFacts(raced, 365)).toBe(theirs);
   });
 });
 
