@@ -1,4 +1,5 @@
 import 'server-only';
+import { createHash } from 'node:crypto';
 import type { DataAsOf } from './outcomes-cache';
 import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import { z } from 'zod';
@@ -268,7 +269,8 @@ async function orderedWorklist(em: EntityManager, actor: Actor, q: OutcomeFilter
   // The order depends on the entries (the data version, the filter, today, the minimum observation)
   // and on the current steps, which no data version covers: a step is never changed, only replaced
   // by a new row, so their ids name them. Kept for the next request that finds the same.
-  const key = JSON.stringify([actor.practiceId, s.version, s.filter, s.today, s.minObs, s.timeZone, current.map((d) => d.id)]);
+  const steps = createHash('sha256').update(current.map((d) => d.id).join(',')).digest('base64url'); // thousands of ids, kept short
+  const key = JSON.stringify([actor.practiceId, s.version, s.filter, s.today, s.minObs, s.timeZone, steps]);
   let kept = orders.get(key);
   if (kept) orders.delete(key);
   else {
