@@ -28,7 +28,6 @@ import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { createHash, randomBytes } from 'node:crypto';
 import fs from 'node:fs';
 import http from 'node:http';
-import net from 'node:net';
 import path from 'node:path';
 import { parseArgs } from 'node:util';
 import { Queue } from 'bullmq';
@@ -40,6 +39,7 @@ import config from '../mikro-orm.config';
 import { hashPassword } from '../lib/auth/password';
 import { QUEUES, RECALL_SCAN_SCHEDULER_ID } from '../lib/queue/names';
 import { fromLocalDate } from '../lib/registry/calendar-date';
+import { freePort } from './lib/free-port';
 import { seedDueVisits } from './lib/reminder-seed';
 
 const { values: args } = parseArgs({
@@ -138,13 +138,6 @@ async function stopAll() {
   await Promise.all([...children.keys()].map((n) => stop(n)));
 }
 
-async function freePort(): Promise<number> {
-  const server = net.createServer();
-  await new Promise<void>((r) => server.listen(0, '127.0.0.1', r));
-  const port = (server.address() as net.AddressInfo).port;
-  await new Promise((r) => server.close(r));
-  return port;
-}
 
 // --- HTTP with a chosen local address ---------------------------------------------------------------
 

@@ -204,16 +204,23 @@ export function memoView<T>(practiceId: string, version: string, key: readonly u
   mine.delete(id);
   mine.set(id, { compute, at: Date.now() });
   while (mine.size > MAX_RECIPES) mine.delete(mine.keys().next().value!);
-  const k = `${practiceId}@${version}:${id}`;
-  if (views.has(k)) {
-    const v = views.get(k) as T;
-    views.delete(k);
-    views.set(k, v);
+  return keptRecently(views, `${practiceId}@${version}:${id}`, MAX_VIEWS, () => compute(rows)) as T;
+}
+
+/**
+ * `map`'s value at `key`, made by `make` when there is none, now the most recently used entry; beyond
+ * `max` entries the least recently used go (a Map keeps insertion order).
+ */
+export function keptRecently<K, V>(map: Map<K, V>, key: K, max: number, make: () => V): V {
+  if (map.has(key)) {
+    const v = map.get(key) as V;
+    map.delete(key);
+    map.set(key, v);
     return v;
   }
-  const v = compute(rows);
-  views.set(k, v);
-  while (views.size > MAX_VIEWS) views.delete(views.keys().next().value!);
+  const v = make();
+  map.set(key, v);
+  while (map.size > max) map.delete(map.keys().next().value!);
   return v;
 }
 
@@ -247,8 +254,7 @@ export async function warmOutcomes(em: EntityManager, practiceId: string, reader
     if (views.has(k)) continue;
     await yieldToRequests();
     if (views.has(k)) continue;
-    views.set(k, compute(rows));
-    while (views.size > MAX_VIEWS) views.delete(views.keys().next().value!);
+    keptRecently(views, k, MAX_VIEWS, () => compute(rows));
     computed++;
   }
   return computed;

@@ -1,6 +1,6 @@
 import 'server-only';
 import { createHash } from 'node:crypto';
-import type { DataAsOf } from './outcomes-cache';
+import { keptRecently, type DataAsOf } from './outcomes-cache';
 import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import { z } from 'zod';
 import { CaseDecisionSchema, RecallVisitSchema, TreatmentCaseSchema, type CaseDecision } from '@/entities';
@@ -271,16 +271,12 @@ async function orderedWorklist(em: EntityManager, actor: Actor, q: OutcomeFilter
   // by a new row, so their ids name them. Kept for the next request that finds the same.
   const steps = createHash('sha256').update(current.map((d) => d.id).join(',')).digest('base64url'); // thousands of ids, kept short
   const key = JSON.stringify([actor.practiceId, s.version, s.filter, s.today, s.minObs, s.timeZone, steps]);
-  let kept = orders.get(key);
-  if (kept) orders.delete(key);
-  else {
+  const kept = keptRecently(orders, key, MAX_ORDERS, () => {
     const ordered: OrderedEntry[] = orderWorklist(entries, (id) => currentOf.get(id) ?? null, s.today);
     const counts: Record<Urgency, number> = { decide: 0, overdue: 0, in_hand: 0 };
     for (const e of ordered) counts[e.urgency]++;
-    kept = { ordered, counts };
-    while (orders.size >= MAX_ORDERS) orders.delete(orders.keys().next().value!);
-  }
-  orders.set(key, kept); // most recently used last
+    return { ordered, counts };
+  });
   const detailOf = (shown: readonly OrderedEntry[]) => shown.map((e) => ({ caseId: e.caseId, decisionId: currentOf.get(e.caseId)?.id ?? null }));
   return { s, ordered: kept.ordered, counts: kept.counts, completion, detailOf };
 }

@@ -47,7 +47,6 @@
 import { runUnderScriptsTsconfig } from '../lib/scripts-tsconfig';
 import { spawn, type ChildProcess } from 'node:child_process';
 import fs from 'node:fs';
-import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
 import { performance } from 'node:perf_hooks';
@@ -64,6 +63,7 @@ const { uploadFilm } = await import('../../lib/services/films');
 const { drawRadiograph, filmJpeg } = await import('../../lib/demo/drawn-films');
 const { addDaysTo } = await import('../../lib/registry/calendar-date');
 const { benchActor, seedBenchPractice } = await import('../lib/bench-world');
+const { freePort } = await import('../lib/free-port');
 const { childrenOf, cpuBetween, cpuSnapshot, readStatements, serviceGroups, statementsWanted, topStatements } = await import('../lib/bench-proc');
 type Role = import('../../lib/auth/roles').Role;
 type AcRequest = import('autocannon').Request;
@@ -155,13 +155,6 @@ const profDir = process.env.BENCH_CPU_PROF ? path.resolve(process.env.BENCH_CPU_
  * trust it as their one proxy), the deployment the scale test proves: stateless instances, one per core.
  */
 const INSTANCES = Math.max(1, Number(process.env.BENCH_WEB_INSTANCES ?? 1));
-const freePort = () =>
-  new Promise<number>((resolve) => {
-    const srv = net.createServer().listen(0, '127.0.0.1', () => {
-      const { port } = srv.address() as net.AddressInfo;
-      srv.close(() => resolve(port));
-    });
-  });
 const ports = INSTANCES === 1 ? [WEB_PORT] : await Promise.all(Array.from({ length: INSTANCES }, freePort));
 const detachedChild = (command: string, args: string[], env: NodeJS.ProcessEnv): ChildProcess =>
   spawn(command, args, { cwd: repo, env, stdio: ['ignore', out, out], detached: true });
@@ -323,6 +316,23 @@ if (warmFailures.length) {
 }
 console.log(`warm-up pass in ${((performance.now() - tw) / 1000).toFixed(1)} s`);
 
+/** Stops the web server (writing its CPU profile, if asked) and removes the bench's practice and people. */
+async function cleanUp() {
+  const exited = Promise.all(children().map((c) => new Promise((r) => (c.exitCode !== null || c.signalCode !== null ? r(null) : c.once('exit', r)))));
+  stopWeb();
+  await Promise.race([exited, new Promise((r) => setTimeout(r, 15_000))]);
+  if (profDir) console.log(`CPU profile of the web server in ${profDir}`);
+  await conn.execute('delete from audit_event where practice_id = ?', [practice.id]);
+  await conn.execute('delete from practice where id = ?', [practice.id]);
+  await conn.execute('delete from app_user where email like ?', [`%.${slug}@bench.invalid`]);
+  await orm.close(true);
+}
+
+// Where the machine's CPU goes: the web server(s), haproxy, PostgreSQL, Redis and this process
+// (autocannon's client), read from /proc before and after.
+const WEB_GROUP = INSTANCES === 1 ? 'web server' : `${INSTANCES} web servers`;
+const processGroups = () => ({ [WEB_GROUP]: webPids(), ...(proxy ? { haproxy: [proxy.pid!] } : {}), ...serviceGroups(), 'bench (autocannon)': [process.pid] });
+
 const quantile = (xs: number[], p: number) => {
   if (!xs.length) return NaN;
   const s = [...xs].sort((a, b) => a - b);
@@ -330,6 +340,18 @@ const quantile = (xs: number[], p: number) => {
 };
 const num = (n: number) => (Number.isNaN(n) ? '–' : n.toFixed(0)).padStart(8);
 type Ctx = { started?: number };
+/** An autocannon request of `step` as `p`, timed from just before it is written (`sent`) to its full answer (`answered`). */
+function timedRequest(p: Person, step: Step, answered?: (status: number, ms: number) => void, sent?: () => void): AcRequest {
+  return {
+    method: step.method,
+    setupRequest: (req: AcRequest, context: object) => {
+      (context as Ctx).started = performance.now();
+      sent?.();
+      return { ...req, path: step.path(), headers: headersFor(p, step), ...(step.body ? { body: step.body() } : {}) };
+    },
+    onResponse: (status: number, _body: string, context: object) => answered?.(status, performance.now() - (context as Ctx).started!),
+  };
+}
 // BENCH_ROUTE_COSTS=1: before the load, each route alone (2 connections, 100 requests, one person
 // who may use it): its latency and the CPU the web server and PostgreSQL spent a request, which
 // says where the mixed load's CPU goes.
@@ -343,28 +365,18 @@ if (routeCosts) {
     if (only && !only.includes(key)) continue;
     const p = whoFor[step.route]!;
     const ms: number[] = [];
-    const groups = () => ({ web: webPids(), ...serviceGroups() });
-    const before = cpuSnapshot(groups());
+    const before = cpuSnapshot(processGroups());
     const r = await autocannon({
       url: APP_URL,
       connections: 2,
       amount: Number(process.env.BENCH_ROUTE_REQUESTS ?? 100),
       timeout: TIMEOUT_S,
-      requests: [
-        {
-          method: step.method,
-          setupRequest: (req: AcRequest, context: object) => {
-            (context as Ctx).started = performance.now();
-            return { ...req, path: step.path(), headers: headersFor(p, step), ...(step.body ? { body: step.body() } : {}) };
-          },
-          onResponse: (_s: number, _b: string, context: object) => void ms.push(performance.now() - (context as Ctx).started!),
-        },
-      ],
+      requests: [timedRequest(p, step, (_status, took) => ms.push(took))],
     });
-    const used = new Map(cpuBetween(before, cpuSnapshot(groups())));
+    const used = new Map(cpuBetween(before, cpuSnapshot(processGroups())));
     const n = r.requests.total || 1;
     console.log(
-      `${step.route.padEnd(32)}${String(n).padStart(9)}${num(quantile(ms, 0.5))}${((used.get('web') ?? 0) / n).toFixed(1).padStart(12)}${((used.get('PostgreSQL') ?? 0) / n).toFixed(1).padStart(11)}${r.non2xx ? `  non-2xx ${r.non2xx}` : ''}`,
+      `${step.route.padEnd(32)}${String(n).padStart(9)}${num(quantile(ms, 0.5))}${((used.get(WEB_GROUP) ?? 0) / n).toFixed(1).padStart(12)}${((used.get('PostgreSQL') ?? 0) / n).toFixed(1).padStart(11)}${r.non2xx ? `  non-2xx ${r.non2xx}` : ''}`,
     );
   }
   if (process.env.BENCH_LOAD === '0') {
@@ -373,38 +385,21 @@ if (routeCosts) {
   }
 }
 
-/** Stops the web server (writing its CPU profile, if asked) and removes the bench's practice and people. */
-async function cleanUp() {
-  const exited = Promise.all(children().map((c) => new Promise((r) => (c.exitCode !== null || c.signalCode !== null ? r(null) : c.once('exit', r)))));
-  stopWeb();
-  await Promise.race([exited, new Promise((r) => setTimeout(r, 15_000))]);
-  if (profDir) console.log(`CPU profile of the web server in ${profDir}`);
-  await conn.execute('delete from audit_event where practice_id = ?', [practice.id]);
-  await conn.execute('delete from practice where id = ?', [practice.id]);
-  await conn.execute('delete from app_user where email like ?', [`%.${slug}@bench.invalid`]);
-  await orm.close(true);
-}
-
 // --- 4. the load ----------------------------------------------------------------------------------------------
 type Stat = { ms: number[]; sent: number; non2xx: Map<number, number> };
 const stats = new Map<string, Stat>(ROUTES.map((r) => [r, { ms: [], sent: 0, non2xx: new Map() }]));
 
 /** One person's connections looping through their mix: `perConnection` requests each, into `into` (null: not recorded). */
 function instanceFor(p: Person, perConnection: number, into: Map<string, Stat> | null) {
-  const requests: AcRequest[] = MIX[p.role].map((step) => ({
-    method: step.method,
-    setupRequest: (req: AcRequest, context: object) => {
-      (context as Ctx).started = performance.now();
-      if (into) into.get(step.route)!.sent++;
-      return { ...req, path: step.path(), headers: headersFor(p, step), ...(step.body ? { body: step.body() } : {}) };
-    },
-    onResponse: (status: number, _body: string, context: object) => {
-      if (!into) return;
-      const s = into.get(step.route)!;
-      s.ms.push(performance.now() - (context as Ctx).started!);
+  const requests: AcRequest[] = MIX[p.role].map((step) => {
+    if (!into) return timedRequest(p, step);
+    const s = into.get(step.route)!;
+    const answered = (status: number, ms: number) => {
+      s.ms.push(ms);
       if (status < 200 || status >= 300) s.non2xx.set(status, (s.non2xx.get(status) ?? 0) + 1);
-    },
-  }));
+    };
+    return timedRequest(p, step, answered, () => s.sent++);
+  });
   return autocannon({
     url: APP_URL,
     connections: CONNECTIONS_PER_USER,
@@ -417,18 +412,15 @@ function instanceFor(p: Person, perConnection: number, into: Map<string, Stat> |
 // for a while has its code compiled by V8 and PostgreSQL's buffers holding what the mix reads; the
 // figures are of that server, not of its first minute. Its answers must be 2xx too.
 if (WARMUP_PER_CONNECTION > 0) {
-  const tw2 = performance.now();
+  const tu = performance.now();
   const warm = await Promise.all(people.map((p) => instanceFor(p, WARMUP_PER_CONNECTION, null)));
   const bad = warm.reduce((a, r) => a + r.non2xx + r.errors, 0);
   if (bad) {
     console.error(`bench/load: the warm-up load got ${bad} answers that are not 2xx or no answer`);
     process.exit(1);
   }
-  console.log(`warm-up load: ${warm.reduce((a, r) => a + r.requests.total, 0)} requests (${WARMUP_PER_CONNECTION} per connection, untimed) in ${((performance.now() - tw2) / 1000).toFixed(1)} s`);
+  console.log(`warm-up load: ${warm.reduce((a, r) => a + r.requests.total, 0)} requests (${WARMUP_PER_CONNECTION} per connection, untimed) in ${((performance.now() - tu) / 1000).toFixed(1)} s`);
 }
-// Where the machine's CPU went during the load: the web server, PostgreSQL, Redis and this process
-// (autocannon's client), read from /proc before and after.
-const processGroups = () => ({ [INSTANCES === 1 ? 'web server' : `${INSTANCES} web servers`]: webPids(), ...(proxy ? { haproxy: [proxy.pid!] } : {}), ...serviceGroups(), 'bench (autocannon)': [process.pid] });
 const statementsBefore = statementsWanted ? await readStatements(knex) : null;
 const cpuBefore = cpuSnapshot(processGroups());
 const loadBefore = load();
