@@ -54,43 +54,46 @@ export default async function CallListPage({ searchParams }: { searchParams: Pro
       {list.rows.length === 0 ? (
         <EmptyState title="Nobody to call">Every patient due for an invitation can be e-mailed, or already has a time.</EmptyState>
       ) : (
-        <table className="table-dense w-full print:text-[10pt]" aria-label="Patients to call">
-          <thead>
-            <tr>
-              <th scope="col">Patient</th>
-              <th scope="col">Phone</th>
-              <th scope="col">Visit</th>
-              <th scope="col">Due</th>
-              <th scope="col">Last contact</th>
-              <th scope="col" className="w-1/4">
-                Notes
-              </th>
-            </tr>
-          </thead>
-          <tbody>
-            {list.rows.map((r) => (
-              <tr key={r.visitId} className="break-inside-avoid" data-testid={`call-row-${r.patient.registryNumber}-${r.milestone}`}>
-                <td>
-                  <div className="font-medium">{r.patient.name}</div>
-                  <div className="text-xs text-ink-500">
-                    {r.patient.registryNumber} · prefers {r.patient.channel}
-                  </div>
-                </td>
-                <td className="whitespace-nowrap font-medium tabular-nums">{r.patient.phone ?? 'No phone on file'}</td>
-                <td>
-                  {r.milestone} months · {list.toothLabel.split(' ')[0]} {r.tooth}
-                  {r.clinician ? <div className="text-xs text-ink-500">{r.clinician}</div> : null}
-                </td>
-                <td className="whitespace-nowrap">
-                  {fmtDate(r.dueDate)}
-                  {r.dueDate < list.today ? <div className="text-xs text-ink-500">overdue</div> : null}
-                </td>
-                <td className="text-xs">{r.lastContact ? `${fmtDateTime(r.lastContact.at)} · ${r.lastContact.kind.replace('_', ' ')}` : 'None yet'}</td>
-                <td className="border-b border-dotted border-ink-300" />
+        // on a phone the table scrolls in its own box rather than widening the page; on paper it is whole
+        <div className="overflow-x-auto print:overflow-visible" tabIndex={0} role="region" aria-label="Patients to call, scrolls sideways on a small screen">
+          <table className="table-dense w-full print:text-[10pt]" aria-label="Patients to call">
+            <thead>
+              <tr>
+                <th scope="col">Patient</th>
+                <th scope="col">Phone</th>
+                <th scope="col">Visit</th>
+                <th scope="col">Due</th>
+                <th scope="col">Last contact</th>
+                <th scope="col" className="w-1/4">
+                  Notes
+                </th>
               </tr>
-            ))}
-          </tbody>
-        </table>
+            </thead>
+            <tbody>
+              {list.rows.map((r) => (
+                <tr key={r.visitId} className="break-inside-avoid" data-testid={`call-row-${r.patient.registryNumber}-${r.milestone}`}>
+                  <td>
+                    <div className="font-medium">{r.patient.name}</div>
+                    <div className="text-xs text-ink-500">
+                      {r.patient.registryNumber} · prefers {r.patient.channel}
+                    </div>
+                  </td>
+                  <td className="whitespace-nowrap font-medium tabular-nums">{r.patient.phone ?? 'No phone on file'}</td>
+                  <td>
+                    {r.milestone} months · {list.toothLabel.split(' ')[0]} {r.tooth}
+                    {r.clinician ? <div className="text-xs text-ink-500">{r.clinician}</div> : null}
+                  </td>
+                  <td className="whitespace-nowrap">
+                    {fmtDate(r.dueDate)}
+                    {r.dueDate < list.today ? <div className="text-xs text-ink-500">overdue</div> : null}
+                  </td>
+                  <td className="text-xs">{r.lastContact ? `${fmtDateTime(r.lastContact.at)} · ${r.lastContact.kind.replace('_', ' ')}` : 'None yet'}</td>
+                  <td className="border-b border-dotted border-ink-300" />
+                </tr>
+              ))}
+            </tbody>
+          </table>
+        </div>
       )}
     </div>
   );
