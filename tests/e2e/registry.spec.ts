@@ -100,3 +100,28 @@ test('a researcher cannot open the identifiable case list', async ({ page }) => 
   expect(res?.status()).toBe(403);
   expect((await page.request.get('/api/cases')).status()).toBe(403);
 });
+
+test('a file chosen before the import panel’s script has run is still read: the check appears once the panel is live', async ({ page }) => {
+  await signInAs(page, 'coordinator');
+  const template = await (await page.request.get('/api/cases/import')).text();
+  // Hold back the script that holds the import panel, as a slow connection would: the page shows,
+  // but the panel is not yet live when the file is chosen, so its change event finds no listener.
+  let release!: () => void;
+  const held = new Promise<void>((resolve) => (release = resolve));
+  let heldScripts = 0;
+  await page.route('**/_next/static/chunks/**', async (route) => {
+    const response = await route.fetch();
+    const body = await response.text();
+    if (body.includes('Spreadsheet (CSV or .xlsx)')) {
+      heldScripts += 1;
+      await held;
+    }
+    await route.fulfill({ response, body });
+  });
+  await page.goto('/cases/import', { waitUntil: 'commit' });
+  await page.getByLabel('Spreadsheet (CSV or .xlsx)').setInputFiles({ name: 'early.csv', mimeType: 'text/csv', buffer: Buffer.from(template) });
+  expect(heldScripts).toBeGreaterThan(0);
+  await expect(page.getByRole('button', { name: 'Check the file' })).toHaveCount(0);
+  release();
+  await expect(page.getByRole('button', { name: 'Check the file' })).toBeVisible();
+});

@@ -4,6 +4,7 @@ import { FILM_ROLES, FILM_ROLE_LABELS, type FilmRole } from '@/lib/films/roles';
 import { THUMB_SIDE, fitInside } from '@/lib/films/sizes';
 import type { FilmView } from '@/lib/services/films';
 import { Select } from '@/components/ui/Select';
+import { useFilesChosenEarly } from '@/components/ui/useFilesChosenEarly';
 import { fmtDate } from '@/components/ui/format';
 
 export interface FilmVisitOption {
@@ -142,6 +143,8 @@ export function FilmsSection({
     setUploads((list) => [...added, ...list]);
     if (fileInput.current) fileInput.current.value = '';
   }
+
+  useFilesChosenEarly(fileInput, choose);
 
   const retry = (u: Upload) => update(u.key, { status: 'waiting', progress: 0, message: undefined, retryable: undefined });
 

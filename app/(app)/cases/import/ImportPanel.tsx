@@ -8,7 +8,7 @@ import { downloadCsv, useImport, type ImportMode } from './useImport';
 const importUrl = (mode: ImportMode) => `/api/cases/import?${mode === 'commit-valid' ? 'mode=commit&validRowsOnly=1' : `mode=${mode}`}&stream=1`;
 
 export function ImportPanel() {
-  const { file, preview, choices, reading, phase, load, pick, change, start } = useImport<ImportResult>('/api/cases/import/read', importUrl);
+  const { fileInput, file, preview, choices, reading, phase, load, pick, change, start } = useImport<ImportResult>('/api/cases/import/read', importUrl);
 
   const result = phase.kind === 'done' ? phase.result : null;
   const clean = result && result.errors.length === 0;
@@ -31,6 +31,7 @@ export function ImportPanel() {
           Spreadsheet (CSV or .xlsx)
         </label>
         <input
+          ref={fileInput}
           id="import-file"
           type="file"
           accept=".csv,.xlsx,.txt,text/csv,application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"

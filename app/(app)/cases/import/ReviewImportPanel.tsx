@@ -20,7 +20,7 @@ const plural = (n: number, one: string, many = `${one}s`) => `${n.toLocaleString
 export function ReviewImportPanel() {
   const [remindOverdue, setRemindOverdue] = useState(false);
   // the file's columns matched to the review template's, as for the case import (MappingStep)
-  const { file, preview, choices, reading, phase, setPhase, load, pick, change, start } = useImport<ReviewImportResult>('/api/reviews/import/read', (mode) =>
+  const { fileInput, file, preview, choices, reading, phase, setPhase, load, pick, change, start } = useImport<ReviewImportResult>('/api/reviews/import/read', (mode) =>
     importUrl(mode, remindOverdue),
   );
 
@@ -56,6 +56,7 @@ export function ReviewImportPanel() {
             Review file (CSV or .xlsx)
           </label>
           <input
+            ref={fileInput}
             id="review-import-file"
             type="file"
             accept=".csv,text/csv,.xlsx,application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"

@@ -1,5 +1,6 @@
 'use client';
-import { useState } from 'react';
+import { useRef, useState } from 'react';
+import { useFilesChosenEarly } from '@/components/ui/useFilesChosenEarly';
 import type { ImportProgress } from '@/lib/services/import';
 import type { ImportPreview } from '@/lib/services/import-file';
 import { failure, initialChoices, readPreview, type Choices } from './MappingStep';
@@ -58,6 +59,8 @@ export function useImport<R>(readUrl: string, importUrl: (mode: ImportMode) => s
   const [choices, setChoices] = useState<Choices | null>(null);
   const [reading, setReading] = useState(false);
   const [phase, setPhase] = useState<ImportPhase<R>>({ kind: 'idle' });
+  /** The panel's file input (`ref={fileInput}`): a file chosen before the page was live is read too. */
+  const fileInput = useRef<HTMLInputElement>(null);
 
   /** Reads the file's preview (for `sheet`, or the first) and proposes the choices. */
   const load = async (f: File, sheet: string | null) => {
@@ -84,6 +87,8 @@ export function useImport<R>(readUrl: string, importUrl: (mode: ImportMode) => s
     if (f) void load(f, null);
   };
 
+  useFilesChosenEarly(fileInput, (files) => pick(files[0] ?? null));
+
   /** A mapping choice changed: the last check no longer holds. */
   const change = (next: Partial<Choices>) => {
     setChoices((c) => (c ? { ...c, ...next } : c));
@@ -101,5 +106,5 @@ export function useImport<R>(readUrl: string, importUrl: (mode: ImportMode) => s
     }
   };
 
-  return { file, preview, choices, reading, phase, setPhase, load, pick, change, start };
+  return { fileInput, file, preview, choices, reading, phase, setPhase, load, pick, change, start };
 }

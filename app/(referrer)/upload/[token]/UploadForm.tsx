@@ -1,10 +1,14 @@
 'use client';
-import { useState } from 'react';
+import { useRef, useState } from 'react';
 import { Notice } from '@/components/ui/Notice';
+import { useFilesChosenEarly } from '@/components/ui/useFilesChosenEarly';
 
 /** One upload of one or several films through the referrer's link (POST /api/upload/:token). */
 export function UploadForm({ token, maxFiles, maxMb }: { token: string; maxFiles: number; maxMb: number }) {
   const [files, setFiles] = useState<File[]>([]);
+  const fileInput = useRef<HTMLInputElement>(null);
+  const take = (list: FileList | null) => setFiles(Array.from(list ?? []).slice(0, maxFiles));
+  useFilesChosenEarly(fileInput, take);
   const [busy, setBusy] = useState(false);
   const [result, setResult] = useState<{ ok: boolean; message: string } | null>(null);
   const send = async (e: React.FormEvent) => {
@@ -35,13 +39,14 @@ export function UploadForm({ token, maxFiles, maxMb }: { token: string; maxFiles
           Films (PNG, JPEG or DICOM; up to {maxFiles} files, {maxMb} MB each)
         </label>
         <input
+          ref={fileInput}
           id="films"
           name="file"
           type="file"
           multiple
           accept=".png,.jpg,.jpeg,.dcm,image/png,image/jpeg,application/dicom"
           className="field-input"
-          onChange={(e) => setFiles(Array.from(e.target.files ?? []).slice(0, maxFiles))}
+          onChange={(e) => take(e.target.files)}
         />
         {files.length > 0 && (
           <p className="mt-1 text-xs text-ink-500">
