@@ -1,12 +1,13 @@
 import 'server-only';
 import { cache } from 'react';
-import { getServerSession } from 'next-auth';
-import { headers } from 'next/headers';
+import { getToken } from 'next-auth/jwt';
+import { cookies, headers } from 'next/headers';
 import { forbidden, redirect } from 'next/navigation';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { requestEm } from '@/lib/db';
 import { resolveSession, type PracticeChoice } from '@/lib/services/auth';
-import { authOptions } from './options';
+import { env } from '@/lib/env';
+import { decodeSessionToken } from './session-token';
 import { can, type Permission } from './permissions';
 import type { Actor } from './actor';
 import { originFrom } from './origin';
@@ -23,13 +24,30 @@ export interface RequestContext {
 }
 
 /**
+ * The session cookie's claims (next-auth's `getToken`: the cookie, its chunks joined, decrypted and
+ * its expiry checked), or null. This is what next-auth's `getServerSession` reads too, without its
+ * whole sign-in handler per request and a refreshed cookie it cannot set from here. Only the
+ * cookie counts: no headers are handed over, so an Authorization header is not read as a session.
+ */
+async function sessionClaims(): Promise<{ userId?: string; sv?: number; practiceId?: string | null } | null> {
+  const token = await getToken({
+    req: { cookies: await cookies(), headers: {} } as unknown as Parameters<typeof getToken>[0]['req'],
+    secret: env.NEXTAUTH_SECRET,
+    secureCookie: env.https,
+    decode: decodeSessionToken,
+  });
+  if (!token?.sub) return null;
+  return { userId: token.sub, sv: token.sv as number | undefined, practiceId: (token.practiceId as string | null | undefined) ?? null };
+}
+
+/**
  * The request's EntityManager fork and acting user, loaded once per request (React cache)
  * and shared by the layout, the page and its components. The session's version and chosen
  * practice are checked against the database here, on every request.
  */
 export const getRequestContext = cache(async (): Promise<RequestContext> => {
   const em = await requestEm();
-  const session = (await getServerSession(authOptions)) as { userId?: string; sv?: number; practiceId?: string | null } | null;
+  const session = await sessionClaims();
   if (!session?.userId) return { em, actor: null, userId: null, practices: [], mustChoosePractice: false };
   const s = await resolveSession(em, session.userId, originFrom(await headers()), {
     sessionVersion: session.sv,

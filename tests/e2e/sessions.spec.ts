@@ -115,6 +115,23 @@ test('signing out ends the session: the old cookie gets 401 (item 7)', async ({ 
   await ctx.close();
 });
 
+test('the session is read from its cookie only: the token in an Authorization header, or a garbled cookie, gets 401', async ({ browser, playwright }) => {
+  const ctx = await browser.newContext();
+  const page = await ctx.newPage();
+  await signInWithForm(page, 'coordinator', 'B');
+  expect((await page.request.get('/api/patients?page=1&pageSize=1')).status()).toBe(200);
+  const session = (await ctx.cookies()).find((c) => /next-auth\.session-token/.test(c.name));
+  expect(session?.value.length).toBeGreaterThan(20);
+  const baseURL = test.info().project.use.baseURL;
+  const bare = await playwright.request.newContext({ baseURL });
+  expect((await bare.get('/api/patients?page=1&pageSize=1', { headers: { authorization: `Bearer ${session!.value}` } })).status()).toBe(401);
+  const garbled = `${session!.value.slice(0, -4)}AAAA`;
+  expect((await bare.get('/api/patients?page=1&pageSize=1', { headers: { cookie: `${session!.name}=${garbled}` } })).status()).toBe(401);
+  expect((await bare.get('/api/patients?page=1&pageSize=1', { headers: { cookie: `${session!.name}=${session!.value}` } })).status()).toBe(200);
+  await bare.dispose();
+  await ctx.close();
+});
+
 test('"sign out everywhere" ends the sessions on other devices too (item 7)', async ({ browser }) => {
   const one = await browser.newContext();
   const two = await browser.newContext();
