@@ -6,12 +6,17 @@
  * socket's peer address appended, as a proxy would; lib/security/trusted-proxies.ts reads it from
  * the right, as far as TRUSTED_PROXIES allows.
  *
+ * Every response also starts with the API's deny-all Content-Security-Policy (and HSTS when the
+ * public URL is https: lib/security/response-policy.json); proxy.ts, run for pages only, replaces
+ * the policy with the page's nonce policy.
+ *
  *   node scripts/web-server.mjs -H 127.0.0.1 -p 3000     (NEXT_DIST_DIR picks the build)
  */
 import http from 'node:http';
 import path from 'node:path';
 import { parseArgs } from 'node:util';
 import next from 'next';
+import responsePolicy from '../lib/security/response-policy.json' with { type: 'json' };
 
 const { values } = parseArgs({
   options: { hostname: { type: 'string', short: 'H', default: '127.0.0.1' }, port: { type: 'string', short: 'p', default: '3000' } },
@@ -25,7 +30,13 @@ const app = next({ dev: false, dir, hostname, port });
 const handle = app.getRequestHandler();
 await app.prepare();
 
+const baseline = [
+  ['Content-Security-Policy', responsePolicy.apiPolicy],
+  ...((process.env.APP_URL ?? '').startsWith('https:') ? [['Strict-Transport-Security', responsePolicy.hsts]] : []),
+];
+
 const server = http.createServer((req, res) => {
+  for (const [name, value] of baseline) res.setHeader(name, value);
   const peer = req.socket.remoteAddress ?? '';
   const sent = req.headers['x-forwarded-for'];
   const prior = Array.isArray(sent) ? sent.join(', ') : sent;

@@ -6,7 +6,13 @@
  * pattern: Next reads the nonce from the request's policy and puts it on its own scripts), with
  * 'strict-dynamic' and no 'unsafe-inline' for scripts. Styles allow inline style attributes
  * (charts and the sandboxed mail preview use them); a style attribute cannot run code.
+ *
+ * Every other response (the API, files) keeps the deny-all policy and HSTS that the web server
+ * (scripts/web-server.mjs) puts on every response before Next answers; proxy.ts replaces the
+ * policy for pages. Those two values live in response-policy.json, which the server reads too.
  */
+import responsePolicy from './response-policy.json';
+
 export interface HeaderOptions {
   nonce: string;
   /** The public URL is https: HSTS, and mixed content upgraded. */
@@ -33,7 +39,7 @@ export const PERMISSIONS_POLICY = [
 ].join(', ');
 
 /** Two years, subdomains included (the HSTS preload list's minimum is one year). */
-export const HSTS = 'max-age=63072000; includeSubDomains';
+export const HSTS: string = responsePolicy.hsts;
 
 export function pagePolicy({ nonce, https, dev }: HeaderOptions): string {
   return [
@@ -52,7 +58,7 @@ export function pagePolicy({ nonce, https, dev }: HeaderOptions): string {
 }
 
 /** JSON and files: nothing in them may run or be framed. */
-export const API_POLICY = "default-src 'none'; frame-ancestors 'none'";
+export const API_POLICY: string = responsePolicy.apiPolicy;
 
 /**
  * Headers every response carries whatever the configuration: next.config.mjs sets them (also on
@@ -65,7 +71,10 @@ export const STATIC_HEADERS: Record<string, string> = {
   'Permissions-Policy': PERMISSIONS_POLICY,
 };
 
-/** The headers proxy.ts sets, which depend on the request (nonce) or the public URL (https). */
+/**
+ * The headers that depend on the request (a page's nonce) or the public URL (https): proxy.ts sets
+ * the page's, the web server the API's (the same values, from response-policy.json).
+ */
 export function dynamicHeaders(kind: 'page' | 'api', o: HeaderOptions): Record<string, string> {
   return {
     'Content-Security-Policy': kind === 'page' ? pagePolicy(o) : API_POLICY,

@@ -118,6 +118,8 @@ test.describe('headers and error bodies (item 12)', () => {
     await signInAs(page, 'clinician');
     const res = await page.goto('/cases');
     const csp = res!.headers()['content-security-policy'] ?? '';
+    // One policy: the page's replaces the deny-all one the web server starts every response with.
+    expect((await res!.headersArray()).filter((h) => h.name.toLowerCase() === 'content-security-policy')).toHaveLength(1);
     const scriptSrc = csp.split(';').map((d) => d.trim()).find((d) => d.startsWith('script-src')) ?? '';
     const nonce = /'nonce-([^']+)'/.exec(scriptSrc)?.[1];
     expect(nonce).toBeTruthy();
@@ -135,7 +137,7 @@ test.describe('headers and error bodies (item 12)', () => {
     expect(violations).toEqual([]);
   });
 
-  test('API errors say a stable code, not a minified class name', async ({ page, baseURL }) => {
+  test('API errors say a stable code, not a minified class name', async ({ page, baseURL, playwright }) => {
     await signInAs(page, 'coordinator');
     const missing = await page.request.get('/api/patients/00000000-0000-4000-8000-000000000000');
     expect(missing.status()).toBe(404);
@@ -146,5 +148,16 @@ test.describe('headers and error bodies (item 12)', () => {
     const forbidden = await page.request.get('/api/team/members');
     expect((await forbidden.json()).error).toBe('forbidden');
     expect(forbidden.headers()['content-security-policy']).toContain("default-src 'none'");
+    // A path no API route serves: the same JSON error and deny-all policy, for any method, signed in or not.
+    for (const res of [
+      await page.request.get('/api/no-such-route'),
+      await page.request.delete('/api/cases/no/such/route', { headers: { Origin: originOf(baseURL) } }),
+      await (await playwright.request.newContext({ baseURL })).put('/api/nothing-here', { headers: { Origin: originOf(baseURL) } }),
+    ]) {
+      expect(res.status()).toBe(404);
+      expect((await res.json()).error).toBe('not_found');
+      expect(res.headers()['content-security-policy']).toBe("default-src 'none'; frame-ancestors 'none'");
+      expect((await res.headersArray()).filter((h) => h.name.toLowerCase() === 'content-security-policy')).toHaveLength(1);
+    }
   });
 });
