@@ -45,6 +45,7 @@ interface Row {
 
 const MATRIX: Row[] = [
   { route: 'api/health', method: 'GET', url: () => '/api/health', expect: everyone(200) },
+  { route: 'api/[...path]', method: 'GET', url: () => '/api/no-such-route', expect: everyone(404) },
   { route: 'api/auth/[...nextauth]', method: 'GET', url: () => '/api/auth/providers', expect: everyone(200) },
   { route: 'api/team/members', method: 'GET', url: () => '/api/team/members', expect: only({ admin: 200 }) },
   { route: 'api/team/members/[userId]', method: 'PATCH', url: () => `/api/team/members/${randomUUID()}`, body: { roles: ['clinician'] }, expect: only({ admin: 404 }) },
@@ -200,8 +201,8 @@ const CROSS: Row[] = [
   { route: 'api/cohort-exports/[id]/download', method: 'GET', url: (_, o) => `/api/cohort-exports/${o.exportId}/download?token=${o.exportId}.x.1.y`, expect: only({ researcher: 404 }) },
 ];
 
-/** Routes whose id is a signed token (the credential itself), not a record of a practice. */
-const NOT_PRACTICE_IDS = new Set(['api/auth/[...nextauth]', 'api/unsubscribe/[token]', 'api/upload/[token]', 'r/[token]', 'u/[token]', 'upload/[token]']);
+/** Routes whose id is a signed token (the credential itself) or a path no route serves, not a record of a practice. */
+const NOT_PRACTICE_IDS = new Set(['api/[...path]', 'api/auth/[...nextauth]', 'api/unsubscribe/[token]', 'api/upload/[token]', 'r/[token]', 'u/[token]', 'upload/[token]']);
 
 function routeFiles(dir: string, base = dir): string[] {
   return readdirSync(dir).flatMap((name) => {
