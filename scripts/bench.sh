@@ -31,7 +31,7 @@ if ((${#benches[@]} == 0)); then
   exit 1
 fi
 
-lamina_throwaway_env bench 55533 56480 52625 53100 LAMINA_TEST 45790
+lamina_throwaway_env bench 25533 26480 22625 23100 LAMINA_TEST 25790
 
 cleanup() {
   services_stop 2>/dev/null || true

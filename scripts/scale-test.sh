@@ -6,7 +6,7 @@
 #
 #   npm run scale-test [-- --short] [-- --reminders 2000 --kill-reminders 1000] [-- --workers-only]
 #
-# Ports as npm test chooses them (free from 55733 / 56680 / 52825 / 53300 / 45990; the web port is
+# Ports as npm test chooses them (free from 25733 / 26680 / 22825 / 23300 / 25990; the web port is
 # haproxy's), or fixed with LAMINA_TEST_*_PORT. Logs of a failed run go to test-results/scale-logs/.
 set -euo pipefail
 
@@ -14,7 +14,7 @@ cd "$(dirname "${BASH_SOURCE[0]}")/.."
 # shellcheck source=lib/services.sh
 source scripts/lib/services.sh
 
-lamina_throwaway_env scale 55733 56680 52825 53300 LAMINA_TEST 45990
+lamina_throwaway_env scale 25733 26680 22825 23300 LAMINA_TEST 25990
 
 cleanup() {
   local rc=$?

@@ -4,7 +4,8 @@
 #
 #   1. Debian packages and node_modules, if missing (side by side)
 #   2. PostgreSQL, Redis, the SMTP fake and the S3 fake in a temporary dir (removed at exit), on
-#      free ports near 55433 / 56380 / 52525 / 52526 / 45690 (web 53000); override with
+#      free ports near 25433 / 26380 / 22525 / 22526 / 25690 (web 23000), below the kernel's
+#      ephemeral ports (32768 and up), which outgoing connections take at any moment; override with
 #      LAMINA_TEST_*_PORT (…_PG_, _REDIS_, _SMTP_, _MAILBOX_, _WEB_, _S3_PORT)
 #   3. migrations, then vitest (all projects: unit, reference, integration)
 #   4. meanwhile, in the background (they need nothing from vitest): a second database for the e2e
@@ -24,7 +25,7 @@ cd "$(dirname "${BASH_SOURCE[0]}")/.."
 source scripts/lib/services.sh
 
 export CI=true
-lamina_throwaway_env test 55433 56380 52525 53000 LAMINA_TEST 45690
+lamina_throwaway_env test 25433 26380 22525 23000 LAMINA_TEST 25690
 TMP="$LAMINA_DATA"
 
 RESULTS="$TMP/results"

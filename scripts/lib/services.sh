@@ -141,7 +141,8 @@ pick_free_port() {
 # lamina_throwaway_env KIND PG REDIS SMTP WEB [OVERRIDES] [S3]: the set-up of npm test and npm run bench.
 # A new data dir /tmp/lamina-KIND.XXXXXX (LAMINA_DATA; the caller removes it), the test profile,
 # and for each service the first free port from its base (the mailbox's from the SMTP port + 1,
-# the S3 fake's from S3, default 45690). With OVERRIDES (npm test: LAMINA_TEST),
+# the S3 fake's from S3, default 25690). Bases lie below the kernel's ephemeral ports (Linux: 32768
+# and up): a port picked there can be taken by an outgoing connection before the service binds it. With OVERRIDES (npm test: LAMINA_TEST),
 # OVERRIDES_PG_PORT … OVERRIDES_WEB_PORT and OVERRIDES_S3_PORT are used as given when set. The database keeps the app's name: MikroORM writes
 # migrations/.snapshot-<db name>.json.
 lamina_throwaway_env() {
@@ -156,7 +157,7 @@ lamina_throwaway_env() {
       SMTP) base="$4" ;;
       MAILBOX) base=$((LAMINA_SMTP_PORT + 1)) ;;
       WEB) base="$5" ;;
-      S3) base="${7:-45690}" ;;
+      S3) base="${7:-25690}" ;;
     esac
     fixed=""
     if [[ -n "$overrides" ]]; then fixed="${overrides}_${name}_PORT"; fixed="${!fixed:-}"; fi

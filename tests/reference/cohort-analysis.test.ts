@@ -16,13 +16,13 @@
 import { execFileSync, spawnSync } from 'node:child_process';
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
-import { beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { pseudonym } from '@/lib/cohorts/deidentify';
 import { cutAt } from '@/lib/cohorts/archive';
 import { syntheticCohortRows } from '@/lib/demo/cohort-rows';
 import { healingObservation } from '@/lib/outcomes/cases';
 import { coxPH, kaplanMeier } from '@/lib/stats';
-import { exportInput, makeExport, parseCsv, SECRET, TODAY, type MadeExport } from '../support/cohort-archive';
+import { exportInput, makeExport, removeExports, parseCsv, SECRET, TODAY, type MadeExport } from '../support/cohort-archive';
 
 const ROWS = { rows: 2000, seed: 21 };
 const TIMES = [365, 731, 1461];
@@ -34,6 +34,7 @@ let R: Record<string, string>[] = [];
 let PY: Record<string, string>[] = [];
 let setupError: Error | null = null;
 
+afterAll(removeExports);
 beforeAll(async () => {
   made = await makeExport(exportInput(ROWS, { variables: ['kind', 'arch'], k: 5 }));
   try {

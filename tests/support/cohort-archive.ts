@@ -4,7 +4,7 @@
  * (LAMINA_APT_TEST), for the unit and reference tests.
  */
 import { execFileSync } from 'node:child_process';
-import { createWriteStream, mkdtempSync, readdirSync, readFileSync } from 'node:fs';
+import { createWriteStream, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import Papa from 'papaparse';
@@ -43,8 +43,16 @@ export function parseCsv(text: string): Record<string, string>[] {
   return r.data;
 }
 
+const madeDirs: string[] = [];
+
+/** Removes the directories `makeExport` made (call it in the test file's afterAll). */
+export function removeExports(): void {
+  for (const dir of madeDirs.splice(0)) rmSync(dir, { recursive: true, force: true });
+}
+
 export async function makeExport(input: CohortArchiveInput): Promise<MadeExport> {
   const dir = mkdtempSync(path.join(tmpdir(), 'lamina-cohort-test-'));
+  madeDirs.push(dir);
   const zipPath = path.join(dir, 'export.zip');
   const summary = await writeCohortArchive(input, createWriteStream(zipPath));
   const out = path.join(dir, 'x');

@@ -8,15 +8,16 @@ import { createHmac } from 'node:crypto';
 import { readdirSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { Writable } from 'node:stream';
-import { beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { COHORT_FILES, COHORT_VARIABLE_KEYS, writeCohortArchive, type CohortExportProgress } from '@/lib/cohorts';
 import { exportColumns } from '@/lib/cohorts/catalogue';
 import { ageBandCodes } from '@/lib/cohorts/deidentify';
 import { syntheticCohortRows, type PlantedIdentifiers } from '@/lib/demo/cohort-rows';
-import { exportInput, makeExport, SECRET, type MadeExport } from '../../support/cohort-archive';
+import { exportInput, makeExport, removeExports, SECRET, type MadeExport } from '../../support/cohort-archive';
 
 const ROWS = { rows: 1500, seed: 7, withIdentifiers: true };
 let made: MadeExport;
+afterAll(removeExports);
 beforeAll(async () => {
   made = await makeExport(exportInput(ROWS));
 }, 120_000);
