@@ -12,6 +12,8 @@ export interface RunnerCounts {
   skipped: number;
   /** Names of the failed tests (or files, or errors outside any test). */
   failures: string[];
+  /** Beside each failure, the first line of its message (cut short), or '' when there is none. */
+  reasons?: string[];
   /** Why a result was counted as a failure beyond the tests themselves. */
   notes: string[];
 }

@@ -37,13 +37,19 @@ export function detectKind(report) {
 }
 
 const MAX_NAMES = 25;
+const MAX_WHY = 300;
 const stripAnsi = (s) => String(s).replace(/\u001b\[[0-9;]*m/g, '');
 const firstLine = (s) => stripAnsi(s).split('\n').find((l) => l.trim()) ?? '';
+/** A failure's first message line, cut short: what CI's printed tail can tell of it. */
+const why = (s) => {
+  const line = firstLine(s ?? '').trim();
+  return line.length > MAX_WHY ? `${line.slice(0, MAX_WHY)}…` : line;
+};
 
 /** Counts of vitest's JSON report (jest-compatible shape). */
 export function countVitest(report, cwd = '') {
   const rel = (f) => (cwd && String(f).startsWith(cwd + '/') ? String(f).slice(cwd.length + 1) : String(f));
-  const out = { passed: 0, failed: 0, skipped: 0, failures: [], notes: [] };
+  const out = { passed: 0, failed: 0, skipped: 0, failures: [], reasons: [], notes: [] };
   for (const file of report.testResults ?? []) {
     let failedHere = 0;
     for (const a of file.assertionResults ?? []) {
@@ -52,12 +58,14 @@ export function countVitest(report, cwd = '') {
         out.failed += 1;
         failedHere += 1;
         out.failures.push(`${rel(file.name)} > ${a.fullName ?? a.title}`);
+        out.reasons.push(why(a.failureMessages?.[0]));
       } else out.skipped += 1;
     }
     // A file that failed as a whole (import error, failing hook) has no failed test of its own.
     if (file.status === 'failed' && failedHere === 0) {
       out.failed += 1;
       out.failures.push(`${rel(file.name)}: ${firstLine(file.message) || 'the file failed to run'}`);
+      out.reasons.push('');
     }
   }
   if (report.success === false && out.failed === 0) {
@@ -75,12 +83,16 @@ export function countPlaywright(report) {
     failed: s.unexpected ?? 0,
     skipped: s.skipped ?? 0,
     failures: [],
+    reasons: [],
     notes: [],
   };
   const walk = (suite, file) => {
     for (const spec of suite.specs ?? []) {
       for (const t of spec.tests ?? []) {
-        if (t.status === 'unexpected') out.failures.push(`${spec.file ?? file} › ${spec.title}${t.projectName ? ` [${t.projectName}]` : ''}`);
+        if (t.status !== 'unexpected') continue;
+        out.failures.push(`${spec.file ?? file} › ${spec.title}${t.projectName ? ` [${t.projectName}]` : ''}`);
+        const error = (t.results ?? []).map((r) => r.error ?? r.errors?.[0]).find(Boolean);
+        out.reasons.push(why(error?.message ?? error?.stack));
       }
     }
     for (const child of suite.suites ?? []) walk(child, suite.file ?? file);
@@ -90,6 +102,7 @@ export function countPlaywright(report) {
   for (const e of report.errors ?? []) {
     out.failed += 1;
     out.failures.push(`(outside any test) ${firstLine(e.message ?? e.stack ?? e)}`);
+    out.reasons.push('');
   }
   return out;
 }
@@ -156,7 +169,10 @@ export function formatSummary(summary) {
     const skipped = r.skipped ? `, ${r.skipped} skipped` : '';
     lines.push(`${r.name}: ${r.passed} passed, ${r.failed} failed${skipped}`);
     for (const n of r.notes) lines.push(`  ! ${n}`);
-    for (const f of r.failures.slice(0, MAX_NAMES)) lines.push(`  ✗ ${f}`);
+    for (const [i, f] of r.failures.slice(0, MAX_NAMES).entries()) {
+      lines.push(`  ✗ ${f}`);
+      if (r.reasons?.[i]) lines.push(`      ${r.reasons[i]}`);
+    }
     if (r.failures.length > MAX_NAMES) lines.push(`  … and ${r.failures.length - MAX_NAMES} more`);
   }
   for (const p of summary.problems) lines.push(`! ${p}`);

@@ -5,6 +5,7 @@ import Papa from 'papaparse';
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import type { Actor } from '@/lib/auth/actor';
 import { env } from '@/lib/env';
+import { setLogSink } from '@/lib/log/logger';
 import { errorResponse } from '@/lib/http';
 import { deriveLinkSecret, issueReplyToken } from '@/lib/recall/reply-token';
 import { templateCsv } from '@/lib/registry/csv';
@@ -426,6 +427,41 @@ function csvArbitrary(template: () => string): fc.Arbitrary<string> {
     });
 }
 
+/** The body of the last answer, and the last error the handler logged (said when it was a 5xx). */
+let lastBody = '';
+let lastLoggedError = '';
+setLogSink((line) => {
+  if (line.includes('"level":50')) lastLoggedError = line;
+  process.stdout.write(line);
+});
+afterAll(() => setLogSink(null));
+
+/** What a failing request's answer said: the start of its body and the error logged for it. */
+function answerSaid(): string {
+  let logged = '';
+  try {
+    if (lastLoggedError) logged = ` — logged ${JSON.stringify((JSON.parse(lastLoggedError) as { err?: unknown }).err).slice(0, 240)}`;
+  } catch {
+    logged = ` — logged ${lastLoggedError.slice(0, 240)}`;
+  }
+  return `${lastBody.slice(0, 160)}${logged}`;
+}
+
+/**
+ * fc.assert, its failure said in the first line of the error: the answer's status and the start of
+ * its body (a 503 "unavailable" and a 500 "internal" have different causes), which fast-check
+ * keeps in the error's cause, below a counterexample that may be a megabyte long.
+ */
+async function assertProperty<T>(property: fc.IAsyncProperty<T>): Promise<void> {
+  try {
+    await fc.assert(property, { numRuns: RUNS, endOnFailure: true });
+  } catch (e) {
+    const cause = (e as Error).cause;
+    const said = cause instanceof Error ? cause.message : String(e);
+    throw new Error(said.split('\n')[0]!.slice(0, 400), { cause: e });
+  }
+}
+
 const counts = new Map<string, { requests: number; statuses: Record<number, number> }>();
 function count(route: string, status: number) {
   const c = counts.get(route) ?? { requests: 0, statuses: {} };
@@ -448,8 +484,10 @@ async function send(fn: (req: Request, ctx: { params: Promise<unknown> }) => Pro
     },
     ...(r.body !== undefined && method !== 'GET' && method !== 'DELETE' ? { body: r.body } : {}),
   });
+  lastLoggedError = '';
   const res = await fn(req, { params: Promise.resolve(r.params) });
   const text = await res.text();
+  lastBody = text;
   let status = res.status;
   // The import's NDJSON stream reports a failure after it began in its last line.
   if (res.headers.get('content-type')?.includes('ndjson')) {
@@ -565,50 +603,51 @@ describe('fuzzed requests never answer 500 (issue 9 item 9)', async () => {
     }
     it(`${route}${SPECS[route] ? '' : ' (generic: no spec yet)'}`, async () => {
       const fn = (await load())[method] as (req: Request, ctx: { params: Promise<unknown> }) => Promise<Response>;
-      await fc.assert(
+      await assertProperty(
         fc.asyncProperty(requestArbitrary(spec, method), async (r) => {
           const status = await send(fn, route, method, r);
-          expect(status, `${method} ${route} answered ${status}`).toBeLessThan(500);
+          expect(status, `${method} ${route} answered ${status}: ${answerSaid()}`).toBeLessThan(500);
         }),
-        { numRuns: RUNS, endOnFailure: true },
       );
     });
   }
 
   it('the public reply form: a fuzzed note or answer never answers 500', async () => {
     const secret = deriveLinkSecret(env.NEXTAUTH_SECRET);
-    await fc.assert(
+    await assertProperty(
       fc.asyncProperty(fc.record({ note: nasty, answer: fc.oneof(fc.constantFrom('confirmed', 'another_time', 'declined'), nasty) }), async ({ note, answer }) => {
         const { token } = issueReplyToken({ visitId: ids.replyVisit! }, secret, new Date());
         const status = await statusOf(() => answerReply(services.em(), { token, answer, note }, { ip: '127.0.0.9', userAgent: 'fuzz' }));
         count('public reply form (answerReply)', status);
-        expect(status).toBeLessThan(500);
+        expect(status, `answerReply answered ${status}: ${answerSaid()}`).toBeLessThan(500);
       }),
-      { numRuns: RUNS, endOnFailure: true },
     );
   });
 
   it('the invitation form: a fuzzed name or token never answers 500', async () => {
-    await fc.assert(
+    await assertProperty(
       fc.asyncProperty(fc.record({ token: fc.oneof({ weight: 4, arbitrary: fc.constant(ids.invitationToken!) }, { weight: 1, arbitrary: nasty }), name: nasty }), async ({ token, name }) => {
         const status = await statusOf(() =>
           acceptInvitation(services.em(), { token, name, password: 'a-long-enough-passphrase', confirm: 'a-long-enough-passphrase' }, { ip: '127.0.0.9', userAgent: 'fuzz' }),
         );
         count('invitation form (acceptInvitation)', status);
-        expect(status).toBeLessThan(500);
+        expect(status, `acceptInvitation answered ${status}: ${answerSaid()}`).toBeLessThan(500);
       }),
-      { numRuns: RUNS, endOnFailure: true },
     );
   });
 });
 
 /** The status the edge would answer for a service call (errorResponse maps typed errors; anything else is 500). */
 async function statusOf(call: () => Promise<unknown>): Promise<number> {
+  lastLoggedError = '';
   try {
     await call();
+    lastBody = '';
     return 200;
   } catch (e) {
-    return errorResponse(e).status;
+    const answer = errorResponse(e);
+    lastBody = await answer.text();
+    return answer.status;
   }
 }
 

@@ -65,6 +65,17 @@ describe('reading reports', () => {
     ]);
   });
 
+  test('each failure carries the first line of its message, so a CI tail says why (a timeout, a status)', () => {
+    expect(countVitest(json('vitest-mixed.json'), '/repo').reasons).toEqual(['AssertionError: expected 1 to be 2 // Object.is equality', '']);
+    expect(countPlaywright(json('playwright-mixed.json')).reasons).toEqual(['Error: expect(locator).toHaveText(expected) failed']);
+    const long = { ...vitestPassing, success: false, testResults: [{ ...vitestPassing.testResults[0]!, status: 'failed', assertionResults: [{ fullName: 'a slow', title: 'slow', status: 'failed', failureMessages: [`Error: ${'x'.repeat(500)}\n    at somewhere`] }] }] };
+    const reason = countVitest(long).reasons![0]!;
+    expect(reason.length).toBeLessThanOrEqual(301);
+    expect(reason.startsWith('Error: xxx')).toBe(true);
+    const text = formatSummary(run([{ kind: 'runner', name: 'vitest', exitCode: 1, file: 'v.json' }], { 'v.json': long }));
+    expect(text.split('\n').slice(1, 3)).toEqual(['  ✗ tests/unit/a.test.ts > a slow', `      ${reason}`]);
+  });
+
   test('vitest: success=false with no failed test is still a failure', () => {
     const c = countVitest({ ...vitestPassing, success: false });
     expect(c.failed).toBe(1);
