@@ -246,8 +246,8 @@ const SPECS: Record<string, RouteSpec> = {
   'recall/mark/route.ts#POST': { body: () => ({ visitIds: [ids.visitMark!], status: 'missed', reason: 'no_show', note: 'Did not come.' }), fields: ['visitIds.0'] },
   'recall/policy/route.ts#GET': {},
   'recall/policy/route.ts#PUT': {
-    body: () => ({ steps: [{ step: 'invitation', offsetDays: -14 }] }),
-    fields: ['steps.0.offsetDays', 'steps.0.step', 'sendHour', 'timeZone'],
+    body: () => ({ invitationWeeksBefore: 3, secondInvitationAfterDays: 10, lastNoticeDaysAfterDue: 14, lostAfterUnansweredAttempts: 3 }),
+    fields: ['quietHours', 'quietHours.start', 'quietHours.end'],
   },
   'recall/queues/route.ts#GET': {},
   'recall/rate/route.ts#GET': { query: ['from', 'to', 'pending'] },
