@@ -5,6 +5,7 @@ import type { OutcomeCase } from '@/lib/outcomes';
 import { swapRows } from '@/lib/outcomes/swap';
 import { knexOf } from './registry-common';
 import { readKnex } from '@/lib/db-read';
+import { logger } from '@/lib/log/logger';
 
 /**
  * The outcomes area's rows, kept per practice between requests (issue 12, performance).
@@ -241,22 +242,45 @@ export const yieldToRequests = (): Promise<void> => new Promise((r) => setImmedi
  * read or a cold view. Returns how many views it computed.
  */
 export async function warmOutcomes(em: EntityManager, practiceId: string, reader: OutcomeReader, prepare?: PrepareRows): Promise<number> {
+  const t0 = performance.now();
   const readAt = Date.now();
   const version = await outcomesDataVersion(em, practiceId);
+  const before = lastRefresh;
   const { rows } = await rowsAt(em, practiceId, version, reader, readAt);
+  const refreshed = lastRefresh !== before ? lastRefresh : null;
   if (prepare) await prepare(em, practiceId, rows);
   const since = Date.now() - RECENT_MS;
   const mine = [...(recipes.get(practiceId) ?? new Map<string, Recipe>()).entries()].filter(([, r]) => r.at >= since).reverse();
   let computed = 0;
+  let viewsMs = 0;
+  let longestViewMs = 0;
   for (const [id, { compute }] of mine) {
     const k = `${practiceId}@${version}:${id}`;
     if (cache.get(practiceId)?.version !== version) break; // a newer version arrived: the next round warms it
     if (views.has(k)) continue;
     await yieldToRequests();
     if (views.has(k)) continue;
+    const v0 = performance.now();
     keptRecently(views, k, MAX_VIEWS, () => compute(rows));
+    const took = performance.now() - v0;
+    viewsMs += took;
+    longestViewMs = Math.max(longestViewMs, took);
     computed++;
   }
+  // One line a round, ids and timings only: what the load bench counts inside its timed window (a
+  // view is computed in one piece, holding up the instance's other requests for longestViewMs).
+  logger('web').info(
+    {
+      practiceId,
+      version,
+      refresh: refreshed ? { kind: refreshed.kind, reason: refreshed.reason, changedCases: refreshed.changedCases, ms: Math.round(refreshed.ms) } : null,
+      views: computed,
+      viewsMs: Math.round(viewsMs),
+      longestViewMs: Math.round(longestViewMs),
+      ms: Math.round(performance.now() - t0),
+    },
+    'outcomes warmed',
+  );
   return computed;
 }
 

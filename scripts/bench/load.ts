@@ -425,8 +425,10 @@ const statementsBefore = statementsWanted ? await readStatements(knex) : null;
 const cpuBefore = cpuSnapshot(processGroups());
 const loadBefore = load();
 const tl = performance.now();
+const loadFrom = Date.now();
 const results = await Promise.all(people.map((p) => instanceFor(p, PER_CONNECTION, stats)));
 const seconds = (performance.now() - tl) / 1000;
+const loadTo = Date.now();
 const loadAfter = load();
 const cpu = cpuBetween(cpuBefore, cpuSnapshot(processGroups()));
 const statements = statementsBefore ? topStatements(statementsBefore, await readStatements(knex), 20) : null;
@@ -468,7 +470,28 @@ console.log(
   `CPU during the load (${(seconds * os.cpus().length).toFixed(0)} core-seconds in ${seconds.toFixed(1)} s): ` +
     cpu.map(([group, ms]) => `${group} ${(ms / 1000).toFixed(1)} s (${(ms / answered).toFixed(1)} ms a request)`).join(', '),
 );
+console.log(warmRoundsDuring(loadFrom, loadTo));
 if (statements) console.log(`\nPostgreSQL statements during the load (pg_stat_statements), by total time:\n${statements}`);
+
+/**
+ * The outcomes warmer's rounds that ended inside the timed window (the web server logs one line a
+ * round, lib/services/outcomes-cache.ts): each computes the recently asked views again on new rows,
+ * a view at a time in one piece, during which the instance answers nothing else.
+ */
+function warmRoundsDuring(from: number, to: number): string {
+  const rounds = fs
+    .readFileSync(logFile, 'utf8')
+    .split('\n')
+    .filter((line) => line.includes('"msg":"outcomes warmed"'))
+    .map((line) => JSON.parse(line) as { time: string; views: number; viewsMs: number; longestViewMs: number; ms: number; refresh: { kind: string; changedCases: number; ms: number } | null })
+    .filter((r) => Date.parse(r.time) >= from && Date.parse(r.time) <= to);
+  if (!rounds.length) return 'outcomes warmer: no round ended during the timed load';
+  const sum = (f: (r: (typeof rounds)[number]) => number) => rounds.reduce((a, r) => a + f(r), 0);
+  return (
+    `outcomes warmer: ${rounds.length} round(s) ended during the timed load: ${sum((r) => r.views)} views computed again in ${sum((r) => r.viewsMs)} ms ` +
+    `(longest ${Math.max(...rounds.map((r) => r.longestViewMs))} ms in one piece), rows refreshed ${rounds.filter((r) => r.refresh).map((r) => `${r.refresh!.kind} ${r.refresh!.changedCases} cases ${r.refresh!.ms} ms`).join(', ') || 'not at all'}`
+  );
+}
 
 // --- clean up ------------------------------------------------------------------------------------------------------
 await cleanUp();
