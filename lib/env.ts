@@ -78,6 +78,12 @@ export const EnvSchema = z
      * background. 0: always current (the tests, which read right after writing).
      */
     OUTCOMES_MAX_LAG_MS: z.coerce.number().int().min(0).max(600_000).default(60_000),
+    /**
+     * How long the recall desk's queue counts are kept (lib/services/desk-counts.ts): changes made
+     * elsewhere show within this many ms; the desk's own actions show at once. 0: never kept (the
+     * tests, which count right after writing).
+     */
+    DESK_COUNTS_MAX_AGE_MS: z.coerce.number().int().min(0).max(60_000).default(5_000),
   })
   .transform((e, ctx) => {
     // `next build` evaluates modules without the runtime secret; the running server must have one.

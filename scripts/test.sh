@@ -244,6 +244,9 @@ main() {
   # The tests read outcomes right after writing: no lag (lib/env.ts OUTCOMES_MAX_LAG_MS; its own test
   # in tests/integration/outcomes-refresh.test.ts).
   export OUTCOMES_MAX_LAG_MS=0
+  # …and count the desk's queues right after writing (lib/env.ts DESK_COUNTS_MAX_AGE_MS; kept counts:
+  # tests/unit/recall/kept-counts.test.ts and tests/integration/recall-desk.test.ts).
+  export DESK_COUNTS_MAX_AGE_MS=0
   lamina_log "ports: web $LAMINA_WEB_PORT, PostgreSQL $LAMINA_PG_PORT, Redis $LAMINA_REDIS_PORT, SMTP $LAMINA_SMTP_PORT, mailbox $LAMINA_MAILBOX_PORT, S3 $LAMINA_S3_PORT; data $TMP"
 
   step "start services" services_start

@@ -10,6 +10,7 @@ import { parseInput } from './parse';
 import { iso, logContact, recallSettings, visitsOfPractice } from './recall-common';
 import { deskRowsByIds, type DeskRow } from './recall-desk';
 import { assertId, knexOf } from './registry-common';
+import { afterDeskAction } from './desk-counts';
 
 /** The contact log of one recall visit, and the call notes the desk adds to it. */
 
@@ -149,7 +150,7 @@ export const CallNoteInput = z.object({
 });
 
 /** Adds a call note to a visit's contact log; it clears a delivery-failed flag. Returns the log. */
-export async function addCallNote(em: EntityManager, actor: Actor, visitId: string, raw: unknown): Promise<ContactLogView> {
+export const addCallNote = afterDeskAction(async (em: EntityManager, actor: Actor, visitId: string, raw: unknown): Promise<ContactLogView> => {
   assertCan(actor, 'recall.manage');
   const id = assertId(visitId, 'visit');
   const input = parseInput(CallNoteInput, raw);
@@ -160,4 +161,4 @@ export async function addCallNote(em: EntityManager, actor: Actor, visitId: stri
   });
   await audit(em, actor, { action: 'recall.call_noted', entityType: 'visit', entityId: id, detail: { reached: input.reached } });
   return listContactLog(em, actor, id);
-}
+});

@@ -26,6 +26,7 @@ import {
 import { addDaysTo, daysInMonth } from '@/lib/registry/calendar-date';
 import { Paging } from '@/lib/schemas/paging';
 import { DESK_QUEUES, type DeskQueue } from '@/lib/recall/desk-address';
+import { afterDeskAction, keptDeskCounts } from './desk-counts';
 import { formatTooth, toothNotationLabel } from '@/lib/teeth';
 import type { ReminderStatus } from '@/entities';
 import { audit, auditRead } from './audit';
@@ -198,18 +199,22 @@ const ClinicianFilter = z.preprocess(
 );
 export const DeskQueuesQuery = z.object({ clinician: ClinicianFilter });
 
-/** The desk's queues and views with their counts, optionally for one clinician's cases. */
-export async function deskQueues(em: EntityManager, actor: Actor, raw: unknown = {}): Promise<DeskQueues> {
+/**
+ * The desk's queues and views with their counts, optionally for one clinician's cases. The counts are
+ * kept for `o.maxAgeMs` (default DESK_COUNTS_MAX_AGE_MS; lib/services/desk-counts.ts).
+ */
+export async function deskQueues(em: EntityManager, actor: Actor, raw: unknown = {}, o: { maxAgeMs?: number } = {}): Promise<DeskQueues> {
   assertCan(actor, 'recall.manage');
   const q = parseInput(DeskQueuesQuery, raw);
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
   // One statement, a count per queue: each reads only its own visits from the desk index or, for
-  // "this month", the due-date index; no other table but the patient for "to call".
-  const row = (await knex.first(Object.fromEntries(DESK_QUEUES.map((key) => [key, queueVisits(knex, s, key, q.clinician).count('*')])))) as
-    | Partial<Record<DeskQueue, string>>
-    | undefined;
-  const counts = row ?? {};
+  // "this month", the due-date index; no other table but the patient for "to call". Kept a few
+  // seconds (lib/services/desk-counts.ts).
+  const counts: Partial<Record<DeskQueue, string>> = await keptDeskCounts(actor.practiceId, `${s.today}|${q.clinician ?? ''}`, async () =>
+    (((await knex.first(Object.fromEntries(DESK_QUEUES.map((key) => [key, queueVisits(knex, s, key, q.clinician).count('*')])))) as Partial<Record<DeskQueue, string>> | undefined) ?? {}),
+    o.maxAgeMs,
+  );
   await auditRead(em, actor, { action: 'recall.queues_read', ...(q.clinician ? { detail: { clinician: q.clinician } } : {}) });
   return {
     today: s.today,
@@ -439,7 +444,7 @@ function nothingToSend(v: DeskVisit, today: string): string {
  * one message). Unknown ids → 404 and nothing queued; visits with nothing to send are reported,
  * not errors.
  */
-export async function sendRemindersNow(em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> {
+export const sendRemindersNow = afterDeskAction(async (em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> => {
   assertCan(actor, 'recall.manage');
   const input = parseInput(SendNowInput, raw);
   const s = await recallSettings(em, actor.practiceId);
@@ -540,7 +545,7 @@ export async function sendRemindersNow(em: EntityManager, actor: Actor, raw: unk
     detail: { visitIds: input.visitIds, queued: results.filter((r) => r.ok).map((r) => ({ visitId: r.visitId, step: r.step })), deferred },
   });
   return deferred ? { results, deferred } : { results };
-}
+});
 
 export const BookInput = z.object({
   visitIds: VisitIds,
@@ -565,7 +570,7 @@ export const BookInput = z.object({
  * (allowed from planned, invited, confirmed, missed and declined). Either way a contact-log entry
  * is written and a delivery-failed flag is cleared.
  */
-export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> {
+export const bookVisits = afterDeskAction(async (em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> => {
   assertCan(actor, 'recall.manage');
   const input = parseInput(BookInput, raw);
   const start = new Date(input.start);
@@ -643,7 +648,7 @@ export async function bookVisits(em: EntityManager, actor: Actor, raw: unknown):
     }
   }
   return deferred ? { results, deferred } : { results };
-}
+});
 
 export const MarkInput = z
   .object({
@@ -664,7 +669,7 @@ export const MarkInput = z
  * visit that may not make the move is reported with the rule's message and left as it is). A
  * status-change entry goes to each contact log; a delivery-failed flag is cleared.
  */
-export async function markVisits(em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> {
+export const markVisits = afterDeskAction(async (em: EntityManager, actor: Actor, raw: unknown): Promise<ActionResponse> => {
   assertCan(actor, 'recall.manage');
   const input = parseInput(MarkInput, raw);
   const s = await recallSettings(em, actor.practiceId);
@@ -703,7 +708,7 @@ export async function markVisits(em: EntityManager, actor: Actor, raw: unknown):
   });
   await audit(em, actor, { action: 'recall.marked', detail: { status: input.status, ...(input.reason ? { reason: input.reason } : {}), visitIds: results.filter((r) => r.ok).map((r) => r.visitId) } });
   return { results };
-}
+});
 
 // --- the printable call list ------------------------------------------------------------------------
 

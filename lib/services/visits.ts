@@ -27,6 +27,7 @@ import { audit, auditRead } from './audit';
 import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
 import { assertId, findCase, knexOf, practiceSettings, todayIn } from './registry-common';
+import { afterDeskAction } from './desk-counts';
 
 export interface VisitView {
   id: string;
@@ -103,7 +104,7 @@ export async function listVisits(em: EntityManager, actor: Actor, caseId: string
  * date or note. Status 'closed' closes it as lost to follow-up (see closeVisitAsLost). Every status
  * change goes to the visit's contact log. Returns the case's visits after the change.
  */
-export async function updateVisit(em: EntityManager, actor: Actor, visitId: string, raw: unknown): Promise<VisitView[]> {
+export const updateVisit = afterDeskAction(async (em: EntityManager, actor: Actor, visitId: string, raw: unknown): Promise<VisitView[]> => {
   assertCan(actor, 'recall.manage');
   const visit = await findVisit(em, actor, visitId);
   const input = parseInput(VisitUpdateSchema, raw);
@@ -142,7 +143,7 @@ export async function updateVisit(em: EntityManager, actor: Actor, visitId: stri
     await audit(em, actor, { action: 'visit.updated', entityType: 'visit', entityId: visit.id, detail: { caseId: visit.case.id, ...changes } });
   }
   return visitViews(em, visits, today);
-}
+});
 
 /**
  * Closes a visit as lost to follow-up — the practice stops trying — together with the case's

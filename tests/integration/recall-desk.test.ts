@@ -254,6 +254,29 @@ describe('queues of issue 10', () => {
     await expect(listDeskRows(services.em(), w.coordinator, { queue: 'due_soon', clinician: 'someone' })).rejects.toBeInstanceOf(ValidationError);
   });
 
+  it('kept counts (issue 15, load): a change made elsewhere shows once they are older than their age; a desk action shows at once', async () => {
+    const w = await desk();
+    const KEEP = { maxAgeMs: 60_000 };
+    const kept = async (filter: { clinician?: string } = {}) => Object.fromEntries((await deskQueues(services.em(), w.coordinator, filter, KEEP)).queues.map((q) => [q.key, q.count]));
+    const fresh = async (filter: { clinician?: string } = {}) => Object.fromEntries((await deskQueues(services.em(), w.coordinator, filter, { maxAgeMs: 0 })).queues.map((q) => [q.key, q.count]));
+    const before = await kept();
+    expect(before).toMatchObject({ due_soon: 3, delivery_failed: 1 });
+    // as the worker would: a delivery fails (no desk action through this process)
+    await knex()('recall_visit').where({ id: w.id(0) }).update({ delivery_failed_at: new Date() });
+    expect(await kept()).toEqual(before);
+    expect(await fresh()).toEqual({ ...before, delivery_failed: 2 });
+    // another clinician filter is counted on its own
+    expect(await kept({ clinician: w.clinician2.userId })).toMatchObject({ due_soon: 0, delivery_failed: 0 });
+    // a desk action forgets the practice's kept counts: the next count is current
+    await markVisits(services.em(), w.coordinator, { visitIds: [w.id(3)], status: 'attended' });
+    const after = await kept();
+    expect(after).toEqual(await fresh());
+    expect(after).toMatchObject({ delivery_failed: 2 });
+    // so does a call note (it clears the delivery-failed flag)
+    await addCallNote(services.em(), w.coordinator, w.id(0), { note: 'Rang: the address had a typo.', reached: true });
+    expect(await kept()).toMatchObject({ delivery_failed: 1 });
+  });
+
   it('bulk-action results name the patient and the visit on each line', async () => {
     const w = await desk();
     const r = await markVisits(services.em(), w.coordinator, { visitIds: [w.id(0), w.id(6)], status: 'missed', reason: 'no_show' });

@@ -1,0 +1,38 @@
+import 'server-only';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import type { Actor } from '@/lib/auth/actor';
+import { env } from '@/lib/env';
+import { makeCountKeeper } from '@/lib/recall/kept-counts';
+
+/**
+ * The recall desk's queue counts, kept per practice, clinician filter and day for
+ * DESK_COUNTS_MAX_AGE_MS (lib/env.ts; issue 15, load). Changes made elsewhere (the worker's
+ * deliveries, patients' replies, the registry, another web instance) show within that age; a desk
+ * action through this instance (send, book, mark, a call note, a visit's edit: `afterDeskAction`)
+ * forgets its practice's counts at once, so the coordinator who acted sees the new figures.
+ */
+const keeper = makeCountKeeper<Record<string, string | number>>(256);
+
+export function keptDeskCounts<T extends Record<string, string | number>>(
+  practiceId: string,
+  key: string,
+  count: () => Promise<T>,
+  maxAgeMs: number = env.DESK_COUNTS_MAX_AGE_MS,
+): Promise<T> {
+  return keeper.read(practiceId, key, maxAgeMs, Date.now, count) as Promise<T>;
+}
+
+export function forgetDeskCounts(practiceId: string): void {
+  keeper.forget(practiceId, Date.now());
+}
+
+/** A desk action that forgets its practice's kept counts once it is done (its writes committed), failed or not. */
+export function afterDeskAction<A extends unknown[], R>(fn: (em: EntityManager, actor: Actor, ...rest: A) => Promise<R>) {
+  return async (em: EntityManager, actor: Actor, ...rest: A): Promise<R> => {
+    try {
+      return await fn(em, actor, ...rest);
+    } finally {
+      forgetDeskCounts(actor.practiceId);
+    }
+  };
+}
