@@ -9,6 +9,8 @@
  * `maxAgeMs` 0 nothing is kept. At most `max` figures are kept, the least recently used going first.
  * Pure apart from its own map; the clock is passed in.
  */
+import { keepRecent } from '@/lib/kept-recently';
+
 export interface CountKeeper<T> {
   read(group: string, key: string, maxAgeMs: number, now: () => number, compute: () => Promise<T>): Promise<T>;
   forget(group: string, now: number): void;
@@ -23,17 +25,9 @@ export function makeCountKeeper<T>(max: number): CountKeeper<T> {
       const id = `${group}\u0000${key}`;
       const started = now();
       const hit = kept.get(id);
-      if (hit && started - hit.at < maxAgeMs) {
-        kept.delete(id);
-        kept.set(id, hit);
-        return hit.value;
-      }
+      if (hit && started - hit.at < maxAgeMs) return keepRecent(kept, id, hit, max).value;
       const value = await compute();
-      if (maxAgeMs > 0 && started > (forgotten.get(group) ?? -Infinity)) {
-        kept.delete(id);
-        kept.set(id, { group, at: started, value });
-        while (kept.size > max) kept.delete(kept.keys().next().value!);
-      }
+      if (maxAgeMs > 0 && started > (forgotten.get(group) ?? -Infinity)) keepRecent(kept, id, { group, at: started, value }, max);
       return value;
     },
     forget(group, now) {

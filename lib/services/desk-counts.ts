@@ -3,6 +3,7 @@ import type { EntityManager } from '@mikro-orm/postgresql';
 import type { Actor } from '@/lib/auth/actor';
 import { env } from '@/lib/env';
 import { makeCountKeeper } from '@/lib/recall/kept-counts';
+import type { DeskQueue } from '@/lib/recall/desk-address';
 
 /**
  * The recall desk's queue counts, kept per practice, clinician filter and day for
@@ -11,19 +12,11 @@ import { makeCountKeeper } from '@/lib/recall/kept-counts';
  * action through this instance (send, book, mark, a call note, a visit's edit: `afterDeskAction`)
  * forgets its practice's counts at once, so the coordinator who acted sees the new figures.
  */
-const keeper = makeCountKeeper<Record<string, string | number>>(256);
+export type DeskCounts = Partial<Record<DeskQueue, string>>;
+const keeper = makeCountKeeper<DeskCounts>(256);
 
-export function keptDeskCounts<T extends Record<string, string | number>>(
-  practiceId: string,
-  key: string,
-  count: () => Promise<T>,
-  maxAgeMs: number = env.DESK_COUNTS_MAX_AGE_MS,
-): Promise<T> {
-  return keeper.read(practiceId, key, maxAgeMs, Date.now, count) as Promise<T>;
-}
-
-export function forgetDeskCounts(practiceId: string): void {
-  keeper.forget(practiceId, Date.now());
+export function keptDeskCounts(practiceId: string, key: string, count: () => Promise<DeskCounts>, maxAgeMs: number = env.DESK_COUNTS_MAX_AGE_MS): Promise<DeskCounts> {
+  return keeper.read(practiceId, key, maxAgeMs, Date.now, count);
 }
 
 /** A desk action that forgets its practice's kept counts once it is done (its writes committed), failed or not. */
@@ -32,7 +25,7 @@ export function afterDeskAction<A extends unknown[], R>(fn: (em: EntityManager, 
     try {
       return await fn(em, actor, ...rest);
     } finally {
-      forgetDeskCounts(actor.practiceId);
+      keeper.forget(actor.practiceId, Date.now());
     }
   };
 }

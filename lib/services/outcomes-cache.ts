@@ -6,6 +6,7 @@ import { swapRows } from '@/lib/outcomes/swap';
 import { knexOf } from './registry-common';
 import { readKnex } from '@/lib/db-read';
 import { logger } from '@/lib/log/logger';
+import { keepRecent, keptRecently } from '@/lib/kept-recently';
 
 /**
  * The outcomes area's rows, kept per practice between requests (issue 12, performance).
@@ -115,11 +116,7 @@ export async function cachedOutcomeCases(
 /** The rows at `version` (read from the database at `readAt`). */
 function rowsAt(em: EntityManager, practiceId: string, version: string, reader: OutcomeReader, readAt: number): Promise<Entry> | Entry {
   const hit = cache.get(practiceId);
-  if (hit && hit.version === version) {
-    cache.delete(practiceId); // most recently used last
-    cache.set(practiceId, hit);
-    return hit;
-  }
+  if (hit && hit.version === version) return keepRecent(cache, practiceId, hit, MAX_PRACTICES);
   const key = `${practiceId}@${version}`;
   let pending = reading.get(key);
   if (!pending) {
@@ -128,11 +125,7 @@ function rowsAt(em: EntityManager, practiceId: string, version: string, reader: 
         const entry = { version, rows, readAt };
         const current = cache.get(practiceId);
         // a slower read of an older version never replaces a newer one
-        if (!current || BigInt(current.version) <= BigInt(version)) {
-          cache.delete(practiceId);
-          cache.set(practiceId, entry);
-          while (cache.size > MAX_PRACTICES) cache.delete(cache.keys().next().value!);
-        }
+        if (!current || BigInt(current.version) <= BigInt(version)) keepRecent(cache, practiceId, entry, MAX_PRACTICES);
         return entry;
       })
       .finally(() => reading.delete(key));
@@ -202,27 +195,8 @@ export function memoView<T>(practiceId: string, version: string, key: readonly u
   const id = JSON.stringify(key);
   let mine = recipes.get(practiceId);
   if (!mine) recipes.set(practiceId, (mine = new Map()));
-  mine.delete(id);
-  mine.set(id, { compute, at: Date.now() });
-  while (mine.size > MAX_RECIPES) mine.delete(mine.keys().next().value!);
+  keepRecent(mine, id, { compute, at: Date.now() }, MAX_RECIPES);
   return keptRecently(views, `${practiceId}@${version}:${id}`, MAX_VIEWS, () => compute(rows)) as T;
-}
-
-/**
- * `map`'s value at `key`, made by `make` when there is none, now the most recently used entry; beyond
- * `max` entries the least recently used go (a Map keeps insertion order).
- */
-export function keptRecently<K, V>(map: Map<K, V>, key: K, max: number, make: () => V): V {
-  if (map.has(key)) {
-    const v = map.get(key) as V;
-    map.delete(key);
-    map.set(key, v);
-    return v;
-  }
-  const v = make();
-  map.set(key, v);
-  while (map.size > max) map.delete(map.keys().next().value!);
-  return v;
 }
 
 /**

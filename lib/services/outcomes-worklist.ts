@@ -1,6 +1,7 @@
 import 'server-only';
 import { createHash } from 'node:crypto';
-import { keptRecently, type DataAsOf } from './outcomes-cache';
+import type { DataAsOf } from './outcomes-cache';
+import { keptRecently } from '@/lib/kept-recently';
 import type { EntityManager, Knex } from '@mikro-orm/postgresql';
 import { z } from 'zod';
 import { CaseDecisionSchema, RecallVisitSchema, TreatmentCaseSchema, type CaseDecision } from '@/entities';

@@ -26,7 +26,7 @@ import {
 import { addDaysTo, daysInMonth } from '@/lib/registry/calendar-date';
 import { Paging } from '@/lib/schemas/paging';
 import { DESK_QUEUES, type DeskQueue } from '@/lib/recall/desk-address';
-import { afterDeskAction, keptDeskCounts } from './desk-counts';
+import { afterDeskAction, keptDeskCounts, type DeskCounts } from './desk-counts';
 import { formatTooth, toothNotationLabel } from '@/lib/teeth';
 import type { ReminderStatus } from '@/entities';
 import { audit, auditRead } from './audit';
@@ -211,8 +211,10 @@ export async function deskQueues(em: EntityManager, actor: Actor, raw: unknown =
   // One statement, a count per queue: each reads only its own visits from the desk index or, for
   // "this month", the due-date index; no other table but the patient for "to call". Kept a few
   // seconds (lib/services/desk-counts.ts).
-  const counts: Partial<Record<DeskQueue, string>> = await keptDeskCounts(actor.practiceId, `${s.today}|${q.clinician ?? ''}`, async () =>
-    (((await knex.first(Object.fromEntries(DESK_QUEUES.map((key) => [key, queueVisits(knex, s, key, q.clinician).count('*')])))) as Partial<Record<DeskQueue, string>> | undefined) ?? {}),
+  const counts = await keptDeskCounts(
+    actor.practiceId,
+    `${s.today}|${q.clinician ?? ''}`,
+    async () => ((await knex.first(Object.fromEntries(DESK_QUEUES.map((key) => [key, queueVisits(knex, s, key, q.clinician).count('*')])))) as DeskCounts | undefined) ?? {},
     o.maxAgeMs,
   );
   await auditRead(em, actor, { action: 'recall.queues_read', ...(q.clinician ? { detail: { clinician: q.clinician } } : {}) });
