@@ -10,6 +10,7 @@ import { FilmReadingSchema } from './FilmReading';
 import { ImportMappingSchema } from './ImportMapping';
 import { InvitationSchema } from './Invitation';
 import { MembershipSchema } from './Membership';
+import { CaseListVersionSchema } from './CaseListVersion';
 import { OutcomesDataChangeSchema } from './OutcomesDataChange';
 import { OutcomesDataVersionSchema } from './OutcomesDataVersion';
 import { PatientSchema } from './Patient';
@@ -44,6 +45,7 @@ export const entities = [
   CaseDecisionSchema,
   OutcomesDataVersionSchema,
   OutcomesDataChangeSchema,
+  CaseListVersionSchema,
   FilmSchema,
   ImportMappingSchema,
   CohortSchema,
@@ -57,6 +59,7 @@ export const entities = [
 
 export * from './AuditEvent';
 export * from './CaseDecision';
+export * from './CaseListVersion';
 export * from './Cohort';
 export * from './CohortExport';
 export * from './CohortVersion';

@@ -24,6 +24,7 @@ import { Migration20261202230000 } from './Migration20261202230000';
 import { Migration20261203130022 } from './Migration20261203130022';
 import { Migration20261203170000 } from './Migration20261203170000';
 import { Migration20261203230000 } from './Migration20261203230000';
+import { Migration20261204120000 } from './Migration20261204120000';
 
 export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261201221639', class: Migration20261201221639 },
@@ -47,4 +48,5 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261203130022', class: Migration20261203130022 },
   { name: 'Migration20261203170000', class: Migration20261203170000 },
   { name: 'Migration20261203230000', class: Migration20261203230000 },
+  { name: 'Migration20261204120000', class: Migration20261204120000 },
 ];

@@ -10,6 +10,7 @@ import { CASE_KINDS, CASE_KIND_LABELS, type CaseKind } from '@/lib/schemas/case'
 import { VISIT_STATUSES, VISIT_STATUS_LABELS, type VisitStatus } from '@/lib/recall';
 import { currentOutcome, type FillLengthClass, type ReviewOutcome } from '@/lib/scoring';
 import { TOOTH_GROUPS, formatTooth, toothInfo, toothNotationLabel, type ToothGroup, type ToothNotation } from '@/lib/teeth';
+import { makeTotalsKeeper } from '@/lib/registry/kept-totals';
 import { auditRead } from './audit';
 import { parseInput } from './parse';
 import {
@@ -103,6 +104,9 @@ const SORT_COLUMNS: Record<CaseSort, string[]> = {
   createdAt: ['c.created_at'],
 };
 
+/** A filter on the visits' due dates (with or without their statuses): answered from the visits. */
+const filtersByVisitDates = (f: CaseListFilters) => Boolean(f.dueFrom || f.dueTo);
+
 /** Builds the filtered (unsorted, unpaged) case query; shared by the list and the count. */
 export function caseListQuery(knex: Knex, practiceId: string, f: CaseListFilters): Knex.QueryBuilder {
   const b = whereArchived(knex('treatment_case as c').where('c.practice_id', practiceId), 'c.archived_at', f.archived);
@@ -116,11 +120,11 @@ export function caseListQuery(knex: Knex, practiceId: string, f: CaseListFilters
   if (f.fillLength) b.whereIn('c.fill_length_class', f.fillLength);
   if (f.completedFrom) b.where('c.completion_date', '>=', f.completedFrom);
   if (f.completedTo) b.where('c.completion_date', '<=', f.completedTo);
-  if (f.visitStatus && !f.dueFrom && !f.dueTo) {
+  if (f.visitStatus && !filtersByVisitDates(f)) {
     // The case's own summary of its visit statuses (kept by the trigger on recall_visit): an
     // index-only scan of the working-list index, no join.
     b.whereRaw(`c.visit_statuses && array[${f.visitStatus.map(() => '?').join(', ')}]::text[]`, f.visitStatus);
-  } else if (f.visitStatus || f.dueFrom || f.dueTo) {
+  } else if (filtersByVisitDates(f)) {
     b.whereExists(function (this: Knex.QueryBuilder) {
       this.select(knex.raw('1')).from('recall_visit as v').whereRaw('v.case_id = c.id').andWhere('v.practice_id', practiceId);
       if (f.visitStatus) this.whereIn('v.status', f.visitStatus);
@@ -183,16 +187,38 @@ export async function queryCases(em: EntityManager, practiceId: string, f: CaseL
   // The practice condition on the patient lets PostgreSQL walk the patient name index in order.
   if (needsPatientJoinForSort) pageQuery.join('patient as p', (j) => j.on('p.id', 'c.patient_id').andOnVal('p.practice_id', practiceId));
   if (needsUserJoinForSort) pageQuery.join('app_user as u', 'u.id', 'c.operator_id');
-  pageQuery
-    .orderBy(order)
-    .limit(f.pageSize)
-    .offset(pageOffset(f));
-  const [countRows, idRows] = await Promise.all([base.clone().count<{ n: string }[]>('* as n'), pageQuery]);
-  const ids = idRows.map((r: { id: string }) => r.id);
+  let ids: string[];
+  let total: number;
+  if (filtersByVisitDates(f)) {
+    // Filtered by the visits' due dates: the matching cases come from those visits (a hash semi-join
+    // of a few thousand at most), so they are read once (a materialized CTE), then counted and sorted
+    // for the page. Side by side, the count read them and the page walked the practice's cases in
+    // order probing each one's visits (tens of ms each at 100,000 cases).
+    const columns = SORT_COLUMNS[f.sort];
+    pageQuery.select(columns.map((c, i) => knex.raw(`${c} as s${i}`)));
+    const rows = (await knex
+      .withMaterialized('matching', pageQuery)
+      .from('matching')
+      .select('id', knex.raw('(select count(*) from matching) as total'))
+      .orderBy([...columns.map((_, i) => `s${i}`), 'id'].map((column) => ({ column, order: f.dir })))
+      .limit(f.pageSize)
+      .offset(pageOffset(f))) as { id: string; total: string }[];
+    ids = rows.map((r) => r.id);
+    // A page past the end has no row to carry the total: counted apart (rare).
+    total = rows.length ? Number(rows[0]!.total) : f.page > 1 ? Number((await base.clone().count<{ n: string }[]>('* as n'))[0]?.n ?? 0) : 0;
+  } else {
+    pageQuery
+      .orderBy(order)
+      .limit(f.pageSize)
+      .offset(pageOffset(f));
+    const [counted, idRows] = await Promise.all([caseListTotal(knex, practiceId, f, base), pageQuery]);
+    ids = idRows.map((r: { id: string }) => r.id);
+    total = counted;
+  }
   const rows = ids.length ? await caseRowsByIds(em, ids, notation) : [];
   return {
     rows,
-    total: Number(countRows[0]?.n ?? 0),
+    total,
     page: f.page,
     pageSize: f.pageSize,
     notation,
@@ -200,6 +226,18 @@ export async function queryCases(em: EntityManager, practiceId: string, f: CaseL
     sort: f.sort,
     dir: f.dir,
   };
+}
+
+const totals = makeTotalsKeeper(512);
+
+/**
+ * The number of cases `f` matches, kept per practice, filters and case-list version
+ * (lib/registry/kept-totals.ts): exact, and counted again only after a change to the practice's
+ * cases, visits or patients. The version is read first, so a total is never older than its version.
+ */
+async function caseListTotal(knex: Knex, practiceId: string, f: CaseListFilters, base: Knex.QueryBuilder): Promise<number> {
+  const row = (await knex('case_list_version').where('practice_id', practiceId).first('version')) as { version: string | number } | undefined;
+  return totals.total(practiceId, String(row?.version ?? 0), f, async () => Number((await base.clone().count<{ n: string }[]>('* as n'))[0]?.n ?? 0));
 }
 
 /** List rows for the given case ids, in that order. */

@@ -2,6 +2,7 @@ import { afterAll, beforeEach, describe, expect, it } from 'vitest';
 import { AuditEventSchema, PracticeSchema, RecallVisitSchema, ReviewSchema, TreatmentCaseSchema } from '@/entities';
 import { addMonthsClamped, addDaysTo, daysBetween } from '@/lib/registry/calendar-date';
 import { archiveCase, createCase, getCase, listCases, listClinicians, updateCase } from '@/lib/services/cases';
+import { CASE_SORTS, CaseListQuery, caseListQuery, type CaseSort } from '@/lib/services/cases-list';
 import { ConflictError, ForbiddenError, ValidationError } from '@/lib/services/errors';
 import { archivePatient, createPatient, getPatient, listPatients, updatePatient } from '@/lib/services/patients';
 import { createReferrer, listReferrers } from '@/lib/services/referrers';
@@ -279,6 +280,82 @@ describe('patients, cases and the list', () => {
     expect(await ids({ archived: 'only' })).toEqual([c1.id]);
     expect((await listClinicians(services.em(), a.coordinator)).map((u) => u.email).sort()).toEqual(['cal@alder.test', 'cleo@alder.test']);
     expect((await listReferrers(services.em(), a.clinician, { q: 'harbour' })).rows.map((r) => r.name)).toEqual(['Dr Ida Fenwick']);
+  });
+
+  it('a filter on the visits’ due dates (read once, then counted and sorted) gives the same total and pages as a count and an ordered query, in every sort', async () => {
+    const { a, patient } = await world();
+    const other = await createPatient(services.em(), a.coordinator, patientInput({ registryNumber: 'Q-78', givenName: 'Ada', familyName: 'Brackley' }));
+    const made: Awaited<ReturnType<typeof createCase>>[] = [];
+    for (let i = 0; i < 7; i++) {
+      const completion = monthsAgo(3 + 2 * i);
+      made.push(
+        await createCase(
+          services.em(),
+          a.clinician,
+          caseInput(i % 2 ? other.id : patient.id, i % 3 ? a.clinician.userId : a.clinician2.userId, { tooth: [11, 36, 24, 46, 21, 15, 37][i], startDate: addDaysTo(completion, -10), completionDate: completion }),
+        ),
+      );
+    }
+    await updateVisit(services.em(), a.coordinator, made[2]!.visits[0]!.id, { status: 'invited' });
+    const f = { dueFrom: monthsAgo(4), dueTo: today }; // the 6-month visits of cases 2 and 3, the 12-month ones of cases 5 and 6
+    // The reference: the filtered query (caseListQuery) counted, and ordered and paged on its own.
+    const knex = services.em().getKnex();
+    const reference = async (sort: CaseSort, dir: 'asc' | 'desc', page: number) => {
+      const q = CaseListQuery.parse({ ...f, sort, dir, page, pageSize: 3 });
+      const base = caseListQuery(knex, a.practice.id, q).join('patient as p', 'p.id', 'c.patient_id').join('app_user as u', 'u.id', 'c.operator_id');
+      const cols = { completionDate: ['c.completion_date'], startDate: ['c.start_date'], tooth: ['c.tooth'], kind: ['c.kind', 'c.completion_date'], patient: ['p.family_name', 'p.given_name'], registryNumber: ['p.registry_number'], operator: ['u.name'], nextVisit: ['c.next_visit_date'], createdAt: ['c.created_at'] }[sort];
+      const [n] = (await base.clone().count('* as n')) as { n: string }[];
+      const rows = (await base.clone().select('c.id').orderBy([...cols, 'c.id'].map((column) => ({ column, order: dir }))).limit(3).offset((page - 1) * 3)) as { id: string }[];
+      return { total: Number(n!.n), ids: rows.map((r) => r.id) };
+    };
+    let compared = 0;
+    for (const sort of CASE_SORTS) {
+      for (const dir of ['asc', 'desc'] as const) {
+        for (const page of [1, 2, 3, 4]) {
+          const got = await listCases(services.em(), a.auditor, { ...f, sort, dir, page, pageSize: 3 });
+          expect({ total: got.total, ids: got.rows.map((r) => r.id) }, `${sort} ${dir} page ${page}`).toEqual(await reference(sort, dir, page));
+          compared++;
+        }
+      }
+    }
+    expect(compared).toBe(CASE_SORTS.length * 8);
+    // The filter itself: the visits due in the range, in whichever status; with a status, only those.
+    const all = await listCases(services.em(), a.auditor, { ...f, pageSize: 50 });
+    expect(all.rows.map((r) => r.id).sort()).toEqual([2, 3, 5, 6].map((i) => made[i]!.id).sort());
+    const invited = await listCases(services.em(), a.auditor, { ...f, visitStatus: 'invited' });
+    expect([invited.total, invited.rows.map((r) => r.id)]).toEqual([1, [made[2]!.id]]);
+  });
+
+  it('the list’s totals are kept per case-list version and stay exact after every kind of change, by whichever process', async () => {
+    const { a, patient } = await world();
+    const mk = (change: Record<string, unknown> = {}) => createCase(services.em(), a.clinician, caseInput(patient.id, a.clinician.userId, change));
+    const c1 = await mk({ tooth: 36 });
+    const c2 = await mk({ tooth: 11, canals: [{ name: 'C' }] });
+    const total = async (q: Record<string, unknown>) => (await listCases(services.em(), a.auditor, q)).total;
+    const knex = services.em().getKnex();
+    const version = async () => String((await knex('case_list_version').where('practice_id', a.practice.id).first('version'))?.version);
+    expect([await total({}), await total({ visitStatus: 'invited' }), await total({ q: 'wren' }), await total({ q: 'wrenna' })]).toEqual([2, 0, 2, 0]);
+
+    // A review changes no total and leaves the version as it was.
+    const before = await version();
+    await createReview(services.em(), a.clinician, c1.id, { reviewDate: today, toothStatus: 'present', paiScore: 2, lesionDiameterMm: 0 });
+    expect(await version()).toBe(before);
+    expect(await total({})).toBe(2);
+
+    // Plain SQL, as another process (the worker) writes: a visit invited, a patient renamed.
+    await knex('recall_visit').where('id', c2.visits[0]!.id).update({ status: 'invited' });
+    expect(await version()).not.toBe(before);
+    expect(await total({ visitStatus: 'invited' })).toBe(1);
+    await knex('patient').where('id', patient.id).update({ given_name: 'Wrenna' });
+    expect([await total({ q: 'wrenna' }), await total({ q: 'wren' })]).toEqual([2, 2]);
+    await knex('patient').where('id', patient.id).update({ given_name: 'Bea', family_name: 'Lowther' });
+    expect(await total({ q: 'wren' })).toBe(0);
+
+    // The services' own writes: archive, create.
+    await archiveCase(services.em(), a.clinician, c1.id);
+    expect([await total({}), await total({ archived: 'only' })]).toEqual([1, 1]);
+    await mk({ tooth: 24, canals: [{ name: 'B' }, { name: 'P' }] });
+    expect([await total({}), await total({ pageSize: 1, page: 2 })]).toEqual([2, 2]);
   });
 
   it('patients: search by registry number or name, consents recorded by whoever changed them, archive', async () => {
