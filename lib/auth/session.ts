@@ -6,6 +6,7 @@ import { forbidden, redirect } from 'next/navigation';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { requestEm } from '@/lib/db';
 import { resolveSession, type PracticeChoice } from '@/lib/services/auth';
+import { readWithSession } from '@/lib/services/registry-common';
 import { env } from '@/lib/env';
 import { decodeSessionToken } from './session-token';
 import { can, type Permission } from './permissions';
@@ -53,7 +54,10 @@ export const getRequestContext = cache(async (): Promise<RequestContext> => {
     sessionVersion: session.sv,
     practiceId: session.practiceId,
   });
-  if (s.kind === 'actor') return { em, actor: s.actor, userId: s.actor.userId, practices: s.practices, mustChoosePractice: false };
+  if (s.kind === 'actor') {
+    readWithSession(em, s.settings);
+    return { em, actor: s.actor, userId: s.actor.userId, practices: s.practices, mustChoosePractice: false };
+  }
   if (s.kind === 'choose_practice') return { em, actor: null, userId: s.userId, practices: s.practices, mustChoosePractice: true };
   return { em, actor: null, userId: null, practices: [], mustChoosePractice: false };
 });

@@ -42,6 +42,15 @@ export async function audit(em: EntityManager, actor: Actor | null, input: Audit
 }
 
 /**
+ * Records who changed what with the caller's next flush: the event is written in the same
+ * transaction as the changes it describes (one commit, no round trips of its own), and not at all
+ * if they fail. The caller flushes.
+ */
+export function auditWithChanges(em: EntityManager, actor: Actor, input: AuditInput): void {
+  em.persist(em.create(AuditEventSchema, eventFields(actor, input) as AuditEvent));
+}
+
+/**
  * Records who saw what, for a read: the same row as `audit`, written by one native insert (in the
  * request's transaction, if any) without the unit of work, which a read has nothing to flush in
  * but would still compare every entity it loaded (issue 15, load). Writes use `audit`, so their

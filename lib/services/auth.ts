@@ -10,7 +10,7 @@ import { linkWaitMessage, passwordWaitMessage, signInThrottle, type ThrottlePoli
 import { audit, type AuditInput } from './audit';
 import { RateLimitedError, ServiceError } from './errors';
 import { isServiceUnavailable } from './unavailable';
-import { knexOf } from './registry-common';
+import { knexOf, settingsOf, type PracticeSettings } from './registry-common';
 
 export const WRONG_CREDENTIALS = 'Wrong e-mail or password.';
 export const SIGN_IN_UNAVAILABLE = 'Sign-in is paused for a moment: Lamina cannot reach the store that limits password tries. Your account is fine. Try again in a minute.';
@@ -93,7 +93,7 @@ export interface PracticeChoice {
 
 /** The outcome of reading a session: an actor, a person who must first choose a practice, or nobody. */
 export type SessionState =
-  | { kind: 'actor'; actor: Actor; practices: PracticeChoice[] }
+  | { kind: 'actor'; actor: Actor; practices: PracticeChoice[]; settings: PracticeSettings }
   | { kind: 'choose_practice'; userId: string; practices: PracticeChoice[] }
   | { kind: 'none' };
 
@@ -115,13 +115,29 @@ export async function resolveSession(
     .leftJoin('practice as p', 'p.id', 'm.practice_id')
     .where('u.id', userId)
     .orderBy([{ column: 'p.name' }, { column: 'm.role' }])
-    .select('u.email', 'u.name', 'u.session_version', 'm.role', 'p.id as practice_id', 'p.name as practice_name')) as {
+    .select(
+      'u.email',
+      'u.name',
+      'u.session_version',
+      'm.role',
+      'p.id as practice_id',
+      'p.name as practice_name',
+      // the practice's settings come along: most requests need them (practiceSettings)
+      'p.tooth_notation',
+      'p.time_zone',
+      'p.recall_policy',
+      'p.min_observation_days',
+    )) as {
     email: string;
     name: string | null;
     session_version: number;
     role: string | null;
     practice_id: string | null;
     practice_name: string | null;
+    tooth_notation: string | null;
+    time_zone: string | null;
+    recall_policy: unknown;
+    min_observation_days: number | null;
   }[];
   const user = rows[0];
   if (!user || claims.sessionVersion == null || user.session_version !== claims.sessionVersion) return { kind: 'none' };
@@ -137,9 +153,11 @@ export async function resolveSession(
     .filter((m) => m.practice_id === chosen.id)
     .map((m) => m.role)
     .filter(isRole) as Role[];
+  const p = memberships.find((m) => m.practice_id === chosen.id)!;
   return {
     kind: 'actor',
     practices,
+    settings: settingsOf({ id: chosen.id, toothNotation: p.tooth_notation!, timeZone: p.time_zone!, recallPolicy: p.recall_policy, minObservationDays: p.min_observation_days! }),
     actor: {
       userId,
       email: user.email,

@@ -83,7 +83,7 @@ export interface LinkedCase {
 /** One case with its timeline: treatment, visits, reviews. Audited as a read. */
 export async function getCase(em: EntityManager, actor: Actor, id: string): Promise<CaseDetail> {
   assertCan(actor, 'patient.read');
-  const c = await findCase(em, actor, id);
+  const c = await findCase(em, actor, id, true);
   const detail = await caseDetail(em, c, await practiceSettings(em, actor.practiceId));
   await auditRead(em, actor, { action: 'case.read', entityType: 'case', entityId: c.id, detail: { patientId: c.patient.id } });
   return detail;
@@ -116,12 +116,13 @@ function reasonOf(reviews: readonly ReviewView[], id: string | null): string {
 }
 
 export async function caseDetail(em: EntityManager, c: TreatmentCase, settings: PracticeSettings): Promise<CaseDetail> {
+  const visitsRead = loadVisits(em, c.id);
   const [patient, operator, referrer, visits, reviews, linked] = await Promise.all([
     em.findOneOrFail(PatientSchema, c.patient.id),
     em.findOneOrFail(UserSchema, c.operator.id, { fields: ['id', 'name', 'email'] }),
     c.referrer ? em.findOne(ReferrerSchema, c.referrer.id) : Promise.resolve(null),
-    loadVisits(em, c.id),
-    caseReviews(em, c.id),
+    visitsRead,
+    caseReviews(em, c.id, visitsRead),
     linkedCases(em, c),
   ]);
   const today = todayIn(settings.timeZone);

@@ -7,7 +7,7 @@ import type { RecallPolicy } from '@/lib/schemas/recall-policy';
 import type { ToothNotation } from '@/lib/teeth';
 import { audit } from './audit';
 import { parseInput } from './parse';
-import { recallPolicyOf } from './registry-common';
+import { readWithSession, recallPolicyOf } from './registry-common';
 
 export interface PracticeSettingsView {
   name: string;
@@ -75,6 +75,7 @@ export async function updatePracticeSettings(em: EntityManager, actor: Actor, ra
     if (c.contactEmail !== undefined) practice.contactEmail = c.contactEmail;
   }
   await em.flush();
+  readWithSession(em, null); // the request's later reads see the new settings
   await audit(em, actor, {
     action: 'practice.settings_changed',
     entityType: 'practice',

@@ -35,18 +35,39 @@ export interface PracticeSettings {
   minObservationDays: number;
 }
 
+/** The settings the request's session read came with, per request EntityManager (readWithSession). */
+const readWithTheSession = new WeakMap<EntityManager, PracticeSettings>();
+
+/**
+ * The acting practice's settings as the session's read on every request loaded them with the user
+ * (lib/services/auth.ts resolveSession): practiceSettings on the request's EntityManager then needs
+ * no query of its own. `null` forgets them (a change of the settings in this request).
+ */
+export function readWithSession(em: EntityManager, settings: PracticeSettings | null): void {
+  if (settings) readWithTheSession.set(em, settings);
+  else readWithTheSession.delete(em);
+}
+
+/** The settings from the practice's columns (one home for both reads). */
+export function settingsOf(row: { id: string; toothNotation: string; timeZone: string; recallPolicy: unknown; minObservationDays: number }): PracticeSettings {
+  return {
+    id: row.id,
+    toothNotation: row.toothNotation as ToothNotation,
+    timeZone: row.timeZone,
+    recallPolicy: recallPolicyOf(row.recallPolicy),
+    minObservationDays: row.minObservationDays,
+  };
+}
+
 /** The practice's notation, time zone and recall policy (a stored policy that no longer parses falls back to the default). */
 export async function practiceSettings(em: EntityManager, practiceId: string): Promise<PracticeSettings> {
-  const practice = await em.findOneOrFail(PracticeSchema, practiceId, {
-    fields: ['id', 'toothNotation', 'timeZone', 'recallPolicy', 'minObservationDays'],
-  });
-  return {
-    id: practice.id,
-    toothNotation: practice.toothNotation as ToothNotation,
-    timeZone: practice.timeZone,
-    recallPolicy: recallPolicyOf(practice.recallPolicy),
-    minObservationDays: practice.minObservationDays,
-  };
+  const known = readWithTheSession.get(em);
+  if (known?.id === practiceId) return known;
+  return settingsOf(
+    await em.findOneOrFail(PracticeSchema, practiceId, {
+      fields: ['id', 'toothNotation', 'timeZone', 'recallPolicy', 'minObservationDays'],
+    }),
+  );
 }
 
 /** A practice's stored recall policy, parsed; one that no longer parses falls back to the default. */
@@ -183,8 +204,12 @@ export function pageOffset(q: { page: number; pageSize: number }): number {
 }
 
 /** Loads a case of the actor's practice or answers 404 (also for another practice's id). */
-export async function findCase(em: EntityManager, actor: Actor, id: string): Promise<TreatmentCase> {
-  const c = await em.findOne(TreatmentCaseSchema, { id: assertId(id, 'case'), practice: actor.practiceId });
+export async function findCase(em: EntityManager, actor: Actor, id: string, withPeople = false): Promise<TreatmentCase> {
+  const where = { id: assertId(id, 'case'), practice: actor.practiceId };
+  // withPeople: the patient, the clinician and the referrer joined into the same read (the case page)
+  const c = withPeople
+    ? await em.findOne(TreatmentCaseSchema, where, { populate: ['patient', 'operator', 'referrer'], strategy: 'joined' })
+    : await em.findOne(TreatmentCaseSchema, where);
   if (!c) throw new NotFoundError('No such case.');
   return c;
 }

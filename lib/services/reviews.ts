@@ -1,7 +1,8 @@
 import 'server-only';
+import { randomUUID } from 'node:crypto';
 import { ref } from '@mikro-orm/core';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import { RecallVisitSchema, ReviewSchema, UserSchema, type Review, type TreatmentCase } from '@/entities';
+import { RecallVisitSchema, ReviewSchema, UserSchema, type RecallVisit, type Review, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { isOpenStatus, type VisitStatus } from '@/lib/recall';
 import { ReviewCorrectionReason } from '@/lib/schemas/review-correction';
@@ -24,7 +25,7 @@ import {
   type ReviewAssessment,
   type ReviewOutcome,
 } from '@/lib/scoring';
-import { audit, auditRead } from './audit';
+import { auditRead, auditWithChanges } from './audit';
 import { ConflictError, NotFoundError, ValidationError } from './errors';
 import { parseInput } from './parse';
 import { assertClinician, assertId, bodyId, findCase, practiceSettings, todayIn } from './registry-common';
@@ -187,6 +188,7 @@ async function recordReview(
     minObservationDays: settings.minObservationDays,
   });
   const review = em.create(ReviewSchema, {
+    id: randomUUID(), // known before the flush: the audit events below name it
     practice: actor.practiceId,
     case: c.id,
     visit: visitId ?? null,
@@ -224,26 +226,27 @@ async function recordReview(
     }
   }
   setVisitSummary(c, visits);
-  await em.flush();
+  // The trail's events are written with the review, in its transaction.
   if (correction) {
     const old = correction.supersedes;
     // The trail names both versions: the correction (with the one it replaced) and the superseded one.
-    await audit(em, actor, {
+    auditWithChanges(em, actor, {
       action: 'review.corrected',
       entityType: 'review',
       entityId: review.id,
       detail: { caseId: c.id, supersedes: old.id, reason: correction.reason, outcome: { from: old.outcome, to: assessment.outcome }, cancelledVisits: cancelled },
     });
-    await audit(em, actor, { action: 'review.superseded', entityType: 'review', entityId: old.id, detail: { caseId: c.id, supersededBy: review.id } });
+    auditWithChanges(em, actor, { action: 'review.superseded', entityType: 'review', entityId: old.id, detail: { caseId: c.id, supersededBy: review.id } });
   } else {
-    await audit(em, actor, {
+    auditWithChanges(em, actor, {
       action: 'review.created',
       entityType: 'review',
       entityId: review.id,
       detail: { caseId: c.id, visitId: visitId ?? null, outcome: assessment.outcome, cancelledVisits: cancelled },
     });
   }
-  const all = await caseReviews(em, c.id);
+  await em.flush();
+  const all = await caseReviews(em, c.id, visits);
   return {
     review: all.reviews.find((r) => r.id === review.id)!,
     visits: await visitViews(em, visits, today, all.reviews),
@@ -347,18 +350,26 @@ export async function reassessReviews(em: EntityManager, c: TreatmentCase): Prom
   return reviews.length;
 }
 
-/** A case's reviews as views, with the current outcome. No audit (callers audit their read). */
-export async function caseReviews(em: EntityManager, caseId: string): Promise<CaseReviews> {
-  const reviews = await em.find(ReviewSchema, { case: caseId }, { orderBy: { reviewDate: 'asc', createdAt: 'asc' } });
+/**
+ * A case's reviews as views, with the current outcome. No audit (callers audit their read). A caller
+ * that reads the case's visits anyway (the case page, a saved review) passes them, read or being
+ * read, and the reviews' milestones come from them: one query less.
+ */
+export async function caseReviews(
+  em: EntityManager,
+  caseId: string,
+  caseVisits?: Promise<readonly Pick<RecallVisit, 'id' | 'milestone'>[]> | readonly Pick<RecallVisit, 'id' | 'milestone'>[],
+): Promise<CaseReviews> {
+  const [reviews, given] = await Promise.all([em.find(ReviewSchema, { case: caseId }, { orderBy: { reviewDate: 'asc', createdAt: 'asc' } }), caseVisits ?? []]);
+  const milestoneOf = new Map(given.map((v) => [v.id, v.milestone]));
   const people = [...new Set(reviews.flatMap((r) => [r.assessor.id, ...(r.correctedBy ? [r.correctedBy.id] : [])]))];
+  const unknownVisits = [...new Set(reviews.flatMap((r) => (r.visit && !milestoneOf.has(r.visit.id) ? [r.visit.id] : [])))];
   const [assessors, visits] = await Promise.all([
     reviews.length ? em.find(UserSchema, { id: { $in: people } }, { fields: ['id', 'name'] }) : [],
-    reviews.some((r) => r.visit)
-      ? em.find(RecallVisitSchema, { id: { $in: reviews.flatMap((r) => (r.visit ? [r.visit.id] : [])) } }, { fields: ['id', 'milestone'] })
-      : [],
+    unknownVisits.length ? em.find(RecallVisitSchema, { id: { $in: unknownVisits } }, { fields: ['id', 'milestone'] }) : [],
   ]);
   const nameOf = new Map(assessors.map((u) => [u.id, u.name ?? null]));
-  const milestoneOf = new Map(visits.map((v) => [v.id, v.milestone]));
+  for (const v of visits) milestoneOf.set(v.id, v.milestone);
   // Outcomes read only current versions: a superseded one is kept for the record, not counted.
   const live = reviews.filter((r) => !r.supersededBy);
   const current = currentOutcome(live.map((r) => ({ daysSinceTreatment: r.daysSinceCompletion, outcome: r.outcome as ReviewOutcome })));

@@ -1,0 +1,102 @@
+import { afterAll, beforeEach, describe, expect, it } from 'vitest';
+import type { EntityManager } from '@mikro-orm/postgresql';
+import { AuditEventSchema, ReviewSchema } from '@/entities';
+import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
+import { resolveSession } from '@/lib/services/auth';
+import { createCase, getCase } from '@/lib/services/cases';
+import { createPatient } from '@/lib/services/patients';
+import { updatePracticeSettings } from '@/lib/services/practice-settings';
+import { practiceSettings, readWithSession, todayIn } from '@/lib/services/registry-common';
+import { correctReview, createReview } from '@/lib/services/reviews';
+import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
+
+/**
+ * Statements a request sends to PostgreSQL (issue 15, load): each round trip costs the web server
+ * CPU (the ORM, the driver, a socket write) as well as PostgreSQL. The case page and a review save
+ * are the load's busiest; these pin what they read, and that the practice's settings come with the
+ * session's own read.
+ */
+const services = await openServices();
+afterAll(() => services.close());
+beforeEach(() => resetData(services.orm, services.redis));
+
+const today = todayIn('Europe/London');
+const origin = { ip: '127.0.0.1', userAgent: 'vitest' };
+
+/** The statements `fn` sends, as the request does: on one EntityManager that the session's read prepared. */
+async function statements(a: Awaited<ReturnType<typeof makeRegistryPractice>>, userId: string, fn: (em: EntityManager) => Promise<unknown>) {
+  const em = services.em();
+  const s = await resolveSession(em, userId, origin, { sessionVersion: 0, practiceId: a.practice.id });
+  if (s.kind !== 'actor') throw new Error('no actor');
+  readWithSession(em, s.settings);
+  const client = em.getKnex().client as { on: (e: string, f: (q: { sql: string }) => void) => void; removeListener: (e: string, f: (q: { sql: string }) => void) => void };
+  const seen: string[] = [];
+  const on = (q: { sql: string }) => seen.push(q.sql.replace(/\s+/g, ' ').slice(0, 60));
+  client.on('query', on);
+  try {
+    await fn(em);
+  } finally {
+    client.removeListener('query', on);
+  }
+  return seen;
+}
+
+async function world() {
+  const a = await makeRegistryPractice(services.em(), 'rowan');
+  const patient = await createPatient(services.em(), a.clinician, patientInput());
+  const completion = addMonthsClamped(today, -7);
+  const c = await createCase(services.em(), a.clinician, caseInput(patient.id, a.clinician.userId, { startDate: addDaysTo(completion, -10), completionDate: completion }));
+  await createReview(services.em(), a.clinician, c.id, { visitId: c.visits[0]!.id, reviewDate: addDaysTo(today, -3), toothStatus: 'present', paiScore: 2, lesionDiameterMm: 0 });
+  return { a, c };
+}
+
+describe('round trips of the busiest requests', () => {
+  it('the session’s read brings the chosen practice’s settings; practiceSettings then reads nothing, and a change of them is seen in the same request', async () => {
+    const { a } = await world();
+    const fresh = await practiceSettings(services.em(), a.practice.id);
+    let got: unknown;
+    expect(await statements(a, a.admin.userId, async (em) => (got = await practiceSettings(em, a.practice.id)))).toEqual([]);
+    expect(got).toEqual(fresh);
+    // Another practice's settings are read as before.
+    const other = await makeRegistryPractice(services.em(), 'hazel');
+    expect(await statements(a, a.admin.userId, (em) => practiceSettings(em, other.practice.id))).toHaveLength(1);
+    // A change in the request: its later reads see it.
+    await statements(a, a.admin.userId, async (em) => {
+      await updatePracticeSettings(em, a.admin, { toothNotation: 'universal', minObservationDays: 500 });
+      got = await practiceSettings(em, a.practice.id);
+    });
+    expect(got).toMatchObject({ toothNotation: 'universal', minObservationDays: 500 });
+  });
+
+  it('the case page: the case with its patient, clinician and referrer in one read, the reviews’ milestones from the visits read anyway', async () => {
+    const { a, c } = await world();
+    let page: Awaited<ReturnType<typeof getCase>> | undefined;
+    const seen = await statements(a, a.clinician.userId, async (em) => (page = await getCase(em, a.clinician, c.id)));
+    // case (+ patient, clinician, referrer), linked cases, visits, reviews, assessors' names, the audit event
+    expect(seen, seen.join('\n')).toHaveLength(6);
+    expect(page!.reviews.map((r) => [r.visitMilestone, r.assessor.name])).toEqual([[6, 'cal']]);
+    expect([page!.patient.name, page!.operator.name, page!.referrer]).toEqual(['Ashdown, Wren', 'cal', null]);
+  });
+
+  it('a review save: the review and its audit event in one transaction; a correction too', async () => {
+    const { a, c } = await world();
+    let saved: Awaited<ReturnType<typeof createReview>> | undefined;
+    const seen = await statements(a, a.clinician.userId, async (em) => {
+      saved = await createReview(em, a.clinician, c.id, { reviewDate: today, toothStatus: 'present', paiScore: 1, lesionDiameterMm: 0 });
+    });
+    // case, the assessor's membership, visits; BEGIN, the review and its event, COMMIT; the reviews and their assessors' names
+    expect(seen, seen.join('\n')).toHaveLength(9);
+    expect(seen.filter((s) => /^begin|^commit/i.test(s))).toHaveLength(2);
+    const events = await services.em().find(AuditEventSchema, { action: 'review.created', entityId: saved!.review.id });
+    expect(events.map((e) => [e.actorId, e.detail])).toEqual([[a.clinician.userId, { caseId: c.id, visitId: null, outcome: saved!.review.outcome, cancelledVisits: [] }]]);
+    expect(saved!.review).toMatchObject({ visitMilestone: null, paiScore: 1 });
+
+    const corrected = await correctReview(services.em(), a.clinician, c.id, saved!.review.id, { reviewDate: today, toothStatus: 'present', paiScore: 2, lesionDiameterMm: 0, reason: 'Read again.' });
+    const trail = await services.em().find(AuditEventSchema, { action: { $in: ['review.corrected', 'review.superseded'] } }, { orderBy: { action: 'asc' } });
+    expect(trail.map((e) => [e.action, e.entityId])).toEqual([
+      ['review.corrected', corrected.review.id],
+      ['review.superseded', saved!.review.id],
+    ]);
+    expect((await services.em().findOneOrFail(ReviewSchema, saved!.review.id)).supersededBy?.id).toBe(corrected.review.id);
+  });
+});
