@@ -55,7 +55,7 @@ export const getRequestContext = cache(async (): Promise<RequestContext> => {
     practiceId: session.practiceId,
   });
   if (s.kind === 'actor') {
-    readWithSession(em, s.settings);
+    readWithSession(em, s.practice);
     return { em, actor: s.actor, userId: s.actor.userId, practices: s.practices, mustChoosePractice: false };
   }
   if (s.kind === 'choose_practice') return { em, actor: null, userId: s.userId, practices: s.practices, mustChoosePractice: true };

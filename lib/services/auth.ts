@@ -10,7 +10,7 @@ import { linkWaitMessage, passwordWaitMessage, signInThrottle, type ThrottlePoli
 import { audit, type AuditInput } from './audit';
 import { RateLimitedError, ServiceError } from './errors';
 import { isServiceUnavailable } from './unavailable';
-import { knexOf, settingsOf, type PracticeSettings } from './registry-common';
+import { knexOf, settingsOf, type SessionPractice } from './registry-common';
 
 export const WRONG_CREDENTIALS = 'Wrong e-mail or password.';
 export const SIGN_IN_UNAVAILABLE = 'Sign-in is paused for a moment: Lamina cannot reach the store that limits password tries. Your account is fine. Try again in a minute.';
@@ -93,7 +93,7 @@ export interface PracticeChoice {
 
 /** The outcome of reading a session: an actor, a person who must first choose a practice, or nobody. */
 export type SessionState =
-  | { kind: 'actor'; actor: Actor; practices: PracticeChoice[]; settings: PracticeSettings }
+  | { kind: 'actor'; actor: Actor; practices: PracticeChoice[]; practice: SessionPractice }
   | { kind: 'choose_practice'; userId: string; practices: PracticeChoice[] }
   | { kind: 'none' };
 
@@ -122,11 +122,12 @@ export async function resolveSession(
       'm.role',
       'p.id as practice_id',
       'p.name as practice_name',
-      // the practice's settings come along: most requests need them (practiceSettings)
+      // the practice's settings come along: most requests need them (practiceSettings, recallSettings)
       'p.tooth_notation',
       'p.time_zone',
       'p.recall_policy',
       'p.min_observation_days',
+      'p.reminder_policy',
     )) as {
     email: string;
     name: string | null;
@@ -138,6 +139,7 @@ export async function resolveSession(
     time_zone: string | null;
     recall_policy: unknown;
     min_observation_days: number | null;
+    reminder_policy: unknown;
   }[];
   const user = rows[0];
   if (!user || claims.sessionVersion == null || user.session_version !== claims.sessionVersion) return { kind: 'none' };
@@ -157,7 +159,11 @@ export async function resolveSession(
   return {
     kind: 'actor',
     practices,
-    settings: settingsOf({ id: chosen.id, toothNotation: p.tooth_notation!, timeZone: p.time_zone!, recallPolicy: p.recall_policy, minObservationDays: p.min_observation_days! }),
+    practice: {
+      settings: settingsOf({ id: chosen.id, toothNotation: p.tooth_notation!, timeZone: p.time_zone!, recallPolicy: p.recall_policy, minObservationDays: p.min_observation_days! }),
+      name: chosen.name,
+      reminderPolicy: p.reminder_policy,
+    },
     actor: {
       userId,
       email: user.email,

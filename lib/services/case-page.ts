@@ -84,8 +84,11 @@ export interface LinkedCase {
 export async function getCase(em: EntityManager, actor: Actor, id: string): Promise<CaseDetail> {
   assertCan(actor, 'patient.read');
   const c = await findCase(em, actor, id, true);
-  const detail = await caseDetail(em, c, await practiceSettings(em, actor.practiceId));
-  await auditRead(em, actor, { action: 'case.read', entityType: 'case', entityId: c.id, detail: { patientId: c.patient.id } });
+  // The case is the actor's to see (found in their practice): its read is recorded beside the reading.
+  const [detail] = await Promise.all([
+    caseDetail(em, c, await practiceSettings(em, actor.practiceId)),
+    auditRead(em, actor, { action: 'case.read', entityType: 'case', entityId: c.id, detail: { patientId: c.patient.id } }),
+  ]);
   return detail;
 }
 

@@ -10,7 +10,7 @@ import type { ToothNotation } from '@/lib/teeth';
 import { NotFoundError } from './errors';
 import { EMAIL_CONSENT_SQL, reminderPolicyOf } from './recall-outbox';
 import { isUuid } from '@/lib/uuid';
-import { knexOf, todayIn } from './registry-common';
+import { knexOf, practiceOfSession, todayIn } from './registry-common';
 
 /** Pieces shared by the recall-desk services (desk, contact log, replies, rate, policy). */
 
@@ -24,9 +24,12 @@ export interface RecallSettings {
 }
 
 export async function recallSettings(em: EntityManager, practiceId: string, now: Date = new Date()): Promise<RecallSettings> {
-  const row = (await knexOf(em)('practice').where({ id: practiceId }).first('id', 'name', 'time_zone', 'tooth_notation', 'reminder_policy')) as
-    | { id: string; name: string; time_zone: string; tooth_notation: ToothNotation; reminder_policy: unknown }
-    | undefined;
+  const known = practiceOfSession(em, practiceId);
+  const row = known
+    ? { id: practiceId, name: known.name, time_zone: known.settings.timeZone, tooth_notation: known.settings.toothNotation, reminder_policy: known.reminderPolicy }
+    : ((await knexOf(em)('practice').where({ id: practiceId }).first('id', 'name', 'time_zone', 'tooth_notation', 'reminder_policy')) as
+        | { id: string; name: string; time_zone: string; tooth_notation: ToothNotation; reminder_policy: unknown }
+        | undefined);
   if (!row) throw new NotFoundError('No such practice.');
   return {
     practiceId: row.id,

@@ -6,7 +6,7 @@ import { REMINDER_POLICY_BOUNDS } from '@/lib/schemas/reminder-policy';
 import { audit } from './audit';
 import { parseInput } from './parse';
 import { reminderPolicyOf } from './recall-outbox';
-import { knexOf, recallPolicyOf } from './registry-common';
+import { knexOf, readWithSession, recallPolicyOf } from './registry-common';
 
 /**
  * The practice's reminder policy (lib/schemas/reminder-policy.ts): when invitations, the second
@@ -50,6 +50,7 @@ export async function updateReminderPolicy(em: EntityManager, actor: Actor, raw:
   const policy = parseInput(ReminderPolicySchema, raw);
   const before = (await view(em, actor.practiceId)).policy;
   await knexOf(em)('practice').where({ id: actor.practiceId }).update({ reminder_policy: JSON.stringify(policy) });
+  readWithSession(em, null); // the request's later reads see the new policy
   await audit(em, actor, { action: 'recall.policy_updated', entityType: 'practice', entityId: actor.practiceId, detail: { before, after: policy } });
   return view(em, actor.practiceId);
 }

@@ -35,17 +35,31 @@ export interface PracticeSettings {
   minObservationDays: number;
 }
 
-/** The settings the request's session read came with, per request EntityManager (readWithSession). */
-const readWithTheSession = new WeakMap<EntityManager, PracticeSettings>();
+/** The acting practice as the session's read brings it: its settings, name and stored reminder policy. */
+export interface SessionPractice {
+  settings: PracticeSettings;
+  name: string;
+  reminderPolicy: unknown;
+}
+
+/** What the request's session read came with, per request EntityManager (readWithSession). */
+const readWithTheSession = new WeakMap<EntityManager, SessionPractice>();
 
 /**
- * The acting practice's settings as the session's read on every request loaded them with the user
- * (lib/services/auth.ts resolveSession): practiceSettings on the request's EntityManager then needs
- * no query of its own. `null` forgets them (a change of the settings in this request).
+ * The acting practice as the session's read on every request loaded it with the user
+ * (lib/services/auth.ts resolveSession): practiceSettings and recallSettings on the request's
+ * EntityManager then need no query of their own. `null` forgets it (a change of the practice's
+ * settings or reminder policy in this request).
  */
-export function readWithSession(em: EntityManager, settings: PracticeSettings | null): void {
-  if (settings) readWithTheSession.set(em, settings);
+export function readWithSession(em: EntityManager, practice: SessionPractice | null): void {
+  if (practice) readWithTheSession.set(em, practice);
   else readWithTheSession.delete(em);
+}
+
+/** The practice read with the request's session, when `em` is the request's and it is that practice. */
+export function practiceOfSession(em: EntityManager, practiceId: string): SessionPractice | undefined {
+  const known = readWithTheSession.get(em);
+  return known?.settings.id === practiceId ? known : undefined;
 }
 
 /** The settings from the practice's columns (one home for both reads). */
@@ -61,8 +75,8 @@ export function settingsOf(row: { id: string; toothNotation: string; timeZone: s
 
 /** The practice's notation, time zone and recall policy (a stored policy that no longer parses falls back to the default). */
 export async function practiceSettings(em: EntityManager, practiceId: string): Promise<PracticeSettings> {
-  const known = readWithTheSession.get(em);
-  if (known?.id === practiceId) return known;
+  const known = practiceOfSession(em, practiceId);
+  if (known) return known.settings;
   return settingsOf(
     await em.findOneOrFail(PracticeSchema, practiceId, {
       fields: ['id', 'toothNotation', 'timeZone', 'recallPolicy', 'minObservationDays'],

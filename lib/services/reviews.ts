@@ -2,7 +2,7 @@ import 'server-only';
 import { randomUUID } from 'node:crypto';
 import { ref } from '@mikro-orm/core';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import { RecallVisitSchema, ReviewSchema, UserSchema, type RecallVisit, type Review, type TreatmentCase } from '@/entities';
+import { RecallVisitSchema, ReviewSchema, type RecallVisit, type Review, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
 import { isOpenStatus, type VisitStatus } from '@/lib/recall';
 import { ReviewCorrectionReason } from '@/lib/schemas/review-correction';
@@ -28,7 +28,7 @@ import {
 import { auditRead, auditWithChanges } from './audit';
 import { ConflictError, NotFoundError, ValidationError } from './errors';
 import { parseInput } from './parse';
-import { assertClinician, assertId, bodyId, findCase, practiceSettings, todayIn } from './registry-common';
+import { assertClinician, assertId, bodyId, findCase, knexOf, practiceSettings, todayIn } from './registry-common';
 import { changeVisitStatus, loadVisits, setVisitSummary, visitViews, type VisitView } from './visits';
 
 export interface ReviewView {
@@ -157,9 +157,7 @@ async function recordReview(
     throw new ValidationError('Some fields need attention.', { reviewDate: [`The review date is before the completion date (${c.completionDate}).`] });
   }
   if (input.reviewDate > today) throw new ValidationError('Some fields need attention.', { reviewDate: ['The review date is in the future.'] });
-  await assertClinician(em, actor.practiceId, input.assessorId, 'assessorId');
-
-  const visits = await loadVisits(em, c.id);
+  const [, visits] = await Promise.all([assertClinician(em, actor.practiceId, input.assessorId, 'assessorId'), loadVisits(em, c.id)]);
   const who = { practiceId: actor.practiceId, userId: actor.userId };
   const visitId = bodyId(input.visitId, 'visitId', 'Choose one of this case’s visits.');
   if (visitId) {
@@ -360,15 +358,18 @@ export async function caseReviews(
   caseId: string,
   caseVisits?: Promise<readonly Pick<RecallVisit, 'id' | 'milestone'>[]> | readonly Pick<RecallVisit, 'id' | 'milestone'>[],
 ): Promise<CaseReviews> {
-  const [reviews, given] = await Promise.all([em.find(ReviewSchema, { case: caseId }, { orderBy: { reviewDate: 'asc', createdAt: 'asc' } }), caseVisits ?? []]);
-  const milestoneOf = new Map(given.map((v) => [v.id, v.milestone]));
-  const people = [...new Set(reviews.flatMap((r) => [r.assessor.id, ...(r.correctedBy ? [r.correctedBy.id] : [])]))];
-  const unknownVisits = [...new Set(reviews.flatMap((r) => (r.visit && !milestoneOf.has(r.visit.id) ? [r.visit.id] : [])))];
-  const [assessors, visits] = await Promise.all([
-    reviews.length ? em.find(UserSchema, { id: { $in: people } }, { fields: ['id', 'name'] }) : [],
-    unknownVisits.length ? em.find(RecallVisitSchema, { id: { $in: unknownVisits } }, { fields: ['id', 'milestone'] }) : [],
+  const knex = knexOf(em);
+  const byReview = (column: string) => knex('review').select(column).where('case_id', caseId);
+  // The people named by the reviews are read beside the reviews, not after them.
+  const [reviews, given, people] = await Promise.all([
+    em.find(ReviewSchema, { case: caseId }, { orderBy: { reviewDate: 'asc', createdAt: 'asc' } }),
+    caseVisits ?? [],
+    knex('app_user').whereIn('id', byReview('assessor_id')).orWhereIn('id', byReview('corrected_by_id')).select('id', 'name') as Promise<{ id: string; name: string | null }[]>,
   ]);
-  const nameOf = new Map(assessors.map((u) => [u.id, u.name ?? null]));
+  const milestoneOf = new Map(given.map((v) => [v.id, v.milestone]));
+  const unknownVisits = [...new Set(reviews.flatMap((r) => (r.visit && !milestoneOf.has(r.visit.id) ? [r.visit.id] : [])))];
+  const visits = unknownVisits.length ? await em.find(RecallVisitSchema, { id: { $in: unknownVisits } }, { fields: ['id', 'milestone'] }) : [];
+  const nameOf = new Map(people.map((u) => [u.id, u.name ?? null]));
   for (const v of visits) milestoneOf.set(v.id, v.milestone);
   // Outcomes read only current versions: a superseded one is kept for the record, not counted.
   const live = reviews.filter((r) => !r.supersededBy);

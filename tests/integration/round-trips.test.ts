@@ -6,6 +6,8 @@ import { resolveSession } from '@/lib/services/auth';
 import { createCase, getCase } from '@/lib/services/cases';
 import { createPatient } from '@/lib/services/patients';
 import { updatePracticeSettings } from '@/lib/services/practice-settings';
+import { recallSettings } from '@/lib/services/recall-common';
+import { updateReminderPolicy } from '@/lib/services/recall-policy';
 import { practiceSettings, readWithSession, todayIn } from '@/lib/services/registry-common';
 import { correctReview, createReview } from '@/lib/services/reviews';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
@@ -28,7 +30,7 @@ async function statements(a: Awaited<ReturnType<typeof makeRegistryPractice>>, u
   const em = services.em();
   const s = await resolveSession(em, userId, origin, { sessionVersion: 0, practiceId: a.practice.id });
   if (s.kind !== 'actor') throw new Error('no actor');
-  readWithSession(em, s.settings);
+  readWithSession(em, s.practice);
   const client = em.getKnex().client as { on: (e: string, f: (q: { sql: string }) => void) => void; removeListener: (e: string, f: (q: { sql: string }) => void) => void };
   const seen: string[] = [];
   const on = (q: { sql: string }) => seen.push(q.sql.replace(/\s+/g, ' ').slice(0, 60));
@@ -51,7 +53,7 @@ async function world() {
 }
 
 describe('round trips of the busiest requests', () => {
-  it('the session’s read brings the chosen practice’s settings; practiceSettings then reads nothing, and a change of them is seen in the same request', async () => {
+  it('the session’s read brings the chosen practice’s settings; practiceSettings and recallSettings then read nothing, and a change of them is seen in the same request', async () => {
     const { a } = await world();
     const fresh = await practiceSettings(services.em(), a.practice.id);
     let got: unknown;
@@ -66,6 +68,16 @@ describe('round trips of the busiest requests', () => {
       got = await practiceSettings(em, a.practice.id);
     });
     expect(got).toMatchObject({ toothNotation: 'universal', minObservationDays: 500 });
+
+    // The desk's settings (name, time zone, notation, reminder policy) too; a new policy is seen at once.
+    const desk = await recallSettings(services.em(), a.practice.id);
+    expect(await statements(a, a.coordinator.userId, async (em) => (got = await recallSettings(em, a.practice.id)))).toEqual([]);
+    expect(got).toEqual(desk);
+    await statements(a, a.coordinator.userId, async (em) => {
+      await updateReminderPolicy(em, a.coordinator, { ...desk.reminderPolicy, quietHours: { start: '20:00', end: '09:00' } });
+      got = await recallSettings(em, a.practice.id);
+    });
+    expect((got as typeof desk).reminderPolicy).toMatchObject({ quietHours: { start: '20:00', end: '09:00' } });
   });
 
   it('the case page: the case with its patient, clinician and referrer in one read, the reviews’ milestones from the visits read anyway', async () => {
