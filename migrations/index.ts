@@ -25,6 +25,7 @@ import { Migration20261203130022 } from './Migration20261203130022';
 import { Migration20261203170000 } from './Migration20261203170000';
 import { Migration20261203230000 } from './Migration20261203230000';
 import { Migration20261204120000 } from './Migration20261204120000';
+import { Migration20261204130000 } from './Migration20261204130000';
 
 export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261201221639', class: Migration20261201221639 },
@@ -49,4 +50,5 @@ export const migrationsList: MigrationObject[] = [
   { name: 'Migration20261203170000', class: Migration20261203170000 },
   { name: 'Migration20261203230000', class: Migration20261203230000 },
   { name: 'Migration20261204120000', class: Migration20261204120000 },
+  { name: 'Migration20261204130000', class: Migration20261204130000 },
 ];

@@ -280,20 +280,38 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
   const lastContact = knex.raw(
     `(select max(e.at) from contact_log_entry e where e.visit_id = v.id and e.kind in ('message_sent', 'reply', 'call', 'appointment')) as last_contact_at`,
   );
-  // The queue's visits read once (a materialized CTE, planned as the count alone would be), then
-  // counted and sorted for the page: half the work of a count and a page query side by side. The
-  // last contact, a subquery per visit, is read only when the page is sorted by it.
-  const sortColumns = SORTS[q.sort].map((c) => c.split('.').pop()!);
-  const queue = base().select('v.id', 'v.due_date', ...(q.sort === 'patient' ? ['p.family_name', 'p.given_name'] : []), ...(q.sort === 'lastContact' ? [lastContact] : []));
-  const ids = (await knex
-    .withMaterialized('queue', queue)
-    .from('queue')
-    .select('id', knex.raw('(select count(*) from queue) as total'))
-    .orderBy(sortColumns.map((column) => ({ column, order: q.dir, nulls: q.dir === 'asc' ? 'first' : 'last' })))
-    .limit(q.pageSize)
-    .offset(pageOffset(q))) as { id: string; total: string }[];
-  // A page past the end has no row to carry the total: counted apart (rare).
-  const total = ids.length ? Number(ids[0]!.total) : q.page > 1 ? Number((await base().count<{ n: string }[]>('* as n'))[0]?.n ?? 0) : 0;
+  const counted = () => queueVisits(knex, s, q.queue, q.clinician);
+  let ids: { id: string; total?: string }[];
+  let total: number;
+  if (q.sort === 'patient') {
+    // By name: the page walks the patients in name order (patient_practice_family_name_index) and
+    // each one's queued visits (recall_visit_patient_queued_index), or joins and sorts a small queue,
+    // as PostgreSQL judges; the count reads the desk index alone. Materialized together, a large
+    // queue (tens of thousands of missed visits) was joined to its patients whole for every page.
+    const page = base()
+      .where('p.practice_id', s.practiceId)
+      .select('v.id')
+      .orderBy(SORTS.patient.map((column) => ({ column, order: q.dir })))
+      .limit(q.pageSize)
+      .offset(pageOffset(q));
+    const [rows, n] = await Promise.all([page as Promise<{ id: string }[]>, counted().count<{ n: string }[]>('* as n')]);
+    [ids, total] = [rows, Number(n[0]?.n ?? 0)];
+  } else {
+    // The queue's visits read once (a materialized CTE, planned as the count alone would be), then
+    // counted and sorted for the page: half the work of a count and a page query side by side. The
+    // last contact, a subquery per visit, is read only when the page is sorted by it.
+    const sortColumns = SORTS[q.sort].map((c) => c.split('.').pop()!);
+    const queue = base().select('v.id', 'v.due_date', ...(q.sort === 'lastContact' ? [lastContact] : []));
+    ids = (await knex
+      .withMaterialized('queue', queue)
+      .from('queue')
+      .select('id', knex.raw('(select count(*) from queue) as total'))
+      .orderBy(sortColumns.map((column) => ({ column, order: q.dir, nulls: q.dir === 'asc' ? 'first' : 'last' })))
+      .limit(q.pageSize)
+      .offset(pageOffset(q))) as { id: string; total: string }[];
+    // A page past the end has no row to carry the total: counted apart (rare).
+    total = ids.length ? Number(ids[0]!.total) : q.page > 1 ? Number((await counted().count<{ n: string }[]>('* as n'))[0]?.n ?? 0) : 0;
+  }
   const rows = await deskRowsByIds(em, s, ids.map((r) => r.id));
   await auditRead(em, actor, {
     action: 'recall.rows_read',
