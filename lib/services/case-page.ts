@@ -83,10 +83,10 @@ export interface LinkedCase {
 /** One case with its timeline: treatment, visits, reviews. Audited as a read. */
 export async function getCase(em: EntityManager, actor: Actor, id: string): Promise<CaseDetail> {
   assertCan(actor, 'patient.read');
-  const c = await findCase(em, actor, id, true);
+  const [c, settings] = await Promise.all([findCase(em, actor, id, true), practiceSettings(em, actor.practiceId)]);
   // The case is the actor's to see (found in their practice): its read is recorded beside the reading.
   const [detail] = await Promise.all([
-    caseDetail(em, c, await practiceSettings(em, actor.practiceId)),
+    caseDetail(em, c, settings),
     auditRead(em, actor, { action: 'case.read', entityType: 'case', entityId: c.id, detail: { patientId: c.patient.id } }),
   ]);
   return detail;

@@ -21,6 +21,8 @@ import {
   displayName,
   likeWord,
   listParam,
+  countOf,
+  pageFromOneRead,
   pageOffset,
   practiceSettings,
   queryDate,
@@ -196,16 +198,8 @@ export async function queryCases(em: EntityManager, practiceId: string, f: CaseL
     // order probing each one's visits (tens of ms each at 100,000 cases).
     const columns = SORT_COLUMNS[f.sort];
     pageQuery.select(columns.map((c, i) => knex.raw(`${c} as s${i}`)));
-    const rows = (await knex
-      .withMaterialized('matching', pageQuery)
-      .from('matching')
-      .select('id', knex.raw('(select count(*) from matching) as total'))
-      .orderBy([...columns.map((_, i) => `s${i}`), 'id'].map((column) => ({ column, order: f.dir })))
-      .limit(f.pageSize)
-      .offset(pageOffset(f))) as { id: string; total: string }[];
-    ids = rows.map((r) => r.id);
-    // A page past the end has no row to carry the total: counted apart (rare).
-    total = rows.length ? Number(rows[0]!.total) : f.page > 1 ? Number((await base.clone().count<{ n: string }[]>('* as n'))[0]?.n ?? 0) : 0;
+    const order = [...columns.map((_, i) => `s${i}`), 'id'].map((column) => ({ column, order: f.dir }));
+    ({ ids, total } = await pageFromOneRead(knex, pageQuery, order, f, () => countOf(base.clone())));
   } else {
     pageQuery
       .orderBy(order)
@@ -237,7 +231,7 @@ const totals = makeTotalsKeeper(512);
  */
 async function caseListTotal(knex: Knex, practiceId: string, f: CaseListFilters, base: Knex.QueryBuilder): Promise<number> {
   const row = (await knex('case_list_version').where('practice_id', practiceId).first('version')) as { version: string | number } | undefined;
-  return totals.total(practiceId, String(row?.version ?? 0), f, async () => Number((await base.clone().count<{ n: string }[]>('* as n'))[0]?.n ?? 0));
+  return totals.total(practiceId, String(row?.version ?? 0), f, () => countOf(base.clone()));
 }
 
 /** List rows for the given case ids, in that order. */

@@ -46,7 +46,7 @@ import {
 } from './recall-common';
 import { EMAIL_ADDRESS_SQL, EMAIL_CONSENT_SQL, enqueueOutbox, insertOutboxRows, reminderProducer, retryFailedReminder, type OutboxEntry } from './recall-outbox';
 import { isUuid } from '@/lib/uuid';
-import { SortDir, displayName, knexOf, pageOffset, todayIn, type Page } from './registry-common';
+import { SortDir, countOf, displayName, knexOf, pageFromOneRead, pageOffset, todayIn, type Page } from './registry-common';
 import { refreshNextVisit } from './visits';
 
 /**
@@ -276,43 +276,34 @@ export async function listDeskRows(em: EntityManager, actor: Actor, raw: unknown
   const q = parseInput(DeskRowsQuery, raw);
   const s = await recallSettings(em, actor.practiceId);
   const knex = knexOf(em);
-  const base = () => queueVisits(knex, s, q.queue, q.clinician, q.sort === 'patient');
+  const base = (withPatient = false) => queueVisits(knex, s, q.queue, q.clinician, withPatient);
   const lastContact = knex.raw(
     `(select max(e.at) from contact_log_entry e where e.visit_id = v.id and e.kind in ('message_sent', 'reply', 'call', 'appointment')) as last_contact_at`,
   );
-  const counted = () => queueVisits(knex, s, q.queue, q.clinician);
-  let ids: { id: string; total?: string }[];
+  let ids: string[];
   let total: number;
   if (q.sort === 'patient') {
     // By name: the page walks the patients in name order (patient_practice_family_name_index) and
     // each one's queued visits (recall_visit_patient_queued_index), or joins and sorts a small queue,
-    // as PostgreSQL judges; the count reads the desk index alone. Materialized together, a large
-    // queue (tens of thousands of missed visits) was joined to its patients whole for every page.
-    const page = base()
+    // as PostgreSQL judges; the count reads the desk index alone. Read once together, a large queue
+    // (tens of thousands of missed visits) was joined to its patients whole for every page.
+    const page = base(true)
       .where('p.practice_id', s.practiceId)
       .select('v.id')
       .orderBy(SORTS.patient.map((column) => ({ column, order: q.dir })))
       .limit(q.pageSize)
-      .offset(pageOffset(q));
-    const [rows, n] = await Promise.all([page as Promise<{ id: string }[]>, counted().count<{ n: string }[]>('* as n')]);
-    [ids, total] = [rows, Number(n[0]?.n ?? 0)];
+      .offset(pageOffset(q)) as Promise<{ id: string }[]>;
+    const [rows, n] = await Promise.all([page, countOf(base())]);
+    [ids, total] = [rows.map((r) => r.id), n];
   } else {
-    // The queue's visits read once (a materialized CTE, planned as the count alone would be), then
-    // counted and sorted for the page: half the work of a count and a page query side by side. The
-    // last contact, a subquery per visit, is read only when the page is sorted by it.
+    // The queue's visits read once, then counted and sorted for the page (pageFromOneRead). The last
+    // contact, a subquery per visit, is read only when the page is sorted by it.
     const sortColumns = SORTS[q.sort].map((c) => c.split('.').pop()!);
     const queue = base().select('v.id', 'v.due_date', ...(q.sort === 'lastContact' ? [lastContact] : []));
-    ids = (await knex
-      .withMaterialized('queue', queue)
-      .from('queue')
-      .select('id', knex.raw('(select count(*) from queue) as total'))
-      .orderBy(sortColumns.map((column) => ({ column, order: q.dir, nulls: q.dir === 'asc' ? 'first' : 'last' })))
-      .limit(q.pageSize)
-      .offset(pageOffset(q))) as { id: string; total: string }[];
-    // A page past the end has no row to carry the total: counted apart (rare).
-    total = ids.length ? Number(ids[0]!.total) : q.page > 1 ? Number((await counted().count<{ n: string }[]>('* as n'))[0]?.n ?? 0) : 0;
+    const order = sortColumns.map((column) => ({ column, order: q.dir, nulls: q.dir === 'asc' ? ('first' as const) : ('last' as const) }));
+    ({ ids, total } = await pageFromOneRead(knex, queue, order, q, () => countOf(base())));
   }
-  const rows = await deskRowsByIds(em, s, ids.map((r) => r.id));
+  const rows = await deskRowsByIds(em, s, ids);
   await auditRead(em, actor, {
     action: 'recall.rows_read',
     detail: { queue: q.queue, page: q.page, ...(q.clinician ? { clinician: q.clinician } : {}), visitIds: rows.map((r) => r.visitId) },

@@ -217,6 +217,34 @@ export function pageOffset(q: { page: number; pageSize: number }): number {
   return (q.page - 1) * q.pageSize;
 }
 
+/** The number of rows `query` finds. */
+export async function countOf(query: Knex.QueryBuilder): Promise<number> {
+  return Number(((await query.count('* as n')) as { n: string }[])[0]?.n ?? 0);
+}
+
+/**
+ * One page of a set and the set's size from one read: the set (`id` and the sort columns) is read
+ * once (a materialized CTE), then counted and sorted for the page — half the work of a count and a
+ * page query side by side when both must read the whole set (a desk queue, the cases with visits due
+ * in a range). A page past the end has no row to carry the total: `countApart` counts it (rare).
+ */
+export async function pageFromOneRead(
+  knex: Knex,
+  set: Knex.QueryBuilder,
+  order: { column: string; order: 'asc' | 'desc'; nulls?: 'first' | 'last' }[],
+  paging: { page: number; pageSize: number },
+  countApart: () => Promise<number>,
+): Promise<{ ids: string[]; total: number }> {
+  const rows = (await knex
+    .withMaterialized('one_read', set)
+    .from('one_read')
+    .select('id', knex.raw('(select count(*) from one_read) as total'))
+    .orderBy(order)
+    .limit(paging.pageSize)
+    .offset(pageOffset(paging))) as { id: string; total: string }[];
+  return { ids: rows.map((r) => r.id), total: rows.length ? Number(rows[0]!.total) : paging.page > 1 ? await countApart() : 0 };
+}
+
 /** Loads a case of the actor's practice or answers 404 (also for another practice's id). */
 export async function findCase(em: EntityManager, actor: Actor, id: string, withPeople = false): Promise<TreatmentCase> {
   const where = { id: assertId(id, 'case'), practice: actor.practiceId };
