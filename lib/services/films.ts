@@ -10,7 +10,7 @@ import { FilmRejected, processFilm, type ProcessedFilm } from '@/lib/films/proce
 import { FILM_ROLE_LABELS, SPACING_SOURCE_LABELS, type FilmRole, type FilmVariant, type SpacingSourceCode } from '@/lib/films/roles';
 import { FilmUploadFields } from '@/lib/schemas/film';
 import type { FilmCalibration, FilmPoint } from '@/lib/films/calibration';
-import { deleteObjects, getObject, putObject } from '@/lib/storage/s3';
+import { deleteObjects, getObject, getUnchangingObject, putObject } from '@/lib/storage/s3';
 import { audit, auditRead } from './audit';
 import { NotFoundError, ServiceError, ValidationError } from './errors';
 import { UnavailableError } from './unavailable';
@@ -315,7 +315,7 @@ export async function readFilmFile(em: EntityManager, actor: Actor, filmId: stri
   const film = await em.findOne(FilmSchema, { id: assertId(filmId, 'film'), practice: actor.practiceId, archivedAt: null });
   if (!film) throw new NotFoundError('No such film.');
   const key = variant === 'thumbnail' ? film.thumbnailKey : variant === 'web' ? film.webKey : film.originalKey;
-  const body = await getObject(key);
+  const body = variant === 'original' ? await getObject(key) : await getUnchangingObject(key);
   if (!body) throw new NotFoundError('The film’s file is missing from storage.');
   await auditRead(em, actor, { action: 'film.viewed', entityType: 'case', entityId: film.case.id, detail: { film: film.id, variant } });
   const contentType =

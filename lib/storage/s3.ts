@@ -2,6 +2,7 @@ import 'server-only';
 import type { Readable } from 'node:stream';
 import { DeleteObjectCommand, GetObjectCommand, HeadObjectCommand, ListObjectsV2Command, NoSuchKey, PutObjectCommand, S3Client } from '@aws-sdk/client-s3';
 import { env } from '@/lib/env';
+import { makeBytesKeeper } from '@/lib/kept-recently';
 
 /**
  * Object storage for films: one bucket (S3_BUCKET) on an S3-compatible endpoint (S3_URL), path-style
@@ -43,9 +44,29 @@ export async function getObject(key: string): Promise<Uint8Array | null> {
   }
 }
 
+/**
+ * The film's small renditions (thumbnail, web), kept in this process once read: a film's objects sit
+ * under its own fresh id (lib/services/films.ts, storeFilmObjects) and are never written again, so a
+ * kept copy cannot go stale. Who may see them is asked of the database on every request, before this
+ * (a removed film's row is gone or archived first). At most 32 MB in all, 1 MB each; the least
+ * recently used go. Under load a thumbnail then costs its row and its audit event, not a signed
+ * request to the store (issue 15, `npm run bench -- load`).
+ */
+const renditions = makeBytesKeeper(32 * 1024 * 1024, 1024 * 1024);
+
+/** Reads a never-rewritten object (a film's rendition) from this process's copy, else from the store (getObject). */
+export async function getUnchangingObject(key: string): Promise<Uint8Array | null> {
+  const kept = renditions.get(key);
+  if (kept) return kept;
+  const body = await getObject(key);
+  if (body) renditions.put(key, body);
+  return body;
+}
+
 /** Removes the objects (missing keys are no error). */
 export async function deleteObjects(keys: readonly string[]): Promise<void> {
   if (keys.length === 0) return;
+  for (const key of keys) renditions.forget(key);
   // One request per key: the multi-object delete needs a body checksum the local fake does not take.
   await Promise.all(keys.map((Key) => s3().send(new DeleteObjectCommand({ Bucket: env.S3_BUCKET, Key }))));
 }

@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
-import { ListObjectsV2Command, S3Client } from '@aws-sdk/client-s3';
+import { DeleteObjectCommand, ListObjectsV2Command, S3Client } from '@aws-sdk/client-s3';
 import sharp from 'sharp';
 import { afterAll, beforeEach, describe, expect, it, vi } from 'vitest';
 import { AuditEventSchema, FilmSchema } from '@/entities';
@@ -301,6 +301,25 @@ describe('serving films', () => {
     ]);
     await list(w.c.id);
     expect(await services.em().count(AuditEventSchema, { action: 'film.list', entityId: w.c.id })).toBe(1);
+  });
+
+  it('a rendition is read from the store once, then from the process’s copy; the row is still asked first and every view audited', async () => {
+    const w = await world();
+    as(w.a.clinician);
+    const id = (await upload(w.c.id, fixture('radiograph.png'), 'r.png')).body.film.id as string;
+    const first = { thumbnail: (await fetchFile(id, 'thumbnail')).bytes, web: (await fetchFile(id, 'web')).bytes };
+    // the objects go from the store behind the app's back: the renditions are still served, the original is not
+    for (const key of await keysOf(w.a.practice.id, w.c.id)) await s3().send(new DeleteObjectCommand({ Bucket: env.S3_BUCKET, Key: key }));
+    for (const variant of ['thumbnail', 'web'] as const) {
+      const again = await fetchFile(id, variant);
+      expect(again.res.status).toBe(200);
+      expect(Buffer.from(again.bytes).equals(Buffer.from(first[variant]))).toBe(true);
+    }
+    expect((await fetchFile(id, 'original')).res.status).toBe(404);
+    // an archived film answers 404 though its copy is kept; another practice never reaches the copy
+    await services.em().getConnection().execute('update film set archived_at = now() where id = ?', [id]);
+    expect((await fetchFile(id, 'thumbnail')).res.status).toBe(404);
+    expect(await services.em().count(AuditEventSchema, { action: 'film.viewed' })).toBe(4);
   });
 
   it('roles: the lead reads but does not upload; the administrator and the researcher see nothing', async () => {
