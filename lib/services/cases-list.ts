@@ -152,19 +152,14 @@ export async function listCases(em: EntityManager, actor: Actor, raw: unknown): 
   assertCan(actor, 'patient.read');
   const f = parseInput(CaseListQuery, raw);
   const settings = await practiceSettings(em, actor.practiceId);
-  const result = await queryCases(em, actor.practiceId, f, settings.toothNotation);
-  await auditRead(em, actor, {
-    action: 'case.list',
-    entityType: 'case',
-    detail: {
-      page: f.page,
-      pageSize: f.pageSize,
-      filters: usedFilters(f),
-      searched: Boolean(f.q),
-      ids: result.rows.map((r) => r.id),
-    },
-  });
-  return result;
+  // The page's ids are recorded beside the reading of its rows (one round trip fewer a request).
+  return queryCases(em, actor.practiceId, f, settings.toothNotation, (ids) =>
+    auditRead(em, actor, {
+      action: 'case.list',
+      entityType: 'case',
+      detail: { page: f.page, pageSize: f.pageSize, filters: usedFilters(f), searched: Boolean(f.q), ids },
+    }),
+  );
 }
 
 const LIST_DEFAULTS = CaseListQuery.parse({}) as Record<string, unknown>;
@@ -177,8 +172,17 @@ function usedFilters(f: CaseListFilters): string[] {
     .sort();
 }
 
-/** The list query itself, without permission check or audit (for the patient page and the benchmark). */
-export async function queryCases(em: EntityManager, practiceId: string, f: CaseListFilters, notation: ToothNotation): Promise<CasePage> {
+/**
+ * The list query itself, without permission check or audit (for the patient page and the benchmark).
+ * `alongside` runs with the page's case ids beside the reading of their rows (the list's audit event).
+ */
+export async function queryCases(
+  em: EntityManager,
+  practiceId: string,
+  f: CaseListFilters,
+  notation: ToothNotation,
+  alongside?: (ids: string[]) => Promise<unknown>,
+): Promise<CasePage> {
   const knex = em.getKnex();
   const base = caseListQuery(knex, practiceId, f);
   const order = [...SORT_COLUMNS[f.sort], 'c.id'].map((column) => ({ column, order: f.dir }));
@@ -209,7 +213,7 @@ export async function queryCases(em: EntityManager, practiceId: string, f: CaseL
     ids = idRows.map((r: { id: string }) => r.id);
     total = counted;
   }
-  const rows = ids.length ? await caseRowsByIds(em, ids, notation) : [];
+  const [rows] = await Promise.all([ids.length ? caseRowsByIds(em, ids, notation) : [], alongside?.(ids)]);
   return {
     rows,
     total,

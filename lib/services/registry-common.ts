@@ -123,6 +123,21 @@ export function assertId(id: unknown, what: string): string {
   return id.toLowerCase();
 }
 
+/** What a step gave or threw, like a settled promise: for steps run side by side whose failures are judged in a chosen order (`settled`). */
+export function attempt<T>(fn: () => T): PromiseSettledResult<T> {
+  try {
+    return { status: 'fulfilled', value: fn() };
+  } catch (reason) {
+    return { status: 'rejected', reason };
+  }
+}
+
+/** A settled step's value, or its error thrown. */
+export function settled<T>(r: PromiseSettledResult<T>): T {
+  if (r.status === 'rejected') throw r.reason;
+  return r.value;
+}
+
 /** A referenced id from a body (patientId, operatorId…): not a uuid is a 422 on that field. */
 export function bodyId(value: string | undefined, field: string, message: string): string | undefined {
   if (value === undefined) return undefined;

@@ -28,7 +28,7 @@ import {
 import { auditRead, auditWithChanges } from './audit';
 import { ConflictError, NotFoundError, ValidationError } from './errors';
 import { parseInput } from './parse';
-import { assertClinician, assertId, bodyId, findCase, knexOf, practiceSettings, todayIn } from './registry-common';
+import { assertClinician, assertId, attempt, bodyId, findCase, knexOf, practiceSettings, settled, todayIn } from './registry-common';
 import { changeVisitStatus, loadVisits, setVisitSummary, visitViews, type VisitView } from './visits';
 
 export interface ReviewView {
@@ -146,9 +146,19 @@ async function recordReview(
   raw: unknown,
   correction?: { supersedes: Review; reason: string },
 ): Promise<ReviewRecorded> {
-  const c = await findCase(em, actor, caseId);
+  // The case, its visits and the assessor are read side by side (one round trip); what they answer
+  // is judged in the order a reader expects: no such case (404), the input (422), the case's state
+  // (409), the dates, then the assessor.
+  const id = assertId(caseId, 'case');
   const body = raw && typeof raw === 'object' && !Array.isArray(raw) ? (raw as Record<string, unknown>) : {};
-  const input = parseInput(ReviewCreateSchema, { ...body, caseId: c.id, assessorId: body.assessorId ?? actor.userId });
+  const parsed = attempt(() => parseInput(ReviewCreateSchema, { ...body, caseId: id, assessorId: body.assessorId ?? actor.userId }));
+  const [caseRead, visitsRead, assessorCheck] = await Promise.allSettled([
+    findCase(em, actor, id),
+    loadVisits(em, id),
+    'value' in parsed ? assertClinician(em, actor.practiceId, parsed.value.assessorId, 'assessorId') : undefined,
+  ]);
+  const c = settled(caseRead);
+  const input = settled(parsed);
   const settings = await practiceSettings(em, actor.practiceId);
   const today = todayIn(settings.timeZone);
   if (!c.completionDate) throw new ConflictError('The case is not completed yet: a review follows the completion of treatment.');
@@ -157,7 +167,8 @@ async function recordReview(
     throw new ValidationError('Some fields need attention.', { reviewDate: [`The review date is before the completion date (${c.completionDate}).`] });
   }
   if (input.reviewDate > today) throw new ValidationError('Some fields need attention.', { reviewDate: ['The review date is in the future.'] });
-  const [, visits] = await Promise.all([assertClinician(em, actor.practiceId, input.assessorId, 'assessorId'), loadVisits(em, c.id)]);
+  settled(assessorCheck);
+  const visits = settled(visitsRead);
   const who = { practiceId: actor.practiceId, userId: actor.userId };
   const visitId = bodyId(input.visitId, 'visitId', 'Choose one of this case’s visits.');
   if (visitId) {

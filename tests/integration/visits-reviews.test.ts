@@ -113,6 +113,31 @@ describe('the review marks the visit of the day attended', () => {
   });
 });
 
+describe('a review’s refusals, judged in order though the case, its visits and the assessor are read side by side', () => {
+  it('no such case (404) before a bad body; a bad body (422) before the case’s state; the case’s state (409) and the dates before the assessor', async () => {
+    const { a, c } = await world();
+    const good = { reviewDate: today, toothStatus: 'present', paiScore: 1, lesionDiameterMm: 0 };
+    const other = await makeRegistryPractice(services.em(), 'birch');
+    const notClinician = a.coordinator.userId;
+    // another practice's case, with a bad body and an assessor who is no clinician: 404
+    await expect(createReview(services.em(), other.clinician, c.id, { ...good, paiScore: 9, assessorId: notClinician })).rejects.toMatchObject({ status: 404 });
+    await expect(createReview(services.em(), a.clinician, 'not-a-case', { ...good, paiScore: 9 })).rejects.toMatchObject({ status: 404 });
+    // the body (422) before the case's state
+    const open = await createCase(services.em(), a.clinician, caseInput(c.patient.id, a.clinician.userId, { tooth: 46, startDate: monthsAgo(1), completionDate: undefined, canals: [] }));
+    await expect(createReview(services.em(), a.clinician, open.id, { ...good, paiScore: 9 })).rejects.toMatchObject({ status: 422, fieldErrors: { paiScore: expect.any(Array) } });
+    // the case's state (409), then the dates, before the assessor
+    await expect(createReview(services.em(), a.clinician, open.id, { ...good, assessorId: notClinician })).rejects.toMatchObject({ status: 409, message: expect.stringMatching(/not completed/) });
+    await expect(createReview(services.em(), a.clinician, c.id, { ...good, reviewDate: addDaysTo(today, 1), assessorId: notClinician })).rejects.toMatchObject({
+      status: 422,
+      fieldErrors: { reviewDate: ['The review date is in the future.'] },
+    });
+    await expect(createReview(services.em(), a.clinician, c.id, { ...good, assessorId: notClinician })).rejects.toMatchObject({ status: 422, fieldErrors: { assessorId: expect.any(Array) } });
+    expect(await services.em().count(AuditEventSchema, { action: 'review.created' })).toBe(0);
+    // and a good one is recorded
+    expect((await createReview(services.em(), a.clinician, c.id, good)).review.outcome).toBeTruthy();
+  });
+});
+
 describe('close as lost: one routine', () => {
   it('the desk’s close writes a contact-log entry for every visit it closes, as the scan does', async () => {
     const { a, v } = await world();
