@@ -286,8 +286,19 @@ async function orderedWorklist(em: EntityManager, actor: Actor, q: OutcomeFilter
 const MAX_ORDERS = 32;
 const orders = new Map<string, { ordered: readonly OrderedEntry[]; counts: Readonly<Record<Urgency, number>> }>();
 
-/** The list for the actor's filter in urgency order, and the rows of one page (the details read for that page only). */
-export async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
+/** What a worklist page shows, known before its details are read (for its audit event). */
+export interface WorklistShown {
+  filter: OutcomeFilter;
+  cases: number;
+  page: number;
+  rows: number;
+}
+
+/**
+ * The list for the actor's filter in urgency order, and the rows of one page (the details read for
+ * that page only). `alongside` runs beside the details' read (the screen's audit event).
+ */
+export async function buildWorklist(em: EntityManager, actor: Actor, raw: unknown, alongside?: (shown: WorklistShown) => Promise<unknown>): Promise<WorklistReport> {
   const q = parseInput(WorklistQuery, raw ?? {});
   const { s, ordered, counts, completion, detailOf } = await orderedWorklist(em, actor, q);
   const pageSize = q.pageSize;
@@ -296,10 +307,12 @@ export async function buildWorklist(em: EntityManager, actor: Actor, raw: unknow
   const seesPatients = can(actor.roles, 'patient.read');
   const decides = can(actor.roles, 'outcomes.decide');
   const details = new Map<string, DetailRow & PageColumns>();
-  if (shown.length) {
+  const read = async () => {
+    if (!shown.length) return;
     const { sql, bindings } = detailQuery(actor.practiceId, detailOf(shown), { page: true, patients: seesPatients });
     for (const d of (await knexOf(em).raw(sql, bindings)).rows as (DetailRow & PageColumns)[]) details.set(d.id, d);
-  }
+  };
+  await Promise.all([read(), alongside?.({ filter: s.filter, cases: ordered.length, page, rows: shown.length })]);
   const rows = shown.map((e): WorklistRow => {
     const d = details.get(e.caseId)!;
     return {
@@ -331,9 +344,8 @@ export async function buildWorklist(em: EntityManager, actor: Actor, raw: unknow
 
 /** The worklist for the actor's filter (a clinician: their own cases), in urgency order. Audited. */
 export async function outcomesWorklist(em: EntityManager, actor: Actor, raw: unknown): Promise<WorklistReport> {
-  const report = await buildWorklist(em, actor, raw);
-  await auditRead(em, actor, { action: 'outcomes.worklist_read', detail: { ...filterDetail(report.filter), cases: report.total, page: report.page, rows: report.rows.length } });
-  return report;
+  // recorded beside the reading of the page's details
+  return buildWorklist(em, actor, raw, ({ filter, ...shown }) => auditRead(em, actor, { action: 'outcomes.worklist_read', detail: { ...filterDetail(filter), ...shown } }));
 }
 
 export const WORKLIST_CSV_HEADER = [

@@ -188,14 +188,25 @@ export async function scope(em: EntityManager, actor: Actor, q: OutcomeFilterQue
   assertCan(actor, 'outcomes.read');
   const whole = seesWholePractice(actor);
   // the rows come from the per-practice cache while the practice's data version is unchanged
-  const [settings, { rows: all, version, asOf }, referrers] = await Promise.all([practiceSettings(em, actor.practiceId), cachedOutcomeCases(em, actor.practiceId, OUTCOME_READER, env.OUTCOMES_MAX_LAG_MS), practiceReferrers(em, actor)]);
+  // The practice's clinicians are read beside the rows; past clinicians who treated some of the
+  // rows' cases (rare) take a second read once the rows are known.
+  const [settings, { rows: all, version, asOf }, referrers, current] = await Promise.all([
+    practiceSettings(em, actor.practiceId),
+    cachedOutcomeCases(em, actor.practiceId, OUTCOME_READER, env.OUTCOMES_MAX_LAG_MS),
+    practiceReferrers(em, actor),
+    whole ? practiceClinicians(em, actor, []) : null,
+  ]);
   const filter: OutcomeFilter = { from: q.from, to: q.to, kind: q.kind, clinician: whole ? q.clinician : actor.userId, levels: q.levels };
   const today = todayIn(settings.timeZone);
   const minObs = settings.minObservationDays;
   const memo = <T>(key: readonly unknown[], compute: (all: OutcomeCase[]) => T): T => memoView(actor.practiceId, version, [...key, today, minObs], all, compute);
   // who treated the practice's cases, from the rows (kept per data version) rather than a scan of the cases
   const operators = memoView(actor.practiceId, version, ['operators'], all, (rows) => [...new Set(rows.map((c) => c.operatorId))]);
-  const clinicians = whole ? await practiceClinicians(em, actor, operators) : [{ id: actor.userId, name: actor.name ?? actor.email }];
+  const clinicians = !current
+    ? [{ id: actor.userId, name: actor.name ?? actor.email }]
+    : operators.every((id) => current.some((c) => c.id === id))
+      ? current
+      : await practiceClinicians(em, actor, operators);
   return { filter, own: !whole, today, timeZone: settings.timeZone, minObs, all, clinicians, referrers, version, asOf, memo };
 }
 

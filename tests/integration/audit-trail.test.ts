@@ -1,6 +1,6 @@
 import { afterAll, beforeEach, describe, expect, it } from 'vitest';
 import { AuditEventSchema } from '@/entities';
-import { auditPeople, exportAuditCsv, listAuditEvents } from '@/lib/services/audit';
+import { audit, auditPeople, auditRead, exportAuditCsv, listAuditEvents } from '@/lib/services/audit';
 import { createCase, getCase } from '@/lib/services/cases';
 import { ForbiddenError, ValidationError } from '@/lib/services/errors';
 import { createPatient } from '@/lib/services/patients';
@@ -33,6 +33,20 @@ async function world() {
 }
 
 describe('the audit trail', () => {
+  it('a read’s event (auditRead, a plain insert) is the same row as a change’s (audit, through the ORM), detail and all', async () => {
+    const { a, caseId } = await world();
+    const cora = { ...a.actor('cora@alder.test'), ip: '192.0.2.7', userAgent: 'x'.repeat(400) };
+    const input = { entityType: 'case', entityId: caseId, detail: { ids: [caseId], page: 2, filters: ['kind'], nested: { quote: 'O’Brien "x"' } } };
+    await auditRead(services.em(), cora, { action: 'test.read', ...input });
+    await audit(services.em(), cora, { action: 'test.changed', ...input });
+    const rows = await services.em().getKnex()('audit_event').whereIn('action', ['test.read', 'test.changed']).orderBy('action', 'desc').select('*');
+    expect(rows).toHaveLength(2);
+    const [read, changed] = rows.map(({ id, at, action: _action, ...rest }) => ({ rest, fresh: Math.abs(Date.now() - new Date(at).getTime()) < 60_000, id: typeof id }));
+    expect(read).toEqual(changed);
+    expect(read!.rest).toMatchObject({ practice_id: a.practice.id, actor_id: cora.userId, ip: '192.0.2.7', detail: input.detail });
+    expect(read!.rest.user_agent).toHaveLength(300);
+  });
+
   it('filters by person, in plain words, and names records for the administrator by kind and short reference only', async () => {
     const { a, admin, patient, caseId } = await world();
     const page = await listAuditEvents(services.em(), admin, { person: a.actor('cal@alder.test').userId });

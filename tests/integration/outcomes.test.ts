@@ -256,6 +256,22 @@ describe('outcomes by factor (issue 12, item 2)', () => {
     await expect(outcomesByFactor(services.em(), world.auditor, { factor: 'horoscope' })).rejects.toMatchObject({ status: 422 });
   });
 
+  it('a past clinician (no longer a clinician of the practice) who treated cases is still listed and named', async () => {
+    const knex = services.orm.em.getKnex();
+    const who = { user_id: world.clinician2.userId, practice_id: world.practice.id };
+    const names = (r: { clinicians: { id: string; name: string }[] }) => r.clinicians.map((c) => c.id).sort();
+    const both = [world.clinician.userId, world.clinician2.userId].sort();
+    expect(names(await outcomesByFactor(services.em(), world.auditor, { factor: 'clinician' }))).toEqual(both);
+    await knex('membership').where({ ...who, role: 'clinician' }).update({ role: 'coordinator' });
+    try {
+      const r = await outcomesByFactor(services.em(), world.auditor, { factor: 'clinician' });
+      expect(names(r)).toEqual(both);
+      expect(r.table.levels.map((l) => l.level)).not.toContain('Former clinician');
+    } finally {
+      await knex('membership').where({ ...who, role: 'coordinator' }).update({ role: 'clinician' });
+    }
+  });
+
   it('downloads each table through the one CSV writer, audited', async () => {
     const csv = await outcomesCsv(services.em(), world.auditor, 'factor', { factor: 'kind' });
     expect(csv.split('\r\n')[0]).toMatch(/^Treatment kind,Cases,Strict: successes/);
