@@ -120,10 +120,11 @@ function reasonOf(reviews: readonly ReviewView[], id: string | null): string {
 
 export async function caseDetail(em: EntityManager, c: TreatmentCase, settings: PracticeSettings): Promise<CaseDetail> {
   const visitsRead = loadVisits(em, c.id);
+  // The patient, clinician and referrer as the case's read brought them (the case page joins them), else read.
   const [patient, operator, referrer, visits, reviews, linked] = await Promise.all([
-    em.findOneOrFail(PatientSchema, c.patient.id),
-    em.findOneOrFail(UserSchema, c.operator.id, { fields: ['id', 'name', 'email'] }),
-    c.referrer ? em.findOne(ReferrerSchema, c.referrer.id) : Promise.resolve(null),
+    c.patient.isInitialized() ? c.patient.unwrap() : em.findOneOrFail(PatientSchema, c.patient.id),
+    c.operator.isInitialized() ? c.operator.unwrap() : em.findOneOrFail(UserSchema, c.operator.id, { fields: ['id', 'name', 'email'] }),
+    !c.referrer ? null : c.referrer.isInitialized() ? c.referrer.unwrap() : em.findOne(ReferrerSchema, c.referrer.id),
     visitsRead,
     caseReviews(em, c.id, visitsRead),
     linkedCases(em, c),
