@@ -1,6 +1,7 @@
 import { hkdfSync, randomUUID } from 'node:crypto';
 import { EncryptJWT, jwtDecrypt } from 'jose';
 import type { JWT, JWTDecodeParams, JWTEncodeParams } from 'next-auth/jwt';
+import { keepRecent } from '@/lib/kept-recently';
 
 /**
  * The session cookie's codec: next-auth's own JWT format (a JWE, "dir" + A256GCM, with the key
@@ -34,8 +35,25 @@ export async function encodeSessionToken({ token = {}, secret, maxAge = DEFAULT_
     .encrypt(keyFor(secret, salt));
 }
 
+/**
+ * Tokens already decrypted, with their claims (at most MAX_DECODED, the least recently used going):
+ * a signed-in browser sends the same cookie on every request, and its decryption was about 1.5 % of
+ * the web server's time under load (issue 15). Only the exact token string finds its claims, so
+ * nothing can be read here that was not decrypted with the key; the expiry is checked again on
+ * every use, and the session's version and practice are still checked against the database on
+ * every request (lib/auth/session.ts).
+ */
+const MAX_DECODED = 2000;
+const CLOCK_TOLERANCE_S = 15;
+const decoded = new Map<string, JWT>();
+
 export async function decodeSessionToken({ token, secret, salt = '' }: JWTDecodeParams): Promise<JWT | null> {
   if (!token) return null;
-  const { payload } = await jwtDecrypt(token, keyFor(secret, salt), { clockTolerance: 15 });
-  return payload as JWT;
+  const id = `${salt}\u0000${secret.toString()}\u0000${token}`;
+  const kept = decoded.get(id);
+  if (kept && (typeof kept.exp !== 'number' || kept.exp + CLOCK_TOLERANCE_S > nowSeconds())) return { ...keepRecent(decoded, id, kept, MAX_DECODED) };
+  decoded.delete(id);
+  const { payload } = await jwtDecrypt(token, keyFor(secret, salt), { clockTolerance: CLOCK_TOLERANCE_S });
+  keepRecent(decoded, id, payload as JWT, MAX_DECODED);
+  return { ...(payload as JWT) };
 }
