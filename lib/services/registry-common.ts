@@ -2,7 +2,7 @@ import 'server-only';
 import { z } from 'zod';
 import type { Knex } from '@mikro-orm/knex';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import { MembershipSchema, PracticeSchema, TreatmentCaseSchema, type TreatmentCase } from '@/entities';
+import { PracticeSchema, TreatmentCaseSchema, type TreatmentCase } from '@/entities';
 import type { Actor } from '@/lib/auth/actor';
 import { DEFAULT_RECALL_POLICY, RecallPolicySchema, type RecallPolicy } from '@/lib/schemas/recall-policy';
 import type { Canal } from '@/lib/schemas/case';
@@ -145,22 +145,24 @@ export function bodyId(value: string | undefined, field: string, message: string
   return value.toLowerCase();
 }
 
-/** The ids among `userIds` that hold an active clinician role in the practice. */
-export async function activeClinicians(em: EntityManager, practiceId: string, userIds: readonly string[]): Promise<Set<string>> {
-  if (userIds.length === 0) return new Set();
-  const rows = await em.find(
-    MembershipSchema,
-    { practice: practiceId, role: 'clinician', revokedAt: null, user: { $in: [...new Set(userIds)] } },
-    { fields: ['user'] },
-  );
-  return new Set(rows.map((m) => m.user.id));
+/** The users among `userIds` who hold an active clinician role in the practice, with their names. */
+export async function activeClinicians(em: EntityManager, practiceId: string, userIds: readonly string[]): Promise<Map<string, string | null>> {
+  if (userIds.length === 0) return new Map();
+  const rows = (await knexOf(em)('membership as m')
+    .join('app_user as u', 'u.id', 'm.user_id')
+    .where({ 'm.practice_id': practiceId, 'm.role': 'clinician' })
+    .whereNull('m.revoked_at')
+    .whereIn('m.user_id', [...new Set(userIds)])
+    .select('u.id', 'u.name')) as { id: string; name: string | null }[];
+  return new Map(rows.map((r) => [r.id, r.name ?? null]));
 }
 
-/** Throws a 422 on `field` unless the user is an active clinician of the practice. */
-export async function assertClinician(em: EntityManager, practiceId: string, userId: string, field: string): Promise<void> {
+/** Throws a 422 on `field` unless the user is an active clinician of the practice; else their name (null when they have none). */
+export async function assertClinician(em: EntityManager, practiceId: string, userId: string, field: string): Promise<string | null> {
   const id = bodyId(userId, field, 'Choose a clinician of this practice.')!;
   const found = await activeClinicians(em, practiceId, [id]);
   if (!found.has(id)) throw new ValidationError('Some fields need attention.', { [field]: ['Choose a clinician of this practice.'] });
+  return found.get(id) ?? null;
 }
 
 const FILL_RANK: Record<FillLengthClass, number> = { within: 0, short: 1, beyond: 2 };

@@ -152,10 +152,11 @@ async function recordReview(
   const id = assertId(caseId, 'case');
   const body = raw && typeof raw === 'object' && !Array.isArray(raw) ? (raw as Record<string, unknown>) : {};
   const parsed = attempt(() => parseInput(ReviewCreateSchema, { ...body, caseId: id, assessorId: body.assessorId ?? actor.userId }));
-  const [caseRead, visitsRead, assessorCheck] = await Promise.allSettled([
+  const [caseRead, visitsRead, assessorCheck, reviewsRead] = await Promise.allSettled([
     findCase(em, actor, id),
     loadVisits(em, id),
-    'value' in parsed ? assertClinician(em, actor.practiceId, parsed.value.assessorId, 'assessorId') : undefined,
+    'value' in parsed ? assertClinician(em, actor.practiceId, parsed.value.assessorId, 'assessorId') : null,
+    readReviewRows(em, id),
   ]);
   const c = settled(caseRead);
   const input = settled(parsed);
@@ -167,8 +168,9 @@ async function recordReview(
     throw new ValidationError('Some fields need attention.', { reviewDate: [`The review date is before the completion date (${c.completionDate}).`] });
   }
   if (input.reviewDate > today) throw new ValidationError('Some fields need attention.', { reviewDate: ['The review date is in the future.'] });
-  settled(assessorCheck);
+  const assessorName = settled(assessorCheck);
   const visits = settled(visitsRead);
+  const earlier = settled(reviewsRead);
   const who = { practiceId: actor.practiceId, userId: actor.userId };
   const visitId = bodyId(input.visitId, 'visitId', 'Choose one of this case’s visits.');
   if (visitId) {
@@ -255,7 +257,37 @@ async function recordReview(
     });
   }
   await em.flush();
-  const all = await caseReviews(em, c.id, visits);
+  // The answer's reviews are those read before the write with this one added (and the one a
+  // correction replaces marked so), as a read after the write would give them: no read after it.
+  const saved: ReviewRow = {
+    id: review.id,
+    visit_id: visitId ?? null,
+    assessor_id: input.assessorId,
+    assessor_name: assessorName,
+    review_date: review.reviewDate,
+    days_since_completion: review.daysSinceCompletion,
+    tooth_status: review.toothStatus,
+    pai_score: review.paiScore ?? null,
+    lesion_diameter_mm: review.lesionDiameterMm ?? null,
+    signs: review.signs,
+    other_findings: review.otherFindings ?? null,
+    event_date: review.eventDate ?? null,
+    extraction_reason: review.extractionReason ?? null,
+    outcome: review.outcome,
+    success_strict: review.successStrict,
+    success_lenient: review.successLenient,
+    outcome_reasons: review.outcomeReasons,
+    created_at: review.createdAt,
+    superseded_by_id: null,
+    superseded_at: null,
+    correction_reason: correction?.reason ?? null,
+    corrected_by_id: correction ? actor.userId : null,
+    corrected_by_name: correction ? actor.name : null,
+  };
+  const rows = earlier.map((r) =>
+    correction && r.id === correction.supersedes.id ? { ...r, superseded_by_id: review.id, superseded_at: correction.supersedes.supersededAt ?? null } : r,
+  );
+  const all = await reviewViews(em, c.id, [...rows, saved].sort(byReviewOrder), visits);
   return {
     review: all.reviews.find((r) => r.id === review.id)!,
     visits: await visitViews(em, visits, today, all.reviews),
@@ -386,6 +418,49 @@ interface ReviewRow {
   corrected_by_name: string | null;
 }
 
+/** A case's review rows, in the order the views show them (review date, then entry), with the people's names joined. */
+function readReviewRows(em: EntityManager, caseId: string): Promise<ReviewRow[]> {
+  const knex = knexOf(em);
+  return knex('review as r')
+    .leftJoin('app_user as a', 'a.id', 'r.assessor_id')
+    .leftJoin('app_user as k', 'k.id', 'r.corrected_by_id')
+    .where('r.case_id', caseId)
+    .orderBy([{ column: 'r.review_date' }, { column: 'r.created_at' }, { column: 'r.id' }])
+    .select(
+      'r.id',
+      'r.visit_id',
+      'r.assessor_id',
+      'a.name as assessor_name',
+      knex.raw('r.review_date::text as review_date'),
+      'r.days_since_completion',
+      'r.tooth_status',
+      'r.pai_score',
+      'r.lesion_diameter_mm',
+      'r.signs',
+      'r.other_findings',
+      knex.raw('r.event_date::text as event_date'),
+      'r.extraction_reason',
+      'r.outcome',
+      'r.success_strict',
+      'r.success_lenient',
+      'r.outcome_reasons',
+      'r.created_at',
+      'r.superseded_by_id',
+      'r.superseded_at',
+      'r.correction_reason',
+      'r.corrected_by_id',
+      'k.name as corrected_by_name',
+    ) as Promise<ReviewRow[]>;
+}
+
+/** The order of readReviewRows (review date, entry time, id), for rows put together in memory. */
+function byReviewOrder(a: ReviewRow, b: ReviewRow): number {
+  if (a.review_date !== b.review_date) return a.review_date < b.review_date ? -1 : 1;
+  const t = new Date(a.created_at).getTime() - new Date(b.created_at).getTime();
+  if (t !== 0) return t;
+  return a.id < b.id ? -1 : a.id > b.id ? 1 : 0;
+}
+
 /**
  * A case's reviews as views, with the current outcome. No audit (callers audit their read). One
  * plain read (no entities: the case page is the busiest read of reviews) with the people's names
@@ -397,40 +472,12 @@ export async function caseReviews(
   caseId: string,
   caseVisits?: Promise<readonly Pick<RecallVisit, 'id' | 'milestone'>[]> | readonly Pick<RecallVisit, 'id' | 'milestone'>[],
 ): Promise<CaseReviews> {
-  const knex = knexOf(em);
-  const [reviews, given] = await Promise.all([
-    knex('review as r')
-      .leftJoin('app_user as a', 'a.id', 'r.assessor_id')
-      .leftJoin('app_user as k', 'k.id', 'r.corrected_by_id')
-      .where('r.case_id', caseId)
-      .orderBy([{ column: 'r.review_date' }, { column: 'r.created_at' }, { column: 'r.id' }])
-      .select(
-        'r.id',
-        'r.visit_id',
-        'r.assessor_id',
-        'a.name as assessor_name',
-        knex.raw('r.review_date::text as review_date'),
-        'r.days_since_completion',
-        'r.tooth_status',
-        'r.pai_score',
-        'r.lesion_diameter_mm',
-        'r.signs',
-        'r.other_findings',
-        knex.raw('r.event_date::text as event_date'),
-        'r.extraction_reason',
-        'r.outcome',
-        'r.success_strict',
-        'r.success_lenient',
-        'r.outcome_reasons',
-        'r.created_at',
-        'r.superseded_by_id',
-        'r.superseded_at',
-        'r.correction_reason',
-        'r.corrected_by_id',
-        'k.name as corrected_by_name',
-      ) as Promise<ReviewRow[]>,
-    caseVisits ?? [],
-  ]);
+  const [reviews, given] = await Promise.all([readReviewRows(em, caseId), caseVisits ?? []]);
+  return reviewViews(em, caseId, reviews, given);
+}
+
+/** Review rows as views, with the current outcome; the milestones from the given visits (a visit not among them is read). */
+async function reviewViews(em: EntityManager, caseId: string, reviews: readonly ReviewRow[], given: readonly Pick<RecallVisit, 'id' | 'milestone'>[]): Promise<CaseReviews> {
   const milestoneOf = new Map(given.map((v) => [v.id, v.milestone]));
   const unknownVisits = [...new Set(reviews.flatMap((r) => (r.visit_id && !milestoneOf.has(r.visit_id) ? [r.visit_id] : [])))];
   const visits = unknownVisits.length ? await em.find(RecallVisitSchema, { id: { $in: unknownVisits } }, { fields: ['id', 'milestone'] }) : [];

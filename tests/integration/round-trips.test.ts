@@ -96,7 +96,8 @@ describe('round trips of the busiest requests', () => {
     const seen = await statements(a, a.clinician.userId, async (em) => {
       saved = await createReview(em, a.clinician, c.id, { reviewDate: today, toothStatus: 'present', paiScore: 1, lesionDiameterMm: 0 });
     });
-    // case, the assessor's membership, visits; BEGIN, the review and its event, COMMIT; the reviews (+ their assessors' names)
+    // side by side: the case, the assessor's membership, the visits, the reviews (+ their people's names); then BEGIN, the
+    // review and its event, COMMIT — and nothing after the write (the answer's reviews are those read before, with this one)
     expect(seen, seen.join('\n')).toHaveLength(8);
     expect(seen.filter((s) => /^begin|^commit/i.test(s))).toHaveLength(2);
     const events = await services.em().find(AuditEventSchema, { action: 'review.created', entityId: saved!.review.id });

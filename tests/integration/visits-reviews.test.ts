@@ -138,6 +138,32 @@ describe('a review’s refusals, judged in order though the case, its visits and
   });
 });
 
+describe('a saved review answers what a read after the write gives', () => {
+  it('a review at a visit, another assessor’s review, a correction and an extraction that cancels visits: the answer equals the case’s reviews and visits read again', async () => {
+    const { a, c, v } = await world();
+    const same = async (saved: Awaited<ReturnType<typeof createReview>>) => {
+      const read = await listReviews(services.em(), a.clinician, c.id);
+      expect(saved.review).toEqual(read.reviews.find((r) => r.id === saved.review.id));
+      expect(saved.currentOutcome).toBe(read.currentOutcome);
+      expect(saved.visits).toEqual(await listVisits(services.em(), a.clinician, c.id));
+      return read;
+    };
+    await updateVisit(services.em(), a.coordinator, v(12).id, { status: 'confirmed', bookedDate: today });
+    const atVisit = await createReview(services.em(), a.clinician, c.id, { visitId: v(12).id, reviewDate: today, toothStatus: 'present', paiScore: 3, lesionDiameterMm: 1.5, tenderToPercussion: true, otherFindings: 'Slight tenderness.' });
+    await same(atVisit);
+    const other = await createReview(services.em(), a.clinician, c.id, { assessorId: a.clinician2.userId, reviewDate: addDaysTo(today, -3), toothStatus: 'present', paiScore: 2, lesionDiameterMm: 1 });
+    expect(other.review.assessor.name).not.toBeNull();
+    await same(other);
+    const fixed = await correctReview(services.em(), a.clinician2, c.id, atVisit.review.id, { visitId: v(12).id, reviewDate: today, toothStatus: 'present', paiScore: 2, lesionDiameterMm: 0.5, reason: 'Read on the wrong film.' });
+    const afterFix = await same(fixed);
+    expect(afterFix.reviews.find((r) => r.id === atVisit.review.id)).toMatchObject({ current: false, supersededBy: fixed.review.id });
+    expect(fixed.review.correctedBy).toEqual({ id: a.clinician2.userId, name: expect.any(String) });
+    const extracted = await createReview(services.em(), a.clinician, c.id, { reviewDate: today, toothStatus: 'extracted', extractionReason: 'fracture' });
+    await same(extracted);
+    expect(extracted.visits.filter((x) => x.status === 'cancelled').length).toBeGreaterThan(0);
+  });
+});
+
 describe('close as lost: one routine', () => {
   it('the desk’s close writes a contact-log entry for every visit it closes, as the scan does', async () => {
     const { a, v } = await world();
