@@ -11,7 +11,7 @@ import { auditRead } from './audit';
 import { displayName, findCase, practiceSettings, todayIn, type PracticeSettings } from './registry-common';
 import { referrerView, type ReferrerView } from './referrers';
 import { caseReviews, type ReviewView } from './reviews';
-import { loadVisits, visitViews, type VisitView } from './visits';
+import { readVisitFields, visitViews, type VisitView } from './visits';
 import { caseValues } from './case-columns';
 
 // --- one case -------------------------------------------------------------------------------------
@@ -119,7 +119,7 @@ function reasonOf(reviews: readonly ReviewView[], id: string | null): string {
 }
 
 export async function caseDetail(em: EntityManager, c: TreatmentCase, settings: PracticeSettings): Promise<CaseDetail> {
-  const visitsRead = loadVisits(em, c.id);
+  const visitsRead = readVisitFields(em, c.id);
   // The patient, clinician and referrer as the case's read brought them (the case page joins them), else read.
   const [patient, operator, referrer, visits, reviews, linked] = await Promise.all([
     c.patient.isInitialized() ? c.patient.unwrap() : em.findOneOrFail(PatientSchema, c.patient.id),

@@ -212,7 +212,13 @@ export async function closeAsLost(em: EntityManager, actor: Actor | null, input:
 // --- shared with the case, review and import services ----------------------------------------------
 
 /** What lib/recall transitionVisit reads of a stored visit. */
-export function transitionView(v: RecallVisit): TransitionVisit {
+/** The fields of a visit its views read: an entity, or the case page's plain read (readVisitFields). */
+export type VisitFields = Pick<
+  RecallVisit,
+  'id' | 'milestone' | 'dueDate' | 'windowStart' | 'windowEnd' | 'status' | 'bookedDate' | 'reinviteNeeded' | 'lostToFollowUp' | 'closedOn' | 'note' | 'statusChangedAt' | 'missedReason' | 'missedOn' | 'missedFrom'
+> & { case: { id: string } };
+
+export function transitionView(v: VisitFields): TransitionVisit {
   return {
     status: v.status as VisitStatus,
     milestone: v.milestone,
@@ -272,6 +278,67 @@ export function loadVisits(em: EntityManager, caseId: string): Promise<RecallVis
   return em.find(RecallVisitSchema, { case: caseId }, { orderBy: { milestone: 'asc' } });
 }
 
+/** A case's visits as their views read them, by milestone: one plain read, no entities (the case page, which changes nothing). */
+export async function readVisitFields(em: EntityManager, caseId: string): Promise<VisitFields[]> {
+  const knex = knexOf(em);
+  const rows = (await knex('recall_visit')
+    .where('case_id', caseId)
+    .orderBy('milestone')
+    .select(
+      'id',
+      'case_id',
+      'milestone',
+      knex.raw('due_date::text as due_date'),
+      knex.raw('window_start::text as window_start'),
+      knex.raw('window_end::text as window_end'),
+      'status',
+      knex.raw('booked_date::text as booked_date'),
+      'reinvite_needed',
+      'lost_to_follow_up',
+      knex.raw('closed_on::text as closed_on'),
+      'note',
+      'status_changed_at',
+      'missed_reason',
+      knex.raw('missed_on::text as missed_on'),
+      'missed_from',
+    )) as {
+    id: string;
+    case_id: string;
+    milestone: number;
+    due_date: string;
+    window_start: string;
+    window_end: string;
+    status: RecallVisit['status'];
+    booked_date: string | null;
+    reinvite_needed: boolean;
+    lost_to_follow_up: boolean;
+    closed_on: string | null;
+    note: string | null;
+    status_changed_at: Date;
+    missed_reason: RecallVisit['missedReason'];
+    missed_on: string | null;
+    missed_from: RecallVisit['missedFrom'];
+  }[];
+  return rows.map((r) => ({
+    id: r.id,
+    case: { id: r.case_id },
+    milestone: r.milestone,
+    dueDate: r.due_date,
+    windowStart: r.window_start,
+    windowEnd: r.window_end,
+    status: r.status,
+    bookedDate: r.booked_date,
+    reinviteNeeded: r.reinvite_needed,
+    lostToFollowUp: r.lost_to_follow_up,
+    closedOn: r.closed_on,
+    note: r.note,
+    statusChangedAt: new Date(r.status_changed_at),
+    missedReason: r.missed_reason,
+    missedOn: r.missed_on,
+    missedFrom: r.missed_from,
+  }));
+}
+
 /** The earliest open visit of a list (due date and status), or null. */
 export function nextVisitOf(visits: readonly Pick<RecallVisit, 'dueDate' | 'status'>[]): { date: string; status: VisitStatus } | null {
   let next: { date: string; status: VisitStatus } | null = null;
@@ -319,7 +386,7 @@ export async function refreshNextVisit(em: EntityManager, caseIds: readonly stri
  */
 export async function visitViews(
   em: EntityManager,
-  visits: readonly RecallVisit[],
+  visits: readonly VisitFields[],
   today: string,
   caseReviews?: readonly { id: string; visitId: string | null; current: boolean }[],
 ): Promise<VisitView[]> {
@@ -331,7 +398,7 @@ export async function visitViews(
   return visits.map((v) => visitView(v, today, reviews.filter((r) => r.visitId === v.id).map((r) => r.id)));
 }
 
-export function visitView(v: RecallVisit, today: string, reviewIds: string[] = []): VisitView {
+export function visitView(v: VisitFields, today: string, reviewIds: string[] = []): VisitView {
   const status = v.status as VisitStatus;
   return {
     id: v.id,

@@ -69,6 +69,9 @@ describe('missed: with a reason, undone the same day', () => {
     await expect(markVisits(services.em(), a.coordinator, { visitIds: [id], status: 'missed' })).rejects.toMatchObject({ status: 422, fieldErrors: { reason: expect.any(Array) } });
     let visits = await updateVisit(services.em(), a.coordinator, id, { status: 'missed', missedReason: 'cancelled_late' });
     expect(visits.find((x) => x.id === id)).toMatchObject({ status: 'missed', missedReason: 'cancelled_late', missedReasonLabel: 'Cancelled late', canUndoMissed: true });
+    // the case page reads its visits plainly (no entities): the same views as the visits read through the ORM
+    const caseId = visits.find((x) => x.id === id)!.caseId;
+    expect((await getCase(services.em(), a.clinician, caseId)).visits).toEqual(await listVisits(services.em(), a.clinician, caseId));
     visits = await updateVisit(services.em(), a.coordinator, id, { undoMissed: true });
     expect(visits.find((x) => x.id === id)).toMatchObject({ status: 'confirmed', bookedDate: today, missedReason: null, canUndoMissed: false });
     expect((await log(id)).map((e) => [e.from_status, e.to_status, e.note])).toEqual([
@@ -161,6 +164,8 @@ describe('a saved review answers what a read after the write gives', () => {
     const extracted = await createReview(services.em(), a.clinician, c.id, { reviewDate: today, toothStatus: 'extracted', extractionReason: 'fracture' });
     await same(extracted);
     expect(extracted.visits.filter((x) => x.status === 'cancelled').length).toBeGreaterThan(0);
+    // the case page's plain read of the visits gives the same views (attended, cancelled with a note)
+    expect((await getCase(services.em(), a.clinician, c.id)).visits).toEqual(extracted.visits);
   });
 });
 
