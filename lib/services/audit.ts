@@ -121,17 +121,8 @@ export interface AuditPerson {
 /** The most rows one CSV export holds; narrow the filters for more. */
 export const AUDIT_EXPORT_LIMIT = 50_000;
 
-interface EventRow {
-  id: string;
-  at: Date;
-  actor_id: string | null;
-  actor_email: string | null;
-  action: string;
-  entity_type: string | null;
-  entity_id: string | null;
-  ip: string | null;
-  detail: Record<string, unknown> | null;
-}
+/** An event as the trail reads it (the columns it shows; the detail parsed). */
+type EventRow = Pick<AuditEventRow, 'id' | 'at' | 'actor_id' | 'actor_email' | 'action' | 'entity_type' | 'entity_id' | 'ip'> & { detail: Record<string, unknown> | null };
 
 /** The events of the actor's practice that match the filters (days are the practice's calendar days). */
 function filtered(knex: Knex, practiceId: string, timeZone: string, f: AuditFilter): Knex.QueryBuilder {
