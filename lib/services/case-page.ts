@@ -1,5 +1,6 @@
 import 'server-only';
 /** One case as its page shows it: details, timeline, visits, reviews and the tooth's linked cases. */
+import type { Ref } from '@mikro-orm/core';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { PatientSchema, ReferrerSchema, UserSchema, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
@@ -118,13 +119,18 @@ function reasonOf(reviews: readonly ReviewView[], id: string | null): string {
   return reviews.find((x) => x.id === id)?.correctionReason ?? '—';
 }
 
+/** A reference's entity as an earlier read of this request loaded it, else `read` now. */
+function loadedOr<T extends object, R>(ref: Ref<T>, read: () => Promise<R>): T | Promise<R> {
+  return ref.isInitialized() ? (ref.unwrap() as T) : read();
+}
+
 export async function caseDetail(em: EntityManager, c: TreatmentCase, settings: PracticeSettings): Promise<CaseDetail> {
   const visitsRead = readVisitFields(em, c.id);
   // The patient, clinician and referrer as the case's read brought them (the case page joins them), else read.
   const [patient, operator, referrer, visits, reviews, linked] = await Promise.all([
-    c.patient.isInitialized() ? c.patient.unwrap() : em.findOneOrFail(PatientSchema, c.patient.id),
-    c.operator.isInitialized() ? c.operator.unwrap() : em.findOneOrFail(UserSchema, c.operator.id, { fields: ['id', 'name', 'email'] }),
-    !c.referrer ? null : c.referrer.isInitialized() ? c.referrer.unwrap() : em.findOne(ReferrerSchema, c.referrer.id),
+    loadedOr(c.patient, () => em.findOneOrFail(PatientSchema, c.patient.id)),
+    loadedOr(c.operator, () => em.findOneOrFail(UserSchema, c.operator.id, { fields: ['id', 'name', 'email'] })),
+    c.referrer ? loadedOr(c.referrer, () => em.findOne(ReferrerSchema, c.referrer!.id)) : null,
     visitsRead,
     caseReviews(em, c.id, visitsRead),
     linkedCases(em, c),
