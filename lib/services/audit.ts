@@ -41,16 +41,7 @@ export async function audit(em: EntityManager, actor: Actor | null, input: Audit
   return event;
 }
 
-/**
- * Records who changed what with the caller's next flush: the event is written in the same
- * transaction as the changes it describes (one commit, no round trips of its own), and not at all
- * if they fail. The caller flushes.
- */
-export function auditWithChanges(em: EntityManager, actor: Actor, input: AuditInput): void {
-  em.persist(em.create(AuditEventSchema, eventFields(actor, input) as AuditEvent));
-}
-
-/** An audit_event row as the table holds it (auditRead writes it without the ORM). */
+/** An audit_event row as the table holds it (auditRead and a review's save write it without the ORM: auditEventRow). */
 interface AuditEventRow {
   id: string;
   at: Date;
@@ -71,11 +62,16 @@ interface AuditEventRow {
  * request's transaction, if any) without the unit of work, which a read has nothing to flush in
  * but would still compare every entity it loaded, nor the ORM's insert, which costs the web server
  * more than the statement (issue 15, load). Writes use `audit`, so their event is flushed with
- * their changes.
+ * their changes (a review's save writes its events in its own statement: auditEventRow).
  */
 export async function auditRead(em: EntityManager, actor: Actor, input: AuditInput): Promise<void> {
+  await knexOf(em)('audit_event').insert(auditEventRow(actor, input));
+}
+
+/** An event's row for a plain insert: a read's (auditRead), or a save's written in the same statement as its rows (reviews.ts). */
+export function auditEventRow(actor: Actor, input: AuditInput): AuditEventRow {
   const f = eventFields(actor, input);
-  const row: AuditEventRow = {
+  return {
     id: randomUUID(),
     at: new Date(),
     practice_id: f.practiceId,
@@ -88,7 +84,6 @@ export async function auditRead(em: EntityManager, actor: Actor, input: AuditInp
     user_agent: f.userAgent,
     detail: f.detail === null ? null : JSON.stringify(f.detail),
   };
-  await knexOf(em)('audit_event').insert(row);
 }
 
 /** One event as the audit trail shows it: plain words, the person and the record named. */

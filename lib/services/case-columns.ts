@@ -47,8 +47,53 @@ export function caseColumns(input: Omit<CaseCreate, 'patientId' | 'operatorId' |
   };
 }
 
+/**
+ * The fields of a case that its page and its form read: an entity, or the case page's plain read
+ * (case-page.ts readCase). The references are only their ids here.
+ */
+export type CaseFields = Pick<
+  TreatmentCase,
+  | 'id'
+  | 'tooth'
+  | 'toothGroup'
+  | 'toothArch'
+  | 'kind'
+  | 'startDate'
+  | 'completionDate'
+  | 'pulpalDiagnosis'
+  | 'apicalDiagnosis'
+  | 'paiScore'
+  | 'lesionDiameterMm'
+  | 'preopSymptoms'
+  | 'sinusTract'
+  | 'probingDepthMm'
+  | 'canals'
+  | 'fillingTechnique'
+  | 'sealerClass'
+  | 'apicalPatency'
+  | 'complications'
+  | 'rootEndFilling'
+  | 'pulpTherapyType'
+  | 'cappingMaterial'
+  | 'fillDensity'
+  | 'fillLengthClass'
+  | 'coronalRestoration'
+  | 'definitiveRestoration'
+  | 'definitiveRestorationDate'
+  | 'source'
+  | 'archivedAt'
+  | 'createdAt'
+  | 'updatedAt'
+> & {
+  practice: { id: string };
+  patient: { id: string };
+  operator: { id: string };
+  referrer?: { id: string } | null;
+  previousCase?: { id: string } | null;
+};
+
 /** The stored case as CaseCreateSchema input (nulls left out). */
-export function caseValues(c: TreatmentCase): CaseCreate {
+export function caseValues(c: CaseFields): CaseCreate {
   const v: Record<string, unknown> = {
     patientId: c.patient.id,
     tooth: c.tooth,

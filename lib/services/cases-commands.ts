@@ -13,7 +13,7 @@ import { parseInput } from './parse';
 import { assertClinician, bodyId, findCase, practiceSettings, presentKeys, todayIn } from './registry-common';
 import { reassessReviews } from './reviews';
 import { loadVisits, setVisitSummary } from './visits';
-import { caseDetail, type CaseDetail } from './case-page';
+import { storedCaseDetail, type CaseDetail } from './case-page';
 import { caseColumns, caseValues } from './case-columns';
 
 // --- changes --------------------------------------------------------------------------------------
@@ -52,7 +52,7 @@ export async function createCase(em: EntityManager, actor: Actor, raw: unknown):
     entityId: c.id,
     detail: { patientId: input.patientId, completed: Boolean(input.completionDate), previousCaseId: input.previousCaseId ?? null },
   });
-  return caseDetail(em, c, settings);
+  return storedCaseDetail(em, actor.practiceId, c.id, settings);
 }
 
 export interface CaseUpdateResult extends CaseDetail {
@@ -136,13 +136,12 @@ export async function updateCase(em: EntityManager, actor: Actor, id: string, ra
     if (archived === false && entity.archivedAt) entity.archivedAt = null;
     await tx.flush();
   });
-  await em.refresh(c);
   if (changedFields.length || plan.created || plan.moved || plan.removed) {
     await audit(em, actor, { action: 'case.updated', entityType: 'case', entityId: c.id, detail: { fields: changedFields, plan } });
   }
   if (archived === true && !wasArchived) await audit(em, actor, { action: 'case.archived', entityType: 'case', entityId: c.id });
   if (archived === false && wasArchived) await audit(em, actor, { action: 'case.restored', entityType: 'case', entityId: c.id });
-  return { ...(await caseDetail(em, c, settings)), plan };
+  return { ...(await storedCaseDetail(em, actor.practiceId, c.id, settings)), plan };
 }
 
 /** Archives a case: out of the working lists, its record and visits kept. Archiving twice changes nothing. */
@@ -154,7 +153,7 @@ export async function archiveCase(em: EntityManager, actor: Actor, id: string): 
     await em.flush();
     await audit(em, actor, { action: 'case.archived', entityType: 'case', entityId: c.id });
   }
-  return caseDetail(em, c, await practiceSettings(em, actor.practiceId));
+  return storedCaseDetail(em, actor.practiceId, c.id, await practiceSettings(em, actor.practiceId));
 }
 
 

@@ -95,6 +95,41 @@ export function knexOf(em: EntityManager): Knex {
   return (em.getTransactionContext<Knex.Transaction>() ?? em.getKnex()) as Knex;
 }
 
+/**
+ * A save's own rows (`insert`: one plain statement, e.g. a review and its audit events) written
+ * together with whatever else the request changed on its entities, atomically and in as few round
+ * trips as that allows:
+ * - the unit of work has nothing to write: the one statement alone (a statement is atomic; no
+ *   BEGIN, no COMMIT);
+ * - it has (a visit moved, a correction's marking): the statement, then the flush, in one
+ *   transaction — the rows first, as the changes may name them;
+ * - the request is inside a transaction already: the statement and the flush in it.
+ * The transaction is the driver's (lib/db-driver.ts), so a connection lost on the way is answered
+ * as one (503), not as the rollback's refusal.
+ */
+export async function insertWithChanges(em: EntityManager, insert: (knex: Knex) => Knex.QueryBuilder): Promise<void> {
+  if (em.isInTransaction()) {
+    await insert(knexOf(em));
+    await em.flush();
+    return;
+  }
+  const uow = em.getUnitOfWork();
+  uow.computeChangeSets();
+  if (uow.getChangeSets().length === 0 && uow.getCollectionUpdates().length === 0) {
+    await insert(knexOf(em));
+    return;
+  }
+  await em.getConnection('write').transactional(async (trx) => {
+    em.setTransactionContext(trx);
+    try {
+      await insert(trx as unknown as Knex);
+      await em.flush();
+    } finally {
+      em.resetTransactionContext();
+    }
+  });
+}
+
 const dayFormats = new Map<string, Intl.DateTimeFormat>();
 
 /**
@@ -263,12 +298,8 @@ export async function pageFromOneRead(
 }
 
 /** Loads a case of the actor's practice or answers 404 (also for another practice's id). */
-export async function findCase(em: EntityManager, actor: Actor, id: string, withPeople = false): Promise<TreatmentCase> {
-  const where = { id: assertId(id, 'case'), practice: actor.practiceId };
-  // withPeople: the patient, the clinician and the referrer joined into the same read (the case page)
-  const c = withPeople
-    ? await em.findOne(TreatmentCaseSchema, where, { populate: ['patient', 'operator', 'referrer'], strategy: 'joined' })
-    : await em.findOne(TreatmentCaseSchema, where);
+export async function findCase(em: EntityManager, actor: Actor, id: string): Promise<TreatmentCase> {
+  const c = await em.findOne(TreatmentCaseSchema, { id: assertId(id, 'case'), practice: actor.practiceId });
   if (!c) throw new NotFoundError('No such case.');
   return c;
 }

@@ -1,6 +1,5 @@
 import 'server-only';
 import { randomUUID } from 'node:crypto';
-import { ref } from '@mikro-orm/core';
 import type { EntityManager } from '@mikro-orm/postgresql';
 import { RecallVisitSchema, ReviewSchema, type RecallVisit, type Review, type TreatmentCase } from '@/entities';
 import { assertCan, type Actor } from '@/lib/auth/actor';
@@ -25,10 +24,10 @@ import {
   type ReviewAssessment,
   type ReviewOutcome,
 } from '@/lib/scoring';
-import { auditRead, auditWithChanges } from './audit';
+import { auditEventRow, auditRead, type AuditInput } from './audit';
 import { ConflictError, NotFoundError, ValidationError } from './errors';
 import { parseInput } from './parse';
-import { assertClinician, assertId, attempt, bodyId, findCase, knexOf, practiceSettings, settled, todayIn } from './registry-common';
+import { assertClinician, assertId, attempt, bodyId, findCase, insertWithChanges, knexOf, practiceSettings, settled, todayIn } from './registry-common';
 import { changeVisitStatus, loadVisits, setVisitSummary, visitViews, type VisitView } from './visits';
 
 export interface ReviewView {
@@ -198,31 +197,36 @@ async function recordReview(
     signs,
     minObservationDays: settings.minObservationDays,
   });
-  const review = em.create(ReviewSchema, {
-    id: randomUUID(), // known before the flush: the audit events below name it
-    practice: actor.practiceId,
-    case: c.id,
-    visit: visitId ?? null,
-    assessor: input.assessorId,
-    reviewDate: input.reviewDate,
-    daysSinceCompletion: assessment.daysSinceTreatment,
-    toothStatus: input.toothStatus,
-    paiScore: input.paiScore ?? null,
-    lesionDiameterMm: input.lesionDiameterMm ?? null,
+  const now = new Date();
+  const row: ReviewTableRow = {
+    id: randomUUID(), // known before the write: the audit events and a correction's marking name it
+    practice_id: actor.practiceId,
+    case_id: c.id,
+    visit_id: visitId ?? null,
+    assessor_id: input.assessorId,
+    review_date: input.reviewDate,
+    days_since_completion: assessment.daysSinceTreatment,
+    tooth_status: input.toothStatus,
+    pai_score: input.paiScore ?? null,
+    lesion_diameter_mm: input.lesionDiameterMm ?? null,
     signs,
-    otherFindings: input.otherFindings ?? null,
-    eventDate: input.eventDate ?? null,
-    extractionReason: input.extractionReason ?? null,
+    other_findings: input.otherFindings ?? null,
+    event_date: input.eventDate ?? null,
+    extraction_reason: input.extractionReason ?? null,
     outcome: assessment.outcome,
-    successStrict: assessment.successStrict,
-    successLenient: assessment.successLenient,
-    outcomeReasons: assessment.reasons,
-    correctionReason: correction?.reason ?? null,
-    correctedBy: correction ? actor.userId : null,
-  });
+    success_strict: assessment.successStrict,
+    success_lenient: assessment.successLenient,
+    outcome_reasons: assessment.reasons,
+    superseded_by_id: null,
+    superseded_at: null,
+    correction_reason: correction?.reason ?? null,
+    corrected_by_id: correction ? actor.userId : null,
+    created_at: now,
+    updated_at: now,
+  };
   if (correction) {
-    correction.supersedes.supersededBy = ref(review);
-    correction.supersedes.supersededAt = new Date();
+    correction.supersedes.supersededBy = em.getReference(ReviewSchema, row.id, { wrapped: true });
+    correction.supersedes.supersededAt = now;
   }
 
   const cancelled: string[] = [];
@@ -237,59 +241,36 @@ async function recordReview(
     }
   }
   setVisitSummary(c, visits);
-  // The trail's events are written with the review, in its transaction.
-  if (correction) {
-    const old = correction.supersedes;
-    // The trail names both versions: the correction (with the one it replaced) and the superseded one.
-    auditWithChanges(em, actor, {
-      action: 'review.corrected',
-      entityType: 'review',
-      entityId: review.id,
-      detail: { caseId: c.id, supersedes: old.id, reason: correction.reason, outcome: { from: old.outcome, to: assessment.outcome }, cancelledVisits: cancelled },
-    });
-    auditWithChanges(em, actor, { action: 'review.superseded', entityType: 'review', entityId: old.id, detail: { caseId: c.id, supersededBy: review.id } });
-  } else {
-    auditWithChanges(em, actor, {
-      action: 'review.created',
-      entityType: 'review',
-      entityId: review.id,
-      detail: { caseId: c.id, visitId: visitId ?? null, outcome: assessment.outcome, cancelledVisits: cancelled },
-    });
-  }
-  await em.flush();
+  // The trail's events are written with the review, in the same statement.
+  const events: AuditInput[] = correction
+    ? [
+        // The trail names both versions: the correction (with the one it replaced) and the superseded one.
+        {
+          action: 'review.corrected',
+          entityType: 'review',
+          entityId: row.id,
+          detail: { caseId: c.id, supersedes: correction.supersedes.id, reason: correction.reason, outcome: { from: correction.supersedes.outcome, to: assessment.outcome }, cancelledVisits: cancelled },
+        },
+        { action: 'review.superseded', entityType: 'review', entityId: correction.supersedes.id, detail: { caseId: c.id, supersededBy: row.id } },
+      ]
+    : [{ action: 'review.created', entityType: 'review', entityId: row.id, detail: { caseId: c.id, visitId: visitId ?? null, outcome: assessment.outcome, cancelledVisits: cancelled } }];
+  // One statement for the review and its events; the visits' moves and a correction's marking, if
+  // any, flushed after it in the same transaction (insertWithChanges).
+  await insertWithChanges(em, (knex) =>
+    knex
+      .with('saved_review', knex('review').insert(row))
+      .insert(events.map((e) => auditEventRow(actor, e)))
+      .into('audit_event'),
+  );
   // The answer's reviews are those read before the write with this one added (and the one a
   // correction replaces marked so), as a read after the write would give them: no read after it.
-  const saved: ReviewRow = {
-    id: review.id,
-    visit_id: visitId ?? null,
-    assessor_id: input.assessorId,
-    assessor_name: assessorName,
-    review_date: review.reviewDate,
-    days_since_completion: review.daysSinceCompletion,
-    tooth_status: review.toothStatus,
-    pai_score: review.paiScore ?? null,
-    lesion_diameter_mm: review.lesionDiameterMm ?? null,
-    signs: review.signs,
-    other_findings: review.otherFindings ?? null,
-    event_date: review.eventDate ?? null,
-    extraction_reason: review.extractionReason ?? null,
-    outcome: review.outcome,
-    success_strict: review.successStrict,
-    success_lenient: review.successLenient,
-    outcome_reasons: review.outcomeReasons,
-    created_at: review.createdAt,
-    superseded_by_id: null,
-    superseded_at: null,
-    correction_reason: correction?.reason ?? null,
-    corrected_by_id: correction ? actor.userId : null,
-    corrected_by_name: correction ? actor.name : null,
-  };
+  const saved: ReviewRow = { ...row, assessor_name: assessorName, corrected_by_name: correction ? actor.name : null };
   const rows = earlier.map((r) =>
-    correction && r.id === correction.supersedes.id ? { ...r, superseded_by_id: review.id, superseded_at: correction.supersedes.supersededAt ?? null } : r,
+    correction && r.id === correction.supersedes.id ? { ...r, superseded_by_id: row.id, superseded_at: now } : r,
   );
   const all = await reviewViews(em, c.id, [...rows, saved].sort(byReviewOrder), visits);
   return {
-    review: all.reviews.find((r) => r.id === review.id)!,
+    review: all.reviews.find((r) => r.id === row.id)!,
     visits: await visitViews(em, visits, today, all.reviews),
     currentOutcome: all.currentOutcome,
     caution: SCORING_CAUTION,
@@ -389,6 +370,36 @@ export async function reassessReviews(em: EntityManager, c: TreatmentCase): Prom
     r.outcomeReasons = a.reasons;
   }
   return reviews.length;
+}
+
+/** The review table's row as a save writes it (one plain insert, with its audit events: recordReview). */
+interface ReviewTableRow {
+  id: string;
+  practice_id: string;
+  case_id: string;
+  visit_id: string | null;
+  assessor_id: string;
+  review_date: string;
+  days_since_completion: number;
+  tooth_status: Review['toothStatus'];
+  pai_score: number | null;
+  lesion_diameter_mm: number | null;
+  /** jsonb: the driver sends an object as its JSON */
+  signs: Partial<Record<ReviewSign, boolean>>;
+  other_findings: string | null;
+  event_date: string | null;
+  extraction_reason: NonNullable<Review['extractionReason']> | null;
+  outcome: Review['outcome'];
+  success_strict: boolean;
+  success_lenient: boolean;
+  /** text[]: the driver sends an array as its array literal */
+  outcome_reasons: string[];
+  superseded_by_id: null;
+  superseded_at: null;
+  correction_reason: string | null;
+  corrected_by_id: string | null;
+  created_at: Date;
+  updated_at: Date;
 }
 
 /** A review row as caseReviews reads it, with the names of its assessor and of whoever corrected it. */

@@ -1,14 +1,17 @@
 import { afterAll, beforeEach, describe, expect, it } from 'vitest';
 import type { EntityManager } from '@mikro-orm/postgresql';
-import { AuditEventSchema, ReviewSchema } from '@/entities';
+import { AuditEventSchema, RecallVisitSchema, ReviewSchema, TreatmentCaseSchema } from '@/entities';
 import { addDaysTo, addMonthsClamped } from '@/lib/registry/calendar-date';
 import { resolveSession } from '@/lib/services/auth';
-import { createCase, getCase } from '@/lib/services/cases';
+import { archiveCase, createCase, getCase } from '@/lib/services/cases';
+import { readCase } from '@/lib/services/case-page';
+import { caseValues } from '@/lib/services/case-columns';
+import { createReferrer } from '@/lib/services/referrers';
 import { createPatient } from '@/lib/services/patients';
 import { updatePracticeSettings } from '@/lib/services/practice-settings';
 import { recallSettings } from '@/lib/services/recall-common';
 import { updateReminderPolicy } from '@/lib/services/recall-policy';
-import { practiceSettings, readWithSession, todayIn } from '@/lib/services/registry-common';
+import { insertWithChanges, practiceSettings, readWithSession, todayIn } from '@/lib/services/registry-common';
 import { correctReview, createReview } from '@/lib/services/reviews';
 import { caseInput, makeRegistryPractice, openServices, patientInput, resetData } from '../support/db';
 
@@ -90,16 +93,64 @@ describe('round trips of the busiest requests', () => {
     expect([page!.patient.name, page!.operator.name, page!.referrer]).toEqual(['Ashdown, Wren', 'cal', null]);
   });
 
-  it('a review save: the review and its audit event in one transaction; a correction too', async () => {
+  it('the case page’s plain read gives the case as the ORM reads it: every field the page and its form show, the patient, clinician and referrer', async () => {
+    const { a, c: first } = await world();
+    const referrer = await createReferrer(services.em(), a.clinician, { name: 'Dr Ilex Marsh', practiceName: 'Fernbank Dental', email: 'ilex@fernbank.invalid' });
+    const patientId = (await getCase(services.em(), a.clinician, first.id)).patient.id;
+    const completion = addMonthsClamped(today, -2);
+    const c = await createCase(
+      services.em(),
+      a.clinician,
+      caseInput(patientId, a.clinician.userId, {
+        kind: 'nonsurgical_retreatment',
+        previousCaseId: first.id,
+        referrerId: referrer.id,
+        startDate: addDaysTo(completion, -14),
+        completionDate: completion,
+        pulpalDiagnosis: 'previously_treated',
+        lesionDiameterMm: 2.5,
+        preopSymptoms: ['spontaneous_pain'],
+        sinusTract: true,
+        probingDepthMm: 4,
+        apicalPatency: false,
+        complications: ['ledge'],
+        fillDensity: 'voids',
+        definitiveRestoration: 'crown',
+        definitiveRestorationDate: addDaysTo(completion, 20),
+      }),
+    );
+    await archiveCase(services.em(), a.clinician, c.id);
+    const stored = await services.em().findOneOrFail(TreatmentCaseSchema, c.id, { populate: ['patient', 'operator', 'referrer'] });
+    const read = (await readCase(services.em(), a.practice.id, c.id))!;
+    // the form's values (every input field, the references' ids), then the stored-only ones
+    expect(caseValues(read.c)).toEqual(caseValues(stored));
+    expect(caseValues(read.c)).toMatchObject({ referrerId: referrer.id, previousCaseId: first.id, lesionDiameterMm: 2.5, definitiveRestorationDate: addDaysTo(completion, 20) });
+    const pick = (x: typeof read.c) => [x.id, x.practice.id, x.toothGroup, x.toothArch, x.fillLengthClass, x.source, x.archivedAt?.toISOString(), x.createdAt.toISOString(), x.updatedAt.toISOString()];
+    expect(pick(read.c)).toEqual(pick(stored));
+    expect(read.c.archivedAt).toBeInstanceOf(Date);
+    const p = stored.patient.getEntity();
+    expect(read.patient).toEqual({ id: p.id, registryNumber: p.registryNumber, givenName: p.givenName, familyName: p.familyName, dateOfBirth: p.dateOfBirth, archivedAt: p.archivedAt ?? null });
+    expect(read.operator).toEqual({ id: a.clinician.userId, name: stored.operator.getEntity().name ?? null, email: stored.operator.getEntity().email });
+    expect(read.referrer).toEqual({ id: referrer.id, name: 'Dr Ilex Marsh', practiceName: 'Fernbank Dental', email: 'ilex@fernbank.invalid', archivedAt: null });
+    // a case without a referrer or an earlier case; another practice's case is not found
+    const plain = (await readCase(services.em(), a.practice.id, first.id))!;
+    expect([plain.referrer, plain.c.referrer, plain.c.previousCase, plain.c.completionDate]).toEqual([null, null, null, first.completionDate]);
+    const other = await makeRegistryPractice(services.em(), 'hazel');
+    expect(await readCase(services.em(), other.practice.id, c.id)).toBeNull();
+  });
+
+  it('a review save: the review and its audit event in one statement; a correction too', async () => {
     const { a, c } = await world();
     let saved: Awaited<ReturnType<typeof createReview>> | undefined;
     const seen = await statements(a, a.clinician.userId, async (em) => {
       saved = await createReview(em, a.clinician, c.id, { reviewDate: today, toothStatus: 'present', paiScore: 1, lesionDiameterMm: 0 });
     });
-    // side by side: the case, the assessor's membership, the visits, the reviews (+ their people's names); then BEGIN, the
-    // review and its event, COMMIT — and nothing after the write (the answer's reviews are those read before, with this one)
-    expect(seen, seen.join('\n')).toHaveLength(8);
-    expect(seen.filter((s) => /^begin|^commit/i.test(s))).toHaveLength(2);
+    // side by side: the case, the assessor's membership, the visits, the reviews (+ their people's names); then the review
+    // and its event in one statement (nothing else changed: no transaction needed) — and nothing after the write (the
+    // answer's reviews are those read before, with this one)
+    expect(seen, seen.join('\n')).toHaveLength(5);
+    expect(seen.filter((s) => /^begin|^commit/i.test(s))).toHaveLength(0);
+    expect(seen[4]).toMatch(/^with "saved_review" as \(insert into "review"/);
     const events = await services.em().find(AuditEventSchema, { action: 'review.created', entityId: saved!.review.id });
     expect(events.map((e) => [e.actorId, e.detail])).toEqual([[a.clinician.userId, { caseId: c.id, visitId: null, outcome: saved!.review.outcome, cancelledVisits: [] }]]);
     expect(saved!.review).toMatchObject({ visitMilestone: null, paiScore: 1 });
@@ -119,5 +170,41 @@ describe('round trips of the busiest requests', () => {
     ]);
     expect(shown[0]).toMatchObject({ reviewDate: today, paiScore: 1, lesionDiameterMm: 0, signs: {}, eventDate: null, reasons: expect.any(Array), supersededAt: expect.stringMatching(/^\d{4}-\d\d-\d\dT/) });
     expect(shown[0]!.reasons.length).toBeGreaterThan(0);
+  });
+
+  it('a save’s rows and the request’s other changes are written together or not at all (insertWithChanges)', async () => {
+    const { a, c } = await world();
+    const eventRow = (id: string) => ({ id, at: new Date(), practice_id: a.practice.id, action: 'test.saved', entity_type: 'case', entity_id: c.id });
+    const ids = () => [crypto.randomUUID(), crypto.randomUUID()] as const;
+    const stored = async (id: string) => (await services.em().getKnex()('audit_event').where({ id }).count({ n: '*' }))[0]!.n;
+
+    // nothing else changed: the one statement alone, no transaction
+    const [e1] = ids();
+    let seen = await statements(a, a.clinician.userId, (em) => insertWithChanges(em, (k) => k('audit_event').insert(eventRow(e1))));
+    expect(seen).toEqual([expect.stringMatching(/^insert into "audit_event"/)]);
+    expect(Number(await stored(e1))).toBe(1);
+
+    // an entity changed too: the rows first, then the flush, in one transaction
+    const [e2] = ids();
+    seen = await statements(a, a.clinician.userId, async (em) => {
+      const visit = await em.findOneOrFail(RecallVisitSchema, { case: c.id, milestone: 12 });
+      visit.note = 'Prefers mornings.';
+      await insertWithChanges(em, (k) => k('audit_event').insert(eventRow(e2)));
+    });
+    expect(seen.map((q) => q.split(' ')[0]!.toLowerCase().replace(';', ''))).toEqual(['select', 'begin', 'insert', 'update', 'commit']);
+    expect(Number(await stored(e2))).toBe(1);
+    expect((await services.em().findOneOrFail(RecallVisitSchema, { case: c.id, milestone: 12 })).note).toBe('Prefers mornings.');
+
+    // the flush fails (a value the table refuses): the rows are not written either
+    const [e3] = ids();
+    await expect(
+      statements(a, a.clinician.userId, async (em) => {
+        const visit = await em.findOneOrFail(RecallVisitSchema, { case: c.id, milestone: 12 });
+        (visit as { status: string }).status = 'no-such-status';
+        await insertWithChanges(em, (k) => k('audit_event').insert(eventRow(e3)));
+      }),
+    ).rejects.toThrow();
+    expect(Number(await stored(e3))).toBe(0);
+    expect((await services.em().findOneOrFail(RecallVisitSchema, { case: c.id, milestone: 12 })).status).toBe('planned');
   });
 });
