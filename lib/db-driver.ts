@@ -16,6 +16,18 @@ type TransactionOptions = NonNullable<Parameters<PostgreSqlConnection['transacti
  * Met in tests/integration/faults-database.test.ts; checked by tests/integration/db-driver.test.ts.
  */
 export class LaminaConnection extends PostgreSqlConnection {
+  /**
+   * A transaction's statements are sent one at a time. A transaction is one connection, which runs
+   * one statement at a time anyway; reads written side by side (`Promise.all`, for the pool) that
+   * run inside one would otherwise be queued by the driver itself, which node-postgres deprecates
+   * ("Calling client.query() when the client is already executing a query", removed in pg 9).
+   */
+  override async begin(options: Parameters<PostgreSqlConnection['begin']>[0] = {}): Promise<Knex.Transaction> {
+    const trx = await super.begin(options);
+    oneStatementAtATime(trx);
+    return trx;
+  }
+
   override async transactional<T>(cb: (trx: Knex.Transaction) => Promise<T>, options: TransactionOptions = {}): Promise<T> {
     const trx = await this.begin(options);
     try {
@@ -28,6 +40,25 @@ export class LaminaConnection extends PostgreSqlConnection {
       throw error;
     }
   }
+}
+
+/**
+ * Chains the statements of one knex transaction: each is handed to the connection when the one
+ * before it has answered (or failed), in the order they were asked for. knex gives every
+ * transaction its own client object; its `_query` is the step that sends a statement on the
+ * connection, after knex's own checks (the transaction not yet complete), and only that object's is
+ * wrapped.
+ */
+function oneStatementAtATime(trx: Knex.Transaction): void {
+  type Send = (connection: unknown, statement: unknown) => Promise<unknown>;
+  const client = (trx as unknown as { client: { _query: Send } }).client;
+  const send = client._query;
+  let previous: Promise<unknown> = Promise.resolve();
+  client._query = function (this: unknown, connection: unknown, statement: unknown) {
+    const sent = previous.then(() => send.call(this, connection, statement));
+    previous = sent.catch(() => undefined);
+    return sent;
+  };
 }
 
 /** What ended a completed knex transaction (its execution promise's rejection), else `fallback`. */

@@ -1,3 +1,4 @@
+import { createRequire } from 'node:module';
 import { afterAll, describe, expect, it, vi } from 'vitest';
 import { LaminaConnection } from '@/lib/db-driver';
 import { isServiceUnavailable } from '@/lib/services/unavailable';
@@ -12,6 +13,9 @@ import { openServices } from '../support/db';
  * the others make a real one fail: its connection ended by the server (pg_terminate_backend, as a
  * restart does) and a deferred unique constraint refusing the COMMIT.
  */
+// the driver as knex loads it (CommonJS); only its client's query is watched
+const pg = createRequire(import.meta.url)('pg') as { Client: { prototype: { query: (...args: unknown[]) => unknown } } };
+
 const services = await openServices();
 afterAll(() => services.close());
 
@@ -88,5 +92,35 @@ describe('the ORM driver (lib/db-driver.ts)', () => {
     } finally {
       await execute('drop table if exists driver_probe');
     }
+  });
+
+  it('a transaction sends its statements one at a time, in the order asked, even when they are asked for side by side (no queue in the driver, which pg 9 drops)', async () => {
+    type PgClient = { _getActiveQuery(): unknown; _queryQueue: unknown[] };
+    const busyAtSend: boolean[] = [];
+    const query = pg.Client.prototype.query;
+    const spy = vi.spyOn(pg.Client.prototype, 'query').mockImplementation(function (this: PgClient, ...args: unknown[]) {
+      busyAtSend.push(Boolean(this._getActiveQuery()) || this._queryQueue.length > 0);
+      return query.apply(this, args) as never;
+    });
+    const answered: number[] = [];
+    try {
+      const em = services.em();
+      const got = await em.transactional((tx) =>
+        Promise.all(
+          [1, 2, 3, 4].map(async (n) => {
+            const rows = await tx.getConnection().execute<{ n: number }[]>(`select pg_sleep(0.02), ${n} as n`, [], 'all', tx.getTransactionContext());
+            answered.push(rows[0]!.n);
+            return rows[0]!.n;
+          }),
+        ),
+      );
+      expect(got).toEqual([1, 2, 3, 4]);
+    } finally {
+      spy.mockRestore();
+    }
+    expect(answered).toEqual([1, 2, 3, 4]);
+    // BEGIN, the four statements, COMMIT: each found the connection idle
+    expect(busyAtSend.length).toBeGreaterThanOrEqual(6);
+    expect(busyAtSend.filter(Boolean)).toEqual([]);
   });
 });
