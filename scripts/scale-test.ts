@@ -20,12 +20,12 @@
  *   6. the hourly scan exists once (one job scheduler, one next run) with both workers up, and with
  *      a two-second schedule each slot runs once, not once per worker
  *   7. a worker killed with SIGKILL mid-run loses nothing and duplicates nothing
- *   8. a file uploaded through A is served by B (the object store is shared) — a stand-in for the
- *      research export (issue 15 asks for "an export started on one instance, downloaded from the
- *      other"; the export is being built elsewhere, and stores its archive the same way)
+ *   8. a film uploaded through A is served by B (the object store is shared)
+ *   9. a research export started on A, built by one of the workers, is followed and downloaded on B
+ *      (the archive in the object store, its row in PostgreSQL, the job in Redis)
  */
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
-import { createHash, randomBytes } from 'node:crypto';
+import { createHash, randomBytes, randomUUID } from 'node:crypto';
 import fs from 'node:fs';
 import http from 'node:http';
 import path from 'node:path';
@@ -269,6 +269,8 @@ function webEnv(): NodeJS.ProcessEnv {
   return {
     ...process.env,
     TRUSTED_PROXIES: '127.0.0.1',
+    // the web instances queue research exports where this run's workers take them
+    QUEUE_PREFIX: PREFIX,
     NODE_OPTIONS: `${process.env.NODE_OPTIONS ?? ''} ${process.env.LAMINA_WEB_NODE_OPTIONS ?? ''}`.trim(),
   };
 }
@@ -386,7 +388,7 @@ async function webChecks(knex: Knex, world: Awaited<ReturnType<typeof seedDueVis
       `6 wrong passwords (3 on A, 3 on B; 5 are free); then the right one on B: "${rightOnB ?? 'signed in'}"; on A: "${rightOnA ?? 'signed in'}"`,
     );
 
-    // 8. a file uploaded through A is served by B (stand-in for the research export)
+    // 8. a film uploaded through A is served by B
     const png = await sharp({ create: { width: 96, height: 64, channels: 3, background: { r: 40, g: 40, b: 40 } } })
       .composite([{ input: Buffer.from('<svg width="96" height="64"><circle cx="48" cy="32" r="20" fill="#ddd"/></svg>'), top: 0, left: 0 }])
       .png()
@@ -413,11 +415,63 @@ async function webChecks(knex: Knex, world: Awaited<ReturnType<typeof seedDueVis
     const down = filmId ? await alice.go(`/api/films/${filmId}/original`, { to: 'b' }) : null;
     const sha = (b: Buffer) => createHash('sha256').update(b).digest('hex').slice(0, 16);
     check(
-      'a file uploaded through instance A is downloaded from instance B (stand-in for the research export)',
+      'a film uploaded through instance A is downloaded from instance B (one object store)',
       up1.status === 201 && down?.status === 200 && sha(down.body) === sha(png),
       `upload on A answered ${up1.status}; B served ${down ? `${down.status}, ${down.body.length} bytes, sha256 ${sha(down.body)}` : 'nothing'} (sent ${png.length} bytes, ${sha(png)})`,
     );
 
+}
+
+/**
+ * 9. A research export started on instance A is built by a worker and downloaded from instance B:
+ * a researcher joins the scale practice (its own account: check 4 left the clinician's throttled),
+ * and its patients consent to research use, so the cohort has rows. Needs the web instances
+ * (webChecks) and the workers running.
+ */
+async function exportCheck(knex: Knex, world: Awaited<ReturnType<typeof seedDueVisits>>, passwordHash: string): Promise<void> {
+  const researcher = { id: randomUUID(), email: `researcher.${TAG}@scale.invalid` };
+  await knex('app_user').insert({ ...researcher, name: 'Scale Researcher', password_hash: passwordHash, created_at: new Date() });
+  await knex('membership').insert({ id: randomUUID(), user_id: researcher.id, practice_id: world.practiceId, role: 'researcher', granted_at: new Date() });
+  await knex('patient').where({ practice_id: world.practiceId }).update({ research_use: true });
+  const rita = new Browser('127.0.0.3');
+  const signInError = await rita.signIn(researcher.email, PASSWORD, 'a');
+  const write = { 'content-type': 'application/json', origin: APP_URL, 'sec-fetch-site': 'same-origin' };
+  const post = (pathname: string, body: unknown) => rita.go(pathname, { method: 'POST', to: 'a', headers: write, body: JSON.stringify(body) });
+  const parsed = (a: Answer | null): Record<string, unknown> => {
+    try {
+      return a ? (JSON.parse(a.body.toString()) as Record<string, unknown>) : {};
+    } catch {
+      return {};
+    }
+  };
+  const cohort = signInError ? null : await post('/api/cohorts', { name: `Scale test ${TAG}` });
+  const cohortId = parsed(cohort).id as string | undefined;
+  const version = cohortId ? await post(`/api/cohorts/${cohortId}/versions`, { filters: {}, variables: ['age_band', 'sex'], k: 5 }) : null;
+  const number = parsed(version).number as number | undefined;
+  const started = number ? await post(`/api/cohorts/${cohortId}/exports`, { version: number }) : null;
+  const exportId = parsed(started).id as string | undefined;
+  const t0 = Date.now();
+  // followed on B while a worker builds it
+  const ended = exportId
+    ? await until(SHORT ? 120 : 300, async () => {
+        const v = parsed(await rita.go(`/api/cohort-exports/${exportId}`, { to: 'b' }));
+        return v.status === 'done' || v.status === 'failed' ? v : null;
+      }, 250)
+    : null;
+  const builtS = (Date.now() - t0) / 1000;
+  const link = ended?.downloadUrl as string | undefined;
+  const archive = link ? await rita.go(link, { to: 'b' }) : null;
+  const zip = archive !== null && archive.status === 200 && archive.body.subarray(0, 4).equals(Buffer.from([0x50, 0x4b, 0x03, 0x04]));
+  const stored = exportId ? ((await knex('cohort_export').where({ id: exportId }).first('cases', 'byte_size')) as { cases: number | null; byte_size: string | number | null } | undefined) : undefined;
+  const downloads = exportId ? Number(((await knex('audit_event').where({ action: 'cohort.downloaded', entity_id: exportId }).count({ n: '*' })) as { n: string }[])[0]!.n) : 0;
+  check(
+    'a research export started on instance A is built by a worker and downloaded from instance B',
+    !signInError && started?.status === 202 && ended?.status === 'done' && zip && archive!.body.length === Number(stored?.byte_size) && downloads === 1,
+    signInError
+      ? `sign-in on A failed: ${signInError}`
+      : `export asked on A: ${started?.status ?? 'not sent'}; on B: ${String(ended?.status ?? 'still running')} after ${builtS.toFixed(1)} s, ${stored?.cases ?? '?'} cases; ` +
+          `B served ${archive ? `${archive.status}, ${archive.body.length} bytes${zip ? ' (a zip)' : ''}` : 'nothing'} (stored ${stored?.byte_size ?? '?'} bytes); downloads audited: ${downloads}`,
+  );
 }
 
 async function main(): Promise<void> {
@@ -455,6 +509,9 @@ async function main(): Promise<void> {
       `stored ${once.stored}, duplicates ${once.duplicates}, missing ${once.missing}; ${sendS.toFixed(1)} s from the workers' start (scan included), ${rate.toFixed(1)} messages/s; jobs per worker: ${split || 'none'}`,
     );
     figures.push(['reminders, two workers', `${N} in ${sendS.toFixed(1)} s = ${rate.toFixed(1)} msg/s; duplicates ${once.duplicates}, missing ${once.missing}`]);
+
+    // 9. a research export: started on A, built by a worker, downloaded from B
+    if (!WORKERS_ONLY) await exportCheck(knex, world, passwordHash);
 
     // 6a. one scheduler, one next hourly run, with both workers up
     const schedulers = await scans.getJobSchedulers();
