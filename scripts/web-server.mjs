@@ -47,6 +47,12 @@ const server = http.createServer((req, res) => {
     res.end('Something went wrong on our side.');
   });
 });
+// An idle keep-alive connection is kept 65 s, not Node's 5 s. A client that sends on one just as the
+// server closes it gets a reset (ECONNRESET) instead of an answer; a proxy in front keeps idle
+// upstream connections for up to about a minute, so the server outlasts it (common practice). The
+// headers' deadline stays above it, as Node requires.
+server.keepAliveTimeout = 65_000;
+server.headersTimeout = 66_000;
 server.on('error', (e) => {
   // A taken port ends the process: a launcher waiting for the port must not find someone else's server.
   console.error(`lamina: web server: ${e.message}`);

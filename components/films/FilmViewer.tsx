@@ -90,6 +90,7 @@ export const VIEWER_SHORTCUTS: [string, string][] = [
  */
 export function FilmViewer({ films: initial, onCalibrate, onMeasure, onMeasured }: FilmViewerProps) {
   const [films, setFilms] = useState(initial);
+  const rootRef = useRef<HTMLDivElement>(null);
   const [view, setView] = useState<View>(HOME);
   const [brightness, setBrightness] = useState(1);
   const [contrast, setContrast] = useState(1);
@@ -153,6 +154,8 @@ export function FilmViewer({ films: initial, onCalibrate, onMeasure, onMeasured 
       }
     }
     window.addEventListener('keydown', onKey);
+    // Says when the shortcuts listen (the page takes keys only once hydrated): data-keys on the viewer.
+    rootRef.current?.setAttribute('data-keys', 'listening');
     return () => window.removeEventListener('keydown', onKey);
   });
 
@@ -252,7 +255,7 @@ export function FilmViewer({ films: initial, onCalibrate, onMeasure, onMeasured 
   }
 
   return (
-    <div className="space-y-3 rounded-lg bg-ink-900 p-3 text-bone-100" data-testid="film-viewer">
+    <div className="space-y-3 rounded-lg bg-ink-900 p-3 text-bone-100" data-testid="film-viewer" ref={rootRef}>
       <div className="flex flex-wrap items-center gap-2 text-sm" role="toolbar" aria-label="Viewer tools">
         {(['pan', ...(canEdit ? (['calibrate', 'diameter', 'outline'] as const) : [])] as Tool[]).map((t) => (
           <button

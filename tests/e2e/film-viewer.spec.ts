@@ -43,7 +43,9 @@ test('calibrate, measure, and the diameter fills the review form', async ({ page
   const pane = page.getByTestId(`pane-${followUp}`);
   await expect(viewer.getByTestId('calibration')).toContainText('not calibrated');
 
-  // Shared zoom: a key zooms both films; the shortcuts are listed on screen.
+  // Shared zoom: a key zooms both films; the shortcuts are listed on screen (once the viewer listens:
+  // a key pressed before hydration goes nowhere, on a busy machine too).
+  await expect(viewer).toHaveAttribute('data-keys', 'listening');
   await page.keyboard.press('+');
   await expect(viewer.getByText('Zoom 1.3×')).toBeVisible();
   await page.keyboard.press('0');
