@@ -9,7 +9,7 @@ import { FILL_LENGTH_LABELS, OUTCOME_LABELS, SCORING_CAUTION, fillLengthClass, t
 import { formatTooth, toothInfo, type ToothGroup, type ToothNotation } from '@/lib/teeth';
 import { auditRead } from './audit';
 import { NotFoundError } from './errors';
-import { assertId, displayName, knexOf, practiceSettings, todayIn, type PracticeSettings } from './registry-common';
+import { assertId, displayName, knexOf, practiceSettings, todayIn, type PracticeSettings, type Timestamp } from './registry-common';
 import { referrerView, type ReferrerView } from './referrers';
 import { caseReviews, type ReviewView } from './reviews';
 import { readVisitFields, visitViews, type VisitView } from './visits';
@@ -234,8 +234,6 @@ const CASE_COLUMNS = [
   'updated_at',
 ] as const;
 
-/** A timestamptz as the driver gives it (the ORM's connection reads it as text). */
-type Timestamp = string | Date;
 const dateOrNull = (t: Timestamp | null): Date | null => (t === null ? null : new Date(t));
 
 /** treatment_case's columns as the plain read gives them (dates as text), with the people's. */

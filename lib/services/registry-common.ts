@@ -108,11 +108,12 @@ export function knexOf(em: EntityManager): Knex {
  * as one (503), not as the rollback's refusal.
  */
 export async function insertWithChanges(em: EntityManager, insert: (knex: Knex) => Knex.QueryBuilder): Promise<void> {
-  if (em.isInTransaction()) {
+  // knexOf: the request's transaction when there is one
+  const rowsThenChanges = async () => {
     await insert(knexOf(em));
     await em.flush();
-    return;
-  }
+  };
+  if (em.isInTransaction()) return rowsThenChanges();
   const uow = em.getUnitOfWork();
   uow.computeChangeSets();
   if (uow.getChangeSets().length === 0 && uow.getCollectionUpdates().length === 0) {
@@ -122,13 +123,15 @@ export async function insertWithChanges(em: EntityManager, insert: (knex: Knex) 
   await em.getConnection('write').transactional(async (trx) => {
     em.setTransactionContext(trx);
     try {
-      await insert(trx as unknown as Knex);
-      await em.flush();
+      await rowsThenChanges();
     } finally {
       em.resetTransactionContext();
     }
   });
 }
+
+/** A timestamptz as a plain read gives it: the ORM's connection reads it as text (new Date() takes either). */
+export type Timestamp = string | Date;
 
 const dayFormats = new Map<string, Intl.DateTimeFormat>();
 

@@ -27,7 +27,7 @@ import {
 import { auditEventRow, auditRead, type AuditInput } from './audit';
 import { ConflictError, NotFoundError, ValidationError } from './errors';
 import { parseInput } from './parse';
-import { assertClinician, assertId, attempt, bodyId, findCase, insertWithChanges, knexOf, practiceSettings, settled, todayIn } from './registry-common';
+import { assertClinician, assertId, attempt, bodyId, findCase, insertWithChanges, knexOf, practiceSettings, settled, todayIn, type Timestamp } from './registry-common';
 import { changeVisitStatus, loadVisits, setVisitSummary, visitViews, type VisitView } from './visits';
 
 export interface ReviewView {
@@ -421,9 +421,9 @@ interface ReviewRow {
   success_strict: boolean;
   success_lenient: boolean;
   outcome_reasons: string[] | null;
-  created_at: Date;
+  created_at: Timestamp;
   superseded_by_id: string | null;
-  superseded_at: Date | null;
+  superseded_at: Timestamp | null;
   correction_reason: string | null;
   corrected_by_id: string | null;
   corrected_by_name: string | null;

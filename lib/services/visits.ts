@@ -26,7 +26,7 @@ import { calendarDate, text } from '@/lib/registry/fields';
 import { audit, auditRead } from './audit';
 import { ConflictError, NotFoundError } from './errors';
 import { parseInput } from './parse';
-import { assertId, findCase, knexOf, practiceSettings, todayIn } from './registry-common';
+import { assertId, findCase, knexOf, practiceSettings, todayIn, type Timestamp } from './registry-common';
 import { afterDeskAction } from './desk-counts';
 
 export interface VisitView {
@@ -211,13 +211,13 @@ export async function closeAsLost(em: EntityManager, actor: Actor | null, input:
 
 // --- shared with the case, review and import services ----------------------------------------------
 
-/** What lib/recall transitionVisit reads of a stored visit. */
 /** The fields of a visit its views read: an entity, or the case page's plain read (readVisitFields). */
 export type VisitFields = Pick<
   RecallVisit,
   'id' | 'milestone' | 'dueDate' | 'windowStart' | 'windowEnd' | 'status' | 'bookedDate' | 'reinviteNeeded' | 'lostToFollowUp' | 'closedOn' | 'note' | 'statusChangedAt' | 'missedReason' | 'missedOn' | 'missedFrom'
 > & { case: { id: string } };
 
+/** What lib/recall transitionVisit reads of a stored visit. */
 export function transitionView(v: VisitFields): TransitionVisit {
   return {
     status: v.status as VisitStatus,
@@ -314,7 +314,7 @@ export async function readVisitFields(em: EntityManager, caseId: string): Promis
     lost_to_follow_up: boolean;
     closed_on: string | null;
     note: string | null;
-    status_changed_at: Date;
+    status_changed_at: Timestamp;
     missed_reason: RecallVisit['missedReason'];
     missed_on: string | null;
     missed_from: RecallVisit['missedFrom'];
