@@ -7,7 +7,10 @@
  * figures at once (a desk action made through this process), and a computation that started before
  * the last forget of its group is answered but not kept (it may not include the action). With
  * `maxAgeMs` 0 nothing is kept. At most `max` figures are kept, the least recently used going first.
- * Pure apart from its own map; the clock is passed in.
+ * A read that finds no kept figure but one being counted (started after the group's last forget,
+ * within `maxAgeMs`) waits for that count instead of starting another: when a kept figure ages out
+ * under load, the desks asking meanwhile share one statement rather than each sending theirs.
+ * Pure apart from its own maps; the clock is passed in.
  */
 import { keepRecent } from '@/lib/kept-recently';
 
@@ -19,16 +22,26 @@ export interface CountKeeper<T> {
 
 export function makeCountKeeper<T>(max: number): CountKeeper<T> {
   const kept = new Map<string, { group: string; at: number; value: T }>();
+  const counting = new Map<string, { at: number; value: Promise<T> }>();
   const forgotten = new Map<string, number>();
+  const current = (group: string, at: number) => at > (forgotten.get(group) ?? -Infinity);
   return {
     async read(group, key, maxAgeMs, now, compute) {
       const id = `${group}\u0000${key}`;
       const started = now();
       const hit = kept.get(id);
       if (hit && started - hit.at < maxAgeMs) return keepRecent(kept, id, hit, max).value;
-      const value = await compute();
-      if (maxAgeMs > 0 && started > (forgotten.get(group) ?? -Infinity)) keepRecent(kept, id, { group, at: started, value }, max);
-      return value;
+      const running = counting.get(id);
+      if (running && started - running.at < maxAgeMs && current(group, running.at)) return running.value;
+      const value = compute();
+      if (maxAgeMs > 0) counting.set(id, { at: started, value });
+      try {
+        const v = await value;
+        if (maxAgeMs > 0 && current(group, started)) keepRecent(kept, id, { group, at: started, value: v }, max);
+        return v;
+      } finally {
+        if (counting.get(id)?.value === value) counting.delete(id);
+      }
     },
     forget(group, now) {
       forgotten.set(group, now);

@@ -83,4 +83,37 @@ describe('kept counts', () => {
     expect(await keeper.read('p1', 'b', 5_000, clock.now, compute(5))).toBe(5);
     expect(calls()).toBe(4);
   });
+
+  it('reads that come while the figure is being counted wait for that count, not a count of their own', async () => {
+    const { keeper, clock } = setup();
+    let calls = 0;
+    let finish: (v: number) => void = () => undefined;
+    const slow = () => {
+      calls++;
+      return new Promise<number>((resolve) => (finish = resolve));
+    };
+    const first = keeper.read('p1', 'all', 5_000, clock.now, slow);
+    clock.set(1_200);
+    const second = keeper.read('p1', 'all', 5_000, clock.now, slow);
+    const other = keeper.read('p1', 'clinician-a', 5_000, clock.now, async () => 9); // another key counts for itself
+    expect(calls).toBe(1);
+    finish(5);
+    expect([await first, await second, await other]).toEqual([5, 5, 9]);
+    // after a forget, a read does not wait for a count that started before it
+    let release: (v: number) => void = () => undefined;
+    clock.set(7_000);
+    const before = keeper.read('p1', 'all', 5_000, clock.now, () => new Promise<number>((resolve) => (release = resolve)));
+    keeper.forget('p1', 7_001);
+    clock.set(7_002);
+    expect(await keeper.read('p1', 'all', 5_000, clock.now, async () => 8)).toBe(8);
+    release(6);
+    expect(await before).toBe(6);
+    // a failed count fails its waiters too, and the next read counts again
+    clock.set(20_000);
+    const failing = keeper.read('p1', 'all', 5_000, clock.now, () => Promise.reject(new Error('gone')));
+    const waiting = keeper.read('p1', 'all', 5_000, clock.now, async () => 1);
+    await expect(failing).rejects.toThrow('gone');
+    await expect(waiting).rejects.toThrow('gone');
+    expect(await keeper.read('p1', 'all', 5_000, clock.now, async () => 2)).toBe(2);
+  });
 });
